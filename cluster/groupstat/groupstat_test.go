@@ -1,0 +1,150 @@
+package groupstat
+
+import (
+	"encoding/json"
+	"errors"
+	"fmt"
+	"math"
+	"os"
+	"path/filepath"
+	"strings"
+	"testing"
+)
+
+type kwGolden struct {
+	Cases []struct {
+		Groups [][]float64
+		H, P   float64
+	}
+	Cliff []struct {
+		X, Y     []float64
+		U, Delta float64
+	}
+}
+
+func readKW(t *testing.T) kwGolden {
+	var g kwGolden
+	b, err := os.ReadFile(filepath.Join("..", "..", "testdata", "cluster", "kruskal.json"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := json.Unmarshal(b, &g); err != nil {
+		t.Fatal(err)
+	}
+	return g
+}
+
+func near(got, want, tol float64) bool { return math.Abs(got-want) <= tol*max(1e-300, math.Abs(want)) }
+
+func TestKruskalWallisGolden(t *testing.T) {
+	// scipy.stats.kruskal 1.10.1 via testdata/cluster/make_golden.py: iris features by species and
+	// tied integers. H is a sum of rank ratios (1e-12 relative); p is a χ² tail from two different
+	// incomplete-gamma implementations (cephes vs gonum), 1e-9 relative.
+	for i, c := range readKW(t).Cases {
+		r, err := KruskalWallis(c.Groups)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if !near(r.H, c.H, 1e-12) {
+			t.Errorf("case %d: H %.15g, scipy %.15g (tol 1e-12)", i, r.H, c.H)
+		}
+		if !near(r.P, c.P, 1e-9) {
+			t.Errorf("case %d: p %.15g, scipy %.15g (tol 1e-9)", i, r.P, c.P)
+		}
+		if want := c.H / float64(r.N-1); !near(r.Epsilon2, want, 1e-12) {
+			t.Errorf("case %d: ε² %.15g, H/(n−1) from scipy's H %.15g", i, r.Epsilon2, want)
+		}
+	}
+}
+
+func TestCliffsDeltaGolden(t *testing.T) {
+	// δ = 2U/(mn) − 1 with U from scipy.stats.mannwhitneyu 1.10.1 (ties count one half): exact counts.
+	for i, c := range readKW(t).Cliff {
+		d, err := CliffsDelta(c.X, c.Y)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if math.Abs(d-c.Delta) > 1e-12 {
+			t.Errorf("case %d: δ %.15g, from scipy's U %.15g", i, d, c.Delta)
+		}
+	}
+}
+
+func TestBenjaminiHochbergPublished(t *testing.T) {
+	// The fifteen p-values of Benjamini & Hochberg (1995), section 4 (from memory of the paper):
+	// at q = 0.05 the step-up procedure rejects the four smallest, where Bonferroni rejects three.
+	p := []float64{0.0001, 0.0004, 0.0019, 0.0095, 0.0201, 0.0278, 0.0298, 0.0344, 0.0459, 0.3240, 0.4262, 0.5719, 0.6528, 0.7590, 1.000}
+	q, err := BenjaminiHochberg(p)
+	if err != nil {
+		t.Fatal(err)
+	}
+	rejected := 0
+	for _, v := range q {
+		if v <= 0.05 {
+			rejected++
+		}
+	}
+	if rejected != 4 {
+		t.Errorf("rejected %d at q = 0.05, the paper rejects 4; q = %v", rejected, q)
+	}
+	// q₍₄₎ = 15·0.0095/4 = 0.035625 by the definition; q₍₅₎ = min over j ≥ 5 of 15·p₍ⱼ₎/j = 15·0.0201/5 = 0.0603.
+	for _, c := range []struct {
+		i    int
+		want float64
+	}{{3, 0.035625}, {4, 0.0603}, {14, 1}} {
+		if math.Abs(q[c.i]-c.want) > 1e-12 {
+			t.Errorf("q[%d] = %.15g, want %.15g", c.i, q[c.i], c.want)
+		}
+	}
+}
+
+func TestErrors(t *testing.T) {
+	for _, c := range []struct {
+		name string
+		err  error
+		want error
+		fix  string
+	}{
+		{"one group", func() error { _, e := KruskalWallis([][]float64{{1, 2}, {}}); return e }(), ErrInput, "at least two"},
+		{"constant", func() error { _, e := KruskalWallis([][]float64{{1, 1}, {1}}); return e }(), ErrInput, "constant"},
+		{"NaN", func() error { _, e := KruskalWallis([][]float64{{1, math.NaN()}, {1}}); return e }(), ErrNaN, "drop missing"},
+		{"p above 1", func() error { _, e := BenjaminiHochberg([]float64{0.5, 1.5}); return e }(), ErrInput, "[0, 1]"},
+		{"empty group", func() error { _, e := CliffsDelta(nil, []float64{1}); return e }(), ErrInput, "both need"},
+	} {
+		t.Run(c.name, func(t *testing.T) {
+			if !errors.Is(c.err, c.want) || !strings.Contains(c.err.Error(), c.fix) {
+				t.Errorf("got %v, want %v naming %q", c.err, c.want, c.fix)
+			}
+		})
+	}
+}
+
+func TestCliffsDeltaProperties(t *testing.T) {
+	x := []float64{1, 2, 2, 5, 9}
+	y := []float64{2, 3, 3, 4}
+	d, _ := CliffsDelta(x, y)
+	e, _ := CliffsDelta(y, x)
+	if d != -e {
+		t.Errorf("δ(x, y) = %v, δ(y, x) = %v; they must be opposite", d, e)
+	}
+	// against a direct count over the 20 pairs
+	var more, less int
+	for _, a := range x {
+		for _, b := range y {
+			if a > b {
+				more++
+			} else if a < b {
+				less++
+			}
+		}
+	}
+	if want := float64(more-less) / 20; d != want {
+		t.Errorf("δ = %v, pairwise count gives %v", d, want)
+	}
+}
+
+func ExampleKruskalWallis() {
+	r, _ := KruskalWallis([][]float64{{2.1, 3.4, 1.9, 2.8}, {4.5, 5.1, 3.9, 4.8}, {2.5, 3.0, 2.2, 3.6}})
+	fmt.Printf("H = %.4f, df = %d, p = %.4f, ε² = %.4f\n", r.H, r.DF, r.P, r.Epsilon2)
+	// Output: H = 7.7308, df = 2, p = 0.0210, ε² = 0.7028
+}
