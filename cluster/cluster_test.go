@@ -225,3 +225,26 @@ func TestHierarchicalOrderAndCancel(t *testing.T) {
 		t.Errorf("cancelled k-means gave %v", err)
 	}
 }
+
+func TestWardPointsMatchesMatrix(t *testing.T) {
+	for _, spread := range []float64{0.3, 1, 3} {
+		x, _ := blobs(11, 400, 3, 4, spread)
+		d, _ := Pairwise(x, Euclidean, 0, 0)
+		a, err := Hierarchical(context.Background(), d, HierarchicalOptions{Linkage: Ward})
+		if err != nil {
+			t.Fatal(err)
+		}
+		for _, w := range []int{1, 2} {
+			b, err := WardPoints(context.Background(), x, WardOptions{Workers: w})
+			if err != nil {
+				t.Fatal(err)
+			}
+			for s := range a.Merges {
+				// Lance–Williams on squared distances vs the centroid form: rounding only, 1e-9 relative.
+				if !near(a.Merges[s].Height, b.Merges[s].Height, 1e-9) || a.Merges[s].Size != b.Merges[s].Size {
+					t.Fatalf("spread %v, workers %d, merge %d: %+v, matrix form %+v", spread, w, s, b.Merges[s], a.Merges[s])
+				}
+			}
+		}
+	}
+}

@@ -167,34 +167,56 @@ func (km *kmRun) seedPlusPlus(rng *rand.Rand) {
 	first := rng.IntN(n)
 	copy(km.center(0), km.row(first))
 	closest := make([]float64, n)
-	var pot float64
-	for i := 0; i < n; i++ {
-		closest[i] = sqDist(km.row(i), km.center(0))
-		pot += closest[i]
+	for i := range closest {
+		closest[i] = math.Inf(1)
 	}
+	pot := lowerClosest(closest, km.x, km.d, km.center(0))
 	trials := 2 + int(math.Log(float64(k)))
-	cand := make([]float64, n)
-	bestCand := make([]float64, n)
+	cands := make([]float64, trials*km.d)
+	pots := make([]float64, trials)
 	for c := 1; c < k; c++ {
-		bestIdx, bestPot := -1, math.Inf(1)
-		for t := 0; t < trials; t++ {
-			idx := sampleD2(rng, closest, pot)
-			var p float64
-			ci := km.row(idx)
-			for i := 0; i < n; i++ {
-				v := min(closest[i], sqDist(km.row(i), ci))
-				cand[i] = v
-				p += v
-			}
-			if p < bestPot {
-				bestPot, bestIdx = p, idx
-				cand, bestCand = bestCand, cand
+		idx := make([]int, trials)
+		for t := range idx {
+			idx[t] = sampleD2(rng, closest, pot)
+			copy(cands[t*km.d:(t+1)*km.d], km.row(idx[t]))
+		}
+		// One sweep over the rows scores every trial (the data is read once, not once per trial).
+		potentials(pots, closest, km.x, km.d, cands)
+		best := 0
+		for t := range pots {
+			if pots[t] < pots[best] {
+				best = t
 			}
 		}
-		copy(km.center(c), km.row(bestIdx))
-		closest, bestCand = bestCand, closest
-		pot = bestPot
+		copy(km.center(c), km.row(idx[best]))
+		pot = lowerClosest(closest, km.x, km.d, km.center(c))
 	}
+}
+
+// potentials sets pots[t] = Σᵢ min(closest[i], ‖xᵢ − cₜ‖²) for each row-major candidate cₜ.
+func potentials(pots, closest, x []float64, d int, cands []float64) {
+	for t := range pots {
+		pots[t] = 0
+	}
+	dist := make([]float64, len(pots))
+	for i, off := 0, 0; i < len(closest); i, off = i+1, off+d {
+		sqDistsTo(dist, x[off:off+d], cands, d)
+		ci := closest[i]
+		for t, v := range dist {
+			pots[t] += min(ci, v)
+		}
+	}
+}
+
+// lowerClosest lowers closest[i] to ‖xᵢ − c‖² where that is smaller and returns the new sum.
+func lowerClosest(closest, x []float64, d int, c []float64) float64 {
+	var pot float64
+	for i, off := 0, 0; i < len(closest); i, off = i+1, off+d {
+		v := min(closest[i], sqDist(x[off:off+d], c))
+		closest[i] = v
+		pot += v
+	}
+	return pot
 }
 
 // sampleD2 draws a row with probability proportional to its weight; when every weight is zero
@@ -227,20 +249,63 @@ func (km *kmRun) assignAll() {
 }
 
 func (km *kmRun) assignExact(i int) {
-	xi := km.row(i)
+	lab, b1, b2 := nearestTwo(km.row(i), km.centers, km.d)
+	km.labels[i] = lab
+	km.upper[i] = math.Sqrt(b1)
+	km.lower[i] = math.Sqrt(b2)
+}
+
+// nearestTwo returns the index of the closest of the row-major centres to x (ties to the lower
+// index) and the squared distances to the closest and the second closest.
+func nearestTwo(x, centers []float64, d int) (int, float64, float64) {
+	var buf [16]float64
+	var dist []float64
+	if k := len(centers) / d; k <= len(buf) {
+		dist = buf[:k]
+	} else {
+		dist = make([]float64, k)
+	}
+	sqDistsTo(dist, x, centers, d)
 	b1, b2 := math.Inf(1), math.Inf(1)
 	lab := 0
-	for j := 0; j < km.k; j++ {
-		dj := sqDist(xi, km.center(j))
+	for j, dj := range dist {
 		if dj < b1 {
 			b2, b1, lab = b1, dj, j
 		} else if dj < b2 {
 			b2 = dj
 		}
 	}
-	km.labels[i] = lab
-	km.upper[i] = math.Sqrt(b1)
-	km.lower[i] = math.Sqrt(b2)
+	return lab, b1, b2
+}
+
+// sqDistsTo sets dst[j] to the squared distance from x to the j-th of the row-major centres. Four
+// centres are measured together so that their sums run as independent chains: this is the hot
+// loop of every fit, and a single chain of dependent additions would bound it by latency.
+func sqDistsTo(dst, x, centers []float64, d int) {
+	x = x[:d]
+	k := len(dst)
+	j := 0
+	for ; j+4 <= k; j += 4 {
+		c0 := centers[j*d : j*d+d]
+		c1 := centers[(j+1)*d : (j+1)*d+d]
+		c2 := centers[(j+2)*d : (j+2)*d+d]
+		c3 := centers[(j+3)*d : (j+3)*d+d]
+		var s0, s1, s2, s3 float64
+		for t, v := range x {
+			a0 := v - c0[t]
+			a1 := v - c1[t]
+			a2 := v - c2[t]
+			a3 := v - c3[t]
+			s0 += a0 * a0
+			s1 += a1 * a1
+			s2 += a2 * a2
+			s3 += a3 * a3
+		}
+		dst[j], dst[j+1], dst[j+2], dst[j+3] = s0, s1, s2, s3
+	}
+	for ; j < k; j++ {
+		dst[j] = sqDist(x, centers[j*d:(j+1)*d])
+	}
 }
 
 // lloyd iterates assignment and update with Hamerly (2010) bounds until labels are stable, the
@@ -250,6 +315,7 @@ func (km *kmRun) lloyd(ctx context.Context, maxIter int, tol float64) error {
 	half := make([]float64, k) // s(j): half the distance from centre j to its nearest other centre
 	move := make([]float64, k)
 	old := make([]float64, k*d)
+	converged := false
 	km.assignAll()
 	for it := 1; it <= maxIter; it++ {
 		if it%4 == 0 && ctx.Err() != nil {
@@ -283,29 +349,15 @@ func (km *kmRun) lloyd(ctx context.Context, maxIter int, tol float64) error {
 		if shift <= tol {
 			break
 		}
-		km.halfDistances(half)
-		changed := 0
-		for i := 0; i < n; i++ {
-			a := km.labels[i]
-			m := max(half[a], km.lower[i])
-			if km.upper[i] <= m {
-				continue
-			}
-			km.upper[i] = math.Sqrt(sqDist(km.row(i), km.center(a))) // tighten the upper bound
-			if km.upper[i] <= m {
-				continue
-			}
-			km.assignExact(i)
-			if km.labels[i] != a {
-				changed++
-			}
-		}
-		if changed == 0 {
+		if km.reassign(half) == 0 {
+			converged = true // labels are exact for these centres, which are their means
 			break
 		}
 	}
-	// Final E-step against the final centres, so that labels and inertia agree exactly.
-	km.assignAll()
+	if !converged {
+		// Final E-step against the final centres, so that labels and inertia agree exactly.
+		km.reassign(half)
+	}
 	km.inertia = 0
 	for i := range km.counts {
 		km.counts[i] = 0
@@ -316,6 +368,29 @@ func (km *kmRun) lloyd(ctx context.Context, maxIter int, tol float64) error {
 		km.inertia += sqDist(km.row(i), km.center(km.labels[i]))
 	}
 	return nil
+}
+
+// reassign gives each row its nearest centre, skipping rows whose Hamerly bounds prove their
+// label unchanged (Hamerly 2010, Algorithm 2, lines 4–12); it returns how many labels changed.
+func (km *kmRun) reassign(half []float64) int {
+	km.halfDistances(half)
+	changed := 0
+	for i := 0; i < km.n; i++ {
+		a := km.labels[i]
+		m := max(half[a], km.lower[i])
+		if km.upper[i] <= m {
+			continue
+		}
+		km.upper[i] = math.Sqrt(sqDist(km.row(i), km.center(a))) // tighten the upper bound
+		if km.upper[i] <= m {
+			continue
+		}
+		km.assignExact(i)
+		if km.labels[i] != a {
+			changed++
+		}
+	}
+	return changed
 }
 
 // update moves each centre to the mean of its rows; an empty cluster takes the row farthest from
@@ -412,12 +487,6 @@ func Assign(centroids, x mat.Matrix) (labels []int, dist []float64, err error) {
 // Nearest returns the index of the row of the k×len(x) row-major centroids closest to x (ties to
 // the lower index) and the Euclidean distance to it. It does not check its arguments.
 func Nearest(centroids []float64, k int, x []float64) (int, float64) {
-	d := len(x)
-	best, bestD := 0, math.Inf(1)
-	for j := 0; j < k; j++ {
-		if dd := sqDist(x, centroids[j*d:(j+1)*d]); dd < bestD {
-			best, bestD = j, dd
-		}
-	}
-	return best, math.Sqrt(bestD)
+	j, d2, _ := nearestTwo(x, centroids[:k*len(x)], len(x))
+	return j, math.Sqrt(d2)
 }
