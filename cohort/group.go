@@ -1,0 +1,537 @@
+package cohort
+
+import (
+	"context"
+	"fmt"
+	"math"
+	"math/rand/v2"
+	"sort"
+
+	"github.com/cohortmix/cohortmix/cluster"
+	"gonum.org/v1/gonum/mat"
+)
+
+// Method is how participants are grouped on their signatures.
+type Method int
+
+const (
+	WardHellinger    Method = iota // Ward linkage on √share (Euclidean there is √2 × the Hellinger distance)
+	PAMAitchison                   // k-medoids on the Aitchison distance (CLR with zero replacement)
+	PAMJensenShannon               // k-medoids on the Jensen–Shannon distance
+	KMeansCLR                      // k-means on the centred log-ratios
+)
+
+var methodNames = map[Method]string{WardHellinger: "ward-hellinger", PAMAitchison: "pam-aitchison", PAMJensenShannon: "pam-js", KMeansCLR: "kmeans-clr"}
+
+func (m Method) String() string { return methodNames[m] }
+
+// ParseMethod reads a grouping method name.
+func ParseMethod(s string) (Method, error) {
+	for m, n := range methodNames {
+		if n == s {
+			return m, nil
+		}
+	}
+	return 0, fmt.Errorf("cohort: grouping method %q: %w; use ward-hellinger, pam-aitchison, pam-js or kmeans-clr", s, ErrBadOption)
+}
+
+// Criterion chooses the number of groups from a range.
+type Criterion int
+
+const (
+	ByGap        Criterion = iota // gap statistic, smallest k with Gap(k) ≥ Gap(k+1) − s(k+1) (Tibshirani et al. 2001)
+	ByStability                   // largest mean bootstrap ARI (Lange et al. 2004)
+	BySilhouette                  // largest mean silhouette (Rousseeuw 1987)
+)
+
+var criterionNames = map[Criterion]string{ByStability: "stability", ByGap: "gap", BySilhouette: "silhouette"}
+
+func (c Criterion) String() string { return criterionNames[c] }
+
+// ParseCriterion reads a criterion name.
+func ParseCriterion(s string) (Criterion, error) {
+	for c, n := range criterionNames {
+		if n == s {
+			return c, nil
+		}
+	}
+	return 0, fmt.Errorf("cohort: criterion %q: %w; use stability, gap or silhouette", s, ErrBadOption)
+}
+
+// GroupOptions sets up GroupSignatures.
+type GroupOptions struct {
+	Method    Method
+	Groups    []int     // candidate numbers of groups, increasing (required)
+	Criterion Criterion // used when Groups has more than one value
+	Bootstrap int       // resamples for stability and references for the gap; 0 means 20
+	Seed      uint64
+	MaxBytes  int64 // memory guard for distance matrices; 0 means 2 GiB
+	Workers   int
+}
+
+// KScore holds every criterion for one number of groups.
+type KScore struct {
+	K          int
+	Silhouette float64
+	Gap, GapSE float64
+	Stability  float64
+}
+
+// Grouping is the frozen grouping of participants.
+type Grouping struct {
+	Method     Method
+	Criterion  Criterion
+	K          int
+	Labels     []int       // group of each participant, 0-based, numbered by size (largest first)
+	Silhouette []float64   // each participant's silhouette in the grouping space
+	Scores     []KScore    // every criterion over the range tried
+	Centroids  [][]float64 // per group, in the grouping space (a medoid for PAM)
+	Distance   []float64   // each participant's distance to its group's centroid
+	Note       string      // what the method did, e.g. a switch for a large cohort
+}
+
+// Embed maps a signature (shares) into the grouping space of the method.
+func Embed(m Method, share []float64) []float64 {
+	out := make([]float64, len(share))
+	switch m {
+	case WardHellinger, PAMJensenShannon:
+		for j, v := range share {
+			out[j] = math.Sqrt(max(0, v))
+		}
+	case PAMAitchison, KMeansCLR:
+		if _, err := cluster.CLR(out, share, cluster.DefaultZeroDelta); err != nil {
+			copy(out, share)
+		}
+	}
+	return out
+}
+
+// SpaceDistance is the distance the method uses between two embedded signatures.
+func SpaceDistance(m Method, a, b []float64) float64 {
+	if m == PAMJensenShannon {
+		p, q := make([]float64, len(a)), make([]float64, len(b))
+		for j := range a {
+			p[j], q[j] = a[j]*a[j], b[j]*b[j]
+		}
+		d, _ := cluster.JensenShannonDistance(p, q)
+		return d
+	}
+	var s float64
+	for j := range a {
+		v := a[j] - b[j]
+		s += v * v
+	}
+	return math.Sqrt(s)
+}
+
+// GroupSignatures groups participants by their shares (rows of shares, each summing to 1).
+func GroupSignatures(ctx context.Context, shares [][]float64, opts GroupOptions) (*Grouping, error) {
+	n := len(shares)
+	if len(opts.Groups) == 0 {
+		return nil, fmt.Errorf("cohort: no number of groups given: %w; pass --groups 3 or a range such as 2-8", ErrBadOption)
+	}
+	for i, k := range opts.Groups {
+		if k < 2 || (i > 0 && k <= opts.Groups[i-1]) {
+			return nil, fmt.Errorf("cohort: groups %v: %w; give increasing numbers ≥ 2", opts.Groups, ErrBadOption)
+		}
+	}
+	if maxK := opts.Groups[len(opts.Groups)-1]; maxK > n-1 {
+		return nil, fmt.Errorf("cohort: %d groups asked for but %d participants are grouped: %w; lower --groups to at most %d", maxK, n, ErrTooFew, max(2, n-1))
+	}
+	if opts.Bootstrap == 0 {
+		opts.Bootstrap = 20
+	}
+	if opts.MaxBytes == 0 {
+		opts.MaxBytes = 2 << 30
+	}
+	g := &Grouping{Method: opts.Method, Criterion: opts.Criterion}
+	d := len(shares[0])
+	x := mat.NewDense(n, d, nil)
+	for i, s := range shares {
+		x.SetRow(i, Embed(opts.Method, s))
+	}
+	// Distance matrix for PAM and the silhouette, behind the memory guard.
+	var dist *cluster.Condensed
+	needDist := opts.Method == PAMAitchison || opts.Method == PAMJensenShannon
+	if cluster.CondensedBytes(n) <= opts.MaxBytes {
+		metric := cluster.Euclidean
+		if opts.Method == PAMJensenShannon {
+			metric = cluster.JensenShannon
+		}
+		src := x
+		if metric == cluster.JensenShannon {
+			src = mat.NewDense(n, d, nil)
+			for i, s := range shares {
+				src.SetRow(i, s)
+			}
+		}
+		var err error
+		if dist, err = cluster.Pairwise(src, metric, opts.MaxBytes, opts.Workers); err != nil {
+			return nil, err
+		}
+	} else if needDist {
+		return nil, fmt.Errorf("cohort: %d participants need %d MiB of distances for PAM: %w; use --method kmeans-clr or ward-hellinger for a cohort this large", n, cluster.CondensedBytes(n)>>20, cluster.ErrTooLarge)
+	}
+	cut, err := newCutter(ctx, opts.Method, x, dist, opts)
+	if err != nil {
+		return nil, err
+	}
+	labelsByK := map[int][]int{}
+	for _, k := range opts.Groups {
+		lab, err := cut(k)
+		if err != nil {
+			return nil, err
+		}
+		labelsByK[k] = lab
+		sc := KScore{K: k}
+		sil, err := silhouetteOf(x, dist, lab, opts)
+		if err != nil {
+			return nil, err
+		}
+		sc.Silhouette = sil.Mean
+		g.Scores = append(g.Scores, sc)
+	}
+	if len(opts.Groups) > 1 {
+		if err := scoreGap(ctx, x, g.Scores, labelsByK, opts); err != nil {
+			return nil, err
+		}
+		if err := scoreStability(ctx, x, dist, g.Scores, labelsByK, opts); err != nil {
+			return nil, err
+		}
+		g.K = choose(g.Scores, opts.Criterion)
+	} else {
+		g.K = opts.Groups[0]
+	}
+	g.Labels = renumberBySize(labelsByK[g.K], g.K)
+	sil, err := silhouetteOf(x, dist, g.Labels, opts)
+	if err != nil {
+		return nil, err
+	}
+	g.Silhouette = expand(sil, n)
+	g.Centroids = centroids(opts.Method, x, dist, g.Labels, g.K)
+	g.Distance = make([]float64, n)
+	for i := 0; i < n; i++ {
+		g.Distance[i] = SpaceDistance(opts.Method, x.RawRowView(i), g.Centroids[g.Labels[i]])
+	}
+	if dist == nil {
+		g.Note = fmt.Sprintf("the silhouette was computed on a sample of 5,000 participants: a full one on %d would need %d MiB", n, cluster.CondensedBytes(n)>>20)
+	}
+	return g, nil
+}
+
+func expand(s *cluster.SilhouetteResult, n int) []float64 {
+	out := make([]float64, n)
+	for i := range out {
+		out[i] = math.NaN()
+	}
+	for r, i := range s.Rows {
+		out[i] = s.Values[r]
+	}
+	return out
+}
+
+func silhouetteOf(x *mat.Dense, dist *cluster.Condensed, lab []int, opts GroupOptions) (*cluster.SilhouetteResult, error) {
+	if dist != nil {
+		return cluster.SilhouetteCondensed(dist, lab, cluster.SilhouetteOptions{Workers: opts.Workers})
+	}
+	return cluster.Silhouette(x, lab, cluster.SilhouetteOptions{SampleSize: 5000, Seed: opts.Seed, Workers: opts.Workers})
+}
+
+// newCutter returns a function giving labels for k groups with the method; Ward builds its tree once.
+func newCutter(ctx context.Context, m Method, x *mat.Dense, dist *cluster.Condensed, opts GroupOptions) (func(k int) ([]int, error), error) {
+	switch m {
+	case WardHellinger:
+		tree, err := cluster.WardPoints(ctx, x, cluster.WardOptions{Workers: opts.Workers})
+		if err != nil {
+			return nil, err
+		}
+		return tree.Cut, nil
+	case PAMAitchison, PAMJensenShannon:
+		return func(k int) ([]int, error) {
+			r, err := cluster.PAM(ctx, dist, cluster.PAMOptions{K: k})
+			if err != nil {
+				return nil, err
+			}
+			return r.Labels, nil
+		}, nil
+	default:
+		return func(k int) ([]int, error) {
+			r, err := cluster.KMeans(ctx, x, cluster.KMeansOptions{K: k, Seed: opts.Seed + uint64(k), Workers: opts.Workers})
+			if err != nil {
+				return nil, err
+			}
+			return r.Labels, nil
+		}, nil
+	}
+}
+
+// scoreGap fills Gap and GapSE: log W_k of the data against B reference sets drawn uniformly in
+// the box of the data's principal axes (Tibshirani, Walther & Hastie 2001, §3, reference (b)),
+// each grouped by the Euclidean form of the method (Ward, or k-means for the others).
+func scoreGap(ctx context.Context, x *mat.Dense, scores []KScore, labelsByK map[int][]int, opts GroupOptions) error {
+	n, d := x.Dims()
+	ks := make([]int, len(scores))
+	for i, s := range scores {
+		ks[i] = s.K
+	}
+	pca, err := cluster.FitPCA(x, cluster.PCAOptions{})
+	if err != nil {
+		return fmt.Errorf("cohort: gap statistic: %w", err)
+	}
+	z, _ := pca.Transform(x)
+	_, p := z.Dims()
+	lo, hi := make([]float64, p), make([]float64, p)
+	for c := 0; c < p; c++ {
+		lo[c], hi[c] = math.Inf(1), math.Inf(-1)
+		for i := 0; i < n; i++ {
+			lo[c] = min(lo[c], z.At(i, c))
+			hi[c] = max(hi[c], z.At(i, c))
+		}
+	}
+	logW := make([][]float64, len(ks)) // per k, per reference
+	for b := 0; b < opts.Bootstrap; b++ {
+		if ctx.Err() != nil {
+			return ctx.Err()
+		}
+		rng := rand.New(rand.NewPCG(opts.Seed^0x6a9, uint64(b)))
+		ref := mat.NewDense(n, d, nil)
+		row := make([]float64, p)
+		for i := 0; i < n; i++ {
+			for c := 0; c < p; c++ {
+				row[c] = lo[c] + rng.Float64()*(hi[c]-lo[c])
+			}
+			// back to the original axes: z·Vᵀ + mean
+			for j := 0; j < d; j++ {
+				v := pca.Mean[j]
+				for c := 0; c < p; c++ {
+					v += row[c] * pca.Components.At(j, c)
+				}
+				ref.Set(i, j, v)
+			}
+		}
+		m := opts.Method
+		if m != WardHellinger {
+			m = KMeansCLR
+		}
+		cut, err := newCutter(ctx, m, ref, nil, GroupOptions{Seed: opts.Seed + uint64(b), Workers: opts.Workers})
+		if err != nil {
+			return err
+		}
+		for i, k := range ks {
+			lab, err := cut(k)
+			if err != nil {
+				return err
+			}
+			logW[i] = append(logW[i], math.Log(withinSS(ref, lab, k)))
+		}
+	}
+	B := float64(opts.Bootstrap)
+	for i, k := range ks {
+		var mean, sd float64
+		for _, v := range logW[i] {
+			mean += v
+		}
+		mean /= B
+		for _, v := range logW[i] {
+			sd += (v - mean) * (v - mean)
+		}
+		sd = math.Sqrt(sd / B)
+		scores[i].Gap = mean - math.Log(withinSS(x, labelsByK[k], k))
+		scores[i].GapSE = sd * math.Sqrt(1+1/B)
+	}
+	return nil
+}
+
+// withinSS is W_k for squared Euclidean distance: Σ_r (1/2n_r) Σ_{i,j∈r} d²ᵢⱼ = Σ ‖xᵢ − c_r‖².
+func withinSS(x *mat.Dense, lab []int, k int) float64 {
+	n, d := x.Dims()
+	c := make([]float64, k*d)
+	cnt := make([]float64, k)
+	for i := 0; i < n; i++ {
+		cnt[lab[i]]++
+		for j := 0; j < d; j++ {
+			c[lab[i]*d+j] += x.At(i, j)
+		}
+	}
+	for r := 0; r < k; r++ {
+		for j := 0; j < d; j++ {
+			if cnt[r] > 0 {
+				c[r*d+j] /= cnt[r]
+			}
+		}
+	}
+	var w float64
+	for i := 0; i < n; i++ {
+		for j := 0; j < d; j++ {
+			v := x.At(i, j) - c[lab[i]*d+j]
+			w += v * v
+		}
+	}
+	return max(w, 1e-300)
+}
+
+// scoreStability fills Stability: for B bootstrap resamples, the grouping of the resample is
+// compared by ARI with the grouping of all participants on the resampled ones (Lange et al. 2004).
+func scoreStability(ctx context.Context, x *mat.Dense, dist *cluster.Condensed, scores []KScore, labelsByK map[int][]int, opts GroupOptions) error {
+	n, d := x.Dims()
+	sum := make([]float64, len(scores))
+	for b := 0; b < opts.Bootstrap; b++ {
+		if ctx.Err() != nil {
+			return ctx.Err()
+		}
+		rng := rand.New(rand.NewPCG(opts.Seed^0xb007, uint64(b)))
+		seen := make([]bool, n)
+		for i := 0; i < n; i++ {
+			seen[rng.IntN(n)] = true
+		}
+		var idx []int
+		for i, s := range seen {
+			if s {
+				idx = append(idx, i)
+			}
+		}
+		sub := mat.NewDense(len(idx), d, nil)
+		for r, i := range idx {
+			sub.SetRow(r, x.RawRowView(i))
+		}
+		var subDist *cluster.Condensed
+		if dist != nil && (opts.Method == PAMAitchison || opts.Method == PAMJensenShannon) {
+			subDist = &cluster.Condensed{N: len(idx), D: make([]float64, len(idx)*(len(idx)-1)/2)}
+			for a := 0; a < len(idx); a++ {
+				for c := a + 1; c < len(idx); c++ {
+					subDist.D[subDist.Index(a, c)] = dist.At(idx[a], idx[c])
+				}
+			}
+		}
+		cut, err := newCutter(ctx, opts.Method, sub, subDist, GroupOptions{Seed: opts.Seed + uint64(b), Workers: opts.Workers})
+		if err != nil {
+			return err
+		}
+		for i, s := range scores {
+			if s.K > len(idx)-1 {
+				continue
+			}
+			lab, err := cut(s.K)
+			if err != nil {
+				return err
+			}
+			full := make([]int, len(idx))
+			for r, j := range idx {
+				full[r] = labelsByK[s.K][j]
+			}
+			ari, err := cluster.AdjustedRand(lab, full)
+			if err != nil {
+				return err
+			}
+			sum[i] += ari
+		}
+	}
+	for i := range scores {
+		scores[i].Stability = sum[i] / float64(opts.Bootstrap)
+	}
+	return nil
+}
+
+// choose applies the criterion to the scores (ties to the smaller k).
+func choose(scores []KScore, c Criterion) int {
+	best := 0
+	switch c {
+	case ByGap:
+		for i := 0; i+1 < len(scores); i++ {
+			if scores[i].Gap >= scores[i+1].Gap-scores[i+1].GapSE {
+				return scores[i].K
+			}
+		}
+		return scores[len(scores)-1].K
+	case BySilhouette:
+		for i, s := range scores {
+			if s.Silhouette > scores[best].Silhouette {
+				best = i
+			}
+		}
+	case ByStability:
+		for i, s := range scores {
+			if s.Stability > scores[best].Stability+1e-12 {
+				best = i
+			}
+		}
+	}
+	return scores[best].K
+}
+
+// renumberBySize renames groups 0…k−1 from the largest to the smallest (ties to the group whose
+// first member comes first), so that names do not depend on the algorithm's numbering.
+func renumberBySize(lab []int, k int) []int {
+	size := make([]int, k)
+	first := make([]int, k)
+	for i := range first {
+		first[i] = math.MaxInt
+	}
+	for i, l := range lab {
+		size[l]++
+		first[l] = min(first[l], i)
+	}
+	order := make([]int, k)
+	for i := range order {
+		order[i] = i
+	}
+	sort.SliceStable(order, func(a, b int) bool {
+		if size[order[a]] != size[order[b]] {
+			return size[order[a]] > size[order[b]]
+		}
+		return first[order[a]] < first[order[b]]
+	})
+	rename := make([]int, k)
+	for to, from := range order {
+		rename[from] = to
+	}
+	out := make([]int, len(lab))
+	for i, l := range lab {
+		out[i] = rename[l]
+	}
+	return out
+}
+
+// centroids returns each group's centre in the grouping space: the mean, or for PAM the member
+// with the least total distance to the others (the medoid).
+func centroids(m Method, x *mat.Dense, dist *cluster.Condensed, lab []int, k int) [][]float64 {
+	n, d := x.Dims()
+	out := make([][]float64, k)
+	if (m == PAMAitchison || m == PAMJensenShannon) && dist != nil {
+		for g := 0; g < k; g++ {
+			best, bestSum := -1, math.Inf(1)
+			for i := 0; i < n; i++ {
+				if lab[i] != g {
+					continue
+				}
+				var s float64
+				for j := 0; j < n; j++ {
+					if lab[j] == g {
+						s += dist.At(i, j)
+					}
+				}
+				if s < bestSum {
+					best, bestSum = i, s
+				}
+			}
+			out[g] = append([]float64(nil), x.RawRowView(best)...)
+		}
+		return out
+	}
+	cnt := make([]float64, k)
+	for g := range out {
+		out[g] = make([]float64, d)
+	}
+	for i := 0; i < n; i++ {
+		cnt[lab[i]]++
+		for j, v := range x.RawRowView(i) {
+			out[lab[i]][j] += v
+		}
+	}
+	for g := range out {
+		for j := range out[g] {
+			out[g][j] /= cnt[g]
+		}
+	}
+	return out
+}

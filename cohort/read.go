@@ -1,0 +1,794 @@
+package cohort
+
+import (
+	"bufio"
+	"bytes"
+	"compress/gzip"
+	"crypto/sha256"
+	"encoding/csv"
+	"encoding/hex"
+	"errors"
+	"fmt"
+	"hash"
+	"io"
+	"math"
+	"os"
+	"path"
+	"slices"
+	"sort"
+	"strconv"
+	"strings"
+	"time"
+	"unicode/utf8"
+)
+
+// Missing chooses what happens to a window with an empty, NA or NaN feature cell.
+type Missing int
+
+const (
+	DropWindow   Missing = iota // the window is left out and counted
+	ImputeMedian                // the cell takes the participant's median of that feature, and is counted
+)
+
+func (m Missing) String() string {
+	if m == ImputeMedian {
+		return "impute participant median"
+	}
+	return "drop window"
+}
+
+// ReadOptions names the column roles. Zero values take the documented defaults.
+type ReadOptions struct {
+	ID         string   // participant id column; "" means "participant"
+	Order      string   // window order column (integers or ISO-8601 times); "" means "window"; "-" means file order
+	Wave       string   // optional visit column; a participant's waves are separate units
+	Label      string   // optional known activity label, used only for validation tables
+	Features   []string // name patterns (path.Match, e.g. "vm_*"); empty means every other numeric column
+	Missing    Missing
+	MinWindows int // participants with fewer usable windows are excluded; 0 means 20
+}
+
+func (o ReadOptions) withDefaults() ReadOptions {
+	if o.ID == "" {
+		o.ID = "participant"
+	}
+	if o.Order == "" {
+		o.Order = "window"
+	}
+	if o.MinWindows == 0 {
+		o.MinWindows = 20
+	}
+	return o
+}
+
+// Unit is one participant, or one wave of a participant when a wave column is given.
+type Unit struct {
+	ID, Wave string
+	X        []float64 // windows × features, row-major, in window order
+	Order    []int64   // window order key (an integer, or Unix nanoseconds for times)
+	Labels   []string  // known activity label per window, when a label column is given
+	Files    []string  // the files its windows came from
+	Dropped  int       // windows dropped for missing cells
+	Imputed  int       // cells imputed
+	Sorted   bool      // its windows were not in order in the input and were sorted
+}
+
+// Windows is the number of usable windows.
+func (u *Unit) Windows(d int) int { return len(u.X) / d }
+
+// Exclusion is a unit left out of the analysis, with why.
+type Exclusion struct {
+	ID, Wave string
+	Windows  int
+	Reason   string
+}
+
+// Note is a column or feature that was not used, with why.
+type Note struct {
+	Name, Reason string
+}
+
+// Quality accounts for every window and participant that came in.
+type Quality struct {
+	UnitsIn, WindowsIn int
+	WindowsDropped     int // for missing cells, in units that were kept
+	WindowsExcluded    int // windows of excluded units
+	CellsImputed       int
+	Excluded           []Exclusion
+	DroppedFeatures    []Note
+	IgnoredColumns     []Note
+	Notes              []string // policies applied: sorted windows, merged files, …
+}
+
+// FileInfo records an input file for the settings sheet.
+type FileInfo struct {
+	Path   string
+	SHA256 string
+	Bytes  int64
+	Rows   int
+}
+
+// Table is what the reader returns: the units with their windows and the accounting.
+type Table struct {
+	Features  []string
+	Units     []*Unit
+	Quality   Quality
+	Files     []FileInfo
+	OrderKind string // "integer", "time" or "file order"
+	HasLabels bool
+}
+
+// Read reads one or more CSV/TSV files (gzip by content), each with a header row, into units.
+// The delimiter is detected among comma, semicolon and tab; semicolon files may use a decimal
+// comma. "-" reads standard input.
+func Read(paths []string, opts ReadOptions) (*Table, error) {
+	opts = opts.withDefaults()
+	if len(paths) == 0 {
+		return nil, &InputError{Msg: "no input files; name at least one CSV or TSV file", Err: ErrOpen}
+	}
+	r := &reader{opts: opts, byKey: map[string]*rawUnit{}}
+	for _, p := range paths {
+		if err := r.readFile(p); err != nil {
+			return nil, err
+		}
+	}
+	return r.finish()
+}
+
+type rawUnit struct {
+	id, wave string
+	x        []float64
+	order    []int64
+	line     []int32
+	file     []int16
+	labels   []string
+	files    []string
+	lastFile string
+}
+
+type reader struct {
+	opts      ReadOptions
+	features  []string // decided by the first file
+	firstFile string
+	orderKind string
+	orderAt   string // where the order kind was decided, for the mixed-order message
+	hasLabels bool
+	byKey     map[string]*rawUnit
+	units     []*rawUnit
+	files     []FileInfo
+	ignored   []Note
+	rows      int
+}
+
+// hashingFile is the input after BOM removal and decompression, with a hash of the raw bytes.
+func openInput(p string) (io.Reader, func() (string, int64), func() error, error) {
+	var f *os.File
+	if p == "-" {
+		f = os.Stdin
+	} else {
+		st, err := os.Stat(p)
+		if err != nil {
+			return nil, nil, nil, &InputError{File: p, Msg: "cannot open: " + strings.TrimPrefix(err.Error(), "stat "+p+": ") + "; check the path", Err: ErrOpen}
+		}
+		if st.IsDir() {
+			return nil, nil, nil, &InputError{File: p, Msg: "is a directory; name the table files inside it", Err: ErrOpen}
+		}
+		if f, err = os.Open(p); err != nil {
+			return nil, nil, nil, &InputError{File: p, Msg: "cannot open: " + err.Error(), Err: ErrOpen}
+		}
+	}
+	h := sha256.New()
+	cnt := &countWriter{h: h}
+	raw := bufio.NewReaderSize(io.TeeReader(f, cnt), 1<<20)
+	var in io.Reader = raw
+	if head, _ := raw.Peek(2); len(head) == 2 && head[0] == 0x1f && head[1] == 0x8b {
+		gz, err := gzip.NewReader(raw)
+		if err != nil {
+			f.Close()
+			return nil, nil, nil, &InputError{File: p, Msg: "gzip header is damaged: " + err.Error(), Err: ErrNotText}
+		}
+		in = bufio.NewReaderSize(gz, 1<<20)
+	}
+	sum := func() (string, int64) {
+		_, _ = io.Copy(io.Discard, raw) // hash the whole file even if the parse stopped early
+		return hex.EncodeToString(h.Sum(nil)), cnt.n
+	}
+	return in, sum, f.Close, nil
+}
+
+type countWriter struct {
+	h hash.Hash
+	n int64
+}
+
+func (c *countWriter) Write(b []byte) (int, error) {
+	c.n += int64(len(b))
+	return c.h.Write(b)
+}
+
+func (r *reader) readFile(p string) error {
+	in, sum, closeFn, err := openInput(p)
+	if err != nil {
+		return err
+	}
+	defer closeFn()
+	br := bufio.NewReaderSize(in, 1<<16)
+	head, perr := br.Peek(64 << 10)
+	if perr != nil && !errors.Is(perr, io.EOF) && !errors.Is(perr, bufio.ErrBufferFull) {
+		return r.gzipOrIO(p, perr)
+	}
+	if bytes.HasPrefix(head, []byte("\xef\xbb\xbf")) {
+		_, _ = br.Discard(3)
+		head = head[3:]
+	}
+	if len(bytes.TrimSpace(head)) == 0 {
+		return &InputError{File: p, Msg: "file is empty; it needs a header row and at least one window", Err: ErrEmpty}
+	}
+	if bytes.IndexByte(head, 0) >= 0 || !utf8.Valid(trimPartialRune(head)) {
+		return &InputError{File: p, Line: 1, Msg: "is not a text table (binary or not UTF-8); export it as CSV or TSV", Err: ErrNotText}
+	}
+	delim := sniffDelimiter(head)
+	cr := csv.NewReader(br)
+	cr.Comma = delim
+	cr.ReuseRecord = true
+	header, err := cr.Read()
+	if err != nil {
+		return r.csvError(p, err)
+	}
+	header = slices.Clone(header)
+	roles, err := r.assignRoles(p, header)
+	if err != nil {
+		return err
+	}
+	fileIdx := len(r.files)
+	rows := 0
+	var cur *rawUnit
+	curKey := "\x00"
+	var vals []float64
+	for {
+		rec, err := cr.Read()
+		if err == io.EOF {
+			break
+		}
+		if err != nil {
+			return r.csvError(p, err)
+		}
+		if rows == 0 {
+			if r.features == nil {
+				if err := r.classify(p, cr, header, rec, &roles, delim); err != nil {
+					return err
+				}
+			}
+			vals = make([]float64, len(r.features))
+		}
+		rows++
+		line, _ := cr.FieldPos(0)
+		id := strings.TrimSpace(rec[roles.id])
+		if id == "" {
+			l, c := cr.FieldPos(roles.id)
+			return &InputError{File: p, Line: l, Column: c, Field: header[roles.id], Msg: "participant id is empty; fill it in or remove the row", Err: ErrMissingID}
+		}
+		wave := ""
+		if roles.wave >= 0 {
+			wave = strings.TrimSpace(rec[roles.wave])
+		}
+		key := id + "\x00" + wave
+		if key != curKey {
+			cur = r.byKey[key]
+			if cur == nil {
+				cur = &rawUnit{id: id, wave: wave}
+				r.byKey[key] = cur
+				r.units = append(r.units, cur)
+			}
+			curKey = key
+			if cur.lastFile != p {
+				cur.files = append(cur.files, p)
+				cur.lastFile = p
+			}
+		}
+		var ord int64
+		if roles.order >= 0 {
+			ord, err = r.parseOrder(p, cr, roles.order, header[roles.order], rec[roles.order])
+			if err != nil {
+				return err
+			}
+		} else {
+			ord = int64(len(cur.order))
+		}
+		for j, col := range roles.features {
+			v, err := parseNumber(rec[col], delim == ';')
+			if err != nil {
+				l, c := cr.FieldPos(col)
+				msg := numberMsg(rec[col], delim, err)
+				if fileIdx > 0 && rows == 1 && errors.Is(err, ErrNotNumber) {
+					msg += fmt.Sprintf(" (it is numeric in %s)", r.firstFile)
+				}
+				return &InputError{File: p, Line: l, Column: c, Field: header[col], Msg: msg, Err: err}
+			}
+			vals[j] = v
+		}
+		cur.x = append(cur.x, vals...)
+		cur.order = append(cur.order, ord)
+		cur.line = append(cur.line, int32(min(line, math.MaxInt32)))
+		cur.file = append(cur.file, int16(fileIdx))
+		if roles.label >= 0 {
+			cur.labels = append(cur.labels, strings.TrimSpace(rec[roles.label]))
+		}
+	}
+	if rows == 0 {
+		return &InputError{File: p, Line: 1, Msg: "has a header but no windows; each row should be one window", Err: ErrEmpty}
+	}
+	hexsum, n := sum()
+	r.files = append(r.files, FileInfo{Path: p, SHA256: hexsum, Bytes: n, Rows: rows})
+	r.rows += rows
+	return nil
+}
+
+func trimPartialRune(b []byte) []byte {
+	for i := 0; i < utf8.UTFMax && len(b) > 0; i++ {
+		if utf8.Valid(b) {
+			return b
+		}
+		b = b[:len(b)-1]
+	}
+	return b
+}
+
+func (r *reader) gzipOrIO(p string, err error) error {
+	if errors.Is(err, io.ErrUnexpectedEOF) || errors.Is(err, gzip.ErrChecksum) || errors.Is(err, gzip.ErrHeader) {
+		return &InputError{File: p, Msg: "compressed file is cut short or damaged (" + err.Error() + "); copy it again from the source", Err: ErrNotText}
+	}
+	return &InputError{File: p, Msg: "read failed: " + err.Error(), Err: ErrOpen}
+}
+
+func (r *reader) csvError(p string, err error) error {
+	var pe *csv.ParseError
+	if errors.As(err, &pe) {
+		switch {
+		case errors.Is(pe.Err, csv.ErrFieldCount):
+			return &InputError{File: p, Line: pe.StartLine, Msg: "row has a different number of fields than the header; fix the row or quote fields that contain the delimiter", Err: ErrRagged}
+		case errors.Is(pe.Err, csv.ErrQuote), errors.Is(pe.Err, csv.ErrBareQuote):
+			return &InputError{File: p, Line: pe.Line, Column: pe.Column, Msg: "misplaced quote (" + pe.Err.Error() + "); quote whole fields and double quotes inside them", Err: ErrRagged}
+		}
+		if errors.Is(pe.Err, io.ErrUnexpectedEOF) || errors.Is(pe.Err, gzip.ErrChecksum) {
+			return r.gzipOrIO(p, pe.Err)
+		}
+		return &InputError{File: p, Line: pe.Line, Column: pe.Column, Msg: pe.Err.Error(), Err: ErrRagged}
+	}
+	return r.gzipOrIO(p, err)
+}
+
+// sniffDelimiter picks comma, semicolon or tab by their count on the header line (outside quotes).
+func sniffDelimiter(head []byte) rune {
+	line := head
+	if i := bytes.IndexByte(head, '\n'); i >= 0 {
+		line = head[:i]
+	}
+	counts := map[rune]int{}
+	inQuote := false
+	for _, c := range string(line) {
+		switch {
+		case c == '"':
+			inQuote = !inQuote
+		case !inQuote && (c == ',' || c == ';' || c == '\t'):
+			counts[c]++
+		}
+	}
+	best := ','
+	for _, c := range []rune{'\t', ';'} {
+		if counts[c] > counts[best] {
+			best = c
+		}
+	}
+	return best
+}
+
+type roles struct {
+	id, order, wave, label int
+	features               []int // column index of each of r.features
+}
+
+func (r *reader) assignRoles(p string, header []string) (roles, error) {
+	ro := roles{id: -1, order: -1, wave: -1, label: -1}
+	seen := map[string]int{}
+	for i, h := range header {
+		h = strings.TrimSpace(h)
+		header[i] = h
+		if h == "" {
+			return ro, &InputError{File: p, Line: 1, Msg: fmt.Sprintf("column %d has no name; name every column in the header", i+1), Err: ErrNoColumn}
+		}
+		if j, dup := seen[h]; dup {
+			return ro, &InputError{File: p, Line: 1, Field: h, Msg: fmt.Sprintf("column name appears twice (columns %d and %d); rename one", j+1, i+1), Err: ErrDuplicate}
+		}
+		seen[h] = i
+	}
+	find := func(name, flag string, required bool) (int, error) {
+		if i, ok := seen[name]; ok {
+			return i, nil
+		}
+		if !required {
+			return -1, nil
+		}
+		return -1, &InputError{File: p, Line: 1, Msg: fmt.Sprintf("no column %q (the %s); pass --%s with one of: %s", name, flag, flag, strings.Join(header, ", ")), Err: ErrNoColumn}
+	}
+	var err error
+	if ro.id, err = find(r.opts.ID, "id", true); err != nil {
+		return ro, err
+	}
+	if r.opts.Order != "-" {
+		if ro.order, err = find(r.opts.Order, "order", true); err != nil {
+			err.(*InputError).Msg += `, or --order - to keep the file's row order`
+			return ro, err
+		}
+	}
+	if r.opts.Wave != "" {
+		if ro.wave, err = find(r.opts.Wave, "wave", true); err != nil {
+			return ro, err
+		}
+	}
+	if r.opts.Label != "" {
+		if ro.label, err = find(r.opts.Label, "label", true); err != nil {
+			return ro, err
+		}
+		r.hasLabels = true
+	}
+	role := map[int]bool{ro.id: true, ro.order: true, ro.wave: true, ro.label: true}
+	if r.features == nil { // the first file decides the features, on its first row (see classify)
+		r.firstFile = p
+		for i, h := range header {
+			if role[i] {
+				continue
+			}
+			if len(r.opts.Features) > 0 && !matchAny(r.opts.Features, h) {
+				r.ignored = append(r.ignored, Note{h, "not matched by --features"})
+				continue
+			}
+			ro.features = append(ro.features, i)
+		}
+		if len(ro.features) == 0 {
+			return ro, &InputError{File: p, Line: 1, Msg: "no feature columns besides the id, order, wave and label columns; check --features and the delimiter", Err: ErrNoColumn}
+		}
+		return ro, nil
+	}
+	for _, f := range r.features {
+		i, ok := seen[f]
+		if !ok {
+			return ro, &InputError{File: p, Line: 1, Field: f, Msg: fmt.Sprintf("feature is in %s but not in this file; add the column, or leave it out of both with --features", r.firstFile), Err: ErrMismatch}
+		}
+		ro.features = append(ro.features, i)
+	}
+	for i, h := range header {
+		if role[i] || slices.Contains(r.features, h) || r.isIgnored(h) {
+			continue
+		}
+		if len(r.opts.Features) == 0 || matchAny(r.opts.Features, h) {
+			return ro, &InputError{File: p, Line: 1, Field: h, Msg: fmt.Sprintf("column is in this file but not in %s; remove it, or choose the features with --features", r.firstFile), Err: ErrMismatch}
+		}
+	}
+	return ro, nil
+}
+
+func (r *reader) isIgnored(name string) bool {
+	for _, n := range r.ignored {
+		if n.Name == name {
+			return true
+		}
+	}
+	return false
+}
+
+// classify decides, on the first data row of the first file, which candidate columns are
+// features: a column whose first cell is text is left out and noted (with --features, a matched
+// column must be numeric). An empty first cell keeps the column as a feature.
+func (r *reader) classify(p string, cr *csv.Reader, header, rec []string, ro *roles, delim rune) error {
+	var keep []int
+	for _, col := range ro.features {
+		_, err := parseNumber(rec[col], delim == ';')
+		if errors.Is(err, ErrNotNumber) {
+			if len(r.opts.Features) > 0 {
+				l, c := cr.FieldPos(col)
+				return &InputError{File: p, Line: l, Column: c, Field: header[col], Msg: numberMsg(rec[col], delim, err) + "; --features chose this column", Err: err}
+			}
+			r.ignored = append(r.ignored, Note{header[col], fmt.Sprintf("text (first value %q), not a feature", rec[col])})
+			continue
+		}
+		keep = append(keep, col)
+		r.features = append(r.features, header[col])
+	}
+	if len(keep) == 0 {
+		return &InputError{File: p, Line: 2, Msg: "no numeric feature columns; check the delimiter and --features", Err: ErrNoColumn}
+	}
+	ro.features = keep
+	return nil
+}
+
+func matchAny(patterns []string, name string) bool {
+	for _, p := range patterns {
+		if ok, _ := path.Match(p, name); ok {
+			return true
+		}
+	}
+	return false
+}
+
+// maxMagnitude bounds plausible feature values; larger ones are almost always an export or unit error.
+const maxMagnitude = 1e12
+
+// parseNumber reads a feature cell: NaN for a missing cell (empty, NA, NaN, N/A, null); a decimal
+// comma is accepted when decimalComma is set.
+func parseNumber(s string, decimalComma bool) (float64, error) {
+	s = strings.TrimSpace(s)
+	switch s {
+	case "", "NA", "NaN", "nan", "N/A", "na", "null", "NULL":
+		return math.NaN(), nil
+	}
+	if decimalComma && strings.Count(s, ",") == 1 && !strings.Contains(s, ".") {
+		s = strings.Replace(s, ",", ".", 1)
+	}
+	v, err := strconv.ParseFloat(s, 64)
+	if err != nil {
+		var ne *strconv.NumError
+		if errors.As(err, &ne) && errors.Is(ne.Err, strconv.ErrRange) {
+			return 0, ErrNonFinite
+		}
+		return 0, ErrNotNumber
+	}
+	if math.IsInf(v, 0) || math.IsNaN(v) || math.Abs(v) > maxMagnitude {
+		return 0, ErrNonFinite
+	}
+	return v, nil
+}
+
+func numberMsg(cell string, delim rune, err error) string {
+	if errors.Is(err, ErrNonFinite) {
+		return fmt.Sprintf("%q is infinite or larger than %.0e in magnitude; fix the value or leave the cell empty to mark it missing", cell, maxMagnitude)
+	}
+	if delim != ';' && strings.Contains(cell, ",") {
+		return fmt.Sprintf("%q is not a number; use '.' as the decimal separator, or pass a semicolon file", cell)
+	}
+	return fmt.Sprintf("%q is not a number; feature cells hold numbers, or are empty or NA when missing (leave text columns out with --features)", cell)
+}
+
+var timeLayouts = []string{time.RFC3339Nano, "2006-01-02T15:04:05", "2006-01-02 15:04:05", "2006-01-02T15:04", "2006-01-02 15:04"}
+
+func (r *reader) parseOrder(p string, cr *csv.Reader, col int, name, cell string) (int64, error) {
+	s := strings.TrimSpace(cell)
+	l, c := cr.FieldPos(col)
+	kind := "integer"
+	v, err := strconv.ParseInt(s, 10, 64)
+	if err != nil {
+		kind = "time"
+		var t time.Time
+		for _, layout := range timeLayouts {
+			if t, err = time.Parse(layout, s); err == nil {
+				break
+			}
+		}
+		if err != nil {
+			return 0, &InputError{File: p, Line: l, Column: c, Field: name, Msg: fmt.Sprintf("%q is neither an integer nor an ISO-8601 time such as 2026-03-01T08:30:00; fix the cell", cell), Err: ErrOrder}
+		}
+		v = t.UnixNano()
+	}
+	if r.orderKind == "" {
+		r.orderKind = kind
+		r.orderAt = fmt.Sprintf("%s:%d", p, l)
+	} else if r.orderKind != kind {
+		return 0, &InputError{File: p, Line: l, Column: c, Field: name, Msg: fmt.Sprintf("%q is %s but the order column held %s values from %s; use one kind throughout", cell, article(kind), article(r.orderKind), r.orderAt), Err: ErrOrder}
+	}
+	return v, nil
+}
+
+func article(kind string) string {
+	if kind == "integer" {
+		return "an integer"
+	}
+	return "a time"
+}
+
+// finish sorts each unit's windows, checks duplicates, applies the missing-value policy and the
+// minimum-window rule, and drops constant features; every step is counted in Quality.
+func (r *reader) finish() (*Table, error) {
+	d := len(r.features)
+	t := &Table{Features: r.features, Files: r.files, OrderKind: r.orderKind, HasLabels: r.hasLabels}
+	if r.opts.Order == "-" {
+		t.OrderKind = "file order"
+	}
+	q := &t.Quality
+	q.IgnoredColumns = r.ignored
+	q.UnitsIn = len(r.units)
+	q.WindowsIn = r.rows
+	sortedUnits, merged := 0, 0
+	for _, ru := range r.units {
+		n := len(ru.order)
+		u := &Unit{ID: ru.id, Wave: ru.wave, Files: ru.files}
+		if len(ru.files) > 1 {
+			merged++
+		}
+		idx := make([]int, n)
+		for i := range idx {
+			idx[i] = i
+		}
+		if !sort.SliceIsSorted(idx, func(a, b int) bool { return ru.order[idx[a]] < ru.order[idx[b]] }) {
+			sort.SliceStable(idx, func(a, b int) bool { return ru.order[idx[a]] < ru.order[idx[b]] })
+			u.Sorted = true
+			sortedUnits++
+		}
+		for k := 1; k < n; k++ {
+			a, b := idx[k-1], idx[k]
+			if ru.order[a] == ru.order[b] {
+				fa, fb := r.files[ru.file[a]].Path, r.files[ru.file[b]].Path
+				also := fmt.Sprintf("line %d", ru.line[a])
+				if fa != fb {
+					also = fmt.Sprintf("%s:%d", fa, ru.line[a])
+				}
+				return nil, &InputError{File: fb, Line: int(ru.line[b]), Field: r.opts.Order,
+					Msg: fmt.Sprintf("participant %s%s has this window twice (also %s); remove one of the rows", ru.id, waveSuffix(ru.wave), also), Err: ErrDuplicate}
+			}
+		}
+		// Missing cells: drop the window, or impute the participant's median of the feature.
+		var med []float64
+		if r.opts.Missing == ImputeMedian {
+			med = columnMedians(ru.x, d)
+		}
+		u.X = make([]float64, 0, len(ru.x))
+		reason := ""
+		for _, i := range idx {
+			row := ru.x[i*d : (i+1)*d]
+			missing := 0
+			for _, v := range row {
+				if math.IsNaN(v) {
+					missing++
+				}
+			}
+			if missing > 0 && r.opts.Missing == DropWindow {
+				u.Dropped++
+				continue
+			}
+			if missing > 0 {
+				for j, v := range row {
+					if math.IsNaN(v) {
+						if math.IsNaN(med[j]) {
+							reason = fmt.Sprintf("feature %s is missing in every window, so it cannot be imputed", r.features[j])
+						}
+						u.Imputed++
+					}
+				}
+				start := len(u.X)
+				u.X = append(u.X, row...)
+				for j := range row {
+					if math.IsNaN(u.X[start+j]) {
+						u.X[start+j] = med[j]
+					}
+				}
+			} else {
+				u.X = append(u.X, row...)
+			}
+			u.Order = append(u.Order, ru.order[i])
+			if ru.labels != nil {
+				u.Labels = append(u.Labels, ru.labels[i])
+			}
+		}
+		w := len(u.X) / d
+		if reason == "" && w < r.opts.MinWindows {
+			reason = fmt.Sprintf("%d usable windows, fewer than the minimum %d (--min-windows)", w, r.opts.MinWindows)
+			if u.Dropped > 0 {
+				reason += fmt.Sprintf("; %d dropped for missing cells", u.Dropped)
+			}
+		}
+		if reason != "" {
+			q.Excluded = append(q.Excluded, Exclusion{ID: u.ID, Wave: u.Wave, Windows: n, Reason: reason})
+			q.WindowsExcluded += n
+			continue
+		}
+		q.WindowsDropped += u.Dropped
+		q.CellsImputed += u.Imputed
+		t.Units = append(t.Units, u)
+	}
+	if sortedUnits > 0 {
+		q.Notes = append(q.Notes, fmt.Sprintf("windows of %d participants were not in order in the input and were sorted by %s", sortedUnits, r.opts.Order))
+	}
+	if merged > 0 {
+		q.Notes = append(q.Notes, fmt.Sprintf("%d participants had windows in more than one file; their windows were joined", merged))
+	}
+	if err := t.dropConstantFeatures(); err != nil {
+		return nil, err
+	}
+	return t, nil
+}
+
+func waveSuffix(w string) string {
+	if w == "" {
+		return ""
+	}
+	return " (wave " + w + ")"
+}
+
+// dropConstantFeatures removes features that take a single value over every kept window.
+func (t *Table) dropConstantFeatures() error {
+	d := len(t.Features)
+	constant := make([]bool, d)
+	first := make([]float64, d)
+	have := false
+	for j := range constant {
+		constant[j] = true
+	}
+	for _, u := range t.Units {
+		for i := 0; i+d <= len(u.X); i += d {
+			if !have {
+				copy(first, u.X[i:i+d])
+				have = true
+				continue
+			}
+			for j := 0; j < d; j++ {
+				if constant[j] && u.X[i+j] != first[j] {
+					constant[j] = false
+				}
+			}
+		}
+	}
+	if !have {
+		return nil
+	}
+	var keep []int
+	for j, c := range constant {
+		if c {
+			t.Quality.DroppedFeatures = append(t.Quality.DroppedFeatures, Note{t.Features[j], fmt.Sprintf("constant (%g in every window): it cannot separate anything", first[j])})
+		} else {
+			keep = append(keep, j)
+		}
+	}
+	if len(keep) == d {
+		return nil
+	}
+	if len(keep) == 0 {
+		return &InputError{File: t.Files[0].Path, Msg: "every feature is constant; there is nothing to group on", Err: ErrEmpty}
+	}
+	names := make([]string, len(keep))
+	for a, j := range keep {
+		names[a] = t.Features[j]
+	}
+	nd := len(keep)
+	for _, u := range t.Units {
+		w := len(u.X) / d
+		x := make([]float64, w*nd)
+		for i := 0; i < w; i++ {
+			for a, j := range keep {
+				x[i*nd+a] = u.X[i*d+j]
+			}
+		}
+		u.X = x
+	}
+	t.Features = names
+	return nil
+}
+
+// columnMedians returns the median of each column of a row-major matrix, ignoring NaN (NaN when a
+// column has no values).
+func columnMedians(x []float64, d int) []float64 {
+	n := len(x) / d
+	out := make([]float64, d)
+	buf := make([]float64, 0, n)
+	for j := 0; j < d; j++ {
+		buf = buf[:0]
+		for i := 0; i < n; i++ {
+			if v := x[i*d+j]; !math.IsNaN(v) {
+				buf = append(buf, v)
+			}
+		}
+		out[j] = Median(buf)
+	}
+	return out
+}
+
+// Median sorts xs in place and returns its median (NaN when empty).
+func Median(xs []float64) float64 {
+	if len(xs) == 0 {
+		return math.NaN()
+	}
+	sort.Float64s(xs)
+	m := len(xs) / 2
+	if len(xs)%2 == 1 {
+		return xs[m]
+	}
+	return (xs[m-1] + xs[m]) / 2
+}

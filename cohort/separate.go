@@ -1,0 +1,95 @@
+package cohort
+
+import (
+	"fmt"
+	"math"
+	"sort"
+
+	"github.com/cohortmix/cohortmix/cluster/groupstat"
+)
+
+// Variable is one participant-level measure tested for separating the groups.
+type Variable struct {
+	Name   string
+	Kind   string    // "share", "bout length" or "feature median"
+	Values []float64 // one per grouped participant
+}
+
+// Separation is how strongly a variable differs between groups. These tests are descriptive:
+// the groups were found on the same data, so the p-values are not confirmatory.
+type Separation struct {
+	Name, Kind     string
+	H, P, Q        float64
+	Epsilon2       float64
+	Median, Q1, Q3 []float64 // per group
+	Delta          []float64 // Cliff's delta of each group against the rest
+}
+
+// Separate runs the Kruskal–Wallis test of every variable across the groups, adds BH q-values
+// over all tested variables, and ranks them by ε² (largest first). Variables that cannot be
+// tested (constant, or values in one group only) are returned as notes.
+func Separate(vars []Variable, labels []int, k int) ([]Separation, []Note, error) {
+	var out []Separation
+	var notes []Note
+	for _, v := range vars {
+		if len(v.Values) != len(labels) {
+			return nil, nil, fmt.Errorf("cohort: Separate: %s has %d values for %d participants: %w", v.Name, len(v.Values), len(labels), ErrMismatch)
+		}
+		groups := make([][]float64, k)
+		for i, x := range v.Values {
+			groups[labels[i]] = append(groups[labels[i]], x)
+		}
+		kw, err := groupstat.KruskalWallis(groups)
+		if err != nil {
+			notes = append(notes, Note{v.Name, "not tested: " + err.Error()})
+			continue
+		}
+		s := Separation{Name: v.Name, Kind: v.Kind, H: kw.H, P: kw.P, Epsilon2: kw.Epsilon2,
+			Median: make([]float64, k), Q1: make([]float64, k), Q3: make([]float64, k), Delta: make([]float64, k)}
+		for g := 0; g < k; g++ {
+			s.Q1[g], s.Median[g], s.Q3[g] = quartiles(groups[g])
+			var rest []float64
+			for h := 0; h < k; h++ {
+				if h != g {
+					rest = append(rest, groups[h]...)
+				}
+			}
+			if s.Delta[g], err = groupstat.CliffsDelta(groups[g], rest); err != nil {
+				s.Delta[g] = math.NaN()
+			}
+		}
+		out = append(out, s)
+	}
+	p := make([]float64, len(out))
+	for i, s := range out {
+		p[i] = s.P
+	}
+	q, err := groupstat.BenjaminiHochberg(p)
+	if err != nil {
+		return nil, nil, err
+	}
+	for i := range out {
+		out[i].Q = q[i]
+	}
+	sort.SliceStable(out, func(a, b int) bool { return out[a].Epsilon2 > out[b].Epsilon2 })
+	return out, notes, nil
+}
+
+// quartiles returns the first quartile, median and third quartile by linear interpolation
+// between order statistics (type 7 of Hyndman & Fan 1996, the default of R and numpy).
+func quartiles(xs []float64) (float64, float64, float64) {
+	if len(xs) == 0 {
+		return math.NaN(), math.NaN(), math.NaN()
+	}
+	s := append([]float64(nil), xs...)
+	sort.Float64s(s)
+	q := func(p float64) float64 {
+		h := p * float64(len(s)-1)
+		lo := math.Floor(h)
+		if int(lo)+1 >= len(s) {
+			return s[len(s)-1]
+		}
+		return s[int(lo)] + (h-lo)*(s[int(lo)+1]-s[int(lo)])
+	}
+	return q(0.25), q(0.5), q(0.75)
+}

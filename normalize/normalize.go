@@ -1,0 +1,491 @@
+// Package normalize standardizes window features: within each participant (to remove device
+// offsets), then across the cohort, then optionally projects them on principal components. Every
+// step is a frozen fit that can be applied to new participants alone.
+//
+// # Conventions
+//
+// Inputs are never modified. The within-participant step uses each participant's own windows (its
+// rule is frozen, its statistics are the participant's); the cohort step and the PCA are fitted
+// once and stored. Sampling is by a keyed hash of (seed, participant, window), so the sample does
+// not depend on the order or the number of workers.
+//
+// # References
+//
+//   - Shrout PE, Fleiss JL (1979). Intraclass correlations: uses in assessing rater reliability.
+//     Psychol. Bull. 86:420–428 (ICC(1) from the one-way ANOVA).
+//   - Donner A (1986). A review of inference procedures for the intraclass correlation coefficient
+//     in the one-way random effects model. Int. Stat. Rev. 54:67–82 (n₀ for unequal group sizes).
+//   - Rousseeuw PJ, Croux C (1993). Alternatives to the median absolute deviation. JASA 88 (MAD, 1.4826).
+//   - Jolliffe IT (2002). Principal Component Analysis, 2nd ed. Springer.
+package normalize
+
+import (
+	"errors"
+	"fmt"
+	"math"
+	"path"
+	"sort"
+
+	"github.com/cohortmix/cohortmix/cluster"
+	"gonum.org/v1/gonum/mat"
+)
+
+// ErrOption is wrapped by errors about options; ErrData by errors about the data.
+var (
+	ErrOption = errors.New("invalid normalization option")
+	ErrData   = errors.New("data cannot be normalized")
+)
+
+// Within is the within-participant step.
+type Within int
+
+const (
+	WithinNone    Within = iota // leave features as they are
+	WithinRest                  // subtract the participant's median over its quietest windows
+	WithinCentre                // subtract the participant's median
+	WithinRobustZ               // subtract the participant's median, divide by its MAD
+)
+
+var withinNames = map[Within]string{WithinNone: "none", WithinRest: "rest", WithinCentre: "centre", WithinRobustZ: "robust-z"}
+
+func (w Within) String() string { return withinNames[w] }
+
+// ParseWithin reads a within-participant step name: none, rest, centre or robust-z.
+func ParseWithin(s string) (Within, error) {
+	for w, n := range withinNames {
+		if n == s {
+			return w, nil
+		}
+	}
+	return 0, fmt.Errorf("normalize: within-participant step %q: %w; use none, rest, centre or robust-z", s, ErrOption)
+}
+
+// Scale is the cohort-wide step.
+type Scale int
+
+const (
+	ScaleZ       Scale = iota // (x − mean)/s.d. over all windows
+	ScaleRobustZ              // (x − median)/(1.4826·MAD) over the sample
+)
+
+func (s Scale) String() string {
+	if s == ScaleRobustZ {
+		return "robust-z"
+	}
+	return "z"
+}
+
+// ParseScale reads a cohort step name: z or robust-z.
+func ParseScale(s string) (Scale, error) {
+	switch s {
+	case "z":
+		return ScaleZ, nil
+	case "robust-z":
+		return ScaleRobustZ, nil
+	}
+	return 0, fmt.Errorf("normalize: cohort scaling %q: %w; use z or robust-z", s, ErrOption)
+}
+
+// Options sets up Fit. Zero values take the documented defaults.
+type Options struct {
+	Within         Within
+	WithinFeatures []string // name patterns the within step touches; empty: features found to carry offsets (ICC ≥ OffsetICC); "*" all
+	OffsetICC      float64  // 0 means 0.3
+	RestShare      float64  // share of a participant's quietest windows for the rest baseline; 0 means 0.1
+	Scale          Scale
+	PCAComponents  int     // > 0 keeps this many components
+	PCAVariance    float64 // in (0, 1]: fewest components reaching this share; 0 with PCAComponents 0 means 0.99; 1 keeps all
+	NoPCA          bool
+	SampleRate     float64 // share of windows used to fit robust scaling and PCA; 0 means all (≤ 1)
+	Seed           uint64
+}
+
+// Fit is the frozen normalization.
+type Fit struct {
+	Features   []string
+	Within     Within
+	Touched    []bool    // features the within step changes
+	TouchedBy  string    // "pattern", "offset detection (ICC ≥ x)" or "all features"
+	RestShare  float64   // for WithinRest
+	QuietScore []int     // features whose cohort-scaled mean ranks windows from quiet to active
+	QuietMid   []float64 // cohort median of each feature (for the quiet score)
+	QuietScale []float64 // cohort MAD of each feature (for the quiet score)
+	ScaleKind  Scale
+	Center     []float64 // cohort step, per feature
+	Spread     []float64
+	PCA        *cluster.PCA // nil when off
+	ICC        []float64    // ICC(1) of each raw feature
+	Warnings   []string
+}
+
+// OutDim is the number of columns Apply produces.
+func (f *Fit) OutDim() int {
+	if f.PCA != nil {
+		_, k := f.PCA.Components.Dims()
+		return k
+	}
+	return len(f.Features)
+}
+
+// ICC computes ICC(1) of each column, one-way random effects with participants as groups:
+// (MSB − MSW)/(MSB + (n₀ − 1)·MSW), n₀ = (N − Σnᵢ²/N)/(a − 1) (Shrout & Fleiss 1979; Donner 1986).
+// units holds each participant's windows × d row-major block.
+func ICC(units [][]float64, d int) []float64 {
+	a := 0
+	var N, sumN2 float64
+	grand := make([]float64, d)
+	for _, x := range units {
+		n := len(x) / d
+		if n == 0 {
+			continue
+		}
+		a++
+		N += float64(n)
+		sumN2 += float64(n * n)
+		for i := 0; i < n; i++ {
+			for j := 0; j < d; j++ {
+				grand[j] += x[i*d+j]
+			}
+		}
+	}
+	out := make([]float64, d)
+	if a < 2 {
+		for j := range out {
+			out[j] = math.NaN()
+		}
+		return out
+	}
+	for j := range grand {
+		grand[j] /= N
+	}
+	ssb := make([]float64, d)
+	ssw := make([]float64, d)
+	mean := make([]float64, d)
+	for _, x := range units {
+		n := len(x) / d
+		if n == 0 {
+			continue
+		}
+		for j := range mean {
+			mean[j] = 0
+		}
+		for i := 0; i < n; i++ {
+			for j := 0; j < d; j++ {
+				mean[j] += x[i*d+j]
+			}
+		}
+		for j := range mean {
+			mean[j] /= float64(n)
+			dm := mean[j] - grand[j]
+			ssb[j] += float64(n) * dm * dm
+		}
+		for i := 0; i < n; i++ {
+			for j := 0; j < d; j++ {
+				v := x[i*d+j] - mean[j]
+				ssw[j] += v * v
+			}
+		}
+	}
+	n0 := (N - sumN2/N) / float64(a-1)
+	for j := range out {
+		msb := ssb[j] / float64(a-1)
+		msw := ssw[j] / (N - float64(a))
+		if den := msb + (n0-1)*msw; den > 0 {
+			out[j] = (msb - msw) / den
+		} else {
+			out[j] = math.NaN()
+		}
+	}
+	return out
+}
+
+// Sampled reports whether window w of participant u is in the sample of the given rate: a keyed
+// hash (SplitMix64, Steele, Lea & Flood 2014) of (seed, u, w) compared with the rate, so the
+// sample is the same in any order and on any number of cores.
+func Sampled(seed uint64, u, w int, rate float64) bool {
+	if rate >= 1 {
+		return true
+	}
+	z := seed ^ (uint64(u)+1)*0x9e3779b97f4a7c15 ^ (uint64(w)+1)*0xbf58476d1ce4e5b9
+	z = (z ^ (z >> 30)) * 0xbf58476d1ce4e5b9
+	z = (z ^ (z >> 27)) * 0x94d049bb133111eb
+	z ^= z >> 31
+	return float64(z>>11)/(1<<53) < rate
+}
+
+// FitTransform fits the normalization to the units (each a windows × len(features) block) and
+// returns the fit with the transformed blocks.
+func FitTransform(features []string, units [][]float64, opts Options) (*Fit, [][]float64, error) {
+	d := len(features)
+	if d == 0 || len(units) == 0 {
+		return nil, nil, fmt.Errorf("normalize: no features or no participants: %w", ErrData)
+	}
+	if opts.OffsetICC == 0 {
+		opts.OffsetICC = 0.3
+	}
+	if opts.RestShare == 0 {
+		opts.RestShare = 0.1
+	}
+	if opts.RestShare < 0 || opts.RestShare > 1 || opts.OffsetICC < 0 || opts.OffsetICC > 1 {
+		return nil, nil, fmt.Errorf("normalize: rest share %v, offset ICC %v: %w; both lie in (0, 1]", opts.RestShare, opts.OffsetICC, ErrOption)
+	}
+	if opts.SampleRate < 0 || opts.SampleRate > 1 {
+		return nil, nil, fmt.Errorf("normalize: sample rate %v: %w; use a share in (0, 1]", opts.SampleRate, ErrOption)
+	}
+	if opts.SampleRate == 0 {
+		opts.SampleRate = 1
+	}
+	f := &Fit{Features: features, Within: opts.Within, RestShare: opts.RestShare, ScaleKind: opts.Scale, ICC: ICC(units, d)}
+	f.Touched = make([]bool, d)
+	switch {
+	case opts.Within == WithinNone:
+		f.TouchedBy = "none"
+	case len(opts.WithinFeatures) == 1 && opts.WithinFeatures[0] == "*":
+		f.TouchedBy = "all features"
+		for j := range f.Touched {
+			f.Touched[j] = true
+		}
+	case len(opts.WithinFeatures) > 0:
+		f.TouchedBy = "pattern " + fmt.Sprint(opts.WithinFeatures)
+		for j, name := range features {
+			for _, p := range opts.WithinFeatures {
+				if ok, _ := path.Match(p, name); ok {
+					f.Touched[j] = true
+				}
+			}
+		}
+	default:
+		f.TouchedBy = fmt.Sprintf("offset detection (ICC ≥ %.2f)", opts.OffsetICC)
+		for j, v := range f.ICC {
+			f.Touched[j] = v >= opts.OffsetICC
+		}
+	}
+	all := true
+	for _, t := range f.Touched {
+		all = all && t
+	}
+	if opts.Within == WithinRobustZ && all {
+		f.Warnings = append(f.Warnings, "within-participant robust z-scoring touches every feature: it erases the between-participant level differences that signatures rely on; restrict it with --within-features")
+	}
+	// The quiet score ranks a participant's windows by the cohort-scaled mean of the untouched
+	// features (all features when every one is touched).
+	f.QuietMid, f.QuietScale = sampleMedianMAD(units, d, opts.Seed, opts.SampleRate)
+	for j := range features {
+		if !f.Touched[j] || all {
+			f.QuietScore = append(f.QuietScore, j)
+		}
+	}
+	out := make([][]float64, len(units))
+	for u, x := range units {
+		out[u] = f.within(x)
+	}
+	// Cohort step.
+	switch opts.Scale {
+	case ScaleZ:
+		f.Center, f.Spread = meanSD(out, d)
+	case ScaleRobustZ:
+		f.Center, f.Spread = sampleMedianMAD(out, d, opts.Seed, opts.SampleRate)
+		for j := range f.Spread {
+			f.Spread[j] *= 1.4826 // consistent with the s.d. under normality
+		}
+	default:
+		return nil, nil, fmt.Errorf("normalize: cohort scaling %d: %w", opts.Scale, ErrOption)
+	}
+	for j, s := range f.Spread {
+		if !(s > 0) {
+			return nil, nil, fmt.Errorf("normalize: feature %s has no spread across the cohort after the within-participant step: %w; leave it out with --features or use --within none", features[j], ErrData)
+		}
+	}
+	for _, x := range out {
+		f.scale(x)
+	}
+	if opts.NoPCA {
+		return f, out, nil
+	}
+	// PCA on the sample of scaled windows.
+	var rows []float64
+	for u, x := range out {
+		for w := 0; w*d < len(x); w++ {
+			if Sampled(opts.Seed, u, w, opts.SampleRate) {
+				rows = append(rows, x[w*d:(w+1)*d]...)
+			}
+		}
+	}
+	if len(rows)/d < 2 {
+		return nil, nil, fmt.Errorf("normalize: the sample has %d windows: %w; raise the sample size", len(rows)/d, ErrData)
+	}
+	target := opts.PCAVariance
+	if opts.PCAComponents == 0 && target == 0 {
+		target = 0.99
+	}
+	pca, err := cluster.FitPCA(mat.NewDense(len(rows)/d, d, rows), cluster.PCAOptions{Components: opts.PCAComponents, VarianceTarget: target})
+	if err != nil {
+		return nil, nil, fmt.Errorf("normalize: %w", err)
+	}
+	f.PCA = pca
+	for u, x := range out {
+		out[u] = f.project(x)
+	}
+	return f, out, nil
+}
+
+// Apply transforms one new participant's windows with the frozen fit.
+func (f *Fit) Apply(x []float64) []float64 {
+	y := f.within(x)
+	f.scale(y)
+	if f.PCA != nil {
+		y = f.project(y)
+	}
+	return y
+}
+
+// within applies the within-participant step to one participant's block, returning a copy.
+func (f *Fit) within(x []float64) []float64 {
+	d := len(f.Features)
+	n := len(x) / d
+	y := append([]float64(nil), x...)
+	if f.Within == WithinNone || n == 0 {
+		return y
+	}
+	rows := make([]int, n)
+	for i := range rows {
+		rows[i] = i
+	}
+	if f.Within == WithinRest {
+		rows = f.quietest(x, n)
+	}
+	buf := make([]float64, 0, len(rows))
+	for j := 0; j < d; j++ {
+		if !f.Touched[j] {
+			continue
+		}
+		buf = buf[:0]
+		for _, i := range rows {
+			buf = append(buf, x[i*d+j])
+		}
+		med := median(buf)
+		scale := 1.0
+		if f.Within == WithinRobustZ {
+			for k := range buf {
+				buf[k] = math.Abs(buf[k] - med)
+			}
+			if mad := median(buf) * 1.4826; mad > 0 {
+				scale = mad
+			}
+		}
+		for i := 0; i < n; i++ {
+			y[i*d+j] = (x[i*d+j] - med) / scale
+		}
+	}
+	return y
+}
+
+// quietest returns the rows of the participant's RestShare quietest windows (at least one).
+func (f *Fit) quietest(x []float64, n int) []int {
+	d := len(f.Features)
+	score := make([]float64, n)
+	for i := 0; i < n; i++ {
+		var s float64
+		for _, j := range f.QuietScore {
+			sc := f.QuietScale[j]
+			if !(sc > 0) {
+				sc = 1
+			}
+			s += (x[i*d+j] - f.QuietMid[j]) / sc
+		}
+		score[i] = s
+	}
+	idx := make([]int, n)
+	for i := range idx {
+		idx[i] = i
+	}
+	sort.SliceStable(idx, func(a, b int) bool { return score[idx[a]] < score[idx[b]] })
+	m := max(1, int(math.Ceil(f.RestShare*float64(n))))
+	return idx[:m]
+}
+
+func (f *Fit) scale(x []float64) {
+	d := len(f.Features)
+	for i := 0; i+d <= len(x); i += d {
+		for j := 0; j < d; j++ {
+			x[i+j] = (x[i+j] - f.Center[j]) / f.Spread[j]
+		}
+	}
+}
+
+func (f *Fit) project(x []float64) []float64 {
+	d := len(f.Features)
+	k := f.OutDim()
+	n := len(x) / d
+	y := make([]float64, n*k)
+	for i := 0; i < n; i++ {
+		f.PCA.TransformRow(y[i*k:(i+1)*k], x[i*d:(i+1)*d])
+	}
+	return y
+}
+
+func meanSD(units [][]float64, d int) ([]float64, []float64) {
+	mean := make([]float64, d)
+	var n float64
+	for _, x := range units {
+		for i := 0; i+d <= len(x); i += d {
+			for j := 0; j < d; j++ {
+				mean[j] += x[i+j]
+			}
+			n++
+		}
+	}
+	for j := range mean {
+		mean[j] /= n
+	}
+	sd := make([]float64, d)
+	for _, x := range units {
+		for i := 0; i+d <= len(x); i += d {
+			for j := 0; j < d; j++ {
+				v := x[i+j] - mean[j]
+				sd[j] += v * v
+			}
+		}
+	}
+	for j := range sd {
+		sd[j] = math.Sqrt(sd[j] / n) // population s.d., as sklearn.preprocessing.StandardScaler
+	}
+	return mean, sd
+}
+
+// sampleMedianMAD returns each column's median and median absolute deviation over the sample.
+func sampleMedianMAD(units [][]float64, d int, seed uint64, rate float64) ([]float64, []float64) {
+	cols := make([][]float64, d)
+	for u, x := range units {
+		for w := 0; w*d < len(x); w++ {
+			if Sampled(seed, u, w, rate) {
+				for j := 0; j < d; j++ {
+					cols[j] = append(cols[j], x[w*d+j])
+				}
+			}
+		}
+	}
+	med := make([]float64, d)
+	mad := make([]float64, d)
+	for j, c := range cols {
+		med[j] = median(c)
+		for k := range c {
+			c[k] = math.Abs(c[k] - med[j])
+		}
+		mad[j] = median(c)
+	}
+	return med, mad
+}
+
+// median sorts xs in place; NaN when empty.
+func median(xs []float64) float64 {
+	if len(xs) == 0 {
+		return math.NaN()
+	}
+	sort.Float64s(xs)
+	m := len(xs) / 2
+	if len(xs)%2 == 1 {
+		return xs[m]
+	}
+	return (xs[m-1] + xs[m]) / 2
+}

@@ -1,0 +1,68 @@
+// Package reports writes an analysis for people: the workbook for clinicians, the plain members
+// CSV for statistics programs, and the model file that later waves are placed with. It formats
+// results and computes nothing beyond that.
+//
+// # Conventions
+//
+// Outputs are written atomically: to a temporary file beside the target, then renamed, so an
+// interrupted run never leaves half a file. Any cell text that a spreadsheet could take for a
+// formula is stored as text.
+package reports
+
+import (
+	"time"
+
+	"github.com/cohortmix/cohortmix/cohort"
+	"github.com/cohortmix/cohortmix/normalize"
+	"github.com/cohortmix/cohortmix/profile"
+)
+
+// Setting is one parameter as shown on the settings sheet.
+type Setting struct{ Name, Value string }
+
+// UnitRow is one grouped participant (or participant wave).
+type UnitRow struct {
+	ID, Wave   string
+	Windows    int
+	Group      int
+	Silhouette float64
+	Distance   float64
+	Flag       string
+	Share      []float64
+	Bout       []float64
+}
+
+// Result is everything an analysis produced, as the reports show it.
+type Result struct {
+	Tool, Version string
+	Created       time.Time
+	Command       string
+	Synthetic     bool // the input is invented demo data
+	Settings      []Setting
+	Files         []cohort.FileInfo
+	Features      []string
+	OrderKind     string
+	Quality       cohort.Quality
+	Norm          *normalize.Fit
+	States        *profile.States
+	StateNames    []string
+	StateLines    []string // one-line description per state
+	StateDesc     []profile.Description
+	Labels        *profile.LabelTable
+	Grouping      *cohort.Grouping
+	GroupNames    []string
+	GroupLines    []string // one-line description per group
+	Units         []UnitRow
+	Separations   []cohort.Separation
+	NotTested     []cohort.Note
+	Warnings      []string
+	AtypicalCut   float64 // 99th percentile of members' distances to their group centre
+}
+
+// Cautions are shown wherever results reach a person's care.
+var Cautions = []string{
+	"These groups describe movement patterns statistically. They are not diagnoses or clinical categories.",
+	"Decisions about a participant belong to qualified clinicians, under the study protocol and local rules.",
+	"This workbook holds participant-level data: handle it under the study's data-protection rules.",
+	"The separating-variable p- and q-values are descriptive: the groups were found on the same data, so they do not confirm a difference.",
+}
