@@ -56,7 +56,8 @@ type Result struct {
 	Separations   []cohort.Separation
 	NotTested     []cohort.Note
 	Warnings      []string
-	AtypicalCut   float64 // 99th percentile of members' distances to their group centre
+	AtypicalCut   float64      // 99th percentile of members' distances to their group centre
+	FeatureRange  [][3]float64 // per feature: 1st percentile, median and 99th percentile of participant medians
 }
 
 // Cautions are shown wherever results reach a person's care.

@@ -115,6 +115,7 @@ func analyze(ctx context.Context, o analysisOptions) (*reports.Result, error) {
 			v.Values = append(v.Values, cohort.Median(col))
 		}
 		vars = append(vars, v)
+		res.FeatureRange = append(res.FeatureRange, [3]float64{percentile(v.Values, 0.01), percentile(v.Values, 0.5), percentile(v.Values, 0.99)})
 	}
 	if res.Separations, res.NotTested, err = cohort.Separate(vars, g.Labels, g.K); err != nil {
 		return nil, err

@@ -1,0 +1,168 @@
+package main
+
+import (
+	"fmt"
+	"strconv"
+	"strings"
+	"time"
+
+	"github.com/cohortmix/cohortmix/cohort"
+	"github.com/cohortmix/cohortmix/normalize"
+	"github.com/cohortmix/cohortmix/reports"
+	"github.com/spf13/cobra"
+)
+
+// parseRange reads "6" or "2-8" into the increasing list of candidates.
+func parseRange(flag, s string) ([]int, error) {
+	lo, hi, isRange := strings.Cut(strings.TrimSpace(s), "-")
+	a, err := strconv.Atoi(strings.TrimSpace(lo))
+	b := a
+	if err == nil && isRange {
+		b, err = strconv.Atoi(strings.TrimSpace(hi))
+	}
+	if err != nil || a < 2 || b < a || b > 64 {
+		return nil, flagErrorf("--%s %q: give a number such as 5 or a range such as 2-8 (each between 2 and 64)", flag, s)
+	}
+	out := make([]int, 0, b-a+1)
+	for k := a; k <= b; k++ {
+		out = append(out, k)
+	}
+	return out, nil
+}
+
+// mainFlags are the flags of every command that runs the main job.
+type mainFlags struct {
+	ID, Order, Wave, Label string
+	Features               []string
+	Missing                string
+	MinWindows             int
+	Within                 string
+	WithinFeatures         []string
+	OffsetICC, RestShare   float64
+	Scale                  string
+	PCA                    string
+	States                 string
+	Sample                 int
+	Groups                 string
+	Method                 string
+	Criterion              string
+	Bootstrap              int
+	Seed                   uint64
+	Workers                int
+	Members, Model         string
+	Force, Quiet           bool
+}
+
+func (m *mainFlags) register(cmd *cobra.Command) {
+	f := cmd.Flags()
+	f.StringVar(&m.ID, "id", "participant", "column holding the participant id")
+	f.StringVar(&m.Order, "order", "window", "column holding the window order (integers or ISO-8601 times); - keeps file order")
+	f.StringVar(&m.Wave, "wave", "", "optional column holding the visit or wave; each wave of a participant is grouped on its own")
+	f.StringVar(&m.Label, "label", "", "optional column of known activity labels, used only for the validation table")
+	f.StringSliceVar(&m.Features, "features", nil, "feature name patterns, e.g. 'mean_*,vm_*' (default: every other numeric column)")
+	f.StringVar(&m.Missing, "missing", "drop", "missing feature cells: drop (the window) or impute (the participant's median)")
+	f.IntVar(&m.MinWindows, "min-windows", 20, "exclude participants with fewer usable windows")
+	f.StringVar(&m.Within, "within", "rest", "within-participant step: rest, centre, robust-z or none")
+	f.StringSliceVar(&m.WithinFeatures, "within-features", nil, "features the within step touches: patterns, or * for all (default: those found to carry offsets)")
+	f.Float64Var(&m.OffsetICC, "offset-icc", 0.3, "features with at least this ICC are taken to carry device offsets")
+	f.Float64Var(&m.RestShare, "rest-share", 0.1, "share of a participant's quietest windows that defines its rest baseline")
+	f.StringVar(&m.Scale, "scale", "z", "cohort-wide scaling: z or robust-z")
+	f.StringVar(&m.PCA, "pca", "0.99", "PCA: a variance share in (0,1], a number of components, or off")
+	f.StringVar(&m.States, "states", "2-10", "number of movement states, or a range to choose from")
+	f.IntVar(&m.Sample, "sample", 50000, "windows sampled to fit the states")
+	f.StringVar(&m.Groups, "groups", "2-8", "number of participant groups, or a range to choose from")
+	f.StringVar(&m.Method, "method", "ward-hellinger", "grouping: ward-hellinger, pam-aitchison, pam-js or kmeans-clr")
+	f.StringVar(&m.Criterion, "criterion", "gap", "rule for the number of groups: gap, stability or silhouette")
+	f.IntVar(&m.Bootstrap, "bootstrap", 20, "resamples for stability and reference sets for the gap statistic")
+	f.Uint64Var(&m.Seed, "seed", 1, "seed for every random step")
+	f.IntVar(&m.Workers, "workers", 0, "worker goroutines (0: all cores); never changes the result")
+	f.StringVar(&m.Members, "members", "", "also write a participant,group CSV here")
+	f.StringVar(&m.Model, "model", "", "also write the model file (JSON) here, for later waves")
+	f.BoolVar(&m.Force, "force", false, "replace existing output files")
+	f.BoolVar(&m.Quiet, "quiet", false, "print only the final summary")
+}
+
+// options turns the flags into the analysis settings.
+func (m *mainFlags) options(inputs []string) (analysisOptions, error) {
+	o := analysisOptions{Inputs: inputs, Seed: m.Seed, Workers: m.Workers, Bootstrap: m.Bootstrap, Sample: m.Sample}
+	o.Read = cohort.ReadOptions{ID: m.ID, Order: m.Order, Wave: m.Wave, Label: m.Label, Features: m.Features, MinWindows: m.MinWindows}
+	switch m.Missing {
+	case "drop":
+		o.Read.Missing = cohort.DropWindow
+	case "impute":
+		o.Read.Missing = cohort.ImputeMedian
+	default:
+		return o, flagErrorf("--missing %q: use drop or impute", m.Missing)
+	}
+	if m.MinWindows < 1 {
+		return o, flagErrorf("--min-windows %d: use a number ≥ 1", m.MinWindows)
+	}
+	var err error
+	if o.Norm.Within, err = normalize.ParseWithin(m.Within); err != nil {
+		return o, &flagError{err}
+	}
+	if o.Norm.Scale, err = normalize.ParseScale(m.Scale); err != nil {
+		return o, &flagError{err}
+	}
+	o.Norm.WithinFeatures, o.Norm.OffsetICC, o.Norm.RestShare = m.WithinFeatures, m.OffsetICC, m.RestShare
+	if !(m.OffsetICC > 0 && m.OffsetICC <= 1) || !(m.RestShare > 0 && m.RestShare <= 1) {
+		return o, flagErrorf("--offset-icc %v, --rest-share %v: both lie in (0, 1]", m.OffsetICC, m.RestShare)
+	}
+	switch p := strings.TrimSpace(m.PCA); {
+	case p == "off":
+		o.Norm.NoPCA = true
+	case strings.Contains(p, "."):
+		v, err := strconv.ParseFloat(p, 64)
+		if err != nil || !(v > 0 && v <= 1) {
+			return o, flagErrorf("--pca %q: a variance share lies in (0, 1]", m.PCA)
+		}
+		o.Norm.PCAVariance = v
+	default:
+		n, err := strconv.Atoi(p)
+		if err != nil || n < 1 {
+			return o, flagErrorf("--pca %q: give a share such as 0.99, a number of components, or off", m.PCA)
+		}
+		o.Norm.PCAComponents = n
+	}
+	if o.States, err = parseRange("states", m.States); err != nil {
+		return o, err
+	}
+	if o.Groups, err = parseRange("groups", m.Groups); err != nil {
+		return o, err
+	}
+	if o.Method, err = cohort.ParseMethod(m.Method); err != nil {
+		return o, &flagError{err}
+	}
+	if o.Criterion, err = cohort.ParseCriterion(m.Criterion); err != nil {
+		return o, &flagError{err}
+	}
+	if m.Sample < 100 || m.Bootstrap < 2 || m.Workers < 0 {
+		return o, flagErrorf("--sample %d, --bootstrap %d, --workers %d: use at least 100 windows, 2 resamples and ≥ 0 workers", m.Sample, m.Bootstrap, m.Workers)
+	}
+	return o, nil
+}
+
+// settings lists every parameter for the settings sheet.
+func (m *mainFlags) settings() []reports.Setting {
+	s := func(n, v string) reports.Setting { return reports.Setting{Name: n, Value: v} }
+	return []reports.Setting{
+		s("id column", m.ID), s("order column", m.Order), s("wave column", m.Wave), s("label column", m.Label),
+		s("feature patterns", strings.Join(m.Features, ",")), s("missing cells", m.Missing), s("minimum windows", strconv.Itoa(m.MinWindows)),
+		s("within-participant step", m.Within), s("within-step features", strings.Join(m.WithinFeatures, ",")),
+		s("offset ICC threshold", fmt.Sprint(m.OffsetICC)), s("rest share", fmt.Sprint(m.RestShare)),
+		s("cohort scaling", m.Scale), s("PCA", m.PCA), s("states", m.States), s("window sample", strconv.Itoa(m.Sample)),
+		s("groups", m.Groups), s("grouping method", m.Method), s("criterion for groups", m.Criterion),
+		s("bootstrap / gap references", strconv.Itoa(m.Bootstrap)), s("seed", strconv.FormatUint(m.Seed, 10)),
+	}
+}
+
+// progress returns a step printer: on a terminal, a line per step on stderr; otherwise nothing.
+func progress(env *Env, quiet bool, now func() time.Time) func(string) {
+	if quiet || !env.IO.ErrIsTTY {
+		return nil
+	}
+	start := now()
+	return func(step string) {
+		fmt.Fprintf(env.IO.Err, "  %6.1fs  %s…\n", now().Sub(start).Seconds(), step)
+	}
+}

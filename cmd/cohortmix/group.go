@@ -1,0 +1,130 @@
+package main
+
+import (
+	"context"
+	"fmt"
+	"sort"
+	"strings"
+	"time"
+
+	"github.com/cohortmix/cohortmix/reports"
+	"github.com/spf13/cobra"
+	"github.com/spf13/pflag"
+)
+
+type groupOptions struct {
+	IO     IO
+	Now    func() time.Time
+	Inputs []string
+	Out    string
+	Flags  mainFlags
+	Args   []string // the command line, for the settings sheet
+	// Synthetic marks the input as invented demo data in the workbook.
+	Synthetic bool
+}
+
+func newGroupCmd(env *Env, runF func(context.Context, *groupOptions) error) *cobra.Command {
+	opts := &groupOptions{IO: env.IO, Now: time.Now}
+	cmd := &cobra.Command{
+		Use:   "group <windows.csv>... --out <results.xlsx>",
+		Short: "Group participants by their movement mixture",
+		Long: `Reads one or more long tables (CSV or TSV, gzip accepted; one row per window), learns movement
+states, groups participants by their mixture of states, and writes a workbook.
+
+Exit codes: 0 success, 1 error in the input or the run, 2 wrong command line, 130 interrupted.`,
+		Example: `  $ cohortmix group study.csv.gz --out results.xlsx --members members.csv --model model.json
+  $ cohortmix group site-*.tsv --id subject --order time --states 6 --groups 2-6 --out results.xlsx`,
+		Args: cobra.MinimumNArgs(1),
+		RunE: func(cmd *cobra.Command, args []string) error {
+			opts.Inputs = args
+			opts.Args = append([]string{"cohortmix", "group"}, argsOf(cmd)...)
+			if runF != nil {
+				return runF(cmd.Context(), opts)
+			}
+			return groupRun(cmd.Context(), opts)
+		},
+	}
+	cmd.Flags().StringVar(&opts.Out, "out", "", "the workbook to write (.xlsx)")
+	_ = cmd.MarkFlagRequired("out")
+	opts.Flags.register(cmd)
+	return cmd
+}
+
+func argsOf(cmd *cobra.Command) []string {
+	var out []string
+	cmd.Flags().Visit(func(f *pflag.Flag) { out = append(out, "--"+f.Name+"="+f.Value.String()) })
+	return append(out, cmd.Flags().Args()...)
+}
+
+// outputs checks every output path before any work, so a refused overwrite costs nothing.
+func (o *groupOptions) outputs() error {
+	if !strings.HasSuffix(strings.ToLower(o.Out), ".xlsx") {
+		return flagErrorf("--out %q: the workbook needs a name ending in .xlsx", o.Out)
+	}
+	for _, p := range []string{o.Out, o.Flags.Members, o.Flags.Model} {
+		if p == "" {
+			continue
+		}
+		if err := reports.CheckTarget(p, o.Flags.Force); err != nil {
+			return err
+		}
+	}
+	return nil
+}
+
+func groupRun(ctx context.Context, o *groupOptions) error {
+	if err := o.outputs(); err != nil {
+		return err
+	}
+	ao, err := o.Flags.options(o.Inputs)
+	if err != nil {
+		return err
+	}
+	ao.Progress = progress(&Env{IO: o.IO}, o.Flags.Quiet, o.Now)
+	res, err := analyze(ctx, ao)
+	if err != nil {
+		return err
+	}
+	if err := ctx.Err(); err != nil {
+		return err
+	}
+	res.Tool, res.Version, res.Created, res.Synthetic = "cohortmix", version, o.Now(), o.Synthetic
+	res.Command = strings.Join(o.Args, " ")
+	res.Settings = o.Flags.settings()
+	if err := reports.WriteWorkbook(o.Out, res, o.Flags.Force); err != nil {
+		return err
+	}
+	if o.Flags.Members != "" {
+		if err := reports.WriteMembers(o.Flags.Members, res, o.Flags.Force); err != nil {
+			return err
+		}
+	}
+	if o.Flags.Model != "" {
+		m := reports.NewModel(res, ao.Read, res.FeatureRange)
+		if err := reports.WriteModel(o.Flags.Model, m, o.Flags.Force); err != nil {
+			return err
+		}
+	}
+	printSummary(o.IO, res, o.Out)
+	return nil
+}
+
+func printSummary(io IO, r *reports.Result, out string) {
+	q := r.Quality
+	fmt.Fprintf(io.Out, "%d participants grouped (%d excluded), %d movement states, %d groups → %s\n", len(r.Units), len(q.Excluded), r.States.K, r.Grouping.K, out)
+	sizes := map[int]int{}
+	for _, u := range r.Units {
+		sizes[u.Group]++
+	}
+	keys := make([]int, 0, len(sizes))
+	for g := range sizes {
+		keys = append(keys, g)
+	}
+	sort.Ints(keys)
+	for _, g := range keys {
+		fmt.Fprintf(io.Out, "  %s: %s\n", r.GroupNames[g], r.GroupLines[g])
+	}
+	for _, w := range r.Warnings {
+		fmt.Fprintln(io.Out, "warning: "+w)
+	}
+}

@@ -1,0 +1,56 @@
+package reports
+
+import (
+	"errors"
+	"fmt"
+	"io"
+	"os"
+	"path/filepath"
+)
+
+// ErrExists is returned when the output exists and overwriting was not asked for.
+var ErrExists = errors.New("output file exists")
+
+// CheckTarget refuses an existing output unless force is set; commands call it before any work.
+func CheckTarget(path string, force bool) error {
+	if st, err := os.Stat(path); err == nil {
+		if st.IsDir() {
+			return fmt.Errorf("%s: is a directory: %w; name a file", path, ErrExists)
+		}
+		if !force {
+			return fmt.Errorf("%s: %w; pass --force to replace it, or choose another name", path, ErrExists)
+		}
+	}
+	return nil
+}
+
+// WriteAtomic writes through write into a temporary file beside path and renames it into place,
+// so a crash or an interrupt never leaves half a file; the temporary file is removed on failure.
+func WriteAtomic(path string, force bool, write func(io.Writer) error) (err error) {
+	if err := CheckTarget(path, force); err != nil {
+		return err
+	}
+	tmp, err := os.CreateTemp(filepath.Dir(path), "."+filepath.Base(path)+".*.partial")
+	if err != nil {
+		return fmt.Errorf("%s: cannot create a temporary file beside it: %w", path, err)
+	}
+	defer func() {
+		if err != nil {
+			tmp.Close()
+			os.Remove(tmp.Name())
+		}
+	}()
+	if err = write(tmp); err != nil {
+		return fmt.Errorf("%s: %w", path, err)
+	}
+	if err = tmp.Sync(); err != nil {
+		return fmt.Errorf("%s: %w", path, err)
+	}
+	if err = tmp.Close(); err != nil {
+		return fmt.Errorf("%s: %w", path, err)
+	}
+	if err = os.Rename(tmp.Name(), path); err != nil {
+		return fmt.Errorf("%s: %w", path, err)
+	}
+	return nil
+}

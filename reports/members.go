@@ -1,0 +1,34 @@
+package reports
+
+import (
+	"encoding/csv"
+	"io"
+	"strconv"
+)
+
+// WriteMembers writes the plain participant, wave, group CSV for R, Stata or Python. Ids are
+// written exactly as they came in, so that they join back to the study's tables.
+func WriteMembers(path string, r *Result, force bool) error {
+	return WriteAtomic(path, force, func(w io.Writer) error {
+		cw := csv.NewWriter(w)
+		if err := cw.Write([]string{"participant", "wave", "group", "silhouette", "flag"}); err != nil {
+			return err
+		}
+		for _, u := range r.Units {
+			sil := ""
+			if u.Silhouette == u.Silhouette { // not NaN
+				sil = strconv.FormatFloat(u.Silhouette, 'f', 4, 64)
+			}
+			if err := cw.Write([]string{u.ID, u.Wave, r.GroupNames[u.Group], sil, u.Flag}); err != nil {
+				return err
+			}
+		}
+		for _, e := range r.Quality.Excluded {
+			if err := cw.Write([]string{e.ID, e.Wave, "", "", "excluded: " + e.Reason}); err != nil {
+				return err
+			}
+		}
+		cw.Flush()
+		return cw.Error()
+	})
+}

@@ -1,0 +1,293 @@
+package reports
+
+import (
+	"bytes"
+	"encoding/json"
+	"errors"
+	"fmt"
+	"io"
+	"math"
+	"os"
+	"time"
+
+	"github.com/cohortmix/cohortmix/cluster"
+	"github.com/cohortmix/cohortmix/cohort"
+	"github.com/cohortmix/cohortmix/normalize"
+	"github.com/cohortmix/cohortmix/profile"
+	"gonum.org/v1/gonum/mat"
+)
+
+// ModelFormat and ModelVersion identify the model file's schema.
+const (
+	ModelFormat  = "cohortmix model"
+	ModelVersion = 1
+)
+
+// ErrModel is wrapped by every error about a model file.
+var ErrModel = errors.New("model file not usable")
+
+// Model is everything needed to place new windows and participants into the same states and
+// groups later: the frozen normalization, the state centroids and the group centres.
+type Model struct {
+	Format      string        `json:"format"`
+	Version     int           `json:"version"`
+	Created     time.Time     `json:"created"`
+	Tool        string        `json:"tool"`
+	Features    []string      `json:"features"`
+	Read        ModelRead     `json:"read"`
+	Normalize   ModelNorm     `json:"normalize"`
+	States      ModelStates   `json:"states"`
+	Grouping    ModelGrouping `json:"grouping"`
+	Settings    []Setting     `json:"settings"`
+	Members     []ModelMember `json:"members"`
+	FeatureMeds [][3]float64  `json:"feature_median_range"` // per feature: 1st percentile, median, 99th percentile of participant medians
+}
+
+// ModelRead records the column roles used.
+type ModelRead struct {
+	ID, Order, Wave string
+	Missing         string
+	MinWindows      int
+}
+
+// ModelNorm is a frozen normalize.Fit.
+type ModelNorm struct {
+	Within     string      `json:"within"`
+	Touched    []bool      `json:"touched"`
+	TouchedBy  string      `json:"touched_by"`
+	RestShare  float64     `json:"rest_share"`
+	QuietScore []int       `json:"quiet_score"`
+	QuietMid   []float64   `json:"quiet_mid"`
+	QuietScale []float64   `json:"quiet_scale"`
+	Scale      string      `json:"scale"`
+	Center     []float64   `json:"center"`
+	Spread     []float64   `json:"spread"`
+	PCAMean    []float64   `json:"pca_mean,omitempty"`
+	PCA        [][]float64 `json:"pca_components,omitempty"` // features × components
+	ICC        []float64   `json:"icc"`
+}
+
+// ModelStates holds the state centroids in the normalized space.
+type ModelStates struct {
+	K         int         `json:"k"`
+	Names     []string    `json:"names"`
+	Centroids [][]float64 `json:"centroids"`
+}
+
+// ModelGrouping holds the group centres in the grouping space.
+type ModelGrouping struct {
+	Method    string      `json:"method"`
+	K         int         `json:"k"`
+	Names     []string    `json:"names"`
+	Centroids [][]float64 `json:"centroids"`
+	Atypical  float64     `json:"atypical_distance"` // 99th percentile of fitted members' distances to their own centre
+}
+
+// ModelMember is a fitted participant's group, for the changes sheet of later runs.
+type ModelMember struct {
+	ID       string  `json:"id"`
+	Wave     string  `json:"wave,omitempty"`
+	Group    string  `json:"group"`
+	Distance float64 `json:"distance"`
+}
+
+// NewModel gathers the frozen fits of a result.
+func NewModel(r *Result, read cohort.ReadOptions, featureMeds [][3]float64) *Model {
+	n := r.Norm
+	m := &Model{Format: ModelFormat, Version: ModelVersion, Created: r.Created.UTC(), Tool: r.Tool + " " + r.Version,
+		Features: r.Features, Settings: r.Settings, FeatureMeds: featureMeds,
+		Read: ModelRead{ID: read.ID, Order: read.Order, Wave: read.Wave, Missing: read.Missing.String(), MinWindows: read.MinWindows},
+		Normalize: ModelNorm{Within: n.Within.String(), Touched: n.Touched, TouchedBy: n.TouchedBy, RestShare: n.RestShare,
+			QuietScore: n.QuietScore, QuietMid: n.QuietMid, QuietScale: n.QuietScale, Scale: n.ScaleKind.String(),
+			Center: n.Center, Spread: n.Spread, ICC: n.ICC},
+		States:   ModelStates{K: r.States.K, Names: r.StateNames, Centroids: rows(r.States.Centroids)},
+		Grouping: ModelGrouping{Method: r.Grouping.Method.String(), K: r.Grouping.K, Names: r.GroupNames, Centroids: r.Grouping.Centroids, Atypical: r.AtypicalCut},
+	}
+	if n.PCA != nil {
+		m.Normalize.PCAMean = n.PCA.Mean
+		m.Normalize.PCA = rows(n.PCA.Components)
+	}
+	for _, u := range r.Units {
+		m.Members = append(m.Members, ModelMember{ID: u.ID, Wave: u.Wave, Group: r.GroupNames[u.Group], Distance: u.Distance})
+	}
+	return m
+}
+
+func rows(m *mat.Dense) [][]float64 {
+	r, _ := m.Dims()
+	out := make([][]float64, r)
+	for i := range out {
+		out[i] = append([]float64(nil), m.RawRowView(i)...)
+	}
+	return out
+}
+
+// WriteModel writes the model as indented JSON, atomically.
+func WriteModel(path string, m *Model, force bool) error {
+	return WriteAtomic(path, force, func(w io.Writer) error {
+		enc := json.NewEncoder(w)
+		enc.SetIndent("", " ")
+		return enc.Encode(m)
+	})
+}
+
+// ReadModel reads and checks a model file: its format and version, and that every array has the
+// size the rest of the file implies and holds finite numbers.
+func ReadModel(path string) (*Model, error) {
+	b, err := os.ReadFile(path)
+	if err != nil {
+		return nil, fmt.Errorf("%s: cannot read the model: %w", path, err)
+	}
+	return ParseModel(path, b)
+}
+
+// ParseModel is ReadModel on bytes already read; name is used in messages.
+func ParseModel(name string, b []byte) (*Model, error) {
+	var head struct {
+		Format  string `json:"format"`
+		Version int    `json:"version"`
+	}
+	if err := json.Unmarshal(b, &head); err != nil {
+		return nil, fmt.Errorf("%s: not a model file (%v): %w; pass the .json file that 'cohortmix group --model' wrote", name, jsonPos(b, err), ErrModel)
+	}
+	if head.Format != ModelFormat {
+		return nil, fmt.Errorf("%s: format is %q, not %q: %w; pass a file written by 'cohortmix group --model'", name, head.Format, ModelFormat, ErrModel)
+	}
+	if head.Version != ModelVersion {
+		return nil, fmt.Errorf("%s: schema version %d, this tool reads version %d: %w; refit with 'cohortmix group --model' using this version", name, head.Version, ModelVersion, ErrModel)
+	}
+	dec := json.NewDecoder(bytes.NewReader(b))
+	dec.DisallowUnknownFields()
+	var m Model
+	if err := dec.Decode(&m); err != nil {
+		return nil, fmt.Errorf("%s: damaged or hand-edited (%v): %w; write it again with 'cohortmix group --model'", name, jsonPos(b, err), ErrModel)
+	}
+	if err := m.check(); err != nil {
+		return nil, fmt.Errorf("%s: %v: %w; write it again with 'cohortmix group --model'", name, err, ErrModel)
+	}
+	return &m, nil
+}
+
+func jsonPos(b []byte, err error) string {
+	var se *json.SyntaxError
+	var te *json.UnmarshalTypeError
+	off := int64(-1)
+	switch {
+	case errors.As(err, &se):
+		off = se.Offset
+	case errors.As(err, &te):
+		off = te.Offset
+	}
+	if off < 0 {
+		return err.Error()
+	}
+	line := 1 + bytes.Count(b[:min(int(off), len(b))], []byte("\n"))
+	return fmt.Sprintf("line %d: %v", line, err)
+}
+
+func (m *Model) check() error {
+	d := len(m.Features)
+	if d == 0 {
+		return errors.New("no features")
+	}
+	n := m.Normalize
+	if _, err := normalize.ParseWithin(n.Within); err != nil {
+		return err
+	}
+	if _, err := normalize.ParseScale(n.Scale); err != nil {
+		return err
+	}
+	for name, l := range map[string]int{"touched": len(n.Touched), "center": len(n.Center), "spread": len(n.Spread), "quiet_mid": len(n.QuietMid), "quiet_scale": len(n.QuietScale), "icc": len(n.ICC)} {
+		if l != d {
+			return fmt.Errorf("normalize.%s has %d entries for %d features", name, l, d)
+		}
+	}
+	for _, j := range n.QuietScore {
+		if j < 0 || j >= d {
+			return fmt.Errorf("normalize.quiet_score names feature %d of %d", j, d)
+		}
+	}
+	for j, s := range n.Spread {
+		if !(s > 0) || math.IsInf(s, 0) {
+			return fmt.Errorf("normalize.spread[%d] is %v; spreads are positive", j, s)
+		}
+	}
+	dim := d
+	if n.PCA != nil {
+		if len(n.PCA) != d || len(n.PCAMean) != d {
+			return fmt.Errorf("normalize.pca_components has %d rows and pca_mean %d for %d features", len(n.PCA), len(n.PCAMean), d)
+		}
+		dim = len(n.PCA[0])
+		if err := finiteRows("normalize.pca_components", n.PCA, dim); err != nil {
+			return err
+		}
+	}
+	if err := finiteRows("normalize.center", [][]float64{n.Center, n.QuietMid}, d); err != nil {
+		return err
+	}
+	s := m.States
+	if s.K < 1 || len(s.Centroids) != s.K || len(s.Names) != s.K {
+		return fmt.Errorf("states: k = %d with %d centroids and %d names", s.K, len(s.Centroids), len(s.Names))
+	}
+	if err := finiteRows("states.centroids", s.Centroids, dim); err != nil {
+		return err
+	}
+	g := m.Grouping
+	if _, err := cohort.ParseMethod(g.Method); err != nil {
+		return err
+	}
+	if g.K < 1 || len(g.Centroids) != g.K || len(g.Names) != g.K {
+		return fmt.Errorf("grouping: k = %d with %d centres and %d names", g.K, len(g.Centroids), len(g.Names))
+	}
+	if err := finiteRows("grouping.centroids", g.Centroids, s.K); err != nil {
+		return err
+	}
+	if !(g.Atypical >= 0) || math.IsInf(g.Atypical, 0) {
+		return fmt.Errorf("grouping.atypical_distance is %v", g.Atypical)
+	}
+	if len(m.FeatureMeds) != d {
+		return fmt.Errorf("feature_median_range has %d entries for %d features", len(m.FeatureMeds), d)
+	}
+	return nil
+}
+
+func finiteRows(name string, rows [][]float64, width int) error {
+	for i, r := range rows {
+		if len(r) != width {
+			return fmt.Errorf("%s row %d has %d values, expected %d", name, i, len(r), width)
+		}
+		for j, v := range r {
+			if math.IsNaN(v) || math.IsInf(v, 0) {
+				return fmt.Errorf("%s[%d][%d] is not a finite number", name, i, j)
+			}
+		}
+	}
+	return nil
+}
+
+// NormFit rebuilds the frozen normalization.
+func (m *Model) NormFit() *normalize.Fit {
+	n := m.Normalize
+	w, _ := normalize.ParseWithin(n.Within)
+	sc, _ := normalize.ParseScale(n.Scale)
+	f := &normalize.Fit{Features: m.Features, Within: w, Touched: n.Touched, TouchedBy: n.TouchedBy, RestShare: n.RestShare,
+		QuietScore: n.QuietScore, QuietMid: n.QuietMid, QuietScale: n.QuietScale, ScaleKind: sc, Center: n.Center, Spread: n.Spread, ICC: n.ICC}
+	if n.PCA != nil {
+		k := len(n.PCA[0])
+		comp := mat.NewDense(len(n.PCA), k, nil)
+		for i, r := range n.PCA {
+			comp.SetRow(i, r)
+		}
+		f.PCA = &cluster.PCA{Mean: n.PCAMean, Components: comp}
+	}
+	return f
+}
+
+// StateFit rebuilds the frozen states.
+func (m *Model) StateFit() *profile.States {
+	c := mat.NewDense(m.States.K, len(m.States.Centroids[0]), nil)
+	for i, r := range m.States.Centroids {
+		c.SetRow(i, r)
+	}
+	return &profile.States{K: m.States.K, Centroids: c, Rule: "from the model file"}
+}

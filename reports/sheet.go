@@ -1,0 +1,164 @@
+package reports
+
+import (
+	"fmt"
+	"math"
+	"strings"
+
+	"github.com/xuri/excelize/v2"
+)
+
+// Cell styles of the workbook, made once per file.
+type styles struct {
+	title, header, text, wrap, integer, dec2, dec3, dec4, pct, pvalue, note, warn int
+}
+
+// Palette: slate ink on warm paper, with a teal accent; chosen for this tool.
+const (
+	colInk     = "23313F"
+	colAccent  = "1F7A7A"
+	colHeader  = "DDEBE8"
+	colWarn    = "B5482F"
+	colNoteBkg = "FBF6EC"
+)
+
+func newStyles(f *excelize.File) (*styles, error) {
+	s := &styles{}
+	mk := func(st *excelize.Style) int {
+		id, err := f.NewStyle(st)
+		if err != nil {
+			panic(err) // only fixed, valid styles are made here
+		}
+		return id
+	}
+	font := func(bold bool, size float64, color string) *excelize.Font {
+		return &excelize.Font{Bold: bold, Size: size, Color: color, Family: "Calibri"}
+	}
+	numFmt := func(code string) *string { return &code }
+	s.title = mk(&excelize.Style{Font: font(true, 15, colAccent)})
+	s.header = mk(&excelize.Style{Font: font(true, 11, colInk), Fill: excelize.Fill{Type: "pattern", Pattern: 1, Color: []string{colHeader}},
+		Border: []excelize.Border{{Type: "bottom", Color: colAccent, Style: 2}}, Alignment: &excelize.Alignment{WrapText: true, Vertical: "top"}})
+	s.text = mk(&excelize.Style{Font: font(false, 11, colInk)})
+	s.wrap = mk(&excelize.Style{Font: font(false, 11, colInk), Alignment: &excelize.Alignment{WrapText: true, Vertical: "top"}})
+	s.integer = mk(&excelize.Style{Font: font(false, 11, colInk), NumFmt: 1})
+	s.dec2 = mk(&excelize.Style{Font: font(false, 11, colInk), CustomNumFmt: numFmt("0.00")})
+	s.dec3 = mk(&excelize.Style{Font: font(false, 11, colInk), CustomNumFmt: numFmt("0.000")})
+	s.dec4 = mk(&excelize.Style{Font: font(false, 11, colInk), CustomNumFmt: numFmt("0.0000")})
+	s.pct = mk(&excelize.Style{Font: font(false, 11, colInk), CustomNumFmt: numFmt("0.0%")})
+	s.pvalue = mk(&excelize.Style{Font: font(false, 11, colInk), CustomNumFmt: numFmt("[<0.001]0.00E+00;0.0000")})
+	s.note = mk(&excelize.Style{Font: font(false, 11, colInk), Fill: excelize.Fill{Type: "pattern", Pattern: 1, Color: []string{colNoteBkg}}, Alignment: &excelize.Alignment{WrapText: true, Vertical: "top"}})
+	s.warn = mk(&excelize.Style{Font: font(true, 11, colWarn), Alignment: &excelize.Alignment{WrapText: true, Vertical: "top"}})
+	return s, nil
+}
+
+// table streams one sheet: a header row, then rows; columns get widths that fit their content.
+type table struct {
+	f      *excelize.File
+	sw     *excelize.StreamWriter
+	name   string
+	row    int
+	widths []float64
+	cols   int
+	header int // row of the column header, for freezing and the filter
+	st     *styles
+}
+
+func newTable(f *excelize.File, st *styles, name string, widths []float64) (*table, error) {
+	if _, err := f.NewSheet(name); err != nil {
+		return nil, err
+	}
+	sw, err := f.NewStreamWriter(name)
+	if err != nil {
+		return nil, err
+	}
+	for i, w := range widths {
+		if err := sw.SetColWidth(i+1, i+1, w); err != nil {
+			return nil, err
+		}
+	}
+	return &table{f: f, sw: sw, name: name, widths: widths, st: st}, nil
+}
+
+// v is one cell: a value with a style.
+type v struct {
+	val   any
+	style int
+}
+
+func (t *table) put(cells ...v) error {
+	t.row++
+	out := make([]any, len(cells))
+	for i, c := range cells {
+		val := c.val
+		switch x := val.(type) {
+		case float64:
+			if math.IsNaN(x) || math.IsInf(x, 0) {
+				val = "" // not computed: an empty cell, never a made-up number
+			}
+		}
+		// A Go string is written as a text cell, never as a formula, whatever it begins with
+		// (=, +, -, @): ids and names from the input cannot run in a spreadsheet.
+		out[i] = excelize.Cell{Value: val, StyleID: c.style}
+	}
+	if len(cells) > t.cols {
+		t.cols = len(cells)
+	}
+	cell, _ := excelize.CoordinatesToCellName(1, t.row)
+	return t.sw.SetRow(cell, out)
+}
+
+// heading writes the column header and remembers it for the frozen pane and the filter.
+func (t *table) heading(names ...string) error {
+	cells := make([]v, len(names))
+	for i, n := range names {
+		cells[i] = v{n, t.st.header}
+	}
+	if err := t.put(cells...); err != nil {
+		return err
+	}
+	t.header = t.row
+	return nil
+}
+
+func (t *table) blank() { t.row++ }
+
+// freeze keeps rows 1…header in view; it must come before the first row is written.
+func (t *table) freeze(header int) error {
+	cell, _ := excelize.CoordinatesToCellName(1, header+1)
+	return t.sw.SetPanes(&excelize.Panes{Freeze: true, YSplit: header, TopLeftCell: cell, ActivePane: "bottomLeft"})
+}
+
+// close flushes the sheet; with filter, it puts an autofilter on the table below the header.
+func (t *table) close(filter bool) error {
+	if err := t.sw.Flush(); err != nil {
+		return err
+	}
+	if filter && t.header > 0 && t.row > t.header {
+		first, _ := excelize.CoordinatesToCellName(1, t.header)
+		last, _ := excelize.CoordinatesToCellName(t.cols, t.row)
+		if err := t.f.AutoFilter(t.name, first+":"+last, nil); err != nil {
+			return err
+		}
+	}
+	return nil
+}
+
+// width estimates a column width in characters for the longest of the strings.
+func width(min float64, ss ...string) float64 {
+	w := min
+	for _, s := range ss {
+		if l := float64(len([]rune(s))) + 2; l > w {
+			w = l
+		}
+	}
+	return math.Min(w, 80)
+}
+
+func join(xs []string) string { return strings.Join(xs, ", ") }
+
+func fmtRange(ks []int) string {
+	if len(ks) == 1 {
+		return fmt.Sprint(ks[0])
+	}
+	return fmt.Sprintf("%d–%d", ks[0], ks[len(ks)-1])
+}

@@ -1,0 +1,511 @@
+package reports
+
+import (
+	"fmt"
+	"io"
+	"math"
+
+	"github.com/cohortmix/cohortmix/cohort"
+	"github.com/xuri/excelize/v2"
+)
+
+// Sheet names, in the order of the tabs.
+const (
+	SheetSummary      = "Summary"
+	SheetParticipants = "Participants"
+	SheetGroups       = "Group profiles"
+	SheetSeparating   = "Separating variables"
+	SheetStates       = "Movement states"
+	SheetChoice       = "Choosing k"
+	SheetQuality      = "Data quality"
+	SheetSettings     = "Settings"
+)
+
+// BuildWorkbook lays the result out as a workbook.
+func BuildWorkbook(r *Result) (*excelize.File, error) {
+	f := excelize.NewFile()
+	st, err := newStyles(f)
+	if err != nil {
+		return nil, err
+	}
+	steps := []func(*excelize.File, *styles, *Result) error{summarySheet, participantsSheet, groupsSheet, separatingSheet, statesSheet, choiceSheet, qualitySheet, settingsSheet}
+	for _, step := range steps {
+		if err := step(f, st, r); err != nil {
+			return nil, fmt.Errorf("reports: %w", err)
+		}
+	}
+	if err := f.DeleteSheet("Sheet1"); err != nil {
+		return nil, err
+	}
+	f.SetActiveSheet(0)
+	return f, nil
+}
+
+// WriteWorkbook writes the workbook to path atomically (see WriteAtomic).
+func WriteWorkbook(path string, r *Result, force bool) error {
+	f, err := BuildWorkbook(r)
+	if err != nil {
+		return err
+	}
+	defer f.Close()
+	return WriteAtomic(path, force, func(w io.Writer) error { _, err := f.WriteTo(w); return err })
+}
+
+func groupLabel(r *Result, g int) string { return r.GroupNames[g] }
+
+func summarySheet(f *excelize.File, st *styles, r *Result) error {
+	t, err := newTable(f, st, SheetSummary, []float64{34, 90})
+	if err != nil {
+		return err
+	}
+	put := func(a, b string) error { return t.put(v{a, st.header}, v{b, st.wrap}) }
+	if err := t.put(v{"Movement groups of the cohort", st.title}); err != nil {
+		return err
+	}
+	if r.Synthetic {
+		if err := t.put(v{"SYNTHETIC DATA", st.warn}, v{"Every participant in this workbook is invented by the tool's demo generator; no real person's data is in it.", st.warn}); err != nil {
+			return err
+		}
+	}
+	t.blank()
+	for _, c := range Cautions {
+		if err := t.put(v{"Caution", st.warn}, v{c, st.note}); err != nil {
+			return err
+		}
+	}
+	for _, w := range r.Warnings {
+		if err := t.put(v{"Warning", st.warn}, v{w, st.note}); err != nil {
+			return err
+		}
+	}
+	t.blank()
+	q := r.Quality
+	rows := [][2]string{
+		{"What was done", fmt.Sprintf("Windows were standardized within each participant (%s, on %s) and across the cohort (%s)%s; %d movement states were learned by k-means from %d sampled windows; participants were grouped on their state mixtures by %s into %d groups.",
+			r.Norm.Within, touchedText(r), r.Norm.ScaleKind, pcaText(r), r.States.K, r.States.Sampled, r.Grouping.Method, r.Grouping.K)},
+		{"Number of states", fmt.Sprintf("%d (%s)", r.States.K, r.States.Rule)},
+		{"Number of groups", fmt.Sprintf("%d (%s)", r.Grouping.K, choiceText(r))},
+		{"Participants", fmt.Sprintf("%d in the input: %d grouped, %d excluded (see %s)", q.UnitsIn, len(r.Units), len(q.Excluded), SheetQuality)},
+		{"Windows", fmt.Sprintf("%d in the input: %d used, %d dropped for missing cells, %d in excluded participants", q.WindowsIn, q.WindowsIn-q.WindowsDropped-q.WindowsExcluded, q.WindowsDropped, q.WindowsExcluded)},
+		{"Features", fmt.Sprintf("%d used: %s", len(r.Features), join(r.Features))},
+		{"Created", r.Created.UTC().Format("2006-01-02 15:04:05 UTC") + " by " + r.Tool + " " + r.Version},
+	}
+	if r.Grouping.Note != "" {
+		rows = append(rows, [2]string{"Note", r.Grouping.Note})
+	}
+	for _, row := range rows {
+		if err := put(row[0], row[1]); err != nil {
+			return err
+		}
+	}
+	t.blank()
+	if err := t.put(v{"Groups", st.title}); err != nil {
+		return err
+	}
+	for g, name := range r.GroupNames {
+		if err := put(name, r.GroupLines[g]); err != nil {
+			return err
+		}
+	}
+	t.blank()
+	if err := t.put(v{"Movement states", st.title}); err != nil {
+		return err
+	}
+	for s, name := range r.StateNames {
+		if err := put(name, r.StateLines[s]); err != nil {
+			return err
+		}
+	}
+	return t.close(false)
+}
+
+func touchedText(r *Result) string {
+	if r.Norm.Within.String() == "none" {
+		return "no features"
+	}
+	var names []string
+	for j, ok := range r.Norm.Touched {
+		if ok {
+			names = append(names, r.Norm.Features[j])
+		}
+	}
+	if len(names) == 0 {
+		return "no features (" + r.Norm.TouchedBy + " found none)"
+	}
+	return join(names) + ", chosen by " + r.Norm.TouchedBy
+}
+
+func pcaText(r *Result) string {
+	if r.Norm.PCA == nil {
+		return ", without PCA"
+	}
+	var total float64
+	for _, x := range r.Norm.PCA.Ratio {
+		total += x
+	}
+	return fmt.Sprintf(", then projected on %d principal components (%.1f%% of the variance)", len(r.Norm.PCA.Ratio), 100*total)
+}
+
+func choiceText(r *Result) string {
+	if len(r.Grouping.Scores) <= 1 {
+		return "fixed"
+	}
+	switch r.Grouping.Criterion.String() {
+	case "gap":
+		return "gap statistic, Tibshirani et al. 2001, over " + kRange(r)
+	case "stability":
+		return "bootstrap stability, over " + kRange(r)
+	}
+	return "mean silhouette, over " + kRange(r)
+}
+
+func kRange(r *Result) string {
+	ks := make([]int, len(r.Grouping.Scores))
+	for i, s := range r.Grouping.Scores {
+		ks[i] = s.K
+	}
+	return fmtRange(ks)
+}
+
+func participantsSheet(f *excelize.File, st *styles, r *Result) error {
+	k := r.States.K
+	idW := 12.0
+	for _, u := range r.Units {
+		idW = width(idW, u.ID)
+	}
+	widths := []float64{idW, 8, 10, 9, 11, 11, 34}
+	for i := 0; i < 2*k; i++ {
+		widths = append(widths, 10)
+	}
+	t, err := newTable(f, st, SheetParticipants, widths)
+	if err != nil {
+		return err
+	}
+	if err := t.freeze(1); err != nil {
+		return err
+	}
+	head := []string{"participant", "wave", "windows", "group", "silhouette", "distance to centre", "flag"}
+	for s := 0; s < k; s++ {
+		head = append(head, "share "+r.StateNames[s])
+	}
+	for s := 0; s < k; s++ {
+		head = append(head, "bout "+r.StateNames[s])
+	}
+	if err := t.heading(head...); err != nil {
+		return err
+	}
+	for _, u := range r.Units {
+		cells := []v{{u.ID, st.text}, {u.Wave, st.text}, {u.Windows, st.integer}, {groupLabel(r, u.Group), st.text},
+			{u.Silhouette, st.dec3}, {u.Distance, st.dec3}, {u.Flag, st.text}}
+		for _, x := range u.Share {
+			cells = append(cells, v{x, st.pct})
+		}
+		for _, x := range u.Bout {
+			cells = append(cells, v{x, st.dec2})
+		}
+		if err := t.put(cells...); err != nil {
+			return err
+		}
+	}
+	return t.close(true)
+}
+
+func groupsSheet(f *excelize.File, st *styles, r *Result) error {
+	k := r.States.K
+	widths := []float64{8, 10, 11, 60}
+	for i := 0; i < 2*k; i++ {
+		widths = append(widths, 10)
+	}
+	t, err := newTable(f, st, SheetGroups, widths)
+	if err != nil {
+		return err
+	}
+	if err := t.freeze(1); err != nil {
+		return err
+	}
+	head := []string{"group", "members", "mean silhouette", "description"}
+	for s := 0; s < k; s++ {
+		head = append(head, "mean share "+r.StateNames[s])
+	}
+	for s := 0; s < k; s++ {
+		head = append(head, "mean bout "+r.StateNames[s])
+	}
+	if err := t.heading(head...); err != nil {
+		return err
+	}
+	for g := range r.GroupNames {
+		var n, sil float64
+		share := make([]float64, k)
+		bout := make([]float64, k)
+		for _, u := range r.Units {
+			if u.Group != g {
+				continue
+			}
+			n++
+			sil += u.Silhouette
+			for s := 0; s < k; s++ {
+				share[s] += u.Share[s]
+				bout[s] += u.Bout[s]
+			}
+		}
+		cells := []v{{r.GroupNames[g], st.text}, {int(n), st.integer}, {sil / n, st.dec3}, {r.GroupLines[g], st.wrap}}
+		for s := 0; s < k; s++ {
+			cells = append(cells, v{share[s] / n, st.pct})
+		}
+		for s := 0; s < k; s++ {
+			cells = append(cells, v{bout[s] / n, st.dec2})
+		}
+		if err := t.put(cells...); err != nil {
+			return err
+		}
+	}
+	return t.close(true)
+}
+
+func separatingSheet(f *excelize.File, st *styles, r *Result) error {
+	g := len(r.GroupNames)
+	widths := []float64{22, 15, 9, 10, 11, 11}
+	for i := 0; i < 3*g; i++ {
+		widths = append(widths, 12)
+	}
+	t, err := newTable(f, st, SheetSeparating, widths)
+	if err != nil {
+		return err
+	}
+	if err := t.freeze(2); err != nil {
+		return err
+	}
+	if err := t.put(v{"Descriptive only: the groups were found on these data, so the p- and q-values do not confirm a difference.", st.note}); err != nil {
+		return err
+	}
+	head := []string{"variable", "kind", "ε²", "H", "p", "q (BH)"}
+	for _, n := range r.GroupNames {
+		head = append(head, n+" median")
+	}
+	for _, n := range r.GroupNames {
+		head = append(head, n+" IQR")
+	}
+	for _, n := range r.GroupNames {
+		head = append(head, n+" Cliff δ")
+	}
+	if err := t.heading(head...); err != nil {
+		return err
+	}
+	for _, s := range r.Separations {
+		cells := []v{{s.Name, st.text}, {s.Kind, st.text}, {s.Epsilon2, st.dec3}, {s.H, st.dec2}, {s.P, st.pvalue}, {s.Q, st.pvalue}}
+		for i := 0; i < g; i++ {
+			cells = append(cells, v{s.Median[i], st.dec4})
+		}
+		for i := 0; i < g; i++ {
+			cells = append(cells, v{fmt.Sprintf("%.4g – %.4g", s.Q1[i], s.Q3[i]), st.text})
+		}
+		for i := 0; i < g; i++ {
+			cells = append(cells, v{s.Delta[i], st.dec3})
+		}
+		if err := t.put(cells...); err != nil {
+			return err
+		}
+	}
+	for _, n := range r.NotTested {
+		if err := t.put(v{n.Name, st.text}, v{n.Reason, st.text}); err != nil {
+			return err
+		}
+	}
+	return t.close(true)
+}
+
+func statesSheet(f *excelize.File, st *styles, r *Result) error {
+	widths := []float64{8, 10, 60}
+	for range r.Features {
+		widths = append(widths, 11)
+	}
+	t, err := newTable(f, st, SheetStates, widths)
+	if err != nil {
+		return err
+	}
+	if err := t.freeze(1); err != nil {
+		return err
+	}
+	head := []string{"state", "share of windows", "description"}
+	for _, name := range r.Features {
+		head = append(head, "mean "+name)
+	}
+	if err := t.heading(head...); err != nil {
+		return err
+	}
+	for s, d := range r.StateDesc {
+		cells := []v{{r.StateNames[s], st.text}, {d.Share, st.pct}, {r.StateLines[s], st.wrap}}
+		for _, m := range d.Mean {
+			cells = append(cells, v{m, st.dec4})
+		}
+		if err := t.put(cells...); err != nil {
+			return err
+		}
+	}
+	if lt := r.Labels; lt != nil {
+		t.blank()
+		if err := t.put(v{"States against the known activity labels (windows)", st.title}); err != nil {
+			return err
+		}
+		if err := t.put(v{fmt.Sprintf("adjusted Rand index %.4f, normalized mutual information %.4f", lt.ARI, lt.NMI), st.text}); err != nil {
+			return err
+		}
+		head := []v{{"state", st.header}}
+		for _, l := range lt.Labels {
+			head = append(head, v{l, st.header})
+		}
+		if err := t.put(head...); err != nil {
+			return err
+		}
+		for s, row := range lt.Counts {
+			cells := []v{{r.StateNames[s], st.text}}
+			for _, c := range row {
+				cells = append(cells, v{c, st.integer})
+			}
+			if err := t.put(cells...); err != nil {
+				return err
+			}
+		}
+	}
+	return t.close(true)
+}
+
+func choiceSheet(f *excelize.File, st *styles, r *Result) error {
+	t, err := newTable(f, st, SheetChoice, []float64{14, 16, 14, 18, 16, 14})
+	if err != nil {
+		return err
+	}
+	if err := t.put(v{"Number of movement states: " + r.States.Rule, st.title}); err != nil {
+		return err
+	}
+	if err := t.heading("states", "within SS", "silhouette", "Calinski–Harabasz", "Davies–Bouldin", "chosen"); err != nil {
+		return err
+	}
+	for _, c := range r.States.Candidates {
+		if err := t.put(v{c.K, st.integer}, v{c.Inertia, st.dec2}, v{c.Silhouette, st.dec3}, v{c.CalinskiHarabasz, st.dec2}, v{c.DaviesBouldin, st.dec3}, v{mark(c.K == r.States.K), st.text}); err != nil {
+			return err
+		}
+	}
+	t.blank()
+	if err := t.put(v{"Number of participant groups: " + choiceText(r), st.title}); err != nil {
+		return err
+	}
+	if err := t.put(v{"groups", st.header}, v{"silhouette", st.header}, v{"gap", st.header}, v{"gap s.e.", st.header}, v{"stability (ARI)", st.header}, v{"chosen", st.header}); err != nil {
+		return err
+	}
+	for _, s := range r.Grouping.Scores {
+		gap, se, stab := s.Gap, s.GapSE, s.Stability
+		if len(r.Grouping.Scores) == 1 {
+			gap, se, stab = math.NaN(), math.NaN(), math.NaN() // not computed for a fixed number
+		}
+		if err := t.put(v{s.K, st.integer}, v{s.Silhouette, st.dec3}, v{gap, st.dec3}, v{se, st.dec3}, v{stab, st.dec3}, v{mark(s.K == r.Grouping.K), st.text}); err != nil {
+			return err
+		}
+	}
+	return t.close(false)
+}
+
+func mark(b bool) string {
+	if b {
+		return "◆ chosen"
+	}
+	return ""
+}
+
+func qualitySheet(f *excelize.File, st *styles, r *Result) error {
+	t, err := newTable(f, st, SheetQuality, []float64{24, 10, 12, 80})
+	if err != nil {
+		return err
+	}
+	q := r.Quality
+	if err := t.put(v{"Accounting", st.title}); err != nil {
+		return err
+	}
+	for _, row := range []struct {
+		a string
+		n int
+	}{
+		{"participants in", q.UnitsIn}, {"participants grouped", len(r.Units)}, {"participants excluded", len(q.Excluded)},
+		{"windows in", q.WindowsIn}, {"windows used", q.WindowsIn - q.WindowsDropped - q.WindowsExcluded},
+		{"windows dropped (missing cells)", q.WindowsDropped}, {"windows of excluded participants", q.WindowsExcluded}, {"cells imputed", q.CellsImputed},
+	} {
+		if err := t.put(v{row.a, st.text}, v{row.n, st.integer}); err != nil {
+			return err
+		}
+	}
+	for _, n := range q.Notes {
+		if err := t.put(v{"policy applied", st.text}, v{"", st.text}, v{"", st.text}, v{n, st.wrap}); err != nil {
+			return err
+		}
+	}
+	t.blank()
+	if err := t.put(v{"participant", st.header}, v{"wave", st.header}, v{"windows", st.header}, v{"why excluded", st.header}); err != nil {
+		return err
+	}
+	for _, e := range q.Excluded {
+		if err := t.put(v{e.ID, st.text}, v{e.Wave, st.text}, v{e.Windows, st.integer}, v{e.Reason, st.wrap}); err != nil {
+			return err
+		}
+	}
+	t.blank()
+	if err := t.put(v{"column", st.header}, v{"", st.header}, v{"", st.header}, v{"why not used", st.header}); err != nil {
+		return err
+	}
+	for _, n := range append(append([]cohort.Note(nil), q.DroppedFeatures...), q.IgnoredColumns...) {
+		if err := t.put(v{n.Name, st.text}, v{"", st.text}, v{"", st.text}, v{n.Reason, st.wrap}); err != nil {
+			return err
+		}
+	}
+	t.blank()
+	if err := t.put(v{"feature", st.header}, v{"ICC(1)", st.header}, v{"within step", st.header}, v{"meaning", st.header}); err != nil {
+		return err
+	}
+	for j, name := range r.Norm.Features {
+		touched := "untouched"
+		if r.Norm.Touched[j] && r.Norm.Within.String() != "none" {
+			touched = r.Norm.Within.String()
+		}
+		meaning := "mostly varies within participants"
+		if r.Norm.ICC[j] >= 0.3 {
+			meaning = "a large share of its variance lies between participants: it may carry device or person offsets"
+		}
+		if err := t.put(v{name, st.text}, v{r.Norm.ICC[j], st.dec3}, v{touched, st.text}, v{meaning, st.wrap}); err != nil {
+			return err
+		}
+	}
+	return t.close(false)
+}
+
+func settingsSheet(f *excelize.File, st *styles, r *Result) error {
+	t, err := newTable(f, st, SheetSettings, []float64{28, 70, 20})
+	if err != nil {
+		return err
+	}
+	if err := t.freeze(1); err != nil {
+		return err
+	}
+	if err := t.heading("setting", "value", ""); err != nil {
+		return err
+	}
+	for _, s := range r.Settings {
+		if err := t.put(v{s.Name, st.text}, v{s.Value, st.wrap}); err != nil {
+			return err
+		}
+	}
+	if err := t.put(v{"command", st.text}, v{r.Command, st.wrap}); err != nil {
+		return err
+	}
+	if err := t.put(v{"tool version", st.text}, v{r.Tool + " " + r.Version, st.text}); err != nil {
+		return err
+	}
+	t.blank()
+	if err := t.put(v{"input file", st.header}, v{"SHA-256", st.header}, v{"rows", st.header}); err != nil {
+		return err
+	}
+	for _, fi := range r.Files {
+		if err := t.put(v{fi.Path, st.wrap}, v{fi.SHA256, st.text}, v{fi.Rows, st.integer}); err != nil {
+			return err
+		}
+	}
+	return t.close(true)
+}
