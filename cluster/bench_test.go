@@ -2,14 +2,21 @@ package cluster
 
 import (
 	"context"
+	"encoding/binary"
+	"fmt"
+	"math"
 	"math/rand/v2"
+	"os"
+	"path/filepath"
 	"testing"
 
 	"gonum.org/v1/gonum/mat"
 )
 
-// benchData is n × d unit-normal points around k random centres, from a fixed seed;
-// testdata/cluster/bench_reference.py draws data of the same shape and distribution.
+// benchData is n × d unit-normal points around k random centres, from a fixed seed. With
+// COHORTMIX_BENCH_DUMP set to a folder, it also writes them there as raw little-endian float64
+// (bench-n-d.f64), so that testdata/cluster/bench_reference.py times the references on the
+// very same points.
 func benchData(n, d, k int) *mat.Dense {
 	rng := rand.New(rand.NewPCG(1, 2))
 	centres := make([]float64, k*d)
@@ -24,10 +31,19 @@ func benchData(n, d, k int) *mat.Dense {
 			raw[i*d+j] = centres[c*d+j] + rng.NormFloat64()
 		}
 	}
+	if dir := os.Getenv("COHORTMIX_BENCH_DUMP"); dir != "" {
+		buf := make([]byte, 8*len(raw))
+		for i, v := range raw {
+			binary.LittleEndian.PutUint64(buf[8*i:], math.Float64bits(v))
+		}
+		if err := os.WriteFile(filepath.Join(dir, fmt.Sprintf("bench-%d-%d.f64", n, d)), buf, 0o644); err != nil {
+			panic(err)
+		}
+	}
 	return x
 }
 
-// Compare with: env -u OPENBLAS_CORETYPE -u OPENBLAS_L2_SIZE /usr/bin/python3 testdata/cluster/bench_reference.py
+// Compare with testdata/cluster/bench_reference.sh, which runs these and the references on the same points.
 func BenchmarkKMeans(b *testing.B) {
 	x := benchData(1_000_000, 10, 8)
 	b.Run("n=1e6,d=10,k=8,restarts=10", func(b *testing.B) {

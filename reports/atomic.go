@@ -40,6 +40,9 @@ func WriteAtomic(path string, force bool, write func(io.Writer) error) (err erro
 			os.Remove(tmp.Name())
 		}
 	}()
+	if err = tmp.Chmod(0o644); err != nil { // CreateTemp makes 0600; outputs get the usual mode
+		return fmt.Errorf("%s: %w", path, err)
+	}
 	if err = write(tmp); err != nil {
 		return fmt.Errorf("%s: %w", path, err)
 	}

@@ -1,20 +1,21 @@
 #!/usr/bin/python3
-"""Times the reference libraries on data of the same shapes as cluster/bench_test.go.
+"""Times the reference libraries on the points that cluster/bench_test.go uses.
 
-Run: env -u OPENBLAS_CORETYPE -u OPENBLAS_L2_SIZE /usr/bin/python3 testdata/cluster/bench_reference.py
-(the machine sets both variables for old OpenBLAS builds; they slow a current numpy).
+Run testdata/cluster/bench_reference.sh, which first has the Go benchmarks write their points
+(COHORTMIX_BENCH_DUMP) and then runs this script with OPENBLAS_CORETYPE and OPENBLAS_L2_SIZE
+unset (the machine sets both for old OpenBLAS builds; they slow a current numpy).
 """
-import time
+import os, sys, time
 import numpy as np
 from sklearn.cluster import KMeans
 from sklearn.metrics import silhouette_score
 from scipy.cluster.hierarchy import linkage
 
+d = sys.argv[1]
 
-def data(n, d, k, seed=1):
-    rng = np.random.default_rng(seed)
-    c = rng.normal(0, 4, (k, d))
-    return c[rng.integers(0, k, n)] + rng.normal(0, 1, (n, d))
+
+def load(n, dim):
+    return np.fromfile(os.path.join(d, f"bench-{n}-{dim}.f64"), dtype="<f8").reshape(n, dim)
 
 
 def timed(name, f, reps=3):
@@ -23,13 +24,13 @@ def timed(name, f, reps=3):
         t = time.perf_counter()
         out = f()
         best = min(best, time.perf_counter() - t)
-    print(f"{name}: best of {reps} {best:.3f} s {out}")
+    print(f"{name}: best of {reps} {best:.3f} s  {out}")
 
 
-x = data(1_000_000, 10, 8)
-timed("KMeans n=1e6 d=10 k=8 n_init=10", lambda: "inertia %.6g iter %d" % ((m := KMeans(8, n_init=10, random_state=1).fit(x)).inertia_, m.n_iter_))
-x = data(10_000, 10, 8)
-timed("ward linkage n=1e4 d=10", lambda: linkage(x, "ward").shape)
-x = data(20_000, 10, 8)
+x = load(1_000_000, 10)
+timed("sklearn KMeans(8, n_init=10) n=1e6 d=10", lambda: "inertia %.1f iterations %d" % ((m := KMeans(8, n_init=10, random_state=1).fit(x)).inertia_, m.n_iter_))
+x = load(10_000, 10)
+timed("scipy linkage(ward) n=1e4 d=10", lambda: "top height %.6f" % linkage(x, "ward")[-1, 2])
+x = load(20_000, 10)
 lab = np.arange(20_000) % 8
-timed("silhouette_score n=2e4 d=10", lambda: "%.4f" % silhouette_score(x, lab))
+timed("sklearn silhouette_score n=2e4 d=10", lambda: "%.6f" % silhouette_score(x, lab))
