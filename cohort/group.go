@@ -198,7 +198,7 @@ func GroupSignatures(ctx context.Context, shares [][]float64, opts GroupOptions)
 		if err := scoreStability(ctx, x, dist, g.Scores, labelsByK, opts); err != nil {
 			return nil, err
 		}
-		g.K = choose(g.Scores, opts.Criterion)
+		g.K = Choose(g.Scores, opts.Criterion)
 	} else {
 		g.K = opts.Groups[0]
 	}
@@ -432,8 +432,8 @@ func scoreStability(ctx context.Context, x *mat.Dense, dist *cluster.Condensed, 
 	return nil
 }
 
-// choose applies the criterion to the scores (ties to the smaller k).
-func choose(scores []KScore, c Criterion) int {
+// Choose applies the criterion to the scores (ties to the smaller k).
+func Choose(scores []KScore, c Criterion) int {
 	best := 0
 	switch c {
 	case ByGap:
