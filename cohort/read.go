@@ -573,7 +573,7 @@ func (r *reader) parseOrder(p string, cr *csv.Reader, col int, name, cell string
 		r.orderKind = kind
 		r.orderAt = fmt.Sprintf("%s:%d", p, l)
 	} else if r.orderKind != kind {
-		return 0, &InputError{File: p, Line: l, Column: c, Field: name, Msg: fmt.Sprintf("%q is %s but the order column held %s values from %s; use one kind throughout", cell, article(kind), article(r.orderKind), r.orderAt), Err: ErrOrder}
+		return 0, &InputError{File: p, Line: l, Column: c, Field: name, Msg: fmt.Sprintf("%q is %s but the order column held %ss from %s on; use one kind throughout", cell, article(kind), r.orderKind, r.orderAt), Err: ErrOrder}
 	}
 	return v, nil
 }

@@ -9,6 +9,7 @@ import (
 	"strconv"
 	"strings"
 	"testing"
+	"time"
 
 	"github.com/cohortmix/cohortmix/cluster"
 	"github.com/cohortmix/cohortmix/cohort"
@@ -242,4 +243,14 @@ func TestSameResultWhateverTheWorkers(t *testing.T) {
 			}
 		}
 	}
+}
+
+func fixedNow() time.Time { return time.Date(2026, 12, 2, 9, 0, 0, 0, time.UTC) }
+
+// defaultFlags are the flag defaults, as a user who passes none gets them.
+func defaultFlags() mainFlags {
+	var m mainFlags
+	cmd := newGroupCmd(&Env{}, nil)
+	m.register(cmd)
+	return m
 }

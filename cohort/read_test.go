@@ -1,0 +1,286 @@
+package cohort
+
+import (
+	"bytes"
+	"compress/gzip"
+	"errors"
+	"math"
+	"os"
+	"path/filepath"
+	"strings"
+	"testing"
+)
+
+func write(t testing.TB, dir, name string, b []byte) string {
+	t.Helper()
+	p := filepath.Join(dir, name)
+	if err := os.WriteFile(p, b, 0o644); err != nil {
+		t.Fatal(err)
+	}
+	return p
+}
+
+func gz(b []byte) []byte {
+	var buf bytes.Buffer
+	w := gzip.NewWriter(&buf)
+	w.Write(b)
+	w.Close()
+	return buf.Bytes()
+}
+
+// rowsOf builds a small cohort: participants A and B with n windows each.
+func rowsOf(n int, sep string) string {
+	var b strings.Builder
+	b.WriteString(strings.Join([]string{"participant", "window", "f1", "f2"}, sep) + "\n")
+	for _, p := range []string{"A", "B"} {
+		for i := 0; i < n; i++ {
+			b.WriteString(strings.Join([]string{p, itoa(i), itoa(i%7) + ".5", itoa((i*3)%5)}, sep) + "\n")
+		}
+	}
+	return b.String()
+}
+
+func itoa(i int) string {
+	if i == 0 {
+		return "0"
+	}
+	s := ""
+	for ; i > 0; i /= 10 {
+		s = string(rune('0'+i%10)) + s
+	}
+	return s
+}
+
+// Each bad input ends in the exact one-line message users see.
+func TestReadErrors(t *testing.T) {
+	dir := t.TempDir()
+	good := rowsOf(3, ",")
+	cases := []struct {
+		name  string
+		files map[string][]byte // read in name order
+		opts  ReadOptions
+		want  string
+		cause error
+	}{
+		{"missing id", map[string][]byte{"a.csv": []byte(strings.Replace(good, "participant", "pid", 1))}, ReadOptions{},
+			`a.csv:1: no column "participant" (the id); pass --id with one of: pid, window, f1, f2`, ErrNoColumn},
+		{"missing order", map[string][]byte{"a.csv": []byte(strings.Replace(good, "window", "w", 1))}, ReadOptions{},
+			`a.csv:1: no column "window" (the order); pass --order with one of: participant, w, f1, f2, or --order - to keep the file's row order`, ErrNoColumn},
+		{"duplicate column", map[string][]byte{"a.csv": []byte(strings.Replace(good, "f2", "f1", 1))}, ReadOptions{},
+			`a.csv:1: f1: column name appears twice (columns 3 and 4); rename one`, ErrDuplicate},
+		{"decimal comma in a comma file", map[string][]byte{"a.csv": []byte(strings.Replace(good, "A,1,1.5", `A,1,"1,5"`, 1))}, ReadOptions{},
+			`a.csv:3:5: f1: "1,5" is not a number; use '.' as the decimal separator, or pass a semicolon file`, ErrNotNumber},
+		{"infinite value", map[string][]byte{"a.csv": []byte(strings.Replace(good, "A,1,1.5", "A,1,Inf", 1))}, ReadOptions{},
+			`a.csv:3:5: f1: "Inf" is infinite or larger than 1e+12 in magnitude; fix the value or leave the cell empty to mark it missing`, ErrNonFinite},
+		{"huge value", map[string][]byte{"a.csv": []byte(strings.Replace(good, "A,1,1.5", "A,1,3e200", 1))}, ReadOptions{},
+			`a.csv:3:5: f1: "3e200" is infinite or larger than 1e+12 in magnitude; fix the value or leave the cell empty to mark it missing`, ErrNonFinite},
+		{"empty id", map[string][]byte{"a.csv": []byte(strings.Replace(good, "B,1,", ",1,", 1))}, ReadOptions{},
+			`a.csv:6:1: participant: participant id is empty; fill it in or remove the row`, ErrMissingID},
+		{"duplicate window", map[string][]byte{"a.csv": []byte(strings.Replace(good, "A,2,", "A,1,", 1))}, ReadOptions{},
+			`a.csv:4: window: participant A has this window twice (also line 3); remove one of the rows`, ErrDuplicate},
+		{"mixed order kinds", map[string][]byte{"a.csv": []byte(strings.Replace(good, "A,2,", "A,2026-03-02T08:00:00,", 1))}, ReadOptions{},
+			`a.csv:4:3: window: "2026-03-02T08:00:00" is a time but the order column held integers from a.csv:2 on; use one kind throughout`, ErrOrder},
+		{"unreadable order", map[string][]byte{"a.csv": []byte(strings.Replace(good, "A,2,", "A,second,", 1))}, ReadOptions{},
+			`a.csv:4:3: window: "second" is neither an integer nor an ISO-8601 time such as 2026-03-01T08:30:00; fix the cell`, ErrOrder},
+		{"ragged", map[string][]byte{"a.csv": []byte(strings.Replace(good, "A,1,1.5,3", "A,1,1.5", 1))}, ReadOptions{},
+			`a.csv:3: row has a different number of fields than the header; fix the row or quote fields that contain the delimiter`, ErrRagged},
+		{"empty", map[string][]byte{"a.csv": nil}, ReadOptions{}, `a.csv: file is empty; it needs a header row and at least one window`, ErrEmpty},
+		{"header only", map[string][]byte{"a.csv": []byte("participant,window,f1\n")}, ReadOptions{}, `a.csv:1: has a header but no windows; each row should be one window`, ErrEmpty},
+		{"binary", map[string][]byte{"a.csv": {0x50, 0x4b, 0x03, 0x04, 0, 0, 1, 2}}, ReadOptions{}, `a.csv:1: is not a text table (binary or not UTF-8); export it as CSV or TSV`, ErrNotText},
+		{"gzip cut short", map[string][]byte{"a.csv.gz": gz([]byte(rowsOf(400, ",")))[:300]}, ReadOptions{},
+			`a.csv.gz: compressed file is cut short or damaged (unexpected EOF); copy it again from the source`, ErrNotText},
+		{"feature missing in second file", map[string][]byte{"a.csv": []byte(good), "b.csv": []byte("participant,window,f1\nC,0,1\n")}, ReadOptions{},
+			`b.csv:1: f2: feature is in a.csv but not in this file; add the column, or leave it out of both with --features`, ErrMismatch},
+		{"text in one file, numeric in another", map[string][]byte{"a.csv": []byte(good), "b.csv": []byte("participant,window,f1,f2\nC,0,low,1\n")}, ReadOptions{},
+			`b.csv:2:5: f1: "low" is not a number; feature cells hold numbers, or are empty or NA when missing (leave text columns out with --features) (it is numeric in a.csv)`, ErrNotNumber},
+		{"feature chosen but text", map[string][]byte{"a.csv": []byte("participant,window,site\nA,0,north\n")}, ReadOptions{Features: []string{"site"}},
+			`a.csv:2:5: site: "north" is not a number; feature cells hold numbers, or are empty or NA when missing (leave text columns out with --features); --features chose this column`, ErrNotNumber},
+	}
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			sub := filepath.Join(dir, strings.ReplaceAll(c.name, " ", "_"))
+			os.Mkdir(sub, 0o755)
+			var paths []string
+			for _, name := range []string{"a.csv", "a.csv.gz", "b.csv"} {
+				if b, ok := c.files[name]; ok {
+					paths = append(paths, write(t, sub, name, b))
+				}
+			}
+			_, err := Read(paths, c.opts)
+			if err == nil {
+				t.Fatal("no error")
+			}
+			if got, want := err.Error(), filepath.Join(sub, c.want); got != strings.ReplaceAll(want, "from a.csv", "from "+filepath.Join(sub, "a.csv")) &&
+				got != strings.ReplaceAll(want, "in a.csv", "in "+filepath.Join(sub, "a.csv")) {
+				t.Errorf("\n got %s\nwant %s", got, want)
+			}
+			if !errors.Is(err, c.cause) {
+				t.Errorf("errors.Is(%v) is false", c.cause)
+			}
+			var ie *InputError
+			if !errors.As(err, &ie) {
+				t.Error("not an *InputError")
+			}
+		})
+	}
+}
+
+func TestReadMissingPaths(t *testing.T) {
+	dir := t.TempDir()
+	for _, c := range []struct{ path, want string }{
+		{filepath.Join(dir, "nope.csv"), "cannot open: no such file or directory; check the path"},
+		{dir, "is a directory; name the table files inside it"},
+	} {
+		_, err := Read([]string{c.path}, ReadOptions{})
+		if err == nil || err.Error() != c.path+": "+c.want || !errors.Is(err, ErrOpen) {
+			t.Errorf("%s: got %v", c.path, err)
+		}
+	}
+}
+
+// Inputs that are accepted, and the policy each shows in the result.
+func TestReadPolicies(t *testing.T) {
+	dir := t.TempDir()
+	good := rowsOf(25, ",")
+	cases := []struct {
+		name  string
+		files []string
+		opts  ReadOptions
+		check func(t *testing.T, tab *Table)
+	}{
+		{"byte-order mark and CRLF", []string{"\xef\xbb\xbf" + strings.ReplaceAll(good, "\n", "\r\n")}, ReadOptions{}, func(t *testing.T, tab *Table) {
+			if len(tab.Units) != 2 || tab.Features[0] != "f1" {
+				t.Errorf("units %d features %v", len(tab.Units), tab.Features)
+			}
+		}},
+		{"semicolon with decimal comma", []string{strings.ReplaceAll(strings.ReplaceAll(rowsOf(25, ";"), ".5", ",5"), "", "")}, ReadOptions{}, func(t *testing.T, tab *Table) {
+			if v := tab.Units[0].X[2]; v != 1.5 {
+				t.Errorf("second window f1 = %v, want 1.5", v)
+			}
+		}},
+		{"tab separated", []string{rowsOf(25, "\t")}, ReadOptions{}, func(t *testing.T, tab *Table) {
+			if len(tab.Features) != 2 {
+				t.Errorf("features %v", tab.Features)
+			}
+		}},
+		{"quoted fields with delimiters and newlines", []string{"participant,window,f1,f2,note\n" + strings.Repeat("", 0) + quotedRows()}, ReadOptions{}, func(t *testing.T, tab *Table) {
+			if len(tab.Quality.IgnoredColumns) != 1 || tab.Quality.IgnoredColumns[0].Name != "note" {
+				t.Errorf("ignored %v", tab.Quality.IgnoredColumns)
+			}
+		}},
+		{"unsorted windows are sorted", []string{strings.Replace(good, "A,0,0.5,0\n", "", 1) + "A,0,0.5,0\n"}, ReadOptions{}, func(t *testing.T, tab *Table) {
+			if !tab.Units[0].Sorted || tab.Units[0].Order[0] != 0 || len(tab.Quality.Notes) != 1 {
+				t.Errorf("sorted %v order %v notes %v", tab.Units[0].Sorted, tab.Units[0].Order[:3], tab.Quality.Notes)
+			}
+		}},
+		{"participant split across files", []string{rowsOf(25, ","), "participant,window,f1,f2\nA,100,1,2\n"}, ReadOptions{}, func(t *testing.T, tab *Table) {
+			if len(tab.Units[0].Files) != 2 || tab.Units[0].Windows(2) != 26 || !strings.Contains(strings.Join(tab.Quality.Notes, ";"), "more than one file") {
+				t.Errorf("files %v windows %d notes %v", tab.Units[0].Files, tab.Units[0].Windows(2), tab.Quality.Notes)
+			}
+		}},
+		{"missing cells dropped", []string{strings.Replace(strings.Replace(good, "A,1,1.5,3", "A,1,NA,3", 1), "A,2,2.5,1", "A,2,,1", 1)}, ReadOptions{}, func(t *testing.T, tab *Table) {
+			if tab.Units[0].Dropped != 2 || tab.Quality.WindowsDropped != 2 || tab.Units[0].Windows(2) != 23 {
+				t.Errorf("dropped %d/%d windows %d", tab.Units[0].Dropped, tab.Quality.WindowsDropped, tab.Units[0].Windows(2))
+			}
+		}},
+		{"missing cells imputed", []string{strings.Replace(good, "A,1,1.5,3", "A,1,NaN,3", 1)}, ReadOptions{Missing: ImputeMedian}, func(t *testing.T, tab *Table) {
+			if tab.Quality.CellsImputed != 1 || math.IsNaN(tab.Units[0].X[2]) || tab.Units[0].X[2] != 3.5 {
+				t.Errorf("imputed %d, value %v (median of A's f1 is 3.5)", tab.Quality.CellsImputed, tab.Units[0].X[2])
+			}
+		}},
+		{"too few windows and a constant feature", []string{good + "C,0,1,1\nC,1,2,1\n"}, ReadOptions{}, func(t *testing.T, tab *Table) {
+			if len(tab.Quality.Excluded) != 1 || tab.Quality.Excluded[0].ID != "C" || tab.Quality.UnitsIn != 3 || tab.Quality.WindowsExcluded != 2 {
+				t.Errorf("excluded %+v", tab.Quality.Excluded)
+			}
+		}},
+		{"times in the order column", []string{"participant,window,f1\n" + timeRows()}, ReadOptions{}, func(t *testing.T, tab *Table) {
+			if tab.OrderKind != "time" || tab.Units[0].Order[1]-tab.Units[0].Order[0] != 60e9 {
+				t.Errorf("order kind %s, step %d", tab.OrderKind, tab.Units[0].Order[1]-tab.Units[0].Order[0])
+			}
+		}},
+		{"gzip", []string{string(gz([]byte(good)))}, ReadOptions{}, func(t *testing.T, tab *Table) {
+			if len(tab.Units) != 2 || tab.Files[0].Rows != 50 {
+				t.Errorf("units %d rows %d", len(tab.Units), tab.Files[0].Rows)
+			}
+		}},
+	}
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			var paths []string
+			for i, content := range c.files {
+				paths = append(paths, write(t, dir, strings.ReplaceAll(c.name, " ", "_")+itoa(i)+".csv", []byte(content)))
+			}
+			tab, err := Read(paths, c.opts)
+			if err != nil {
+				t.Fatal(err)
+			}
+			c.check(t, tab)
+			q := tab.Quality
+			kept := 0
+			for _, u := range tab.Units {
+				kept += u.Windows(len(tab.Features))
+			}
+			if kept+q.WindowsDropped+q.WindowsExcluded != q.WindowsIn || len(tab.Units)+len(q.Excluded) != q.UnitsIn {
+				t.Errorf("accounting: %d kept + %d dropped + %d excluded ≠ %d in; %d + %d units ≠ %d", kept, q.WindowsDropped, q.WindowsExcluded, q.WindowsIn, len(tab.Units), len(q.Excluded), q.UnitsIn)
+			}
+		})
+	}
+}
+
+func quotedRows() string {
+	var b strings.Builder
+	for i := 0; i < 25; i++ {
+		b.WriteString("A," + itoa(i) + "," + itoa(i%4) + ",1,\"walked, then\nsat\"\n")
+		b.WriteString("B," + itoa(i) + "," + itoa(i%3) + ",2,\"x\"\n")
+	}
+	return b.String()
+}
+
+func timeRows() string {
+	var b strings.Builder
+	for i := 0; i < 25; i++ {
+		m := itoa(i)
+		if i < 10 {
+			m = "0" + m
+		}
+		b.WriteString("A,2026-03-02T08:" + m + ":00," + itoa(i%5) + "\n")
+		b.WriteString("B,2026-03-02 08:" + m + ":00," + itoa(i%3) + "\n")
+	}
+	return b.String()
+}
+
+// FuzzRead feeds arbitrary bytes to the reader as a table, plain and gzipped: it must never
+// panic, and every rejection must be an *InputError naming the file.
+func FuzzRead(f *testing.F) {
+	f.Add([]byte(rowsOf(3, ",")), false)
+	f.Add([]byte(rowsOf(3, ";")), false)
+	f.Add([]byte(strings.ReplaceAll(rowsOf(3, ";"), ".5", ",5")), false)
+	f.Add([]byte(rowsOf(3, "\t")), true)
+	f.Add([]byte("participant,window,f1\nA,2026-03-02T08:00:00,1\nA,3,2\n"), false)
+	f.Add([]byte("\xef\xbb\xbfparticipant,window,f1,note\r\nA,1,NA,\"a,\nb\"\r\n"), false)
+	if seeds, err := filepath.Glob("../testdata/pipeline/*.csv"); err == nil {
+		for _, s := range seeds {
+			if b, err := os.ReadFile(s); err == nil {
+				f.Add(b[:min(len(b), 4096)], false)
+			}
+		}
+	}
+	dir := f.TempDir()
+	f.Fuzz(func(t *testing.T, b []byte, compress bool) {
+		if compress {
+			b = gz(b)
+		}
+		p := filepath.Join(dir, "in.csv")
+		if err := os.WriteFile(p, b, 0o644); err != nil {
+			t.Skip()
+		}
+		_, err := Read([]string{p}, ReadOptions{MinWindows: 1})
+		if err == nil {
+			return
+		}
+		var ie *InputError
+		if !errors.As(err, &ie) || ie.File != p || !strings.HasPrefix(err.Error(), p) {
+			t.Fatalf("rejection without position: %v", err)
+		}
+	})
+}
