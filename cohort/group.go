@@ -79,15 +79,17 @@ type KScore struct {
 
 // Grouping is the frozen grouping of participants.
 type Grouping struct {
-	Method     Method
-	Criterion  Criterion
-	K          int
-	Labels     []int       // group of each participant, 0-based, numbered by size (largest first)
-	Silhouette []float64   // each participant's silhouette in the grouping space
-	Scores     []KScore    // every criterion over the range tried
-	Centroids  [][]float64 // per group, in the grouping space (a medoid for PAM)
-	Distance   []float64   // each participant's distance to its group's centroid
-	Note       string      // what the method did, e.g. a switch for a large cohort
+	Method       Method
+	Criterion    Criterion
+	K            int
+	Labels       []int         // group of each participant, 0-based, numbered by size (largest first)
+	Silhouette   []float64     // each participant's silhouette in the grouping space
+	Scores       []KScore      // every criterion over the range tried
+	Centroids    [][]float64   // per group, in the grouping space (a medoid for PAM)
+	Distance     []float64     // each participant's distance to its group's centroid
+	Note         string        // what the method did, e.g. a switch for a large cohort
+	Tree         *cluster.Tree // the participants' dendrogram, for Ward
+	CentroidTree *cluster.Tree // average linkage of the group centres, for a dendrogram of the groups
 }
 
 // Embed maps a signature (shares) into the grouping space of the method.
@@ -172,8 +174,18 @@ func GroupSignatures(ctx context.Context, shares [][]float64, opts GroupOptions)
 	} else if needDist {
 		return nil, fmt.Errorf("cohort: %d participants need %d MiB of distances for PAM: %w; use --method kmeans-clr or ward-hellinger for a cohort this large", n, cluster.CondensedBytes(n)>>20, cluster.ErrTooLarge)
 	}
-	cut, err := newCutter(ctx, opts.Method, x, dist, opts)
-	if err != nil {
+	if opts.Method == WardHellinger {
+		tree, err := cluster.WardPoints(ctx, x, cluster.WardOptions{Workers: opts.Workers})
+		if err != nil {
+			return nil, err
+		}
+		g.Tree = tree
+	}
+	var cut func(int) ([]int, error)
+	var err error
+	if g.Tree != nil {
+		cut = g.Tree.Cut
+	} else if cut, err = newCutter(ctx, opts.Method, x, dist, opts); err != nil {
 		return nil, err
 	}
 	labelsByK := map[int][]int{}
@@ -212,6 +224,15 @@ func GroupSignatures(ctx context.Context, shares [][]float64, opts GroupOptions)
 	g.Distance = make([]float64, n)
 	for i := 0; i < n; i++ {
 		g.Distance[i] = SpaceDistance(opts.Method, x.RawRowView(i), g.Centroids[g.Labels[i]])
+	}
+	cd := &cluster.Condensed{N: g.K, D: make([]float64, g.K*(g.K-1)/2)}
+	for a := 0; a < g.K; a++ {
+		for b := a + 1; b < g.K; b++ {
+			cd.D[cd.Index(a, b)] = SpaceDistance(opts.Method, g.Centroids[a], g.Centroids[b])
+		}
+	}
+	if g.CentroidTree, err = cluster.Hierarchical(ctx, cd, cluster.HierarchicalOptions{Linkage: cluster.Average}); err != nil {
+		return nil, err
 	}
 	if dist == nil {
 		g.Note = fmt.Sprintf("the silhouette was computed on a sample of 5,000 participants: a full one on %d would need %d MiB", n, cluster.CondensedBytes(n)>>20)

@@ -34,7 +34,7 @@ func rowsOf(n int, sep string) string {
 	b.WriteString(strings.Join([]string{"participant", "window", "f1", "f2"}, sep) + "\n")
 	for _, p := range []string{"A", "B"} {
 		for i := 0; i < n; i++ {
-			b.WriteString(strings.Join([]string{p, itoa(i), itoa(i%7) + ".5", itoa((i*3)%5)}, sep) + "\n")
+			b.WriteString(strings.Join([]string{p, itoa(i), itoa(i%7) + ".5", itoa((i * 3) % 5)}, sep) + "\n")
 		}
 	}
 	return b.String()

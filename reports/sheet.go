@@ -51,32 +51,52 @@ func newStyles(f *excelize.File) (*styles, error) {
 	return s, nil
 }
 
-// table streams one sheet: a header row, then rows; columns get widths that fit their content.
+// table writes one sheet row by row: a header row, then rows. Small sheets are written cell by
+// cell, so that frozen panes, filters, colour scales and page setup all apply; a sheet expected to
+// be large is streamed (excelize's StreamWriter, flat memory), with a table object for its filter.
 type table struct {
 	f      *excelize.File
-	sw     *excelize.StreamWriter
+	sw     *excelize.StreamWriter // nil when written cell by cell
 	name   string
 	row    int
-	widths []float64
 	cols   int
 	header int // row of the column header, for freezing and the filter
 	st     *styles
+	widths []float64
 }
 
+// streamRows is the number of rows past which a sheet is streamed.
+const streamRows = 2000
+
 func newTable(f *excelize.File, st *styles, name string, widths []float64) (*table, error) {
+	return openTable(f, st, name, widths, false)
+}
+
+func openTable(f *excelize.File, st *styles, name string, widths []float64, stream bool) (*table, error) {
 	if _, err := f.NewSheet(name); err != nil {
 		return nil, err
 	}
-	sw, err := f.NewStreamWriter(name)
-	if err != nil {
-		return nil, err
+	t := &table{f: f, name: name, st: st, widths: widths}
+	if stream {
+		sw, err := f.NewStreamWriter(name)
+		if err != nil {
+			return nil, err
+		}
+		t.sw = sw
 	}
 	for i, w := range widths {
-		if err := sw.SetColWidth(i+1, i+1, w); err != nil {
+		var err error
+		if t.sw != nil {
+			err = t.sw.SetColWidth(i+1, i+1, w)
+		} else {
+			col, _ := excelize.ColumnNumberToName(i + 1)
+			err = f.SetColWidth(name, col, col, w)
+		}
+		if err != nil {
 			return nil, err
 		}
 	}
-	return &table{f: f, sw: sw, name: name, widths: widths, st: st}, nil
+	return t, nil
 }
 
 // v is one cell: a value with a style.
@@ -87,27 +107,62 @@ type v struct {
 
 func (t *table) put(cells ...v) error {
 	t.row++
+	if len(cells) > t.cols {
+		t.cols = len(cells)
+	}
 	out := make([]any, len(cells))
 	for i, c := range cells {
 		val := c.val
-		switch x := val.(type) {
-		case float64:
-			if math.IsNaN(x) || math.IsInf(x, 0) {
-				val = "" // not computed: an empty cell, never a made-up number
-			}
+		if x, ok := val.(float64); ok && (math.IsNaN(x) || math.IsInf(x, 0)) {
+			val = nil // not computed: an empty cell, never a made-up number
 		}
 		// A Go string is written as a text cell, never as a formula, whatever it begins with
 		// (=, +, -, @): ids and names from the input cannot run in a spreadsheet.
-		out[i] = excelize.Cell{Value: val, StyleID: c.style}
+		if t.sw != nil {
+			out[i] = excelize.Cell{Value: val, StyleID: c.style}
+			continue
+		}
+		cell, _ := excelize.CoordinatesToCellName(i+1, t.row)
+		var err error
+		switch x := val.(type) {
+		case nil:
+		case string:
+			err = t.f.SetCellStr(t.name, cell, x)
+		default:
+			err = t.f.SetCellValue(t.name, cell, x)
+		}
+		if err == nil && c.style != 0 {
+			err = t.f.SetCellStyle(t.name, cell, cell, c.style)
+		}
+		if err != nil {
+			return err
+		}
 	}
-	if len(cells) > t.cols {
-		t.cols = len(cells)
+	if t.sw == nil {
+		return t.fitHeight(cells)
 	}
 	cell, _ := excelize.CoordinatesToCellName(1, t.row)
 	return t.sw.SetRow(cell, out)
 }
 
-// heading writes the column header and remembers it for the frozen pane and the filter.
+// fitHeight makes a row tall enough for its wrapped text: not every spreadsheet program grows
+// rows by itself when a file is opened.
+func (t *table) fitHeight(cells []v) error {
+	lines := 1.0
+	for i, c := range cells {
+		s, ok := c.val.(string)
+		if !ok || i >= len(t.widths) || (c.style != t.st.wrap && c.style != t.st.note && c.style != t.st.warn && c.style != t.st.header) {
+			continue
+		}
+		lines = math.Max(lines, math.Ceil(float64(len([]rune(s)))*1.1/math.Max(1, t.widths[i]-1)))
+	}
+	if lines <= 1 {
+		return nil
+	}
+	return t.f.SetRowHeight(t.name, t.row, math.Min(409, 15*lines))
+}
+
+// heading writes the column header and remembers it for the filter.
 func (t *table) heading(names ...string) error {
 	cells := make([]v, len(names))
 	for i, n := range names {
@@ -125,20 +180,29 @@ func (t *table) blank() { t.row++ }
 // freeze keeps rows 1…header in view; it must come before the first row is written.
 func (t *table) freeze(header int) error {
 	cell, _ := excelize.CoordinatesToCellName(1, header+1)
-	return t.sw.SetPanes(&excelize.Panes{Freeze: true, YSplit: header, TopLeftCell: cell, ActivePane: "bottomLeft"})
+	panes := &excelize.Panes{Freeze: true, YSplit: header, TopLeftCell: cell, ActivePane: "bottomLeft"}
+	if t.sw != nil {
+		return t.sw.SetPanes(panes)
+	}
+	return t.f.SetPanes(t.name, panes)
 }
 
-// close flushes the sheet; with filter, it puts an autofilter on the table below the header.
+// close finishes the sheet; with filter, the table below the header gets filter buttons.
 func (t *table) close(filter bool) error {
-	if err := t.sw.Flush(); err != nil {
-		return err
-	}
-	if filter && t.header > 0 && t.row > t.header {
-		first, _ := excelize.CoordinatesToCellName(1, t.header)
-		last, _ := excelize.CoordinatesToCellName(t.cols, t.row)
-		if err := t.f.AutoFilter(t.name, first+":"+last, nil); err != nil {
-			return err
+	hasRows := filter && t.header > 0 && t.row > t.header
+	first, _ := excelize.CoordinatesToCellName(1, t.header)
+	last, _ := excelize.CoordinatesToCellName(t.cols, t.row)
+	if t.sw != nil {
+		if hasRows {
+			show := false
+			if err := t.sw.AddTable(&excelize.Table{Range: first + ":" + last, Name: "participants", StyleName: "TableStyleLight15", ShowRowStripes: &show}); err != nil {
+				return err
+			}
 		}
+		return t.sw.Flush()
+	}
+	if hasRows {
+		return t.f.AutoFilter(t.name, first+":"+last, nil)
 	}
 	return nil
 }

@@ -21,6 +21,12 @@ const (
 	SheetSettings     = "Settings"
 )
 
+// colour scales: paper to teal, for effect sizes and shares.
+func colourScale(f *excelize.File, sheet, rng string) error {
+	return f.SetConditionalFormat(sheet, rng, []excelize.ConditionalFormatOptions{{Type: "2_color_scale", Criteria: "=",
+		MinType: "num", MaxType: "max", MinValue: "0", MinColor: "#FBF6EC", MaxColor: "#5FB3A8"}})
+}
+
 // BuildWorkbook lays the result out as a workbook.
 func BuildWorkbook(r *Result) (*excelize.File, error) {
 	f := excelize.NewFile()
@@ -28,7 +34,7 @@ func BuildWorkbook(r *Result) (*excelize.File, error) {
 	if err != nil {
 		return nil, err
 	}
-	steps := []func(*excelize.File, *styles, *Result) error{summarySheet, participantsSheet, groupsSheet, separatingSheet, statesSheet, choiceSheet, qualitySheet, settingsSheet}
+	steps := []func(*excelize.File, *styles, *Result) error{summarySheet, chartsSheet, participantsSheet, groupsSheet, separatingSheet, statesSheet, choiceSheet, qualitySheet, definitionsSheet, settingsSheet}
 	for _, step := range steps {
 		if err := step(f, st, r); err != nil {
 			return nil, fmt.Errorf("reports: %w", err)
@@ -36,6 +42,20 @@ func BuildWorkbook(r *Result) (*excelize.File, error) {
 	}
 	if err := f.DeleteSheet("Sheet1"); err != nil {
 		return nil, err
+	}
+	// Printed (or exported to PDF), every sheet fits the page width in landscape.
+	landscape, one, free := "landscape", 1, 0
+	for _, name := range f.GetSheetList() {
+		if name == SheetParticipants && len(r.Units) > streamRows {
+			continue // streamed: its layout is fixed when written
+		}
+		if err := f.SetPageLayout(name, &excelize.PageLayoutOptions{Orientation: &landscape, FitToWidth: &one, FitToHeight: &free}); err != nil {
+			return nil, err
+		}
+		fit := true
+		if err := f.SetSheetProps(name, &excelize.SheetPropsOptions{FitToPage: &fit}); err != nil {
+			return nil, err
+		}
 	}
 	f.SetActiveSheet(0)
 	return f, nil
@@ -66,6 +86,9 @@ func summarySheet(f *excelize.File, st *styles, r *Result) error {
 		if err := t.put(v{"SYNTHETIC DATA", st.warn}, v{"Every participant in this workbook is invented by the tool's demo generator; no real person's data is in it.", st.warn}); err != nil {
 			return err
 		}
+	}
+	if err := put("Options", optionsLine(r)); err != nil {
+		return err
 	}
 	t.blank()
 	for _, c := range Cautions {
@@ -117,6 +140,21 @@ func summarySheet(f *excelize.File, st *styles, r *Result) error {
 		}
 	}
 	return t.close(false)
+}
+
+// optionsLine is the chosen options in one line, for the top of the summary.
+func optionsLine(r *Result) string {
+	out := ""
+	for _, s := range r.Settings {
+		switch s.Name {
+		case "within-participant step", "cohort scaling", "PCA", "states", "groups", "grouping method", "criterion for groups", "seed":
+			if out != "" {
+				out += "; "
+			}
+			out += s.Name + " " + s.Value
+		}
+	}
+	return out
 }
 
 func touchedText(r *Result) string {
@@ -177,7 +215,7 @@ func participantsSheet(f *excelize.File, st *styles, r *Result) error {
 	for i := 0; i < 2*k; i++ {
 		widths = append(widths, 10)
 	}
-	t, err := newTable(f, st, SheetParticipants, widths)
+	t, err := openTable(f, st, SheetParticipants, widths, len(r.Units) > streamRows)
 	if err != nil {
 		return err
 	}
@@ -259,7 +297,12 @@ func groupsSheet(f *excelize.File, st *styles, r *Result) error {
 			return err
 		}
 	}
-	return t.close(true)
+	if err := t.close(true); err != nil {
+		return err
+	}
+	first, _ := excelize.CoordinatesToCellName(5, 2)
+	last, _ := excelize.CoordinatesToCellName(4+k, 1+len(r.GroupNames))
+	return colourScale(f, SheetGroups, first+":"+last)
 }
 
 func separatingSheet(f *excelize.File, st *styles, r *Result) error {
@@ -311,7 +354,13 @@ func separatingSheet(f *excelize.File, st *styles, r *Result) error {
 			return err
 		}
 	}
-	return t.close(true)
+	if err := t.close(true); err != nil {
+		return err
+	}
+	if len(r.Separations) == 0 {
+		return nil
+	}
+	return colourScale(f, SheetSeparating, fmt.Sprintf("C3:C%d", 2+len(r.Separations)))
 }
 
 func statesSheet(f *excelize.File, st *styles, r *Result) error {

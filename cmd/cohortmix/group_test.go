@@ -15,6 +15,7 @@ import (
 	"github.com/cohortmix/cohortmix/cohort"
 	"github.com/cohortmix/cohortmix/cohort/synth"
 	"github.com/cohortmix/cohortmix/normalize"
+	"github.com/spf13/cobra"
 	"github.com/xuri/excelize/v2"
 )
 
@@ -250,7 +251,6 @@ func fixedNow() time.Time { return time.Date(2026, 12, 2, 9, 0, 0, 0, time.UTC) 
 // defaultFlags are the flag defaults, as a user who passes none gets them.
 func defaultFlags() mainFlags {
 	var m mainFlags
-	cmd := newGroupCmd(&Env{}, nil)
-	m.register(cmd)
+	m.register(&cobra.Command{})
 	return m
 }

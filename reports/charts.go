@@ -1,0 +1,362 @@
+package reports
+
+import (
+	"fmt"
+	"math"
+	"sort"
+
+	"github.com/xuri/excelize/v2"
+)
+
+// SheetCharts holds the pictures and the small tables they are drawn from.
+const SheetCharts = "At a glance"
+
+// palette is this tool's series colours: teal, amber, slate blue, brick, olive, mauve, sky,
+// mustard, umber, sage; repeated past ten.
+var palette = []string{"1F7A7A", "D08C2E", "5B6C8F", "A4493D", "7A9A3A", "8E6C9E", "3E9BC2", "C9A227", "6B4E3D", "4F8F6F"}
+
+func colour(i int) string { return palette[i%len(palette)] }
+
+// maxSilhouetteBars bounds the members drawn in the silhouette chart; past it, members are taken
+// at even steps of rank within each group, and the chart says so.
+const maxSilhouetteBars = 1500
+
+// chartsSheet writes the numbers behind the charts in columns A–G and places the charts to their
+// right, live and editable. The dendrogram is a picture.
+func chartsSheet(f *excelize.File, st *styles, r *Result) error {
+	name := SheetCharts
+	if _, err := f.NewSheet(name); err != nil {
+		return err
+	}
+	for c, w := range []float64{22, 12, 12, 12, 12, 12, 12, 12, 12, 12, 12, 12} {
+		col, _ := excelize.ColumnNumberToName(c + 1)
+		if err := f.SetColWidth(name, col, col, w); err != nil {
+			return err
+		}
+	}
+	w := &cellWriter{f: f, sheet: name}
+	w.text(1, 1, "The numbers behind the charts", st.title)
+	w.text(1, 2, "Charts are to the right; each table below feeds the chart beside it. Groups describe movement statistically, not diagnoses.", st.note)
+	w.merge(2)
+	row := 4
+	anchor := func() string { return fmt.Sprintf("I%d", row) }
+	k := r.States.K
+	g := len(r.GroupNames)
+
+	// 1. Each group's mixture over the states (stacked bar).
+	top := row
+	w.text(1, row, "Group", st.header)
+	for s := 0; s < k; s++ {
+		w.text(2+s, row, r.StateNames[s], st.header)
+	}
+	shares, sizes, sils := groupMeans(r)
+	for i := 0; i < g; i++ {
+		w.text(1, row+1+i, r.GroupNames[i], st.text)
+		for s := 0; s < k; s++ {
+			w.num(2+s, row+1+i, shares[i][s], st.pct)
+		}
+	}
+	var series []excelize.ChartSeries
+	for s := 0; s < k; s++ {
+		series = append(series, excelize.ChartSeries{
+			Name:       ref(name, 2+s, top, 2+s, top),
+			Categories: ref(name, 1, top+1, 1, top+g),
+			Values:     ref(name, 2+s, top+1, 2+s, top+g),
+			Fill:       excelize.Fill{Type: "pattern", Pattern: 1, Color: []string{colour(s)}},
+		})
+	}
+	if err := f.AddChart(name, anchor(), chart(excelize.BarPercentStacked, "Each group's time in each movement state", series, "share of windows")); err != nil {
+		return err
+	}
+	row = max(row+g+3, top+22)
+
+	// 2. Each state's profile over the variables that set states apart (standardized means).
+	top = row
+	vars := stateVariables(r, 8)
+	w.text(1, row, "Feature (z vs cohort)", st.header)
+	for s := 0; s < k; s++ {
+		w.text(2+s, row, r.StateNames[s], st.header)
+	}
+	for i, j := range vars {
+		w.text(1, row+1+i, r.Features[j], st.text)
+		for s := 0; s < k; s++ {
+			w.num(2+s, row+1+i, effect(r, s, j), st.dec2)
+		}
+	}
+	series = nil
+	for s := 0; s < k; s++ {
+		series = append(series, excelize.ChartSeries{
+			Name: ref(name, 2+s, top, 2+s, top), Categories: ref(name, 1, top+1, 1, top+len(vars)), Values: ref(name, 2+s, top+1, 2+s, top+len(vars)),
+			Fill: excelize.Fill{Type: "pattern", Pattern: 1, Color: []string{colour(s)}},
+		})
+	}
+	if err := f.AddChart(name, fmt.Sprintf("I%d", top), chart(excelize.Col, "What each movement state looks like (standardized feature means)", series, "s.d. from the cohort mean")); err != nil {
+		return err
+	}
+	row = max(row+len(vars)+3, top+22)
+
+	// 3. Group sizes and mean silhouettes.
+	top = row
+	w.text(1, row, "Group", st.header)
+	w.text(2, row, "members", st.header)
+	w.text(3, row, "mean silhouette", st.header)
+	for i := 0; i < g; i++ {
+		w.text(1, row+1+i, r.GroupNames[i], st.text)
+		w.num(2, row+1+i, float64(sizes[i]), st.integer)
+		w.num(3, row+1+i, sils[i], st.dec3)
+	}
+	sizeChart := chart(excelize.Col, "Group sizes", []excelize.ChartSeries{{Name: ref(name, 2, top, 2, top), Categories: ref(name, 1, top+1, 1, top+g), Values: ref(name, 2, top+1, 2, top+g),
+		Fill: excelize.Fill{Type: "pattern", Pattern: 1, Color: []string{colour(0)}}}}, "participants")
+	sizeChart.Dimension = excelize.ChartDimension{Width: 420, Height: 300}
+	sizeChart.Legend.Position = "none"
+	if err := f.AddChart(name, fmt.Sprintf("I%d", top), sizeChart); err != nil {
+		return err
+	}
+	row = max(row+g+3, top+18)
+
+	// 5. The choice of the number of states and of groups.
+	top = row
+	w.text(1, row, "States", st.header)
+	w.text(2, row, "Calinski–Harabasz", st.header)
+	w.text(3, row, "silhouette", st.header)
+	w.text(4, row, "Davies–Bouldin", st.header)
+	for i, c := range r.States.Candidates {
+		w.num(1, row+1+i, float64(c.K), st.integer)
+		w.num(2, row+1+i, c.CalinskiHarabasz, st.dec2)
+		w.num(3, row+1+i, c.Silhouette, st.dec3)
+		w.num(4, row+1+i, c.DaviesBouldin, st.dec3)
+	}
+	nc := len(r.States.Candidates)
+	if nc > 1 {
+		ch := chart(excelize.Line, "Choosing the number of states: Calinski–Harabasz (larger is better)", []excelize.ChartSeries{
+			lineSeries(name, 2, top, nc, 0)}, "index")
+		ch.Dimension = excelize.ChartDimension{Width: 420, Height: 300}
+		ch.Legend.Position = "none"
+		if err := f.AddChart(name, fmt.Sprintf("I%d", top), ch); err != nil {
+			return err
+		}
+		ch2 := chart(excelize.Line, "Silhouette (larger is better) and Davies–Bouldin (smaller is better)", []excelize.ChartSeries{
+			lineSeries(name, 3, top, nc, 1), lineSeries(name, 4, top, nc, 2)}, "index")
+		ch2.Dimension = excelize.ChartDimension{Width: 420, Height: 300}
+		if err := f.AddChart(name, fmt.Sprintf("P%d", top), ch2); err != nil {
+			return err
+		}
+	}
+	row = max(row+nc+3, top+18)
+	top = row
+	w.text(1, row, "Groups", st.header)
+	w.text(2, row, "gap", st.header)
+	w.text(3, row, "stability", st.header)
+	w.text(4, row, "silhouette", st.header)
+	ng := len(r.Grouping.Scores)
+	for i, s := range r.Grouping.Scores {
+		w.num(1, row+1+i, float64(s.K), st.integer)
+		if ng > 1 {
+			w.num(2, row+1+i, s.Gap, st.dec3)
+			w.num(3, row+1+i, s.Stability, st.dec3)
+		}
+		w.num(4, row+1+i, s.Silhouette, st.dec3)
+	}
+	if ng > 1 {
+		ch := chart(excelize.Line, "Choosing the number of groups: gap statistic, bootstrap stability, silhouette", []excelize.ChartSeries{
+			lineSeries(name, 2, top, ng, 0), lineSeries(name, 3, top, ng, 1), lineSeries(name, 4, top, ng, 2)}, "value")
+		if err := f.AddChart(name, fmt.Sprintf("I%d", top), ch); err != nil {
+			return err
+		}
+	}
+	row = max(row+ng+3, top+22)
+
+	// 5b. The dendrogram, as a picture.
+	png, caption, err := Dendrogram(r)
+	if err != nil {
+		return err
+	}
+	w.text(1, row, caption, st.note)
+	w.merge(row)
+	if err := f.AddPictureFromBytes(name, fmt.Sprintf("I%d", row), &excelize.Picture{Extension: ".png", File: png,
+		Format: &excelize.GraphicOptions{AltText: caption, ScaleX: 0.8, ScaleY: 0.8}}); err != nil {
+		return err
+	}
+	row += 24
+	// 6. Members' silhouettes, sorted within each group (one series per group).
+	top = row
+	members := silhouetteBars(r)
+	sampled := ""
+	if len(r.Units) > maxSilhouetteBars {
+		sampled = fmt.Sprintf(" (%d of %d members, at even steps of rank)", len(members), len(r.Units))
+	}
+	w.text(1, row, "Member rank", st.header)
+	for i := 0; i < g; i++ {
+		w.text(2+i, row, r.GroupNames[i], st.header)
+	}
+	for i, m := range members {
+		w.num(1, row+1+i, float64(i+1), st.integer)
+		w.num(2+m.group, row+1+i, m.sil, st.dec3)
+	}
+	series = nil
+	for i := 0; i < g; i++ {
+		series = append(series, excelize.ChartSeries{Name: ref(name, 2+i, top, 2+i, top), Categories: ref(name, 1, top+1, 1, top+len(members)),
+			Values: ref(name, 2+i, top+1, 2+i, top+len(members)), Fill: excelize.Fill{Type: "pattern", Pattern: 1, Color: []string{colour(i)}}})
+	}
+	silChart := chart(excelize.Col, "Members' silhouettes, by group"+sampled, series, "silhouette")
+	gap := uint(0)
+	over := 100
+	silChart.GapWidth, silChart.Overlap = &gap, &over
+	if err := f.AddChart(name, fmt.Sprintf("I%d", top), silChart); err != nil {
+		return err
+	}
+
+	return w.err
+}
+
+func lineSeries(sheet string, col, top, n, c int) excelize.ChartSeries {
+	return excelize.ChartSeries{Name: ref(sheet, col, top, col, top), Categories: ref(sheet, 1, top+1, 1, top+n), Values: ref(sheet, col, top+1, col, top+n),
+		Line: excelize.LineOptions{Width: 2.25}, Marker: excelize.ChartMarker{Symbol: "circle", Size: 6, Fill: excelize.Fill{Type: "pattern", Pattern: 1, Color: []string{colour(c)}}},
+		Fill: excelize.Fill{Type: "pattern", Pattern: 1, Color: []string{colour(c)}}}
+}
+
+func chart(kind excelize.ChartType, title string, series []excelize.ChartSeries, yTitle string) *excelize.Chart {
+	return &excelize.Chart{
+		Type:      kind,
+		Series:    series,
+		Title:     excelize.ChartTitle{Paragraph: []excelize.RichTextRun{{Text: title, Font: &excelize.Font{Bold: true, Size: 12, Color: colInk}}}},
+		Legend:    excelize.ChartLegend{Position: "bottom"},
+		Dimension: excelize.ChartDimension{Width: 760, Height: 380},
+		YAxis:     excelize.ChartAxis{MajorGridLines: true, Title: excelize.ChartTitle{Paragraph: []excelize.RichTextRun{{Text: yTitle}}}},
+		PlotArea:  excelize.ChartPlotArea{ShowVal: false},
+	}
+}
+
+// ref is an absolute range on a sheet, as charts need it.
+func ref(sheet string, c1, r1, c2, r2 int) string {
+	a, _ := excelize.CoordinatesToCellName(c1, r1, true)
+	b, _ := excelize.CoordinatesToCellName(c2, r2, true)
+	return fmt.Sprintf("'%s'!%s:%s", sheet, a, b)
+}
+
+type cellWriter struct {
+	f     *excelize.File
+	sheet string
+	err   error
+}
+
+func (w *cellWriter) text(col, row int, s string, style int) {
+	w.set(col, row, s, style)
+}
+
+// merge joins columns A–G of a row, for a note that needs the width, and makes the row tall.
+func (w *cellWriter) merge(row int) {
+	if w.err == nil {
+		w.err = w.f.MergeCell(w.sheet, fmt.Sprintf("A%d", row), fmt.Sprintf("G%d", row))
+	}
+	if w.err == nil {
+		w.err = w.f.SetRowHeight(w.sheet, row, 45)
+	}
+}
+
+func (w *cellWriter) num(col, row int, x float64, style int) {
+	if math.IsNaN(x) || math.IsInf(x, 0) {
+		return // not computed: left empty
+	}
+	w.set(col, row, x, style)
+}
+
+func (w *cellWriter) set(col, row int, val any, style int) {
+	if w.err != nil {
+		return
+	}
+	cell, _ := excelize.CoordinatesToCellName(col, row)
+	if s, ok := val.(string); ok {
+		w.err = w.f.SetCellStr(w.sheet, cell, s) // always a text cell, never a formula
+	} else {
+		w.err = w.f.SetCellValue(w.sheet, cell, val)
+	}
+	if w.err == nil && style != 0 {
+		w.err = w.f.SetCellStyle(w.sheet, cell, cell, style)
+	}
+}
+
+// groupMeans returns each group's mean shares, size and mean silhouette.
+func groupMeans(r *Result) ([][]float64, []int, []float64) {
+	g, k := len(r.GroupNames), r.States.K
+	shares := make([][]float64, g)
+	for i := range shares {
+		shares[i] = make([]float64, k)
+	}
+	sizes := make([]int, g)
+	sils := make([]float64, g)
+	for _, u := range r.Units {
+		sizes[u.Group]++
+		sils[u.Group] += u.Silhouette
+		for s := 0; s < k; s++ {
+			shares[u.Group][s] += u.Share[s]
+		}
+	}
+	for i := 0; i < g; i++ {
+		for s := 0; s < k; s++ {
+			shares[i][s] /= float64(sizes[i])
+		}
+		sils[i] /= float64(sizes[i])
+	}
+	return shares, sizes, sils
+}
+
+// stateVariables are the features that drive the states most, at most n, in feature order.
+func stateVariables(r *Result, n int) []int {
+	score := make([]float64, len(r.Features))
+	for _, d := range r.StateDesc {
+		for _, dr := range d.Drivers {
+			score[dr.Feature] = math.Max(score[dr.Feature], math.Abs(dr.Effect))
+		}
+	}
+	idx := make([]int, len(score))
+	for i := range idx {
+		idx[i] = i
+	}
+	sort.SliceStable(idx, func(a, b int) bool { return score[idx[a]] > score[idx[b]] })
+	idx = idx[:min(n, len(idx))]
+	sort.Ints(idx)
+	return idx
+}
+
+func effect(r *Result, s, j int) float64 {
+	for _, dr := range r.StateDesc[s].Drivers {
+		if dr.Feature == j {
+			return dr.Effect
+		}
+	}
+	return math.NaN()
+}
+
+type silBar struct {
+	group int
+	sil   float64
+}
+
+// silhouetteBars orders members by group, then by silhouette (largest first); past
+// maxSilhouetteBars, each group keeps members at even steps of rank, in proportion to its size.
+func silhouetteBars(r *Result) []silBar {
+	g := len(r.GroupNames)
+	by := make([][]float64, g)
+	for _, u := range r.Units {
+		if !math.IsNaN(u.Silhouette) {
+			by[u.Group] = append(by[u.Group], u.Silhouette)
+		}
+	}
+	total := 0
+	for _, b := range by {
+		total += len(b)
+	}
+	var out []silBar
+	for i, b := range by {
+		sort.Sort(sort.Reverse(sort.Float64Slice(b)))
+		keep := len(b)
+		if total > maxSilhouetteBars {
+			keep = max(1, len(b)*maxSilhouetteBars/total)
+		}
+		for q := 0; q < keep; q++ {
+			out = append(out, silBar{i, b[q*len(b)/keep]})
+		}
+	}
+	return out
+}
