@@ -1,0 +1,283 @@
+package reports
+
+import (
+	"archive/zip"
+	"bytes"
+	"encoding/json"
+	"errors"
+	"io"
+	"math"
+	"os"
+	"path/filepath"
+	"strings"
+	"testing"
+	"time"
+
+	"github.com/cohortmix/cohortmix/cluster"
+	"github.com/cohortmix/cohortmix/cohort"
+	"github.com/cohortmix/cohortmix/normalize"
+	"github.com/cohortmix/cohortmix/profile"
+	"github.com/xuri/excelize/v2"
+	"gonum.org/v1/gonum/mat"
+)
+
+// fixture is a small invented result with n participants in three groups and four states.
+func fixture(t testing.TB, n int, id func(i int) string) *Result {
+	t.Helper()
+	k, g := 4, 3
+	features := []string{"mean_x", "sd_x", "=formula_feature"}
+	r := &Result{Tool: "cohortmix", Version: "test", Created: time.Date(2026, 12, 2, 9, 0, 0, 0, time.UTC), Command: "cohortmix group x.csv", Synthetic: true,
+		Features: features, OrderKind: "integer",
+		Files: []cohort.FileInfo{{Path: "x.csv", SHA256: strings.Repeat("ab", 32), Rows: n * 10}},
+		Norm: &normalize.Fit{Features: features, Within: normalize.WithinRest, Touched: []bool{true, false, false}, TouchedBy: "offset detection (ICC ≥ 0.30)",
+			Center: []float64{0, 0, 0}, Spread: []float64{1, 1, 1}, ICC: []float64{0.8, 0.1, 0.05}, QuietMid: []float64{0, 0, 0}, QuietScale: []float64{1, 1, 1}},
+		States:     &profile.States{K: k, Centroids: mat.NewDense(k, 3, []float64{0, 0, 0, 1, 0, 0, 0, 1, 0, 0, 0, 1}), Rule: "fixed", Sampled: 100, Candidates: []profile.Candidate{{K: 3, Silhouette: 0.6, CalinskiHarabasz: 90, DaviesBouldin: 0.8}, {K: 4, Silhouette: 0.5, CalinskiHarabasz: 100, DaviesBouldin: 0.7}}},
+		StateNames: []string{"S1", "S2", "S3", "S4"}, StateLines: []string{"a", "b", "c", "d"},
+		GroupNames: []string{"G1", "G2", "G3"}, GroupLines: []string{"x", "y", "z"},
+		Quality:  cohort.Quality{UnitsIn: n + 1, WindowsIn: n*10 + 3, WindowsExcluded: 3, Excluded: []cohort.Exclusion{{ID: "@excluded", Windows: 3, Reason: "3 usable windows"}}},
+		Settings: []Setting{{"seed", "1"}, {"within-participant step", "rest"}},
+	}
+	for s := 0; s < k; s++ {
+		r.StateDesc = append(r.StateDesc, profile.Description{Mean: []float64{float64(s), 1, 2}, Share: 0.25, Drivers: []profile.Driver{{Feature: s % 3, Effect: 1.5 - float64(s)}}})
+	}
+	labels := make([]int, n)
+	for i := 0; i < n; i++ {
+		labels[i] = i % g
+		share := []float64{0.1, 0.2, 0.3, 0.4}
+		share[i%g] += 0.1
+		share[3] -= 0.1
+		r.Units = append(r.Units, UnitRow{ID: id(i), Windows: 10, Group: i % g, Silhouette: 0.3 + 0.001*float64(i%100), Distance: 0.1, Share: share, Bout: []float64{1, 2, 3, 4}})
+	}
+	tree := &cluster.Tree{N: g, Merges: []cluster.Merge{{A: 0, B: 1, Height: 1, Size: 2}, {A: 2, B: 3, Height: 2, Size: 3}}}
+	r.Grouping = &cohort.Grouping{Method: cohort.WardHellinger, K: g, Labels: labels, Scores: []cohort.KScore{{K: 2, Silhouette: 0.2, Gap: 0.1, GapSE: 0.01, Stability: 0.9}, {K: 3, Silhouette: 0.3, Gap: 0.3, GapSE: 0.01, Stability: 0.8}},
+		Centroids: [][]float64{{0.5, 0.5, 0.5, 0.5}, {0.4, 0.6, 0.5, 0.5}, {0.5, 0.4, 0.6, 0.5}}, CentroidTree: tree}
+	r.Separations = []cohort.Separation{{Name: "share S1", Kind: "share", H: 10, P: 1e-5, Q: 2e-5, Epsilon2: 0.4, Median: []float64{1, 2, 3}, Q1: []float64{0, 1, 2}, Q3: []float64{2, 3, 4}, Delta: []float64{0.1, 0.2, -0.3}}}
+	r.Warnings = []string{"+a warning that looks like a formula"}
+	return r
+}
+
+func TestWorkbookOpensWithSheetsFormatsAndCharts(t *testing.T) {
+	r := fixture(t, 30, func(i int) string {
+		return []string{"=1+1", "+cmd", "-2", "@SUM(A1)", "P5"}[i%5] + strings.Repeat("x", i/5)
+	})
+	path := filepath.Join(t.TempDir(), "r.xlsx")
+	if err := WriteWorkbook(path, r, false); err != nil {
+		t.Fatal(err)
+	}
+	f, err := excelize.OpenFile(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer f.Close()
+	want := []string{SheetSummary, SheetCharts, SheetParticipants, SheetGroups, SheetSeparating, SheetStates, SheetChoice, SheetQuality, SheetDefinitions, SheetSettings}
+	if got := f.GetSheetList(); strings.Join(got, "|") != strings.Join(want, "|") {
+		t.Fatalf("sheets %v, want %v", got, want)
+	}
+	head, _ := f.GetRows(SheetParticipants)
+	if strings.Join(head[0][:7], "|") != "participant|wave|windows|group|silhouette|distance to centre|flag" {
+		t.Errorf("participants header %v", head[0])
+	}
+	// Formula-looking ids are text cells with no formula.
+	for row := 2; row <= 6; row++ {
+		cell := "A" + digits(row)
+		typ, _ := f.GetCellType(SheetParticipants, cell)
+		formula, _ := f.GetCellFormula(SheetParticipants, cell)
+		val, _ := f.GetCellValue(SheetParticipants, cell)
+		if formula != "" || (typ != excelize.CellTypeSharedString && typ != excelize.CellTypeInlineString) {
+			t.Errorf("%s = %q: type %v, formula %q; want a text cell", cell, val, typ, formula)
+		}
+	}
+	// Number formats: shares as percentages, p-values scientific below 0.001.
+	checkFormat := func(sheet, cell, want string) {
+		t.Helper()
+		id, _ := f.GetCellStyle(sheet, cell)
+		st, _ := f.GetStyle(id)
+		if st == nil || st.CustomNumFmt == nil || *st.CustomNumFmt != want {
+			got := "<none>"
+			if st != nil && st.CustomNumFmt != nil {
+				got = *st.CustomNumFmt
+			}
+			t.Errorf("%s!%s format %s, want %s", sheet, cell, got, want)
+		}
+	}
+	checkFormat(SheetParticipants, "H2", "0.0%")
+	checkFormat(SheetSeparating, "E3", "[<0.001]0.00E+00;0.0000")
+	checkFormat(SheetGroups, "E2", "0.0%")
+	// Frozen header and filter on the participants sheet.
+	panes, _ := f.GetPanes(SheetParticipants)
+	if !panes.Freeze || panes.YSplit != 1 {
+		t.Errorf("participants panes %+v, want the header frozen", panes)
+	}
+	// Colour scales on effect sizes and group shares.
+	for sheet, rng := range map[string]string{SheetSeparating: "C3:C3", SheetGroups: "E2:H4"} {
+		cf, _ := f.GetConditionalFormats(sheet)
+		if _, ok := cf[rng]; !ok {
+			t.Errorf("%s has no colour scale on %s: %v", sheet, rng, cf)
+		}
+	}
+	// Summary: synthetic banner, options and cautions.
+	sum, _ := f.GetRows(SheetSummary)
+	text := flatten(sum)
+	for _, s := range append([]string{"SYNTHETIC DATA", "Options", "seed 1"}, Cautions...) {
+		if !strings.Contains(text, s) {
+			t.Errorf("summary lacks %q", s)
+		}
+	}
+	defs, _ := f.GetRows(SheetDefinitions)
+	for _, term := range []string{"signature share", "bout length", "silhouette", "ε² (epsilon squared)", "q (BH)", "ICC(1)"} {
+		if !strings.Contains(flatten(defs), term) {
+			t.Errorf("definitions lack %q", term)
+		}
+	}
+	// Chart parts and the dendrogram picture are in the package.
+	zr, err := zip.OpenReader(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer zr.Close()
+	charts, pictures := 0, 0
+	for _, zf := range zr.File {
+		switch {
+		case strings.HasPrefix(zf.Name, "xl/charts/chart"):
+			charts++
+		case strings.HasPrefix(zf.Name, "xl/media/image"):
+			pictures++
+		}
+	}
+	// mixture, state profiles, sizes, two for the states' choice, the groups' choice, silhouettes
+	if charts != 7 || pictures != 1 {
+		t.Errorf("%d charts and %d pictures, want 7 and 1", charts, pictures)
+	}
+}
+
+func flatten(rows [][]string) string {
+	var b strings.Builder
+	for _, r := range rows {
+		b.WriteString(strings.Join(r, "|") + "\n")
+	}
+	return b.String()
+}
+
+func TestLargeCohortIsStreamed(t *testing.T) {
+	r := fixture(t, 20000, func(i int) string { return "P" + strings.Repeat("0", 5-len(digits(i))) + digits(i) })
+	f, err := BuildWorkbook(r)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var buf bytes.Buffer
+	if _, err := f.WriteTo(&buf); err != nil {
+		t.Fatal(err)
+	}
+	g, err := excelize.OpenReader(&buf)
+	if err != nil {
+		t.Fatal(err)
+	}
+	rows, _ := g.GetRows(SheetParticipants)
+	if len(rows) != 20001 {
+		t.Errorf("%d rows, want 20,001", len(rows))
+	}
+	tables, _ := g.GetTables(SheetParticipants)
+	if len(tables) != 1 {
+		t.Errorf("the streamed participants sheet has %d tables (its filter), want 1", len(tables))
+	}
+}
+
+func digits(i int) string {
+	if i == 0 {
+		return "0"
+	}
+	s := ""
+	for ; i > 0; i /= 10 {
+		s = string(rune('0'+i%10)) + s
+	}
+	return s
+}
+
+func TestWriteAtomicKeepsExistingOutput(t *testing.T) {
+	dir := t.TempDir()
+	p := filepath.Join(dir, "out.xlsx")
+	os.WriteFile(p, []byte("earlier"), 0o644)
+	if err := WriteAtomic(p, false, func(w io.Writer) error { return nil }); !errors.Is(err, ErrExists) || !strings.Contains(err.Error(), "--force") {
+		t.Errorf("got %v, want ErrExists naming --force", err)
+	}
+	boom := errors.New("interrupted")
+	if err := WriteAtomic(p, true, func(w io.Writer) error { w.Write([]byte("half")); return boom }); !errors.Is(err, boom) {
+		t.Errorf("got %v", err)
+	}
+	if b, _ := os.ReadFile(p); string(b) != "earlier" {
+		t.Errorf("a failed write changed the output to %q", b)
+	}
+	entries, _ := os.ReadDir(dir)
+	if len(entries) != 1 {
+		t.Errorf("temporary files left: %v", entries)
+	}
+}
+
+func TestModelRoundTripAndDamage(t *testing.T) {
+	r := fixture(t, 12, func(i int) string { return "P" + digits(i) })
+	r.Norm.PCA = nil
+	m := NewModel(r, cohort.ReadOptions{ID: "participant", Order: "window"}, [][3]float64{{0, 1, 2}, {0, 1, 2}, {0, 1, 2}})
+	dir := t.TempDir()
+	p := filepath.Join(dir, "m.json")
+	if err := WriteModel(p, m, false); err != nil {
+		t.Fatal(err)
+	}
+	back, err := ReadModel(p)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if back.States.K != 4 || back.Grouping.K != 3 || len(back.Members) != 12 {
+		t.Errorf("read back %d states, %d groups, %d members", back.States.K, back.Grouping.K, len(back.Members))
+	}
+	good, _ := os.ReadFile(p)
+	cases := []struct{ name, edit, want string }{
+		{"not JSON", "}{", "not a model file"},
+		{"older schema", strings.Replace(string(good), `"version": 1`, `"version": 0`, 1), "schema version 0, this tool reads version 1"},
+		{"other file", `{"format":"something else","version":1}`, `format is "something else"`},
+		{"unknown field", strings.Replace(string(good), `"tool":`, `"extra": 1, "tool":`, 1), "damaged or hand-edited"},
+		{"wrong size", strings.Replace(string(good), `"k": 4`, `"k": 5`, 1), "states: k = 5 with 4 centroids"},
+		{"bad spread", strings.Replace(string(good), `"spread": [
+   1,`, `"spread": [
+   -1,`, 1), "normalize.spread[0] is -1"},
+	}
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			if c.edit == string(good) {
+				t.Fatal("the edit did not apply")
+			}
+			_, err := ParseModel("m.json", []byte(c.edit))
+			if err == nil || !errors.Is(err, ErrModel) || !strings.Contains(err.Error(), c.want) || !strings.HasPrefix(err.Error(), "m.json: ") {
+				t.Errorf("got %v, want ErrModel naming %q", err, c.want)
+			}
+		})
+	}
+}
+
+// FuzzParseModel: a damaged or hand-edited model file is refused with ErrModel, never a panic.
+func FuzzParseModel(f *testing.F) {
+	r := fixture(f, 6, func(i int) string { return "P" + digits(i) })
+	m := NewModel(r, cohort.ReadOptions{}, [][3]float64{{0, 1, 2}, {0, 1, 2}, {0, 1, 2}})
+	b, _ := json.MarshalIndent(m, "", " ")
+	f.Add(b)
+	f.Add([]byte(`{"format":"cohortmix model","version":1}`))
+	f.Add([]byte(`{"format":"cohortmix model","version":1,"features":["a"],"normalize":{"pca_components":[[]]}}`))
+	f.Fuzz(func(t *testing.T, b []byte) {
+		m, err := ParseModel("fuzz.json", b)
+		if err != nil {
+			if !errors.Is(err, ErrModel) {
+				t.Fatalf("error without ErrModel: %v", err)
+			}
+			return
+		}
+		// An accepted model must be usable.
+		fit := m.NormFit()
+		x := make([]float64, 2*len(m.Features))
+		y := fit.Apply(x)
+		for _, v := range y {
+			if math.IsNaN(v) {
+				t.Fatalf("accepted model gives NaN")
+			}
+		}
+		m.StateFit()
+	})
+}

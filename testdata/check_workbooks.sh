@@ -1,0 +1,55 @@
+#!/usr/bin/env bash
+# Opens the workbooks cohortmix writes in two other programs and fails on any error:
+# LibreOffice Calc (Debian's libreoffice-calc) converts each to PDF, and Python's openpyxl
+# (Debian's python3-openpyxl) loads each and reads every sheet. It installs both where it can
+# (as root with apt-get); where it cannot, it says so and skips, without failing.
+set -euo pipefail
+cd "$(dirname "$0")/.."
+
+have() { command -v soffice >/dev/null 2>&1 && /usr/bin/python3 -c 'import openpyxl' >/dev/null 2>&1; }
+if ! have; then
+  if [ "$(id -u)" = 0 ] && command -v apt-get >/dev/null 2>&1; then
+    echo "check_workbooks: installing libreoffice-calc and python3-openpyxl with apt-get"
+    (apt-get update -qq && DEBIAN_FRONTEND=noninteractive apt-get install -y -qq libreoffice-calc python3-openpyxl) >/dev/null 2>&1 || true
+  fi
+fi
+if ! have; then
+  echo "check_workbooks: SKIPPED: LibreOffice (soffice) or python3-openpyxl is not installed and could not be installed here"
+  exit 0
+fi
+
+work=$(mktemp -d)
+trap 'rm -rf "$work"' EXIT
+go build -o "$work/cohortmix" ./cmd/cohortmix
+"$work/cohortmix" demo --out "$work/demo" --quiet >/dev/null
+"$work/cohortmix" demo --out "$work/pam" --method pam-aitchison --quiet >/dev/null
+# Past 2,000 participants the participants sheet is streamed; check that form too.
+"$work/cohortmix" demo --out "$work/large" --participants 2100 --windows 150 --states 5 --quiet >/dev/null
+
+fail=0
+for book in "$work"/demo/demo-results.xlsx "$work"/pam/demo-results.xlsx "$work"/large/demo-results.xlsx; do
+  out="$work/pdf-$(basename "$(dirname "$book")")"
+  mkdir -p "$out"
+  if ! timeout 300 soffice --headless --norestore --convert-to pdf --outdir "$out" "$book" >"$out/log" 2>&1 || [ ! -s "$out/demo-results.pdf" ]; then
+    echo "check_workbooks: FAIL: LibreOffice could not convert $book:"; cat "$out/log"; fail=1
+  else
+    echo "check_workbooks: ok: LibreOffice converted $(basename "$(dirname "$book")")/demo-results.xlsx to PDF"
+  fi
+  if ! /usr/bin/python3 - "$book" <<'PY'
+import sys, warnings
+warnings.simplefilter("error")  # any warning while loading is a failure
+import openpyxl
+wb = openpyxl.load_workbook(sys.argv[1])
+cells = sum(1 for ws in wb.worksheets for row in ws.iter_rows() for c in row if c.value is not None)
+assert "Summary" in wb.sheetnames and cells > 0, wb.sheetnames
+for ws in wb.worksheets:
+    for row in ws.iter_rows():
+        for c in row:
+            assert c.data_type != "f", f"{ws.title}!{c.coordinate} holds a formula"
+print(f"check_workbooks: ok: openpyxl read {len(wb.sheetnames)} sheets, {cells} cells, no formulas")
+PY
+  then
+    echo "check_workbooks: FAIL: openpyxl could not read $book"; fail=1
+  fi
+done
+exit $fail
