@@ -29,6 +29,9 @@ type analysisOptions struct {
 	Progress  func(step string)
 }
 
+// normSample is about how many windows the robust scales and the PCA are fitted on.
+const normSample = 200_000
+
 // analyze connects the stages: read → normalize → states and signatures → grouping → what sets
 // the groups apart. It holds no algorithm of its own.
 func analyze(ctx context.Context, o analysisOptions) (*reports.Result, error) {
@@ -57,6 +60,9 @@ func analyze(ctx context.Context, o analysisOptions) (*reports.Result, error) {
 	}
 	step("normalizing")
 	o.Norm.Seed = o.Seed
+	if total := t.Quality.WindowsIn; o.Norm.SampleRate == 0 && total > normSample {
+		o.Norm.SampleRate = float64(normSample) / float64(total) // robust scales and PCA from a sample
+	}
 	fit, normed, err := normalize.FitTransform(t.Features, raw, o.Norm)
 	if err != nil {
 		return nil, err
