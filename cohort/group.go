@@ -225,13 +225,7 @@ func GroupSignatures(ctx context.Context, shares [][]float64, opts GroupOptions)
 	for i := 0; i < n; i++ {
 		g.Distance[i] = SpaceDistance(opts.Method, x.RawRowView(i), g.Centroids[g.Labels[i]])
 	}
-	cd := &cluster.Condensed{N: g.K, D: make([]float64, g.K*(g.K-1)/2)}
-	for a := 0; a < g.K; a++ {
-		for b := a + 1; b < g.K; b++ {
-			cd.D[cd.Index(a, b)] = SpaceDistance(opts.Method, g.Centroids[a], g.Centroids[b])
-		}
-	}
-	if g.CentroidTree, err = cluster.Hierarchical(ctx, cd, cluster.HierarchicalOptions{Linkage: cluster.Average}); err != nil {
+	if g.CentroidTree, err = CentroidTree(ctx, opts.Method, g.Centroids); err != nil {
 		return nil, err
 	}
 	if dist == nil {
@@ -552,6 +546,91 @@ func centroids(m Method, x *mat.Dense, dist *cluster.Condensed, lab []int, k int
 	for g := range out {
 		for j := range out[g] {
 			out[g][j] /= cnt[g]
+		}
+	}
+	return out
+}
+
+// CentroidTree is the average-linkage tree of group centres in the method's grouping space.
+func CentroidTree(ctx context.Context, m Method, centroids [][]float64) (*cluster.Tree, error) {
+	k := len(centroids)
+	cd := &cluster.Condensed{N: k, D: make([]float64, k*(k-1)/2)}
+	for a := 0; a < k; a++ {
+		for b := a + 1; b < k; b++ {
+			cd.D[cd.Index(a, b)] = SpaceDistance(m, centroids[a], centroids[b])
+		}
+	}
+	return cluster.Hierarchical(ctx, cd, cluster.HierarchicalOptions{Linkage: cluster.Average})
+}
+
+// Place puts signatures into the nearest of fixed group centres (in the method's grouping space),
+// as a frozen grouping does for new data: it returns the groups, the distances to them, and each
+// signature's silhouette among the placed ones (NaN where it cannot be computed).
+func Place(m Method, centroids [][]float64, shares [][]float64, workers int) (*Grouping, error) {
+	n := len(shares)
+	g := &Grouping{Method: m, K: len(centroids), Centroids: centroids, Labels: make([]int, n), Distance: make([]float64, n), Silhouette: make([]float64, n)}
+	x := mat.NewDense(max(n, 1), len(centroids[0]), nil)
+	for i, s := range shares {
+		e := Embed(m, s)
+		if len(e) != len(centroids[0]) {
+			return nil, fmt.Errorf("cohort: Place: signature of %d states for centres over %d: %w", len(e), len(centroids[0]), ErrMismatch)
+		}
+		x.SetRow(i, e)
+		best, bestD := 0, math.Inf(1)
+		for c, cen := range centroids {
+			if d := SpaceDistance(m, e, cen); d < bestD {
+				best, bestD = c, d
+			}
+		}
+		g.Labels[i], g.Distance[i] = best, bestD
+	}
+	for i := range g.Silhouette {
+		g.Silhouette[i] = math.NaN()
+	}
+	if distinct(g.Labels) >= 2 && distinct(g.Labels) <= n-1 {
+		opts := GroupOptions{Method: m, Workers: workers}
+		var dist *cluster.Condensed
+		if m == PAMJensenShannon && cluster.CondensedBytes(n) < 1<<30 {
+			raw := mat.NewDense(n, len(shares[0]), nil)
+			for i, s := range shares {
+				raw.SetRow(i, s)
+			}
+			var err error
+			if dist, err = cluster.Pairwise(raw, cluster.JensenShannon, 0, workers); err != nil {
+				return nil, err
+			}
+		}
+		if sil, err := silhouetteOf(x, dist, g.Labels, opts); err == nil {
+			g.Silhouette = expand(sil, n)
+		}
+	}
+	var err error
+	g.CentroidTree, err = CentroidTree(context.Background(), m, centroids)
+	return g, err
+}
+
+func distinct(l []int) int {
+	seen := map[int]bool{}
+	for _, v := range l {
+		seen[v] = true
+	}
+	return len(seen)
+}
+
+// CheckRanges compares each feature's median over the new participants' medians with the range
+// of the fitted participants' medians (1st and 99th percentiles): a median more than one range
+// width outside it suggests a changed unit or scale, and is reported.
+func CheckRanges(features []string, fitted [][3]float64, medians [][]float64) []string {
+	var out []string
+	for j, name := range features {
+		if j >= len(fitted) || len(medians[j]) == 0 {
+			continue
+		}
+		lo, hi := fitted[j][0], fitted[j][2]
+		w := math.Max(hi-lo, 1e-12)
+		m := Median(append([]float64(nil), medians[j]...))
+		if m < lo-w || m > hi+w {
+			out = append(out, fmt.Sprintf("feature %s: the new participants' median is %.4g, far outside the fitted participants' range %.4g to %.4g; check its unit or scale", name, m, lo, hi))
 		}
 	}
 	return out

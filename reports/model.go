@@ -29,18 +29,19 @@ var ErrModel = errors.New("model file not usable")
 // Model is everything needed to place new windows and participants into the same states and
 // groups later: the frozen normalization, the state centroids and the group centres.
 type Model struct {
-	Format      string        `json:"format"`
-	Version     int           `json:"version"`
-	Created     time.Time     `json:"created"`
-	Tool        string        `json:"tool"`
-	Features    []string      `json:"features"`
-	Read        ModelRead     `json:"read"`
-	Normalize   ModelNorm     `json:"normalize"`
-	States      ModelStates   `json:"states"`
-	Grouping    ModelGrouping `json:"grouping"`
-	Settings    []Setting     `json:"settings"`
-	Members     []ModelMember `json:"members"`
-	FeatureMeds [][3]float64  `json:"feature_median_range"` // per feature: 1st percentile, median, 99th percentile of participant medians
+	Format      string            `json:"format"`
+	Version     int               `json:"version"`
+	Created     time.Time         `json:"created"`
+	Tool        string            `json:"tool"`
+	Features    []string          `json:"features"`
+	Read        ModelRead         `json:"read"`
+	Normalize   ModelNorm         `json:"normalize"`
+	States      ModelStates       `json:"states"`
+	Grouping    ModelGrouping     `json:"grouping"`
+	Settings    []Setting         `json:"settings"`
+	Options     map[string]string `json:"options"` // the command-line options of the fit, by flag name, for refresh
+	Members     []ModelMember     `json:"members"`
+	FeatureMeds [][3]float64      `json:"feature_median_range"` // per feature: 1st percentile, median, 99th percentile of participant medians
 }
 
 // ModelRead records the column roles used.
@@ -72,6 +73,7 @@ type ModelStates struct {
 	K         int         `json:"k"`
 	Names     []string    `json:"names"`
 	Centroids [][]float64 `json:"centroids"`
+	Means     [][]float64 `json:"feature_means"` // each state's mean of the original features, for matching states on refresh
 }
 
 // ModelGrouping holds the group centres in the grouping space.
@@ -81,6 +83,7 @@ type ModelGrouping struct {
 	Names     []string    `json:"names"`
 	Centroids [][]float64 `json:"centroids"`
 	Atypical  float64     `json:"atypical_distance"` // 99th percentile of fitted members' distances to their own centre
+	Shares    [][]float64 `json:"mean_shares"`       // each group's mean shares over the states, for matching on refresh
 }
 
 // ModelMember is a fitted participant's group, for the changes sheet of later runs.
@@ -100,9 +103,10 @@ func NewModel(r *Result, read cohort.ReadOptions, featureMeds [][3]float64) *Mod
 		Normalize: ModelNorm{Within: n.Within.String(), Touched: n.Touched, TouchedBy: n.TouchedBy, RestShare: n.RestShare,
 			QuietScore: n.QuietScore, QuietMid: n.QuietMid, QuietScale: n.QuietScale, Scale: n.ScaleKind.String(),
 			Center: n.Center, Spread: n.Spread, ICC: n.ICC},
-		States:   ModelStates{K: r.States.K, Names: r.StateNames, Centroids: rows(r.States.Centroids)},
+		States:   ModelStates{K: r.States.K, Names: r.StateNames, Centroids: rows(r.States.Centroids), Means: stateMeans(r)},
 		Grouping: ModelGrouping{Method: r.Grouping.Method.String(), K: r.Grouping.K, Names: r.GroupNames, Centroids: r.Grouping.Centroids, Atypical: r.AtypicalCut},
 	}
+	m.Grouping.Shares, _, _ = groupMeans(r)
 	if n.PCA != nil {
 		m.Normalize.PCAMean = n.PCA.Mean
 		m.Normalize.PCA = rows(n.PCA.Components)
@@ -111,6 +115,14 @@ func NewModel(r *Result, read cohort.ReadOptions, featureMeds [][3]float64) *Mod
 		m.Members = append(m.Members, ModelMember{ID: u.ID, Wave: u.Wave, Group: r.GroupNames[u.Group], Distance: u.Distance})
 	}
 	return m
+}
+
+func stateMeans(r *Result) [][]float64 {
+	out := make([][]float64, len(r.StateDesc))
+	for s, d := range r.StateDesc {
+		out[s] = d.Mean
+	}
+	return out
 }
 
 func rows(m *mat.Dense) [][]float64 {
@@ -232,6 +244,14 @@ func (m *Model) check() error {
 	if err := finiteRows("states.centroids", s.Centroids, dim); err != nil {
 		return err
 	}
+	if len(s.Means) != s.K {
+		return fmt.Errorf("states: %d feature_means rows for %d states", len(s.Means), s.K)
+	}
+	for i, row := range s.Means {
+		if len(row) != d {
+			return fmt.Errorf("states.feature_means row %d has %d values for %d features", i, len(row), d)
+		}
+	}
 	g := m.Grouping
 	if _, err := cohort.ParseMethod(g.Method); err != nil {
 		return err
@@ -241,6 +261,12 @@ func (m *Model) check() error {
 	}
 	if err := finiteRows("grouping.centroids", g.Centroids, s.K); err != nil {
 		return err
+	}
+	if err := finiteRows("grouping.mean_shares", g.Shares, s.K); err != nil {
+		return err
+	}
+	if len(g.Shares) != g.K {
+		return fmt.Errorf("grouping: %d mean_shares rows for %d groups", len(g.Shares), g.K)
 	}
 	if !(g.Atypical >= 0) || math.IsInf(g.Atypical, 0) {
 		return fmt.Errorf("grouping.atypical_distance is %v", g.Atypical)

@@ -58,6 +58,7 @@ type Result struct {
 	Warnings      []string
 	AtypicalCut   float64      // 99th percentile of members' distances to their group centre
 	FeatureRange  [][3]float64 // per feature: 1st percentile, median and 99th percentile of participant medians
+	Changes       *Changes     // set by assign and refresh
 }
 
 // Cautions are shown wherever results reach a person's care.

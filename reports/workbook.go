@@ -34,7 +34,7 @@ func BuildWorkbook(r *Result) (*excelize.File, error) {
 	if err != nil {
 		return nil, err
 	}
-	steps := []func(*excelize.File, *styles, *Result) error{summarySheet, chartsSheet, participantsSheet, groupsSheet, separatingSheet, statesSheet, choiceSheet, qualitySheet, definitionsSheet, settingsSheet}
+	steps := []func(*excelize.File, *styles, *Result) error{summarySheet, chartsSheet, participantsSheet, changesSheet, groupsSheet, separatingSheet, statesSheet, choiceSheet, qualitySheet, definitionsSheet, settingsSheet}
 	for _, step := range steps {
 		if err := step(f, st, r); err != nil {
 			return nil, fmt.Errorf("reports: %w", err)

@@ -32,9 +32,37 @@ type analysisOptions struct {
 // normSample is about how many windows the robust scales and the PCA are fitted on.
 const normSample = 200_000
 
+// fitted is every fit of one run, before it is described.
+type fitted struct {
+	t      *cohort.Table
+	fit    *normalize.Fit
+	states *profile.States
+	sigs   []profile.Signature
+	labels [][]int
+	g      *cohort.Grouping
+}
+
 // analyze connects the stages: read → normalize → states and signatures → grouping → what sets
 // the groups apart. It holds no algorithm of its own.
 func analyze(ctx context.Context, o analysisOptions) (*reports.Result, error) {
+	f, err := fitAll(ctx, o)
+	if err != nil {
+		return nil, err
+	}
+	return describe(f, numbered("S", f.states.K), numbered("G", f.g.K))
+}
+
+// numbered gives neutral names: prefix1, prefix2, …
+func numbered(prefix string, n int) []string {
+	out := make([]string, n)
+	for i := range out {
+		out[i] = fmt.Sprintf("%s%d", prefix, i+1)
+	}
+	return out
+}
+
+// fitAll reads the inputs and fits normalization, states and grouping.
+func fitAll(ctx context.Context, o analysisOptions) (*fitted, error) {
 	step := func(s string) {
 		if o.Progress != nil {
 			o.Progress(s)
@@ -53,7 +81,6 @@ func analyze(ctx context.Context, o analysisOptions) (*reports.Result, error) {
 		return nil, fmt.Errorf("%s: --groups asks for up to %d groups but %d participants are grouped: %w; lower --groups to at most %d",
 			o.Inputs[0], maxK, len(t.Units), cohort.ErrTooFew, len(t.Units)-1)
 	}
-	d := len(t.Features)
 	raw := make([][]float64, len(t.Units))
 	for i, u := range t.Units {
 		raw[i] = u.X
@@ -73,16 +100,41 @@ func analyze(ctx context.Context, o analysisOptions) (*reports.Result, error) {
 		return nil, err
 	}
 	step("assigning windows")
-	k := states.K
-	labels := make([][]int, len(t.Units))
-	sigs := make([]profile.Signature, len(t.Units))
-	shares := make([][]float64, len(t.Units))
-	for i := range t.Units {
-		labels[i] = states.Assign(normed[i])
-		sigs[i] = profile.Signatures(labels[i], k)
-		shares[i] = sigs[i].Share
+	sigs, labels := signatures(states, normed)
+	shares := make([][]float64, len(sigs))
+	for i, sg := range sigs {
+		shares[i] = sg.Share
 	}
-	res := &reports.Result{Features: t.Features, OrderKind: t.OrderKind, Quality: t.Quality, Files: t.Files, Norm: fit, States: states}
+	step("grouping participants")
+	g, err := cohort.GroupSignatures(ctx, shares, cohort.GroupOptions{Method: o.Method, Groups: o.Groups, Criterion: o.Criterion, Bootstrap: o.Bootstrap, Seed: o.Seed, Workers: o.Workers})
+	if err != nil {
+		return nil, err
+	}
+	return &fitted{t: t, fit: fit, states: states, sigs: sigs, labels: labels, g: g}, nil
+}
+
+// signatures assigns every window of every unit to a state and summarizes each unit.
+func signatures(states *profile.States, normed [][]float64) ([]profile.Signature, [][]int) {
+	labels := make([][]int, len(normed))
+	sigs := make([]profile.Signature, len(normed))
+	for i, block := range normed {
+		labels[i] = states.Assign(block)
+		sigs[i] = profile.Signatures(labels[i], states.K)
+	}
+	return sigs, labels
+}
+
+// describe gathers what the reports show once every unit has a group: the states in the original
+// units, the states × labels table, the separating variables, and one row per unit, under the
+// given state and group names.
+func describe(f *fitted, stateNames, groupNames []string) (*reports.Result, error) {
+	t, fit, states, sigs, labels, g := f.t, f.fit, f.states, f.sigs, f.labels, f.g
+	d, k := len(t.Features), states.K
+	raw := make([][]float64, len(t.Units))
+	for i, u := range t.Units {
+		raw[i] = u.X
+	}
+	res := &reports.Result{Features: t.Features, OrderKind: t.OrderKind, Quality: t.Quality, Files: t.Files, Norm: fit, States: states, Grouping: g}
 	res.Warnings = append(res.Warnings, fit.Warnings...)
 	res.StateDesc = profile.Describe(raw, labels, d, k)
 	if t.HasLabels {
@@ -90,21 +142,15 @@ func analyze(ctx context.Context, o analysisOptions) (*reports.Result, error) {
 		for _, u := range t.Units {
 			ls = append(ls, u.Labels)
 		}
+		var err error
 		if res.Labels, err = profile.CompareLabels(labels, ls, k); err != nil {
 			return nil, err
 		}
 	}
-	step("grouping participants")
-	g, err := cohort.GroupSignatures(ctx, shares, cohort.GroupOptions{Method: o.Method, Groups: o.Groups, Criterion: o.Criterion, Bootstrap: o.Bootstrap, Seed: o.Seed, Workers: o.Workers})
-	if err != nil {
-		return nil, err
-	}
-	res.Grouping = g
-	step("finding separating variables")
 	vars := make([]cohort.Variable, 0, 2*k+d)
 	for s := 0; s < k; s++ {
-		v := cohort.Variable{Name: fmt.Sprintf("share S%d", s+1), Kind: "share"}
-		b := cohort.Variable{Name: fmt.Sprintf("bout S%d", s+1), Kind: "bout length"}
+		v := cohort.Variable{Name: "share " + stateNames[s], Kind: "share"}
+		b := cohort.Variable{Name: "bout " + stateNames[s], Kind: "bout length"}
 		for i := range sigs {
 			v.Values = append(v.Values, sigs[i].Share[s])
 			b.Values = append(b.Values, sigs[i].MeanBout[s])
@@ -123,11 +169,10 @@ func analyze(ctx context.Context, o analysisOptions) (*reports.Result, error) {
 		vars = append(vars, v)
 		res.FeatureRange = append(res.FeatureRange, [3]float64{percentile(v.Values, 0.01), percentile(v.Values, 0.5), percentile(v.Values, 0.99)})
 	}
+	var err error
 	if res.Separations, res.NotTested, err = cohort.Separate(vars, g.Labels, g.K); err != nil {
 		return nil, err
 	}
-	res.StateNames, res.StateLines = nameStates(res.StateDesc, t.Features)
-	res.GroupNames, res.GroupLines = nameGroups(g, sigs)
 	res.AtypicalCut = percentile(g.Distance, 0.99)
 	for i, u := range t.Units {
 		row := reports.UnitRow{ID: u.ID, Wave: u.Wave, Windows: sigs[i].Windows, Group: g.Labels[i],
@@ -141,15 +186,16 @@ func analyze(ctx context.Context, o analysisOptions) (*reports.Result, error) {
 		}
 		res.Units = append(res.Units, row)
 	}
+	res.StateNames, res.GroupNames = stateNames, groupNames
+	res.StateLines = stateLines(res.StateDesc, t.Features)
+	res.GroupLines = groupLines(g, sigs, stateNames)
 	return res, nil
 }
 
-// nameStates gives states neutral names and a line naming the features that set each apart.
-func nameStates(desc []profile.Description, features []string) ([]string, []string) {
-	names := make([]string, len(desc))
+// stateLines describes each state in a line naming the features that set it apart.
+func stateLines(desc []profile.Description, features []string) []string {
 	lines := make([]string, len(desc))
 	for s, dsc := range desc {
-		names[s] = fmt.Sprintf("S%d", s+1)
 		var parts []string
 		for _, dr := range dsc.Drivers[:min(3, len(dsc.Drivers))] {
 			word := "higher"
@@ -160,11 +206,11 @@ func nameStates(desc []profile.Description, features []string) ([]string, []stri
 		}
 		lines[s] = fmt.Sprintf("%.0f%% of windows; %s than average", 100*dsc.Share, strings.Join(parts, ", "))
 	}
-	return names, lines
+	return lines
 }
 
-// nameGroups gives groups neutral names and a line from their mixture against the cohort's.
-func nameGroups(g *cohort.Grouping, sigs []profile.Signature) ([]string, []string) {
+// groupLines describes each group in a line, from its mixture against the cohort's.
+func groupLines(g *cohort.Grouping, sigs []profile.Signature, stateNames []string) []string {
 	k := len(sigs[0].Share)
 	meanShare := make([]float64, k)
 	meanBout := make([]float64, k)
@@ -174,10 +220,8 @@ func nameGroups(g *cohort.Grouping, sigs []profile.Signature) ([]string, []strin
 			meanBout[j] += s.MeanBout[j] / float64(len(sigs))
 		}
 	}
-	names := make([]string, g.K)
 	lines := make([]string, g.K)
 	for c := 0; c < g.K; c++ {
-		names[c] = fmt.Sprintf("G%d", c+1)
 		share := make([]float64, k)
 		bout := make([]float64, k)
 		n := 0.0
@@ -210,20 +254,23 @@ func nameGroups(g *cohort.Grouping, sigs []profile.Signature) ([]string, []strin
 		sort.SliceStable(db, func(a, b int) bool { return db[a].r > db[b].r })
 		var parts []string
 		if len(ds) > 0 && ds[0].r > 0.1 {
-			parts = append(parts, fmt.Sprintf("more time in S%d", ds[0].j+1))
+			parts = append(parts, "more time in "+stateNames[ds[0].j])
 		}
 		if len(ds) > 0 && ds[len(ds)-1].r < -0.1 {
-			parts = append(parts, fmt.Sprintf("less in S%d", ds[len(ds)-1].j+1))
+			parts = append(parts, "less in "+stateNames[ds[len(ds)-1].j])
 		}
 		if len(db) > 0 && db[0].r > 0.1 {
-			parts = append(parts, fmt.Sprintf("longer bouts of S%d", db[0].j+1))
+			parts = append(parts, "longer bouts of "+stateNames[db[0].j])
 		}
 		if len(parts) == 0 {
 			parts = append(parts, "close to the cohort's average mixture")
 		}
 		lines[c] = fmt.Sprintf("%d participants; %s", int(n), strings.Join(parts, ", "))
+		if n == 0 {
+			lines[c] = "no participants in this run"
+		}
 	}
-	return names, lines
+	return lines
 }
 
 // percentile is the p-quantile of xs by linear interpolation (NaN values ignored).

@@ -10,6 +10,7 @@ import (
 	"github.com/cohortmix/cohortmix/normalize"
 	"github.com/cohortmix/cohortmix/reports"
 	"github.com/spf13/cobra"
+	"github.com/spf13/pflag"
 )
 
 // parseRange reads "6" or "2-8" into the increasing list of candidates.
@@ -165,4 +166,62 @@ func progress(env *Env, quiet bool, now func() time.Time) func(string) {
 	return func(step string) {
 		fmt.Fprintf(env.IO.Err, "  %6.1fs  %s…\n", now().Sub(start).Seconds(), step)
 	}
+}
+
+// runOnly are flags that belong to one run, not to the fit: refresh does not carry them over.
+var runOnly = map[string]bool{"members": true, "model": true, "force": true, "quiet": true, "workers": true, "out": true}
+
+// asOptions gives every fit flag's value by name, as the model file stores them.
+func (m *mainFlags) asOptions() map[string]string {
+	var tmp mainFlags
+	cmd := &cobra.Command{}
+	tmp.register(cmd)
+	tmp = *m
+	out := map[string]string{}
+	cmd.Flags().VisitAll(func(f *pflag.Flag) {
+		if !runOnly[f.Name] {
+			out[f.Name] = flagString(f)
+		}
+	})
+	return out
+}
+
+// applyOptions sets the fit flags from a model's options, except those the user gave (changed).
+func (m *mainFlags) applyOptions(opts map[string]string, changed func(name string) bool) error {
+	var tmp mainFlags
+	cmd := &cobra.Command{}
+	tmp.register(cmd)
+	tmp = *m
+	for name, val := range opts {
+		if runOnly[name] || changed(name) {
+			continue
+		}
+		f := cmd.Flags().Lookup(name)
+		if f == nil {
+			return fmt.Errorf("the model stores option --%s, which this version does not know; refit with 'cohortmix group'", name)
+		}
+		if sv, ok := f.Value.(pflag.SliceValue); ok {
+			var items []string
+			if val != "" {
+				items = strings.Split(val, ",")
+			}
+			if err := sv.Replace(items); err != nil {
+				return fmt.Errorf("the model's option --%s %q: %v", name, val, err)
+			}
+			continue
+		}
+		if err := f.Value.Set(val); err != nil {
+			return fmt.Errorf("the model's option --%s %q: %v", name, val, err)
+		}
+	}
+	*m = tmp
+	return nil
+}
+
+// flagString is a flag's value as it would be typed (slices without brackets).
+func flagString(f *pflag.Flag) string {
+	if sv, ok := f.Value.(pflag.SliceValue); ok {
+		return strings.Join(sv.GetSlice(), ",")
+	}
+	return f.Value.String()
 }

@@ -101,6 +101,7 @@ func groupRun(ctx context.Context, o *groupOptions) error {
 	}
 	if o.Flags.Model != "" {
 		m := reports.NewModel(res, ao.Read, res.FeatureRange)
+		m.Options = o.Flags.asOptions()
 		if err := reports.WriteModel(o.Flags.Model, m, o.Flags.Force); err != nil {
 			return err
 		}

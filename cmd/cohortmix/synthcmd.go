@@ -50,6 +50,8 @@ Exit codes: 0 success, 1 error, 2 wrong command line, 130 interrupted.`,
 	f.Uint64Var(&opts.Synth.Seed, "seed", 1, "seed")
 	f.BoolVar(&opts.Synth.Times, "times", false, "ISO-8601 times in the window column")
 	f.BoolVar(&opts.Synth.Labels, "labels", false, "add an activity column with each window's true state")
+	f.IntVar(&opts.Synth.FirstID, "first-id", 0, "number participants from first-id+1, e.g. for a second enrolment wave")
+	f.StringVar(&opts.Synth.IDPrefix, "id-prefix", "P", "prefix of participant ids")
 	f.BoolVar(&opts.Force, "force", false, "replace existing files")
 	return cmd
 }

@@ -33,6 +33,7 @@ type Options struct {
 	Times        bool    // write ISO-8601 times in the window column instead of integers
 	Labels       bool    // add an activity column with the true state of each window
 	Waves        bool    // add a wave column ("1")
+	GroupSet     []int   // which planted group profiles (0…3) appear; empty means the first Groups
 	IDPrefix     string  // participant ids are IDPrefix + number; "" means "P"
 	FirstID      int     // number of the first participant
 }
@@ -123,6 +124,11 @@ func Write(w io.Writer, opts Options, gz bool) ([]Truth, error) {
 	if opts.Groups < 2 || opts.Groups > len(groupMix) {
 		return nil, fmt.Errorf("synth: %d groups: choose 2 to %d", opts.Groups, len(groupMix))
 	}
+	for _, g := range opts.GroupSet {
+		if g < 0 || g >= len(groupMix) {
+			return nil, fmt.Errorf("synth: planted group %d: choose 0 to %d", g, len(groupMix)-1)
+		}
+	}
 	if opts.Participants < 1 || opts.Windows < 1 {
 		return nil, fmt.Errorf("synth: %d participants × %d windows: both must be ≥ 1", opts.Participants, opts.Windows)
 	}
@@ -153,6 +159,9 @@ func Write(w io.Writer, opts Options, gz bool) ([]Truth, error) {
 	for p := 0; p < opts.Participants; p++ {
 		rng := rand.New(rand.NewPCG(opts.Seed, uint64(opts.FirstID+p)))
 		g := (opts.FirstID + p) % opts.Groups
+		if len(opts.GroupSet) > 0 {
+			g = opts.GroupSet[(opts.FirstID+p)%len(opts.GroupSet)]
+		}
 		id := opts.IDPrefix + strconv.Itoa(opts.FirstID+p+1)
 		truth[p] = Truth{ID: id, Group: g}
 		mix := dirichlet(rng, groupMix[g], opts.Spread)

@@ -1,0 +1,266 @@
+package main
+
+import (
+	"context"
+	"fmt"
+	"math"
+	"slices"
+	"strings"
+	"time"
+
+	"github.com/cohortmix/cohortmix/cluster"
+	"github.com/cohortmix/cohortmix/cohort"
+	"github.com/cohortmix/cohortmix/reports"
+	"github.com/spf13/cobra"
+)
+
+type assignOptions struct {
+	IO      IO
+	Now     func() time.Time
+	Model   string
+	Inputs  []string
+	Out     string
+	Members string
+	Force   bool
+	Quiet   bool
+	Workers int
+	Args    []string
+}
+
+func newAssignCmd(env *Env, runF func(context.Context, *assignOptions) error) *cobra.Command {
+	opts := &assignOptions{IO: env.IO, Now: time.Now}
+	cmd := &cobra.Command{
+		Use:   "assign --model <model.json> <windows.csv>... --out <wave.xlsx>",
+		Short: "Place new data into the states and groups of a model, without refitting",
+		Long: `Applies a model's frozen normalization, states and group centres to new data: every window gets
+a state, every participant (new, or a returning one in a new wave) a signature and the nearest
+group with its distance. Participants farther from every group than 99% of the members the model
+was fitted on are marked atypical. Features the model needs must be present; extra features are
+ignored and listed, and a feature whose level changed a lot is reported.
+
+Exit codes: 0 success, 1 error in the input or the run, 2 wrong command line, 130 interrupted.`,
+		Example: `  $ cohortmix assign --model model.json wave2.csv --out wave2.xlsx --members wave2-members.csv`,
+		Args:    cobra.MinimumNArgs(1),
+		RunE: func(cmd *cobra.Command, args []string) error {
+			opts.Inputs = args
+			opts.Args = append([]string{"cohortmix", "assign"}, argsOf(cmd)...)
+			if runF != nil {
+				return runF(cmd.Context(), opts)
+			}
+			return assignRun(cmd.Context(), opts)
+		},
+	}
+	f := cmd.Flags()
+	f.StringVar(&opts.Model, "model", "", "the model file written by 'cohortmix group --model'")
+	f.StringVar(&opts.Out, "out", "", "the workbook to write (.xlsx)")
+	f.StringVar(&opts.Members, "members", "", "also write a participant,group CSV here")
+	f.BoolVar(&opts.Force, "force", false, "replace existing output files")
+	f.BoolVar(&opts.Quiet, "quiet", false, "print only the final summary")
+	f.IntVar(&opts.Workers, "workers", 0, "worker goroutines (0: all cores)")
+	_ = cmd.MarkFlagRequired("model")
+	_ = cmd.MarkFlagRequired("out")
+	return cmd
+}
+
+func assignRun(ctx context.Context, o *assignOptions) error {
+	if !strings.HasSuffix(strings.ToLower(o.Out), ".xlsx") {
+		return flagErrorf("--out %q: the workbook needs a name ending in .xlsx", o.Out)
+	}
+	for _, p := range []string{o.Out, o.Members} {
+		if p != "" {
+			if err := reports.CheckTarget(p, o.Force); err != nil {
+				return err
+			}
+		}
+	}
+	m, err := reports.ReadModel(o.Model)
+	if err != nil {
+		return err
+	}
+	t, extra, err := readForModel(o.Inputs, m)
+	if err != nil {
+		return err
+	}
+	fit, states := m.NormFit(), m.StateFit()
+	normed := make([][]float64, len(t.Units))
+	for i, u := range t.Units {
+		normed[i] = fit.Apply(u.X)
+	}
+	sigs, labels := signatures(states, normed)
+	shares := make([][]float64, len(sigs))
+	for i, s := range sigs {
+		shares[i] = s.Share
+	}
+	method, _ := cohort.ParseMethod(m.Grouping.Method)
+	g, err := cohort.Place(method, m.Grouping.Centroids, shares, o.Workers)
+	if err != nil {
+		return err
+	}
+	res, err := describe(&fitted{t: t, fit: fit, states: states, sigs: sigs, labels: labels, g: g}, m.States.Names, m.Grouping.Names)
+	if err != nil {
+		return err
+	}
+	res.Tool, res.Version, res.Created = "cohortmix", version, o.Now()
+	res.Command = strings.Join(o.Args, " ")
+	res.Settings = append([]reports.Setting{{Name: "mode", Value: "assign (no refitting)"}, {Name: "model", Value: o.Model}}, m.Settings...)
+	res.States.Candidates = nil
+	for _, name := range extra {
+		res.Quality.IgnoredColumns = append(res.Quality.IgnoredColumns, cohort.Note{Name: name, Reason: "not in the model: ignored"})
+	}
+	medians := featureMedians(t)
+	res.Warnings = append(res.Warnings, cohort.CheckRanges(t.Features, m.FeatureMeds, medians)...)
+	res.Changes = assignChanges(m, res, o.Model)
+	for i := range res.Units {
+		if res.Changes.Rows[i].Atypical {
+			res.Units[i].Flag = "atypical: farther from every group than 99% of the fitted members"
+		}
+	}
+	if err := ctx.Err(); err != nil {
+		return err
+	}
+	if err := reports.WriteWorkbook(o.Out, res, o.Force); err != nil {
+		return err
+	}
+	if o.Members != "" {
+		if err := reports.WriteMembers(o.Members, res, o.Force); err != nil {
+			return err
+		}
+	}
+	atypical := 0
+	for _, r := range res.Changes.Rows {
+		if r.Atypical {
+			atypical++
+		}
+	}
+	fmt.Fprintf(o.IO.Out, "%d participants placed with %s (%d atypical, %d excluded) → %s\n", len(res.Units), o.Model, atypical, len(res.Quality.Excluded), o.Out)
+	for _, w := range res.Warnings {
+		fmt.Fprintln(o.IO.Out, "warning: "+w)
+	}
+	return nil
+}
+
+// readForModel reads new data with the model's column roles and keeps the model's features, in
+// its order; a feature the model needs and the input lacks is an error that names it.
+func readForModel(inputs []string, m *reports.Model) (*cohort.Table, []string, error) {
+	ro := cohort.ReadOptions{ID: m.Read.ID, Order: m.Read.Order, Wave: m.Read.Wave, MinWindows: m.Read.MinWindows}
+	if m.Read.Missing == cohort.ImputeMedian.String() {
+		ro.Missing = cohort.ImputeMedian
+	}
+	t, err := cohort.Read(inputs, ro)
+	if err != nil {
+		return nil, nil, err
+	}
+	idx := make([]int, len(m.Features))
+	for j, name := range m.Features {
+		idx[j] = slices.Index(t.Features, name)
+		if idx[j] < 0 {
+			why := "is not in the input"
+			for _, n := range t.Quality.DroppedFeatures {
+				if n.Name == name {
+					why = "is " + n.Reason
+				}
+			}
+			return nil, nil, fmt.Errorf("%s: feature %s, which the model needs, %s; add the column (the model was fitted on: %s): %w",
+				inputs[0], name, why, strings.Join(m.Features, ", "), cohort.ErrMismatch)
+		}
+	}
+	var extra []string
+	for _, name := range t.Features {
+		if !slices.Contains(m.Features, name) {
+			extra = append(extra, name)
+		}
+	}
+	d := len(t.Features)
+	for _, u := range t.Units {
+		n := len(u.X) / d
+		x := make([]float64, n*len(idx))
+		for i := 0; i < n; i++ {
+			for j, c := range idx {
+				x[i*len(idx)+j] = u.X[i*d+c]
+			}
+		}
+		u.X = x
+	}
+	t.Features = m.Features
+	return t, extra, nil
+}
+
+func featureMedians(t *cohort.Table) [][]float64 {
+	d := len(t.Features)
+	out := make([][]float64, d)
+	for _, u := range t.Units {
+		for j := 0; j < d; j++ {
+			col := make([]float64, 0, len(u.X)/d)
+			for w := 0; w*d < len(u.X); w++ {
+				col = append(col, u.X[w*d+j])
+			}
+			out[j] = append(out[j], cohort.Median(col))
+		}
+	}
+	return out
+}
+
+// previousGroups maps the model's members to their groups by id and wave, and by id alone for a
+// returning participant seen in a new wave.
+func previousGroups(m *reports.Model) (byKey, byID map[string]string) {
+	byKey, byID = map[string]string{}, map[string]string{}
+	for _, mem := range m.Members {
+		byKey[mem.ID+"\x00"+mem.Wave] = mem.Group
+		byID[mem.ID] = mem.Group
+	}
+	return byKey, byID
+}
+
+func lookupPrevious(byKey, byID map[string]string, id, wave string) string {
+	if g, ok := byKey[id+"\x00"+wave]; ok {
+		return g
+	}
+	return byID[id]
+}
+
+// assignChanges records who is where, against the model's members.
+func assignChanges(m *reports.Model, res *reports.Result, model string) *reports.Changes {
+	byKey, byID := previousGroups(m)
+	method, _ := cohort.ParseMethod(m.Grouping.Method)
+	c := &reports.Changes{Mode: "assign", Model: model}
+	var a, b []int
+	index := map[string]int{}
+	for i, n := range m.Grouping.Names {
+		index[n] = i
+	}
+	for _, u := range res.Units {
+		now := res.GroupNames[u.Group]
+		row := reports.ChangeRow{ID: u.ID, Wave: u.Wave, Now: now, DistNow: u.Distance, DistPrevious: math.NaN(), Atypical: u.Distance > m.Grouping.Atypical}
+		row.Previous = lookupPrevious(byKey, byID, u.ID, u.Wave)
+		switch {
+		case row.Previous == "":
+			row.Moved = "new participant"
+		case row.Previous == now:
+			row.Moved = "no"
+		default:
+			row.Moved = "yes"
+		}
+		if p, ok := index[row.Previous]; ok {
+			row.DistPrevious = cohort.SpaceDistance(method, cohort.Embed(method, u.Share), m.Grouping.Centroids[p])
+			c.Returning++
+			a, b = append(a, p), append(b, u.Group)
+		}
+		c.Rows = append(c.Rows, row)
+	}
+	c.ARI = math.NaN()
+	if len(a) >= 2 {
+		c.ARI, _ = cluster.AdjustedRand(a, b)
+	}
+	before := map[string]int{}
+	for _, mem := range m.Members {
+		before[mem.Group]++
+	}
+	after := map[int]int{}
+	for _, u := range res.Units {
+		after[u.Group]++
+	}
+	for i, n := range m.Grouping.Names {
+		c.Groups = append(c.Groups, reports.GroupChange{Name: n, Status: "centre frozen (assign does not refit)", Before: before[n], After: after[i], Drift: 0})
+	}
+	return c
+}

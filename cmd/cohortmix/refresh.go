@@ -1,0 +1,240 @@
+package main
+
+import (
+	"context"
+	"fmt"
+	"math"
+	"strings"
+	"time"
+
+	"github.com/cohortmix/cohortmix/cluster"
+	"github.com/cohortmix/cohortmix/cohort"
+	"github.com/cohortmix/cohortmix/profile"
+	"github.com/cohortmix/cohortmix/reports"
+	"github.com/spf13/cobra"
+)
+
+type refreshOptions struct {
+	groupOptions
+	Previous string
+	changed  func(name string) bool
+}
+
+func newRefreshCmd(env *Env, runF func(context.Context, *refreshOptions) error) *cobra.Command {
+	opts := &refreshOptions{groupOptions: groupOptions{IO: env.IO, Now: time.Now}}
+	cmd := &cobra.Command{
+		Use:   "refresh --previous <model.json> <windows.csv>... --out <new.xlsx>",
+		Short: "Refit on the updated cohort and keep group names where groups are the same",
+		Long: `Refits the whole analysis on the updated cohort with the previous model's settings (any option
+given here overrides them), then matches the new states and groups to the previous ones by the
+Hungarian method on centroid distance: a group keeps its name when it is still the same group, a
+group with no close match gets a new name, and the workbook's Changes sheet says which groups are
+new, merged or gone and who moved.
+
+Exit codes: 0 success, 1 error in the input or the run, 2 wrong command line, 130 interrupted.`,
+		Example: `  $ cohortmix refresh --previous model.json all-waves.csv --out refresh.xlsx --model model-v2.json`,
+		Args:    cobra.MinimumNArgs(1),
+		RunE: func(cmd *cobra.Command, args []string) error {
+			opts.Inputs = args
+			opts.Args = append([]string{"cohortmix", "refresh"}, argsOf(cmd)...)
+			opts.changed = cmd.Flags().Changed
+			if runF != nil {
+				return runF(cmd.Context(), opts)
+			}
+			return refreshRun(cmd.Context(), opts)
+		},
+	}
+	cmd.Flags().StringVar(&opts.Previous, "previous", "", "the model file of the earlier run")
+	cmd.Flags().StringVar(&opts.Out, "out", "", "the workbook to write (.xlsx)")
+	_ = cmd.MarkFlagRequired("previous")
+	_ = cmd.MarkFlagRequired("out")
+	opts.Flags.register(cmd)
+	return cmd
+}
+
+func refreshRun(ctx context.Context, o *refreshOptions) error {
+	if err := o.outputs(); err != nil {
+		return err
+	}
+	prev, err := reports.ReadModel(o.Previous)
+	if err != nil {
+		return err
+	}
+	if err := o.Flags.applyOptions(prev.Options, o.changed); err != nil {
+		return fmt.Errorf("%s: %w", o.Previous, err)
+	}
+	ao, err := o.Flags.options(o.Inputs)
+	if err != nil {
+		return err
+	}
+	ao.Progress = progress(&Env{IO: o.IO}, o.Flags.Quiet, o.Now)
+	f, err := fitAll(ctx, ao)
+	if err != nil {
+		return err
+	}
+	method, _ := cohort.ParseMethod(prev.Grouping.Method)
+	d := len(f.t.Features)
+	raw := make([][]float64, len(f.t.Units))
+	for i, u := range f.t.Units {
+		raw[i] = u.X
+	}
+	desc := profile.Describe(raw, f.labels, d, f.states.K)
+	byKey, byID := previousGroups(prev)
+	prevIndex := map[string]int{}
+	for i, n := range prev.Grouping.Names {
+		prevIndex[n] = i
+	}
+	next := cohort.Next{Labels: f.g.Labels, GroupShares: meanShares(f)}
+	for _, dsc := range desc {
+		next.StateMeans = append(next.StateMeans, dsc.Mean)
+	}
+	for _, u := range f.t.Units {
+		p, ok := prevIndex[lookupPrevious(byKey, byID, u.ID, u.Wave)]
+		if !ok {
+			p = -1
+		}
+		next.PrevGroup = append(next.PrevGroup, p)
+	}
+	if !sameFeatures(prev.Features, f.t.Features) {
+		return fmt.Errorf("%s: the features (%s) differ from the previous model's (%s): %w; refresh needs the same features, or start anew with 'cohortmix group'",
+			o.Inputs[0], strings.Join(f.t.Features, ", "), strings.Join(prev.Features, ", "), cohort.ErrMismatch)
+	}
+	match, err := cohort.Match(cohort.Previous{StateNames: prev.States.Names, StateMeans: prev.States.Means, Scale: prev.Normalize.Spread,
+		GroupNames: prev.Grouping.Names, GroupShares: prev.Grouping.Shares, Cut: prev.Grouping.Atypical, Method: method}, next)
+	if err != nil {
+		return err
+	}
+	res, err := describe(f, match.StateNames, match.GroupNames)
+	if err != nil {
+		return err
+	}
+	res.Tool, res.Version, res.Created = "cohortmix", version, o.Now()
+	res.Command = strings.Join(o.Args, " ")
+	res.Settings = append([]reports.Setting{{Name: "mode", Value: "refresh"}, {Name: "previous model", Value: o.Previous}}, o.Flags.settings()...)
+	res.Changes = refreshChanges(prev, res, match, next, o.Previous)
+	if err := ctx.Err(); err != nil {
+		return err
+	}
+	if err := reports.WriteWorkbook(o.Out, res, o.Flags.Force); err != nil {
+		return err
+	}
+	if o.Flags.Members != "" {
+		if err := reports.WriteMembers(o.Flags.Members, res, o.Flags.Force); err != nil {
+			return err
+		}
+	}
+	if o.Flags.Model != "" {
+		m := reports.NewModel(res, ao.Read, res.FeatureRange)
+		m.Options = o.Flags.asOptions()
+		if err := reports.WriteModel(o.Flags.Model, m, o.Flags.Force); err != nil {
+			return err
+		}
+	}
+	printSummary(o.IO, res, o.Out)
+	for _, n := range res.Changes.Notes {
+		fmt.Fprintln(o.IO.Out, "  "+n)
+	}
+	return nil
+}
+
+func sameFeatures(a, b []string) bool {
+	return strings.Join(a, "\x00") == strings.Join(b, "\x00")
+}
+
+// meanShares is each new group's mean signature.
+func meanShares(f *fitted) [][]float64 {
+	out := make([][]float64, f.g.K)
+	n := make([]float64, f.g.K)
+	for g := range out {
+		out[g] = make([]float64, f.states.K)
+	}
+	for i, s := range f.sigs {
+		l := f.g.Labels[i]
+		n[l]++
+		for j, v := range s.Share {
+			out[l][j] += v
+		}
+	}
+	for g := range out {
+		for j := range out[g] {
+			out[g][j] /= math.Max(1, n[g])
+		}
+	}
+	return out
+}
+
+// refreshChanges records the fate of each group and state and who moved.
+func refreshChanges(prev *reports.Model, res *reports.Result, m *cohort.Matching, next cohort.Next, model string) *reports.Changes {
+	method, _ := cohort.ParseMethod(prev.Grouping.Method)
+	c := &reports.Changes{Mode: "refresh", Model: model, ARI: math.NaN()}
+	var a, b []int
+	for i, u := range res.Units {
+		row := reports.ChangeRow{ID: u.ID, Wave: u.Wave, Now: res.GroupNames[u.Group], DistNow: u.Distance, DistPrevious: math.NaN()}
+		if p := next.PrevGroup[i]; p >= 0 {
+			row.Previous = prev.Grouping.Names[p]
+			row.DistPrevious = cohort.SpaceDistance(method, m.Place(u.Share), m.PrevCentres[p])
+			c.Returning++
+			a, b = append(a, p), append(b, u.Group)
+		}
+		switch {
+		case row.Previous == "":
+			row.Moved = "new participant"
+		case row.Previous == row.Now:
+			row.Moved = "no"
+		default:
+			row.Moved = "yes"
+		}
+		c.Rows = append(c.Rows, row)
+	}
+	if len(a) >= 2 {
+		c.ARI, _ = cluster.AdjustedRand(a, b)
+	}
+	before := map[string]int{}
+	for _, mem := range prev.Members {
+		before[mem.Group]++
+	}
+	after := map[int]int{}
+	for _, u := range res.Units {
+		after[u.Group]++
+	}
+	var news, gone, merged []string
+	for i, name := range res.GroupNames {
+		gc := reports.GroupChange{Name: name, Status: m.NewStatus[i], After: after[i], Drift: m.GroupDrift[i]}
+		if p := m.GroupPrev[i]; p >= 0 {
+			gc.Before = before[prev.Grouping.Names[p]]
+		} else {
+			news = append(news, name)
+			gc.Drift = math.NaN()
+		}
+		c.Groups = append(c.Groups, gc)
+	}
+	for p, name := range prev.Grouping.Names {
+		st := m.PrevStatus[p]
+		if strings.HasPrefix(st, "continues") {
+			continue
+		}
+		if st == "gone" {
+			gone = append(gone, name)
+		} else {
+			merged = append(merged, name+" "+st)
+		}
+		c.Groups = append(c.Groups, reports.GroupChange{Name: name, Status: st, Before: before[name], Drift: math.NaN()})
+	}
+	for j, name := range m.StateNames {
+		st := "continues"
+		if m.StatePrev[j] < 0 {
+			st = "new state"
+		}
+		c.States = append(c.States, reports.GroupChange{Name: name, Status: st, Drift: m.StateDrift[j]})
+	}
+	c.Notes = append(c.Notes, fmt.Sprintf("groups: %d kept their names, new: %s; gone: %s; merged: %s",
+		len(res.GroupNames)-len(news), listOrNone(news), listOrNone(gone), listOrNone(merged)))
+	return c
+}
+
+func listOrNone(xs []string) string {
+	if len(xs) == 0 {
+		return "none"
+	}
+	return strings.Join(xs, ", ")
+}

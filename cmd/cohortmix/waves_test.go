@@ -1,0 +1,187 @@
+package main
+
+import (
+	"context"
+	"encoding/csv"
+	"os"
+	"path/filepath"
+	"strings"
+	"testing"
+
+	"github.com/cohortmix/cohortmix/cluster"
+	"github.com/cohortmix/cohortmix/cohort/synth"
+	"github.com/xuri/excelize/v2"
+)
+
+// readMembers returns participant → group from a members CSV.
+func readMembers(t *testing.T, path string) map[string]string {
+	t.Helper()
+	f, err := os.Open(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer f.Close()
+	recs, err := csv.NewReader(f).ReadAll()
+	if err != nil {
+		t.Fatal(err)
+	}
+	out := map[string]string{}
+	for _, r := range recs[1:] {
+		out[r[0]] = r[2]
+	}
+	return out
+}
+
+func mustRun(t *testing.T, args ...string) string {
+	t.Helper()
+	env, out, errb := testEnv()
+	if code := run(context.Background(), env, args); code != 0 {
+		t.Fatalf("cohortmix %s: exit %d: %s", strings.Join(args, " "), code, errb)
+	}
+	return out.String()
+}
+
+func plantedAgreement(truth []synth.Truth, members map[string]string) float64 {
+	var a, b []int
+	names := map[string]int{}
+	for _, tr := range truth {
+		g, ok := members[tr.ID]
+		if !ok || g == "" {
+			continue
+		}
+		if _, ok := names[g]; !ok {
+			names[g] = len(names)
+		}
+		a, b = append(a, tr.Group), append(b, names[g])
+	}
+	ari, _ := cluster.AdjustedRand(a, b)
+	return ari
+}
+
+func TestTwoEnrolmentWaves(t *testing.T) {
+	dir := t.TempDir()
+	w1, w2 := filepath.Join(dir, "wave1.csv"), filepath.Join(dir, "wave2.csv")
+	// Planted structure: one invented cohort enrolled in two halves (synth, same seed).
+	if _, err := synth.WriteFile(w1, synth.Options{Participants: 90, Windows: 800, Seed: 21}); err != nil {
+		t.Fatal(err)
+	}
+	truth2, err := synth.WriteFile(w2, synth.Options{Participants: 90, Windows: 800, Seed: 21, FirstID: 90})
+	if err != nil {
+		t.Fatal(err)
+	}
+	model := filepath.Join(dir, "model.json")
+	m1 := filepath.Join(dir, "m1.csv")
+	mustRun(t, "group", w1, "--out", filepath.Join(dir, "w1.xlsx"), "--model", model, "--members", m1)
+
+	t.Run("assign places the second wave", func(t *testing.T) {
+		m2 := filepath.Join(dir, "m2.csv")
+		out := mustRun(t, "assign", "--model", model, w2, "--out", filepath.Join(dir, "w2.xlsx"), "--members", m2)
+		if ari := plantedAgreement(truth2, readMembers(t, m2)); ari < 0.9 {
+			t.Errorf("second wave ARI %.3f against the planted groups, want ≥ 0.9\n%s", ari, out)
+		}
+		f, err := excelize.OpenFile(filepath.Join(dir, "w2.xlsx"))
+		if err != nil {
+			t.Fatal(err)
+		}
+		defer f.Close()
+		rows, _ := f.GetRows("Changes")
+		if len(rows) < 90 || !strings.Contains(flattenRows(rows), "new participant") {
+			t.Errorf("changes sheet lacks the new participants:\n%s", flattenRows(rows[:min(8, len(rows))]))
+		}
+	})
+	t.Run("refresh keeps the names of returning participants", func(t *testing.T) {
+		m3 := filepath.Join(dir, "m3.csv")
+		mustRun(t, "refresh", "--previous", model, w1, w2, "--out", filepath.Join(dir, "refresh.xlsx"), "--members", m3)
+		before, after := readMembers(t, m1), readMembers(t, m3)
+		same := 0
+		for id, g := range before {
+			if after[id] == g {
+				same++
+			}
+		}
+		if frac := float64(same) / float64(len(before)); frac < 0.9 {
+			t.Errorf("%.0f%% of returning participants kept their group name, want ≥ 90%%", 100*frac)
+		}
+	})
+}
+
+func flattenRows(rows [][]string) string {
+	var b strings.Builder
+	for _, r := range rows {
+		b.WriteString(strings.Join(r, "|") + "\n")
+	}
+	return b.String()
+}
+
+func TestRefreshReportsGoneAndNewGroups(t *testing.T) {
+	dir := t.TempDir()
+	first := filepath.Join(dir, "first.csv")
+	truth, err := synth.WriteFile(first, synth.Options{Participants: 90, Windows: 800, Seed: 31, GroupSet: []int{0, 1, 2}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	model := filepath.Join(dir, "model.json")
+	mustRun(t, "group", first, "--out", filepath.Join(dir, "first.xlsx"), "--model", model)
+	// The later cohort: planted group 2 has left, a new planted group 3 has enrolled.
+	leaving := map[string]bool{}
+	for _, tr := range truth {
+		if tr.Group == 2 {
+			leaving[tr.ID] = true
+		}
+	}
+	b, _ := os.ReadFile(first)
+	var kept strings.Builder
+	for i, line := range strings.Split(strings.TrimSpace(string(b)), "\n") {
+		id, _, _ := strings.Cut(line, ",")
+		if i == 0 || !leaving[id] {
+			kept.WriteString(line + "\n")
+		}
+	}
+	later := filepath.Join(dir, "later.csv")
+	os.WriteFile(later, []byte(kept.String()), 0o644)
+	newcomers := filepath.Join(dir, "new.csv")
+	if _, err := synth.WriteFile(newcomers, synth.Options{Participants: 30, Windows: 800, Seed: 32, GroupSet: []int{3}, IDPrefix: "N"}); err != nil {
+		t.Fatal(err)
+	}
+	out := mustRun(t, "refresh", "--previous", model, later, newcomers, "--out", filepath.Join(dir, "later.xlsx"))
+	f, err := excelize.OpenFile(filepath.Join(dir, "later.xlsx"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer f.Close()
+	rows, _ := f.GetRows("Changes")
+	var gone, fresh int
+	for _, r := range rows {
+		if len(r) > 1 && r[1] == "gone" {
+			gone++
+		}
+		if len(r) > 1 && r[1] == "new" {
+			fresh++
+		}
+	}
+	if gone != 1 || fresh != 1 {
+		t.Errorf("%d groups gone and %d new, want 1 and 1:\n%s\n%s", gone, fresh, out, flattenRows(rows[:min(12, len(rows))]))
+	}
+}
+
+func TestAssignRefusesAMissingFeature(t *testing.T) {
+	dir := t.TempDir()
+	w1 := filepath.Join(dir, "w1.csv")
+	synth.WriteFile(w1, synth.Options{Participants: 30, Windows: 300, Seed: 4})
+	model := filepath.Join(dir, "model.json")
+	mustRun(t, "group", w1, "--out", filepath.Join(dir, "w1.xlsx"), "--model", model, "--groups", "3", "--states", "5")
+	b, _ := os.ReadFile(w1)
+	lines := strings.Split(strings.TrimSpace(string(b)), "\n")
+	var cut strings.Builder
+	for _, l := range lines {
+		f := strings.Split(l, ",")
+		cut.WriteString(strings.Join(append(f[:10:10], f[11:]...), ",") + "\n") // drop vm_peak
+	}
+	w2 := filepath.Join(dir, "w2.csv")
+	os.WriteFile(w2, []byte(cut.String()), 0o644)
+	env, _, errb := testEnv()
+	code := run(context.Background(), env, []string{"assign", "--model", model, w2, "--out", filepath.Join(dir, "w2.xlsx")})
+	if code != 1 || !strings.Contains(errb.String(), "feature vm_peak, which the model needs, is not in the input") {
+		t.Errorf("exit %d: %s", code, errb)
+	}
+}

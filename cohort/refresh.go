@@ -1,0 +1,202 @@
+package cohort
+
+import (
+	"fmt"
+	"math"
+	"strconv"
+	"strings"
+
+	"github.com/cohortmix/cohortmix/cluster"
+	"gonum.org/v1/gonum/mat"
+)
+
+// Previous is what a refresh needs of the earlier fit.
+type Previous struct {
+	StateNames  []string
+	StateMeans  [][]float64 // each state's mean of the original features
+	Scale       []float64   // per feature, to put the means on one footing (the cohort spread)
+	GroupNames  []string
+	GroupShares [][]float64 // each group's mean shares over the previous states
+	Cut         float64     // distance in the grouping space within which a centre is the same group
+	Method      Method
+}
+
+// Next is the new fit, in its own numbering.
+type Next struct {
+	StateMeans  [][]float64
+	GroupShares [][]float64 // over the new states
+	PrevGroup   []int       // for each new unit: its previous group index, or −1 when it is new
+	Labels      []int       // each new unit's new group
+}
+
+// Matching names the new fit's states and groups after the previous ones.
+type Matching struct {
+	StateNames []string
+	StatePrev  []int     // previous index of each new state, −1 for a new state
+	StateDrift []float64 // standardized distance between matched state means (NaN for new)
+	GroupNames []string
+	GroupPrev  []int     // previous index of each new group, −1 for a new group
+	GroupDrift []float64 // distance between matched centres in the grouping space (NaN for new)
+	NewStatus  []string  // per new group
+	PrevStatus []string  // per previous group
+	// PrevCentres are the previous groups' centres in the grouping space over the union of the
+	// previous and the new states; Place maps a new signature into the same space.
+	PrevCentres [][]float64
+	Place       func(share []float64) []float64
+}
+
+// Match pairs new states with previous ones and new groups with previous ones by the Hungarian
+// method on centroid distance (states on their standardized feature means, groups on their mean
+// shares after the states are aligned), so that a group keeps its name when it is still the same
+// group. A new group whose centre lies farther than Cut from its partner gets a new name; a
+// previous group left without a partner is "merged into" the new group that holds most of its
+// returning members when that is at least half of them, and "gone" otherwise.
+func Match(prev Previous, next Next) (*Matching, error) {
+	m := &Matching{}
+	std := func(rows [][]float64) *mat.Dense {
+		out := mat.NewDense(len(rows), len(prev.Scale), nil)
+		for i, r := range rows {
+			for j, v := range r {
+				s := prev.Scale[j]
+				if !(s > 0) {
+					s = 1
+				}
+				if math.IsNaN(v) {
+					v = 0
+				}
+				out.Set(i, j, v/s)
+			}
+		}
+		return out
+	}
+	if len(next.StateMeans) == 0 || len(prev.StateMeans) == 0 {
+		return nil, fmt.Errorf("cohort: Match: no states: %w", ErrMismatch)
+	}
+	sp, sd, err := cluster.MatchCentroids(std(prev.StateMeans), std(next.StateMeans))
+	if err != nil {
+		return nil, fmt.Errorf("cohort: matching states: %w", err)
+	}
+	m.StatePrev, m.StateDrift = sp, sd
+	m.StateNames = freshNames("S", prev.StateNames, sp)
+	// Shares over the union of states: previous states first, then the new-only ones.
+	extra := 0
+	col := make([]int, len(sp))
+	for j, p := range sp {
+		if p >= 0 {
+			col[j] = p
+		} else {
+			col[j] = len(prev.StateNames) + extra
+			extra++
+		}
+	}
+	width := len(prev.StateNames) + extra
+	pad := func(share []float64, cols []int) []float64 {
+		out := make([]float64, width)
+		for j, v := range share {
+			out[cols[j]] += v
+		}
+		return out
+	}
+	identity := make([]int, len(prev.StateNames))
+	for i := range identity {
+		identity[i] = i
+	}
+	pg := mat.NewDense(len(prev.GroupShares), width, nil)
+	for i, s := range prev.GroupShares {
+		pg.SetRow(i, Embed(prev.Method, pad(s, identity)))
+	}
+	ng := mat.NewDense(len(next.GroupShares), width, nil)
+	for i, s := range next.GroupShares {
+		ng.SetRow(i, Embed(prev.Method, pad(s, col)))
+	}
+	for i := range prev.GroupShares {
+		m.PrevCentres = append(m.PrevCentres, append([]float64(nil), pg.RawRowView(i)...))
+	}
+	m.Place = func(share []float64) []float64 { return Embed(prev.Method, pad(share, col)) }
+	gp, _, err := cluster.MatchCentroids(pg, ng)
+	if err != nil {
+		return nil, fmt.Errorf("cohort: matching groups: %w", err)
+	}
+	m.GroupDrift = make([]float64, len(gp))
+	for i, p := range gp {
+		m.GroupDrift[i] = math.NaN()
+		if p >= 0 {
+			m.GroupDrift[i] = SpaceDistance(prev.Method, pg.RawRowView(p), ng.RawRowView(i))
+			if m.GroupDrift[i] > prev.Cut {
+				gp[i] = -1 // too far to be the same group
+			}
+		}
+	}
+	m.GroupPrev = gp
+	m.GroupNames = freshNames("G", prev.GroupNames, gp)
+	m.NewStatus = make([]string, len(gp))
+	kept := make([]bool, len(prev.GroupNames))
+	for i, p := range gp {
+		if p >= 0 {
+			kept[p] = true
+			m.NewStatus[i] = "continues " + prev.GroupNames[p]
+		} else {
+			m.NewStatus[i] = "new"
+		}
+	}
+	// Where did the returning members of each previous group go?
+	moved := make([][]int, len(prev.GroupNames))
+	for i := range moved {
+		moved[i] = make([]int, len(gp))
+	}
+	for u, p := range next.PrevGroup {
+		if p >= 0 && p < len(moved) {
+			moved[p][next.Labels[u]]++
+		}
+	}
+	m.PrevStatus = make([]string, len(prev.GroupNames))
+	for p := range prev.GroupNames {
+		if kept[p] {
+			for i, q := range gp {
+				if q == p {
+					m.PrevStatus[p] = "continues as " + m.GroupNames[i]
+				}
+			}
+			continue
+		}
+		total, best := 0, 0
+		for i, c := range moved[p] {
+			total += c
+			if c > moved[p][best] {
+				best = i
+			}
+		}
+		if total > 0 && 2*moved[p][best] >= total {
+			m.PrevStatus[p] = fmt.Sprintf("merged into %s (%d of its %d returning members)", m.GroupNames[best], moved[p][best], total)
+		} else {
+			m.PrevStatus[p] = "gone"
+		}
+	}
+	return m, nil
+}
+
+// freshNames keeps the previous name of each matched item and gives unmatched ones the next
+// unused number after prefix.
+func freshNames(prefix string, prev []string, match []int) []string {
+	used := map[string]bool{}
+	next := 1
+	for _, n := range prev {
+		used[n] = true
+		if v, err := strconv.Atoi(strings.TrimPrefix(n, prefix)); err == nil && v >= next {
+			next = v + 1
+		}
+	}
+	out := make([]string, len(match))
+	for i, p := range match {
+		if p >= 0 {
+			out[i] = prev[p]
+			continue
+		}
+		for used[prefix+strconv.Itoa(next)] {
+			next++
+		}
+		out[i] = prefix + strconv.Itoa(next)
+		used[out[i]] = true
+	}
+	return out
+}
