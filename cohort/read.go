@@ -4,6 +4,7 @@ import (
 	"bufio"
 	"bytes"
 	"compress/gzip"
+	"context"
 	"crypto/sha256"
 	"encoding/csv"
 	"encoding/hex"
@@ -120,13 +121,13 @@ type Table struct {
 
 // Read reads one or more CSV/TSV files (gzip by content), each with a header row, into units.
 // The delimiter is detected among comma, semicolon and tab; semicolon files may use a decimal
-// comma. "-" reads standard input.
-func Read(paths []string, opts ReadOptions) (*Table, error) {
+// comma. "-" reads standard input. It stops with ctx.Err() when ctx is cancelled.
+func Read(ctx context.Context, paths []string, opts ReadOptions) (*Table, error) {
 	opts = opts.withDefaults()
 	if len(paths) == 0 {
 		return nil, &InputError{Msg: "no input files; name at least one CSV or TSV file", Err: ErrOpen}
 	}
-	r := &reader{opts: opts, byKey: map[string]*rawUnit{}}
+	r := &reader{ctx: ctx, opts: opts, byKey: map[string]*rawUnit{}}
 	for _, p := range paths {
 		if err := r.readFile(p); err != nil {
 			return nil, err
@@ -147,6 +148,7 @@ type rawUnit struct {
 }
 
 type reader struct {
+	ctx       context.Context
 	opts      ReadOptions
 	features  []string // decided by the first file
 	firstFile string
@@ -252,6 +254,9 @@ func (r *reader) readFile(p string) error {
 		}
 		if err != nil {
 			return r.csvError(p, err)
+		}
+		if rows%4096 == 0 && r.ctx.Err() != nil {
+			return r.ctx.Err()
 		}
 		if rows == 0 {
 			if r.features == nil {

@@ -3,6 +3,7 @@ package cohort
 import (
 	"bytes"
 	"compress/gzip"
+	"context"
 	"errors"
 	"math"
 	"os"
@@ -106,7 +107,7 @@ func TestReadErrors(t *testing.T) {
 					paths = append(paths, write(t, sub, name, b))
 				}
 			}
-			_, err := Read(paths, c.opts)
+			_, err := Read(context.Background(), paths, c.opts)
 			if err == nil {
 				t.Fatal("no error")
 			}
@@ -131,7 +132,7 @@ func TestReadMissingPaths(t *testing.T) {
 		{filepath.Join(dir, "nope.csv"), "cannot open: no such file or directory; check the path"},
 		{dir, "is a directory; name the table files inside it"},
 	} {
-		_, err := Read([]string{c.path}, ReadOptions{})
+		_, err := Read(context.Background(), []string{c.path}, ReadOptions{})
 		if err == nil || err.Error() != c.path+": "+c.want || !errors.Is(err, ErrOpen) {
 			t.Errorf("%s: got %v", c.path, err)
 		}
@@ -210,7 +211,7 @@ func TestReadPolicies(t *testing.T) {
 			for i, content := range c.files {
 				paths = append(paths, write(t, dir, strings.ReplaceAll(c.name, " ", "_")+itoa(i)+".csv", []byte(content)))
 			}
-			tab, err := Read(paths, c.opts)
+			tab, err := Read(context.Background(), paths, c.opts)
 			if err != nil {
 				t.Fatal(err)
 			}
@@ -274,7 +275,7 @@ func FuzzRead(f *testing.F) {
 		if err := os.WriteFile(p, b, 0o644); err != nil {
 			t.Skip()
 		}
-		_, err := Read([]string{p}, ReadOptions{MinWindows: 1})
+		_, err := Read(context.Background(), []string{p}, ReadOptions{MinWindows: 1})
 		if err == nil {
 			return
 		}

@@ -69,7 +69,7 @@ func fitAll(ctx context.Context, o analysisOptions) (*fitted, error) {
 		}
 	}
 	step("reading")
-	t, err := cohort.Read(o.Inputs, o.Read)
+	t, err := cohort.Read(ctx, o.Inputs, o.Read)
 	if err != nil {
 		return nil, err
 	}

@@ -24,6 +24,7 @@ type assignOptions struct {
 	Force   bool
 	Quiet   bool
 	Workers int
+	Key     string
 	Args    []string
 }
 
@@ -57,6 +58,7 @@ Exit codes: 0 success, 1 error in the input or the run, 2 wrong command line, 13
 	f.BoolVar(&opts.Force, "force", false, "replace existing output files")
 	f.BoolVar(&opts.Quiet, "quiet", false, "print only the final summary")
 	f.IntVar(&opts.Workers, "workers", 0, "worker goroutines (0: all cores)")
+	f.StringVar(&opts.Key, "pseudonymize", "", "replace participant ids by a keyed hash (use the key the model was written with)")
 	_ = cmd.MarkFlagRequired("model")
 	_ = cmd.MarkFlagRequired("out")
 	return cmd
@@ -77,7 +79,11 @@ func assignRun(ctx context.Context, o *assignOptions) error {
 	if err != nil {
 		return err
 	}
-	t, extra, err := readForModel(o.Inputs, m)
+	key, err := loadKey(o.Key)
+	if err != nil {
+		return err
+	}
+	t, extra, err := readForModel(ctx, o.Inputs, m)
 	if err != nil {
 		return err
 	}
@@ -106,6 +112,9 @@ func assignRun(ctx context.Context, o *assignOptions) error {
 	res.States.Candidates = nil
 	for _, name := range extra {
 		res.Quality.IgnoredColumns = append(res.Quality.IgnoredColumns, cohort.Note{Name: name, Reason: "not in the model: ignored"})
+	}
+	if key != nil {
+		reports.Pseudonymize(res, key)
 	}
 	medians := featureMedians(t)
 	res.Warnings = append(res.Warnings, cohort.CheckRanges(t.Features, m.FeatureMeds, medians)...)
@@ -141,12 +150,12 @@ func assignRun(ctx context.Context, o *assignOptions) error {
 
 // readForModel reads new data with the model's column roles and keeps the model's features, in
 // its order; a feature the model needs and the input lacks is an error that names it.
-func readForModel(inputs []string, m *reports.Model) (*cohort.Table, []string, error) {
+func readForModel(ctx context.Context, inputs []string, m *reports.Model) (*cohort.Table, []string, error) {
 	ro := cohort.ReadOptions{ID: m.Read.ID, Order: m.Read.Order, Wave: m.Read.Wave, MinWindows: m.Read.MinWindows}
 	if m.Read.Missing == cohort.ImputeMedian.String() {
 		ro.Missing = cohort.ImputeMedian
 	}
-	t, err := cohort.Read(inputs, ro)
+	t, err := cohort.Read(ctx, inputs, ro)
 	if err != nil {
 		return nil, nil, err
 	}

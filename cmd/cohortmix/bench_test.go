@@ -21,7 +21,7 @@ func BenchmarkGroup(b *testing.B) {
 	b.Run("read,n=200,w=5000,d=24", func(b *testing.B) {
 		b.ReportAllocs()
 		for b.Loop() {
-			if _, err := cohort.Read([]string{path}, cohort.ReadOptions{}); err != nil {
+			if _, err := cohort.Read(context.Background(), []string{path}, cohort.ReadOptions{}); err != nil {
 				b.Fatal(err)
 			}
 		}

@@ -92,13 +92,17 @@ func demoRun(ctx context.Context, o *demoOptions) error {
 		return err
 	}
 	fmt.Fprintf(o.IO.Out, "wrote the synthetic demo cohort %s (%d invented participants × %d windows)\n", data, len(truth), so.Windows)
-	ao, err := g.Flags.options(g.Inputs)
-	if err != nil {
-		return err
-	}
-	_ = ao
 	if err := groupRun(ctx, g); err != nil {
 		return err
+	}
+	if g.Flags.Pseudonymize != "" {
+		key, err := loadKey(g.Flags.Pseudonymize)
+		if err != nil {
+			return err
+		}
+		for i := range truth {
+			truth[i].ID = reports.Pseudonym(key, truth[i].ID)
+		}
 	}
 	ari, err := compareMembers(g.Flags.Members, truth)
 	if err != nil {

@@ -51,6 +51,7 @@ type mainFlags struct {
 	Seed                   uint64
 	Workers                int
 	Members, Model         string
+	Pseudonymize           string
 	Force, Quiet           bool
 }
 
@@ -79,6 +80,7 @@ func (m *mainFlags) register(cmd *cobra.Command) {
 	f.IntVar(&m.Workers, "workers", 0, "worker goroutines (0: all cores); never changes the result")
 	f.StringVar(&m.Members, "members", "", "also write a participant,group CSV here")
 	f.StringVar(&m.Model, "model", "", "also write the model file (JSON) here, for later waves")
+	f.StringVar(&m.Pseudonymize, "pseudonymize", "", "replace participant ids in every output by a keyed hash, with the key in this file")
 	f.BoolVar(&m.Force, "force", false, "replace existing output files")
 	f.BoolVar(&m.Quiet, "quiet", false, "print only the final summary")
 }
@@ -169,7 +171,7 @@ func progress(env *Env, quiet bool, now func() time.Time) func(string) {
 }
 
 // runOnly are flags that belong to one run, not to the fit: refresh does not carry them over.
-var runOnly = map[string]bool{"members": true, "model": true, "force": true, "quiet": true, "workers": true, "out": true}
+var runOnly = map[string]bool{"members": true, "model": true, "force": true, "quiet": true, "workers": true, "out": true, "pseudonymize": true}
 
 // asOptions gives every fit flag's value by name, as the model file stores them.
 func (m *mainFlags) asOptions() map[string]string {

@@ -81,9 +81,16 @@ func groupRun(ctx context.Context, o *groupOptions) error {
 		return err
 	}
 	ao.Progress = progress(&Env{IO: o.IO}, o.Flags.Quiet, o.Now)
+	key, err := loadKey(o.Flags.Pseudonymize)
+	if err != nil {
+		return err
+	}
 	res, err := analyze(ctx, ao)
 	if err != nil {
 		return err
+	}
+	if key != nil {
+		reports.Pseudonymize(res, key)
 	}
 	if err := ctx.Err(); err != nil {
 		return err
@@ -108,6 +115,14 @@ func groupRun(ctx context.Context, o *groupOptions) error {
 	}
 	printSummary(o.IO, res, o.Out)
 	return nil
+}
+
+// loadKey reads the pseudonymization key when one is named.
+func loadKey(path string) ([]byte, error) {
+	if path == "" {
+		return nil, nil
+	}
+	return reports.LoadKey(path)
 }
 
 func printSummary(io IO, r *reports.Result, out string) {

@@ -55,7 +55,7 @@ func closeTo(got, want, tol float64) bool {
 
 func TestStagesMatchReference(t *testing.T) {
 	g := readPipelineGolden(t)
-	tab, err := cohort.Read([]string{smallCohort}, cohort.ReadOptions{})
+	tab, err := cohort.Read(context.Background(), []string{smallCohort}, cohort.ReadOptions{})
 	if err != nil {
 		t.Fatal(err)
 	}

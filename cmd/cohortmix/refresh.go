@@ -68,6 +68,10 @@ func refreshRun(ctx context.Context, o *refreshOptions) error {
 		return err
 	}
 	ao.Progress = progress(&Env{IO: o.IO}, o.Flags.Quiet, o.Now)
+	key, err := loadKey(o.Flags.Pseudonymize)
+	if err != nil {
+		return err
+	}
 	f, err := fitAll(ctx, ao)
 	if err != nil {
 		return err
@@ -89,7 +93,11 @@ func refreshRun(ctx context.Context, o *refreshOptions) error {
 		next.StateMeans = append(next.StateMeans, dsc.Mean)
 	}
 	for _, u := range f.t.Units {
-		p, ok := prevIndex[lookupPrevious(byKey, byID, u.ID, u.Wave)]
+		id := u.ID
+		if key != nil {
+			id = reports.Pseudonym(key, id) // the previous model holds pseudonyms
+		}
+		p, ok := prevIndex[lookupPrevious(byKey, byID, id, u.Wave)]
 		if !ok {
 			p = -1
 		}
@@ -111,6 +119,9 @@ func refreshRun(ctx context.Context, o *refreshOptions) error {
 	res.Tool, res.Version, res.Created = "cohortmix", version, o.Now()
 	res.Command = strings.Join(o.Args, " ")
 	res.Settings = append([]reports.Setting{{Name: "mode", Value: "refresh"}, {Name: "previous model", Value: o.Previous}}, o.Flags.settings()...)
+	if key != nil {
+		reports.Pseudonymize(res, key)
+	}
 	res.Changes = refreshChanges(prev, res, match, next, o.Previous)
 	if err := ctx.Err(); err != nil {
 		return err
