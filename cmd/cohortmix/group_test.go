@@ -254,3 +254,74 @@ func defaultFlags() mainFlags {
 	m.register(&cobra.Command{})
 	return m
 }
+
+// Every participant and window that comes in is accounted for, in the workbook and the members
+// CSV, on several generated cohorts with missing cells and short participants.
+func TestAccountingOnGeneratedCohorts(t *testing.T) {
+	for _, seed := range []uint64{41, 42, 43} {
+		for _, missing := range []string{"drop", "impute"} {
+			dir := t.TempDir()
+			path := filepath.Join(dir, "c.csv")
+			if _, err := synth.WriteFile(path, synth.Options{Participants: 30 + int(seed%3)*5, Windows: 200, Seed: seed}); err != nil {
+				t.Fatal(err)
+			}
+			b, _ := os.ReadFile(path)
+			lines := strings.Split(strings.TrimSpace(string(b)), "\n")
+			var sb strings.Builder
+			blanked := 0
+			for i, l := range lines {
+				if i > 0 && (i*int(seed))%97 == 0 { // blank a feature cell now and then
+					f := strings.Split(l, ",")
+					f[3+i%5] = "NA"
+					l = strings.Join(f, ",")
+					blanked++
+				}
+				sb.WriteString(l + "\n")
+			}
+			short := int(seed % 4)
+			for p := 0; p < short; p++ {
+				for w := 0; w < 5+p; w++ {
+					sb.WriteString("S" + itoa(p) + "," + itoa(w) + strings.Repeat(",1.5", 12) + "\n")
+				}
+			}
+			os.WriteFile(path, []byte(sb.String()), 0o644)
+			out, members := filepath.Join(dir, "r.xlsx"), filepath.Join(dir, "m.csv")
+			mustRun(t, "group", path, "--out", out, "--members", members, "--missing", missing, "--states", "5", "--groups", "3")
+			f, err := excelize.OpenFile(out)
+			if err != nil {
+				t.Fatal(err)
+			}
+			rows, _ := f.GetRows("Data quality")
+			f.Close()
+			n := map[string]int{}
+			for _, r := range rows {
+				if len(r) >= 2 {
+					if v, err := strconv.Atoi(r[1]); err == nil {
+						n[r[0]] = v
+					}
+				}
+			}
+			if n["participants in"] != n["participants grouped"]+n["participants excluded"] || n["participants excluded"] != short {
+				t.Errorf("seed %d %s: participants %v", seed, missing, n)
+			}
+			if n["windows in"] != n["windows used"]+n["windows dropped (missing cells)"]+n["windows of excluded participants"] || n["windows in"] != len(lines)-1+short*5+short*(short-1)/2 {
+				t.Errorf("seed %d %s: windows %v", seed, missing, n)
+			}
+			if missing == "drop" && n["windows dropped (missing cells)"] != blanked || missing == "impute" && n["cells imputed"] != blanked {
+				t.Errorf("seed %d %s: %d cells blanked, quality sheet %v", seed, missing, blanked, n)
+			}
+			mf, _ := os.Open(members)
+			recs, _ := csv.NewReader(mf).ReadAll()
+			mf.Close()
+			excluded := 0
+			for _, r := range recs[1:] {
+				if strings.HasPrefix(r[4], "excluded: ") {
+					excluded++
+				}
+			}
+			if len(recs)-1 != n["participants in"] || excluded != short {
+				t.Errorf("seed %d %s: members CSV has %d rows (%d excluded), %d participants came in", seed, missing, len(recs)-1, excluded, n["participants in"])
+			}
+		}
+	}
+}
