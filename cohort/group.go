@@ -19,9 +19,14 @@ const (
 	PAMAitchison                   // k-medoids on the Aitchison distance (CLR with zero replacement)
 	PAMJensenShannon               // k-medoids on the Jensen–Shannon distance
 	KMeansCLR                      // k-means on the centred log-ratios
+	Auto                           // Ward on Hellinger up to LargeCohort participants, k-means on CLR above
 )
 
-var methodNames = map[Method]string{WardHellinger: "ward-hellinger", PAMAitchison: "pam-aitchison", PAMJensenShannon: "pam-js", KMeansCLR: "kmeans-clr"}
+// LargeCohort is the number of participants above which Auto switches from Ward (O(n²) time per
+// tree, and one tree per bootstrap resample and gap reference) to k-means on the CLR.
+const LargeCohort = 10_000
+
+var methodNames = map[Method]string{WardHellinger: "ward-hellinger", PAMAitchison: "pam-aitchison", PAMJensenShannon: "pam-js", KMeansCLR: "kmeans-clr", Auto: "auto"}
 
 func (m Method) String() string { return methodNames[m] }
 
@@ -32,7 +37,7 @@ func ParseMethod(s string) (Method, error) {
 			return m, nil
 		}
 	}
-	return 0, fmt.Errorf("cohort: grouping method %q: %w; use ward-hellinger, pam-aitchison, pam-js or kmeans-clr", s, ErrBadOption)
+	return 0, fmt.Errorf("cohort: grouping method %q: %w; use auto, ward-hellinger, pam-aitchison, pam-js or kmeans-clr", s, ErrBadOption)
 }
 
 // Criterion chooses the number of groups from a range.
@@ -65,7 +70,7 @@ type GroupOptions struct {
 	Criterion Criterion // used when Groups has more than one value
 	Bootstrap int       // resamples for stability and references for the gap; 0 means 20
 	Seed      uint64
-	MaxBytes  int64 // memory guard for distance matrices; 0 means 2 GiB
+	MaxBytes  int64 // memory guard for distance matrices; 0 means 512 MiB (about 11,000 participants)
 	Workers   int
 }
 
@@ -144,9 +149,17 @@ func GroupSignatures(ctx context.Context, shares [][]float64, opts GroupOptions)
 		opts.Bootstrap = 20
 	}
 	if opts.MaxBytes == 0 {
-		opts.MaxBytes = 2 << 30
+		opts.MaxBytes = 512 << 20
 	}
-	g := &Grouping{Method: opts.Method, Criterion: opts.Criterion}
+	note := ""
+	if opts.Method == Auto {
+		opts.Method = WardHellinger
+		if n > LargeCohort {
+			opts.Method = KMeansCLR
+			note = fmt.Sprintf("%d participants are more than %d: they were grouped by k-means on the centred log-ratios, which scales, instead of Ward linkage (pass --method ward-hellinger to insist)", n, LargeCohort)
+		}
+	}
+	g := &Grouping{Method: opts.Method, Criterion: opts.Criterion, Note: note}
 	d := len(shares[0])
 	x := mat.NewDense(n, d, nil)
 	for i, s := range shares {
@@ -229,7 +242,10 @@ func GroupSignatures(ctx context.Context, shares [][]float64, opts GroupOptions)
 		return nil, err
 	}
 	if dist == nil {
-		g.Note = fmt.Sprintf("the silhouette was computed on a sample of 5,000 participants: a full one on %d would need %d MiB", n, cluster.CondensedBytes(n)>>20)
+		if g.Note != "" {
+			g.Note += "; "
+		}
+		g.Note += fmt.Sprintf("silhouettes were computed for a sample of 5,000 participants (each against all): a full distance matrix on %d would need %d MiB", n, cluster.CondensedBytes(n)>>20)
 	}
 	return g, nil
 }

@@ -73,7 +73,7 @@ func (m *mainFlags) register(cmd *cobra.Command) {
 	f.StringVar(&m.States, "states", "2-10", "number of movement states, or a range to choose from")
 	f.IntVar(&m.Sample, "sample", 50000, "windows sampled to fit the states")
 	f.StringVar(&m.Groups, "groups", "2-8", "number of participant groups, or a range to choose from")
-	f.StringVar(&m.Method, "method", "ward-hellinger", "grouping: ward-hellinger, pam-aitchison, pam-js or kmeans-clr")
+	f.StringVar(&m.Method, "method", "auto", "grouping: auto (ward-hellinger, or kmeans-clr above 10,000 participants), ward-hellinger, pam-aitchison, pam-js or kmeans-clr")
 	f.StringVar(&m.Criterion, "criterion", "gap", "rule for the number of groups: gap, stability or silhouette")
 	f.IntVar(&m.Bootstrap, "bootstrap", 20, "resamples for stability and reference sets for the gap statistic")
 	f.Uint64Var(&m.Seed, "seed", 1, "seed for every random step")

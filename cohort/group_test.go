@@ -1,0 +1,94 @@
+package cohort
+
+import (
+	"context"
+	"math"
+	"math/rand/v2"
+	"strings"
+	"testing"
+
+	"github.com/cohortmix/cohortmix/cluster"
+)
+
+// plantedShares draws n signatures over five states around g planted mixtures (synthetic).
+func plantedShares(n, g int, seed uint64) ([][]float64, []int) {
+	protos := [][]float64{{0.5, 0.3, 0.1, 0.05, 0.05}, {0.1, 0.1, 0.5, 0.2, 0.1}, {0.1, 0.3, 0.1, 0.2, 0.3}, {0.25, 0.05, 0.05, 0.6, 0.05}}
+	rng := rand.New(rand.NewPCG(seed, 0))
+	out := make([][]float64, n)
+	truth := make([]int, n)
+	for i := range out {
+		truth[i] = i % g
+		s := make([]float64, 5)
+		var sum float64
+		for j, p := range protos[truth[i]] {
+			s[j] = p * math.Exp(rng.NormFloat64()*0.15)
+			sum += s[j]
+		}
+		for j := range s {
+			s[j] /= sum
+		}
+		out[i] = s
+	}
+	return out, truth
+}
+
+func TestGroupingMethodsRecoverPlantedGroups(t *testing.T) {
+	shares, truth := plantedShares(120, 3, 1)
+	for _, m := range []Method{WardHellinger, PAMAitchison, PAMJensenShannon, KMeansCLR} {
+		t.Run(m.String(), func(t *testing.T) {
+			g, err := GroupSignatures(context.Background(), shares, GroupOptions{Method: m, Groups: []int{2, 3, 4, 5}, Bootstrap: 10, Seed: 1})
+			if err != nil {
+				t.Fatal(err)
+			}
+			ari, _ := cluster.AdjustedRand(g.Labels, truth)
+			if g.K != 3 || ari < 0.95 {
+				t.Errorf("k = %d, ARI %.3f; want 3 groups and ARI ≥ 0.95", g.K, ari)
+			}
+			for i, d := range g.Distance {
+				if math.IsNaN(d) || math.IsNaN(g.Silhouette[i]) {
+					t.Fatalf("participant %d: distance %v silhouette %v", i, d, g.Silhouette[i])
+				}
+			}
+		})
+	}
+}
+
+func TestAutoSwitchesForLargeCohorts(t *testing.T) {
+	if testing.Short() {
+		t.Skip("groups 10,050 signatures")
+	}
+	shares, truth := plantedShares(LargeCohort+50, 3, 2)
+	g, err := GroupSignatures(context.Background(), shares, GroupOptions{Method: Auto, Groups: []int{3}, Seed: 1})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if g.Method != KMeansCLR || !strings.Contains(g.Note, "k-means on the centred log-ratios") {
+		t.Errorf("method %v, note %q; want the switch to k-means on CLR, said in the note", g.Method, g.Note)
+	}
+	if ari, _ := cluster.AdjustedRand(g.Labels, truth); ari < 0.95 {
+		t.Errorf("ARI %.3f", ari)
+	}
+}
+
+func TestMatchNamesGroups(t *testing.T) {
+	prev := Previous{StateNames: []string{"S1", "S2", "S3"}, StateMeans: [][]float64{{0, 0}, {1, 0}, {0, 1}}, Scale: []float64{1, 1},
+		GroupNames: []string{"G1", "G2", "G3"}, GroupShares: [][]float64{{0.8, 0.1, 0.1}, {0.1, 0.8, 0.1}, {0.1, 0.1, 0.8}}, Cut: 0.2, Method: WardHellinger}
+	// New fit: states in another order; G2 is the same, G1 has merged into it, G3 is gone, one group is new.
+	next := Next{StateMeans: [][]float64{{0, 1}, {0.02, 0}, {1, 0}},
+		GroupShares: [][]float64{{0.1, 0.1, 0.8}, {0.3, 0.3, 0.4}},
+		PrevGroup:   []int{1, 1, 0, 0, 0, -1, -1},
+		Labels:      []int{0, 0, 0, 0, 0, 1, 1}}
+	m, err := Match(prev, next)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if strings.Join(m.StateNames, ",") != "S3,S1,S2" {
+		t.Errorf("state names %v, want S3,S1,S2", m.StateNames)
+	}
+	if m.GroupNames[0] != "G2" || m.GroupNames[1] != "G4" {
+		t.Errorf("group names %v, want G2 and a new G4", m.GroupNames)
+	}
+	if !strings.HasPrefix(m.PrevStatus[0], "merged into G2") || m.PrevStatus[2] != "gone" || m.NewStatus[1] != "new" {
+		t.Errorf("previous %q, new %q", m.PrevStatus, m.NewStatus)
+	}
+}
