@@ -224,8 +224,22 @@ type Driver struct {
 	Effect  float64 // (state mean − overall mean) / overall s.d.
 }
 
-// Describe computes each state's feature means in the original units from raw blocks and labels.
-func Describe(raw [][]float64, labels [][]int, d, k int) []Description {
+// Describe computes each state's feature means in the original units from raw blocks (windows ×
+// d) and the state of each of their windows.
+func Describe(raw [][]float64, labels [][]int, d, k int) ([]Description, error) {
+	if len(raw) != len(labels) || d < 1 || k < 1 {
+		return nil, fmt.Errorf("profile: Describe: %d blocks, %d label lists, %d features, %d states: %w", len(raw), len(labels), d, k, ErrData)
+	}
+	for u := range raw {
+		if len(raw[u]) != d*len(labels[u]) {
+			return nil, fmt.Errorf("profile: Describe: block %d has %d values for %d windows of %d features: %w", u, len(raw[u]), len(labels[u]), d, ErrData)
+		}
+		for _, l := range labels[u] {
+			if l < 0 || l >= k {
+				return nil, fmt.Errorf("profile: Describe: state %d outside 0…%d: %w", l, k-1, ErrData)
+			}
+		}
+	}
 	sum := make([]float64, k*d)
 	cnt := make([]float64, k)
 	all := make([]float64, d)
@@ -263,7 +277,7 @@ func Describe(raw [][]float64, labels [][]int, d, k int) []Description {
 		})
 		out[s] = desc
 	}
-	return out
+	return out, nil
 }
 
 // LabelTable cross-tabulates states with known activity labels over all windows.

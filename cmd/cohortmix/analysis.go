@@ -136,13 +136,15 @@ func describe(f *fitted, stateNames, groupNames []string) (*reports.Result, erro
 	}
 	res := &reports.Result{Features: t.Features, OrderKind: t.OrderKind, Quality: t.Quality, Files: t.Files, Norm: fit, States: states, Grouping: g}
 	res.Warnings = append(res.Warnings, fit.Warnings...)
-	res.StateDesc = profile.Describe(raw, labels, d, k)
+	var err error
+	if res.StateDesc, err = profile.Describe(raw, labels, d, k); err != nil {
+		return nil, err
+	}
 	if t.HasLabels {
 		var ls [][]string
 		for _, u := range t.Units {
 			ls = append(ls, u.Labels)
 		}
-		var err error
 		if res.Labels, err = profile.CompareLabels(labels, ls, k); err != nil {
 			return nil, err
 		}
@@ -169,7 +171,6 @@ func describe(f *fitted, stateNames, groupNames []string) (*reports.Result, erro
 		vars = append(vars, v)
 		res.FeatureRange = append(res.FeatureRange, [3]float64{percentile(v.Values, 0.01), percentile(v.Values, 0.5), percentile(v.Values, 0.99)})
 	}
-	var err error
 	if res.Separations, res.NotTested, err = cohort.Separate(vars, g.Labels, g.K); err != nil {
 		return nil, err
 	}

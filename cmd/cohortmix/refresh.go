@@ -82,7 +82,10 @@ func refreshRun(ctx context.Context, o *refreshOptions) error {
 	for i, u := range f.t.Units {
 		raw[i] = u.X
 	}
-	desc := profile.Describe(raw, f.labels, d, f.states.K)
+	desc, err := profile.Describe(raw, f.labels, d, f.states.K)
+	if err != nil {
+		return err
+	}
 	byKey, byID := previousGroups(prev)
 	prevIndex := map[string]int{}
 	for i, n := range prev.Grouping.Names {

@@ -1,0 +1,93 @@
+package normalize
+
+import (
+	"errors"
+	"fmt"
+	"math"
+	"strings"
+	"testing"
+)
+
+// Two participants, two features: f0 carries a per-participant offset, f1 does not.
+func offsetUnits() [][]float64 {
+	a := []float64{10, 1, 10.5, 2, 11, 3, 10, 1.5, 10.2, 2.5}
+	b := []float64{20, 1.2, 20.5, 2.1, 21, 2.9, 20, 1.4, 20.2, 2.6}
+	return [][]float64{a, b}
+}
+
+func TestICCSeparatesOffsetFeatures(t *testing.T) {
+	icc := ICC(offsetUnits(), 2)
+	// f0: between-participant variance dominates (offset 10); f1: none. Hand check of ICC(1):
+	// MSB of f1 is tiny, so ICC(1) is at or below 0; that of f0 is close to 1.
+	if icc[0] < 0.95 || icc[1] > 0.1 {
+		t.Errorf("ICC %v, want about 1 for the offset feature and about 0 for the other", icc)
+	}
+}
+
+func TestRestBaselineRemovesOffsets(t *testing.T) {
+	fit, out, err := FitTransform([]string{"f0", "f1"}, offsetUnits(), Options{Within: WithinRest, RestShare: 0.2, NoPCA: true, Scale: ScaleZ})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !fit.Touched[0] || fit.Touched[1] {
+		t.Fatalf("touched %v, want only f0 (found by ICC)", fit.Touched)
+	}
+	// After the rest baseline both participants' f0 start from their quietest window: the
+	// scaled values of the two participants coincide window by window.
+	for w := 0; w < 5; w++ {
+		if math.Abs(out[0][2*w]-out[1][2*w]) > 1e-12 {
+			t.Errorf("window %d: f0 %v vs %v after the baseline", w, out[0][2*w], out[1][2*w])
+		}
+	}
+	// The frozen fit applied to a new participant gives the same as the fitted one.
+	again := fit.Apply(offsetUnits()[1])
+	for i := range again {
+		if math.Abs(again[i]-out[1][i]) > 1e-12 {
+			t.Fatalf("Apply differs at %d: %v vs %v", i, again[i], out[1][i])
+		}
+	}
+}
+
+func TestWarnsWhenZScoringEverything(t *testing.T) {
+	fit, _, err := FitTransform([]string{"f0", "f1"}, offsetUnits(), Options{Within: WithinRobustZ, WithinFeatures: []string{"*"}, NoPCA: true})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(fit.Warnings) != 1 || !strings.Contains(fit.Warnings[0], "erases the between-participant level differences") {
+		t.Errorf("warnings %v", fit.Warnings)
+	}
+}
+
+func TestOptionErrors(t *testing.T) {
+	if _, err := ParseWithin("median"); !errors.Is(err, ErrOption) || !strings.Contains(err.Error(), "use none, rest, centre or robust-z") {
+		t.Errorf("got %v", err)
+	}
+	constant := [][]float64{{1, 2, 1, 3}, {1, 4, 1, 5}}
+	if _, _, err := FitTransform([]string{"c", "v"}, constant, Options{NoPCA: true}); !errors.Is(err, ErrData) || !strings.Contains(err.Error(), "feature c has no spread") {
+		t.Errorf("got %v", err)
+	}
+}
+
+func TestSampledIsReproducible(t *testing.T) {
+	n, hits := 100000, 0
+	for w := 0; w < n; w++ {
+		if Sampled(7, 3, w, 0.1) {
+			hits++
+		}
+		if Sampled(7, 3, w, 0.1) != Sampled(7, 3, w, 0.1) {
+			t.Fatal("not reproducible")
+		}
+	}
+	// A binomial(100000, 0.1) count lies within 5 s.d. (±474) of 10,000 but for 1 in 3 million.
+	if hits < 9526 || hits > 10474 {
+		t.Errorf("%d of %d sampled at rate 0.1", hits, n)
+	}
+}
+
+func ExampleICC() {
+	// Two invented participants whose first feature differs by a constant offset.
+	icc := ICC([][]float64{{1, 5, 2, 6, 3, 7}, {11, 5, 12, 6, 13, 7}}, 2)
+	fmt.Printf("%.4f %.4f\n", icc[0], icc[1])
+	// By hand: f0 has MSB 150, MSW 1, n₀ 3, so (150 − 1)/(150 + 2·1) = 0.9803; f1 has MSB 0, MSW 1.
+	// Output: 0.9803 -0.5000
+}

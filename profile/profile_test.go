@@ -1,0 +1,88 @@
+package profile
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"math"
+	"math/rand/v2"
+	"testing"
+
+	"github.com/cohortmix/cohortmix/cluster"
+)
+
+func TestSignatures(t *testing.T) {
+	s := Signatures([]int{0, 0, 1, 1, 1, 0, 2, 2, 0, 0}, 4)
+	want := Signature{Share: []float64{0.5, 0.3, 0.2, 0}, MeanBout: []float64{5.0 / 3, 3, 2, 0}, Bouts: []int{3, 1, 1, 0}, Windows: 10}
+	for j := range want.Share {
+		if math.Abs(s.Share[j]-want.Share[j]) > 1e-15 || math.Abs(s.MeanBout[j]-want.MeanBout[j]) > 1e-15 || s.Bouts[j] != want.Bouts[j] {
+			t.Errorf("state %d: share %v bout %v runs %d, want %v %v %d", j, s.Share[j], s.MeanBout[j], s.Bouts[j], want.Share[j], want.MeanBout[j], want.Bouts[j])
+		}
+	}
+}
+
+// Planted structure: four well-separated states in three dimensions, spread over ten blocks.
+func plantedBlocks() ([][]float64, [][]int) {
+	centres := [][]float64{{0, 0, 0}, {6, 0, 0}, {0, 6, 0}, {0, 0, 6}}
+	rng := rand.New(rand.NewPCG(3, 3))
+	var blocks [][]float64
+	var truth [][]int
+	for u := 0; u < 10; u++ {
+		var b []float64
+		var tr []int
+		for w := 0; w < 400; w++ {
+			s := (w / 20) % 4
+			for _, c := range centres[s] {
+				b = append(b, c+rng.NormFloat64())
+			}
+			tr = append(tr, s)
+		}
+		blocks, truth = append(blocks, b), append(truth, tr)
+	}
+	return blocks, truth
+}
+
+func TestFitStatesRecoversPlantedStates(t *testing.T) {
+	blocks, truth := plantedBlocks()
+	s, err := FitStates(context.Background(), blocks, 3, Options{States: []int{2, 3, 4, 5, 6}, SampleSize: 2000, Seed: 1})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if s.K != 4 || len(s.Candidates) != 5 {
+		t.Fatalf("chose %d states from %d candidates, want 4 of 5", s.K, len(s.Candidates))
+	}
+	var got, want []int
+	for u, b := range blocks {
+		got = append(got, s.Assign(b)...)
+		want = append(want, truth[u]...)
+	}
+	if ari, _ := cluster.AdjustedRand(got, want); ari < 0.99 {
+		t.Errorf("ARI %.4f against the planted states", ari)
+	}
+	if _, err := Describe(blocks, [][]int{s.Assign(blocks[0])}, 3, 4); !errors.Is(err, ErrData) {
+		t.Errorf("mismatched lengths: %v", err)
+	}
+	desc, err := Describe(blocks[:1], [][]int{s.Assign(blocks[0])}, 3, 4)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if math.Abs(desc[0].Share+desc[1].Share+desc[2].Share+desc[3].Share-1) > 1e-12 {
+		t.Error("state shares do not sum to 1")
+	}
+}
+
+func TestFitStatesErrors(t *testing.T) {
+	blocks, _ := plantedBlocks()
+	if _, err := FitStates(context.Background(), blocks, 3, Options{States: []int{4, 3}}); !errors.Is(err, ErrOption) {
+		t.Errorf("decreasing range: %v", err)
+	}
+	if _, err := FitStates(context.Background(), blocks[:1], 3, Options{States: []int{300}, SampleSize: 100}); !errors.Is(err, ErrData) {
+		t.Errorf("too few windows: %v", err)
+	}
+}
+
+func ExampleSignatures() {
+	s := Signatures([]int{0, 0, 0, 1, 1, 0, 2}, 3)
+	fmt.Printf("shares %.4f, mean bouts %.4f\n", s.Share, s.MeanBout)
+	// Output: shares [0.5714 0.2857 0.1429], mean bouts [2.0000 2.0000 1.0000]
+}
