@@ -148,6 +148,7 @@ type rawUnit struct {
 }
 
 type reader struct {
+	last      *rawUnit // the unit of the previous window
 	ctx       context.Context
 	opts      ReadOptions
 	features  []string // decided by the first file
@@ -244,29 +245,19 @@ func (r *reader) readFile(p string) error {
 	}
 	fileIdx := len(r.files)
 	rows := 0
-	var cur *rawUnit
-	curKey := "\x00"
-	var vals []float64
-	for {
-		rec, err := cr.Read()
-		if err == io.EOF {
-			break
-		}
-		if err != nil {
-			return r.csvError(p, err)
-		}
-		if rows%4096 == 0 && r.ctx.Err() != nil {
-			return r.ctx.Err()
-		}
-		if rows == 0 {
-			if r.features == nil {
-				if err := r.classify(p, cr, header, rec, &roles, delim); err != nil {
-					return err
-				}
+	// The first window goes through encoding/csv: it decides the feature columns of the first
+	// file and the kind of the order column. The rest is parsed in parallel chunks.
+	rec, err := cr.Read()
+	if err != nil && err != io.EOF {
+		return r.csvError(p, err)
+	}
+	if err == nil {
+		if r.features == nil {
+			if err := r.classify(p, cr, header, rec, &roles, delim); err != nil {
+				return err
 			}
-			vals = make([]float64, len(r.features))
 		}
-		rows++
+		rows = 1
 		line, _ := cr.FieldPos(0)
 		id := strings.TrimSpace(rec[roles.id])
 		if id == "" {
@@ -277,47 +268,56 @@ func (r *reader) readFile(p string) error {
 		if roles.wave >= 0 {
 			wave = strings.TrimSpace(rec[roles.wave])
 		}
-		key := id + "\x00" + wave
-		if key != curKey {
-			cur = r.byKey[key]
-			if cur == nil {
-				cur = &rawUnit{id: id, wave: wave}
-				r.byKey[key] = cur
-				r.units = append(r.units, cur)
-			}
-			curKey = key
-			if cur.lastFile != p {
-				cur.files = append(cur.files, p)
-				cur.lastFile = p
-			}
-		}
 		var ord int64
 		if roles.order >= 0 {
-			ord, err = r.parseOrder(p, cr, roles.order, header[roles.order], rec[roles.order])
-			if err != nil {
+			if ord, err = r.parseOrder(p, cr, roles.order, header[roles.order], rec[roles.order]); err != nil {
 				return err
 			}
-		} else {
-			ord = int64(len(cur.order))
 		}
+		vals := make([]float64, len(r.features))
 		for j, col := range roles.features {
 			v, err := parseNumber(rec[col], delim == ';')
 			if err != nil {
 				l, c := cr.FieldPos(col)
 				msg := numberMsg(rec[col], delim, err)
-				if fileIdx > 0 && rows == 1 && errors.Is(err, ErrNotNumber) {
+				if fileIdx > 0 && errors.Is(err, ErrNotNumber) {
 					msg += fmt.Sprintf(" (it is numeric in %s)", r.firstFile)
 				}
 				return &InputError{File: p, Line: l, Column: c, Field: header[col], Msg: msg, Err: err}
 			}
 			vals[j] = v
 		}
-		cur.x = append(cur.x, vals...)
-		cur.order = append(cur.order, ord)
-		cur.line = append(cur.line, int32(min(line, math.MaxInt32)))
-		cur.file = append(cur.file, int16(fileIdx))
+		label := ""
 		if roles.label >= 0 {
-			cur.labels = append(cur.labels, strings.TrimSpace(rec[roles.label]))
+			label = strings.TrimSpace(rec[roles.label])
+		}
+		r.appendRow(p, fileIdx, id, wave, ord, roles.order < 0, vals, label, line)
+		for _, f := range rec {
+			line += strings.Count(f, "\n") // quoted newlines
+		}
+		spec := &parseSpec{file: p, header: header, roles: roles, delim: delim, nf: len(r.features)}
+		d := len(r.features)
+		err = r.parseBody(br, spec, line+1, func(c *parsedChunk) error {
+			for i := 0; i < c.rows(); i++ {
+				if roles.order >= 0 {
+					if err := r.checkKind(p, header[roles.order], c, i); err != nil {
+						return err
+					}
+				}
+				wave, label := "", ""
+				if roles.wave >= 0 {
+					wave = c.waves[i]
+				}
+				if roles.label >= 0 {
+					label = c.labels[i]
+				}
+				r.appendRow(p, fileIdx, c.ids[i], wave, c.ords[i], roles.order < 0, c.vals[i*d:(i+1)*d], label, int(c.lines[i]))
+			}
+			rows += c.rows()
+			return nil
+		})
+		if err != nil {
+			return err
 		}
 	}
 	if rows == 0 {
@@ -327,6 +327,54 @@ func (r *reader) readFile(p string) error {
 	r.files = append(r.files, FileInfo{Path: p, SHA256: hexsum, Bytes: n, Rows: rows})
 	r.rows += rows
 	return nil
+}
+
+// appendRow adds one parsed window to its unit (found by id and wave, or created).
+func (r *reader) appendRow(p string, fileIdx int, id, wave string, ord int64, fileOrder bool, vals []float64, label string, line int) {
+	key := id + "\x00" + wave
+	cur := r.last
+	if cur == nil || cur.id != id || cur.wave != wave {
+		cur = r.byKey[key]
+		if cur == nil {
+			cur = &rawUnit{id: id, wave: wave}
+			r.byKey[key] = cur
+			r.units = append(r.units, cur)
+		}
+		r.last = cur
+	}
+	if cur.lastFile != p {
+		cur.files = append(cur.files, p)
+		cur.lastFile = p
+	}
+	if fileOrder {
+		ord = int64(len(cur.order))
+	}
+	cur.x = append(cur.x, vals...)
+	cur.order = append(cur.order, ord)
+	cur.line = append(cur.line, int32(min(line, math.MaxInt32)))
+	cur.file = append(cur.file, int16(fileIdx))
+	if r.hasLabels {
+		cur.labels = append(cur.labels, label)
+	}
+}
+
+// checkKind refuses a window whose order is of another kind (integer or time) than the first's.
+func (r *reader) checkKind(p, name string, c *parsedChunk, i int) error {
+	kind := "integer"
+	if c.kinds[i] == 't' {
+		kind = "time"
+	}
+	if kind == r.orderKind {
+		return nil
+	}
+	cell := c.cells[0]
+	for _, oc := range c.cells {
+		if oc.row == i {
+			cell = oc
+		}
+	}
+	return &InputError{File: p, Line: int(c.lines[i]), Column: cell.col, Field: name,
+		Msg: fmt.Sprintf("%q is %s but the order column held %ss from %s on; use one kind throughout", cell.text, article(kind), r.orderKind, r.orderAt), Err: ErrOrder}
 }
 
 func trimPartialRune(b []byte) []byte {

@@ -285,3 +285,57 @@ func FuzzRead(f *testing.F) {
 		}
 	})
 }
+
+// The result does not depend on the chunk size: tiny chunks cut every line and quoted field
+// boundary there is, and must give the same table as one chunk.
+func TestReadSameWhateverTheChunkSize(t *testing.T) {
+	dir := t.TempDir()
+	var b strings.Builder
+	b.WriteString("participant,window,f1,f2,note\r\n")
+	for i := 0; i < 300; i++ {
+		note := "plain"
+		if i%7 == 0 {
+			note = "\"walked, then\nsat \"\"down\"\"\""
+		}
+		b.WriteString("P" + itoa(i%4) + "," + itoa(i/4) + "," + itoa(i%13) + ".25,-" + itoa(i%5) + "e-1," + note + "\r\n")
+	}
+	p := write(t, dir, "c.csv", []byte(b.String()))
+	defer func(old int) { chunkSize = old }(chunkSize)
+	var first *Table
+	for _, size := range []int{4 << 20, 97, 13, 1} {
+		chunkSize = size
+		tab, err := Read(context.Background(), []string{p}, ReadOptions{})
+		if err != nil {
+			t.Fatalf("chunk %d: %v", size, err)
+		}
+		if first == nil {
+			first = tab
+			continue
+		}
+		for u := range tab.Units {
+			a, c := tab.Units[u], first.Units[u]
+			if a.ID != c.ID || len(a.X) != len(c.X) {
+				t.Fatalf("chunk %d: unit %d is %s with %d values, one chunk gives %s with %d", size, u, a.ID, len(a.X), c.ID, len(c.X))
+			}
+			for i := range a.X {
+				if a.X[i] != c.X[i] || (i < len(a.Order) && a.Order[i] != c.Order[i]) {
+					t.Fatalf("chunk %d: unit %s value %d: %v, one chunk %v", size, a.ID, i, a.X[i], c.X[i])
+				}
+			}
+		}
+	}
+}
+
+// The fast number path agrees with strconv.ParseFloat bit for bit.
+func TestParseNumberFastPath(t *testing.T) {
+	for _, s := range []string{"0", "-0", "1.5", "0.0314", "-12.3456", "123456789012345", "0.000000000000001", "9.99999999999999", ".5", "+3.25", " 7.5 ", "1e-3", "12345678901234567", "NA", "", "1,5"} {
+		want, werr := parseNumber(s, false)
+		got, gerr := parseNumberBytes([]byte(s), false)
+		if (werr == nil) != (gerr == nil) || (werr == nil && math.Float64bits(got) != math.Float64bits(want) && !(math.IsNaN(got) && math.IsNaN(want))) {
+			t.Errorf("%q: fast %v (%v), strconv %v (%v)", s, got, gerr, want, werr)
+		}
+	}
+	if v, err := parseNumberBytes([]byte("1,25"), true); err != nil || v != 1.25 {
+		t.Errorf("decimal comma: %v %v", v, err)
+	}
+}
