@@ -130,24 +130,45 @@ func (f *Fit) OutDim() int {
 // ICC computes ICC(1) of each column, one-way random effects with participants as groups:
 // (MSB − MSW)/(MSB + (n₀ − 1)·MSW), n₀ = (N − Σnᵢ²/N)/(a − 1) (Shrout & Fleiss 1979; Donner 1986).
 // units holds each participant's windows × d row-major block.
-func ICC(units [][]float64, d int) []float64 {
-	a := 0
+func ICC(units [][]float64, d int) []float64 { return iccBlocks(SliceBlocks(units), d) }
+
+func iccBlocks(blocks Blocks, d int) []float64 {
+	// One pass: each participant's size, means and within sum of squares.
+	type unit struct {
+		n    float64
+		mean []float64
+	}
+	var units []unit
 	var N, sumN2 float64
 	grand := make([]float64, d)
-	for _, x := range units {
+	ssw := make([]float64, d)
+	for u := 0; u < blocks.Len(); u++ {
+		x := blocks.Block(u)
 		n := len(x) / d
 		if n == 0 {
 			continue
 		}
-		a++
-		N += float64(n)
-		sumN2 += float64(n * n)
+		mean := make([]float64, d)
 		for i := 0; i < n; i++ {
 			for j := 0; j < d; j++ {
-				grand[j] += x[i*d+j]
+				mean[j] += x[i*d+j]
 			}
 		}
+		for j := range mean {
+			grand[j] += mean[j]
+			mean[j] /= float64(n)
+		}
+		for i := 0; i < n; i++ {
+			for j := 0; j < d; j++ {
+				v := x[i*d+j] - mean[j]
+				ssw[j] += v * v
+			}
+		}
+		units = append(units, unit{float64(n), mean})
+		N += float64(n)
+		sumN2 += float64(n * n)
 	}
+	a := len(units)
 	out := make([]float64, d)
 	if a < 2 {
 		for j := range out {
@@ -155,35 +176,14 @@ func ICC(units [][]float64, d int) []float64 {
 		}
 		return out
 	}
+	ssb := make([]float64, d)
 	for j := range grand {
 		grand[j] /= N
 	}
-	ssb := make([]float64, d)
-	ssw := make([]float64, d)
-	mean := make([]float64, d)
-	for _, x := range units {
-		n := len(x) / d
-		if n == 0 {
-			continue
-		}
-		for j := range mean {
-			mean[j] = 0
-		}
-		for i := 0; i < n; i++ {
-			for j := 0; j < d; j++ {
-				mean[j] += x[i*d+j]
-			}
-		}
-		for j := range mean {
-			mean[j] /= float64(n)
-			dm := mean[j] - grand[j]
-			ssb[j] += float64(n) * dm * dm
-		}
-		for i := 0; i < n; i++ {
-			for j := 0; j < d; j++ {
-				v := x[i*d+j] - mean[j]
-				ssw[j] += v * v
-			}
+	for _, u := range units {
+		for j := range ssb {
+			dm := u.mean[j] - grand[j]
+			ssb[j] += u.n * dm * dm
 		}
 	}
 	n0 := (N - sumN2/N) / float64(a-1)
@@ -213,12 +213,43 @@ func Sampled(seed uint64, u, w int, rate float64) bool {
 	return float64(z>>11)/(1<<53) < rate
 }
 
+// Blocks gives the participants' windows one participant at a time: Block(u) is participant u's
+// windows × features, row-major, and is not modified. A fit reads each block a few times, so the
+// blocks may come from a file rather than memory.
+type Blocks interface {
+	Len() int
+	Block(u int) []float64
+}
+
+// SliceBlocks is Blocks over blocks held in memory.
+type SliceBlocks [][]float64
+
+func (s SliceBlocks) Len() int              { return len(s) }
+func (s SliceBlocks) Block(u int) []float64 { return s[u] }
+
 // FitTransform fits the normalization to the units (each a windows × len(features) block) and
 // returns the fit with the transformed blocks.
 func FitTransform(features []string, units [][]float64, opts Options) (*Fit, [][]float64, error) {
+	f, err := FitBlocks(features, SliceBlocks(units), opts)
+	if err != nil {
+		return nil, nil, err
+	}
+	out := make([][]float64, len(units))
+	for u, x := range units {
+		out[u] = f.Apply(x)
+	}
+	return f, out, nil
+}
+
+// FitBlocks fits the normalization in passes over the blocks, holding only one participant's
+// windows and the sample at a time: ICC(1) and the sample of raw windows; then the
+// within-participant step per participant, with the cohort mean and s.d. merged across
+// participants (Chan, Golub & LeVeque 1979) and the sample of within-step windows; then the
+// robust scales and the PCA from the sample.
+func FitBlocks(features []string, blocks Blocks, opts Options) (*Fit, error) {
 	d := len(features)
-	if d == 0 || len(units) == 0 {
-		return nil, nil, fmt.Errorf("normalize: no features or no participants: %w", ErrData)
+	if d == 0 || blocks.Len() == 0 {
+		return nil, fmt.Errorf("normalize: no features or no participants: %w", ErrData)
 	}
 	if opts.OffsetICC == 0 {
 		opts.OffsetICC = 0.3
@@ -227,15 +258,15 @@ func FitTransform(features []string, units [][]float64, opts Options) (*Fit, [][
 		opts.RestShare = 0.1
 	}
 	if opts.RestShare < 0 || opts.RestShare > 1 || opts.OffsetICC < 0 || opts.OffsetICC > 1 {
-		return nil, nil, fmt.Errorf("normalize: rest share %v, offset ICC %v: %w; both lie in (0, 1]", opts.RestShare, opts.OffsetICC, ErrOption)
+		return nil, fmt.Errorf("normalize: rest share %v, offset ICC %v: %w; both lie in (0, 1]", opts.RestShare, opts.OffsetICC, ErrOption)
 	}
 	if opts.SampleRate < 0 || opts.SampleRate > 1 {
-		return nil, nil, fmt.Errorf("normalize: sample rate %v: %w; use a share in (0, 1]", opts.SampleRate, ErrOption)
+		return nil, fmt.Errorf("normalize: sample rate %v: %w; use a share in (0, 1]", opts.SampleRate, ErrOption)
 	}
 	if opts.SampleRate == 0 {
 		opts.SampleRate = 1
 	}
-	f := &Fit{Features: features, Within: opts.Within, RestShare: opts.RestShare, ScaleKind: opts.Scale, ICC: ICC(units, d)}
+	f := &Fit{Features: features, Within: opts.Within, RestShare: opts.RestShare, ScaleKind: opts.Scale, ICC: iccBlocks(blocks, d)}
 	f.Touched = make([]bool, d)
 	switch {
 	case opts.Within == WithinNone:
@@ -269,64 +300,114 @@ func FitTransform(features []string, units [][]float64, opts Options) (*Fit, [][
 	}
 	// The quiet score ranks a participant's windows by the cohort-scaled mean of the untouched
 	// features (all features when every one is touched).
-	f.QuietMid, f.QuietScale = sampleMedianMAD(units, d, opts.Seed, opts.SampleRate)
+	f.QuietMid, f.QuietScale = medianMAD(sampleRows(blocks, d, opts.Seed, opts.SampleRate, nil), d)
 	for j := range features {
 		if !f.Touched[j] || all {
 			f.QuietScore = append(f.QuietScore, j)
 		}
 	}
-	out := make([][]float64, len(units))
-	for u, x := range units {
-		out[u] = f.within(x)
-	}
-	// Cohort step.
+	// Cohort step, on the within-step windows.
+	var moments moments
+	sample := sampleRows(blocks, d, opts.Seed, opts.SampleRate, func(x []float64) []float64 {
+		y := f.within(x)
+		moments.add(y, d)
+		return y
+	})
 	switch opts.Scale {
 	case ScaleZ:
-		f.Center, f.Spread = meanSD(out, d)
+		f.Center, f.Spread = moments.meanSD()
 	case ScaleRobustZ:
-		f.Center, f.Spread = sampleMedianMAD(out, d, opts.Seed, opts.SampleRate)
+		f.Center, f.Spread = medianMAD(append([]float64(nil), sample...), d)
 		for j := range f.Spread {
 			f.Spread[j] *= 1.4826 // consistent with the s.d. under normality
 		}
 	default:
-		return nil, nil, fmt.Errorf("normalize: cohort scaling %d: %w", opts.Scale, ErrOption)
+		return nil, fmt.Errorf("normalize: cohort scaling %d: %w", opts.Scale, ErrOption)
 	}
 	for j, s := range f.Spread {
 		if !(s > 0) {
-			return nil, nil, fmt.Errorf("normalize: feature %s has no spread across the cohort after the within-participant step: %w; leave it out with --features or use --within none", features[j], ErrData)
+			return nil, fmt.Errorf("normalize: feature %s has no spread across the cohort after the within-participant step: %w; leave it out with --features or use --within none", features[j], ErrData)
 		}
-	}
-	for _, x := range out {
-		f.scale(x)
 	}
 	if opts.NoPCA {
-		return f, out, nil
+		return f, nil
 	}
 	// PCA on the sample of scaled windows.
-	var rows []float64
-	for u, x := range out {
-		for w := 0; w*d < len(x); w++ {
-			if Sampled(opts.Seed, u, w, opts.SampleRate) {
-				rows = append(rows, x[w*d:(w+1)*d]...)
-			}
-		}
-	}
-	if len(rows)/d < 2 {
-		return nil, nil, fmt.Errorf("normalize: the sample has %d windows: %w; raise the sample size", len(rows)/d, ErrData)
+	f.scale(sample)
+	if len(sample)/d < 2 {
+		return nil, fmt.Errorf("normalize: the sample has %d windows: %w; raise the sample size", len(sample)/d, ErrData)
 	}
 	target := opts.PCAVariance
 	if opts.PCAComponents == 0 && target == 0 {
 		target = 0.99
 	}
-	pca, err := cluster.FitPCA(mat.NewDense(len(rows)/d, d, rows), cluster.PCAOptions{Components: opts.PCAComponents, VarianceTarget: target})
+	pca, err := cluster.FitPCA(mat.NewDense(len(sample)/d, d, sample), cluster.PCAOptions{Components: opts.PCAComponents, VarianceTarget: target})
 	if err != nil {
-		return nil, nil, fmt.Errorf("normalize: %w", err)
+		return nil, fmt.Errorf("normalize: %w", err)
 	}
 	f.PCA = pca
-	for u, x := range out {
-		out[u] = f.project(x)
+	return f, nil
+}
+
+// sampleRows passes over the blocks, transforming each with tf when given, and returns the
+// sampled windows (row-major) of the transformed blocks.
+func sampleRows(blocks Blocks, d int, seed uint64, rate float64, tf func([]float64) []float64) []float64 {
+	var rows []float64
+	for u := 0; u < blocks.Len(); u++ {
+		x := blocks.Block(u)
+		if tf != nil {
+			x = tf(x)
+		}
+		for w := 0; w*d < len(x); w++ {
+			if Sampled(seed, u, w, rate) {
+				rows = append(rows, x[w*d:(w+1)*d]...)
+			}
+		}
 	}
-	return f, out, nil
+	return rows
+}
+
+// moments merges per-participant means and sums of squares into cohort ones (Chan, Golub &
+// LeVeque 1979, the pairwise update), which keeps the s.d. accurate in one pass.
+type moments struct {
+	n        float64
+	mean, m2 []float64
+}
+
+func (m *moments) add(x []float64, d int) {
+	nb := float64(len(x) / d)
+	if nb == 0 {
+		return
+	}
+	if m.mean == nil {
+		m.mean, m.m2 = make([]float64, d), make([]float64, d)
+	}
+	for j := 0; j < d; j++ {
+		var mu float64
+		for i := j; i < len(x); i += d {
+			mu += x[i]
+		}
+		mu /= nb
+		var ss float64
+		for i := j; i < len(x); i += d {
+			v := x[i] - mu
+			ss += v * v
+		}
+		delta := mu - m.mean[j]
+		tot := m.n + nb
+		m.mean[j] += delta * nb / tot
+		m.m2[j] += ss + delta*delta*m.n*nb/tot
+	}
+	m.n += nb
+}
+
+// meanSD is the mean and the population s.d. (as sklearn.preprocessing.StandardScaler).
+func (m *moments) meanSD() ([]float64, []float64) {
+	sd := make([]float64, len(m.m2))
+	for j, v := range m.m2 {
+		sd[j] = math.Sqrt(v / m.n)
+	}
+	return m.mean, sd
 }
 
 // Apply transforms one new participant's windows with the frozen fit.
@@ -424,55 +505,22 @@ func (f *Fit) project(x []float64) []float64 {
 	return y
 }
 
-func meanSD(units [][]float64, d int) ([]float64, []float64) {
-	mean := make([]float64, d)
-	var n float64
-	for _, x := range units {
-		for i := 0; i+d <= len(x); i += d {
-			for j := 0; j < d; j++ {
-				mean[j] += x[i+j]
-			}
-			n++
-		}
-	}
-	for j := range mean {
-		mean[j] /= n
-	}
-	sd := make([]float64, d)
-	for _, x := range units {
-		for i := 0; i+d <= len(x); i += d {
-			for j := 0; j < d; j++ {
-				v := x[i+j] - mean[j]
-				sd[j] += v * v
-			}
-		}
-	}
-	for j := range sd {
-		sd[j] = math.Sqrt(sd[j] / n) // population s.d., as sklearn.preprocessing.StandardScaler
-	}
-	return mean, sd
-}
-
-// sampleMedianMAD returns each column's median and median absolute deviation over the sample.
-func sampleMedianMAD(units [][]float64, d int, seed uint64, rate float64) ([]float64, []float64) {
-	cols := make([][]float64, d)
-	for u, x := range units {
-		for w := 0; w*d < len(x); w++ {
-			if Sampled(seed, u, w, rate) {
-				for j := 0; j < d; j++ {
-					cols[j] = append(cols[j], x[w*d+j])
-				}
-			}
-		}
-	}
+// medianMAD returns each column's median and median absolute deviation of row-major rows
+// (the rows are reordered).
+func medianMAD(rows []float64, d int) ([]float64, []float64) {
+	n := len(rows) / d
+	col := make([]float64, n)
 	med := make([]float64, d)
 	mad := make([]float64, d)
-	for j, c := range cols {
-		med[j] = median(c)
-		for k := range c {
-			c[k] = math.Abs(c[k] - med[j])
+	for j := 0; j < d; j++ {
+		for i := 0; i < n; i++ {
+			col[i] = rows[i*d+j]
 		}
-		mad[j] = median(c)
+		med[j] = median(col)
+		for i := range col {
+			col[i] = math.Abs(col[i] - med[j])
+		}
+		mad[j] = median(col)
 	}
 	return med, mad
 }
