@@ -312,15 +312,19 @@ func AdjustedRand(a, b []int) (float64, error) {
 	if err != nil {
 		return 0, err
 	}
-	n := float64(len(a))
+	return AdjustedRandTable(t.Counts)
+}
+
+// AdjustedRandTable is AdjustedRand from a contingency table of counts.
+func AdjustedRandTable(counts [][]int) (float64, error) {
+	rowSum, colSum, n, err := margins(counts)
+	if err != nil {
+		return 0, err
+	}
 	var sumIJ, sumA, sumB float64
-	rowSum := make([]float64, len(t.A))
-	colSum := make([]float64, len(t.B))
-	for i, row := range t.Counts {
-		for j, c := range row {
+	for _, row := range counts {
+		for _, c := range row {
 			sumIJ += comb2(float64(c))
-			rowSum[i] += float64(c)
-			colSum[j] += float64(c)
 		}
 	}
 	for _, v := range rowSum {
@@ -337,6 +341,31 @@ func AdjustedRand(a, b []int) (float64, error) {
 	return (sumIJ - expected) / (maxIdx - expected), nil
 }
 
+func margins(counts [][]int) (rowSum, colSum []float64, n float64, err error) {
+	if len(counts) == 0 || len(counts[0]) == 0 {
+		return nil, nil, 0, fmt.Errorf("cluster: contingency table is empty: %w", ErrEmpty)
+	}
+	rowSum = make([]float64, len(counts))
+	colSum = make([]float64, len(counts[0]))
+	for i, row := range counts {
+		if len(row) != len(colSum) {
+			return nil, nil, 0, fmt.Errorf("cluster: contingency row %d has %d columns, row 0 %d: %w", i, len(row), len(colSum), ErrShape)
+		}
+		for j, c := range row {
+			if c < 0 {
+				return nil, nil, 0, fmt.Errorf("cluster: contingency count %d at (%d, %d): %w", c, i, j, ErrDomain)
+			}
+			rowSum[i] += float64(c)
+			colSum[j] += float64(c)
+			n += float64(c)
+		}
+	}
+	if n == 0 {
+		return nil, nil, 0, fmt.Errorf("cluster: contingency table counts nothing: %w", ErrEmpty)
+	}
+	return rowSum, colSum, n, nil
+}
+
 // NormalizedMutualInfo is I(a; b) / ((H(a) + H(b))/2), the arithmetic normalization that is
 // sklearn.metrics.normalized_mutual_info_score's default; 1 when both labelings have one group.
 // Reference: Vinh, Epps & Bailey (2010), JMLR 11:2837–2854, Table 2 (NMI_sum).
@@ -345,20 +374,30 @@ func NormalizedMutualInfo(a, b []int) (float64, error) {
 	if err != nil {
 		return 0, err
 	}
-	if len(t.A) == 1 && len(t.B) == 1 {
+	return NormalizedMutualInfoTable(t.Counts)
+}
+
+// NormalizedMutualInfoTable is NormalizedMutualInfo from a contingency table of counts; rows or
+// columns that count nothing are ignored.
+func NormalizedMutualInfoTable(counts [][]int) (float64, error) {
+	rowSum, colSum, n, err := margins(counts)
+	if err != nil {
+		return 0, err
+	}
+	used := func(s []float64) int {
+		k := 0
+		for _, v := range s {
+			if v > 0 {
+				k++
+			}
+		}
+		return k
+	}
+	if used(rowSum) == 1 && used(colSum) == 1 {
 		return 1, nil
 	}
-	n := float64(len(a))
-	rowSum := make([]float64, len(t.A))
-	colSum := make([]float64, len(t.B))
-	for i, row := range t.Counts {
-		for j, c := range row {
-			rowSum[i] += float64(c)
-			colSum[j] += float64(c)
-		}
-	}
 	var mi float64
-	for i, row := range t.Counts {
+	for i, row := range counts {
 		for j, c := range row {
 			if c == 0 {
 				continue

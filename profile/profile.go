@@ -34,12 +34,11 @@ var (
 
 // Options sets up FitStates.
 type Options struct {
-	States     []int  // candidate numbers of states, increasing (required); one value fixes it
-	SampleSize int    // windows drawn for fitting; 0 means 50,000
-	Restarts   int    // k-means restarts; 0 means 10
-	Seed       uint64 // drives the sample and k-means
-	Workers    int
-	Progress   func(step string, done, total int)
+	States   []int  // candidate numbers of states, increasing (required); one value fixes it
+	Restarts int    // k-means restarts; 0 means 10
+	Seed     uint64 // drives the sample and k-means
+	Workers  int
+	Progress func(step string, done, total int)
 }
 
 // Candidate is one number of states tried, with the indices shown beside the choice.
@@ -63,12 +62,34 @@ type States struct {
 // ChoiceRule names how the number of states is chosen from a range.
 const ChoiceRule = "largest Calinski–Harabasz index on a sample of windows (Caliński & Harabasz 1974)"
 
-// FitStates learns the states from a sample of the units' normalized windows (each a block of
-// windows × dim). With a range of candidate numbers it keeps the one with the largest
-// Calinski–Harabasz index; the mean silhouette and Davies–Bouldin are computed beside it for the
-// reader. On planted cohorts (TestStatesRuleOnPlantedCohorts) the silhouette picks too few states:
-// it prefers the coarse split between rest and movement, merging states the data holds apart.
-func FitStates(ctx context.Context, blocks [][]float64, dim int, opts Options) (*States, error) {
+// Sample draws the reproducible sample of about size windows that the states are fitted on, from
+// blocks of normalized windows (total windows in all), by normalize.Sampled.
+func Sample(blocks normalize.Blocks, dim, size, total int, seed uint64) *mat.Dense {
+	if size == 0 {
+		size = 50_000
+	}
+	rate := min(1, float64(size)/float64(max(1, total)))
+	var rows []float64
+	for u := 0; u < blocks.Len(); u++ {
+		b := blocks.Block(u)
+		for w := 0; w*dim < len(b); w++ {
+			if normalize.Sampled(seed^0x5eed, u, w, rate) {
+				rows = append(rows, b[w*dim:(w+1)*dim]...)
+			}
+		}
+	}
+	if len(rows) == 0 {
+		return nil
+	}
+	return mat.NewDense(len(rows)/dim, dim, rows)
+}
+
+// FitStates learns the states from a sample of normalized windows (see Sample). With a range of
+// candidate numbers it keeps the one with the largest Calinski–Harabasz index; the mean
+// silhouette and Davies–Bouldin are computed beside it for the reader. On planted cohorts
+// (TestChoiceRulesOnPlantedCohorts) the silhouette picks too few states: it prefers the coarse
+// split between rest and movement, merging states the data holds apart.
+func FitStates(ctx context.Context, sample *mat.Dense, opts Options) (*States, error) {
 	if len(opts.States) == 0 {
 		return nil, fmt.Errorf("profile: no number of states given: %w; pass --states 6 or a range such as 2-10", ErrOption)
 	}
@@ -77,29 +98,15 @@ func FitStates(ctx context.Context, blocks [][]float64, dim int, opts Options) (
 			return nil, fmt.Errorf("profile: states %v: %w; give increasing numbers ≥ 2", opts.States, ErrOption)
 		}
 	}
-	size := opts.SampleSize
-	if size == 0 {
-		size = 50_000
+	n, dim := 0, 0
+	if sample != nil {
+		n, dim = sample.Dims()
 	}
-	total := 0
-	for _, b := range blocks {
-		total += len(b) / dim
-	}
-	rate := min(1, float64(size)/float64(max(1, total)))
-	var rows []float64
-	for u, b := range blocks {
-		for w := 0; w*dim < len(b); w++ {
-			if normalize.Sampled(opts.Seed^0x5eed, u, w, rate) {
-				rows = append(rows, b[w*dim:(w+1)*dim]...)
-			}
-		}
-	}
-	n := len(rows) / dim
 	maxK := opts.States[len(opts.States)-1]
 	if n < 2*maxK {
 		return nil, fmt.Errorf("profile: %d sampled windows for up to %d states: %w; raise --sample or lower --states", n, maxK, ErrData)
 	}
-	x := mat.NewDense(n, dim, rows)
+	x := sample
 	// Validity indices on a fixed sub-sample, the same for every candidate.
 	sub := x
 	if n > 4000 {
@@ -224,51 +231,56 @@ type Driver struct {
 	Effect  float64 // (state mean − overall mean) / overall s.d.
 }
 
-// Describe computes each state's feature means in the original units from raw blocks (windows ×
-// d) and the state of each of their windows.
-func Describe(raw [][]float64, labels [][]int, d, k int) ([]Description, error) {
-	if len(raw) != len(labels) || d < 1 || k < 1 {
-		return nil, fmt.Errorf("profile: Describe: %d blocks, %d label lists, %d features, %d states: %w", len(raw), len(labels), d, k, ErrData)
+// Describer accumulates, window by window, each state's feature means in the original units.
+type Describer struct {
+	d, k           int
+	sum, all, all2 []float64
+	cnt            []float64
+	n              float64
+}
+
+// NewDescriber prepares a Describer for d features and k states.
+func NewDescriber(d, k int) *Describer {
+	return &Describer{d: d, k: k, sum: make([]float64, k*d), all: make([]float64, d), all2: make([]float64, d), cnt: make([]float64, k)}
+}
+
+// Add takes one participant's raw windows (windows × d) and their states.
+func (ds *Describer) Add(raw []float64, labels []int) error {
+	d := ds.d
+	if len(raw) != d*len(labels) {
+		return fmt.Errorf("profile: Describe: a block has %d values for %d windows of %d features: %w", len(raw), len(labels), d, ErrData)
 	}
-	for u := range raw {
-		if len(raw[u]) != d*len(labels[u]) {
-			return nil, fmt.Errorf("profile: Describe: block %d has %d values for %d windows of %d features: %w", u, len(raw[u]), len(labels[u]), d, ErrData)
+	for i, l := range labels {
+		if l < 0 || l >= ds.k {
+			return fmt.Errorf("profile: Describe: state %d outside 0…%d: %w", l, ds.k-1, ErrData)
 		}
-		for _, l := range labels[u] {
-			if l < 0 || l >= k {
-				return nil, fmt.Errorf("profile: Describe: state %d outside 0…%d: %w", l, k-1, ErrData)
-			}
-		}
-	}
-	sum := make([]float64, k*d)
-	cnt := make([]float64, k)
-	all := make([]float64, d)
-	all2 := make([]float64, d)
-	var n float64
-	for u, x := range raw {
-		for i, l := range labels[u] {
-			cnt[l]++
-			n++
-			for j := 0; j < d; j++ {
-				v := x[i*d+j]
-				sum[l*d+j] += v
-				all[j] += v
-				all2[j] += v * v
-			}
+		ds.cnt[l]++
+		ds.n++
+		for j := 0; j < d; j++ {
+			v := raw[i*d+j]
+			ds.sum[l*d+j] += v
+			ds.all[j] += v
+			ds.all2[j] += v * v
 		}
 	}
+	return nil
+}
+
+// Descriptions gives each state's means and the features that drive it.
+func (ds *Describer) Descriptions() []Description {
+	d, k, n := ds.d, ds.k, ds.n
 	out := make([]Description, k)
 	for s := 0; s < k; s++ {
-		desc := Description{Mean: make([]float64, d), Share: cnt[s] / n}
+		desc := Description{Mean: make([]float64, d), Share: ds.cnt[s] / n}
 		for j := 0; j < d; j++ {
-			if cnt[s] > 0 {
-				desc.Mean[j] = sum[s*d+j] / cnt[s]
+			if ds.cnt[s] > 0 {
+				desc.Mean[j] = ds.sum[s*d+j] / ds.cnt[s]
 			} else {
 				desc.Mean[j] = math.NaN()
 			}
-			mu := all[j] / n
-			sd := math.Sqrt(max(0, all2[j]/n-mu*mu))
-			if sd > 0 && cnt[s] > 0 {
+			mu := ds.all[j] / n
+			sd := math.Sqrt(max(0, ds.all2[j]/n-mu*mu))
+			if sd > 0 && ds.cnt[s] > 0 {
 				desc.Drivers = append(desc.Drivers, Driver{j, (desc.Mean[j] - mu) / sd})
 			}
 		}
@@ -277,7 +289,22 @@ func Describe(raw [][]float64, labels [][]int, d, k int) ([]Description, error) 
 		})
 		out[s] = desc
 	}
-	return out, nil
+	return out
+}
+
+// Describe computes each state's feature means in the original units from raw blocks (windows ×
+// d) and the state of each of their windows.
+func Describe(raw [][]float64, labels [][]int, d, k int) ([]Description, error) {
+	if len(raw) != len(labels) || d < 1 || k < 1 {
+		return nil, fmt.Errorf("profile: Describe: %d blocks, %d label lists, %d features, %d states: %w", len(raw), len(labels), d, k, ErrData)
+	}
+	ds := NewDescriber(d, k)
+	for u := range raw {
+		if err := ds.Add(raw[u], labels[u]); err != nil {
+			return nil, err
+		}
+	}
+	return ds.Descriptions(), nil
 }
 
 // LabelTable cross-tabulates states with known activity labels over all windows.
@@ -287,40 +314,59 @@ type LabelTable struct {
 	ARI, NMI float64
 }
 
-// CompareLabels builds the states × labels table and its ARI and NMI.
-func CompareLabels(states [][]int, labels [][]string, k int) (*LabelTable, error) {
-	names := map[string]int{}
-	var order []string
-	for _, ls := range labels {
-		for _, l := range ls {
-			if _, ok := names[l]; !ok {
-				names[l] = 0
-				order = append(order, l)
-			}
+// LabelCounter accumulates the states × labels table window by window.
+type LabelCounter struct {
+	k      int
+	index  map[string]int
+	names  []string
+	counts [][]int // states × labels in order of first appearance
+}
+
+// NewLabelCounter prepares a counter for k states.
+func NewLabelCounter(k int) *LabelCounter { return &LabelCounter{k: k, index: map[string]int{}} }
+
+// Add takes one participant's states and known labels.
+func (lc *LabelCounter) Add(states []int, labels []string) {
+	for i, l := range labels {
+		j, ok := lc.index[l]
+		if !ok {
+			j = len(lc.names)
+			lc.index[l] = j
+			lc.names = append(lc.names, l)
 		}
+		for len(lc.counts) <= j {
+			lc.counts = append(lc.counts, make([]int, lc.k))
+		}
+		lc.counts[j][states[i]]++
 	}
+}
+
+// Table gives the states × labels table (labels sorted) with its ARI and NMI.
+func (lc *LabelCounter) Table() (*LabelTable, error) {
+	order := append([]string(nil), lc.names...)
 	sort.Strings(order)
-	for i, l := range order {
-		names[l] = i
-	}
-	t := &LabelTable{Labels: order, Counts: make([][]int, k)}
+	t := &LabelTable{Labels: order, Counts: make([][]int, lc.k)}
 	for s := range t.Counts {
 		t.Counts[s] = make([]int, len(order))
-	}
-	var a, b []int
-	for u, ls := range labels {
-		for i, l := range ls {
-			t.Counts[states[u][i]][names[l]]++
-			a = append(a, states[u][i])
-			b = append(b, names[l])
+		for c, l := range order {
+			t.Counts[s][c] = lc.counts[lc.index[l]][s]
 		}
 	}
 	var err error
-	if t.ARI, err = cluster.AdjustedRand(a, b); err != nil {
+	if t.ARI, err = cluster.AdjustedRandTable(t.Counts); err != nil {
 		return nil, err
 	}
-	if t.NMI, err = cluster.NormalizedMutualInfo(a, b); err != nil {
+	if t.NMI, err = cluster.NormalizedMutualInfoTable(t.Counts); err != nil {
 		return nil, err
 	}
 	return t, nil
+}
+
+// CompareLabels builds the states × labels table and its ARI and NMI.
+func CompareLabels(states [][]int, labels [][]string, k int) (*LabelTable, error) {
+	lc := NewLabelCounter(k)
+	for u := range labels {
+		lc.Add(states[u], labels[u])
+	}
+	return lc.Table()
 }

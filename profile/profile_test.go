@@ -9,6 +9,7 @@ import (
 	"testing"
 
 	"github.com/cohortmix/cohortmix/cluster"
+	"github.com/cohortmix/cohortmix/normalize"
 )
 
 func TestSignatures(t *testing.T) {
@@ -44,7 +45,8 @@ func plantedBlocks() ([][]float64, [][]int) {
 
 func TestFitStatesRecoversPlantedStates(t *testing.T) {
 	blocks, truth := plantedBlocks()
-	s, err := FitStates(context.Background(), blocks, 3, Options{States: []int{2, 3, 4, 5, 6}, SampleSize: 2000, Seed: 1})
+	sample := Sample(normalize.SliceBlocks(blocks), 3, 2000, 4000, 1)
+	s, err := FitStates(context.Background(), sample, Options{States: []int{2, 3, 4, 5, 6}, Seed: 1})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -73,10 +75,10 @@ func TestFitStatesRecoversPlantedStates(t *testing.T) {
 
 func TestFitStatesErrors(t *testing.T) {
 	blocks, _ := plantedBlocks()
-	if _, err := FitStates(context.Background(), blocks, 3, Options{States: []int{4, 3}}); !errors.Is(err, ErrOption) {
+	if _, err := FitStates(context.Background(), Sample(normalize.SliceBlocks(blocks), 3, 0, 4000, 1), Options{States: []int{4, 3}}); !errors.Is(err, ErrOption) {
 		t.Errorf("decreasing range: %v", err)
 	}
-	if _, err := FitStates(context.Background(), blocks[:1], 3, Options{States: []int{300}, SampleSize: 100}); !errors.Is(err, ErrData) {
+	if _, err := FitStates(context.Background(), Sample(normalize.SliceBlocks(blocks[:1]), 3, 100, 400, 1), Options{States: []int{300}}); !errors.Is(err, ErrData) {
 		t.Errorf("too few windows: %v", err)
 	}
 }

@@ -38,7 +38,8 @@ type fitted struct {
 	fit    *normalize.Fit
 	states *profile.States
 	sigs   []profile.Signature
-	labels [][]int
+	desc   []profile.Description // the states in the original units
+	labels *profile.LabelTable   // states × known labels, when labels are given
 	g      *cohort.Grouping
 }
 
@@ -81,26 +82,27 @@ func fitAll(ctx context.Context, o analysisOptions) (*fitted, error) {
 		return nil, fmt.Errorf("%s: --groups asks for up to %d groups but %d participants are grouped: %w; lower --groups to at most %d",
 			o.Inputs[0], maxK, len(t.Units), cohort.ErrTooFew, len(t.Units)-1)
 	}
-	raw := make([][]float64, len(t.Units))
-	for i, u := range t.Units {
-		raw[i] = u.X
-	}
 	step("normalizing")
 	o.Norm.Seed = o.Seed
 	if total := t.Quality.WindowsIn; o.Norm.SampleRate == 0 && total > normSample {
 		o.Norm.SampleRate = float64(normSample) / float64(total) // robust scales and PCA from a sample
 	}
-	fit, normed, err := normalize.FitTransform(t.Features, raw, o.Norm)
+	fit, err := normalize.FitBlocks(t.Features, rawBlocks{t}, o.Norm)
 	if err != nil {
 		return nil, err
 	}
 	step("fitting movement states")
-	states, err := profile.FitStates(ctx, normed, fit.OutDim(), profile.Options{States: o.States, SampleSize: o.Sample, Seed: o.Seed, Workers: o.Workers})
+	sample := profile.Sample(normedBlocks{t, fit}, fit.OutDim(), o.Sample, t.Quality.WindowsIn-t.Quality.WindowsDropped-t.Quality.WindowsExcluded, o.Seed)
+	states, err := profile.FitStates(ctx, sample, profile.Options{States: o.States, Seed: o.Seed, Workers: o.Workers})
 	if err != nil {
 		return nil, err
 	}
 	step("assigning windows")
-	sigs, labels := signatures(states, normed)
+	f, err := assignWindows(ctx, t, fit, states)
+	if err != nil {
+		return nil, err
+	}
+	sigs := f.sigs
 	shares := make([][]float64, len(sigs))
 	for i, sg := range sigs {
 		shares[i] = sg.Share
@@ -110,45 +112,67 @@ func fitAll(ctx context.Context, o analysisOptions) (*fitted, error) {
 	if err != nil {
 		return nil, err
 	}
-	return &fitted{t: t, fit: fit, states: states, sigs: sigs, labels: labels, g: g}, nil
+	f.g = g
+	return f, nil
 }
 
-// signatures assigns every window of every unit to a state and summarizes each unit.
-func signatures(states *profile.States, normed [][]float64) ([]profile.Signature, [][]int) {
-	labels := make([][]int, len(normed))
-	sigs := make([]profile.Signature, len(normed))
-	for i, block := range normed {
-		labels[i] = states.Assign(block)
-		sigs[i] = profile.Signatures(labels[i], states.K)
+// rawBlocks gives each unit's windows as read; normedBlocks gives them normalized by a fit,
+// computed when asked for, so that no second copy of all windows is held.
+type rawBlocks struct{ t *cohort.Table }
+
+func (b rawBlocks) Len() int              { return len(b.t.Units) }
+func (b rawBlocks) Block(u int) []float64 { return b.t.Units[u].X }
+
+type normedBlocks struct {
+	t   *cohort.Table
+	fit *normalize.Fit
+}
+
+func (b normedBlocks) Len() int              { return len(b.t.Units) }
+func (b normedBlocks) Block(u int) []float64 { return b.fit.Apply(b.t.Units[u].X) }
+
+// assignWindows is the pass over every unit that gives each window its state and each unit its
+// signature, and accumulates the states' descriptions and the states × labels table.
+func assignWindows(ctx context.Context, t *cohort.Table, fit *normalize.Fit, states *profile.States) (*fitted, error) {
+	f := &fitted{t: t, fit: fit, states: states, sigs: make([]profile.Signature, len(t.Units))}
+	ds := profile.NewDescriber(len(t.Features), states.K)
+	var lc *profile.LabelCounter
+	if t.HasLabels {
+		lc = profile.NewLabelCounter(states.K)
 	}
-	return sigs, labels
+	for i, u := range t.Units {
+		if i%256 == 0 && ctx.Err() != nil {
+			return nil, ctx.Err()
+		}
+		labels := states.Assign(fit.Apply(u.X))
+		f.sigs[i] = profile.Signatures(labels, states.K)
+		if err := ds.Add(u.X, labels); err != nil {
+			return nil, err
+		}
+		if lc != nil {
+			lc.Add(labels, u.Labels)
+		}
+	}
+	f.desc = ds.Descriptions()
+	if lc != nil {
+		var err error
+		if f.labels, err = lc.Table(); err != nil {
+			return nil, err
+		}
+	}
+	return f, nil
 }
 
 // describe gathers what the reports show once every unit has a group: the states in the original
 // units, the states × labels table, the separating variables, and one row per unit, under the
 // given state and group names.
 func describe(f *fitted, stateNames, groupNames []string) (*reports.Result, error) {
-	t, fit, states, sigs, labels, g := f.t, f.fit, f.states, f.sigs, f.labels, f.g
+	t, fit, states, sigs, g := f.t, f.fit, f.states, f.sigs, f.g
 	d, k := len(t.Features), states.K
-	raw := make([][]float64, len(t.Units))
-	for i, u := range t.Units {
-		raw[i] = u.X
-	}
-	res := &reports.Result{Features: t.Features, OrderKind: t.OrderKind, Quality: t.Quality, Files: t.Files, Norm: fit, States: states, Grouping: g}
+	res := &reports.Result{Features: t.Features, OrderKind: t.OrderKind, Quality: t.Quality, Files: t.Files, Norm: fit, States: states, Grouping: g,
+		StateDesc: f.desc, Labels: f.labels}
 	res.Warnings = append(res.Warnings, fit.Warnings...)
 	var err error
-	if res.StateDesc, err = profile.Describe(raw, labels, d, k); err != nil {
-		return nil, err
-	}
-	if t.HasLabels {
-		var ls [][]string
-		for _, u := range t.Units {
-			ls = append(ls, u.Labels)
-		}
-		if res.Labels, err = profile.CompareLabels(labels, ls, k); err != nil {
-			return nil, err
-		}
-	}
 	vars := make([]cohort.Variable, 0, 2*k+d)
 	for s := 0; s < k; s++ {
 		v := cohort.Variable{Name: "share " + stateNames[s], Kind: "share"}

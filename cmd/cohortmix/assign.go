@@ -88,21 +88,19 @@ func assignRun(ctx context.Context, o *assignOptions) error {
 		return err
 	}
 	fit, states := m.NormFit(), m.StateFit()
-	normed := make([][]float64, len(t.Units))
-	for i, u := range t.Units {
-		normed[i] = fit.Apply(u.X)
-	}
-	sigs, labels := signatures(states, normed)
-	shares := make([][]float64, len(sigs))
-	for i, s := range sigs {
-		shares[i] = s.Share
-	}
-	method, _ := cohort.ParseMethod(m.Grouping.Method)
-	g, err := cohort.Place(method, m.Grouping.Centroids, shares, o.Workers)
+	f, err := assignWindows(ctx, t, fit, states)
 	if err != nil {
 		return err
 	}
-	res, err := describe(&fitted{t: t, fit: fit, states: states, sigs: sigs, labels: labels, g: g}, m.States.Names, m.Grouping.Names)
+	shares := make([][]float64, len(f.sigs))
+	for i, s := range f.sigs {
+		shares[i] = s.Share
+	}
+	method, _ := cohort.ParseMethod(m.Grouping.Method)
+	if f.g, err = cohort.Place(method, m.Grouping.Centroids, shares, o.Workers); err != nil {
+		return err
+	}
+	res, err := describe(f, m.States.Names, m.Grouping.Names)
 	if err != nil {
 		return err
 	}

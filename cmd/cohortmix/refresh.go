@@ -9,7 +9,6 @@ import (
 
 	"github.com/cohortmix/cohortmix/cluster"
 	"github.com/cohortmix/cohortmix/cohort"
-	"github.com/cohortmix/cohortmix/profile"
 	"github.com/cohortmix/cohortmix/reports"
 	"github.com/spf13/cobra"
 )
@@ -77,22 +76,13 @@ func refreshRun(ctx context.Context, o *refreshOptions) error {
 		return err
 	}
 	method, _ := cohort.ParseMethod(prev.Grouping.Method)
-	d := len(f.t.Features)
-	raw := make([][]float64, len(f.t.Units))
-	for i, u := range f.t.Units {
-		raw[i] = u.X
-	}
-	desc, err := profile.Describe(raw, f.labels, d, f.states.K)
-	if err != nil {
-		return err
-	}
 	byKey, byID := previousGroups(prev)
 	prevIndex := map[string]int{}
 	for i, n := range prev.Grouping.Names {
 		prevIndex[n] = i
 	}
 	next := cohort.Next{Labels: f.g.Labels, GroupShares: meanShares(f)}
-	for _, dsc := range desc {
+	for _, dsc := range f.desc {
 		next.StateMeans = append(next.StateMeans, dsc.Mean)
 	}
 	for _, u := range f.t.Units {
