@@ -103,6 +103,7 @@ func (r *reader) parseBody(br *bufio.Reader, spec *parseSpec, firstLine int, mer
 				}
 				line += bytes.Count(data, []byte{'\n'})
 				seq++
+				r.progress()
 			}
 			if err != nil {
 				if errors.Is(err, io.EOF) {

@@ -46,7 +46,11 @@ type ReadOptions struct {
 	Label      string   // optional known activity label, used only for validation tables
 	Features   []string // name patterns (path.Match, e.g. "vm_*"); empty means every other numeric column
 	Missing    Missing
-	MinWindows int // participants with fewer usable windows are excluded; 0 means 20
+	MinWindows int    // participants with fewer usable windows are excluded; 0 means 20
+	TempDir    string // folder for the temporary windows files of large inputs; "" means the system's
+	// Progress, when set, is told how many bytes of a file were read, of its size (0 when not
+	// known, as for standard input); it is called from one goroutine at a time.
+	Progress func(file string, done, total int64)
 }
 
 func (o ReadOptions) withDefaults() ReadOptions {
@@ -62,20 +66,22 @@ func (o ReadOptions) withDefaults() ReadOptions {
 	return o
 }
 
-// Unit is one participant, or one wave of a participant when a wave column is given.
+// Unit is one participant, or one wave of a participant when a wave column is given. Its
+// windows' features are read with Table.Block.
 type Unit struct {
 	ID, Wave string
-	X        []float64 // windows × features, row-major, in window order
-	Order    []int64   // window order key (an integer, or Unix nanoseconds for times)
-	Labels   []string  // known activity label per window, when a label column is given
-	Files    []string  // the files its windows came from
-	Dropped  int       // windows dropped for missing cells
-	Imputed  int       // cells imputed
-	Sorted   bool      // its windows were not in order in the input and were sorted
+	off      int64    // first value in the table's store
+	rows     int      // usable windows
+	Order    []int64  // window order key (an integer, or Unix nanoseconds for times)
+	Labels   []string // known activity label per window, when a label column is given
+	Files    []string // the files its windows came from
+	Dropped  int      // windows dropped for missing cells
+	Imputed  int      // cells imputed
+	Sorted   bool     // its windows were not in order in the input and were sorted
 }
 
 // Windows is the number of usable windows.
-func (u *Unit) Windows(d int) int { return len(u.X) / d }
+func (u *Unit) Windows() int { return u.rows }
 
 // Exclusion is a unit left out of the analysis, with why.
 type Exclusion struct {
@@ -109,8 +115,12 @@ type FileInfo struct {
 	Rows   int
 }
 
-// Table is what the reader returns: the units with their windows and the accounting.
+// Table is what the reader returns: the units with their windows and the accounting. Close
+// removes its temporary file, if it made one.
 type Table struct {
+	store     *store
+	width     int   // values per stored window
+	cols      []int // stored column of each feature
 	Features  []string
 	Units     []*Unit
 	Quality   Quality
@@ -127,7 +137,12 @@ func Read(ctx context.Context, paths []string, opts ReadOptions) (*Table, error)
 	if len(paths) == 0 {
 		return nil, &InputError{Msg: "no input files; name at least one CSV or TSV file", Err: ErrOpen}
 	}
-	r := &reader{ctx: ctx, opts: opts, byKey: map[string]*rawUnit{}}
+	dir := opts.TempDir
+	if dir == "" {
+		dir = os.TempDir()
+	}
+	r := &reader{ctx: ctx, opts: opts, byKey: map[string]*rawUnit{}, raw: &store{dir: dir}}
+	defer r.raw.close()
 	for _, p := range paths {
 		if err := r.readFile(p); err != nil {
 			return nil, err
@@ -138,7 +153,7 @@ func Read(ctx context.Context, paths []string, opts ReadOptions) (*Table, error)
 
 type rawUnit struct {
 	id, wave string
-	x        []float64
+	runs     []run // where its windows lie in the raw store, in arrival order
 	order    []int64
 	line     []int32
 	file     []int16
@@ -147,7 +162,15 @@ type rawUnit struct {
 	lastFile string
 }
 
+// run is a stretch of consecutive windows of one unit in a store.
+type run struct {
+	off  int64 // first value
+	rows int
+}
+
 type reader struct {
+	progress  func()   // reports the bytes read of the current file
+	raw       *store   // every window's values as read
 	last      *rawUnit // the unit of the previous window
 	ctx       context.Context
 	opts      ReadOptions
@@ -164,21 +187,23 @@ type reader struct {
 }
 
 // hashingFile is the input after BOM removal and decompression, with a hash of the raw bytes.
-func openInput(p string) (io.Reader, func() (string, int64), func() error, error) {
+func openInput(p string) (io.Reader, func() (string, int64), func() error, *countWriter, int64, error) {
 	var f *os.File
+	var size int64
 	if p == "-" {
 		f = os.Stdin
 	} else {
 		st, err := os.Stat(p)
 		if err != nil {
-			return nil, nil, nil, &InputError{File: p, Msg: "cannot open: " + strings.TrimPrefix(err.Error(), "stat "+p+": ") + "; check the path", Err: ErrOpen}
+			return nil, nil, nil, nil, 0, &InputError{File: p, Msg: "cannot open: " + strings.TrimPrefix(err.Error(), "stat "+p+": ") + "; check the path", Err: ErrOpen}
 		}
 		if st.IsDir() {
-			return nil, nil, nil, &InputError{File: p, Msg: "is a directory; name the table files inside it", Err: ErrOpen}
+			return nil, nil, nil, nil, 0, &InputError{File: p, Msg: "is a directory; name the table files inside it", Err: ErrOpen}
 		}
 		if f, err = os.Open(p); err != nil {
-			return nil, nil, nil, &InputError{File: p, Msg: "cannot open: " + err.Error(), Err: ErrOpen}
+			return nil, nil, nil, nil, 0, &InputError{File: p, Msg: "cannot open: " + err.Error(), Err: ErrOpen}
 		}
+		size = st.Size()
 	}
 	h := sha256.New()
 	cnt := &countWriter{h: h}
@@ -188,7 +213,7 @@ func openInput(p string) (io.Reader, func() (string, int64), func() error, error
 		gz, err := gzip.NewReader(raw)
 		if err != nil {
 			f.Close()
-			return nil, nil, nil, &InputError{File: p, Msg: "gzip header is damaged: " + err.Error(), Err: ErrNotText}
+			return nil, nil, nil, nil, 0, &InputError{File: p, Msg: "gzip header is damaged: " + err.Error(), Err: ErrNotText}
 		}
 		in = bufio.NewReaderSize(gz, 1<<20)
 	}
@@ -196,7 +221,7 @@ func openInput(p string) (io.Reader, func() (string, int64), func() error, error
 		_, _ = io.Copy(io.Discard, raw) // hash the whole file even if the parse stopped early
 		return hex.EncodeToString(h.Sum(nil)), cnt.n
 	}
-	return in, sum, f.Close, nil
+	return in, sum, f.Close, cnt, size, nil
 }
 
 type countWriter struct {
@@ -210,11 +235,17 @@ func (c *countWriter) Write(b []byte) (int, error) {
 }
 
 func (r *reader) readFile(p string) error {
-	in, sum, closeFn, err := openInput(p)
+	in, sum, closeFn, cnt, size, err := openInput(p)
 	if err != nil {
 		return err
 	}
 	defer closeFn()
+	if r.opts.Progress != nil {
+		r.progress = func() { r.opts.Progress(p, cnt.n, size) }
+		defer r.progress()
+	} else {
+		r.progress = func() {}
+	}
 	br := bufio.NewReaderSize(in, 1<<16)
 	head, perr := br.Peek(64 << 10)
 	if perr != nil && !errors.Is(perr, io.EOF) && !errors.Is(perr, bufio.ErrBufferFull) {
@@ -291,7 +322,9 @@ func (r *reader) readFile(p string) error {
 		if roles.label >= 0 {
 			label = strings.TrimSpace(rec[roles.label])
 		}
-		r.appendRow(p, fileIdx, id, wave, ord, roles.order < 0, vals, label, line)
+		if err := r.appendRow(p, fileIdx, id, wave, ord, roles.order < 0, vals, label, line); err != nil {
+			return err
+		}
 		for _, f := range rec {
 			line += strings.Count(f, "\n") // quoted newlines
 		}
@@ -311,7 +344,9 @@ func (r *reader) readFile(p string) error {
 				if roles.label >= 0 {
 					label = c.labels[i]
 				}
-				r.appendRow(p, fileIdx, c.ids[i], wave, c.ords[i], roles.order < 0, c.vals[i*d:(i+1)*d], label, int(c.lines[i]))
+				if err := r.appendRow(p, fileIdx, c.ids[i], wave, c.ords[i], roles.order < 0, c.vals[i*d:(i+1)*d], label, int(c.lines[i])); err != nil {
+					return err
+				}
 			}
 			rows += c.rows()
 			return nil
@@ -330,7 +365,7 @@ func (r *reader) readFile(p string) error {
 }
 
 // appendRow adds one parsed window to its unit (found by id and wave, or created).
-func (r *reader) appendRow(p string, fileIdx int, id, wave string, ord int64, fileOrder bool, vals []float64, label string, line int) {
+func (r *reader) appendRow(p string, fileIdx int, id, wave string, ord int64, fileOrder bool, vals []float64, label string, line int) error {
 	key := id + "\x00" + wave
 	cur := r.last
 	if cur == nil || cur.id != id || cur.wave != wave {
@@ -349,13 +384,22 @@ func (r *reader) appendRow(p string, fileIdx int, id, wave string, ord int64, fi
 	if fileOrder {
 		ord = int64(len(cur.order))
 	}
-	cur.x = append(cur.x, vals...)
+	at := r.raw.n
+	if err := r.raw.append(vals); err != nil {
+		return err
+	}
+	if n := len(cur.runs); n > 0 && cur.runs[n-1].off+int64(cur.runs[n-1].rows*len(vals)) == at {
+		cur.runs[n-1].rows++
+	} else {
+		cur.runs = append(cur.runs, run{off: at, rows: 1})
+	}
 	cur.order = append(cur.order, ord)
 	cur.line = append(cur.line, int32(min(line, math.MaxInt32)))
 	cur.file = append(cur.file, int16(fileIdx))
 	if r.hasLabels {
 		cur.labels = append(cur.labels, label)
 	}
+	return nil
 }
 
 // checkKind refuses a window whose order is of another kind (integer or time) than the first's.
@@ -642,7 +686,15 @@ func article(kind string) string {
 // minimum-window rule, and drops constant features; every step is counted in Quality.
 func (r *reader) finish() (*Table, error) {
 	d := len(r.features)
-	t := &Table{Features: r.features, Files: r.files, OrderKind: r.orderKind, HasLabels: r.hasLabels}
+	if err := r.raw.flush(); err != nil {
+		return nil, err
+	}
+	t := &Table{Features: r.features, Files: r.files, OrderKind: r.orderKind, HasLabels: r.hasLabels, store: &store{dir: r.raw.dir}, width: d}
+	t.cols = make([]int, d)
+	for j := range t.cols {
+		t.cols[j] = j
+	}
+	constant := newConstancy(d)
 	if r.opts.Order == "-" {
 		t.OrderKind = "file order"
 	}
@@ -651,8 +703,22 @@ func (r *reader) finish() (*Table, error) {
 	q.UnitsIn = len(r.units)
 	q.WindowsIn = r.rows
 	sortedUnits, merged := 0, 0
-	for _, ru := range r.units {
+	var x, clean []float64
+	for ui, ru := range r.units {
+		if ui%256 == 0 && r.ctx.Err() != nil {
+			t.Close()
+			return nil, r.ctx.Err()
+		}
 		n := len(ru.order)
+		x = x[:0]
+		for _, rn := range ru.runs {
+			part, err := r.raw.read(rn.off, int64(rn.rows*d), nil)
+			if err != nil {
+				t.Close()
+				return nil, err
+			}
+			x = append(x, part...)
+		}
 		u := &Unit{ID: ru.id, Wave: ru.wave, Files: ru.files}
 		if len(ru.files) > 1 {
 			merged++
@@ -674,6 +740,7 @@ func (r *reader) finish() (*Table, error) {
 				if fa != fb {
 					also = fmt.Sprintf("%s:%d", fa, ru.line[a])
 				}
+				t.Close()
 				return nil, &InputError{File: fb, Line: int(ru.line[b]), Field: r.opts.Order,
 					Msg: fmt.Sprintf("participant %s%s has this window twice (also %s); remove one of the rows", ru.id, waveSuffix(ru.wave), also), Err: ErrDuplicate}
 			}
@@ -681,12 +748,12 @@ func (r *reader) finish() (*Table, error) {
 		// Missing cells: drop the window, or impute the participant's median of the feature.
 		var med []float64
 		if r.opts.Missing == ImputeMedian {
-			med = columnMedians(ru.x, d)
+			med = columnMedians(x, d)
 		}
-		u.X = make([]float64, 0, len(ru.x))
+		clean = clean[:0]
 		reason := ""
 		for _, i := range idx {
-			row := ru.x[i*d : (i+1)*d]
+			row := x[i*d : (i+1)*d]
 			missing := 0
 			for _, v := range row {
 				if math.IsNaN(v) {
@@ -706,22 +773,22 @@ func (r *reader) finish() (*Table, error) {
 						u.Imputed++
 					}
 				}
-				start := len(u.X)
-				u.X = append(u.X, row...)
+				start := len(clean)
+				clean = append(clean, row...)
 				for j := range row {
-					if math.IsNaN(u.X[start+j]) {
-						u.X[start+j] = med[j]
+					if math.IsNaN(clean[start+j]) {
+						clean[start+j] = med[j]
 					}
 				}
 			} else {
-				u.X = append(u.X, row...)
+				clean = append(clean, row...)
 			}
 			u.Order = append(u.Order, ru.order[i])
 			if ru.labels != nil {
 				u.Labels = append(u.Labels, ru.labels[i])
 			}
 		}
-		w := len(u.X) / d
+		w := len(clean) / d
 		if reason == "" && w < r.opts.MinWindows {
 			reason = fmt.Sprintf("%d usable windows, fewer than the minimum %d (--min-windows)", w, r.opts.MinWindows)
 			if u.Dropped > 0 {
@@ -735,7 +802,17 @@ func (r *reader) finish() (*Table, error) {
 		}
 		q.WindowsDropped += u.Dropped
 		q.CellsImputed += u.Imputed
+		u.off, u.rows = t.store.n, w
+		if err := t.store.append(clean); err != nil {
+			t.Close()
+			return nil, err
+		}
+		constant.add(clean)
 		t.Units = append(t.Units, u)
+	}
+	if err := t.store.flush(); err != nil {
+		t.Close()
+		return nil, err
 	}
 	if sortedUnits > 0 {
 		q.Notes = append(q.Notes, fmt.Sprintf("windows of %d participants were not in order in the input and were sorted by %s", sortedUnits, r.opts.Order))
@@ -743,10 +820,94 @@ func (r *reader) finish() (*Table, error) {
 	if merged > 0 {
 		q.Notes = append(q.Notes, fmt.Sprintf("%d participants had windows in more than one file; their windows were joined", merged))
 	}
-	if err := t.dropConstantFeatures(); err != nil {
+	if err := t.dropConstantFeatures(constant); err != nil {
+		t.Close()
 		return nil, err
 	}
 	return t, nil
+}
+
+// Block returns unit u's usable windows × features, row-major, in window order; dst is reused
+// when large enough. The values come from the table's store, in memory or in its file.
+func (t *Table) Block(u int, dst []float64) ([]float64, error) {
+	un := t.Units[u]
+	x, err := t.store.read(un.off, int64(un.rows*t.width), dst)
+	if err != nil || len(t.cols) == t.width && identity(t.cols) {
+		return x, err
+	}
+	d := len(t.cols)
+	out := make([]float64, un.rows*d)
+	for i := 0; i < un.rows; i++ {
+		for a, j := range t.cols {
+			out[i*d+a] = x[i*t.width+j]
+		}
+	}
+	return out, nil
+}
+
+func identity(cols []int) bool {
+	for i, c := range cols {
+		if i != c {
+			return false
+		}
+	}
+	return true
+}
+
+// SelectFeatures keeps the named features, in that order; each must be present.
+func (t *Table) SelectFeatures(names []string) error {
+	cols := make([]int, len(names))
+	for a, name := range names {
+		i := slices.Index(t.Features, name)
+		if i < 0 {
+			return fmt.Errorf("cohort: feature %s is not in the table: %w", name, ErrMismatch)
+		}
+		cols[a] = t.cols[i]
+	}
+	t.cols, t.Features = cols, append([]string(nil), names...)
+	return nil
+}
+
+// Close removes the table's temporary file; the table cannot be read after it.
+func (t *Table) Close() error {
+	if t == nil || t.store == nil {
+		return nil
+	}
+	return t.store.close()
+}
+
+// Spilled reports whether the windows were moved to a temporary file.
+func (t *Table) Spilled() bool { return t.store != nil && t.store.spilled() }
+
+// constancy tracks which features take a single value over every kept window.
+type constancy struct {
+	first    []float64
+	constant []bool
+	have     bool
+}
+
+func newConstancy(d int) *constancy {
+	c := &constancy{first: make([]float64, d), constant: make([]bool, d)}
+	for j := range c.constant {
+		c.constant[j] = true
+	}
+	return c
+}
+
+func (c *constancy) add(x []float64) {
+	d := len(c.first)
+	for i := 0; i+d <= len(x); i += d {
+		if !c.have {
+			copy(c.first, x[i:i+d])
+			c.have = true
+			continue
+		}
+		for j := 0; j < d; j++ {
+			if c.constant[j] && x[i+j] != c.first[j] {
+				c.constant[j] = false
+			}
+		}
+	}
 }
 
 func waveSuffix(w string) string {
@@ -757,40 +918,19 @@ func waveSuffix(w string) string {
 }
 
 // dropConstantFeatures removes features that take a single value over every kept window.
-func (t *Table) dropConstantFeatures() error {
-	d := len(t.Features)
-	constant := make([]bool, d)
-	first := make([]float64, d)
-	have := false
-	for j := range constant {
-		constant[j] = true
-	}
-	for _, u := range t.Units {
-		for i := 0; i+d <= len(u.X); i += d {
-			if !have {
-				copy(first, u.X[i:i+d])
-				have = true
-				continue
-			}
-			for j := 0; j < d; j++ {
-				if constant[j] && u.X[i+j] != first[j] {
-					constant[j] = false
-				}
-			}
-		}
-	}
-	if !have {
+func (t *Table) dropConstantFeatures(c *constancy) error {
+	if !c.have {
 		return nil
 	}
 	var keep []int
-	for j, c := range constant {
-		if c {
-			t.Quality.DroppedFeatures = append(t.Quality.DroppedFeatures, Note{t.Features[j], fmt.Sprintf("constant (%g in every window): it cannot separate anything", first[j])})
+	for j, isConst := range c.constant {
+		if isConst {
+			t.Quality.DroppedFeatures = append(t.Quality.DroppedFeatures, Note{t.Features[j], fmt.Sprintf("constant (%g in every window): it cannot separate anything", c.first[j])})
 		} else {
 			keep = append(keep, j)
 		}
 	}
-	if len(keep) == d {
+	if len(keep) == len(t.Features) {
 		return nil
 	}
 	if len(keep) == 0 {
@@ -800,19 +940,7 @@ func (t *Table) dropConstantFeatures() error {
 	for a, j := range keep {
 		names[a] = t.Features[j]
 	}
-	nd := len(keep)
-	for _, u := range t.Units {
-		w := len(u.X) / d
-		x := make([]float64, w*nd)
-		for i := 0; i < w; i++ {
-			for a, j := range keep {
-				x[i*nd+a] = u.X[i*d+j]
-			}
-		}
-		u.X = x
-	}
-	t.Features = names
-	return nil
+	return t.SelectFeatures(names)
 }
 
 // columnMedians returns the median of each column of a row-major matrix, ignoring NaN (NaN when a

@@ -155,7 +155,7 @@ func TestReadPolicies(t *testing.T) {
 			}
 		}},
 		{"semicolon with decimal comma", []string{strings.ReplaceAll(strings.ReplaceAll(rowsOf(25, ";"), ".5", ",5"), "", "")}, ReadOptions{}, func(t *testing.T, tab *Table) {
-			if v := tab.Units[0].X[2]; v != 1.5 {
+			if v := block(t, tab, 0)[2]; v != 1.5 {
 				t.Errorf("second window f1 = %v, want 1.5", v)
 			}
 		}},
@@ -175,18 +175,18 @@ func TestReadPolicies(t *testing.T) {
 			}
 		}},
 		{"participant split across files", []string{rowsOf(25, ","), "participant,window,f1,f2\nA,100,1,2\n"}, ReadOptions{}, func(t *testing.T, tab *Table) {
-			if len(tab.Units[0].Files) != 2 || tab.Units[0].Windows(2) != 26 || !strings.Contains(strings.Join(tab.Quality.Notes, ";"), "more than one file") {
-				t.Errorf("files %v windows %d notes %v", tab.Units[0].Files, tab.Units[0].Windows(2), tab.Quality.Notes)
+			if len(tab.Units[0].Files) != 2 || tab.Units[0].Windows() != 26 || !strings.Contains(strings.Join(tab.Quality.Notes, ";"), "more than one file") {
+				t.Errorf("files %v windows %d notes %v", tab.Units[0].Files, tab.Units[0].Windows(), tab.Quality.Notes)
 			}
 		}},
 		{"missing cells dropped", []string{strings.Replace(strings.Replace(good, "A,1,1.5,3", "A,1,NA,3", 1), "A,2,2.5,1", "A,2,,1", 1)}, ReadOptions{}, func(t *testing.T, tab *Table) {
-			if tab.Units[0].Dropped != 2 || tab.Quality.WindowsDropped != 2 || tab.Units[0].Windows(2) != 23 {
-				t.Errorf("dropped %d/%d windows %d", tab.Units[0].Dropped, tab.Quality.WindowsDropped, tab.Units[0].Windows(2))
+			if tab.Units[0].Dropped != 2 || tab.Quality.WindowsDropped != 2 || tab.Units[0].Windows() != 23 {
+				t.Errorf("dropped %d/%d windows %d", tab.Units[0].Dropped, tab.Quality.WindowsDropped, tab.Units[0].Windows())
 			}
 		}},
 		{"missing cells imputed", []string{strings.Replace(good, "A,1,1.5,3", "A,1,NaN,3", 1)}, ReadOptions{Missing: ImputeMedian}, func(t *testing.T, tab *Table) {
-			if tab.Quality.CellsImputed != 1 || math.IsNaN(tab.Units[0].X[2]) || tab.Units[0].X[2] != 3.5 {
-				t.Errorf("imputed %d, value %v (median of A's f1 is 3.5)", tab.Quality.CellsImputed, tab.Units[0].X[2])
+			if tab.Quality.CellsImputed != 1 || math.IsNaN(block(t, tab, 0)[2]) || block(t, tab, 0)[2] != 3.5 {
+				t.Errorf("imputed %d, value %v (median of A's f1 is 3.5)", tab.Quality.CellsImputed, block(t, tab, 0)[2])
 			}
 		}},
 		{"too few windows and a constant feature", []string{good + "C,0,1,1\nC,1,2,1\n"}, ReadOptions{}, func(t *testing.T, tab *Table) {
@@ -219,7 +219,7 @@ func TestReadPolicies(t *testing.T) {
 			q := tab.Quality
 			kept := 0
 			for _, u := range tab.Units {
-				kept += u.Windows(len(tab.Features))
+				kept += u.Windows()
 			}
 			if kept+q.WindowsDropped+q.WindowsExcluded != q.WindowsIn || len(tab.Units)+len(q.Excluded) != q.UnitsIn {
 				t.Errorf("accounting: %d kept + %d dropped + %d excluded ≠ %d in; %d + %d units ≠ %d", kept, q.WindowsDropped, q.WindowsExcluded, q.WindowsIn, len(tab.Units), len(q.Excluded), q.UnitsIn)
@@ -314,12 +314,13 @@ func TestReadSameWhateverTheChunkSize(t *testing.T) {
 		}
 		for u := range tab.Units {
 			a, c := tab.Units[u], first.Units[u]
-			if a.ID != c.ID || len(a.X) != len(c.X) {
-				t.Fatalf("chunk %d: unit %d is %s with %d values, one chunk gives %s with %d", size, u, a.ID, len(a.X), c.ID, len(c.X))
+			ax, cx := block(t, tab, u), block(t, first, u)
+			if a.ID != c.ID || len(ax) != len(cx) {
+				t.Fatalf("chunk %d: unit %d is %s with %d values, one chunk gives %s with %d", size, u, a.ID, len(ax), c.ID, len(cx))
 			}
-			for i := range a.X {
-				if a.X[i] != c.X[i] || (i < len(a.Order) && a.Order[i] != c.Order[i]) {
-					t.Fatalf("chunk %d: unit %s value %d: %v, one chunk %v", size, a.ID, i, a.X[i], c.X[i])
+			for i := range ax {
+				if ax[i] != cx[i] || (i < len(a.Order) && a.Order[i] != c.Order[i]) {
+					t.Fatalf("chunk %d: unit %s value %d: %v, one chunk %v", size, a.ID, i, ax[i], cx[i])
 				}
 			}
 		}
@@ -337,5 +338,50 @@ func TestParseNumberFastPath(t *testing.T) {
 	}
 	if v, err := parseNumberBytes([]byte("1,25"), true); err != nil || v != 1.25 {
 		t.Errorf("decimal comma: %v %v", v, err)
+	}
+}
+
+func block(t testing.TB, tab *Table, u int) []float64 {
+	t.Helper()
+	x, err := tab.Block(u, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return x
+}
+
+// Past spillAfter values the windows go to a temporary file, which gives the same table and is
+// removed by Close.
+func TestSpillGivesTheSameTable(t *testing.T) {
+	dir := t.TempDir()
+	p := write(t, dir, "c.csv", []byte(rowsOf(400, ",")+"C,0,1,2\n"))
+	inMemory, err := Read(context.Background(), []string{p}, ReadOptions{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer func(old int64) { spillAfter = old }(spillAfter)
+	spillAfter = 50
+	tmp := t.TempDir()
+	spilled, err := Read(context.Background(), []string{p}, ReadOptions{TempDir: tmp})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !spilled.Spilled() || inMemory.Spilled() {
+		t.Fatalf("spilled %v, in memory %v", spilled.Spilled(), inMemory.Spilled())
+	}
+	for u := range inMemory.Units {
+		a, b := block(t, inMemory, u), block(t, spilled, u)
+		for i := range a {
+			if a[i] != b[i] {
+				t.Fatalf("unit %d value %d: %v in memory, %v spilled", u, i, a[i], b[i])
+			}
+		}
+	}
+	if entries, _ := os.ReadDir(tmp); len(entries) != 1 {
+		t.Errorf("%d temporary files while the table is open, want 1 (the raw file is gone)", len(entries))
+	}
+	spilled.Close()
+	if entries, _ := os.ReadDir(tmp); len(entries) != 0 {
+		t.Errorf("temporary files left after Close: %v", entries)
 	}
 }

@@ -34,13 +34,14 @@ const normSample = 200_000
 
 // fitted is every fit of one run, before it is described.
 type fitted struct {
-	t      *cohort.Table
-	fit    *normalize.Fit
-	states *profile.States
-	sigs   []profile.Signature
-	desc   []profile.Description // the states in the original units
-	labels *profile.LabelTable   // states × known labels, when labels are given
-	g      *cohort.Grouping
+	t       *cohort.Table
+	fit     *normalize.Fit
+	states  *profile.States
+	sigs    []profile.Signature
+	medians [][]float64           // each unit's median of each feature
+	desc    []profile.Description // the states in the original units
+	labels  *profile.LabelTable   // states × known labels, when labels are given
+	g       *cohort.Grouping
 }
 
 // analyze connects the stages: read → normalize → states and signatures → grouping → what sets
@@ -50,6 +51,7 @@ func analyze(ctx context.Context, o analysisOptions) (*reports.Result, error) {
 	if err != nil {
 		return nil, err
 	}
+	defer f.t.Close()
 	return describe(f, numbered("S", f.states.K), numbered("G", f.g.K))
 }
 
@@ -62,8 +64,9 @@ func numbered(prefix string, n int) []string {
 	return out
 }
 
-// fitAll reads the inputs and fits normalization, states and grouping.
-func fitAll(ctx context.Context, o analysisOptions) (*fitted, error) {
+// fitAll reads the inputs and fits normalization, states and grouping. The caller closes the
+// table of the result (it may hold a temporary file).
+func fitAll(ctx context.Context, o analysisOptions) (f *fitted, err error) {
 	step := func(s string) {
 		if o.Progress != nil {
 			o.Progress(s)
@@ -74,6 +77,11 @@ func fitAll(ctx context.Context, o analysisOptions) (*fitted, error) {
 	if err != nil {
 		return nil, err
 	}
+	defer func() {
+		if err != nil {
+			t.Close()
+		}
+	}()
 	if len(t.Units) < 3 {
 		return nil, fmt.Errorf("%s: %d participants are left to group (%d excluded, see their reasons with a lower --min-windows): %w; grouping needs at least 3",
 			o.Inputs[0], len(t.Units), len(t.Quality.Excluded), cohort.ErrTooFew)
@@ -87,19 +95,26 @@ func fitAll(ctx context.Context, o analysisOptions) (*fitted, error) {
 	if total := t.Quality.WindowsIn; o.Norm.SampleRate == 0 && total > normSample {
 		o.Norm.SampleRate = float64(normSample) / float64(total) // robust scales and PCA from a sample
 	}
-	fit, err := normalize.FitBlocks(t.Features, rawBlocks{t}, o.Norm)
+	raw := &rawBlocks{t: t}
+	fit, err := normalize.FitBlocks(t.Features, raw, o.Norm)
+	if err == nil {
+		err = raw.err
+	}
 	if err != nil {
 		return nil, err
 	}
 	step("fitting movement states")
-	sample := profile.Sample(normedBlocks{t, fit}, fit.OutDim(), o.Sample, t.Quality.WindowsIn-t.Quality.WindowsDropped-t.Quality.WindowsExcluded, o.Seed)
+	normed := &normedBlocks{rawBlocks{t: t}, fit}
+	sample := profile.Sample(normed, fit.OutDim(), o.Sample, t.Quality.WindowsIn-t.Quality.WindowsDropped-t.Quality.WindowsExcluded, o.Seed)
+	if normed.err != nil {
+		return nil, normed.err
+	}
 	states, err := profile.FitStates(ctx, sample, profile.Options{States: o.States, Seed: o.Seed, Workers: o.Workers})
 	if err != nil {
 		return nil, err
 	}
 	step("assigning windows")
-	f, err := assignWindows(ctx, t, fit, states)
-	if err != nil {
+	if f, err = assignWindows(ctx, t, fit, states); err != nil {
 		return nil, err
 	}
 	sigs := f.sigs
@@ -117,37 +132,60 @@ func fitAll(ctx context.Context, o analysisOptions) (*fitted, error) {
 }
 
 // rawBlocks gives each unit's windows as read; normedBlocks gives them normalized by a fit,
-// computed when asked for, so that no second copy of all windows is held.
-type rawBlocks struct{ t *cohort.Table }
+// computed when asked for, so that no second copy of all windows is held. A failed read of the
+// table's temporary file gives an empty block and is kept in err.
+type rawBlocks struct {
+	t   *cohort.Table
+	err error
+}
 
-func (b rawBlocks) Len() int              { return len(b.t.Units) }
-func (b rawBlocks) Block(u int) []float64 { return b.t.Units[u].X }
+func (b *rawBlocks) Len() int { return len(b.t.Units) }
+func (b *rawBlocks) Block(u int) []float64 {
+	x, err := b.t.Block(u, nil)
+	if err != nil && b.err == nil {
+		b.err = err
+	}
+	return x
+}
 
 type normedBlocks struct {
-	t   *cohort.Table
+	rawBlocks
 	fit *normalize.Fit
 }
 
-func (b normedBlocks) Len() int              { return len(b.t.Units) }
-func (b normedBlocks) Block(u int) []float64 { return b.fit.Apply(b.t.Units[u].X) }
+func (b *normedBlocks) Block(u int) []float64 { return b.fit.Apply(b.rawBlocks.Block(u)) }
 
 // assignWindows is the pass over every unit that gives each window its state and each unit its
 // signature, and accumulates the states' descriptions and the states × labels table.
 func assignWindows(ctx context.Context, t *cohort.Table, fit *normalize.Fit, states *profile.States) (*fitted, error) {
-	f := &fitted{t: t, fit: fit, states: states, sigs: make([]profile.Signature, len(t.Units))}
+	f := &fitted{t: t, fit: fit, states: states, sigs: make([]profile.Signature, len(t.Units)), medians: make([][]float64, len(t.Units))}
 	ds := profile.NewDescriber(len(t.Features), states.K)
 	var lc *profile.LabelCounter
 	if t.HasLabels {
 		lc = profile.NewLabelCounter(states.K)
 	}
+	d := len(t.Features)
+	var x, col []float64
 	for i, u := range t.Units {
 		if i%256 == 0 && ctx.Err() != nil {
 			return nil, ctx.Err()
 		}
-		labels := states.Assign(fit.Apply(u.X))
-		f.sigs[i] = profile.Signatures(labels, states.K)
-		if err := ds.Add(u.X, labels); err != nil {
+		var err error
+		if x, err = t.Block(i, x); err != nil {
 			return nil, err
+		}
+		labels := states.Assign(fit.Apply(x))
+		f.sigs[i] = profile.Signatures(labels, states.K)
+		if err := ds.Add(x, labels); err != nil {
+			return nil, err
+		}
+		f.medians[i] = make([]float64, d)
+		for j := 0; j < d; j++ {
+			col = col[:0]
+			for w := 0; w*d < len(x); w++ {
+				col = append(col, x[w*d+j])
+			}
+			f.medians[i][j] = cohort.Median(col)
 		}
 		if lc != nil {
 			lc.Add(labels, u.Labels)
@@ -185,12 +223,8 @@ func describe(f *fitted, stateNames, groupNames []string) (*reports.Result, erro
 	}
 	for j, name := range t.Features {
 		v := cohort.Variable{Name: "median " + name, Kind: "feature median"}
-		for _, u := range t.Units {
-			col := make([]float64, 0, len(u.X)/d)
-			for w := 0; w*d < len(u.X); w++ {
-				col = append(col, u.X[w*d+j])
-			}
-			v.Values = append(v.Values, cohort.Median(col))
+		for i := range t.Units {
+			v.Values = append(v.Values, f.medians[i][j])
 		}
 		vars = append(vars, v)
 		res.FeatureRange = append(res.FeatureRange, [3]float64{percentile(v.Values, 0.01), percentile(v.Values, 0.5), percentile(v.Values, 0.99)})

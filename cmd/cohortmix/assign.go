@@ -4,6 +4,7 @@ import (
 	"context"
 	"fmt"
 	"math"
+	"path/filepath"
 	"slices"
 	"strings"
 	"time"
@@ -25,6 +26,7 @@ type assignOptions struct {
 	Quiet   bool
 	Workers int
 	Key     string
+	Temp    string
 	Args    []string
 }
 
@@ -58,6 +60,7 @@ Exit codes: 0 success, 1 error in the input or the run, 2 wrong command line, 13
 	f.BoolVar(&opts.Force, "force", false, "replace existing output files")
 	f.BoolVar(&opts.Quiet, "quiet", false, "print only the final summary")
 	f.IntVar(&opts.Workers, "workers", 0, "worker goroutines (0: all cores)")
+	f.StringVar(&opts.Temp, "temp", "", "folder for temporary files of large inputs (default: the folder of --out)")
 	f.StringVar(&opts.Key, "pseudonymize", "", "replace participant ids by a keyed hash (use the key the model was written with)")
 	_ = cmd.MarkFlagRequired("model")
 	_ = cmd.MarkFlagRequired("out")
@@ -79,14 +82,18 @@ func assignRun(ctx context.Context, o *assignOptions) error {
 	if err != nil {
 		return err
 	}
+	if o.Temp == "" {
+		o.Temp = filepath.Dir(o.Out)
+	}
 	key, err := loadKey(o.Key)
 	if err != nil {
 		return err
 	}
-	t, extra, err := readForModel(ctx, o.Inputs, m)
+	t, extra, err := readForModel(ctx, o.Inputs, m, o.Temp)
 	if err != nil {
 		return err
 	}
+	defer t.Close()
 	fit, states := m.NormFit(), m.StateFit()
 	f, err := assignWindows(ctx, t, fit, states)
 	if err != nil {
@@ -114,7 +121,7 @@ func assignRun(ctx context.Context, o *assignOptions) error {
 	if key != nil {
 		reports.Pseudonymize(res, key)
 	}
-	medians := featureMedians(t)
+	medians := featureMedians(f)
 	res.Warnings = append(res.Warnings, cohort.CheckRanges(t.Features, m.FeatureMeds, medians)...)
 	res.Changes = assignChanges(m, res, o.Model)
 	for i := range res.Units {
@@ -148,8 +155,8 @@ func assignRun(ctx context.Context, o *assignOptions) error {
 
 // readForModel reads new data with the model's column roles and keeps the model's features, in
 // its order; a feature the model needs and the input lacks is an error that names it.
-func readForModel(ctx context.Context, inputs []string, m *reports.Model) (*cohort.Table, []string, error) {
-	ro := cohort.ReadOptions{ID: m.Read.ID, Order: m.Read.Order, Wave: m.Read.Wave, MinWindows: m.Read.MinWindows}
+func readForModel(ctx context.Context, inputs []string, m *reports.Model, temp string) (*cohort.Table, []string, error) {
+	ro := cohort.ReadOptions{ID: m.Read.ID, Order: m.Read.Order, Wave: m.Read.Wave, MinWindows: m.Read.MinWindows, TempDir: temp}
 	if m.Read.Missing == cohort.ImputeMedian.String() {
 		ro.Missing = cohort.ImputeMedian
 	}
@@ -167,6 +174,7 @@ func readForModel(ctx context.Context, inputs []string, m *reports.Model) (*coho
 					why = "is " + n.Reason
 				}
 			}
+			t.Close()
 			return nil, nil, fmt.Errorf("%s: feature %s, which the model needs, %s; add the column (the model was fitted on: %s): %w",
 				inputs[0], name, why, strings.Join(m.Features, ", "), cohort.ErrMismatch)
 		}
@@ -177,31 +185,19 @@ func readForModel(ctx context.Context, inputs []string, m *reports.Model) (*coho
 			extra = append(extra, name)
 		}
 	}
-	d := len(t.Features)
-	for _, u := range t.Units {
-		n := len(u.X) / d
-		x := make([]float64, n*len(idx))
-		for i := 0; i < n; i++ {
-			for j, c := range idx {
-				x[i*len(idx)+j] = u.X[i*d+c]
-			}
-		}
-		u.X = x
+	if err := t.SelectFeatures(m.Features); err != nil {
+		t.Close()
+		return nil, nil, err
 	}
-	t.Features = m.Features
 	return t, extra, nil
 }
 
-func featureMedians(t *cohort.Table) [][]float64 {
-	d := len(t.Features)
-	out := make([][]float64, d)
-	for _, u := range t.Units {
-		for j := 0; j < d; j++ {
-			col := make([]float64, 0, len(u.X)/d)
-			for w := 0; w*d < len(u.X); w++ {
-				col = append(col, u.X[w*d+j])
-			}
-			out[j] = append(out[j], cohort.Median(col))
+// featureMedians regroups the units' feature medians by feature.
+func featureMedians(f *fitted) [][]float64 {
+	out := make([][]float64, len(f.t.Features))
+	for _, m := range f.medians {
+		for j, v := range m {
+			out[j] = append(out[j], v)
 		}
 	}
 	return out

@@ -2,6 +2,7 @@ package main
 
 import (
 	"fmt"
+	"path/filepath"
 	"strconv"
 	"strings"
 	"time"
@@ -9,6 +10,7 @@ import (
 	"github.com/cohortmix/cohortmix/cohort"
 	"github.com/cohortmix/cohortmix/normalize"
 	"github.com/cohortmix/cohortmix/reports"
+	"github.com/schollz/progressbar/v3"
 	"github.com/spf13/cobra"
 	"github.com/spf13/pflag"
 )
@@ -52,6 +54,7 @@ type mainFlags struct {
 	Workers                int
 	Members, Model         string
 	Pseudonymize           string
+	Temp                   string
 	Force, Quiet           bool
 }
 
@@ -80,6 +83,7 @@ func (m *mainFlags) register(cmd *cobra.Command) {
 	f.IntVar(&m.Workers, "workers", 0, "worker goroutines (0: all cores); never changes the result")
 	f.StringVar(&m.Members, "members", "", "also write a participant,group CSV here")
 	f.StringVar(&m.Model, "model", "", "also write the model file (JSON) here, for later waves")
+	f.StringVar(&m.Temp, "temp", "", "folder for temporary files of large inputs (default: the folder of --out)")
 	f.StringVar(&m.Pseudonymize, "pseudonymize", "", "replace participant ids in every output by a keyed hash, with the key in this file")
 	f.BoolVar(&m.Force, "force", false, "replace existing output files")
 	f.BoolVar(&m.Quiet, "quiet", false, "print only the final summary")
@@ -88,7 +92,7 @@ func (m *mainFlags) register(cmd *cobra.Command) {
 // options turns the flags into the analysis settings.
 func (m *mainFlags) options(inputs []string) (analysisOptions, error) {
 	o := analysisOptions{Inputs: inputs, Seed: m.Seed, Workers: m.Workers, Bootstrap: m.Bootstrap, Sample: m.Sample}
-	o.Read = cohort.ReadOptions{ID: m.ID, Order: m.Order, Wave: m.Wave, Label: m.Label, Features: m.Features, MinWindows: m.MinWindows}
+	o.Read = cohort.ReadOptions{ID: m.ID, Order: m.Order, Wave: m.Wave, Label: m.Label, Features: m.Features, MinWindows: m.MinWindows, TempDir: m.Temp}
 	switch m.Missing {
 	case "drop":
 		o.Read.Missing = cohort.DropWindow
@@ -170,8 +174,36 @@ func progress(env *Env, quiet bool, now func() time.Time) func(string) {
 	}
 }
 
+// readBar draws a bar per input file while it is parsed, with bytes and bytes per second
+// (github.com/schollz/progressbar), on a terminal only.
+func readBar(env *Env, quiet bool) func(file string, done, total int64) {
+	if quiet || !env.IO.ErrIsTTY {
+		return nil
+	}
+	var bar *progressbar.ProgressBar
+	current := ""
+	return func(file string, done, total int64) {
+		if file != current {
+			if bar != nil {
+				bar.Finish()
+			}
+			current = file
+			if total <= 0 {
+				total = -1 // unknown size: a spinner
+			}
+			bar = progressbar.NewOptions64(total, progressbar.OptionSetWriter(env.IO.Err), progressbar.OptionShowBytes(true),
+				progressbar.OptionSetDescription("  reading "+filepath.Base(file)), progressbar.OptionThrottle(100*time.Millisecond),
+				progressbar.OptionClearOnFinish(), progressbar.OptionSetWidth(30))
+		}
+		bar.Set64(done)
+		if total > 0 && done >= total {
+			bar.Finish()
+		}
+	}
+}
+
 // runOnly are flags that belong to one run, not to the fit: refresh does not carry them over.
-var runOnly = map[string]bool{"members": true, "model": true, "force": true, "quiet": true, "workers": true, "out": true, "pseudonymize": true}
+var runOnly = map[string]bool{"members": true, "model": true, "force": true, "quiet": true, "workers": true, "out": true, "pseudonymize": true, "temp": true}
 
 // asOptions gives every fit flag's value by name, as the model file stores them.
 func (m *mainFlags) asOptions() map[string]string {

@@ -3,6 +3,7 @@ package main
 import (
 	"context"
 	"fmt"
+	"path/filepath"
 	"sort"
 	"strings"
 	"time"
@@ -76,11 +77,15 @@ func groupRun(ctx context.Context, o *groupOptions) error {
 	if err := o.outputs(); err != nil {
 		return err
 	}
+	if o.Flags.Temp == "" {
+		o.Flags.Temp = filepath.Dir(o.Out) // temporary files live beside the output
+	}
 	ao, err := o.Flags.options(o.Inputs)
 	if err != nil {
 		return err
 	}
 	ao.Progress = progress(&Env{IO: o.IO}, o.Flags.Quiet, o.Now)
+	ao.Read.Progress = readBar(&Env{IO: o.IO}, o.Flags.Quiet)
 	key, err := loadKey(o.Flags.Pseudonymize)
 	if err != nil {
 		return err

@@ -61,7 +61,9 @@ func TestStagesMatchReference(t *testing.T) {
 	}
 	raw := make([][]float64, len(tab.Units))
 	for i, u := range tab.Units {
-		raw[i] = u.X
+		if raw[i], err = tab.Block(i, nil); err != nil {
+			t.Fatal(err)
+		}
 		if u.ID != g.Units[i] {
 			t.Fatalf("unit %d is %s, reference %s", i, u.ID, g.Units[i])
 		}
@@ -160,10 +162,11 @@ func TestStagesMatchReference(t *testing.T) {
 		d := len(tab.Features)
 		for j, name := range tab.Features {
 			v := cohort.Variable{Name: "median " + name, Kind: "feature median"}
-			for _, u := range tab.Units {
-				col := make([]float64, 0, len(u.X)/d)
-				for w := 0; w*d < len(u.X); w++ {
-					col = append(col, u.X[w*d+j])
+			for i := range tab.Units {
+				x := raw[i]
+				col := make([]float64, 0, len(x)/d)
+				for w := 0; w*d < len(x); w++ {
+					col = append(col, x[w*d+j])
 				}
 				v.Values = append(v.Values, cohort.Median(col))
 			}
