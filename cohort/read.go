@@ -1,6 +1,8 @@
 package cohort
 
 import (
+	"github.com/cohortmix/cohortmix/cluster/groupstat"
+
 	"bufio"
 	"bytes"
 	"compress/gzip"
@@ -710,14 +712,17 @@ func (r *reader) finish() (*Table, error) {
 			return nil, r.ctx.Err()
 		}
 		n := len(ru.order)
-		x = x[:0]
+		if cap(x) < n*d {
+			x = make([]float64, n*d)
+		}
+		x = x[:n*d]
+		at := 0
 		for _, rn := range ru.runs {
-			part, err := r.raw.read(rn.off, int64(rn.rows*d), nil)
-			if err != nil {
+			if _, err := r.raw.read(rn.off, int64(rn.rows*d), x[at:at+rn.rows*d]); err != nil {
 				t.Close()
 				return nil, err
 			}
-			x = append(x, part...)
+			at += rn.rows * d
 		}
 		u := &Unit{ID: ru.id, Wave: ru.wave, Files: ru.files}
 		if len(ru.files) > 1 {
@@ -962,14 +967,4 @@ func columnMedians(x []float64, d int) []float64 {
 }
 
 // Median sorts xs in place and returns its median (NaN when empty).
-func Median(xs []float64) float64 {
-	if len(xs) == 0 {
-		return math.NaN()
-	}
-	sort.Float64s(xs)
-	m := len(xs) / 2
-	if len(xs)%2 == 1 {
-		return xs[m]
-	}
-	return (xs[m-1] + xs[m]) / 2
-}
+func Median(xs []float64) float64 { return groupstat.Median(xs) }

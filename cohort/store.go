@@ -8,16 +8,19 @@ import (
 	"os"
 )
 
+// segSize is the number of values in one in-memory segment.
+const segSize = 1 << 20
+
 // spillAfter is the number of values a store keeps in memory before it moves them to a
-// temporary file (256 MiB of float64); tests set it small.
-var spillAfter int64 = 32 << 20
+// temporary file (64 MiB of float64); tests set it small.
+var spillAfter int64 = 8 << 20
 
 // store holds feature values out of the heap's way: in memory while they are few, then in a
 // temporary file (float64, little endian), read back one participant at a time. The file lives in
 // the folder the caller names and is removed by close.
 type store struct {
 	dir  string
-	mem  []float64
+	mem  [][]float64 // segments of segSize values: growing never copies what is held
 	file *os.File
 	w    *bufio.Writer
 	n    int64 // values written
@@ -26,8 +29,16 @@ type store struct {
 
 func (s *store) append(vals []float64) error {
 	if s.file == nil && s.n+int64(len(vals)) <= spillAfter {
-		s.mem = append(s.mem, vals...)
-		s.n += int64(len(vals))
+		for len(vals) > 0 {
+			if len(s.mem) == 0 || len(s.mem[len(s.mem)-1]) == segSize {
+				s.mem = append(s.mem, make([]float64, 0, segSize))
+			}
+			last := &s.mem[len(s.mem)-1]
+			k := min(len(vals), segSize-len(*last))
+			*last = append(*last, vals[:k]...)
+			vals = vals[k:]
+			s.n += int64(k)
+		}
 		return nil
 	}
 	if s.file == nil {
@@ -36,8 +47,10 @@ func (s *store) append(vals []float64) error {
 			return fmt.Errorf("cohort: cannot create a temporary file for the windows in %s: %w; pass --temp with a writable folder", s.dir, err)
 		}
 		s.file, s.w = f, bufio.NewWriterSize(f, 1<<20)
-		if err := s.writeValues(s.mem); err != nil {
-			return err
+		for _, seg := range s.mem {
+			if err := s.writeValues(seg); err != nil {
+				return err
+			}
 		}
 		s.mem = nil
 	}
@@ -80,7 +93,10 @@ func (s *store) read(off, n int64, dst []float64) ([]float64, error) {
 	}
 	dst = dst[:n]
 	if s.file == nil {
-		copy(dst, s.mem[off:off+n])
+		for done := int64(0); done < n; {
+			seg, at := (off+done)/segSize, (off+done)%segSize
+			done += int64(copy(dst[done:], s.mem[seg][at:]))
+		}
 		return dst, nil
 	}
 	b := make([]byte, 8*n)

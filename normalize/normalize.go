@@ -27,6 +27,7 @@ import (
 	"sort"
 
 	"github.com/cohortmix/cohortmix/cluster"
+	"github.com/cohortmix/cohortmix/cluster/groupstat"
 	"gonum.org/v1/gonum/mat"
 )
 
@@ -526,14 +527,4 @@ func medianMAD(rows []float64, d int) ([]float64, []float64) {
 }
 
 // median sorts xs in place; NaN when empty.
-func median(xs []float64) float64 {
-	if len(xs) == 0 {
-		return math.NaN()
-	}
-	sort.Float64s(xs)
-	m := len(xs) / 2
-	if len(xs)%2 == 1 {
-		return xs[m]
-	}
-	return (xs[m-1] + xs[m]) / 2
-}
+func median(xs []float64) float64 { return groupstat.Median(xs) }

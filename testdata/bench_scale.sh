@@ -11,7 +11,7 @@ go build -o "$dir/cohortmix" ./cmd/cohortmix
 for n in 100 1000; do
   csv="$dir/cohort-$n.csv"
   [ -s "$csv" ] || "$dir/cohortmix" synth --out "$csv" --participants "$n" --windows 10080 --features 24 --seed 5 --force >/dev/null
-  size=$(stat -c %s "$csv")
+  size=$(stat -L -c %s "$csv")
   for step in check group; do
     args=("$step" "$csv" --quiet)
     [ "$step" = group ] && args+=(--out "$dir/r-$n.xlsx" --force --states 2-10 --groups 2-8)

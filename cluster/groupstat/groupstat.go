@@ -148,3 +148,16 @@ func CliffsDelta(x, y []float64) (float64, error) {
 	}
 	return float64(more-less) / float64(len(x)*len(y)), nil
 }
+
+// Median sorts xs in place and returns its median (NaN when empty).
+func Median(xs []float64) float64 {
+	if len(xs) == 0 {
+		return math.NaN()
+	}
+	sort.Float64s(xs)
+	m := len(xs) / 2
+	if len(xs)%2 == 1 {
+		return xs[m]
+	}
+	return (xs[m-1] + xs[m]) / 2
+}

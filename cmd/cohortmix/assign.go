@@ -235,14 +235,7 @@ func assignChanges(m *reports.Model, res *reports.Result, model string) *reports
 		now := res.GroupNames[u.Group]
 		row := reports.ChangeRow{ID: u.ID, Wave: u.Wave, Now: now, DistNow: u.Distance, DistPrevious: math.NaN(), Atypical: u.Distance > m.Grouping.Atypical}
 		row.Previous = lookupPrevious(byKey, byID, u.ID, u.Wave)
-		switch {
-		case row.Previous == "":
-			row.Moved = "new participant"
-		case row.Previous == now:
-			row.Moved = "no"
-		default:
-			row.Moved = "yes"
-		}
+		row.Moved = moved(row.Previous, now)
 		if p, ok := index[row.Previous]; ok {
 			row.DistPrevious = cohort.SpaceDistance(method, cohort.Embed(method, u.Share), m.Grouping.Centroids[p])
 			c.Returning++
@@ -250,10 +243,36 @@ func assignChanges(m *reports.Model, res *reports.Result, model string) *reports
 		}
 		c.Rows = append(c.Rows, row)
 	}
-	c.ARI = math.NaN()
-	if len(a) >= 2 {
-		c.ARI, _ = cluster.AdjustedRand(a, b)
+	c.ARI = agreement(a, b)
+	before, after := groupSizes(m, res)
+	for i, n := range m.Grouping.Names {
+		c.Groups = append(c.Groups, reports.GroupChange{Name: n, Status: "centre frozen (assign does not refit)", Before: before[n], After: after[i], Drift: 0})
 	}
+	return c
+}
+
+// moved says whether a participant changed group ("new participant" when it had none).
+func moved(previous, now string) string {
+	switch previous {
+	case "":
+		return "new participant"
+	case now:
+		return "no"
+	}
+	return "yes"
+}
+
+// agreement is the ARI of returning participants' old and new groups (NaN for fewer than 2).
+func agreement(old, now []int) float64 {
+	if len(old) < 2 {
+		return math.NaN()
+	}
+	ari, _ := cluster.AdjustedRand(old, now)
+	return ari
+}
+
+// groupSizes counts the model's members by group name and the new run's units by group.
+func groupSizes(m *reports.Model, res *reports.Result) (map[string]int, map[int]int) {
 	before := map[string]int{}
 	for _, mem := range m.Members {
 		before[mem.Group]++
@@ -262,8 +281,5 @@ func assignChanges(m *reports.Model, res *reports.Result, model string) *reports
 	for _, u := range res.Units {
 		after[u.Group]++
 	}
-	for i, n := range m.Grouping.Names {
-		c.Groups = append(c.Groups, reports.GroupChange{Name: n, Status: "centre frozen (assign does not refit)", Before: before[n], After: after[i], Drift: 0})
-	}
-	return c
+	return before, after
 }

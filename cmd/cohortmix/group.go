@@ -8,6 +8,7 @@ import (
 	"strings"
 	"time"
 
+	"github.com/cohortmix/cohortmix/cohort"
 	"github.com/cohortmix/cohortmix/reports"
 	"github.com/spf13/cobra"
 	"github.com/spf13/pflag"
@@ -103,6 +104,15 @@ func groupRun(ctx context.Context, o *groupOptions) error {
 	res.Tool, res.Version, res.Created, res.Synthetic = "cohortmix", version, o.Now(), o.Synthetic
 	res.Command = strings.Join(o.Args, " ")
 	res.Settings = o.Flags.settings()
+	if err := o.write(res, ao.Read); err != nil {
+		return err
+	}
+	printSummary(o.IO, res, o.Out)
+	return nil
+}
+
+// write writes the workbook and, when asked for, the members CSV and the model file.
+func (o *groupOptions) write(res *reports.Result, read cohort.ReadOptions) error {
 	if err := reports.WriteWorkbook(o.Out, res, o.Flags.Force); err != nil {
 		return err
 	}
@@ -112,13 +122,12 @@ func groupRun(ctx context.Context, o *groupOptions) error {
 		}
 	}
 	if o.Flags.Model != "" {
-		m := reports.NewModel(res, ao.Read, res.FeatureRange)
+		m := reports.NewModel(res, read, res.FeatureRange)
 		m.Options = o.Flags.asOptions()
 		if err := reports.WriteModel(o.Flags.Model, m, o.Flags.Force); err != nil {
 			return err
 		}
 	}
-	printSummary(o.IO, res, o.Out)
 	return nil
 }
 

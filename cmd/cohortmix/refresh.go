@@ -8,7 +8,6 @@ import (
 	"strings"
 	"time"
 
-	"github.com/cohortmix/cohortmix/cluster"
 	"github.com/cohortmix/cohortmix/cohort"
 	"github.com/cohortmix/cohortmix/reports"
 	"github.com/spf13/cobra"
@@ -125,20 +124,8 @@ func refreshRun(ctx context.Context, o *refreshOptions) error {
 	if err := ctx.Err(); err != nil {
 		return err
 	}
-	if err := reports.WriteWorkbook(o.Out, res, o.Flags.Force); err != nil {
+	if err := o.write(res, ao.Read); err != nil {
 		return err
-	}
-	if o.Flags.Members != "" {
-		if err := reports.WriteMembers(o.Flags.Members, res, o.Flags.Force); err != nil {
-			return err
-		}
-	}
-	if o.Flags.Model != "" {
-		m := reports.NewModel(res, ao.Read, res.FeatureRange)
-		m.Options = o.Flags.asOptions()
-		if err := reports.WriteModel(o.Flags.Model, m, o.Flags.Force); err != nil {
-			return err
-		}
 	}
 	printSummary(o.IO, res, o.Out)
 	for _, n := range res.Changes.Notes {
@@ -186,27 +173,11 @@ func refreshChanges(prev *reports.Model, res *reports.Result, m *cohort.Matching
 			c.Returning++
 			a, b = append(a, p), append(b, u.Group)
 		}
-		switch {
-		case row.Previous == "":
-			row.Moved = "new participant"
-		case row.Previous == row.Now:
-			row.Moved = "no"
-		default:
-			row.Moved = "yes"
-		}
+		row.Moved = moved(row.Previous, row.Now)
 		c.Rows = append(c.Rows, row)
 	}
-	if len(a) >= 2 {
-		c.ARI, _ = cluster.AdjustedRand(a, b)
-	}
-	before := map[string]int{}
-	for _, mem := range prev.Members {
-		before[mem.Group]++
-	}
-	after := map[int]int{}
-	for _, u := range res.Units {
-		after[u.Group]++
-	}
+	c.ARI = agreement(a, b)
+	before, after := groupSizes(prev, res)
 	var news, gone, merged []string
 	for i, name := range res.GroupNames {
 		gc := reports.GroupChange{Name: name, Status: m.NewStatus[i], After: after[i], Drift: m.GroupDrift[i]}
