@@ -17,6 +17,7 @@ import (
 	"math"
 	"os"
 	"path"
+	"path/filepath"
 	"slices"
 	"sort"
 	"strconv"
@@ -145,12 +146,65 @@ func Read(ctx context.Context, paths []string, opts ReadOptions) (*Table, error)
 	}
 	r := &reader{ctx: ctx, opts: opts, byKey: map[string]*rawUnit{}, raw: &store{dir: dir}}
 	defer r.raw.close()
+	paths, err := expandPaths(paths)
+	if err != nil {
+		return nil, err
+	}
 	for _, p := range paths {
 		if err := r.readFile(p); err != nil {
 			return nil, err
 		}
 	}
 	return r.finish()
+}
+
+// tableExt are the file names a folder given as input is read for.
+var tableExt = []string{".csv", ".tsv", ".txt", ".csv.gz", ".tsv.gz", ".txt.gz"}
+
+// expandPaths replaces a folder by the tables in it (sorted by name, not recursive) and a glob
+// pattern that names no file by the files it matches; "-" (standard input) stays.
+func expandPaths(paths []string) ([]string, error) {
+	var out []string
+	for _, p := range paths {
+		st, err := os.Stat(p)
+		switch {
+		case p == "-":
+			out = append(out, p)
+		case err == nil && st.IsDir():
+			entries, err := os.ReadDir(p)
+			if err != nil {
+				return nil, &InputError{File: p, Msg: "cannot list the folder: " + err.Error(), Err: ErrOpen}
+			}
+			n := len(out)
+			for _, e := range entries {
+				if e.Type().IsRegular() && hasTableExt(e.Name()) {
+					out = append(out, filepath.Join(p, e.Name()))
+				}
+			}
+			if len(out) == n {
+				return nil, &InputError{File: p, Msg: "is a folder with no table files (" + strings.Join(tableExt, ", ") + "); name the files, or put them in it", Err: ErrOpen}
+			}
+		case err != nil && strings.ContainsAny(p, "*?["):
+			matches, gerr := filepath.Glob(p)
+			if gerr != nil || len(matches) == 0 {
+				return nil, &InputError{File: p, Msg: "no file matches this pattern; check the path", Err: ErrOpen}
+			}
+			out = append(out, matches...)
+		default:
+			out = append(out, p)
+		}
+	}
+	return out, nil
+}
+
+func hasTableExt(name string) bool {
+	name = strings.ToLower(name)
+	for _, e := range tableExt {
+		if strings.HasSuffix(name, e) {
+			return true
+		}
+	}
+	return false
 }
 
 type rawUnit struct {

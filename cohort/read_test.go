@@ -130,7 +130,8 @@ func TestReadMissingPaths(t *testing.T) {
 	dir := t.TempDir()
 	for _, c := range []struct{ path, want string }{
 		{filepath.Join(dir, "nope.csv"), "cannot open: no such file or directory; check the path"},
-		{dir, "is a directory; name the table files inside it"},
+		{dir, "is a folder with no table files (.csv, .tsv, .txt, .csv.gz, .tsv.gz, .txt.gz); name the files, or put them in it"},
+		{filepath.Join(dir, "*.csv"), "no file matches this pattern; check the path"},
 	} {
 		_, err := Read(context.Background(), []string{c.path}, ReadOptions{})
 		if err == nil || err.Error() != c.path+": "+c.want || !errors.Is(err, ErrOpen) {
@@ -383,5 +384,29 @@ func TestSpillGivesTheSameTable(t *testing.T) {
 	spilled.Close()
 	if entries, _ := os.ReadDir(tmp); len(entries) != 0 {
 		t.Errorf("temporary files left after Close: %v", entries)
+	}
+}
+
+// A folder of per-participant files, or a glob of them, reads like the files named one by one.
+func TestReadFolderAndGlob(t *testing.T) {
+	dir := t.TempDir()
+	for i, p := range []string{"A", "B", "C"} {
+		var b strings.Builder
+		b.WriteString("participant,window,f1\n")
+		for w := 0; w < 25; w++ {
+			b.WriteString(p + "," + itoa(w) + "," + itoa((w*(i+2))%7) + "\n")
+		}
+		write(t, dir, "p"+p+".csv", []byte(b.String()))
+	}
+	write(t, dir, "notes.md", []byte("not a table"))
+	for _, in := range [][]string{{dir}, {filepath.Join(dir, "p*.csv")}} {
+		tab, err := Read(context.Background(), in, ReadOptions{})
+		if err != nil {
+			t.Fatal(err)
+		}
+		if len(tab.Units) != 3 || len(tab.Files) != 3 || tab.Units[2].ID != "C" {
+			t.Errorf("%v: %d units from %d files", in, len(tab.Units), len(tab.Files))
+		}
+		tab.Close()
 	}
 }
