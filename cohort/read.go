@@ -1,8 +1,6 @@
 package cohort
 
 import (
-	"github.com/cohortmix/cohortmix/cluster/groupstat"
-
 	"bufio"
 	"bytes"
 	"compress/gzip"
@@ -24,6 +22,8 @@ import (
 	"strings"
 	"time"
 	"unicode/utf8"
+
+	"github.com/cohortmix/cohortmix/cluster/groupstat"
 )
 
 // Missing chooses what happens to a window with an empty, NA or NaN feature cell.

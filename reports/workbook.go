@@ -103,9 +103,14 @@ func summarySheet(f *excelize.File, st *styles, r *Result) error {
 	}
 	t.blank()
 	q := r.Quality
+	done := fmt.Sprintf("Windows were standardized within each participant (%s, on %s) and across the cohort (%s)%s; %d movement states were learned by k-means from %d sampled windows; participants were grouped on their state mixtures by %s into %d groups.",
+		r.Norm.Within, touchedText(r), r.Norm.ScaleKind, pcaText(r), r.States.K, r.States.Sampled, r.Grouping.Method, r.Grouping.K)
+	if r.Changes != nil && r.Changes.Mode == "assign" {
+		done = fmt.Sprintf("New data were placed with the frozen model %s, without refitting: each participant's windows were standardized with its rules, given the nearest of its %d movement states, and the participant was given the nearest of its %d group centres (%s). See %s.",
+			r.Changes.Model, r.States.K, r.Grouping.K, r.Grouping.Method, SheetChanges)
+	}
 	rows := [][2]string{
-		{"What was done", fmt.Sprintf("Windows were standardized within each participant (%s, on %s) and across the cohort (%s)%s; %d movement states were learned by k-means from %d sampled windows; participants were grouped on their state mixtures by %s into %d groups.",
-			r.Norm.Within, touchedText(r), r.Norm.ScaleKind, pcaText(r), r.States.K, r.States.Sampled, r.Grouping.Method, r.Grouping.K)},
+		{"What was done", done},
 		{"Number of states", fmt.Sprintf("%d (%s)", r.States.K, r.States.Rule)},
 		{"Number of groups", fmt.Sprintf("%d (%s)", r.Grouping.K, choiceText(r))},
 		{"Participants", fmt.Sprintf("%d in the input: %d grouped, %d excluded (see %s)", q.UnitsIn, len(r.Units), len(q.Excluded), SheetQuality)},
