@@ -8,6 +8,7 @@ import (
 	"math"
 	"os"
 	"path/filepath"
+	"strconv"
 	"strings"
 	"testing"
 )
@@ -41,16 +42,7 @@ func rowsOf(n int, sep string) string {
 	return b.String()
 }
 
-func itoa(i int) string {
-	if i == 0 {
-		return "0"
-	}
-	s := ""
-	for ; i > 0; i /= 10 {
-		s = string(rune('0'+i%10)) + s
-	}
-	return s
-}
+func itoa(i int) string { return strconv.Itoa(i) }
 
 // Each bad input ends in the exact one-line message users see.
 func TestReadErrors(t *testing.T) {

@@ -9,6 +9,7 @@ import (
 	"math"
 	"os"
 	"path/filepath"
+	"strconv"
 	"strings"
 	"testing"
 	"time"
@@ -182,16 +183,7 @@ func TestLargeCohortIsStreamed(t *testing.T) {
 	}
 }
 
-func digits(i int) string {
-	if i == 0 {
-		return "0"
-	}
-	s := ""
-	for ; i > 0; i /= 10 {
-		s = string(rune('0'+i%10)) + s
-	}
-	return s
-}
+func digits(i int) string { return strconv.Itoa(i) }
 
 func TestWriteAtomicKeepsExistingOutput(t *testing.T) {
 	dir := t.TempDir()

@@ -78,16 +78,7 @@ func groupRun(ctx context.Context, o *groupOptions) error {
 	if err := o.outputs(); err != nil {
 		return err
 	}
-	if o.Flags.Temp == "" {
-		o.Flags.Temp = filepath.Dir(o.Out) // temporary files live beside the output
-	}
-	ao, err := o.Flags.options(o.Inputs)
-	if err != nil {
-		return err
-	}
-	ao.Progress = progress(&Env{IO: o.IO}, o.Flags.Quiet, o.Now)
-	ao.Read.Progress = readBar(&Env{IO: o.IO}, o.Flags.Quiet)
-	key, err := loadKey(o.Flags.Pseudonymize)
+	ao, key, err := o.prepare()
 	if err != nil {
 		return err
 	}
@@ -109,6 +100,22 @@ func groupRun(ctx context.Context, o *groupOptions) error {
 	}
 	printSummary(o.IO, res, o.Out)
 	return nil
+}
+
+// prepare turns the flags into the analysis settings, with progress on a terminal, temporary
+// files beside the output unless --temp says otherwise, and the pseudonymization key if named.
+func (o *groupOptions) prepare() (analysisOptions, []byte, error) {
+	if o.Flags.Temp == "" {
+		o.Flags.Temp = filepath.Dir(o.Out)
+	}
+	ao, err := o.Flags.options(o.Inputs)
+	if err != nil {
+		return ao, nil, err
+	}
+	ao.Progress = progress(&Env{IO: o.IO}, o.Flags.Quiet, o.Now)
+	ao.Read.Progress = readBar(&Env{IO: o.IO}, o.Flags.Quiet)
+	key, err := loadKey(o.Flags.Pseudonymize)
+	return ao, key, err
 }
 
 // write writes the workbook and, when asked for, the members CSV and the model file.

@@ -4,7 +4,6 @@ import (
 	"context"
 	"fmt"
 	"math"
-	"path/filepath"
 	"strings"
 	"time"
 
@@ -62,16 +61,7 @@ func refreshRun(ctx context.Context, o *refreshOptions) error {
 	if err := o.Flags.applyOptions(prev.Options, o.changed); err != nil {
 		return fmt.Errorf("%s: %w", o.Previous, err)
 	}
-	if o.Flags.Temp == "" {
-		o.Flags.Temp = filepath.Dir(o.Out)
-	}
-	ao, err := o.Flags.options(o.Inputs)
-	if err != nil {
-		return err
-	}
-	ao.Progress = progress(&Env{IO: o.IO}, o.Flags.Quiet, o.Now)
-	ao.Read.Progress = readBar(&Env{IO: o.IO}, o.Flags.Quiet)
-	key, err := loadKey(o.Flags.Pseudonymize)
+	ao, key, err := o.prepare()
 	if err != nil {
 		return err
 	}
