@@ -159,7 +159,7 @@ func Read(ctx context.Context, paths []string, opts ReadOptions) (*Table, error)
 }
 
 // tableExt are the file names a folder given as input is read for.
-var tableExt = []string{".csv", ".tsv", ".txt", ".csv.gz", ".tsv.gz", ".txt.gz"}
+var tableExt = []string{".csv", ".tsv", ".txt", ".csv.gz", ".tsv.gz", ".txt.gz", ".xlsx"}
 
 // expandPaths replaces a folder by the tables in it (sorted by name, not recursive) and a glob
 // pattern that names no file by the files it matches; "-" (standard input) stays.
@@ -242,6 +242,18 @@ type reader struct {
 	rows      int
 }
 
+// hashFile returns the SHA-256 and size of a file read whole.
+func hashFile(p string) (string, int64, error) {
+	f, err := os.Open(p)
+	if err != nil {
+		return "", 0, err
+	}
+	defer f.Close()
+	h := sha256.New()
+	n, err := io.Copy(h, f)
+	return hex.EncodeToString(h.Sum(nil)), n, err
+}
+
 // hashingFile is the input after BOM removal and decompression, with a hash of the raw bytes.
 func openInput(p string) (io.Reader, func() (string, int64), func() error, *countWriter, int64, error) {
 	var f *os.File
@@ -291,6 +303,9 @@ func (c *countWriter) Write(b []byte) (int, error) {
 }
 
 func (r *reader) readFile(p string) error {
+	if strings.HasSuffix(strings.ToLower(p), ".xlsx") {
+		return r.readXLSX(p)
+	}
 	in, sum, closeFn, cnt, size, err := openInput(p)
 	if err != nil {
 		return err
@@ -340,45 +355,13 @@ func (r *reader) readFile(p string) error {
 	}
 	if err == nil {
 		if r.features == nil {
-			if err := r.classify(p, cr, header, rec, &roles, delim); err != nil {
+			if err := r.classify(p, cr.FieldPos, header, rec, &roles, delim); err != nil {
 				return err
 			}
 		}
 		rows = 1
 		line, _ := cr.FieldPos(0)
-		id := strings.TrimSpace(rec[roles.id])
-		if id == "" {
-			l, c := cr.FieldPos(roles.id)
-			return &InputError{File: p, Line: l, Column: c, Field: header[roles.id], Msg: "participant id is empty; fill it in or remove the row", Err: ErrMissingID}
-		}
-		wave := ""
-		if roles.wave >= 0 {
-			wave = strings.TrimSpace(rec[roles.wave])
-		}
-		var ord int64
-		if roles.order >= 0 {
-			if ord, err = r.parseOrder(p, cr, roles.order, header[roles.order], rec[roles.order]); err != nil {
-				return err
-			}
-		}
-		vals := make([]float64, len(r.features))
-		for j, col := range roles.features {
-			v, err := parseNumber(rec[col], delim == ';')
-			if err != nil {
-				l, c := cr.FieldPos(col)
-				msg := numberMsg(rec[col], delim, err)
-				if fileIdx > 0 && errors.Is(err, ErrNotNumber) {
-					msg += fmt.Sprintf(" (it is numeric in %s)", r.firstFile)
-				}
-				return &InputError{File: p, Line: l, Column: c, Field: header[col], Msg: msg, Err: err}
-			}
-			vals[j] = v
-		}
-		label := ""
-		if roles.label >= 0 {
-			label = strings.TrimSpace(rec[roles.label])
-		}
-		if err := r.appendRow(p, fileIdx, id, wave, ord, roles.order < 0, vals, label, line); err != nil {
+		if err := r.addRecord(p, fileIdx, header, roles, delim, rec, cr.FieldPos, parseOrderCell); err != nil {
 			return err
 		}
 		for _, f := range rec {
@@ -633,13 +616,13 @@ func (r *reader) isIgnored(name string) bool {
 // classify decides, on the first data row of the first file, which candidate columns are
 // features: a column whose first cell is text is left out and noted (with --features, a matched
 // column must be numeric). An empty first cell keeps the column as a feature.
-func (r *reader) classify(p string, cr *csv.Reader, header, rec []string, ro *roles, delim rune) error {
+func (r *reader) classify(p string, pos func(int) (int, int), header, rec []string, ro *roles, delim rune) error {
 	var keep []int
 	for _, col := range ro.features {
 		_, err := parseNumber(rec[col], delim == ';')
 		if errors.Is(err, ErrNotNumber) {
 			if len(r.opts.Features) > 0 {
-				l, c := cr.FieldPos(col)
+				l, c := pos(col)
 				return &InputError{File: p, Line: l, Column: c, Field: header[col], Msg: numberMsg(rec[col], delim, err) + "; --features chose this column", Err: err}
 			}
 			r.ignored = append(r.ignored, Note{header[col], fmt.Sprintf("text (first value %q), not a feature", rec[col])})
@@ -704,23 +687,17 @@ func numberMsg(cell string, delim rune, err error) string {
 
 var timeLayouts = []string{time.RFC3339Nano, "2006-01-02T15:04:05", "2006-01-02 15:04:05", "2006-01-02T15:04", "2006-01-02 15:04"}
 
-func (r *reader) parseOrder(p string, cr *csv.Reader, col int, name, cell string) (int64, error) {
-	s := strings.TrimSpace(cell)
-	l, c := cr.FieldPos(col)
+// parseOrder reads one order cell with orderOf and checks that its kind (integer or time) is the
+// kind of the first window's.
+func (r *reader) parseOrder(p string, pos func(int) (int, int), col int, name, cell string, orderOf func(string) (int64, byte, bool)) (int64, error) {
+	l, c := pos(col)
+	v, k, ok := orderOf(cell)
+	if !ok {
+		return 0, &InputError{File: p, Line: l, Column: c, Field: name, Msg: fmt.Sprintf("%q is neither an integer nor an ISO-8601 time such as 2026-03-01T08:30:00; fix the cell", cell), Err: ErrOrder}
+	}
 	kind := "integer"
-	v, err := strconv.ParseInt(s, 10, 64)
-	if err != nil {
+	if k == 't' {
 		kind = "time"
-		var t time.Time
-		for _, layout := range timeLayouts {
-			if t, err = time.Parse(layout, s); err == nil {
-				break
-			}
-		}
-		if err != nil {
-			return 0, &InputError{File: p, Line: l, Column: c, Field: name, Msg: fmt.Sprintf("%q is neither an integer nor an ISO-8601 time such as 2026-03-01T08:30:00; fix the cell", cell), Err: ErrOrder}
-		}
-		v = t.UnixNano()
 	}
 	if r.orderKind == "" {
 		r.orderKind = kind
@@ -729,6 +706,46 @@ func (r *reader) parseOrder(p string, cr *csv.Reader, col int, name, cell string
 		return 0, &InputError{File: p, Line: l, Column: c, Field: name, Msg: fmt.Sprintf("%q is %s but the order column held %ss from %s on; use one kind throughout", cell, article(kind), r.orderKind, r.orderAt), Err: ErrOrder}
 	}
 	return v, nil
+}
+
+// addRecord parses one record read whole (the first window of a text table, or a sheet row)
+// and adds it; pos gives a cell's line and column for messages.
+func (r *reader) addRecord(p string, fileIdx int, header []string, roles roles, delim rune, rec []string, pos func(int) (int, int), orderOf func(string) (int64, byte, bool)) error {
+	line, _ := pos(0)
+	id := strings.TrimSpace(rec[roles.id])
+	if id == "" {
+		l, c := pos(roles.id)
+		return &InputError{File: p, Line: l, Column: c, Field: header[roles.id], Msg: "participant id is empty; fill it in or remove the row", Err: ErrMissingID}
+	}
+	wave := ""
+	if roles.wave >= 0 {
+		wave = strings.TrimSpace(rec[roles.wave])
+	}
+	var ord int64
+	if roles.order >= 0 {
+		var err error
+		if ord, err = r.parseOrder(p, pos, roles.order, header[roles.order], rec[roles.order], orderOf); err != nil {
+			return err
+		}
+	}
+	vals := make([]float64, len(r.features))
+	for j, col := range roles.features {
+		v, err := parseNumber(rec[col], delim == ';')
+		if err != nil {
+			l, c := pos(col)
+			msg := numberMsg(rec[col], delim, err)
+			if fileIdx > 0 && errors.Is(err, ErrNotNumber) {
+				msg += fmt.Sprintf(" (it is numeric in %s)", r.firstFile)
+			}
+			return &InputError{File: p, Line: l, Column: c, Field: header[col], Msg: msg, Err: err}
+		}
+		vals[j] = v
+	}
+	label := ""
+	if roles.label >= 0 {
+		label = strings.TrimSpace(rec[roles.label])
+	}
+	return r.appendRow(p, fileIdx, id, wave, ord, roles.order < 0, vals, label, line)
 }
 
 func article(kind string) string {

@@ -11,6 +11,9 @@ import (
 	"strconv"
 	"strings"
 	"testing"
+	"time"
+
+	"github.com/xuri/excelize/v2"
 )
 
 func write(t testing.TB, dir, name string, b []byte) string {
@@ -122,7 +125,7 @@ func TestReadMissingPaths(t *testing.T) {
 	dir := t.TempDir()
 	for _, c := range []struct{ path, want string }{
 		{filepath.Join(dir, "nope.csv"), "cannot open: no such file or directory; check the path"},
-		{dir, "is a folder with no table files (.csv, .tsv, .txt, .csv.gz, .tsv.gz, .txt.gz); name the files, or put them in it"},
+		{dir, "is a folder with no table files (.csv, .tsv, .txt, .csv.gz, .tsv.gz, .txt.gz, .xlsx); name the files, or put them in it"},
 		{filepath.Join(dir, "*.csv"), "no file matches this pattern; check the path"},
 	} {
 		_, err := Read(context.Background(), []string{c.path}, ReadOptions{})
@@ -400,5 +403,67 @@ func TestReadFolderAndGlob(t *testing.T) {
 			t.Errorf("%v: %d units from %d files", in, len(tab.Units), len(tab.Files))
 		}
 		tab.Close()
+	}
+}
+
+// writeSheet writes rows to the first sheet of a new workbook; a cell text starting with "="
+// becomes a formula.
+func writeSheet(t *testing.T, path string, rows [][]any, merge string) {
+	t.Helper()
+	f := excelize.NewFile()
+	for i, row := range rows {
+		for j, v := range row {
+			cell, _ := excelize.CoordinatesToCellName(j+1, i+1)
+			if s, ok := v.(string); ok && strings.HasPrefix(s, "=") {
+				f.SetCellFormula("Sheet1", cell, s[1:])
+				continue
+			}
+			f.SetCellValue("Sheet1", cell, v)
+		}
+	}
+	if merge != "" {
+		a, b, _ := strings.Cut(merge, ":")
+		f.MergeCell("Sheet1", a, b)
+	}
+	if err := f.SaveAs(path); err != nil {
+		t.Fatal(err)
+	}
+}
+
+func TestReadXLSX(t *testing.T) {
+	dir := t.TempDir()
+	rows := [][]any{{"participant", "window", "f1", "f2", "site"}}
+	start := time.Date(2026, 3, 2, 8, 0, 0, 0, time.UTC)
+	for i := 0; i < 60; i++ {
+		rows = append(rows, []any{[]string{"A", "B"}[i/30], start.Add(time.Duration(i%30) * time.Minute), float64(i%7) + 0.25, i % 3, "north"})
+	}
+	good := filepath.Join(dir, "good.xlsx")
+	writeSheet(t, good, rows, "")
+	tab, err := Read(context.Background(), []string{good}, ReadOptions{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer tab.Close()
+	if len(tab.Units) != 2 || len(tab.Features) != 2 || tab.OrderKind != "time" || tab.Quality.IgnoredColumns[0].Name != "site" {
+		t.Fatalf("units %d features %v order %s ignored %v", len(tab.Units), tab.Features, tab.OrderKind, tab.Quality.IgnoredColumns)
+	}
+	if x := block(t, tab, 0); x[2] != 1.25 || tab.Units[0].Order[1]-tab.Units[0].Order[0] != 60e9 {
+		t.Errorf("second window f1 %v, step %d ns", x[2], tab.Units[0].Order[1]-tab.Units[0].Order[0])
+	}
+	bad := append([][]any(nil), rows...)
+	bad[5] = []any{"A", start.Add(4 * time.Minute), "=1+2", 1, "north"}
+	formula := filepath.Join(dir, "formula.xlsx")
+	writeSheet(t, formula, bad, "")
+	if _, err := Read(context.Background(), []string{formula}, ReadOptions{}); err == nil || err.Error() != formula+":6:3: f1: cell C6 holds a formula (=1+2); paste the values instead" {
+		t.Errorf("formula: %v", err)
+	}
+	damaged := write(t, dir, "damaged.xlsx", []byte("PK\x03\x04 not really a workbook"))
+	if _, err := Read(context.Background(), []string{damaged}, ReadOptions{}); err == nil || !strings.Contains(err.Error(), "cannot open as a workbook") {
+		t.Errorf("damaged: %v", err)
+	}
+	merged := filepath.Join(dir, "merged.xlsx")
+	writeSheet(t, merged, rows, "C2:D2")
+	if _, err := Read(context.Background(), []string{merged}, ReadOptions{}); err == nil || !strings.Contains(err.Error(), `has merged cells (C2:D2); unmerge them`) {
+		t.Errorf("merged: %v", err)
 	}
 }

@@ -1,0 +1,123 @@
+package cohort
+
+import (
+	"fmt"
+	"math"
+	"strconv"
+	"strings"
+
+	"github.com/xuri/excelize/v2"
+)
+
+// formulaCheckRows is how many rows of a sheet are checked for formula cells.
+const formulaCheckRows = 200
+
+// readXLSX reads the first sheet of a workbook with excelize's streaming row reader. The first
+// row is the header; a cell's position in messages is its row (as the line) and its column
+// number. Merged cells and formulas are refused: a table of windows holds one value per cell.
+// Times in the order column may be ISO-8601 text or spreadsheet dates.
+func (r *reader) readXLSX(p string) error {
+	f, err := excelize.OpenFile(p)
+	if err != nil {
+		return &InputError{File: p, Msg: "cannot open as a workbook (" + err.Error() + "); save it again as .xlsx, or export CSV", Err: ErrNotText}
+	}
+	defer f.Close()
+	sheets := f.GetSheetList()
+	if len(sheets) == 0 {
+		return &InputError{File: p, Msg: "workbook has no sheet", Err: ErrEmpty}
+	}
+	sheet := sheets[0]
+	if merged, err := f.GetMergeCells(sheet); err == nil && len(merged) > 0 {
+		return &InputError{File: p, Msg: fmt.Sprintf("sheet %q has merged cells (%s:%s); unmerge them so each window is one row of single cells", sheet, merged[0].GetStartAxis(), merged[0].GetEndAxis()), Err: ErrRagged}
+	}
+	rows, err := f.Rows(sheet)
+	if err != nil {
+		return &InputError{File: p, Msg: "cannot read sheet " + strconv.Quote(sheet) + ": " + err.Error(), Err: ErrNotText}
+	}
+	defer rows.Close()
+	fileIdx := len(r.files)
+	var header []string
+	var roles roles
+	n, rowNo := 0, 0
+	for rows.Next() {
+		rowNo++
+		if rowNo%4096 == 0 && r.ctx.Err() != nil {
+			return r.ctx.Err()
+		}
+		rec, err := rows.Columns(excelize.Options{RawCellValue: true})
+		if err != nil {
+			return &InputError{File: p, Line: rowNo, Msg: "cannot read the row: " + err.Error(), Err: ErrNotText}
+		}
+		if header == nil {
+			if len(rec) == 0 {
+				return &InputError{File: p, Line: rowNo, Msg: "the first row is empty; it must hold the column names", Err: ErrEmpty}
+			}
+			header = rec
+			if roles, err = r.assignRoles(p, header); err != nil {
+				return err
+			}
+			continue
+		}
+		if len(strings.Join(rec, "")) == 0 {
+			continue // an empty row
+		}
+		for len(rec) < len(header) {
+			rec = append(rec, "") // trailing empty cells are not stored
+		}
+		if len(rec) > len(header) {
+			return &InputError{File: p, Line: rowNo, Msg: fmt.Sprintf("row has %d cells, the header %d; remove the extra cells", len(rec), len(header)), Err: ErrRagged}
+		}
+		row := rowNo
+		pos := func(col int) (int, int) { return row, col + 1 }
+		if rowNo <= formulaCheckRows {
+			for c := range rec {
+				cell, _ := excelize.CoordinatesToCellName(c+1, rowNo)
+				if fx, _ := f.GetCellFormula(sheet, cell); fx != "" {
+					return &InputError{File: p, Line: rowNo, Column: c + 1, Field: header[c], Msg: fmt.Sprintf("cell %s holds a formula (=%s); paste the values instead", cell, fx), Err: ErrNotNumber}
+				}
+			}
+		}
+		if n == 0 && r.features == nil {
+			if err := r.classify(p, pos, header, rec, &roles, ','); err != nil {
+				return err
+			}
+		}
+		if err := r.addRecord(p, fileIdx, header, roles, '.', rec, pos, sheetOrder); err != nil {
+			return err
+		}
+		n++
+	}
+	if err := rows.Error(); err != nil {
+		return &InputError{File: p, Msg: "reading the sheet failed: " + err.Error(), Err: ErrNotText}
+	}
+	if header == nil {
+		return &InputError{File: p, Msg: "the sheet is empty; it needs a header row and at least one window", Err: ErrEmpty}
+	}
+	if n == 0 {
+		return &InputError{File: p, Line: 1, Msg: "has a header but no windows; each row should be one window", Err: ErrEmpty}
+	}
+	hexsum, size, err := hashFile(p)
+	if err != nil {
+		return &InputError{File: p, Msg: "cannot read: " + err.Error(), Err: ErrOpen}
+	}
+	r.files = append(r.files, FileInfo{Path: p, SHA256: hexsum, Bytes: size, Rows: n})
+	r.rows += n
+	return nil
+}
+
+// sheetOrder reads an order cell of a sheet: an integer, an ISO-8601 time, or a spreadsheet date
+// (a day count with a fraction), which becomes a time.
+func sheetOrder(cell string) (int64, byte, bool) {
+	if v, k, ok := parseOrderCell(cell); ok {
+		return v, k, ok
+	}
+	serial, err := strconv.ParseFloat(strings.TrimSpace(cell), 64)
+	if err != nil || math.IsNaN(serial) || serial <= 0 {
+		return 0, 0, false
+	}
+	t, err := excelize.ExcelDateToTime(serial, false)
+	if err != nil {
+		return 0, 0, false
+	}
+	return t.UnixNano(), 't', true
+}
