@@ -159,7 +159,7 @@ func Read(ctx context.Context, paths []string, opts ReadOptions) (*Table, error)
 }
 
 // tableExt are the file names a folder given as input is read for.
-var tableExt = []string{".csv", ".tsv", ".txt", ".csv.gz", ".tsv.gz", ".txt.gz", ".xlsx"}
+var tableExt = []string{".csv", ".tsv", ".txt", ".csv.gz", ".tsv.gz", ".txt.gz", ".xlsx", ".parquet"}
 
 // expandPaths replaces a folder by the tables in it (sorted by name, not recursive) and a glob
 // pattern that names no file by the files it matches; "-" (standard input) stays.
@@ -303,8 +303,13 @@ func (c *countWriter) Write(b []byte) (int, error) {
 }
 
 func (r *reader) readFile(p string) error {
-	if strings.HasSuffix(strings.ToLower(p), ".xlsx") {
+	switch lower := strings.ToLower(p); {
+	case strings.HasSuffix(lower, ".xlsx"):
+		r.progress = func() {}
 		return r.readXLSX(p)
+	case strings.HasSuffix(lower, ".parquet"):
+		r.progress = func() {}
+		return r.readParquet(p)
 	}
 	in, sum, closeFn, cnt, size, err := openInput(p)
 	if err != nil {

@@ -13,6 +13,7 @@ import (
 	"testing"
 	"time"
 
+	"github.com/parquet-go/parquet-go"
 	"github.com/xuri/excelize/v2"
 )
 
@@ -125,7 +126,7 @@ func TestReadMissingPaths(t *testing.T) {
 	dir := t.TempDir()
 	for _, c := range []struct{ path, want string }{
 		{filepath.Join(dir, "nope.csv"), "cannot open: no such file or directory; check the path"},
-		{dir, "is a folder with no table files (.csv, .tsv, .txt, .csv.gz, .tsv.gz, .txt.gz, .xlsx); name the files, or put them in it"},
+		{dir, "is a folder with no table files (.csv, .tsv, .txt, .csv.gz, .tsv.gz, .txt.gz, .xlsx, .parquet); name the files, or put them in it"},
 		{filepath.Join(dir, "*.csv"), "no file matches this pattern; check the path"},
 	} {
 		_, err := Read(context.Background(), []string{c.path}, ReadOptions{})
@@ -465,5 +466,82 @@ func TestReadXLSX(t *testing.T) {
 	writeSheet(t, merged, rows, "C2:D2")
 	if _, err := Read(context.Background(), []string{merged}, ReadOptions{}); err == nil || !strings.Contains(err.Error(), `has merged cells (C2:D2); unmerge them`) {
 		t.Errorf("merged: %v", err)
+	}
+}
+
+type pqRow struct {
+	Participant string   `parquet:"participant"`
+	Window      int64    `parquet:"window"`
+	F1          float64  `parquet:"f1"`
+	F2          *float64 `parquet:"f2,optional"`
+	Site        string   `parquet:"site"`
+}
+
+type pqTimeRow struct {
+	Participant string    `parquet:"participant"`
+	Window      time.Time `parquet:"window"`
+	F1          float32   `parquet:"f1"`
+}
+
+// Parquet input reads like the same table as CSV, with nulls as missing cells.
+func TestReadParquet(t *testing.T) {
+	dir := t.TempDir()
+	var rows []pqRow
+	var csvText strings.Builder
+	csvText.WriteString("participant,window,f1,f2,site\n")
+	for i := 0; i < 60; i++ {
+		f2 := float64(i%5) / 4
+		r := pqRow{Participant: []string{"A", "B"}[i/30], Window: int64(i % 30), F1: float64(i%7) + 0.25, F2: &f2, Site: "north"}
+		cell := strconv.FormatFloat(f2, 'g', -1, 64)
+		if i == 7 {
+			r.F2, cell = nil, "NA"
+		}
+		rows = append(rows, r)
+		csvText.WriteString(r.Participant + "," + itoa(int(r.Window)) + "," + strconv.FormatFloat(r.F1, 'g', -1, 64) + "," + cell + ",north\n")
+	}
+	pq := filepath.Join(dir, "c.parquet")
+	if err := parquet.WriteFile(pq, rows); err != nil {
+		t.Fatal(err)
+	}
+	fromPQ, err := Read(context.Background(), []string{pq}, ReadOptions{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer fromPQ.Close()
+	fromCSV, err := Read(context.Background(), []string{write(t, dir, "c.csv", []byte(csvText.String()))}, ReadOptions{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer fromCSV.Close()
+	if len(fromPQ.Units) != 2 || fromPQ.Quality.WindowsDropped != 1 || len(fromPQ.Quality.IgnoredColumns) != 1 {
+		t.Fatalf("units %d, dropped %d, ignored %v", len(fromPQ.Units), fromPQ.Quality.WindowsDropped, fromPQ.Quality.IgnoredColumns)
+	}
+	for u := range fromCSV.Units {
+		a, b := block(t, fromPQ, u), block(t, fromCSV, u)
+		for i := range a {
+			if a[i] != b[i] {
+				t.Fatalf("unit %d value %d: Parquet %v, CSV %v", u, i, a[i], b[i])
+			}
+		}
+	}
+	start := time.Date(2026, 3, 2, 8, 0, 0, 0, time.UTC)
+	var trows []pqTimeRow
+	for i := 0; i < 25; i++ {
+		trows = append(trows, pqTimeRow{Participant: "A", Window: start.Add(time.Duration(i) * time.Minute), F1: float32(i % 4)})
+	}
+	tq := filepath.Join(dir, "t.parquet")
+	if err := parquet.WriteFile(tq, trows); err != nil {
+		t.Fatal(err)
+	}
+	tt, err := Read(context.Background(), []string{tq}, ReadOptions{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer tt.Close()
+	if tt.OrderKind != "time" || tt.Units[0].Order[1]-tt.Units[0].Order[0] != 60e9 {
+		t.Errorf("order kind %s, step %d", tt.OrderKind, tt.Units[0].Order[1]-tt.Units[0].Order[0])
+	}
+	if _, err := Read(context.Background(), []string{write(t, dir, "bad.parquet", []byte("PAR1 not really"))}, ReadOptions{}); err == nil || !strings.Contains(err.Error(), "not a readable Parquet file") {
+		t.Errorf("damaged: %v", err)
 	}
 }

@@ -40,7 +40,7 @@ Exit codes: 0 success, 1 error, 2 wrong command line, 130 interrupted.`,
 		},
 	}
 	f := cmd.Flags()
-	f.StringVar(&opts.Out, "out", "", "file to write (.gz compresses)")
+	f.StringVar(&opts.Out, "out", "", "file to write (.gz compresses; .parquet writes Parquet)")
 	_ = cmd.MarkFlagRequired("out")
 	f.StringVar(&opts.Truth, "truth", "", "also write each participant's planted group here")
 	f.IntVar(&opts.Synth.Participants, "participants", 150, "participants")
@@ -63,7 +63,11 @@ func synthRun(ctx context.Context, o *synthOptions) error {
 	}
 	var truth []synth.Truth
 	err := reports.WriteAtomic(o.Out, o.Force, func(w io.Writer) (err error) {
-		truth, err = synth.Write(w, o.Synth, strings.HasSuffix(o.Out, ".gz"))
+		if strings.HasSuffix(o.Out, ".parquet") {
+			truth, err = synth.WriteParquet(w, o.Synth)
+		} else {
+			truth, err = synth.Write(w, o.Synth, strings.HasSuffix(o.Out, ".gz"))
+		}
 		return err
 	})
 	if err != nil {

@@ -18,7 +18,10 @@ import (
 	"math/rand/v2"
 	"os"
 	"strconv"
+	"strings"
 	"time"
+
+	"github.com/parquet-go/parquet-go"
 )
 
 // Options sets up a cohort. Zero values take the documented defaults.
@@ -118,19 +121,8 @@ type Truth struct {
 // Write writes a cohort as CSV to w (gzip when gz) and returns the planted groups.
 func Write(w io.Writer, opts Options, gz bool) ([]Truth, error) {
 	opts = opts.withDefaults()
-	if opts.Features != 12 && opts.Features != 24 {
-		return nil, fmt.Errorf("synth: %d features: choose 12 or 24", opts.Features)
-	}
-	if opts.Groups < 2 || opts.Groups > len(groupMix) {
-		return nil, fmt.Errorf("synth: %d groups: choose 2 to %d", opts.Groups, len(groupMix))
-	}
-	for _, g := range opts.GroupSet {
-		if g < 0 || g >= len(groupMix) {
-			return nil, fmt.Errorf("synth: planted group %d: choose 0 to %d", g, len(groupMix)-1)
-		}
-	}
-	if opts.Participants < 1 || opts.Windows < 1 {
-		return nil, fmt.Errorf("synth: %d participants × %d windows: both must be ≥ 1", opts.Participants, opts.Windows)
+	if err := opts.check(); err != nil {
+		return nil, err
 	}
 	var out io.Writer = w
 	var zw *gzip.Writer
@@ -152,10 +144,129 @@ func Write(w io.Writer, opts Options, gz bool) ([]Truth, error) {
 		bw.WriteString(",activity")
 	}
 	bw.WriteString("\n")
-	truth := make([]Truth, opts.Participants)
 	start := time.Date(2026, 3, 2, 0, 0, 0, 0, time.UTC)
 	buf := make([]byte, 0, 512)
-	feat := make([]float64, len(names))
+	truth, err := generate(opts, func(id string, wi int, feat []float64, state int) error {
+		buf = buf[:0]
+		buf = append(buf, id...)
+		if opts.Waves {
+			buf = append(buf, ",1"...)
+		}
+		buf = append(buf, ',')
+		if opts.Times {
+			buf = start.Add(time.Duration(wi)*time.Minute).AppendFormat(buf, "2006-01-02T15:04:05")
+		} else {
+			buf = strconv.AppendInt(buf, int64(wi), 10)
+		}
+		for _, v := range feat {
+			buf = append(buf, ',')
+			buf = strconv.AppendFloat(buf, v, 'f', 4, 64)
+		}
+		if opts.Labels {
+			buf = append(buf, ',')
+			buf = append(buf, StateNames[state]...)
+		}
+		buf = append(buf, '\n')
+		_, err := bw.Write(buf)
+		return err
+	})
+	if err != nil {
+		return nil, err
+	}
+	if err := bw.Flush(); err != nil {
+		return nil, err
+	}
+	if zw != nil {
+		if err := zw.Close(); err != nil {
+			return nil, err
+		}
+	}
+	return truth, nil
+}
+
+// WriteParquet writes the same cohort as a flat Parquet file (github.com/parquet-go/parquet-go):
+// text participant (and activity), INT64 window, DOUBLE features rounded as in the CSV.
+func WriteParquet(w io.Writer, opts Options) ([]Truth, error) {
+	opts = opts.withDefaults()
+	if err := opts.check(); err != nil {
+		return nil, err
+	}
+	names := FeatureNames(opts.Features)
+	group := parquet.Group{"participant": parquet.String(), "window": parquet.Int(64)}
+	if opts.Waves {
+		group["wave"] = parquet.String()
+	}
+	if opts.Labels {
+		group["activity"] = parquet.String()
+	}
+	for _, n := range names {
+		group[n] = parquet.Leaf(parquet.DoubleType)
+	}
+	schema := parquet.NewSchema("cohort", group)
+	col := map[string]int{}
+	for i, path := range schema.Columns() {
+		col[path[0]] = i
+	}
+	pw := parquet.NewWriter(w, schema)
+	batch := make([]parquet.Row, 0, 4096)
+	flush := func() error {
+		if _, err := pw.WriteRows(batch); err != nil {
+			return err
+		}
+		batch = batch[:0]
+		return nil
+	}
+	truth, err := generate(opts, func(id string, wi int, feat []float64, state int) error {
+		row := make(parquet.Row, len(col))
+		row[col["participant"]] = parquet.ValueOf(id).Level(0, 0, col["participant"])
+		row[col["window"]] = parquet.ValueOf(int64(wi)).Level(0, 0, col["window"])
+		if opts.Waves {
+			row[col["wave"]] = parquet.ValueOf("1").Level(0, 0, col["wave"])
+		}
+		if opts.Labels {
+			row[col["activity"]] = parquet.ValueOf(StateNames[state]).Level(0, 0, col["activity"])
+		}
+		for j, n := range names {
+			v := math.Round(feat[j]*1e4) / 1e4
+			row[col[n]] = parquet.ValueOf(v).Level(0, 0, col[n])
+		}
+		batch = append(batch, row)
+		if len(batch) == cap(batch) {
+			return flush()
+		}
+		return nil
+	})
+	if err != nil {
+		return nil, err
+	}
+	if err := flush(); err != nil {
+		return nil, err
+	}
+	return truth, pw.Close()
+}
+
+func (opts Options) check() error {
+	if opts.Features != 12 && opts.Features != 24 {
+		return fmt.Errorf("synth: %d features: choose 12 or 24", opts.Features)
+	}
+	if opts.Groups < 2 || opts.Groups > len(groupMix) {
+		return fmt.Errorf("synth: %d groups: choose 2 to %d", opts.Groups, len(groupMix))
+	}
+	for _, g := range opts.GroupSet {
+		if g < 0 || g >= len(groupMix) {
+			return fmt.Errorf("synth: planted group %d: choose 0 to %d", g, len(groupMix)-1)
+		}
+	}
+	if opts.Participants < 1 || opts.Windows < 1 {
+		return fmt.Errorf("synth: %d participants × %d windows: both must be ≥ 1", opts.Participants, opts.Windows)
+	}
+	return nil
+}
+
+// generate invents the cohort participant by participant, handing each window to emit.
+func generate(opts Options, emit func(id string, window int, feat []float64, state int) error) ([]Truth, error) {
+	truth := make([]Truth, opts.Participants)
+	feat := make([]float64, len(FeatureNames(opts.Features)))
 	for p := 0; p < opts.Participants; p++ {
 		rng := rand.New(rand.NewPCG(opts.Seed, uint64(opts.FirstID+p)))
 		g := (opts.FirstID + p) % opts.Groups
@@ -175,37 +286,9 @@ func Write(w io.Writer, opts Options, gz bool) ([]Truth, error) {
 			}
 			left--
 			window(rng, state, offset, gain, feat)
-			buf = buf[:0]
-			buf = append(buf, id...)
-			if opts.Waves {
-				buf = append(buf, ",1"...)
-			}
-			buf = append(buf, ',')
-			if opts.Times {
-				buf = start.Add(time.Duration(wi)*time.Minute).AppendFormat(buf, "2006-01-02T15:04:05")
-			} else {
-				buf = strconv.AppendInt(buf, int64(wi), 10)
-			}
-			for _, v := range feat {
-				buf = append(buf, ',')
-				buf = strconv.AppendFloat(buf, v, 'f', 4, 64)
-			}
-			if opts.Labels {
-				buf = append(buf, ',')
-				buf = append(buf, StateNames[state]...)
-			}
-			buf = append(buf, '\n')
-			if _, err := bw.Write(buf); err != nil {
+			if err := emit(id, wi, feat, state); err != nil {
 				return nil, err
 			}
-		}
-	}
-	if err := bw.Flush(); err != nil {
-		return nil, err
-	}
-	if zw != nil {
-		if err := zw.Close(); err != nil {
-			return nil, err
 		}
 	}
 	return truth, nil
@@ -217,8 +300,12 @@ func WriteFile(path string, opts Options) ([]Truth, error) {
 	if err != nil {
 		return nil, err
 	}
-	gz := len(path) > 3 && path[len(path)-3:] == ".gz"
-	truth, err := Write(f, opts, gz)
+	var truth []Truth
+	if strings.HasSuffix(path, ".parquet") {
+		truth, err = WriteParquet(f, opts)
+	} else {
+		truth, err = Write(f, opts, strings.HasSuffix(path, ".gz"))
+	}
 	if cerr := f.Close(); err == nil {
 		err = cerr
 	}
