@@ -19,7 +19,14 @@ import (
 // cell; ids, waves and labels may be text or integers; the order column may be integers,
 // TIMESTAMP columns or ISO-8601 text. Positions in messages are the row (as the line) and the
 // column number.
-func (r *reader) readParquet(p string) error {
+func (r *reader) readParquet(p string) (err error) {
+	// parquet-go can panic on a damaged file (seen in TestDamagedBinaryInputs): that is a damaged
+	// input for us, reported like any other.
+	defer func() {
+		if v := recover(); v != nil {
+			err = &InputError{File: p, Msg: fmt.Sprintf("the Parquet file is damaged (%v); write it again, or export CSV", v), Err: ErrNotText}
+		}
+	}()
 	f, err := os.Open(p)
 	if err != nil {
 		return &InputError{File: p, Msg: "cannot open: " + err.Error(), Err: ErrOpen}

@@ -6,6 +6,7 @@ import (
 	"context"
 	"errors"
 	"math"
+	"math/rand/v2"
 	"os"
 	"path/filepath"
 	"strconv"
@@ -543,5 +544,110 @@ func TestReadParquet(t *testing.T) {
 	}
 	if _, err := Read(context.Background(), []string{write(t, dir, "bad.parquet", []byte("PAR1 not really"))}, ReadOptions{}); err == nil || !strings.Contains(err.Error(), "not a readable Parquet file") {
 		t.Errorf("damaged: %v", err)
+	}
+}
+
+// fuzzBinary feeds arbitrary bytes, saved with the extension ext, to the reader: a damaged file
+// is an *InputError, never a panic.
+func fuzzBinary(f *testing.F, ext string, seed []byte) {
+	dir := f.TempDir()
+	f.Add(seed)
+	f.Fuzz(func(t *testing.T, b []byte) {
+		p := filepath.Join(dir, "in"+ext)
+		if err := os.WriteFile(p, b, 0o644); err != nil {
+			t.Skip()
+		}
+		tab, err := Read(context.Background(), []string{p}, ReadOptions{MinWindows: 1})
+		if err == nil {
+			tab.Close()
+			return
+		}
+		var ie *InputError
+		if !errors.As(err, &ie) || ie.File != p {
+			t.Fatalf("rejection without position: %v", err)
+		}
+	})
+}
+
+func FuzzReadParquet(f *testing.F) {
+	var rows []pqRow
+	for i := 0; i < 30; i++ {
+		v := float64(i)
+		rows = append(rows, pqRow{Participant: "A", Window: int64(i), F1: v, F2: &v, Site: "x"})
+	}
+	pq := filepath.Join(f.TempDir(), "seed.parquet")
+	if err := parquet.WriteFile(pq, rows); err != nil {
+		f.Fatal(err)
+	}
+	b, _ := os.ReadFile(pq)
+	fuzzBinary(f, ".parquet", b)
+}
+
+func FuzzReadXLSX(f *testing.F) {
+	xl := excelize.NewFile()
+	xl.SetSheetRow("Sheet1", "A1", &[]any{"participant", "window", "f1"})
+	xl.SetSheetRow("Sheet1", "A2", &[]any{"A", 1, 2.5})
+	var buf bytes.Buffer
+	xl.WriteTo(&buf)
+	fuzzBinary(f, ".xlsx", buf.Bytes())
+}
+
+// Damaged workbooks and Parquet files, made by flipping bits, cutting the file short and
+// overwriting bytes of a valid one: each read ends within 5 s in an *InputError or a table, never
+// a panic or a hang. (A coverage-guided `go test -fuzz` of FuzzReadXLSX and FuzzReadParquet
+// stalled after the seed inputs here; these fixed mutations stand beside them.)
+func TestDamagedBinaryInputs(t *testing.T) {
+	dir := t.TempDir()
+	xl := excelize.NewFile()
+	xl.SetSheetRow("Sheet1", "A1", &[]any{"participant", "window", "f1"})
+	for i := 0; i < 30; i++ {
+		xl.SetSheetRow("Sheet1", "A"+itoa(i+2), &[]any{"A", i, float64(i%5) + 0.5})
+	}
+	var xb bytes.Buffer
+	xl.WriteTo(&xb)
+	var rows []pqRow
+	for i := 0; i < 30; i++ {
+		v := float64(i)
+		rows = append(rows, pqRow{Participant: "A", Window: int64(i), F1: v, F2: &v, Site: "x"})
+	}
+	pq := filepath.Join(dir, "seed.parquet")
+	if err := parquet.WriteFile(pq, rows); err != nil {
+		t.Fatal(err)
+	}
+	pb, _ := os.ReadFile(pq)
+	rng := rand.New(rand.NewPCG(1, 2))
+	for _, c := range []struct {
+		ext  string
+		seed []byte
+	}{{".xlsx", xb.Bytes()}, {".parquet", pb}} {
+		p := filepath.Join(dir, "in"+c.ext)
+		for k := 0; k < 300; k++ {
+			b := append([]byte(nil), c.seed...)
+			switch k % 3 {
+			case 0:
+				b[rng.IntN(len(b))] ^= byte(1 << rng.IntN(8))
+			case 1:
+				b = b[:rng.IntN(len(b))]
+			case 2:
+				i := rng.IntN(len(b) - 4)
+				copy(b[i:], []byte{0xff, 0xff, 0xff, 0x7f})
+			}
+			os.WriteFile(p, b, 0o644)
+			done := make(chan error, 1)
+			go func() {
+				tab, err := Read(context.Background(), []string{p}, ReadOptions{MinWindows: 1})
+				tab.Close()
+				done <- err
+			}()
+			select {
+			case err := <-done:
+				var ie *InputError
+				if err != nil && !errors.As(err, &ie) {
+					t.Fatalf("%s mutation %d: error without position: %v", c.ext, k, err)
+				}
+			case <-time.After(5 * time.Second):
+				t.Fatalf("%s mutation %d: no answer after 5 s", c.ext, k)
+			}
+		}
 	}
 }

@@ -3,6 +3,7 @@ package cohort
 import (
 	"fmt"
 	"math"
+	"os"
 	"strconv"
 	"strings"
 
@@ -16,8 +17,20 @@ const formulaCheckRows = 200
 // row is the header; a cell's position in messages is its row (as the line) and its column
 // number. Merged cells and formulas are refused: a table of windows holds one value per cell.
 // Times in the order column may be ISO-8601 text or spreadsheet dates.
-func (r *reader) readXLSX(p string) error {
-	f, err := excelize.OpenFile(p)
+func (r *reader) readXLSX(p string) (err error) {
+	defer func() {
+		if v := recover(); v != nil { // a damaged workbook, whatever the library made of it
+			err = &InputError{File: p, Msg: fmt.Sprintf("the workbook is damaged (%v); save it again as .xlsx, or export CSV", v), Err: ErrNotText}
+		}
+	}()
+	st, err := os.Stat(p)
+	if err != nil {
+		return &InputError{File: p, Msg: "cannot open: " + err.Error(), Err: ErrOpen}
+	}
+	// A damaged or hostile archive must not make the unzipper allocate without bound: allow the
+	// sheet XML at most 200 times the file's size (real sheets compress about 5 to 20 times).
+	limit := max(64<<20, 200*st.Size())
+	f, err := excelize.OpenFile(p, excelize.Options{UnzipSizeLimit: limit, UnzipXMLSizeLimit: limit})
 	if err != nil {
 		return &InputError{File: p, Msg: "cannot open as a workbook (" + err.Error() + "); save it again as .xlsx, or export CSV", Err: ErrNotText}
 	}
