@@ -120,13 +120,23 @@ func FitStates(ctx context.Context, sample *mat.Dense, opts Options) (*States, e
 	if len(opts.States) > 1 {
 		s.Rule = ChoiceRule
 	}
+	// Candidates of a range are compared on fits with a few restarts; the chosen one is refitted
+	// with all of them (Restarts, 10 by default).
+	restarts := opts.Restarts
+	if restarts == 0 {
+		restarts = 10
+	}
+	candidateRestarts := restarts
+	if len(opts.States) > 1 {
+		candidateRestarts = min(3, restarts)
+	}
 	var best *cluster.KMeansResult
 	bestCH := math.Inf(-1)
 	for i, k := range opts.States {
 		if opts.Progress != nil {
 			opts.Progress("fitting states", i, len(opts.States))
 		}
-		r, err := cluster.KMeans(ctx, x, cluster.KMeansOptions{K: k, Restarts: opts.Restarts, Seed: opts.Seed + uint64(k), Workers: opts.Workers})
+		r, err := cluster.KMeans(ctx, x, cluster.KMeansOptions{K: k, Restarts: candidateRestarts, Seed: opts.Seed + uint64(k), Workers: opts.Workers})
 		if err != nil {
 			return nil, fmt.Errorf("profile: %w", err)
 		}
@@ -154,6 +164,15 @@ func FitStates(ctx context.Context, sample *mat.Dense, opts Options) (*States, e
 		if c.CalinskiHarabasz > bestCH || best == nil {
 			best, bestCH, s.K = r, c.CalinskiHarabasz, k
 		}
+	}
+	if candidateRestarts < restarts {
+		// The chosen number gets every restart; its first restarts are the candidate's own
+		// (one PCG stream per restart), so this can only lower the within-state sum of squares.
+		r, err := cluster.KMeans(ctx, x, cluster.KMeansOptions{K: s.K, Restarts: restarts, Seed: opts.Seed + uint64(s.K), Workers: opts.Workers})
+		if err != nil {
+			return nil, fmt.Errorf("profile: %w", err)
+		}
+		best = r
 	}
 	s.Centroids = best.Centroids
 	s.Centroids, _ = orderStates(s.Centroids)
