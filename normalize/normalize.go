@@ -301,7 +301,7 @@ func FitBlocks(features []string, blocks Blocks, opts Options) (*Fit, error) {
 	}
 	// The quiet score ranks a participant's windows by the cohort-scaled mean of the untouched
 	// features (all features when every one is touched).
-	f.QuietMid, f.QuietScale = medianMAD(sampleRows(blocks, d, opts.Seed, opts.SampleRate, nil), d)
+	f.QuietMid, f.QuietScale = medianMAD(SampleRows(blocks, d, opts.Seed, opts.SampleRate, nil), d)
 	for j := range features {
 		if !f.Touched[j] || all {
 			f.QuietScore = append(f.QuietScore, j)
@@ -309,7 +309,7 @@ func FitBlocks(features []string, blocks Blocks, opts Options) (*Fit, error) {
 	}
 	// Cohort step, on the within-step windows.
 	var moments moments
-	sample := sampleRows(blocks, d, opts.Seed, opts.SampleRate, func(x []float64) []float64 {
+	sample := SampleRows(blocks, d, opts.Seed, opts.SampleRate, func(x []float64) []float64 {
 		y := f.within(x)
 		moments.add(y, d)
 		return y
@@ -350,9 +350,9 @@ func FitBlocks(features []string, blocks Blocks, opts Options) (*Fit, error) {
 	return f, nil
 }
 
-// sampleRows passes over the blocks, transforming each with tf when given, and returns the
-// sampled windows (row-major) of the transformed blocks.
-func sampleRows(blocks Blocks, d int, seed uint64, rate float64, tf func([]float64) []float64) []float64 {
+// SampleRows passes over the blocks, transforming each with tf when given, and returns the
+// windows (row-major, d values each) of the transformed blocks that Sampled keeps at rate.
+func SampleRows(blocks Blocks, d int, seed uint64, rate float64, tf func([]float64) []float64) []float64 {
 	var rows []float64
 	for u := 0; u < blocks.Len(); u++ {
 		x := blocks.Block(u)

@@ -69,15 +69,7 @@ func Sample(blocks normalize.Blocks, dim, size, total int, seed uint64) *mat.Den
 		size = 50_000
 	}
 	rate := min(1, float64(size)/float64(max(1, total)))
-	var rows []float64
-	for u := 0; u < blocks.Len(); u++ {
-		b := blocks.Block(u)
-		for w := 0; w*dim < len(b); w++ {
-			if normalize.Sampled(seed^0x5eed, u, w, rate) {
-				rows = append(rows, b[w*dim:(w+1)*dim]...)
-			}
-		}
-	}
+	rows := normalize.SampleRows(blocks, dim, seed^0x5eed, rate, nil)
 	if len(rows) == 0 {
 		return nil
 	}

@@ -107,9 +107,7 @@ func chartsSheet(f *excelize.File, st *styles, r *Result) error {
 	}
 	sizeChart := chart(excelize.Col, "Group sizes", []excelize.ChartSeries{{Name: ref(name, 2, top, 2, top), Categories: ref(name, 1, top+1, 1, top+g), Values: ref(name, 2, top+1, 2, top+g),
 		Fill: excelize.Fill{Type: "pattern", Pattern: 1, Color: []string{colour(0)}}}}, "participants")
-	sizeChart.Dimension = excelize.ChartDimension{Width: 420, Height: 300}
-	sizeChart.Legend.Position = "none"
-	if err := f.AddChart(name, fmt.Sprintf("I%d", top), sizeChart); err != nil {
+	if err := f.AddChart(name, fmt.Sprintf("I%d", top), narrow(sizeChart, false)); err != nil {
 		return err
 	}
 	row = max(row+g+3, top+18)
@@ -130,15 +128,12 @@ func chartsSheet(f *excelize.File, st *styles, r *Result) error {
 	if nc > 1 {
 		ch := chart(excelize.Line, "Choosing the number of states: Calinski–Harabasz (larger is better)", []excelize.ChartSeries{
 			lineSeries(name, 2, top, nc, 0)}, "index")
-		ch.Dimension = excelize.ChartDimension{Width: 420, Height: 300}
-		ch.Legend.Position = "none"
-		if err := f.AddChart(name, fmt.Sprintf("I%d", top), ch); err != nil {
+		if err := f.AddChart(name, fmt.Sprintf("I%d", top), narrow(ch, false)); err != nil {
 			return err
 		}
 		ch2 := chart(excelize.Line, "Silhouette (larger is better) and Davies–Bouldin (smaller is better)", []excelize.ChartSeries{
 			lineSeries(name, 3, top, nc, 1), lineSeries(name, 4, top, nc, 2)}, "index")
-		ch2.Dimension = excelize.ChartDimension{Width: 420, Height: 300}
-		if err := f.AddChart(name, fmt.Sprintf("P%d", top), ch2); err != nil {
+		if err := f.AddChart(name, fmt.Sprintf("P%d", top), narrow(ch2, true)); err != nil {
 			return err
 		}
 	}
@@ -225,6 +220,15 @@ func chart(kind excelize.ChartType, title string, series []excelize.ChartSeries,
 		YAxis:     excelize.ChartAxis{MajorGridLines: true, Title: excelize.ChartTitle{Paragraph: []excelize.RichTextRun{{Text: yTitle}}}},
 		PlotArea:  excelize.ChartPlotArea{ShowVal: false},
 	}
+}
+
+// narrow makes a chart half width, for two side by side; without legend for a single series.
+func narrow(ch *excelize.Chart, legend bool) *excelize.Chart {
+	ch.Dimension = excelize.ChartDimension{Width: 420, Height: 300}
+	if !legend {
+		ch.Legend.Position = "none"
+	}
+	return ch
 }
 
 // ref is an absolute range on a sheet, as charts need it.
