@@ -73,9 +73,8 @@ func (o ReadOptions) withDefaults() ReadOptions {
 // windows' features are read with Table.Block.
 type Unit struct {
 	ID, Wave string
-	off      int64    // first value in the table's store
+	at       int64    // first window in the table's store
 	rows     int      // usable windows
-	Order    []int64  // window order key (an integer, or Unix nanoseconds for times)
 	Labels   []string // known activity label per window, when a label column is given
 	Files    []string // the files its windows came from
 	Dropped  int      // windows dropped for missing cells
@@ -122,7 +121,6 @@ type FileInfo struct {
 // removes its temporary file, if it made one.
 type Table struct {
 	store     *store
-	width     int   // values per stored window
 	cols      []int // stored column of each feature
 	Features  []string
 	Units     []*Unit
@@ -145,7 +143,11 @@ func Read(ctx context.Context, paths []string, opts ReadOptions) (*Table, error)
 		dir = os.TempDir()
 	}
 	r := &reader{ctx: ctx, opts: opts, byKey: map[string]*rawUnit{}, raw: &store{dir: dir}}
-	defer r.raw.close()
+	defer func() {
+		if r.raw != nil {
+			r.raw.close()
+		}
+	}()
 	paths, err := expandPaths(paths)
 	if err != nil {
 		return nil, err
@@ -207,12 +209,18 @@ func hasTableExt(name string) bool {
 	return false
 }
 
+// rawUnit is a unit while it is read: where its windows lie in the store, and what finish
+// needs to know of them without reading them back.
 type rawUnit struct {
 	id, wave string
-	runs     []run // where its windows lie in the raw store, in arrival order
-	order    []int64
-	line     []int32
-	file     []int16
+	runs     []run // where its windows lie in the store, in arrival order
+	n        int   // windows
+	lastOrd  int64
+	unsorted bool // a window's order was not above the one before it
+	missing  int  // windows with a missing cell
+	first    []float64
+	varies   []bool // feature j took another value than first[j] (windows with missing cells aside)
+	nVaries  int
 	labels   []string
 	files    []string
 	lastFile string
@@ -220,7 +228,7 @@ type rawUnit struct {
 
 // run is a stretch of consecutive windows of one unit in a store.
 type run struct {
-	off  int64 // first value
+	at   int64 // first window
 	rows int
 }
 
@@ -372,25 +380,13 @@ func (r *reader) readFile(p string) error {
 		for _, f := range rec {
 			line += strings.Count(f, "\n") // quoted newlines
 		}
-		spec := &parseSpec{file: p, header: header, roles: roles, delim: delim, nf: len(r.features)}
-		d := len(r.features)
+		spec := newParseSpec(p, fileIdx, header, roles, delim)
 		err = r.parseBody(br, spec, line+1, func(c *parsedChunk) error {
-			for i := 0; i < c.rows(); i++ {
-				if roles.order >= 0 {
-					if err := r.checkKind(p, header[roles.order], c, i); err != nil {
-						return err
-					}
-				}
-				wave, label := "", ""
-				if roles.wave >= 0 {
-					wave = c.waves[i]
-				}
-				if roles.label >= 0 {
-					label = c.labels[i]
-				}
-				if err := r.appendRow(p, fileIdx, c.ids[i], wave, c.ords[i], roles.order < 0, c.vals[i*d:(i+1)*d], label, int(c.lines[i])); err != nil {
-					return err
-				}
+			if err := r.checkKinds(p, header, roles, c); err != nil {
+				return err
+			}
+			if err := r.mergeChunk(p, c, roles.order < 0); err != nil {
+				return err
 			}
 			rows += c.rows()
 			return nil
@@ -408,61 +404,108 @@ func (r *reader) readFile(p string) error {
 	return nil
 }
 
-// appendRow adds one parsed window to its unit (found by id and wave, or created).
+// appendRow adds one window read cell by cell (from a sheet, a Parquet row or the first line of
+// a text table): vals holds its features.
 func (r *reader) appendRow(p string, fileIdx int, id, wave string, ord int64, fileOrder bool, vals []float64, label string, line int) error {
-	key := id + "\x00" + wave
-	cur := r.last
-	if cur == nil || cur.id != id || cur.wave != wave {
-		cur = r.byKey[key]
-		if cur == nil {
-			cur = &rawUnit{id: id, wave: wave}
-			r.byKey[key] = cur
-			r.units = append(r.units, cur)
-		}
-		r.last = cur
+	d := len(r.features)
+	c := &parsedChunk{vals: make([]float64, d+2)}
+	copy(c.vals, vals)
+	c.vals[d] = math.Float64frombits(uint64(ord))
+	c.vals[d+1] = packSource(fileIdx, line)
+	missing := false
+	for _, v := range vals {
+		missing = missing || math.IsNaN(v)
 	}
-	if cur.lastFile != p {
-		cur.files = append(cur.files, p)
-		cur.lastFile = p
-	}
-	if fileOrder {
-		ord = int64(len(cur.order))
-	}
-	at := r.raw.n
-	if err := r.raw.append(vals); err != nil {
-		return err
-	}
-	if n := len(cur.runs); n > 0 && cur.runs[n-1].off+int64(cur.runs[n-1].rows*len(vals)) == at {
-		cur.runs[n-1].rows++
-	} else {
-		cur.runs = append(cur.runs, run{off: at, rows: 1})
-	}
-	cur.order = append(cur.order, ord)
-	cur.line = append(cur.line, int32(min(line, math.MaxInt32)))
-	cur.file = append(cur.file, int16(fileIdx))
+	c.addWindow([]byte(id), []byte(wave), 0, missing)
 	if r.hasLabels {
-		cur.labels = append(cur.labels, label)
+		c.labels = []string{label}
+	}
+	return r.mergeChunk(p, c, fileOrder)
+}
+
+// mergeChunk adds a chunk's windows to their units and to the store, in order. With fileOrder
+// the order key is the window's place among its unit's windows.
+func (r *reader) mergeChunk(p string, c *parsedChunk, fileOrder bool) error {
+	d := len(r.features)
+	w := d + 2
+	if r.raw.width == 0 {
+		r.raw.width = w
+	}
+	start := 0
+	for _, sg := range c.segs {
+		cur := r.last
+		if cur == nil || cur.id != sg.id || cur.wave != sg.wave {
+			key := sg.id + "\x00" + sg.wave
+			if cur = r.byKey[key]; cur == nil {
+				cur = &rawUnit{id: sg.id, wave: sg.wave, first: make([]float64, d), varies: make([]bool, d)}
+				r.byKey[key] = cur
+				r.units = append(r.units, cur)
+			}
+			r.last = cur
+		}
+		if cur.lastFile != p {
+			cur.files = append(cur.files, p)
+			cur.lastFile = p
+		}
+		block := c.vals[start*w : sg.end*w]
+		for i := start; i < sg.end; i++ {
+			row := c.vals[i*w : (i+1)*w]
+			if fileOrder {
+				row[d] = math.Float64frombits(uint64(cur.n))
+			}
+			ord := int64(math.Float64bits(row[d]))
+			if cur.n > 0 && ord <= cur.lastOrd {
+				cur.unsorted = true
+			}
+			if c.nan != nil && c.nan[i] {
+				cur.missing++
+			} else if cur.n == cur.missing {
+				copy(cur.first, row[:d])
+			} else if cur.nVaries < d {
+				for j, v := range row[:d] {
+					if !cur.varies[j] && v != cur.first[j] {
+						cur.varies[j] = true
+						cur.nVaries++
+					}
+				}
+			}
+			cur.lastOrd = ord
+			cur.n++
+		}
+		at := r.raw.n / int64(w)
+		if err := r.raw.append(block); err != nil {
+			return err
+		}
+		if n := len(cur.runs); n > 0 && cur.runs[n-1].at+int64(cur.runs[n-1].rows) == at {
+			cur.runs[n-1].rows += sg.end - start
+		} else {
+			cur.runs = append(cur.runs, run{at: at, rows: sg.end - start})
+		}
+		if r.hasLabels {
+			cur.labels = append(cur.labels, c.labels[start:sg.end]...)
+		}
+		start = sg.end
 	}
 	return nil
 }
 
-// checkKind refuses a window whose order is of another kind (integer or time) than the first's.
-func (r *reader) checkKind(p, name string, c *parsedChunk, i int) error {
-	kind := "integer"
-	if c.kinds[i] == 't' {
-		kind = "time"
-	}
-	if kind == r.orderKind {
+// checkKinds refuses a chunk's first window whose order is of another kind (integer or time)
+// than the first window's.
+func (r *reader) checkKinds(p string, header []string, ro roles, c *parsedChunk) error {
+	if ro.order < 0 || c.n == 0 {
 		return nil
 	}
-	cell := c.cells[0]
-	for _, oc := range c.cells {
-		if oc.row == i {
-			cell = oc
+	for _, cell := range c.cells {
+		kind := "integer"
+		if c.kinds[cell.row] == 't' {
+			kind = "time"
+		}
+		if kind != r.orderKind {
+			return &InputError{File: p, Line: c.line(cell.row, len(r.features)+2), Column: cell.col, Field: header[ro.order],
+				Msg: fmt.Sprintf("%q is %s but the order column held %ss from %s on; use one kind throughout", cell.text, article(kind), r.orderKind, r.orderAt), Err: ErrOrder}
 		}
 	}
-	return &InputError{File: p, Line: int(c.lines[i]), Column: cell.col, Field: name,
-		Msg: fmt.Sprintf("%q is %s but the order column held %ss from %s on; use one kind throughout", cell.text, article(kind), r.orderKind, r.orderAt), Err: ErrOrder}
+	return nil
 }
 
 func trimPartialRune(b []byte) []byte {
@@ -761,13 +804,17 @@ func article(kind string) string {
 }
 
 // finish sorts each unit's windows, checks duplicates, applies the missing-value policy and the
-// minimum-window rule, and drops constant features; every step is counted in Quality.
+// minimum-window rule, and drops constant features; every step is counted in Quality. A unit
+// whose windows came in order, in one stretch and complete, stays where it is in the store; the
+// others are read back, put right and written again at its end.
 func (r *reader) finish() (*Table, error) {
 	d := len(r.features)
+	w := d + 2
 	if err := r.raw.flush(); err != nil {
 		return nil, err
 	}
-	t := &Table{Features: r.features, Files: r.files, OrderKind: r.orderKind, HasLabels: r.hasLabels, store: &store{dir: r.raw.dir}, width: d}
+	t := &Table{Features: r.features, Files: r.files, OrderKind: r.orderKind, HasLabels: r.hasLabels, store: r.raw}
+	r.raw = nil // the table owns the store now
 	t.cols = make([]int, d)
 	for j := range t.cols {
 		t.cols[j] = j
@@ -787,56 +834,73 @@ func (r *reader) finish() (*Table, error) {
 			t.Close()
 			return nil, r.ctx.Err()
 		}
-		n := len(ru.order)
-		if cap(x) < n*d {
-			x = make([]float64, n*d)
-		}
-		x = x[:n*d]
-		at := 0
-		for _, rn := range ru.runs {
-			if _, err := r.raw.read(rn.off, int64(rn.rows*d), x[at:at+rn.rows*d]); err != nil {
-				t.Close()
-				return nil, err
-			}
-			at += rn.rows * d
-		}
 		u := &Unit{ID: ru.id, Wave: ru.wave, Files: ru.files}
 		if len(ru.files) > 1 {
 			merged++
 		}
+		n := ru.n
+		if len(ru.runs) == 1 && !ru.unsorted && ru.missing == 0 {
+			if n < r.opts.MinWindows {
+				q.Excluded = append(q.Excluded, Exclusion{ID: u.ID, Wave: u.Wave, Windows: n,
+					Reason: fmt.Sprintf("%d usable windows, fewer than the minimum %d (--min-windows)", n, r.opts.MinWindows)})
+				q.WindowsExcluded += n
+				continue
+			}
+			u.at, u.rows, u.Labels = ru.runs[0].at, n, ru.labels
+			constant.addUnit(ru.first, ru.varies)
+			t.Units = append(t.Units, u)
+			continue
+		}
+		x = x[:0]
+		for _, rn := range ru.runs {
+			part, err := t.store.read(rn.at, rn.rows, nil, x[len(x):cap(x)])
+			if err != nil {
+				t.Close()
+				return nil, err
+			}
+			x = append(x, part...) // no copy when part already lies in x's spare room
+		}
+		ord := func(i int) int64 { return int64(math.Float64bits(x[i*w+d])) }
 		idx := make([]int, n)
 		for i := range idx {
 			idx[i] = i
 		}
-		if !sort.SliceIsSorted(idx, func(a, b int) bool { return ru.order[idx[a]] < ru.order[idx[b]] }) {
-			sort.SliceStable(idx, func(a, b int) bool { return ru.order[idx[a]] < ru.order[idx[b]] })
-			u.Sorted = true
-			sortedUnits++
-		}
-		for k := 1; k < n; k++ {
-			a, b := idx[k-1], idx[k]
-			if ru.order[a] == ru.order[b] {
-				fa, fb := r.files[ru.file[a]].Path, r.files[ru.file[b]].Path
-				also := fmt.Sprintf("line %d", ru.line[a])
+		if ru.unsorted {
+			sort.SliceStable(idx, func(a, b int) bool { return ord(idx[a]) < ord(idx[b]) })
+			for k := 1; k < n; k++ {
+				a, b := idx[k-1], idx[k]
+				if ord(a) != ord(b) {
+					continue
+				}
+				fa, la := unpackSource(x[a*w+d+1])
+				fb, lb := unpackSource(x[b*w+d+1])
+				also := fmt.Sprintf("line %d", la)
 				if fa != fb {
-					also = fmt.Sprintf("%s:%d", fa, ru.line[a])
+					also = fmt.Sprintf("%s:%d", r.files[fa].Path, la)
 				}
 				t.Close()
-				return nil, &InputError{File: fb, Line: int(ru.line[b]), Field: r.opts.Order,
+				return nil, &InputError{File: r.files[fb].Path, Line: lb, Field: r.opts.Order,
 					Msg: fmt.Sprintf("participant %s%s has this window twice (also %s); remove one of the rows", ru.id, waveSuffix(ru.wave), also), Err: ErrDuplicate}
+			}
+			for k, i := range idx {
+				if k != i {
+					u.Sorted = true
+					sortedUnits++
+					break
+				}
 			}
 		}
 		// Missing cells: drop the window, or impute the participant's median of the feature.
 		var med []float64
-		if r.opts.Missing == ImputeMedian {
-			med = columnMedians(x, d)
+		if r.opts.Missing == ImputeMedian && ru.missing > 0 {
+			med = columnMedians(x, d, w)
 		}
 		clean = clean[:0]
 		reason := ""
 		for _, i := range idx {
-			row := x[i*d : (i+1)*d]
+			row := x[i*w : (i+1)*w]
 			missing := 0
-			for _, v := range row {
+			for _, v := range row[:d] {
 				if math.IsNaN(v) {
 					missing++
 				}
@@ -845,33 +909,26 @@ func (r *reader) finish() (*Table, error) {
 				u.Dropped++
 				continue
 			}
+			start := len(clean)
+			clean = append(clean, row...)
 			if missing > 0 {
-				for j, v := range row {
+				for j, v := range row[:d] {
 					if math.IsNaN(v) {
 						if math.IsNaN(med[j]) {
 							reason = fmt.Sprintf("feature %s is missing in every window, so it cannot be imputed", r.features[j])
 						}
 						u.Imputed++
-					}
-				}
-				start := len(clean)
-				clean = append(clean, row...)
-				for j := range row {
-					if math.IsNaN(clean[start+j]) {
 						clean[start+j] = med[j]
 					}
 				}
-			} else {
-				clean = append(clean, row...)
 			}
-			u.Order = append(u.Order, ru.order[i])
 			if ru.labels != nil {
 				u.Labels = append(u.Labels, ru.labels[i])
 			}
 		}
-		w := len(clean) / d
-		if reason == "" && w < r.opts.MinWindows {
-			reason = fmt.Sprintf("%d usable windows, fewer than the minimum %d (--min-windows)", w, r.opts.MinWindows)
+		kept := len(clean) / w
+		if reason == "" && kept < r.opts.MinWindows {
+			reason = fmt.Sprintf("%d usable windows, fewer than the minimum %d (--min-windows)", kept, r.opts.MinWindows)
 			if u.Dropped > 0 {
 				reason += fmt.Sprintf("; %d dropped for missing cells", u.Dropped)
 			}
@@ -883,12 +940,12 @@ func (r *reader) finish() (*Table, error) {
 		}
 		q.WindowsDropped += u.Dropped
 		q.CellsImputed += u.Imputed
-		u.off, u.rows = t.store.n, w
+		u.at, u.rows = t.store.n/int64(w), kept
 		if err := t.store.append(clean); err != nil {
 			t.Close()
 			return nil, err
 		}
-		constant.add(clean)
+		constant.add(clean, w)
 		t.Units = append(t.Units, u)
 	}
 	if err := t.store.flush(); err != nil {
@@ -912,27 +969,22 @@ func (r *reader) finish() (*Table, error) {
 // when large enough. The values come from the table's store, in memory or in its file.
 func (t *Table) Block(u int, dst []float64) ([]float64, error) {
 	un := t.Units[u]
-	x, err := t.store.read(un.off, int64(un.rows*t.width), dst)
-	if err != nil || len(t.cols) == t.width && identity(t.cols) {
-		return x, err
-	}
-	d := len(t.cols)
-	out := make([]float64, un.rows*d)
-	for i := 0; i < un.rows; i++ {
-		for a, j := range t.cols {
-			out[i*d+a] = x[i*t.width+j]
-		}
-	}
-	return out, nil
+	return t.store.read(un.at, un.rows, t.cols, dst)
 }
 
-func identity(cols []int) bool {
-	for i, c := range cols {
-		if i != c {
-			return false
-		}
+// Order returns unit u's window order keys (integers, or Unix nanoseconds for times), in
+// window order.
+func (t *Table) Order(u int) ([]int64, error) {
+	un := t.Units[u]
+	bits, err := t.store.read(un.at, un.rows, []int{t.store.width - 2}, nil)
+	if err != nil {
+		return nil, err
 	}
-	return true
+	out := make([]int64, len(bits))
+	for i, v := range bits {
+		out[i] = int64(math.Float64bits(v))
+	}
+	return out, nil
 }
 
 // SelectFeatures keeps the named features, in that order; each must be present.
@@ -975,9 +1027,23 @@ func newConstancy(d int) *constancy {
 	return c
 }
 
-func (c *constancy) add(x []float64) {
+// addUnit adds a unit summarised by its first window's values and which features varied in it.
+func (c *constancy) addUnit(first []float64, varies []bool) {
+	if !c.have {
+		copy(c.first, first)
+		c.have = true
+	}
+	for j := range c.constant {
+		if c.constant[j] && (varies[j] || first[j] != c.first[j]) {
+			c.constant[j] = false
+		}
+	}
+}
+
+// add adds windows of w values whose first len(c.first) are the features.
+func (c *constancy) add(x []float64, w int) {
 	d := len(c.first)
-	for i := 0; i+d <= len(x); i += d {
+	for i := 0; i+w <= len(x); i += w {
 		if !c.have {
 			copy(c.first, x[i:i+d])
 			c.have = true
@@ -1024,16 +1090,16 @@ func (t *Table) dropConstantFeatures(c *constancy) error {
 	return t.SelectFeatures(names)
 }
 
-// columnMedians returns the median of each column of a row-major matrix, ignoring NaN (NaN when a
-// column has no values).
-func columnMedians(x []float64, d int) []float64 {
-	n := len(x) / d
+// columnMedians returns the median of each of the first d columns of a row-major matrix of
+// width w, ignoring NaN (NaN when a column has no values).
+func columnMedians(x []float64, d, w int) []float64 {
+	n := len(x) / w
 	out := make([]float64, d)
 	buf := make([]float64, 0, n)
 	for j := 0; j < d; j++ {
 		buf = buf[:0]
 		for i := 0; i < n; i++ {
-			if v := x[i*d+j]; !math.IsNaN(v) {
+			if v := x[i*w+j]; !math.IsNaN(v) {
 				buf = append(buf, v)
 			}
 		}

@@ -2,39 +2,53 @@ package cohort
 
 import (
 	"bufio"
-	"encoding/binary"
 	"fmt"
-	"math"
 	"os"
+	"sync"
+	"unsafe"
 )
 
-// segSize is the number of values in one in-memory segment.
-const segSize = 1 << 20
+// segRows is the number of windows in one in-memory segment.
+const segRows = 1 << 15
 
 // spillAfter is the number of values a store keeps in memory before it moves them to a
 // temporary file (64 MiB of float64); tests set it small.
 var spillAfter int64 = 8 << 20
 
-// store holds feature values out of the heap's way: in memory while they are few, then in a
-// temporary file (float64, little endian), read back one participant at a time. The file lives in
-// the folder the caller names and is removed by close.
+// store holds windows out of the heap's way, width values a window: in memory while they are
+// few, then in a temporary file, read back one participant at a time. In the file a window's
+// features (all values but the last two) are float32, which keeps 7 significant digits, more
+// than accelerometer features carry, and halves the bytes written and read; the last two values
+// (order key and source, bit patterns) stay 64-bit. The file is this process's scratch, in the
+// machine's byte order, never read elsewhere; it lives in the folder the caller names and is
+// removed by close.
 type store struct {
-	dir  string
-	mem  [][]float64 // segments of segSize values: growing never copies what is held
-	file *os.File
-	w    *bufio.Writer
-	n    int64 // values written
-	buf  []byte
+	dir     string
+	width   int
+	mem     [][]float64 // segments of segRows windows: growing never copies what is held
+	file    *os.File
+	w       *bufio.Writer
+	n       int64 // values appended
+	flushed int64 // values readable from the file
+	enc     []byte
 }
 
+// rowBytes is the size of a window in the file: the float32 features padded to 8 bytes, so
+// that the two 64-bit values are aligned, then those.
+func (s *store) rowBytes() int { return featBytes(s.width-2) + 16 }
+
+func featBytes(d int) int { return 8 * ((d + 1) / 2) }
+
+// append adds whole windows (a multiple of width values).
 func (s *store) append(vals []float64) error {
 	if s.file == nil && s.n+int64(len(vals)) <= spillAfter {
+		seg := segRows * s.width
 		for len(vals) > 0 {
-			if len(s.mem) == 0 || len(s.mem[len(s.mem)-1]) == segSize {
-				s.mem = append(s.mem, make([]float64, 0, segSize))
+			if len(s.mem) == 0 || len(s.mem[len(s.mem)-1]) == seg {
+				s.mem = append(s.mem, make([]float64, 0, seg))
 			}
 			last := &s.mem[len(s.mem)-1]
-			k := min(len(vals), segSize-len(*last))
+			k := min(len(vals), seg-len(*last))
 			*last = append(*last, vals[:k]...)
 			vals = vals[k:]
 			s.n += int64(k)
@@ -62,51 +76,122 @@ func (s *store) append(vals []float64) error {
 }
 
 func (s *store) writeValues(vals []float64) error {
-	if cap(s.buf) < 8*len(vals) {
-		s.buf = make([]byte, 8*len(vals))
+	w, rb := s.width, s.rowBytes()
+	rows := len(vals) / w
+	if cap(s.enc) < rows*rb {
+		s.enc = make([]byte, rows*rb)
 	}
-	b := s.buf[:8*len(vals)]
-	for i, v := range vals {
-		binary.LittleEndian.PutUint64(b[8*i:], math.Float64bits(v))
-	}
+	b := s.enc[:rows*rb]
+	encodeRows(b, vals, w)
 	if _, err := s.w.Write(b); err != nil {
 		return fmt.Errorf("cohort: writing the temporary windows file in %s: %w; free disk space or pass --temp", s.dir, err)
 	}
 	return nil
 }
 
+// encodeRows writes windows of w values in the file's form.
+func encodeRows(b []byte, vals []float64, w int) {
+	d := w - 2
+	fb := featBytes(d)
+	rb := fb + 16
+	for i, o := 0, 0; i+w <= len(vals); i, o = i+w, o+rb {
+		f := unsafe.Slice((*float32)(unsafe.Pointer(&b[o])), d)
+		for j, v := range vals[i : i+d] {
+			f[j] = float32(v)
+		}
+		tail := unsafe.Slice((*float64)(unsafe.Pointer(&b[o+fb])), 2)
+		tail[0], tail[1] = vals[i+d], vals[i+d+1]
+	}
+}
+
 // flush makes everything appended readable.
 func (s *store) flush() error {
-	if s.w == nil {
+	if s.w == nil || s.flushed == s.n {
 		return nil
 	}
 	if err := s.w.Flush(); err != nil {
 		return fmt.Errorf("cohort: writing the temporary windows file in %s: %w; free disk space or pass --temp", s.dir, err)
 	}
+	s.flushed = s.n
 	return nil
 }
 
-// read returns the n values from offset off into dst (reused when large enough).
-func (s *store) read(off, n int64, dst []float64) ([]float64, error) {
-	if int64(cap(dst)) < n {
-		dst = make([]float64, n)
+// scratch holds the bytes of windows read from a store's file.
+var scratch = sync.Pool{New: func() any { return new([]byte) }}
+
+// read returns rows windows from window at, keeping the columns cols of each (all columns when
+// cols is nil), row-major, into dst (reused when large enough).
+func (s *store) read(at int64, rows int, cols []int, dst []float64) ([]float64, error) {
+	w := s.width
+	d := w
+	if cols != nil {
+		d = len(cols)
 	}
-	dst = dst[:n]
+	if cap(dst) < rows*d {
+		dst = make([]float64, rows*d)
+	}
+	dst = dst[:rows*d]
 	if s.file == nil {
-		for done := int64(0); done < n; {
-			seg, at := (off+done)/segSize, (off+done)%segSize
-			done += int64(copy(dst[done:], s.mem[seg][at:]))
+		for i := 0; i < rows; {
+			seg, r := int((at+int64(i))/segRows), int((at+int64(i))%segRows)
+			k := min(rows-i, segRows-r)
+			gather(dst[i*d:(i+k)*d], s.mem[seg][r*w:(r+k)*w], w, cols)
+			i += k
 		}
 		return dst, nil
 	}
-	b := make([]byte, 8*n)
-	if _, err := s.file.ReadAt(b, 8*off); err != nil {
+	if end := (at + int64(rows)) * int64(w); end > s.flushed {
+		if err := s.flush(); err != nil {
+			return nil, err
+		}
+	}
+	rb := s.rowBytes()
+	bp := scratch.Get().(*[]byte)
+	defer scratch.Put(bp)
+	if cap(*bp) < rows*rb {
+		*bp = make([]byte, rows*rb)
+	}
+	buf := (*bp)[:rows*rb]
+	if _, err := s.file.ReadAt(buf, at*int64(rb)); err != nil {
 		return nil, fmt.Errorf("cohort: reading the temporary windows file: %w", err)
 	}
-	for i := range dst {
-		dst[i] = math.Float64frombits(binary.LittleEndian.Uint64(b[8*i:]))
+	fd := w - 2
+	for i := 0; i < rows; i++ {
+		f := unsafe.Slice((*float32)(unsafe.Pointer(&buf[i*rb])), fd)
+		tail := unsafe.Slice((*float64)(unsafe.Pointer(&buf[i*rb+featBytes(fd)])), 2)
+		out := dst[i*d : (i+1)*d]
+		if cols == nil {
+			for j, v := range f {
+				out[j] = float64(v)
+			}
+			out[fd], out[fd+1] = tail[0], tail[1]
+			continue
+		}
+		for a, j := range cols {
+			if j < fd {
+				out[a] = float64(f[j])
+			} else {
+				out[a] = tail[j-fd]
+			}
+		}
 	}
 	return dst, nil
+}
+
+// gather copies the columns cols of each row of src (width w) into dst; all of them when cols
+// is nil.
+func gather(dst, src []float64, w int, cols []int) {
+	if cols == nil {
+		copy(dst, src)
+		return
+	}
+	d := len(cols)
+	for i, o := 0, 0; i+w <= len(src); i, o = i+w, o+d {
+		row, out := src[i:i+w], dst[o:o+d]
+		for a, j := range cols {
+			out[a] = row[j]
+		}
+	}
 }
 
 // close frees the memory and removes the file.

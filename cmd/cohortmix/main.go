@@ -9,6 +9,7 @@ import (
 	"io"
 	"os"
 	"os/signal"
+	"runtime/pprof"
 	"syscall"
 
 	"github.com/spf13/cobra"
@@ -62,6 +63,16 @@ func main() {
 	defer stop()
 	st, _ := os.Stderr.Stat()
 	env := &Env{IO: IO{In: os.Stdin, Out: os.Stdout, Err: os.Stderr, ErrIsTTY: st != nil && st.Mode()&os.ModeCharDevice != 0}}
+	// COHORTMIX_CPUPROFILE names a file for a CPU profile of the run (for 'go tool pprof'); a
+	// developer's aid, documented in the README.
+	if p := os.Getenv("COHORTMIX_CPUPROFILE"); p != "" {
+		if f, err := os.Create(p); err == nil && pprof.StartCPUProfile(f) == nil {
+			code := run(ctx, env, os.Args[1:])
+			pprof.StopCPUProfile()
+			f.Close()
+			os.Exit(code)
+		}
+	}
 	os.Exit(run(ctx, env, os.Args[1:]))
 }
 
