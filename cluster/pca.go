@@ -134,12 +134,16 @@ func (p *PCA) TransformRow(dst, x []float64) []float64 {
 		dst = make([]float64, k)
 	}
 	raw := p.Components.RawMatrix()
-	for c := 0; c < k; c++ {
-		var s float64
-		for j, v := range x {
-			s += (v - p.Mean[j]) * raw.Data[j*raw.Stride+c]
+	// Row by row of the loadings, so that memory is read in order; each dst[c] still sums its
+	// terms in the order j = 0, 1, …, which keeps the result bit for bit that of a dot product.
+	out := dst[:k]
+	clear(out)
+	for j, v := range x {
+		v -= p.Mean[j]
+		row := raw.Data[j*raw.Stride : j*raw.Stride+k]
+		for c, l := range row {
+			out[c] += v * l
 		}
-		dst[c] = s
 	}
 	return dst
 }

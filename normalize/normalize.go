@@ -20,11 +20,11 @@
 package normalize
 
 import (
+	"context"
 	"errors"
 	"fmt"
 	"math"
 	"path"
-	"sort"
 
 	"github.com/cohortmix/cohortmix/cluster"
 	"github.com/cohortmix/cohortmix/cluster/groupstat"
@@ -99,6 +99,12 @@ type Options struct {
 	NoPCA          bool
 	SampleRate     float64 // share of windows used to fit robust scaling and PCA; 0 means all (≤ 1)
 	Seed           uint64
+	// Keep, when set, is shown every window of the within-step pass that Sampled(Seed, u, w,
+	// KeepRate) keeps, with its within-step values; Fit.Cohort finishes them once the fit is
+	// made. It spares a caller who needs another sample of normalized windows a pass.
+	Keep     func(u, w int, within []float64)
+	KeepRate float64
+	Workers  int // goroutines for the passes over the blocks; 0 means one per core; never changes the result
 }
 
 // Fit is the frozen normalization.
@@ -117,6 +123,9 @@ type Fit struct {
 	PCA        *cluster.PCA // nil when off
 	ICC        []float64    // ICC(1) of each raw feature
 	Warnings   []string
+	// Units holds the baseline of each participant the fit was made on, in blocks order, for
+	// ApplyUnit. It is not part of the frozen model: a new participant's is found from its windows.
+	Units []Baseline
 }
 
 // OutDim is the number of columns Apply produces.
@@ -134,63 +143,98 @@ func (f *Fit) OutDim() int {
 func ICC(units [][]float64, d int) []float64 { return iccBlocks(SliceBlocks(units), d) }
 
 func iccBlocks(blocks Blocks, d int) []float64 {
-	// One pass: each participant's size, means and within sum of squares.
-	type unit struct {
-		n    float64
-		mean []float64
-	}
-	var units []unit
-	var N, sumN2 float64
-	grand := make([]float64, d)
-	ssw := make([]float64, d)
+	acc := newICCAcc(d)
 	for u := 0; u < blocks.Len(); u++ {
-		x := blocks.Block(u)
-		n := len(x) / d
-		if n == 0 {
-			continue
-		}
-		mean := make([]float64, d)
-		for i := 0; i < n; i++ {
-			for j := 0; j < d; j++ {
-				mean[j] += x[i*d+j]
-			}
-		}
-		for j := range mean {
-			grand[j] += mean[j]
-			mean[j] /= float64(n)
-		}
-		for i := 0; i < n; i++ {
-			for j := 0; j < d; j++ {
-				v := x[i*d+j] - mean[j]
-				ssw[j] += v * v
-			}
-		}
-		units = append(units, unit{float64(n), mean})
-		N += float64(n)
-		sumN2 += float64(n * n)
+		acc.add(blocks.Block(u))
 	}
-	a := len(units)
+	return acc.icc()
+}
+
+// iccAcc gathers, one participant at a time, what ICC(1) needs: each participant's size and
+// means, and the pooled within sum of squares.
+type iccAcc struct {
+	d          int
+	N, sumN2   float64
+	grand, ssw []float64
+	sizes      []float64
+	means      [][]float64
+}
+
+func newICCAcc(d int) *iccAcc {
+	return &iccAcc{d: d, grand: make([]float64, d), ssw: make([]float64, d)}
+}
+
+func (a *iccAcc) add(x []float64) { a.merge(unitICC(x, a.d)) }
+
+// iccUnit is one participant's part of ICC(1).
+type iccUnit struct {
+	n         int
+	sum, mean []float64
+	ssw       []float64
+}
+
+func unitICC(x []float64, d int) iccUnit {
+	n := len(x) / d
+	if n == 0 {
+		return iccUnit{}
+	}
+	sum, mean, ssw := make([]float64, d), make([]float64, d), make([]float64, d)
+	for i := 0; i < n; i++ {
+		for j, v := range x[i*d : (i+1)*d] {
+			sum[j] += v
+		}
+	}
+	for j := range mean {
+		mean[j] = sum[j] / float64(n)
+	}
+	for i := 0; i < n; i++ {
+		for j, v := range x[i*d : (i+1)*d] {
+			v -= mean[j]
+			ssw[j] += v * v
+		}
+	}
+	return iccUnit{n, sum, mean, ssw}
+}
+
+func (a *iccAcc) merge(p iccUnit) {
+	if p.n == 0 {
+		return
+	}
+	for j := range a.grand {
+		a.grand[j] += p.sum[j]
+		a.ssw[j] += p.ssw[j]
+	}
+	a.sizes = append(a.sizes, float64(p.n))
+	a.means = append(a.means, p.mean)
+	a.N += float64(p.n)
+	a.sumN2 += float64(p.n * p.n)
+}
+
+func (a *iccAcc) icc() []float64 {
+	d := a.d
+	k := len(a.sizes)
 	out := make([]float64, d)
-	if a < 2 {
+	if k < 2 {
 		for j := range out {
 			out[j] = math.NaN()
 		}
 		return out
 	}
-	ssb := make([]float64, d)
+	grand := make([]float64, d)
 	for j := range grand {
-		grand[j] /= N
+		grand[j] = a.grand[j] / a.N
 	}
-	for _, u := range units {
+	ssb := make([]float64, d)
+	for u, mean := range a.means {
 		for j := range ssb {
-			dm := u.mean[j] - grand[j]
-			ssb[j] += u.n * dm * dm
+			dm := mean[j] - grand[j]
+			ssb[j] += a.sizes[u] * dm * dm
 		}
 	}
-	n0 := (N - sumN2/N) / float64(a-1)
+	n0 := (a.N - a.sumN2/a.N) / float64(k-1)
 	for j := range out {
-		msb := ssb[j] / float64(a-1)
-		msw := ssw[j] / (N - float64(a))
+		msb := ssb[j] / float64(k-1)
+		msw := a.ssw[j] / (a.N - float64(k))
 		if den := msb + (n0-1)*msw; den > 0 {
 			out[j] = (msb - msw) / den
 		} else {
@@ -231,7 +275,7 @@ func (s SliceBlocks) Block(u int) []float64 { return s[u] }
 // FitTransform fits the normalization to the units (each a windows × len(features) block) and
 // returns the fit with the transformed blocks.
 func FitTransform(features []string, units [][]float64, opts Options) (*Fit, [][]float64, error) {
-	f, err := FitBlocks(features, SliceBlocks(units), opts)
+	f, err := FitBlocks(context.Background(), features, SliceBlocks(units), opts)
 	if err != nil {
 		return nil, nil, err
 	}
@@ -247,7 +291,7 @@ func FitTransform(features []string, units [][]float64, opts Options) (*Fit, [][
 // within-participant step per participant, with the cohort mean and s.d. merged across
 // participants (Chan, Golub & LeVeque 1979) and the sample of within-step windows; then the
 // robust scales and the PCA from the sample.
-func FitBlocks(features []string, blocks Blocks, opts Options) (*Fit, error) {
+func FitBlocks(ctx context.Context, features []string, blocks Blocks, opts Options) (*Fit, error) {
 	d := len(features)
 	if d == 0 || blocks.Len() == 0 {
 		return nil, fmt.Errorf("normalize: no features or no participants: %w", ErrData)
@@ -267,7 +311,24 @@ func FitBlocks(features []string, blocks Blocks, opts Options) (*Fit, error) {
 	if opts.SampleRate == 0 {
 		opts.SampleRate = 1
 	}
-	f := &Fit{Features: features, Within: opts.Within, RestShare: opts.RestShare, ScaleKind: opts.Scale, ICC: iccBlocks(blocks, d)}
+	// Pass 1: ICC(1) and the sample of raw windows.
+	acc := newICCAcc(d)
+	var raw []float64
+	type part1 struct {
+		icc    iccUnit
+		sample []float64
+	}
+	err := EachBlock(ctx, blocks, opts.Workers, func(u int, x []float64) (part1, error) {
+		return part1{unitICC(x, d), appendSampled(nil, x, d, u, opts.Seed, opts.SampleRate)}, nil
+	}, func(_ int, p part1) error {
+		acc.merge(p.icc)
+		raw = append(raw, p.sample...)
+		return nil
+	})
+	if err != nil {
+		return nil, err
+	}
+	f := &Fit{Features: features, Within: opts.Within, RestShare: opts.RestShare, ScaleKind: opts.Scale, ICC: acc.icc()}
 	f.Touched = make([]bool, d)
 	switch {
 	case opts.Within == WithinNone:
@@ -301,19 +362,50 @@ func FitBlocks(features []string, blocks Blocks, opts Options) (*Fit, error) {
 	}
 	// The quiet score ranks a participant's windows by the cohort-scaled mean of the untouched
 	// features (all features when every one is touched).
-	f.QuietMid, f.QuietScale = medianMAD(SampleRows(blocks, d, opts.Seed, opts.SampleRate, nil), d)
+	f.QuietMid, f.QuietScale = medianMAD(raw, d)
+	raw = nil
 	for j := range features {
 		if !f.Touched[j] || all {
 			f.QuietScore = append(f.QuietScore, j)
 		}
 	}
-	// Cohort step, on the within-step windows.
+	// Pass 2: each participant's baseline, kept for ApplyUnit, and the cohort step's statistics
+	// and sample, on the within-step windows.
 	var moments moments
-	sample := SampleRows(blocks, d, opts.Seed, opts.SampleRate, func(x []float64) []float64 {
-		y := f.within(x)
-		moments.add(y, d)
-		return y
+	var sample []float64
+	f.Units = make([]Baseline, blocks.Len())
+	type part2 struct {
+		base         Baseline
+		mom          unitMoments
+		sample, kept []float64
+		keptAt       []int
+	}
+	err = EachBlock(ctx, blocks, opts.Workers, func(u int, x []float64) (part2, error) {
+		p := part2{base: f.Baseline(x)}
+		y := f.within(x, p.base)
+		p.mom = momentsOf(y, d)
+		p.sample = appendSampled(nil, y, d, u, opts.Seed, opts.SampleRate)
+		if opts.Keep != nil {
+			for w := 0; w*d < len(y); w++ {
+				if Sampled(opts.Seed, u, w, opts.KeepRate) {
+					p.kept = append(p.kept, y[w*d:(w+1)*d]...)
+					p.keptAt = append(p.keptAt, w)
+				}
+			}
+		}
+		return p, nil
+	}, func(u int, p part2) error {
+		f.Units[u] = p.base
+		moments.merge(p.mom)
+		sample = append(sample, p.sample...)
+		for i, w := range p.keptAt {
+			opts.Keep(u, w, p.kept[i*d:(i+1)*d])
+		}
+		return nil
 	})
+	if err != nil {
+		return nil, err
+	}
 	switch opts.Scale {
 	case ScaleZ:
 		f.Center, f.Spread = moments.meanSD()
@@ -359,10 +451,16 @@ func SampleRows(blocks Blocks, d int, seed uint64, rate float64, tf func([]float
 		if tf != nil {
 			x = tf(x)
 		}
-		for w := 0; w*d < len(x); w++ {
-			if Sampled(seed, u, w, rate) {
-				rows = append(rows, x[w*d:(w+1)*d]...)
-			}
+		rows = appendSampled(rows, x, d, u, seed, rate)
+	}
+	return rows
+}
+
+// appendSampled appends the windows of participant u's block x that Sampled keeps at rate.
+func appendSampled(rows, x []float64, d, u int, seed uint64, rate float64) []float64 {
+	for w := 0; w*d < len(x); w++ {
+		if Sampled(seed, u, w, rate) {
+			rows = append(rows, x[w*d:(w+1)*d]...)
 		}
 	}
 	return rows
@@ -375,31 +473,48 @@ type moments struct {
 	mean, m2 []float64
 }
 
-func (m *moments) add(x []float64, d int) {
-	nb := float64(len(x) / d)
-	if nb == 0 {
-		return
-	}
-	if m.mean == nil {
-		m.mean, m.m2 = make([]float64, d), make([]float64, d)
+// unitMoments is one participant's size, means and sums of squared deviations.
+type unitMoments struct {
+	n      float64
+	mu, ss []float64
+}
+
+func momentsOf(x []float64, d int) unitMoments {
+	p := unitMoments{n: float64(len(x) / d), mu: make([]float64, d), ss: make([]float64, d)}
+	if p.n == 0 {
+		return p
 	}
 	for j := 0; j < d; j++ {
 		var mu float64
 		for i := j; i < len(x); i += d {
 			mu += x[i]
 		}
-		mu /= nb
+		mu /= p.n
 		var ss float64
 		for i := j; i < len(x); i += d {
 			v := x[i] - mu
 			ss += v * v
 		}
-		delta := mu - m.mean[j]
-		tot := m.n + nb
-		m.mean[j] += delta * nb / tot
-		m.m2[j] += ss + delta*delta*m.n*nb/tot
+		p.mu[j], p.ss[j] = mu, ss
 	}
-	m.n += nb
+	return p
+}
+
+func (m *moments) merge(p unitMoments) {
+	if p.n == 0 {
+		return
+	}
+	d := len(p.mu)
+	if m.mean == nil {
+		m.mean, m.m2 = make([]float64, d), make([]float64, d)
+	}
+	for j := 0; j < d; j++ {
+		delta := p.mu[j] - m.mean[j]
+		tot := m.n + p.n
+		m.mean[j] += delta * p.n / tot
+		m.m2[j] += p.ss[j] + delta*delta*m.n*p.n/tot
+	}
+	m.n += p.n
 }
 
 // meanSD is the mean and the population s.d. (as sklearn.preprocessing.StandardScaler).
@@ -411,9 +526,33 @@ func (m *moments) meanSD() ([]float64, []float64) {
 	return m.mean, sd
 }
 
+// Baseline is one participant's within-step: each feature's centre and scale (0 and 1 for the
+// features the step leaves alone).
+type Baseline struct {
+	Center, Scale []float64
+}
+
 // Apply transforms one new participant's windows with the frozen fit.
-func (f *Fit) Apply(x []float64) []float64 {
-	y := f.within(x)
+func (f *Fit) Apply(x []float64) []float64 { return f.ApplyBaseline(x, f.Baseline(x)) }
+
+// ApplyUnit transforms the windows of participant u of the blocks the fit was made on, with the
+// baseline found for it then; a fit without Units (one read back from a model) finds it anew,
+// as Apply does.
+func (f *Fit) ApplyUnit(u int, x []float64) []float64 {
+	if f.Units == nil {
+		return f.Apply(x)
+	}
+	return f.ApplyBaseline(x, f.Units[u])
+}
+
+// ApplyBaseline transforms a participant's windows with a baseline found for them.
+func (f *Fit) ApplyBaseline(x []float64, b Baseline) []float64 {
+	return f.Cohort(f.within(x, b))
+}
+
+// Cohort applies the cohort step (scaling, then the PCA projection) to windows that had the
+// within-participant step, in place when there is no projection.
+func (f *Fit) Cohort(y []float64) []float64 {
 	f.scale(y)
 	if f.PCA != nil {
 		y = f.project(y)
@@ -421,42 +560,67 @@ func (f *Fit) Apply(x []float64) []float64 {
 	return y
 }
 
-// within applies the within-participant step to one participant's block, returning a copy.
-func (f *Fit) within(x []float64) []float64 {
+// Baseline finds a participant's within-step baseline from its windows: the median of each
+// touched feature over its quietest windows (rest) or all windows, and for robust z the MAD.
+func (f *Fit) Baseline(x []float64) Baseline {
 	d := len(f.Features)
 	n := len(x) / d
-	y := append([]float64(nil), x...)
+	b := Baseline{Center: make([]float64, d), Scale: make([]float64, d)}
+	for j := range b.Scale {
+		b.Scale[j] = 1
+	}
 	if f.Within == WithinNone || n == 0 {
-		return y
+		return b
 	}
-	rows := make([]int, n)
-	for i := range rows {
-		rows[i] = i
-	}
+	var rows []int
 	if f.Within == WithinRest {
 		rows = f.quietest(x, n)
 	}
-	buf := make([]float64, 0, len(rows))
+	count := n
+	if rows != nil {
+		count = len(rows)
+	}
+	buf := make([]float64, 0, count)
 	for j := 0; j < d; j++ {
 		if !f.Touched[j] {
 			continue
 		}
 		buf = buf[:0]
-		for _, i := range rows {
-			buf = append(buf, x[i*d+j])
+		if rows != nil {
+			for _, i := range rows {
+				buf = append(buf, x[i*d+j])
+			}
+		} else {
+			for i := 0; i < n; i++ {
+				buf = append(buf, x[i*d+j])
+			}
 		}
 		med := median(buf)
-		scale := 1.0
+		b.Center[j] = med
 		if f.Within == WithinRobustZ {
 			for k := range buf {
 				buf[k] = math.Abs(buf[k] - med)
 			}
 			if mad := median(buf) * 1.4826; mad > 0 {
-				scale = mad
+				b.Scale[j] = mad
 			}
 		}
-		for i := 0; i < n; i++ {
-			y[i*d+j] = (x[i*d+j] - med) / scale
+	}
+	return b
+}
+
+// within applies the within-participant step with baseline b, returning a copy.
+func (f *Fit) within(x []float64, b Baseline) []float64 {
+	d := len(f.Features)
+	y := append([]float64(nil), x...)
+	if f.Within == WithinNone {
+		return y
+	}
+	for i := 0; i+d <= len(y); i += d {
+		for j, t := range f.Touched {
+			if t {
+				y[i+j] = (x[i+j] - b.Center[j]) / b.Scale[j]
+			}
 		}
 	}
 	return y
@@ -477,13 +641,24 @@ func (f *Fit) quietest(x []float64, n int) []int {
 		}
 		score[i] = s
 	}
-	idx := make([]int, n)
-	for i := range idx {
-		idx[i] = i
-	}
-	sort.SliceStable(idx, func(a, b int) bool { return score[idx[a]] < score[idx[b]] })
+	// The m lowest scores, ties taken in window order: what a stable sort's first m would be.
 	m := max(1, int(math.Ceil(f.RestShare*float64(n))))
-	return idx[:m]
+	cut := groupstat.SelectKth(append([]float64(nil), score...), m-1)
+	idx := make([]int, 0, m)
+	for i, s := range score {
+		if s < cut {
+			idx = append(idx, i)
+		}
+	}
+	for i, s := range score {
+		if len(idx) == m {
+			break
+		}
+		if s == cut {
+			idx = append(idx, i)
+		}
+	}
+	return idx
 }
 
 func (f *Fit) scale(x []float64) {

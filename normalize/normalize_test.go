@@ -1,6 +1,7 @@
 package normalize
 
 import (
+	"context"
 	"errors"
 	"fmt"
 	"math"
@@ -90,4 +91,51 @@ func ExampleICC() {
 	fmt.Printf("%.4f %.4f\n", icc[0], icc[1])
 	// By hand: f0 has MSB 150, MSW 1, n₀ 3, so (150 − 1)/(150 + 2·1) = 0.9803; f1 has MSB 0, MSW 1.
 	// Output: 0.9803 -0.5000
+}
+
+// The baselines kept from the fitting pass give what finding them anew gives, bit for bit, and
+// the windows handed to Keep, finished by Cohort, are the sampled rows of Apply's output.
+func TestKeptBaselinesAndSampleMatchApply(t *testing.T) {
+	units := make([][]float64, 6)
+	for u := range units {
+		for w := 0; w < 40; w++ {
+			units[u] = append(units[u], float64(u)*3+math.Sin(float64(w)), math.Cos(float64(w*u)), float64((w*7+u)%11))
+		}
+	}
+	type key struct{ u, w int }
+	kept := map[key][]float64{}
+	opts := Options{Within: WithinRest, Seed: 9, KeepRate: 0.3, Keep: func(u, w int, row []float64) {
+		kept[key{u, w}] = append([]float64(nil), row...)
+	}}
+	fit, err := FitBlocks(context.Background(), []string{"a", "b", "c"}, SliceBlocks(units), opts)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(fit.Units) != len(units) || len(kept) == 0 {
+		t.Fatalf("%d baselines for %d participants, %d kept windows", len(fit.Units), len(units), len(kept))
+	}
+	k := fit.OutDim()
+	for u, x := range units {
+		want, got := fit.Apply(x), fit.ApplyUnit(u, x)
+		for i := range want {
+			if math.Float64bits(want[i]) != math.Float64bits(got[i]) {
+				t.Fatalf("participant %d value %d: ApplyUnit %v, Apply %v", u, i, got[i], want[i])
+			}
+		}
+		for w := 0; w < 40; w++ {
+			row, ok := kept[key{u, w}]
+			if ok != Sampled(9, u, w, 0.3) {
+				t.Fatalf("participant %d window %d kept %v, Sampled says otherwise", u, w, ok)
+			}
+			if !ok {
+				continue
+			}
+			done := fit.Cohort(row)
+			for j := 0; j < k; j++ {
+				if math.Abs(done[j]-want[w*k+j]) > 1e-12 {
+					t.Fatalf("participant %d window %d: kept and finished %v, Apply %v", u, w, done, want[w*k:(w+1)*k])
+				}
+			}
+		}
+	}
 }

@@ -65,15 +65,19 @@ const ChoiceRule = "largest Calinski–Harabasz index on a sample of windows (Ca
 // Sample draws the reproducible sample of about size windows that the states are fitted on, from
 // blocks of normalized windows (total windows in all), by normalize.Sampled.
 func Sample(blocks normalize.Blocks, dim, size, total int, seed uint64) *mat.Dense {
-	if size == 0 {
-		size = 50_000
-	}
-	rate := min(1, float64(size)/float64(max(1, total)))
-	rows := normalize.SampleRows(blocks, dim, seed^0x5eed, rate, nil)
+	rows := normalize.SampleRows(blocks, dim, seed, SampleRate(size, total), nil)
 	if len(rows) == 0 {
 		return nil
 	}
 	return mat.NewDense(len(rows)/dim, dim, rows)
+}
+
+// SampleRate is the share of windows that gives a sample of about size (0 means 50,000) of total.
+func SampleRate(size, total int) float64 {
+	if size == 0 {
+		size = 50_000
+	}
+	return min(1, float64(size)/float64(max(1, total)))
 }
 
 // FitStates learns the states from a sample of normalized windows (see Sample). With a range of

@@ -18,6 +18,7 @@ import (
 	"errors"
 	"fmt"
 	"math"
+	"math/bits"
 	"sort"
 
 	"gonum.org/v1/gonum/stat/distuv"
@@ -149,15 +150,75 @@ func CliffsDelta(x, y []float64) (float64, error) {
 	return float64(more-less) / float64(len(x)*len(y)), nil
 }
 
-// Median sorts xs in place and returns its median (NaN when empty).
+// Median reorders xs in place and returns its median (NaN when empty): the middle value, or
+// the mean of the two middle ones. It selects rather than sorts (Hoare's quickselect with a
+// median-of-three pivot, falling back to a sort after 2·log₂n rounds), so it takes linear time.
 func Median(xs []float64) float64 {
-	if len(xs) == 0 {
+	n := len(xs)
+	if n == 0 {
 		return math.NaN()
 	}
-	sort.Float64s(xs)
-	m := len(xs) / 2
-	if len(xs)%2 == 1 {
-		return xs[m]
+	for _, v := range xs {
+		if v != v { // NaN: keep the order a sort gives (NaN first)
+			sort.Float64s(xs)
+			return middle(xs)
+		}
 	}
-	return (xs[m-1] + xs[m]) / 2
+	m := n / 2
+	hi := SelectKth(xs, m)
+	if n%2 == 1 {
+		return hi
+	}
+	lo := xs[0]
+	for _, v := range xs[1:m] {
+		lo = max(lo, v)
+	}
+	return (lo + hi) / 2
+}
+
+func middle(sorted []float64) float64 {
+	m := len(sorted) / 2
+	if len(sorted)%2 == 1 {
+		return sorted[m]
+	}
+	return (sorted[m-1] + sorted[m]) / 2
+}
+
+// SelectKth reorders xs so that xs[k] is its k-th smallest value (from 0), with no larger value
+// before it and no smaller one after, and returns it in linear expected time. xs holds no NaN.
+func SelectKth(xs []float64, k int) float64 {
+	lo, hi := 0, len(xs)-1
+	rounds := 2*bits.Len(uint(len(xs))) + 4
+	for hi > lo {
+		if rounds == 0 {
+			sort.Float64s(xs[lo : hi+1])
+			return xs[k]
+		}
+		rounds--
+		a, b, c := xs[lo], xs[lo+(hi-lo)/2], xs[hi]
+		pivot := max(min(a, b), min(max(a, b), c))
+		i, j := lo, hi
+		for i <= j {
+			for xs[i] < pivot {
+				i++
+			}
+			for xs[j] > pivot {
+				j--
+			}
+			if i <= j {
+				xs[i], xs[j] = xs[j], xs[i]
+				i++
+				j--
+			}
+		}
+		switch {
+		case k <= j:
+			hi = j
+		case k >= i:
+			lo = i
+		default:
+			return xs[k] // between the two parts every value equals the pivot
+		}
+	}
+	return xs[k]
 }

@@ -5,8 +5,10 @@ import (
 	"errors"
 	"fmt"
 	"math"
+	"math/rand/v2"
 	"os"
 	"path/filepath"
+	"sort"
 	"strings"
 	"testing"
 )
@@ -147,4 +149,41 @@ func ExampleKruskalWallis() {
 	r, _ := KruskalWallis([][]float64{{2.1, 3.4, 1.9, 2.8}, {4.5, 5.1, 3.9, 4.8}, {2.5, 3.0, 2.2, 3.6}})
 	fmt.Printf("H = %.4f, df = %d, p = %.4f, ε² = %.4f\n", r.H, r.DF, r.P, r.Epsilon2)
 	// Output: H = 7.7308, df = 2, p = 0.0210, ε² = 0.7028
+}
+
+// Median selects; it must give what the definition gives on a sorted copy (the middle value, or
+// the mean of the two middle ones, as numpy.median), on random values with many ties and on
+// the orders that defeat a naive pivot (sorted, reversed, all equal, organ pipe).
+func TestMedianSelectsLikeASort(t *testing.T) {
+	rng := rand.New(rand.NewPCG(1, 2))
+	var cases [][]float64
+	for n := 1; n <= 300; n++ {
+		x := make([]float64, n)
+		for i := range x {
+			x[i] = float64(rng.IntN(1 + n/3))
+		}
+		cases = append(cases, x)
+	}
+	for _, n := range []int{1000, 1001, 5000} {
+		sorted, reversed, equal, pipe := make([]float64, n), make([]float64, n), make([]float64, n), make([]float64, n)
+		for i := 0; i < n; i++ {
+			sorted[i], reversed[i], equal[i], pipe[i] = float64(i), float64(n-i), 7, float64(min(i, n-i))
+		}
+		cases = append(cases, sorted, reversed, equal, pipe)
+	}
+	for _, x := range cases {
+		want := append([]float64(nil), x...)
+		sort.Float64s(want)
+		m := len(want) / 2
+		w := want[m]
+		if len(want)%2 == 0 {
+			w = (want[m-1] + want[m]) / 2
+		}
+		if got := Median(append([]float64(nil), x...)); got != w {
+			t.Fatalf("n %d: median %v, sorted copy gives %v", len(x), got, w)
+		}
+	}
+	if !math.IsNaN(Median(nil)) {
+		t.Error("median of nothing should be NaN")
+	}
 }

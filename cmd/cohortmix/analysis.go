@@ -6,11 +6,13 @@ import (
 	"math"
 	"sort"
 	"strings"
+	"sync"
 
 	"github.com/cohortmix/cohortmix/cohort"
 	"github.com/cohortmix/cohortmix/normalize"
 	"github.com/cohortmix/cohortmix/profile"
 	"github.com/cohortmix/cohortmix/reports"
+	"gonum.org/v1/gonum/mat"
 )
 
 // analysisOptions are the settings of one run of the main job.
@@ -96,7 +98,12 @@ func fitAll(ctx context.Context, o analysisOptions) (f *fitted, err error) {
 		o.Norm.SampleRate = float64(normSample) / float64(total) // robust scales and PCA from a sample
 	}
 	raw := &rawBlocks{t: t}
-	fit, err := normalize.FitBlocks(t.Features, raw, o.Norm)
+	// The states' sample is drawn in the normalizing pass, from the same hash as its own sample.
+	var kept []float64
+	o.Norm.KeepRate = profile.SampleRate(o.Sample, t.Quality.WindowsIn-t.Quality.WindowsDropped-t.Quality.WindowsExcluded)
+	o.Norm.Keep = func(_, _ int, row []float64) { kept = append(kept, row...) }
+	o.Norm.Workers = o.Workers
+	fit, err := normalize.FitBlocks(ctx, t.Features, raw, o.Norm)
 	if err == nil {
 		err = raw.err
 	}
@@ -104,17 +111,17 @@ func fitAll(ctx context.Context, o analysisOptions) (f *fitted, err error) {
 		return nil, err
 	}
 	step("fitting movement states")
-	normed := &normedBlocks{rawBlocks{t: t}, fit}
-	sample := profile.Sample(normed, fit.OutDim(), o.Sample, t.Quality.WindowsIn-t.Quality.WindowsDropped-t.Quality.WindowsExcluded, o.Seed)
-	if normed.err != nil {
-		return nil, normed.err
+	var sample *mat.Dense
+	if len(kept) > 0 {
+		rows := fit.Cohort(kept)
+		sample = mat.NewDense(len(rows)/fit.OutDim(), fit.OutDim(), rows)
 	}
 	states, err := profile.FitStates(ctx, sample, profile.Options{States: o.States, Seed: o.Seed, Workers: o.Workers})
 	if err != nil {
 		return nil, err
 	}
 	step("assigning windows")
-	if f, err = assignWindows(ctx, t, fit, states); err != nil {
+	if f, err = assignWindows(ctx, t, fit, states, o.Workers); err != nil {
 		return nil, err
 	}
 	sigs := f.sigs
@@ -131,33 +138,31 @@ func fitAll(ctx context.Context, o analysisOptions) (f *fitted, err error) {
 	return f, nil
 }
 
-// rawBlocks gives each unit's windows as read; normedBlocks gives them normalized by a fit,
-// computed when asked for, so that no second copy of all windows is held. A failed read of the
-// table's temporary file gives an empty block and is kept in err.
+// rawBlocks gives each unit's windows as read, so that no second copy of all windows is held. A
+// failed read of the table's temporary file gives an empty block and is kept in err.
 type rawBlocks struct {
 	t   *cohort.Table
+	mu  sync.Mutex // Block is called from several goroutines
 	err error
 }
 
 func (b *rawBlocks) Len() int { return len(b.t.Units) }
 func (b *rawBlocks) Block(u int) []float64 {
 	x, err := b.t.Block(u, nil)
-	if err != nil && b.err == nil {
-		b.err = err
+	if err != nil {
+		b.mu.Lock()
+		if b.err == nil {
+			b.err = err
+		}
+		b.mu.Unlock()
 	}
 	return x
 }
 
-type normedBlocks struct {
-	rawBlocks
-	fit *normalize.Fit
-}
-
-func (b *normedBlocks) Block(u int) []float64 { return b.fit.Apply(b.rawBlocks.Block(u)) }
-
 // assignWindows is the pass over every unit that gives each window its state and each unit its
-// signature, and accumulates the states' descriptions and the states × labels table.
-func assignWindows(ctx context.Context, t *cohort.Table, fit *normalize.Fit, states *profile.States) (*fitted, error) {
+// signature, and accumulates the states' descriptions and the states × labels table. Units are
+// normalized and assigned on all cores; what is accumulated is added in unit order.
+func assignWindows(ctx context.Context, t *cohort.Table, fit *normalize.Fit, states *profile.States, workers int) (*fitted, error) {
 	f := &fitted{t: t, fit: fit, states: states, sigs: make([]profile.Signature, len(t.Units)), medians: make([][]float64, len(t.Units))}
 	ds := profile.NewDescriber(len(t.Features), states.K)
 	var lc *profile.LabelCounter
@@ -165,31 +170,37 @@ func assignWindows(ctx context.Context, t *cohort.Table, fit *normalize.Fit, sta
 		lc = profile.NewLabelCounter(states.K)
 	}
 	d := len(t.Features)
-	var x, col []float64
-	for i, u := range t.Units {
-		if i%256 == 0 && ctx.Err() != nil {
-			return nil, ctx.Err()
-		}
-		var err error
-		if x, err = t.Block(i, x); err != nil {
-			return nil, err
-		}
-		labels := states.Assign(fit.Apply(x))
+	type unitResult struct {
+		x      []float64
+		labels []int
+	}
+	raw := &rawBlocks{t: t}
+	err := normalize.EachBlock(ctx, raw, workers, func(i int, x []float64) (unitResult, error) {
+		labels := states.Assign(fit.ApplyUnit(i, x))
 		f.sigs[i] = profile.Signatures(labels, states.K)
-		if err := ds.Add(x, labels); err != nil {
-			return nil, err
-		}
 		f.medians[i] = make([]float64, d)
+		col := make([]float64, len(x)/d)
 		for j := 0; j < d; j++ {
-			col = col[:0]
-			for w := 0; w*d < len(x); w++ {
-				col = append(col, x[w*d+j])
+			for w := range col {
+				col[w] = x[w*d+j]
 			}
 			f.medians[i][j] = cohort.Median(col)
 		}
-		if lc != nil {
-			lc.Add(labels, u.Labels)
+		return unitResult{x, labels}, nil
+	}, func(i int, r unitResult) error {
+		if err := ds.Add(r.x, r.labels); err != nil {
+			return err
 		}
+		if lc != nil {
+			lc.Add(r.labels, t.Units[i].Labels)
+		}
+		return nil
+	})
+	if err == nil {
+		err = raw.err
+	}
+	if err != nil {
+		return nil, err
 	}
 	f.desc = ds.Descriptions()
 	if lc != nil {
