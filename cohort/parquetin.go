@@ -1,13 +1,18 @@
 package cohort
 
 import (
+	"context"
 	"errors"
 	"fmt"
 	"io"
 	"math"
 	"os"
+	"runtime"
+	"slices"
 	"strconv"
 	"strings"
+	"sync"
+	"sync/atomic"
 	"time"
 
 	"github.com/parquet-go/parquet-go"
@@ -102,89 +107,51 @@ func (r *reader) readParquet(p string) (err error) {
 			}
 		}
 	}
-	text := func(v parquet.Value) string {
-		switch {
-		case v.IsNull():
-			return ""
-		case v.Kind() == parquet.ByteArray || v.Kind() == parquet.FixedLenByteArray:
-			return string(v.ByteArray())
-		case v.Kind() == parquet.Int32 || v.Kind() == parquet.Int64:
-			return strconv.FormatInt(v.Int64(), 10)
-		}
-		return v.String()
+	// The file's hash is taken while its columns are read.
+	type hashResult struct {
+		sum  string
+		size int64
+		err  error
 	}
+	hashing := make(chan hashResult, 1)
+	go func() {
+		sum, size, err := hashFile(p)
+		hashing <- hashResult{sum, size, err}
+	}()
 	fileIdx := len(r.files)
-	rd := parquet.NewReader(pf)
-	defer rd.Close()
-	buf := make([]parquet.Row, 1024)
-	vals := make([]float64, len(r.features))
-	rowNo := 1 // the header is line 1, as in a text table
-	for {
-		n, err := rd.ReadRows(buf)
-		for _, row := range buf[:n] {
-			rowNo++
-			if rowNo%4096 == 0 && r.ctx.Err() != nil {
-				return r.ctx.Err()
-			}
-			cells := make([]parquet.Value, len(header))
-			for _, v := range row {
-				if c := v.Column(); c >= 0 && c < len(cells) {
-					cells[c] = v
-				}
-			}
-			id := strings.TrimSpace(text(cells[roles.id]))
-			if id == "" {
-				return &InputError{File: p, Line: rowNo, Column: roles.id + 1, Field: header[roles.id], Msg: "participant id is empty; fill it in or remove the row", Err: ErrMissingID}
-			}
-			wave, label := "", ""
-			if roles.wave >= 0 {
-				wave = strings.TrimSpace(text(cells[roles.wave]))
-			}
-			if roles.label >= 0 {
-				label = strings.TrimSpace(text(cells[roles.label]))
-			}
-			var ord int64
-			if roles.order >= 0 {
-				cell := text(cells[roles.order])
-				if unit > 0 && !cells[roles.order].IsNull() {
-					cell = time.Unix(0, cells[roles.order].Int64()*int64(unit)).UTC().Format(time.RFC3339Nano)
-				}
-				pos := func(int) (int, int) { return rowNo, roles.order + 1 }
-				if ord, err = r.parseOrder(p, pos, roles.order, header[roles.order], cell, parseOrderCell); err != nil {
+	intOrder := false
+	if roles.order >= 0 {
+		k := leaves[roles.order].Node.Type().Kind()
+		intOrder = unit > 0 || k == parquet.Int32 || k == parquet.Int64
+	}
+	spec := &pqSpec{file: p, fileIdx: fileIdx, header: header, roles: roles, unit: unit, intOrder: intOrder, nf: len(r.features), labels: r.hasLabels}
+	rows := 0
+	emit := func(c *parsedChunk) error {
+		if roles.order >= 0 {
+			// The first window decides the order kind; a window of the other kind is refused
+			// with parseOrder's message.
+			for _, cell := range c.cells {
+				l := c.line(cell.row, spec.nf+2)
+				pos := func(int) (int, int) { return l, roles.order + 1 }
+				if _, err := r.parseOrder(p, pos, roles.order, header[roles.order], cell.text, parseOrderCell); err != nil {
 					return err
 				}
 			}
-			for j, c := range roles.features {
-				v := cells[c]
-				switch {
-				case v.IsNull():
-					vals[j] = math.NaN()
-				case v.Kind() == parquet.Double:
-					vals[j] = v.Double()
-				case v.Kind() == parquet.Float:
-					vals[j] = float64(v.Float())
-				default:
-					vals[j] = float64(v.Int64())
-				}
-				if math.IsInf(vals[j], 0) || math.Abs(vals[j]) > maxMagnitude {
-					return &InputError{File: p, Line: rowNo, Column: c + 1, Field: header[c], Msg: numberMsg(strconv.FormatFloat(vals[j], 'g', -1, 64), ',', ErrNonFinite), Err: ErrNonFinite}
-				}
-			}
-			if err := r.appendRow(p, fileIdx, id, wave, ord, roles.order < 0, vals, label, rowNo); err != nil {
-				return err
-			}
 		}
-		if errors.Is(err, io.EOF) {
-			break
-		}
-		if err != nil {
-			return &InputError{File: p, Line: rowNo, Msg: "reading the rows failed (" + err.Error() + "); the file may be damaged", Err: ErrNotText}
+		rows += c.n
+		return r.mergeChunk(p, c, roles.order < 0)
+	}
+	for _, rg := range pf.RowGroups() {
+		if err := spec.readGroup(r.ctx, rg, rows, emit); err != nil {
+			return err
 		}
 	}
+	rowNo := rows + 1
 	if rowNo == 1 {
 		return &InputError{File: p, Line: 1, Msg: "has columns but no windows; each row should be one window", Err: ErrEmpty}
 	}
-	hexsum, size, err := hashFile(p)
+	hashed := <-hashing
+	hexsum, size, err := hashed.sum, hashed.size, hashed.err
 	if err != nil {
 		return &InputError{File: p, Msg: "cannot read: " + err.Error(), Err: ErrOpen}
 	}
@@ -192,4 +159,386 @@ func (r *reader) readParquet(p string) (err error) {
 	r.rows += rowNo - 1
 	r.progress()
 	return nil
+}
+
+// pqSpec is what reading a Parquet file's row groups needs, with the buffers it reuses.
+type pqSpec struct {
+	bufs     *pqBuffers
+	file     string
+	fileIdx  int
+	header   []string
+	roles    roles
+	unit     time.Duration // of a TIMESTAMP order column; 0 otherwise
+	intOrder bool          // the order column holds integers (or timestamps)
+	nf       int
+	labels   bool
+}
+
+// pqBuffers are the slices one read of rows fills, kept for the next.
+type pqBuffers struct {
+	vals                       []float64
+	ids, waves, labels, orders []string
+	kinds, chunkKinds          []byte
+	ords                       []int64
+	feats                      [][]float64
+}
+
+// buffers returns buffers for n rows, made on first use.
+func (s *pqSpec) buffers(n int) *pqBuffers {
+	if b := s.bufs; b != nil && len(b.ids) >= n {
+		return b
+	}
+	b := &pqBuffers{vals: make([]float64, n*(s.nf+2)), ids: make([]string, n), waves: make([]string, n), labels: make([]string, n),
+		orders: make([]string, n), kinds: make([]byte, n), chunkKinds: make([]byte, 0, n), ords: make([]int64, n), feats: make([][]float64, s.nf)}
+	for j := range b.feats {
+		b.feats[j] = make([]float64, n)
+	}
+	s.bufs = b
+	return b
+}
+
+// pqError is the first problem found in a column, at a row of the slice being read.
+type pqError struct {
+	row int
+	err error
+}
+
+// pqRows is how many rows of a row group are read at a time: the chunk they make is what is
+// held in memory, whatever the size of the group.
+var pqRows = 1 << 16
+
+// readGroup reads one row group column by column, pqRows rows at a time with the columns on
+// all cores, and hands each slice to emit as a chunk in store layout. before is the number of
+// rows in earlier groups; row i of the file is line i+2 in messages, the header counting as
+// line 1 as in a text table.
+func (s *pqSpec) readGroup(ctx context.Context, rg parquet.RowGroup, before int, emit func(*parsedChunk) error) error {
+	ro := s.roles
+	cols := []int{ro.id}
+	if ro.wave >= 0 {
+		cols = append(cols, ro.wave)
+	}
+	if s.labels {
+		cols = append(cols, ro.label)
+	}
+	if ro.order >= 0 {
+		cols = append(cols, ro.order)
+	}
+	cols = append(cols, ro.features...)
+	chunks := rg.ColumnChunks()
+	cursors := make([]*pqCursor, len(cols))
+	for k, col := range cols {
+		cursors[k] = &pqCursor{pages: chunks[col].Pages()}
+	}
+	defer func() {
+		for _, cu := range cursors {
+			cu.close()
+		}
+	}()
+	// One goroutine reads the next rows while emit takes the last ones; the two alternate
+	// between two sets of buffers, and the hand-over waits for emit, so neither touches the
+	// set the other holds.
+	total := int(rg.NumRows())
+	type read struct {
+		c   *parsedChunk
+		err error
+	}
+	out := make(chan read)
+	stop := make(chan struct{})
+	done := make(chan struct{})
+	go func() {
+		defer close(done)
+		defer close(out)
+		sets := [2]*pqBuffers{}
+		for k, start := 0, 0; start < total; k, start = k+1, start+pqRows {
+			s.bufs = sets[k%2]
+			c, err := s.readRows(cols, cursors, before+start, min(pqRows, total-start))
+			sets[k%2] = s.bufs
+			select {
+			case out <- read{c, err}:
+			case <-stop:
+				return
+			}
+			if err != nil {
+				return
+			}
+		}
+	}()
+	defer func() { close(stop); <-done }()
+	for rd := range out {
+		if rd.err != nil {
+			return rd.err
+		}
+		if err := ctx.Err(); err != nil {
+			return err
+		}
+		if err := emit(rd.c); err != nil {
+			return err
+		}
+	}
+	return nil
+}
+
+// readRows reads the next n rows of every column; first is the file row of the first.
+func (s *pqSpec) readRows(cols []int, cursors []*pqCursor, first, n int) (*parsedChunk, error) {
+	w := s.nf + 2
+	ro := s.roles
+	b := s.buffers(n)
+	c := &parsedChunk{vals: b.vals[:n*w], kinds: b.chunkKinds[:0]}
+	line := func(i int) int { return first + i + 2 }
+	ids := b.ids[:n]
+	var waves, labels, orders []string
+	if ro.wave >= 0 {
+		waves = b.waves[:n]
+	}
+	if s.labels {
+		labels = b.labels[:n]
+	}
+	if ro.order >= 0 && !s.intOrder {
+		orders = b.orders[:n]
+	}
+	kinds := b.kinds[:n]
+	// Each column is read into a slice of its own (the goroutines never write near each other)
+	// and laid out in rows afterwards.
+	ords := b.ords[:n]
+	feats := make([][]float64, s.nf)
+	for j := range feats {
+		feats[j] = b.feats[j][:n]
+	}
+	text := func(dst []string, trim bool) func([]parquet.Value, int) *pqError {
+		return func(vals []parquet.Value, at int) *pqError {
+			for i, v := range vals {
+				t := pqText(v)
+				if trim {
+					t = strings.TrimSpace(t)
+				}
+				if at+i > 0 && t == dst[at+i-1] {
+					t = dst[at+i-1] // one string for a run of equal cells
+				}
+				dst[at+i] = t
+			}
+			return nil
+		}
+	}
+	read := make([]func([]parquet.Value, int) *pqError, len(cols))
+	for k, col := range cols {
+		switch {
+		case col == ro.id:
+			read[k] = text(ids, true)
+		case col == ro.wave:
+			read[k] = text(waves, true)
+		case col == ro.label:
+			read[k] = text(labels, true)
+		case col == ro.order && orders != nil:
+			read[k] = text(orders, false)
+		case col == ro.order:
+			scale, kind := int64(1), byte('i')
+			if s.unit > 0 {
+				scale, kind = int64(s.unit), 't'
+			}
+			read[k] = func(vals []parquet.Value, at int) *pqError {
+				for i, v := range vals {
+					if v.IsNull() {
+						return &pqError{at + i, &InputError{File: s.file, Line: line(at + i), Column: col + 1, Field: s.header[col], Msg: "the order cell is empty; fill it in", Err: ErrOrder}}
+					}
+					ords[at+i] = v.Int64() * scale
+					kinds[at+i] = kind
+				}
+				return nil
+			}
+		default:
+			dst := feats[slices.Index(ro.features, col)]
+			read[k] = func(vals []parquet.Value, at int) *pqError {
+				for i, v := range vals {
+					var x float64
+					switch {
+					case v.IsNull():
+						x = math.NaN()
+					case v.Kind() == parquet.Double:
+						x = v.Double()
+					case v.Kind() == parquet.Float:
+						x = float64(v.Float())
+					default:
+						x = float64(v.Int64())
+					}
+					if math.IsInf(x, 0) || math.Abs(x) > maxMagnitude {
+						return &pqError{at + i, &InputError{File: s.file, Line: line(at + i), Column: col + 1, Field: s.header[col], Msg: numberMsg(strconv.FormatFloat(x, 'g', -1, 64), ',', ErrNonFinite), Err: ErrNonFinite}}
+					}
+					dst[at+i] = x
+				}
+				return nil
+			}
+		}
+	}
+	found := make([]*pqError, len(cols))
+	var next atomic.Int64
+	var wg sync.WaitGroup
+	for g := 0; g < min(runtime.GOMAXPROCS(0), len(cols)); g++ {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			for {
+				k := int(next.Add(1) - 1)
+				if k >= len(cols) {
+					return
+				}
+				var dst []float64
+				if j := slices.Index(ro.features, cols[k]); j >= 0 {
+					dst = feats[j]
+				}
+				found[k] = s.readColumn(cursors[k], n, cols[k], first, dst, read[k])
+			}
+		}()
+	}
+	wg.Wait()
+	// The first problem in row order (then in column order) is the one reported.
+	var bad *pqError
+	for _, e := range found {
+		if e != nil && (bad == nil || e.row < bad.row) {
+			bad = e
+		}
+	}
+	for i := 0; i < n; i++ {
+		if bad != nil && i == bad.row {
+			return nil, bad.err
+		}
+		row := c.vals[i*w : (i+1)*w]
+		for j, f := range feats {
+			row[j] = f[i]
+		}
+		row[s.nf] = math.Float64frombits(uint64(ords[i]))
+		if ids[i] == "" {
+			return nil, &InputError{File: s.file, Line: line(i), Column: ro.id + 1, Field: s.header[ro.id], Msg: "participant id is empty; fill it in or remove the row", Err: ErrMissingID}
+		}
+		if orders != nil {
+			v, k, ok := parseOrderCell(orders[i])
+			if !ok {
+				return nil, &InputError{File: s.file, Line: line(i), Column: ro.order + 1, Field: s.header[ro.order], Msg: fmt.Sprintf("%q is neither an integer nor an ISO-8601 time such as 2026-03-01T08:30:00; fix the cell", orders[i]), Err: ErrOrder}
+			}
+			c.vals[i*w+s.nf] = math.Float64frombits(uint64(v))
+			kinds[i] = k
+		}
+		c.vals[i*w+s.nf+1] = packSource(s.fileIdx, line(i))
+		missing := false
+		for _, v := range c.vals[i*w : i*w+s.nf] {
+			missing = missing || math.IsNaN(v)
+		}
+		wave := ""
+		if waves != nil {
+			wave = waves[i]
+		}
+		c.addWindow([]byte(ids[i]), []byte(wave), kinds[i], missing)
+	}
+	if bad != nil {
+		return nil, bad.err
+	}
+	c.labels = labels
+	if ro.order >= 0 && n > 0 {
+		// The order cells parseOrder must see: the first, and the first of another kind.
+		c.cells = append(c.cells, orderCell{row: 0, text: orderText(c, 0, w, orders)})
+		for i := 1; i < n; i++ {
+			if kinds[i] != kinds[0] {
+				c.cells = append(c.cells, orderCell{row: i, text: orderText(c, i, w, orders)})
+				break
+			}
+		}
+	}
+	return c, nil
+}
+
+// orderText is window i's order cell as text, for parseOrder.
+func orderText(c *parsedChunk, i, w int, orders []string) string {
+	if orders != nil {
+		return orders[i]
+	}
+	v := int64(math.Float64bits(c.vals[i*w+w-2]))
+	if c.kinds[i] == 't' {
+		return time.Unix(0, v).UTC().Format(time.RFC3339Nano)
+	}
+	return strconv.FormatInt(v, 10)
+}
+
+// pqCursor reads a column chunk's values across its pages.
+type pqCursor struct {
+	pages parquet.Pages
+	page  parquet.Page
+	vr    parquet.ValueReader
+	buf   []parquet.Value
+}
+
+func (cu *pqCursor) close() {
+	if cu.page != nil {
+		parquet.Release(cu.page)
+		cu.page = nil
+	}
+	cu.pages.Close()
+}
+
+// readColumn hands the next n values of a column to read, with their row in the slice; a library
+// panic on a damaged page becomes a positioned error. first is the file row of the slice's first.
+// A feature column (dst, its values) whose page reads plain doubles is read straight into dst.
+func (s *pqSpec) readColumn(cu *pqCursor, n, col, first int, dst []float64, read func([]parquet.Value, int) *pqError) (found *pqError) {
+	at := 0
+	damaged := func(msg string) *pqError {
+		return &pqError{at, &InputError{File: s.file, Line: first + at + 2, Column: col + 1, Field: s.header[col], Msg: msg, Err: ErrNotText}}
+	}
+	defer func() {
+		if v := recover(); v != nil {
+			found = damaged(fmt.Sprintf("the Parquet file is damaged (%v); write it again, or export CSV", v))
+		}
+	}()
+	if cu.buf == nil {
+		cu.buf = make([]parquet.Value, 4096)
+	}
+	for at < n {
+		if cu.vr == nil {
+			page, err := cu.pages.ReadPage()
+			if errors.Is(err, io.EOF) {
+				return damaged(fmt.Sprintf("the column ends after %d of its rows; the file is damaged", first+at))
+			}
+			if err != nil {
+				return damaged("reading the column failed (" + err.Error() + "); the file may be damaged")
+			}
+			cu.page, cu.vr = page, page.Values()
+		}
+		var k int
+		var err error
+		if dr, ok := cu.vr.(parquet.DoubleReader); ok && dst != nil {
+			k, err = dr.ReadDoubles(dst[at:n])
+			for i, x := range dst[at : at+k] {
+				if math.IsInf(x, 0) || math.Abs(x) > maxMagnitude { // NaN is a missing cell, as in text
+					at += i
+					return &pqError{at, &InputError{File: s.file, Line: first + at + 2, Column: col + 1, Field: s.header[col], Msg: numberMsg(strconv.FormatFloat(x, 'g', -1, 64), ',', ErrNonFinite), Err: ErrNonFinite}}
+				}
+			}
+			at += k
+		} else {
+			k, err = cu.vr.ReadValues(cu.buf[:min(len(cu.buf), n-at)])
+			if k > 0 {
+				if e := read(cu.buf[:k], at); e != nil {
+					return e
+				}
+				at += k
+			}
+		}
+		if errors.Is(err, io.EOF) {
+			parquet.Release(cu.page)
+			cu.page, cu.vr = nil, nil
+		} else if err != nil {
+			return damaged("reading the column failed (" + err.Error() + "); the file may be damaged")
+		}
+	}
+	return nil
+}
+
+// pqText is a Parquet cell as text: strings as they are, integers in decimal, nulls empty.
+func pqText(v parquet.Value) string {
+	switch {
+	case v.IsNull():
+		return ""
+	case v.Kind() == parquet.ByteArray || v.Kind() == parquet.FixedLenByteArray:
+		return string(v.ByteArray())
+	case v.Kind() == parquet.Int32 || v.Kind() == parquet.Int64:
+		return strconv.FormatInt(v.Int64(), 10)
+	}
+	return v.String()
 }

@@ -539,12 +539,24 @@ func TestReadParquet(t *testing.T) {
 	if len(fromPQ.Units) != 2 || fromPQ.Quality.WindowsDropped != 1 || len(fromPQ.Quality.IgnoredColumns) != 1 {
 		t.Fatalf("units %d, dropped %d, ignored %v", len(fromPQ.Units), fromPQ.Quality.WindowsDropped, fromPQ.Quality.IgnoredColumns)
 	}
+	// Read in slices of 7 rows (the columns are read pqRows rows at a time, across pages), the
+	// table is the same.
+	defer func(old int) { pqRows = old }(pqRows)
+	pqRows = 7
+	sliced, err := Read(context.Background(), []string{pq}, ReadOptions{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer sliced.Close()
 	for u := range fromCSV.Units {
-		a, b := block(t, fromPQ, u), block(t, fromCSV, u)
+		a, b, c := block(t, fromPQ, u), block(t, fromCSV, u), block(t, sliced, u)
 		for i := range a {
-			if a[i] != b[i] {
-				t.Fatalf("unit %d value %d: Parquet %v, CSV %v", u, i, a[i], b[i])
+			if a[i] != b[i] || c[i] != b[i] {
+				t.Fatalf("unit %d value %d: Parquet %v (in slices %v), CSV %v", u, i, a[i], c[i], b[i])
 			}
+		}
+		if !slices.Equal(order(t, fromPQ, u), order(t, fromCSV, u)) || !slices.Equal(order(t, sliced, u), order(t, fromCSV, u)) {
+			t.Fatalf("unit %d: order keys differ", u)
 		}
 	}
 	start := time.Date(2026, 3, 2, 8, 0, 0, 0, time.UTC)
