@@ -126,6 +126,7 @@ func (r *reader) readParquet(p string) (err error) {
 	}
 	spec := &pqSpec{file: p, fileIdx: fileIdx, header: header, roles: roles, unit: unit, intOrder: intOrder, nf: len(r.features), labels: r.hasLabels}
 	rows := 0
+	total := pf.NumRows()
 	emit := func(c *parsedChunk) error {
 		if roles.order >= 0 {
 			// The first window decides the order kind; a window of the other kind is refused
@@ -139,7 +140,13 @@ func (r *reader) readParquet(p string) (err error) {
 			}
 		}
 		rows += c.n
-		return r.mergeChunk(p, c, roles.order < 0)
+		if err := r.mergeChunk(p, c, roles.order < 0); err != nil {
+			return err
+		}
+		if r.opts.Progress != nil && total > 0 {
+			r.opts.Progress(p, st.Size()*int64(rows)/total, st.Size(), r.windows.Load())
+		}
+		return nil
 	}
 	for _, rg := range pf.RowGroups() {
 		if err := spec.readGroup(r.ctx, rg, rows, emit); err != nil {

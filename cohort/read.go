@@ -20,6 +20,7 @@ import (
 	"sort"
 	"strconv"
 	"strings"
+	"sync/atomic"
 	"time"
 	"unicode/utf8"
 
@@ -52,8 +53,9 @@ type ReadOptions struct {
 	MinWindows int    // participants with fewer usable windows are excluded; 0 means 20
 	TempDir    string // folder for the temporary windows files of large inputs; "" means the system's
 	// Progress, when set, is told how many bytes of a file were read, of its size (0 when not
-	// known, as for standard input); it is called from one goroutine at a time.
-	Progress func(file string, done, total int64)
+	// known, as for standard input), and how many windows were read from all files so far; it is
+	// called from one goroutine at a time.
+	Progress func(file string, done, total, windows int64)
 }
 
 func (o ReadOptions) withDefaults() ReadOptions {
@@ -233,9 +235,10 @@ type run struct {
 }
 
 type reader struct {
-	progress  func()   // reports the bytes read of the current file
-	raw       *store   // every window's values as read
-	last      *rawUnit // the unit of the previous window
+	progress  func()       // reports the bytes read of the current file
+	windows   atomic.Int64 // windows merged so far, for progress
+	raw       *store       // every window's values as read
+	last      *rawUnit     // the unit of the previous window
 	ctx       context.Context
 	opts      ReadOptions
 	features  []string // decided by the first file
@@ -325,7 +328,7 @@ func (r *reader) readFile(p string) error {
 	}
 	defer closeFn()
 	if r.opts.Progress != nil {
-		r.progress = func() { r.opts.Progress(p, cnt.n, size) }
+		r.progress = func() { r.opts.Progress(p, cnt.n, size, r.windows.Load()) }
 		defer r.progress()
 	} else {
 		r.progress = func() {}
@@ -431,6 +434,7 @@ func (r *reader) mergeChunk(p string, c *parsedChunk, fileOrder bool) error {
 	if r.raw.width == 0 {
 		r.raw.width = w
 	}
+	r.windows.Add(int64(c.n))
 	start := 0
 	for _, sg := range c.segs {
 		cur := r.last

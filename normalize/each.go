@@ -10,7 +10,8 @@ import (
 // and each result to consume, one at a time and in block order, so that what consume
 // accumulates is the same on any number of cores. Blocks go in batches of a few per worker; it
 // stops at the first error, or when ctx is cancelled. blocks.Block must be safe to call from
-// several goroutines.
+// several goroutines. When blocks is also a Filler, each batch slot's buffer is reused, so x is
+// valid only until consume has taken the result of block u.
 func EachBlock[R any](ctx context.Context, blocks Blocks, workers int, work func(u int, x []float64) (R, error), consume func(u int, r R) error) error {
 	if workers <= 0 {
 		workers = runtime.GOMAXPROCS(0)
@@ -19,6 +20,8 @@ func EachBlock[R any](ctx context.Context, blocks Blocks, workers int, work func
 	batch := 4 * workers
 	results := make([]R, batch)
 	errs := make([]error, batch)
+	bufs := make([][]float64, batch)
+	filler, _ := blocks.(Filler)
 	for base := 0; base < n; base += batch {
 		if err := ctx.Err(); err != nil {
 			return err
@@ -39,7 +42,14 @@ func EachBlock[R any](ctx context.Context, blocks Blocks, workers int, work func
 					if i >= m {
 						return
 					}
-					results[i], errs[i] = work(base+i, blocks.Block(base+i))
+					var x []float64
+					if filler != nil {
+						x = filler.BlockInto(base+i, bufs[i])
+						bufs[i] = x
+					} else {
+						x = blocks.Block(base + i)
+					}
+					results[i], errs[i] = work(base+i, x)
 				}
 			}()
 		}
@@ -56,4 +66,10 @@ func EachBlock[R any](ctx context.Context, blocks Blocks, workers int, work func
 		}
 	}
 	return nil
+}
+
+// Filler is Blocks that can write a block into a buffer it is given (reused when large enough).
+type Filler interface {
+	Blocks
+	BlockInto(u int, dst []float64) []float64
 }

@@ -105,6 +105,8 @@ type Options struct {
 	Keep     func(u, w int, within []float64)
 	KeepRate float64
 	Workers  int // goroutines for the passes over the blocks; 0 means one per core; never changes the result
+	// Progress, when set, is told after each participant of each pass how many are done.
+	Progress func(step string, done, total int)
 }
 
 // Fit is the frozen normalization.
@@ -320,9 +322,12 @@ func FitBlocks(ctx context.Context, features []string, blocks Blocks, opts Optio
 	}
 	err := EachBlock(ctx, blocks, opts.Workers, func(u int, x []float64) (part1, error) {
 		return part1{unitICC(x, d), appendSampled(nil, x, d, u, opts.Seed, opts.SampleRate)}, nil
-	}, func(_ int, p part1) error {
+	}, func(u int, p part1) error {
 		acc.merge(p.icc)
 		raw = append(raw, p.sample...)
+		if opts.Progress != nil {
+			opts.Progress("normalizing, pass 1 of 2", u+1, blocks.Len())
+		}
 		return nil
 	})
 	if err != nil {
@@ -400,6 +405,9 @@ func FitBlocks(ctx context.Context, features []string, blocks Blocks, opts Optio
 		sample = append(sample, p.sample...)
 		for i, w := range p.keptAt {
 			opts.Keep(u, w, p.kept[i*d:(i+1)*d])
+		}
+		if opts.Progress != nil {
+			opts.Progress("normalizing, pass 2 of 2", u+1, blocks.Len())
 		}
 		return nil
 	})

@@ -18,7 +18,6 @@ import (
 	"errors"
 	"fmt"
 	"math"
-	"math/bits"
 	"sort"
 
 	"gonum.org/v1/gonum/stat/distuv"
@@ -151,8 +150,8 @@ func CliffsDelta(x, y []float64) (float64, error) {
 }
 
 // Median reorders xs in place and returns its median (NaN when empty): the middle value, or
-// the mean of the two middle ones. It selects rather than sorts (Hoare's quickselect with a
-// median-of-three pivot, falling back to a sort after 2·log₂n rounds), so it takes linear time.
+// the mean of the two middle ones. It selects rather than sorts (SelectKth), so it takes linear
+// time.
 func Median(xs []float64) float64 {
 	n := len(xs)
 	if n == 0 {
@@ -185,40 +184,58 @@ func middle(sorted []float64) float64 {
 }
 
 // SelectKth reorders xs so that xs[k] is its k-th smallest value (from 0), with no larger value
-// before it and no smaller one after, and returns it in linear expected time. xs holds no NaN.
+// before it and no smaller one after, and returns it. It is Floyd and Rivest's selection
+// (Floyd RW, Rivest RL (1975), Algorithm 489: SELECT, Commun. ACM 18(3):173), which first
+// narrows to the range a small sample says the k-th value lies in, so it takes about
+// n + min(k, n−k) comparisons. xs holds no NaN.
 func SelectKth(xs []float64, k int) float64 {
-	lo, hi := 0, len(xs)-1
-	rounds := 2*bits.Len(uint(len(xs))) + 4
-	for hi > lo {
-		if rounds == 0 {
-			sort.Float64s(xs[lo : hi+1])
-			return xs[k]
+	floydRivest(xs, 0, len(xs)-1, k)
+	return xs[k]
+}
+
+func floydRivest(a []float64, left, right, k int) {
+	for right > left {
+		if right-left > 600 {
+			n := float64(right - left + 1)
+			i := float64(k - left + 1)
+			z := math.Log(n)
+			s := 0.5 * math.Exp(2*z/3)
+			sd := 0.5 * math.Sqrt(z*s*(n-s)/n)
+			if i < n/2 {
+				sd = -sd
+			}
+			lo := max(left, int(float64(k)-i*s/n+sd))
+			hi := min(right, int(float64(k)+(n-i)*s/n+sd))
+			floydRivest(a, lo, hi, k)
 		}
-		rounds--
-		a, b, c := xs[lo], xs[lo+(hi-lo)/2], xs[hi]
-		pivot := max(min(a, b), min(max(a, b), c))
-		i, j := lo, hi
-		for i <= j {
-			for xs[i] < pivot {
+		t := a[k]
+		i, j := left, right
+		a[left], a[k] = a[k], a[left]
+		if a[right] > t {
+			a[right], a[left] = a[left], a[right]
+		}
+		for i < j {
+			a[i], a[j] = a[j], a[i]
+			i++
+			j--
+			for a[i] < t {
 				i++
 			}
-			for xs[j] > pivot {
-				j--
-			}
-			if i <= j {
-				xs[i], xs[j] = xs[j], xs[i]
-				i++
+			for a[j] > t {
 				j--
 			}
 		}
-		switch {
-		case k <= j:
-			hi = j
-		case k >= i:
-			lo = i
-		default:
-			return xs[k] // between the two parts every value equals the pivot
+		if a[left] == t {
+			a[left], a[j] = a[j], a[left]
+		} else {
+			j++
+			a[j], a[right] = a[right], a[j]
+		}
+		if j <= k {
+			left = j + 1
+		}
+		if k <= j {
+			right = j - 1
 		}
 	}
-	return xs[k]
 }

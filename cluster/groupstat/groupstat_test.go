@@ -186,4 +186,14 @@ func TestMedianSelectsLikeASort(t *testing.T) {
 	if !math.IsNaN(Median(nil)) {
 		t.Error("median of nothing should be NaN")
 	}
+	// SelectKth leaves no larger value before place k and no smaller one after it.
+	for _, x := range cases {
+		k := rng.IntN(len(x))
+		v := SelectKth(x, k)
+		for i, y := range x {
+			if (i < k && y > v) || (i > k && y < v) {
+				t.Fatalf("n %d, k %d: value %v at %d against %v", len(x), k, y, i, v)
+			}
+		}
+	}
 }

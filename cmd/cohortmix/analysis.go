@@ -29,6 +29,7 @@ type analysisOptions struct {
 	Seed      uint64
 	Workers   int
 	Progress  func(step string)
+	Passes    func(step string, done, total int) // progress within the passes over the participants
 }
 
 // normSample is about how many windows the robust scales and the PCA are fitted on.
@@ -102,7 +103,7 @@ func fitAll(ctx context.Context, o analysisOptions) (f *fitted, err error) {
 	var kept []float64
 	o.Norm.KeepRate = profile.SampleRate(o.Sample, t.Quality.WindowsIn-t.Quality.WindowsDropped-t.Quality.WindowsExcluded)
 	o.Norm.Keep = func(_, _ int, row []float64) { kept = append(kept, row...) }
-	o.Norm.Workers = o.Workers
+	o.Norm.Workers, o.Norm.Progress = o.Workers, o.Passes
 	fit, err := normalize.FitBlocks(ctx, t.Features, raw, o.Norm)
 	if err == nil {
 		err = raw.err
@@ -121,7 +122,7 @@ func fitAll(ctx context.Context, o analysisOptions) (f *fitted, err error) {
 		return nil, err
 	}
 	step("assigning windows")
-	if f, err = assignWindows(ctx, t, fit, states, o.Workers); err != nil {
+	if f, err = assignWindows(ctx, t, fit, states, o.Workers, o.Passes); err != nil {
 		return nil, err
 	}
 	sigs := f.sigs
@@ -146,9 +147,10 @@ type rawBlocks struct {
 	err error
 }
 
-func (b *rawBlocks) Len() int { return len(b.t.Units) }
-func (b *rawBlocks) Block(u int) []float64 {
-	x, err := b.t.Block(u, nil)
+func (b *rawBlocks) Len() int              { return len(b.t.Units) }
+func (b *rawBlocks) Block(u int) []float64 { return b.BlockInto(u, nil) }
+func (b *rawBlocks) BlockInto(u int, dst []float64) []float64 {
+	x, err := b.t.Block(u, dst)
 	if err != nil {
 		b.mu.Lock()
 		if b.err == nil {
@@ -162,7 +164,7 @@ func (b *rawBlocks) Block(u int) []float64 {
 // assignWindows is the pass over every unit that gives each window its state and each unit its
 // signature, and accumulates the states' descriptions and the states × labels table. Units are
 // normalized and assigned on all cores; what is accumulated is added in unit order.
-func assignWindows(ctx context.Context, t *cohort.Table, fit *normalize.Fit, states *profile.States, workers int) (*fitted, error) {
+func assignWindows(ctx context.Context, t *cohort.Table, fit *normalize.Fit, states *profile.States, workers int, progress func(string, int, int)) (*fitted, error) {
 	f := &fitted{t: t, fit: fit, states: states, sigs: make([]profile.Signature, len(t.Units)), medians: make([][]float64, len(t.Units))}
 	ds := profile.NewDescriber(len(t.Features), states.K)
 	var lc *profile.LabelCounter
@@ -193,6 +195,9 @@ func assignWindows(ctx context.Context, t *cohort.Table, fit *normalize.Fit, sta
 		}
 		if lc != nil {
 			lc.Add(r.labels, t.Units[i].Labels)
+		}
+		if progress != nil {
+			progress("assigning windows to states", i+1, len(t.Units))
 		}
 		return nil
 	})

@@ -95,7 +95,7 @@ func assignRun(ctx context.Context, o *assignOptions) error {
 	}
 	defer t.Close()
 	fit, states := m.NormFit(), m.StateFit()
-	f, err := assignWindows(ctx, t, fit, states, o.Workers)
+	f, err := assignWindows(ctx, t, fit, states, o.Workers, passBar(&Env{IO: o.IO}, o.Quiet))
 	if err != nil {
 		return err
 	}

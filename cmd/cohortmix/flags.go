@@ -174,20 +174,22 @@ func progress(env *Env, quiet bool, now func() time.Time) func(string) {
 	}
 }
 
-// readBar draws a bar per input file while it is parsed, with bytes and bytes per second
-// (github.com/schollz/progressbar), on a terminal only.
-func readBar(env *Env, quiet bool) func(file string, done, total int64) {
+// readBar draws a bar per input file while it is parsed, with bytes, bytes per second and the
+// windows read (github.com/schollz/progressbar), on a terminal only.
+func readBar(env *Env, quiet bool) func(file string, done, total, windows int64) {
 	if quiet || !env.IO.ErrIsTTY {
 		return nil
 	}
 	var bar *progressbar.ProgressBar
 	current := ""
-	return func(file string, done, total int64) {
+	var start time.Time
+	var first int64
+	return func(file string, done, total, windows int64) {
 		if file != current {
 			if bar != nil {
 				bar.Finish()
 			}
-			current = file
+			current, start, first = file, time.Now(), windows
 			if total <= 0 {
 				total = -1 // unknown size: a spinner
 			}
@@ -195,8 +197,47 @@ func readBar(env *Env, quiet bool) func(file string, done, total int64) {
 				progressbar.OptionSetDescription("  reading "+filepath.Base(file)), progressbar.OptionThrottle(100*time.Millisecond),
 				progressbar.OptionClearOnFinish(), progressbar.OptionSetWidth(30))
 		}
+		if s := time.Since(start).Seconds(); s > 0.2 {
+			bar.Describe(fmt.Sprintf("  reading %s, %s windows (%s/s)", filepath.Base(file), count(windows), count(int64(float64(windows-first)/s))))
+		}
 		bar.Set64(done)
 		if total > 0 && done >= total {
+			bar.Finish()
+		}
+	}
+}
+
+// count writes a number of windows briefly: 950, 12.3k, 4.56M.
+func count(n int64) string {
+	switch {
+	case n >= 1_000_000:
+		return fmt.Sprintf("%.2fM", float64(n)/1e6)
+	case n >= 10_000:
+		return fmt.Sprintf("%.1fk", float64(n)/1e3)
+	}
+	return strconv.FormatInt(n, 10)
+}
+
+// passBar draws a bar for a pass over the participants (normalizing, assigning), with
+// participants done and per second, on a terminal only.
+func passBar(env *Env, quiet bool) func(step string, done, total int) {
+	if quiet || !env.IO.ErrIsTTY {
+		return nil
+	}
+	var bar *progressbar.ProgressBar
+	current := ""
+	return func(step string, done, total int) {
+		if step != current {
+			if bar != nil {
+				bar.Finish()
+			}
+			current = step
+			bar = progressbar.NewOptions(total, progressbar.OptionSetWriter(env.IO.Err), progressbar.OptionSetDescription("  "+step),
+				progressbar.OptionShowCount(), progressbar.OptionShowIts(), progressbar.OptionSetItsString("participants"),
+				progressbar.OptionThrottle(100*time.Millisecond), progressbar.OptionClearOnFinish(), progressbar.OptionSetWidth(30))
+		}
+		bar.Set(done)
+		if done >= total {
 			bar.Finish()
 		}
 	}
