@@ -164,6 +164,22 @@ func TestMedianSelectsLikeASort(t *testing.T) {
 		}
 		cases = append(cases, x)
 	}
+	for _, n := range []int{511, 512, 513, 2000, 2001, 10080} { // the radix path: signs, zeros, ties
+		x := make([]float64, n)
+		for i := range x {
+			switch rng.IntN(4) {
+			case 0:
+				x[i] = rng.NormFloat64()
+			case 1:
+				x[i] = -rng.ExpFloat64() * 1e-3
+			case 2:
+				x[i] = float64(rng.IntN(5)) - 2
+			default:
+				x[i] = rng.NormFloat64() * 1e6
+			}
+		}
+		cases = append(cases, x)
+	}
 	for _, n := range []int{1000, 1001, 5000} {
 		sorted, reversed, equal, pipe := make([]float64, n), make([]float64, n), make([]float64, n), make([]float64, n)
 		for i := 0; i < n; i++ {
