@@ -248,3 +248,29 @@ func TestWardPointsMatchesMatrix(t *testing.T) {
 		}
 	}
 }
+
+// TransformRows, two rows at a time, gives each row bit for bit what TransformRow gives.
+func TestTransformRowsMatchesTransformRow(t *testing.T) {
+	rng := rand.New(rand.NewPCG(5, 6))
+	x := mat.NewDense(301, 7, nil)
+	for i := 0; i < 301; i++ {
+		for j := 0; j < 7; j++ {
+			x.Set(i, j, rng.NormFloat64()*float64(j+1)+float64(i%3))
+		}
+	}
+	p, err := FitPCA(x, PCAOptions{Components: 4})
+	if err != nil {
+		t.Fatal(err)
+	}
+	raw := x.RawMatrix().Data
+	got := make([]float64, 301*4)
+	p.TransformRows(got, raw)
+	for i := 0; i < 301; i++ {
+		want := p.TransformRow(nil, raw[i*7:(i+1)*7])
+		for c, v := range want {
+			if math.Float64bits(v) != math.Float64bits(got[i*4+c]) {
+				t.Fatalf("row %d component %d: %v, TransformRow %v", i, c, got[i*4+c], v)
+			}
+		}
+	}
+}

@@ -147,3 +147,31 @@ func (p *PCA) TransformRow(dst, x []float64) []float64 {
 	}
 	return dst
 }
+
+// TransformRows projects the rows of x (row-major, as many columns as Mean) into dst (row-major,
+// k columns), two rows at a time so that each loading read serves both; every value is bit for
+// bit TransformRow's.
+func (p *PCA) TransformRows(dst, x []float64) {
+	d := len(p.Mean)
+	_, k := p.Components.Dims()
+	raw := p.Components.RawMatrix()
+	n := len(x) / d
+	i := 0
+	for ; i+1 < n; i += 2 {
+		a, b := x[i*d:(i+1)*d], x[(i+1)*d:(i+2)*d]
+		oa, ob := dst[i*k:(i+1)*k], dst[(i+1)*k:(i+2)*k]
+		clear(oa)
+		clear(ob)
+		for j, m := range p.Mean {
+			va, vb := a[j]-m, b[j]-m
+			row := raw.Data[j*raw.Stride : j*raw.Stride+k]
+			for c, l := range row {
+				oa[c] += va * l
+				ob[c] += vb * l
+			}
+		}
+	}
+	if i < n {
+		p.TransformRow(dst[i*k:(i+1)*k], x[i*d:(i+1)*d])
+	}
+}

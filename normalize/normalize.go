@@ -683,9 +683,7 @@ func (f *Fit) project(x []float64) []float64 {
 	k := f.OutDim()
 	n := len(x) / d
 	y := make([]float64, n*k)
-	for i := 0; i < n; i++ {
-		f.PCA.TransformRow(y[i*k:(i+1)*k], x[i*d:(i+1)*d])
-	}
+	f.PCA.TransformRows(y, x)
 	return y
 }
 
