@@ -420,27 +420,13 @@ func scanDecimal(b []byte, pos int, delim, decimal byte) (v float64, end int, ok
 		neg = b[i] == '-'
 		i++
 	}
-	var m uint64
 	start := i
-	for ; i < len(b); i++ {
-		d := b[i] - '0'
-		if d > 9 {
-			break
-		}
-		m = m*10 + uint64(d)
-	}
+	i, m := scanDigits(b, i, 0)
 	digits := i - start
 	frac := 0
 	if i < len(b) && (b[i] == '.' || b[i] == decimal) {
-		i++
-		fs := i
-		for ; i < len(b); i++ {
-			d := b[i] - '0'
-			if d > 9 {
-				break
-			}
-			m = m*10 + uint64(d)
-		}
+		fs := i + 1
+		i, m = scanDigits(b, fs, m)
 		if frac = i - fs; frac == 0 {
 			return 0, 0, false
 		}
@@ -460,6 +446,18 @@ func scanDecimal(b []byte, pos int, delim, decimal byte) (v float64, end int, ok
 		v = -v
 	}
 	return v, i, true
+}
+
+// scanDigits reads decimal digits from b[i], appending them to m; it returns where they end.
+func scanDigits(b []byte, i int, m uint64) (int, uint64) {
+	for ; i < len(b); i++ {
+		d := b[i] - '0'
+		if d > 9 {
+			break
+		}
+		m = m*10 + uint64(d)
+	}
+	return i, m
 }
 
 // scanInt reads a plain integer order cell (an optional minus sign and at most 18 digits).
