@@ -275,8 +275,19 @@ func FuzzRead(f *testing.F) {
 		if err := os.WriteFile(p, b, 0o644); err != nil {
 			t.Skip()
 		}
-		_, err := Read(context.Background(), []string{p}, ReadOptions{MinWindows: 1})
+		tab, err := Read(context.Background(), []string{p}, ReadOptions{MinWindows: 1})
+		// The one-scan path for plain lines and the general path must agree on every input:
+		// the same error, or the same table bit for bit.
+		fastRows = false
+		slow, serr := Read(context.Background(), []string{p}, ReadOptions{MinWindows: 1})
+		fastRows = true
+		if (err == nil) != (serr == nil) || (err != nil && err.Error() != serr.Error()) {
+			t.Fatalf("fast path: %v; general path: %v", err, serr)
+		}
 		if err == nil {
+			defer tab.Close()
+			defer slow.Close()
+			sameTable(t, tab, slow)
 			return
 		}
 		var ie *InputError
@@ -284,6 +295,28 @@ func FuzzRead(f *testing.F) {
 			t.Fatalf("rejection without position: %v", err)
 		}
 	})
+}
+
+// sameTable fails unless a and b hold the same units, features, windows (bit for bit), order
+// keys and accounting.
+func sameTable(t *testing.T, a, b *Table) {
+	t.Helper()
+	if !slices.Equal(a.Features, b.Features) || len(a.Units) != len(b.Units) || a.OrderKind != b.OrderKind ||
+		fmt.Sprint(a.Quality) != fmt.Sprint(b.Quality) {
+		t.Fatalf("tables differ: features %v / %v, units %d / %d, order %s / %s, quality %+v / %+v",
+			a.Features, b.Features, len(a.Units), len(b.Units), a.OrderKind, b.OrderKind, a.Quality, b.Quality)
+	}
+	for u := range a.Units {
+		ua, ub := a.Units[u], b.Units[u]
+		xa, xb := block(t, a, u), block(t, b, u)
+		same := ua.ID == ub.ID && ua.Wave == ub.Wave && len(xa) == len(xb) && slices.Equal(order(t, a, u), order(t, b, u))
+		for i := 0; same && i < len(xa); i++ {
+			same = math.Float64bits(xa[i]) == math.Float64bits(xb[i])
+		}
+		if !same {
+			t.Fatalf("unit %d (%s / %s) differs: %v / %v", u, ua.ID, ub.ID, xa, xb)
+		}
+	}
 }
 
 // The result does not depend on the chunk size: tiny chunks cut every line and quoted field
