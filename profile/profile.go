@@ -296,6 +296,22 @@ func (ds *Describer) Add(raw []float64, labels []int) error {
 	return nil
 }
 
+// Merge adds what another Describer for the same features and states took in, so that
+// participants can be described apart (on several cores) and added up in a fixed order.
+func (ds *Describer) Merge(o *Describer) {
+	for i, v := range o.sum {
+		ds.sum[i] += v
+	}
+	for j := range ds.all {
+		ds.all[j] += o.all[j]
+		ds.all2[j] += o.all2[j]
+	}
+	for s, c := range o.cnt {
+		ds.cnt[s] += c
+	}
+	ds.n += o.n
+}
+
 // Descriptions gives each state's means and the features that drive it.
 func (ds *Describer) Descriptions() []Description {
 	d, k, n := ds.d, ds.k, ds.n

@@ -88,3 +88,31 @@ func ExampleSignatures() {
 	fmt.Printf("shares %.4f, mean bouts %.4f\n", s.Share, s.MeanBout)
 	// Output: shares [0.5714 0.2857 0.1429], mean bouts [2.0000 2.0000 1.0000]
 }
+
+// Describing participants apart and merging the parts gives the same means and shares as
+// describing them in one Describer (sums in another order: equal to rounding).
+func TestDescriberMergeMatchesOneDescriber(t *testing.T) {
+	a, b := []float64{1, 2, 3, 4, 5, 6}, []float64{7, 8, 9, 10.5}
+	la, lb := []int{0, 1, 1}, []int{0, 0}
+	one := NewDescriber(2, 2)
+	if one.Add(a, la) != nil || one.Add(b, lb) != nil {
+		t.Fatal("Add failed")
+	}
+	merged, pa, pb := NewDescriber(2, 2), NewDescriber(2, 2), NewDescriber(2, 2)
+	if pa.Add(a, la) != nil || pb.Add(b, lb) != nil {
+		t.Fatal("Add failed")
+	}
+	merged.Merge(pa)
+	merged.Merge(pb)
+	x, y := one.Descriptions(), merged.Descriptions()
+	for s := range x {
+		if math.Abs(x[s].Share-y[s].Share) > 1e-15 {
+			t.Errorf("state %d share %v, merged %v", s, x[s].Share, y[s].Share)
+		}
+		for j := range x[s].Mean {
+			if math.Abs(x[s].Mean[j]-y[s].Mean[j]) > 1e-12 {
+				t.Errorf("state %d mean %d: %v, merged %v", s, j, x[s].Mean[j], y[s].Mean[j])
+			}
+		}
+	}
+}

@@ -173,7 +173,7 @@ func assignWindows(ctx context.Context, t *cohort.Table, fit *normalize.Fit, sta
 	}
 	d := len(t.Features)
 	type unitResult struct {
-		x      []float64
+		desc   *profile.Describer
 		labels []int
 	}
 	raw := &rawBlocks{t: t}
@@ -188,11 +188,13 @@ func assignWindows(ctx context.Context, t *cohort.Table, fit *normalize.Fit, sta
 			}
 			f.medians[i][j] = cohort.Median(col)
 		}
-		return unitResult{x, labels}, nil
-	}, func(i int, r unitResult) error {
-		if err := ds.Add(r.x, r.labels); err != nil {
-			return err
+		part := profile.NewDescriber(d, states.K)
+		if err := part.Add(x, labels); err != nil {
+			return unitResult{}, err
 		}
+		return unitResult{part, labels}, nil
+	}, func(i int, r unitResult) error {
+		ds.Merge(r.desc)
 		if lc != nil {
 			lc.Add(r.labels, t.Units[i].Labels)
 		}
