@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"math"
 	"math/rand/v2"
+	"slices"
 	"sort"
 
 	"github.com/cohortmix/cohortmix/cluster"
@@ -208,8 +209,22 @@ func GroupSignatures(ctx context.Context, shares [][]float64, opts GroupOptions)
 			return nil, err
 		}
 		labelsByK[k] = lab
+	}
+	// The criteria for the number of groups (silhouette, and the gap's references and the
+	// stability's resamples, which cluster the data again and again) work above LargeCohort on
+	// a reproducible sample of participants, with the labels the whole cohort gave them.
+	cx, cdist, clab := x, dist, labelsByK
+	if n > LargeCohort && len(opts.Groups) > 1 {
+		cx, clab = sampleRows(x, labelsByK, LargeCohort, opts.Seed)
+		cdist = nil
+		if g.Note != "" {
+			g.Note += "; "
+		}
+		g.Note += fmt.Sprintf("the mean silhouettes, the gap statistic and the stability of each number of groups were computed on a reproducible sample of %d of the %d participants", LargeCohort, n)
+	}
+	for _, k := range opts.Groups {
 		sc := KScore{K: k}
-		sil, err := silhouetteOf(x, dist, lab, opts)
+		sil, err := silhouetteOf(cx, cdist, clab[k], opts)
 		if err != nil {
 			return nil, err
 		}
@@ -217,10 +232,10 @@ func GroupSignatures(ctx context.Context, shares [][]float64, opts GroupOptions)
 		g.Scores = append(g.Scores, sc)
 	}
 	if len(opts.Groups) > 1 {
-		if err := scoreGap(ctx, x, g.Scores, labelsByK, opts); err != nil {
+		if err := scoreGap(ctx, cx, g.Scores, clab, opts); err != nil {
 			return nil, err
 		}
-		if err := scoreStability(ctx, x, dist, g.Scores, labelsByK, opts); err != nil {
+		if err := scoreStability(ctx, cx, cdist, g.Scores, clab, opts); err != nil {
 			return nil, err
 		}
 		g.K = Choose(g.Scores, opts.Criterion)
@@ -248,6 +263,36 @@ func GroupSignatures(ctx context.Context, shares [][]float64, opts GroupOptions)
 		g.Note += fmt.Sprintf("silhouettes were computed for a sample of 5,000 participants (each against all): a full distance matrix on %d would need %d MiB", n, cluster.CondensedBytes(n)>>20)
 	}
 	return g, nil
+}
+
+// sampleRows draws m of x's rows without replacement (a seeded partial Fisher–Yates shuffle, kept
+// in row order) with their labels for every k.
+func sampleRows(x *mat.Dense, labelsByK map[int][]int, m int, seed uint64) (*mat.Dense, map[int][]int) {
+	n, d := x.Dims()
+	rng := rand.New(rand.NewPCG(seed^0x5a3e, 7))
+	perm := make([]int, n)
+	for i := range perm {
+		perm[i] = i
+	}
+	for i := 0; i < m; i++ {
+		j := i + rng.IntN(n-i)
+		perm[i], perm[j] = perm[j], perm[i]
+	}
+	rows := perm[:m]
+	slices.Sort(rows)
+	out := mat.NewDense(m, d, nil)
+	lab := map[int][]int{}
+	for r, i := range rows {
+		out.SetRow(r, x.RawRowView(i))
+	}
+	for k, l := range labelsByK {
+		sub := make([]int, m)
+		for r, i := range rows {
+			sub[r] = l[i]
+		}
+		lab[k] = sub
+	}
+	return out, lab
 }
 
 func expand(s *cluster.SilhouetteResult, n int) []float64 {

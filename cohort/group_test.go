@@ -68,6 +68,15 @@ func TestAutoSwitchesForLargeCohorts(t *testing.T) {
 	if ari, _ := cluster.AdjustedRand(g.Labels, truth); ari < 0.95 {
 		t.Errorf("ARI %.3f", ari)
 	}
+	// With a range, the gap and the stability work on a sample of LargeCohort participants, and
+	// the gap still finds the three planted groups.
+	g, err = GroupSignatures(context.Background(), shares, GroupOptions{Method: Auto, Groups: []int{2, 3, 4}, Bootstrap: 5, Seed: 1})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if g.K != 3 || !strings.Contains(g.Note, "of each number of groups were computed on a reproducible sample of 10000 of the 10050 participants") {
+		t.Errorf("k %d, note %q; want 3 groups and the sample said in the note", g.K, g.Note)
+	}
 }
 
 func TestMatchNamesGroups(t *testing.T) {
