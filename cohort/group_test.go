@@ -74,7 +74,7 @@ func TestAutoSwitchesForLargeCohorts(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if g.K != 3 || !strings.Contains(g.Note, "of each number of groups were computed on a reproducible sample of 10000 of the 10050 participants") {
+	if g.K != 3 || !strings.Contains(g.Note, "of each number of groups were computed on a reproducible sample of 10,000 of the 10,050 participants") {
 		t.Errorf("k %d, note %q; want 3 groups and the sample said in the note", g.K, g.Note)
 	}
 }
@@ -99,5 +99,13 @@ func TestMatchNamesGroups(t *testing.T) {
 	}
 	if !strings.HasPrefix(m.PrevStatus[0], "merged into G2") || m.PrevStatus[2] != "gone" || m.NewStatus[1] != "new" {
 		t.Errorf("previous %q, new %q", m.PrevStatus, m.NewStatus)
+	}
+}
+
+func TestThousands(t *testing.T) {
+	for n, want := range map[int]string{0: "0", 999: "999", 1000: "1,000", 38146: "38,146", 100000: "100,000", 1234567: "1,234,567", -1500: "-1,500"} {
+		if got := thousands(n); got != want {
+			t.Errorf("thousands(%d) = %q, want %q", n, got, want)
+		}
 	}
 }
