@@ -435,6 +435,9 @@ func (r *reader) mergeChunk(p string, c *parsedChunk, fileOrder bool) error {
 		r.raw.width = w
 	}
 	r.windows.Add(int64(c.n))
+	if len(c.segs) > 64 {
+		c = groupByUnit(c, w)
+	}
 	start := 0
 	for _, sg := range c.segs {
 		cur := r.last
@@ -491,6 +494,56 @@ func (r *reader) mergeChunk(p string, c *parsedChunk, fileOrder bool) error {
 		start = sg.end
 	}
 	return nil
+}
+
+// groupByUnit reorders a chunk whose units' windows are interleaved (a table sorted by time
+// across participants, say) so that each unit's windows are together, in their order: each
+// unit then takes one stretch of the store per chunk instead of one per window. The order
+// within a unit, which is all that later steps see, is unchanged.
+func groupByUnit(c *parsedChunk, w int) *parsedChunk {
+	type unit struct{ segs []int }
+	index := map[[2]string]int{}
+	var units []unit
+	for k, sg := range c.segs {
+		key := [2]string{sg.id, sg.wave}
+		g, ok := index[key]
+		if !ok {
+			g = len(units)
+			index[key] = g
+			units = append(units, unit{})
+		}
+		units[g].segs = append(units[g].segs, k)
+	}
+	if len(units) == len(c.segs) {
+		return c // every unit in one stretch already
+	}
+	out := &parsedChunk{seq: c.seq, n: c.n, vals: make([]float64, 0, len(c.vals)), kinds: make([]byte, 0, c.n), cells: c.cells}
+	if c.nan != nil {
+		out.nan = make([]bool, 0, c.n)
+	}
+	if c.labels != nil {
+		out.labels = make([]string, 0, c.n)
+	}
+	for _, u := range units {
+		for _, k := range u.segs {
+			start := 0
+			if k > 0 {
+				start = c.segs[k-1].end
+			}
+			end := c.segs[k].end
+			out.vals = append(out.vals, c.vals[start*w:end*w]...)
+			out.kinds = append(out.kinds, c.kinds[start:end]...)
+			if c.nan != nil {
+				out.nan = append(out.nan, c.nan[start:end]...)
+			}
+			if c.labels != nil {
+				out.labels = append(out.labels, c.labels[start:end]...)
+			}
+		}
+		first := c.segs[u.segs[0]]
+		out.segs = append(out.segs, segment{id: first.id, wave: first.wave, end: len(out.kinds)})
+	}
+	return out
 }
 
 // checkKinds refuses a chunk's first window whose order is of another kind (integer or time)

@@ -772,3 +772,46 @@ func TestScanDecimalMatchesStrconv(t *testing.T) {
 		t.Errorf("decimal comma: %v %v", v, ok)
 	}
 }
+
+// A table whose participants' windows are interleaved (sorted by time across participants)
+// reads as the same table as one grouped by participant, in memory and spilled, in one chunk or
+// many: the interleaved windows are gathered per participant as each chunk is merged.
+func TestInterleavedReadsLikeGrouped(t *testing.T) {
+	dir := t.TempDir()
+	var grouped, interleaved strings.Builder
+	grouped.WriteString("participant,window,f1,f2\n")
+	interleaved.WriteString("participant,window,f1,f2\n")
+	cell := func(p, w int) string {
+		return fmt.Sprintf("P%02d,%d,%.4f,%.3f\n", p, w, float64(p)+0.01*float64(w%7), float64((p*w)%11)/8)
+	}
+	for p := 0; p < 70; p++ {
+		for w := 0; w < 30; w++ {
+			grouped.WriteString(cell(p, w))
+		}
+	}
+	for w := 0; w < 30; w++ {
+		for p := 0; p < 70; p++ {
+			interleaved.WriteString(cell(p, w))
+		}
+	}
+	gp := write(t, dir, "grouped.csv", []byte(grouped.String()))
+	ip := write(t, dir, "interleaved.csv", []byte(interleaved.String()))
+	defer func(c int, s int64) { chunkSize, spillAfter = c, s }(chunkSize, spillAfter)
+	for _, setting := range []struct {
+		chunk int
+		spill int64
+	}{{4 << 20, 8 << 20}, {4096, 8 << 20}, {4096, 500}} {
+		chunkSize, spillAfter = setting.chunk, setting.spill
+		a, err := Read(context.Background(), []string{gp}, ReadOptions{})
+		if err != nil {
+			t.Fatal(err)
+		}
+		b, err := Read(context.Background(), []string{ip}, ReadOptions{})
+		if err != nil {
+			t.Fatal(err)
+		}
+		sameTable(t, a, b)
+		a.Close()
+		b.Close()
+	}
+}
