@@ -5,7 +5,9 @@
 # of the CSV and of the Parquet file, and the whole 'cohortmix group' on the CSV, with wall time
 # and peak resident memory from GNU time. Run from the repository root; it needs about 6 GB of
 # free disk in $BENCH_DIR (default: a temporary folder). Go benchmarks of the same paths:
-# BenchmarkRead (cohort/) and BenchmarkGroup (cmd/cohortmix/).
+# BenchmarkRead (cohort/) and BenchmarkGroup (cmd/cohortmix/). Each input is read once with cat
+# before it is timed, so that the times are of warm reads (from the page cache); a cold read is
+# bound by the disk instead.
 set -euo pipefail
 dir=${BENCH_DIR:-$(mktemp -d)}
 mkdir -p "$dir"
@@ -18,6 +20,7 @@ for n in 100 1000; do
   for run in check.csv check.parquet group.csv; do
     step=${run%%.*} ext=${run#*.}
     f="$dir/cohort-$n.$ext"
+    cat "$f" >/dev/null
     args=("$step" "$f" --quiet)
     [ "$step" = group ] && args+=(--out "$dir/r-$n.xlsx" --force --states 2-10 --groups 2-8)
     /usr/bin/time -v "$dir/cohortmix" "${args[@]}" >"$dir/$run-$n.out" 2>"$dir/$run-$n.time"
