@@ -255,6 +255,15 @@ func (s *pqSpec) readGroup(ctx context.Context, rg parquet.RowGroup, before int,
 	go func() {
 		defer close(done)
 		defer close(out)
+		defer func() { // a library panic here is a damaged file, as in readParquet
+			if v := recover(); v != nil {
+				err := &InputError{File: s.file, Msg: fmt.Sprintf("the Parquet file is damaged (%v); write it again, or export CSV", v), Err: ErrNotText}
+				select {
+				case out <- read{nil, err}:
+				case <-stop:
+				}
+			}
+		}()
 		sets := [2]*pqBuffers{}
 		for k, start := 0, 0; start < total; k, start = k+1, start+pqRows {
 			s.bufs = sets[k%2]
