@@ -63,7 +63,9 @@ type States struct {
 const ChoiceRule = "largest Calinski–Harabasz index on a sample of windows (Caliński & Harabasz 1974)"
 
 // Sample draws the reproducible sample of about size windows that the states are fitted on, from
-// blocks of normalized windows (total windows in all), by normalize.Sampled.
+// blocks of normalized windows (total windows in all), by normalize.Sampled. It is the sample
+// that normalize.Options.Keep hands out during the normalizing pass at KeepRate SampleRate(size,
+// total) (the same hash and rate), which is how the main job draws it without a pass of its own.
 func Sample(blocks normalize.Blocks, dim, size, total int, seed uint64) *mat.Dense {
 	rows := normalize.SampleRows(blocks, dim, seed, SampleRate(size, total), nil)
 	if len(rows) == 0 {
