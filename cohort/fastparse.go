@@ -357,23 +357,20 @@ func (s *parseSpec) fastRow(c *parsedChunk, ln []byte, line int) bool {
 			return false
 		}
 	}
-	var ord int64
-	kind := byte(0)
-	if ro.order >= 0 {
-		v, ok := scanInt(ordb)
-		if !ok {
-			c.vals = c.vals[:base]
-			return false
-		}
-		ord, kind = v, 'i'
-		if len(c.kinds) == 0 || (kind != c.kinds[0] && len(c.cells) == 1) {
-			c.cells = append(c.cells, orderCell{row: c.n, text: string(ordb), col: s.column(ln, ro.order)})
-		}
-	}
-	if len(idb) == 0 || idb[0] == ' ' || idb[len(idb)-1] == ' ' ||
+	// Everything that can send the line to the general path is checked before the chunk's
+	// order cells are touched, so that the general path records them as for any other line.
+	ord, ordOK := scanInt(ordb)
+	if ro.order >= 0 && !ordOK || len(idb) == 0 || idb[0] == ' ' || idb[len(idb)-1] == ' ' ||
 		len(waveb) > 0 && (waveb[0] == ' ' || waveb[len(waveb)-1] == ' ') {
 		c.vals = c.vals[:base]
 		return false
+	}
+	kind := byte(0)
+	if ro.order >= 0 {
+		kind = 'i'
+		if len(c.kinds) == 0 || (kind != c.kinds[0] && len(c.cells) == 1) {
+			c.cells = append(c.cells, orderCell{row: c.n, text: string(ordb), col: s.column(ln, ro.order)})
+		}
 	}
 	row[s.nf] = math.Float64frombits(uint64(ord))
 	row[s.nf+1] = packSource(s.fileIdx, line)

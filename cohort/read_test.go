@@ -80,6 +80,8 @@ func TestReadErrors(t *testing.T) {
 			`a.csv:4: window: participant A has this window twice (also line 3); remove one of the rows`, ErrDuplicate},
 		{"mixed order kinds", map[string][]byte{"a.csv": []byte(strings.Replace(good, "A,2,", "A,2026-03-02T08:00:00,", 1))}, ReadOptions{},
 			`a.csv:4:3: window: "2026-03-02T08:00:00" is a time but the order column held integers from a.csv:2 on; use one kind throughout`, ErrOrder},
+		{"mixed order kinds after an id the one-scan path leaves to the general one", map[string][]byte{"a.csv": []byte(strings.Replace(strings.Replace(good, "A,2,", "A,2026-03-02T08:00:00,", 1), "A,1,", " A,1,", 1))}, ReadOptions{},
+			`a.csv:4:3: window: "2026-03-02T08:00:00" is a time but the order column held integers from a.csv:2 on; use one kind throughout`, ErrOrder},
 		{"unreadable order", map[string][]byte{"a.csv": []byte(strings.Replace(good, "A,2,", "A,second,", 1))}, ReadOptions{},
 			`a.csv:4:3: window: "second" is neither an integer nor an ISO-8601 time such as 2026-03-01T08:30:00; fix the cell`, ErrOrder},
 		{"ragged", map[string][]byte{"a.csv": []byte(strings.Replace(good, "A,1,1.5,3", "A,1,1.5", 1))}, ReadOptions{},
