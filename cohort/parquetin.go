@@ -128,16 +128,8 @@ func (r *reader) readParquet(p string) (err error) {
 	rows := 0
 	total := pf.NumRows()
 	emit := func(c *parsedChunk) error {
-		if roles.order >= 0 {
-			// The first window decides the order kind; a window of the other kind is refused
-			// with parseOrder's message.
-			for _, cell := range c.cells {
-				l := c.line(cell.row, spec.nf+2)
-				pos := func(int) (int, int) { return l, roles.order + 1 }
-				if _, err := r.parseOrder(p, pos, roles.order, header[roles.order], cell.text, parseOrderCell); err != nil {
-					return err
-				}
-			}
+		if err := r.checkKinds(p, header, roles, c); err != nil {
+			return err
 		}
 		rows += c.n
 		if err := r.mergeChunk(p, c, roles.order < 0); err != nil {
@@ -336,6 +328,7 @@ func (s *pqSpec) readRows(cols []int, cursors []*pqCursor, first, n int) (*parse
 		}
 	}
 	read := make([]func([]parquet.Value, int) *pqError, len(cols))
+	dsts := make([][]float64, len(cols)) // a feature column's slice, for readColumn's plain path
 	for k, col := range cols {
 		switch {
 		case col == ro.id:
@@ -363,6 +356,7 @@ func (s *pqSpec) readRows(cols []int, cursors []*pqCursor, first, n int) (*parse
 			}
 		default:
 			dst := feats[slices.Index(ro.features, col)]
+			dsts[k] = dst
 			read[k] = func(vals []parquet.Value, at int) *pqError {
 				for i, v := range vals {
 					var x float64
@@ -397,11 +391,7 @@ func (s *pqSpec) readRows(cols []int, cursors []*pqCursor, first, n int) (*parse
 				if k >= len(cols) {
 					return
 				}
-				var dst []float64
-				if j := slices.Index(ro.features, cols[k]); j >= 0 {
-					dst = feats[j]
-				}
-				found[k] = s.readColumn(cursors[k], n, cols[k], first, dst, read[k])
+				found[k] = s.readColumn(cursors[k], n, cols[k], first, dsts[k], read[k])
 			}
 		}()
 	}
@@ -449,11 +439,11 @@ func (s *pqSpec) readRows(cols []int, cursors []*pqCursor, first, n int) (*parse
 	}
 	c.labels = labels
 	if ro.order >= 0 && n > 0 {
-		// The order cells parseOrder must see: the first, and the first of another kind.
-		c.cells = append(c.cells, orderCell{row: 0, text: orderText(c, 0, w, orders)})
+		// The order cells checkKinds must see: the first, and the first of another kind.
+		c.cells = append(c.cells, orderCell{row: 0, text: orderText(c, 0, w, orders), col: ro.order + 1})
 		for i := 1; i < n; i++ {
 			if kinds[i] != kinds[0] {
-				c.cells = append(c.cells, orderCell{row: i, text: orderText(c, i, w, orders)})
+				c.cells = append(c.cells, orderCell{row: i, text: orderText(c, i, w, orders), col: ro.order + 1})
 				break
 			}
 		}

@@ -546,8 +546,9 @@ func groupByUnit(c *parsedChunk, w int) *parsedChunk {
 	return out
 }
 
-// checkKinds refuses a chunk's first window whose order is of another kind (integer or time)
-// than the first window's.
+// checkKinds refuses the first window of a chunk whose order is of another kind (integer or
+// time) than the first window's; the chunk's cells name the windows to look at (its first, and
+// its first of another kind).
 func (r *reader) checkKinds(p string, header []string, ro roles, c *parsedChunk) error {
 	if ro.order < 0 || c.n == 0 {
 		return nil
@@ -557,8 +558,12 @@ func (r *reader) checkKinds(p string, header []string, ro roles, c *parsedChunk)
 		if c.kinds[cell.row] == 't' {
 			kind = "time"
 		}
+		line := c.line(cell.row, len(r.features)+2)
+		if r.orderKind == "" { // the first window of all decides
+			r.orderKind, r.orderAt = kind, fmt.Sprintf("%s:%d", p, line)
+		}
 		if kind != r.orderKind {
-			return &InputError{File: p, Line: c.line(cell.row, len(r.features)+2), Column: cell.col, Field: header[ro.order],
+			return &InputError{File: p, Line: line, Column: cell.col, Field: header[ro.order],
 				Msg: fmt.Sprintf("%q is %s but the order column held %ss from %s on; use one kind throughout", cell.text, article(kind), r.orderKind, r.orderAt), Err: ErrOrder}
 		}
 	}
