@@ -147,7 +147,7 @@ func ICC(units [][]float64, d int) []float64 { return iccBlocks(SliceBlocks(unit
 func iccBlocks(blocks Blocks, d int) []float64 {
 	acc := newICCAcc(d)
 	for u := 0; u < blocks.Len(); u++ {
-		acc.add(blocks.Block(u))
+		acc.merge(unitICC(blocks.Block(u), d))
 	}
 	return acc.icc()
 }
@@ -165,8 +165,6 @@ type iccAcc struct {
 func newICCAcc(d int) *iccAcc {
 	return &iccAcc{d: d, grand: make([]float64, d), ssw: make([]float64, d)}
 }
-
-func (a *iccAcc) add(x []float64) { a.merge(unitICC(x, a.d)) }
 
 // iccUnit is one participant's part of ICC(1).
 type iccUnit struct {
