@@ -149,9 +149,9 @@ func CliffsDelta(x, y []float64) (float64, error) {
 	return float64(more-less) / float64(len(x)*len(y)), nil
 }
 
-// Median reorders xs in place and returns its median (NaN when empty): the middle value, or
-// the mean of the two middle ones. It selects rather than sorts (SelectKth), so it takes linear
-// time.
+// Median returns the median of xs (NaN when empty): the middle value, or the mean of the two
+// middle ones. It selects rather than sorts (kthPair), so it takes linear time, and may reorder
+// xs.
 func Median(xs []float64) float64 {
 	n := len(xs)
 	if n == 0 {
@@ -163,16 +163,18 @@ func Median(xs []float64) float64 {
 			return middle(xs)
 		}
 	}
-	m := n / 2
-	hi := SelectKth(xs, m)
+	lo, hi := kthPair(xs, n/2, n%2 == 0)
 	if n%2 == 1 {
 		return hi
 	}
-	lo := xs[0]
-	for _, v := range xs[1:m] {
-		lo = max(lo, v)
-	}
 	return (lo + hi) / 2
+}
+
+// Kth returns the k-th smallest value of xs (from 0), which holds no NaN, in linear time; it
+// may reorder xs.
+func Kth(xs []float64, k int) float64 {
+	_, v := kthPair(xs, k, false)
+	return v
 }
 
 func middle(sorted []float64) float64 {

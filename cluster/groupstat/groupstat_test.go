@@ -164,7 +164,7 @@ func TestMedianSelectsLikeASort(t *testing.T) {
 		}
 		cases = append(cases, x)
 	}
-	for _, n := range []int{511, 512, 513, 2000, 2001, 10080} { // the radix path: signs, zeros, ties
+	for _, n := range []int{511, 512, 513, 2000, 2001, 10080} { // both selection paths: signs, zeros, ties
 		x := make([]float64, n)
 		for i := range x {
 			switch rng.IntN(4) {
