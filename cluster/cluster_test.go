@@ -274,3 +274,22 @@ func TestTransformRowsMatchesTransformRow(t *testing.T) {
 		}
 	}
 }
+
+// BenchmarkTransformRows projects a week of one-minute windows of 24 features on 8 components.
+func BenchmarkTransformRows(b *testing.B) {
+	rng := rand.New(rand.NewPCG(7, 8))
+	x := mat.NewDense(10080, 24, nil)
+	for i := 0; i < 10080; i++ {
+		for j := 0; j < 24; j++ {
+			x.Set(i, j, rng.NormFloat64()+float64(i%5*j))
+		}
+	}
+	p, err := FitPCA(x, PCAOptions{Components: 8})
+	if err != nil {
+		b.Fatal(err)
+	}
+	dst := make([]float64, 10080*8)
+	for b.Loop() {
+		p.TransformRows(dst, x.RawMatrix().Data)
+	}
+}
