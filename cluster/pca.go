@@ -130,6 +130,7 @@ func (p *PCA) Transform(x mat.Matrix) (*mat.Dense, error) {
 // dot4 returns the dot products of l with the four rows interleaved in z (z[4j+r] is element j
 // of row r), each summed from zero in the order j = 0, 1, …. It is kept out of line: inlined,
 // its loop counter was kept in memory, which doubled its time.
+//
 //go:noinline
 func dot4(z, l []float64) (s0, s1, s2, s3 float64) {
 	z = z[:4*len(l)]

@@ -139,3 +139,43 @@ func TestKeptBaselinesAndSampleMatchApply(t *testing.T) {
 		}
 	}
 }
+
+// ApplyBaselineInto does both steps in one go, a block of windows at a time; it must give bit for
+// bit what the within-participant step followed by Cohort gives, for every within mode, with and
+// without the projection, over more windows than one block, and into a reused buffer.
+func TestOneGoApplyMatchesTwoSteps(t *testing.T) {
+	units := make([][]float64, 5)
+	for u := range units {
+		for w := 0; w < applyRows+37; w++ {
+			units[u] = append(units[u], float64(u)*3+math.Sin(float64(w)), math.Cos(float64(w*u)), float64((w*7+u)%11), math.Sqrt(float64(w+u)))
+		}
+	}
+	cases := []struct {
+		name string
+		opts Options
+	}{
+		{"rest baseline, PCA", Options{Within: WithinRest}},
+		{"rest baseline, no PCA", Options{Within: WithinRest, NoPCA: true}},
+		{"robust z on two features", Options{Within: WithinRobustZ, WithinFeatures: []string{"a", "c"}}},
+		{"no within step, robust cohort scale", Options{Within: WithinNone, Scale: ScaleRobustZ}},
+	}
+	var buf []float64
+	for _, c := range cases {
+		fit, err := FitBlocks(context.Background(), []string{"a", "b", "c", "d"}, SliceBlocks(units), c.opts)
+		if err != nil {
+			t.Fatalf("%s: %v", c.name, err)
+		}
+		for u, x := range units {
+			want := fit.Cohort(fit.within(x, fit.Units[u]))
+			buf = fit.ApplyUnitInto(buf, u, x)
+			if len(buf) != len(want) {
+				t.Fatalf("%s, participant %d: %d values, two steps give %d", c.name, u, len(buf), len(want))
+			}
+			for i := range want {
+				if math.Float64bits(want[i]) != math.Float64bits(buf[i]) {
+					t.Fatalf("%s, participant %d value %d: %v, two steps give %v", c.name, u, i, buf[i], want[i])
+				}
+			}
+		}
+	}
+}

@@ -177,8 +177,15 @@ func assignWindows(ctx context.Context, t *cohort.Table, fit *normalize.Fit, sta
 		labels []int
 	}
 	raw := &rawBlocks{t: t}
+	var bufs sync.Pool // transformed windows, one buffer per worker at a time
 	err := normalize.EachBlock(ctx, raw, workers, func(i int, x []float64) (unitResult, error) {
-		labels := states.Assign(fit.ApplyUnit(i, x))
+		bp, _ := bufs.Get().(*[]float64)
+		if bp == nil {
+			bp = new([]float64)
+		}
+		*bp = fit.ApplyUnitInto(*bp, i, x)
+		labels := states.Assign(*bp)
+		bufs.Put(bp)
 		f.sigs[i] = profile.Signatures(labels, states.K)
 		f.medians[i] = make([]float64, d)
 		col := make([]float64, len(x)/d)
