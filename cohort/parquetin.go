@@ -2,6 +2,7 @@ package cohort
 
 import (
 	"context"
+	"encoding/binary"
 	"errors"
 	"fmt"
 	"io"
@@ -18,6 +19,31 @@ import (
 	"github.com/parquet-go/parquet-go"
 	"github.com/parquet-go/parquet-go/format"
 )
+
+// checkParquetFrame checks the frame of a Parquet file before parquet-go reads it: the magic
+// "PAR1" at both ends and a footer length that fits in the file (Apache Parquet file format:
+// header magic, data, footer, 4-byte little-endian footer length, magic). parquet-go allocates
+// the footer length it reads before it finds that the length is wrong; fuzzing found a damaged
+// length that made it allocate 4 GB.
+func checkParquetFrame(f io.ReaderAt, size int64) error {
+	var head, tail [8]byte
+	if size < 12 {
+		return fmt.Errorf("too short for a Parquet file (%d bytes)", size)
+	}
+	if _, err := f.ReadAt(head[:4], 0); err != nil {
+		return fmt.Errorf("cannot read it: %v", err)
+	}
+	if _, err := f.ReadAt(tail[:], size-8); err != nil {
+		return fmt.Errorf("cannot read it: %v", err)
+	}
+	if string(head[:4]) != "PAR1" || string(tail[4:]) != "PAR1" {
+		return fmt.Errorf("not a Parquet file (no PAR1 mark at its start and end)")
+	}
+	if n := int64(binary.LittleEndian.Uint32(tail[:4])); n > size-12 {
+		return fmt.Errorf("a damaged or cut-short Parquet file: its footer claims %d bytes of a %d-byte file", n, size)
+	}
+	return nil
+}
 
 // readParquet reads a flat Parquet file (github.com/parquet-go/parquet-go) row group by row
 // group. Feature columns must be numeric (INT32, INT64, FLOAT, DOUBLE), a null is a missing
@@ -40,6 +66,9 @@ func (r *reader) readParquet(p string) (err error) {
 	st, err := f.Stat()
 	if err != nil {
 		return &InputError{File: p, Msg: "cannot open: " + err.Error(), Err: ErrOpen}
+	}
+	if err := checkParquetFrame(f, st.Size()); err != nil {
+		return &InputError{File: p, Msg: err.Error() + "; write it again, or export CSV", Err: ErrNotText}
 	}
 	pf, err := parquet.OpenFile(f, st.Size())
 	if err != nil {
