@@ -485,25 +485,14 @@ type unitMoments struct {
 	mu, ss []float64
 }
 
+// momentsOf is a participant's count, column means and sums of squared deviations: unitICC's,
+// whose row-by-row loops keep one running sum per column (each summed in window order).
 func momentsOf(x []float64, d int) unitMoments {
-	p := unitMoments{n: float64(len(x) / d), mu: make([]float64, d), ss: make([]float64, d)}
-	if p.n == 0 {
-		return p
+	u := unitICC(x, d)
+	if u.n == 0 {
+		return unitMoments{mu: make([]float64, d), ss: make([]float64, d)}
 	}
-	for j := 0; j < d; j++ {
-		var mu float64
-		for i := j; i < len(x); i += d {
-			mu += x[i]
-		}
-		mu /= p.n
-		var ss float64
-		for i := j; i < len(x); i += d {
-			v := x[i] - mu
-			ss += v * v
-		}
-		p.mu[j], p.ss[j] = mu, ss
-	}
-	return p
+	return unitMoments{n: float64(u.n), mu: u.mean, ss: u.ssw}
 }
 
 func (m *moments) merge(p unitMoments) {
