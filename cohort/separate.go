@@ -3,7 +3,10 @@ package cohort
 import (
 	"fmt"
 	"math"
+	"runtime"
 	"sort"
+	"sync"
+	"sync/atomic"
 
 	"github.com/cohortmix/cohortmix/cluster/groupstat"
 )
@@ -25,40 +28,65 @@ type Separation struct {
 	Delta          []float64 // Cliff's delta of each group against the rest
 }
 
+// separateOne tests one variable, or says why it cannot be tested.
+func separateOne(v Variable, labels []int, k int) (*Separation, *Note) {
+	groups := make([][]float64, k)
+	for i, x := range v.Values {
+		groups[labels[i]] = append(groups[labels[i]], x)
+	}
+	kw, err := groupstat.KruskalWallis(groups)
+	if err != nil {
+		return nil, &Note{v.Name, "not tested: " + err.Error()}
+	}
+	s := Separation{Name: v.Name, Kind: v.Kind, H: kw.H, P: kw.P, Epsilon2: kw.Epsilon2,
+		Median: make([]float64, k), Q1: make([]float64, k), Q3: make([]float64, k), Delta: make([]float64, k)}
+	for g := 0; g < k; g++ {
+		s.Q1[g], s.Median[g], s.Q3[g] = quartiles(groups[g])
+		var rest []float64
+		for h := 0; h < k; h++ {
+			if h != g {
+				rest = append(rest, groups[h]...)
+			}
+		}
+		if s.Delta[g], err = groupstat.CliffsDelta(groups[g], rest); err != nil {
+			s.Delta[g] = math.NaN()
+		}
+	}
+	return &s, nil
+}
+
 // Separate runs the Kruskal–Wallis test of every variable across the groups, adds BH q-values
 // over all tested variables, and ranks them by ε² (largest first). Variables that cannot be
 // tested (constant, or values in one group only) are returned as notes.
 func Separate(vars []Variable, labels []int, k int) ([]Separation, []Note, error) {
-	var out []Separation
-	var notes []Note
 	for _, v := range vars {
 		if len(v.Values) != len(labels) {
 			return nil, nil, fmt.Errorf("cohort: Separate: %s has %d values for %d participants: %w", v.Name, len(v.Values), len(labels), ErrMismatch)
 		}
-		groups := make([][]float64, k)
-		for i, x := range v.Values {
-			groups[labels[i]] = append(groups[labels[i]], x)
-		}
-		kw, err := groupstat.KruskalWallis(groups)
-		if err != nil {
-			notes = append(notes, Note{v.Name, "not tested: " + err.Error()})
-			continue
-		}
-		s := Separation{Name: v.Name, Kind: v.Kind, H: kw.H, P: kw.P, Epsilon2: kw.Epsilon2,
-			Median: make([]float64, k), Q1: make([]float64, k), Q3: make([]float64, k), Delta: make([]float64, k)}
-		for g := 0; g < k; g++ {
-			s.Q1[g], s.Median[g], s.Q3[g] = quartiles(groups[g])
-			var rest []float64
-			for h := 0; h < k; h++ {
-				if h != g {
-					rest = append(rest, groups[h]...)
-				}
+	}
+	// The variables are tested on all cores, each on its own; results keep the variables' order.
+	tested := make([]*Separation, len(vars))
+	untested := make([]*Note, len(vars))
+	var next atomic.Int64
+	var wg sync.WaitGroup
+	for w := 0; w < min(runtime.GOMAXPROCS(0), len(vars)); w++ {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			for i := int(next.Add(1) - 1); i < len(vars); i = int(next.Add(1) - 1) {
+				tested[i], untested[i] = separateOne(vars[i], labels, k)
 			}
-			if s.Delta[g], err = groupstat.CliffsDelta(groups[g], rest); err != nil {
-				s.Delta[g] = math.NaN()
-			}
+		}()
+	}
+	wg.Wait()
+	var out []Separation
+	var notes []Note
+	for i := range vars {
+		if tested[i] != nil {
+			out = append(out, *tested[i])
+		} else {
+			notes = append(notes, *untested[i])
 		}
-		out = append(out, s)
 	}
 	p := make([]float64, len(out))
 	for i, s := range out {

@@ -129,19 +129,36 @@ func TestCliffsDeltaProperties(t *testing.T) {
 	if d != -e {
 		t.Errorf("δ(x, y) = %v, δ(y, x) = %v; they must be opposite", d, e)
 	}
-	// against a direct count over the 20 pairs
-	var more, less int
-	for _, a := range x {
-		for _, b := range y {
-			if a > b {
-				more++
-			} else if a < b {
-				less++
+	// Against the definition, a direct count over all pairs, on random groups with many ties;
+	// the counts are integers, so the check is exact.
+	rng := rand.New(rand.NewPCG(11, 12))
+	cases := [][2][]float64{{x, y}}
+	for _, size := range [][2]int{{1, 1}, {1, 50}, {37, 5}, {200, 300}, {1000, 999}} {
+		for _, levels := range []int{2, 10, 1 << 30} {
+			var c [2][]float64
+			for g, n := range size {
+				for i := 0; i < n; i++ {
+					c[g] = append(c[g], float64(rng.IntN(levels)+g))
+				}
 			}
+			cases = append(cases, c)
 		}
 	}
-	if want := float64(more-less) / 20; d != want {
-		t.Errorf("δ = %v, pairwise count gives %v", d, want)
+	for _, c := range cases {
+		var more, less int
+		for _, a := range c[0] {
+			for _, b := range c[1] {
+				if a > b {
+					more++
+				} else if a < b {
+					less++
+				}
+			}
+		}
+		want := float64(more-less) / float64(len(c[0])*len(c[1]))
+		if got, _ := CliffsDelta(c[0], c[1]); got != want {
+			t.Errorf("%d and %d values: δ = %v, pairwise count gives %v", len(c[0]), len(c[1]), got, want)
+		}
 	}
 }
 
