@@ -685,7 +685,7 @@ func (f *Fit) quietest(x []float64, n int) []int {
 	}
 	// The m lowest scores, ties taken in window order: what a stable sort's first m would be.
 	m := max(1, int(math.Ceil(f.RestShare*float64(n))))
-	cut := groupstat.Kth(append([]float64(nil), score...), m-1)
+	cut := groupstat.SelectKth(append([]float64(nil), score...), m-1)
 	idx := make([]int, 0, m)
 	for i, s := range score {
 		if s < cut {

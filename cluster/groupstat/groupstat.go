@@ -164,8 +164,8 @@ func CliffsDelta(x, y []float64) (float64, error) {
 }
 
 // Median returns the median of xs (NaN when empty): the middle value, or the mean of the two
-// middle ones. It selects rather than sorts (kthPair), so it takes linear time, and may reorder
-// xs.
+// middle ones. It selects rather than sorts (SelectKth), so it takes linear expected time, and
+// it reorders xs.
 func Median(xs []float64) float64 {
 	n := len(xs)
 	if n == 0 {
@@ -177,18 +177,16 @@ func Median(xs []float64) float64 {
 			return middle(xs)
 		}
 	}
-	lo, hi := kthPair(xs, n/2, n%2 == 0)
+	m := n / 2
+	hi := SelectKth(xs, m)
 	if n%2 == 1 {
 		return hi
 	}
+	lo := xs[0]
+	for _, v := range xs[1:m] {
+		lo = max(lo, v)
+	}
 	return (lo + hi) / 2
-}
-
-// Kth returns the k-th smallest value of xs (from 0), which holds no NaN, in linear time; it
-// may reorder xs.
-func Kth(xs []float64, k int) float64 {
-	_, v := kthPair(xs, k, false)
-	return v
 }
 
 func middle(sorted []float64) float64 {
@@ -200,58 +198,8 @@ func middle(sorted []float64) float64 {
 }
 
 // SelectKth reorders xs so that xs[k] is its k-th smallest value (from 0), with no larger value
-// before it and no smaller one after, and returns it. It is Floyd and Rivest's selection
-// (Floyd RW, Rivest RL (1975), Algorithm 489: SELECT, Commun. ACM 18(3):173), which first
-// narrows to the range a small sample says the k-th value lies in, so it takes about
-// n + min(k, n−k) comparisons. xs holds no NaN.
+// before it and no smaller one after, and returns it, in linear expected time (quickSelect).
+// xs holds no NaN.
 func SelectKth(xs []float64, k int) float64 {
-	floydRivest(xs, 0, len(xs)-1, k)
-	return xs[k]
-}
-
-func floydRivest(a []float64, left, right, k int) {
-	for right > left {
-		if right-left > 600 {
-			n := float64(right - left + 1)
-			i := float64(k - left + 1)
-			z := math.Log(n)
-			s := 0.5 * math.Exp(2*z/3)
-			sd := 0.5 * math.Sqrt(z*s*(n-s)/n)
-			if i < n/2 {
-				sd = -sd
-			}
-			lo := max(left, int(float64(k)-i*s/n+sd))
-			hi := min(right, int(float64(k)+(n-i)*s/n+sd))
-			floydRivest(a, lo, hi, k)
-		}
-		t := a[k]
-		i, j := left, right
-		a[left], a[k] = a[k], a[left]
-		if a[right] > t {
-			a[right], a[left] = a[left], a[right]
-		}
-		for i < j {
-			a[i], a[j] = a[j], a[i]
-			i++
-			j--
-			for a[i] < t {
-				i++
-			}
-			for a[j] > t {
-				j--
-			}
-		}
-		if a[left] == t {
-			a[left], a[j] = a[j], a[left]
-		} else {
-			j++
-			a[j], a[right] = a[right], a[j]
-		}
-		if j <= k {
-			left = j + 1
-		}
-		if k <= j {
-			right = j - 1
-		}
-	}
+	return quickSelect(xs, k)
 }
