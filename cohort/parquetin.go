@@ -8,12 +8,9 @@ import (
 	"io"
 	"math"
 	"os"
-	"runtime"
 	"slices"
 	"strconv"
 	"strings"
-	"sync"
-	"sync/atomic"
 	"time"
 
 	"github.com/parquet-go/parquet-go"
@@ -409,22 +406,9 @@ func (s *pqSpec) readRows(cols []int, cursors []*pqCursor, first, n int) (*parse
 		}
 	}
 	found := make([]*pqError, len(cols))
-	var next atomic.Int64
-	var wg sync.WaitGroup
-	for g := 0; g < min(runtime.GOMAXPROCS(0), len(cols)); g++ {
-		wg.Add(1)
-		go func() {
-			defer wg.Done()
-			for {
-				k := int(next.Add(1) - 1)
-				if k >= len(cols) {
-					return
-				}
-				found[k] = s.readColumn(cursors[k], n, cols[k], first, dsts[k], read[k])
-			}
-		}()
-	}
-	wg.Wait()
+	onAllCores(len(cols), func(k int) {
+		found[k] = s.readColumn(cursors[k], n, cols[k], first, dsts[k], read[k])
+	})
 	// The first problem in row order (then in column order) is the one reported.
 	var bad *pqError
 	for _, e := range found {

@@ -3,10 +3,7 @@ package cohort
 import (
 	"fmt"
 	"math"
-	"runtime"
 	"sort"
-	"sync"
-	"sync/atomic"
 
 	"github.com/cohortmix/cohortmix/cluster/groupstat"
 )
@@ -67,18 +64,9 @@ func Separate(vars []Variable, labels []int, k int) ([]Separation, []Note, error
 	// The variables are tested on all cores, each on its own; results keep the variables' order.
 	tested := make([]*Separation, len(vars))
 	untested := make([]*Note, len(vars))
-	var next atomic.Int64
-	var wg sync.WaitGroup
-	for w := 0; w < min(runtime.GOMAXPROCS(0), len(vars)); w++ {
-		wg.Add(1)
-		go func() {
-			defer wg.Done()
-			for i := int(next.Add(1) - 1); i < len(vars); i = int(next.Add(1) - 1) {
-				tested[i], untested[i] = separateOne(vars[i], labels, k)
-			}
-		}()
-	}
-	wg.Wait()
+	onAllCores(len(vars), func(i int) {
+		tested[i], untested[i] = separateOne(vars[i], labels, k)
+	})
 	var out []Separation
 	var notes []Note
 	for i := range vars {
