@@ -309,6 +309,15 @@ func (s *parseSpec) parsePlain(data []byte, line, rows int, c *parsedChunk) {
 	}
 }
 
+// plainEdges reports whether a non-empty cell starts and ends with a byte that trimming cannot
+// remove: printable ASCII. Any other edge (a tab, a vertical tab, a no-break space or anything
+// else outside ASCII, which strings.TrimSpace may trim) sends the line to the general path,
+// which trims the id and wave as it does for every line. FuzzRead found a vertical tab here.
+func plainEdges(b []byte) bool {
+	first, last := b[0], b[len(b)-1]
+	return first > ' ' && first < 0x80 && last > ' ' && last < 0x80
+}
+
 // fastRow parses a line whose feature cells are all plain decimals and whose id and order cells
 // are plain, in one scan; it returns false, adding nothing, for any other line.
 func (s *parseSpec) fastRow(c *parsedChunk, ln []byte, line int) bool {
@@ -360,8 +369,7 @@ func (s *parseSpec) fastRow(c *parsedChunk, ln []byte, line int) bool {
 	// Everything that can send the line to the general path is checked before the chunk's
 	// order cells are touched, so that the general path records them as for any other line.
 	ord, ordOK := scanInt(ordb)
-	if ro.order >= 0 && !ordOK || len(idb) == 0 || idb[0] == ' ' || idb[len(idb)-1] == ' ' ||
-		len(waveb) > 0 && (waveb[0] == ' ' || waveb[len(waveb)-1] == ' ') {
+	if ro.order >= 0 && !ordOK || len(idb) == 0 || !plainEdges(idb) || len(waveb) > 0 && !plainEdges(waveb) {
 		c.vals = c.vals[:base]
 		return false
 	}
