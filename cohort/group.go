@@ -74,6 +74,14 @@ type GroupOptions struct {
 	Seed      uint64
 	MaxBytes  int64 // memory guard for distance matrices; 0 means 512 MiB (about 11,000 participants)
 	Workers   int
+	Progress  func(step string, done, total int) // after each grouping, reference set and resample; may be nil
+}
+
+// report tells opts.Progress, if set, that done of total of a step are finished.
+func (o GroupOptions) report(step string, done, total int) {
+	if o.Progress != nil {
+		o.Progress(step, done, total)
+	}
 }
 
 // KScore holds every criterion for one number of groups.
@@ -204,12 +212,13 @@ func GroupSignatures(ctx context.Context, shares [][]float64, opts GroupOptions)
 		return nil, err
 	}
 	labelsByK := map[int][]int{}
-	for _, k := range opts.Groups {
+	for i, k := range opts.Groups {
 		lab, err := cut(k)
 		if err != nil {
 			return nil, err
 		}
 		labelsByK[k] = lab
+		opts.report("grouping for each number of groups", i+1, len(opts.Groups))
 	}
 	// The criteria for the number of groups (silhouette, and the gap's references and the
 	// stability's resamples, which cluster the data again and again) work above LargeCohort on
@@ -410,6 +419,7 @@ func scoreGap(ctx context.Context, x *mat.Dense, scores []KScore, labelsByK map[
 			}
 			logW[i] = append(logW[i], math.Log(withinSS(ref, lab, k)))
 		}
+		opts.report("gap statistic: reference sets", b+1, opts.Bootstrap)
 	}
 	B := float64(opts.Bootstrap)
 	for i, k := range ks {
@@ -511,6 +521,7 @@ func scoreStability(ctx context.Context, x *mat.Dense, dist *cluster.Condensed, 
 			}
 			sum[i] += ari
 		}
+		opts.report("stability: resamples", b+1, opts.Bootstrap)
 	}
 	for i := range scores {
 		scores[i].Stability = sum[i] / float64(opts.Bootstrap)

@@ -4,6 +4,7 @@ import (
 	"context"
 	"math"
 	"math/rand/v2"
+	"slices"
 	"strings"
 	"testing"
 
@@ -107,5 +108,48 @@ func TestThousands(t *testing.T) {
 		if got := thousands(n); got != want {
 			t.Errorf("thousands(%d) = %q, want %q", n, got, want)
 		}
+	}
+}
+
+// GroupSignatures reports each step it counts (one grouping per candidate number, then the
+// gap's reference sets and the stability's resamples), each counting up to its total; the
+// reports do not change the result.
+func TestGroupReportsProgress(t *testing.T) {
+	shares, _ := plantedShares(60, 3, 2)
+	type call struct {
+		step        string
+		done, total int
+	}
+	var calls []call
+	opts := GroupOptions{Method: KMeansCLR, Groups: []int{2, 3, 4}, Bootstrap: 5, Seed: 1}
+	quiet, err := GroupSignatures(context.Background(), shares, opts)
+	if err != nil {
+		t.Fatal(err)
+	}
+	opts.Progress = func(step string, done, total int) { calls = append(calls, call{step, done, total}) }
+	g, err := GroupSignatures(context.Background(), shares, opts)
+	if err != nil {
+		t.Fatal(err)
+	}
+	want := []call{{"grouping for each number of groups", 3, 3}, {"gap statistic: reference sets", 5, 5}, {"stability: resamples", 5, 5}}
+	var ends []call
+	for i, c := range calls {
+		if i+1 == len(calls) || calls[i+1].step != c.step {
+			ends = append(ends, c)
+		}
+		if c.done < 1 || c.done > c.total || (i > 0 && calls[i-1].step == c.step && calls[i-1].done+1 != c.done) {
+			t.Fatalf("call %d: %+v after %+v", i, c, calls[max(i-1, 0)])
+		}
+	}
+	if len(ends) != len(want) {
+		t.Fatalf("steps %+v, want %+v", ends, want)
+	}
+	for i := range want {
+		if ends[i] != want[i] {
+			t.Errorf("step %d ends at %+v, want %+v", i, ends[i], want[i])
+		}
+	}
+	if g.K != quiet.K || !slices.Equal(g.Labels, quiet.Labels) {
+		t.Errorf("with progress: k %d, without: k %d (or other labels)", g.K, quiet.K)
 	}
 }

@@ -38,7 +38,7 @@ type Options struct {
 	Restarts int    // k-means restarts; 0 means 10
 	Seed     uint64 // drives the sample and k-means
 	Workers  int
-	Progress func(step string, done, total int)
+	Progress func(step string, done, total int) // after each candidate number of states; may be nil
 }
 
 // Candidate is one number of states tried, with the indices shown beside the choice.
@@ -139,9 +139,6 @@ func FitStates(ctx context.Context, sample *mat.Dense, opts Options) (*States, e
 	var best *cluster.KMeansResult
 	bestCH := math.Inf(-1)
 	for i, k := range opts.States {
-		if opts.Progress != nil {
-			opts.Progress("fitting states", i, len(opts.States))
-		}
 		r, err := cluster.KMeans(ctx, x, cluster.KMeansOptions{K: k, Restarts: candidateRestarts, Seed: opts.Seed + uint64(k), Workers: opts.Workers})
 		if err != nil {
 			return nil, fmt.Errorf("profile: %w", err)
@@ -176,6 +173,9 @@ func FitStates(ctx context.Context, sample *mat.Dense, opts Options) (*States, e
 		s.Candidates = append(s.Candidates, c)
 		if c.CalinskiHarabasz > bestCH || best == nil {
 			best, bestCH, s.K = r, c.CalinskiHarabasz, k
+		}
+		if opts.Progress != nil {
+			opts.Progress("fitting states for each candidate number", i+1, len(opts.States))
 		}
 	}
 	if candidateRestarts < restarts {

@@ -46,9 +46,18 @@ func plantedBlocks() ([][]float64, [][]int) {
 func TestFitStatesRecoversPlantedStates(t *testing.T) {
 	blocks, truth := plantedBlocks()
 	sample := Sample(normalize.SliceBlocks(blocks), 3, 2000, 4000, 1)
-	s, err := FitStates(context.Background(), sample, Options{States: []int{2, 3, 4, 5, 6}, Seed: 1})
+	var reported []int // done counts, after each candidate
+	s, err := FitStates(context.Background(), sample, Options{States: []int{2, 3, 4, 5, 6}, Seed: 1, Progress: func(_ string, done, total int) {
+		if total != 5 {
+			t.Errorf("progress total %d, want the 5 candidates", total)
+		}
+		reported = append(reported, done)
+	}})
 	if err != nil {
 		t.Fatal(err)
+	}
+	if fmt.Sprint(reported) != "[1 2 3 4 5]" {
+		t.Errorf("progress after each candidate: %v, want [1 2 3 4 5]", reported)
 	}
 	if s.K != 4 || len(s.Candidates) != 5 {
 		t.Fatalf("chose %d states from %d candidates, want 4 of 5", s.K, len(s.Candidates))

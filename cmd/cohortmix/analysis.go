@@ -30,6 +30,7 @@ type analysisOptions struct {
 	Workers   int
 	Progress  func(step string)
 	Passes    func(step string, done, total int) // progress within the passes over the participants
+	Steps     func(step string, done, total int) // progress within fitting the states and the groups
 }
 
 // normSample is about how many windows the robust scales and the PCA are fitted on.
@@ -117,7 +118,7 @@ func fitAll(ctx context.Context, o analysisOptions) (f *fitted, err error) {
 		rows := fit.Cohort(kept)
 		sample = mat.NewDense(len(rows)/fit.OutDim(), fit.OutDim(), rows)
 	}
-	states, err := profile.FitStates(ctx, sample, profile.Options{States: o.States, Seed: o.Seed, Workers: o.Workers})
+	states, err := profile.FitStates(ctx, sample, profile.Options{States: o.States, Seed: o.Seed, Workers: o.Workers, Progress: o.Steps})
 	if err != nil {
 		return nil, err
 	}
@@ -131,7 +132,7 @@ func fitAll(ctx context.Context, o analysisOptions) (f *fitted, err error) {
 		shares[i] = sg.Share
 	}
 	step("grouping participants")
-	g, err := cohort.GroupSignatures(ctx, shares, cohort.GroupOptions{Method: o.Method, Groups: o.Groups, Criterion: o.Criterion, Bootstrap: o.Bootstrap, Seed: o.Seed, Workers: o.Workers})
+	g, err := cohort.GroupSignatures(ctx, shares, cohort.GroupOptions{Method: o.Method, Groups: o.Groups, Criterion: o.Criterion, Bootstrap: o.Bootstrap, Seed: o.Seed, Workers: o.Workers, Progress: o.Steps})
 	if err != nil {
 		return nil, err
 	}

@@ -221,6 +221,18 @@ func count(n int64) string {
 // passBar draws a bar for a pass over the participants (normalizing, assigning), with
 // participants done and per second, on a terminal only.
 func passBar(env *Env, quiet bool) func(step string, done, total int) {
+	return countBar(env, quiet, "participants")
+}
+
+// stepBar draws a bar for the steps of a fit that are counted in candidates, reference sets or
+// resamples (the states and the groups), with how many are done, on a terminal only.
+func stepBar(env *Env, quiet bool) func(step string, done, total int) {
+	return countBar(env, quiet, "")
+}
+
+// countBar draws one bar per step (github.com/schollz/progressbar), counting in unit, with a
+// rate when unit is given.
+func countBar(env *Env, quiet bool, unit string) func(step string, done, total int) {
 	if quiet || !env.IO.ErrIsTTY {
 		return nil
 	}
@@ -232,9 +244,12 @@ func passBar(env *Env, quiet bool) func(step string, done, total int) {
 				bar.Finish()
 			}
 			current = step
-			bar = progressbar.NewOptions(total, progressbar.OptionSetWriter(env.IO.Err), progressbar.OptionSetDescription("  "+step),
-				progressbar.OptionShowCount(), progressbar.OptionShowIts(), progressbar.OptionSetItsString("participants"),
-				progressbar.OptionThrottle(100*time.Millisecond), progressbar.OptionClearOnFinish(), progressbar.OptionSetWidth(30))
+			opts := []progressbar.Option{progressbar.OptionSetWriter(env.IO.Err), progressbar.OptionSetDescription("  " + step),
+				progressbar.OptionShowCount(), progressbar.OptionThrottle(100 * time.Millisecond), progressbar.OptionClearOnFinish(), progressbar.OptionSetWidth(30)}
+			if unit != "" {
+				opts = append(opts, progressbar.OptionShowIts(), progressbar.OptionSetItsString(unit))
+			}
+			bar = progressbar.NewOptions(total, opts...)
 		}
 		bar.Set(done)
 		if done >= total {

@@ -115,6 +115,7 @@ func (o *groupOptions) prepare() (analysisOptions, []byte, error) {
 	ao.Progress = progress(&Env{IO: o.IO}, o.Flags.Quiet, o.Now)
 	ao.Read.Progress = readBar(&Env{IO: o.IO}, o.Flags.Quiet)
 	ao.Passes = passBar(&Env{IO: o.IO}, o.Flags.Quiet)
+	ao.Steps = stepBar(&Env{IO: o.IO}, o.Flags.Quiet)
 	key, err := loadKey(o.Flags.Pseudonymize)
 	return ao, key, err
 }
