@@ -208,6 +208,26 @@ type chunker struct {
 // chunkBufs keeps the chunks' byte buffers for reuse once their chunk is parsed.
 var chunkBufs sync.Pool
 
+// valsBufs keeps the chunks' window values for reuse once their chunk is merged into the store,
+// which copies them.
+var valsBufs sync.Pool
+
+// newVals returns an empty slice with room for n values, reused when one is at hand.
+func newVals(n int) []float64 {
+	if p, ok := valsBufs.Get().(*[]float64); ok && cap(*p) >= n {
+		return (*p)[:0]
+	}
+	return make([]float64, 0, n)
+}
+
+// release hands a merged chunk's values back for a later chunk; the chunk must not be used
+// after.
+func (c *parsedChunk) release() {
+	v := c.vals[:0]
+	c.vals = nil
+	valsBufs.Put(&v)
+}
+
 func (ch *chunker) next() ([]byte, bool, error) {
 	var buf []byte
 	if p, ok := chunkBufs.Get().(*[]byte); ok && cap(*p) >= chunkSize {
@@ -263,7 +283,7 @@ func (ch *chunker) next() ([]byte, bool, error) {
 // plain decimals as it finds the delimiters; a line it cannot take (a missing or unusual cell,
 // a wrong field count) is split at the delimiter and read by addRow, which also words the errors.
 func (s *parseSpec) parsePlain(data []byte, line, rows int, c *parsedChunk) {
-	c.vals = make([]float64, 0, rows*(s.nf+2))
+	c.vals = newVals(rows * (s.nf + 2))
 	c.kinds = make([]byte, 0, rows)
 	var fields [][]byte
 	var starts []int

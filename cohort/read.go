@@ -392,6 +392,7 @@ func (r *reader) readFile(p string) error {
 				return err
 			}
 			rows += c.rows()
+			c.release()
 			return nil
 		})
 		if err != nil {
