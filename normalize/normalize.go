@@ -25,6 +25,8 @@ import (
 	"fmt"
 	"math"
 	"path"
+	"slices"
+	"sync"
 
 	"github.com/cohortmix/cohortmix/cluster"
 	"github.com/cohortmix/cohortmix/cluster/groupstat"
@@ -313,7 +315,7 @@ func FitBlocks(ctx context.Context, features []string, blocks Blocks, opts Optio
 	}
 	// Pass 1: ICC(1) and the sample of raw windows.
 	acc := newICCAcc(d)
-	var raw []float64
+	var rawParts [][]float64 // joined once at the end: growing one slice would copy it again and again
 	type part1 struct {
 		icc    iccUnit
 		sample []float64
@@ -322,7 +324,7 @@ func FitBlocks(ctx context.Context, features []string, blocks Blocks, opts Optio
 		return part1{unitICC(x, d), appendSampled(nil, x, d, u, opts.Seed, opts.SampleRate)}, nil
 	}, func(u int, p part1) error {
 		acc.merge(p.icc)
-		raw = append(raw, p.sample...)
+		rawParts = append(rawParts, p.sample)
 		if opts.Progress != nil {
 			opts.Progress("normalizing, pass 1 of 2", u+1, blocks.Len())
 		}
@@ -365,8 +367,8 @@ func FitBlocks(ctx context.Context, features []string, blocks Blocks, opts Optio
 	}
 	// The quiet score ranks a participant's windows by the cohort-scaled mean of the untouched
 	// features (all features when every one is touched).
-	f.QuietMid, f.QuietScale = medianMAD(raw, d)
-	raw = nil
+	f.QuietMid, f.QuietScale = medianMAD(slices.Concat(rawParts...), d)
+	rawParts = nil
 	for j := range features {
 		if !f.Touched[j] || all {
 			f.QuietScore = append(f.QuietScore, j)
@@ -375,7 +377,7 @@ func FitBlocks(ctx context.Context, features []string, blocks Blocks, opts Optio
 	// Pass 2: each participant's baseline, kept for ApplyUnit, and the cohort step's statistics
 	// and sample, on the within-step windows.
 	var moments moments
-	var sample []float64
+	var sampleParts [][]float64
 	f.Units = make([]Baseline, blocks.Len())
 	type part2 struct {
 		base         Baseline
@@ -383,9 +385,16 @@ func FitBlocks(ctx context.Context, features []string, blocks Blocks, opts Optio
 		sample, kept []float64
 		keptAt       []int
 	}
+	var ys sync.Pool // within-step windows, one buffer per worker at a time
 	err = EachBlock(ctx, blocks, opts.Workers, func(u int, x []float64) (part2, error) {
 		p := part2{base: f.Baseline(x)}
-		y := f.within(x, p.base)
+		yp, _ := ys.Get().(*[]float64)
+		if yp == nil {
+			yp = new([]float64)
+		}
+		defer ys.Put(yp)
+		y := f.withinInto(*yp, x, p.base)
+		*yp = y
 		p.mom = momentsOf(y, d)
 		p.sample = appendSampled(nil, y, d, u, opts.Seed, opts.SampleRate)
 		if opts.Keep != nil {
@@ -400,7 +409,7 @@ func FitBlocks(ctx context.Context, features []string, blocks Blocks, opts Optio
 	}, func(u int, p part2) error {
 		f.Units[u] = p.base
 		moments.merge(p.mom)
-		sample = append(sample, p.sample...)
+		sampleParts = append(sampleParts, p.sample)
 		for i, w := range p.keptAt {
 			opts.Keep(u, w, p.kept[i*d:(i+1)*d])
 		}
@@ -412,6 +421,8 @@ func FitBlocks(ctx context.Context, features []string, blocks Blocks, opts Optio
 	if err != nil {
 		return nil, err
 	}
+	sample := slices.Concat(sampleParts...)
+	sampleParts = nil
 	switch opts.Scale {
 	case ScaleZ:
 		f.Center, f.Spread = moments.meanSD()
@@ -464,6 +475,10 @@ func SampleRows(blocks Blocks, d int, seed uint64, rate float64, tf func([]float
 
 // appendSampled appends the windows of participant u's block x that Sampled keeps at rate.
 func appendSampled(rows, x []float64, d, u int, seed uint64, rate float64) []float64 {
+	if rows == nil && len(x) > 0 { // room for the expected count and three of its s.d.
+		n := float64(len(x) / d)
+		rows = make([]float64, 0, d*int(n*rate+3*math.Sqrt(n*rate*(1-rate))+1))
+	}
 	for w := 0; w*d < len(x); w++ {
 		if Sampled(seed, u, w, rate) {
 			rows = append(rows, x[w*d:(w+1)*d]...)
@@ -652,9 +667,12 @@ func (f *Fit) Baseline(x []float64) Baseline {
 }
 
 // within applies the within-participant step with baseline b, returning a copy.
-func (f *Fit) within(x []float64, b Baseline) []float64 {
+func (f *Fit) within(x []float64, b Baseline) []float64 { return f.withinInto(nil, x, b) }
+
+// withinInto is within writing into dst, grown when too short.
+func (f *Fit) withinInto(dst, x []float64, b Baseline) []float64 {
 	d := len(f.Features)
-	y := append([]float64(nil), x...)
+	y := append(dst[:0], x...)
 	if f.Within == WithinNone {
 		return y
 	}

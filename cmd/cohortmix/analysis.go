@@ -101,8 +101,11 @@ func fitAll(ctx context.Context, o analysisOptions) (f *fitted, err error) {
 	}
 	raw := &rawBlocks{t: t}
 	// The states' sample is drawn in the normalizing pass, from the same hash as its own sample.
-	var kept []float64
-	o.Norm.KeepRate = profile.SampleRate(o.Sample, t.Quality.WindowsIn-t.Quality.WindowsDropped-t.Quality.WindowsExcluded)
+	usable := t.Quality.WindowsIn - t.Quality.WindowsDropped - t.Quality.WindowsExcluded
+	o.Norm.KeepRate = profile.SampleRate(o.Sample, usable)
+	// Room for the expected sample and a margin, so that it is rarely copied while it grows.
+	expect := o.Norm.KeepRate * float64(usable)
+	kept := make([]float64, 0, len(t.Features)*int(expect+4*math.Sqrt(expect)+16))
 	o.Norm.Keep = func(_, _ int, row []float64) { kept = append(kept, row...) }
 	o.Norm.Workers, o.Norm.Progress = o.Workers, o.Passes
 	fit, err := normalize.FitBlocks(ctx, t.Features, raw, o.Norm)

@@ -21,9 +21,11 @@ func BenchmarkGroup(b *testing.B) {
 	b.Run("read,n=200,w=5000,d=24", func(b *testing.B) {
 		b.ReportAllocs()
 		for b.Loop() {
-			if _, err := cohort.Read(context.Background(), []string{path}, cohort.ReadOptions{}); err != nil {
+			t, err := cohort.Read(context.Background(), []string{path}, cohort.ReadOptions{})
+			if err != nil {
 				b.Fatal(err)
 			}
+			t.Close()
 		}
 	})
 	b.Run("group,n=200,w=5000,d=24", func(b *testing.B) {
