@@ -156,10 +156,21 @@ func (s *store) read(at int64, rows int, cols []int, dst []float64) ([]float64, 
 		return nil, fmt.Errorf("cohort: reading the temporary windows file: %w", err)
 	}
 	fd := w - 2
+	// The usual request, the features in their order, is a plain conversion of each row's start.
+	prefix := cols != nil && len(cols) <= fd
+	for a, j := range cols {
+		prefix = prefix && j == a
+	}
 	for i := 0; i < rows; i++ {
 		f := unsafe.Slice((*float32)(unsafe.Pointer(&buf[i*rb])), fd)
 		tail := unsafe.Slice((*float64)(unsafe.Pointer(&buf[i*rb+featBytes(fd)])), 2)
 		out := dst[i*d : (i+1)*d]
+		if prefix {
+			for j, v := range f[:len(out)] {
+				out[j] = float64(v)
+			}
+			continue
+		}
 		if cols == nil {
 			for j, v := range f {
 				out[j] = float64(v)
