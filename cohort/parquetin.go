@@ -204,6 +204,7 @@ type pqBuffers struct {
 	vals                       []float64
 	ids, waves, labels, orders []string
 	kinds, chunkKinds          []byte
+	missing                    []bool
 	ords                       []int64
 	feats                      [][]float64
 }
@@ -214,7 +215,7 @@ func (s *pqSpec) buffers(n int) *pqBuffers {
 		return b
 	}
 	b := &pqBuffers{vals: make([]float64, n*(s.nf+2)), ids: make([]string, n), waves: make([]string, n), labels: make([]string, n),
-		orders: make([]string, n), kinds: make([]byte, n), chunkKinds: make([]byte, 0, n), ords: make([]int64, n), feats: make([][]float64, s.nf)}
+		orders: make([]string, n), kinds: make([]byte, n), chunkKinds: make([]byte, 0, n), missing: make([]bool, n), ords: make([]int64, n), feats: make([][]float64, s.nf)}
 	for j := range b.feats {
 		b.feats[j] = make([]float64, n)
 	}
@@ -416,14 +417,27 @@ func (s *pqSpec) readRows(cols []int, cursors []*pqCursor, first, n int) (*parse
 			bad = e
 		}
 	}
+	// The features are laid out in rows on all cores, a stretch of rows each, noting the rows
+	// with a missing cell; the rest of each row is filled in order below.
+	missing := b.missing[:n]
+	const stretch = 4096
+	onAllCores((n+stretch-1)/stretch, func(p int) {
+		for i := p * stretch; i < min(n, (p+1)*stretch); i++ {
+			row := c.vals[i*w : i*w+s.nf]
+			m := false
+			for j, f := range feats {
+				v := f[i]
+				row[j] = v
+				m = m || v != v
+			}
+			missing[i] = m
+		}
+	})
 	for i := 0; i < n; i++ {
 		if bad != nil && i == bad.row {
 			return nil, bad.err
 		}
 		row := c.vals[i*w : (i+1)*w]
-		for j, f := range feats {
-			row[j] = f[i]
-		}
 		row[s.nf] = math.Float64frombits(uint64(ords[i]))
 		if ids[i] == "" {
 			return nil, &InputError{File: s.file, Line: line(i), Column: ro.id + 1, Field: s.header[ro.id], Msg: "participant id is empty; fill it in or remove the row", Err: ErrMissingID}
@@ -437,15 +451,11 @@ func (s *pqSpec) readRows(cols []int, cursors []*pqCursor, first, n int) (*parse
 			kinds[i] = k
 		}
 		c.vals[i*w+s.nf+1] = packSource(s.fileIdx, line(i))
-		missing := false
-		for _, v := range c.vals[i*w : i*w+s.nf] {
-			missing = missing || math.IsNaN(v)
-		}
 		wave := ""
 		if waves != nil {
 			wave = waves[i]
 		}
-		c.addWindow([]byte(ids[i]), []byte(wave), kinds[i], missing)
+		c.addWindow([]byte(ids[i]), []byte(wave), kinds[i], missing[i])
 	}
 	if bad != nil {
 		return nil, bad.err
