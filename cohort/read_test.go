@@ -630,8 +630,9 @@ func TestReadParquet(t *testing.T) {
 		b    []byte
 		want string
 	}{
-		{"no end mark", []byte("PAR1 not really"), "not a Parquet file (no PAR1 mark at its start and end)"},
-		{"too short", []byte("PAR1PAR1"), "too short for a Parquet file (8 bytes)"},
+		{"no end mark", []byte("PAR1 not really"), "not a Parquet file (no PAR1 mark at its start and end); write it again, or export CSV"},
+		{"too short", []byte("PAR1PAR1"), "too short for a Parquet file (8 bytes); write it again, or export CSV"},
+		{"encrypted footer (its end mark is PARE)", append(append([]byte(nil), good[:len(good)-4]...), "PARE"...), "an encrypted footer, which this tool does not read; write it without encryption, or export CSV"},
 		{"footer longer than the file", long, fmt.Sprintf("its footer claims 4294967167 bytes of a %d-byte file; write it again, or export CSV", len(long))},
 		{"footer broken", append(append([]byte(nil), good[:len(good)-40]...), good[len(good)-8:]...), "not a readable Parquet file"},
 	} {

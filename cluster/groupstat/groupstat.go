@@ -4,7 +4,8 @@
 //
 // # Conventions
 //
-// Inputs are never modified. NaN values are refused; callers drop them first and say so.
+// The tests never modify their inputs, and refuse NaN values; callers drop them first and say
+// so. Median and SelectKth, the selection helpers, reorder the slice they are given.
 //
 // # References
 //
