@@ -3,6 +3,7 @@ package cohort
 import (
 	"bufio"
 	"bytes"
+	"cmp"
 	"compress/gzip"
 	"context"
 	"crypto/sha256"
@@ -17,7 +18,6 @@ import (
 	"path"
 	"path/filepath"
 	"slices"
-	"sort"
 	"strconv"
 	"strings"
 	"sync/atomic"
@@ -77,6 +77,7 @@ type Unit struct {
 	ID, Wave string
 	at       int64    // first window in the table's store
 	rows     int      // usable windows
+	runs     []run    // the stretches of the store holding them, in order, when more than one
 	Labels   []string // known activity label per window, when a label column is given
 	Files    []string // the files its windows came from
 	Dropped  int      // windows dropped for missing cells
@@ -233,6 +234,10 @@ type run struct {
 	at   int64 // first window
 	rows int
 }
+
+// minStretch is the shortest average stretch, in windows, that a unit's windows are read from
+// in place (see finish).
+const minStretch = 64
 
 type reader struct {
 	progress  func()       // reports the bytes read of the current file
@@ -902,7 +907,11 @@ func (r *reader) finish() (*Table, error) {
 			merged++
 		}
 		n := ru.n
-		if len(ru.runs) == 1 && !ru.unsorted && ru.missing == 0 {
+		// A unit whose windows came in order with no missing cell stays where it landed, in one
+		// stretch of the store or in several (a table sorted by time across participants) as
+		// long as they average minStretch windows; shorter ones are copied into one stretch,
+		// since reading them one by one in every pass would cost more than copying them once.
+		if !ru.unsorted && ru.missing == 0 && (len(ru.runs) == 1 || len(ru.runs)*minStretch <= n) {
 			if n < r.opts.MinWindows {
 				q.Excluded = append(q.Excluded, Exclusion{ID: u.ID, Wave: u.Wave, Windows: n,
 					Reason: fmt.Sprintf("%d usable windows, fewer than the minimum %d (--min-windows)", n, r.opts.MinWindows)})
@@ -910,6 +919,9 @@ func (r *reader) finish() (*Table, error) {
 				continue
 			}
 			u.at, u.rows, u.Labels = ru.runs[0].at, n, ru.labels
+			if len(ru.runs) > 1 {
+				u.runs = ru.runs
+			}
 			constant.addUnit(ru.first, ru.varies)
 			t.Units = append(t.Units, u)
 			continue
@@ -929,7 +941,7 @@ func (r *reader) finish() (*Table, error) {
 			idx[i] = i
 		}
 		if ru.unsorted {
-			sort.SliceStable(idx, func(a, b int) bool { return ord(idx[a]) < ord(idx[b]) })
+			slices.SortStableFunc(idx, func(a, b int) int { return cmp.Compare(ord(a), ord(b)) })
 			for k := 1; k < n; k++ {
 				a, b := idx[k-1], idx[k]
 				if ord(a) != ord(b) {
@@ -1031,15 +1043,35 @@ func (r *reader) finish() (*Table, error) {
 // Block returns unit u's usable windows × features, row-major, in window order; dst is reused
 // when large enough. The values come from the table's store, in memory or in its file.
 func (t *Table) Block(u int, dst []float64) ([]float64, error) {
-	un := t.Units[u]
-	return t.store.read(un.at, un.rows, t.cols, dst)
+	return t.readUnit(t.Units[u], t.cols, dst)
+}
+
+// readUnit reads the columns cols of a unit's windows from the store, stretch by stretch.
+func (t *Table) readUnit(un *Unit, cols []int, dst []float64) ([]float64, error) {
+	if un.runs == nil {
+		return t.store.read(un.at, un.rows, cols, dst)
+	}
+	d := len(cols)
+	if cap(dst) < un.rows*d {
+		dst = make([]float64, un.rows*d)
+	}
+	dst = dst[:un.rows*d]
+	off := 0
+	for _, rn := range un.runs {
+		// A part exactly as long as the stretch is filled in place.
+		part := dst[off : off+rn.rows*d : off+rn.rows*d]
+		if _, err := t.store.read(rn.at, rn.rows, cols, part); err != nil {
+			return nil, err
+		}
+		off += rn.rows * d
+	}
+	return dst, nil
 }
 
 // Order returns unit u's window order keys (integers, or Unix nanoseconds for times), in
 // window order.
 func (t *Table) Order(u int) ([]int64, error) {
-	un := t.Units[u]
-	bits, err := t.store.read(un.at, un.rows, []int{t.store.width - 2}, nil)
+	bits, err := t.readUnit(t.Units[u], []int{t.store.width - 2}, nil)
 	if err != nil {
 		return nil, err
 	}

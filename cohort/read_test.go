@@ -843,4 +843,47 @@ func TestInterleavedReadsLikeGrouped(t *testing.T) {
 		a.Close()
 		b.Close()
 	}
+	// Interleaved in blocks of 80 windows, each participant's windows lie in stretches long
+	// enough (minStretch) to be read where they landed, without a second copy: the table must
+	// still read like the grouped one, in memory and spilled, whatever the chunk size.
+	grouped.Reset()
+	interleaved.Reset()
+	grouped.WriteString("participant,window,f1,f2\n")
+	interleaved.WriteString("participant,window,f1,f2\n")
+	for p := 0; p < 5; p++ {
+		for w := 0; w < 400; w++ {
+			grouped.WriteString(cell(p, w))
+		}
+	}
+	for start := 0; start < 400; start += 80 {
+		for p := 0; p < 5; p++ {
+			for w := start; w < start+80; w++ {
+				interleaved.WriteString(cell(p, w))
+			}
+		}
+	}
+	gp = write(t, dir, "grouped-blocks.csv", []byte(grouped.String()))
+	ip = write(t, dir, "blocks.csv", []byte(interleaved.String()))
+	for _, setting := range []struct {
+		chunk int
+		spill int64
+	}{{4 << 20, 8 << 20}, {4096, 8 << 20}, {4096, 500}} {
+		chunkSize, spillAfter = setting.chunk, setting.spill
+		a, err := Read(context.Background(), []string{gp}, ReadOptions{})
+		if err != nil {
+			t.Fatal(err)
+		}
+		b, err := Read(context.Background(), []string{ip}, ReadOptions{})
+		if err != nil {
+			t.Fatal(err)
+		}
+		for _, u := range b.Units {
+			if len(u.runs) != 5 {
+				t.Fatalf("chunk %d, spill %d: participant %s in %d stretches, want 5 read in place", setting.chunk, setting.spill, u.ID, len(u.runs))
+			}
+		}
+		sameTable(t, a, b)
+		a.Close()
+		b.Close()
+	}
 }
