@@ -126,6 +126,7 @@ type Fit struct {
 	Spread     []float64
 	PCA        *cluster.PCA // nil when off
 	ICC        []float64    // ICC(1) of each raw feature
+	ICCAfter   []float64    // ICC(1) of each feature after the within-participant step; nil in a fit read from a model
 	Warnings   []string
 	// Units holds the baseline of each participant the fit was made on, in blocks order, for
 	// ApplyUnit. It is not part of the frozen model: a new participant's is found from its windows.
@@ -379,8 +380,10 @@ func FitBlocks(ctx context.Context, features []string, blocks Blocks, opts Optio
 	var moments moments
 	var sampleParts [][]float64
 	f.Units = make([]Baseline, blocks.Len())
+	accAfter := newICCAcc(d)
 	type part2 struct {
 		base         Baseline
+		icc          iccUnit
 		mom          unitMoments
 		sample, kept []float64
 		keptAt       []int
@@ -395,7 +398,8 @@ func FitBlocks(ctx context.Context, features []string, blocks Blocks, opts Optio
 		defer ys.Put(yp)
 		y := f.withinInto(*yp, x, p.base)
 		*yp = y
-		p.mom = momentsOf(y, d)
+		p.icc = unitICC(y, d)
+		p.mom = momentsFrom(p.icc, d)
 		p.sample = appendSampled(nil, y, d, u, opts.Seed, opts.SampleRate)
 		if opts.Keep != nil {
 			for w := 0; w*d < len(y); w++ {
@@ -408,6 +412,7 @@ func FitBlocks(ctx context.Context, features []string, blocks Blocks, opts Optio
 		return p, nil
 	}, func(u int, p part2) error {
 		f.Units[u] = p.base
+		accAfter.merge(p.icc)
 		moments.merge(p.mom)
 		sampleParts = append(sampleParts, p.sample)
 		for i, w := range p.keptAt {
@@ -423,6 +428,7 @@ func FitBlocks(ctx context.Context, features []string, blocks Blocks, opts Optio
 	}
 	sample := slices.Concat(sampleParts...)
 	sampleParts = nil
+	f.ICCAfter = accAfter.icc()
 	switch opts.Scale {
 	case ScaleZ:
 		f.Center, f.Spread = moments.meanSD()
@@ -502,8 +508,10 @@ type unitMoments struct {
 
 // momentsOf is a participant's count, column means and sums of squared deviations: unitICC's,
 // whose row-by-row loops keep one running sum per column (each summed in window order).
-func momentsOf(x []float64, d int) unitMoments {
-	u := unitICC(x, d)
+func momentsOf(x []float64, d int) unitMoments { return momentsFrom(unitICC(x, d), d) }
+
+// momentsFrom is momentsOf from a participant's part of ICC(1), which holds the same sums.
+func momentsFrom(u iccUnit, d int) unitMoments {
 	if u.n == 0 {
 		return unitMoments{mu: make([]float64, d), ss: make([]float64, d)}
 	}

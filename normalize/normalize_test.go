@@ -40,6 +40,11 @@ func TestRestBaselineRemovesOffsets(t *testing.T) {
 			t.Errorf("window %d: f0 %v vs %v after the baseline", w, out[0][2*w], out[1][2*w])
 		}
 	}
+	// The offset is gone: after the step, f0's ICC(1) is at or below 0 (the two participants'
+	// windows coincide), and untouched f1 keeps the ICC it had.
+	if raw := ICC(offsetUnits(), 2); fit.ICCAfter[0] > 0 || fit.ICCAfter[1] != raw[1] {
+		t.Errorf("ICC(1) after the step %v, before %v; want f0 at or below 0 and f1 unchanged", fit.ICCAfter, raw)
+	}
 	// The frozen fit applied to a new participant gives the same as the fitted one.
 	again := fit.Apply(offsetUnits()[1])
 	for i := range again {

@@ -31,7 +31,7 @@ func fixture(t testing.TB, n int, id func(i int) string) *Result {
 		Features: features, OrderKind: "integer",
 		Files: []cohort.FileInfo{{Path: "x.csv", SHA256: strings.Repeat("ab", 32), Rows: n * 10}},
 		Norm: &normalize.Fit{Features: features, Within: normalize.WithinRest, Touched: []bool{true, false, false}, TouchedBy: "offset detection (ICC ≥ 0.30)",
-			Center: []float64{0, 0, 0}, Spread: []float64{1, 1, 1}, ICC: []float64{0.8, 0.1, 0.05}, QuietMid: []float64{0, 0, 0}, QuietScale: []float64{1, 1, 1}},
+			Center: []float64{0, 0, 0}, Spread: []float64{1, 1, 1}, ICC: []float64{0.8, 0.1, 0.05}, ICCAfter: []float64{0.06, 0.1, 0.05}, QuietMid: []float64{0, 0, 0}, QuietScale: []float64{1, 1, 1}},
 		States:     &profile.States{K: k, Centroids: mat.NewDense(k, 3, []float64{0, 0, 0, 1, 0, 0, 0, 1, 0, 0, 0, 1}), Rule: "fixed", Sampled: 100, Candidates: []profile.Candidate{{K: 3, Silhouette: 0.6, CalinskiHarabasz: 90, DaviesBouldin: 0.8}, {K: 4, Silhouette: 0.5, CalinskiHarabasz: 100, DaviesBouldin: 0.7}}},
 		StateNames: []string{"S1", "S2", "S3", "S4"}, StateLines: []string{"a", "b", "c", "d"},
 		GroupNames: []string{"G1", "G2", "G3"}, GroupLines: []string{"x", "y", "z"},
@@ -129,6 +129,17 @@ func TestWorkbookOpensWithSheetsFormatsAndCharts(t *testing.T) {
 		if !strings.Contains(flatten(defs), term) {
 			t.Errorf("definitions lack %q", term)
 		}
+	}
+	// Data quality: each feature's ICC(1) before and after the within step, side by side.
+	quality, _ := f.GetRows(SheetQuality)
+	header := -1
+	for i, row := range quality {
+		if len(row) > 3 && row[0] == "feature" && row[1] == "ICC(1)" && row[3] == "ICC(1) after it" {
+			header = i
+		}
+	}
+	if header < 0 || len(quality) <= header+1 || len(quality[header+1]) < 4 || quality[header+1][3] == "" {
+		t.Errorf("data quality sheet lacks ICC(1) after the within step: %q", quality)
 	}
 	// Chart parts and the dendrogram picture are in the package.
 	zr, err := zip.OpenReader(path)

@@ -467,7 +467,7 @@ func mark(b bool) string {
 }
 
 func qualitySheet(f *excelize.File, st *styles, r *Result) error {
-	t, err := newTable(f, st, SheetQuality, []float64{24, 10, 12, 80})
+	t, err := newTable(f, st, SheetQuality, []float64{24, 10, 12, 12, 80})
 	if err != nil {
 		return err
 	}
@@ -488,30 +488,30 @@ func qualitySheet(f *excelize.File, st *styles, r *Result) error {
 		}
 	}
 	for _, n := range q.Notes {
-		if err := t.put(v{"policy applied", st.text}, v{"", st.text}, v{"", st.text}, v{n, st.wrap}); err != nil {
+		if err := t.put(v{"policy applied", st.text}, v{"", st.text}, v{"", st.text}, v{"", st.text}, v{n, st.wrap}); err != nil {
 			return err
 		}
 	}
 	t.blank()
-	if err := t.put(v{"participant", st.header}, v{"wave", st.header}, v{"windows", st.header}, v{"why excluded", st.header}); err != nil {
+	if err := t.put(v{"participant", st.header}, v{"wave", st.header}, v{"windows", st.header}, v{"", st.header}, v{"why excluded", st.header}); err != nil {
 		return err
 	}
 	for _, e := range q.Excluded {
-		if err := t.put(v{e.ID, st.text}, v{e.Wave, st.text}, v{e.Windows, st.integer}, v{e.Reason, st.wrap}); err != nil {
+		if err := t.put(v{e.ID, st.text}, v{e.Wave, st.text}, v{e.Windows, st.integer}, v{"", st.text}, v{e.Reason, st.wrap}); err != nil {
 			return err
 		}
 	}
 	t.blank()
-	if err := t.put(v{"column", st.header}, v{"", st.header}, v{"", st.header}, v{"why not used", st.header}); err != nil {
+	if err := t.put(v{"column", st.header}, v{"", st.header}, v{"", st.header}, v{"", st.header}, v{"why not used", st.header}); err != nil {
 		return err
 	}
 	for _, n := range append(append([]cohort.Note(nil), q.DroppedFeatures...), q.IgnoredColumns...) {
-		if err := t.put(v{n.Name, st.text}, v{"", st.text}, v{"", st.text}, v{n.Reason, st.wrap}); err != nil {
+		if err := t.put(v{n.Name, st.text}, v{"", st.text}, v{"", st.text}, v{"", st.text}, v{n.Reason, st.wrap}); err != nil {
 			return err
 		}
 	}
 	t.blank()
-	if err := t.put(v{"feature", st.header}, v{"ICC(1)", st.header}, v{"within step", st.header}, v{"meaning", st.header}); err != nil {
+	if err := t.put(v{"feature", st.header}, v{"ICC(1)", st.header}, v{"within step", st.header}, v{"ICC(1) after it", st.header}, v{"meaning", st.header}); err != nil {
 		return err
 	}
 	for j, name := range r.Norm.Features {
@@ -523,7 +523,14 @@ func qualitySheet(f *excelize.File, st *styles, r *Result) error {
 		if r.Norm.ICC[j] >= 0.3 {
 			meaning = "a large share of its variance lies between participants: it may carry device or person offsets"
 		}
-		if err := t.put(v{name, st.text}, v{r.Norm.ICC[j], st.dec3}, v{touched, st.text}, v{meaning, st.wrap}); err != nil {
+		// After the step: close to the untouched features' values when the step removed the
+		// offsets; still high when it could not (an offset that changes the feature
+		// non-linearly). Empty for a fit read from a model file, which does not keep it.
+		after := math.NaN()
+		if j < len(r.Norm.ICCAfter) {
+			after = r.Norm.ICCAfter[j]
+		}
+		if err := t.put(v{name, st.text}, v{r.Norm.ICC[j], st.dec3}, v{touched, st.text}, v{after, st.dec3}, v{meaning, st.wrap}); err != nil {
 			return err
 		}
 	}
