@@ -1,5 +1,5 @@
 #!/usr/bin/env bash
-# Time and memory of the main job at two sizes, on cohorts written by 'cohortmix synth':
+# Time and memory of the main job at two sizes (three with BENCH_WIDE=1), on cohorts written by 'cohortmix synth':
 # 100 and 1,000 participants × 10,080 one-minute windows (a week) × 24 features, about 0.18 and
 # 1.9 GB of CSV, and the same cohorts as Parquet. For each: the read alone ('cohortmix check')
 # of the CSV and of the Parquet file, and the whole 'cohortmix group' on the CSV, with wall time
@@ -12,12 +12,18 @@ set -euo pipefail
 dir=${BENCH_DIR:-$(mktemp -d)}
 mkdir -p "$dir"
 go build -o "$dir/cohortmix" ./cmd/cohortmix
-for n in 100 1000; do
+# BENCH_WIDE=1 adds a third cohort: 100,000 participants × 100 windows (CSV only, about 1.8 GB).
+sizes="100 1000"
+[ "${BENCH_WIDE:-0}" = 1 ] && sizes="$sizes 100000"
+for n in $sizes; do
+  windows=10080 runs="check.csv check.parquet group.csv"
+  if [ "$n" = 100000 ]; then windows=100 runs="check.csv group.csv"; fi
   for ext in csv parquet; do
     f="$dir/cohort-$n.$ext"
-    [ -s "$f" ] || "$dir/cohortmix" synth --out "$f" --participants "$n" --windows 10080 --features 24 --seed 5 --force >/dev/null
+    case "$runs" in *".$ext"*) ;; *) continue ;; esac
+    [ -s "$f" ] || "$dir/cohortmix" synth --out "$f" --participants "$n" --windows "$windows" --features 24 --seed 5 --force >/dev/null
   done
-  for run in check.csv check.parquet group.csv; do
+  for run in $runs; do
     step=${run%%.*} ext=${run#*.}
     f="$dir/cohort-$n.$ext"
     cat "$f" >/dev/null
