@@ -36,16 +36,14 @@ func separateOne(v Variable, labels []int, k int) (*Separation, *Note) {
 		return nil, &Note{v.Name, "not tested: " + err.Error()}
 	}
 	s := Separation{Name: v.Name, Kind: v.Kind, H: kw.H, P: kw.P, Epsilon2: kw.Epsilon2,
-		Median: make([]float64, k), Q1: make([]float64, k), Q3: make([]float64, k), Delta: make([]float64, k)}
+		Median: make([]float64, k), Q1: make([]float64, k), Q3: make([]float64, k)}
 	for g := 0; g < k; g++ {
 		s.Q1[g], s.Median[g], s.Q3[g] = quartiles(groups[g])
-		var rest []float64
-		for h := 0; h < k; h++ {
-			if h != g {
-				rest = append(rest, groups[h]...)
-			}
-		}
-		if s.Delta[g], err = groupstat.CliffsDelta(groups[g], rest); err != nil {
+	}
+	// Each group against the rest, from one sort of the variable.
+	if s.Delta, err = groupstat.CliffsDeltaVsRest(groups); err != nil {
+		s.Delta = make([]float64, k)
+		for g := range s.Delta {
 			s.Delta[g] = math.NaN()
 		}
 	}

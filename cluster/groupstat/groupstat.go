@@ -164,6 +164,63 @@ func CliffsDelta(x, y []float64) (float64, error) {
 	return float64(more-less) / float64(len(x)*len(y)), nil
 }
 
+// CliffsDeltaVsRest is CliffsDelta of each group against all the other groups together, from one
+// sort of all the values: in each run of tied values, a group's members are counted against
+// the other groups' values below and above the run. The counts are the same integers as
+// CliffsDelta's, so each value is exactly CliffsDelta(groups[g], the rest). A group that is
+// empty, or that holds every value, gets NaN.
+func CliffsDeltaVsRest(groups [][]float64) ([]float64, error) {
+	type obs struct {
+		v float64
+		g int
+	}
+	var all []obs
+	for g, vals := range groups {
+		for i, v := range vals {
+			if math.IsNaN(v) {
+				return nil, fmt.Errorf("groupstat: CliffsDeltaVsRest: group %d, value %d is NaN: %w", g, i, ErrNaN)
+			}
+			all = append(all, obs{v, g})
+		}
+	}
+	slices.SortFunc(all, func(a, b obs) int { return cmp.Compare(a.v, b.v) })
+	k, n := len(groups), len(all)
+	below := make([]int, k) // each group's values below the current run
+	run := make([]int, k)   // each group's values in it
+	more, less := make([]int64, k), make([]int64, k)
+	for i := 0; i < n; {
+		j := i
+		for j < n && all[j].v == all[i].v {
+			run[all[j].g]++
+			j++
+		}
+		for g := range groups {
+			if run[g] == 0 {
+				continue
+			}
+			restBelow := i - below[g]
+			restAbove := (n - j) - (len(groups[g]) - below[g] - run[g])
+			more[g] += int64(run[g]) * int64(restBelow)
+			less[g] += int64(run[g]) * int64(restAbove)
+		}
+		for g := range groups {
+			below[g] += run[g]
+			run[g] = 0
+		}
+		i = j
+	}
+	out := make([]float64, k)
+	for g, vals := range groups {
+		m := len(vals)
+		if m == 0 || m == n {
+			out[g] = math.NaN()
+			continue
+		}
+		out[g] = float64(more[g]-less[g]) / float64(m*(n-m))
+	}
+	return out, nil
+}
+
 // Median returns the median of xs (NaN when empty): the middle value, or the mean of the two
 // middle ones. It selects rather than sorts (SelectKth), so it takes linear expected time, and
 // it reorders xs.

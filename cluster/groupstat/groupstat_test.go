@@ -230,3 +230,41 @@ func TestMedianSelectsLikeASort(t *testing.T) {
 		}
 	}
 }
+
+// CliffsDeltaVsRest must give exactly what CliffsDelta gives for each group against the others
+// put together (the same integer counts), on random groups with ties, and NaN for an empty group.
+func TestCliffsDeltaVsRestMatchesPairwise(t *testing.T) {
+	rng := rand.New(rand.NewPCG(13, 14))
+	for trial := 0; trial < 40; trial++ {
+		k := 2 + trial%4
+		groups := make([][]float64, k)
+		for g := range groups {
+			n := rng.IntN(60)
+			if trial%7 == 0 && g == 1 {
+				n = 0
+			}
+			for i := 0; i < n; i++ {
+				groups[g] = append(groups[g], float64(rng.IntN(3+trial)+g))
+			}
+		}
+		got, err := CliffsDeltaVsRest(groups)
+		if err != nil {
+			t.Fatal(err)
+		}
+		for g := range groups {
+			var rest []float64
+			for h := range groups {
+				if h != g {
+					rest = append(rest, groups[h]...)
+				}
+			}
+			want, err := CliffsDelta(groups[g], rest)
+			if err != nil {
+				want = math.NaN()
+			}
+			if math.Float64bits(got[g]) != math.Float64bits(want) && !(math.IsNaN(got[g]) && math.IsNaN(want)) {
+				t.Fatalf("trial %d, group %d of %d: %v, CliffsDelta against the rest %v", trial, g, k, got[g], want)
+			}
+		}
+	}
+}
