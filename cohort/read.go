@@ -926,14 +926,10 @@ func (r *reader) finish() (*Table, error) {
 			t.Units = append(t.Units, u)
 			continue
 		}
-		x = x[:0]
-		for _, rn := range ru.runs {
-			part, err := t.store.read(rn.at, rn.rows, nil, x[len(x):cap(x)])
-			if err != nil {
-				t.Close()
-				return nil, err
-			}
-			x = append(x, part...) // no copy when part already lies in x's spare room
+		var err error
+		if x, err = t.store.readRuns(ru.runs, nil, x); err != nil {
+			t.Close()
+			return nil, err
 		}
 		ord := func(i int) int64 { return int64(math.Float64bits(x[i*w+d])) }
 		idx := make([]int, n)
@@ -1051,21 +1047,7 @@ func (t *Table) readUnit(un *Unit, cols []int, dst []float64) ([]float64, error)
 	if un.runs == nil {
 		return t.store.read(un.at, un.rows, cols, dst)
 	}
-	d := len(cols)
-	if cap(dst) < un.rows*d {
-		dst = make([]float64, un.rows*d)
-	}
-	dst = dst[:un.rows*d]
-	off := 0
-	for _, rn := range un.runs {
-		// A part exactly as long as the stretch is filled in place.
-		part := dst[off : off+rn.rows*d : off+rn.rows*d]
-		if _, err := t.store.read(rn.at, rn.rows, cols, part); err != nil {
-			return nil, err
-		}
-		off += rn.rows * d
-	}
-	return dst, nil
+	return t.store.readRuns(un.runs, cols, dst)
 }
 
 // Order returns unit u's window order keys (integers, or Unix nanoseconds for times), in

@@ -189,6 +189,32 @@ func (s *store) read(at int64, rows int, cols []int, dst []float64) ([]float64, 
 	return dst, nil
 }
 
+// readRuns is read over several stretches of windows, one after the other in dst (reused when
+// large enough); cols as for read.
+func (s *store) readRuns(runs []run, cols []int, dst []float64) ([]float64, error) {
+	d, rows := s.width, 0
+	if cols != nil {
+		d = len(cols)
+	}
+	for _, rn := range runs {
+		rows += rn.rows
+	}
+	if cap(dst) < rows*d {
+		dst = make([]float64, rows*d)
+	}
+	dst = dst[:rows*d]
+	off := 0
+	for _, rn := range runs {
+		// A part exactly as long as the stretch is filled in place.
+		part := dst[off : off+rn.rows*d : off+rn.rows*d]
+		if _, err := s.read(rn.at, rn.rows, cols, part); err != nil {
+			return nil, err
+		}
+		off += rn.rows * d
+	}
+	return dst, nil
+}
+
 // gather copies the columns cols of each row of src (width w) into dst; all of them when cols
 // is nil.
 func gather(dst, src []float64, w int, cols []int) {

@@ -506,11 +506,9 @@ type unitMoments struct {
 	mu, ss []float64
 }
 
-// momentsOf is a participant's count, column means and sums of squared deviations: unitICC's,
-// whose row-by-row loops keep one running sum per column (each summed in window order).
-func momentsOf(x []float64, d int) unitMoments { return momentsFrom(unitICC(x, d), d) }
-
-// momentsFrom is momentsOf from a participant's part of ICC(1), which holds the same sums.
+// momentsFrom is a participant's count, column means and sums of squared deviations, taken from
+// its part of ICC(1), which holds the same sums (row by row, one running sum per column, each
+// summed in window order).
 func momentsFrom(u iccUnit, d int) unitMoments {
 	if u.n == 0 {
 		return unitMoments{mu: make([]float64, d), ss: make([]float64, d)}
@@ -577,7 +575,7 @@ const applyRows = 256
 
 // ApplyBaselineInto is ApplyBaseline writing into dst (grown when too short). It does the
 // within-participant and cohort steps in one go, a few hundred windows at a time, with the same
-// arithmetic as within and Cohort: an untouched feature has centre 0 and scale 1, which leave
+// arithmetic as withinInto and Cohort: an untouched feature has centre 0 and scale 1, which leave
 // it exactly as it was, so the result is bit for bit theirs.
 func (f *Fit) ApplyBaselineInto(dst, x []float64, b Baseline) []float64 {
 	d := len(f.Features)
@@ -674,10 +672,8 @@ func (f *Fit) Baseline(x []float64) Baseline {
 	return b
 }
 
-// within applies the within-participant step with baseline b, returning a copy.
-func (f *Fit) within(x []float64, b Baseline) []float64 { return f.withinInto(nil, x, b) }
-
-// withinInto is within writing into dst, grown when too short.
+// withinInto applies the within-participant step with baseline b, writing into dst (grown when
+// too short; it may be nil) and returning it.
 func (f *Fit) withinInto(dst, x []float64, b Baseline) []float64 {
 	d := len(f.Features)
 	y := append(dst[:0], x...)

@@ -171,7 +171,7 @@ func TestOneGoApplyMatchesTwoSteps(t *testing.T) {
 			t.Fatalf("%s: %v", c.name, err)
 		}
 		for u, x := range units {
-			want := fit.Cohort(fit.within(x, fit.Units[u]))
+			want := fit.Cohort(fit.withinInto(nil, x, fit.Units[u]))
 			buf = fit.ApplyUnitInto(buf, u, x)
 			if len(buf) != len(want) {
 				t.Fatalf("%s, participant %d: %d values, two steps give %d", c.name, u, len(buf), len(want))
