@@ -81,11 +81,20 @@ func fitAll(ctx context.Context, o analysisOptions) (f *fitted, err error) {
 	if err != nil {
 		return nil, err
 	}
-	defer func() {
-		if err != nil {
-			t.Close()
+	if f, err = fitTable(ctx, t, o); err != nil {
+		t.Close()
+		return nil, err
+	}
+	return f, nil
+}
+
+// fitTable fits normalization, states and grouping to a table that has been read.
+func fitTable(ctx context.Context, t *cohort.Table, o analysisOptions) (*fitted, error) {
+	step := func(s string) {
+		if o.Progress != nil {
+			o.Progress(s)
 		}
-	}()
+	}
 	if len(t.Units) < 3 {
 		return nil, fmt.Errorf("%s: %d participants are left to group (%d excluded, see their reasons with a lower --min-windows): %w; grouping needs at least 3",
 			o.Inputs[0], len(t.Units), len(t.Quality.Excluded), cohort.ErrTooFew)
@@ -126,7 +135,8 @@ func fitAll(ctx context.Context, o analysisOptions) (f *fitted, err error) {
 		return nil, err
 	}
 	step("assigning windows")
-	if f, err = assignWindows(ctx, t, fit, states, o.Workers, o.Passes); err != nil {
+	f, err := assignWindows(ctx, t, fit, states, o.Workers, o.Passes)
+	if err != nil {
 		return nil, err
 	}
 	sigs := f.sigs

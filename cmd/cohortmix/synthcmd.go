@@ -29,10 +29,22 @@ func newSynthCmd(env *Env, runF func(context.Context, *synthOptions) error) *cob
 		Long: `Writes a synthetic long table (one row per window) with planted groups, device offsets and
 person-to-person spread. It is invented data, for trying the tool and for benchmarks.
 
+With --scenario N it writes member N of the scenario family instead of the demo's scenario:
+its own movement states (random postures, intensities and cadences), its own planted groups of
+unequal sizes, devices turned on the wrist and amplitude gains, people who differ in posture and
+intensity, short and long bouts and some short recordings; --groups does not apply there.
+
 Exit codes: 0 success, 1 error, 2 wrong command line, 130 interrupted.`,
-		Example: `  $ cohortmix synth --out big.csv.gz --participants 1000 --windows 10080 --features 24`,
+		Example: `  $ cohortmix synth --out big.csv.gz --participants 1000 --windows 10080 --features 24
+  $ cohortmix synth --out s7.csv --scenario 7 --participants 200 --windows 2016 --truth s7-truth.csv`,
 		Args:    cobra.NoArgs,
 		RunE: func(cmd *cobra.Command, args []string) error {
+			if opts.Synth.Scenario != 0 && cmd.Flags().Changed("groups") {
+				return flagErrorf("--groups with --scenario %d: a scenario plants its own groups; leave --groups out", opts.Synth.Scenario)
+			}
+			if opts.Synth.Scenario != 0 && !cmd.Flags().Changed("features") {
+				opts.Synth.Features = 24 // the family's features
+			}
 			if runF != nil {
 				return runF(cmd.Context(), opts)
 			}
@@ -45,9 +57,10 @@ Exit codes: 0 success, 1 error, 2 wrong command line, 130 interrupted.`,
 	f.StringVar(&opts.Truth, "truth", "", "also write each participant's planted group here")
 	f.IntVar(&opts.Synth.Participants, "participants", 150, "participants")
 	f.IntVar(&opts.Synth.Windows, "windows", 1000, "windows per participant")
-	f.IntVar(&opts.Synth.Features, "features", 12, "features per window: 12 or 24")
+	f.IntVar(&opts.Synth.Features, "features", 12, "features per window: 12 or 24 (24 with --scenario)")
 	f.IntVar(&opts.Synth.Groups, "groups", 3, "planted groups (2–4)")
 	f.Uint64Var(&opts.Synth.Seed, "seed", 1, "seed")
+	f.Uint64Var(&opts.Synth.Scenario, "scenario", 0, "write member N of the scenario family (0: the demo's scenario)")
 	f.BoolVar(&opts.Synth.Times, "times", false, "ISO-8601 times in the window column")
 	f.BoolVar(&opts.Synth.Labels, "labels", false, "add an activity column with each window's true state")
 	f.IntVar(&opts.Synth.FirstID, "first-id", 0, "number participants from first-id+1, e.g. for a second enrolment wave")

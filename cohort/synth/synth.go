@@ -39,6 +39,11 @@ type Options struct {
 	GroupSet     []int   // which planted group profiles (0…3) appear; empty means the first Groups
 	IDPrefix     string  // participant ids are IDPrefix + number; "" means "P"
 	FirstID      int     // number of the first participant
+	// Scenario, when not 0, draws the cohort from that member of the scenario family
+	// (DrawScenario) instead of the demo's scenario: its states, groups and nuisance are the
+	// member's own, and Groups, Offset, Spread and GroupSet are not used. Features then
+	// defaults to 24.
+	Scenario uint64
 }
 
 func (o Options) withDefaults() Options {
@@ -50,6 +55,9 @@ func (o Options) withDefaults() Options {
 	}
 	if o.Features == 0 {
 		o.Features = 12
+		if o.Scenario != 0 {
+			o.Features = 24
+		}
 	}
 	if o.Groups == 0 {
 		o.Groups = 3
@@ -114,8 +122,22 @@ func FeatureNames(features int) []string {
 
 // Truth is a participant's planted group.
 type Truth struct {
-	ID    string
-	Group int
+	ID     string
+	Group  int
+	Shares []float64 // realized share of its windows in each planted state
+}
+
+// stateNames are the labels of the planted states of a cohort.
+func (o Options) stateNames() []string {
+	if o.Scenario == 0 {
+		return StateNames
+	}
+	sc := DrawScenario(o.Scenario)
+	names := make([]string, len(sc.States))
+	for i, s := range sc.States {
+		names[i] = s.Name
+	}
+	return names
 }
 
 // Write writes a cohort as CSV to w (gzip when gz) and returns the planted groups.
@@ -146,6 +168,7 @@ func Write(w io.Writer, opts Options, gz bool) ([]Truth, error) {
 	bw.WriteString("\n")
 	start := time.Date(2026, 3, 2, 0, 0, 0, 0, time.UTC)
 	buf := make([]byte, 0, 512)
+	stateNames := opts.stateNames()
 	truth, err := generate(opts, func(id string, wi int, feat []float64, state int) error {
 		buf = buf[:0]
 		buf = append(buf, id...)
@@ -164,7 +187,7 @@ func Write(w io.Writer, opts Options, gz bool) ([]Truth, error) {
 		}
 		if opts.Labels {
 			buf = append(buf, ',')
-			buf = append(buf, StateNames[state]...)
+			buf = append(buf, stateNames[state]...)
 		}
 		buf = append(buf, '\n')
 		_, err := bw.Write(buf)
@@ -208,6 +231,7 @@ func WriteParquet(w io.Writer, opts Options) ([]Truth, error) {
 		col[path[0]] = i
 	}
 	pw := parquet.NewWriter(w, schema)
+	stateNames := opts.stateNames()
 	batch := make([]parquet.Row, 0, 4096)
 	flush := func() error {
 		if _, err := pw.WriteRows(batch); err != nil {
@@ -224,7 +248,7 @@ func WriteParquet(w io.Writer, opts Options) ([]Truth, error) {
 			row[col["wave"]] = parquet.ValueOf("1").Level(0, 0, col["wave"])
 		}
 		if opts.Labels {
-			row[col["activity"]] = parquet.ValueOf(StateNames[state]).Level(0, 0, col["activity"])
+			row[col["activity"]] = parquet.ValueOf(stateNames[state]).Level(0, 0, col["activity"])
 		}
 		for j, n := range names {
 			v := math.Round(feat[j]*1e4) / 1e4
@@ -249,7 +273,7 @@ func (opts Options) check() error {
 	if opts.Features != 12 && opts.Features != 24 {
 		return fmt.Errorf("synth: %d features: choose 12 or 24", opts.Features)
 	}
-	if opts.Groups < 2 || opts.Groups > len(groupMix) {
+	if opts.Scenario == 0 && (opts.Groups < 2 || opts.Groups > len(groupMix)) {
 		return fmt.Errorf("synth: %d groups: choose 2 to %d", opts.Groups, len(groupMix))
 	}
 	for _, g := range opts.GroupSet {
@@ -265,6 +289,9 @@ func (opts Options) check() error {
 
 // generate invents the cohort participant by participant, handing each window to emit.
 func generate(opts Options, emit func(id string, window int, feat []float64, state int) error) ([]Truth, error) {
+	if opts.Scenario != 0 {
+		return DrawScenario(opts.Scenario).generate(opts, emit)
+	}
 	truth := make([]Truth, opts.Participants)
 	feat := make([]float64, len(FeatureNames(opts.Features)))
 	for p := 0; p < opts.Participants; p++ {
@@ -274,7 +301,7 @@ func generate(opts Options, emit func(id string, window int, feat []float64, sta
 			g = opts.GroupSet[(opts.FirstID+p)%len(opts.GroupSet)]
 		}
 		id := opts.IDPrefix + strconv.Itoa(opts.FirstID+p+1)
-		truth[p] = Truth{ID: id, Group: g}
+		truth[p] = Truth{ID: id, Group: g, Shares: make([]float64, len(StateNames))}
 		mix := dirichlet(rng, groupMix[g], opts.Spread)
 		offset := []float64{rng.NormFloat64() * opts.Offset, rng.NormFloat64() * opts.Offset, rng.NormFloat64() * opts.Offset}
 		gain := 1 + rng.NormFloat64()*0.02 // small calibration error on magnitudes
@@ -286,6 +313,7 @@ func generate(opts Options, emit func(id string, window int, feat []float64, sta
 			}
 			left--
 			window(rng, state, offset, gain, feat)
+			truth[p].Shares[state] += 1 / float64(opts.Windows)
 			if err := emit(id, wi, feat, state); err != nil {
 				return nil, err
 			}

@@ -1,0 +1,180 @@
+package main
+
+import (
+	"context"
+	"flag"
+	"fmt"
+	"math"
+	"path/filepath"
+	"slices"
+	"strings"
+	"testing"
+
+	"github.com/cohortmix/cohortmix/cluster"
+	"github.com/cohortmix/cohortmix/cohort"
+	"github.com/cohortmix/cohortmix/cohort/synth"
+	"github.com/spf13/cobra"
+)
+
+// The recovery benchmark: the whole job on members of the scenario family (synth.DrawScenario),
+// scored by the adjusted Rand index against the planted groups. Methods are chosen on seeds
+// 1–20 ("tune") and reported on seeds 21–40 ("report"); testdata/recovery.sh runs both.
+var recoverySet = flag.String("recovery", "", "run the recovery benchmark: tune (seeds 1–20), report (21–40) or a list such as 3,7")
+var recoveryVariants = flag.String("recovery.variants", "", "only the variants whose names contain one of these comma-separated words")
+
+// variant is one way of running the job, as the flags a user would pass.
+type variant struct {
+	name string
+	args []string
+}
+
+var recoveryVariantList = []variant{
+	{"defaults", nil},
+	{"rest, 6 states", []string{"--states", "6"}},
+	{"none, 6 states", []string{"--within", "none", "--states", "6"}},
+	{"centre, 6 states", []string{"--within", "centre", "--states", "6"}},
+	{"none, true states and groups", []string{"--within", "none", "--states", "{states}", "--groups", "{groups}"}},
+	{"none, 10 states", []string{"--within", "none", "--states", "10"}},
+}
+
+// scenarioRun is one variant's result on one scenario.
+type scenarioRun struct {
+	ari            float64
+	states, groups int
+	windowARI      float64 // states against the planted states, over all windows
+}
+
+// variantOptions parses a variant's flags; {states} and {groups} stand for the planted numbers.
+func variantOptions(t testing.TB, path string, args []string, states, groups int) analysisOptions {
+	t.Helper()
+	var m mainFlags
+	cmd := &cobra.Command{}
+	m.register(cmd)
+	args = append([]string{"--label", "activity"}, args...)
+	for i, a := range args {
+		a = strings.ReplaceAll(a, "{states}", fmt.Sprint(states))
+		args[i] = strings.ReplaceAll(a, "{groups}", fmt.Sprint(groups))
+	}
+	if err := cmd.Flags().Parse(args); err != nil {
+		t.Fatal(err)
+	}
+	o, err := m.options([]string{path})
+	if err != nil {
+		t.Fatal(err)
+	}
+	return o
+}
+
+// runScenario writes scenario seed to a temporary CSV (participants × windows), reads it once
+// and runs every variant on it, with the oracle (Ward on the participants' true shares) beside.
+func runScenario(t testing.TB, seed uint64, participants, windows int, variants []variant) (oracle scenarioRun, runs []scenarioRun, truthK int) {
+	t.Helper()
+	path := filepath.Join(t.TempDir(), "scenario.csv")
+	truth, err := synth.WriteFile(path, synth.Options{Scenario: seed, Seed: seed, Participants: participants, Windows: windows, Labels: true})
+	if err != nil {
+		t.Fatal(err)
+	}
+	tab, err := cohort.Read(context.Background(), []string{path}, cohort.ReadOptions{Label: "activity"})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer tab.Close()
+	want := make([]int, len(truth))
+	shares := make([][]float64, len(truth))
+	byID := map[string]int{}
+	for i, tr := range truth {
+		want[i], shares[i], byID[tr.ID] = tr.Group, tr.Shares, tr.Group
+	}
+	truthK = len(synth.DrawScenario(seed).Groups)
+	g, err := cohort.GroupSignatures(context.Background(), shares, cohort.GroupOptions{Method: cohort.WardHellinger, Groups: []int{truthK}, Seed: 1})
+	if err != nil {
+		t.Fatal(err)
+	}
+	oracle.ari, _ = cluster.AdjustedRand(g.Labels, want)
+	oracle.states, oracle.groups = len(truth[0].Shares), truthK
+	for _, v := range variants {
+		o := variantOptions(t, path, v.args, len(truth[0].Shares), truthK)
+		f, err := fitTable(context.Background(), tab, o)
+		if err != nil {
+			t.Fatalf("scenario %d, %s: %v", seed, v.name, err)
+		}
+		var a, b []int
+		for i, u := range tab.Units {
+			a = append(a, byID[u.ID])
+			b = append(b, f.g.Labels[i])
+		}
+		ari, _ := cluster.AdjustedRand(a, b)
+		runs = append(runs, scenarioRun{ari, f.states.K, f.g.K, f.labels.ARI})
+	}
+	return oracle, runs, truthK
+}
+
+func TestRecoveryBenchmark(t *testing.T) {
+	if *recoverySet == "" {
+		t.Skip("pass -recovery tune, report or a list of seeds (testdata/recovery.sh)")
+	}
+	var seeds []uint64
+	switch *recoverySet {
+	case "tune":
+		for s := uint64(1); s <= 20; s++ {
+			seeds = append(seeds, s)
+		}
+	case "report":
+		for s := uint64(21); s <= 40; s++ {
+			seeds = append(seeds, s)
+		}
+	default:
+		for _, f := range strings.Split(*recoverySet, ",") {
+			var s uint64
+			fmt.Sscan(f, &s)
+			seeds = append(seeds, s)
+		}
+	}
+	variants := recoveryVariantList
+	if *recoveryVariants != "" {
+		variants = nil
+		for _, v := range recoveryVariantList {
+			for _, w := range strings.Split(*recoveryVariants, ",") {
+				if strings.Contains(v.name, w) {
+					variants = append(variants, v)
+					break
+				}
+			}
+		}
+	}
+	aris := make([][]float64, len(variants)+1)
+	var b strings.Builder
+	fmt.Fprintf(&b, "%-5s %-70s %-12s", "seed", "scenario", "oracle")
+	for _, v := range variants {
+		fmt.Fprintf(&b, " | %-18s", v.name)
+	}
+	b.WriteString("\n")
+	for _, seed := range seeds {
+		oracle, runs, k := runScenario(t, seed, 200, 2016, variants)
+		fmt.Fprintf(&b, "%-5d %-70s %.2f (%d,%d) ", seed, synth.DrawScenario(seed).Describe(), oracle.ari, oracle.states, k)
+		aris[0] = append(aris[0], oracle.ari)
+		for i, r := range runs {
+			fmt.Fprintf(&b, " | %5.2f (%d,%d) w%.2f ", r.ari, r.states, r.groups, r.windowARI)
+			aris[i+1] = append(aris[i+1], r.ari)
+		}
+		b.WriteString("\n")
+		t.Logf("seed %d done", seed)
+	}
+	fmt.Fprintf(&b, "%-5s %-70s %-12s", "mean", "", fmt.Sprintf("%.3f", mean(aris[0])))
+	for i := range variants {
+		fmt.Fprintf(&b, " | %-18s", fmt.Sprintf("%.3f", mean(aris[i+1])))
+	}
+	fmt.Fprintf(&b, "\n%-5s %-70s %-12s", "worst", "", fmt.Sprintf("%.3f", slices.Min(aris[0])))
+	for i := range variants {
+		fmt.Fprintf(&b, " | %-18s", fmt.Sprintf("%.3f", slices.Min(aris[i+1])))
+	}
+	t.Logf("recovery on seeds %v (ARI; in brackets the numbers of states and groups):\n%s", seeds, b.String())
+}
+
+func mean(xs []float64) float64 {
+	var s float64
+	for _, x := range xs {
+		s += x
+	}
+	return s / math.Max(1, float64(len(xs)))
+}
