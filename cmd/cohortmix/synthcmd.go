@@ -37,7 +37,7 @@ intensity, short and long bouts and some short recordings; --groups does not app
 Exit codes: 0 success, 1 error, 2 wrong command line, 130 interrupted.`,
 		Example: `  $ cohortmix synth --out big.csv.gz --participants 1000 --windows 10080 --features 24
   $ cohortmix synth --out s7.csv --scenario 7 --participants 200 --windows 2016 --truth s7-truth.csv`,
-		Args:    cobra.NoArgs,
+		Args: cobra.NoArgs,
 		RunE: func(cmd *cobra.Command, args []string) error {
 			if opts.Synth.Scenario != 0 && cmd.Flags().Changed("groups") {
 				return flagErrorf("--groups with --scenario %d: a scenario plants its own groups; leave --groups out", opts.Synth.Scenario)
