@@ -206,6 +206,20 @@ func TestReadPolicies(t *testing.T) {
 				t.Errorf("order kind %s, step %d", tab.OrderKind, order(t, tab, 0)[1]-order(t, tab, 0)[0])
 			}
 		}},
+		{"lowest values", []string{good}, ReadOptions{}, func(t *testing.T, tab *Table) {
+			lo1, pos1 := tab.Lowest(0)
+			lo2, pos2 := tab.Lowest(1)
+			if lo1 != 0.5 || pos1 != 0.5 || lo2 != 0 || pos2 != 1 {
+				t.Errorf("f1 lowest %v, above 0 %v; f2 %v, %v; want 0.5, 0.5, 0, 1", lo1, pos1, lo2, pos2)
+			}
+		}},
+		{"lowest values count missing cells out and excluded participants in", []string{strings.Replace(good, "A,1,1.5,3", "A,1,NA,-3", 1) + "C,0,-2,1\n"}, ReadOptions{}, func(t *testing.T, tab *Table) {
+			lo1, _ := tab.Lowest(0)
+			lo2, _ := tab.Lowest(1)
+			if lo1 != -2 || lo2 != -3 {
+				t.Errorf("lowest f1 %v, f2 %v; want -2 (excluded C) and -3 (a window dropped for another cell)", lo1, lo2)
+			}
+		}},
 		{"gzip", []string{string(gz([]byte(good)))}, ReadOptions{}, func(t *testing.T, tab *Table) {
 			if len(tab.Units) != 2 || tab.Files[0].Rows != 50 {
 				t.Errorf("units %d rows %d", len(tab.Units), tab.Files[0].Rows)
