@@ -47,21 +47,29 @@ const (
 	WithinRest                  // subtract the participant's median over its quietest windows
 	WithinCentre                // subtract the participant's median
 	WithinRobustZ               // subtract the participant's median, divide by its MAD
+	// WithinAlign turns each participant's axis means and shifts each touched feature by a
+	// Device fitted jointly with the movement states (profile.FitAligned), so that what is
+	// removed is the device's and not the participant's mixture; the fit here has no baseline.
+	WithinAlign
 )
 
-var withinNames = map[Within]string{WithinNone: "none", WithinRest: "rest", WithinCentre: "centre", WithinRobustZ: "robust-z"}
+var withinNames = map[Within]string{WithinNone: "none", WithinRest: "rest", WithinCentre: "centre", WithinRobustZ: "robust-z", WithinAlign: "align"}
 
 func (w Within) String() string { return withinNames[w] }
 
-// ParseWithin reads a within-participant step name: none, rest, centre or robust-z.
+// ParseWithin reads a within-participant step name: align, none, rest, centre or robust-z.
 func ParseWithin(s string) (Within, error) {
 	for w, n := range withinNames {
 		if n == s {
 			return w, nil
 		}
 	}
-	return 0, fmt.Errorf("normalize: within-participant step %q: %w; use none, rest, centre or robust-z", s, ErrOption)
+	return 0, fmt.Errorf("normalize: within-participant step %q: %w; use align, none, rest, centre or robust-z", s, ErrOption)
 }
+
+// baseline reports whether the step finds a baseline of each participant's own (rest, centre,
+// robust z); none and align have none.
+func (w Within) baseline() bool { return w != WithinNone && w != WithinAlign }
 
 // Scale is the cohort-wide step.
 type Scale int
@@ -92,7 +100,7 @@ func ParseScale(s string) (Scale, error) {
 // Options sets up Fit. Zero values take the documented defaults.
 type Options struct {
 	Within         Within
-	WithinFeatures []string // name patterns the within step touches; empty: features found to carry offsets (ICC ≥ OffsetICC); "*" all
+	WithinFeatures []string // name patterns the within step touches; empty: with align every feature, otherwise those found to carry offsets (ICC ≥ OffsetICC); "*" all
 	OffsetICC      float64  // 0 means 0.3
 	RestShare      float64  // share of a participant's quietest windows for the rest baseline; 0 means 0.1
 	Scale          Scale
@@ -101,6 +109,16 @@ type Options struct {
 	NoPCA          bool
 	SampleRate     float64 // share of windows used to fit robust scaling and PCA; 0 means all (≤ 1)
 	Seed           uint64
+	// Log takes every feature that is never below 0 on a log scale, log(x + c), with c the
+	// feature's lowest value above 0 when it takes the value 0 (0 otherwise): an amplitude gain
+	// becomes an offset, and intensities spread evenly from rest to vigorous movement. Lowest and
+	// LowestPositive are each feature's lowest value and lowest value above 0 over every window
+	// (cohort.Table.Lowest), required with Log. Columns in Axes are never taken on a log scale.
+	Log                    bool
+	Lowest, LowestPositive []float64
+	// Axes are the three columns that hold the axis means (x, y and z), which a Device turns;
+	// nil when the table has none.
+	Axes []int
 	// Keep, when set, is shown every window of the within-step pass that Sampled(Seed, u, w,
 	// KeepRate) keeps, with its within-step values; Fit.Cohort finishes them once the fit is
 	// made. It spares a caller who needs another sample of normalized windows a pass.
@@ -114,6 +132,9 @@ type Options struct {
 // Fit is the frozen normalization.
 type Fit struct {
 	Features   []string
+	Logged     []bool    // features taken on a log scale
+	LogShift   []float64 // c in log(x + c) of each logged feature
+	Axes       []int     // the columns of the axis means, which a Device turns; nil: none
 	Within     Within
 	Touched    []bool    // features the within step changes
 	TouchedBy  string    // "pattern", "offset detection (ICC ≥ x)" or "all features"
@@ -125,7 +146,7 @@ type Fit struct {
 	Center     []float64 // cohort step, per feature
 	Spread     []float64
 	PCA        *cluster.PCA // nil when off
-	ICC        []float64    // ICC(1) of each raw feature
+	ICC        []float64    // ICC(1) of each feature, on its log scale where it has one
 	ICCAfter   []float64    // ICC(1) of each feature after the within-participant step; nil in a fit read from a model
 	Warnings   []string
 	// Units holds the baseline of each participant the fit was made on, in blocks order, for
@@ -278,6 +299,9 @@ func (s SliceBlocks) Block(u int) []float64 { return s[u] }
 // FitTransform fits the normalization to the units (each a windows × len(features) block) and
 // returns the fit with the transformed blocks.
 func FitTransform(features []string, units [][]float64, opts Options) (*Fit, [][]float64, error) {
+	if opts.Log && opts.Lowest == nil {
+		opts.Lowest, opts.LowestPositive = LowestOf(units, len(features))
+	}
 	f, err := FitBlocks(context.Background(), features, SliceBlocks(units), opts)
 	if err != nil {
 		return nil, nil, err
@@ -314,32 +338,15 @@ func FitBlocks(ctx context.Context, features []string, blocks Blocks, opts Optio
 	if opts.SampleRate == 0 {
 		opts.SampleRate = 1
 	}
-	// Pass 1: ICC(1) and the sample of raw windows.
-	acc := newICCAcc(d)
-	var rawParts [][]float64 // joined once at the end: growing one slice would copy it again and again
-	type part1 struct {
-		icc    iccUnit
-		sample []float64
-	}
-	err := EachBlock(ctx, blocks, opts.Workers, func(u int, x []float64) (part1, error) {
-		return part1{unitICC(x, d), appendSampled(nil, x, d, u, opts.Seed, opts.SampleRate)}, nil
-	}, func(u int, p part1) error {
-		acc.merge(p.icc)
-		rawParts = append(rawParts, p.sample)
-		if opts.Progress != nil {
-			opts.Progress("normalizing, pass 1 of 2", u+1, blocks.Len())
-		}
-		return nil
-	})
-	if err != nil {
+	f := &Fit{Features: features, Within: opts.Within, RestShare: opts.RestShare, ScaleKind: opts.Scale}
+	if err := f.setScales(opts); err != nil {
 		return nil, err
 	}
-	f := &Fit{Features: features, Within: opts.Within, RestShare: opts.RestShare, ScaleKind: opts.Scale, ICC: acc.icc()}
 	f.Touched = make([]bool, d)
 	switch {
 	case opts.Within == WithinNone:
 		f.TouchedBy = "none"
-	case len(opts.WithinFeatures) == 1 && opts.WithinFeatures[0] == "*":
+	case len(opts.WithinFeatures) == 1 && opts.WithinFeatures[0] == "*", opts.Within == WithinAlign && len(opts.WithinFeatures) == 0:
 		f.TouchedBy = "all features"
 		for j := range f.Touched {
 			f.Touched[j] = true
@@ -353,33 +360,23 @@ func FitBlocks(ctx context.Context, features []string, blocks Blocks, opts Optio
 				}
 			}
 		}
-	default:
-		f.TouchedBy = fmt.Sprintf("offset detection (ICC ≥ %.2f)", opts.OffsetICC)
-		for j, v := range f.ICC {
-			f.Touched[j] = v >= opts.OffsetICC
+	}
+	if opts.Within.baseline() {
+		if err := f.fitBaselineRule(ctx, blocks, opts); err != nil {
+			return nil, err
 		}
 	}
-	all := true
-	for _, t := range f.Touched {
-		all = all && t
-	}
-	if opts.Within == WithinRobustZ && all {
-		f.Warnings = append(f.Warnings, "within-participant robust z-scoring touches every feature: it erases the between-participant level differences that signatures rely on; restrict it with --within-features")
-	}
-	// The quiet score ranks a participant's windows by the cohort-scaled mean of the untouched
-	// features (all features when every one is touched).
-	f.QuietMid, f.QuietScale = medianMAD(slices.Concat(rawParts...), d)
-	rawParts = nil
-	for j := range features {
-		if !f.Touched[j] || all {
-			f.QuietScore = append(f.QuietScore, j)
-		}
-	}
-	// Pass 2: each participant's baseline, kept for ApplyUnit, and the cohort step's statistics
-	// and sample, on the within-step windows.
+	// Pass 2 (the only one without a baseline): each participant's baseline, kept for
+	// ApplyUnit, and the cohort step's statistics and sample, on the within-step windows.
 	var moments moments
 	var sampleParts [][]float64
-	f.Units = make([]Baseline, blocks.Len())
+	if opts.Within.baseline() {
+		f.Units = make([]Baseline, blocks.Len())
+	}
+	step := "normalizing, pass 2 of 2"
+	if !opts.Within.baseline() {
+		step = "normalizing"
+	}
 	accAfter := newICCAcc(d)
 	type part2 struct {
 		base         Baseline
@@ -389,8 +386,11 @@ func FitBlocks(ctx context.Context, features []string, blocks Blocks, opts Optio
 		keptAt       []int
 	}
 	var ys sync.Pool // within-step windows, one buffer per worker at a time
-	err = EachBlock(ctx, blocks, opts.Workers, func(u int, x []float64) (part2, error) {
-		p := part2{base: f.Baseline(x)}
+	err := EachBlock(ctx, blocks, opts.Workers, func(u int, x []float64) (part2, error) {
+		var p part2
+		if f.Units != nil {
+			p.base = f.Baseline(x)
+		}
 		yp, _ := ys.Get().(*[]float64)
 		if yp == nil {
 			yp = new([]float64)
@@ -411,7 +411,9 @@ func FitBlocks(ctx context.Context, features []string, blocks Blocks, opts Optio
 		}
 		return p, nil
 	}, func(u int, p part2) error {
-		f.Units[u] = p.base
+		if f.Units != nil {
+			f.Units[u] = p.base
+		}
 		accAfter.merge(p.icc)
 		moments.merge(p.mom)
 		sampleParts = append(sampleParts, p.sample)
@@ -419,7 +421,7 @@ func FitBlocks(ctx context.Context, features []string, blocks Blocks, opts Optio
 			opts.Keep(u, w, p.kept[i*d:(i+1)*d])
 		}
 		if opts.Progress != nil {
-			opts.Progress("normalizing, pass 2 of 2", u+1, blocks.Len())
+			opts.Progress(step, u+1, blocks.Len())
 		}
 		return nil
 	})
@@ -429,6 +431,9 @@ func FitBlocks(ctx context.Context, features []string, blocks Blocks, opts Optio
 	sample := slices.Concat(sampleParts...)
 	sampleParts = nil
 	f.ICCAfter = accAfter.icc()
+	if !opts.Within.baseline() {
+		f.ICC = f.ICCAfter // nothing happened between the two; with align, the states' fit says what the devices took
+	}
 	switch opts.Scale {
 	case ScaleZ:
 		f.Center, f.Spread = moments.meanSD()
@@ -463,6 +468,64 @@ func FitBlocks(ctx context.Context, features []string, blocks Blocks, opts Optio
 	}
 	f.PCA = pca
 	return f, nil
+}
+
+// fitBaselineRule is pass 1 of a within step with a baseline: ICC(1) of each feature, the
+// features the step touches when no pattern names them (ICC ≥ OffsetICC), and the cohort
+// medians and MADs that the quiet score of the rest baseline is made of.
+func (f *Fit) fitBaselineRule(ctx context.Context, blocks Blocks, opts Options) error {
+	d := len(f.Features)
+	// Pass 1: ICC(1) and the sample of windows, on the features' scales.
+	acc := newICCAcc(d)
+	var rawParts [][]float64 // joined once at the end: growing one slice would copy it again and again
+	type part1 struct {
+		icc    iccUnit
+		sample []float64
+	}
+	var logs sync.Pool // windows on the features' scales, one buffer per worker at a time
+	err := EachBlock(ctx, blocks, opts.Workers, func(u int, x []float64) (part1, error) {
+		lp, _ := logs.Get().(*[]float64)
+		if lp == nil {
+			lp = new([]float64)
+		}
+		defer logs.Put(lp)
+		x = f.scaleInto(lp, x)
+		return part1{unitICC(x, d), appendSampled(nil, x, d, u, opts.Seed, opts.SampleRate)}, nil
+	}, func(u int, p part1) error {
+		acc.merge(p.icc)
+		rawParts = append(rawParts, p.sample)
+		if opts.Progress != nil {
+			opts.Progress("normalizing, pass 1 of 2", u+1, blocks.Len())
+		}
+		return nil
+	})
+	if err != nil {
+		return err
+	}
+	f.ICC = acc.icc()
+	if f.TouchedBy == "" {
+		f.TouchedBy = fmt.Sprintf("offset detection (ICC ≥ %.2f)", opts.OffsetICC)
+		for j, v := range f.ICC {
+			f.Touched[j] = v >= opts.OffsetICC
+		}
+	}
+	all := true
+	for _, t := range f.Touched {
+		all = all && t
+	}
+	if opts.Within == WithinRobustZ && all {
+		f.Warnings = append(f.Warnings, "within-participant robust z-scoring touches every feature: it erases the between-participant level differences that signatures rely on; restrict it with --within-features")
+	}
+	// The quiet score ranks a participant's windows by the cohort-scaled mean of the untouched
+	// features (all features when every one is touched).
+	f.QuietMid, f.QuietScale = medianMAD(slices.Concat(rawParts...), d)
+	rawParts = nil
+	for j := range f.Features {
+		if !f.Touched[j] || all {
+			f.QuietScore = append(f.QuietScore, j)
+		}
+	}
+	return nil
 }
 
 // SampleRows passes over the blocks, transforming each with tf when given, and returns the
@@ -578,6 +641,12 @@ const applyRows = 256
 // arithmetic as withinInto and Cohort: an untouched feature has centre 0 and scale 1, which leave
 // it exactly as it was, so the result is bit for bit theirs.
 func (f *Fit) ApplyBaselineInto(dst, x []float64, b Baseline) []float64 {
+	return f.applyInto(dst, x, b, Device{})
+}
+
+// applyInto is ApplyBaselineInto with a Device: each window is turned and put on its log
+// scales first, and the device's offsets are taken from the output last.
+func (f *Fit) applyInto(dst, x []float64, b Baseline, dev Device) []float64 {
 	d := len(f.Features)
 	n := len(x) / d
 	k := f.OutDim()
@@ -588,11 +657,25 @@ func (f *Fit) ApplyBaselineInto(dst, x []float64, b Baseline) []float64 {
 	center, scale := make([]float64, d), make([]float64, d)
 	for j := range scale {
 		scale[j] = 1
-		if f.Within != WithinNone && f.Touched[j] {
+		if f.Within.baseline() && f.Touched[j] {
 			center[j], scale[j] = b.Center[j], b.Scale[j]
 		}
 	}
+	prep := f.anyLogged() || (dev.Rotation != nil && f.Axes != nil)
+	var tmp []float64
+	if prep {
+		tmp = make([]float64, min(n, applyRows)*d)
+	}
 	rows := func(y, x []float64) {
+		if prep {
+			t := tmp[:len(x)]
+			copy(t, x)
+			if dev.Rotation != nil && f.Axes != nil {
+				f.rotateRows(t, dev.Rotation)
+			}
+			f.logRows(t)
+			x = t
+		}
 		for i := 0; i+d <= len(x); i += d {
 			xi, yi := x[i:i+d], y[i:i+d]
 			for j, v := range xi {
@@ -601,14 +684,24 @@ func (f *Fit) ApplyBaselineInto(dst, x []float64, b Baseline) []float64 {
 		}
 	}
 	if f.PCA == nil {
-		rows(dst, x[:n*d])
-		return dst
+		for i := 0; i < n; i += applyRows {
+			m := min(applyRows, n-i)
+			rows(dst[i*d:(i+m)*d], x[i*d:(i+m)*d])
+		}
+	} else {
+		block := make([]float64, min(n, applyRows)*d)
+		for i := 0; i < n; i += applyRows {
+			m := min(applyRows, n-i)
+			rows(block, x[i*d:(i+m)*d])
+			f.PCA.TransformRows(dst[i*k:(i+m)*k], block[:m*d])
+		}
 	}
-	block := make([]float64, min(n, applyRows)*d)
-	for i := 0; i < n; i += applyRows {
-		m := min(applyRows, n-i)
-		rows(block, x[i*d:(i+m)*d])
-		f.PCA.TransformRows(dst[i*k:(i+m)*k], block[:m*d])
+	if dev.Offset != nil {
+		for i := 0; i+k <= len(dst); i += k {
+			for c, o := range dev.Offset {
+				dst[i+c] -= o
+			}
+		}
 	}
 	return dst
 }
@@ -632,8 +725,12 @@ func (f *Fit) Baseline(x []float64) Baseline {
 	for j := range b.Scale {
 		b.Scale[j] = 1
 	}
-	if f.Within == WithinNone || n == 0 {
+	if !f.Within.baseline() || n == 0 {
 		return b
+	}
+	if f.anyLogged() {
+		var buf []float64
+		x = f.scaleInto(&buf, x)
 	}
 	var rows []int
 	if f.Within == WithinRest {
@@ -677,13 +774,14 @@ func (f *Fit) Baseline(x []float64) Baseline {
 func (f *Fit) withinInto(dst, x []float64, b Baseline) []float64 {
 	d := len(f.Features)
 	y := append(dst[:0], x...)
-	if f.Within == WithinNone {
+	f.logRows(y)
+	if !f.Within.baseline() {
 		return y
 	}
 	for i := 0; i+d <= len(y); i += d {
 		for j, t := range f.Touched {
 			if t {
-				y[i+j] = (x[i+j] - b.Center[j]) / b.Scale[j]
+				y[i+j] = (y[i+j] - b.Center[j]) / b.Scale[j]
 			}
 		}
 	}

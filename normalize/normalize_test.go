@@ -5,6 +5,7 @@ import (
 	"errors"
 	"fmt"
 	"math"
+	"slices"
 	"strings"
 	"testing"
 )
@@ -65,7 +66,7 @@ func TestWarnsWhenZScoringEverything(t *testing.T) {
 }
 
 func TestOptionErrors(t *testing.T) {
-	if _, err := ParseWithin("median"); !errors.Is(err, ErrOption) || !strings.Contains(err.Error(), "use none, rest, centre or robust-z") {
+	if _, err := ParseWithin("median"); !errors.Is(err, ErrOption) || !strings.Contains(err.Error(), "use align, none, rest, centre or robust-z") {
 		t.Errorf("got %v", err)
 	}
 	constant := [][]float64{{1, 2, 1, 3}, {1, 4, 1, 5}}
@@ -163,15 +164,27 @@ func TestOneGoApplyMatchesTwoSteps(t *testing.T) {
 		{"rest baseline, no PCA", Options{Within: WithinRest, NoPCA: true}},
 		{"robust z on two features", Options{Within: WithinRobustZ, WithinFeatures: []string{"a", "c"}}},
 		{"no within step, robust cohort scale", Options{Within: WithinNone, Scale: ScaleRobustZ}},
+		{"log scale, rest baseline", Options{Within: WithinRest, Log: true}},
+		{"log scale, align", Options{Within: WithinAlign, Log: true, NoPCA: true}},
 	}
 	var buf []float64
 	for _, c := range cases {
+		if c.opts.Log {
+			c.opts.Lowest, c.opts.LowestPositive = LowestOf(units, 4)
+		}
 		fit, err := FitBlocks(context.Background(), []string{"a", "b", "c", "d"}, SliceBlocks(units), c.opts)
 		if err != nil {
 			t.Fatalf("%s: %v", c.name, err)
 		}
+		if c.opts.Log && !slices.Equal(fit.Logged, []bool{false, false, true, true}) {
+			t.Fatalf("%s: logged %v; want c and d (a and b take negative values)", c.name, fit.Logged)
+		}
 		for u, x := range units {
-			want := fit.Cohort(fit.withinInto(nil, x, fit.Units[u]))
+			var base Baseline
+			if fit.Units != nil {
+				base = fit.Units[u]
+			}
+			want := fit.Cohort(fit.withinInto(nil, x, base))
 			buf = fit.ApplyUnitInto(buf, u, x)
 			if len(buf) != len(want) {
 				t.Fatalf("%s, participant %d: %d values, two steps give %d", c.name, u, len(buf), len(want))
