@@ -293,3 +293,65 @@ func BenchmarkTransformRows(b *testing.B) {
 		p.TransformRows(dst, x.RawMatrix().Data)
 	}
 }
+
+// Valley on planted pairs of groups. A mixture of two normals of equal weight and variance is
+// unimodal when their means are at most 2 s.d. apart (Schilling, Watkins & Watkins 2002, Is
+// human height bimodal?, Am. Stat. 56:223–229). At 3 s.d. the density midway is
+// 2φ(1.5)/(φ(0)+φ(3)) = 0.643 of the density at either mean; the kernel estimate is that density
+// smoothed by the kernel (bandwidth 0.9·1.8·4000^(−1/5) ≈ 0.31 here), whose components have
+// s.d. √(1+0.31²) ≈ 1.047, so it expects 2φ(1.433)/(φ(0)+φ(2.865)) ≈ 0.708.
+func TestValleyOnPlantedPairs(t *testing.T) {
+	normal := func(rng *rand.Rand, n int, mx float64) *mat.Dense {
+		x := mat.NewDense(n, 2, nil)
+		for i := 0; i < n; i++ {
+			x.Set(i, 0, mx+rng.NormFloat64())
+			x.Set(i, 1, rng.NormFloat64())
+		}
+		return x
+	}
+	rng := rand.New(rand.NewPCG(1, 2))
+	whole := normal(rng, 4000, 0)
+	var left, right [][]float64
+	for i := 0; i < 4000; i++ {
+		if row := whole.RawRowView(i); row[0] < 0 {
+			left = append(left, row)
+		} else {
+			right = append(right, row)
+		}
+	}
+	rows := func(r [][]float64) *mat.Dense {
+		x := mat.NewDense(len(r), 2, nil)
+		for i, v := range r {
+			x.SetRow(i, v)
+		}
+		return x
+	}
+	cases := []struct {
+		name   string
+		a, b   *mat.Dense
+		lo, hi float64
+	}{
+		// One normal cut in two at its mean: no dip at all; the kernel estimate is flat to a few %.
+		{"one normal cut in two", rows(left), rows(right), 0.9, 1.0},
+		{"two normals 2 s.d. apart (unimodal)", normal(rng, 2000, 0), normal(rng, 2000, 2), 0.9, 1.0},
+		// 0.708 expected of the kernel estimate; ±0.05 for the sampling noise of the densities at
+		// the medians and midway with 2,000 rows a group.
+		{"two normals 3 s.d. apart", normal(rng, 2000, 0), normal(rng, 2000, 3), 0.708 - 0.05, 0.708 + 0.05},
+		// Midway at 4 s.d. of the smoothed components (bandwidth ≈ 0.7): 2φ(3.3)/φ(0) ≈ 0.01.
+		{"two normals 8 s.d. apart", normal(rng, 2000, 0), normal(rng, 2000, 8), 0, 0.05},
+	}
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			v, err := Valley(c.a, c.b)
+			if err != nil {
+				t.Fatal(err)
+			}
+			if v < c.lo || v > c.hi {
+				t.Errorf("valley %.3f, want %.3f to %.3f", v, c.lo, c.hi)
+			}
+		})
+	}
+	if _, err := Valley(mat.NewDense(1, 2, nil), normal(rng, 5, 0)); !errors.Is(err, ErrEmpty) {
+		t.Errorf("one row: %v, want ErrEmpty", err)
+	}
+}

@@ -1,6 +1,8 @@
 // Package cluster groups the rows of a matrix and measures how well they are grouped: k-means,
 // agglomerative hierarchical clustering, k-medoids, PCA, distances between compositions, validity
-// indices and the optimal matching of two labelings. It knows nothing of participants or files.
+// indices, whether two groups are two modes (Valley), the optimal matching of two labelings and
+// the rotation that best turns one set of vectors onto another. It knows nothing of participants
+// or files.
 //
 // # Conventions
 //
@@ -30,6 +32,11 @@
 //   - Davies DL, Bouldin DW (1979). A cluster separation measure. IEEE TPAMI 1.
 //   - Hubert L, Arabie P (1985). Comparing partitions. J. Classif. 2.
 //   - Vinh NX, Epps J, Bailey J (2010). Information theoretic measures for clusterings comparison. JMLR 11.
+//   - Hennig C (2010). Methods for merging Gaussian mixture components. Adv. Data Anal. Classif. 4.
+//   - Silverman BW (1986). Density Estimation for Statistics and Data Analysis. Chapman & Hall.
+//   - Kabsch W (1976). A solution for the best rotation to relate two sets of vectors. Acta Cryst. A32;
+//     Umeyama S (1991). Least-squares estimation of transformation parameters between two point
+//     patterns. IEEE TPAMI 13.
 //   - Kuhn HW (1955). The Hungarian method for the assignment problem. Nav. Res. Logist. Q. 2;
 //     Munkres J (1957). Algorithms for the assignment and transportation problems. J. SIAM 5.
 package cluster

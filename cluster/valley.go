@@ -1,0 +1,158 @@
+package cluster
+
+import (
+	"fmt"
+	"math"
+	"slices"
+
+	"gonum.org/v1/gonum/mat"
+)
+
+// valleyBins is how many bins the pooled projections are counted in before smoothing.
+const valleyBins = 512
+
+// Valley tells whether two groups of rows are two modes or the two halves of one. It projects
+// both groups on the line joining their means, estimates the density of the pooled projections
+// with a Gaussian kernel (Silverman's rule-of-thumb bandwidth, on 512 bins), and returns the
+// lowest density between the two groups' medians divided by the lower of the densities at the
+// two medians. Near 1, the density does not dip between them: one mode cut in two. Near 0, a
+// deep valley parts them: two modes. Groups whose medians coincide give 1.
+//
+// The criterion follows the merging of mixture components by the unimodality of their union
+// along the line that joins them (Hennig C (2010), Methods for merging Gaussian mixture
+// components, Adv. Data Anal. Classif. 4:3–34: the ridgeline ratio and the dip-test methods),
+// here on a kernel density of the data themselves. Bandwidth: Silverman BW (1986), Density
+// Estimation for Statistics and Data Analysis, Chapman & Hall, eq. (3.31).
+func Valley(a, b mat.Matrix) (float64, error) {
+	da, na, d, err := checkMatrix("Valley", a)
+	if err != nil {
+		return 0, err
+	}
+	db, nb, d2, err := checkMatrix("Valley", b)
+	if err != nil {
+		return 0, err
+	}
+	if d != d2 {
+		return 0, fmt.Errorf("cluster: Valley: %d and %d columns: %w", d, d2, ErrShape)
+	}
+	if na < 2 || nb < 2 {
+		return 0, fmt.Errorf("cluster: Valley: %d and %d rows: %w; each group needs at least 2", na, nb, ErrEmpty)
+	}
+	ma, mb := colMeans(da, na, d), colMeans(db, nb, d)
+	dir := make([]float64, d)
+	var norm float64
+	for j := range dir {
+		dir[j] = mb[j] - ma[j]
+		norm += dir[j] * dir[j]
+	}
+	if norm == 0 {
+		return 1, nil
+	}
+	norm = math.Sqrt(norm)
+	project := func(data []float64, n int) []float64 {
+		p := make([]float64, n)
+		for i := range p {
+			var s float64
+			for j, v := range data[i*d : (i+1)*d] {
+				s += (v - ma[j]) * dir[j] / norm
+			}
+			p[i] = s
+		}
+		return p
+	}
+	pa, pb := project(da, na), project(db, nb)
+	medA, medB := median(slices.Clone(pa)), median(slices.Clone(pb))
+	if medA == medB {
+		return 1, nil
+	}
+	all := slices.Concat(pa, pb)
+	slices.Sort(all)
+	n := float64(len(all))
+	var mean, ss float64
+	for _, v := range all {
+		mean += v / n
+	}
+	for _, v := range all {
+		ss += (v - mean) * (v - mean)
+	}
+	sd := math.Sqrt(ss / (n - 1))
+	iqr := quantileSorted(all, 0.75) - quantileSorted(all, 0.25)
+	spread := sd
+	if iqr > 0 {
+		spread = math.Min(sd, iqr/1.34)
+	}
+	h := 0.9 * spread * math.Pow(n, -0.2) // Silverman (1986), eq. (3.31)
+	if !(h > 0) {
+		return 1, nil
+	}
+	lo, hi := all[0]-3*h, all[len(all)-1]+3*h
+	width := (hi - lo) / valleyBins
+	counts := make([]float64, valleyBins)
+	for _, v := range all {
+		counts[min(valleyBins-1, int((v-lo)/width))]++
+	}
+	// Density at each bin's centre: the counts smoothed by the kernel, cut at four bandwidths.
+	reach := int(math.Ceil(4 * h / width))
+	kernel := make([]float64, reach+1)
+	for k := range kernel {
+		z := float64(k) * width / h
+		kernel[k] = math.Exp(-z * z / 2)
+	}
+	density := make([]float64, valleyBins)
+	for i, c := range counts {
+		if c == 0 {
+			continue
+		}
+		for k := -reach; k <= reach; k++ {
+			if j := i + k; j >= 0 && j < valleyBins {
+				density[j] += c * kernel[abs(k)]
+			}
+		}
+	}
+	bin := func(x float64) int { return min(valleyBins-1, max(0, int((x-lo)/width))) }
+	ia, ib := bin(medA), bin(medB)
+	if ia > ib {
+		ia, ib = ib, ia
+	}
+	low := math.Inf(1)
+	for i := ia; i <= ib; i++ {
+		low = math.Min(low, density[i])
+	}
+	return low / math.Min(density[bin(medA)], density[bin(medB)]), nil
+}
+
+func colMeans(data []float64, n, d int) []float64 {
+	m := make([]float64, d)
+	for i := 0; i < n; i++ {
+		for j := 0; j < d; j++ {
+			m[j] += data[i*d+j]
+		}
+	}
+	for j := range m {
+		m[j] /= float64(n)
+	}
+	return m
+}
+
+// median of xs, which it reorders.
+func median(xs []float64) float64 {
+	slices.Sort(xs)
+	return quantileSorted(xs, 0.5)
+}
+
+// quantileSorted is the p-quantile of sorted xs by linear interpolation (numpy's default).
+func quantileSorted(xs []float64, p float64) float64 {
+	h := p * float64(len(xs)-1)
+	i := int(h)
+	if i+1 >= len(xs) {
+		return xs[len(xs)-1]
+	}
+	return xs[i] + (h-float64(i))*(xs[i+1]-xs[i])
+}
+
+func abs(k int) int {
+	if k < 0 {
+		return -k
+	}
+	return k
+}
