@@ -78,25 +78,22 @@ type parsedChunk struct {
 	labels []string
 	cells  []orderCell // order cell text and column of the first row, and of the first row of another kind
 	err    error       // first error in the chunk, positioned
-	// lo and loPos are each feature's lowest value and lowest value above 0 over the chunk's
-	// windows (missing cells aside; +Inf when there is none), found by summarize.
-	lo, loPos []float64
+	// lo is each feature's lowest value over the chunk's windows (missing cells aside; +Inf
+	// when there is none), found by summarize.
+	lo []float64
 }
 
-// summarize finds each of the d features' lowest value and lowest value above 0 over the
-// chunk's windows (rows of width w).
+// summarize finds each of the d features' lowest value over the chunk's windows (rows of
+// width w).
 func (c *parsedChunk) summarize(d, w int) {
-	c.lo, c.loPos = make([]float64, d), make([]float64, d)
+	c.lo = make([]float64, d)
 	for j := range c.lo {
-		c.lo[j], c.loPos[j] = math.Inf(1), math.Inf(1)
+		c.lo[j] = math.Inf(1)
 	}
 	for i := 0; i+w <= len(c.vals); i += w {
 		for j, v := range c.vals[i : i+d] {
 			if v < c.lo[j] { // false for NaN
 				c.lo[j] = v
-			}
-			if v > 0 && v < c.loPos[j] {
-				c.loPos[j] = v
 			}
 		}
 	}

@@ -131,17 +131,17 @@ type Table struct {
 	Files     []FileInfo
 	OrderKind string // "integer", "time" or "file order"
 	HasLabels bool
-	lo, loPos []float64 // by stored column: lowest value and lowest value above 0 over every window read
+	lo        []float64 // by stored column: lowest value over every window read
 }
 
-// Lowest returns feature j's lowest value and its lowest value above 0 (+Inf when it has none)
-// over every window read, those of participants later excluded included: what decides whether
-// the feature can be taken on a log scale.
-func (t *Table) Lowest(j int) (lowest, lowestPositive float64) {
+// Lowest returns feature j's lowest value over every window read, those of participants later
+// excluded included (+Inf when there is none): what decides whether the feature can be taken
+// on a log scale.
+func (t *Table) Lowest(j int) float64 {
 	if t.lo == nil {
-		return math.Inf(1), math.Inf(1)
+		return math.Inf(1)
 	}
-	return t.lo[t.cols[j]], t.loPos[t.cols[j]]
+	return t.lo[t.cols[j]]
 }
 
 // Read reads one or more CSV/TSV files (gzip by content), each with a header row, into units.
@@ -267,7 +267,7 @@ type reader struct {
 	files     []FileInfo
 	ignored   []Note
 	rows      int
-	lo, loPos []float64 // each feature's lowest value and lowest value above 0, over every window read
+	lo        []float64 // each feature's lowest value, over every window read
 }
 
 // hashFile returns the SHA-256 and size of a file read whole.
@@ -457,11 +457,10 @@ func (r *reader) mergeChunk(p string, c *parsedChunk, fileOrder bool) error {
 		c.summarize(d, w)
 	}
 	if r.lo == nil {
-		r.lo, r.loPos = c.lo, c.loPos
+		r.lo = c.lo
 	} else {
 		for j := range r.lo {
 			r.lo[j] = min(r.lo[j], c.lo[j])
-			r.loPos[j] = min(r.loPos[j], c.loPos[j])
 		}
 	}
 	if len(c.segs) > 64 {
@@ -904,7 +903,7 @@ func (r *reader) finish() (*Table, error) {
 	if err := r.raw.flush(); err != nil {
 		return nil, err
 	}
-	t := &Table{Features: r.features, Files: r.files, OrderKind: r.orderKind, HasLabels: r.hasLabels, store: r.raw, lo: r.lo, loPos: r.loPos}
+	t := &Table{Features: r.features, Files: r.files, OrderKind: r.orderKind, HasLabels: r.hasLabels, store: r.raw, lo: r.lo}
 	r.raw = nil // the table owns the store now
 	t.cols = make([]int, d)
 	for j := range t.cols {

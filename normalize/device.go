@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"math"
 	"slices"
+	"strings"
 )
 
 // Device is one participant's alignment with the cohort's movement states, the within step of
@@ -24,12 +25,12 @@ func (d Device) Angle() float64 {
 	return math.Acos(math.Max(-1, math.Min(1, (r[0]+r[4]+r[8]-1)/2))) * 180 / math.Pi
 }
 
-// LowestOf returns each of the d columns' lowest value and lowest value above 0 (+Inf when it
-// has none) over row-major blocks, NaN ignored: what Options.Lowest and LowestPositive take.
-func LowestOf(units [][]float64, d int) (lowest, lowestPositive []float64) {
-	lowest, lowestPositive = make([]float64, d), make([]float64, d)
+// LowestOf returns each of the d columns' lowest value over row-major blocks (NaN ignored, +Inf
+// for a column without values): what Options.Lowest takes.
+func LowestOf(units [][]float64, d int) []float64 {
+	lowest := make([]float64, d)
 	for j := range lowest {
-		lowest[j], lowestPositive[j] = math.Inf(1), math.Inf(1)
+		lowest[j] = math.Inf(1)
 	}
 	for _, x := range units {
 		for i := 0; i+d <= len(x); i += d {
@@ -37,13 +38,38 @@ func LowestOf(units [][]float64, d int) (lowest, lowestPositive []float64) {
 				if v < lowest[j] { // false for NaN
 					lowest[j] = v
 				}
-				if v > 0 && v < lowestPositive[j] {
-					lowestPositive[j] = v
-				}
 			}
 		}
 	}
-	return lowest, lowestPositive
+	return lowest
+}
+
+// LogStartOf returns each of the d columns' first quartile over row-major blocks (NaN ignored):
+// the start c of Options.Log's log(x + c).
+func LogStartOf(units [][]float64, d int) []float64 {
+	start := make([]float64, d)
+	var col []float64
+	for j := range start {
+		col = col[:0]
+		for _, x := range units {
+			for i := j; i < len(x); i += d {
+				if !math.IsNaN(x[i]) {
+					col = append(col, x[i])
+				}
+			}
+		}
+		if len(col) == 0 {
+			continue
+		}
+		slices.Sort(col)
+		h := logStartQuantile * float64(len(col)-1) // linear interpolation, as numpy's default
+		k := int(h)
+		start[j] = col[k]
+		if k+1 < len(col) {
+			start[j] += (h - float64(k)) * (col[k+1] - col[k])
+		}
+	}
+	return start
 }
 
 // setScales checks the axes and decides which features are taken on a log scale.
@@ -63,19 +89,16 @@ func (f *Fit) setScales(opts Options) error {
 	if !opts.Log {
 		return nil
 	}
-	if len(opts.Lowest) != d || len(opts.LowestPositive) != d {
-		return fmt.Errorf("normalize: a log scale needs each feature's lowest values (%d given for %d features): %w", len(opts.Lowest), d, ErrOption)
+	if len(opts.Lowest) != d || len(opts.LogStart) != d {
+		return fmt.Errorf("normalize: a log scale needs each feature's lowest value and first quartile (%d and %d given for %d features): %w", len(opts.Lowest), len(opts.LogStart), d, ErrOption)
 	}
 	f.Logged, f.LogShift = make([]bool, d), make([]float64, d)
 	for j := range f.Logged {
-		lo, pos := opts.Lowest[j], opts.LowestPositive[j]
-		if lo < 0 || math.IsInf(pos, 1) || math.IsNaN(lo) || slices.Contains(f.Axes, j) {
+		lo, c := opts.Lowest[j], opts.LogStart[j]
+		if !(lo >= 0) || !(c > 0) || math.IsInf(c, 0) || slices.Contains(f.Axes, j) {
 			continue
 		}
-		f.Logged[j] = true
-		if lo == 0 {
-			f.LogShift[j] = pos // log(x + c) keeps a window at 0 finite, one step below the lowest above it
-		}
+		f.Logged[j], f.LogShift[j] = true, c
 	}
 	return nil
 }
@@ -124,5 +147,81 @@ func (f *Fit) rotateRows(y, r []float64) {
 // ApplyDeviceInto transforms a participant's windows with a Device (the within step of
 // WithinAlign) and the frozen cohort step, writing into dst (grown when too short).
 func (f *Fit) ApplyDeviceInto(dst, x []float64, dev Device) []float64 {
-	return f.applyInto(dst, x, Baseline{}, dev)
+	return f.applyInto(dst, x, Baseline{}, dev, false)
 }
+
+// LogInto writes x with every logged feature on its log scale into dst (grown when too short)
+// and returns it: what ApplyLoggedInto takes, so that windows transformed again and again (with
+// one device after another) are put on their log scales once.
+func (f *Fit) LogInto(dst, x []float64) []float64 {
+	dst = append(dst[:0], x...)
+	f.logRows(dst)
+	return dst
+}
+
+// ApplyLoggedInto is ApplyDeviceInto for windows already on their log scales (LogInto); the
+// axis means are never logged, so a rotation applies to them as read.
+func (f *Fit) ApplyLoggedInto(dst, xl []float64, dev Device) []float64 {
+	return f.applyInto(dst, xl, Baseline{}, dev, true)
+}
+
+// FindAxes looks for the three features that hold a device's axis means (gravity, in g or m/s²,
+// and whatever slow movement adds): among the triples of feature names that differ only in one
+// letter, x, y and z (as mean_x, mean_y, mean_z or X_mean, Y_mean, Z_mean), the one whose
+// windows' vector length varies least, if it varies by less than a quarter of its mean (the
+// length of gravity does not change when a device turns; that of an axis s.d. does). rows are
+// windows × features, row-major, for example a few participants' first windows. It returns the
+// columns in x, y, z order, or nil and why none qualified.
+func FindAxes(features []string, rows []float64) ([]int, string) {
+	d := len(features)
+	index := map[string]int{}
+	for j, name := range features {
+		index[strings.ToLower(name)] = j
+	}
+	var best []int
+	bestCV := math.Inf(1)
+	candidates := 0
+	for j, name := range features {
+		low := strings.ToLower(name)
+		for i := 0; i < len(low); i++ {
+			if low[i] != 'x' {
+				continue
+			}
+			y, yok := index[low[:i]+"y"+low[i+1:]]
+			z, zok := index[low[:i]+"z"+low[i+1:]]
+			if !yok || !zok {
+				continue
+			}
+			candidates++
+			var sum, sum2, n float64
+			for r := 0; r+d <= len(rows); r += d {
+				a, b, c := rows[r+j], rows[r+y], rows[r+z]
+				l := math.Sqrt(a*a + b*b + c*c)
+				if math.IsNaN(l) {
+					continue
+				}
+				sum += l
+				sum2 += l * l
+				n++
+			}
+			if n < 2 || sum <= 0 {
+				continue
+			}
+			mean := sum / n
+			cv := math.Sqrt(math.Max(0, sum2/n-mean*mean)) / mean
+			if cv < bestCV {
+				best, bestCV = []int{j, y, z}, cv
+			}
+		}
+	}
+	switch {
+	case candidates == 0:
+		return nil, "no three features are named alike but for x, y and z"
+	case best == nil || bestCV >= 0.25:
+		return nil, fmt.Sprintf("no triple of x, y, z features has a vector length as steady as gravity's (the steadiest varies by %.0f%% of its mean)", 100*bestCV)
+	}
+	return best, fmt.Sprintf("%s, %s, %s (their vector length varies by %.0f%% of its mean)", features[best[0]], features[best[1]], features[best[2]], 100*bestCV)
+}
+
+// logStartQuantile is the quantile of a feature that starts its log scale (LogStartOf).
+const logStartQuantile = 0.25

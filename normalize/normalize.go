@@ -109,13 +109,17 @@ type Options struct {
 	NoPCA          bool
 	SampleRate     float64 // share of windows used to fit robust scaling and PCA; 0 means all (≤ 1)
 	Seed           uint64
-	// Log takes every feature that is never below 0 on a log scale, log(x + c), with c the
-	// feature's lowest value above 0 when it takes the value 0 (0 otherwise): an amplitude gain
-	// becomes an offset, and intensities spread evenly from rest to vigorous movement. Lowest and
-	// LowestPositive are each feature's lowest value and lowest value above 0 over every window
-	// (cohort.Table.Lowest), required with Log. Columns in Axes are never taken on a log scale.
-	Log                    bool
-	Lowest, LowestPositive []float64
+	// Log takes every feature that is never below 0 on a started log scale, log(x + c), with c
+	// the feature's first quartile (LogStart): above it a gain is nearly an offset and
+	// intensities spread evenly from rest to vigorous movement, while readings near the
+	// sensor's floor, where noise and clipping rule, are not spread apart (the started
+	// logarithm of Tukey 1977). Lowest is each feature's lowest value over every window
+	// (cohort.Table.Lowest) and LogStart its first quartile over a sample (LogStartOf); both are
+	// required with Log. A feature whose first quartile is 0, and the columns in Axes, keep their
+	// own scale.
+	Log      bool
+	Lowest   []float64
+	LogStart []float64
 	// Axes are the three columns that hold the axis means (x, y and z), which a Device turns;
 	// nil when the table has none.
 	Axes []int
@@ -124,7 +128,9 @@ type Options struct {
 	// made. It spares a caller who needs another sample of normalized windows a pass.
 	Keep     func(u, w int, within []float64)
 	KeepRate float64
-	Workers  int // goroutines for the passes over the blocks; 0 means one per core; never changes the result
+	KeepUnit func(u int) bool // when set, Keep is shown only the windows of the participants it accepts
+	KeepRaw  bool             // Keep is shown the windows as read instead of their within-step values
+	Workers  int              // goroutines for the passes over the blocks; 0 means one per core; never changes the result
 	// Progress, when set, is told after each participant of each pass how many are done.
 	Progress func(step string, done, total int)
 }
@@ -133,7 +139,7 @@ type Options struct {
 type Fit struct {
 	Features   []string
 	Logged     []bool    // features taken on a log scale
-	LogShift   []float64 // c in log(x + c) of each logged feature
+	LogShift   []float64 // c in log(x + c) of each logged feature (its first quartile)
 	Axes       []int     // the columns of the axis means, which a Device turns; nil: none
 	Within     Within
 	Touched    []bool    // features the within step changes
@@ -175,6 +181,24 @@ func iccBlocks(blocks Blocks, d int) []float64 {
 	}
 	return acc.icc()
 }
+
+// ICCPart is one participant's share of ICC(1), from UnitICCPart; ICCSum adds them up.
+type ICCPart = iccUnit
+
+// UnitICCPart is one participant's share of ICC(1) over its windows × d block x.
+func UnitICCPart(x []float64, d int) ICCPart { return unitICC(x, d) }
+
+// ICCSum adds up participants' shares of ICC(1), in the order they are added.
+type ICCSum struct{ acc *iccAcc }
+
+// NewICCSum prepares a sum over d columns.
+func NewICCSum(d int) *ICCSum { return &ICCSum{newICCAcc(d)} }
+
+// Add adds one participant's share.
+func (s *ICCSum) Add(p ICCPart) { s.acc.merge(p) }
+
+// ICC is ICC(1) of each column over the participants added.
+func (s *ICCSum) ICC() []float64 { return s.acc.icc() }
 
 // iccAcc gathers, one participant at a time, what ICC(1) needs: each participant's size and
 // means, and the pooled within sum of squares.
@@ -300,7 +324,10 @@ func (s SliceBlocks) Block(u int) []float64 { return s[u] }
 // returns the fit with the transformed blocks.
 func FitTransform(features []string, units [][]float64, opts Options) (*Fit, [][]float64, error) {
 	if opts.Log && opts.Lowest == nil {
-		opts.Lowest, opts.LowestPositive = LowestOf(units, len(features))
+		opts.Lowest = LowestOf(units, len(features))
+	}
+	if opts.Log && opts.LogStart == nil {
+		opts.LogStart = LogStartOf(units, len(features))
 	}
 	f, err := FitBlocks(context.Background(), features, SliceBlocks(units), opts)
 	if err != nil {
@@ -401,10 +428,14 @@ func FitBlocks(ctx context.Context, features []string, blocks Blocks, opts Optio
 		p.icc = unitICC(y, d)
 		p.mom = momentsFrom(p.icc, d)
 		p.sample = appendSampled(nil, y, d, u, opts.Seed, opts.SampleRate)
-		if opts.Keep != nil {
+		if opts.Keep != nil && (opts.KeepUnit == nil || opts.KeepUnit(u)) {
+			from := y
+			if opts.KeepRaw {
+				from = x
+			}
 			for w := 0; w*d < len(y); w++ {
 				if Sampled(opts.Seed, u, w, opts.KeepRate) {
-					p.kept = append(p.kept, y[w*d:(w+1)*d]...)
+					p.kept = append(p.kept, from[w*d:(w+1)*d]...)
 					p.keptAt = append(p.keptAt, w)
 				}
 			}
@@ -641,12 +672,13 @@ const applyRows = 256
 // arithmetic as withinInto and Cohort: an untouched feature has centre 0 and scale 1, which leave
 // it exactly as it was, so the result is bit for bit theirs.
 func (f *Fit) ApplyBaselineInto(dst, x []float64, b Baseline) []float64 {
-	return f.applyInto(dst, x, b, Device{})
+	return f.applyInto(dst, x, b, Device{}, false)
 }
 
 // applyInto is ApplyBaselineInto with a Device: each window is turned and put on its log
-// scales first, and the device's offsets are taken from the output last.
-func (f *Fit) applyInto(dst, x []float64, b Baseline, dev Device) []float64 {
+// scales (unless logged says it is already) first, and the device's offsets are taken from the
+// output last.
+func (f *Fit) applyInto(dst, x []float64, b Baseline, dev Device, logged bool) []float64 {
 	d := len(f.Features)
 	n := len(x) / d
 	k := f.OutDim()
@@ -661,7 +693,7 @@ func (f *Fit) applyInto(dst, x []float64, b Baseline, dev Device) []float64 {
 			center[j], scale[j] = b.Center[j], b.Scale[j]
 		}
 	}
-	prep := f.anyLogged() || (dev.Rotation != nil && f.Axes != nil)
+	prep := (f.anyLogged() && !logged) || (dev.Rotation != nil && f.Axes != nil)
 	var tmp []float64
 	if prep {
 		tmp = make([]float64, min(n, applyRows)*d)
@@ -673,7 +705,9 @@ func (f *Fit) applyInto(dst, x []float64, b Baseline, dev Device) []float64 {
 			if dev.Rotation != nil && f.Axes != nil {
 				f.rotateRows(t, dev.Rotation)
 			}
-			f.logRows(t)
+			if !logged {
+				f.logRows(t)
+			}
 			x = t
 		}
 		for i := 0; i+d <= len(x); i += d {
@@ -863,3 +897,25 @@ func medianMAD(rows []float64, d int) ([]float64, []float64) {
 
 // median sorts xs in place; NaN when empty.
 func median(xs []float64) float64 { return groupstat.Median(xs) }
+
+// UnitKey is a participant's (or participant-wave's) key for sampling: FNV-1a of its id and
+// wave, so that a sample depends on who the participant is, not on where it stands in a table.
+func UnitKey(id, wave string) uint64 {
+	z := uint64(0xcbf29ce484222325)
+	for _, s := range []string{id, "\x00", wave} {
+		for i := 0; i < len(s); i++ {
+			z = (z ^ uint64(s[i])) * 0x100000001b3
+		}
+	}
+	return z
+}
+
+// UnitSampled reports whether the participant with this key (UnitKey) is in a sample of
+// participants of the given rate, by a keyed hash (SplitMix64) of the seed and the key.
+func UnitSampled(seed, key uint64, rate float64) bool { return Sampled(seed, int(key>>1), -1, rate) }
+
+// WindowSampled reports whether window w of the participant with this key (UnitKey) is in a
+// sample of windows of the given rate.
+func WindowSampled(seed, key uint64, w int, rate float64) bool {
+	return Sampled(seed^key, 0, w, rate)
+}

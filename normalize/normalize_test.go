@@ -170,7 +170,7 @@ func TestOneGoApplyMatchesTwoSteps(t *testing.T) {
 	var buf []float64
 	for _, c := range cases {
 		if c.opts.Log {
-			c.opts.Lowest, c.opts.LowestPositive = LowestOf(units, 4)
+			c.opts.Lowest, c.opts.LogStart = LowestOf(units, 4), LogStartOf(units, 4)
 		}
 		fit, err := FitBlocks(context.Background(), []string{"a", "b", "c", "d"}, SliceBlocks(units), c.opts)
 		if err != nil {

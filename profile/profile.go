@@ -32,11 +32,38 @@ var (
 	ErrData   = errors.New("too little data for the states")
 )
 
+// Rule chooses the number of states from a range.
+type Rule int
+
+const (
+	// ByValley fits the largest number and merges neighbouring states that form one mode
+	// (MergeStates), down to at most the smallest.
+	ByValley Rule = iota
+	// ByCalinskiHarabasz keeps the candidate with the largest Calinski–Harabasz index.
+	ByCalinskiHarabasz
+)
+
+var ruleNames = map[Rule]string{ByValley: "valley", ByCalinskiHarabasz: "ch"}
+
+func (r Rule) String() string { return ruleNames[r] }
+
+// ParseRule reads a rule name: valley or ch.
+func ParseRule(s string) (Rule, error) {
+	for r, n := range ruleNames {
+		if n == s {
+			return r, nil
+		}
+	}
+	return 0, fmt.Errorf("profile: rule for the number of states %q: %w; use valley or ch", s, ErrOption)
+}
+
 // Options sets up FitStates.
 type Options struct {
-	States   []int  // candidate numbers of states, increasing (required); one value fixes it
-	Restarts int    // k-means restarts; 0 means 10
-	Seed     uint64 // drives the sample and k-means
+	States   []int   // candidate numbers of states, increasing (required); one value fixes it
+	Rule     Rule    // how a range is decided
+	Valley   float64 // ByValley's ratio (MergeStates); 0 means DefaultValley
+	Restarts int     // k-means restarts; 0 means 10
+	Seed     uint64  // drives the sample and k-means
 	Workers  int
 	Progress func(step string, done, total int) // after each candidate number of states; may be nil
 }
@@ -55,9 +82,18 @@ type States struct {
 	K          int
 	Centroids  *mat.Dense // K × dimensions
 	Candidates []Candidate
+	Merges     []Merge // states merged because no valley parted them, in order
 	Rule       string
 	Sampled    int // windows in the fitting sample
+	// Aligned states (FitAligned) place a participant only after aligning its device (AlignUnit):
+	Posture [][]float64 // each state's mean axis means (x, y, z) once turned, in the units read; nil without axes
+	Offsets []bool      // output columns that carry a participant's offset; nil when the states are not aligned
+	Prior   float64     // pull of a rotation toward none, in windows' worth per window
+	Rounds  int         // most alternations of state assignment and device fit for one participant
 }
+
+// Aligned reports whether a participant's device is aligned before its windows are assigned.
+func (s *States) Aligned() bool { return s.Offsets != nil }
 
 // ChoiceRule names how the number of states is chosen from a range.
 const ChoiceRule = "largest Calinski–Harabasz index on a sample of windows (Caliński & Harabasz 1974)"
@@ -88,13 +124,11 @@ func SampleRate(size, total int) float64 {
 // (TestChoiceRulesOnPlantedCohorts) the silhouette picks too few states: it prefers the coarse
 // split between rest and movement, merging states the data holds apart.
 func FitStates(ctx context.Context, sample *mat.Dense, opts Options) (*States, error) {
-	if len(opts.States) == 0 {
-		return nil, fmt.Errorf("profile: no number of states given: %w; pass --states 6 or a range such as 2-10", ErrOption)
+	if err := checkStates(opts.States); err != nil {
+		return nil, err
 	}
-	for i, k := range opts.States {
-		if k < 2 || (i > 0 && k <= opts.States[i-1]) {
-			return nil, fmt.Errorf("profile: states %v: %w; give increasing numbers ≥ 2", opts.States, ErrOption)
-		}
+	if opts.Rule == ByValley && len(opts.States) > 1 {
+		return fitByValley(ctx, sample, opts)
 	}
 	n, dim := 0, 0
 	if sample != nil {
@@ -189,6 +223,59 @@ func FitStates(ctx context.Context, sample *mat.Dense, opts Options) (*States, e
 	}
 	s.Centroids = best.Centroids
 	s.Centroids, _ = orderStates(s.Centroids)
+	return s, nil
+}
+
+// fitByValley fits the largest number of states by k-means and merges neighbours that form one
+// mode (MergeStates), down to at most the smallest number.
+func fitByValley(ctx context.Context, sample *mat.Dense, opts Options) (*States, error) {
+	n := 0
+	if sample != nil {
+		n, _ = sample.Dims()
+	}
+	kmax := opts.States[len(opts.States)-1]
+	if n < 2*kmax {
+		return nil, fmt.Errorf("profile: %d sampled windows for up to %d states: %w; raise --sample or lower --states", n, kmax, ErrData)
+	}
+	if opts.Valley == 0 {
+		opts.Valley = DefaultValley
+	}
+	r, err := cluster.KMeans(ctx, sample, cluster.KMeansOptions{K: kmax, Restarts: opts.Restarts, Seed: SubSeed(opts.Seed, "states", 0), Workers: opts.Workers})
+	if err != nil {
+		return nil, fmt.Errorf("profile: %w", err)
+	}
+	steps := kmax - opts.States[0] + 1
+	if opts.Progress != nil {
+		opts.Progress("fitting movement states", 1, steps)
+	}
+	lab, merges, err := MergeStates(sample, r.Labels, kmax, opts.States[0], opts.Valley, func(done int) {
+		if opts.Progress != nil {
+			opts.Progress("fitting movement states", 1+done, steps)
+		}
+	})
+	if err != nil {
+		return nil, err
+	}
+	k := kmax - len(merges)
+	_, dim := sample.Dims()
+	cent := mat.NewDense(k, dim, nil)
+	cnt := make([]float64, k)
+	for i, l := range lab {
+		cnt[l]++
+		row := cent.RawRowView(l)
+		for c, v := range sample.RawRowView(i) {
+			row[c] += v
+		}
+	}
+	for l := 0; l < k; l++ {
+		row := cent.RawRowView(l)
+		for c := range row {
+			row[c] /= cnt[l]
+		}
+	}
+	s := &States{K: k, Sampled: n, Merges: merges,
+		Rule: fmt.Sprintf("%d states fitted, then neighbours that form one mode merged (valley ratio ≥ %.2f; after Hennig 2010)", kmax, opts.Valley)}
+	s.Centroids, _ = orderStates(cent)
 	return s, nil
 }
 

@@ -46,29 +46,39 @@ func plantedBlocks() ([][]float64, [][]int) {
 func TestFitStatesRecoversPlantedStates(t *testing.T) {
 	blocks, truth := plantedBlocks()
 	sample := Sample(normalize.SliceBlocks(blocks), 3, 2000, 4000, 1)
-	var reported []int // done counts, after each candidate
-	s, err := FitStates(context.Background(), sample, Options{States: []int{2, 3, 4, 5, 6}, Seed: 1, Progress: func(_ string, done, total int) {
-		if total != 5 {
-			t.Errorf("progress total %d, want the 5 candidates", total)
+	// The valley rule fits 6 states and merges the two pairs that split a planted state (one
+	// progress step for the fit and one per merge); Calinski–Harabasz scores the 5 candidates.
+	for _, c := range []struct {
+		rule     Rule
+		progress string
+		cands    int
+		merges   int
+	}{{ByValley, "[1 2 3]", 0, 2}, {ByCalinskiHarabasz, "[1 2 3 4 5]", 5, 0}} {
+		var reported []int
+		s, err := FitStates(context.Background(), sample, Options{States: []int{2, 3, 4, 5, 6}, Rule: c.rule, Seed: 1, Progress: func(_ string, done, total int) {
+			reported = append(reported, done)
+		}})
+		if err != nil {
+			t.Fatal(err)
 		}
-		reported = append(reported, done)
-	}})
+		if fmt.Sprint(reported) != c.progress {
+			t.Errorf("%v: progress %v, want %s", c.rule, reported, c.progress)
+		}
+		if s.K != 4 || len(s.Candidates) != c.cands || len(s.Merges) != c.merges {
+			t.Fatalf("%v: chose %d states, %d candidates, %d merges; want 4, %d, %d", c.rule, s.K, len(s.Candidates), len(s.Merges), c.cands, c.merges)
+		}
+		var got, want []int
+		for u, b := range blocks {
+			got = append(got, s.Assign(b)...)
+			want = append(want, truth[u]...)
+		}
+		if ari, _ := cluster.AdjustedRand(got, want); ari < 0.99 {
+			t.Errorf("%v: ARI %.4f against the planted states", c.rule, ari)
+		}
+	}
+	s, err := FitStates(context.Background(), sample, Options{States: []int{4}, Seed: 1})
 	if err != nil {
 		t.Fatal(err)
-	}
-	if fmt.Sprint(reported) != "[1 2 3 4 5]" {
-		t.Errorf("progress after each candidate: %v, want [1 2 3 4 5]", reported)
-	}
-	if s.K != 4 || len(s.Candidates) != 5 {
-		t.Fatalf("chose %d states from %d candidates, want 4 of 5", s.K, len(s.Candidates))
-	}
-	var got, want []int
-	for u, b := range blocks {
-		got = append(got, s.Assign(b)...)
-		want = append(want, truth[u]...)
-	}
-	if ari, _ := cluster.AdjustedRand(got, want); ari < 0.99 {
-		t.Errorf("ARI %.4f against the planted states", ari)
 	}
 	if _, err := Describe(blocks, [][]int{s.Assign(blocks[0])}, 3, 4); !errors.Is(err, ErrData) {
 		t.Errorf("mismatched lengths: %v", err)

@@ -20,7 +20,7 @@ import (
 // ModelFormat and ModelVersion identify the model file's schema.
 const (
 	ModelFormat  = "cohortmix model"
-	ModelVersion = 1
+	ModelVersion = 2 // 2: log scales, the align step's axes and the aligned states' postures
 )
 
 // ErrModel is wrapped by every error about a model file.
@@ -53,13 +53,16 @@ type ModelRead struct {
 
 // ModelNorm is a frozen normalize.Fit.
 type ModelNorm struct {
+	Logged     []bool      `json:"logged,omitempty"`    // features on a started log scale, log(x + log_shift)
+	LogShift   []float64   `json:"log_shift,omitempty"` // the start c of each logged feature
+	Axes       []int       `json:"axes,omitempty"`      // the columns of the axis means the align step turns
 	Within     string      `json:"within"`
 	Touched    []bool      `json:"touched"`
 	TouchedBy  string      `json:"touched_by"`
 	RestShare  float64     `json:"rest_share"`
 	QuietScore []int       `json:"quiet_score"`
-	QuietMid   []float64   `json:"quiet_mid"`
-	QuietScale []float64   `json:"quiet_scale"`
+	QuietMid   []float64   `json:"quiet_mid,omitempty"`   // rest baseline only
+	QuietScale []float64   `json:"quiet_scale,omitempty"` // rest baseline only
 	Scale      string      `json:"scale"`
 	Center     []float64   `json:"center"`
 	Spread     []float64   `json:"spread"`
@@ -74,6 +77,11 @@ type ModelStates struct {
 	Names     []string    `json:"names"`
 	Centroids [][]float64 `json:"centroids"`
 	Means     [][]float64 `json:"feature_means"` // each state's mean of the original features, for matching states on refresh
+	// Aligned states (within align): what places a participant's device.
+	Posture [][]float64 `json:"posture,omitempty"`        // each state's mean axis means once turned, in the units read
+	Offsets []bool      `json:"offset_columns,omitempty"` // the normalized columns that carry a participant's offset
+	Prior   float64     `json:"rotation_prior,omitempty"` // pull of a rotation toward none, in windows' worth per window
+	Rounds  int         `json:"rounds,omitempty"`         // most alternations of states and device for one participant
 }
 
 // ModelGrouping holds the group centres in the grouping space.
@@ -100,10 +108,11 @@ func NewModel(r *Result, read cohort.ReadOptions, featureMeds [][3]float64) *Mod
 	m := &Model{Format: ModelFormat, Version: ModelVersion, Created: r.Created.UTC(), Tool: r.Tool + " " + r.Version,
 		Features: r.Features, Settings: r.Settings, FeatureMeds: featureMeds,
 		Read: ModelRead{ID: read.ID, Order: read.Order, Wave: read.Wave, Missing: read.Missing.String(), MinWindows: read.MinWindows},
-		Normalize: ModelNorm{Within: n.Within.String(), Touched: n.Touched, TouchedBy: n.TouchedBy, RestShare: n.RestShare,
+		Normalize: ModelNorm{Logged: n.Logged, LogShift: n.LogShift, Axes: n.Axes, Within: n.Within.String(), Touched: n.Touched, TouchedBy: n.TouchedBy, RestShare: n.RestShare,
 			QuietScore: n.QuietScore, QuietMid: n.QuietMid, QuietScale: n.QuietScale, Scale: n.ScaleKind.String(),
 			Center: n.Center, Spread: n.Spread, ICC: n.ICC},
-		States:   ModelStates{K: r.States.K, Names: r.StateNames, Centroids: rows(r.States.Centroids), Means: stateMeans(r)},
+		States: ModelStates{K: r.States.K, Names: r.StateNames, Centroids: rows(r.States.Centroids), Means: stateMeans(r),
+			Posture: r.States.Posture, Offsets: r.States.Offsets, Prior: r.States.Prior, Rounds: r.States.Rounds},
 		Grouping: ModelGrouping{Method: r.Grouping.Method.String(), K: r.Grouping.K, Names: r.GroupNames, Centroids: r.Grouping.Centroids, Atypical: r.AtypicalCut},
 	}
 	m.Grouping.Shares, _, _ = groupMeans(r)
@@ -203,15 +212,38 @@ func (m *Model) check() error {
 		return errors.New("no features")
 	}
 	n := m.Normalize
-	if _, err := normalize.ParseWithin(n.Within); err != nil {
+	within, err := normalize.ParseWithin(n.Within)
+	if err != nil {
 		return err
 	}
 	if _, err := normalize.ParseScale(n.Scale); err != nil {
 		return err
 	}
-	for name, l := range map[string]int{"touched": len(n.Touched), "center": len(n.Center), "spread": len(n.Spread), "quiet_mid": len(n.QuietMid), "quiet_scale": len(n.QuietScale), "icc": len(n.ICC)} {
+	sizes := map[string]int{"touched": len(n.Touched), "center": len(n.Center), "spread": len(n.Spread), "icc": len(n.ICC)}
+	if within == normalize.WithinRest {
+		sizes["quiet_mid"], sizes["quiet_scale"] = len(n.QuietMid), len(n.QuietScale)
+	}
+	if n.Logged != nil || n.LogShift != nil {
+		sizes["logged"], sizes["log_shift"] = len(n.Logged), len(n.LogShift)
+	}
+	for name, l := range sizes {
 		if l != d {
 			return fmt.Errorf("normalize.%s has %d entries for %d features", name, l, d)
+		}
+	}
+	for j, c := range n.LogShift {
+		if n.Logged[j] && !(c > 0 && !math.IsInf(c, 0)) {
+			return fmt.Errorf("normalize.log_shift[%d] is %v; a log scale starts above 0", j, c)
+		}
+	}
+	if n.Axes != nil {
+		if len(n.Axes) != 3 || n.Axes[0] == n.Axes[1] || n.Axes[0] == n.Axes[2] || n.Axes[1] == n.Axes[2] {
+			return fmt.Errorf("normalize.axes is %v; it names three different features", n.Axes)
+		}
+		for _, a := range n.Axes {
+			if a < 0 || a >= d {
+				return fmt.Errorf("normalize.axes names feature %d of %d", a, d)
+			}
 		}
 	}
 	for _, j := range n.QuietScore {
@@ -234,8 +266,13 @@ func (m *Model) check() error {
 			return err
 		}
 	}
-	if err := finiteRows("normalize.center", [][]float64{n.Center, n.QuietMid}, d); err != nil {
+	if err := finiteRows("normalize.center", [][]float64{n.Center}, d); err != nil {
 		return err
+	}
+	if within == normalize.WithinRest {
+		if err := finiteRows("normalize.quiet_mid", [][]float64{n.QuietMid}, d); err != nil {
+			return err
+		}
 	}
 	s := m.States
 	if s.K < 1 || len(s.Centroids) != s.K || len(s.Names) != s.K {
@@ -250,6 +287,19 @@ func (m *Model) check() error {
 	for i, row := range s.Means {
 		if len(row) != d {
 			return fmt.Errorf("states.feature_means row %d has %d values for %d features", i, len(row), d)
+		}
+	}
+	if within == normalize.WithinAlign {
+		if len(s.Offsets) != dim || s.Rounds < 0 || !(s.Prior >= 0) || math.IsInf(s.Prior, 0) {
+			return fmt.Errorf("states: the align step needs offset_columns for the %d normalized columns (%d given), rounds ≥ 0 and a rotation_prior ≥ 0", dim, len(s.Offsets))
+		}
+		if n.Axes != nil {
+			if len(s.Posture) != s.K {
+				return fmt.Errorf("states: %d posture rows for %d states", len(s.Posture), s.K)
+			}
+			if err := finiteRows("states.posture", s.Posture, 3); err != nil {
+				return err
+			}
 		}
 	}
 	g := m.Grouping
@@ -296,7 +346,7 @@ func (m *Model) NormFit() *normalize.Fit {
 	n := m.Normalize
 	w, _ := normalize.ParseWithin(n.Within)
 	sc, _ := normalize.ParseScale(n.Scale)
-	f := &normalize.Fit{Features: m.Features, Within: w, Touched: n.Touched, TouchedBy: n.TouchedBy, RestShare: n.RestShare,
+	f := &normalize.Fit{Features: m.Features, Logged: n.Logged, LogShift: n.LogShift, Axes: n.Axes, Within: w, Touched: n.Touched, TouchedBy: n.TouchedBy, RestShare: n.RestShare,
 		QuietScore: n.QuietScore, QuietMid: n.QuietMid, QuietScale: n.QuietScale, ScaleKind: sc, Center: n.Center, Spread: n.Spread, ICC: n.ICC}
 	if n.PCA != nil {
 		k := len(n.PCA[0])
@@ -315,5 +365,6 @@ func (m *Model) StateFit() *profile.States {
 	for i, r := range m.States.Centroids {
 		c.SetRow(i, r)
 	}
-	return &profile.States{K: m.States.K, Centroids: c, Rule: "from the model file"}
+	st := m.States
+	return &profile.States{K: st.K, Centroids: c, Rule: "from the model file", Posture: st.Posture, Offsets: st.Offsets, Prior: st.Prior, Rounds: st.Rounds}
 }

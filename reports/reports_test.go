@@ -235,8 +235,8 @@ func TestModelRoundTripAndDamage(t *testing.T) {
 	good, _ := os.ReadFile(p)
 	cases := []struct{ name, edit, want string }{
 		{"not JSON", "}{", "not a model file"},
-		{"older schema", strings.Replace(string(good), `"version": 1`, `"version": 0`, 1), "schema version 0, this tool reads version 1"},
-		{"other file", `{"format":"something else","version":1}`, `format is "something else"`},
+		{"older schema", strings.Replace(string(good), `"version": 2`, `"version": 1`, 1), "schema version 1, this tool reads version 2"},
+		{"other file", `{"format":"something else","version":2}`, `format is "something else"`},
 		{"unknown field", strings.Replace(string(good), `"tool":`, `"extra": 1, "tool":`, 1), "damaged or hand-edited"},
 		{"wrong size", strings.Replace(string(good), `"k": 4`, `"k": 5`, 1), "states: k = 5 with 4 centroids"},
 		{"bad spread", strings.Replace(string(good), `"spread": [

@@ -4,6 +4,7 @@ import (
 	"context"
 	"fmt"
 	"math"
+	"slices"
 	"sort"
 	"strings"
 	"sync"
@@ -26,11 +27,16 @@ type analysisOptions struct {
 	Method    cohort.Method
 	Criterion cohort.Criterion
 	Bootstrap int
-	Seed      uint64
-	Workers   int
-	Progress  func(step string)
-	Passes    func(step string, done, total int) // progress within the passes over the participants
-	Steps     func(step string, done, total int) // progress within fitting the states and the groups
+	// Axes names the three features of the axis means that the align step turns; nil finds them
+	// (normalize.FindAxes), and an empty non-nil list means none.
+	Axes       []string
+	StatesRule profile.Rule
+	Valley     float64 // see profile.MergeStates; 0 means profile.DefaultValley
+	Seed       uint64
+	Workers    int
+	Progress   func(step string)
+	Passes     func(step string, done, total int) // progress within the passes over the participants
+	Steps      func(step string, done, total int) // progress within fitting the states and the groups
 }
 
 // normSample is about how many windows the robust scales and the PCA are fitted on.
@@ -45,7 +51,53 @@ type fitted struct {
 	medians [][]float64           // each unit's median of each feature
 	desc    []profile.Description // the states in the original units
 	labels  *profile.LabelTable   // states × known labels, when labels are given
+	devices []normalize.Device    // each unit's device, when the states are aligned
 	g       *cohort.Grouping
+}
+
+// firstWindowsLogStart is each feature's first quartile over the first windows of up to 20
+// participants, the start of its log scale (normalize.Options.LogStart).
+func firstWindowsLogStart(t *cohort.Table) []float64 {
+	var units [][]float64
+	for u := 0; u < min(20, len(t.Units)); u++ {
+		if x, err := t.Block(u, nil); err == nil {
+			units = append(units, x[:min(len(x), 500*len(t.Features))])
+		}
+	}
+	return normalize.LogStartOf(units, len(t.Features))
+}
+
+// findAxes resolves the axis means the align step turns: the named features, none (an empty
+// list), or, for nil, the triple that normalize.FindAxes finds on the first windows of up to 20
+// participants. The note says which, for the workbook.
+func findAxes(t *cohort.Table, names []string) ([]int, string, error) {
+	if names != nil {
+		if len(names) == 0 {
+			return nil, "the align step turns no axis means (--axes none): it shifts each feature only", nil
+		}
+		var axes []int
+		for _, n := range names {
+			j := slices.Index(t.Features, n)
+			if j < 0 {
+				return nil, "", fmt.Errorf("--axes names %s, which is not among the features %v: %w; name the three axis-mean columns in x, y, z order, or pass --axes none", n, t.Features, cohort.ErrMismatch)
+			}
+			axes = append(axes, j)
+		}
+		return axes, fmt.Sprintf("the align step turns the axis means %s", strings.Join(names, ", ")), nil
+	}
+	var rows []float64
+	for u := 0; u < min(20, len(t.Units)); u++ {
+		x, err := t.Block(u, nil)
+		if err != nil {
+			return nil, "", err
+		}
+		rows = append(rows, x[:min(len(x), 500*len(t.Features))]...)
+	}
+	axes, why := normalize.FindAxes(t.Features, rows)
+	if axes == nil {
+		return nil, "the align step found no axis means to turn (" + why + "); it shifts each feature only; name them with --axes", nil
+	}
+	return axes, "the align step turns the axis means " + why, nil
 }
 
 // analyze connects the stages: read → normalize → states and signatures → grouping → what sets
@@ -108,29 +160,90 @@ func fitTable(ctx context.Context, t *cohort.Table, o analysisOptions) (*fitted,
 	if total := t.Quality.WindowsIn; o.Norm.SampleRate == 0 && total > normSample {
 		o.Norm.SampleRate = float64(normSample) / float64(total) // robust scales and PCA from a sample
 	}
+	d := len(t.Features)
+	if o.Norm.Log {
+		o.Norm.Lowest = make([]float64, d)
+		for j := range t.Features {
+			o.Norm.Lowest[j] = t.Lowest(j)
+		}
+	}
+	var notes []string
+	var err error
+	if o.Norm.Within == normalize.WithinAlign {
+		axes, note, err := findAxes(t, o.Axes)
+		if err != nil {
+			return nil, err
+		}
+		o.Norm.Axes = axes
+		notes = append(notes, note)
+	}
 	raw := &rawBlocks{t: t}
-	// The states' sample is drawn in the normalizing pass, from the same hash as its own sample.
 	usable := t.Quality.WindowsIn - t.Quality.WindowsDropped - t.Quality.WindowsExcluded
-	o.Norm.KeepRate = profile.SampleRate(o.Sample, usable)
-	// Room for the expected sample and a margin, so that it is rarely copied while it grows.
-	expect := o.Norm.KeepRate * float64(usable)
-	kept := make([]float64, 0, len(t.Features)*int(expect+4*math.Sqrt(expect)+16))
-	o.Norm.Keep = func(_, _ int, row []float64) { kept = append(kept, row...) }
-	o.Norm.Workers, o.Norm.Progress = o.Workers, o.Passes
-	fit, err := normalize.FitBlocks(ctx, t.Features, raw, o.Norm)
-	if err == nil {
-		err = raw.err
+	var fit *normalize.Fit
+	var states *profile.States
+	if o.Norm.Within == normalize.WithinAlign {
+		// The scaling, the states and the devices are fitted on about --sample windows from
+		// participants chosen by their id, about 250 windows each; only their windows are read.
+		unitRate, windowRate := profile.AlignSample(o.Sample, len(t.Units), usable)
+		var units [][]float64
+		for u, un := range t.Units {
+			key := normalize.UnitKey(un.ID, un.Wave)
+			if !normalize.UnitSampled(o.Seed, key, unitRate) {
+				continue
+			}
+			x, err := t.Block(u, nil)
+			if err != nil {
+				return nil, err
+			}
+			var rows []float64
+			for w := 0; w*d < len(x); w++ {
+				if normalize.WindowSampled(o.Seed, key, w, windowRate) {
+					rows = append(rows, x[w*d:(w+1)*d]...)
+				}
+			}
+			if len(rows) > 0 {
+				units = append(units, rows)
+			}
+			if o.Passes != nil {
+				o.Passes("reading the fitting sample", u+1, len(t.Units))
+			}
+		}
+		if o.Norm.Log {
+			o.Norm.LogStart = normalize.LogStartOf(units, d)
+		}
+		o.Norm.SampleRate, o.Norm.Workers = 1, o.Workers
+		if fit, err = normalize.FitBlocks(ctx, t.Features, normalize.SliceBlocks(units), o.Norm); err != nil {
+			return nil, err
+		}
+		fit.Warnings = append(fit.Warnings, notes...)
+		step("fitting movement states")
+		states, err = profile.FitAligned(ctx, units, fit, profile.AlignOptions{States: o.States, Valley: o.Valley, Seed: o.Seed, Workers: o.Workers, Progress: o.Steps})
+	} else {
+		if o.Norm.Log {
+			o.Norm.LogStart = firstWindowsLogStart(t)
+		}
+		// The states' sample is drawn in the normalizing pass, from the same hash as its own sample.
+		o.Norm.KeepRate = profile.SampleRate(o.Sample, usable)
+		// Room for the expected sample and a margin, so that it is rarely copied while it grows.
+		expect := o.Norm.KeepRate * float64(usable)
+		kept := make([]float64, 0, d*int(expect+4*math.Sqrt(expect)+16))
+		o.Norm.Keep = func(_, _ int, row []float64) { kept = append(kept, row...) }
+		o.Norm.Workers, o.Norm.Progress = o.Workers, o.Passes
+		fit, err = normalize.FitBlocks(ctx, t.Features, raw, o.Norm)
+		if err == nil {
+			err = raw.err
+		}
+		if err != nil {
+			return nil, err
+		}
+		step("fitting movement states")
+		var sample *mat.Dense
+		if len(kept) > 0 {
+			rows := fit.Cohort(kept)
+			sample = mat.NewDense(len(rows)/fit.OutDim(), fit.OutDim(), rows)
+		}
+		states, err = profile.FitStates(ctx, sample, profile.Options{States: o.States, Rule: o.StatesRule, Valley: o.Valley, Seed: o.Seed, Workers: o.Workers, Progress: o.Steps})
 	}
-	if err != nil {
-		return nil, err
-	}
-	step("fitting movement states")
-	var sample *mat.Dense
-	if len(kept) > 0 {
-		rows := fit.Cohort(kept)
-		sample = mat.NewDense(len(rows)/fit.OutDim(), fit.OutDim(), rows)
-	}
-	states, err := profile.FitStates(ctx, sample, profile.Options{States: o.States, Seed: o.Seed, Workers: o.Workers, Progress: o.Steps})
 	if err != nil {
 		return nil, err
 	}
@@ -189,16 +302,33 @@ func assignWindows(ctx context.Context, t *cohort.Table, fit *normalize.Fit, sta
 	type unitResult struct {
 		desc   *profile.Describer
 		labels []int
+		icc    normalize.ICCPart
 	}
 	raw := &rawBlocks{t: t}
 	var bufs sync.Pool // transformed windows, one buffer per worker at a time
+	var iccAfter *normalize.ICCSum
+	if states.Aligned() {
+		iccAfter = normalize.NewICCSum(fit.OutDim())
+		f.devices = make([]normalize.Device, len(t.Units))
+	}
 	err := normalize.EachBlock(ctx, raw, workers, func(i int, x []float64) (unitResult, error) {
 		bp, _ := bufs.Get().(*[]float64)
 		if bp == nil {
 			bp = new([]float64)
 		}
-		*bp = fit.ApplyUnitInto(*bp, i, x)
-		labels := states.Assign(*bp)
+		var labels []int
+		var icc normalize.ICCPart
+		if states.Aligned() {
+			dev, y, lab, err := states.AlignUnit(fit, x, *bp)
+			if err != nil {
+				return unitResult{}, err
+			}
+			*bp, labels, f.devices[i] = y, lab, dev
+			icc = normalize.UnitICCPart(y, fit.OutDim())
+		} else {
+			*bp = fit.ApplyUnitInto(*bp, i, x)
+			labels = states.Assign(*bp)
+		}
 		bufs.Put(bp)
 		f.sigs[i] = profile.Signatures(labels, states.K)
 		f.medians[i] = make([]float64, d)
@@ -213,9 +343,12 @@ func assignWindows(ctx context.Context, t *cohort.Table, fit *normalize.Fit, sta
 		if err := part.Add(x, labels); err != nil {
 			return unitResult{}, err
 		}
-		return unitResult{part, labels}, nil
+		return unitResult{part, labels, icc}, nil
 	}, func(i int, r unitResult) error {
 		ds.Merge(r.desc)
+		if iccAfter != nil {
+			iccAfter.Add(r.icc)
+		}
 		if lc != nil {
 			lc.Add(r.labels, t.Units[i].Labels)
 		}
@@ -231,6 +364,9 @@ func assignWindows(ctx context.Context, t *cohort.Table, fit *normalize.Fit, sta
 		return nil, err
 	}
 	f.desc = ds.Descriptions()
+	if iccAfter != nil && fit.PCA == nil {
+		fit.ICCAfter = iccAfter.ICC() // the columns are the features, aligned and scaled
+	}
 	if lc != nil {
 		var err error
 		if f.labels, err = lc.Table(); err != nil {

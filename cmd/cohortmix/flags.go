@@ -9,6 +9,7 @@ import (
 
 	"github.com/cohortmix/cohortmix/cohort"
 	"github.com/cohortmix/cohortmix/normalize"
+	"github.com/cohortmix/cohortmix/profile"
 	"github.com/cohortmix/cohortmix/reports"
 	"github.com/schollz/progressbar/v3"
 	"github.com/spf13/cobra"
@@ -41,6 +42,10 @@ type mainFlags struct {
 	MinWindows             int
 	Within                 string
 	WithinFeatures         []string
+	Axes                   string
+	Log                    string
+	StatesRule             string
+	Valley                 float64
 	OffsetICC, RestShare   float64
 	Scale                  string
 	PCA                    string
@@ -67,13 +72,17 @@ func (m *mainFlags) register(cmd *cobra.Command) {
 	f.StringSliceVar(&m.Features, "features", nil, "feature name patterns, e.g. 'mean_*,vm_*' (default: every other numeric column)")
 	f.StringVar(&m.Missing, "missing", "drop", "missing feature cells: drop (the window) or impute (the participant's median)")
 	f.IntVar(&m.MinWindows, "min-windows", 20, "exclude participants with fewer usable windows")
-	f.StringVar(&m.Within, "within", "rest", "within-participant step: rest, centre, robust-z or none")
-	f.StringSliceVar(&m.WithinFeatures, "within-features", nil, "features the within step touches: patterns, or * for all (default: those found to carry offsets)")
+	f.StringVar(&m.Within, "within", "align", "within-participant step: align (each device's rotation and offsets, fitted with the states), rest, centre, robust-z or none")
+	f.StringSliceVar(&m.WithinFeatures, "within-features", nil, "features the within step touches: patterns, or * for all (default: every feature with align, otherwise those found to carry offsets)")
+	f.StringVar(&m.Axes, "axes", "auto", "the axis-mean features the align step turns, in x,y,z order; auto finds them by name; none turns nothing")
+	f.StringVar(&m.Log, "log", "auto", "auto takes every feature that is never below 0 on a log scale; none keeps every feature as read")
 	f.Float64Var(&m.OffsetICC, "offset-icc", 0.3, "features with at least this ICC are taken to carry device offsets")
 	f.Float64Var(&m.RestShare, "rest-share", 0.1, "share of a participant's quietest windows that defines its rest baseline")
 	f.StringVar(&m.Scale, "scale", "z", "cohort-wide scaling: z or robust-z")
-	f.StringVar(&m.PCA, "pca", "0.99", "PCA: a variance share in (0,1], a number of components, or off")
-	f.StringVar(&m.States, "states", "2-10", "number of movement states, or a range to choose from")
+	f.StringVar(&m.PCA, "pca", "off", "PCA: a variance share in (0,1], a number of components, or off")
+	f.StringVar(&m.States, "states", "2-12", "number of movement states, or a range to choose from")
+	f.Float64Var(&m.Valley, "valley", profile.DefaultValley, "with --states-rule valley: two states merge when the density of their windows between them keeps at least this share of its height at them")
+	f.StringVar(&m.StatesRule, "states-rule", "valley", "how a range of states is decided: valley (fit the most, merge states that form one mode) or ch (largest Calinski–Harabasz index)")
 	f.IntVar(&m.Sample, "sample", 50000, "windows sampled to fit the states")
 	f.StringVar(&m.Groups, "groups", "2-8", "number of participant groups, or a range to choose from")
 	f.StringVar(&m.Method, "method", "auto", "grouping: auto (ward-hellinger, or kmeans-clr above 10,000 participants), ward-hellinger, pam-aitchison, pam-js or kmeans-clr")
@@ -112,6 +121,39 @@ func (m *mainFlags) options(inputs []string) (analysisOptions, error) {
 		return o, &flagError{err}
 	}
 	o.Norm.WithinFeatures, o.Norm.OffsetICC, o.Norm.RestShare = m.WithinFeatures, m.OffsetICC, m.RestShare
+	switch a := strings.TrimSpace(m.Axes); {
+	case a == "auto":
+	case a == "none":
+		o.Axes = []string{}
+	default:
+		o.Axes = strings.Split(a, ",")
+		for i := range o.Axes {
+			o.Axes[i] = strings.TrimSpace(o.Axes[i])
+		}
+		if len(o.Axes) != 3 || o.Axes[0] == "" || o.Axes[1] == "" || o.Axes[2] == "" {
+			return o, flagErrorf("--axes %q: name three features in x,y,z order, such as mean_x,mean_y,mean_z, or auto, or none", m.Axes)
+		}
+	}
+	if m.Axes != "auto" && o.Norm.Within != normalize.WithinAlign {
+		return o, flagErrorf("--axes %s with --within %s: only the align step turns axis means; leave --axes out or use --within align", m.Axes, m.Within)
+	}
+	switch m.Log {
+	case "auto":
+		o.Norm.Log = true
+	case "none":
+	default:
+		return o, flagErrorf("--log %q: use auto or none", m.Log)
+	}
+	if o.StatesRule, err = profile.ParseRule(m.StatesRule); err != nil {
+		return o, &flagError{err}
+	}
+	if o.StatesRule == profile.ByCalinskiHarabasz && o.Norm.Within == normalize.WithinAlign {
+		return o, flagErrorf("--states-rule ch with --within align: the aligned states decide a range by the valley rule; use --within none, rest, centre or robust-z for ch")
+	}
+	if !(m.Valley > 0 && m.Valley <= 1) {
+		return o, flagErrorf("--valley %v: a share of the density's height lies in (0, 1]", m.Valley)
+	}
+	o.Valley = m.Valley
 	if !(m.OffsetICC > 0 && m.OffsetICC <= 1) || !(m.RestShare > 0 && m.RestShare <= 1) {
 		return o, flagErrorf("--offset-icc %v, --rest-share %v: both lie in (0, 1]", m.OffsetICC, m.RestShare)
 	}
@@ -156,6 +198,7 @@ func (m *mainFlags) settings() []reports.Setting {
 		s("id column", m.ID), s("order column", m.Order), s("wave column", m.Wave), s("label column", m.Label),
 		s("feature patterns", strings.Join(m.Features, ",")), s("missing cells", m.Missing), s("minimum windows", strconv.Itoa(m.MinWindows)),
 		s("within-participant step", m.Within), s("within-step features", strings.Join(m.WithinFeatures, ",")),
+		s("axis means (align)", m.Axes), s("log scale", m.Log), s("rule for a range of states", m.StatesRule), s("valley ratio", fmt.Sprint(m.Valley)),
 		s("offset ICC threshold", fmt.Sprint(m.OffsetICC)), s("rest share", fmt.Sprint(m.RestShare)),
 		s("cohort scaling", m.Scale), s("PCA", m.PCA), s("states", m.States), s("window sample", strconv.Itoa(m.Sample)),
 		s("groups", m.Groups), s("grouping method", m.Method), s("criterion for groups", m.Criterion),

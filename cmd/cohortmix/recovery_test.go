@@ -30,11 +30,25 @@ type variant struct {
 
 var recoveryVariantList = []variant{
 	{"defaults", nil},
-	{"rest, 6 states", []string{"--states", "6"}},
-	{"none, 6 states", []string{"--within", "none", "--states", "6"}},
-	{"centre, 6 states", []string{"--within", "centre", "--states", "6"}},
-	{"none, true states and groups", []string{"--within", "none", "--states", "{states}", "--groups", "{groups}"}},
-	{"none, 10 states", []string{"--within", "none", "--states", "10"}},
+	{"before this work", []string{"--within", "rest", "--log", "none", "--states", "2-10", "--states-rule", "ch", "--pca", "0.99"}},
+	{"issue: rest, 6 states", []string{"--within", "rest", "--log", "none", "--states", "6", "--pca", "0.99"}},
+	{"issue: none, 6 states", []string{"--within", "none", "--log", "none", "--states", "6", "--pca", "0.99"}},
+	{"issue: centre, 6 states", []string{"--within", "centre", "--log", "none", "--states", "6", "--pca", "0.99"}},
+	{"within none", []string{"--within", "none"}},
+	{"within centre", []string{"--within", "centre"}},
+	{"within rest", []string{"--within", "rest"}},
+	{"no log scale", []string{"--log", "none"}},
+	{"no rotation", []string{"--axes", "none"}},
+	{"6 states", []string{"--states", "6"}},
+	{"states by CH", []string{"--states-rule", "ch"}},
+	{"PCA 0.99", []string{"--pca", "0.99"}},
+	{"groups by stability", []string{"--criterion", "stability"}},
+	{"groups by silhouette", []string{"--criterion", "silhouette"}},
+	{"PAM Aitchison", []string{"--method", "pam-aitchison"}},
+	{"k-means CLR", []string{"--method", "kmeans-clr"}},
+	{"true numbers", []string{"--states", "{states}", "--groups", "{groups}"}},
+	{"valley 0.5", []string{"--valley", "0.5"}},
+	{"valley 0.6", []string{"--valley", "0.6"}},
 }
 
 // scenarioRun is one variant's result on one scenario.
@@ -68,12 +82,19 @@ func variantOptions(t testing.TB, path string, args []string, states, groups int
 // runScenario writes scenario seed to a temporary CSV (participants × windows), reads it once
 // and runs every variant on it, with the oracle (Ward on the participants' true shares) beside.
 func runScenario(t testing.TB, seed uint64, participants, windows int, variants []variant) (oracle scenarioRun, runs []scenarioRun, truthK int) {
+	return runCohort(t, synth.Options{Scenario: seed, Seed: seed, Participants: participants, Windows: windows, Labels: true}, variants)
+}
+
+// runCohort is runScenario for any synth cohort, the demo's scenario included.
+func runCohort(t testing.TB, so synth.Options, variants []variant) (oracle scenarioRun, runs []scenarioRun, truthK int) {
 	t.Helper()
 	path := filepath.Join(t.TempDir(), "scenario.csv")
-	truth, err := synth.WriteFile(path, synth.Options{Scenario: seed, Seed: seed, Participants: participants, Windows: windows, Labels: true})
+	so.Labels = true
+	truth, err := synth.WriteFile(path, so)
 	if err != nil {
 		t.Fatal(err)
 	}
+	seed := so.Scenario
 	tab, err := cohort.Read(context.Background(), []string{path}, cohort.ReadOptions{Label: "activity"})
 	if err != nil {
 		t.Fatal(err)
@@ -85,7 +106,14 @@ func runScenario(t testing.TB, seed uint64, participants, windows int, variants 
 	for i, tr := range truth {
 		want[i], shares[i], byID[tr.ID] = tr.Group, tr.Shares, tr.Group
 	}
-	truthK = len(synth.DrawScenario(seed).Groups)
+	if seed != 0 {
+		truthK = len(synth.DrawScenario(seed).Groups)
+	} else {
+		truthK = max(2, so.Groups)
+		if so.Groups == 0 {
+			truthK = 3
+		}
+	}
 	g, err := cohort.GroupSignatures(context.Background(), shares, cohort.GroupOptions{Method: cohort.WardHellinger, Groups: []int{truthK}, Seed: 1})
 	if err != nil {
 		t.Fatal(err)
@@ -114,7 +142,14 @@ func TestRecoveryBenchmark(t *testing.T) {
 		t.Skip("pass -recovery tune, report or a list of seeds (testdata/recovery.sh)")
 	}
 	var seeds []uint64
+	var demos []synth.Options
 	switch *recoverySet {
+	case "demo":
+		for _, f := range []int{12, 24} {
+			for s := uint64(1); s <= 3; s++ {
+				demos = append(demos, synth.Options{Seed: s, Features: f})
+			}
+		}
 	case "tune":
 		for s := uint64(1); s <= 20; s++ {
 			seeds = append(seeds, s)
@@ -149,16 +184,27 @@ func TestRecoveryBenchmark(t *testing.T) {
 		fmt.Fprintf(&b, " | %-18s", v.name)
 	}
 	b.WriteString("\n")
+	type job struct {
+		name, describe string
+		so             synth.Options
+	}
+	var jobs []job
 	for _, seed := range seeds {
-		oracle, runs, k := runScenario(t, seed, 200, 2016, variants)
-		fmt.Fprintf(&b, "%-5d %-70s %.2f (%d,%d) ", seed, synth.DrawScenario(seed).Describe(), oracle.ari, oracle.states, k)
+		jobs = append(jobs, job{fmt.Sprint(seed), synth.DrawScenario(seed).Describe(), synth.Options{Scenario: seed, Seed: seed, Participants: 200, Windows: 2016}})
+	}
+	for _, so := range demos {
+		jobs = append(jobs, job{fmt.Sprintf("d%d", so.Seed), fmt.Sprintf("demo scenario, %d features, 150 × 1,000", so.Features), so})
+	}
+	for _, j := range jobs {
+		oracle, runs, k := runCohort(t, j.so, variants)
+		fmt.Fprintf(&b, "%-5s %-70s %.2f (%d,%d) ", j.name, j.describe, oracle.ari, oracle.states, k)
 		aris[0] = append(aris[0], oracle.ari)
 		for i, r := range runs {
 			fmt.Fprintf(&b, " | %5.2f (%d,%d) w%.2f ", r.ari, r.states, r.groups, r.windowARI)
 			aris[i+1] = append(aris[i+1], r.ari)
 		}
 		b.WriteString("\n")
-		t.Logf("seed %d done", seed)
+		t.Logf("%s done", j.name)
 	}
 	fmt.Fprintf(&b, "%-5s %-70s %-12s", "mean", "", fmt.Sprintf("%.3f", mean(aris[0])))
 	for i := range variants {

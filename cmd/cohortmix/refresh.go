@@ -4,6 +4,7 @@ import (
 	"context"
 	"fmt"
 	"math"
+	"strconv"
 	"strings"
 	"time"
 
@@ -60,6 +61,11 @@ func refreshRun(ctx context.Context, o *refreshOptions) error {
 	}
 	if err := o.Flags.applyOptions(prev.Options, o.changed); err != nil {
 		return fmt.Errorf("%s: %w", o.Previous, err)
+	}
+	if !o.changed("states") {
+		// The previous number of states, so that each new state has a previous one to keep the
+		// name of and the groups are compared over the same states.
+		o.Flags.States = strconv.Itoa(prev.States.K)
 	}
 	ao, key, err := o.prepare()
 	if err != nil {
