@@ -105,6 +105,7 @@ type Grouping struct {
 	Note         string        // what the method did, e.g. a switch for a large cohort
 	Tree         *cluster.Tree // the participants' dendrogram, for Ward
 	CentroidTree *cluster.Tree // average linkage of the group centres, for a dendrogram of the groups
+	Stability    *GroupStability
 }
 
 // Embed maps a signature (shares) into the grouping space of the method.
@@ -253,6 +254,9 @@ func GroupSignatures(ctx context.Context, shares [][]float64, opts GroupOptions)
 		g.K = opts.Groups[0]
 	}
 	g.Labels = renumberBySize(labelsByK[g.K], g.K)
+	if g.Stability, err = groupStability(ctx, x, dist, g.Labels, g.K, opts); err != nil {
+		return nil, err
+	}
 	sil, err := silhouetteOf(x, dist, g.Labels, opts)
 	if err != nil {
 		return nil, err

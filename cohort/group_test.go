@@ -131,7 +131,7 @@ func TestGroupReportsProgress(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	want := []call{{"grouping for each number of groups", 3, 3}, {"gap statistic: reference sets", 5, 5}, {"stability: resamples", 5, 5}}
+	want := []call{{"grouping for each number of groups", 3, 3}, {"gap statistic: reference sets", 5, 5}, {"stability: resamples", 5, 5}, {"stability of each group: resamples", 5, 5}}
 	var ends []call
 	for i, c := range calls {
 		if i+1 == len(calls) || calls[i+1].step != c.step {

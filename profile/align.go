@@ -17,8 +17,9 @@ import (
 // AlignOptions sets up FitAligned. Zero values take the documented defaults.
 type AlignOptions struct {
 	States   []int   // candidate numbers of states, increasing (required): one fixes it; a range fits the largest and merges (see MergeStates) down to at most the smallest
-	Restarts int     // k-means++ restarts at each seeding; 0 means 3
-	Reseeds  int     // times the states are seeded again on the aligned windows; 0 means 2, −1 none
+	Restarts int     // k-means++ restarts at each seeding; 0 means 4
+	Reseeds  int     // times the states are seeded again on the aligned windows; 0 means 1, −1 none
+	Starts   int     // 1: no device at first; 2 (0 means 2): also each participant's offsets at its medians, the better kept
 	Rounds   int     // alternations of device and state updates after each seeding; 0 means 10
 	Prior    float64 // pull of each rotation toward none, in windows' worth per window; 0 means 0.1
 	Valley   float64 // see MergeStates; 0 means DefaultValley
@@ -56,9 +57,10 @@ type Merge struct {
 // participant apart (more time in one state than another) stays in its mixture, because the
 // offset is measured from the states and not from the participant's own median.
 //
-// k-means++ (cluster.KMeans) seeds the states on the unaligned windows and again, Reseeds
-// times, on the aligned ones, so that states that only looked apart because of the devices are
-// found again as one. With a range of numbers, the largest is fitted and neighbours that are
+// k-means++ (cluster.KMeans) seeds the states from two starts (no device; each participant's
+// offsets at its medians) and again, Reseeds times each, on the aligned windows, so that states
+// that only looked apart because of the devices are found again as one; the start with the
+// lower within-state sum of squares is kept. With a range of numbers, the largest is fitted and neighbours that are
 // one mode are merged (MergeStates).
 //
 // units holds each sampled participant's windows × features as read (row-major); fit must have
@@ -72,10 +74,15 @@ func FitAligned(ctx context.Context, units [][]float64, fit *normalize.Fit, opts
 		return nil, err
 	}
 	if opts.Restarts == 0 {
-		opts.Restarts = 3
+		opts.Restarts = 4
 	}
 	if opts.Reseeds == 0 {
-		opts.Reseeds = 2
+		opts.Reseeds = 1
+	} else if opts.Reseeds < 0 {
+		opts.Reseeds = 0
+	}
+	if opts.Starts == 0 {
+		opts.Starts = 2
 	}
 	if opts.Rounds == 0 {
 		opts.Rounds = 10
@@ -86,7 +93,7 @@ func FitAligned(ctx context.Context, units [][]float64, fit *normalize.Fit, opts
 	if opts.Valley == 0 {
 		opts.Valley = DefaultValley
 	}
-	if opts.Restarts < 0 || opts.Rounds < 0 || opts.Prior < 0 || opts.Valley < 0 || opts.Valley > 1 {
+	if opts.Restarts < 0 || opts.Rounds < 0 || opts.Prior < 0 || opts.Valley < 0 || opts.Valley > 1 || opts.Starts < 1 || opts.Starts > 2 {
 		return nil, fmt.Errorf("profile: FitAligned: restarts %d, rounds %d, prior %v, valley %v: %w", opts.Restarts, opts.Rounds, opts.Prior, opts.Valley, ErrOption)
 	}
 	kmax := opts.States[len(opts.States)-1]
@@ -100,16 +107,23 @@ func FitAligned(ctx context.Context, units [][]float64, fit *normalize.Fit, opts
 	}
 	logged := make([][]float64, len(units))
 	parallelFor(len(units), opts.Workers, func(u int) { logged[u] = fit.LogInto(nil, units[u]) })
-	steps := 2 * (opts.Reseeds + 1)
+	steps := opts.Starts * (1 + opts.Reseeds)
 	if len(opts.States) > 1 {
 		steps += kmax - opts.States[0]
 	}
-	// Two starts, kept by the lower within-state sum of squares: no device at all, and each
-	// participant's offsets at its own medians (centred), which puts large calibration offsets
-	// right from the first seeding.
+	// Two starts, each seeded 1 + Reseeds times, kept by the lower within-state sum of squares:
+	// no device at all, and each participant's offsets at its own medians (centred), which puts
+	// large calibration offsets right from the first seeding.
 	var a *aligner
 	bestSSE := math.Inf(1)
-	for start := 0; start < 2; start++ {
+	done := 0
+	progress := func() {
+		done++
+		if opts.Progress != nil {
+			opts.Progress("fitting movement states with each device aligned", done, steps)
+		}
+	}
+	for start := 0; start < opts.Starts; start++ {
 		b := &aligner{fit: fit, units: logged, d: d, dim: dim, prior: opts.Prior, workers: opts.Workers, offsets: offsetColumns(fit)}
 		b.devs = make([]normalize.Device, len(units))
 		b.ys = make([][]float64, len(units))
@@ -119,13 +133,12 @@ func FitAligned(ctx context.Context, units [][]float64, fit *normalize.Fit, opts
 			b.medianOffsets()
 			b.transform()
 		}
-		sse, err := b.descend(ctx, kmax, start, opts, func(done int) {
-			if opts.Progress != nil {
-				opts.Progress("fitting movement states with each device aligned", start*(opts.Reseeds+1)+done, steps)
+		var sse float64
+		for r := 0; r <= opts.Reseeds; r++ {
+			var err error
+			if sse, err = b.descend(ctx, kmax, cluster.SubSeed(opts.Seed, "states", 100*start+r), opts, progress); err != nil {
+				return nil, err
 			}
-		})
-		if err != nil {
-			return nil, err
 		}
 		if sse < bestSSE {
 			a, bestSSE = b, sse
@@ -134,11 +147,7 @@ func FitAligned(ctx context.Context, units [][]float64, fit *normalize.Fit, opts
 	s := &States{Sampled: total, Offsets: a.offsets, Prior: opts.Prior, Rounds: opts.Rounds, Rule: "fixed"}
 	if len(opts.States) > 1 {
 		s.Rule = fmt.Sprintf("%d states fitted with each device aligned, then neighbours that form one mode merged (valley ratio ≥ %.2f; after Hennig 2010)", kmax, opts.Valley)
-		merges, err := a.merge(opts.States[0], opts.Valley, func(done int) {
-			if opts.Progress != nil {
-				opts.Progress("fitting movement states with each device aligned", 2*(opts.Reseeds+1)+done, steps)
-			}
-		})
+		merges, err := a.merge(opts.States[0], opts.Valley, func(int) { progress() })
 		if err != nil {
 			return nil, err
 		}
@@ -151,37 +160,36 @@ func FitAligned(ctx context.Context, units [][]float64, fit *normalize.Fit, opts
 	return s, nil
 }
 
-// descend seeds kmax states by k-means++ and alternates device and state updates, Reseeds times
-// more on the aligned windows, and returns the final within-state sum of squares.
-func (a *aligner) descend(ctx context.Context, kmax, start int, opts AlignOptions, progress func(done int)) (float64, error) {
-	for r := 0; r <= opts.Reseeds; r++ {
+// descend seeds kmax states by k-means++ (with the given seed) on the windows as the devices
+// leave them, alternates device and state updates until no window changes state (at most
+// Rounds times), and returns the within-state sum of squares.
+func (a *aligner) descend(ctx context.Context, kmax int, seed uint64, opts AlignOptions, progress func()) (float64, error) {
+	if err := ctx.Err(); err != nil {
+		return 0, err
+	}
+	// At most 100 Lloyd iterations: the rounds that follow move the centres on.
+	km, err := cluster.KMeans(ctx, a.pooled(), cluster.KMeansOptions{K: kmax, Restarts: opts.Restarts, MaxIter: 100, Seed: seed, Workers: opts.Workers})
+	if err != nil {
+		return 0, fmt.Errorf("profile: %w", err)
+	}
+	a.k, a.centres = kmax, km.Centroids.RawMatrix().Data
+	a.assign()
+	a.recentre()
+	for round := 0; round < opts.Rounds; round++ {
 		if err := ctx.Err(); err != nil {
 			return 0, err
 		}
-		// At most 100 Lloyd iterations: the rounds that follow move the centres on.
-		km, err := cluster.KMeans(ctx, a.pooled(), cluster.KMeansOptions{K: kmax, Restarts: opts.Restarts, MaxIter: 100, Seed: SubSeed(opts.Seed, "states", 100*start+r), Workers: opts.Workers})
-		if err != nil {
-			return 0, fmt.Errorf("profile: %w", err)
+		if err := a.updateDevices(); err != nil {
+			return 0, err
 		}
-		a.k, a.centres = kmax, km.Centroids.RawMatrix().Data
-		a.assign()
+		a.transform()
 		a.recentre()
-		for round := 0; round < opts.Rounds; round++ {
-			if err := ctx.Err(); err != nil {
-				return 0, err
-			}
-			if err := a.updateDevices(); err != nil {
-				return 0, err
-			}
-			a.transform()
-			a.recentre()
-			if !a.assign() {
-				break // no window changed state: the devices and centres would stay as they are
-			}
+		if !a.assign() {
+			break // no window changed state: the devices and centres would stay as they are
 		}
-		a.recentre()
-		progress(r + 1)
 	}
+	a.recentre()
+	progress()
 	var sse float64
 	for u, y := range a.ys {
 		for w, l := range a.labels[u] {
@@ -617,19 +625,6 @@ func parallelFor(n, workers int, f func(i int)) {
 		}()
 	}
 	wg.Wait()
-}
-
-// SubSeed derives the seed of one random step from the run's seed, a name for the step and an
-// index (SplitMix64 of the three, Steele, Lea & Flood 2014), so that steps never share a stream.
-func SubSeed(seed uint64, step string, i int) uint64 {
-	z := seed
-	for _, b := range []byte(step) {
-		z = (z ^ uint64(b)) * 0x100000001b3 // FNV-1a over the name
-	}
-	z ^= uint64(i+1) * 0x9e3779b97f4a7c15
-	z = (z ^ (z >> 30)) * 0xbf58476d1ce4e5b9
-	z = (z ^ (z >> 27)) * 0x94d049bb133111eb
-	return z ^ (z >> 31)
 }
 
 // checkStates checks a list of candidate numbers of states.

@@ -240,7 +240,7 @@ func fitByValley(ctx context.Context, sample *mat.Dense, opts Options) (*States,
 	if opts.Valley == 0 {
 		opts.Valley = DefaultValley
 	}
-	r, err := cluster.KMeans(ctx, sample, cluster.KMeansOptions{K: kmax, Restarts: opts.Restarts, Seed: SubSeed(opts.Seed, "states", 0), Workers: opts.Workers})
+	r, err := cluster.KMeans(ctx, sample, cluster.KMeansOptions{K: kmax, Restarts: opts.Restarts, Seed: cluster.SubSeed(opts.Seed, "states", 0), Workers: opts.Workers})
 	if err != nil {
 		return nil, fmt.Errorf("profile: %w", err)
 	}

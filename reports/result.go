@@ -30,6 +30,8 @@ type UnitRow struct {
 	Flag       string
 	Share      []float64
 	Bout       []float64
+	Stay       float64 // share of bootstrap resamples in which it stayed with its group; NaN when not computed
+	Turn       float64 // degrees its device was turned by the align step; NaN without one
 }
 
 // Result is everything an analysis produced, as the reports show it.
@@ -59,6 +61,20 @@ type Result struct {
 	AtypicalCut   float64      // 99th percentile of members' distances to their group centre
 	FeatureRange  [][3]float64 // per feature: 1st percentile, median and 99th percentile of participant medians
 	Changes       *Changes     // set by assign and refresh
+	Sensitivity   []Sensitivity
+	// SensitivityNote reads the sensitivity table in a line.
+	SensitivityNote string
+	Notes           []string // what the run decided on its own that a reader should know (not warnings)
+}
+
+// Sensitivity is one row of the sensitivity table: the adjusted Rand index between the groups
+// made and the groups under one alternative choice, with the same number of groups.
+type Sensitivity struct {
+	Choice, Alternative string
+	Reference           bool // the settings used, refitted on the sampled windows: what the other sampled rows compare with
+	Participants        int
+	OnSample            bool // refitted on the sampled participants' sampled windows
+	ARI                 float64
 }
 
 // Cautions are shown wherever results reach a person's care.

@@ -10,7 +10,7 @@ import (
 
 // Cell styles of the workbook, made once per file.
 type styles struct {
-	title, header, text, wrap, integer, dec2, dec3, dec4, pct, pvalue, note, warn int
+	title, header, text, wrap, integer, dec1, dec2, dec3, dec4, pct, pvalue, note, warn int
 }
 
 // Palette: slate ink on warm paper, with a teal accent; chosen for this tool.
@@ -41,6 +41,7 @@ func newStyles(f *excelize.File) (*styles, error) {
 	s.text = mk(&excelize.Style{Font: font(false, 11, colInk)})
 	s.wrap = mk(&excelize.Style{Font: font(false, 11, colInk), Alignment: &excelize.Alignment{WrapText: true, Vertical: "top"}})
 	s.integer = mk(&excelize.Style{Font: font(false, 11, colInk), NumFmt: 1})
+	s.dec1 = mk(&excelize.Style{Font: font(false, 11, colInk), CustomNumFmt: numFmt("0.0")})
 	s.dec2 = mk(&excelize.Style{Font: font(false, 11, colInk), CustomNumFmt: numFmt("0.00")})
 	s.dec3 = mk(&excelize.Style{Font: font(false, 11, colInk), CustomNumFmt: numFmt("0.000")})
 	s.dec4 = mk(&excelize.Style{Font: font(false, 11, colInk), CustomNumFmt: numFmt("0.0000")})
@@ -176,6 +177,23 @@ func (t *table) heading(names ...string) error {
 }
 
 func (t *table) blank() { t.row++ }
+
+// merge joins the first cols cells of the last row written (a note that spans the table) and
+// makes the row tall enough for its text over their joint width.
+func (t *table) merge(cols int) error {
+	first, _ := excelize.CoordinatesToCellName(1, t.row)
+	last, _ := excelize.CoordinatesToCellName(cols, t.row)
+	if err := t.f.MergeCell(t.name, first, last); err != nil {
+		return err
+	}
+	var w float64
+	for i := 0; i < cols && i < len(t.widths); i++ {
+		w += t.widths[i]
+	}
+	text, _ := t.f.GetCellValue(t.name, first)
+	lines := math.Ceil(float64(len([]rune(text))) * 1.1 / math.Max(1, w-1))
+	return t.f.SetRowHeight(t.name, t.row, math.Min(409, 15*math.Max(1, lines)))
+}
 
 // freeze keeps rows 1…header in view; it must come before the first row is written.
 func (t *table) freeze(header int) error {

@@ -17,6 +17,7 @@ const (
 	SheetSeparating   = "Separating variables"
 	SheetStates       = "Movement states"
 	SheetChoice       = "Choosing k"
+	SheetStability    = "Stability"
 	SheetQuality      = "Data quality"
 	SheetSettings     = "Settings"
 )
@@ -34,7 +35,7 @@ func BuildWorkbook(r *Result) (*excelize.File, error) {
 	if err != nil {
 		return nil, err
 	}
-	steps := []func(*excelize.File, *styles, *Result) error{summarySheet, chartsSheet, participantsSheet, changesSheet, groupsSheet, separatingSheet, statesSheet, choiceSheet, qualitySheet, definitionsSheet, settingsSheet}
+	steps := []func(*excelize.File, *styles, *Result) error{summarySheet, chartsSheet, participantsSheet, changesSheet, groupsSheet, stabilitySheet, separatingSheet, statesSheet, choiceSheet, qualitySheet, definitionsSheet, settingsSheet}
 	for _, step := range steps {
 		if err := step(f, st, r); err != nil {
 			return nil, fmt.Errorf("reports: %w", err)
@@ -121,6 +122,9 @@ func summarySheet(f *excelize.File, st *styles, r *Result) error {
 	if r.Grouping.Note != "" {
 		rows = append(rows, [2]string{"Note", r.Grouping.Note})
 	}
+	for _, n := range r.Notes {
+		rows = append(rows, [2]string{"Note", n})
+	}
 	for _, row := range rows {
 		if err := put(row[0], row[1]); err != nil {
 			return err
@@ -131,7 +135,16 @@ func summarySheet(f *excelize.File, st *styles, r *Result) error {
 		return err
 	}
 	for g, name := range r.GroupNames {
-		if err := put(name, r.GroupLines[g]); err != nil {
+		line := r.GroupLines[g]
+		if gs := r.Grouping.Stability; gs != nil && gs.Jaccard[g] < cohort.UnstableJaccard {
+			line = fmt.Sprintf("UNSTABLE: this group does not hold when the participants are drawn again (bootstrap stability %.2f, below %.2f; see %s). %s", gs.Jaccard[g], cohort.UnstableJaccard, SheetStability, line)
+		}
+		if err := put(name, line); err != nil {
+			return err
+		}
+	}
+	if r.SensitivityNote != "" {
+		if err := put("Other choices", r.SensitivityNote+" (see "+SheetStability+")"); err != nil {
 			return err
 		}
 	}
@@ -216,7 +229,18 @@ func participantsSheet(f *excelize.File, st *styles, r *Result) error {
 	for _, u := range r.Units {
 		idW = width(idW, u.ID)
 	}
+	stay, turn := false, false
+	for _, u := range r.Units {
+		stay = stay || !math.IsNaN(u.Stay)
+		turn = turn || !math.IsNaN(u.Turn)
+	}
 	widths := []float64{idW, 8, 10, 9, 11, 11, 34}
+	if stay {
+		widths = append(widths, 13)
+	}
+	if turn {
+		widths = append(widths, 11)
+	}
 	for i := 0; i < 2*k; i++ {
 		widths = append(widths, 10)
 	}
@@ -228,6 +252,12 @@ func participantsSheet(f *excelize.File, st *styles, r *Result) error {
 		return err
 	}
 	head := []string{"participant", "wave", "windows", "group", "silhouette", "distance to centre", "flag"}
+	if stay {
+		head = append(head, "stays with its group (share of resamples)")
+	}
+	if turn {
+		head = append(head, "device turned (degrees)")
+	}
 	for s := 0; s < k; s++ {
 		head = append(head, "share "+r.StateNames[s])
 	}
@@ -240,6 +270,12 @@ func participantsSheet(f *excelize.File, st *styles, r *Result) error {
 	for _, u := range r.Units {
 		cells := []v{{u.ID, st.text}, {u.Wave, st.text}, {u.Windows, st.integer}, {groupLabel(r, u.Group), st.text},
 			{u.Silhouette, st.dec3}, {u.Distance, st.dec3}, {u.Flag, st.text}}
+		if stay {
+			cells = append(cells, v{u.Stay, st.pct})
+		}
+		if turn {
+			cells = append(cells, v{u.Turn, st.dec1})
+		}
 		for _, x := range u.Share {
 			cells = append(cells, v{x, st.pct})
 		}
@@ -255,7 +291,11 @@ func participantsSheet(f *excelize.File, st *styles, r *Result) error {
 
 func groupsSheet(f *excelize.File, st *styles, r *Result) error {
 	k := r.States.K
+	stable := r.Grouping.Stability != nil
 	widths := []float64{8, 10, 11, 60}
+	if stable {
+		widths = []float64{8, 10, 11, 12, 60}
+	}
 	for i := 0; i < 2*k; i++ {
 		widths = append(widths, 10)
 	}
@@ -267,6 +307,9 @@ func groupsSheet(f *excelize.File, st *styles, r *Result) error {
 		return err
 	}
 	head := []string{"group", "members", "mean silhouette", "description"}
+	if stable {
+		head = []string{"group", "members", "mean silhouette", "stability (bootstrap Jaccard)", "description"}
+	}
 	for s := 0; s < k; s++ {
 		head = append(head, "mean share "+r.StateNames[s])
 	}
@@ -292,6 +335,9 @@ func groupsSheet(f *excelize.File, st *styles, r *Result) error {
 			}
 		}
 		cells := []v{{r.GroupNames[g], st.text}, {int(n), st.integer}, {sil / n, st.dec3}, {r.GroupLines[g], st.wrap}}
+		if stable {
+			cells = []v{{r.GroupNames[g], st.text}, {int(n), st.integer}, {sil / n, st.dec3}, {r.Grouping.Stability.Jaccard[g], st.dec2}, {r.GroupLines[g], st.wrap}}
+		}
 		for s := 0; s < k; s++ {
 			cells = append(cells, v{share[s] / n, st.pct})
 		}
@@ -305,9 +351,94 @@ func groupsSheet(f *excelize.File, st *styles, r *Result) error {
 	if err := t.close(true); err != nil {
 		return err
 	}
-	first, _ := excelize.CoordinatesToCellName(5, 2)
-	last, _ := excelize.CoordinatesToCellName(4+k, 1+len(r.GroupNames))
+	off := 4
+	if stable {
+		off = 5
+	}
+	first, _ := excelize.CoordinatesToCellName(off+1, 2)
+	last, _ := excelize.CoordinatesToCellName(off+k, 1+len(r.GroupNames))
 	return colourScale(f, SheetGroups, first+":"+last)
+}
+
+// stabilityReading puts a group's bootstrap stability in words, after Hennig (2007).
+func stabilityReading(j float64) string {
+	switch {
+	case math.IsNaN(j):
+		return ""
+	case j < cohort.UnstableJaccard:
+		return "does not hold: it dissolves in many resamples"
+	case j < 0.75:
+		return "a pattern, not a firm group"
+	case j < 0.85:
+		return "stable"
+	}
+	return "highly stable"
+}
+
+// stabilitySheet shows how well each group holds when the participants are drawn again, and
+// whether the groups depend on the choices made.
+func stabilitySheet(f *excelize.File, st *styles, r *Result) error {
+	gs := r.Grouping.Stability
+	if gs == nil && len(r.Sensitivity) == 0 {
+		return nil
+	}
+	t, err := newTable(f, st, SheetStability, []float64{30, 26, 14, 14, 60})
+	if err != nil {
+		return err
+	}
+	if gs != nil {
+		if err := t.put(v{"How well each group holds", st.title}); err != nil {
+			return err
+		}
+		if err := t.put(v{fmt.Sprintf("The participants were drawn again %d times with replacement and grouped anew with the same method and number of groups; each group's stability is the mean, over those resamples, of its best Jaccard similarity with a group found anew (Hennig 2007). Below %.2f a group is flagged.", gs.Resamples, cohort.UnstableJaccard), st.note}); err != nil {
+			return err
+		}
+		if err := t.merge(5); err != nil {
+			return err
+		}
+		if err := t.heading("group", "members", "stability", "", "reading"); err != nil {
+			return err
+		}
+		size := make([]int, len(r.GroupNames))
+		for _, u := range r.Units {
+			size[u.Group]++
+		}
+		for g, name := range r.GroupNames {
+			if err := t.put(v{name, st.text}, v{size[g], st.integer}, v{gs.Jaccard[g], st.dec2}, v{"", st.text}, v{stabilityReading(gs.Jaccard[g]), st.wrap}); err != nil {
+				return err
+			}
+		}
+		t.blank()
+	}
+	if len(r.Sensitivity) > 0 {
+		if err := t.put(v{"Do the groups depend on a choice?", st.title}); err != nil {
+			return err
+		}
+		if err := t.put(v{"The adjusted Rand index between the groups made and the groups under another choice, with the same number of groups (1: the same groups; 0: no more alike than chance). Other grouping methods group the same signatures. Other within steps and numbers of states were fitted anew on the sampled windows of sampled participants: read those rows against the first of them, the same settings on the same sampled windows.", st.note}); err != nil {
+			return err
+		}
+		if err := t.merge(5); err != nil {
+			return err
+		}
+		if err := t.heading("choice", "alternative", "participants", "adjusted Rand index", "fitted on"); err != nil {
+			return err
+		}
+		for _, s := range r.Sensitivity {
+			on := "all windows of every participant"
+			if s.OnSample {
+				on = "the sampled windows of sampled participants"
+			}
+			if err := t.put(v{s.Choice, st.wrap}, v{s.Alternative, st.text}, v{s.Participants, st.integer}, v{s.ARI, st.dec2}, v{on, st.wrap}); err != nil {
+				return err
+			}
+		}
+		if r.SensitivityNote != "" {
+			if err := t.put(v{"Reading", st.header}, v{r.SensitivityNote, st.wrap}); err != nil {
+				return err
+			}
+		}
+	}
+	return t.close(false)
 }
 
 func separatingSheet(f *excelize.File, st *styles, r *Result) error {

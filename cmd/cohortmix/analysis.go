@@ -52,7 +52,42 @@ type fitted struct {
 	desc    []profile.Description // the states in the original units
 	labels  *profile.LabelTable   // states × known labels, when labels are given
 	devices []normalize.Device    // each unit's device, when the states are aligned
+	sample  sampleUnits           // the participants and windows sampled for the fit
+	notes   []string              // what the run decided on its own, for the reader
 	g       *cohort.Grouping
+	// sensitivity compares the groups with those under other choices (fitTable only).
+	sensitivity []reports.Sensitivity
+}
+
+// readSample reads the windows drawn for the fit (profile.AlignSample): participants by their
+// id, windows by their place, both by a keyed hash of the seed.
+func readSample(t *cohort.Table, o analysisOptions, usable int) (sampleUnits, error) {
+	var s sampleUnits
+	d := len(t.Features)
+	unitRate, windowRate := profile.AlignSample(o.Sample, len(t.Units), usable)
+	for u, un := range t.Units {
+		key := normalize.UnitKey(un.ID, un.Wave)
+		if !normalize.UnitSampled(o.Seed, key, unitRate) {
+			continue
+		}
+		x, err := t.Block(u, nil)
+		if err != nil {
+			return s, err
+		}
+		var rows []float64
+		for w := 0; w*d < len(x); w++ {
+			if normalize.WindowSampled(o.Seed, key, w, windowRate) {
+				rows = append(rows, x[w*d:(w+1)*d]...)
+			}
+		}
+		if len(rows) > 0 {
+			s.units, s.index = append(s.units, rows), append(s.index, u)
+		}
+		if o.Passes != nil {
+			o.Passes("reading the fitting sample", u+1, len(t.Units))
+		}
+	}
+	return s, nil
 }
 
 // firstWindowsLogStart is each feature's first quartile over the first windows of up to 20
@@ -181,33 +216,15 @@ func fitTable(ctx context.Context, t *cohort.Table, o analysisOptions) (*fitted,
 	usable := t.Quality.WindowsIn - t.Quality.WindowsDropped - t.Quality.WindowsExcluded
 	var fit *normalize.Fit
 	var states *profile.States
+	// About --sample windows from participants chosen by their id, about 250 windows each, as
+	// read: the align step fits the scaling, the states and the devices on them (only their
+	// windows are read), and the sensitivity table refits on them.
+	sample, err := readSample(t, o, usable)
+	if err != nil {
+		return nil, err
+	}
 	if o.Norm.Within == normalize.WithinAlign {
-		// The scaling, the states and the devices are fitted on about --sample windows from
-		// participants chosen by their id, about 250 windows each; only their windows are read.
-		unitRate, windowRate := profile.AlignSample(o.Sample, len(t.Units), usable)
-		var units [][]float64
-		for u, un := range t.Units {
-			key := normalize.UnitKey(un.ID, un.Wave)
-			if !normalize.UnitSampled(o.Seed, key, unitRate) {
-				continue
-			}
-			x, err := t.Block(u, nil)
-			if err != nil {
-				return nil, err
-			}
-			var rows []float64
-			for w := 0; w*d < len(x); w++ {
-				if normalize.WindowSampled(o.Seed, key, w, windowRate) {
-					rows = append(rows, x[w*d:(w+1)*d]...)
-				}
-			}
-			if len(rows) > 0 {
-				units = append(units, rows)
-			}
-			if o.Passes != nil {
-				o.Passes("reading the fitting sample", u+1, len(t.Units))
-			}
-		}
+		units := sample.units
 		if o.Norm.Log {
 			o.Norm.LogStart = normalize.LogStartOf(units, d)
 		}
@@ -215,9 +232,21 @@ func fitTable(ctx context.Context, t *cohort.Table, o analysisOptions) (*fitted,
 		if fit, err = normalize.FitBlocks(ctx, t.Features, normalize.SliceBlocks(units), o.Norm); err != nil {
 			return nil, err
 		}
-		fit.Warnings = append(fit.Warnings, notes...)
 		step("fitting movement states")
-		states, err = profile.FitAligned(ctx, units, fit, profile.AlignOptions{States: o.States, Valley: o.Valley, Seed: o.Seed, Workers: o.Workers, Progress: o.Steps})
+		if states, err = profile.FitAligned(ctx, units, fit, profile.AlignOptions{States: o.States, Valley: o.Valley, Seed: o.Seed, Workers: o.Workers, Progress: o.Steps}); err != nil {
+			return nil, err
+		}
+		if fit.PCA == nil { // each feature's ICC(1) once aligned, on the sampled participants' windows
+			icc := normalize.NewICCSum(d)
+			for _, x := range units {
+				_, y, _, err := states.AlignUnit(fit, x, nil)
+				if err != nil {
+					return nil, err
+				}
+				icc.Add(normalize.UnitICCPart(y, d))
+			}
+			fit.ICCAfter = icc.ICC()
+		}
 	} else {
 		if o.Norm.Log {
 			o.Norm.LogStart = firstWindowsLogStart(t)
@@ -237,12 +266,12 @@ func fitTable(ctx context.Context, t *cohort.Table, o analysisOptions) (*fitted,
 			return nil, err
 		}
 		step("fitting movement states")
-		var sample *mat.Dense
+		var rows *mat.Dense
 		if len(kept) > 0 {
-			rows := fit.Cohort(kept)
-			sample = mat.NewDense(len(rows)/fit.OutDim(), fit.OutDim(), rows)
+			y := fit.Cohort(kept)
+			rows = mat.NewDense(len(y)/fit.OutDim(), fit.OutDim(), y)
 		}
-		states, err = profile.FitStates(ctx, sample, profile.Options{States: o.States, Rule: o.StatesRule, Valley: o.Valley, Seed: o.Seed, Workers: o.Workers, Progress: o.Steps})
+		states, err = profile.FitStates(ctx, rows, profile.Options{States: o.States, Rule: o.StatesRule, Valley: o.Valley, Seed: o.Seed, Workers: o.Workers, Progress: o.Steps})
 	}
 	if err != nil {
 		return nil, err
@@ -252,6 +281,7 @@ func fitTable(ctx context.Context, t *cohort.Table, o analysisOptions) (*fitted,
 	if err != nil {
 		return nil, err
 	}
+	f.sample, f.notes = sample, notes
 	sigs := f.sigs
 	shares := make([][]float64, len(sigs))
 	for i, sg := range sigs {
@@ -263,6 +293,10 @@ func fitTable(ctx context.Context, t *cohort.Table, o analysisOptions) (*fitted,
 		return nil, err
 	}
 	f.g = g
+	step("checking the groups against other choices")
+	if f.sensitivity, err = sensitivity(ctx, f, o, sample); err != nil {
+		return nil, err
+	}
 	return f, nil
 }
 
@@ -302,13 +336,10 @@ func assignWindows(ctx context.Context, t *cohort.Table, fit *normalize.Fit, sta
 	type unitResult struct {
 		desc   *profile.Describer
 		labels []int
-		icc    normalize.ICCPart
 	}
 	raw := &rawBlocks{t: t}
 	var bufs sync.Pool // transformed windows, one buffer per worker at a time
-	var iccAfter *normalize.ICCSum
 	if states.Aligned() {
-		iccAfter = normalize.NewICCSum(fit.OutDim())
 		f.devices = make([]normalize.Device, len(t.Units))
 	}
 	err := normalize.EachBlock(ctx, raw, workers, func(i int, x []float64) (unitResult, error) {
@@ -317,14 +348,12 @@ func assignWindows(ctx context.Context, t *cohort.Table, fit *normalize.Fit, sta
 			bp = new([]float64)
 		}
 		var labels []int
-		var icc normalize.ICCPart
 		if states.Aligned() {
 			dev, y, lab, err := states.AlignUnit(fit, x, *bp)
 			if err != nil {
 				return unitResult{}, err
 			}
 			*bp, labels, f.devices[i] = y, lab, dev
-			icc = normalize.UnitICCPart(y, fit.OutDim())
 		} else {
 			*bp = fit.ApplyUnitInto(*bp, i, x)
 			labels = states.Assign(*bp)
@@ -343,12 +372,9 @@ func assignWindows(ctx context.Context, t *cohort.Table, fit *normalize.Fit, sta
 		if err := part.Add(x, labels); err != nil {
 			return unitResult{}, err
 		}
-		return unitResult{part, labels, icc}, nil
+		return unitResult{part, labels}, nil
 	}, func(i int, r unitResult) error {
 		ds.Merge(r.desc)
-		if iccAfter != nil {
-			iccAfter.Add(r.icc)
-		}
 		if lc != nil {
 			lc.Add(r.labels, t.Units[i].Labels)
 		}
@@ -364,9 +390,6 @@ func assignWindows(ctx context.Context, t *cohort.Table, fit *normalize.Fit, sta
 		return nil, err
 	}
 	f.desc = ds.Descriptions()
-	if iccAfter != nil && fit.PCA == nil {
-		fit.ICCAfter = iccAfter.ICC() // the columns are the features, aligned and scaled
-	}
 	if lc != nil {
 		var err error
 		if f.labels, err = lc.Table(); err != nil {
@@ -385,6 +408,10 @@ func describe(f *fitted, stateNames, groupNames []string) (*reports.Result, erro
 	res := &reports.Result{Features: t.Features, OrderKind: t.OrderKind, Quality: t.Quality, Files: t.Files, Norm: fit, States: states, Grouping: g,
 		StateDesc: f.desc, Labels: f.labels}
 	res.Warnings = append(res.Warnings, fit.Warnings...)
+	res.Notes = append(res.Notes, f.notes...)
+	if f.sensitivity != nil {
+		res.Sensitivity, res.SensitivityNote = f.sensitivity, sensitivityNote(f.sensitivity)
+	}
 	var err error
 	vars := make([]cohort.Variable, 0, 2*k+d)
 	for s := 0; s < k; s++ {
@@ -410,7 +437,13 @@ func describe(f *fitted, stateNames, groupNames []string) (*reports.Result, erro
 	res.AtypicalCut = percentile(g.Distance, 0.99)
 	for i, u := range t.Units {
 		row := reports.UnitRow{ID: u.ID, Wave: u.Wave, Windows: sigs[i].Windows, Group: g.Labels[i],
-			Silhouette: g.Silhouette[i], Distance: g.Distance[i], Share: sigs[i].Share, Bout: sigs[i].MeanBout}
+			Silhouette: g.Silhouette[i], Distance: g.Distance[i], Share: sigs[i].Share, Bout: sigs[i].MeanBout, Stay: math.NaN(), Turn: math.NaN()}
+		if g.Stability != nil {
+			row.Stay = g.Stability.Stay[i]
+		}
+		if f.devices != nil && fit.Axes != nil {
+			row.Turn = f.devices[i].Angle()
+		}
 		switch s := g.Silhouette[i]; {
 		case math.IsNaN(s):
 		case s < 0:

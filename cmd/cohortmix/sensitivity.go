@@ -1,0 +1,162 @@
+package main
+
+import (
+	"context"
+	"fmt"
+	"strings"
+
+	"github.com/cohortmix/cohortmix/cluster"
+	"github.com/cohortmix/cohortmix/cohort"
+	"github.com/cohortmix/cohortmix/normalize"
+	"github.com/cohortmix/cohortmix/profile"
+	"github.com/cohortmix/cohortmix/reports"
+	"gonum.org/v1/gonum/mat"
+)
+
+// sampleUnits are the participants drawn for the fit (profile.AlignSample), each with its
+// sampled windows as read, and where they stand in the table.
+type sampleUnits struct {
+	units [][]float64
+	index []int
+}
+
+// sensitivityUnits is the most participants of the sample the sensitivity table refits on.
+const sensitivityUnits = 60
+
+// sensitivity says whether the groups depend on a choice: the adjusted Rand index between the
+// grouping made and the grouping under each alternative, with the same number of groups. The
+// other grouping methods group the same signatures; the other within steps and numbers of
+// states are fitted anew on the windows of up to 60 sampled participants, so their rows are
+// read against the first row, the same settings on the same sampled windows.
+func sensitivity(ctx context.Context, f *fitted, o analysisOptions, sample sampleUnits) ([]reports.Sensitivity, error) {
+	k := f.g.K
+	var out []reports.Sensitivity
+	shares := make([][]float64, len(f.sigs))
+	for i, s := range f.sigs {
+		shares[i] = s.Share
+	}
+	for _, m := range []cohort.Method{cohort.WardHellinger, cohort.PAMAitchison, cohort.KMeansCLR} {
+		if m == f.g.Method || (m != cohort.KMeansCLR && len(shares) > cohort.LargeCohort) {
+			continue
+		}
+		g, err := cohort.GroupSignatures(ctx, shares, cohort.GroupOptions{Method: m, Groups: []int{k}, Bootstrap: 2, Seed: o.Seed, Workers: o.Workers})
+		if err != nil {
+			return nil, err
+		}
+		ari, _ := cluster.AdjustedRand(g.Labels, f.g.Labels)
+		out = append(out, reports.Sensitivity{Choice: "grouping method", Alternative: m.String(), Participants: len(shares), ARI: ari})
+	}
+	units, index := sample.units, sample.index
+	if len(units) > sensitivityUnits {
+		units, index = units[:sensitivityUnits], index[:sensitivityUnits]
+	}
+	if len(units) <= k {
+		return out, nil
+	}
+	made := make([]int, len(index))
+	for r, i := range index {
+		made[r] = f.g.Labels[i]
+	}
+	compare := func(choice, alt string, fit *normalize.Fit, states *profile.States, ref bool) error {
+		sh := make([][]float64, len(units))
+		for r, x := range units {
+			var labels []int
+			if states.Aligned() {
+				_, _, lab, err := states.AlignUnit(fit, x, nil)
+				if err != nil {
+					return err
+				}
+				labels = lab
+			} else {
+				labels = states.Assign(fit.Apply(x))
+			}
+			sh[r] = profile.Signatures(labels, states.K).Share
+		}
+		g, err := cohort.GroupSignatures(ctx, sh, cohort.GroupOptions{Method: f.g.Method, Groups: []int{k}, Bootstrap: 2, Seed: o.Seed, Workers: o.Workers})
+		if err != nil {
+			return err
+		}
+		ari, _ := cluster.AdjustedRand(g.Labels, made)
+		out = append(out, reports.Sensitivity{Choice: choice, Alternative: alt, Reference: ref, Participants: len(units), OnSample: true, ARI: ari})
+		return nil
+	}
+	if err := compare("reference", "the settings used, on the sampled windows", f.fit, f.states, true); err != nil {
+		return nil, err
+	}
+	refit := func(within normalize.Within, states []int) (*normalize.Fit, *profile.States, error) {
+		no := o.Norm
+		no.Within, no.Keep, no.KeepUnit, no.Progress, no.SampleRate = within, nil, nil, nil, 1
+		no.WithinFeatures = nil
+		if within != o.Norm.Within {
+			no.Axes = nil
+			if within == normalize.WithinAlign {
+				no.Axes = f.fit.Axes
+			}
+		}
+		if no.Log {
+			no.LogStart = normalize.LogStartOf(units, len(f.fit.Features))
+		}
+		fit, err := normalize.FitBlocks(ctx, f.fit.Features, normalize.SliceBlocks(units), no)
+		if err != nil {
+			return nil, nil, err
+		}
+		if within == normalize.WithinAlign {
+			st, err := profile.FitAligned(ctx, units, fit, profile.AlignOptions{States: states, Valley: o.Valley, Starts: 1, Reseeds: -1, Restarts: 1, Seed: o.Seed, Workers: o.Workers})
+			return fit, st, err
+		}
+		var rows []float64
+		for _, x := range units {
+			rows = append(rows, fit.Apply(x)...)
+		}
+		st, err := profile.FitStates(ctx, mat.NewDense(len(rows)/fit.OutDim(), fit.OutDim(), rows), profile.Options{States: states, Rule: o.StatesRule, Valley: o.Valley, Restarts: 1, Seed: o.Seed, Workers: o.Workers})
+		return fit, st, err
+	}
+	for _, w := range []normalize.Within{normalize.WithinAlign, normalize.WithinRest, normalize.WithinNone} {
+		if w == o.Norm.Within {
+			continue
+		}
+		if err := ctx.Err(); err != nil {
+			return nil, err
+		}
+		fit, st, err := refit(w, o.States)
+		if err != nil {
+			return nil, fmt.Errorf("sensitivity to the within step %v: %w", w, err)
+		}
+		if err := compare("within-participant step", w.String(), fit, st, false); err != nil {
+			return nil, err
+		}
+	}
+	for _, ks := range []int{f.states.K - 1, f.states.K + 1} {
+		if ks < 2 {
+			continue
+		}
+		fit, st, err := refit(o.Norm.Within, []int{ks})
+		if err != nil {
+			return nil, fmt.Errorf("sensitivity to the number of states: %w", err)
+		}
+		if err := compare("number of states", fmt.Sprintf("%d (fixed)", ks), fit, st, false); err != nil {
+			return nil, err
+		}
+	}
+	return out, nil
+}
+
+// sensitivityNote is the line that reads the table: how far the alternatives move the groups.
+func sensitivityNote(rows []reports.Sensitivity) string {
+	var moved []string
+	base := 1.0
+	for _, r := range rows {
+		if r.Reference {
+			base = r.ARI
+		}
+	}
+	for _, r := range rows {
+		if !r.Reference && r.ARI < min(0.8, base-0.2) {
+			moved = append(moved, fmt.Sprintf("%s %s (adjusted Rand index %.2f)", r.Choice, r.Alternative, r.ARI))
+		}
+	}
+	if len(moved) == 0 {
+		return "no alternative moved the groups much: the grouping does not hinge on these choices"
+	}
+	return "the groups change under " + strings.Join(moved, "; ") + ": read them with that choice in mind"
+}

@@ -1,0 +1,144 @@
+package cohort
+
+import (
+	"context"
+	"math"
+	"math/rand/v2"
+
+	"github.com/cohortmix/cohortmix/cluster"
+	"gonum.org/v1/gonum/mat"
+)
+
+// GroupStability is how well each group of a grouping holds when the participants are drawn
+// again: the clusterwise bootstrap stability of Hennig (2007), and how often each participant
+// stays with its group.
+type GroupStability struct {
+	Resamples int
+	// Jaccard is, per group, the mean over resamples of its best Jaccard similarity with a group
+	// found anew on the resample (both restricted to the participants drawn). Hennig reads
+	// values of 0.5 or less as a group that dissolves, 0.6 to 0.75 as a pattern, and above 0.85
+	// as a stable group.
+	Jaccard []float64
+	// Stay is, per participant, the share of the resamples that drew it in which it fell in the
+	// group that best matches its own; NaN when no resample drew it (or it was outside the
+	// sample the criteria are computed on, above LargeCohort participants).
+	Stay []float64
+}
+
+// UnstableJaccard is the stability below which a group is flagged as not holding.
+const UnstableJaccard = 0.6
+
+// groupStability computes GroupStability for the grouping lab (k groups) of the rows of x by
+// drawing B bootstrap resamples of the participants (with replacement; each participant drawn
+// counts once), grouping each resample again by the method with k groups, and matching every
+// original group with the resample group of largest Jaccard similarity. Above LargeCohort
+// participants it works on a reproducible sample of LargeCohort of them, as the criteria do.
+// Reference: Hennig C (2007), Cluster-wise assessment of cluster stability, Comput. Stat. Data
+// Anal. 52:258–271.
+func groupStability(ctx context.Context, x *mat.Dense, dist *cluster.Condensed, lab []int, k int, opts GroupOptions) (*GroupStability, error) {
+	n, d := x.Dims()
+	st := &GroupStability{Resamples: opts.Bootstrap, Jaccard: make([]float64, k), Stay: make([]float64, n)}
+	rows := make([]int, n) // the participants resampled from
+	for i := range rows {
+		rows[i] = i
+	}
+	if n > LargeCohort {
+		rng := rand.New(rand.NewPCG(cluster.SubSeed(opts.Seed, "stability sample", 0), 1))
+		perm := rng.Perm(n)[:LargeCohort]
+		rows = perm
+		dist = nil
+	}
+	m := len(rows)
+	drawn := make([]float64, n)
+	stayed := make([]float64, n)
+	counted := make([]float64, k)
+	for b := 0; b < opts.Bootstrap; b++ {
+		if err := ctx.Err(); err != nil {
+			return nil, err
+		}
+		rng := rand.New(rand.NewPCG(cluster.SubSeed(opts.Seed, "stability", b), 1))
+		seen := make([]bool, m)
+		for i := 0; i < m; i++ {
+			seen[rng.IntN(m)] = true
+		}
+		var idx []int // participants drawn, in table order of the sample
+		for r, s := range seen {
+			if s {
+				idx = append(idx, rows[r])
+			}
+		}
+		if len(idx) <= k {
+			opts.report("stability of each group: resamples", b+1, opts.Bootstrap)
+			continue
+		}
+		sub := mat.NewDense(len(idx), d, nil)
+		for r, i := range idx {
+			sub.SetRow(r, x.RawRowView(i))
+		}
+		var subDist *cluster.Condensed
+		if dist != nil && (opts.Method == PAMAitchison || opts.Method == PAMJensenShannon) {
+			subDist = &cluster.Condensed{N: len(idx), D: make([]float64, len(idx)*(len(idx)-1)/2)}
+			for a := 0; a < len(idx); a++ {
+				for c := a + 1; c < len(idx); c++ {
+					subDist.D[subDist.Index(a, c)] = dist.At(idx[a], idx[c])
+				}
+			}
+		}
+		cut, err := newCutter(ctx, opts.Method, sub, subDist, GroupOptions{Seed: cluster.SubSeed(opts.Seed, "stability grouping", b), Workers: opts.Workers})
+		if err != nil {
+			return nil, err
+		}
+		again, err := cut(k)
+		if err != nil {
+			return nil, err
+		}
+		// Contingency of original groups (rows) and resample groups (columns).
+		both := make([][]float64, k)
+		for c := range both {
+			both[c] = make([]float64, k)
+		}
+		orig, anew := make([]float64, k), make([]float64, k)
+		for r, i := range idx {
+			both[lab[i]][again[r]]++
+			orig[lab[i]]++
+			anew[again[r]]++
+		}
+		best := make([]int, k)
+		for c := 0; c < k; c++ {
+			if orig[c] == 0 {
+				best[c] = -1
+				continue
+			}
+			bj := -1.0
+			for g := 0; g < k; g++ {
+				if j := both[c][g] / (orig[c] + anew[g] - both[c][g]); j > bj {
+					bj, best[c] = j, g
+				}
+			}
+			st.Jaccard[c] += bj
+			counted[c]++
+		}
+		for r, i := range idx {
+			drawn[i]++
+			if again[r] == best[lab[i]] {
+				stayed[i]++
+			}
+		}
+		opts.report("stability of each group: resamples", b+1, opts.Bootstrap)
+	}
+	for c := range st.Jaccard {
+		if counted[c] > 0 {
+			st.Jaccard[c] /= counted[c]
+		} else {
+			st.Jaccard[c] = math.NaN()
+		}
+	}
+	for i := range st.Stay {
+		if drawn[i] > 0 {
+			st.Stay[i] = stayed[i] / drawn[i]
+		} else {
+			st.Stay[i] = math.NaN()
+		}
+	}
+	return st, nil
+}
