@@ -21,7 +21,7 @@ type AlignOptions struct {
 	Reseeds  int     // times the states are seeded again on the aligned windows; 0 means 1, −1 none
 	Starts   int     // 1: no device at first; 2 (0 means 2): also each participant's offsets at its medians, the better kept
 	Rounds   int     // alternations of device and state updates after each seeding; 0 means 10
-	Prior    float64 // pull of each rotation toward none, in windows' worth per window; 0 means 0.1
+	Prior    float64 // pull of each rotation toward none, in windows' worth per window; 0 means 0.01
 	Valley   float64 // see MergeStates; 0 means DefaultValley
 	Seed     uint64
 	Workers  int
@@ -88,7 +88,7 @@ func FitAligned(ctx context.Context, units [][]float64, fit *normalize.Fit, opts
 		opts.Rounds = 10
 	}
 	if opts.Prior == 0 {
-		opts.Prior = 0.1
+		opts.Prior = 0.01
 	}
 	if opts.Valley == 0 {
 		opts.Valley = DefaultValley

@@ -44,6 +44,21 @@ type Options struct {
 	// member's own, and Groups, Offset, Spread and GroupSet are not used. Features then
 	// defaults to 24.
 	Scenario uint64
+	// Design, when set, is the scenario to draw the cohort from (a member of the family
+	// changed by hand, say); it takes the place of Scenario.
+	Design *Scenario
+}
+
+// design is the scenario the options draw from, or nil for the demo's.
+func (o Options) design() *Scenario {
+	if o.Design != nil {
+		return o.Design
+	}
+	if o.Scenario != 0 {
+		sc := DrawScenario(o.Scenario)
+		return &sc
+	}
+	return nil
 }
 
 func (o Options) withDefaults() Options {
@@ -55,7 +70,7 @@ func (o Options) withDefaults() Options {
 	}
 	if o.Features == 0 {
 		o.Features = 12
-		if o.Scenario != 0 {
+		if o.Scenario != 0 || o.Design != nil {
 			o.Features = 24
 		}
 	}
@@ -129,10 +144,10 @@ type Truth struct {
 
 // stateNames are the labels of the planted states of a cohort.
 func (o Options) stateNames() []string {
-	if o.Scenario == 0 {
+	sc := o.design()
+	if sc == nil {
 		return StateNames
 	}
-	sc := DrawScenario(o.Scenario)
 	names := make([]string, len(sc.States))
 	for i, s := range sc.States {
 		names[i] = s.Name
@@ -273,7 +288,7 @@ func (opts Options) check() error {
 	if opts.Features != 12 && opts.Features != 24 {
 		return fmt.Errorf("synth: %d features: choose 12 or 24", opts.Features)
 	}
-	if opts.Scenario == 0 && (opts.Groups < 2 || opts.Groups > len(groupMix)) {
+	if opts.design() == nil && (opts.Groups < 2 || opts.Groups > len(groupMix)) {
 		return fmt.Errorf("synth: %d groups: choose 2 to %d", opts.Groups, len(groupMix))
 	}
 	for _, g := range opts.GroupSet {
@@ -289,8 +304,8 @@ func (opts Options) check() error {
 
 // generate invents the cohort participant by participant, handing each window to emit.
 func generate(opts Options, emit func(id string, window int, feat []float64, state int) error) ([]Truth, error) {
-	if opts.Scenario != 0 {
-		return DrawScenario(opts.Scenario).generate(opts, emit)
+	if sc := opts.design(); sc != nil {
+		return sc.generate(opts, emit)
 	}
 	truth := make([]Truth, opts.Participants)
 	feat := make([]float64, len(FeatureNames(opts.Features)))

@@ -1,0 +1,137 @@
+package profile
+
+import (
+	"context"
+	"math"
+	"math/rand/v2"
+	"testing"
+
+	"github.com/cohortmix/cohortmix/cluster"
+	"github.com/cohortmix/cohortmix/normalize"
+)
+
+// plantedDevices invents a cohort with known devices: four postures seen through each
+// participant's device, turned by a known rotation (up to about 40°), with a known calibration
+// offset on a linear feature ("bias") and a known gain on an amplitude ("amp", on a log scale
+// a gain is an offset), and a cadence ("freq") no device changes.
+func plantedDevices(n, windows int) (units [][]float64, states [][]int, rot [][]float64, bias, gain []float64) {
+	postures := [][3]float64{{0, 0, -1}, {-0.7, 0, -0.7}, {-1, 0, 0}, {0.2, -0.9, -0.4}}
+	amp := []float64{0.01, 0.02, 0.1, 0.4} // g
+	freq := []float64{0.2, 0.4, 1.2, 2.2}  // Hz
+	level := []float64{0, 1, 0, 2}         // the linear feature's level in each state
+	rng := rand.New(rand.NewPCG(7, 7))
+	for u := 0; u < n; u++ {
+		w := [3]float64{0.35 * rng.NormFloat64(), 0.35 * rng.NormFloat64(), 0.35 * rng.NormFloat64()}
+		th := math.Sqrt(w[0]*w[0] + w[1]*w[1] + w[2]*w[2])
+		k := [3]float64{w[0] / th, w[1] / th, w[2] / th}
+		c, s := math.Cos(th), math.Sin(th)
+		r := []float64{ // Rodrigues' formula
+			c + k[0]*k[0]*(1-c), k[0]*k[1]*(1-c) - k[2]*s, k[0]*k[2]*(1-c) + k[1]*s,
+			k[1]*k[0]*(1-c) + k[2]*s, c + k[1]*k[1]*(1-c), k[1]*k[2]*(1-c) - k[0]*s,
+			k[2]*k[0]*(1-c) - k[1]*s, k[2]*k[1]*(1-c) + k[0]*s, c + k[2]*k[2]*(1-c),
+		}
+		b, g := 0.5*rng.NormFloat64(), math.Exp(0.2*rng.NormFloat64())
+		var x []float64
+		var lab []int
+		state := rng.IntN(4)
+		for i := 0; i < windows; i++ {
+			if i%25 == 0 {
+				state = rng.IntN(4)
+			}
+			p := postures[state]
+			var v [3]float64
+			for a := 0; a < 3; a++ {
+				v[a] = p[a] + 0.03*rng.NormFloat64()
+			}
+			x = append(x, r[0]*v[0]+r[1]*v[1]+r[2]*v[2], r[3]*v[0]+r[4]*v[1]+r[5]*v[2], r[6]*v[0]+r[7]*v[1]+r[8]*v[2],
+				level[state]+b+0.1*rng.NormFloat64(), g*amp[state]*math.Exp(0.1*rng.NormFloat64()), freq[state]*math.Exp(0.05*rng.NormFloat64()))
+			lab = append(lab, state)
+		}
+		units, states = append(units, x), append(states, lab)
+		rot, bias, gain = append(rot, r), append(bias, b), append(gain, g)
+	}
+	return units, states, rot, bias, gain
+}
+
+// The aligned fit finds the states and, participant by participant, the device that was
+// planted: its rotation, its calibration offset and its gain.
+func TestFitAlignedRecoversPlantedDevices(t *testing.T) {
+	features := []string{"mean_x", "mean_y", "mean_z", "bias", "amp", "freq"}
+	units, truth, rot, bias, gain := plantedDevices(40, 400)
+	axes, _ := normalize.FindAxes(features, units[0])
+	if len(axes) != 3 || axes[0] != 0 || axes[1] != 1 || axes[2] != 2 {
+		t.Fatalf("axes %v, want the columns of mean_x, mean_y, mean_z", axes)
+	}
+	fit, err := normalize.FitBlocks(context.Background(), features, normalize.SliceBlocks(units), normalize.Options{Within: normalize.WithinAlign, Axes: axes, NoPCA: true,
+		Log: true, Lowest: normalize.LowestOf(units, 6), LogStart: normalize.LogStartOf(units, 6)})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if fit.Logged[3] || !fit.Logged[4] || !fit.Logged[5] || fit.Logged[0] {
+		t.Fatalf("logged %v: want amp and freq, not bias (negative) nor the axis means", fit.Logged)
+	}
+	for j := range fit.LogShift {
+		fit.LogShift[j] = 0 // plain log: a gain is then exactly an offset
+	}
+	states, err := FitAligned(context.Background(), units, fit, AlignOptions{States: []int{4}, Seed: 1})
+	if err != nil {
+		t.Fatal(err)
+	}
+	var got, want []int
+	devs := make([]normalize.Device, len(units))
+	for u, x := range units {
+		dev, _, lab, err := states.AlignUnit(fit, x, nil)
+		if err != nil {
+			t.Fatal(err)
+		}
+		devs[u] = dev
+		got, want = append(got, lab...), append(want, truth[u]...)
+	}
+	if ari, _ := cluster.AdjustedRand(got, want); ari < 0.99 {
+		t.Fatalf("windows' states against the planted ones: ARI %.4f, want ≥ 0.99", ari)
+	}
+	// The states are learned up to a turn of the whole cohort, and offsets up to a shift of the
+	// whole cohort: each participant's estimated rotation times its planted one is that one
+	// common turn, and its offsets less the cohort's mean are the planted ones less theirs.
+	common := mul(devs[0].Rotation, rot[0])
+	var meanBias, meanLogGain, meanB, meanA float64
+	for u := range units {
+		meanBias += bias[u] / float64(len(units))
+		meanLogGain += math.Log(gain[u]) / float64(len(units))
+		meanB += devs[u].Offset[3] * fit.Spread[3] / float64(len(units))
+		meanA += devs[u].Offset[4] * fit.Spread[4] / float64(len(units))
+	}
+	for u := range units {
+		// The prior (0.01 windows' worth per window) pulls each turn toward none by about
+		// 0.01/0.2 = 5 % of it, 0.2 being the least eigenvalue of the postures' second moments
+		// here: 2.5° for the largest planted turns of about 50°; the noise adds well under 1°. 3°.
+		if d := angleBetween(mul(devs[u].Rotation, rot[u]), common); d > 3 {
+			t.Errorf("participant %d: rotation off by %.2f° from the common turn (planted %.1f°)", u, d, normalize.Device{Rotation: rot[u]}.Angle())
+		}
+		// The offsets are means over 400 windows of noise s.d. 0.1: standard error 0.005; 0.02.
+		if d := devs[u].Offset[3]*fit.Spread[3] - meanB - (bias[u] - meanBias); math.Abs(d) > 0.02 {
+			t.Errorf("participant %d: calibration offset off by %.4f", u, d)
+		}
+		if d := devs[u].Offset[4]*fit.Spread[4] - meanA - (math.Log(gain[u]) - meanLogGain); math.Abs(d) > 0.02 {
+			t.Errorf("participant %d: log gain off by %.4f", u, d)
+		}
+	}
+}
+
+func mul(a, b []float64) []float64 {
+	out := make([]float64, 9)
+	for i := 0; i < 3; i++ {
+		for j := 0; j < 3; j++ {
+			for k := 0; k < 3; k++ {
+				out[i*3+j] += a[i*3+k] * b[k*3+j]
+			}
+		}
+	}
+	return out
+}
+
+// angleBetween is the angle in degrees of the rotation that takes b to a.
+func angleBetween(a, b []float64) float64 {
+	bt := []float64{b[0], b[3], b[6], b[1], b[4], b[7], b[2], b[5], b[8]}
+	return normalize.Device{Rotation: mul(a, bt)}.Angle()
+}
