@@ -1,6 +1,8 @@
-// Package normalize standardizes window features: within each participant (to remove device
-// offsets), then across the cohort, then optionally projects them on principal components. Every
-// step is a frozen fit that can be applied to new participants alone.
+// Package normalize standardizes window features: on a started log scale where a feature is
+// never below 0, within each participant (to remove device offsets: a baseline of the
+// participant's own, or a Device fitted with the states by package profile), then across the
+// cohort, then optionally projects them on principal components. Every step is a frozen fit
+// that can be applied to new participants alone.
 //
 // # Conventions
 //
@@ -17,6 +19,7 @@
 //     in the one-way random effects model. Int. Stat. Rev. 54:67–82 (n₀ for unequal group sizes).
 //   - Rousseeuw PJ, Croux C (1993). Alternatives to the median absolute deviation. JASA 88 (MAD, 1.4826).
 //   - Jolliffe IT (2002). Principal Component Analysis, 2nd ed. Springer.
+//   - Tukey JW (1977). Exploratory Data Analysis. Addison-Wesley (the started logarithm).
 package normalize
 
 import (

@@ -4,12 +4,22 @@
 //
 // # Conventions
 //
-// States are fitted by k-means on a reproducible sample of windows (normalize.Sampled), then every
-// window is assigned to its nearest state. Inputs are never modified; every random step is seeded.
+// States are fitted on a reproducible sample of windows (normalize.Sampled, or participants and
+// windows keyed by id with AlignSample), then every window is assigned to its nearest state.
+// With the align step (FitAligned), each participant's device (a rotation of its axis means and
+// an offset on every other feature) is fitted jointly with the states and, for every
+// participant, alone against the frozen states (States.AlignUnit). A range of numbers of states
+// is decided by merging states that form one mode (MergeStates) or by the Calinski–Harabasz
+// index. Inputs are never modified; every random step is seeded (cluster.SubSeed).
 //
 // # References
 //
 //   - Arthur & Vassilvitskii (2007); Hamerly (2010): see package cluster (k-means).
+//   - Lloyd SP (1982). Least squares quantization in PCM. IEEE Trans. Inf. Theory 28:129–137.
+//   - Kabsch W (1976). A solution for the best rotation to relate two sets of vectors. Acta
+//     Cryst. A32:922–923 (see cluster.Rotation3).
+//   - Hennig C (2010). Methods for merging Gaussian mixture components. Adv. Data Anal. Classif.
+//     4:3–34 (merging by unimodality; see cluster.Valley).
 //   - Rousseeuw PJ (1987). Silhouettes. J. Comput. Appl. Math. 20:53–65.
 //   - Caliński & Harabasz (1974); Davies & Bouldin (1979): see package cluster.
 package profile

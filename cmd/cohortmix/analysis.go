@@ -33,6 +33,9 @@ type analysisOptions struct {
 	StatesRule profile.Rule
 	Valley     float64 // see profile.MergeStates; 0 means profile.DefaultValley
 	Seed       uint64
+	// noSensitivity leaves out the sensitivity table (the recovery benchmark, which scores the
+	// groups only, sets it).
+	noSensitivity bool
 	Workers    int
 	Progress   func(step string)
 	Passes     func(step string, done, total int) // progress within the passes over the participants
@@ -293,9 +296,11 @@ func fitTable(ctx context.Context, t *cohort.Table, o analysisOptions) (*fitted,
 		return nil, err
 	}
 	f.g = g
-	step("checking the groups against other choices")
-	if f.sensitivity, err = sensitivity(ctx, f, o, sample); err != nil {
-		return nil, err
+	if !o.noSensitivity {
+		step("checking the groups against other choices")
+		if f.sensitivity, err = sensitivity(ctx, f, o, sample); err != nil {
+			return nil, err
+		}
 	}
 	return f, nil
 }

@@ -76,6 +76,7 @@ func variantOptions(t testing.TB, path string, args []string, states, groups int
 	if err != nil {
 		t.Fatal(err)
 	}
+	o.noSensitivity = true
 	return o
 }
 
