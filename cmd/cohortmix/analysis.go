@@ -36,10 +36,10 @@ type analysisOptions struct {
 	// noSensitivity leaves out the sensitivity table (the recovery benchmark, which scores the
 	// groups only, sets it).
 	noSensitivity bool
-	Workers    int
-	Progress   func(step string)
-	Passes     func(step string, done, total int) // progress within the passes over the participants
-	Steps      func(step string, done, total int) // progress within fitting the states and the groups
+	Workers       int
+	Progress      func(step string)
+	Passes        func(step string, done, total int) // progress within the passes over the participants
+	Steps         func(step string, done, total int) // progress within fitting the states and the groups
 }
 
 // normSample is about how many windows the robust scales and the PCA are fitted on.
