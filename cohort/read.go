@@ -174,6 +174,10 @@ func Read(ctx context.Context, paths []string, opts ReadOptions) (*Table, error)
 	return r.finish()
 }
 
+// ExpandPaths lists the files that Read would read for these paths: a folder's table files,
+// a glob's matches, "-" for standard input, and other paths as they are.
+func ExpandPaths(paths []string) ([]string, error) { return expandPaths(paths) }
+
 // tableExt are the file names a folder given as input is read for.
 var tableExt = []string{".csv", ".tsv", ".txt", ".csv.gz", ".tsv.gz", ".txt.gz", ".xlsx", ".parquet"}
 

@@ -6,29 +6,32 @@ import (
 	"strconv"
 )
 
-// WriteMembers writes the plain participant, wave, group CSV for R, Stata or Python. Ids are
-// written exactly as they came in, so that they join back to the study's tables.
+// WriteMembers writes the members CSV (MembersTo) to path atomically (see WriteAtomic).
 func WriteMembers(path string, r *Result, force bool) error {
-	return WriteAtomic(path, force, func(w io.Writer) error {
-		cw := csv.NewWriter(w)
-		if err := cw.Write([]string{"participant", "wave", "group", "silhouette", "flag"}); err != nil {
+	return WriteAtomic(path, force, func(w io.Writer) error { return MembersTo(w, r) })
+}
+
+// MembersTo writes the plain participant, wave, group CSV for R, Stata or Python. Ids are
+// written exactly as they came in, so that they join back to the study's tables.
+func MembersTo(w io.Writer, r *Result) error {
+	cw := csv.NewWriter(w)
+	if err := cw.Write([]string{"participant", "wave", "group", "silhouette", "flag"}); err != nil {
+		return err
+	}
+	for _, u := range r.Units {
+		sil := ""
+		if u.Silhouette == u.Silhouette { // not NaN
+			sil = strconv.FormatFloat(u.Silhouette, 'f', 4, 64)
+		}
+		if err := cw.Write([]string{u.ID, u.Wave, r.GroupNames[u.Group], sil, u.Flag}); err != nil {
 			return err
 		}
-		for _, u := range r.Units {
-			sil := ""
-			if u.Silhouette == u.Silhouette { // not NaN
-				sil = strconv.FormatFloat(u.Silhouette, 'f', 4, 64)
-			}
-			if err := cw.Write([]string{u.ID, u.Wave, r.GroupNames[u.Group], sil, u.Flag}); err != nil {
-				return err
-			}
+	}
+	for _, e := range r.Quality.Excluded {
+		if err := cw.Write([]string{e.ID, e.Wave, "", "", "excluded: " + e.Reason}); err != nil {
+			return err
 		}
-		for _, e := range r.Quality.Excluded {
-			if err := cw.Write([]string{e.ID, e.Wave, "", "", "excluded: " + e.Reason}); err != nil {
-				return err
-			}
-		}
-		cw.Flush()
-		return cw.Error()
-	})
+	}
+	cw.Flush()
+	return cw.Error()
 }

@@ -20,7 +20,7 @@ import (
 // ModelFormat and ModelVersion identify the model file's schema.
 const (
 	ModelFormat  = "cohortmix model"
-	ModelVersion = 2 // 2: log scales, the align step's axes and the aligned states' postures
+	ModelVersion = 2 // 2: log scales, the align step's axes, the aligned states' postures, pseudonymization
 )
 
 // ErrModel is wrapped by every error about a model file.
@@ -29,19 +29,23 @@ var ErrModel = errors.New("model file not usable")
 // Model is everything needed to place new windows and participants into the same states and
 // groups later: the frozen normalization, the state centroids and the group centres.
 type Model struct {
-	Format      string            `json:"format"`
-	Version     int               `json:"version"`
-	Created     time.Time         `json:"created"`
-	Tool        string            `json:"tool"`
-	Features    []string          `json:"features"`
-	Read        ModelRead         `json:"read"`
-	Normalize   ModelNorm         `json:"normalize"`
-	States      ModelStates       `json:"states"`
-	Grouping    ModelGrouping     `json:"grouping"`
-	Settings    []Setting         `json:"settings"`
-	Options     map[string]string `json:"options"` // the command-line options of the fit, by flag name, for refresh
-	Members     []ModelMember     `json:"members"`
-	FeatureMeds [][3]float64      `json:"feature_median_range"` // per feature: 1st percentile, median, 99th percentile of participant medians
+	Format    string            `json:"format"`
+	Version   int               `json:"version"`
+	Created   time.Time         `json:"created"`
+	Tool      string            `json:"tool"`
+	Features  []string          `json:"features"`
+	Read      ModelRead         `json:"read"`
+	Normalize ModelNorm         `json:"normalize"`
+	States    ModelStates       `json:"states"`
+	Grouping  ModelGrouping     `json:"grouping"`
+	Settings  []Setting         `json:"settings"`
+	Options   map[string]string `json:"options"` // the command-line options of the fit, by flag name, for refresh
+	Members   []ModelMember     `json:"members"`
+	// Pseudonymized says the members' ids are pseudonyms (Pseudonym), made with the key whose
+	// fingerprint (KeyFingerprint) is KeyFingerprint.
+	Pseudonymized  bool         `json:"pseudonymized"`
+	KeyFingerprint string       `json:"key_fingerprint,omitempty"`
+	FeatureMeds    [][3]float64 `json:"feature_median_range"` // per feature: 1st percentile, median, 99th percentile of participant medians
 }
 
 // ModelRead records the column roles used.
@@ -143,13 +147,16 @@ func rows(m *mat.Dense) [][]float64 {
 	return out
 }
 
-// WriteModel writes the model as indented JSON, atomically.
+// WriteModel writes the model (ModelTo) to path atomically (see WriteAtomic).
 func WriteModel(path string, m *Model, force bool) error {
-	return WriteAtomic(path, force, func(w io.Writer) error {
-		enc := json.NewEncoder(w)
-		enc.SetIndent("", " ")
-		return enc.Encode(m)
-	})
+	return WriteAtomic(path, force, func(w io.Writer) error { return ModelTo(w, m) })
+}
+
+// ModelTo writes the model as indented JSON.
+func ModelTo(w io.Writer, m *Model) error {
+	enc := json.NewEncoder(w)
+	enc.SetIndent("", " ")
+	return enc.Encode(m)
 }
 
 // ReadModel reads and checks a model file: its format and version, and that every array has the
@@ -320,6 +327,9 @@ func (m *Model) check() error {
 	}
 	if !(g.Atypical >= 0) || math.IsInf(g.Atypical, 0) {
 		return fmt.Errorf("grouping.atypical_distance is %v", g.Atypical)
+	}
+	if m.Pseudonymized != (m.KeyFingerprint != "") {
+		return fmt.Errorf("pseudonymized is %v with key_fingerprint %q; a pseudonymized model has a fingerprint and a plain one none", m.Pseudonymized, m.KeyFingerprint)
 	}
 	if len(m.FeatureMeds) != d {
 		return fmt.Errorf("feature_median_range has %d entries for %d features", len(m.FeatureMeds), d)

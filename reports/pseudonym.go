@@ -4,6 +4,7 @@ import (
 	"crypto/hmac"
 	"crypto/sha256"
 	"encoding/hex"
+	"errors"
 	"fmt"
 	"os"
 )
@@ -27,6 +28,35 @@ func Pseudonym(key []byte, id string) string {
 	m := hmac.New(sha256.New, key)
 	m.Write([]byte(id))
 	return "ps-" + hex.EncodeToString(m.Sum(nil))[:16]
+}
+
+// keyLabel is the fixed text whose HMAC with the key is the key's fingerprint.
+const keyLabel = "cohortmix pseudonymization key fingerprint"
+
+// KeyFingerprint identifies a key without revealing it: the first 16 hex digits of
+// HMAC-SHA256(key, a fixed label). The model file records it, so that a later run can tell the
+// same key from another one.
+func KeyFingerprint(key []byte) string {
+	m := hmac.New(sha256.New, key)
+	m.Write([]byte(keyLabel))
+	return hex.EncodeToString(m.Sum(nil))[:16]
+}
+
+// ErrKey is wrapped by errors about a pseudonymization key that does not fit the model.
+var ErrKey = errors.New("pseudonymization key does not fit the model")
+
+// CheckKey tells whether a run may use this key (nil: none) with this model: a pseudonymized
+// model needs the key it was written with, and a plain model takes no key.
+func (m *Model) CheckKey(modelPath, keyPath string, key []byte) error {
+	switch {
+	case m.Pseudonymized && key == nil:
+		return fmt.Errorf("%s: the model holds pseudonyms, not study ids: %w; pass --pseudonymize with the key it was written with, or returning participants could not be found and study ids would reach the outputs", modelPath, ErrKey)
+	case !m.Pseudonymized && key != nil:
+		return fmt.Errorf("%s: the model holds study ids, not pseudonyms: %w; leave --pseudonymize out, or refit with 'cohortmix group --pseudonymize %s'", modelPath, ErrKey, keyPath)
+	case key != nil && KeyFingerprint(key) != m.KeyFingerprint:
+		return fmt.Errorf("%s: was pseudonymized with another key than %s: %w; pass the key the model was written with", modelPath, keyPath, ErrKey)
+	}
+	return nil
 }
 
 // Pseudonymize replaces every participant id in the result by its pseudonym, so that no output

@@ -70,15 +70,22 @@ type table struct {
 const streamRows = 2000
 
 func newTable(f *excelize.File, st *styles, name string, widths []float64) (*table, error) {
-	return openTable(f, st, name, widths, false)
+	return openTable(f, st, name, widths, 0)
 }
 
-func openTable(f *excelize.File, st *styles, name string, widths []float64, stream bool) (*table, error) {
+// openTable starts a sheet with these column widths; with streamed > 0 it is written as a
+// stream of that many rows (excelize's StreamWriter), whose used range is set first, since the
+// stream cannot change it later.
+func openTable(f *excelize.File, st *styles, name string, widths []float64, streamed int) (*table, error) {
 	if _, err := f.NewSheet(name); err != nil {
 		return nil, err
 	}
 	t := &table{f: f, name: name, st: st, widths: widths}
-	if stream {
+	if streamed > 0 {
+		last, _ := excelize.CoordinatesToCellName(len(widths), streamed)
+		if err := f.SetSheetDimension(name, "A1:"+last); err != nil {
+			return nil, err
+		}
 		sw, err := f.NewStreamWriter(name)
 		if err != nil {
 			return nil, err

@@ -44,6 +44,25 @@ func BuildWorkbook(r *Result) (*excelize.File, error) {
 	if err := f.DeleteSheet("Sheet1"); err != nil {
 		return nil, err
 	}
+	// Every sheet's used range, which readers that trust it (openpyxl's read-only mode) need;
+	// excelize leaves it at A1 for sheets written cell by cell.
+	for _, name := range f.GetSheetList() {
+		if name == SheetParticipants && len(r.Units) > streamRows {
+			continue // set before it was streamed
+		}
+		rows, err := f.GetRows(name)
+		if err != nil {
+			return nil, err
+		}
+		cols := 1
+		for _, row := range rows {
+			cols = max(cols, len(row))
+		}
+		last, _ := excelize.CoordinatesToCellName(cols, max(1, len(rows)))
+		if err := f.SetSheetDimension(name, "A1:"+last); err != nil {
+			return nil, err
+		}
+	}
 	// Printed (or exported to PDF), every sheet fits the page width in landscape.
 	landscape, one, free := "landscape", 1, 0
 	for _, name := range f.GetSheetList() {
@@ -64,12 +83,18 @@ func BuildWorkbook(r *Result) (*excelize.File, error) {
 
 // WriteWorkbook writes the workbook to path atomically (see WriteAtomic).
 func WriteWorkbook(path string, r *Result, force bool) error {
+	return WriteAtomic(path, force, func(w io.Writer) error { return WorkbookTo(w, r) })
+}
+
+// WorkbookTo builds the workbook and writes it to w.
+func WorkbookTo(w io.Writer, r *Result) error {
 	f, err := BuildWorkbook(r)
 	if err != nil {
 		return err
 	}
 	defer f.Close()
-	return WriteAtomic(path, force, func(w io.Writer) error { _, err := f.WriteTo(w); return err })
+	_, err = f.WriteTo(w)
+	return err
 }
 
 func groupLabel(r *Result, g int) string { return r.GroupNames[g] }
@@ -244,7 +269,11 @@ func participantsSheet(f *excelize.File, st *styles, r *Result) error {
 	for i := 0; i < 2*k; i++ {
 		widths = append(widths, 10)
 	}
-	t, err := openTable(f, st, SheetParticipants, widths, len(r.Units) > streamRows)
+	streamed := 0
+	if len(r.Units) > streamRows {
+		streamed = 1 + len(r.Units)
+	}
+	t, err := openTable(f, st, SheetParticipants, widths, streamed)
 	if err != nil {
 		return err
 	}

@@ -3,6 +3,7 @@ package main
 import (
 	"context"
 	"fmt"
+	"io"
 	"math"
 	"path/filepath"
 	"slices"
@@ -71,13 +72,13 @@ func assignRun(ctx context.Context, o *assignOptions) error {
 	if !strings.HasSuffix(strings.ToLower(o.Out), ".xlsx") {
 		return flagErrorf("--out %q: the workbook needs a name ending in .xlsx", o.Out)
 	}
-	for _, p := range []string{o.Out, o.Members} {
-		if p != "" {
-			if err := reports.CheckTarget(p, o.Force); err != nil {
-				return err
-			}
-		}
+	inputs, _ := cohort.ExpandPaths(o.Inputs) // a bad input is the read's to report
+	plan, err := reports.PlanOutputs([]reports.Target{{Flag: "--out", Path: o.Out}, {Flag: "--members", Path: o.Members}},
+		append(inputs, o.Model), o.Temp, o.Force)
+	if err != nil {
+		return err
 	}
+	defer plan.Abort()
 	m, err := reports.ReadModel(o.Model)
 	if err != nil {
 		return err
@@ -87,6 +88,9 @@ func assignRun(ctx context.Context, o *assignOptions) error {
 	}
 	key, err := loadKey(o.Key)
 	if err != nil {
+		return err
+	}
+	if err := m.CheckKey(o.Model, o.Key, key); err != nil {
 		return err
 	}
 	t, extra, err := readForModel(ctx, o.Inputs, m, o.Temp)
@@ -132,13 +136,16 @@ func assignRun(ctx context.Context, o *assignOptions) error {
 	if err := ctx.Err(); err != nil {
 		return err
 	}
-	if err := reports.WriteWorkbook(o.Out, res, o.Force); err != nil {
+	if err := plan.Write("--out", func(w io.Writer) error { return reports.WorkbookTo(w, res) }); err != nil {
 		return err
 	}
-	if o.Members != "" {
-		if err := reports.WriteMembers(o.Members, res, o.Force); err != nil {
+	if plan.Has("--members") {
+		if err := plan.Write("--members", func(w io.Writer) error { return reports.MembersTo(w, res) }); err != nil {
 			return err
 		}
+	}
+	if err := plan.Commit(); err != nil {
+		return err
 	}
 	atypical := 0
 	for _, r := range res.Changes.Rows {

@@ -25,7 +25,8 @@ func newCheckCmd(env *Env, runF func(context.Context, *checkOptions) error) *cob
 windows, participants, features, and everything that would be excluded or dropped, with the time
 the read took. Use it to find problems in the data before a long run.
 
-Exit codes: 0 the tables can be analysed, 1 an error in the input, 2 wrong command line, 130 interrupted.`,
+Exit codes: 0 the tables can be analysed, 1 an error in the input or too few participants left
+to group, 2 wrong command line, 130 interrupted.`,
 		Example: `  $ cohortmix check site-*.csv.gz --id subject --order time`,
 		Args:    cobra.MinimumNArgs(1),
 		RunE: func(cmd *cobra.Command, args []string) error {
@@ -36,18 +37,18 @@ Exit codes: 0 the tables can be analysed, 1 an error in the input, 2 wrong comma
 			return checkRun(cmd.Context(), opts)
 		},
 	}
-	opts.Flags.register(cmd)
+	opts.Flags.registerRead(cmd)
 	return cmd
 }
 
 func checkRun(ctx context.Context, o *checkOptions) error {
-	ao, err := o.Flags.options(o.Inputs)
+	ro, err := o.Flags.readOptions()
 	if err != nil {
 		return err
 	}
-	ao.Read.Progress = readBar(&Env{IO: o.IO}, o.Flags.Quiet)
+	ro.Progress = readBar(&Env{IO: o.IO}, o.Flags.Quiet)
 	start := o.Now()
-	t, err := cohort.Read(ctx, o.Inputs, ao.Read)
+	t, err := cohort.Read(ctx, o.Inputs, ro)
 	if err != nil {
 		return err
 	}
@@ -72,6 +73,10 @@ func checkRun(ctx context.Context, o *checkOptions) error {
 	for _, n := range q.Notes {
 		fmt.Fprintf(o.IO.Out, "  note: %s\n", n)
 	}
+	if len(t.Units) < 3 {
+		return fmt.Errorf("%s: %d participants can be grouped (%d excluded, see above): %w; grouping needs at least 3", o.Inputs[0], len(t.Units), len(q.Excluded), cohort.ErrTooFew)
+	}
+	fmt.Fprintln(o.IO.Out, "the tables can be analysed")
 	return nil
 }
 

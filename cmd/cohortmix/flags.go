@@ -64,14 +64,8 @@ type mainFlags struct {
 }
 
 func (m *mainFlags) register(cmd *cobra.Command) {
+	m.registerRead(cmd)
 	f := cmd.Flags()
-	f.StringVar(&m.ID, "id", "participant", "column holding the participant id")
-	f.StringVar(&m.Order, "order", "window", "column holding the window order (integers or ISO-8601 times); - keeps file order")
-	f.StringVar(&m.Wave, "wave", "", "optional column holding the visit or wave; each wave of a participant is grouped on its own")
-	f.StringVar(&m.Label, "label", "", "optional column of known activity labels, used only for the validation table")
-	f.StringSliceVar(&m.Features, "features", nil, "feature name patterns, e.g. 'mean_*,vm_*' (default: every other numeric column)")
-	f.StringVar(&m.Missing, "missing", "drop", "missing feature cells: drop (the window) or impute (the participant's median)")
-	f.IntVar(&m.MinWindows, "min-windows", 20, "exclude participants with fewer usable windows")
 	f.StringVar(&m.Within, "within", "align", "within-participant step: align (each device's rotation and offsets, fitted with the states), rest, centre, robust-z or none")
 	f.StringSliceVar(&m.WithinFeatures, "within-features", nil, "features the within step touches: patterns, or * for all (default: every feature with align, otherwise those found to carry offsets)")
 	f.StringVar(&m.Axes, "axes", "auto", "the axis-mean features the align step turns, in x,y,z order; auto finds them by name; none turns nothing")
@@ -92,28 +86,49 @@ func (m *mainFlags) register(cmd *cobra.Command) {
 	f.IntVar(&m.Workers, "workers", 0, "worker goroutines (0: all cores); never changes the result")
 	f.StringVar(&m.Members, "members", "", "also write a participant,group CSV here")
 	f.StringVar(&m.Model, "model", "", "also write the model file (JSON) here, for later waves")
-	f.StringVar(&m.Temp, "temp", "", "folder for temporary files of large inputs (default: the folder of --out)")
 	f.StringVar(&m.Pseudonymize, "pseudonymize", "", "replace participant ids in every output by a keyed hash, with the key in this file")
 	f.BoolVar(&m.Force, "force", false, "replace existing output files")
+}
+
+// registerRead registers the flags that say how the tables are read, with --temp and --quiet:
+// all that 'check' takes.
+func (m *mainFlags) registerRead(cmd *cobra.Command) {
+	f := cmd.Flags()
+	f.StringVar(&m.ID, "id", "participant", "column holding the participant id")
+	f.StringVar(&m.Order, "order", "window", "column holding the window order (integers or ISO-8601 times); - keeps file order")
+	f.StringVar(&m.Wave, "wave", "", "optional column holding the visit or wave; each wave of a participant is grouped on its own")
+	f.StringVar(&m.Label, "label", "", "optional column of known activity labels, used only for the validation table")
+	f.StringSliceVar(&m.Features, "features", nil, "feature name patterns, e.g. 'mean_*,vm_*' (default: every other numeric column)")
+	f.StringVar(&m.Missing, "missing", "drop", "missing feature cells: drop (the window) or impute (the participant's median)")
+	f.IntVar(&m.MinWindows, "min-windows", 20, "exclude participants with fewer usable windows")
+	f.StringVar(&m.Temp, "temp", "", "folder for temporary files of large inputs (default: the folder of --out, or the system's)")
 	f.BoolVar(&m.Quiet, "quiet", false, "print only the final summary")
+}
+
+// readOptions turns the reading flags into the reader's settings.
+func (m *mainFlags) readOptions() (cohort.ReadOptions, error) {
+	ro := cohort.ReadOptions{ID: m.ID, Order: m.Order, Wave: m.Wave, Label: m.Label, Features: m.Features, MinWindows: m.MinWindows, TempDir: m.Temp}
+	switch m.Missing {
+	case "drop":
+		ro.Missing = cohort.DropWindow
+	case "impute":
+		ro.Missing = cohort.ImputeMedian
+	default:
+		return ro, flagErrorf("--missing %q: use drop or impute", m.Missing)
+	}
+	if m.MinWindows < 1 {
+		return ro, flagErrorf("--min-windows %d: use a number ≥ 1", m.MinWindows)
+	}
+	return ro, nil
 }
 
 // options turns the flags into the analysis settings.
 func (m *mainFlags) options(inputs []string) (analysisOptions, error) {
 	o := analysisOptions{Inputs: inputs, Seed: m.Seed, Workers: m.Workers, Bootstrap: m.Bootstrap, Sample: m.Sample}
-	o.Read = cohort.ReadOptions{ID: m.ID, Order: m.Order, Wave: m.Wave, Label: m.Label, Features: m.Features, MinWindows: m.MinWindows, TempDir: m.Temp}
-	switch m.Missing {
-	case "drop":
-		o.Read.Missing = cohort.DropWindow
-	case "impute":
-		o.Read.Missing = cohort.ImputeMedian
-	default:
-		return o, flagErrorf("--missing %q: use drop or impute", m.Missing)
-	}
-	if m.MinWindows < 1 {
-		return o, flagErrorf("--min-windows %d: use a number ≥ 1", m.MinWindows)
-	}
 	var err error
+	if o.Read, err = m.readOptions(); err != nil {
+		return o, err
+	}
 	if o.Norm.Within, err = normalize.ParseWithin(m.Within); err != nil {
 		return o, &flagError{err}
 	}

@@ -3,6 +3,7 @@ package main
 import (
 	"context"
 	"fmt"
+	"io"
 	"path/filepath"
 	"sort"
 	"strings"
@@ -23,6 +24,11 @@ type groupOptions struct {
 	Args   []string // the command line, for the settings sheet
 	// Synthetic marks the input as invented demo data in the workbook.
 	Synthetic bool
+	plan      *reports.Outputs // the outputs, checked before any work and committed together
+	// readOnly are files the run reads besides its inputs (refresh's previous model), which no
+	// output may replace.
+	readOnly []string
+	key      []byte // the pseudonymization key, when one is named
 }
 
 func newGroupCmd(env *Env, runF func(context.Context, *groupOptions) error) *cobra.Command {
@@ -58,30 +64,29 @@ func argsOf(cmd *cobra.Command) []string {
 	return append(out, cmd.Flags().Args()...)
 }
 
-// outputs checks every output path before any work, so a refused overwrite costs nothing.
+// outputs checks every output path before any work, so a refused overwrite costs nothing and a
+// mistaken path is found at once.
 func (o *groupOptions) outputs() error {
 	if !strings.HasSuffix(strings.ToLower(o.Out), ".xlsx") {
 		return flagErrorf("--out %q: the workbook needs a name ending in .xlsx", o.Out)
 	}
-	for _, p := range []string{o.Out, o.Flags.Members, o.Flags.Model} {
-		if p == "" {
-			continue
-		}
-		if err := reports.CheckTarget(p, o.Flags.Force); err != nil {
-			return err
-		}
-	}
-	return nil
+	inputs, _ := cohort.ExpandPaths(o.Inputs) // a bad input is the read's to report
+	var err error
+	o.plan, err = reports.PlanOutputs([]reports.Target{{Flag: "--out", Path: o.Out}, {Flag: "--members", Path: o.Flags.Members}, {Flag: "--model", Path: o.Flags.Model}},
+		append(inputs, o.readOnly...), o.Flags.Temp, o.Flags.Force)
+	return err
 }
 
 func groupRun(ctx context.Context, o *groupOptions) error {
 	if err := o.outputs(); err != nil {
 		return err
 	}
+	defer o.plan.Abort()
 	ao, key, err := o.prepare()
 	if err != nil {
 		return err
 	}
+	o.key = key
 	res, err := analyze(ctx, ao)
 	if err != nil {
 		return err
@@ -120,24 +125,28 @@ func (o *groupOptions) prepare() (analysisOptions, []byte, error) {
 	return ao, key, err
 }
 
-// write writes the workbook and, when asked for, the members CSV and the model file.
+// write writes the workbook and, when asked for, the members CSV and the model file, each to a
+// temporary file, and puts them all in place together.
 func (o *groupOptions) write(res *reports.Result, read cohort.ReadOptions) error {
-	if err := reports.WriteWorkbook(o.Out, res, o.Flags.Force); err != nil {
+	if err := o.plan.Write("--out", func(w io.Writer) error { return reports.WorkbookTo(w, res) }); err != nil {
 		return err
 	}
-	if o.Flags.Members != "" {
-		if err := reports.WriteMembers(o.Flags.Members, res, o.Flags.Force); err != nil {
+	if o.plan.Has("--members") {
+		if err := o.plan.Write("--members", func(w io.Writer) error { return reports.MembersTo(w, res) }); err != nil {
 			return err
 		}
 	}
-	if o.Flags.Model != "" {
+	if o.plan.Has("--model") {
 		m := reports.NewModel(res, read, res.FeatureRange)
 		m.Options = o.Flags.asOptions()
-		if err := reports.WriteModel(o.Flags.Model, m, o.Flags.Force); err != nil {
+		if o.key != nil {
+			m.Pseudonymized, m.KeyFingerprint = true, reports.KeyFingerprint(o.key)
+		}
+		if err := o.plan.Write("--model", func(w io.Writer) error { return reports.ModelTo(w, m) }); err != nil {
 			return err
 		}
 	}
-	return nil
+	return o.plan.Commit()
 }
 
 // loadKey reads the pseudonymization key when one is named.

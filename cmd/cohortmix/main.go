@@ -10,9 +10,11 @@ import (
 	"os"
 	"os/signal"
 	"runtime/pprof"
+	"strings"
 	"syscall"
 
 	"github.com/spf13/cobra"
+	"github.com/spf13/pflag"
 )
 
 // version is the tool's version, shown in every workbook and model file.
@@ -55,7 +57,48 @@ Exit codes: 0 success, 1 error in the input or the run, 2 wrong command line, 13
 	root.SetErr(env.IO.Err)
 	root.SetFlagErrorFunc(func(c *cobra.Command, err error) error { return &flagError{err} })
 	root.AddCommand(newGroupCmd(env, nil), newCheckCmd(env, nil), newAssignCmd(env, nil), newRefreshCmd(env, nil), newDemoCmd(env, nil), newSynthCmd(env, nil))
+	for _, c := range root.Commands() {
+		commandLineErrors(c)
+	}
 	return root
+}
+
+// commandLineErrors makes every mistake in a command's arguments and required flags a
+// flagError, so that it prints the usage and exits 2 as --help says.
+func commandLineErrors(c *cobra.Command) {
+	if args := c.Args; args != nil {
+		c.Args = func(cmd *cobra.Command, a []string) error {
+			if err := args(cmd, a); err != nil {
+				if strings.Contains(cmd.Use, "<windows.csv>") {
+					return flagErrorf("%v: name the tables to read (CSV, TSV, .xlsx or .parquet files, a folder or a quoted glob)", err)
+				}
+				return &flagError{err}
+			}
+			return nil
+		}
+	}
+	var required []string
+	c.Flags().VisitAll(func(f *pflag.Flag) {
+		if ann := f.Annotations[cobra.BashCompOneRequiredFlag]; len(ann) > 0 && ann[0] == "true" {
+			required = append(required, f.Name)
+			delete(f.Annotations, cobra.BashCompOneRequiredFlag) // checked here instead, as a flagError
+		}
+	})
+	if len(required) == 0 {
+		return
+	}
+	pre := c.PreRunE
+	c.PreRunE = func(cmd *cobra.Command, a []string) error {
+		for _, name := range required {
+			if !cmd.Flags().Changed(name) {
+				return flagErrorf("--%s is required: %s", name, cmd.Flags().Lookup(name).Usage)
+			}
+		}
+		if pre != nil {
+			return pre(cmd, a)
+		}
+		return nil
+	}
 }
 
 func main() {
@@ -80,6 +123,11 @@ func main() {
 func run(ctx context.Context, env *Env, args []string) int {
 	root := newRootCmd(env)
 	root.SetArgs(args)
+	if _, _, err := root.Find(args); err != nil { // an unknown command
+		fmt.Fprintln(env.IO.Err, "cohortmix: "+err.Error())
+		fmt.Fprintln(env.IO.Err, "Run 'cohortmix --help' for usage.")
+		return 2
+	}
 	err := root.ExecuteContext(ctx)
 	if err == nil {
 		return 0

@@ -40,7 +40,6 @@ var recoveryVariantList = []variant{
 	{"no log scale", []string{"--log", "none"}},
 	{"no rotation", []string{"--axes", "none"}},
 	{"6 states", []string{"--states", "6"}},
-	{"states by CH", []string{"--states-rule", "ch"}},
 	{"PCA 0.99", []string{"--pca", "0.99"}},
 	{"groups by stability", []string{"--criterion", "stability"}},
 	{"groups by silhouette", []string{"--criterion", "silhouette"}},

@@ -52,9 +52,11 @@ Exit codes: 0 success, 1 error in the input or the run, 2 wrong command line, 13
 }
 
 func refreshRun(ctx context.Context, o *refreshOptions) error {
+	o.readOnly = []string{o.Previous}
 	if err := o.outputs(); err != nil {
 		return err
 	}
+	defer o.plan.Abort()
 	prev, err := reports.ReadModel(o.Previous)
 	if err != nil {
 		return err
@@ -71,6 +73,10 @@ func refreshRun(ctx context.Context, o *refreshOptions) error {
 	if err != nil {
 		return err
 	}
+	if err := prev.CheckKey(o.Previous, o.Flags.Pseudonymize, key); err != nil {
+		return err
+	}
+	o.key = key
 	f, err := fitAll(ctx, ao)
 	if err != nil {
 		return err
