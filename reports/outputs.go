@@ -106,7 +106,7 @@ func (o *Outputs) Has(flag string) bool {
 }
 
 // Write writes the output of this flag through write into a temporary file beside its target;
-// Commit puts it in place.
+// Commit puts it in place. When writing fails, every temporary file of the run is removed.
 func (o *Outputs) Write(flag string, write func(io.Writer) error) (err error) {
 	var t *Target
 	for i := range o.targets {
@@ -119,12 +119,16 @@ func (o *Outputs) Write(flag string, write func(io.Writer) error) (err error) {
 	}
 	tmp, err := os.CreateTemp(filepath.Dir(t.Path), "."+filepath.Base(t.Path)+".*.partial")
 	if err != nil {
+		o.Abort()
 		return fmt.Errorf("%s %s: cannot create a temporary file beside it: %w", t.Flag, t.Path, err)
 	}
 	o.temps[t.Path] = tmp.Name()
 	defer func() {
 		if cerr := tmp.Close(); err == nil && cerr != nil {
 			err = fmt.Errorf("%s %s: %w", t.Flag, t.Path, cerr)
+		}
+		if err != nil {
+			o.Abort() // one output failed: none of the run's outputs will be committed
 		}
 	}()
 	if err = tmp.Chmod(0o644); err != nil { // CreateTemp makes 0600; outputs get the usual mode

@@ -46,7 +46,13 @@ for ws in wb.worksheets:
     for row in ws.iter_rows():
         for c in row:
             assert c.data_type != "f", f"{ws.title}!{c.coordinate} holds a formula"
-print(f"check_workbooks: ok: openpyxl read {len(wb.sheetnames)} sheets, {cells} cells, no formulas")
+# Read-only mode trusts each sheet's <dimension>; it must give every row the full load gives.
+ro = openpyxl.load_workbook(sys.argv[1], read_only=True)
+for ws in wb.worksheets:
+    full = ws.max_row
+    streamed = sum(1 for _ in ro[ws.title].iter_rows())
+    assert streamed == full and ro[ws.title].max_row == full, f"{ws.title}: read-only mode sees {streamed} rows (dimension {ro[ws.title].calculate_dimension()}), the full load {full}"
+print(f"check_workbooks: ok: openpyxl read {len(wb.sheetnames)} sheets, {cells} cells, no formulas; read-only mode sees every row")
 PY
   then
     echo "check_workbooks: FAIL: openpyxl could not read $book"; fail=1

@@ -1,0 +1,292 @@
+package main
+
+import (
+	"archive/zip"
+	"bytes"
+	"context"
+	"io"
+	"os"
+	"path/filepath"
+	"regexp"
+	"strconv"
+	"strings"
+	"testing"
+
+	"github.com/cohortmix/cohortmix/cohort/synth"
+	"github.com/xuri/excelize/v2"
+)
+
+// runCode runs cohortmix in-process and returns its exit code and the one-line error it printed.
+func runCode(args ...string) (int, string) {
+	env, _, errb := testEnv()
+	code := run(context.Background(), env, args)
+	return code, strings.TrimSpace(errb.String())
+}
+
+// synthCohort40 writes a 40-participant synthetic cohort (synth seed 13) into dir.
+func synthCohort40(t *testing.T, dir string) string {
+	t.Helper()
+	input := filepath.Join(dir, "c.csv")
+	if _, err := synth.WriteFile(input, synth.Options{Participants: 40, Windows: 300, Seed: 13}); err != nil {
+		t.Fatal(err)
+	}
+	return input
+}
+
+// Outputs never replace an input, whatever --force says, and every output path is checked
+// before any window is read: a bad one costs nothing and leaves nothing behind.
+func TestOutputsAreCheckedFirst(t *testing.T) {
+	dir := t.TempDir()
+	input := synthCohort40(t, dir)
+	before, _ := os.ReadFile(input)
+	// A broken input: if any of these runs read it, the message would be about line 3.
+	broken := writeFile(t, dir, "broken.csv", "participant,window,f1\nP1,0,1\nP1,1,x\n")
+	model := filepath.Join(dir, "model.json")
+	mustRun(t, "group", input, "--out", filepath.Join(dir, "first.xlsx"), "--model", model, "--states", "5", "--groups", "3")
+	modelBefore, _ := os.ReadFile(model)
+	out := filepath.Join(dir, "r.xlsx")
+	cases := []struct {
+		name string
+		args []string
+		want string // a part of the one-line message
+	}{
+		{"members onto the input", []string{"group", input, "--out", out, "--members", input, "--force"}, "--members " + input + ": is one of the inputs"},
+		{"workbook onto the input", []string{"group", input, "--out", input + ".xlsx", "--force"}, ""}, // not an input: allowed, checked below not to exist
+		{"model onto the input through another path", []string{"group", input, "--out", out, "--model", filepath.Join(dir, ".", "c.csv"), "--force"}, "--model " + filepath.Join(dir, "c.csv") + ": is one of the inputs"},
+		{"members onto the previous model", []string{"refresh", "--previous", model, input, "--out", out, "--members", model, "--force"}, "--members " + model + ": is one of the inputs"},
+		{"members onto assign's model", []string{"assign", "--model", model, input, "--out", out, "--members", model, "--force"}, "--members " + model + ": is one of the inputs"},
+		{"members into a missing folder", []string{"group", broken, "--out", out, "--members", filepath.Join(dir, "nofolder", "m.csv")}, "--members " + filepath.Join(dir, "nofolder", "m.csv") + ": the folder " + filepath.Join(dir, "nofolder") + " does not exist"},
+		{"workbook into a missing folder", []string{"group", broken, "--out", filepath.Join(dir, "nofolder", "r.xlsx"), "--temp", os.TempDir()}, "--out " + filepath.Join(dir, "nofolder", "r.xlsx") + ": the folder"},
+		{"two outputs on one file", []string{"group", broken, "--out", out, "--members", filepath.Join(dir, "m.csv"), "--model", filepath.Join(dir, "m.csv")}, "--model " + filepath.Join(dir, "m.csv") + ": --members names the same file"},
+		{"output onto the temp folder", []string{"group", broken, "--out", out, "--members", dir, "--temp", dir}, "--members " + dir + ": is the folder for temporary files"},
+		{"assign into a missing folder", []string{"assign", "--model", model, broken, "--out", filepath.Join(dir, "no", "w.xlsx")}, "--out " + filepath.Join(dir, "no", "w.xlsx") + ": the folder"},
+	}
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			code, msg := runCode(c.args...)
+			if c.want == "" {
+				if code != 0 {
+					t.Fatalf("exit %d: %s", code, msg)
+				}
+				return
+			}
+			if code != 1 || !strings.Contains(msg, c.want) || strings.Contains(msg, "\n") {
+				t.Errorf("exit %d, message %q; want exit 1 and one line with %q", code, msg, c.want)
+			}
+			if _, err := os.Stat(out); err == nil {
+				t.Errorf("%s was written by a run that failed", out)
+			}
+		})
+	}
+	if after, _ := os.ReadFile(input); !bytes.Equal(before, after) {
+		t.Error("an input was changed")
+	}
+	if after, _ := os.ReadFile(model); !bytes.Equal(modelBefore, after) {
+		t.Error("the model read by refresh or assign was changed")
+	}
+	if left, _ := filepath.Glob(filepath.Join(dir, ".*partial")); len(left) > 0 {
+		t.Errorf("temporary files left behind: %v", left)
+	}
+}
+
+// When the run fails after some outputs are written, none is put in place, and earlier outputs
+// stay as they were: here the members CSV fails (its folder is replaced by a file while the run
+// works, which the check before cannot foresee), so neither the workbook nor the model appears.
+func TestNoHalfOutputs(t *testing.T) {
+	dir := t.TempDir()
+	input := synthCohort40(t, dir)
+	out := filepath.Join(dir, "r.xlsx")
+	old := []byte("an earlier workbook")
+	os.WriteFile(out, old, 0o644)
+	sub := filepath.Join(dir, "sub")
+	os.Mkdir(sub, 0o755)
+	o := &groupOptions{IO: func() IO { e, _, _ := testEnv(); return e.IO }(), Now: fixedNow, Inputs: []string{input}, Out: out, Flags: defaultFlags()}
+	o.Flags.Force = true
+	o.Flags.Model = filepath.Join(dir, "model.json")
+	o.Flags.Members = filepath.Join(sub, "m.csv")
+	o.Flags.States, o.Flags.Groups = "5", "3"
+	if err := o.outputs(); err != nil {
+		t.Fatal(err)
+	}
+	defer o.plan.Abort()
+	ao, _, err := o.prepare()
+	if err != nil {
+		t.Fatal(err)
+	}
+	res, err := analyze(context.Background(), ao)
+	if err != nil {
+		t.Fatal(err)
+	}
+	os.RemoveAll(sub)
+	os.WriteFile(sub, nil, 0o644) // the folder is now a file
+	if err := o.write(res, ao.Read); err == nil {
+		t.Fatal("writing into a folder that became a file succeeded")
+	}
+	if got, _ := os.ReadFile(out); !bytes.Equal(got, old) {
+		t.Error("the earlier workbook was replaced by a run that failed")
+	}
+	if _, err := os.Stat(o.Flags.Model); err == nil {
+		t.Error("the model was written by a run that failed")
+	}
+	if left, _ := filepath.Glob(filepath.Join(dir, ".*partial")); len(left) > 0 {
+		t.Errorf("temporary files left behind: %v", left)
+	}
+}
+
+// A model records whether its ids are pseudonyms and a fingerprint of the key; assign and
+// refresh refuse a pseudonymized model without the key, a key with a plain model, and another key.
+func TestPseudonymKeyMustFitTheModel(t *testing.T) {
+	dir := t.TempDir()
+	input := filepath.Join(dir, "c.csv")
+	synth.WriteFile(input, synth.Options{Participants: 40, Windows: 300, Seed: 13, IDPrefix: "STUDY-"})
+	key := writeFile(t, dir, "key", "0123456789abcdef-analyst-key")
+	other := writeFile(t, dir, "other", "another-key-of-sixteen-bytes")
+	keyed, plain := filepath.Join(dir, "keyed.json"), filepath.Join(dir, "plain.json")
+	mustRun(t, "group", input, "--out", filepath.Join(dir, "k.xlsx"), "--model", keyed, "--pseudonymize", key, "--states", "5", "--groups", "3")
+	mustRun(t, "group", input, "--out", filepath.Join(dir, "p.xlsx"), "--model", plain, "--states", "5", "--groups", "3")
+	text, _ := os.ReadFile(keyed)
+	if !bytes.Contains(text, []byte(`"pseudonymized": true`)) || !regexp.MustCompile(`"key_fingerprint": "[0-9a-f]{16}"`).Match(text) {
+		t.Error("the keyed model does not record its pseudonymization and key fingerprint")
+	}
+	if bytes.Contains(text, []byte("0123456789abcdef-analyst-key")) || bytes.Contains(text, []byte("STUDY-")) {
+		t.Error("the keyed model holds the key or a study id")
+	}
+	out := filepath.Join(dir, "w.xlsx")
+	for _, cmd := range []string{"assign", "refresh"} {
+		modelFlag := map[string]string{"assign": "--model", "refresh": "--previous"}[cmd]
+		for _, c := range []struct {
+			name, model string
+			key         []string
+			want        string
+		}{
+			{"no key for a pseudonymized model", keyed, nil, "the model holds pseudonyms, not study ids"},
+			{"a key for a plain model", plain, []string{"--pseudonymize", key}, "the model holds study ids, not pseudonyms"},
+			{"another key", keyed, []string{"--pseudonymize", other}, "was pseudonymized with another key than " + other},
+		} {
+			args := append([]string{cmd, modelFlag, c.model, input, "--out", out}, c.key...)
+			code, msg := runCode(args...)
+			if code != 1 || !strings.Contains(msg, c.want) {
+				t.Errorf("%s, %s: exit %d, %q; want exit 1 with %q", cmd, c.name, code, msg, c.want)
+			}
+		}
+	}
+	// With the right key every participant returns, and no study id reaches the outputs.
+	mustRun(t, "assign", "--model", keyed, input, "--out", out, "--pseudonymize", key, "--members", filepath.Join(dir, "wm.csv"))
+	f, err := excelize.OpenFile(out)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer f.Close()
+	rows, _ := f.GetRows("Changes")
+	if !strings.Contains(flattenRows(rows), "40 returning participants") {
+		t.Errorf("the Changes sheet does not count the 40 returning participants:\n%s", flattenRows(rows)[:min(400, len(flattenRows(rows)))])
+	}
+	if b := readZipText(t, out); bytes.Contains(b, []byte("STUDY-")) {
+		t.Error("the assign workbook holds a study id")
+	}
+}
+
+// Every command-line mistake exits 2, as --help says, for every command.
+func TestCommandLineMistakesExit2(t *testing.T) {
+	dir := t.TempDir()
+	in := writeFile(t, dir, "c.csv", cohortText(4, 30))
+	cases := [][]string{
+		{"nosuchcommand"},
+		{"group", in},                // no --out
+		{"group", "--out", "r.xlsx"}, // no input
+		{"group", in, "--out", "r.xlsx", "--no-such-flag"},
+		{"group", in, "--out", "r.txt"}, // not a workbook name
+		{"group", in, "--out", "r.xlsx", "--states", "many"},
+		{"check"},                           // no input
+		{"check", in, "--members", "m.csv"}, // check writes nothing
+		{"check", in, "--model", "m.json"},
+		{"check", in, "--states", "4"},
+		{"check", in, "--force"},
+		{"check", in, "--missing", "guess"},
+		{"assign", in, "--out", "w.xlsx"},   // no --model
+		{"assign", "--model", "m.json", in}, // no --out
+		{"assign", "--model", "m.json", "--out", "w.xlsx"},
+		{"refresh", in, "--out", "w.xlsx"}, // no --previous
+		{"refresh", "--previous", "m.json", in},
+		{"demo"}, // no --out
+		{"demo", "--out", dir, "--participants", "x"},
+		{"synth"}, // no --out
+		{"synth", "--out", "s.csv", "--scenario", "3", "--groups", "4"},
+	}
+	for _, args := range cases {
+		code, msg := runCode(args...)
+		if code != 2 {
+			t.Errorf("cohortmix %s: exit %d (%s), want 2", strings.Join(args, " "), code, msg)
+		}
+	}
+}
+
+// check fails when nothing can be grouped, and says so.
+func TestCheckFailsWhenNothingCanBeGrouped(t *testing.T) {
+	dir := t.TempDir()
+	in := writeFile(t, dir, "short.csv", cohortText(4, 10)) // 10 windows each, under the minimum 20
+	code, msg := runCode("check", in)
+	if code != 1 || !strings.Contains(msg, "0 participants can be grouped (4 excluded") {
+		t.Errorf("exit %d, %q; want exit 1 saying no participant can be grouped", code, msg)
+	}
+	ok := writeFile(t, dir, "ok.csv", cohortText(4, 30))
+	if out := mustRun(t, "check", ok); !strings.Contains(out, "the tables can be analysed") {
+		t.Errorf("check of a good table does not say it can be analysed:\n%s", out)
+	}
+}
+
+// Every sheet's <dimension> covers all its rows and columns, so that readers that trust it
+// (openpyxl's read-only mode; testdata/check_workbooks.sh reads every sheet that way) see every
+// row. Both forms are checked: sheets built in memory and the streamed participants sheet.
+func TestSheetDimensionsCoverTheirCells(t *testing.T) {
+	dir := t.TempDir()
+	input := synthCohort40(t, dir)
+	out := filepath.Join(dir, "r.xlsx")
+	mustRun(t, "group", input, "--out", out, "--states", "5", "--groups", "3")
+	checkDimensions(t, out)
+}
+
+// checkDimensions compares each sheet's recorded dimension with its last row and column.
+func checkDimensions(t *testing.T, path string) {
+	t.Helper()
+	zr, err := zip.OpenReader(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer zr.Close()
+	dimRe := regexp.MustCompile(`<dimension ref="([^"]*)"`)
+	cellRe := regexp.MustCompile(`<c r="([A-Z]+)([0-9]+)"`)
+	sheets := 0
+	for _, zf := range zr.File {
+		if !strings.HasPrefix(zf.Name, "xl/worksheets/sheet") {
+			continue
+		}
+		sheets++
+		rc, _ := zf.Open()
+		b, _ := io.ReadAll(rc)
+		rc.Close()
+		m := dimRe.FindSubmatch(b)
+		if m == nil {
+			t.Errorf("%s: no dimension", zf.Name)
+			continue
+		}
+		lastCol, lastRow := 0, 0
+		for _, c := range cellRe.FindAllSubmatch(b, -1) {
+			col, _ := excelize.ColumnNameToNumber(string(c[1]))
+			row, _ := strconv.Atoi(string(c[2]))
+			lastCol, lastRow = max(lastCol, col), max(lastRow, row)
+		}
+		ref := string(m[1])
+		_, end, _ := strings.Cut(ref, ":")
+		if end == "" {
+			end = ref
+		}
+		col, row, err := excelize.CellNameToCoordinates(end)
+		if err != nil || col < lastCol || row < lastRow {
+			t.Errorf("%s: dimension %s, but cells reach column %d, row %d", zf.Name, ref, lastCol, lastRow)
+		}
+	}
+	if sheets < 5 {
+		t.Errorf("only %d sheets found", sheets)
+	}
+}
