@@ -90,12 +90,12 @@ func changesSheet(f *excelize.File, st *styles, r *Result) error {
 		return err
 	}
 	rows := append([]ChangeRow(nil), c.Rows...)
-	// Waves of the same participant stay side by side.
+	// Ids in natural order (P2 before P10); waves of the same participant side by side.
 	sort.SliceStable(rows, func(a, b int) bool {
 		if rows[a].ID != rows[b].ID {
-			return rows[a].ID < rows[b].ID
+			return NaturalLess(rows[a].ID, rows[b].ID)
 		}
-		return rows[a].Wave < rows[b].Wave
+		return NaturalLess(rows[a].Wave, rows[b].Wave)
 	})
 	for _, row := range rows {
 		at := ""

@@ -12,18 +12,25 @@ func WriteMembers(path string, r *Result, force bool) error {
 }
 
 // MembersTo writes the plain participant, wave, group CSV for R, Stata or Python. Ids are
-// written exactly as they came in, so that they join back to the study's tables.
+// written exactly as they came in, so that they join back to the study's tables; a
+// participant's waves sit side by side. An atypical participant has no group and the flag
+// "atypical"; an excluded one has no group and the flag "excluded: " and the reason.
 func MembersTo(w io.Writer, r *Result) error {
 	cw := csv.NewWriter(w)
 	if err := cw.Write([]string{"participant", "wave", "group", "silhouette", "flag"}); err != nil {
 		return err
 	}
-	for _, u := range r.Units {
+	for _, i := range unitOrder(r) {
+		u := r.Units[i]
 		sil := ""
 		if u.Silhouette == u.Silhouette { // not NaN
 			sil = strconv.FormatFloat(u.Silhouette, 'f', 4, 64)
 		}
-		if err := cw.Write([]string{u.ID, u.Wave, r.GroupNames[u.Group], sil, u.Flag}); err != nil {
+		group, flag := r.GroupNames[u.Group], u.Flag
+		if u.Atypical {
+			group, flag = "", "atypical"
+		}
+		if err := cw.Write([]string{u.ID, u.Wave, group, sil, flag}); err != nil {
 			return err
 		}
 	}

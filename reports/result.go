@@ -32,6 +32,9 @@ type UnitRow struct {
 	Bout       []float64
 	Stay       float64 // share of bootstrap resamples in which it stayed with its group; NaN when not computed
 	Turn       float64 // degrees its device was turned by the align step; NaN without one
+	// Atypical marks a unit that assign found farther from every group than the model's members:
+	// it belongs to no group (Group is only its nearest).
+	Atypical bool
 }
 
 // Result is everything an analysis produced, as the reports show it.
@@ -65,6 +68,9 @@ type Result struct {
 	// SensitivityNote reads the sensitivity table in a line.
 	SensitivityNote string
 	Notes           []string // what the run decided on its own that a reader should know (not warnings)
+	// SeparationBasis says which units the separating-variable tests use when that is not
+	// simply every grouped participant (waves: one per person; atypical ones left out).
+	SeparationBasis string
 }
 
 // Sensitivity is one row of the sensitivity table: the adjusted Rand index between the groups

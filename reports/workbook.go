@@ -128,7 +128,7 @@ func summarySheet(f *excelize.File, st *styles, r *Result) error {
 		}
 	}
 	t.blank()
-	q := r.Quality
+	q, c := r.Quality, r.Counts()
 	done := fmt.Sprintf("Windows were standardized within each participant (%s, on %s) and across the cohort (%s)%s; %d movement states were learned by k-means from %d sampled windows; participants were grouped on their state mixtures by %s into %d groups.",
 		r.Norm.Within, touchedText(r), r.Norm.ScaleKind, pcaText(r), r.States.K, r.States.Sampled, r.Grouping.Method, r.Grouping.K)
 	if r.Changes != nil && r.Changes.Mode == "assign" {
@@ -139,7 +139,7 @@ func summarySheet(f *excelize.File, st *styles, r *Result) error {
 		{"What was done", done},
 		{"Number of states", fmt.Sprintf("%d (%s)", r.States.K, r.States.Rule)},
 		{"Number of groups", fmt.Sprintf("%d (%s)", r.Grouping.K, choiceText(r))},
-		{"Participants", fmt.Sprintf("%d in the input: %d grouped, %d excluded (see %s)", q.UnitsIn, len(r.Units), len(q.Excluded), SheetQuality)},
+		{capital(c.Unit(2)), participantsText(c)},
 		{"Windows", fmt.Sprintf("%d in the input: %d used, %d dropped for missing cells, %d in excluded participants", q.WindowsIn, q.WindowsIn-q.WindowsDropped-q.WindowsExcluded, q.WindowsDropped, q.WindowsExcluded)},
 		{"Features", fmt.Sprintf("%d used: %s", len(r.Features), join(r.Features))},
 		{"Created", r.Created.UTC().Format("2006-01-02 15:04:05 UTC") + " by " + r.Tool + " " + r.Version},
@@ -296,8 +296,13 @@ func participantsSheet(f *excelize.File, st *styles, r *Result) error {
 	if err := t.heading(head...); err != nil {
 		return err
 	}
-	for _, u := range r.Units {
-		cells := []v{{u.ID, st.text}, {u.Wave, st.text}, {u.Windows, st.integer}, {groupLabel(r, u.Group), st.text},
+	for _, i := range unitOrder(r) {
+		u := r.Units[i]
+		group := groupLabel(r, u.Group)
+		if u.Atypical {
+			group = ""
+		}
+		cells := []v{{u.ID, st.text}, {u.Wave, st.text}, {u.Windows, st.integer}, {group, st.text},
 			{u.Silhouette, st.dec3}, {u.Distance, st.dec3}, {u.Flag, st.text}}
 		if stay {
 			cells = append(cells, v{u.Stay, st.pct})
@@ -335,9 +340,13 @@ func groupsSheet(f *excelize.File, st *styles, r *Result) error {
 	if err := t.freeze(1); err != nil {
 		return err
 	}
-	head := []string{"group", "members", "mean silhouette", "description"}
+	members := "members"
+	if r.Counts().Waves {
+		members = "members (participant-waves)"
+	}
+	head := []string{"group", members, "mean silhouette", "description"}
 	if stable {
-		head = []string{"group", "members", "mean silhouette", "stability (bootstrap Jaccard)", "description"}
+		head = []string{"group", members, "mean silhouette", "stability (bootstrap Jaccard)", "description"}
 	}
 	for s := 0; s < k; s++ {
 		head = append(head, "mean share "+r.StateNames[s])
@@ -353,7 +362,7 @@ func groupsSheet(f *excelize.File, st *styles, r *Result) error {
 		share := make([]float64, k)
 		bout := make([]float64, k)
 		for _, u := range r.Units {
-			if u.Group != g {
+			if u.Group != g || u.Atypical {
 				continue
 			}
 			n++
@@ -483,7 +492,11 @@ func separatingSheet(f *excelize.File, st *styles, r *Result) error {
 	if err := t.freeze(2); err != nil {
 		return err
 	}
-	if err := t.put(v{"Descriptive only: the groups were found on these data, so the p- and q-values do not confirm a difference.", st.note}); err != nil {
+	note := "Descriptive only: the groups were found on these data, so the p- and q-values do not confirm a difference."
+	if r.SeparationBasis != "" {
+		note += " " + r.SeparationBasis
+	}
+	if err := t.put(v{note, st.note}); err != nil {
 		return err
 	}
 	head := []string{"variable", "kind", "ε²", "H", "p", "q (BH)"}
@@ -631,18 +644,26 @@ func qualitySheet(f *excelize.File, st *styles, r *Result) error {
 	if err != nil {
 		return err
 	}
-	q := r.Quality
+	q, c := r.Quality, r.Counts()
 	if err := t.put(v{"Accounting", st.title}); err != nil {
 		return err
 	}
-	for _, row := range []struct {
+	type count struct {
 		a string
 		n int
-	}{
-		{"participants in", q.UnitsIn}, {"participants grouped", len(r.Units)}, {"participants excluded", len(q.Excluded)},
-		{"windows in", q.WindowsIn}, {"windows used", q.WindowsIn - q.WindowsDropped - q.WindowsExcluded},
-		{"windows dropped (missing cells)", q.WindowsDropped}, {"windows of excluded participants", q.WindowsExcluded}, {"cells imputed", q.CellsImputed},
-	} {
+	}
+	u := c.Unit(2)
+	counts := []count{{u + " in", q.UnitsIn}, {u + " grouped", c.Grouped}}
+	if c.Atypical > 0 {
+		counts = append(counts, count{u + " atypical (in no group)", c.Atypical})
+	}
+	counts = append(counts, count{u + " excluded", len(q.Excluded)})
+	if c.Waves {
+		counts = append(counts, count{"people in", c.PeopleIn}, count{"people with a grouped wave", c.PeopleGrouped})
+	}
+	counts = append(counts, count{"windows in", q.WindowsIn}, count{"windows used", q.WindowsIn - q.WindowsDropped - q.WindowsExcluded},
+		count{"windows dropped (missing cells)", q.WindowsDropped}, count{"windows of excluded " + u, q.WindowsExcluded}, count{"cells imputed", q.CellsImputed})
+	for _, row := range counts {
 		if err := t.put(v{row.a, st.text}, v{row.n, st.integer}); err != nil {
 			return err
 		}

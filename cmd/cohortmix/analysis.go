@@ -58,6 +58,9 @@ type fitted struct {
 	sample  sampleUnits           // the participants and windows sampled for the fit
 	notes   []string              // what the run decided on its own, for the reader
 	g       *cohort.Grouping
+	// atypical marks the units assign placed farther from every group than the model's members;
+	// they belong to no group (nil: none).
+	atypical []bool
 	// sensitivity compares the groups with those under other choices (fitTable only).
 	sensitivity []reports.Sensitivity
 }
@@ -436,7 +439,20 @@ func describe(f *fitted, stateNames, groupNames []string) (*reports.Result, erro
 		vars = append(vars, v)
 		res.FeatureRange = append(res.FeatureRange, [3]float64{percentile(v.Values, 0.01), percentile(v.Values, 0.5), percentile(v.Values, 0.99)})
 	}
-	if res.Separations, res.NotTested, err = cohort.Separate(vars, g.Labels, g.K); err != nil {
+	rows, basis := separationRows(t.Units, f.atypical)
+	res.SeparationBasis = basis
+	labels := make([]int, len(rows))
+	for r, i := range rows {
+		labels[r] = g.Labels[i]
+	}
+	tested := make([]cohort.Variable, len(vars))
+	for j, v := range vars {
+		tested[j] = cohort.Variable{Name: v.Name, Kind: v.Kind, Values: make([]float64, len(rows))}
+		for r, i := range rows {
+			tested[j].Values[r] = v.Values[i]
+		}
+	}
+	if res.Separations, res.NotTested, err = cohort.Separate(tested, labels, g.K); err != nil {
 		return nil, err
 	}
 	res.AtypicalCut = percentile(g.Distance, 0.99)
@@ -450,6 +466,9 @@ func describe(f *fitted, stateNames, groupNames []string) (*reports.Result, erro
 			row.Turn = f.devices[i].Angle()
 		}
 		switch s := g.Silhouette[i]; {
+		case f.atypical != nil && f.atypical[i]:
+			row.Atypical = true
+			row.Flag = "atypical: farther from every group than 99% of the model's members (nearest " + groupNames[g.Labels[i]] + ")"
 		case math.IsNaN(s):
 		case s < 0:
 			row.Flag = "weak fit: closer to another group"
@@ -460,8 +479,40 @@ func describe(f *fitted, stateNames, groupNames []string) (*reports.Result, erro
 	}
 	res.StateNames, res.GroupNames = stateNames, groupNames
 	res.StateLines = stateLines(res.StateDesc, t.Features)
-	res.GroupLines = groupLines(g, sigs, stateNames)
+	res.GroupLines = groupLines(g, sigs, stateNames, t.Units, f.atypical)
 	return res, nil
+}
+
+// separationRows are the units the separating-variable tests use, and in words which they are.
+// Each person counts once: without waves every unit that is in a group; with waves each
+// person's first grouped wave (in the natural order of the wave labels), since a person's waves
+// are repeated measures, not independent people. Atypical units are in no group and left out.
+func separationRows(units []*cohort.Unit, atypical []bool) ([]int, string) {
+	first := map[string]int{}
+	var rows []int
+	waves := false
+	for i, u := range units {
+		if atypical != nil && atypical[i] {
+			continue
+		}
+		waves = waves || u.Wave != ""
+		j, seen := first[u.ID]
+		switch {
+		case !seen:
+			first[u.ID] = len(rows)
+			rows = append(rows, i)
+		case reports.NaturalLess(u.Wave, units[rows[j]].Wave):
+			rows[j] = i
+		}
+	}
+	basis := ""
+	if waves {
+		basis = fmt.Sprintf("Each person counts once in these tests: the values of their first grouped wave (in the natural order of the wave labels), %d people; a person's later waves are repeated measures, not other people.", len(rows))
+	}
+	if n := len(units) - len(rows); n > 0 && !waves {
+		basis = fmt.Sprintf("The %d atypical participants are in no group and left out of these tests.", n)
+	}
+	return rows, basis
 }
 
 // stateLines describes each state in a line naming the features that set it apart.
@@ -477,31 +528,48 @@ func stateLines(desc []profile.Description, features []string) []string {
 			parts = append(parts, fmt.Sprintf("%s %s", word, features[dr.Feature]))
 		}
 		lines[s] = fmt.Sprintf("%.0f%% of windows; %s than average", 100*dsc.Share, strings.Join(parts, ", "))
+		if len(parts) == 0 {
+			lines[s] = fmt.Sprintf("%.0f%% of windows; no feature sets it apart from the average", 100*dsc.Share)
+		}
 	}
 	return lines
 }
 
-// groupLines describes each group in a line, from its mixture against the cohort's.
-func groupLines(g *cohort.Grouping, sigs []profile.Signature, stateNames []string) []string {
+// groupLines describes each group in a line, from its mixture against the mean of the grouped
+// units; atypical units (in no group) are left out. With waves it counts participant-waves and
+// people apart.
+func groupLines(g *cohort.Grouping, sigs []profile.Signature, stateNames []string, units []*cohort.Unit, atypical []bool) []string {
 	k := len(sigs[0].Share)
 	meanShare := make([]float64, k)
 	meanBout := make([]float64, k)
-	for _, s := range sigs {
-		for j := 0; j < k; j++ {
-			meanShare[j] += s.Share[j] / float64(len(sigs))
-			meanBout[j] += s.MeanBout[j] / float64(len(sigs))
+	grouped, waves := 0.0, false
+	for i, s := range sigs {
+		waves = waves || units[i].Wave != ""
+		if atypical != nil && atypical[i] {
+			continue
 		}
+		grouped++
+		for j := 0; j < k; j++ {
+			meanShare[j] += s.Share[j]
+			meanBout[j] += s.MeanBout[j]
+		}
+	}
+	for j := 0; j < k; j++ {
+		meanShare[j] /= max(1, grouped)
+		meanBout[j] /= max(1, grouped)
 	}
 	lines := make([]string, g.K)
 	for c := 0; c < g.K; c++ {
 		share := make([]float64, k)
 		bout := make([]float64, k)
 		n := 0.0
+		people := map[string]bool{}
 		for i, s := range sigs {
-			if g.Labels[i] != c {
+			if g.Labels[i] != c || atypical != nil && atypical[i] {
 				continue
 			}
 			n++
+			people[units[i].ID] = true
 			for j := 0; j < k; j++ {
 				share[j] += s.Share[j]
 				bout[j] += s.MeanBout[j]
@@ -537,7 +605,14 @@ func groupLines(g *cohort.Grouping, sigs []profile.Signature, stateNames []strin
 		if len(parts) == 0 {
 			parts = append(parts, "close to the cohort's average mixture")
 		}
-		lines[c] = fmt.Sprintf("%d participants; %s", int(n), strings.Join(parts, ", "))
+		count := fmt.Sprintf("%d participants", int(n))
+		if n == 1 {
+			count = "1 participant"
+		}
+		if waves {
+			count = fmt.Sprintf("%d participant-waves of %d people", int(n), len(people))
+		}
+		lines[c] = count + "; " + strings.Join(parts, ", ")
 		if n == 0 {
 			lines[c] = "no participants in this run"
 		}

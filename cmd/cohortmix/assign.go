@@ -111,6 +111,10 @@ func assignRun(ctx context.Context, o *assignOptions) error {
 	if f.g, err = cohort.Place(method, m.Grouping.Centroids, shares, o.Workers); err != nil {
 		return err
 	}
+	f.atypical = make([]bool, len(f.sigs))
+	for i, d := range f.g.Distance {
+		f.atypical[i] = d > m.Grouping.Atypical
+	}
 	res, err := describe(f, m.States.Names, m.Grouping.Names)
 	if err != nil {
 		return err
@@ -128,11 +132,6 @@ func assignRun(ctx context.Context, o *assignOptions) error {
 	medians := featureMedians(f)
 	res.Warnings = append(res.Warnings, cohort.CheckRanges(t.Features, m.FeatureMeds, medians)...)
 	res.Changes = assignChanges(m, res, o.Model)
-	for i := range res.Units {
-		if res.Changes.Rows[i].Atypical {
-			res.Units[i].Flag = "atypical: farther from every group than 99% of the fitted members"
-		}
-	}
 	if err := ctx.Err(); err != nil {
 		return err
 	}
@@ -147,13 +146,8 @@ func assignRun(ctx context.Context, o *assignOptions) error {
 	if err := plan.Commit(); err != nil {
 		return err
 	}
-	atypical := 0
-	for _, r := range res.Changes.Rows {
-		if r.Atypical {
-			atypical++
-		}
-	}
-	fmt.Fprintf(o.IO.Out, "%d participants placed with %s (%d atypical, %d excluded) → %s\n", len(res.Units), o.Model, atypical, len(res.Quality.Excluded), o.Out)
+	c := res.Counts()
+	fmt.Fprintf(o.IO.Out, "%d %s placed with %s: %d in a group, %d atypical (in no group), %d excluded → %s\n", c.UnitsIn, c.Unit(c.UnitsIn), o.Model, c.Grouped, c.Atypical, c.Excluded, o.Out)
 	for _, w := range res.Warnings {
 		fmt.Fprintln(o.IO.Out, "warning: "+w)
 	}
@@ -240,13 +234,18 @@ func assignChanges(m *reports.Model, res *reports.Result, model string) *reports
 	}
 	for _, u := range res.Units {
 		now := res.GroupNames[u.Group]
-		row := reports.ChangeRow{ID: u.ID, Wave: u.Wave, Now: now, DistNow: u.Distance, DistPrevious: math.NaN(), Atypical: u.Distance > m.Grouping.Atypical}
+		row := reports.ChangeRow{ID: u.ID, Wave: u.Wave, Now: now, DistNow: u.Distance, DistPrevious: math.NaN(), Atypical: u.Atypical}
 		row.Previous = lookupPrevious(byKey, byID, u.ID, u.Wave)
 		row.Moved = moved(row.Previous, now)
+		if u.Atypical {
+			row.Now, row.Moved = "none (nearest "+now+")", "in no group (atypical)"
+		}
 		if p, ok := index[row.Previous]; ok {
 			row.DistPrevious = cohort.SpaceDistance(method, cohort.Embed(method, u.Share), m.Grouping.Centroids[p])
 			c.Returning++
-			a, b = append(a, p), append(b, u.Group)
+			if !u.Atypical {
+				a, b = append(a, p), append(b, u.Group)
+			}
 		}
 		c.Rows = append(c.Rows, row)
 	}
@@ -286,7 +285,9 @@ func groupSizes(m *reports.Model, res *reports.Result) (map[string]int, map[int]
 	}
 	after := map[int]int{}
 	for _, u := range res.Units {
-		after[u.Group]++
+		if !u.Atypical {
+			after[u.Group]++
+		}
 	}
 	return before, after
 }

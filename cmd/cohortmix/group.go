@@ -158,8 +158,12 @@ func loadKey(path string) ([]byte, error) {
 }
 
 func printSummary(io IO, r *reports.Result, out string) {
-	q := r.Quality
-	fmt.Fprintf(io.Out, "%d participants grouped (%d excluded), %d movement states, %d groups → %s\n", len(r.Units), len(q.Excluded), r.States.K, r.Grouping.K, out)
+	c := r.Counts()
+	people := ""
+	if c.Waves {
+		people = fmt.Sprintf(" of %d people", c.PeopleGrouped)
+	}
+	fmt.Fprintf(io.Out, "%d %s%s grouped (%d excluded), %d movement states, %d groups → %s\n", c.Grouped, c.Unit(c.Grouped), people, c.Excluded, r.States.K, r.Grouping.K, out)
 	sizes := map[int]int{}
 	for _, u := range r.Units {
 		sizes[u.Group]++

@@ -4,6 +4,8 @@ import (
 	"archive/zip"
 	"bytes"
 	"context"
+	"encoding/csv"
+	"fmt"
 	"io"
 	"os"
 	"path/filepath"
@@ -13,6 +15,7 @@ import (
 	"testing"
 
 	"github.com/cohortmix/cohortmix/cohort/synth"
+	"github.com/cohortmix/cohortmix/profile"
 	"github.com/xuri/excelize/v2"
 )
 
@@ -288,5 +291,174 @@ func checkDimensions(t *testing.T, path string) {
 	}
 	if sheets < 5 {
 		t.Errorf("only %d sheets found", sheets)
+	}
+}
+
+// rewriteCSV rewrites a CSV file cell by cell.
+func rewriteCSV(t *testing.T, path string, cell func(row, col int, header []string, s string) string) {
+	t.Helper()
+	f, err := os.Open(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	recs, err := csv.NewReader(f).ReadAll()
+	f.Close()
+	if err != nil {
+		t.Fatal(err)
+	}
+	var b bytes.Buffer
+	w := csv.NewWriter(&b)
+	for r, rec := range recs {
+		for c := range rec {
+			rec[c] = cell(r, c, recs[0], rec[c])
+		}
+		w.Write(rec)
+	}
+	w.Flush()
+	if err := os.WriteFile(path, b.Bytes(), 0o644); err != nil {
+		t.Fatal(err)
+	}
+}
+
+// sheetText is every cell of a sheet, one row per line.
+func sheetText(t *testing.T, path, sheet string) string {
+	t.Helper()
+	f, err := excelize.OpenFile(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer f.Close()
+	rows, err := f.GetRows(sheet)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return flattenRows(rows)
+}
+
+// emptyFragment finds sentence pieces left empty: a separator followed by nothing, doubled
+// spaces, or a comparison with nothing compared.
+var emptyFragment = regexp.MustCompile(`;\s*(than|,|;|$)|,\s*,|  +\S|: ;|\(\s*\)`)
+
+// With waves, people and participant-waves are counted apart, a person's waves sit side by side,
+// and the separating variables use one row per person (planted structure: synth seed 21, 60
+// people, 20 of them seen again in a second wave).
+func TestWavesCountPeopleApart(t *testing.T) {
+	dir := t.TempDir()
+	w1, w2 := filepath.Join(dir, "wave1.csv"), filepath.Join(dir, "wave2.csv")
+	if _, err := synth.WriteFile(w1, synth.Options{Participants: 60, Windows: 300, Seed: 21, Waves: true}); err != nil {
+		t.Fatal(err)
+	}
+	if _, err := synth.WriteFile(w2, synth.Options{Participants: 20, Windows: 300, Seed: 22, Waves: true}); err != nil {
+		t.Fatal(err)
+	}
+	rewriteCSV(t, w2, func(r, c int, h []string, s string) string {
+		if r > 0 && h[c] == "wave" {
+			return "2"
+		}
+		return s
+	})
+	out, members := filepath.Join(dir, "r.xlsx"), filepath.Join(dir, "m.csv")
+	stdout := mustRun(t, "group", w1, w2, "--wave", "wave", "--out", out, "--members", members, "--states", "5", "--groups", "3")
+	if !strings.Contains(stdout, "80 participant-waves of 60 people grouped") {
+		t.Errorf("the run's summary does not count people apart:\n%s", stdout)
+	}
+	summary := sheetText(t, out, "Summary")
+	if !strings.Contains(summary, "80 participant-waves of 60 people in the input: 80 grouped (60 people)") {
+		t.Errorf("the Summary does not count people apart:\n%s", summary)
+	}
+	if !regexp.MustCompile(`\d+ participant-waves of \d+ people; `).MatchString(summary) {
+		t.Errorf("the group lines do not count people apart:\n%s", summary)
+	}
+	if quality := sheetText(t, out, "Data quality"); !strings.Contains(quality, "people in|60") {
+		t.Errorf("the Data quality sheet does not count people:\n%s", quality)
+	}
+	if sep := sheetText(t, out, "Separating variables"); !strings.Contains(sep, "Each person counts once in these tests") || !strings.Contains(sep, "60 people") {
+		t.Errorf("the separating variables do not say they use one row per person:\n%.400s", sep)
+	}
+	f, _ := os.Open(members)
+	recs, _ := csv.NewReader(f).ReadAll()
+	f.Close()
+	for i := 1; i+1 < len(recs); i++ {
+		if recs[i][1] == "1" && recs[i+1][1] == "2" && recs[i][0] != recs[i+1][0] {
+			t.Errorf("row %d: wave 2 of %s does not follow its wave 1", i+1, recs[i+1][0])
+		}
+	}
+	if recs[1][0] != recs[2][0] || recs[1][1] != "1" || recs[2][1] != "2" {
+		t.Errorf("the first person's two waves are not side by side at the top: %v %v", recs[1], recs[2])
+	}
+}
+
+// Participants that assign finds atypical are in no group: an empty group and the flag
+// "atypical" in the members CSV, counted apart on the Summary and out of the group lines, and no
+// group or state line has an empty fragment. The later wave has a unit mistake (every feature ×
+// 1,000), so most of them are atypical (planted structure: synth seeds 13 and 14).
+func TestAtypicalParticipantsAreInNoGroup(t *testing.T) {
+	dir := t.TempDir()
+	input := synthCohort40(t, dir)
+	model := filepath.Join(dir, "model.json")
+	mustRun(t, "group", input, "--out", filepath.Join(dir, "r.xlsx"), "--model", model, "--states", "5", "--groups", "3")
+	later := filepath.Join(dir, "later.csv")
+	if _, err := synth.WriteFile(later, synth.Options{Participants: 40, Windows: 300, Seed: 14, FirstID: 40}); err != nil {
+		t.Fatal(err)
+	}
+	rewriteCSV(t, later, func(r, c int, h []string, s string) string {
+		if r == 0 || h[c] == "participant" || h[c] == "window" {
+			return s
+		}
+		x, err := strconv.ParseFloat(s, 64)
+		if err != nil {
+			t.Fatal(err)
+		}
+		return strconv.FormatFloat(x*1000, 'g', -1, 64)
+	})
+	out, members := filepath.Join(dir, "w.xlsx"), filepath.Join(dir, "wm.csv")
+	stdout := mustRun(t, "assign", "--model", model, later, "--out", out, "--members", members)
+	f, _ := os.Open(members)
+	recs, _ := csv.NewReader(f).ReadAll()
+	f.Close()
+	atypical := 0
+	for _, r := range recs[1:] {
+		switch {
+		case r[4] == "atypical" && r[2] == "":
+			atypical++
+		case r[4] == "atypical" || r[2] == "":
+			t.Errorf("members CSV row %v: an atypical participant has no group, and only it", r)
+		}
+	}
+	if atypical < 10 {
+		t.Fatalf("only %d of 40 participants with a unit mistake were atypical:\n%s", atypical, stdout)
+	}
+	grouped := 40 - atypical
+	if want := fmt.Sprintf("40 participants placed with %s: %d in a group, %d atypical (in no group), 0 excluded", model, grouped, atypical); !strings.Contains(stdout, want) {
+		t.Errorf("the run's summary lacks %q:\n%s", want, stdout)
+	}
+	summary := sheetText(t, out, "Summary")
+	if want := fmt.Sprintf("40 in the input: %d grouped, %d atypical", grouped, atypical); !strings.Contains(summary, want) {
+		t.Errorf("the Summary lacks %q:\n%s", want, summary)
+	}
+	groups := sheetText(t, out, "Group profiles")
+	n := 0
+	for _, m := range regexp.MustCompile(`(\d+) participants?; `).FindAllStringSubmatch(summary, -1) {
+		k, _ := strconv.Atoi(m[1])
+		n += k
+	}
+	if n != grouped {
+		t.Errorf("the group lines count %d participants, %d are grouped:\n%s\n%s", n, grouped, summary, groups)
+	}
+	for _, line := range strings.Split(summary, "\n") {
+		if emptyFragment.MatchString(line) {
+			t.Errorf("Summary line with an empty fragment: %q", line)
+		}
+	}
+	if changes := sheetText(t, out, "Changes"); !strings.Contains(changes, "in no group (atypical)") {
+		t.Errorf("the Changes sheet does not say the atypical are in no group:\n%.600s", changes)
+	}
+}
+
+// A state that no feature sets apart is described without an empty fragment.
+func TestStateLineWithoutDrivers(t *testing.T) {
+	lines := stateLines([]profile.Description{{Share: 0}}, []string{"f1"})
+	if want := "0% of windows; no feature sets it apart from the average"; lines[0] != want {
+		t.Errorf("got %q, want %q", lines[0], want)
 	}
 }
