@@ -9,6 +9,7 @@ import (
 	"math"
 	"os"
 	"path/filepath"
+	"sort"
 	"strconv"
 	"strings"
 	"testing"
@@ -283,4 +284,44 @@ func FuzzParseModel(f *testing.F) {
 		}
 		m.StateFit()
 	})
+}
+
+// A state that no feature sets apart is described without an empty fragment; intensity words
+// follow the features that measure how much the signal varies.
+func TestStateWords(t *testing.T) {
+	features := []string{"mean_x", "sd_x", "dom_freq"}
+	desc := []profile.Description{
+		{Share: 0, Mean: []float64{math.NaN(), math.NaN(), math.NaN()}},
+		{Share: 0.3, Mean: []float64{0.1, 0.01, 0.3}, Drivers: []profile.Driver{{Feature: 1, Effect: -0.9}, {Feature: 0, Effect: 0.5}}},
+		{Share: 0.6, Mean: []float64{0.1, 0.03, 0.5}, Drivers: []profile.Driver{{Feature: 0, Effect: -0.6}}},
+		{Share: 0.1, Mean: []float64{0.1, 0.5, 2.0}, Drivers: []profile.Driver{{Feature: 1, Effect: 2.2}, {Feature: 2, Effect: 1.1}}},
+	}
+	labels := &profile.LabelTable{Labels: []string{"lying", "walking"}, Counts: [][]int{{0, 0}, {90, 10}, {50, 50}, {5, 95}}}
+	ws := DescribeStates(desc, features, []string{"S1", "S2", "S3", "S4"}, labels)
+	cases := []struct {
+		state       int
+		short, line string
+	}{
+		{0, "S1", "0% of all windows; no feature sets it apart from the average"},
+		{1, "lying (S2)", "Stillness, 30% of all windows; mostly labelled lying (90% of its labelled windows); features: lower sd_x, higher mean_x than average"},
+		// sd_x of 0.03 lies log(3)/log(50) = 0.28 of the way from 0.01 to 0.5: still.
+		{2, "lying (S3)", "Stillness, 60% of all windows; set apart most by posture (where gravity points on the device); mostly labelled lying (50% of its labelled windows); features: lower mean_x than average"},
+		{3, "walking (S4)", "Vigorous movement, 10% of all windows; with a quicker rhythm than average; mostly labelled walking (95% of its labelled windows); features: higher sd_x, higher dom_freq than average"},
+	}
+	for _, c := range cases {
+		if got := ws[c.state].Short(); got != c.short {
+			t.Errorf("state %d short name %q, want %q", c.state, got, c.short)
+		}
+		if got := ws[c.state].Sentence(); got != c.line {
+			t.Errorf("state %d line\n got %q\nwant %q", c.state, got, c.line)
+		}
+	}
+}
+
+func TestNaturalOrder(t *testing.T) {
+	ids := []string{"P10", "P2", "P1", "P100", "P02", "Q1", "P9a", "P9"}
+	sort.SliceStable(ids, func(a, b int) bool { return NaturalLess(ids[a], ids[b]) })
+	if got, want := strings.Join(ids, " "), "P1 P2 P02 P9 P9a P10 P100 Q1"; got != want {
+		t.Errorf("natural order %q, want %q", got, want)
+	}
 }

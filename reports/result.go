@@ -51,20 +51,25 @@ type Result struct {
 	Norm          *normalize.Fit
 	States        *profile.States
 	StateNames    []string
-	StateLines    []string // one-line description per state
-	StateDesc     []profile.Description
-	Labels        *profile.LabelTable
-	Grouping      *cohort.Grouping
-	GroupNames    []string
-	GroupLines    []string // one-line description per group
-	Units         []UnitRow
-	Separations   []cohort.Separation
-	NotTested     []cohort.Note
-	Warnings      []string
-	AtypicalCut   float64      // 99th percentile of members' distances to their group centre
-	FeatureRange  [][3]float64 // per feature: 1st percentile, median and 99th percentile of participant medians
-	Changes       *Changes     // set by assign and refresh
-	Sensitivity   []Sensitivity
+	StateLines    []string     // one-line description per state
+	StateWords    []StateWords // each state in plain words
+	// WindowLength is the length of one window (0: not known), and WindowSource where it came
+	// from ("the order column's times" or "--window-length").
+	WindowLength time.Duration
+	WindowSource string
+	StateDesc    []profile.Description
+	Labels       *profile.LabelTable
+	Grouping     *cohort.Grouping
+	GroupNames   []string
+	GroupLines   []string // one-line description per group
+	Units        []UnitRow
+	Separations  []cohort.Separation
+	NotTested    []cohort.Note
+	Warnings     []string
+	AtypicalCut  float64      // 99th percentile of members' distances to their group centre
+	FeatureRange [][3]float64 // per feature: 1st percentile, median and 99th percentile of participant medians
+	Changes      *Changes     // set by assign and refresh
+	Sensitivity  []Sensitivity
 	// SensitivityNote reads the sensitivity table in a line.
 	SensitivityNote string
 	Notes           []string // what the run decided on its own that a reader should know (not warnings)

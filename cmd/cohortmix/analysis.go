@@ -8,6 +8,7 @@ import (
 	"sort"
 	"strings"
 	"sync"
+	"time"
 
 	"github.com/cohortmix/cohortmix/cohort"
 	"github.com/cohortmix/cohortmix/normalize"
@@ -33,6 +34,9 @@ type analysisOptions struct {
 	StatesRule profile.Rule
 	Valley     float64 // see profile.MergeStates; 0 means profile.DefaultValley
 	Seed       uint64
+	// Window is the length of one window, given on the command line (0: from the order
+	// column's times, when it holds times).
+	Window time.Duration
 	// noSensitivity leaves out the sensitivity table (the recovery benchmark, which scores the
 	// groups only, sets it).
 	noSensitivity bool
@@ -47,17 +51,19 @@ const normSample = 200_000
 
 // fitted is every fit of one run, before it is described.
 type fitted struct {
-	t       *cohort.Table
-	fit     *normalize.Fit
-	states  *profile.States
-	sigs    []profile.Signature
-	medians [][]float64           // each unit's median of each feature
-	desc    []profile.Description // the states in the original units
-	labels  *profile.LabelTable   // states × known labels, when labels are given
-	devices []normalize.Device    // each unit's device, when the states are aligned
-	sample  sampleUnits           // the participants and windows sampled for the fit
-	notes   []string              // what the run decided on its own, for the reader
-	g       *cohort.Grouping
+	t            *cohort.Table
+	fit          *normalize.Fit
+	states       *profile.States
+	sigs         []profile.Signature
+	medians      [][]float64           // each unit's median of each feature
+	desc         []profile.Description // the states in the original units
+	labels       *profile.LabelTable   // states × known labels, when labels are given
+	devices      []normalize.Device    // each unit's device, when the states are aligned
+	sample       sampleUnits           // the participants and windows sampled for the fit
+	notes        []string              // what the run decided on its own, for the reader
+	g            *cohort.Grouping
+	window       time.Duration // the length of one window (0: not known)
+	windowSource string        // where the window length came from
 	// atypical marks the units assign placed farther from every group than the model's members;
 	// they belong to no group (nil: none).
 	atypical []bool
@@ -178,7 +184,42 @@ func fitAll(ctx context.Context, o analysisOptions) (f *fitted, err error) {
 		t.Close()
 		return nil, err
 	}
+	f.window, f.windowSource = windowLength(t, o.Window)
 	return f, nil
+}
+
+// windowLength is the length of one window: as given, or with times in the order column the
+// most common step between consecutive windows of the first few participants (gaps in a
+// recording are longer steps and do not count); 0 when neither is there.
+func windowLength(t *cohort.Table, given time.Duration) (time.Duration, string) {
+	if given > 0 {
+		return given, "--window-length"
+	}
+	if t.OrderKind != "time" {
+		return 0, ""
+	}
+	count := map[int64]int{}
+	for u := 0; u < min(5, len(t.Units)); u++ {
+		ord, err := t.Order(u)
+		if err != nil {
+			return 0, ""
+		}
+		for i := 1; i < len(ord); i++ {
+			if d := ord[i] - ord[i-1]; d > 0 {
+				count[d]++
+			}
+		}
+	}
+	var best int64
+	for d, c := range count {
+		if c > count[best] || c == count[best] && d < best {
+			best = d
+		}
+	}
+	if best <= 0 {
+		return 0, ""
+	}
+	return time.Duration(best), "the order column's times"
 }
 
 // fitTable fits normalization, states and grouping to a table that has been read.
@@ -478,8 +519,13 @@ func describe(f *fitted, stateNames, groupNames []string) (*reports.Result, erro
 		res.Units = append(res.Units, row)
 	}
 	res.StateNames, res.GroupNames = stateNames, groupNames
-	res.StateLines = stateLines(res.StateDesc, t.Features)
-	res.GroupLines = groupLines(g, sigs, stateNames, t.Units, f.atypical)
+	res.WindowLength, res.WindowSource = f.window, f.windowSource
+	res.StateWords = reports.DescribeStates(res.StateDesc, t.Features, stateNames, f.labels)
+	res.StateLines = make([]string, k)
+	for s, w := range res.StateWords {
+		res.StateLines[s] = w.Sentence()
+	}
+	res.GroupLines = groupLines(g, sigs, reports.ShortNames(res.StateWords), t.Units, f.atypical, f.window)
 	return res, nil
 }
 
@@ -515,30 +561,10 @@ func separationRows(units []*cohort.Unit, atypical []bool) ([]int, string) {
 	return rows, basis
 }
 
-// stateLines describes each state in a line naming the features that set it apart.
-func stateLines(desc []profile.Description, features []string) []string {
-	lines := make([]string, len(desc))
-	for s, dsc := range desc {
-		var parts []string
-		for _, dr := range dsc.Drivers[:min(3, len(dsc.Drivers))] {
-			word := "higher"
-			if dr.Effect < 0 {
-				word = "lower"
-			}
-			parts = append(parts, fmt.Sprintf("%s %s", word, features[dr.Feature]))
-		}
-		lines[s] = fmt.Sprintf("%.0f%% of windows; %s than average", 100*dsc.Share, strings.Join(parts, ", "))
-		if len(parts) == 0 {
-			lines[s] = fmt.Sprintf("%.0f%% of windows; no feature sets it apart from the average", 100*dsc.Share)
-		}
-	}
-	return lines
-}
-
 // groupLines describes each group in a line, from its mixture against the mean of the grouped
 // units; atypical units (in no group) are left out. With waves it counts participant-waves and
 // people apart.
-func groupLines(g *cohort.Grouping, sigs []profile.Signature, stateNames []string, units []*cohort.Unit, atypical []bool) []string {
+func groupLines(g *cohort.Grouping, sigs []profile.Signature, stateNames []string, units []*cohort.Unit, atypical []bool, window time.Duration) []string {
 	k := len(sigs[0].Share)
 	meanShare := make([]float64, k)
 	meanBout := make([]float64, k)
@@ -594,16 +620,25 @@ func groupLines(g *cohort.Grouping, sigs []profile.Signature, stateNames []strin
 		sort.SliceStable(db, func(a, b int) bool { return db[a].r > db[b].r })
 		var parts []string
 		if len(ds) > 0 && ds[0].r > 0.1 {
-			parts = append(parts, "more time in "+stateNames[ds[0].j])
+			j := ds[0].j
+			parts = append(parts, "more time in "+withNote(stateNames[j], pct(share[j])+" of their time against "+pct(meanShare[j])+" on average"))
 		}
-		if len(ds) > 0 && ds[len(ds)-1].r < -0.1 {
-			parts = append(parts, "less in "+stateNames[ds[len(ds)-1].j])
+		if len(ds) > 1 && ds[len(ds)-1].r < -0.1 {
+			j := ds[len(ds)-1].j
+			parts = append(parts, "less in "+withNote(stateNames[j], pct(share[j])+" against "+pct(meanShare[j])))
 		}
-		if len(db) > 0 && db[0].r > 0.1 {
-			parts = append(parts, "longer bouts of "+stateNames[db[0].j])
+		if len(db) > 0 {
+			longer, shorter := db[0], db[len(db)-1]
+			switch {
+			case longer.r > 0.1 && longer.r >= -shorter.r:
+				parts = append(parts, "longer bouts of "+withNote(stateNames[longer.j], boutText(bout[longer.j], window)+" against "+boutText(meanBout[longer.j], window)))
+			case shorter.r < -0.1:
+				parts = append(parts, "shorter bouts of "+withNote(stateNames[shorter.j], boutText(bout[shorter.j], window)+" against "+boutText(meanBout[shorter.j], window)))
+			}
 		}
-		if len(parts) == 0 {
-			parts = append(parts, "close to the cohort's average mixture")
+		what := "close to the average mixture of all grouped participants"
+		if len(parts) > 0 {
+			what = strings.Join(parts, ", ") + " than the others"
 		}
 		count := fmt.Sprintf("%d participants", int(n))
 		if n == 1 {
@@ -612,12 +647,32 @@ func groupLines(g *cohort.Grouping, sigs []profile.Signature, stateNames []strin
 		if waves {
 			count = fmt.Sprintf("%d participant-waves of %d people", int(n), len(people))
 		}
-		lines[c] = count + "; " + strings.Join(parts, ", ")
+		lines[c] = count + ": " + what
 		if n == 0 {
 			lines[c] = "no participants in this run"
 		}
 	}
 	return lines
+}
+
+// withNote adds a note to a name in brackets, inside the brackets it may already have:
+// "sitting (S1)" and "43%" give "sitting (S1, 43%)".
+func withNote(name, note string) string {
+	if strings.HasSuffix(name, ")") {
+		return strings.TrimSuffix(name, ")") + ", " + note + ")"
+	}
+	return name + " (" + note + ")"
+}
+
+// pct is a share as a whole percentage.
+func pct(x float64) string { return fmt.Sprintf("%.0f%%", 100*x) }
+
+// boutText is a mean bout length in minutes when the window length is known, else in windows.
+func boutText(windows float64, window time.Duration) string {
+	if window > 0 {
+		return fmt.Sprintf("%.3g min", windows*window.Minutes())
+	}
+	return fmt.Sprintf("%.3g windows", windows)
 }
 
 // percentile is the p-quantile of xs by linear interpolation (NaN values ignored).

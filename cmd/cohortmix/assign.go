@@ -29,6 +29,7 @@ type assignOptions struct {
 	Key     string
 	Temp    string
 	Args    []string
+	Window  time.Duration
 }
 
 func newAssignCmd(env *Env, runF func(context.Context, *assignOptions) error) *cobra.Command {
@@ -62,6 +63,7 @@ Exit codes: 0 success, 1 error in the input or the run, 2 wrong command line, 13
 	f.BoolVar(&opts.Quiet, "quiet", false, "print only the final summary")
 	f.IntVar(&opts.Workers, "workers", 0, "worker goroutines (0: all cores)")
 	f.StringVar(&opts.Temp, "temp", "", "folder for temporary files of large inputs (default: the folder of --out)")
+	f.DurationVar(&opts.Window, "window-length", 0, "the length of one window, e.g. 60s, for bout lengths in minutes (default: from the order column's times, when it holds times)")
 	f.StringVar(&opts.Key, "pseudonymize", "", "replace participant ids by a keyed hash (use the key the model was written with)")
 	_ = cmd.MarkFlagRequired("model")
 	_ = cmd.MarkFlagRequired("out")
@@ -111,6 +113,7 @@ func assignRun(ctx context.Context, o *assignOptions) error {
 	if f.g, err = cohort.Place(method, m.Grouping.Centroids, shares, o.Workers); err != nil {
 		return err
 	}
+	f.window, f.windowSource = windowLength(t, o.Window)
 	f.atypical = make([]bool, len(f.sigs))
 	for i, d := range f.g.Distance {
 		f.atypical[i] = d > m.Grouping.Atypical

@@ -56,6 +56,7 @@ type mainFlags struct {
 	Criterion              string
 	Bootstrap              int
 	Seed                   uint64
+	WindowLength           time.Duration
 	Workers                int
 	Members, Model         string
 	Pseudonymize           string
@@ -83,6 +84,7 @@ func (m *mainFlags) register(cmd *cobra.Command) {
 	f.StringVar(&m.Criterion, "criterion", "gap", "rule for the number of groups: gap, stability or silhouette")
 	f.IntVar(&m.Bootstrap, "bootstrap", 20, "resamples for stability and reference sets for the gap statistic")
 	f.Uint64Var(&m.Seed, "seed", 1, "seed for every random step")
+	f.DurationVar(&m.WindowLength, "window-length", 0, "the length of one window, e.g. 60s, for bout lengths in minutes (default: from the order column's times, when it holds times)")
 	f.IntVar(&m.Workers, "workers", 0, "worker goroutines (0: all cores); never changes the result")
 	f.StringVar(&m.Members, "members", "", "also write a participant,group CSV here")
 	f.StringVar(&m.Model, "model", "", "also write the model file (JSON) here, for later waves")
@@ -124,7 +126,10 @@ func (m *mainFlags) readOptions() (cohort.ReadOptions, error) {
 
 // options turns the flags into the analysis settings.
 func (m *mainFlags) options(inputs []string) (analysisOptions, error) {
-	o := analysisOptions{Inputs: inputs, Seed: m.Seed, Workers: m.Workers, Bootstrap: m.Bootstrap, Sample: m.Sample}
+	o := analysisOptions{Inputs: inputs, Seed: m.Seed, Workers: m.Workers, Bootstrap: m.Bootstrap, Sample: m.Sample, Window: m.WindowLength}
+	if m.WindowLength < 0 {
+		return o, flagErrorf("--window-length %v: use a positive duration such as 60s or 1m", m.WindowLength)
+	}
 	var err error
 	if o.Read, err = m.readOptions(); err != nil {
 		return o, err
@@ -217,7 +222,7 @@ func (m *mainFlags) settings() []reports.Setting {
 		s("offset ICC threshold", fmt.Sprint(m.OffsetICC)), s("rest share", fmt.Sprint(m.RestShare)),
 		s("cohort scaling", m.Scale), s("PCA", m.PCA), s("states", m.States), s("window sample", strconv.Itoa(m.Sample)),
 		s("groups", m.Groups), s("grouping method", m.Method), s("criterion for groups", m.Criterion),
-		s("bootstrap / gap references", strconv.Itoa(m.Bootstrap)), s("seed", strconv.FormatUint(m.Seed, 10)),
+		s("bootstrap / gap references", strconv.Itoa(m.Bootstrap)), s("seed", strconv.FormatUint(m.Seed, 10)), s("window length", windowSetting(m.WindowLength)),
 	}
 }
 
@@ -372,4 +377,12 @@ func flagString(f *pflag.Flag) string {
 		return strings.Join(sv.GetSlice(), ",")
 	}
 	return f.Value.String()
+}
+
+// windowSetting is the window length as the settings sheet shows it.
+func windowSetting(d time.Duration) string {
+	if d == 0 {
+		return "from the order column's times, when it holds times"
+	}
+	return d.String()
 }

@@ -15,7 +15,6 @@ import (
 	"testing"
 
 	"github.com/cohortmix/cohortmix/cohort/synth"
-	"github.com/cohortmix/cohortmix/profile"
 	"github.com/xuri/excelize/v2"
 )
 
@@ -366,7 +365,7 @@ func TestWavesCountPeopleApart(t *testing.T) {
 	if !strings.Contains(summary, "80 participant-waves of 60 people in the input: 80 grouped (60 people)") {
 		t.Errorf("the Summary does not count people apart:\n%s", summary)
 	}
-	if !regexp.MustCompile(`\d+ participant-waves of \d+ people; `).MatchString(summary) {
+	if !regexp.MustCompile(`\d+ participant-waves of \d+ people: `).MatchString(summary) {
 		t.Errorf("the group lines do not count people apart:\n%s", summary)
 	}
 	if quality := sheetText(t, out, "Data quality"); !strings.Contains(quality, "people in|60") {
@@ -438,7 +437,7 @@ func TestAtypicalParticipantsAreInNoGroup(t *testing.T) {
 	}
 	groups := sheetText(t, out, "Group profiles")
 	n := 0
-	for _, m := range regexp.MustCompile(`(\d+) participants?; `).FindAllStringSubmatch(summary, -1) {
+	for _, m := range regexp.MustCompile(`(\d+) participants?: `).FindAllStringSubmatch(summary, -1) {
 		k, _ := strconv.Atoi(m[1])
 		n += k
 	}
@@ -452,13 +451,5 @@ func TestAtypicalParticipantsAreInNoGroup(t *testing.T) {
 	}
 	if changes := sheetText(t, out, "Changes"); !strings.Contains(changes, "in no group (atypical)") {
 		t.Errorf("the Changes sheet does not say the atypical are in no group:\n%.600s", changes)
-	}
-}
-
-// A state that no feature sets apart is described without an empty fragment.
-func TestStateLineWithoutDrivers(t *testing.T) {
-	lines := stateLines([]profile.Description{{Share: 0}}, []string{"f1"})
-	if want := "0% of windows; no feature sets it apart from the average"; lines[0] != want {
-		t.Errorf("got %q, want %q", lines[0], want)
 	}
 }
