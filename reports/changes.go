@@ -3,6 +3,7 @@ package reports
 import (
 	"fmt"
 	"sort"
+	"time"
 
 	"github.com/xuri/excelize/v2"
 )
@@ -30,14 +31,16 @@ type GroupChange struct {
 
 // Changes is the record of who moved between a model and a new run.
 type Changes struct {
-	Mode      string // "assign" or "refresh"
-	Model     string // the model file it started from
-	Rows      []ChangeRow
-	Groups    []GroupChange
-	States    []GroupChange // state names with their drift (refresh)
-	Returning int
-	ARI       float64 // agreement of old and new groups among returning participants (NaN if < 2)
-	Notes     []string
+	Mode  string // "assign" or "refresh"
+	Model string // the model file it started from
+	// ModelCreated is when that model was fitted.
+	ModelCreated time.Time
+	Rows         []ChangeRow
+	Groups       []GroupChange
+	States       []GroupChange // state names with their drift (refresh)
+	Returning    int
+	ARI          float64 // agreement of old and new groups among returning participants (NaN if < 2)
+	Notes        []string
 }
 
 func changesSheet(f *excelize.File, st *styles, r *Result) error {

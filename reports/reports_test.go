@@ -71,7 +71,7 @@ func TestWorkbookOpensWithSheetsFormatsAndCharts(t *testing.T) {
 		t.Fatal(err)
 	}
 	defer f.Close()
-	want := []string{SheetSummary, SheetCharts, SheetParticipants, SheetGroups, SheetSeparating, SheetStates, SheetChoice, SheetQuality, SheetDefinitions, SheetSettings}
+	want := []string{SheetSummary, SheetCharts, SheetDefinitions, SheetParticipants, SheetGroups, SheetSeparating, SheetStates, SheetChoice, SheetQuality, SheetSettings}
 	if got := f.GetSheetList(); strings.Join(got, "|") != strings.Join(want, "|") {
 		t.Fatalf("sheets %v, want %v", got, want)
 	}
@@ -103,7 +103,7 @@ func TestWorkbookOpensWithSheetsFormatsAndCharts(t *testing.T) {
 		}
 	}
 	checkFormat(SheetParticipants, "H2", "0.0%")
-	checkFormat(SheetSeparating, "E3", "[<0.001]0.00E+00;0.0000")
+	checkFormat(SheetSeparating, "E3", `[<0.001]"<0.001";0.000`)
 	checkFormat(SheetGroups, "E2", "0.0%")
 	// Frozen header and filter on the participants sheet.
 	panes, _ := f.GetPanes(SheetParticipants)
@@ -117,10 +117,10 @@ func TestWorkbookOpensWithSheetsFormatsAndCharts(t *testing.T) {
 			t.Errorf("%s has no colour scale on %s: %v", sheet, rng, cf)
 		}
 	}
-	// Summary: synthetic banner, options and cautions.
+	// Summary: synthetic banner, the short paragraph, the guide and the cautions.
 	sum, _ := f.GetRows(SheetSummary)
 	text := flatten(sum)
-	for _, s := range append([]string{"SYNTHETIC DATA", "Options", "seed 1"}, Cautions...) {
+	for _, s := range append([]string{"SYNTHETIC DATA", "In short", "The sheets of this workbook", "Movement states"}, Cautions...) {
 		if !strings.Contains(text, s) {
 			t.Errorf("summary lacks %q", s)
 		}

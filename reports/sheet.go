@@ -11,6 +11,9 @@ import (
 // Cell styles of the workbook, made once per file.
 type styles struct {
 	title, header, text, wrap, integer, dec1, dec2, dec3, dec4, pct, pvalue, note, warn int
+	fixed []int // fixed[d]: d decimals with thousands separators, d = 0…6 (see sig3)
+	// headers is each sheet's column-header row, repeated on every printed page.
+	headers map[string]int
 }
 
 // Palette: slate ink on warm paper, with a teal accent; chosen for this tool.
@@ -23,7 +26,7 @@ const (
 )
 
 func newStyles(f *excelize.File) (*styles, error) {
-	s := &styles{}
+	s := &styles{headers: map[string]int{}}
 	mk := func(st *excelize.Style) int {
 		id, err := f.NewStyle(st)
 		if err != nil {
@@ -40,13 +43,21 @@ func newStyles(f *excelize.File) (*styles, error) {
 		Border: []excelize.Border{{Type: "bottom", Color: colAccent, Style: 2}}, Alignment: &excelize.Alignment{WrapText: true, Vertical: "top"}})
 	s.text = mk(&excelize.Style{Font: font(false, 11, colInk)})
 	s.wrap = mk(&excelize.Style{Font: font(false, 11, colInk), Alignment: &excelize.Alignment{WrapText: true, Vertical: "top"}})
-	s.integer = mk(&excelize.Style{Font: font(false, 11, colInk), NumFmt: 1})
+	s.integer = mk(&excelize.Style{Font: font(false, 11, colInk), NumFmt: 3}) // #,##0
 	s.dec1 = mk(&excelize.Style{Font: font(false, 11, colInk), CustomNumFmt: numFmt("0.0")})
 	s.dec2 = mk(&excelize.Style{Font: font(false, 11, colInk), CustomNumFmt: numFmt("0.00")})
 	s.dec3 = mk(&excelize.Style{Font: font(false, 11, colInk), CustomNumFmt: numFmt("0.000")})
 	s.dec4 = mk(&excelize.Style{Font: font(false, 11, colInk), CustomNumFmt: numFmt("0.0000")})
 	s.pct = mk(&excelize.Style{Font: font(false, 11, colInk), CustomNumFmt: numFmt("0.0%")})
-	s.pvalue = mk(&excelize.Style{Font: font(false, 11, colInk), CustomNumFmt: numFmt("[<0.001]0.00E+00;0.0000")})
+	// Below 0.001 a p- or q-value reads "<0.001"; the cell keeps the exact value for analysts.
+	s.pvalue = mk(&excelize.Style{Font: font(false, 11, colInk), CustomNumFmt: numFmt(`[<0.001]"<0.001";0.000`)})
+	for d := 0; d <= 6; d++ {
+		code := "#,##0"
+		if d > 0 {
+			code += "." + strings.Repeat("0", d)
+		}
+		s.fixed = append(s.fixed, mk(&excelize.Style{Font: font(false, 11, colInk), CustomNumFmt: numFmt(code)}))
+	}
 	s.note = mk(&excelize.Style{Font: font(false, 11, colInk), Fill: excelize.Fill{Type: "pattern", Pattern: 1, Color: []string{colNoteBkg}}, Alignment: &excelize.Alignment{WrapText: true, Vertical: "top"}})
 	s.warn = mk(&excelize.Style{Font: font(true, 11, colWarn), Alignment: &excelize.Alignment{WrapText: true, Vertical: "top"}})
 	return s, nil
@@ -180,7 +191,20 @@ func (t *table) heading(names ...string) error {
 		return err
 	}
 	t.header = t.row
+	if _, ok := t.st.headers[t.name]; !ok {
+		t.st.headers[t.name] = t.row
+	}
 	return nil
+}
+
+// sig3 is a number shown to three significant digits (at most 6 decimals), with thousands
+// separators: 0.0123, 1.23, 123, 12,345.
+func (st *styles) sig3(x float64) v {
+	d := 2
+	if x != 0 && !math.IsNaN(x) && !math.IsInf(x, 0) {
+		d = 2 - int(math.Floor(math.Log10(math.Abs(x))))
+	}
+	return v{x, st.fixed[min(6, max(0, d))]}
 }
 
 func (t *table) blank() { t.row++ }

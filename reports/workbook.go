@@ -35,7 +35,7 @@ func BuildWorkbook(r *Result) (*excelize.File, error) {
 	if err != nil {
 		return nil, err
 	}
-	steps := []func(*excelize.File, *styles, *Result) error{summarySheet, chartsSheet, participantsSheet, changesSheet, groupsSheet, stabilitySheet, separatingSheet, statesSheet, choiceSheet, qualitySheet, definitionsSheet, settingsSheet}
+	steps := []func(*excelize.File, *styles, *Result) error{summarySheet, chartsSheet, definitionsSheet, participantsSheet, changesSheet, groupsSheet, stabilitySheet, separatingSheet, statesSheet, choiceSheet, qualitySheet, settingsSheet}
 	for _, step := range steps {
 		if err := step(f, st, r); err != nil {
 			return nil, fmt.Errorf("reports: %w", err)
@@ -63,8 +63,14 @@ func BuildWorkbook(r *Result) (*excelize.File, error) {
 			return nil, err
 		}
 	}
-	// Printed (or exported to PDF), every sheet fits the page width in landscape.
+	// Printed (or exported to PDF), every sheet fits the page width in landscape, repeats its
+	// column header on every page, and has a footer with the sheet's name, the page and what the
+	// data are.
 	landscape, one, free := "landscape", 1, 0
+	label := "Participant-level data: handle under the study's data-protection rules"
+	if r.Synthetic {
+		label = "Synthetic data: no real person's data"
+	}
 	for _, name := range f.GetSheetList() {
 		if name == SheetParticipants && len(r.Units) > streamRows {
 			continue // streamed: its layout is fixed when written
@@ -75,6 +81,14 @@ func BuildWorkbook(r *Result) (*excelize.File, error) {
 		fit := true
 		if err := f.SetSheetProps(name, &excelize.SheetPropsOptions{FitToPage: &fit}); err != nil {
 			return nil, err
+		}
+		if err := f.SetHeaderFooter(name, &excelize.HeaderFooterOptions{OddFooter: "&L&8&A&C&8Page &P of &N&R&8" + label}); err != nil {
+			return nil, err
+		}
+		if h, ok := st.headers[name]; ok {
+			if err := f.SetDefinedName(&excelize.DefinedName{Name: "_xlnm.Print_Titles", RefersTo: fmt.Sprintf("'%s'!$%d:$%d", name, h, h), Scope: name}); err != nil {
+				return nil, err
+			}
 		}
 	}
 	f.SetActiveSheet(0)
@@ -98,107 +112,6 @@ func WorkbookTo(w io.Writer, r *Result) error {
 }
 
 func groupLabel(r *Result, g int) string { return r.GroupNames[g] }
-
-func summarySheet(f *excelize.File, st *styles, r *Result) error {
-	t, err := newTable(f, st, SheetSummary, []float64{34, 90})
-	if err != nil {
-		return err
-	}
-	put := func(a, b string) error { return t.put(v{a, st.header}, v{b, st.wrap}) }
-	if err := t.put(v{"Movement groups of the cohort", st.title}); err != nil {
-		return err
-	}
-	if r.Synthetic {
-		if err := t.put(v{"SYNTHETIC DATA", st.warn}, v{"Every participant in this workbook is invented by the tool's demo generator; no real person's data is in it.", st.warn}); err != nil {
-			return err
-		}
-	}
-	if err := put("Options", optionsLine(r)); err != nil {
-		return err
-	}
-	t.blank()
-	for _, c := range Cautions {
-		if err := t.put(v{"Caution", st.warn}, v{c, st.note}); err != nil {
-			return err
-		}
-	}
-	for _, w := range r.Warnings {
-		if err := t.put(v{"Warning", st.warn}, v{w, st.note}); err != nil {
-			return err
-		}
-	}
-	t.blank()
-	q, c := r.Quality, r.Counts()
-	done := fmt.Sprintf("Windows were standardized within each participant (%s, on %s) and across the cohort (%s)%s; %d movement states were learned by k-means from %d sampled windows; participants were grouped on their state mixtures by %s into %d groups.",
-		r.Norm.Within, touchedText(r), r.Norm.ScaleKind, pcaText(r), r.States.K, r.States.Sampled, r.Grouping.Method, r.Grouping.K)
-	if r.Changes != nil && r.Changes.Mode == "assign" {
-		done = fmt.Sprintf("New data were placed with the frozen model %s, without refitting: each participant's windows were standardized with its rules, given the nearest of its %d movement states, and the participant was given the nearest of its %d group centres (%s). See %s.",
-			r.Changes.Model, r.States.K, r.Grouping.K, r.Grouping.Method, SheetChanges)
-	}
-	rows := [][2]string{
-		{"What was done", done},
-		{"Number of states", fmt.Sprintf("%d (%s)", r.States.K, r.States.Rule)},
-		{"Number of groups", fmt.Sprintf("%d (%s)", r.Grouping.K, choiceText(r))},
-		{capital(c.Unit(2)), participantsText(c)},
-		{"Windows", fmt.Sprintf("%d in the input: %d used, %d dropped for missing cells, %d in excluded participants", q.WindowsIn, q.WindowsIn-q.WindowsDropped-q.WindowsExcluded, q.WindowsDropped, q.WindowsExcluded)},
-		{"Features", fmt.Sprintf("%d used: %s", len(r.Features), join(r.Features))},
-		{"Created", r.Created.UTC().Format("2006-01-02 15:04:05 UTC") + " by " + r.Tool + " " + r.Version},
-	}
-	if r.Grouping.Note != "" {
-		rows = append(rows, [2]string{"Note", r.Grouping.Note})
-	}
-	for _, n := range r.Notes {
-		rows = append(rows, [2]string{"Note", n})
-	}
-	for _, row := range rows {
-		if err := put(row[0], row[1]); err != nil {
-			return err
-		}
-	}
-	t.blank()
-	if err := t.put(v{"Groups", st.title}); err != nil {
-		return err
-	}
-	for g, name := range r.GroupNames {
-		line := r.GroupLines[g]
-		if gs := r.Grouping.Stability; gs != nil && gs.Jaccard[g] < cohort.UnstableJaccard {
-			line = fmt.Sprintf("UNSTABLE: this group does not hold when the participants are drawn again (bootstrap stability %.2f, below %.2f; see %s). %s", gs.Jaccard[g], cohort.UnstableJaccard, SheetStability, line)
-		}
-		if err := put(name, line); err != nil {
-			return err
-		}
-	}
-	if r.SensitivityNote != "" {
-		if err := put("Other choices", r.SensitivityNote+" (see "+SheetStability+")"); err != nil {
-			return err
-		}
-	}
-	t.blank()
-	if err := t.put(v{"Movement states", st.title}); err != nil {
-		return err
-	}
-	for s, name := range r.StateNames {
-		if err := put(name, r.StateLines[s]); err != nil {
-			return err
-		}
-	}
-	return t.close(false)
-}
-
-// optionsLine is the chosen options in one line, for the top of the summary.
-func optionsLine(r *Result) string {
-	out := ""
-	for _, s := range r.Settings {
-		switch s.Name {
-		case "within-participant step", "cohort scaling", "PCA", "states", "groups", "grouping method", "criterion for groups", "seed":
-			if out != "" {
-				out += "; "
-			}
-			out += s.Name + " " + s.Value
-		}
-	}
-	return out
-}
 
 func touchedText(r *Result) string {
 	if r.Norm.Within.String() == "none" {
@@ -228,6 +141,9 @@ func pcaText(r *Result) string {
 }
 
 func choiceText(r *Result) string {
+	if r.Changes != nil && r.Changes.Mode == "assign" {
+		return "the model's groups, not refitted"
+	}
 	if len(r.Grouping.Scores) <= 1 {
 		return "fixed"
 	}
@@ -515,10 +431,18 @@ func separatingSheet(f *excelize.File, st *styles, r *Result) error {
 	for _, s := range r.Separations {
 		cells := []v{{s.Name, st.text}, {s.Kind, st.text}, {s.Epsilon2, st.dec3}, {s.H, st.dec2}, {s.P, st.pvalue}, {s.Q, st.pvalue}}
 		for i := 0; i < g; i++ {
-			cells = append(cells, v{s.Median[i], st.dec4})
+			if s.Kind == "share" {
+				cells = append(cells, v{s.Median[i], st.pct})
+			} else {
+				cells = append(cells, st.sig3(s.Median[i]))
+			}
 		}
 		for i := 0; i < g; i++ {
-			cells = append(cells, v{fmt.Sprintf("%.4g – %.4g", s.Q1[i], s.Q3[i]), st.text})
+			iqr := fmt.Sprintf("%.3g – %.3g", s.Q1[i], s.Q3[i])
+			if s.Kind == "share" {
+				iqr = fmt.Sprintf("%.1f%% – %.1f%%", 100*s.Q1[i], 100*s.Q3[i])
+			}
+			cells = append(cells, v{iqr, st.text})
 		}
 		for i := 0; i < g; i++ {
 			cells = append(cells, v{s.Delta[i], st.dec3})

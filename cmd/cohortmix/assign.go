@@ -229,7 +229,7 @@ func lookupPrevious(byKey, byID map[string]string, id, wave string) string {
 func assignChanges(m *reports.Model, res *reports.Result, model string) *reports.Changes {
 	byKey, byID := previousGroups(m)
 	method, _ := cohort.ParseMethod(m.Grouping.Method)
-	c := &reports.Changes{Mode: "assign", Model: model}
+	c := &reports.Changes{Mode: "assign", Model: model, ModelCreated: m.Created}
 	var a, b []int
 	index := map[string]int{}
 	for i, n := range m.Grouping.Names {

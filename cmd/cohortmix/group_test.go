@@ -201,7 +201,7 @@ func TestExclusionsAndAccounting(t *testing.T) {
 	for _, r := range rows {
 		text += strings.Join(r, "|") + "\n"
 	}
-	for _, want := range []string{"SHORT||5||5 usable windows, fewer than the minimum 20 (--min-windows)", "battery||||constant (1 in every window)", "participants in|41", "participants grouped|40", "participants excluded|1", "windows in|12005", "windows of excluded participants|5"} {
+	for _, want := range []string{"SHORT||5||5 usable windows, fewer than the minimum 20 (--min-windows)", "battery||||constant (1 in every window)", "participants in|41", "participants grouped|40", "participants excluded|1", "windows in|12,005", "windows of excluded participants|5"} {
 		if !strings.Contains(text, want) {
 			t.Errorf("quality sheet lacks %q:\n%s", want, text)
 		}
@@ -296,7 +296,7 @@ func TestAccountingOnGeneratedCohorts(t *testing.T) {
 			n := map[string]int{}
 			for _, r := range rows {
 				if len(r) >= 2 {
-					if v, err := strconv.Atoi(r[1]); err == nil {
+					if v, err := strconv.Atoi(strings.ReplaceAll(r[1], ",", "")); err == nil {
 						n[r[0]] = v
 					}
 				}

@@ -48,6 +48,12 @@ var recoveryVariantList = []variant{
 	{"true numbers", []string{"--states", "{states}", "--groups", "{groups}"}},
 	{"valley 0.5", []string{"--valley", "0.5"}},
 	{"valley 0.6", []string{"--valley", "0.6"}},
+	{"valley 0.7", []string{"--valley", "0.7"}},
+	{"valley 0.8", []string{"--valley", "0.8"}},
+	{"states 6-12", []string{"--states", "6-12"}},
+	{"states 8-12", []string{"--states", "8-12"}},
+	{"states 10", []string{"--states", "10"}},
+	{"states 12", []string{"--states", "12"}},
 }
 
 // scenarioRun is one variant's result on one scenario.
@@ -156,6 +162,10 @@ func TestRecoveryBenchmark(t *testing.T) {
 		}
 	case "report":
 		for s := uint64(21); s <= 40; s++ {
+			seeds = append(seeds, s)
+		}
+	case "fresh":
+		for s := uint64(41); s <= 60; s++ {
 			seeds = append(seeds, s)
 		}
 	default:

@@ -165,7 +165,7 @@ func meanShares(f *fitted) [][]float64 {
 // refreshChanges records the fate of each group and state and who moved.
 func refreshChanges(prev *reports.Model, res *reports.Result, m *cohort.Matching, next cohort.Next, model string) *reports.Changes {
 	method, _ := cohort.ParseMethod(prev.Grouping.Method)
-	c := &reports.Changes{Mode: "refresh", Model: model, ARI: math.NaN()}
+	c := &reports.Changes{Mode: "refresh", Model: model, ModelCreated: prev.Created, ARI: math.NaN()}
 	var a, b []int
 	for i, u := range res.Units {
 		row := reports.ChangeRow{ID: u.ID, Wave: u.Wave, Now: res.GroupNames[u.Group], DistNow: u.Distance, DistPrevious: math.NaN()}

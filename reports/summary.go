@@ -1,0 +1,253 @@
+package reports
+
+import (
+	"fmt"
+	"strings"
+
+	"github.com/cohortmix/cohortmix/cohort"
+	"github.com/xuri/excelize/v2"
+)
+
+// summarySheet is the first screen, for a clinician reading without the analyst: what the
+// workbook is, the groups and the states in plain words, the cautions, a guide to the sheets,
+// and then the details. Method names and codes stay on the Settings sheet.
+func summarySheet(f *excelize.File, st *styles, r *Result) error {
+	t, err := newTable(f, st, SheetSummary, []float64{26, 100})
+	if err != nil {
+		return err
+	}
+	put := func(a, b string) error { return t.put(v{a, st.header}, v{b, st.wrap}) }
+	title := func(s string) error { return t.put(v{s, st.title}) }
+	if err := title(summaryTitle(r)); err != nil {
+		return err
+	}
+	if r.Synthetic {
+		if err := t.put(v{"SYNTHETIC DATA", st.warn}, v{"Every participant in this workbook is invented by the tool's demo generator; no real person's data is in it.", st.warn}); err != nil {
+			return err
+		}
+	}
+	if err := put("In short", inShort(r)); err != nil {
+		return err
+	}
+	t.blank()
+	if err := title("Groups"); err != nil {
+		return err
+	}
+	for g, name := range r.GroupNames {
+		line := r.GroupLines[g]
+		if gs := r.Grouping.Stability; gs != nil && gs.Jaccard[g] < cohort.UnstableJaccard {
+			line = fmt.Sprintf("UNSTABLE: this group does not hold when the participants are drawn again (bootstrap stability %.2f, below %.2f; see %s). %s", gs.Jaccard[g], cohort.UnstableJaccard, SheetStability, line)
+		}
+		if err := put(name, line); err != nil {
+			return err
+		}
+	}
+	if r.SensitivityNote != "" {
+		if err := put("Other choices", r.SensitivityNote+" (see "+SheetStability+")"); err != nil {
+			return err
+		}
+	}
+	t.blank()
+	if err := title("Movement states"); err != nil {
+		return err
+	}
+	for s, name := range r.StateNames {
+		if err := put(name, r.StateLines[s]); err != nil {
+			return err
+		}
+	}
+	t.blank()
+	for _, c := range CautionsFor(r) {
+		if err := t.put(v{"Caution", st.warn}, v{c, st.note}); err != nil {
+			return err
+		}
+	}
+	for _, w := range r.Warnings {
+		if err := t.put(v{"Warning", st.warn}, v{w, st.note}); err != nil {
+			return err
+		}
+	}
+	t.blank()
+	if err := title("The sheets of this workbook"); err != nil {
+		return err
+	}
+	for _, g := range sheetGuide(r) {
+		if err := put(g[0], g[1]); err != nil {
+			return err
+		}
+	}
+	t.blank()
+	if err := title("Details"); err != nil {
+		return err
+	}
+	for _, row := range detailRows(r) {
+		if err := put(row[0], row[1]); err != nil {
+			return err
+		}
+	}
+	return t.close(false)
+}
+
+// summaryTitle says what kind of run the workbook comes from.
+func summaryTitle(r *Result) string {
+	switch {
+	case r.Changes == nil:
+		return "Movement groups of the cohort"
+	case r.Changes.Mode == "assign":
+		return "New data placed in the groups of an earlier model"
+	}
+	return "The cohort grouped again, with the earlier groups' names kept where they hold"
+}
+
+// modelText names the model a run started from and when it was fitted.
+func modelText(c *Changes) string {
+	s := "the model " + c.Model
+	if !c.ModelCreated.IsZero() {
+		s += " (fitted " + c.ModelCreated.UTC().Format("2006-01-02") + ")"
+	}
+	return s
+}
+
+// inShort is the one paragraph a reader needs first.
+func inShort(r *Result) string {
+	c := r.Counts()
+	weak := 0
+	for _, u := range r.Units {
+		if !u.Atypical && strings.HasPrefix(u.Flag, "weak fit") {
+			weak++
+		}
+	}
+	who := fmt.Sprintf("%d %s", c.Grouped, c.Unit(c.Grouped))
+	if c.Waves {
+		who += fmt.Sprintf(" (%d people)", c.PeopleGrouped)
+	}
+	var b strings.Builder
+	switch {
+	case r.Changes != nil && r.Changes.Mode == "assign":
+		fmt.Fprintf(&b, "Placed with a frozen model: the new data were put into the %d movement states and %d groups of %s, without refitting. %s are in a group", r.States.K, r.Grouping.K, modelText(r.Changes), capital(who))
+	case r.Changes != nil:
+		fmt.Fprintf(&b, "Refitted and matched: the whole updated cohort was grouped anew, and the new states and groups were matched to those of %s, so that a group keeps its name while it is still the same group. %s were grouped into %d groups by how their time divides among %d movement states", modelText(r.Changes), capital(who), r.Grouping.K, r.States.K)
+	default:
+		fmt.Fprintf(&b, "%s were grouped into %d groups by how their time divides among %d movement states, learned from the windows of the whole cohort", capital(who), r.Grouping.K, r.States.K)
+	}
+	if weak > 0 {
+		fmt.Fprintf(&b, "; %d of them fit their group only weakly (see %s)", weak, SheetParticipants)
+	}
+	b.WriteString(".")
+	if c.Atypical > 0 {
+		fmt.Fprintf(&b, " %d %s lie farther from every group than the model's own members and are in no group.", c.Atypical, c.Unit(c.Atypical))
+	}
+	if c.Excluded > 0 {
+		fmt.Fprintf(&b, " %d %s had too little usable data and were left out (see %s).", c.Excluded, c.Unit(c.Excluded), SheetQuality)
+	}
+	if r.Changes != nil {
+		fmt.Fprintf(&b, " %s shows who moved between groups since then.", SheetChanges)
+	}
+	return b.String()
+}
+
+// CautionsFor are the cautions for this run: the usual ones, with the last fitted to whether
+// the groups were found on these data.
+func CautionsFor(r *Result) []string {
+	out := append([]string(nil), Cautions[:3]...)
+	if r.Changes != nil && r.Changes.Mode == "assign" {
+		return append(out, "The groups were found on the earlier data of the model, not on these; the separating-variable p- and q-values only describe how the placed participants differ.")
+	}
+	return append(out, Cautions[3:]...)
+}
+
+// sheetGuide lists the workbook's sheets, in tab order, with one line each.
+func sheetGuide(r *Result) [][2]string {
+	g := [][2]string{
+		{SheetSummary, "This page: the groups and states in plain words, the cautions, and the details of the run."},
+		{SheetCharts, "The groups' mixtures of states and the states' features as charts, and each group's members."},
+		{SheetDefinitions, "What every measure and column means, what it may and may not be taken to show, and its published source."},
+		{SheetParticipants, "One row per " + r.Counts().Unit(1) + ": group, how well it fits there, and its share of time and bout length in each state."},
+	}
+	if r.Changes != nil {
+		g = append(g, [2]string{SheetChanges, "Who moved between groups since " + modelText(r.Changes) + ", and what became of each group."})
+	}
+	g = append(g, [2]string{SheetGroups, "Each group's size, fit and mean mixture of states."})
+	if r.Grouping.Stability != nil || len(r.Sensitivity) > 0 {
+		g = append(g, [2]string{SheetStability, "How well each group holds when the participants are drawn again, and whether the groups depend on the choices of method."})
+	}
+	g = append(g, [2]string{SheetSeparating, "The variables that differ most between the groups, with each group's median."},
+		[2]string{SheetStates, "Each movement state's mean features in the original units."},
+		[2]string{SheetChoice, "How the numbers of states and groups were chosen."},
+		[2]string{SheetQuality, "Every participant and window accounted for, what was left out and why, and how much each feature differs between participants."},
+		[2]string{SheetSettings, "Every setting of the run, the seed, and each input file's fingerprint (SHA-256), to repeat it exactly."})
+	return g
+}
+
+// detailRows are the run's particulars in words.
+func detailRows(r *Result) [][2]string {
+	q, c := r.Quality, r.Counts()
+	window := "not known: bout lengths are in windows (give the window length with --window-length, or times in the order column)"
+	if r.WindowLength > 0 {
+		window = fmt.Sprintf("%s (from %s); bout lengths are also given in minutes", r.WindowLength, r.WindowSource)
+	}
+	rows := [][2]string{
+		{"How it was done", howDone(r)},
+		{"Number of states", fmt.Sprintf("%d (%s)", r.States.K, r.States.Rule)},
+		{"Number of groups", fmt.Sprintf("%d (%s)", r.Grouping.K, choiceText(r))},
+		{capital(c.Unit(2)), participantsText(c)},
+		{"Windows", fmt.Sprintf("%s in the input: %s used, %s dropped for missing cells, %s in excluded %s", thousands(q.WindowsIn), thousands(q.WindowsIn-q.WindowsDropped-q.WindowsExcluded), thousands(q.WindowsDropped), thousands(q.WindowsExcluded), c.Unit(2))},
+		{"Window length", window},
+		{"Features", fmt.Sprintf("%d used: %s", len(r.Features), join(r.Features))},
+		{"Created", r.Created.UTC().Format("2006-01-02 15:04:05 UTC") + " by " + r.Tool + " " + r.Version},
+	}
+	if r.Grouping.Note != "" {
+		rows = append(rows, [2]string{"Note", r.Grouping.Note})
+	}
+	for _, n := range r.Notes {
+		rows = append(rows, [2]string{"Note", n})
+	}
+	return rows
+}
+
+// howDone tells the method in words, without codes.
+func howDone(r *Result) string {
+	if r.Changes != nil && r.Changes.Mode == "assign" {
+		return fmt.Sprintf("Each participant's windows were standardized with the rules of %s, each window was given the nearest of its %d movement states, and each participant the nearest of its %d group centres. Nothing was refitted.", modelText(r.Changes), r.States.K, r.Grouping.K)
+	}
+	var within string
+	switch r.Norm.Within.String() {
+	case "align":
+		within = "each participant's device was aligned with the movement states (how it sat turned on the wrist, and its offsets, were measured against the states and removed)"
+	case "rest":
+		within = "each participant's features were shifted by the median of their quietest windows, on the features that carry device offsets"
+	case "centre":
+		within = "each participant's features were shifted by their own median, on the features that carry device offsets"
+	case "robust-z":
+		within = "each participant's features were centred and scaled by their own median and spread"
+	default:
+		within = "participants' features were used as measured, with no within-participant step"
+	}
+	method := "Ward's method on the square roots of the shares"
+	switch r.Grouping.Method.String() {
+	case "pam-aitchison", "pam-js":
+		method = "partitioning around medoids"
+	case "kmeans-clr":
+		method = "k-means on the log-ratios of the shares"
+	}
+	return fmt.Sprintf("First %s; then every feature was put on a common scale across the cohort. %d movement states were learned from %s windows sampled from the whole cohort, and every window was given its nearest state. The participants were grouped by how their time divides among the states (%s). The exact settings are on the %s sheet.",
+		within, r.States.K, thousands(r.States.Sampled), method, SheetSettings)
+}
+
+// thousands writes an integer with thousands separators: 1,234,567.
+func thousands(n int) string {
+	s := fmt.Sprint(n)
+	neg := strings.HasPrefix(s, "-")
+	s = strings.TrimPrefix(s, "-")
+	var b strings.Builder
+	for i, r := range s {
+		if i > 0 && (len(s)-i)%3 == 0 {
+			b.WriteByte(',')
+		}
+		b.WriteRune(r)
+	}
+	if neg {
+		return "-" + b.String()
+	}
+	return b.String()
+}
