@@ -11,7 +11,9 @@ import (
 // Cell styles of the workbook, made once per file.
 type styles struct {
 	title, header, text, wrap, integer, dec1, dec2, dec3, dec4, pct, pvalue, note, warn int
-	fixed                                                                               []int // fixed[d]: d decimals with thousands separators, d = 0…6 (see sig3)
+
+	// fixed[d] shows d decimals with thousands separators, d = 0…6 (see sig3).
+	fixed []int
 	// headers is each sheet's column-header row, repeated on every printed page.
 	headers map[string]int
 }
