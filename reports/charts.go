@@ -28,7 +28,7 @@ func chartsSheet(f *excelize.File, st *styles, r *Result) error {
 	if _, err := f.NewSheet(name); err != nil {
 		return err
 	}
-	for c, w := range []float64{22, 12, 12, 12, 12, 12, 12, 12, 12, 12, 12, 12} {
+	for c, w := range []float64{22, 12, 16, 16, 12, 12, 12, 12, 12, 12, 12, 12} {
 		col, _ := excelize.ColumnNumberToName(c + 1)
 		if err := f.SetColWidth(name, col, col, w); err != nil {
 			return err
@@ -65,14 +65,14 @@ func chartsSheet(f *excelize.File, st *styles, r *Result) error {
 			Fill:       excelize.Fill{Type: "pattern", Pattern: 1, Color: []string{colour(s)}},
 		})
 	}
-	if err := f.AddChart(name, anchor(), chart(excelize.BarPercentStacked, "Each group's time in each movement state", series, "share of windows")); err != nil {
+	if err := f.AddChart(name, anchor(), chart(excelize.BarPercentStacked, "Each group's time in each movement state", series, "group", "share of windows")); err != nil {
 		return err
 	}
 	row = max(row+g+3, top+22)
 
 	// 2. Each state's profile over the variables that set states apart (standardized means).
 	top = row
-	vars := stateVariables(r, 8)
+	vars := stateVariables(r, 12)
 	w.text(1, row, "Feature (z vs cohort)", st.header)
 	for s := 0; s < k; s++ {
 		w.text(2+s, row, r.StateNames[s], st.header)
@@ -90,7 +90,7 @@ func chartsSheet(f *excelize.File, st *styles, r *Result) error {
 			Fill: excelize.Fill{Type: "pattern", Pattern: 1, Color: []string{colour(s)}},
 		})
 	}
-	if err := f.AddChart(name, fmt.Sprintf("I%d", top), chart(excelize.Col, "What each movement state looks like (standardized feature means)", series, "s.d. from the cohort mean")); err != nil {
+	if err := f.AddChart(name, fmt.Sprintf("I%d", top), chart(excelize.Col, statesChartTitle(len(vars), len(r.Features)), series, "feature", "s.d. from the cohort mean")); err != nil {
 		return err
 	}
 	row = max(row+len(vars)+3, top+22)
@@ -106,7 +106,7 @@ func chartsSheet(f *excelize.File, st *styles, r *Result) error {
 		w.num(3, row+1+i, sils[i], st.dec3)
 	}
 	sizeChart := chart(excelize.Col, "Group sizes", []excelize.ChartSeries{{Name: ref(name, 2, top, 2, top), Categories: ref(name, 1, top+1, 1, top+g), Values: ref(name, 2, top+1, 2, top+g),
-		Fill: excelize.Fill{Type: "pattern", Pattern: 1, Color: []string{colour(0)}}}}, "participants")
+		Fill: excelize.Fill{Type: "pattern", Pattern: 1, Color: []string{colour(0)}}}}, "group", "participants")
 	if err := f.AddChart(name, fmt.Sprintf("I%d", top), narrow(sizeChart, false)); err != nil {
 		return err
 	}
@@ -127,12 +127,12 @@ func chartsSheet(f *excelize.File, st *styles, r *Result) error {
 	nc := len(r.States.Candidates)
 	if nc > 1 {
 		ch := chart(excelize.Line, "Choosing the number of states: Calinski–Harabasz (larger is better)", []excelize.ChartSeries{
-			lineSeries(name, 2, top, nc, 0)}, "index")
+			lineSeries(name, 2, top, nc, 0)}, "number of states", "index")
 		if err := f.AddChart(name, fmt.Sprintf("I%d", top), narrow(ch, false)); err != nil {
 			return err
 		}
 		ch2 := chart(excelize.Line, "Silhouette (larger is better) and Davies–Bouldin (smaller is better)", []excelize.ChartSeries{
-			lineSeries(name, 3, top, nc, 1), lineSeries(name, 4, top, nc, 2)}, "index")
+			lineSeries(name, 3, top, nc, 1), lineSeries(name, 4, top, nc, 2)}, "number of states", "index")
 		if err := f.AddChart(name, fmt.Sprintf("P%d", top), narrow(ch2, true)); err != nil {
 			return err
 		}
@@ -154,7 +154,7 @@ func chartsSheet(f *excelize.File, st *styles, r *Result) error {
 	}
 	if ng > 1 {
 		ch := chart(excelize.Line, "Choosing the number of groups: gap statistic, bootstrap stability, silhouette", []excelize.ChartSeries{
-			lineSeries(name, 2, top, ng, 0), lineSeries(name, 3, top, ng, 1), lineSeries(name, 4, top, ng, 2)}, "value")
+			lineSeries(name, 2, top, ng, 0), lineSeries(name, 3, top, ng, 1), lineSeries(name, 4, top, ng, 2)}, "number of groups", "value")
 		if err := f.AddChart(name, fmt.Sprintf("I%d", top), ch); err != nil {
 			return err
 		}
@@ -180,12 +180,14 @@ func chartsSheet(f *excelize.File, st *styles, r *Result) error {
 	if len(r.Units) > maxSilhouetteBars {
 		sampled = fmt.Sprintf(" (%d of %d members, at even steps of rank)", len(members), len(r.Units))
 	}
-	w.text(1, row, "Member rank", st.header)
+	w.text(1, row, "Member (rank in its group)", st.header)
 	for i := 0; i < g; i++ {
 		w.text(2+i, row, r.GroupNames[i], st.header)
 	}
+	rank := make([]int, g)
 	for i, m := range members {
-		w.num(1, row+1+i, float64(i+1), st.integer)
+		rank[m.group]++
+		w.text(1, row+1+i, fmt.Sprintf("%s #%d", r.GroupNames[m.group], rank[m.group]), st.text)
 		w.num(2+m.group, row+1+i, m.sil, st.dec3)
 	}
 	series = nil
@@ -193,7 +195,8 @@ func chartsSheet(f *excelize.File, st *styles, r *Result) error {
 		series = append(series, excelize.ChartSeries{Name: ref(name, 2+i, top, 2+i, top), Categories: ref(name, 1, top+1, 1, top+len(members)),
 			Values: ref(name, 2+i, top+1, 2+i, top+len(members)), Fill: excelize.Fill{Type: "pattern", Pattern: 1, Color: []string{colour(i)}}})
 	}
-	silChart := chart(excelize.Col, "Members' silhouettes, by group"+sampled, series, "silhouette")
+	silChart := chart(excelize.Col, "Members' silhouettes, by group"+sampled, series, "members of each group, best fit first", "silhouette")
+	silChart.XAxis.TickLabelSkip = max(1, len(members)/10)
 	gap := uint(0)
 	over := 100
 	silChart.GapWidth, silChart.Overlap = &gap, &over
@@ -210,16 +213,30 @@ func lineSeries(sheet string, col, top, n, c int) excelize.ChartSeries {
 		Fill: excelize.Fill{Type: "pattern", Pattern: 1, Color: []string{colour(c)}}}
 }
 
-func chart(kind excelize.ChartType, title string, series []excelize.ChartSeries, yTitle string) *excelize.Chart {
-	return &excelize.Chart{
+// chart is a chart in the workbook's one font (Calibri, as the cells), with dark tick labels
+// and a title on both axes. Bar charts (horizontal) list their categories from the top down,
+// in the order of the table beside them; column charts put their category labels below the
+// plot, clear of bars that go below zero.
+func chart(kind excelize.ChartType, title string, series []excelize.ChartSeries, xTitle, yTitle string) *excelize.Chart {
+	tick := excelize.Font{Family: "Calibri", Size: 10, Color: colInk}
+	axisTitle := func(s string) excelize.ChartTitle {
+		return excelize.ChartTitle{Paragraph: []excelize.RichTextRun{{Text: s, Font: &excelize.Font{Family: "Calibri", Size: 10, Color: colInk}}}}
+	}
+	ch := &excelize.Chart{
 		Type:      kind,
 		Series:    series,
-		Title:     excelize.ChartTitle{Paragraph: []excelize.RichTextRun{{Text: title, Font: &excelize.Font{Bold: true, Size: 12, Color: colInk}}}},
+		Title:     excelize.ChartTitle{Paragraph: []excelize.RichTextRun{{Text: title, Font: &excelize.Font{Family: "Calibri", Bold: true, Size: 12, Color: colInk}}}},
 		Legend:    excelize.ChartLegend{Position: "bottom"},
 		Dimension: excelize.ChartDimension{Width: 760, Height: 380},
-		YAxis:     excelize.ChartAxis{MajorGridLines: true, Title: excelize.ChartTitle{Paragraph: []excelize.RichTextRun{{Text: yTitle}}}},
+		XAxis:     excelize.ChartAxis{Font: tick, Title: axisTitle(xTitle), TickLabelPosition: excelize.ChartTickLabelLow},
+		YAxis:     excelize.ChartAxis{MajorGridLines: true, Font: tick, Title: axisTitle(yTitle)},
 		PlotArea:  excelize.ChartPlotArea{ShowVal: false},
 	}
+	switch kind {
+	case excelize.Bar, excelize.BarStacked, excelize.BarPercentStacked:
+		ch.XAxis.ReverseOrder = true
+	}
+	return ch
 }
 
 // narrow makes a chart half width, for two side by side; without legend for a single series.
@@ -363,4 +380,12 @@ func silhouetteBars(r *Result) []silBar {
 		}
 	}
 	return out
+}
+
+// statesChartTitle says which features the state chart shows.
+func statesChartTitle(shown, all int) string {
+	if shown == all {
+		return "What each movement state looks like: every feature, standardized"
+	}
+	return fmt.Sprintf("What each movement state looks like: the %d of %d features that set the states apart most, standardized", shown, all)
 }

@@ -43,7 +43,7 @@ func summarySheet(f *excelize.File, st *styles, r *Result) error {
 		}
 	}
 	if r.SensitivityNote != "" {
-		if err := put("Other choices", r.SensitivityNote+" (see "+SheetStability+")"); err != nil {
+		if err := put("Other choices", capital(r.SensitivityNote)+" (see "+SheetStability+")"); err != nil {
 			return err
 		}
 	}
