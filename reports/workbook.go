@@ -616,6 +616,14 @@ func qualitySheet(f *excelize.File, st *styles, r *Result) error {
 		}
 	}
 	t.blank()
+	if r.Changes != nil && r.Changes.Mode == "assign" {
+		if err := t.put(v{"The ICC(1) values below are those of the cohort " + modelText(r.Changes) + " was fitted on, kept in the model; they were not measured on these data.", st.note}); err != nil {
+			return err
+		}
+		if err := t.merge(5); err != nil {
+			return err
+		}
+	}
 	if err := t.put(v{"feature", st.header}, v{"ICC(1)", st.header}, v{"within step", st.header}, v{"ICC(1) after it", st.header}, v{"meaning", st.header}); err != nil {
 		return err
 	}

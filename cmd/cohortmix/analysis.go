@@ -188,6 +188,20 @@ func fitAll(ctx context.Context, o analysisOptions) (f *fitted, err error) {
 	return f, nil
 }
 
+// rebuild maps windows from principal-component scores (rows of y, K columns) back to the
+// features they came from (rows of d = components' rows), without the PCA's centre: x = y·Cᵀ.
+func rebuild(dst, y []float64, comps *mat.Dense) []float64 {
+	d, k := comps.Dims()
+	n := len(y) / k
+	if cap(dst) < n*d {
+		dst = make([]float64, n*d)
+	}
+	dst = dst[:n*d]
+	out := mat.NewDense(n, d, dst)
+	out.Mul(mat.NewDense(n, k, y), comps.T())
+	return dst
+}
+
 // windowLength is the length of one window: as given, or with times in the order column the
 // most common step between consecutive windows of the first few participants (gaps in a
 // recording are longer steps and do not count); 0 when neither is there.
@@ -283,17 +297,23 @@ func fitTable(ctx context.Context, t *cohort.Table, o analysisOptions) (*fitted,
 		if states, err = profile.FitAligned(ctx, units, fit, profile.AlignOptions{States: o.States, Valley: o.Valley, Seed: o.Seed, Workers: o.Workers, Progress: o.Steps}); err != nil {
 			return nil, err
 		}
-		if fit.PCA == nil { // each feature's ICC(1) once aligned, on the sampled participants' windows
-			icc := normalize.NewICCSum(d)
-			for _, x := range units {
-				_, y, _, err := states.AlignUnit(fit, x, nil)
-				if err != nil {
-					return nil, err
-				}
-				icc.Add(normalize.UnitICCPart(y, d))
+		// Each feature's ICC(1) once aligned, on the sampled participants' windows; with PCA,
+		// on the features rebuilt from the kept components (an ICC does not change with a shift
+		// of the feature, so the PCA's centre is not added back).
+		icc := normalize.NewICCSum(d)
+		var back []float64
+		for _, x := range units {
+			_, y, _, err := states.AlignUnit(fit, x, nil)
+			if err != nil {
+				return nil, err
 			}
-			fit.ICCAfter = icc.ICC()
+			if p := fit.PCA; p != nil {
+				back = rebuild(back, y, p.Components)
+				y = back
+			}
+			icc.Add(normalize.UnitICCPart(y, d))
 		}
+		fit.ICCAfter = icc.ICC()
 	} else {
 		if o.Norm.Log {
 			o.Norm.LogStart = firstWindowsLogStart(t)

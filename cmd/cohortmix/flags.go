@@ -74,7 +74,7 @@ func (m *mainFlags) register(cmd *cobra.Command) {
 	f.Float64Var(&m.OffsetICC, "offset-icc", 0.3, "features with at least this ICC are taken to carry device offsets")
 	f.Float64Var(&m.RestShare, "rest-share", 0.1, "share of a participant's quietest windows that defines its rest baseline")
 	f.StringVar(&m.Scale, "scale", "z", "cohort-wide scaling: z or robust-z")
-	f.StringVar(&m.PCA, "pca", "off", "PCA: a variance share in (0,1], a number of components, or off")
+	f.StringVar(&m.PCA, "pca", "0.99", "PCA: a variance share in (0,1], a number of components, or off")
 	f.StringVar(&m.States, "states", "2-12", "number of movement states, or a range to choose from")
 	f.Float64Var(&m.Valley, "valley", profile.DefaultValley, "with --states-rule valley: two states merge when the density of their windows between them keeps at least this share of its height at them")
 	f.StringVar(&m.StatesRule, "states-rule", "valley", "how a range of states is decided: valley (fit the most, merge states that form one mode) or ch (largest Calinski–Harabasz index)")

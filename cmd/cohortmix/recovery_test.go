@@ -40,7 +40,7 @@ var recoveryVariantList = []variant{
 	{"no log scale", []string{"--log", "none"}},
 	{"no rotation", []string{"--axes", "none"}},
 	{"6 states", []string{"--states", "6"}},
-	{"PCA 0.99", []string{"--pca", "0.99"}},
+	{"PCA off", []string{"--pca", "off"}},
 	{"groups by stability", []string{"--criterion", "stability"}},
 	{"groups by silhouette", []string{"--criterion", "silhouette"}},
 	{"PAM Aitchison", []string{"--method", "pam-aitchison"}},

@@ -65,9 +65,16 @@ func refreshRun(ctx context.Context, o *refreshOptions) error {
 		return fmt.Errorf("%s: %w", o.Previous, err)
 	}
 	if !o.changed("states") {
-		// The previous number of states, so that each new state has a previous one to keep the
-		// name of and the groups are compared over the same states.
+		// At least the previous number of states, so that each previous state can keep its name
+		// and the groups are compared over the same states; fitted as before (the largest of the
+		// previous range, then merged, but not below it), so that the same data give the same
+		// states.
 		o.Flags.States = strconv.Itoa(prev.States.K)
+		if _, hi, ok := strings.Cut(prev.Options["states"], "-"); ok {
+			if n, err := strconv.Atoi(hi); err == nil && n > prev.States.K {
+				o.Flags.States = fmt.Sprintf("%d-%d", prev.States.K, n)
+			}
+		}
 	}
 	ao, key, err := o.prepare()
 	if err != nil {

@@ -188,3 +188,22 @@ func TestAssignRefusesAMissingFeature(t *testing.T) {
 		t.Errorf("exit %d: %s", code, errb)
 	}
 }
+
+// Refreshing a model on the very data it was fitted on changes nothing: every participant keeps
+// its group's name (planted structure: synth seed 21).
+func TestRefreshOnTheSameDataKeepsEveryGroup(t *testing.T) {
+	dir := t.TempDir()
+	in := filepath.Join(dir, "c.csv")
+	if _, err := synth.WriteFile(in, synth.Options{Participants: 90, Windows: 800, Seed: 21}); err != nil {
+		t.Fatal(err)
+	}
+	model, m1, m2 := filepath.Join(dir, "model.json"), filepath.Join(dir, "m1.csv"), filepath.Join(dir, "m2.csv")
+	mustRun(t, "group", in, "--out", filepath.Join(dir, "a.xlsx"), "--model", model, "--members", m1)
+	out := mustRun(t, "refresh", "--previous", model, in, "--out", filepath.Join(dir, "b.xlsx"), "--members", m2)
+	before, after := readMembers(t, m1), readMembers(t, m2)
+	for id, g := range before {
+		if after[id] != g {
+			t.Fatalf("%s was in %s and is in %s after a refresh on the same data:\n%s", id, g, after[id], out)
+		}
+	}
+}
