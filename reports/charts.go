@@ -95,8 +95,10 @@ func chartsSheet(f *excelize.File, st *styles, r *Result) error {
 	}
 	row = max(row+len(vars)+3, top+22)
 
-	// 3. Group sizes and mean silhouettes.
+	// 3. Group sizes and mean silhouettes. Printed, two charts go on a page and a page break
+	// comes before every other section, so that no chart is cut in two.
 	top = row
+	w.pageBreak(row)
 	w.text(1, row, "Group", st.header)
 	w.text(2, row, "members", st.header)
 	w.text(3, row, "mean silhouette", st.header)
@@ -139,6 +141,7 @@ func chartsSheet(f *excelize.File, st *styles, r *Result) error {
 	}
 	row = max(row+nc+3, top+18)
 	top = row
+	w.pageBreak(row)
 	w.text(1, row, "Groups", st.header)
 	w.text(2, row, "gap", st.header)
 	w.text(3, row, "stability", st.header)
@@ -173,6 +176,7 @@ func chartsSheet(f *excelize.File, st *styles, r *Result) error {
 		return err
 	}
 	row += 24
+	w.pageBreak(row)
 	// 6. Members' silhouettes, sorted within each group (one series per group).
 	top = row
 	members := silhouetteBars(r)
@@ -272,6 +276,13 @@ func (w *cellWriter) merge(row int) {
 	}
 	if w.err == nil {
 		w.err = w.f.SetRowHeight(w.sheet, row, 45)
+	}
+}
+
+// pageBreak starts a printed page at this row.
+func (w *cellWriter) pageBreak(row int) {
+	if w.err == nil {
+		w.err = w.f.InsertPageBreak(w.sheet, fmt.Sprintf("A%d", row))
 	}
 }
 

@@ -77,6 +77,8 @@ type table struct {
 	header int // row of the column header, for freezing and the filter
 	st     *styles
 	widths []float64
+	// longest is the length of each column's longest unwrapped text, for widening at close.
+	longest []int
 }
 
 // streamRows is the number of rows past which a sheet is streamed.
@@ -148,6 +150,12 @@ func (t *table) put(cells ...v) error {
 		switch x := val.(type) {
 		case nil:
 		case string:
+			if c.style == t.st.text {
+				for len(t.longest) <= i {
+					t.longest = append(t.longest, 0)
+				}
+				t.longest[i] = max(t.longest[i], len([]rune(x)))
+			}
 			err = t.f.SetCellStr(t.name, cell, x)
 		default:
 			err = t.f.SetCellValue(t.name, cell, x)
@@ -251,6 +259,18 @@ func (t *table) close(filter bool) error {
 			}
 		}
 		return t.sw.Flush()
+	}
+	// Columns of unwrapped text are widened to their longest cell (up to 60 characters), so
+	// that no label is cut off.
+	for i, n := range t.longest {
+		w := math.Min(60, float64(n)+2)
+		if i < len(t.widths) && w <= t.widths[i] {
+			continue
+		}
+		col, _ := excelize.ColumnNumberToName(i + 1)
+		if err := t.f.SetColWidth(t.name, col, col, w); err != nil {
+			return err
+		}
 	}
 	if hasRows {
 		return t.f.AutoFilter(t.name, first+":"+last, nil)

@@ -18,8 +18,9 @@ import (
 
 // The recovery benchmark: the whole job on members of the scenario family (synth.DrawScenario),
 // scored by the adjusted Rand index against the planted groups. Methods are chosen on seeds
-// 1–20 ("tune") and reported on seeds 21–40 ("report"); testdata/recovery.sh runs both.
-var recoverySet = flag.String("recovery", "", "run the recovery benchmark: tune (seeds 1–20), report (21–40) or a list such as 3,7")
+// 1–20 ("tune") and reported on seeds 21–40 ("report") and 41–60 ("fresh"); testdata/recovery.sh
+// runs them.
+var recoverySet = flag.String("recovery", "", "run the recovery benchmark: tune (seeds 1–20), report (21–40), fresh (41–60), demo or a list such as 3,7")
 var recoveryVariants = flag.String("recovery.variants", "", "only the variants whose names contain one of these comma-separated words")
 
 // variant is one way of running the job, as the flags a user would pass.
