@@ -182,7 +182,7 @@ func participantsSheet(f *excelize.File, st *styles, r *Result) error {
 	if turn {
 		widths = append(widths, 11)
 	}
-	for i := 0; i < 2*k; i++ {
+	for i := 0; i < boutColumns(r, 2*k, 3*k); i++ {
 		widths = append(widths, 10)
 	}
 	streamed := 0
@@ -207,7 +207,12 @@ func participantsSheet(f *excelize.File, st *styles, r *Result) error {
 		head = append(head, "share "+r.StateNames[s])
 	}
 	for s := 0; s < k; s++ {
-		head = append(head, "bout "+r.StateNames[s])
+		head = append(head, "bout "+r.StateNames[s]+" (windows)")
+	}
+	if r.WindowLength > 0 {
+		for s := 0; s < k; s++ {
+			head = append(head, "bout "+r.StateNames[s]+" (min)")
+		}
 	}
 	if err := t.heading(head...); err != nil {
 		return err
@@ -232,6 +237,11 @@ func participantsSheet(f *excelize.File, st *styles, r *Result) error {
 		for _, x := range u.Bout {
 			cells = append(cells, v{x, st.dec2})
 		}
+		if r.WindowLength > 0 {
+			for _, x := range u.Bout {
+				cells = append(cells, v{x * r.WindowLength.Minutes(), st.dec1})
+			}
+		}
 		if err := t.put(cells...); err != nil {
 			return err
 		}
@@ -246,7 +256,7 @@ func groupsSheet(f *excelize.File, st *styles, r *Result) error {
 	if stable {
 		widths = []float64{8, 10, 11, 12, 60}
 	}
-	for i := 0; i < 2*k; i++ {
+	for i := 0; i < boutColumns(r, 2*k, 3*k); i++ {
 		widths = append(widths, 10)
 	}
 	t, err := newTable(f, st, SheetGroups, widths)
@@ -268,7 +278,12 @@ func groupsSheet(f *excelize.File, st *styles, r *Result) error {
 		head = append(head, "mean share "+r.StateNames[s])
 	}
 	for s := 0; s < k; s++ {
-		head = append(head, "mean bout "+r.StateNames[s])
+		head = append(head, "mean bout "+r.StateNames[s]+" (windows)")
+	}
+	if r.WindowLength > 0 {
+		for s := 0; s < k; s++ {
+			head = append(head, "mean bout "+r.StateNames[s]+" (min)")
+		}
 	}
 	if err := t.heading(head...); err != nil {
 		return err
@@ -297,6 +312,11 @@ func groupsSheet(f *excelize.File, st *styles, r *Result) error {
 		}
 		for s := 0; s < k; s++ {
 			cells = append(cells, v{bout[s] / n, st.dec2})
+		}
+		if r.WindowLength > 0 {
+			for s := 0; s < k; s++ {
+				cells = append(cells, v{bout[s] / n * r.WindowLength.Minutes(), st.dec1})
+			}
 		}
 		if err := t.put(cells...); err != nil {
 			return err
@@ -682,4 +702,13 @@ func settingsSheet(f *excelize.File, st *styles, r *Result) error {
 		}
 	}
 	return t.close(true)
+}
+
+// boutColumns is the number of share and bout columns: without the window length, shares and
+// bouts in windows; with it, bouts in minutes as well.
+func boutColumns(r *Result, without, with int) int {
+	if r.WindowLength > 0 {
+		return with
+	}
+	return without
 }
