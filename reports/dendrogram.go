@@ -8,6 +8,7 @@ import (
 
 	"gonum.org/v1/plot"
 	"gonum.org/v1/plot/plotter"
+	"gonum.org/v1/plot/text"
 	"gonum.org/v1/plot/vg"
 	"gonum.org/v1/plot/vg/draw"
 )
@@ -69,6 +70,7 @@ func Dendrogram(r *Result) ([]byte, string, error) {
 		p.Legend.Add(r.GroupNames[gr], sc)
 	}
 	p.Legend.Top = true
+	sansSerif(p)
 	var buf bytes.Buffer
 	wt, err := p.WriterTo(8*vg.Inch, 4.5*vg.Inch, "png")
 	if err != nil {
@@ -78,4 +80,14 @@ func Dendrogram(r *Result) ([]byte, string, error) {
 		return nil, "", err
 	}
 	return buf.Bytes(), caption, nil
+}
+
+// sansSerif sets every text of the plot in Liberation Sans (bundled with gonum's plot), the sans
+// serif nearest the workbook's Calibri, in the workbook's ink colour.
+func sansSerif(p *plot.Plot) {
+	ink := color.RGBA{0x23, 0x31, 0x3f, 0xff}
+	for _, ts := range []*text.Style{&p.Title.TextStyle, &p.X.Label.TextStyle, &p.Y.Label.TextStyle, &p.X.Tick.Label, &p.Y.Tick.Label, &p.Legend.TextStyle} {
+		ts.Font.Variant = "Sans"
+		ts.Color = ink
+	}
 }

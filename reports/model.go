@@ -51,6 +51,7 @@ type Model struct {
 // ModelRead records the column roles used.
 type ModelRead struct {
 	ID, Order, Wave string
+	Label           string `json:",omitempty"` // the label column of the fit, which assign does not use
 	Missing         string
 	MinWindows      int
 }
@@ -111,7 +112,7 @@ func NewModel(r *Result, read cohort.ReadOptions, featureMeds [][3]float64) *Mod
 	n := r.Norm
 	m := &Model{Format: ModelFormat, Version: ModelVersion, Created: r.Created.UTC(), Tool: r.Tool + " " + r.Version,
 		Features: r.Features, Settings: r.Settings, FeatureMeds: featureMeds,
-		Read: ModelRead{ID: read.ID, Order: read.Order, Wave: read.Wave, Missing: read.Missing.String(), MinWindows: read.MinWindows},
+		Read: ModelRead{ID: read.ID, Order: read.Order, Wave: read.Wave, Label: read.Label, Missing: read.Missing.String(), MinWindows: read.MinWindows},
 		Normalize: ModelNorm{Logged: n.Logged, LogShift: n.LogShift, Axes: n.Axes, Within: n.Within.String(), Touched: n.Touched, TouchedBy: n.TouchedBy, RestShare: n.RestShare,
 			QuietScore: n.QuietScore, QuietMid: n.QuietMid, QuietScale: n.QuietScale, Scale: n.ScaleKind.String(),
 			Center: n.Center, Spread: n.Spread, ICC: n.ICC},

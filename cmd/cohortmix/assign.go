@@ -129,6 +129,11 @@ func assignRun(ctx context.Context, o *assignOptions) error {
 	for _, name := range extra {
 		res.Quality.IgnoredColumns = append(res.Quality.IgnoredColumns, cohort.Note{Name: name, Reason: "not in the model: ignored"})
 	}
+	for i, n := range res.Quality.IgnoredColumns {
+		if m.Read.Label != "" && n.Name == m.Read.Label {
+			res.Quality.IgnoredColumns[i].Reason = "the activity labels the model's cohort was described with; placing new data needs none, so assign reads no labels"
+		}
+	}
 	if key != nil {
 		reports.Pseudonymize(res, key)
 	}
