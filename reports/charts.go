@@ -184,26 +184,36 @@ func chartsSheet(f *excelize.File, st *styles, r *Result) error {
 	if len(r.Units) > maxSilhouetteBars {
 		sampled = fmt.Sprintf(" (%d of %d members, at even steps of rank)", len(members), len(r.Units))
 	}
-	w.text(1, row, "Member (rank in its group)", st.header)
+	// One column per group, members best first; the rows are ranks within the group, so the
+	// table is as long as the largest group, and the chart draws one line per group.
+	byGroup := make([][]float64, g)
+	for _, m := range members {
+		byGroup[m.group] = append(byGroup[m.group], m.sil)
+	}
+	longest := 0
+	for _, b := range byGroup {
+		longest = max(longest, len(b))
+	}
+	w.text(1, row, "Rank in group", st.header)
 	for i := 0; i < g; i++ {
 		w.text(2+i, row, r.GroupNames[i], st.header)
 	}
-	rank := make([]int, g)
-	for i, m := range members {
-		rank[m.group]++
-		w.text(1, row+1+i, fmt.Sprintf("%s #%d", r.GroupNames[m.group], rank[m.group]), st.text)
-		w.num(2+m.group, row+1+i, m.sil, st.dec3)
+	for rank := 0; rank < longest; rank++ {
+		w.num(1, row+1+rank, float64(rank+1), st.integer)
+		for i, b := range byGroup {
+			if rank < len(b) {
+				w.num(2+i, row+1+rank, b[rank], st.dec3)
+			}
+		}
 	}
 	series = nil
 	for i := 0; i < g; i++ {
-		series = append(series, excelize.ChartSeries{Name: ref(name, 2+i, top, 2+i, top), Categories: ref(name, 1, top+1, 1, top+len(members)),
-			Values: ref(name, 2+i, top+1, 2+i, top+len(members)), Fill: excelize.Fill{Type: "pattern", Pattern: 1, Color: []string{colour(i)}}})
+		series = append(series, excelize.ChartSeries{Name: ref(name, 2+i, top, 2+i, top), Categories: ref(name, 1, top+1, 1, top+longest),
+			Values: ref(name, 2+i, top+1, 2+i, top+longest), Line: excelize.LineOptions{Width: 2.25},
+			Marker: excelize.ChartMarker{Symbol: "none"}, Fill: excelize.Fill{Type: "pattern", Pattern: 1, Color: []string{colour(i)}}})
 	}
-	silChart := chart(excelize.Col, "Members' silhouettes, by group"+sampled, series, "members of each group, best fit first", "silhouette")
-	silChart.XAxis.TickLabelSkip = max(1, len(members)/10)
-	gap := uint(0)
-	over := 100
-	silChart.GapWidth, silChart.Overlap = &gap, &over
+	silChart := chart(excelize.Line, "Members' silhouettes, best first, by group"+sampled, series, "rank of the member in its group", "silhouette")
+	silChart.XAxis.TickLabelSkip = max(1, longest/10)
 	if err := f.AddChart(name, fmt.Sprintf("I%d", top), silChart); err != nil {
 		return err
 	}
