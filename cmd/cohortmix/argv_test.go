@@ -1,0 +1,97 @@
+package main
+
+import (
+	"context"
+	"testing"
+	"time"
+
+	"github.com/cohortmix/cohortmix/cohort"
+	"github.com/spf13/cobra"
+)
+
+// execute runs one command built with a runF hook on argv, so that the options it would run
+// with can be checked without running it.
+func execute(t *testing.T, cmd *cobra.Command, argv ...string) {
+	t.Helper()
+	commandLineErrors(cmd)
+	cmd.SetArgs(argv)
+	cmd.SetOut(new(nopWriter))
+	cmd.SetErr(new(nopWriter))
+	if err := cmd.ExecuteContext(context.Background()); err != nil {
+		t.Fatalf("%v: %v", argv, err)
+	}
+}
+
+type nopWriter struct{}
+
+func (*nopWriter) Write(p []byte) (int, error) { return len(p), nil }
+
+// Each command turns its command line into the options it runs with.
+func TestCommandLinesBecomeOptions(t *testing.T) {
+	env, _, _ := testEnv()
+	t.Run("group", func(t *testing.T) {
+		var got *groupOptions
+		execute(t, newGroupCmd(env, func(_ context.Context, o *groupOptions) error { got = o; return nil }),
+			"a.csv", "b.csv", "--out", "r.xlsx", "--id", "subject", "--states", "6", "--groups", "3-5", "--within", "rest", "--pca", "off", "--window-length", "30s", "--seed", "7")
+		ao, err := got.Flags.options(got.Inputs)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if got.Out != "r.xlsx" || len(ao.Inputs) != 2 || ao.Read.ID != "subject" || ao.Seed != 7 || ao.Window != 30*time.Second ||
+			len(ao.States) != 1 || ao.States[0] != 6 || len(ao.Groups) != 3 || ao.Norm.Within.String() != "rest" || ao.Norm.PCAVariance != 0 {
+			t.Errorf("group options %+v", ao)
+		}
+	})
+	t.Run("group defaults", func(t *testing.T) {
+		var got *groupOptions
+		execute(t, newGroupCmd(env, func(_ context.Context, o *groupOptions) error { got = o; return nil }), "a.csv", "--out", "r.xlsx")
+		ao, err := got.Flags.options(got.Inputs)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if ao.Norm.Within.String() != "align" || ao.Norm.PCAVariance != 0.99 || ao.States[0] != 2 || ao.States[len(ao.States)-1] != 12 || ao.Read.ID != "participant" || ao.Seed != 1 {
+			t.Errorf("default options %+v", ao)
+		}
+	})
+	t.Run("check", func(t *testing.T) {
+		var got *checkOptions
+		execute(t, newCheckCmd(env, func(_ context.Context, o *checkOptions) error { got = o; return nil }), "a.csv", "--missing", "impute", "--min-windows", "5")
+		ro, err := got.Flags.readOptions()
+		if err != nil {
+			t.Fatal(err)
+		}
+		if got.Inputs[0] != "a.csv" || ro.MinWindows != 5 || ro.Missing != cohort.ImputeMedian {
+			t.Errorf("check options %+v", ro)
+		}
+	})
+	t.Run("assign", func(t *testing.T) {
+		var got *assignOptions
+		execute(t, newAssignCmd(env, func(_ context.Context, o *assignOptions) error { got = o; return nil }),
+			"--model", "m.json", "w2.csv", "--out", "w2.xlsx", "--members", "w2.csv.members", "--pseudonymize", "key", "--window-length", "1m")
+		if got.Model != "m.json" || got.Inputs[0] != "w2.csv" || got.Out != "w2.xlsx" || got.Members != "w2.csv.members" || got.Key != "key" || got.Window != time.Minute {
+			t.Errorf("assign options %+v", got)
+		}
+	})
+	t.Run("refresh", func(t *testing.T) {
+		var got *refreshOptions
+		execute(t, newRefreshCmd(env, func(_ context.Context, o *refreshOptions) error { got = o; return nil }),
+			"--previous", "m.json", "w1.csv", "w2.csv", "--out", "r.xlsx", "--groups", "4")
+		if got.Previous != "m.json" || len(got.Inputs) != 2 || got.Out != "r.xlsx" || !got.changed("groups") || got.changed("states") {
+			t.Errorf("refresh options %+v", got)
+		}
+	})
+	t.Run("demo", func(t *testing.T) {
+		var got *demoOptions
+		execute(t, newDemoCmd(env, func(_ context.Context, o *demoOptions) error { got = o; return nil }), "--out", "d", "--participants", "40", "--windows", "200")
+		if got.Dir != "d" || got.Synth.Participants != 40 || got.Synth.Windows != 200 {
+			t.Errorf("demo options %+v", got)
+		}
+	})
+	t.Run("synth", func(t *testing.T) {
+		var got *synthOptions
+		execute(t, newSynthCmd(env, func(_ context.Context, o *synthOptions) error { got = o; return nil }), "--out", "s.csv", "--scenario", "3", "--seed", "9")
+		if got.Out != "s.csv" || got.Synth.Scenario != 3 || got.Synth.Seed != 9 || got.Synth.Features != 24 {
+			t.Errorf("synth options %+v", got.Synth)
+		}
+	})
+}
