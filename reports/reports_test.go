@@ -193,6 +193,14 @@ func TestLargeCohortIsStreamed(t *testing.T) {
 	if len(tables) != 1 {
 		t.Errorf("the streamed participants sheet has %d tables (its filter), want 1", len(tables))
 	}
+	// Printed, it fits the page width and has the footer like every other sheet.
+	hf, err := g.GetHeaderFooter(SheetParticipants)
+	if err != nil || hf == nil || !strings.Contains(hf.OddFooter, "Page &P of &N") {
+		t.Errorf("the streamed participants sheet has no footer: %+v %v", hf, err)
+	}
+	if pl, err := g.GetPageLayout(SheetParticipants); err != nil || pl.FitToWidth == nil || *pl.FitToWidth != 1 {
+		t.Errorf("the streamed participants sheet does not fit the page width: %+v %v", pl, err)
+	}
 }
 
 func digits(i int) string { return strconv.Itoa(i) }

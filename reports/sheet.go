@@ -16,6 +16,21 @@ type styles struct {
 	fixed []int
 	// headers is each sheet's column-header row, repeated on every printed page.
 	headers map[string]int
+	footer  string // what the data are, on the right of every printed page's footer
+}
+
+// pageSetup makes a sheet print, or export to PDF, at the page width in landscape, with a
+// footer of the sheet's name, the page and what the data are. A streamed sheet gets it before
+// its stream starts, which keeps it.
+func (st *styles) pageSetup(f *excelize.File, name string) error {
+	landscape, one, free, fit := "landscape", 1, 0, true
+	if err := f.SetPageLayout(name, &excelize.PageLayoutOptions{Orientation: &landscape, FitToWidth: &one, FitToHeight: &free}); err != nil {
+		return err
+	}
+	if err := f.SetSheetProps(name, &excelize.SheetPropsOptions{FitToPage: &fit}); err != nil {
+		return err
+	}
+	return f.SetHeaderFooter(name, &excelize.HeaderFooterOptions{OddFooter: "&L&8&A&C&8Page &P of &N&R&8" + st.footer})
 }
 
 // Palette: slate ink on warm paper, with a teal accent; chosen for this tool.
@@ -99,6 +114,9 @@ func openTable(f *excelize.File, st *styles, name string, widths []float64, stre
 	if streamed > 0 {
 		last, _ := excelize.CoordinatesToCellName(len(widths), streamed)
 		if err := f.SetSheetDimension(name, "A1:"+last); err != nil {
+			return nil, err
+		}
+		if err := st.pageSetup(f, name); err != nil {
 			return nil, err
 		}
 		sw, err := f.NewStreamWriter(name)

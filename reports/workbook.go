@@ -35,6 +35,10 @@ func BuildWorkbook(r *Result) (*excelize.File, error) {
 	if err != nil {
 		return nil, err
 	}
+	st.footer = "Participant-level data: handle under the study's data-protection rules"
+	if r.Synthetic {
+		st.footer = "Synthetic data: no real person's data"
+	}
 	steps := []func(*excelize.File, *styles, *Result) error{summarySheet, chartsSheet, definitionsSheet, participantsSheet, changesSheet, groupsSheet, stabilitySheet, separatingSheet, statesSheet, choiceSheet, qualitySheet, settingsSheet}
 	for _, step := range steps {
 		if err := step(f, st, r); err != nil {
@@ -63,27 +67,11 @@ func BuildWorkbook(r *Result) (*excelize.File, error) {
 			return nil, err
 		}
 	}
-	// Printed (or exported to PDF), every sheet fits the page width in landscape, repeats its
-	// column header on every page, and has a footer with the sheet's name, the page and what the
-	// data are.
-	landscape, one, free := "landscape", 1, 0
-	label := "Participant-level data: handle under the study's data-protection rules"
-	if r.Synthetic {
-		label = "Synthetic data: no real person's data"
-	}
 	for _, name := range f.GetSheetList() {
-		if name == SheetParticipants && len(r.Units) > streamRows {
-			continue // streamed: its layout is fixed when written
-		}
-		if err := f.SetPageLayout(name, &excelize.PageLayoutOptions{Orientation: &landscape, FitToWidth: &one, FitToHeight: &free}); err != nil {
-			return nil, err
-		}
-		fit := true
-		if err := f.SetSheetProps(name, &excelize.SheetPropsOptions{FitToPage: &fit}); err != nil {
-			return nil, err
-		}
-		if err := f.SetHeaderFooter(name, &excelize.HeaderFooterOptions{OddFooter: "&L&8&A&C&8Page &P of &N&R&8" + label}); err != nil {
-			return nil, err
+		if name != SheetParticipants || len(r.Units) <= streamRows {
+			if err := st.pageSetup(f, name); err != nil { // a streamed sheet had it before its stream
+				return nil, err
+			}
 		}
 		if h, ok := st.headers[name]; ok {
 			if err := f.SetDefinedName(&excelize.DefinedName{Name: "_xlnm.Print_Titles", RefersTo: fmt.Sprintf("'%s'!$%d:$%d", name, h, h), Scope: name}); err != nil {
