@@ -20,7 +20,7 @@ import (
 // scored by the adjusted Rand index against the planted groups. Methods are chosen on seeds
 // 1–20 ("tune") and reported on seeds 21–40 ("report") and 41–60 ("fresh"); testdata/recovery.sh
 // runs them.
-var recoverySet = flag.String("recovery", "", "run the recovery benchmark: tune (seeds 1–20), report (21–40), fresh (41–60), demo or a list such as 3,7")
+var recoverySet = flag.String("recovery", "", "run the recovery benchmark: tune (seeds 1–20), report (21–40), fresh (41–60), tune40 (1–40), fresh2 (61–80), demo or a list such as 3,7")
 var recoveryVariants = flag.String("recovery.variants", "", "only the variants whose names contain one of these comma-separated words")
 
 // variant is one way of running the job, as the flags a user would pass.
@@ -55,6 +55,8 @@ var recoveryVariantList = []variant{
 	{"states 8-12", []string{"--states", "8-12"}},
 	{"states 10", []string{"--states", "10"}},
 	{"states 12", []string{"--states", "12"}},
+	{"states 5-12", []string{"--states", "5-12"}},
+	{"states 6-12, groups by silhouette", []string{"--states", "6-12", "--criterion", "silhouette"}},
 }
 
 // scenarioRun is one variant's result on one scenario.
@@ -167,6 +169,14 @@ func TestRecoveryBenchmark(t *testing.T) {
 		}
 	case "fresh":
 		for s := uint64(41); s <= 60; s++ {
+			seeds = append(seeds, s)
+		}
+	case "tune40":
+		for s := uint64(1); s <= 40; s++ {
+			seeds = append(seeds, s)
+		}
+	case "fresh2":
+		for s := uint64(61); s <= 80; s++ {
 			seeds = append(seeds, s)
 		}
 	default:
