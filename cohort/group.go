@@ -73,8 +73,13 @@ type GroupOptions struct {
 	Bootstrap int       // resamples for stability and references for the gap; 0 means 20
 	Seed      uint64
 	MaxBytes  int64 // memory guard for distance matrices; 0 means 512 MiB (about 11,000 participants)
-	Workers   int
-	Progress  func(step string, done, total int) // after each grouping, reference set and resample; may be nil
+	// Valley, when above 0 and a range of numbers is given, lowers the chosen number of groups
+	// while some pair of its groups forms one mode: the density of the pair's participants along
+	// the line joining their centres keeps at least this share of its height between them
+	// (cluster.Valley; the states' merging rule, after Hennig 2010, applied to groups).
+	Valley   float64
+	Workers  int
+	Progress func(step string, done, total int) // after each grouping, reference set and resample; may be nil
 }
 
 // report tells opts.Progress, if set, that done of total of a step are finished.
@@ -250,6 +255,19 @@ func GroupSignatures(ctx context.Context, shares [][]float64, opts GroupOptions)
 			return nil, err
 		}
 		g.K = Choose(g.Scores, opts.Criterion)
+		if opts.Valley > 0 {
+			k, note, err := valleyCap(cx, clab, opts.Groups, g.K, opts.Valley)
+			if err != nil {
+				return nil, err
+			}
+			if k != g.K {
+				if g.Note != "" {
+					g.Note += "; "
+				}
+				g.Note += note
+			}
+			g.K = k
+		}
 	} else {
 		g.K = opts.Groups[0]
 	}
@@ -720,4 +738,58 @@ func CheckRanges(features []string, fitted [][3]float64, medians [][]float64) []
 		}
 	}
 	return out
+}
+
+// valleyCap lowers the chosen number of groups, down the candidates, while some pair of groups
+// forms one mode (no density valley deeper than the valley share between them); it returns the
+// number kept and a note for the reader.
+func valleyCap(x *mat.Dense, labels map[int][]int, ks []int, chosen int, valley float64) (int, string, error) {
+	k := chosen
+	for i := slices.Index(ks, chosen); i >= 0; i-- {
+		k = ks[i]
+		merged, err := onePairIsOneMode(x, labels[k], k, valley)
+		if err != nil {
+			return 0, "", err
+		}
+		if !merged || i == 0 {
+			break
+		}
+	}
+	return k, fmt.Sprintf("the rule for the number of groups chose %d, but some of those groups formed one mode with a neighbour (no density valley between them, after Hennig 2010), so %d were kept", chosen, k), nil
+}
+
+// onePairIsOneMode tells whether any two of the k groups form one mode along the line joining
+// their centres (cluster.Valley at or above the share given).
+func onePairIsOneMode(x *mat.Dense, labels []int, k int, valley float64) (bool, error) {
+	_, d := x.Dims()
+	rows := make([][]int, k)
+	for i, l := range labels {
+		rows[l] = append(rows[l], i)
+	}
+	member := func(g int) *mat.Dense {
+		m := mat.NewDense(max(1, len(rows[g])), d, nil)
+		for r, i := range rows[g] {
+			m.SetRow(r, x.RawRowView(i))
+		}
+		return m
+	}
+	groups := make([]*mat.Dense, k)
+	for g := range groups {
+		groups[g] = member(g)
+	}
+	for a := 0; a < k; a++ {
+		for b := a + 1; b < k; b++ {
+			if len(rows[a]) < 2 || len(rows[b]) < 2 {
+				continue
+			}
+			v, err := cluster.Valley(groups[a], groups[b])
+			if err != nil {
+				return false, err
+			}
+			if v >= valley {
+				return true, nil
+			}
+		}
+	}
+	return false, nil
 }

@@ -9,6 +9,7 @@ import (
 	"testing"
 
 	"github.com/cohortmix/cohortmix/cluster"
+	"gonum.org/v1/gonum/mat"
 )
 
 // plantedShares draws n signatures over five states around g planted mixtures (synthetic).
@@ -151,5 +152,42 @@ func TestGroupReportsProgress(t *testing.T) {
 	}
 	if g.K != quiet.K || !slices.Equal(g.Labels, quiet.Labels) {
 		t.Errorf("with progress: k %d, without: k %d (or other labels)", g.K, quiet.K)
+	}
+}
+
+// The valley cap lowers a number of groups that cut one mode in two (planted structure: two
+// normal blobs 10 s.d. apart, each cut in two along the other axis), and keeps a number whose
+// groups are all parted by a valley.
+func TestValleyCapMergesOneModeCutInTwo(t *testing.T) {
+	rng := rand.New(rand.NewPCG(4, 0))
+	n := 200
+	x := mat.NewDense(n, 2, nil)
+	two, three, four := make([]int, n), make([]int, n), make([]int, n)
+	for i := 0; i < n; i++ {
+		blob := i / 100
+		y := rng.NormFloat64()
+		x.SetRow(i, []float64{10*float64(blob) + rng.NormFloat64(), y})
+		half := 0
+		if y > 0 {
+			half = 1
+		}
+		two[i] = blob
+		four[i] = 2*blob + half
+		three[i] = blob
+		if blob == 0 {
+			three[i] = half * 2 // blob 0 cut in two (0 and 2), blob 1 whole (1)
+		}
+	}
+	labels := map[int][]int{2: two, 3: three, 4: four}
+	for _, c := range []struct {
+		chosen, want int
+	}{{4, 2}, {3, 2}, {2, 2}} {
+		k, _, err := valleyCap(x, labels, []int{2, 3, 4}, c.chosen, 0.5)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if k != c.want {
+			t.Errorf("chosen %d: kept %d groups, want %d", c.chosen, k, c.want)
+		}
 	}
 }

@@ -33,7 +33,9 @@ type analysisOptions struct {
 	Axes       []string
 	StatesRule profile.Rule
 	Valley     float64 // see profile.MergeStates; 0 means profile.DefaultValley
-	Seed       uint64
+	// GroupValley lowers the number of groups while two form one mode (cohort.GroupOptions.Valley).
+	GroupValley float64
+	Seed        uint64
 	// Window is the length of one window, given on the command line (0: from the order
 	// column's times, when it holds times).
 	Window time.Duration
@@ -355,7 +357,7 @@ func fitTable(ctx context.Context, t *cohort.Table, o analysisOptions) (*fitted,
 		shares[i] = sg.Share
 	}
 	step("grouping participants")
-	g, err := cohort.GroupSignatures(ctx, shares, cohort.GroupOptions{Method: o.Method, Groups: o.Groups, Criterion: o.Criterion, Bootstrap: o.Bootstrap, Seed: o.Seed, Workers: o.Workers, Progress: o.Steps})
+	g, err := cohort.GroupSignatures(ctx, shares, cohort.GroupOptions{Method: o.Method, Groups: o.Groups, Criterion: o.Criterion, Bootstrap: o.Bootstrap, Seed: o.Seed, Valley: o.GroupValley, Workers: o.Workers, Progress: o.Steps})
 	if err != nil {
 		return nil, err
 	}

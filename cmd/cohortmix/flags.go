@@ -57,6 +57,7 @@ type mainFlags struct {
 	Bootstrap              int
 	Seed                   uint64
 	WindowLength           time.Duration
+	GroupValley            float64
 	Workers                int
 	Members, Model         string
 	Pseudonymize           string
@@ -82,6 +83,7 @@ func (m *mainFlags) register(cmd *cobra.Command) {
 	f.StringVar(&m.Groups, "groups", "2-8", "number of participant groups, or a range to choose from")
 	f.StringVar(&m.Method, "method", "auto", "grouping: auto (ward-hellinger, or kmeans-clr above 10,000 participants), ward-hellinger, pam-aitchison, pam-js or kmeans-clr")
 	f.StringVar(&m.Criterion, "criterion", "gap", "rule for the number of groups: gap, stability or silhouette")
+	f.Float64Var(&m.GroupValley, "group-valley", 0, "lower the number of groups while two of them form one mode (density between them at least this share of its height; 0: off)")
 	f.IntVar(&m.Bootstrap, "bootstrap", 20, "resamples for stability and reference sets for the gap statistic")
 	f.Uint64Var(&m.Seed, "seed", 1, "seed for every random step")
 	f.DurationVar(&m.WindowLength, "window-length", 0, "the length of one window, e.g. 60s, for bout lengths in minutes (default: from the order column's times, when it holds times)")
@@ -202,6 +204,10 @@ func (m *mainFlags) options(inputs []string) (analysisOptions, error) {
 	if o.Method, err = cohort.ParseMethod(m.Method); err != nil {
 		return o, &flagError{err}
 	}
+	if m.GroupValley < 0 || m.GroupValley >= 1 {
+		return o, flagErrorf("--group-valley %v: use a share in [0, 1)", m.GroupValley)
+	}
+	o.GroupValley = m.GroupValley
 	if o.Criterion, err = cohort.ParseCriterion(m.Criterion); err != nil {
 		return o, &flagError{err}
 	}

@@ -57,6 +57,8 @@ var recoveryVariantList = []variant{
 	{"states 12", []string{"--states", "12"}},
 	{"states 5-12", []string{"--states", "5-12"}},
 	{"states 6-12, groups by silhouette", []string{"--states", "6-12", "--criterion", "silhouette"}},
+	{"group valley 0.5", []string{"--group-valley", "0.5"}},
+	{"group valley 0.7", []string{"--group-valley", "0.7"}},
 }
 
 // scenarioRun is one variant's result on one scenario.
