@@ -227,7 +227,7 @@ func (m *mainFlags) settings() []reports.Setting {
 		s("axis means (align)", m.Axes), s("log scale", m.Log), s("rule for a range of states", m.StatesRule), s("valley ratio", fmt.Sprint(m.Valley)),
 		s("offset ICC threshold", fmt.Sprint(m.OffsetICC)), s("rest share", fmt.Sprint(m.RestShare)),
 		s("cohort scaling", m.Scale), s("PCA", m.PCA), s("states", m.States), s("window sample", strconv.Itoa(m.Sample)),
-		s("groups", m.Groups), s("grouping method", m.Method), s("criterion for groups", m.Criterion),
+		s("groups", m.Groups), s("grouping method", m.Method), s("criterion for groups", m.Criterion), s("group valley cap", strconv.FormatFloat(m.GroupValley, 'g', -1, 64)),
 		s("bootstrap / gap references", strconv.Itoa(m.Bootstrap)), s("seed", strconv.FormatUint(m.Seed, 10)), s("window length", windowSetting(m.WindowLength)),
 	}
 }
