@@ -689,47 +689,17 @@ func (f *Fit) applyInto(dst, x []float64, b Baseline, dev Device, logged bool) [
 		dst = make([]float64, n*k)
 	}
 	dst = dst[:n*k]
-	center, scale := make([]float64, d), make([]float64, d)
-	for j := range scale {
-		scale[j] = 1
-		if f.Within.baseline() && f.Touched[j] {
-			center[j], scale[j] = b.Center[j], b.Scale[j]
-		}
-	}
-	prep := (f.anyLogged() && !logged) || (dev.Rotation != nil && f.Axes != nil)
-	var tmp []float64
-	if prep {
-		tmp = make([]float64, min(n, applyRows)*d)
-	}
-	rows := func(y, x []float64) {
-		if prep {
-			t := tmp[:len(x)]
-			copy(t, x)
-			if dev.Rotation != nil && f.Axes != nil {
-				f.rotateRows(t, dev.Rotation)
-			}
-			if !logged {
-				f.logRows(t)
-			}
-			x = t
-		}
-		for i := 0; i+d <= len(x); i += d {
-			xi, yi := x[i:i+d], y[i:i+d]
-			for j, v := range xi {
-				yi[j] = ((v-center[j])/scale[j] - f.Center[j]) / f.Spread[j]
-			}
-		}
-	}
+	r := f.newRowScaler(b, dev, logged, min(n, applyRows))
 	if f.PCA == nil {
 		for i := 0; i < n; i += applyRows {
 			m := min(applyRows, n-i)
-			rows(dst[i*d:(i+m)*d], x[i*d:(i+m)*d])
+			r.rows(dst[i*d:(i+m)*d], x[i*d:(i+m)*d])
 		}
 	} else {
 		block := make([]float64, min(n, applyRows)*d)
 		for i := 0; i < n; i += applyRows {
 			m := min(applyRows, n-i)
-			rows(block, x[i*d:(i+m)*d])
+			r.rows(block, x[i*d:(i+m)*d])
 			f.PCA.TransformRows(dst[i*k:(i+m)*k], block[:m*d])
 		}
 	}
@@ -741,6 +711,72 @@ func (f *Fit) applyInto(dst, x []float64, b Baseline, dev Device, logged bool) [
 		}
 	}
 	return dst
+}
+
+// ScaledInto is ApplyDeviceInto up to the cohort scaling: each window turned, on its log
+// scales and scaled, in the features (n × features, into dst grown when too short), before the
+// PCA projection and without the device's offsets, which live in the projected space.
+func (f *Fit) ScaledInto(dst, x []float64, dev Device) []float64 {
+	d := len(f.Features)
+	n := len(x) / d
+	if cap(dst) < n*d {
+		dst = make([]float64, n*d)
+	}
+	dst = dst[:n*d]
+	r := f.newRowScaler(Baseline{}, dev, false, min(n, applyRows))
+	for i := 0; i < n; i += applyRows {
+		m := min(applyRows, n-i)
+		r.rows(dst[i*d:(i+m)*d], x[i*d:(i+m)*d])
+	}
+	return dst
+}
+
+// rowScaler takes windows, a block at a time, through the within-participant and cohort
+// scaling: turned and logged first when the fit and device ask for it.
+type rowScaler struct {
+	f                  *Fit
+	center, scale, tmp []float64
+	dev                Device
+	logged, prep       bool
+}
+
+func (f *Fit) newRowScaler(b Baseline, dev Device, logged bool, rows int) *rowScaler {
+	d := len(f.Features)
+	r := &rowScaler{f: f, center: make([]float64, d), scale: make([]float64, d), dev: dev, logged: logged}
+	for j := range r.scale {
+		r.scale[j] = 1
+		if f.Within.baseline() && f.Touched[j] {
+			r.center[j], r.scale[j] = b.Center[j], b.Scale[j]
+		}
+	}
+	r.prep = (f.anyLogged() && !logged) || (dev.Rotation != nil && f.Axes != nil)
+	if r.prep {
+		r.tmp = make([]float64, rows*d)
+	}
+	return r
+}
+
+// rows scales the windows of x into y (both rows × features).
+func (r *rowScaler) rows(y, x []float64) {
+	f, d := r.f, len(r.f.Features)
+	if r.prep {
+		t := r.tmp[:len(x)]
+		copy(t, x)
+		if r.dev.Rotation != nil && f.Axes != nil {
+			f.rotateRows(t, r.dev.Rotation)
+		}
+		if !r.logged {
+			f.logRows(t)
+		}
+		x = t
+	}
+	center, scale := r.center, r.scale
+	for i := 0; i+d <= len(x); i += d {
+		xi, yi := x[i:i+d], y[i:i+d]
+		for j, v := range xi {
+			yi[j] = ((v-center[j])/scale[j] - f.Center[j]) / f.Spread[j]
+		}
+	}
 }
 
 // Cohort applies the cohort step (scaling, then the PCA projection) to windows that had the

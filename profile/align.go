@@ -537,6 +537,16 @@ func orderAligned(c *mat.Dense, posture [][]float64) (*mat.Dense, [][]float64) {
 // every window is normalized with the device and assigned. dst is reused for the normalized
 // windows, which are returned with the device and the labels.
 func (s *States) AlignUnit(fit *normalize.Fit, x, dst []float64) (normalize.Device, []float64, []int, error) {
+	dev, err := s.alignDevice(fit, x)
+	if err != nil {
+		return dev, nil, nil, err
+	}
+	dst = fit.ApplyDeviceInto(dst, x, dev)
+	return dev, dst, s.assignInto(nil, dst, fit.OutDim()), nil
+}
+
+// alignDevice fits one participant's device against the frozen states (see AlignUnit).
+func (s *States) alignDevice(fit *normalize.Fit, x []float64) (normalize.Device, error) {
 	d, dim := len(fit.Features), fit.OutDim()
 	n := len(x) / d
 	sub := x
@@ -561,7 +571,7 @@ func (s *States) AlignUnit(fit *normalize.Fit, x, dst []float64) (normalize.Devi
 			break
 		}
 		if dev, y, err = fitDevice(fit, sub, labels, centres, s.Posture, s.Offsets, s.Prior, y); err != nil {
-			return dev, nil, nil, err
+			return dev, err
 		}
 		for i := 0; i < len(y); i += dim { // the offsets, on windows already turned
 			for c, o := range dev.Offset {
@@ -569,8 +579,82 @@ func (s *States) AlignUnit(fit *normalize.Fit, x, dst []float64) (normalize.Devi
 			}
 		}
 	}
-	dst = fit.ApplyDeviceInto(dst, x, dev)
-	return dev, dst, s.assignInto(nil, dst, dim), nil
+	return dev, nil
+}
+
+// AssignUnit is AlignUnit for callers that need each window's state but not its normalized
+// values: with a PCA, the windows are not projected one by one but scored against the state
+// centres taken back into the features. For a window s (scaled features), the PCA centre m, the
+// loadings C (features × components), the device offset o and a state centre c, the squared
+// distance ‖C'(s − m) − o − c‖² is, apart from a term the same for every state,
+// ‖c‖² + 2o·c + 2m·w − 2s·w with w = Cc: one dot product of features per state instead of a
+// projection. The nearest state is the same up to rounding, which can part near ties. buf is
+// reused for the scaled windows and returned.
+func (s *States) AssignUnit(fit *normalize.Fit, x, buf []float64) (normalize.Device, []int, []float64, error) {
+	p := fit.PCA
+	if p == nil {
+		dev, y, labels, err := s.AlignUnit(fit, x, buf)
+		return dev, labels, y, err
+	}
+	dev, err := s.alignDevice(fit, x)
+	if err != nil {
+		return dev, nil, buf, err
+	}
+	labels, buf := s.assignFolded(fit, x, dev, buf)
+	return dev, labels, buf, nil
+}
+
+// assignFolded gives each window of x, with this device, its nearest state by the scores of
+// AssignUnit; buf is reused for the scaled windows and returned.
+func (s *States) assignFolded(fit *normalize.Fit, x []float64, dev normalize.Device, buf []float64) ([]int, []float64) {
+	p := fit.PCA
+	d, dim := len(fit.Features), fit.OutDim()
+	comps := p.Components.RawMatrix()
+	centres := s.Centroids.RawMatrix()
+	w := make([]float64, s.K*d) // w[c] = C·centre c, in the features
+	b := make([]float64, s.K)   // ‖c‖² + 2o·c + 2m·w
+	for c := 0; c < s.K; c++ {
+		cen := centres.Data[c*centres.Stride : c*centres.Stride+dim]
+		wc := w[c*d : (c+1)*d]
+		for j := 0; j < d; j++ {
+			row := comps.Data[j*comps.Stride : j*comps.Stride+dim]
+			var v float64
+			for q, l := range row {
+				v += l * cen[q]
+			}
+			wc[j] = v
+		}
+		var bc float64
+		for q, v := range cen {
+			bc += v * v
+			if dev.Offset != nil {
+				bc += 2 * dev.Offset[q] * v
+			}
+		}
+		for j, m := range p.Mean {
+			bc += 2 * m * wc[j]
+		}
+		b[c] = bc
+	}
+	buf = fit.ScaledInto(buf, x, normalize.Device{Rotation: dev.Rotation})
+	n := len(x) / d
+	labels := make([]int, n)
+	for i := 0; i < n; i++ {
+		row := buf[i*d : (i+1)*d]
+		best, bestScore := 0, math.Inf(1)
+		for c := 0; c < s.K; c++ {
+			wc := w[c*d : (c+1)*d]
+			var dot float64
+			for j, v := range row {
+				dot += v * wc[j]
+			}
+			if score := b[c] - 2*dot; score < bestScore {
+				best, bestScore = c, score
+			}
+		}
+		labels[i] = best
+	}
+	return labels, buf
 }
 
 // assignInto gives every window of y (rows of dim) its nearest state, into dst when it has room.

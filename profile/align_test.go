@@ -4,6 +4,7 @@ import (
 	"context"
 	"math"
 	"math/rand/v2"
+	"slices"
 	"testing"
 
 	"github.com/cohortmix/cohortmix/cluster"
@@ -134,4 +135,91 @@ func mul(a, b []float64) []float64 {
 func angleBetween(a, b []float64) float64 {
 	bt := []float64{b[0], b[3], b[6], b[1], b[4], b[7], b[2], b[5], b[8]}
 	return normalize.Device{Rotation: mul(a, bt)}.Angle()
+}
+
+// With a PCA, AssignUnit scores the windows against the state centres taken back into the
+// features instead of projecting them; it gives every window the state AlignUnit gives it
+// (planted structure: the devices of TestFitAlignedRecoversPlantedDevices; PCA keeping 90 % of
+// the variance, so that the projection drops a dimension).
+func TestAssignUnitMatchesAlignUnit(t *testing.T) {
+	features := []string{"mean_x", "mean_y", "mean_z", "bias", "amp", "freq"}
+	units, _, _, _, _ := plantedDevices(30, 300)
+	axes, _ := normalize.FindAxes(features, units[0])
+	for _, pca := range []struct {
+		no    bool
+		share float64
+	}{{true, 0}, {false, 0.9}, {false, 1}} {
+		fit, err := normalize.FitBlocks(context.Background(), features, normalize.SliceBlocks(units), normalize.Options{Within: normalize.WithinAlign, Axes: axes, NoPCA: pca.no, PCAVariance: pca.share,
+			Log: true, Lowest: normalize.LowestOf(units, 6), LogStart: normalize.LogStartOf(units, 6)})
+		if err != nil {
+			t.Fatal(err)
+		}
+		states, err := FitAligned(context.Background(), units, fit, AlignOptions{States: []int{4}, Seed: 1})
+		if err != nil {
+			t.Fatal(err)
+		}
+		differ, total := 0, 0
+		for _, x := range units {
+			dev1, _, want, err := states.AlignUnit(fit, x, nil)
+			if err != nil {
+				t.Fatal(err)
+			}
+			dev2, got, _, err := states.AssignUnit(fit, x, nil)
+			if err != nil {
+				t.Fatal(err)
+			}
+			if !slices.Equal(dev1.Offset, dev2.Offset) {
+				t.Fatalf("PCA %+v: the devices differ", pca)
+			}
+			for i := range want {
+				total++
+				if got[i] != want[i] {
+					differ++
+				}
+			}
+		}
+		// Rounding can part a near tie; more than one window in a thousand would be a mistake.
+		if differ*1000 > total {
+			t.Errorf("PCA %+v: %d of %d windows got another state", pca, differ, total)
+		}
+	}
+}
+
+// The folded scores give the state the exact distances in the projected space give, for
+// devices with large offsets and turns (synthetic devices on the planted cohort above); a
+// wrong term in the scores moves many windows.
+func TestFoldedScoresMatchTheDistances(t *testing.T) {
+	features := []string{"mean_x", "mean_y", "mean_z", "bias", "amp", "freq"}
+	units, _, _, _, _ := plantedDevices(20, 300)
+	axes, _ := normalize.FindAxes(features, units[0])
+	fit, err := normalize.FitBlocks(context.Background(), features, normalize.SliceBlocks(units), normalize.Options{Within: normalize.WithinAlign, Axes: axes, PCAVariance: 0.9,
+		Log: true, Lowest: normalize.LowestOf(units, 6), LogStart: normalize.LogStartOf(units, 6)})
+	if err != nil {
+		t.Fatal(err)
+	}
+	states, err := FitAligned(context.Background(), units, fit, AlignOptions{States: []int{4}, Seed: 1})
+	if err != nil {
+		t.Fatal(err)
+	}
+	rng := rand.New(rand.NewPCG(9, 0))
+	differ, total := 0, 0
+	for _, x := range units {
+		dev := normalize.Device{Offset: make([]float64, fit.OutDim())}
+		for c := range dev.Offset {
+			dev.Offset[c] = 1.5 * rng.NormFloat64()
+		}
+		a := rng.Float64()
+		dev.Rotation = []float64{math.Cos(a), -math.Sin(a), 0, math.Sin(a), math.Cos(a), 0, 0, 0, 1}
+		want := states.assignInto(nil, fit.ApplyDeviceInto(nil, x, dev), fit.OutDim())
+		got, _ := states.assignFolded(fit, x, dev, nil)
+		for i := range want {
+			total++
+			if got[i] != want[i] {
+				differ++
+			}
+		}
+	}
+	if differ*1000 > total {
+		t.Errorf("%d of %d windows got another state from the folded scores", differ, total)
+	}
 }

@@ -420,7 +420,7 @@ func assignWindows(ctx context.Context, t *cohort.Table, fit *normalize.Fit, sta
 		}
 		var labels []int
 		if states.Aligned() {
-			dev, y, lab, err := states.AlignUnit(fit, x, *bp)
+			dev, lab, y, err := states.AssignUnit(fit, x, *bp)
 			if err != nil {
 				return unitResult{}, err
 			}
