@@ -63,13 +63,16 @@ func demoRun(ctx context.Context, o *demoOptions) error {
 	if g.Flags.Label == "" {
 		g.Flags.Label = "activity"
 	}
+	if g.Flags.WindowLength == 0 && !o.Synth.Times {
+		g.Flags.WindowLength = time.Minute // the demo's windows are one minute long
+	}
 	if g.Flags.Members == "" {
 		g.Flags.Members = filepath.Join(o.Dir, "demo-members.csv")
 	}
 	if g.Flags.Model == "" {
 		g.Flags.Model = filepath.Join(o.Dir, "demo-model.json")
 	}
-	g.Args = []string{"cohortmix", "group", data, "--label", g.Flags.Label, "--out", g.Out}
+	g.Args = []string{"cohortmix", "group", data, "--label", g.Flags.Label, "--window-length", g.Flags.WindowLength.String(), "--out", g.Out}
 	for _, p := range []string{data, truthPath} {
 		if err := reports.CheckTarget(p, o.Flags.Force); err != nil {
 			return err
