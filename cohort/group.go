@@ -172,7 +172,7 @@ func GroupSignatures(ctx context.Context, shares [][]float64, opts GroupOptions)
 		opts.Method = WardHellinger
 		if n > LargeCohort {
 			opts.Method = KMeansCLR
-			note = fmt.Sprintf("%s participants are more than %s: they were grouped by k-means on the centred log-ratios, which scales, instead of Ward linkage (pass --method ward-hellinger to insist)", thousands(n), thousands(LargeCohort))
+			note = fmt.Sprintf("%s participants are more than %s: they were grouped by k-means on the centred log-ratios, which scales, instead of Ward linkage (pass --method ward-hellinger to insist)", Thousands(n), Thousands(LargeCohort))
 		}
 	}
 	g := &Grouping{Method: opts.Method, Criterion: opts.Criterion, Note: note}
@@ -236,7 +236,7 @@ func GroupSignatures(ctx context.Context, shares [][]float64, opts GroupOptions)
 		if g.Note != "" {
 			g.Note += "; "
 		}
-		g.Note += fmt.Sprintf("the mean silhouettes, the gap statistic and the stability of each number of groups were computed on a reproducible sample of %s of the %s participants", thousands(LargeCohort), thousands(n))
+		g.Note += fmt.Sprintf("the mean silhouettes, the gap statistic and the stability of each number of groups were computed on a reproducible sample of %s of the %s participants", Thousands(LargeCohort), Thousands(n))
 	}
 	for _, k := range opts.Groups {
 		sc := KScore{K: k}
@@ -292,7 +292,7 @@ func GroupSignatures(ctx context.Context, shares [][]float64, opts GroupOptions)
 		if g.Note != "" {
 			g.Note += "; "
 		}
-		g.Note += fmt.Sprintf("silhouettes were computed for a sample of 5,000 participants (each against all): a full distance matrix on %s would need %s MiB", thousands(n), thousands(int(cluster.CondensedBytes(n)>>20)))
+		g.Note += fmt.Sprintf("silhouettes were computed for a sample of 5,000 participants (each against all): a full distance matrix on %s would need %s MiB", Thousands(n), Thousands(int(cluster.CondensedBytes(n)>>20)))
 	}
 	return g, nil
 }
@@ -327,8 +327,8 @@ func sampleRows(x *mat.Dense, labelsByK map[int][]int, m int, seed uint64) (*mat
 	return out, lab
 }
 
-// thousands writes n with commas between groups of three digits, as the workbook's notes do.
-func thousands(n int) string {
+// Thousands writes n with commas between groups of three digits, as the workbook's notes do.
+func Thousands(n int) string {
 	s := strconv.Itoa(n)
 	for i := len(s) - 3; i > 0 && s[i-1] != '-'; i -= 3 {
 		s = s[:i] + "," + s[i:]

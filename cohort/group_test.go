@@ -106,8 +106,8 @@ func TestMatchNamesGroups(t *testing.T) {
 
 func TestThousands(t *testing.T) {
 	for n, want := range map[int]string{0: "0", 999: "999", 1000: "1,000", 38146: "38,146", 100000: "100,000", 1234567: "1,234,567", -1500: "-1,500"} {
-		if got := thousands(n); got != want {
-			t.Errorf("thousands(%d) = %q, want %q", n, got, want)
+		if got := Thousands(n); got != want {
+			t.Errorf("Thousands(%d) = %q, want %q", n, got, want)
 		}
 	}
 }

@@ -191,7 +191,7 @@ func detailRows(r *Result) [][2]string {
 		{"Number of states", fmt.Sprintf("%d (%s)", r.States.K, r.States.Rule)},
 		{"Number of groups", fmt.Sprintf("%d (%s)", r.Grouping.K, choiceText(r))},
 		{capital(c.Unit(2)), participantsText(c)},
-		{"Windows", fmt.Sprintf("%s in the input: %s used, %s dropped for missing cells, %s in excluded %s", thousands(q.WindowsIn), thousands(q.WindowsIn-q.WindowsDropped-q.WindowsExcluded), thousands(q.WindowsDropped), thousands(q.WindowsExcluded), c.Unit(2))},
+		{"Windows", fmt.Sprintf("%s in the input: %s used, %s dropped for missing cells, %s in excluded %s", cohort.Thousands(q.WindowsIn), cohort.Thousands(q.WindowsIn-q.WindowsDropped-q.WindowsExcluded), cohort.Thousands(q.WindowsDropped), cohort.Thousands(q.WindowsExcluded), c.Unit(2))},
 		{"Window length", window},
 		{"Features", fmt.Sprintf("%d used: %s", len(r.Features), join(r.Features))},
 		{"Created", r.Created.UTC().Format("2006-01-02 15:04:05 UTC") + " by " + r.Tool + " " + r.Version},
@@ -231,23 +231,5 @@ func howDone(r *Result) string {
 		method = "k-means on the log-ratios of the shares"
 	}
 	return fmt.Sprintf("First %s; then every feature was put on a common scale across the cohort. %d movement states were learned from %s windows sampled from the whole cohort, and every window was given its nearest state. The participants were grouped by how their time divides among the states (%s). The exact settings are on the %s sheet.",
-		within, r.States.K, thousands(r.States.Sampled), method, SheetSettings)
-}
-
-// thousands writes an integer with thousands separators: 1,234,567.
-func thousands(n int) string {
-	s := fmt.Sprint(n)
-	neg := strings.HasPrefix(s, "-")
-	s = strings.TrimPrefix(s, "-")
-	var b strings.Builder
-	for i, r := range s {
-		if i > 0 && (len(s)-i)%3 == 0 {
-			b.WriteByte(',')
-		}
-		b.WriteRune(r)
-	}
-	if neg {
-		return "-" + b.String()
-	}
-	return b.String()
+		within, r.States.K, cohort.Thousands(r.States.Sampled), method, SheetSettings)
 }
