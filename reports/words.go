@@ -150,7 +150,7 @@ func (w StateWords) Short() string {
 // it apart, and its most common known label.
 func (w StateWords) Sentence() string {
 	var parts []string
-	head := fmt.Sprintf("%s of all windows", percent(w.Share))
+	head := fmt.Sprintf("%s of all windows", Percent(w.Share))
 	if w.Intensity != "" {
 		head = capital(w.Intensity) + ", " + head
 	}
@@ -164,7 +164,7 @@ func (w StateWords) Sentence() string {
 		parts = append(parts, "with a slower rhythm than average")
 	}
 	if w.Label != "" {
-		parts = append(parts, fmt.Sprintf("mostly labelled %s (%s of its labelled windows)", w.Label, percent(w.LabelPct)))
+		parts = append(parts, fmt.Sprintf("mostly labelled %s (%s of its labelled windows)", w.Label, Percent(w.LabelPct)))
 	}
 	if len(w.Drivers) > 0 {
 		parts = append(parts, "features: "+strings.Join(w.Drivers, ", ")+" than average")
@@ -174,8 +174,8 @@ func (w StateWords) Sentence() string {
 	return strings.Join(parts, "; ")
 }
 
-// percent is a share as a whole percentage, or "<1%" for a small share above 0.
-func percent(x float64) string {
+// Percent is a share as a whole percentage, or "<1%" for a small share above 0.
+func Percent(x float64) string {
 	if x > 0 && x < 0.005 {
 		return "<1%"
 	}

@@ -643,11 +643,11 @@ func groupLines(g *cohort.Grouping, sigs []profile.Signature, stateNames []strin
 		var parts []string
 		if len(ds) > 0 && ds[0].r > 0.1 {
 			j := ds[0].j
-			parts = append(parts, "more time in "+withNote(stateNames[j], pct(share[j])+" of their time against "+pct(meanShare[j])+" on average"))
+			parts = append(parts, "more time in "+withNote(stateNames[j], reports.Percent(share[j])+" of their time against "+reports.Percent(meanShare[j])+" on average"))
 		}
 		if len(ds) > 1 && ds[len(ds)-1].r < -0.1 {
 			j := ds[len(ds)-1].j
-			parts = append(parts, "less in "+withNote(stateNames[j], pct(share[j])+" against "+pct(meanShare[j])))
+			parts = append(parts, "less in "+withNote(stateNames[j], reports.Percent(share[j])+" against "+reports.Percent(meanShare[j])))
 		}
 		if len(db) > 0 {
 			longer, shorter := db[0], db[len(db)-1]
@@ -685,9 +685,6 @@ func withNote(name, note string) string {
 	}
 	return name + " (" + note + ")"
 }
-
-// pct is a share as a whole percentage.
-func pct(x float64) string { return fmt.Sprintf("%.0f%%", 100*x) }
 
 // boutText is a mean bout length in minutes when the window length is known, else in windows.
 func boutText(windows float64, window time.Duration) string {
