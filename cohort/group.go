@@ -491,7 +491,7 @@ func withinSS(x *mat.Dense, lab []int, k int) float64 {
 // scoreStability fills Stability: for B bootstrap resamples, the grouping of the resample is
 // compared by ARI with the grouping of all participants on the resampled ones (Lange et al. 2004).
 func scoreStability(ctx context.Context, x *mat.Dense, dist *cluster.Condensed, scores []KScore, labelsByK map[int][]int, opts GroupOptions) error {
-	n, d := x.Dims()
+	n, _ := x.Dims()
 	sum := make([]float64, len(scores))
 	for b := 0; b < opts.Bootstrap; b++ {
 		if ctx.Err() != nil {
@@ -508,19 +508,7 @@ func scoreStability(ctx context.Context, x *mat.Dense, dist *cluster.Condensed, 
 				idx = append(idx, i)
 			}
 		}
-		sub := mat.NewDense(len(idx), d, nil)
-		for r, i := range idx {
-			sub.SetRow(r, x.RawRowView(i))
-		}
-		var subDist *cluster.Condensed
-		if dist != nil && (opts.Method == PAMAitchison || opts.Method == PAMJensenShannon) {
-			subDist = &cluster.Condensed{N: len(idx), D: make([]float64, len(idx)*(len(idx)-1)/2)}
-			for a := 0; a < len(idx); a++ {
-				for c := a + 1; c < len(idx); c++ {
-					subDist.D[subDist.Index(a, c)] = dist.At(idx[a], idx[c])
-				}
-			}
-		}
+		sub, subDist := subsetRows(x, dist, idx, opts.Method)
 		cut, err := newCutter(ctx, opts.Method, sub, subDist, GroupOptions{Seed: opts.Seed + uint64(b), Workers: opts.Workers})
 		if err != nil {
 			return err
@@ -792,4 +780,24 @@ func onePairIsOneMode(x *mat.Dense, labels []int, k int, valley float64) (bool, 
 		}
 	}
 	return false, nil
+}
+
+// subsetRows is the rows idx of x, and for PAM their distances taken from dist (nil otherwise),
+// for grouping a resample of the participants.
+func subsetRows(x *mat.Dense, dist *cluster.Condensed, idx []int, m Method) (*mat.Dense, *cluster.Condensed) {
+	_, d := x.Dims()
+	sub := mat.NewDense(len(idx), d, nil)
+	for r, i := range idx {
+		sub.SetRow(r, x.RawRowView(i))
+	}
+	var subDist *cluster.Condensed
+	if dist != nil && (m == PAMAitchison || m == PAMJensenShannon) {
+		subDist = &cluster.Condensed{N: len(idx), D: make([]float64, len(idx)*(len(idx)-1)/2)}
+		for a := 0; a < len(idx); a++ {
+			for c := a + 1; c < len(idx); c++ {
+				subDist.D[subDist.Index(a, c)] = dist.At(idx[a], idx[c])
+			}
+		}
+	}
+	return sub, subDist
 }

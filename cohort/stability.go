@@ -36,7 +36,7 @@ const UnstableJaccard = 0.6
 // Reference: Hennig C (2007), Cluster-wise assessment of cluster stability, Comput. Stat. Data
 // Anal. 52:258–271.
 func groupStability(ctx context.Context, x *mat.Dense, dist *cluster.Condensed, lab []int, k int, opts GroupOptions) (*GroupStability, error) {
-	n, d := x.Dims()
+	n, _ := x.Dims()
 	st := &GroupStability{Resamples: opts.Bootstrap, Jaccard: make([]float64, k), Stay: make([]float64, n)}
 	rows := make([]int, n) // the participants resampled from
 	for i := range rows {
@@ -71,19 +71,7 @@ func groupStability(ctx context.Context, x *mat.Dense, dist *cluster.Condensed, 
 			opts.report("stability of each group: resamples", b+1, opts.Bootstrap)
 			continue
 		}
-		sub := mat.NewDense(len(idx), d, nil)
-		for r, i := range idx {
-			sub.SetRow(r, x.RawRowView(i))
-		}
-		var subDist *cluster.Condensed
-		if dist != nil && (opts.Method == PAMAitchison || opts.Method == PAMJensenShannon) {
-			subDist = &cluster.Condensed{N: len(idx), D: make([]float64, len(idx)*(len(idx)-1)/2)}
-			for a := 0; a < len(idx); a++ {
-				for c := a + 1; c < len(idx); c++ {
-					subDist.D[subDist.Index(a, c)] = dist.At(idx[a], idx[c])
-				}
-			}
-		}
+		sub, subDist := subsetRows(x, dist, idx, opts.Method)
 		cut, err := newCutter(ctx, opts.Method, sub, subDist, GroupOptions{Seed: cluster.SubSeed(opts.Seed, "stability grouping", b), Workers: opts.Workers})
 		if err != nil {
 			return nil, err

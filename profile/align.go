@@ -221,17 +221,7 @@ func (a *aligner) medianOffsets() {
 		}
 		a.devs[u].Offset = off
 	})
-	mean := make([]float64, a.dim)
-	for _, dev := range a.devs {
-		for c, v := range dev.Offset {
-			mean[c] += v / float64(len(a.devs))
-		}
-	}
-	for _, dev := range a.devs {
-		for c := range dev.Offset {
-			dev.Offset[c] -= mean[c]
-		}
-	}
+	a.centreOffsets()
 }
 
 // offsetColumns are the output columns that carry a participant's offset: the touched features
@@ -350,6 +340,13 @@ func (a *aligner) updateDevices() error {
 			return err
 		}
 	}
+	a.centreOffsets()
+	return nil
+}
+
+// centreOffsets subtracts the participants' mean offset from each, so that the offsets take
+// nothing from the state centres.
+func (a *aligner) centreOffsets() {
 	mean := make([]float64, a.dim)
 	for _, dev := range a.devs {
 		for c, v := range dev.Offset {
@@ -361,7 +358,6 @@ func (a *aligner) updateDevices() error {
 			dev.Offset[c] -= mean[c]
 		}
 	}
-	return nil
 }
 
 // fitDevice finds one participant's device from its windows x (on their log scales) and their
@@ -567,7 +563,7 @@ func (s *States) alignDevice(fit *normalize.Fit, x []float64) (normalize.Device,
 	y = fit.ApplyLoggedInto(y, sub, dev)
 	for round := 0; round <= s.Rounds; round++ {
 		before, labels = labels, s.assignInto(before, y, dim)
-		if round == s.Rounds || (round > 0 && equalInts(before, labels)) {
+		if round == s.Rounds || (round > 0 && slices.Equal(before, labels)) {
 			break
 		}
 		if dev, y, err = fitDevice(fit, sub, labels, centres, s.Posture, s.Offsets, s.Prior, y); err != nil {
@@ -669,18 +665,6 @@ func (s *States) assignInto(dst []int, y []float64, dim int) []int {
 		dst[i], _ = cluster.Nearest(raw, s.K, y[i*dim:(i+1)*dim])
 	}
 	return dst
-}
-
-func equalInts(a, b []int) bool {
-	if len(a) != len(b) {
-		return false
-	}
-	for i := range a {
-		if a[i] != b[i] {
-			return false
-		}
-	}
-	return true
 }
 
 // parallelFor runs f(i) for i in [0, n) on workers goroutines (0: one per core). Each call must

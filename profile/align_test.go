@@ -142,22 +142,12 @@ func angleBetween(a, b []float64) float64 {
 // (planted structure: the devices of TestFitAlignedRecoversPlantedDevices; PCA keeping 90 % of
 // the variance, so that the projection drops a dimension).
 func TestAssignUnitMatchesAlignUnit(t *testing.T) {
-	features := []string{"mean_x", "mean_y", "mean_z", "bias", "amp", "freq"}
 	units, _, _, _, _ := plantedDevices(30, 300)
-	axes, _ := normalize.FindAxes(features, units[0])
 	for _, pca := range []struct {
 		no    bool
 		share float64
 	}{{true, 0}, {false, 0.9}, {false, 1}} {
-		fit, err := normalize.FitBlocks(context.Background(), features, normalize.SliceBlocks(units), normalize.Options{Within: normalize.WithinAlign, Axes: axes, NoPCA: pca.no, PCAVariance: pca.share,
-			Log: true, Lowest: normalize.LowestOf(units, 6), LogStart: normalize.LogStartOf(units, 6)})
-		if err != nil {
-			t.Fatal(err)
-		}
-		states, err := FitAligned(context.Background(), units, fit, AlignOptions{States: []int{4}, Seed: 1})
-		if err != nil {
-			t.Fatal(err)
-		}
+		fit, states := alignedFit(t, units, pca.no, pca.share)
 		differ, total := 0, 0
 		for _, x := range units {
 			dev1, _, want, err := states.AlignUnit(fit, x, nil)
@@ -189,18 +179,8 @@ func TestAssignUnitMatchesAlignUnit(t *testing.T) {
 // devices with large offsets and turns (synthetic devices on the planted cohort above); a
 // wrong term in the scores moves many windows.
 func TestFoldedScoresMatchTheDistances(t *testing.T) {
-	features := []string{"mean_x", "mean_y", "mean_z", "bias", "amp", "freq"}
 	units, _, _, _, _ := plantedDevices(20, 300)
-	axes, _ := normalize.FindAxes(features, units[0])
-	fit, err := normalize.FitBlocks(context.Background(), features, normalize.SliceBlocks(units), normalize.Options{Within: normalize.WithinAlign, Axes: axes, PCAVariance: 0.9,
-		Log: true, Lowest: normalize.LowestOf(units, 6), LogStart: normalize.LogStartOf(units, 6)})
-	if err != nil {
-		t.Fatal(err)
-	}
-	states, err := FitAligned(context.Background(), units, fit, AlignOptions{States: []int{4}, Seed: 1})
-	if err != nil {
-		t.Fatal(err)
-	}
+	fit, states := alignedFit(t, units, false, 0.9)
 	rng := rand.New(rand.NewPCG(9, 0))
 	differ, total := 0, 0
 	for _, x := range units {
@@ -222,4 +202,22 @@ func TestFoldedScoresMatchTheDistances(t *testing.T) {
 	if differ*1000 > total {
 		t.Errorf("%d of %d windows got another state from the folded scores", differ, total)
 	}
+}
+
+// alignedFit fits the align step (with a PCA keeping this share of the variance, or none) and
+// four states to the planted devices' units.
+func alignedFit(t *testing.T, units [][]float64, noPCA bool, share float64) (*normalize.Fit, *States) {
+	t.Helper()
+	features := []string{"mean_x", "mean_y", "mean_z", "bias", "amp", "freq"}
+	axes, _ := normalize.FindAxes(features, units[0])
+	fit, err := normalize.FitBlocks(context.Background(), features, normalize.SliceBlocks(units), normalize.Options{Within: normalize.WithinAlign, Axes: axes, NoPCA: noPCA, PCAVariance: share,
+		Log: true, Lowest: normalize.LowestOf(units, 6), LogStart: normalize.LogStartOf(units, 6)})
+	if err != nil {
+		t.Fatal(err)
+	}
+	states, err := FitAligned(context.Background(), units, fit, AlignOptions{States: []int{4}, Seed: 1})
+	if err != nil {
+		t.Fatal(err)
+	}
+	return fit, states
 }
