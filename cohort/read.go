@@ -52,6 +52,12 @@ type ReadOptions struct {
 	Missing    Missing
 	MinWindows int    // participants with fewer usable windows are excluded; 0 means 20
 	TempDir    string // folder for the temporary windows files of large inputs; "" means the system's
+	// Shard, when its Count is above 0, keeps only the participants whose id falls in shard
+	// Index of Count (ShardOf), for a run split across machines. Every file is still read whole,
+	// so that file sizes, row counts, the order in which participants first appear (Unit.Ordinal)
+	// and each feature's lowest value are those of the whole input; constant features are not
+	// dropped (a feature can be constant in one shard only) but described in Table.Constancy.
+	Shard Shard
 	// Progress, when set, is told how many bytes of a file were read, of its size (0 when not
 	// known, as for standard input), and how many windows were read from all files so far; it is
 	// called from one goroutine at a time.
@@ -71,10 +77,28 @@ func (o ReadOptions) withDefaults() ReadOptions {
 	return o
 }
 
+// Shard names one of Count parts of the participants, split by a hash of their id.
+type Shard struct{ Index, Count int }
+
+// ShardOf is the shard, of count, of the participant with this id: all waves of one person fall
+// in the same shard, whatever the files they sit in (FNV-1a of the id, mixed by SplitMix64).
+func ShardOf(id string, count int) int {
+	z := uint64(0xcbf29ce484222325)
+	for i := 0; i < len(id); i++ {
+		z = (z ^ uint64(id[i])) * 0x100000001b3
+	}
+	z += 0x9e3779b97f4a7c15
+	z = (z ^ (z >> 30)) * 0xbf58476d1ce4e5b9
+	z = (z ^ (z >> 27)) * 0x94d049bb133111eb
+	z ^= z >> 31
+	return int(z % uint64(count))
+}
+
 // Unit is one participant, or one wave of a participant when a wave column is given. Its
 // windows' features are read with Table.Block.
 type Unit struct {
 	ID, Wave string
+	Ordinal  int      // the order in which the unit first appeared in the inputs, from 0, over every unit read
 	at       int64    // first window in the table's store
 	rows     int      // usable windows
 	runs     []run    // the stretches of the store holding them, in order, when more than one
@@ -91,6 +115,7 @@ func (u *Unit) Windows() int { return u.rows }
 // Exclusion is a unit left out of the analysis, with why.
 type Exclusion struct {
 	ID, Wave string
+	Ordinal  int // as Unit.Ordinal
 	Windows  int
 	Reason   string
 }
@@ -110,6 +135,20 @@ type Quality struct {
 	DroppedFeatures    []Note
 	IgnoredColumns     []Note
 	Notes              []string // policies applied: sorted windows, merged files, …
+	SortedUnits        int      // units whose windows were not in order and were sorted
+	JoinedUnits        int      // units whose windows sat in more than one file
+}
+
+// QualityNotes are the notes of Quality.Notes on sorted and joined units, for those counts.
+func QualityNotes(sorted, joined int, order string) []string {
+	var notes []string
+	if sorted > 0 {
+		notes = append(notes, fmt.Sprintf("windows of %d participants were not in order in the input and were sorted by %s", sorted, order))
+	}
+	if joined > 0 {
+		notes = append(notes, fmt.Sprintf("%d participants had windows in more than one file; their windows were joined", joined))
+	}
+	return notes
 }
 
 // FileInfo records an input file for the settings sheet.
@@ -131,7 +170,18 @@ type Table struct {
 	Files     []FileInfo
 	OrderKind string // "integer", "time" or "file order"
 	HasLabels bool
+	// Constancy says which features took one value in every kept window, for a table read as a
+	// shard (ReadOptions.Shard), whose constant features are kept; nil otherwise.
+	Constancy *Constancy
 	lo        []float64 // by stored column: lowest value over every window read
+}
+
+// Constancy tells which features took a single value over every kept window (Have: there was
+// one), and the first window's values.
+type Constancy struct {
+	Have     bool
+	First    []float64
+	Constant []bool
 }
 
 // Lowest returns feature j's lowest value over every window read, those of participants later
@@ -151,6 +201,9 @@ func Read(ctx context.Context, paths []string, opts ReadOptions) (*Table, error)
 	opts = opts.withDefaults()
 	if len(paths) == 0 {
 		return nil, &InputError{Msg: "no input files; name at least one CSV or TSV file", Err: ErrOpen}
+	}
+	if sh := opts.Shard; sh.Count < 0 || sh.Count > 0 && (sh.Index < 0 || sh.Index >= sh.Count) {
+		return nil, fmt.Errorf("cohort: shard %d of %d: %w; shards are numbered from 0 to one less than their count", sh.Index, sh.Count, ErrBadOption)
 	}
 	dir := opts.TempDir
 	if dir == "" {
@@ -231,6 +284,8 @@ func hasTableExt(name string) bool {
 // needs to know of them without reading them back.
 type rawUnit struct {
 	id, wave string
+	ordinal  int
+	skip     bool  // in another shard: its windows are not kept
 	runs     []run // where its windows lie in the store, in arrival order
 	n        int   // windows
 	lastOrd  int64
@@ -268,6 +323,7 @@ type reader struct {
 	hasLabels bool
 	byKey     map[string]*rawUnit
 	units     []*rawUnit
+	seen      int // units met, in every shard
 	files     []FileInfo
 	ignored   []Note
 	rows      int
@@ -476,11 +532,21 @@ func (r *reader) mergeChunk(p string, c *parsedChunk, fileOrder bool) error {
 		if cur == nil || cur.id != sg.id || cur.wave != sg.wave {
 			key := sg.id + "\x00" + sg.wave
 			if cur = r.byKey[key]; cur == nil {
-				cur = &rawUnit{id: sg.id, wave: sg.wave, first: make([]float64, d), varies: make([]bool, d)}
+				cur = &rawUnit{id: sg.id, wave: sg.wave, ordinal: r.seen}
+				r.seen++
+				if sh := r.opts.Shard; sh.Count > 0 && ShardOf(sg.id, sh.Count) != sh.Index {
+					cur.skip = true
+				} else {
+					cur.first, cur.varies = make([]float64, d), make([]bool, d)
+					r.units = append(r.units, cur)
+				}
 				r.byKey[key] = cur
-				r.units = append(r.units, cur)
 			}
 			r.last = cur
+		}
+		if cur.skip {
+			start = sg.end
+			continue
 		}
 		if cur.lastFile != p {
 			cur.files = append(cur.files, p)
@@ -919,7 +985,7 @@ func (r *reader) finish() (*Table, error) {
 	}
 	q := &t.Quality
 	q.IgnoredColumns = r.ignored
-	q.UnitsIn = len(r.units)
+	q.UnitsIn = r.seen
 	q.WindowsIn = r.rows
 	sortedUnits, merged := 0, 0
 	var x, clean []float64
@@ -928,7 +994,7 @@ func (r *reader) finish() (*Table, error) {
 			t.Close()
 			return nil, r.ctx.Err()
 		}
-		u := &Unit{ID: ru.id, Wave: ru.wave, Files: ru.files}
+		u := &Unit{ID: ru.id, Wave: ru.wave, Ordinal: ru.ordinal, Files: ru.files}
 		if len(ru.files) > 1 {
 			merged++
 		}
@@ -939,7 +1005,7 @@ func (r *reader) finish() (*Table, error) {
 		// since reading them one by one in every pass would cost more than copying them once.
 		if !ru.unsorted && ru.missing == 0 && (len(ru.runs) == 1 || len(ru.runs)*minStretch <= n) {
 			if n < r.opts.MinWindows {
-				q.Excluded = append(q.Excluded, Exclusion{ID: u.ID, Wave: u.Wave, Windows: n,
+				q.Excluded = append(q.Excluded, Exclusion{ID: u.ID, Wave: u.Wave, Ordinal: u.Ordinal, Windows: n,
 					Reason: fmt.Sprintf("%d usable windows, fewer than the minimum %d (--min-windows)", n, r.opts.MinWindows)})
 				q.WindowsExcluded += n
 				continue
@@ -1031,7 +1097,7 @@ func (r *reader) finish() (*Table, error) {
 			}
 		}
 		if reason != "" {
-			q.Excluded = append(q.Excluded, Exclusion{ID: u.ID, Wave: u.Wave, Windows: n, Reason: reason})
+			q.Excluded = append(q.Excluded, Exclusion{ID: u.ID, Wave: u.Wave, Ordinal: u.Ordinal, Windows: n, Reason: reason})
 			q.WindowsExcluded += n
 			continue
 		}
@@ -1049,11 +1115,11 @@ func (r *reader) finish() (*Table, error) {
 		t.Close()
 		return nil, err
 	}
-	if sortedUnits > 0 {
-		q.Notes = append(q.Notes, fmt.Sprintf("windows of %d participants were not in order in the input and were sorted by %s", sortedUnits, r.opts.Order))
-	}
-	if merged > 0 {
-		q.Notes = append(q.Notes, fmt.Sprintf("%d participants had windows in more than one file; their windows were joined", merged))
+	q.SortedUnits, q.JoinedUnits = sortedUnits, merged
+	q.Notes = append(q.Notes, QualityNotes(sortedUnits, merged, r.opts.Order)...)
+	if r.opts.Shard.Count > 0 {
+		t.Constancy = &Constancy{Have: constant.have, First: constant.first, Constant: constant.constant}
+		return t, nil
 	}
 	if err := t.dropConstantFeatures(constant); err != nil {
 		t.Close()
@@ -1169,28 +1235,54 @@ func waveSuffix(w string) string {
 
 // dropConstantFeatures removes features that take a single value over every kept window.
 func (t *Table) dropConstantFeatures(c *constancy) error {
-	if !c.have {
-		return nil
+	keep, dropped, err := KeptFeatures(t.Features, &Constancy{Have: c.have, First: c.first, Constant: c.constant}, t.Files[0].Path)
+	if err != nil || len(dropped) == 0 {
+		return err
 	}
-	var keep []int
-	for j, isConst := range c.constant {
-		if isConst {
-			t.Quality.DroppedFeatures = append(t.Quality.DroppedFeatures, Note{t.Features[j], fmt.Sprintf("constant (%g in every window): it cannot separate anything", c.first[j])})
-		} else {
-			keep = append(keep, j)
+	t.Quality.DroppedFeatures = append(t.Quality.DroppedFeatures, dropped...)
+	return t.SelectFeatures(keep)
+}
+
+// MergeConstancy is the constancy over all the shards' windows, from each shard's.
+func MergeConstancy(parts []*Constancy) *Constancy {
+	var out *Constancy
+	for _, c := range parts {
+		if c == nil || !c.Have {
+			continue
+		}
+		if out == nil {
+			out = &Constancy{Have: true, First: slices.Clone(c.First), Constant: slices.Clone(c.Constant)}
+			continue
+		}
+		for j := range out.Constant {
+			out.Constant[j] = out.Constant[j] && c.Constant[j] && c.First[j] == out.First[j]
 		}
 	}
-	if len(keep) == len(t.Features) {
-		return nil
+	if out == nil {
+		return &Constancy{}
+	}
+	return out
+}
+
+// KeptFeatures are the features that are not constant, and the constant ones with why; file
+// names the input in the error when every feature is constant.
+func KeptFeatures(features []string, c *Constancy, file string) ([]string, []Note, error) {
+	if !c.Have {
+		return features, nil, nil
+	}
+	var keep []string
+	var dropped []Note
+	for j, isConst := range c.Constant {
+		if isConst {
+			dropped = append(dropped, Note{features[j], fmt.Sprintf("constant (%g in every window): it cannot separate anything", c.First[j])})
+		} else {
+			keep = append(keep, features[j])
+		}
 	}
 	if len(keep) == 0 {
-		return &InputError{File: t.Files[0].Path, Msg: "every feature is constant; there is nothing to group on", Err: ErrEmpty}
+		return nil, nil, &InputError{File: file, Msg: "every feature is constant; there is nothing to group on", Err: ErrEmpty}
 	}
-	names := make([]string, len(keep))
-	for a, j := range keep {
-		names[a] = t.Features[j]
-	}
-	return t.SelectFeatures(names)
+	return keep, dropped, nil
 }
 
 // columnMedians returns the median of each of the first d columns of a row-major matrix of

@@ -29,6 +29,7 @@ import (
 	"errors"
 	"fmt"
 	"math"
+	"slices"
 	"sort"
 
 	"github.com/cohortmix/cohortmix/cluster"
@@ -361,11 +362,15 @@ type Driver struct {
 }
 
 // Describer accumulates, window by window, each state's feature means in the original units.
+// Each participant's windows are added in floating point (Add); what Merge brings in is summed
+// exactly (exactSum), so that Describers merged in any order, on one machine or several, give
+// the same bits.
 type Describer struct {
 	d, k           int
-	sum, all, all2 []float64
+	sum, all, all2 []float64 // windows added since the last fold, in floating point
 	cnt            []float64
 	n              float64
+	exact          []exactSum // k·d state sums, then d sums and d sums of squares, exactly
 }
 
 // NewDescriber prepares a Describer for d features and k states.
@@ -395,36 +400,87 @@ func (ds *Describer) Add(raw []float64, labels []int) error {
 	return nil
 }
 
-// Merge adds what another Describer for the same features and states took in, so that
-// participants can be described apart (on several cores) and added up in a fixed order.
-func (ds *Describer) Merge(o *Describer) {
-	for i, v := range o.sum {
-		ds.sum[i] += v
+// fold moves the floating-point sums of the windows added so far into the exact sums.
+func (ds *Describer) fold() {
+	if ds.exact == nil {
+		ds.exact = make([]exactSum, len(ds.sum)+2*ds.d)
 	}
-	for j := range ds.all {
-		ds.all[j] += o.all[j]
-		ds.all2[j] += o.all2[j]
+	for a, part := range [][]float64{ds.sum, ds.all, ds.all2} {
+		at := [3]int{0, len(ds.sum), len(ds.sum) + ds.d}[a]
+		for i, v := range part {
+			if v != 0 {
+				ds.exact[at+i].add(v)
+				part[i] = 0
+			}
+		}
+	}
+}
+
+// Merge adds what another Describer for the same features and states took in, so that
+// participants can be described apart (on several cores or machines) and added up exactly.
+func (ds *Describer) Merge(o *Describer) {
+	ds.fold()
+	o.fold()
+	for i := range o.exact {
+		for _, v := range o.exact[i].p {
+			ds.exact[i].add(v)
+		}
 	}
 	for s, c := range o.cnt {
-		ds.cnt[s] += c
+		ds.cnt[s] += c // whole numbers: exact
 	}
 	ds.n += o.n
 }
 
+// DescriberPiece is a Describer written out: the exact sums as their partials.
+type DescriberPiece struct {
+	D, K     int
+	Count    []float64 // windows in each state
+	N        float64
+	Partials [][]float64
+}
+
+// Piece writes the Describer out.
+func (ds *Describer) Piece() DescriberPiece {
+	ds.fold()
+	p := DescriberPiece{D: ds.d, K: ds.k, Count: slices.Clone(ds.cnt), N: ds.n, Partials: make([][]float64, len(ds.exact))}
+	for i, e := range ds.exact {
+		p.Partials[i] = slices.Clone(e.p)
+	}
+	return p
+}
+
+// Describer reads a piece back.
+func (p DescriberPiece) Describer() (*Describer, error) {
+	ds := NewDescriber(p.D, p.K)
+	ds.fold()
+	if p.D < 1 || p.K < 1 || len(p.Count) != p.K || len(p.Partials) != len(ds.exact) {
+		return nil, fmt.Errorf("profile: a described piece of %d features, %d states, %d counts and %d sums: %w", p.D, p.K, len(p.Count), len(p.Partials), ErrData)
+	}
+	copy(ds.cnt, p.Count)
+	ds.n = p.N
+	for i, q := range p.Partials {
+		ds.exact[i].p = slices.Clone(q)
+	}
+	return ds, nil
+}
+
 // Descriptions gives each state's means and the features that drive it.
 func (ds *Describer) Descriptions() []Description {
+	ds.fold()
 	d, k, n := ds.d, ds.k, ds.n
+	value := func(i int) float64 { return ds.exact[i].value() }
 	out := make([]Description, k)
 	for s := 0; s < k; s++ {
 		desc := Description{Mean: make([]float64, d), Share: ds.cnt[s] / n}
 		for j := 0; j < d; j++ {
 			if ds.cnt[s] > 0 {
-				desc.Mean[j] = ds.sum[s*d+j] / ds.cnt[s]
+				desc.Mean[j] = value(s*d+j) / ds.cnt[s]
 			} else {
 				desc.Mean[j] = math.NaN()
 			}
-			mu := ds.all[j] / n
-			sd := math.Sqrt(max(0, ds.all2[j]/n-mu*mu))
+			mu := value(k*d+j) / n
+			sd := math.Sqrt(max(0, value(k*d+d+j)/n-mu*mu))
 			if sd > 0 && ds.cnt[s] > 0 {
 				desc.Drivers = append(desc.Drivers, Driver{j, (desc.Mean[j] - mu) / sd})
 			}
@@ -473,17 +529,63 @@ func NewLabelCounter(k int) *LabelCounter { return &LabelCounter{k: k, index: ma
 // Add takes one participant's states and known labels.
 func (lc *LabelCounter) Add(states []int, labels []string) {
 	for i, l := range labels {
-		j, ok := lc.index[l]
-		if !ok {
-			j = len(lc.names)
-			lc.index[l] = j
-			lc.names = append(lc.names, l)
-		}
-		for len(lc.counts) <= j {
-			lc.counts = append(lc.counts, make([]int, lc.k))
-		}
-		lc.counts[j][states[i]]++
+		lc.addCount(l, states[i], 1)
 	}
+}
+
+// Merge adds another counter's table.
+func (lc *LabelCounter) Merge(o *LabelCounter) {
+	for j, l := range o.names {
+		for s, c := range o.counts[j] {
+			lc.addCount(l, s, c)
+		}
+	}
+}
+
+func (lc *LabelCounter) addCount(label string, state, c int) {
+	j, ok := lc.index[label]
+	if !ok {
+		j = len(lc.names)
+		lc.index[label] = j
+		lc.names = append(lc.names, label)
+	}
+	for len(lc.counts) <= j {
+		lc.counts = append(lc.counts, make([]int, lc.k))
+	}
+	lc.counts[j][state] += c
+}
+
+// LabelPiece is a LabelCounter written out: the windows of each label in each state.
+type LabelPiece struct {
+	K      int
+	Labels []string
+	Counts [][]int // labels × states
+}
+
+// Piece writes the counter out.
+func (lc *LabelCounter) Piece() LabelPiece {
+	p := LabelPiece{K: lc.k, Labels: slices.Clone(lc.names)}
+	for _, c := range lc.counts {
+		p.Counts = append(p.Counts, slices.Clone(c))
+	}
+	return p
+}
+
+// Counter reads a piece back.
+func (p LabelPiece) Counter() (*LabelCounter, error) {
+	lc := NewLabelCounter(p.K)
+	if len(p.Counts) != len(p.Labels) {
+		return nil, fmt.Errorf("profile: a label piece of %d labels and %d rows: %w", len(p.Labels), len(p.Counts), ErrData)
+	}
+	for j, l := range p.Labels {
+		if len(p.Counts[j]) != p.K {
+			return nil, fmt.Errorf("profile: a label piece row of %d states for %d: %w", len(p.Counts[j]), p.K, ErrData)
+		}
+		for s, c := range p.Counts[j] {
+			lc.addCount(l, s, c)
+		}
+	}
+	return lc, nil
 }
 
 // Table gives the states × labels table (labels sorted) with its ARI and NMI.

@@ -3,6 +3,7 @@ package main
 import (
 	"context"
 	"fmt"
+	"github.com/cohortmix/cohortmix/cohort/job"
 	"io"
 	"math"
 	"path/filepath"
@@ -101,24 +102,24 @@ func assignRun(ctx context.Context, o *assignOptions) error {
 	}
 	defer t.Close()
 	fit, states := m.NormFit(), m.StateFit()
-	f, err := assignWindows(ctx, t, fit, states, o.Workers, passBar(&Env{IO: o.IO}, o.Quiet))
+	f, err := job.AssignWindows(ctx, t, fit, states, o.Workers, passBar(&Env{IO: o.IO}, o.Quiet))
 	if err != nil {
 		return err
 	}
-	shares := make([][]float64, len(f.sigs))
-	for i, s := range f.sigs {
+	shares := make([][]float64, len(f.Sigs))
+	for i, s := range f.Sigs {
 		shares[i] = s.Share
 	}
 	method, _ := cohort.ParseMethod(m.Grouping.Method)
-	if f.g, err = cohort.Place(method, m.Grouping.Centroids, shares, o.Workers); err != nil {
+	if f.Grouping, err = cohort.Place(method, m.Grouping.Centroids, shares, o.Workers); err != nil {
 		return err
 	}
-	f.window, f.windowSource = windowLength(t, o.Window)
-	f.atypical = make([]bool, len(f.sigs))
-	for i, d := range f.g.Distance {
-		f.atypical[i] = d > m.Grouping.Atypical
+	f.Window, f.WindowSource = job.WindowLength(t, o.Window)
+	f.Atypical = make([]bool, len(f.Sigs))
+	for i, d := range f.Grouping.Distance {
+		f.Atypical[i] = d > m.Grouping.Atypical
 	}
-	res, err := describe(f, m.States.Names, m.Grouping.Names)
+	res, err := job.Describe(f, m.States.Names, m.Grouping.Names)
 	if err != nil {
 		return err
 	}
@@ -202,9 +203,9 @@ func readForModel(ctx context.Context, inputs []string, m *reports.Model, temp s
 }
 
 // featureMedians regroups the units' feature medians by feature.
-func featureMedians(f *fitted) [][]float64 {
-	out := make([][]float64, len(f.t.Features))
-	for _, m := range f.medians {
+func featureMedians(f *job.Fitted) [][]float64 {
+	out := make([][]float64, len(f.Table.Features))
+	for _, m := range f.Medians {
 		for j, v := range m {
 			out[j] = append(out[j], v)
 		}

@@ -2,6 +2,7 @@ package main
 
 import (
 	"fmt"
+	"github.com/cohortmix/cohortmix/cohort/job"
 	"path/filepath"
 	"strconv"
 	"strings"
@@ -127,8 +128,8 @@ func (m *mainFlags) readOptions() (cohort.ReadOptions, error) {
 }
 
 // options turns the flags into the analysis settings.
-func (m *mainFlags) options(inputs []string) (analysisOptions, error) {
-	o := analysisOptions{Inputs: inputs, Seed: m.Seed, Workers: m.Workers, Bootstrap: m.Bootstrap, Sample: m.Sample, Window: m.WindowLength}
+func (m *mainFlags) options(inputs []string) (job.Options, error) {
+	o := job.Options{Inputs: inputs, Seed: m.Seed, Workers: m.Workers, Bootstrap: m.Bootstrap, Sample: m.Sample, Window: m.WindowLength}
 	if m.WindowLength < 0 {
 		return o, flagErrorf("--window-length %v: use a positive duration such as 60s or 1m", m.WindowLength)
 	}

@@ -3,6 +3,7 @@ package main
 import (
 	"context"
 	"fmt"
+	"github.com/cohortmix/cohortmix/cohort/job"
 	"io"
 	"path/filepath"
 	"sort"
@@ -87,7 +88,7 @@ func groupRun(ctx context.Context, o *groupOptions) error {
 		return err
 	}
 	o.key = key
-	res, err := analyze(ctx, ao)
+	res, err := job.Analyze(ctx, ao)
 	if err != nil {
 		return err
 	}
@@ -109,7 +110,7 @@ func groupRun(ctx context.Context, o *groupOptions) error {
 
 // prepare turns the flags into the analysis settings, with progress on a terminal, temporary
 // files beside the output unless --temp says otherwise, and the pseudonymization key if named.
-func (o *groupOptions) prepare() (analysisOptions, []byte, error) {
+func (o *groupOptions) prepare() (job.Options, []byte, error) {
 	if o.Flags.Temp == "" {
 		o.Flags.Temp = filepath.Dir(o.Out)
 	}

@@ -4,6 +4,7 @@ import (
 	"bytes"
 	"context"
 	"encoding/csv"
+	"github.com/cohortmix/cohortmix/cohort/job"
 	"os"
 	"path/filepath"
 	"strconv"
@@ -32,7 +33,7 @@ func plantedARI(t *testing.T, within normalize.Within, so synth.Options) float64
 	if err != nil {
 		t.Fatal(err)
 	}
-	res, err := analyze(context.Background(), analysisOptions{Inputs: []string{path}, Norm: normalize.Options{Within: within},
+	res, err := job.Analyze(context.Background(), job.Options{Inputs: []string{path}, Norm: normalize.Options{Within: within},
 		States: rangeOf(2, 10), Groups: rangeOf(2, 8), Method: cohort.WardHellinger, Criterion: cohort.ByGap, Bootstrap: 20, Seed: 1})
 	if err != nil {
 		t.Fatal(err)
@@ -225,7 +226,7 @@ func TestSameResultWhateverTheWorkers(t *testing.T) {
 	}
 	var first []int
 	for _, w := range []int{1, 2, 4} {
-		res, err := analyze(context.Background(), analysisOptions{Inputs: []string{path}, Norm: normalize.Options{Within: normalize.WithinRest},
+		res, err := job.Analyze(context.Background(), job.Options{Inputs: []string{path}, Norm: normalize.Options{Within: normalize.WithinRest},
 			States: rangeOf(3, 7), Groups: rangeOf(2, 5), Seed: 3, Workers: w, Bootstrap: 10})
 		if err != nil {
 			t.Fatal(err)

@@ -3,6 +3,7 @@ package main
 import (
 	"context"
 	"encoding/json"
+	"github.com/cohortmix/cohortmix/cohort/job"
 	"math"
 	"os"
 	"testing"
@@ -194,7 +195,7 @@ func TestStagesMatchReference(t *testing.T) {
 
 func TestSameGroupingAsReferencePipeline(t *testing.T) {
 	g := readPipelineGolden(t)
-	res, err := analyze(context.Background(), analysisOptions{Inputs: []string{smallCohort}, Norm: normalize.Options{Within: normalize.WithinRest, PCAVariance: 0.99},
+	res, err := job.Analyze(context.Background(), job.Options{Inputs: []string{smallCohort}, Norm: normalize.Options{Within: normalize.WithinRest, PCAVariance: 0.99},
 		States: []int{5}, Groups: []int{3}, Method: cohort.WardHellinger, Seed: 1})
 	if err != nil {
 		t.Fatal(err)

@@ -4,6 +4,7 @@ import (
 	"context"
 	"flag"
 	"fmt"
+	"github.com/cohortmix/cohortmix/cohort/job"
 	"math"
 	"path/filepath"
 	"slices"
@@ -69,7 +70,7 @@ type scenarioRun struct {
 }
 
 // variantOptions parses a variant's flags; {states} and {groups} stand for the planted numbers.
-func variantOptions(t testing.TB, path string, args []string, states, groups int) analysisOptions {
+func variantOptions(t testing.TB, path string, args []string, states, groups int) job.Options {
 	t.Helper()
 	var m mainFlags
 	cmd := &cobra.Command{}
@@ -86,7 +87,7 @@ func variantOptions(t testing.TB, path string, args []string, states, groups int
 	if err != nil {
 		t.Fatal(err)
 	}
-	o.noSensitivity = true
+	o.NoSensitivity = true
 	return o
 }
 
@@ -133,17 +134,17 @@ func runCohort(t testing.TB, so synth.Options, variants []variant) (oracle scena
 	oracle.states, oracle.groups = len(truth[0].Shares), truthK
 	for _, v := range variants {
 		o := variantOptions(t, path, v.args, len(truth[0].Shares), truthK)
-		f, err := fitTable(context.Background(), tab, o)
+		f, err := job.FitTable(context.Background(), tab, o)
 		if err != nil {
 			t.Fatalf("scenario %d, %s: %v", seed, v.name, err)
 		}
 		var a, b []int
 		for i, u := range tab.Units {
 			a = append(a, byID[u.ID])
-			b = append(b, f.g.Labels[i])
+			b = append(b, f.Grouping.Labels[i])
 		}
 		ari, _ := cluster.AdjustedRand(a, b)
-		runs = append(runs, scenarioRun{ari, f.states.K, f.g.K, f.labels.ARI})
+		runs = append(runs, scenarioRun{ari, f.States.K, f.Grouping.K, f.Labels.ARI})
 	}
 	return oracle, runs, truthK
 }

@@ -3,6 +3,7 @@ package main
 import (
 	"context"
 	"fmt"
+	"github.com/cohortmix/cohortmix/cohort/job"
 	"math"
 	"strconv"
 	"strings"
@@ -84,22 +85,22 @@ func refreshRun(ctx context.Context, o *refreshOptions) error {
 		return err
 	}
 	o.key = key
-	f, err := fitAll(ctx, ao)
+	f, err := job.FitAll(ctx, ao)
 	if err != nil {
 		return err
 	}
-	defer f.t.Close()
+	defer f.Table.Close()
 	method, _ := cohort.ParseMethod(prev.Grouping.Method)
 	byKey, byID := previousGroups(prev)
 	prevIndex := map[string]int{}
 	for i, n := range prev.Grouping.Names {
 		prevIndex[n] = i
 	}
-	next := cohort.Next{Labels: f.g.Labels, GroupShares: meanShares(f)}
-	for _, dsc := range f.desc {
+	next := cohort.Next{Labels: f.Grouping.Labels, GroupShares: meanShares(f)}
+	for _, dsc := range f.Desc {
 		next.StateMeans = append(next.StateMeans, dsc.Mean)
 	}
-	for _, u := range f.t.Units {
+	for _, u := range f.Table.Units {
 		id := u.ID
 		if key != nil {
 			id = reports.Pseudonym(key, id) // the previous model holds pseudonyms
@@ -110,16 +111,16 @@ func refreshRun(ctx context.Context, o *refreshOptions) error {
 		}
 		next.PrevGroup = append(next.PrevGroup, p)
 	}
-	if !sameFeatures(prev.Features, f.t.Features) {
+	if !sameFeatures(prev.Features, f.Table.Features) {
 		return fmt.Errorf("%s: the features (%s) differ from the previous model's (%s): %w; refresh needs the same features, or start anew with 'cohortmix group'",
-			o.Inputs[0], strings.Join(f.t.Features, ", "), strings.Join(prev.Features, ", "), cohort.ErrMismatch)
+			o.Inputs[0], strings.Join(f.Table.Features, ", "), strings.Join(prev.Features, ", "), cohort.ErrMismatch)
 	}
 	match, err := cohort.Match(cohort.Previous{StateNames: prev.States.Names, StateMeans: prev.States.Means, Scale: prev.Normalize.Spread,
 		GroupNames: prev.Grouping.Names, GroupShares: prev.Grouping.Shares, Cut: prev.Grouping.Atypical, Method: method}, next)
 	if err != nil {
 		return err
 	}
-	res, err := describe(f, match.StateNames, match.GroupNames)
+	res, err := job.Describe(f, match.StateNames, match.GroupNames)
 	if err != nil {
 		return err
 	}
@@ -148,14 +149,14 @@ func sameFeatures(a, b []string) bool {
 }
 
 // meanShares is each new group's mean signature.
-func meanShares(f *fitted) [][]float64 {
-	out := make([][]float64, f.g.K)
-	n := make([]float64, f.g.K)
+func meanShares(f *job.Fitted) [][]float64 {
+	out := make([][]float64, f.Grouping.K)
+	n := make([]float64, f.Grouping.K)
 	for g := range out {
-		out[g] = make([]float64, f.states.K)
+		out[g] = make([]float64, f.States.K)
 	}
-	for i, s := range f.sigs {
-		l := f.g.Labels[i]
+	for i, s := range f.Sigs {
+		l := f.Grouping.Labels[i]
 		n[l]++
 		for j, v := range s.Share {
 			out[l][j] += v

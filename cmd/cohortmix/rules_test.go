@@ -3,6 +3,7 @@ package main
 import (
 	"context"
 	"fmt"
+	"github.com/cohortmix/cohortmix/cohort/job"
 	"path/filepath"
 	"strings"
 	"testing"
@@ -37,7 +38,7 @@ func TestChoiceRulesOnPlantedCohorts(t *testing.T) {
 			var res *reports.Result
 			for rule, args := range map[profile.Rule][]string{profile.ByCalinskiHarabasz: {"--within", "rest", "--log", "none", "--states-rule", "ch"}, profile.ByValley: nil} {
 				o := variantOptions(t, path, append(args, "--seed", fmt.Sprint(seed)), 0, 0)
-				r, err := analyze(context.Background(), o)
+				r, err := job.Analyze(context.Background(), o)
 				if err != nil {
 					t.Fatal(err)
 				}

@@ -6,6 +6,7 @@ import (
 	"context"
 	"encoding/csv"
 	"fmt"
+	"github.com/cohortmix/cohortmix/cohort/job"
 	"io"
 	"os"
 	"path/filepath"
@@ -115,7 +116,7 @@ func TestNoHalfOutputs(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	res, err := analyze(context.Background(), ao)
+	res, err := job.Analyze(context.Background(), ao)
 	if err != nil {
 		t.Fatal(err)
 	}

@@ -1,4 +1,4 @@
-package main
+package job
 
 import (
 	"context"
@@ -17,8 +17,8 @@ import (
 	"gonum.org/v1/gonum/mat"
 )
 
-// analysisOptions are the settings of one run of the main job.
-type analysisOptions struct {
+// Options are the settings of one run of the main job.
+type Options struct {
 	Inputs    []string
 	Read      cohort.ReadOptions
 	Norm      normalize.Options
@@ -39,9 +39,9 @@ type analysisOptions struct {
 	// Window is the length of one window, given on the command line (0: from the order
 	// column's times, when it holds times).
 	Window time.Duration
-	// noSensitivity leaves out the sensitivity table (the recovery benchmark, which scores the
+	// NoSensitivity leaves out the sensitivity table (the recovery benchmark, which scores the
 	// groups only, sets it).
-	noSensitivity bool
+	NoSensitivity bool
 	Workers       int
 	Progress      func(step string)
 	Passes        func(step string, done, total int) // progress within the passes over the participants
@@ -51,31 +51,32 @@ type analysisOptions struct {
 // normSample is about how many windows the robust scales and the PCA are fitted on.
 const normSample = 200_000
 
-// fitted is every fit of one run, before it is described.
-type fitted struct {
-	t            *cohort.Table
-	fit          *normalize.Fit
-	states       *profile.States
-	sigs         []profile.Signature
-	medians      [][]float64           // each unit's median of each feature
-	desc         []profile.Description // the states in the original units
-	labels       *profile.LabelTable   // states × known labels, when labels are given
-	devices      []normalize.Device    // each unit's device, when the states are aligned
-	sample       sampleUnits           // the participants and windows sampled for the fit
-	notes        []string              // what the run decided on its own, for the reader
-	g            *cohort.Grouping
-	window       time.Duration // the length of one window (0: not known)
-	windowSource string        // where the window length came from
-	// atypical marks the units assign placed farther from every group than the model's members;
+// Fitted is every fit of one run, before it is described.
+type Fitted struct {
+	Table    *cohort.Table
+	Fit      *normalize.Fit
+	States   *profile.States
+	Sigs     []profile.Signature
+	Medians  [][]float64           // each unit's median of each feature
+	Desc     []profile.Description // the states in the original units
+	Labels   *profile.LabelTable   // states × known labels, when labels are given
+	Devices  []normalize.Device    // each unit's device, when the states are aligned
+	sample   sampleUnits           // the participants and windows sampled for the fit
+	Notes    []string              // what the run decided on its own, for the reader
+	Grouping *cohort.Grouping
+	Window   time.Duration // the length of one window (0: not known)
+	// WindowSource says where the window length came from.
+	WindowSource string
+	// Atypical marks the units assign placed farther from every group than the model's members;
 	// they belong to no group (nil: none).
-	atypical []bool
-	// sensitivity compares the groups with those under other choices (fitTable only).
-	sensitivity []reports.Sensitivity
+	Atypical []bool
+	// Sensitivity compares the groups with those under other choices (FitTable only).
+	Sensitivity []reports.Sensitivity
 }
 
 // readSample reads the windows drawn for the fit (profile.AlignSample): participants by their
 // id, windows by their place, both by a keyed hash of the seed.
-func readSample(t *cohort.Table, o analysisOptions, usable int) (sampleUnits, error) {
+func readSample(t *cohort.Table, o Options, usable int) (sampleUnits, error) {
 	var s sampleUnits
 	d := len(t.Features)
 	unitRate, windowRate := profile.AlignSample(o.Sample, len(t.Units), usable)
@@ -149,19 +150,19 @@ func findAxes(t *cohort.Table, names []string) ([]int, string, error) {
 	return axes, "the align step turns the axis means " + why, nil
 }
 
-// analyze connects the stages: read → normalize → states and signatures → grouping → what sets
+// Analyze connects the stages: read → normalize → states and signatures → grouping → what sets
 // the groups apart. It holds no algorithm of its own.
-func analyze(ctx context.Context, o analysisOptions) (*reports.Result, error) {
-	f, err := fitAll(ctx, o)
+func Analyze(ctx context.Context, o Options) (*reports.Result, error) {
+	f, err := FitAll(ctx, o)
 	if err != nil {
 		return nil, err
 	}
-	defer f.t.Close()
-	return describe(f, numbered("S", f.states.K), numbered("G", f.g.K))
+	defer f.Table.Close()
+	return Describe(f, Numbered("S", f.States.K), Numbered("G", f.Grouping.K))
 }
 
-// numbered gives neutral names: prefix1, prefix2, …
-func numbered(prefix string, n int) []string {
+// Numbered gives neutral names: prefix1, prefix2, …
+func Numbered(prefix string, n int) []string {
 	out := make([]string, n)
 	for i := range out {
 		out[i] = fmt.Sprintf("%s%d", prefix, i+1)
@@ -169,9 +170,9 @@ func numbered(prefix string, n int) []string {
 	return out
 }
 
-// fitAll reads the inputs and fits normalization, states and grouping. The caller closes the
+// FitAll reads the inputs and fits normalization, states and grouping. The caller closes the
 // table of the result (it may hold a temporary file).
-func fitAll(ctx context.Context, o analysisOptions) (f *fitted, err error) {
+func FitAll(ctx context.Context, o Options) (f *Fitted, err error) {
 	step := func(s string) {
 		if o.Progress != nil {
 			o.Progress(s)
@@ -182,11 +183,11 @@ func fitAll(ctx context.Context, o analysisOptions) (f *fitted, err error) {
 	if err != nil {
 		return nil, err
 	}
-	if f, err = fitTable(ctx, t, o); err != nil {
+	if f, err = FitTable(ctx, t, o); err != nil {
 		t.Close()
 		return nil, err
 	}
-	f.window, f.windowSource = windowLength(t, o.Window)
+	f.Window, f.WindowSource = WindowLength(t, o.Window)
 	return f, nil
 }
 
@@ -204,10 +205,10 @@ func rebuild(dst, y []float64, comps *mat.Dense) []float64 {
 	return dst
 }
 
-// windowLength is the length of one window: as given, or with times in the order column the
+// WindowLength is the length of one window: as given, or with times in the order column the
 // most common step between consecutive windows of the first few participants (gaps in a
 // recording are longer steps and do not count); 0 when neither is there.
-func windowLength(t *cohort.Table, given time.Duration) (time.Duration, string) {
+func WindowLength(t *cohort.Table, given time.Duration) (time.Duration, string) {
 	if given > 0 {
 		return given, "--window-length"
 	}
@@ -238,8 +239,8 @@ func windowLength(t *cohort.Table, given time.Duration) (time.Duration, string) 
 	return time.Duration(best), "the order column's times"
 }
 
-// fitTable fits normalization, states and grouping to a table that has been read.
-func fitTable(ctx context.Context, t *cohort.Table, o analysisOptions) (*fitted, error) {
+// FitTable fits normalization, states and grouping to a table that has been read.
+func FitTable(ctx context.Context, t *cohort.Table, o Options) (*Fitted, error) {
 	step := func(s string) {
 		if o.Progress != nil {
 			o.Progress(s)
@@ -346,12 +347,12 @@ func fitTable(ctx context.Context, t *cohort.Table, o analysisOptions) (*fitted,
 		return nil, err
 	}
 	step("assigning windows")
-	f, err := assignWindows(ctx, t, fit, states, o.Workers, o.Passes)
+	f, err := AssignWindows(ctx, t, fit, states, o.Workers, o.Passes)
 	if err != nil {
 		return nil, err
 	}
-	f.sample, f.notes = sample, notes
-	sigs := f.sigs
+	f.sample, f.Notes = sample, notes
+	sigs := f.Sigs
 	shares := make([][]float64, len(sigs))
 	for i, sg := range sigs {
 		shares[i] = sg.Share
@@ -361,10 +362,10 @@ func fitTable(ctx context.Context, t *cohort.Table, o analysisOptions) (*fitted,
 	if err != nil {
 		return nil, err
 	}
-	f.g = g
-	if !o.noSensitivity {
+	f.Grouping = g
+	if !o.NoSensitivity {
 		step("checking the groups against other choices")
-		if f.sensitivity, err = sensitivity(ctx, f, o, sample); err != nil {
+		if f.Sensitivity, err = sensitivity(ctx, f, o, sample); err != nil {
 			return nil, err
 		}
 	}
@@ -393,11 +394,11 @@ func (b *rawBlocks) BlockInto(u int, dst []float64) []float64 {
 	return x
 }
 
-// assignWindows is the pass over every unit that gives each window its state and each unit its
+// AssignWindows is the pass over every unit that gives each window its state and each unit its
 // signature, and accumulates the states' descriptions and the states × labels table. Units are
 // normalized and assigned on all cores; what is accumulated is added in unit order.
-func assignWindows(ctx context.Context, t *cohort.Table, fit *normalize.Fit, states *profile.States, workers int, progress func(string, int, int)) (*fitted, error) {
-	f := &fitted{t: t, fit: fit, states: states, sigs: make([]profile.Signature, len(t.Units)), medians: make([][]float64, len(t.Units))}
+func AssignWindows(ctx context.Context, t *cohort.Table, fit *normalize.Fit, states *profile.States, workers int, progress func(string, int, int)) (*Fitted, error) {
+	f := &Fitted{Table: t, Fit: fit, States: states, Sigs: make([]profile.Signature, len(t.Units)), Medians: make([][]float64, len(t.Units))}
 	ds := profile.NewDescriber(len(t.Features), states.K)
 	var lc *profile.LabelCounter
 	if t.HasLabels {
@@ -411,7 +412,7 @@ func assignWindows(ctx context.Context, t *cohort.Table, fit *normalize.Fit, sta
 	raw := &rawBlocks{t: t}
 	var bufs sync.Pool // transformed windows, one buffer per worker at a time
 	if states.Aligned() {
-		f.devices = make([]normalize.Device, len(t.Units))
+		f.Devices = make([]normalize.Device, len(t.Units))
 	}
 	err := normalize.EachBlock(ctx, raw, workers, func(i int, x []float64) (unitResult, error) {
 		bp, _ := bufs.Get().(*[]float64)
@@ -424,20 +425,20 @@ func assignWindows(ctx context.Context, t *cohort.Table, fit *normalize.Fit, sta
 			if err != nil {
 				return unitResult{}, err
 			}
-			*bp, labels, f.devices[i] = y, lab, dev
+			*bp, labels, f.Devices[i] = y, lab, dev
 		} else {
 			*bp = fit.ApplyUnitInto(*bp, i, x)
 			labels = states.Assign(*bp)
 		}
 		bufs.Put(bp)
-		f.sigs[i] = profile.Signatures(labels, states.K)
-		f.medians[i] = make([]float64, d)
+		f.Sigs[i] = profile.Signatures(labels, states.K)
+		f.Medians[i] = make([]float64, d)
 		col := make([]float64, len(x)/d)
 		for j := 0; j < d; j++ {
 			for w := range col {
 				col[w] = x[w*d+j]
 			}
-			f.medians[i][j] = cohort.Median(col)
+			f.Medians[i][j] = cohort.Median(col)
 		}
 		part := profile.NewDescriber(d, states.K)
 		if err := part.Add(x, labels); err != nil {
@@ -460,28 +461,28 @@ func assignWindows(ctx context.Context, t *cohort.Table, fit *normalize.Fit, sta
 	if err != nil {
 		return nil, err
 	}
-	f.desc = ds.Descriptions()
+	f.Desc = ds.Descriptions()
 	if lc != nil {
 		var err error
-		if f.labels, err = lc.Table(); err != nil {
+		if f.Labels, err = lc.Table(); err != nil {
 			return nil, err
 		}
 	}
 	return f, nil
 }
 
-// describe gathers what the reports show once every unit has a group: the states in the original
+// Describe gathers what the reports show once every unit has a group: the states in the original
 // units, the states × labels table, the separating variables, and one row per unit, under the
 // given state and group names.
-func describe(f *fitted, stateNames, groupNames []string) (*reports.Result, error) {
-	t, fit, states, sigs, g := f.t, f.fit, f.states, f.sigs, f.g
+func Describe(f *Fitted, stateNames, groupNames []string) (*reports.Result, error) {
+	t, fit, states, sigs, g := f.Table, f.Fit, f.States, f.Sigs, f.Grouping
 	d, k := len(t.Features), states.K
 	res := &reports.Result{Features: t.Features, OrderKind: t.OrderKind, Quality: t.Quality, Files: t.Files, Norm: fit, States: states, Grouping: g,
-		StateDesc: f.desc, Labels: f.labels}
+		StateDesc: f.Desc, Labels: f.Labels}
 	res.Warnings = append(res.Warnings, fit.Warnings...)
-	res.Notes = append(res.Notes, f.notes...)
-	if f.sensitivity != nil {
-		res.Sensitivity, res.SensitivityNote = f.sensitivity, sensitivityNote(f.sensitivity)
+	res.Notes = append(res.Notes, f.Notes...)
+	if f.Sensitivity != nil {
+		res.Sensitivity, res.SensitivityNote = f.Sensitivity, sensitivityNote(f.Sensitivity)
 	}
 	var err error
 	vars := make([]cohort.Variable, 0, 2*k+d)
@@ -497,12 +498,12 @@ func describe(f *fitted, stateNames, groupNames []string) (*reports.Result, erro
 	for j, name := range t.Features {
 		v := cohort.Variable{Name: "median " + name, Kind: "feature median"}
 		for i := range t.Units {
-			v.Values = append(v.Values, f.medians[i][j])
+			v.Values = append(v.Values, f.Medians[i][j])
 		}
 		vars = append(vars, v)
 		res.FeatureRange = append(res.FeatureRange, [3]float64{percentile(v.Values, 0.01), percentile(v.Values, 0.5), percentile(v.Values, 0.99)})
 	}
-	rows, basis := separationRows(t.Units, f.atypical)
+	rows, basis := separationRows(t.Units, f.Atypical)
 	res.SeparationBasis = basis
 	labels := make([]int, len(rows))
 	for r, i := range rows {
@@ -525,11 +526,11 @@ func describe(f *fitted, stateNames, groupNames []string) (*reports.Result, erro
 		if g.Stability != nil {
 			row.Stay = g.Stability.Stay[i]
 		}
-		if f.devices != nil && fit.Axes != nil {
-			row.Turn = f.devices[i].Angle()
+		if f.Devices != nil && fit.Axes != nil {
+			row.Turn = f.Devices[i].Angle()
 		}
 		switch s := g.Silhouette[i]; {
-		case f.atypical != nil && f.atypical[i]:
+		case f.Atypical != nil && f.Atypical[i]:
 			row.Atypical = true
 			row.Flag = "atypical: farther from every group than 99% of the model's members (nearest " + groupNames[g.Labels[i]] + ")"
 		case math.IsNaN(s):
@@ -541,13 +542,13 @@ func describe(f *fitted, stateNames, groupNames []string) (*reports.Result, erro
 		res.Units = append(res.Units, row)
 	}
 	res.StateNames, res.GroupNames = stateNames, groupNames
-	res.WindowLength, res.WindowSource = f.window, f.windowSource
-	res.StateWords = reports.DescribeStates(res.StateDesc, t.Features, stateNames, f.labels)
+	res.WindowLength, res.WindowSource = f.Window, f.WindowSource
+	res.StateWords = reports.DescribeStates(res.StateDesc, t.Features, stateNames, f.Labels)
 	res.StateLines = make([]string, k)
 	for s, w := range res.StateWords {
 		res.StateLines[s] = w.Sentence()
 	}
-	res.GroupLines = groupLines(g, sigs, reports.ShortNames(res.StateWords), t.Units, f.atypical, f.window)
+	res.GroupLines = groupLines(g, sigs, reports.ShortNames(res.StateWords), t.Units, f.Atypical, f.Window)
 	return res, nil
 }
 

@@ -1,4 +1,4 @@
-package main
+package job
 
 import (
 	"context"
@@ -28,22 +28,22 @@ const sensitivityUnits = 60
 // other grouping methods group the same signatures; the other within steps and numbers of
 // states are fitted anew on the windows of up to 60 sampled participants, so their rows are
 // read against the first row, the same settings on the same sampled windows.
-func sensitivity(ctx context.Context, f *fitted, o analysisOptions, sample sampleUnits) ([]reports.Sensitivity, error) {
-	k := f.g.K
+func sensitivity(ctx context.Context, f *Fitted, o Options, sample sampleUnits) ([]reports.Sensitivity, error) {
+	k := f.Grouping.K
 	var out []reports.Sensitivity
-	shares := make([][]float64, len(f.sigs))
-	for i, s := range f.sigs {
+	shares := make([][]float64, len(f.Sigs))
+	for i, s := range f.Sigs {
 		shares[i] = s.Share
 	}
 	for _, m := range []cohort.Method{cohort.WardHellinger, cohort.PAMAitchison, cohort.KMeansCLR} {
-		if m == f.g.Method || (m != cohort.KMeansCLR && len(shares) > cohort.LargeCohort) {
+		if m == f.Grouping.Method || (m != cohort.KMeansCLR && len(shares) > cohort.LargeCohort) {
 			continue
 		}
 		g, err := cohort.GroupSignatures(ctx, shares, cohort.GroupOptions{Method: m, Groups: []int{k}, Bootstrap: 2, Seed: o.Seed, Workers: o.Workers})
 		if err != nil {
 			return nil, err
 		}
-		ari, _ := cluster.AdjustedRand(g.Labels, f.g.Labels)
+		ari, _ := cluster.AdjustedRand(g.Labels, f.Grouping.Labels)
 		out = append(out, reports.Sensitivity{Choice: "grouping method", Alternative: m.String(), Participants: len(shares), ARI: ari})
 	}
 	units, index := sample.units, sample.index
@@ -55,7 +55,7 @@ func sensitivity(ctx context.Context, f *fitted, o analysisOptions, sample sampl
 	}
 	made := make([]int, len(index))
 	for r, i := range index {
-		made[r] = f.g.Labels[i]
+		made[r] = f.Grouping.Labels[i]
 	}
 	compare := func(choice, alt string, fit *normalize.Fit, states *profile.States, ref bool) error {
 		sh := make([][]float64, len(units))
@@ -72,7 +72,7 @@ func sensitivity(ctx context.Context, f *fitted, o analysisOptions, sample sampl
 			}
 			sh[r] = profile.Signatures(labels, states.K).Share
 		}
-		g, err := cohort.GroupSignatures(ctx, sh, cohort.GroupOptions{Method: f.g.Method, Groups: []int{k}, Bootstrap: 2, Seed: o.Seed, Workers: o.Workers})
+		g, err := cohort.GroupSignatures(ctx, sh, cohort.GroupOptions{Method: f.Grouping.Method, Groups: []int{k}, Bootstrap: 2, Seed: o.Seed, Workers: o.Workers})
 		if err != nil {
 			return err
 		}
@@ -80,7 +80,7 @@ func sensitivity(ctx context.Context, f *fitted, o analysisOptions, sample sampl
 		out = append(out, reports.Sensitivity{Choice: choice, Alternative: alt, Reference: ref, Participants: len(units), OnSample: true, ARI: ari})
 		return nil
 	}
-	if err := compare("reference", "the settings used, on the sampled windows", f.fit, f.states, true); err != nil {
+	if err := compare("reference", "the settings used, on the sampled windows", f.Fit, f.States, true); err != nil {
 		return nil, err
 	}
 	refit := func(within normalize.Within, states []int) (*normalize.Fit, *profile.States, error) {
@@ -90,13 +90,13 @@ func sensitivity(ctx context.Context, f *fitted, o analysisOptions, sample sampl
 		if within != o.Norm.Within {
 			no.Axes = nil
 			if within == normalize.WithinAlign {
-				no.Axes = f.fit.Axes
+				no.Axes = f.Fit.Axes
 			}
 		}
 		if no.Log {
-			no.LogStart = normalize.LogStartOf(units, len(f.fit.Features))
+			no.LogStart = normalize.LogStartOf(units, len(f.Fit.Features))
 		}
-		fit, err := normalize.FitBlocks(ctx, f.fit.Features, normalize.SliceBlocks(units), no)
+		fit, err := normalize.FitBlocks(ctx, f.Fit.Features, normalize.SliceBlocks(units), no)
 		if err != nil {
 			return nil, nil, err
 		}
@@ -126,7 +126,7 @@ func sensitivity(ctx context.Context, f *fitted, o analysisOptions, sample sampl
 			return nil, err
 		}
 	}
-	for _, ks := range []int{f.states.K - 1, f.states.K + 1} {
+	for _, ks := range []int{f.States.K - 1, f.States.K + 1} {
 		if ks < 2 {
 			continue
 		}

@@ -1,0 +1,90 @@
+package cohort
+
+import (
+	"context"
+	"slices"
+	"strings"
+	"testing"
+)
+
+// Read in shards, the participants fall apart by id and together make up the whole read: the
+// same units with the same ordinals and windows, the same exclusions, and counts that add up.
+func TestShardsMakeUpTheWholeRead(t *testing.T) {
+	dir := t.TempDir()
+	var a, b strings.Builder
+	a.WriteString("participant,window,f1,f2,flat\n")
+	b.WriteString("participant,window,f1,f2,flat\n")
+	for i := 0; i < 40; i++ {
+		for p := 0; p < 9; p++ {
+			if p == 8 && i >= 5 { // P8 has too few windows
+				continue
+			}
+			f2 := itoa((i*p)%7) + ".5"
+			if p == 3 && i == 2 {
+				f2 = "NA" // one window dropped
+			}
+			// "flat" is constant in the participants of some shards only.
+			row := "P" + itoa(p) + "," + itoa(i) + "," + itoa(i%5+p) + "," + f2 + "," + itoa(min(p, 1)) + "\n"
+			if i%2 == 0 {
+				a.WriteString(row)
+			} else {
+				b.WriteString(row)
+			}
+		}
+	}
+	paths := []string{write(t, dir, "a.csv", []byte(a.String())), write(t, dir, "b.csv", []byte(b.String()))}
+	whole, err := Read(context.Background(), paths, ReadOptions{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, count := range []int{1, 2, 3, 7} {
+		var units []*Unit
+		var excluded []Exclusion
+		windows, dropped := 0, 0
+		var parts []*Constancy
+		for s := 0; s < count; s++ {
+			tab, err := Read(context.Background(), paths, ReadOptions{Shard: Shard{s, count}})
+			if err != nil {
+				t.Fatal(err)
+			}
+			if tab.Quality.WindowsIn != whole.Quality.WindowsIn || tab.Quality.UnitsIn != whole.Quality.UnitsIn {
+				t.Errorf("%d shards, shard %d: %d windows and %d units in, whole %d and %d", count, s, tab.Quality.WindowsIn, tab.Quality.UnitsIn, whole.Quality.WindowsIn, whole.Quality.UnitsIn)
+			}
+			for _, u := range tab.Units {
+				if ShardOf(u.ID, count) != s {
+					t.Errorf("%d shards: %s read in shard %d, belongs to %d", count, u.ID, s, ShardOf(u.ID, count))
+				}
+			}
+			if err := tab.SelectFeatures(whole.Features); err != nil {
+				t.Fatal(err)
+			}
+			for i, u := range tab.Units {
+				x, w := block(t, tab, i), block(t, whole, slices.IndexFunc(whole.Units, func(v *Unit) bool { return v.ID == u.ID }))
+				if !slices.Equal(x, w) {
+					t.Errorf("%d shards: %s's windows differ from the whole read's", count, u.ID)
+				}
+			}
+			units = append(units, tab.Units...)
+			excluded = append(excluded, tab.Quality.Excluded...)
+			windows += tab.Quality.WindowsIn - tab.Quality.WindowsExcluded - tab.Quality.WindowsDropped
+			dropped += tab.Quality.WindowsDropped
+			parts = append(parts, tab.Constancy)
+		}
+		slices.SortFunc(units, func(a, b *Unit) int { return a.Ordinal - b.Ordinal })
+		for i, u := range units {
+			if w := whole.Units[i]; u.ID != w.ID || u.Ordinal != w.Ordinal || u.Windows() != w.Windows() {
+				t.Errorf("%d shards: unit %d is %s (ordinal %d, %d windows), whole read %s (%d, %d)", count, i, u.ID, u.Ordinal, u.Windows(), w.ID, w.Ordinal, w.Windows())
+			}
+		}
+		if len(units) != len(whole.Units) || len(excluded) != 1 || excluded[0].ID != "P8" || excluded[0].Ordinal != 8 || dropped != 1 {
+			t.Errorf("%d shards: %d units (whole %d), excluded %v, %d dropped", count, len(units), len(whole.Units), excluded, dropped)
+		}
+		all := []string{"f1", "f2", "flat"}
+		if kept, dropped, err := KeptFeatures(all, MergeConstancy(parts), paths[0]); err != nil || !slices.Equal(kept, whole.Features) || len(dropped) != len(whole.Quality.DroppedFeatures) {
+			t.Errorf("%d shards: kept %v, dropped %v (%v); the whole read keeps %v", count, kept, dropped, err, whole.Features)
+		}
+	}
+	if _, err := Read(context.Background(), paths, ReadOptions{Shard: Shard{3, 3}}); err == nil {
+		t.Error("shard 3 of 3 was read")
+	}
+}
