@@ -74,76 +74,25 @@ type Fitted struct {
 	Sensitivity []reports.Sensitivity
 }
 
-// readSample reads the windows drawn for the fit (profile.AlignSample): participants by their
-// id, windows by their place, both by a keyed hash of the seed.
-func readSample(t *cohort.Table, o Options, usable int) (sampleUnits, error) {
-	var s sampleUnits
-	d := len(t.Features)
-	unitRate, windowRate := profile.AlignSample(o.Sample, len(t.Units), usable)
-	for u, un := range t.Units {
-		key := normalize.UnitKey(un.ID, un.Wave)
-		if !normalize.UnitSampled(o.Seed, key, unitRate) {
-			continue
-		}
-		x, err := t.Block(u, nil)
-		if err != nil {
-			return s, err
-		}
-		var rows []float64
-		for w := 0; w*d < len(x); w++ {
-			if normalize.WindowSampled(o.Seed, key, w, windowRate) {
-				rows = append(rows, x[w*d:(w+1)*d]...)
-			}
-		}
-		if len(rows) > 0 {
-			s.units, s.index = append(s.units, rows), append(s.index, u)
-		}
-		if o.Passes != nil {
-			o.Passes("reading the fitting sample", u+1, len(t.Units))
-		}
-	}
-	return s, nil
-}
-
-// firstWindowsLogStart is each feature's first quartile over the first windows of up to 20
-// participants, the start of its log scale (normalize.Options.LogStart).
-func firstWindowsLogStart(t *cohort.Table) []float64 {
-	var units [][]float64
-	for u := 0; u < min(20, len(t.Units)); u++ {
-		if x, err := t.Block(u, nil); err == nil {
-			units = append(units, x[:min(len(x), 500*len(t.Features))])
-		}
-	}
-	return normalize.LogStartOf(units, len(t.Features))
-}
-
-// findAxes resolves the axis means the align step turns: the named features, none (an empty
+// findAxesIn resolves the axis means the align step turns: the named features, none (an empty
 // list), or, for nil, the triple that normalize.FindAxes finds on the first windows of up to 20
-// participants. The note says which, for the workbook.
-func findAxes(t *cohort.Table, names []string) ([]int, string, error) {
+// participants (first, each of the features' width). The note says which, for the workbook.
+func findAxesIn(features []string, first [][]float64, names []string) ([]int, string, error) {
 	if names != nil {
 		if len(names) == 0 {
 			return nil, "the align step turns no axis means (--axes none): it shifts each feature only", nil
 		}
 		var axes []int
 		for _, n := range names {
-			j := slices.Index(t.Features, n)
+			j := slices.Index(features, n)
 			if j < 0 {
-				return nil, "", fmt.Errorf("--axes names %s, which is not among the features %v: %w; name the three axis-mean columns in x, y, z order, or pass --axes none", n, t.Features, cohort.ErrMismatch)
+				return nil, "", fmt.Errorf("--axes names %s, which is not among the features %v: %w; name the three axis-mean columns in x, y, z order, or pass --axes none", n, features, cohort.ErrMismatch)
 			}
 			axes = append(axes, j)
 		}
 		return axes, fmt.Sprintf("the align step turns the axis means %s", strings.Join(names, ", ")), nil
 	}
-	var rows []float64
-	for u := 0; u < min(20, len(t.Units)); u++ {
-		x, err := t.Block(u, nil)
-		if err != nil {
-			return nil, "", err
-		}
-		rows = append(rows, x[:min(len(x), 500*len(t.Features))]...)
-	}
-	axes, why := normalize.FindAxes(t.Features, rows)
+	axes, why := normalize.FindAxes(features, slices.Concat(first...))
 	if axes == nil {
 		return nil, "the align step found no axis means to turn (" + why + "); it shifts each feature only; name them with --axes", nil
 	}
@@ -170,25 +119,18 @@ func Numbered(prefix string, n int) []string {
 	return out
 }
 
-// FitAll reads the inputs and fits normalization, states and grouping. The caller closes the
-// table of the result (it may hold a temporary file).
+// FitAll reads the inputs and fits normalization, states and grouping. The table of the result
+// holds the units and the accounting, not the windows, whose temporary file is removed.
 func FitAll(ctx context.Context, o Options) (f *Fitted, err error) {
-	step := func(s string) {
-		if o.Progress != nil {
-			o.Progress(s)
-		}
+	if o.Progress != nil {
+		o.Progress("reading")
 	}
-	step("reading")
 	t, err := cohort.Read(ctx, o.Inputs, o.Read)
 	if err != nil {
 		return nil, err
 	}
-	if f, err = FitTable(ctx, t, o); err != nil {
-		t.Close()
-		return nil, err
-	}
-	f.Window, f.WindowSource = WindowLength(t, o.Window)
-	return f, nil
+	defer t.Close()
+	return FitTable(ctx, t, o)
 }
 
 // rebuild maps windows from principal-component scores (rows of y, K columns) back to the
@@ -205,54 +147,70 @@ func rebuild(dst, y []float64, comps *mat.Dense) []float64 {
 	return dst
 }
 
-// WindowLength is the length of one window: as given, or with times in the order column the
-// most common step between consecutive windows of the first few participants (gaps in a
-// recording are longer steps and do not count); 0 when neither is there.
+// WindowLength is the length of one window: as given, or read from the order column's times
+// of the first few participants (windowFromSteps); 0 when neither is there.
 func WindowLength(t *cohort.Table, given time.Duration) (time.Duration, string) {
-	if given > 0 {
-		return given, "--window-length"
-	}
-	if t.OrderKind != "time" {
+	c, err := CensusOf(t, Options{})
+	if err != nil {
 		return 0, ""
 	}
-	count := map[int64]int{}
-	for u := 0; u < min(5, len(t.Units)); u++ {
-		ord, err := t.Order(u)
-		if err != nil {
-			return 0, ""
-		}
-		for i := 1; i < len(ord); i++ {
-			if d := ord[i] - ord[i-1]; d > 0 {
-				count[d]++
-			}
-		}
+	var steps [][]int64
+	for _, fw := range c.First[:min(len(c.First), stepUnits)] {
+		steps = append(steps, fw.Steps)
 	}
-	var best int64
-	for d, c := range count {
-		if c > count[best] || c == count[best] && d < best {
-			best = d
-		}
-	}
-	if best <= 0 {
-		return 0, ""
-	}
-	return time.Duration(best), "the order column's times"
+	return windowFromSteps(steps, t.OrderKind, given)
 }
 
-// FitTable fits normalization, states and grouping to a table that has been read.
+// FitTable fits normalization, states and grouping to a table that has been read. With the
+// align step it runs the job's passes (census, sample, fit, assignment, finish) on the whole
+// table, as a run split in shards runs them on each shard.
 func FitTable(ctx context.Context, t *cohort.Table, o Options) (*Fitted, error) {
+	c, err := CensusOf(t, o)
+	if err != nil {
+		return nil, err
+	}
+	plan, err := MergeCensus([]*Census{c})
+	if err != nil {
+		return nil, err
+	}
+	if err := checkCounts(plan, o); err != nil {
+		return nil, err
+	}
+	// About --sample windows from participants chosen by their id, about 250 windows each, as
+	// read: the align step fits the scaling, the states and the devices on them (only their
+	// windows are read), and the sensitivity table refits on them.
+	sp, err := SampleOf(t, plan)
+	if err != nil {
+		return nil, err
+	}
+	if o.Norm.Within == normalize.WithinAlign {
+		fp, err := FitSample(ctx, plan, []*SamplePiece{sp})
+		if err != nil {
+			return nil, err
+		}
+		if o.Progress != nil {
+			o.Progress("assigning windows")
+		}
+		ap, err := AssignOf(ctx, t, fp.Fit, fp.States, o.Workers, o.Passes)
+		if err != nil {
+			return nil, err
+		}
+		return Finish(ctx, fp, []*AssignPiece{ap})
+	}
+	sample, err := mergeSamples(plan, []*SamplePiece{sp})
+	if err != nil {
+		return nil, err
+	}
+	return fitEveryWindow(ctx, t, plan, sample, o)
+}
+
+// fitEveryWindow fits the within steps other than align, whose normalizing pass runs over every
+// window of the table (one machine only).
+func fitEveryWindow(ctx context.Context, t *cohort.Table, plan *Plan, sample sampleUnits, o Options) (*Fitted, error) {
 	step := func(s string) {
 		if o.Progress != nil {
 			o.Progress(s)
 		}
-	}
-	if len(t.Units) < 3 {
-		return nil, fmt.Errorf("%s: %d participants are left to group (%d excluded, see their reasons with a lower --min-windows): %w; grouping needs at least 3",
-			o.Inputs[0], len(t.Units), len(t.Quality.Excluded), cohort.ErrTooFew)
-	}
-	if maxK := o.Groups[len(o.Groups)-1]; maxK > len(t.Units)-1 {
-		return nil, fmt.Errorf("%s: --groups asks for up to %d groups but %d participants are grouped: %w; lower --groups to at most %d",
-			o.Inputs[0], maxK, len(t.Units), cohort.ErrTooFew, len(t.Units)-1)
 	}
 	step("normalizing")
 	o.Norm.Seed = o.Seed
@@ -261,88 +219,31 @@ func FitTable(ctx context.Context, t *cohort.Table, o Options) (*Fitted, error) 
 	}
 	d := len(t.Features)
 	if o.Norm.Log {
-		o.Norm.Lowest = make([]float64, d)
-		for j := range t.Features {
-			o.Norm.Lowest[j] = t.Lowest(j)
-		}
-	}
-	var notes []string
-	var err error
-	if o.Norm.Within == normalize.WithinAlign {
-		axes, note, err := findAxes(t, o.Axes)
-		if err != nil {
-			return nil, err
-		}
-		o.Norm.Axes = axes
-		notes = append(notes, note)
+		o.Norm.Lowest = slices.Clone(plan.Lowest)
+		o.Norm.LogStart = normalize.LogStartOf(plan.First, d)
 	}
 	raw := &rawBlocks{t: t}
-	usable := t.Quality.WindowsIn - t.Quality.WindowsDropped - t.Quality.WindowsExcluded
-	var fit *normalize.Fit
-	var states *profile.States
-	// About --sample windows from participants chosen by their id, about 250 windows each, as
-	// read: the align step fits the scaling, the states and the devices on them (only their
-	// windows are read), and the sensitivity table refits on them.
-	sample, err := readSample(t, o, usable)
+	// The states' sample is drawn in the normalizing pass, from the same hash as its own sample.
+	o.Norm.KeepRate = profile.SampleRate(o.Sample, plan.Usable)
+	// Room for the expected sample and a margin, so that it is rarely copied while it grows.
+	expect := o.Norm.KeepRate * float64(plan.Usable)
+	kept := make([]float64, 0, d*int(expect+4*math.Sqrt(expect)+16))
+	o.Norm.Keep = func(_, _ int, row []float64) { kept = append(kept, row...) }
+	o.Norm.Workers, o.Norm.Progress = o.Workers, o.Passes
+	fit, err := normalize.FitBlocks(ctx, t.Features, raw, o.Norm)
+	if err == nil {
+		err = raw.err
+	}
 	if err != nil {
 		return nil, err
 	}
-	if o.Norm.Within == normalize.WithinAlign {
-		units := sample.units
-		if o.Norm.Log {
-			o.Norm.LogStart = normalize.LogStartOf(units, d)
-		}
-		o.Norm.SampleRate, o.Norm.Workers = 1, o.Workers
-		if fit, err = normalize.FitBlocks(ctx, t.Features, normalize.SliceBlocks(units), o.Norm); err != nil {
-			return nil, err
-		}
-		step("fitting movement states")
-		if states, err = profile.FitAligned(ctx, units, fit, profile.AlignOptions{States: o.States, Valley: o.Valley, Seed: o.Seed, Workers: o.Workers, Progress: o.Steps}); err != nil {
-			return nil, err
-		}
-		// Each feature's ICC(1) once aligned, on the sampled participants' windows; with PCA,
-		// on the features rebuilt from the kept components (an ICC does not change with a shift
-		// of the feature, so the PCA's centre is not added back).
-		icc := normalize.NewICCSum(d)
-		var back []float64
-		for _, x := range units {
-			_, y, _, err := states.AlignUnit(fit, x, nil)
-			if err != nil {
-				return nil, err
-			}
-			if p := fit.PCA; p != nil {
-				back = rebuild(back, y, p.Components)
-				y = back
-			}
-			icc.Add(normalize.UnitICCPart(y, d))
-		}
-		fit.ICCAfter = icc.ICC()
-	} else {
-		if o.Norm.Log {
-			o.Norm.LogStart = firstWindowsLogStart(t)
-		}
-		// The states' sample is drawn in the normalizing pass, from the same hash as its own sample.
-		o.Norm.KeepRate = profile.SampleRate(o.Sample, usable)
-		// Room for the expected sample and a margin, so that it is rarely copied while it grows.
-		expect := o.Norm.KeepRate * float64(usable)
-		kept := make([]float64, 0, d*int(expect+4*math.Sqrt(expect)+16))
-		o.Norm.Keep = func(_, _ int, row []float64) { kept = append(kept, row...) }
-		o.Norm.Workers, o.Norm.Progress = o.Workers, o.Passes
-		fit, err = normalize.FitBlocks(ctx, t.Features, raw, o.Norm)
-		if err == nil {
-			err = raw.err
-		}
-		if err != nil {
-			return nil, err
-		}
-		step("fitting movement states")
-		var rows *mat.Dense
-		if len(kept) > 0 {
-			y := fit.Cohort(kept)
-			rows = mat.NewDense(len(y)/fit.OutDim(), fit.OutDim(), y)
-		}
-		states, err = profile.FitStates(ctx, rows, profile.Options{States: o.States, Rule: o.StatesRule, Valley: o.Valley, Seed: o.Seed, Workers: o.Workers, Progress: o.Steps})
+	step("fitting movement states")
+	var rows *mat.Dense
+	if len(kept) > 0 {
+		y := fit.Cohort(kept)
+		rows = mat.NewDense(len(y)/fit.OutDim(), fit.OutDim(), y)
 	}
+	states, err := profile.FitStates(ctx, rows, profile.Options{States: o.States, Rule: o.StatesRule, Valley: o.Valley, Seed: o.Seed, Workers: o.Workers, Progress: o.Steps})
 	if err != nil {
 		return nil, err
 	}
@@ -351,25 +252,34 @@ func FitTable(ctx context.Context, t *cohort.Table, o Options) (*Fitted, error) 
 	if err != nil {
 		return nil, err
 	}
-	f.sample, f.Notes = sample, notes
-	sigs := f.Sigs
-	shares := make([][]float64, len(sigs))
-	for i, sg := range sigs {
+	f.sample, f.Window, f.WindowSource = sample, plan.Window, plan.WindowSource
+	return f, groupFitted(ctx, f, o)
+}
+
+// groupFitted groups the participants on their signatures and, unless told not to, checks the
+// groups against other choices.
+func groupFitted(ctx context.Context, f *Fitted, o Options) error {
+	shares := make([][]float64, len(f.Sigs))
+	for i, sg := range f.Sigs {
 		shares[i] = sg.Share
 	}
-	step("grouping participants")
+	if o.Progress != nil {
+		o.Progress("grouping participants")
+	}
 	g, err := cohort.GroupSignatures(ctx, shares, cohort.GroupOptions{Method: o.Method, Groups: o.Groups, Criterion: o.Criterion, Bootstrap: o.Bootstrap, Seed: o.Seed, Valley: o.GroupValley, Workers: o.Workers, Progress: o.Steps})
 	if err != nil {
-		return nil, err
+		return err
 	}
 	f.Grouping = g
 	if !o.NoSensitivity {
-		step("checking the groups against other choices")
-		if f.Sensitivity, err = sensitivity(ctx, f, o, sample); err != nil {
-			return nil, err
+		if o.Progress != nil {
+			o.Progress("checking the groups against other choices")
+		}
+		if f.Sensitivity, err = sensitivity(ctx, f, o, f.sample); err != nil {
+			return err
 		}
 	}
-	return f, nil
+	return nil
 }
 
 // rawBlocks gives each unit's windows as read, so that no second copy of all windows is held. A
@@ -394,81 +304,19 @@ func (b *rawBlocks) BlockInto(u int, dst []float64) []float64 {
 	return x
 }
 
-// AssignWindows is the pass over every unit that gives each window its state and each unit its
-// signature, and accumulates the states' descriptions and the states × labels table. Units are
-// normalized and assigned on all cores; what is accumulated is added in unit order.
+// AssignWindows gives each window of a table its state and each unit its signature (AssignOf,
+// on the whole table).
 func AssignWindows(ctx context.Context, t *cohort.Table, fit *normalize.Fit, states *profile.States, workers int, progress func(string, int, int)) (*Fitted, error) {
-	f := &Fitted{Table: t, Fit: fit, States: states, Sigs: make([]profile.Signature, len(t.Units)), Medians: make([][]float64, len(t.Units))}
-	ds := profile.NewDescriber(len(t.Features), states.K)
-	var lc *profile.LabelCounter
-	if t.HasLabels {
-		lc = profile.NewLabelCounter(states.K)
-	}
-	d := len(t.Features)
-	type unitResult struct {
-		desc   *profile.Describer
-		labels []int
-	}
-	raw := &rawBlocks{t: t}
-	var bufs sync.Pool // transformed windows, one buffer per worker at a time
-	if states.Aligned() {
-		f.Devices = make([]normalize.Device, len(t.Units))
-	}
-	err := normalize.EachBlock(ctx, raw, workers, func(i int, x []float64) (unitResult, error) {
-		bp, _ := bufs.Get().(*[]float64)
-		if bp == nil {
-			bp = new([]float64)
-		}
-		var labels []int
-		if states.Aligned() {
-			dev, lab, y, err := states.AssignUnit(fit, x, *bp)
-			if err != nil {
-				return unitResult{}, err
-			}
-			*bp, labels, f.Devices[i] = y, lab, dev
-		} else {
-			*bp = fit.ApplyUnitInto(*bp, i, x)
-			labels = states.Assign(*bp)
-		}
-		bufs.Put(bp)
-		f.Sigs[i] = profile.Signatures(labels, states.K)
-		f.Medians[i] = make([]float64, d)
-		col := make([]float64, len(x)/d)
-		for j := 0; j < d; j++ {
-			for w := range col {
-				col[w] = x[w*d+j]
-			}
-			f.Medians[i][j] = cohort.Median(col)
-		}
-		part := profile.NewDescriber(d, states.K)
-		if err := part.Add(x, labels); err != nil {
-			return unitResult{}, err
-		}
-		return unitResult{part, labels}, nil
-	}, func(i int, r unitResult) error {
-		ds.Merge(r.desc)
-		if lc != nil {
-			lc.Add(r.labels, t.Units[i].Labels)
-		}
-		if progress != nil {
-			progress("assigning windows to states", i+1, len(t.Units))
-		}
-		return nil
-	})
-	if err == nil {
-		err = raw.err
-	}
+	ap, err := AssignOf(ctx, t, fit, states, workers, progress)
 	if err != nil {
 		return nil, err
 	}
-	f.Desc = ds.Descriptions()
-	if lc != nil {
-		var err error
-		if f.Labels, err = lc.Table(); err != nil {
-			return nil, err
-		}
+	units := make([]UnitInfo, len(t.Units))
+	for i, u := range t.Units {
+		units[i] = UnitInfo{ID: u.ID, Wave: u.Wave, Ordinal: u.Ordinal, Windows: u.Windows()}
 	}
-	return f, nil
+	f := &Fitted{Table: t, Fit: fit, States: states}
+	return f, mergeAssigned(f, units, []*AssignPiece{ap})
 }
 
 // Describe gathers what the reports show once every unit has a group: the states in the original

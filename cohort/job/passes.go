@@ -1,0 +1,582 @@
+package job
+
+import (
+	"cmp"
+	"context"
+	"fmt"
+	"slices"
+	"sync"
+	"time"
+
+	"github.com/cohortmix/cohortmix/cohort"
+	"github.com/cohortmix/cohortmix/normalize"
+	"github.com/cohortmix/cohortmix/profile"
+)
+
+// The job in passes. With the align step (the default) the run is:
+//
+//	census (per shard) → plan (merge) → sample (per shard) → fit (merge) → assign (per shard) → finish (merge)
+//
+// Each pass over the windows reads one shard of the participants (cohort.ReadOptions.Shard) and
+// returns a piece; each merge takes every shard's piece. Every piece is keyed by the units'
+// ordinals (the order in which they first appeared in the inputs), and everything summed over
+// units is summed exactly or in ordinal order, so that any number of shards gives the result of
+// one machine bit for bit. On one machine the same passes run on the whole table, in memory.
+
+// UnitInfo is a unit as the census counts it.
+type UnitInfo struct {
+	ID, Wave string
+	Ordinal  int
+	Windows  int
+}
+
+// FirstWindows are the first windows of one of the first units, from which the align step finds
+// the axis means and the window length is read.
+type FirstWindows struct {
+	Ordinal int
+	Rows    []float64 // up to firstRows windows × the census's features
+	Steps   []int64   // the positive steps between consecutive order keys (first units only)
+}
+
+// firstUnits and firstRows bound the windows FirstWindows keeps; stepUnits is how many units
+// the window length is read from.
+const firstUnits, firstRows, stepUnits = 20, 500, 5
+
+// Census is what the read pass tells of one shard: its units, what was left out and why, and
+// what the plan needs to know of the whole input.
+type Census struct {
+	Shard     cohort.Shard
+	Options   Options // the settings of the run, which every later pass takes from the pieces
+	Features  []string
+	OrderKind string
+	HasLabels bool
+	Files     []cohort.FileInfo
+	Quality   cohort.Quality
+	Units     []UnitInfo
+	Lowest    []float64         // each feature's lowest value over every window read
+	Constancy *cohort.Constancy // nil for a whole read, whose constant features are dropped already
+	First     []FirstWindows
+}
+
+// CensusOf takes the census of a table read whole or as one shard.
+func CensusOf(t *cohort.Table, o Options) (*Census, error) {
+	d := len(t.Features)
+	c := &Census{Shard: o.Read.Shard, Options: o, Features: t.Features, OrderKind: t.OrderKind, HasLabels: t.HasLabels, Files: t.Files,
+		Quality: t.Quality, Lowest: make([]float64, d), Constancy: t.Constancy}
+	c.Options.Inputs = slices.Clone(o.Inputs)
+	for j := range c.Lowest {
+		c.Lowest[j] = t.Lowest(j)
+	}
+	for u, un := range t.Units {
+		c.Units = append(c.Units, UnitInfo{ID: un.ID, Wave: un.Wave, Ordinal: un.Ordinal, Windows: un.Windows()})
+		if u >= firstUnits {
+			continue
+		}
+		x, err := t.Block(u, nil)
+		if err != nil {
+			return nil, err
+		}
+		fw := FirstWindows{Ordinal: un.Ordinal, Rows: slices.Clone(x[:min(len(x), firstRows*d)])}
+		if u < stepUnits && t.OrderKind == "time" {
+			ord, err := t.Order(u)
+			if err != nil {
+				return nil, err
+			}
+			for i := 1; i < len(ord); i++ {
+				if s := ord[i] - ord[i-1]; s > 0 {
+					fw.Steps = append(fw.Steps, s)
+				}
+			}
+		}
+		c.First = append(c.First, fw)
+	}
+	return c, nil
+}
+
+// Plan is the census of the whole input, merged from every shard's: what the sample and
+// assignment passes and the finish share.
+type Plan struct {
+	Options   Options
+	Shards    int
+	Features  []string // the features kept
+	OrderKind string
+	HasLabels bool
+	Files     []cohort.FileInfo
+	Quality   cohort.Quality
+	Units     []UnitInfo // the units grouped, by ordinal
+	Lowest    []float64  // of the features kept
+	First     [][]float64
+	Steps     [][]int64
+	Usable    int // windows in the units grouped
+	Window    time.Duration
+	// WindowSource says where Window came from.
+	WindowSource string
+}
+
+// MergeCensus merges the census of every shard into the plan of the run. The censuses must be
+// of the same input, read with the same settings, one per shard.
+func MergeCensus(parts []*Census) (*Plan, error) {
+	if len(parts) == 0 {
+		return nil, fmt.Errorf("job: no census to merge: %w", cohort.ErrBadOption)
+	}
+	slices.SortFunc(parts, func(a, b *Census) int { return a.Shard.Index - b.Shard.Index })
+	first := parts[0]
+	count := max(1, first.Shard.Count)
+	if len(parts) != count {
+		return nil, fmt.Errorf("job: %d census pieces for %d shards: %w; give the piece of every shard once", len(parts), count, ErrPiece)
+	}
+	p := &Plan{Options: first.Options, Shards: count, OrderKind: first.OrderKind, HasLabels: first.HasLabels, Files: first.Files}
+	q := &p.Quality
+	q.UnitsIn, q.WindowsIn, q.IgnoredColumns = first.Quality.UnitsIn, first.Quality.WindowsIn, first.Quality.IgnoredColumns
+	var first20 []FirstWindows
+	var constancy []*cohort.Constancy
+	for i, c := range parts {
+		if c.Shard.Index != i || max(1, c.Shard.Count) != count {
+			return nil, fmt.Errorf("job: census pieces of shards %v and %v: %w; give the piece of every shard once", parts[max(0, i-1)].Shard, c.Shard, ErrPiece)
+		}
+		if !slices.Equal(c.Features, first.Features) || !slices.Equal(c.Files, first.Files) || c.Quality.UnitsIn != q.UnitsIn || c.Quality.WindowsIn != q.WindowsIn ||
+			!sameOptions(c.Options, first.Options) {
+			return nil, fmt.Errorf("job: the census of shard %d was taken of other input files or with other settings than shard 0's: %w; run every shard on the same files with the same settings", i, ErrPiece)
+		}
+		cq := c.Quality
+		q.WindowsDropped += cq.WindowsDropped
+		q.WindowsExcluded += cq.WindowsExcluded
+		q.CellsImputed += cq.CellsImputed
+		q.SortedUnits += cq.SortedUnits
+		q.JoinedUnits += cq.JoinedUnits
+		q.Excluded = append(q.Excluded, cq.Excluded...)
+		p.Units = append(p.Units, c.Units...)
+		first20 = append(first20, c.First...)
+		constancy = append(constancy, c.Constancy)
+	}
+	slices.SortFunc(q.Excluded, func(a, b cohort.Exclusion) int { return a.Ordinal - b.Ordinal })
+	slices.SortFunc(p.Units, func(a, b UnitInfo) int { return a.Ordinal - b.Ordinal })
+	slices.SortFunc(first20, func(a, b FirstWindows) int { return a.Ordinal - b.Ordinal })
+	order := p.Options.Read.Order
+	if order == "" {
+		order = "window"
+	}
+	q.Notes = cohort.QualityNotes(q.SortedUnits, q.JoinedUnits, order)
+	// The features: a whole read has dropped its constant features; shards keep them and tell
+	// which were constant in their own windows.
+	p.Features, p.Lowest = first.Features, first.Lowest
+	q.DroppedFeatures = first.Quality.DroppedFeatures
+	var cols []int
+	if first.Constancy != nil {
+		kept, dropped, err := cohort.KeptFeatures(first.Features, cohort.MergeConstancy(constancy), first.Files[0].Path)
+		if err != nil {
+			return nil, err
+		}
+		q.DroppedFeatures = dropped
+		p.Features, p.Lowest = kept, nil
+		for _, name := range kept {
+			j := slices.Index(first.Features, name)
+			cols = append(cols, j)
+			p.Lowest = append(p.Lowest, first.Lowest[j])
+		}
+	}
+	for i, fw := range first20[:min(len(first20), firstUnits)] {
+		p.First = append(p.First, selectColumns(fw.Rows, len(first.Features), cols))
+		if i < stepUnits {
+			p.Steps = append(p.Steps, fw.Steps)
+		}
+	}
+	for _, u := range p.Units {
+		p.Usable += u.Windows
+	}
+	p.Window, p.WindowSource = windowFromSteps(p.Steps, p.OrderKind, p.Options.Window)
+	return p, nil
+}
+
+// selectColumns keeps columns cols (nil: all) of rows of width d.
+func selectColumns(rows []float64, d int, cols []int) []float64 {
+	if cols == nil {
+		return rows
+	}
+	out := make([]float64, 0, len(rows)/d*len(cols))
+	for i := 0; i+d <= len(rows); i += d {
+		for _, j := range cols {
+			out = append(out, rows[i+j])
+		}
+	}
+	return out
+}
+
+// sameOptions reports whether two runs' settings agree (progress reporting aside).
+func sameOptions(a, b Options) bool {
+	a.Read.Shard, b.Read.Shard = cohort.Shard{}, cohort.Shard{}
+	return fmt.Sprintf("%+v", a.typed()) == fmt.Sprintf("%+v", b.typed())
+}
+
+// typed is the options without the functions that report progress.
+func (o Options) typed() Options {
+	o.Progress, o.Passes, o.Steps, o.Read.Progress, o.Norm.Keep, o.Norm.Progress = nil, nil, nil, nil, nil, nil
+	return o
+}
+
+// windowFromSteps is the length of one window: as given, or with times in the order column the
+// most common step between consecutive windows of the first few units (gaps in a recording are
+// longer steps and do not count); 0 when neither is there.
+func windowFromSteps(steps [][]int64, orderKind string, given time.Duration) (time.Duration, string) {
+	if given > 0 {
+		return given, "--window-length"
+	}
+	if orderKind != "time" {
+		return 0, ""
+	}
+	count := map[int64]int{}
+	for _, s := range steps {
+		for _, d := range s {
+			count[d]++
+		}
+	}
+	var best int64
+	for d, c := range count {
+		if c > count[best] || c == count[best] && d < best {
+			best = d
+		}
+	}
+	if best <= 0 {
+		return 0, ""
+	}
+	return time.Duration(best), "the order column's times"
+}
+
+// SampledUnit is one unit's windows drawn for the fit.
+type SampledUnit struct {
+	Ordinal int
+	Rows    []float64
+}
+
+// SamplePiece is the sample pass's piece of one shard.
+type SamplePiece struct {
+	Shard cohort.Shard
+	Units []SampledUnit
+}
+
+// SampleOf draws a shard's windows for the fit (profile.AlignSample): participants by their id,
+// windows by their place, both by a keyed hash of the seed, so that the sample is the same
+// whatever the shards.
+func SampleOf(t *cohort.Table, p *Plan) (*SamplePiece, error) {
+	if err := t.SelectFeatures(p.Features); err != nil {
+		return nil, err
+	}
+	o := p.Options
+	d := len(t.Features)
+	unitRate, windowRate := profile.AlignSample(o.Sample, len(p.Units), p.Usable)
+	s := &SamplePiece{Shard: o.Read.Shard}
+	for u, un := range t.Units {
+		key := normalize.UnitKey(un.ID, un.Wave)
+		if !normalize.UnitSampled(o.Seed, key, unitRate) {
+			continue
+		}
+		x, err := t.Block(u, nil)
+		if err != nil {
+			return nil, err
+		}
+		var rows []float64
+		for w := 0; w*d < len(x); w++ {
+			if normalize.WindowSampled(o.Seed, key, w, windowRate) {
+				rows = append(rows, x[w*d:(w+1)*d]...)
+			}
+		}
+		if len(rows) > 0 {
+			s.Units = append(s.Units, SampledUnit{Ordinal: un.Ordinal, Rows: rows})
+		}
+		if o.Passes != nil {
+			o.Passes("reading the fitting sample", u+1, len(t.Units))
+		}
+	}
+	return s, nil
+}
+
+// mergeSamples joins the shards' samples in ordinal order, with each unit's place in the plan.
+func mergeSamples(p *Plan, parts []*SamplePiece) (sampleUnits, error) {
+	var all []SampledUnit
+	for _, s := range parts {
+		all = append(all, s.Units...)
+	}
+	slices.SortFunc(all, func(a, b SampledUnit) int { return a.Ordinal - b.Ordinal })
+	var s sampleUnits
+	for _, su := range all {
+		i, ok := slices.BinarySearchFunc(p.Units, su.Ordinal, func(u UnitInfo, o int) int { return cmp.Compare(u.Ordinal, o) })
+		if !ok || len(su.Rows)%len(p.Features) != 0 {
+			return s, fmt.Errorf("job: a sampled unit (ordinal %d) that the plan does not group, or with rows of another width: %w", su.Ordinal, ErrPiece)
+		}
+		s.units, s.index = append(s.units, su.Rows), append(s.index, i)
+	}
+	return s, nil
+}
+
+// FitPiece is the fit, made once from the merged sample, that every assignment pass applies.
+type FitPiece struct {
+	Plan   *Plan
+	Fit    *normalize.Fit
+	States *profile.States
+	Notes  []string
+	Sample []SampledUnit      // kept for the sensitivity table of the finish
+	Norm   normalize.Options // the normalizing settings the fit was made with, for that table's refits
+}
+
+// FitSample fits the scaling, the devices and the states on the merged sample (the align step).
+func FitSample(ctx context.Context, p *Plan, samples []*SamplePiece) (*FitPiece, error) {
+	o := p.Options
+	if o.Norm.Within != normalize.WithinAlign {
+		return nil, fmt.Errorf("job: the passes fit the align step only; %s fits on every window: %w", o.Norm.Within, cohort.ErrBadOption)
+	}
+	if err := checkCounts(p, o); err != nil {
+		return nil, err
+	}
+	sample, err := mergeSamples(p, samples)
+	if err != nil {
+		return nil, err
+	}
+	fp := &FitPiece{Plan: p}
+	for _, s := range samples {
+		fp.Sample = append(fp.Sample, s.Units...)
+	}
+	slices.SortFunc(fp.Sample, func(a, b SampledUnit) int { return a.Ordinal - b.Ordinal })
+	step := func(s string) {
+		if o.Progress != nil {
+			o.Progress(s)
+		}
+	}
+	step("normalizing")
+	d := len(p.Features)
+	norm := o.Norm
+	norm.Seed = o.Seed
+	if norm.Log {
+		norm.Lowest = slices.Clone(p.Lowest)
+	}
+	axes, note, err := findAxesIn(p.Features, p.First, o.Axes)
+	if err != nil {
+		return nil, err
+	}
+	norm.Axes = axes
+	fp.Notes = append(fp.Notes, note)
+	units := sample.units
+	if norm.Log {
+		norm.LogStart = normalize.LogStartOf(units, d)
+	}
+	norm.SampleRate, norm.Workers = 1, o.Workers
+	if fp.Fit, err = normalize.FitBlocks(ctx, p.Features, normalize.SliceBlocks(units), norm); err != nil {
+		return nil, err
+	}
+	fp.Norm = norm
+	step("fitting movement states")
+	if fp.States, err = profile.FitAligned(ctx, units, fp.Fit, profile.AlignOptions{States: o.States, Valley: o.Valley, Seed: o.Seed, Workers: o.Workers, Progress: o.Steps}); err != nil {
+		return nil, err
+	}
+	// Each feature's ICC(1) once aligned, on the sampled participants' windows; with PCA, on the
+	// features rebuilt from the kept components (an ICC does not change with a shift of the
+	// feature, so the PCA's centre is not added back).
+	icc := normalize.NewICCSum(d)
+	var back []float64
+	for _, x := range units {
+		_, y, _, err := fp.States.AlignUnit(fp.Fit, x, nil)
+		if err != nil {
+			return nil, err
+		}
+		if pc := fp.Fit.PCA; pc != nil {
+			back = rebuild(back, y, pc.Components)
+			y = back
+		}
+		icc.Add(normalize.UnitICCPart(y, d))
+	}
+	fp.Fit.ICCAfter = icc.ICC()
+	return fp, nil
+}
+
+// checkCounts refuses a run with too few participants for the numbers of groups asked for.
+func checkCounts(p *Plan, o Options) error {
+	name := ""
+	if len(o.Inputs) > 0 {
+		name = o.Inputs[0]
+	} else if len(p.Files) > 0 {
+		name = p.Files[0].Path
+	}
+	if len(p.Units) < 3 {
+		return fmt.Errorf("%s: %d participants are left to group (%d excluded, see their reasons with a lower --min-windows): %w; grouping needs at least 3",
+			name, len(p.Units), len(p.Quality.Excluded), cohort.ErrTooFew)
+	}
+	if maxK := o.Groups[len(o.Groups)-1]; maxK > len(p.Units)-1 {
+		return fmt.Errorf("%s: --groups asks for up to %d groups but %d participants are grouped: %w; lower --groups to at most %d",
+			name, maxK, len(p.Units), cohort.ErrTooFew, len(p.Units)-1)
+	}
+	return nil
+}
+
+// AssignedUnit is what the assignment pass keeps of one unit.
+type AssignedUnit struct {
+	Ordinal   int
+	Signature profile.Signature
+	Medians   []float64 // the unit's median of each feature
+	Device    normalize.Device
+}
+
+// AssignPiece is the assignment pass's piece of one shard.
+type AssignPiece struct {
+	Shard  cohort.Shard
+	Units  []AssignedUnit
+	Desc   profile.DescriberPiece
+	Labels *profile.LabelPiece // nil without labels
+}
+
+// AssignOf is the pass over a shard's units that gives each window its state and each unit its
+// signature, medians and device, and accumulates the states' descriptions and the states ×
+// labels table. Units are normalized and assigned on all cores; what is accumulated is added in
+// unit order.
+func AssignOf(ctx context.Context, t *cohort.Table, fit *normalize.Fit, states *profile.States, workers int, progress func(string, int, int)) (*AssignPiece, error) {
+	if err := t.SelectFeatures(fit.Features); err != nil {
+		return nil, err
+	}
+	ap := &AssignPiece{Units: make([]AssignedUnit, len(t.Units))}
+	ds := profile.NewDescriber(len(t.Features), states.K)
+	var lc *profile.LabelCounter
+	if t.HasLabels {
+		lc = profile.NewLabelCounter(states.K)
+	}
+	d := len(t.Features)
+	type unitResult struct {
+		desc   *profile.Describer
+		labels []int
+	}
+	raw := &rawBlocks{t: t}
+	var bufs sync.Pool // transformed windows, one buffer per worker at a time
+	err := normalize.EachBlock(ctx, raw, workers, func(i int, x []float64) (unitResult, error) {
+		bp, _ := bufs.Get().(*[]float64)
+		if bp == nil {
+			bp = new([]float64)
+		}
+		au := &ap.Units[i]
+		au.Ordinal = t.Units[i].Ordinal
+		var labels []int
+		if states.Aligned() {
+			dev, lab, y, err := states.AssignUnit(fit, x, *bp)
+			if err != nil {
+				return unitResult{}, err
+			}
+			*bp, labels, au.Device = y, lab, dev
+		} else {
+			*bp = fit.ApplyUnitInto(*bp, i, x)
+			labels = states.Assign(*bp)
+		}
+		bufs.Put(bp)
+		au.Signature = profile.Signatures(labels, states.K)
+		au.Medians = make([]float64, d)
+		col := make([]float64, len(x)/d)
+		for j := 0; j < d; j++ {
+			for w := range col {
+				col[w] = x[w*d+j]
+			}
+			au.Medians[j] = cohort.Median(col)
+		}
+		part := profile.NewDescriber(d, states.K)
+		if err := part.Add(x, labels); err != nil {
+			return unitResult{}, err
+		}
+		return unitResult{part, labels}, nil
+	}, func(i int, r unitResult) error {
+		ds.Merge(r.desc)
+		if lc != nil {
+			lc.Add(r.labels, t.Units[i].Labels)
+		}
+		if progress != nil {
+			progress("assigning windows to states", i+1, len(t.Units))
+		}
+		return nil
+	})
+	if err == nil {
+		err = raw.err
+	}
+	if err != nil {
+		return nil, err
+	}
+	ap.Desc = ds.Piece()
+	if lc != nil {
+		lp := lc.Piece()
+		ap.Labels = &lp
+	}
+	return ap, nil
+}
+
+// mergeAssigned gathers the shards' assignment pieces into a fit, in the plan's unit order.
+func mergeAssigned(f *Fitted, units []UnitInfo, parts []*AssignPiece) error {
+	n := len(units)
+	f.Sigs, f.Medians = make([]profile.Signature, n), make([][]float64, n)
+	if f.States.Aligned() {
+		f.Devices = make([]normalize.Device, n)
+	}
+	seen := 0
+	var ds *profile.Describer
+	var lc *profile.LabelCounter
+	for _, ap := range parts {
+		for _, au := range ap.Units {
+			i, ok := slices.BinarySearchFunc(units, au.Ordinal, func(u UnitInfo, o int) int { return cmp.Compare(u.Ordinal, o) })
+			if !ok || f.Medians[i] != nil {
+				return fmt.Errorf("job: an assigned unit (ordinal %d) that the plan does not group, or twice: %w", au.Ordinal, ErrPiece)
+			}
+			f.Sigs[i], f.Medians[i] = au.Signature, au.Medians
+			if f.Devices != nil {
+				f.Devices[i] = au.Device
+			}
+			seen++
+		}
+		part, err := ap.Desc.Describer()
+		if err != nil {
+			return err
+		}
+		if ds == nil {
+			ds = part
+		} else {
+			ds.Merge(part)
+		}
+		if ap.Labels != nil {
+			c, err := ap.Labels.Counter()
+			if err != nil {
+				return err
+			}
+			if lc == nil {
+				lc = c
+			} else {
+				lc.Merge(c)
+			}
+		}
+	}
+	if seen != n {
+		return fmt.Errorf("job: %d units assigned of the %d the plan groups: %w; give the assignment piece of every shard", seen, n, ErrPiece)
+	}
+	f.Desc = ds.Descriptions()
+	if lc != nil {
+		var err error
+		if f.Labels, err = lc.Table(); err != nil {
+			return err
+		}
+	}
+	return nil
+}
+
+// Finish merges the assignment pieces with the fit and groups the participants: everything the
+// reports describe (Describe), without a table of windows.
+func Finish(ctx context.Context, fp *FitPiece, parts []*AssignPiece) (*Fitted, error) {
+	p, o := fp.Plan, fp.Plan.Options
+	t := &cohort.Table{Features: p.Features, OrderKind: p.OrderKind, HasLabels: p.HasLabels, Quality: p.Quality, Files: p.Files}
+	for _, u := range p.Units {
+		t.Units = append(t.Units, &cohort.Unit{ID: u.ID, Wave: u.Wave, Ordinal: u.Ordinal})
+	}
+	f := &Fitted{Table: t, Fit: fp.Fit, States: fp.States, Notes: fp.Notes, Window: p.Window, WindowSource: p.WindowSource}
+	if err := mergeAssigned(f, p.Units, parts); err != nil {
+		return nil, err
+	}
+	sample, err := mergeSamples(p, []*SamplePiece{{Units: fp.Sample}})
+	if err != nil {
+		return nil, err
+	}
+	f.sample = sample
+	o.Norm = fp.Norm
+	return f, groupFitted(ctx, f, o)
+}
+
+// ErrPiece is wrapped by every error about a piece of a run split in shards.
+var ErrPiece = fmt.Errorf("piece of a split run not usable")
+
