@@ -314,7 +314,7 @@ type FitPiece struct {
 	Fit    *normalize.Fit
 	States *profile.States
 	Notes  []string
-	Sample []SampledUnit      // kept for the sensitivity table of the finish
+	Sample []SampledUnit     // kept for the sensitivity table of the finish
 	Norm   normalize.Options // the normalizing settings the fit was made with, for that table's refits
 }
 
@@ -579,4 +579,3 @@ func Finish(ctx context.Context, fp *FitPiece, parts []*AssignPiece) (*Fitted, e
 
 // ErrPiece is wrapped by every error about a piece of a run split in shards.
 var ErrPiece = fmt.Errorf("piece of a split run not usable")
-
