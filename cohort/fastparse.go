@@ -83,21 +83,29 @@ type parsedChunk struct {
 	lo []float64
 }
 
-// summarize finds each of the d features' lowest value over the chunk's windows (rows of
-// width w).
+// summarize rounds every feature value of the chunk's windows (rows of width w) to float32
+// precision and finds each of the d features' lowest value. Values are kept to float32 (7
+// significant digits, more than accelerometer features carry) from the moment they are read:
+// the windows file of a large input holds float32, and rounding every value alike makes the
+// result the same whether the table stayed in memory or went to that file, and however the
+// participants were split in shards.
 func (c *parsedChunk) summarize(d, w int) {
 	c.lo = make([]float64, d)
 	for j := range c.lo {
 		c.lo[j] = math.Inf(1)
 	}
 	for i := 0; i+w <= len(c.vals); i += w {
-		for j, v := range c.vals[i : i+d] {
+		row := c.vals[i : i+d]
+		for j, v := range row {
+			v = float64(float32(v))
+			row[j] = v
 			if v < c.lo[j] { // false for NaN
 				c.lo[j] = v
 			}
 		}
 	}
 }
+
 
 // segment is the windows [previous end, end) of one unit.
 type segment struct {

@@ -58,6 +58,9 @@ type ReadOptions struct {
 	// and each feature's lowest value are those of the whole input; constant features are not
 	// dropped (a feature can be constant in one shard only) but described in Table.Constancy.
 	Shard Shard
+	// MemoryValues is how many values the windows may take in memory before they go to a
+	// temporary file in TempDir; 0 means 8 Mi (64 MiB). The result is the same either way.
+	MemoryValues int64
 	// Progress, when set, is told how many bytes of a file were read, of its size (0 when not
 	// known, as for standard input), and how many windows were read from all files so far; it is
 	// called from one goroutine at a time.
@@ -209,7 +212,7 @@ func Read(ctx context.Context, paths []string, opts ReadOptions) (*Table, error)
 	if dir == "" {
 		dir = os.TempDir()
 	}
-	r := &reader{ctx: ctx, opts: opts, byKey: map[string]*rawUnit{}, raw: &store{dir: dir}}
+	r := &reader{ctx: ctx, opts: opts, byKey: map[string]*rawUnit{}, raw: &store{dir: dir, limit: opts.MemoryValues}}
 	defer func() {
 		if r.raw != nil {
 			r.raw.close()

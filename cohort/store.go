@@ -24,6 +24,7 @@ var spillAfter int64 = 8 << 20
 // removed by close.
 type store struct {
 	dir     string
+	limit   int64 // values held in memory before the file; 0 means spillAfter
 	width   int
 	mem     [][]float64 // segments of segRows windows: growing never copies what is held
 	file    *os.File
@@ -41,7 +42,11 @@ func featBytes(d int) int { return 8 * ((d + 1) / 2) }
 
 // append adds whole windows (a multiple of width values).
 func (s *store) append(vals []float64) error {
-	if s.file == nil && s.n+int64(len(vals)) <= spillAfter {
+	limit := s.limit
+	if limit <= 0 {
+		limit = spillAfter
+	}
+	if s.file == nil && s.n+int64(len(vals)) <= limit {
 		seg := segRows * s.width
 		for len(vals) > 0 {
 			if len(s.mem) == 0 || len(s.mem[len(s.mem)-1]) == seg {

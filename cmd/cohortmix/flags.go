@@ -110,9 +110,13 @@ func (m *mainFlags) registerRead(cmd *cobra.Command) {
 	f.BoolVar(&m.Quiet, "quiet", false, "print only the final summary")
 }
 
+// memoryValues is the reader's in-memory limit (cohort.ReadOptions.MemoryValues; 0: its
+// default); tests lower it so that small inputs go to the temporary windows file.
+var memoryValues int64
+
 // readOptions turns the reading flags into the reader's settings.
 func (m *mainFlags) readOptions() (cohort.ReadOptions, error) {
-	ro := cohort.ReadOptions{ID: m.ID, Order: m.Order, Wave: m.Wave, Label: m.Label, Features: m.Features, MinWindows: m.MinWindows, TempDir: m.Temp}
+	ro := cohort.ReadOptions{ID: m.ID, Order: m.Order, Wave: m.Wave, Label: m.Label, Features: m.Features, MinWindows: m.MinWindows, TempDir: m.Temp, MemoryValues: memoryValues}
 	switch m.Missing {
 	case "drop":
 		ro.Missing = cohort.DropWindow
@@ -147,7 +151,7 @@ func (m *mainFlags) options(inputs []string) (job.Options, error) {
 	switch a := strings.TrimSpace(m.Axes); {
 	case a == "auto":
 	case a == "none":
-		o.Axes = []string{}
+		o.NoAxes = true
 	default:
 		o.Axes = strings.Split(a, ",")
 		for i := range o.Axes {

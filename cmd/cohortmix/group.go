@@ -101,7 +101,7 @@ func groupRun(ctx context.Context, o *groupOptions) error {
 	res.Tool, res.Version, res.Created, res.Synthetic = "cohortmix", version, o.Now(), o.Synthetic
 	res.Command = strings.Join(o.Args, " ")
 	res.Settings = o.Flags.settings()
-	if err := o.write(res, ao.Read); err != nil {
+	if err := o.write(res, ao.Read, o.Flags.asOptions()); err != nil {
 		return err
 	}
 	printSummary(o.IO, res, o.Out)
@@ -128,7 +128,7 @@ func (o *groupOptions) prepare() (job.Options, []byte, error) {
 
 // write writes the workbook and, when asked for, the members CSV and the model file, each to a
 // temporary file, and puts them all in place together.
-func (o *groupOptions) write(res *reports.Result, read cohort.ReadOptions) error {
+func (o *groupOptions) write(res *reports.Result, read cohort.ReadOptions, options map[string]string) error {
 	if err := o.plan.Write("--out", func(w io.Writer) error { return reports.WorkbookTo(w, res) }); err != nil {
 		return err
 	}
@@ -139,7 +139,7 @@ func (o *groupOptions) write(res *reports.Result, read cohort.ReadOptions) error
 	}
 	if o.plan.Has("--model") {
 		m := reports.NewModel(res, read, res.FeatureRange)
-		m.Options = o.Flags.asOptions()
+		m.Options = options
 		if o.key != nil {
 			m.Pseudonymized, m.KeyFingerprint = true, reports.KeyFingerprint(o.key)
 		}

@@ -134,7 +134,7 @@ func refreshRun(ctx context.Context, o *refreshOptions) error {
 	if err := ctx.Err(); err != nil {
 		return err
 	}
-	if err := o.write(res, ao.Read); err != nil {
+	if err := o.write(res, ao.Read, o.Flags.asOptions()); err != nil {
 		return err
 	}
 	printSummary(o.IO, res, o.Out)

@@ -28,9 +28,10 @@ type Options struct {
 	Method    cohort.Method
 	Criterion cohort.Criterion
 	Bootstrap int
-	// Axes names the three features of the axis means that the align step turns; nil finds them
-	// (normalize.FindAxes), and an empty non-nil list means none.
+	// Axes names the three features of the axis means that the align step turns; empty finds
+	// them (normalize.FindAxes), unless NoAxes says to turn none.
 	Axes       []string
+	NoAxes     bool
 	StatesRule profile.Rule
 	Valley     float64 // see profile.MergeStates; 0 means profile.DefaultValley
 	// GroupValley lowers the number of groups while two form one mode (cohort.GroupOptions.Valley).
@@ -74,14 +75,14 @@ type Fitted struct {
 	Sensitivity []reports.Sensitivity
 }
 
-// findAxesIn resolves the axis means the align step turns: the named features, none (an empty
-// list), or, for nil, the triple that normalize.FindAxes finds on the first windows of up to 20
+// findAxesIn resolves the axis means the align step turns: none, the named features, or, when
+// none are named, the triple that normalize.FindAxes finds on the first windows of up to 20
 // participants (first, each of the features' width). The note says which, for the workbook.
-func findAxesIn(features []string, first [][]float64, names []string) ([]int, string, error) {
-	if names != nil {
-		if len(names) == 0 {
-			return nil, "the align step turns no axis means (--axes none): it shifts each feature only", nil
-		}
+func findAxesIn(features []string, first [][]float64, names []string, none bool) ([]int, string, error) {
+	if none {
+		return nil, "the align step turns no axis means (--axes none): it shifts each feature only", nil
+	}
+	if len(names) > 0 {
 		var axes []int
 		for _, n := range names {
 			j := slices.Index(features, n)
@@ -179,7 +180,7 @@ func FitTable(ctx context.Context, t *cohort.Table, o Options) (*Fitted, error) 
 	// About --sample windows from participants chosen by their id, about 250 windows each, as
 	// read: the align step fits the scaling, the states and the devices on them (only their
 	// windows are read), and the sensitivity table refits on them.
-	sp, err := SampleOf(t, plan)
+	sp, err := SampleOf(t, plan, cohort.Shard{})
 	if err != nil {
 		return nil, err
 	}
@@ -191,7 +192,7 @@ func FitTable(ctx context.Context, t *cohort.Table, o Options) (*Fitted, error) 
 		if o.Progress != nil {
 			o.Progress("assigning windows")
 		}
-		ap, err := AssignOf(ctx, t, fp.Fit, fp.States, o.Workers, o.Passes)
+		ap, err := AssignOf(ctx, t, cohort.Shard{}, fp.Fit, fp.States, o.Workers, o.Passes)
 		if err != nil {
 			return nil, err
 		}
@@ -307,7 +308,7 @@ func (b *rawBlocks) BlockInto(u int, dst []float64) []float64 {
 // AssignWindows gives each window of a table its state and each unit its signature (AssignOf,
 // on the whole table).
 func AssignWindows(ctx context.Context, t *cohort.Table, fit *normalize.Fit, states *profile.States, workers int, progress func(string, int, int)) (*Fitted, error) {
-	ap, err := AssignOf(ctx, t, fit, states, workers, progress)
+	ap, err := AssignOf(ctx, t, cohort.Shard{}, fit, states, workers, progress)
 	if err != nil {
 		return nil, err
 	}

@@ -3,6 +3,7 @@ package job
 import (
 	"cmp"
 	"context"
+	"errors"
 	"fmt"
 	"slices"
 	"sync"
@@ -11,6 +12,7 @@ import (
 	"github.com/cohortmix/cohortmix/cohort"
 	"github.com/cohortmix/cohortmix/normalize"
 	"github.com/cohortmix/cohortmix/profile"
+	"github.com/cohortmix/cohortmix/reports"
 )
 
 // The job in passes. With the align step (the default) the run is:
@@ -22,6 +24,29 @@ import (
 // ordinals (the order in which they first appeared in the inputs), and everything summed over
 // units is summed exactly or in ordinal order, so that any number of shards gives the result of
 // one machine bit for bit. On one machine the same passes run on the whole table, in memory.
+
+// Meta is how a run was asked for, as the reports show it (the command line, the settings and
+// the model file's options); the passes carry it from the census to the finish.
+type Meta struct {
+	Command      string
+	Settings     []reports.Setting
+	ModelOptions map[string]string
+}
+
+// checkShards tells whether pieces of a kind come one from each of count shards.
+func checkShards(kind string, shards []cohort.Shard, count int) error {
+	seen := make([]bool, count)
+	for _, sh := range shards {
+		if max(1, sh.Count) != count || sh.Index < 0 || sh.Index >= count || seen[sh.Index] {
+			return fmt.Errorf("job: %s pieces of shards %v for a run in %d shards: %w; give the piece of every shard once", kind, shards, count, ErrPiece)
+		}
+		seen[sh.Index] = true
+	}
+	if len(shards) != count {
+		return fmt.Errorf("job: %d %s pieces for a run in %d shards: %w; give the piece of every shard once", len(shards), kind, count, ErrPiece)
+	}
+	return nil
+}
 
 // UnitInfo is a unit as the census counts it.
 type UnitInfo struct {
@@ -47,6 +72,7 @@ const firstUnits, firstRows, stepUnits = 20, 500, 5
 type Census struct {
 	Shard     cohort.Shard
 	Options   Options // the settings of the run, which every later pass takes from the pieces
+	Meta      Meta
 	Features  []string
 	OrderKind string
 	HasLabels bool
@@ -97,6 +123,7 @@ func CensusOf(t *cohort.Table, o Options) (*Census, error) {
 // assignment passes and the finish share.
 type Plan struct {
 	Options   Options
+	Meta      Meta
 	Shards    int
 	Features  []string // the features kept
 	OrderKind string
@@ -125,7 +152,7 @@ func MergeCensus(parts []*Census) (*Plan, error) {
 	if len(parts) != count {
 		return nil, fmt.Errorf("job: %d census pieces for %d shards: %w; give the piece of every shard once", len(parts), count, ErrPiece)
 	}
-	p := &Plan{Options: first.Options, Shards: count, OrderKind: first.OrderKind, HasLabels: first.HasLabels, Files: first.Files}
+	p := &Plan{Options: first.Options, Meta: first.Meta, Shards: count, OrderKind: first.OrderKind, HasLabels: first.HasLabels, Files: first.Files}
 	q := &p.Quality
 	q.UnitsIn, q.WindowsIn, q.IgnoredColumns = first.Quality.UnitsIn, first.Quality.WindowsIn, first.Quality.IgnoredColumns
 	var first20 []FirstWindows
@@ -257,14 +284,14 @@ type SamplePiece struct {
 // SampleOf draws a shard's windows for the fit (profile.AlignSample): participants by their id,
 // windows by their place, both by a keyed hash of the seed, so that the sample is the same
 // whatever the shards.
-func SampleOf(t *cohort.Table, p *Plan) (*SamplePiece, error) {
+func SampleOf(t *cohort.Table, p *Plan, shard cohort.Shard) (*SamplePiece, error) {
 	if err := t.SelectFeatures(p.Features); err != nil {
 		return nil, err
 	}
 	o := p.Options
 	d := len(t.Features)
 	unitRate, windowRate := profile.AlignSample(o.Sample, len(p.Units), p.Usable)
-	s := &SamplePiece{Shard: o.Read.Shard}
+	s := &SamplePiece{Shard: shard}
 	for u, un := range t.Units {
 		key := normalize.UnitKey(un.ID, un.Wave)
 		if !normalize.UnitSampled(o.Seed, key, unitRate) {
@@ -327,6 +354,13 @@ func FitSample(ctx context.Context, p *Plan, samples []*SamplePiece) (*FitPiece,
 	if err := checkCounts(p, o); err != nil {
 		return nil, err
 	}
+	var shards []cohort.Shard
+	for _, s := range samples {
+		shards = append(shards, s.Shard)
+	}
+	if err := checkShards(KindSample, shards, p.Shards); err != nil {
+		return nil, err
+	}
 	sample, err := mergeSamples(p, samples)
 	if err != nil {
 		return nil, err
@@ -348,7 +382,7 @@ func FitSample(ctx context.Context, p *Plan, samples []*SamplePiece) (*FitPiece,
 	if norm.Log {
 		norm.Lowest = slices.Clone(p.Lowest)
 	}
-	axes, note, err := findAxesIn(p.Features, p.First, o.Axes)
+	axes, note, err := findAxesIn(p.Features, p.First, o.Axes, o.NoAxes)
 	if err != nil {
 		return nil, err
 	}
@@ -426,11 +460,11 @@ type AssignPiece struct {
 // signature, medians and device, and accumulates the states' descriptions and the states ×
 // labels table. Units are normalized and assigned on all cores; what is accumulated is added in
 // unit order.
-func AssignOf(ctx context.Context, t *cohort.Table, fit *normalize.Fit, states *profile.States, workers int, progress func(string, int, int)) (*AssignPiece, error) {
+func AssignOf(ctx context.Context, t *cohort.Table, shard cohort.Shard, fit *normalize.Fit, states *profile.States, workers int, progress func(string, int, int)) (*AssignPiece, error) {
 	if err := t.SelectFeatures(fit.Features); err != nil {
 		return nil, err
 	}
-	ap := &AssignPiece{Units: make([]AssignedUnit, len(t.Units))}
+	ap := &AssignPiece{Shard: shard, Units: make([]AssignedUnit, len(t.Units))}
 	ds := profile.NewDescriber(len(t.Features), states.K)
 	var lc *profile.LabelCounter
 	if t.HasLabels {
@@ -564,6 +598,13 @@ func Finish(ctx context.Context, fp *FitPiece, parts []*AssignPiece) (*Fitted, e
 	for _, u := range p.Units {
 		t.Units = append(t.Units, &cohort.Unit{ID: u.ID, Wave: u.Wave, Ordinal: u.Ordinal})
 	}
+	var shards []cohort.Shard
+	for _, ap := range parts {
+		shards = append(shards, ap.Shard)
+	}
+	if err := checkShards(KindAssign, shards, p.Shards); err != nil {
+		return nil, err
+	}
 	f := &Fitted{Table: t, Fit: fp.Fit, States: fp.States, Notes: fp.Notes, Window: p.Window, WindowSource: p.WindowSource}
 	if err := mergeAssigned(f, p.Units, parts); err != nil {
 		return nil, err
@@ -578,4 +619,4 @@ func Finish(ctx context.Context, fp *FitPiece, parts []*AssignPiece) (*Fitted, e
 }
 
 // ErrPiece is wrapped by every error about a piece of a run split in shards.
-var ErrPiece = fmt.Errorf("piece of a split run not usable")
+var ErrPiece = errors.New("piece of a split run not usable")

@@ -22,7 +22,9 @@ for r in rows[1:]:
     f = r.split(",")
     ids.append(f[0])
     X.append([float(v) for v in f[2:]])
-X = np.array(X)
+# cohortmix keeps every feature value to float32 precision from the moment it is read (see the
+# reader's summarize), so the reference starts from the same rounded values.
+X = np.array(X, dtype=np.float32).astype(np.float64)
 units = list(dict.fromkeys(ids))
 ids = np.array(ids)
 blocks = [X[ids == u] for u in units]

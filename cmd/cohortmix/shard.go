@@ -1,0 +1,434 @@
+package main
+
+import (
+	"context"
+	"fmt"
+	"io"
+	"os"
+	"path/filepath"
+	"strconv"
+	"strings"
+	"time"
+
+	"github.com/cohortmix/cohortmix/cohort"
+	"github.com/cohortmix/cohortmix/cohort/job"
+	"github.com/cohortmix/cohortmix/reports"
+	"github.com/spf13/cobra"
+)
+
+// shardOptions are the settings of one step of a run split in shards.
+type shardOptions struct {
+	IO     IO
+	Now    func() time.Time
+	Step   string   // census, plan, sample, fit, assign, finish or run
+	Args   []string // the tables (census, run) or the pieces to merge (plan, fit, finish)
+	Shard  string   // "I/N": this step's shard, from 1 (census, sample, assign)
+	Shards int      // run: how many shards
+	Piece  string   // the piece this step writes
+	Plan   string   // the plan piece (sample, fit)
+	Fit    string   // the fit piece (assign, finish)
+	Pieces string   // run: the folder for the pieces
+	Out    string   // finish, run: the workbook
+	Flags  mainFlags
+	argv   []string // the command line, for the settings sheet
+}
+
+const shardLong = `A run split in shards gives the result of 'group' bit for bit (members, model and workbook,
+apart from the date and the command line), for any number of shards: participants are split by
+a hash of their id, every pass reads the whole input and keeps one shard, and the pieces are
+merged in the order the participants first appear. It takes the align step (the default).
+
+The steps, each a command that a workflow engine can run on another machine:
+  census  (each shard)  who is in the input, what is left out and why      → census piece
+  plan    (once)        merges the census pieces                           → plan piece
+  sample  (each shard)  the windows drawn to fit the states                 → sample piece
+  fit     (once)        scaling, devices and movement states from the sample → fit piece
+  assign  (each shard)  each window's state, each participant's signature   → assignment piece
+  finish  (once)        groups the participants, writes the workbook, members and model
+'run' runs every step here, one after another. Pieces hold participant data: keep them where the
+study's data-protection rules allow, and remove them when the run is done.
+
+Exit codes: 0 success, 1 error in the input or the run, 2 wrong command line, 130 interrupted.`
+
+func newShardCmd(env *Env, runF func(context.Context, *shardOptions) error) *cobra.Command {
+	root := &cobra.Command{
+		Use:   "shard",
+		Short: "Run the job split in shards of participants, step by step (for a cluster)",
+		Long:  shardLong,
+		Example: `  $ cohortmix shard run study.csv.gz --shards 4 --pieces pieces/ --out results.xlsx --members members.csv
+  $ cohortmix shard census study.csv.gz --shard 2/4 --piece pieces/census-2.piece
+  $ cohortmix shard plan pieces/census-*.piece --piece pieces/plan.piece
+  $ cohortmix shard sample --plan pieces/plan.piece --shard 2/4 --piece pieces/sample-2.piece
+  $ cohortmix shard fit --plan pieces/plan.piece pieces/sample-*.piece --piece pieces/fit.piece
+  $ cohortmix shard assign --fit pieces/fit.piece --shard 2/4 --piece pieces/assign-2.piece
+  $ cohortmix shard finish --fit pieces/fit.piece pieces/assign-*.piece --out results.xlsx --members members.csv`,
+	}
+	step := func(name, use, short string, args cobra.PositionalArgs, flags func(*cobra.Command, *shardOptions)) {
+		o := &shardOptions{IO: env.IO, Now: time.Now, Step: name}
+		c := &cobra.Command{Use: use, Short: short, Long: short + ".\n\n" + shardLong, Args: args,
+			RunE: func(cmd *cobra.Command, a []string) error {
+				o.Args = a
+				o.argv = append([]string{"cohortmix", "shard", name}, argsOf(cmd)...)
+				if runF != nil {
+					return runF(cmd.Context(), o)
+				}
+				return shardRun(cmd.Context(), o)
+			}}
+		flags(c, o)
+		root.AddCommand(c)
+	}
+	pieceFlag := func(c *cobra.Command, o *shardOptions) {
+		c.Flags().StringVar(&o.Piece, "piece", "", "the piece file to write")
+		_ = c.MarkFlagRequired("piece")
+		c.Flags().BoolVar(&o.Flags.Force, "force", false, "replace an existing piece")
+		c.Flags().BoolVar(&o.Flags.Quiet, "quiet", false, "print nothing on success")
+	}
+	shardFlag := func(c *cobra.Command, o *shardOptions) {
+		c.Flags().StringVar(&o.Shard, "shard", "", "this step's shard and their number, I/N with I from 1 to N")
+		_ = c.MarkFlagRequired("shard")
+		c.Flags().IntVar(&o.Flags.Workers, "workers", 0, "worker goroutines (0: all cores); never changes the result")
+	}
+	step("census", "census <windows.csv>... --shard I/N --piece <census.piece>", "Count one shard's participants and what was left out (every setting of the run is given here)",
+		cobra.MinimumNArgs(1), func(c *cobra.Command, o *shardOptions) {
+			o.Flags.register(c)
+			for _, name := range []string{"members", "model", "pseudonymize", "force", "workers"} {
+				c.Flags().Lookup(name).Hidden = true // given to finish, or to every step
+			}
+			c.Flags().StringVar(&o.Shard, "shard", "", "this step's shard and their number, I/N with I from 1 to N")
+			_ = c.MarkFlagRequired("shard")
+			c.Flags().StringVar(&o.Piece, "piece", "", "the piece file to write")
+			_ = c.MarkFlagRequired("piece")
+		})
+	step("plan", "plan <census.piece>... --piece <plan.piece>", "Merge every shard's census into the plan of the run", cobra.MinimumNArgs(1), pieceFlag)
+	step("sample", "sample --plan <plan.piece> --shard I/N --piece <sample.piece>", "Draw one shard's windows for the fit", cobra.NoArgs,
+		func(c *cobra.Command, o *shardOptions) {
+			c.Flags().StringVar(&o.Plan, "plan", "", "the plan piece")
+			_ = c.MarkFlagRequired("plan")
+			c.Flags().StringVar(&o.Flags.Temp, "temp", "", "folder for temporary files of large inputs (default: the folder of --piece)")
+			shardFlag(c, o)
+			pieceFlag(c, o)
+		})
+	step("fit", "fit --plan <plan.piece> <sample.piece>... --piece <fit.piece>", "Fit the scaling, the devices and the movement states on every shard's sample", cobra.MinimumNArgs(1),
+		func(c *cobra.Command, o *shardOptions) {
+			c.Flags().StringVar(&o.Plan, "plan", "", "the plan piece")
+			_ = c.MarkFlagRequired("plan")
+			c.Flags().IntVar(&o.Flags.Workers, "workers", 0, "worker goroutines (0: all cores); never changes the result")
+			pieceFlag(c, o)
+		})
+	step("assign", "assign --fit <fit.piece> --shard I/N --piece <assign.piece>", "Give one shard's windows their states and its participants their signatures", cobra.NoArgs,
+		func(c *cobra.Command, o *shardOptions) {
+			c.Flags().StringVar(&o.Fit, "fit", "", "the fit piece")
+			_ = c.MarkFlagRequired("fit")
+			c.Flags().StringVar(&o.Flags.Temp, "temp", "", "folder for temporary files of large inputs (default: the folder of --piece)")
+			shardFlag(c, o)
+			pieceFlag(c, o)
+		})
+	outputs := func(c *cobra.Command, o *shardOptions) {
+		c.Flags().StringVar(&o.Out, "out", "", "the workbook to write (.xlsx)")
+		_ = c.MarkFlagRequired("out")
+		c.Flags().StringVar(&o.Flags.Members, "members", "", "also write a participant,group CSV here")
+		c.Flags().StringVar(&o.Flags.Model, "model", "", "also write the model file (JSON) here, for later waves")
+		c.Flags().StringVar(&o.Flags.Pseudonymize, "pseudonymize", "", "replace participant ids in every output by a keyed hash, with the key in this file")
+	}
+	step("finish", "finish --fit <fit.piece> <assign.piece>... --out <results.xlsx>", "Group the participants from every shard's assignment and write the outputs", cobra.MinimumNArgs(1),
+		func(c *cobra.Command, o *shardOptions) {
+			c.Flags().StringVar(&o.Fit, "fit", "", "the fit piece")
+			_ = c.MarkFlagRequired("fit")
+			outputs(c, o)
+			c.Flags().IntVar(&o.Flags.Workers, "workers", 0, "worker goroutines (0: all cores); never changes the result")
+			c.Flags().BoolVar(&o.Flags.Force, "force", false, "replace existing output files")
+			c.Flags().BoolVar(&o.Flags.Quiet, "quiet", false, "print only the final summary")
+		})
+	step("run", "run <windows.csv>... --shards N --out <results.xlsx>", "Run every step here, one shard after another, through piece files", cobra.MinimumNArgs(1),
+		func(c *cobra.Command, o *shardOptions) {
+			o.Flags.register(c)
+			c.Flags().StringVar(&o.Out, "out", "", "the workbook to write (.xlsx)")
+			_ = c.MarkFlagRequired("out")
+			c.Flags().IntVar(&o.Shards, "shards", 2, "how many shards")
+			c.Flags().StringVar(&o.Pieces, "pieces", "", "folder to keep the pieces in (default: a temporary folder beside --out, removed at the end)")
+		})
+	for _, c := range root.Commands() {
+		commandLineErrors(c)
+	}
+	return root
+}
+
+// parseShard reads "I/N" (I from 1) into the reader's shard (from 0).
+func parseShard(s string) (cohort.Shard, error) {
+	a, b, ok := strings.Cut(s, "/")
+	i, err1 := strconv.Atoi(strings.TrimSpace(a))
+	n, err2 := strconv.Atoi(strings.TrimSpace(b))
+	if !ok || err1 != nil || err2 != nil || n < 1 || i < 1 || i > n {
+		return cohort.Shard{}, flagErrorf("--shard %q: give this step's shard and the number of shards as I/N, with I from 1 to N, such as 2/4", s)
+	}
+	return cohort.Shard{Index: i - 1, Count: n}, nil
+}
+
+func shardRun(ctx context.Context, o *shardOptions) error {
+	switch o.Step {
+	case "census":
+		return o.census(ctx, o.Args, o.Shard, o.Piece)
+	case "plan":
+		return o.plan(o.Args, o.Piece)
+	case "sample":
+		return o.sample(o.Plan, o.Shard, o.Piece)
+	case "fit":
+		return o.fit(ctx, o.Plan, o.Args, o.Piece)
+	case "assign":
+		return o.assign(ctx, o.Fit, o.Shard, o.Piece)
+	case "finish":
+		return o.finish(ctx, o.Fit, o.Args)
+	}
+	return o.runAll(ctx)
+}
+
+// writePiece writes a piece through the output plan: checked first, replaced only with --force,
+// never half-written.
+func (o *shardOptions) writePiece(path, kind string, inputs []string, v any) error {
+	plan, err := reports.PlanOutputs([]reports.Target{{Flag: "--piece", Path: path}}, inputs, "", o.Flags.Force)
+	if err != nil {
+		return err
+	}
+	defer plan.Abort()
+	if err := plan.Write("--piece", func(w io.Writer) error { return job.WritePiece(w, kind, v) }); err != nil {
+		return err
+	}
+	if err := plan.Commit(); err != nil {
+		return err
+	}
+	if !o.Flags.Quiet {
+		fmt.Fprintf(o.IO.Out, "%s piece → %s\n", kind, path)
+	}
+	return nil
+}
+
+func (o *shardOptions) census(ctx context.Context, inputs []string, shard, piece string) error {
+	sh, err := parseShard(shard)
+	if err != nil {
+		return err
+	}
+	if o.Flags.Temp == "" {
+		o.Flags.Temp = filepath.Dir(piece)
+	}
+	ao, err := o.Flags.options(inputs)
+	if err != nil {
+		return err
+	}
+	if o.Flags.Within != "align" {
+		return flagErrorf("--within %s: a run split in shards takes the align step, whose fit needs only a sample of the windows; leave --within out, or run 'group' on one machine", o.Flags.Within)
+	}
+	ao.Read.Shard = sh
+	t, err := cohort.Read(ctx, inputs, ao.Read)
+	if err != nil {
+		return err
+	}
+	defer t.Close()
+	c, err := job.CensusOf(t, ao)
+	if err != nil {
+		return err
+	}
+	c.Meta = job.Meta{Command: strings.Join(o.argv, " "), Settings: o.Flags.settings(), ModelOptions: o.Flags.asOptions()}
+	files, _ := cohort.ExpandPaths(inputs)
+	return o.writePiece(piece, job.KindCensus, files, c)
+}
+
+func (o *shardOptions) plan(censuses []string, piece string) error {
+	var parts []*job.Census
+	for _, p := range censuses {
+		c := new(job.Census)
+		if err := job.ReadPiece(p, job.KindCensus, c); err != nil {
+			return err
+		}
+		parts = append(parts, c)
+	}
+	plan, err := job.MergeCensus(parts)
+	if err != nil {
+		return err
+	}
+	return o.writePiece(piece, job.KindPlan, censuses, plan)
+}
+
+// readShard reads one shard of the run's inputs and checks that they are the files the census
+// was taken of.
+func (o *shardOptions) readShard(ctx context.Context, plan *job.Plan, shard, piece string) (*cohort.Table, cohort.Shard, error) {
+	sh, err := parseShard(shard)
+	if err != nil {
+		return nil, sh, err
+	}
+	if sh.Count != plan.Shards {
+		return nil, sh, flagErrorf("--shard %s: the plan is of a run in %d shards; give I/%d", shard, plan.Shards, plan.Shards)
+	}
+	ro := plan.Options.Read
+	ro.Shard, ro.Progress, ro.TempDir = sh, nil, o.Flags.Temp
+	if ro.TempDir == "" {
+		ro.TempDir = filepath.Dir(piece)
+	}
+	t, err := cohort.Read(ctx, plan.Options.Inputs, ro)
+	if err != nil {
+		return nil, sh, err
+	}
+	for i, f := range t.Files {
+		if i >= len(plan.Files) || f.SHA256 != plan.Files[i].SHA256 || f.Path != plan.Files[i].Path {
+			t.Close()
+			return nil, sh, fmt.Errorf("%s: not the file the census was taken of (its content or its place in the inputs changed): %w; run the split run again from its census", f.Path, job.ErrPiece)
+		}
+	}
+	return t, sh, nil
+}
+
+func (o *shardOptions) sample(planFile, shard, piece string) error {
+	plan := new(job.Plan)
+	if err := job.ReadPiece(planFile, job.KindPlan, plan); err != nil {
+		return err
+	}
+	t, sh, err := o.readShard(context.Background(), plan, shard, piece)
+	if err != nil {
+		return err
+	}
+	defer t.Close()
+	sp, err := job.SampleOf(t, plan, sh)
+	if err != nil {
+		return err
+	}
+	return o.writePiece(piece, job.KindSample, append([]string{planFile}, plan.Options.Inputs...), sp)
+}
+
+func (o *shardOptions) fit(ctx context.Context, planFile string, samples []string, piece string) error {
+	plan := new(job.Plan)
+	if err := job.ReadPiece(planFile, job.KindPlan, plan); err != nil {
+		return err
+	}
+	var parts []*job.SamplePiece
+	for _, p := range samples {
+		sp := new(job.SamplePiece)
+		if err := job.ReadPiece(p, job.KindSample, sp); err != nil {
+			return err
+		}
+		parts = append(parts, sp)
+	}
+	plan.Options.Workers = o.Flags.Workers
+	fp, err := job.FitSample(ctx, plan, parts)
+	if err != nil {
+		return err
+	}
+	return o.writePiece(piece, job.KindFit, append([]string{planFile}, samples...), fp)
+}
+
+func (o *shardOptions) assign(ctx context.Context, fitFile, shard, piece string) error {
+	fp := new(job.FitPiece)
+	if err := job.ReadPiece(fitFile, job.KindFit, fp); err != nil {
+		return err
+	}
+	t, sh, err := o.readShard(ctx, fp.Plan, shard, piece)
+	if err != nil {
+		return err
+	}
+	defer t.Close()
+	ap, err := job.AssignOf(ctx, t, sh, fp.Fit, fp.States, o.Flags.Workers, nil)
+	if err != nil {
+		return err
+	}
+	return o.writePiece(piece, job.KindAssign, append([]string{fitFile}, fp.Plan.Options.Inputs...), ap)
+}
+
+func (o *shardOptions) finish(ctx context.Context, fitFile string, assigned []string) error {
+	if !strings.HasSuffix(strings.ToLower(o.Out), ".xlsx") {
+		return flagErrorf("--out %q: the workbook needs a name ending in .xlsx", o.Out)
+	}
+	g := &groupOptions{IO: o.IO, Now: o.Now, Out: o.Out, Flags: o.Flags, readOnly: append([]string{fitFile}, assigned...)}
+	if err := g.outputs(); err != nil {
+		return err
+	}
+	defer g.plan.Abort()
+	key, err := loadKey(o.Flags.Pseudonymize)
+	if err != nil {
+		return err
+	}
+	g.key = key
+	fp := new(job.FitPiece)
+	if err := job.ReadPiece(fitFile, job.KindFit, fp); err != nil {
+		return err
+	}
+	var parts []*job.AssignPiece
+	for _, p := range assigned {
+		ap := new(job.AssignPiece)
+		if err := job.ReadPiece(p, job.KindAssign, ap); err != nil {
+			return err
+		}
+		parts = append(parts, ap)
+	}
+	fp.Plan.Options.Workers = o.Flags.Workers
+	f, err := job.Finish(ctx, fp, parts)
+	if err != nil {
+		return err
+	}
+	res, err := job.Describe(f, job.Numbered("S", f.States.K), job.Numbered("G", f.Grouping.K))
+	if err != nil {
+		return err
+	}
+	if key != nil {
+		reports.Pseudonymize(res, key)
+	}
+	meta := fp.Plan.Meta
+	res.Tool, res.Version, res.Created = "cohortmix", version, o.Now()
+	res.Command, res.Settings = meta.Command, meta.Settings
+	if err := g.write(res, fp.Plan.Options.Read, meta.ModelOptions); err != nil {
+		return err
+	}
+	printSummary(o.IO, res, o.Out)
+	return nil
+}
+
+// runAll runs every step here, shard after shard, through piece files.
+func (o *shardOptions) runAll(ctx context.Context) (err error) {
+	if o.Shards < 1 || o.Shards > 10_000 {
+		return flagErrorf("--shards %d: give a number from 1 to 10,000", o.Shards)
+	}
+	dir := o.Pieces
+	if dir == "" {
+		if dir, err = os.MkdirTemp(filepath.Dir(o.Out), ".cohortmix-pieces-"); err != nil {
+			return fmt.Errorf("--pieces: cannot make a temporary folder beside %s: %w", o.Out, err)
+		}
+		defer os.RemoveAll(dir)
+	} else if err := os.MkdirAll(dir, 0o755); err != nil {
+		return fmt.Errorf("--pieces %s: %w", dir, err)
+	}
+	quiet := o.Flags.Quiet
+	o.Flags.Quiet = true // one summary at the end
+	name := func(kind string, i int) string {
+		if i < 0 {
+			return filepath.Join(dir, kind+".piece")
+		}
+		return filepath.Join(dir, fmt.Sprintf("%s-%d.piece", kind, i+1))
+	}
+	each := func(kind string, step func(shard, piece string) error) ([]string, error) {
+		var out []string
+		for i := 0; i < o.Shards; i++ {
+			if err := step(fmt.Sprintf("%d/%d", i+1, o.Shards), name(kind, i)); err != nil {
+				return nil, err
+			}
+			out = append(out, name(kind, i))
+		}
+		return out, nil
+	}
+	censuses, err := each("census", func(shard, piece string) error { return o.census(ctx, o.Args, shard, piece) })
+	if err != nil {
+		return err
+	}
+	if err := o.plan(censuses, name("plan", -1)); err != nil {
+		return err
+	}
+	samples, err := each("sample", func(shard, piece string) error { return o.sample(name("plan", -1), shard, piece) })
+	if err != nil {
+		return err
+	}
+	if err := o.fit(ctx, name("plan", -1), samples, name("fit", -1)); err != nil {
+		return err
+	}
+	assigned, err := each("assign", func(shard, piece string) error { return o.assign(ctx, name("fit", -1), shard, piece) })
+	if err != nil {
+		return err
+	}
+	o.Flags.Quiet = quiet
+	return o.finish(ctx, name("fit", -1), assigned)
+}

@@ -1,0 +1,90 @@
+package main
+
+import (
+	"bytes"
+	"fmt"
+	"os"
+	"path/filepath"
+	"regexp"
+	"strings"
+	"testing"
+
+	"github.com/cohortmix/cohortmix/cohort/synth"
+)
+
+// workbookText is a workbook's parts as text, without what differs between two runs of the same
+// job: the date of the run, the command line with the height of its row, and the default
+// content types (which the workbook library writes in the order of a map).
+func workbookText(t *testing.T, path string) string {
+	t.Helper()
+	b := string(readZipText(t, path))
+	b = regexp.MustCompile(`\d{4}-\d\d-\d\d \d\d:\d\d:\d\d UTC`).ReplaceAllString(b, "DATE")
+	b = regexp.MustCompile(`cohortmix (group|shard run)[^<]*`).ReplaceAllString(b, "COMMAND")
+	b = regexp.MustCompile(`<Default [^>]*>(</Default>)?`).ReplaceAllString(b, "")
+	return regexp.MustCompile(` ht="[0-9.]+"`).ReplaceAllString(b, "")
+}
+
+// A run split in shards gives the one-machine result bit for bit: members, model (apart from
+// its date) and workbook (apart from date and command line), for 1, 2, 3 and 7 shards, with the
+// windows in memory and in the temporary file. The input has labels, times, participants whose
+// windows sit in two files, one participant with too few windows and a window with a missing
+// cell, so that every piece of the accounting is merged.
+func TestShardsGiveTheOneMachineResult(t *testing.T) {
+	if testing.Short() {
+		t.Skip("runs the job 9 times")
+	}
+	dir := t.TempDir()
+	whole := filepath.Join(dir, "whole.csv")
+	if _, err := synth.WriteFile(whole, synth.Options{Participants: 48, Windows: 300, Seed: 21, Labels: true, Times: true}); err != nil {
+		t.Fatal(err)
+	}
+	b, _ := os.ReadFile(whole)
+	lines := strings.Split(strings.TrimSpace(string(b)), "\n")
+	var a, c strings.Builder
+	a.WriteString(lines[0] + "\n")
+	c.WriteString(lines[0] + "\n")
+	for i, l := range lines[1:] {
+		switch {
+		case strings.HasPrefix(l, "P7,") && i%300 > 10: // too few windows: excluded
+			continue
+		case i == 1000:
+			f := strings.Split(l, ",")
+			f[3] = "NA" // a missing cell: the window is dropped
+			l = strings.Join(f, ",")
+		}
+		if i%300 < 150 || i/300%3 != 0 {
+			a.WriteString(l + "\n")
+		} else {
+			c.WriteString(l + "\n") // the second half of every third participant
+		}
+	}
+	inputs := []string{writeFile(t, dir, "a.csv", a.String()), writeFile(t, dir, "b.csv", c.String())}
+	run := func(name string, args ...string) (members, model []byte, book string) {
+		out, mem, mod := filepath.Join(dir, name+".xlsx"), filepath.Join(dir, name+".csv"), filepath.Join(dir, name+".json")
+		mustRun(t, append(append(args, inputs...), "--out", out, "--members", mem, "--model", mod, "--groups", "2-5", "--states", "3-8", "--bootstrap", "5", "--label", "activity", "--quiet")...)
+		members, _ = os.ReadFile(mem)
+		model, _ = os.ReadFile(mod)
+		return members, regexp.MustCompile(`"created": "[^"]*"`).ReplaceAll(model, nil), workbookText(t, out)
+	}
+	defer func(old int64) { memoryValues = old }(memoryValues)
+	for _, spill := range []int64{0, 2000} {
+		memoryValues = spill
+		members, model, book := run(fmt.Sprintf("one-%d", spill), "group")
+		if !bytes.Contains(members, []byte("P7,")) || !strings.Contains(book, "fewer than the minimum") {
+			t.Fatal("the excluded participant is not in the one-machine result")
+		}
+		for _, n := range []int{1, 2, 3, 7} {
+			name := fmt.Sprintf("shards-%d-%d", n, spill)
+			m, mo, bo := run(name, "shard", "run", "--shards", fmt.Sprint(n), "--pieces", filepath.Join(dir, name))
+			if !bytes.Equal(m, members) {
+				t.Errorf("%d shards, memory %d: the members differ from one machine's", n, spill)
+			}
+			if !bytes.Equal(mo, model) {
+				t.Errorf("%d shards, memory %d: the model differs from one machine's", n, spill)
+			}
+			if bo != book {
+				t.Errorf("%d shards, memory %d: the workbook differs from one machine's", n, spill)
+			}
+		}
+	}
+}
