@@ -106,7 +106,6 @@ func (c *parsedChunk) summarize(d, w int) {
 	}
 }
 
-
 // segment is the windows [previous end, end) of one unit.
 type segment struct {
 	id, wave string
