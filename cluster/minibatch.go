@@ -68,7 +68,7 @@ func MiniBatchKMeans(ctx context.Context, x mat.Matrix, opts MiniBatchOptions) (
 	for i, r := range perm {
 		copy(sample[i*d:(i+1)*d], data[r*d:(r+1)*d])
 	}
-	init, err := KMeans(ctx, mat.NewDense(initSize, d, sample), KMeansOptions{K: k, Restarts: restarts, MaxIter: 20, Seed: opts.Seed ^ 0x9e3779b97f4a7c15, Workers: 1})
+	init, err := KMeans(ctx, mat.NewDense(initSize, d, sample), KMeansOptions{K: k, Restarts: restarts, MaxIter: 20, Seed: SubSeed(opts.Seed, "mini-batch start", 0), Workers: 1})
 	if err != nil {
 		return nil, err
 	}

@@ -301,7 +301,7 @@ func GroupSignatures(ctx context.Context, shares [][]float64, opts GroupOptions)
 // in row order) with their labels for every k.
 func sampleRows(x *mat.Dense, labelsByK map[int][]int, m int, seed uint64) (*mat.Dense, map[int][]int) {
 	n, d := x.Dims()
-	rng := rand.New(rand.NewPCG(seed^0x5a3e, 7))
+	rng := rand.New(rand.NewPCG(cluster.SubSeed(seed, "criteria sample", 0), 1))
 	perm := make([]int, n)
 	for i := range perm {
 		perm[i] = i
@@ -373,7 +373,7 @@ func newCutter(ctx context.Context, m Method, x *mat.Dense, dist *cluster.Conden
 		}, nil
 	default:
 		return func(k int) ([]int, error) {
-			r, err := cluster.KMeans(ctx, x, cluster.KMeansOptions{K: k, Seed: opts.Seed + uint64(k), Workers: opts.Workers})
+			r, err := cluster.KMeans(ctx, x, cluster.KMeansOptions{K: k, Seed: cluster.SubSeed(opts.Seed, "groups k-means", k), Workers: opts.Workers})
 			if err != nil {
 				return nil, err
 			}
@@ -410,7 +410,7 @@ func scoreGap(ctx context.Context, x *mat.Dense, scores []KScore, labelsByK map[
 		if ctx.Err() != nil {
 			return ctx.Err()
 		}
-		rng := rand.New(rand.NewPCG(opts.Seed^0x6a9, uint64(b)))
+		rng := rand.New(rand.NewPCG(cluster.SubSeed(opts.Seed, "gap reference", b), 1))
 		ref := mat.NewDense(n, d, nil)
 		row := make([]float64, p)
 		for i := 0; i < n; i++ {
@@ -430,7 +430,7 @@ func scoreGap(ctx context.Context, x *mat.Dense, scores []KScore, labelsByK map[
 		if m != WardHellinger {
 			m = KMeansCLR
 		}
-		cut, err := newCutter(ctx, m, ref, nil, GroupOptions{Seed: opts.Seed + uint64(b), Workers: opts.Workers})
+		cut, err := newCutter(ctx, m, ref, nil, GroupOptions{Seed: cluster.SubSeed(opts.Seed, "gap reference grouping", b), Workers: opts.Workers})
 		if err != nil {
 			return err
 		}
@@ -497,7 +497,7 @@ func scoreStability(ctx context.Context, x *mat.Dense, dist *cluster.Condensed, 
 		if ctx.Err() != nil {
 			return ctx.Err()
 		}
-		rng := rand.New(rand.NewPCG(opts.Seed^0xb007, uint64(b)))
+		rng := rand.New(rand.NewPCG(cluster.SubSeed(opts.Seed, "bootstrap", b), 1))
 		seen := make([]bool, n)
 		for i := 0; i < n; i++ {
 			seen[rng.IntN(n)] = true
@@ -509,7 +509,7 @@ func scoreStability(ctx context.Context, x *mat.Dense, dist *cluster.Condensed, 
 			}
 		}
 		sub, subDist := subsetRows(x, dist, idx, opts.Method)
-		cut, err := newCutter(ctx, opts.Method, sub, subDist, GroupOptions{Seed: opts.Seed + uint64(b), Workers: opts.Workers})
+		cut, err := newCutter(ctx, opts.Method, sub, subDist, GroupOptions{Seed: cluster.SubSeed(opts.Seed, "bootstrap grouping", b), Workers: opts.Workers})
 		if err != nil {
 			return err
 		}

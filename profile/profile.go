@@ -184,7 +184,7 @@ func FitStates(ctx context.Context, sample *mat.Dense, opts Options) (*States, e
 	var best *cluster.KMeansResult
 	bestCH := math.Inf(-1)
 	for i, k := range opts.States {
-		r, err := cluster.KMeans(ctx, x, cluster.KMeansOptions{K: k, Restarts: candidateRestarts, Seed: opts.Seed + uint64(k), Workers: opts.Workers})
+		r, err := cluster.KMeans(ctx, x, cluster.KMeansOptions{K: k, Restarts: candidateRestarts, Seed: cluster.SubSeed(opts.Seed, "states k-means", k), Workers: opts.Workers})
 		if err != nil {
 			return nil, fmt.Errorf("profile: %w", err)
 		}
@@ -226,7 +226,7 @@ func FitStates(ctx context.Context, sample *mat.Dense, opts Options) (*States, e
 	if candidateRestarts < restarts {
 		// The chosen number gets every restart; its first restarts are the candidate's own
 		// (one PCG stream per restart), so this can only lower the within-state sum of squares.
-		r, err := cluster.KMeans(ctx, x, cluster.KMeansOptions{K: s.K, Restarts: restarts, Seed: opts.Seed + uint64(s.K), Workers: opts.Workers})
+		r, err := cluster.KMeans(ctx, x, cluster.KMeansOptions{K: s.K, Restarts: restarts, Seed: cluster.SubSeed(opts.Seed, "states k-means", s.K), Workers: opts.Workers})
 		if err != nil {
 			return nil, fmt.Errorf("profile: %w", err)
 		}
