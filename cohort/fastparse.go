@@ -136,7 +136,10 @@ func (r *reader) parseBody(br *bufio.Reader, spec *parseSpec, firstLine int, mer
 		lines int
 		quote bool
 	}
-	workers := runtime.GOMAXPROCS(0)
+	workers := r.opts.Workers
+	if workers <= 0 {
+		workers = runtime.GOMAXPROCS(0)
+	}
 	jobs := make(chan job, workers)
 	results := make(chan *parsedChunk, workers)
 	stop := make(chan struct{})

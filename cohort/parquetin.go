@@ -5,6 +5,7 @@ import (
 	"encoding/binary"
 	"errors"
 	"fmt"
+	"github.com/cohortmix/cohortmix/cluster"
 	"io"
 	"math"
 	"os"
@@ -154,7 +155,7 @@ func (r *reader) readParquet(p string) (err error) {
 		k := leaves[roles.order].Node.Type().Kind()
 		intOrder = unit > 0 || k == parquet.Int32 || k == parquet.Int64
 	}
-	spec := &pqSpec{file: p, fileIdx: fileIdx, header: header, roles: roles, unit: unit, intOrder: intOrder, nf: len(r.features), labels: r.hasLabels}
+	spec := &pqSpec{file: p, fileIdx: fileIdx, header: header, roles: roles, unit: unit, intOrder: intOrder, nf: len(r.features), labels: r.hasLabels, workers: r.opts.Workers}
 	rows := 0
 	total := pf.NumRows()
 	emit := func(c *parsedChunk) error {
@@ -201,6 +202,7 @@ type pqSpec struct {
 	intOrder bool          // the order column holds integers (or timestamps)
 	nf       int
 	labels   bool
+	workers  int // goroutines for the columns and rows (0: one per core)
 }
 
 // pqBuffers are the slices one read of rows fills, kept for the next.
@@ -411,7 +413,7 @@ func (s *pqSpec) readRows(cols []int, cursors []*pqCursor, first, n int) (*parse
 		}
 	}
 	found := make([]*pqError, len(cols))
-	onAllCores(len(cols), func(k int) {
+	cluster.Each(len(cols), s.workers, func(k int) {
 		found[k] = s.readColumn(cursors[k], n, cols[k], first, dsts[k], read[k])
 	})
 	// The first problem in row order (then in column order) is the one reported.
@@ -425,7 +427,7 @@ func (s *pqSpec) readRows(cols []int, cursors []*pqCursor, first, n int) (*parse
 	// with a missing cell; the rest of each row is filled in order below.
 	missing := b.missing[:n]
 	const stretch = 4096
-	onAllCores((n+stretch-1)/stretch, func(p int) {
+	cluster.Each((n+stretch-1)/stretch, s.workers, func(p int) {
 		for i := p * stretch; i < min(n, (p+1)*stretch); i++ {
 			row := c.vals[i*w : i*w+s.nf]
 			m := false

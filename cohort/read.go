@@ -61,6 +61,8 @@ type ReadOptions struct {
 	// MemoryValues is how many values the windows may take in memory before they go to a
 	// temporary file in TempDir; 0 means 8 Mi (64 MiB). The result is the same either way.
 	MemoryValues int64
+	// Workers is how many goroutines parse at once (0: one per core); it never changes the table.
+	Workers int
 	// Progress, when set, is told how many bytes of a file were read, of its size (0 when not
 	// known, as for standard input), and how many windows were read from all files so far; it is
 	// called from one goroutine at a time.

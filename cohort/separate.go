@@ -5,6 +5,7 @@ import (
 	"math"
 	"sort"
 
+	"github.com/cohortmix/cohortmix/cluster"
 	"github.com/cohortmix/cohortmix/cluster/groupstat"
 )
 
@@ -52,8 +53,9 @@ func separateOne(v Variable, labels []int, k int) (*Separation, *Note) {
 
 // Separate runs the Kruskal–Wallis test of every variable across the groups, adds BH q-values
 // over all tested variables, and ranks them by ε² (largest first). Variables that cannot be
-// tested (constant, or values in one group only) are returned as notes.
-func Separate(vars []Variable, labels []int, k int) ([]Separation, []Note, error) {
+// tested (constant, or values in one group only) are returned as notes. The variables are
+// tested on workers goroutines at once (0: one per core).
+func Separate(vars []Variable, labels []int, k, workers int) ([]Separation, []Note, error) {
 	for _, v := range vars {
 		if len(v.Values) != len(labels) {
 			return nil, nil, fmt.Errorf("cohort: Separate: %s has %d values for %d participants: %w", v.Name, len(v.Values), len(labels), ErrMismatch)
@@ -62,7 +64,7 @@ func Separate(vars []Variable, labels []int, k int) ([]Separation, []Note, error
 	// The variables are tested on all cores, each on its own; results keep the variables' order.
 	tested := make([]*Separation, len(vars))
 	untested := make([]*Note, len(vars))
-	onAllCores(len(vars), func(i int) {
+	cluster.Each(len(vars), workers, func(i int) {
 		tested[i], untested[i] = separateOne(vars[i], labels, k)
 	})
 	var out []Separation

@@ -4,9 +4,7 @@ import (
 	"context"
 	"fmt"
 	"math"
-	"runtime"
 	"slices"
-	"sync"
 
 	"github.com/cohortmix/cohortmix/cluster"
 	"github.com/cohortmix/cohortmix/cluster/groupstat"
@@ -106,7 +104,7 @@ func FitAligned(ctx context.Context, units [][]float64, fit *normalize.Fit, opts
 		return nil, fmt.Errorf("profile: %d sampled windows for up to %d states: %w; raise --sample or lower --states", total, kmax, ErrData)
 	}
 	logged := make([][]float64, len(units))
-	parallelFor(len(units), opts.Workers, func(u int) { logged[u] = fit.LogInto(nil, units[u]) })
+	cluster.Each(len(units), opts.Workers, func(u int) { logged[u] = fit.LogInto(nil, units[u]) })
 	steps := opts.Starts * (1 + opts.Reseeds)
 	if len(opts.States) > 1 {
 		steps += kmax - opts.States[0]
@@ -250,7 +248,7 @@ type aligner struct {
 }
 
 // each runs f(u) for every unit on all cores; each call writes only what belongs to u.
-func (a *aligner) each(f func(u int)) { parallelFor(len(a.units), a.workers, f) }
+func (a *aligner) each(f func(u int)) { cluster.Each(len(a.units), a.workers, f) }
 
 func (a *aligner) transform() {
 	a.each(func(u int) { a.ys[u] = a.fit.ApplyLoggedInto(a.ys[u], a.units[u], a.devs[u]) })
@@ -665,34 +663,6 @@ func (s *States) assignInto(dst []int, y []float64, dim int) []int {
 		dst[i], _ = cluster.Nearest(raw, s.K, y[i*dim:(i+1)*dim])
 	}
 	return dst
-}
-
-// parallelFor runs f(i) for i in [0, n) on workers goroutines (0: one per core). Each call must
-// write only what belongs to its i, so the result does not depend on the number of workers.
-func parallelFor(n, workers int, f func(i int)) {
-	if workers <= 0 {
-		workers = runtime.GOMAXPROCS(0)
-	}
-	var next int
-	var mu sync.Mutex
-	var wg sync.WaitGroup
-	for w := 0; w < min(workers, n); w++ {
-		wg.Add(1)
-		go func() {
-			defer wg.Done()
-			for {
-				mu.Lock()
-				i := next
-				next++
-				mu.Unlock()
-				if i >= n {
-					return
-				}
-				f(i)
-			}
-		}()
-	}
-	wg.Wait()
 }
 
 // checkStates checks a list of candidate numbers of states.

@@ -116,7 +116,7 @@ var memoryValues int64
 
 // readOptions turns the reading flags into the reader's settings.
 func (m *mainFlags) readOptions() (cohort.ReadOptions, error) {
-	ro := cohort.ReadOptions{ID: m.ID, Order: m.Order, Wave: m.Wave, Label: m.Label, Features: m.Features, MinWindows: m.MinWindows, TempDir: m.Temp, MemoryValues: memoryValues}
+	ro := cohort.ReadOptions{ID: m.ID, Order: m.Order, Wave: m.Wave, Label: m.Label, Features: m.Features, MinWindows: m.MinWindows, TempDir: m.Temp, MemoryValues: memoryValues, Workers: m.Workers}
 	switch m.Missing {
 	case "drop":
 		ro.Missing = cohort.DropWindow

@@ -173,7 +173,7 @@ func TestStagesMatchReference(t *testing.T) {
 			}
 			vars = append(vars, v)
 		}
-		seps, _, err := cohort.Separate(vars, lab, 3)
+		seps, _, err := cohort.Separate(vars, lab, 3, 0)
 		if err != nil {
 			t.Fatal(err)
 		}

@@ -259,7 +259,7 @@ func (o *shardOptions) readShard(ctx context.Context, plan *job.Plan, shard, pie
 		return nil, sh, flagErrorf("--shard %s: the plan is of a run in %d shards; give I/%d", shard, plan.Shards, plan.Shards)
 	}
 	ro := plan.Options.Read
-	ro.Shard, ro.Progress, ro.TempDir = sh, nil, o.Flags.Temp
+	ro.Shard, ro.Progress, ro.TempDir, ro.Workers = sh, nil, o.Flags.Temp, o.Flags.Workers
 	if ro.TempDir == "" {
 		ro.TempDir = filepath.Dir(piece)
 	}

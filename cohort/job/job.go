@@ -73,6 +73,7 @@ type Fitted struct {
 	Atypical []bool
 	// Sensitivity compares the groups with those under other choices (FitTable only).
 	Sensitivity []reports.Sensitivity
+	Workers     int // goroutines for what Describe computes (0: one per core)
 }
 
 // findAxesIn resolves the axis means the align step turns: none, the named features, or, when
@@ -316,7 +317,7 @@ func AssignWindows(ctx context.Context, t *cohort.Table, fit *normalize.Fit, sta
 	for i, u := range t.Units {
 		units[i] = UnitInfo{ID: u.ID, Wave: u.Wave, Ordinal: u.Ordinal, Windows: u.Windows()}
 	}
-	f := &Fitted{Table: t, Fit: fit, States: states}
+	f := &Fitted{Table: t, Fit: fit, States: states, Workers: workers}
 	return f, mergeAssigned(f, units, []*AssignPiece{ap})
 }
 
@@ -365,7 +366,7 @@ func Describe(f *Fitted, stateNames, groupNames []string) (*reports.Result, erro
 			tested[j].Values[r] = v.Values[i]
 		}
 	}
-	if res.Separations, res.NotTested, err = cohort.Separate(tested, labels, g.K); err != nil {
+	if res.Separations, res.NotTested, err = cohort.Separate(tested, labels, g.K, f.Workers); err != nil {
 		return nil, err
 	}
 	res.AtypicalCut = percentile(g.Distance, 0.99)

@@ -229,15 +229,18 @@ func selectColumns(rows []float64, d int, cols []int) []float64 {
 	return out
 }
 
-// sameOptions reports whether two runs' settings agree (progress reporting aside).
+// sameOptions reports whether two runs' settings agree (progress reporting, folders and workers
+// aside, which never change the result).
 func sameOptions(a, b Options) bool {
 	a.Read.Shard, b.Read.Shard = cohort.Shard{}, cohort.Shard{}
 	return fmt.Sprintf("%+v", a.typed()) == fmt.Sprintf("%+v", b.typed())
 }
 
-// typed is the options without the functions that report progress.
+// typed is the options without the functions that report progress, the temporary folder and
+// the workers.
 func (o Options) typed() Options {
 	o.Progress, o.Passes, o.Steps, o.Read.Progress, o.Norm.Keep, o.Norm.Progress = nil, nil, nil, nil, nil, nil
+	o.Workers, o.Read.Workers, o.Norm.Workers, o.Read.TempDir = 0, 0, 0, ""
 	return o
 }
 
@@ -605,7 +608,7 @@ func Finish(ctx context.Context, fp *FitPiece, parts []*AssignPiece) (*Fitted, e
 	if err := checkShards(KindAssign, shards, p.Shards); err != nil {
 		return nil, err
 	}
-	f := &Fitted{Table: t, Fit: fp.Fit, States: fp.States, Notes: fp.Notes, Window: p.Window, WindowSource: p.WindowSource}
+	f := &Fitted{Table: t, Fit: fp.Fit, States: fp.States, Notes: fp.Notes, Window: p.Window, WindowSource: p.WindowSource, Workers: o.Workers}
 	if err := mergeAssigned(f, p.Units, parts); err != nil {
 		return nil, err
 	}

@@ -1,0 +1,103 @@
+package cluster
+
+import (
+	"context"
+	"sync"
+)
+
+// Each calls f(0), …, f(n−1), each once, on workers goroutines at once (0 means one per core),
+// and returns when all are done. Each call must write only what belongs to its index, so that
+// the result does not depend on the number of workers.
+func Each(n, nWorkers int, f func(i int)) {
+	_ = Ordered(context.Background(), n, nWorkers, func(i, _ int) (struct{}, error) {
+		f(i)
+		return struct{}{}, nil
+	}, nil)
+}
+
+// Slots is how many results Ordered lets run ahead of consume with this many workers: the
+// number of buffers a caller that reuses them needs (Ordered's slot).
+func Slots(w int) int { return 4 * workers(w) }
+
+// Ordered runs work(i) for i in [0, n) on workers goroutines at once (0 means one per core) and
+// hands each result to consume (when not nil), one at a time and in index order, so that what
+// consume accumulates is the same on any number of cores. At most Slots(workers) indices are
+// taken and not yet consumed at any time, and slot = i mod Slots(workers): the result of the
+// index before i in the same slot has been consumed when work(i) starts, so a buffer per slot
+// can be reused. It stops at the first error, or when ctx is cancelled.
+func Ordered[R any](ctx context.Context, n, nWorkers int, work func(i, slot int) (R, error), consume func(i int, r R) error) error {
+	w := workers(nWorkers)
+	ahead := Slots(nWorkers)
+	type result struct {
+		i   int
+		r   R
+		err error
+	}
+	tokens := make(chan struct{}, ahead) // a token is an index taken and not yet consumed
+	results := make(chan result, ahead)
+	stop := make(chan struct{})
+	var mu sync.Mutex
+	next := 0
+	var wg sync.WaitGroup
+	for g := 0; g < min(w, n); g++ {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			for {
+				select {
+				case tokens <- struct{}{}:
+				case <-stop:
+					return
+				}
+				mu.Lock()
+				i := next
+				next++
+				mu.Unlock()
+				if i >= n {
+					return
+				}
+				r, err := work(i, i%ahead)
+				select {
+				case results <- result{i, r, err}:
+				case <-stop:
+					return
+				}
+			}
+		}()
+	}
+	go func() { wg.Wait(); close(results) }()
+	defer func() {
+		close(stop)
+		for range results { // let the workers finish
+		}
+	}()
+	pending := make(map[int]result, ahead)
+	for want := 0; want < n; {
+		res, ok := <-results
+		if !ok {
+			break
+		}
+		pending[res.i] = res
+		for {
+			res, ok := pending[want]
+			if !ok {
+				break
+			}
+			delete(pending, want)
+			if res.err != nil {
+				return res.err
+			}
+			if err := ctx.Err(); err != nil {
+				return err
+			}
+			if consume != nil {
+				if err := consume(want, res.r); err != nil {
+					return err
+				}
+			}
+			want++
+			<-tokens
+		}
+	}
+	return ctx.Err()
+}
