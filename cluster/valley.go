@@ -2,6 +2,8 @@ package cluster
 
 import (
 	"fmt"
+
+	"github.com/cohortmix/cohortmix/cluster/groupstat"
 	"math"
 	"slices"
 
@@ -76,7 +78,7 @@ func Valley(a, b mat.Matrix) (float64, error) {
 		ss += (v - mean) * (v - mean)
 	}
 	sd := math.Sqrt(ss / (n - 1))
-	iqr := quantileSorted(all, 0.75) - quantileSorted(all, 0.25)
+	iqr := groupstat.QuantileSorted(all, 0.75) - groupstat.QuantileSorted(all, 0.25)
 	spread := sd
 	if iqr > 0 {
 		spread = math.Min(sd, iqr/1.34)
@@ -137,17 +139,7 @@ func colMeans(data []float64, n, d int) []float64 {
 // median of xs, which it reorders.
 func median(xs []float64) float64 {
 	slices.Sort(xs)
-	return quantileSorted(xs, 0.5)
-}
-
-// quantileSorted is the p-quantile of sorted xs by linear interpolation (numpy's default).
-func quantileSorted(xs []float64, p float64) float64 {
-	h := p * float64(len(xs)-1)
-	i := int(h)
-	if i+1 >= len(xs) {
-		return xs[len(xs)-1]
-	}
-	return xs[i] + (h-float64(i))*(xs[i+1]-xs[i])
+	return groupstat.QuantileSorted(xs, 0.5)
 }
 
 func abs(k int) int {

@@ -2,6 +2,7 @@ package reports
 
 import (
 	"fmt"
+	"github.com/cohortmix/cohortmix/cluster/groupstat"
 	"math"
 	"sort"
 
@@ -318,29 +319,24 @@ func (w *cellWriter) set(col, row int, val any, style int) {
 	}
 }
 
-// groupMeans returns each group's mean shares, size and mean silhouette.
+// groupMeans returns each group's mean shares, size and mean silhouette, over the units in a
+// group (atypical units are in none).
 func groupMeans(r *Result) ([][]float64, []int, []float64) {
-	g, k := len(r.GroupNames), r.States.K
-	shares := make([][]float64, g)
-	for i := range shares {
-		shares[i] = make([]float64, k)
-	}
-	sizes := make([]int, g)
-	sils := make([]float64, g)
-	for _, u := range r.Units {
-		sizes[u.Group]++
-		sils[u.Group] += u.Silhouette
-		for s := 0; s < k; s++ {
-			shares[u.Group][s] += u.Share[s]
+	shares, sils := make([][]float64, len(r.Units)), make([][]float64, len(r.Units))
+	labels := make([]int, len(r.Units))
+	for i, u := range r.Units {
+		shares[i], sils[i], labels[i] = u.Share, []float64{u.Silhouette}, u.Group
+		if u.Atypical {
+			labels[i] = -1
 		}
 	}
-	for i := 0; i < g; i++ {
-		for s := 0; s < k; s++ {
-			shares[i][s] /= float64(sizes[i])
-		}
-		sils[i] /= float64(sizes[i])
+	means, sizes := groupstat.GroupMeans(shares, labels, len(r.GroupNames))
+	silMeans, _ := groupstat.GroupMeans(sils, labels, len(r.GroupNames))
+	out := make([]float64, len(silMeans))
+	for g, m := range silMeans {
+		out[g] = m[0]
 	}
-	return shares, sizes, sils
+	return means, sizes, out
 }
 
 // stateVariables are the features that drive the states most, at most n, in feature order.

@@ -8,6 +8,7 @@ import (
 	"math/rand/v2"
 	"os"
 	"path/filepath"
+	"slices"
 	"sort"
 	"strings"
 	"testing"
@@ -266,5 +267,34 @@ func TestCliffsDeltaVsRestMatchesPairwise(t *testing.T) {
 				t.Fatalf("trial %d, group %d of %d: %v, CliffsDelta against the rest %v", trial, g, k, got[g], want)
 			}
 		}
+	}
+}
+
+// Quantiles as numpy.quantile gives them with its default linear method (numpy 1.24, Debian's
+// python3-numpy): np.quantile([3, 1, 4, 1, 5, 9, 2, 6], [0, 0.1, 0.25, 0.5, 0.99, 1]) =
+// [1, 1, 1.75, 3.5, 8.79, 9]; NaN is left out here (numpy.nanquantile).
+func TestQuantileMatchesNumpy(t *testing.T) {
+	xs := []float64{3, 1, 4, 1, 5, 9, 2, 6, math.NaN()}
+	for _, c := range []struct{ p, want float64 }{{0, 1}, {0.1, 1}, {0.25, 1.75}, {0.5, 3.5}, {0.99, 8.79}, {1, 9}} {
+		if got := Quantile(xs, c.p); math.Abs(got-c.want) > 1e-12 {
+			t.Errorf("quantile %v: %v, numpy %v", c.p, got, c.want)
+		}
+	}
+	if !math.IsNaN(Quantile([]float64{math.NaN()}, 0.5)) || !math.IsNaN(xs[8]) || xs[0] != 3 {
+		t.Error("Quantile of no number is not NaN, or the input was changed")
+	}
+}
+
+func TestGroupMeans(t *testing.T) {
+	rows := [][]float64{{1, 10}, {3, 30}, {5, 50}, {100, 100}}
+	means, sizes := GroupMeans(rows, []int{0, 0, 1, -1}, 3)
+	want := [][]float64{{2, 20}, {5, 50}, {0, 0}}
+	for g := range want {
+		if !slices.Equal(means[g], want[g]) {
+			t.Errorf("group %d: %v, want %v", g, means[g], want[g])
+		}
+	}
+	if !slices.Equal(sizes, []int{2, 1, 0}) {
+		t.Errorf("sizes %v", sizes)
 	}
 }

@@ -3,6 +3,7 @@ package main
 import (
 	"context"
 	"fmt"
+	"github.com/cohortmix/cohortmix/cluster/groupstat"
 	"github.com/cohortmix/cohortmix/cohort/job"
 	"math"
 	"strconv"
@@ -150,24 +151,12 @@ func sameFeatures(a, b []string) bool {
 
 // meanShares is each new group's mean signature.
 func meanShares(f *job.Fitted) [][]float64 {
-	out := make([][]float64, f.Grouping.K)
-	n := make([]float64, f.Grouping.K)
-	for g := range out {
-		out[g] = make([]float64, f.States.K)
-	}
+	shares := make([][]float64, len(f.Sigs))
 	for i, s := range f.Sigs {
-		l := f.Grouping.Labels[i]
-		n[l]++
-		for j, v := range s.Share {
-			out[l][j] += v
-		}
+		shares[i] = s.Share
 	}
-	for g := range out {
-		for j := range out[g] {
-			out[g][j] /= math.Max(1, n[g])
-		}
-	}
-	return out
+	means, _ := groupstat.GroupMeans(shares, f.Grouping.Labels, f.Grouping.K)
+	return means
 }
 
 // refreshChanges records the fate of each group and state and who moved.

@@ -2,7 +2,9 @@ package job
 
 import (
 	"context"
+
 	"fmt"
+	"github.com/cohortmix/cohortmix/cluster/groupstat"
 	"math"
 	"slices"
 	"sort"
@@ -351,7 +353,7 @@ func Describe(f *Fitted, stateNames, groupNames []string) (*reports.Result, erro
 			v.Values = append(v.Values, f.Medians[i][j])
 		}
 		vars = append(vars, v)
-		res.FeatureRange = append(res.FeatureRange, [3]float64{percentile(v.Values, 0.01), percentile(v.Values, 0.5), percentile(v.Values, 0.99)})
+		res.FeatureRange = append(res.FeatureRange, [3]float64{groupstat.Quantile(v.Values, 0.01), groupstat.Quantile(v.Values, 0.5), groupstat.Quantile(v.Values, 0.99)})
 	}
 	rows, basis := separationRows(t.Units, f.Atypical)
 	res.SeparationBasis = basis
@@ -369,7 +371,7 @@ func Describe(f *Fitted, stateNames, groupNames []string) (*reports.Result, erro
 	if res.Separations, res.NotTested, err = cohort.Separate(tested, labels, g.K, f.Workers); err != nil {
 		return nil, err
 	}
-	res.AtypicalCut = percentile(g.Distance, 0.99)
+	res.AtypicalCut = groupstat.Quantile(g.Distance, 0.99)
 	for i, u := range t.Units {
 		row := reports.UnitRow{ID: u.ID, Wave: u.Wave, Windows: sigs[i].Windows, Group: g.Labels[i],
 			Silhouette: g.Silhouette[i], Distance: g.Distance[i], Share: sigs[i].Share, Bout: sigs[i].MeanBout, Stay: math.NaN(), Turn: math.NaN()}
@@ -439,39 +441,28 @@ func separationRows(units []*cohort.Unit, atypical []bool) ([]int, string) {
 // people apart.
 func groupLines(g *cohort.Grouping, sigs []profile.Signature, stateNames []string, units []*cohort.Unit, atypical []bool, window time.Duration) []string {
 	k := len(sigs[0].Share)
-	meanShare := make([]float64, k)
-	meanBout := make([]float64, k)
-	grouped, waves := 0.0, false
+	shares, bouts := make([][]float64, len(sigs)), make([][]float64, len(sigs))
+	groups, all := make([]int, len(sigs)), make([]int, len(sigs)) // atypical units: -1, in no group
+	waves := false
 	for i, s := range sigs {
 		waves = waves || units[i].Wave != ""
+		shares[i], bouts[i], groups[i] = s.Share, s.MeanBout, g.Labels[i]
 		if atypical != nil && atypical[i] {
-			continue
-		}
-		grouped++
-		for j := 0; j < k; j++ {
-			meanShare[j] += s.Share[j]
-			meanBout[j] += s.MeanBout[j]
+			groups[i], all[i] = -1, -1
 		}
 	}
-	for j := 0; j < k; j++ {
-		meanShare[j] /= max(1, grouped)
-		meanBout[j] /= max(1, grouped)
-	}
+	overShares, _ := groupstat.GroupMeans(shares, all, 1)
+	overBouts, _ := groupstat.GroupMeans(bouts, all, 1)
+	meanShare, meanBout := overShares[0], overBouts[0]
+	groupShares, sizes := groupstat.GroupMeans(shares, groups, g.K)
+	groupBouts, _ := groupstat.GroupMeans(bouts, groups, g.K)
 	lines := make([]string, g.K)
 	for c := 0; c < g.K; c++ {
-		share := make([]float64, k)
-		bout := make([]float64, k)
-		n := 0.0
+		share, bout, n := groupShares[c], groupBouts[c], float64(sizes[c])
 		people := map[string]bool{}
-		for i, s := range sigs {
-			if g.Labels[i] != c || atypical != nil && atypical[i] {
-				continue
-			}
-			n++
-			people[units[i].ID] = true
-			for j := 0; j < k; j++ {
-				share[j] += s.Share[j]
-				bout[j] += s.MeanBout[j]
+		for i := range sigs {
+			if groups[i] == c {
+				people[units[i].ID] = true
 			}
 		}
 		type diff struct {
@@ -480,8 +471,6 @@ func groupLines(g *cohort.Grouping, sigs []profile.Signature, stateNames []strin
 		}
 		var ds, db []diff
 		for j := 0; j < k; j++ {
-			share[j] /= n
-			bout[j] /= n
 			if meanShare[j] > 0 {
 				ds = append(ds, diff{j, share[j]/meanShare[j] - 1})
 			}
@@ -543,24 +532,4 @@ func boutText(windows float64, window time.Duration) string {
 		return fmt.Sprintf("%.3g min", windows*window.Minutes())
 	}
 	return fmt.Sprintf("%.3g windows", windows)
-}
-
-// percentile is the p-quantile of xs by linear interpolation (NaN values ignored).
-func percentile(xs []float64, p float64) float64 {
-	s := make([]float64, 0, len(xs))
-	for _, v := range xs {
-		if !math.IsNaN(v) {
-			s = append(s, v)
-		}
-	}
-	if len(s) == 0 {
-		return math.NaN()
-	}
-	sort.Float64s(s)
-	h := p * float64(len(s)-1)
-	lo := int(h)
-	if lo+1 >= len(s) {
-		return s[len(s)-1]
-	}
-	return s[lo] + (h-float64(lo))*(s[lo+1]-s[lo])
 }
