@@ -151,7 +151,7 @@ func SpaceDistance(m Method, a, b []float64) float64 {
 func GroupSignatures(ctx context.Context, shares [][]float64, opts GroupOptions) (*Grouping, error) {
 	n := len(shares)
 	if len(opts.Groups) == 0 {
-		return nil, fmt.Errorf("cohort: no number of groups given: %w; pass --groups 3 or a range such as 2-8", ErrBadOption)
+		return nil, fmt.Errorf("cohort: no number of groups given: %w; set cohort.GroupOptions.Groups to 3 or a range such as 2-8", ErrBadOption)
 	}
 	for i, k := range opts.Groups {
 		if k < 2 || (i > 0 && k <= opts.Groups[i-1]) {
@@ -159,7 +159,7 @@ func GroupSignatures(ctx context.Context, shares [][]float64, opts GroupOptions)
 		}
 	}
 	if maxK := opts.Groups[len(opts.Groups)-1]; maxK > n-1 {
-		return nil, fmt.Errorf("cohort: %d groups asked for but %d participants are grouped: %w; lower --groups to at most %d", maxK, n, ErrTooFew, max(2, n-1))
+		return nil, fmt.Errorf("cohort: %d groups asked for but %d participants are grouped: %w; lower cohort.GroupOptions.Groups to at most %d", maxK, n, ErrTooFew, max(2, n-1))
 	}
 	if opts.Bootstrap == 0 {
 		opts.Bootstrap = 20
@@ -172,7 +172,7 @@ func GroupSignatures(ctx context.Context, shares [][]float64, opts GroupOptions)
 		opts.Method = WardHellinger
 		if n > LargeCohort {
 			opts.Method = KMeansCLR
-			note = fmt.Sprintf("%s participants are more than %s: they were grouped by k-means on the centred log-ratios, which scales, instead of Ward linkage (pass --method ward-hellinger to insist)", Thousands(n), Thousands(LargeCohort))
+			note = fmt.Sprintf("%s participants are more than %s: they were grouped by k-means on the centred log-ratios, which scales, instead of Ward linkage (set cohort.GroupOptions.Method ward-hellinger to insist)", Thousands(n), Thousands(LargeCohort))
 		}
 	}
 	g := &Grouping{Method: opts.Method, Criterion: opts.Criterion, Note: note}
@@ -201,7 +201,7 @@ func GroupSignatures(ctx context.Context, shares [][]float64, opts GroupOptions)
 			return nil, err
 		}
 	} else if needDist {
-		return nil, fmt.Errorf("cohort: %d participants need %d MiB of distances for PAM: %w; use --method kmeans-clr or ward-hellinger for a cohort this large", n, cluster.CondensedBytes(n)>>20, cluster.ErrTooLarge)
+		return nil, fmt.Errorf("cohort: %d participants need %d MiB of distances for PAM: %w; use cohort.GroupOptions.Method kmeans-clr or ward-hellinger for a cohort this large", n, cluster.CondensedBytes(n)>>20, cluster.ErrTooLarge)
 	}
 	if opts.Method == WardHellinger {
 		tree, err := cluster.WardPoints(ctx, x, cluster.WardOptions{Workers: opts.Workers})

@@ -112,13 +112,13 @@ func (r *reader) readParquet(p string) (err error) {
 				keep = append(keep, c)
 				r.features = append(r.features, header[c])
 			} else if len(r.opts.Features) > 0 {
-				return &InputError{File: p, Column: c + 1, Field: header[c], Msg: fmt.Sprintf("is %s, not a number, but --features chose it; choose numeric columns", kindName(c)), Err: ErrNotNumber}
+				return &InputError{File: p, Column: c + 1, Field: header[c], Msg: fmt.Sprintf("is %s, not a number, but cohort.ReadOptions.Features chose it; choose numeric columns", kindName(c)), Err: ErrNotNumber}
 			} else {
 				r.ignored = append(r.ignored, Note{header[c], fmt.Sprintf("%s column, not a feature", kindName(c))})
 			}
 		}
 		if len(keep) == 0 {
-			return &InputError{File: p, Msg: "no numeric feature columns; check --features", Err: ErrNoColumn}
+			return &InputError{File: p, Msg: "no numeric feature columns; check cohort.ReadOptions.Features", Err: ErrNoColumn}
 		}
 		roles.features = keep
 	} else {

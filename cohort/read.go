@@ -789,20 +789,20 @@ func (r *reader) assignRoles(p string, header []string) (roles, error) {
 				continue
 			}
 			if len(r.opts.Features) > 0 && !matchAny(r.opts.Features, h) {
-				r.ignored = append(r.ignored, Note{h, "not matched by --features"})
+				r.ignored = append(r.ignored, Note{h, "not matched by cohort.ReadOptions.Features"})
 				continue
 			}
 			ro.features = append(ro.features, i)
 		}
 		if len(ro.features) == 0 {
-			return ro, &InputError{File: p, Line: 1, Msg: "no feature columns besides the id, order, wave and label columns; check --features and the delimiter", Err: ErrNoColumn}
+			return ro, &InputError{File: p, Line: 1, Msg: "no feature columns besides the id, order, wave and label columns; check cohort.ReadOptions.Features and the delimiter", Err: ErrNoColumn}
 		}
 		return ro, nil
 	}
 	for _, f := range r.features {
 		i, ok := seen[f]
 		if !ok {
-			return ro, &InputError{File: p, Line: 1, Field: f, Msg: fmt.Sprintf("feature is in %s but not in this file; add the column, or leave it out of both with --features", r.firstFile), Err: ErrMismatch}
+			return ro, &InputError{File: p, Line: 1, Field: f, Msg: fmt.Sprintf("feature is in %s but not in this file; add the column, or leave it out of both with cohort.ReadOptions.Features", r.firstFile), Err: ErrMismatch}
 		}
 		ro.features = append(ro.features, i)
 	}
@@ -811,7 +811,7 @@ func (r *reader) assignRoles(p string, header []string) (roles, error) {
 			continue
 		}
 		if len(r.opts.Features) == 0 || matchAny(r.opts.Features, h) {
-			return ro, &InputError{File: p, Line: 1, Field: h, Msg: fmt.Sprintf("column is in this file but not in %s; remove it, or choose the features with --features", r.firstFile), Err: ErrMismatch}
+			return ro, &InputError{File: p, Line: 1, Field: h, Msg: fmt.Sprintf("column is in this file but not in %s; remove it, or choose the features with cohort.ReadOptions.Features", r.firstFile), Err: ErrMismatch}
 		}
 	}
 	return ro, nil
@@ -836,7 +836,7 @@ func (r *reader) classify(p string, pos func(int) (int, int), header, rec []stri
 		if errors.Is(err, ErrNotNumber) {
 			if len(r.opts.Features) > 0 {
 				l, c := pos(col)
-				return &InputError{File: p, Line: l, Column: c, Field: header[col], Msg: numberMsg(rec[col], delim, err) + "; --features chose this column", Err: err}
+				return &InputError{File: p, Line: l, Column: c, Field: header[col], Msg: numberMsg(rec[col], delim, err) + "; cohort.ReadOptions.Features chose this column", Err: err}
 			}
 			r.ignored = append(r.ignored, Note{header[col], fmt.Sprintf("text (first value %q), not a feature", rec[col])})
 			continue
@@ -845,7 +845,7 @@ func (r *reader) classify(p string, pos func(int) (int, int), header, rec []stri
 		r.features = append(r.features, header[col])
 	}
 	if len(keep) == 0 {
-		return &InputError{File: p, Line: 2, Msg: "no numeric feature columns; check the delimiter and --features", Err: ErrNoColumn}
+		return &InputError{File: p, Line: 2, Msg: "no numeric feature columns; check the delimiter and cohort.ReadOptions.Features", Err: ErrNoColumn}
 	}
 	ro.features = keep
 	return nil
@@ -895,7 +895,7 @@ func numberMsg(cell string, delim rune, err error) string {
 	if delim != ';' && strings.Contains(cell, ",") {
 		return fmt.Sprintf("%q is not a number; use '.' as the decimal separator, or pass a semicolon file", cell)
 	}
-	return fmt.Sprintf("%q is not a number; feature cells hold numbers, or are empty or NA when missing (leave text columns out with --features)", cell)
+	return fmt.Sprintf("%q is not a number; feature cells hold numbers, or are empty or NA when missing (leave text columns out with cohort.ReadOptions.Features)", cell)
 }
 
 var timeLayouts = []string{time.RFC3339Nano, "2006-01-02T15:04:05", "2006-01-02 15:04:05", "2006-01-02T15:04", "2006-01-02 15:04"}
@@ -1011,7 +1011,7 @@ func (r *reader) finish() (*Table, error) {
 		if !ru.unsorted && ru.missing == 0 && (len(ru.runs) == 1 || len(ru.runs)*minStretch <= n) {
 			if n < r.opts.MinWindows {
 				q.Excluded = append(q.Excluded, Exclusion{ID: u.ID, Wave: u.Wave, Ordinal: u.Ordinal, Windows: n,
-					Reason: fmt.Sprintf("%d usable windows, fewer than the minimum %d (--min-windows)", n, r.opts.MinWindows)})
+					Reason: fmt.Sprintf("%d usable windows, fewer than the minimum %d (cohort.ReadOptions.MinWindows)", n, r.opts.MinWindows)})
 				q.WindowsExcluded += n
 				continue
 			}
@@ -1096,7 +1096,7 @@ func (r *reader) finish() (*Table, error) {
 		}
 		kept := len(clean) / w
 		if reason == "" && kept < r.opts.MinWindows {
-			reason = fmt.Sprintf("%d usable windows, fewer than the minimum %d (--min-windows)", kept, r.opts.MinWindows)
+			reason = fmt.Sprintf("%d usable windows, fewer than the minimum %d (cohort.ReadOptions.MinWindows)", kept, r.opts.MinWindows)
 			if u.Dropped > 0 {
 				reason += fmt.Sprintf("; %d dropped for missing cells", u.Dropped)
 			}

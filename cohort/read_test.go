@@ -97,11 +97,11 @@ func TestReadErrors(t *testing.T) {
 		{"gzip cut short", map[string][]byte{"a.csv.gz": gz([]byte(rowsOf(400, ",")))[:300]}, ReadOptions{},
 			`a.csv.gz: compressed file is cut short or damaged (unexpected EOF); copy it again from the source`, ErrNotText},
 		{"feature missing in second file", map[string][]byte{"a.csv": []byte(good), "b.csv": []byte("participant,window,f1\nC,0,1\n")}, ReadOptions{},
-			`b.csv:1: f2: feature is in a.csv but not in this file; add the column, or leave it out of both with --features`, ErrMismatch},
+			`b.csv:1: f2: feature is in a.csv but not in this file; add the column, or leave it out of both with cohort.ReadOptions.Features`, ErrMismatch},
 		{"text in one file, numeric in another", map[string][]byte{"a.csv": []byte(good), "b.csv": []byte("participant,window,f1,f2\nC,0,low,1\n")}, ReadOptions{},
-			`b.csv:2:5: f1: "low" is not a number; feature cells hold numbers, or are empty or NA when missing (leave text columns out with --features) (it is numeric in a.csv)`, ErrNotNumber},
+			`b.csv:2:5: f1: "low" is not a number; feature cells hold numbers, or are empty or NA when missing (leave text columns out with cohort.ReadOptions.Features) (it is numeric in a.csv)`, ErrNotNumber},
 		{"feature chosen but text", map[string][]byte{"a.csv": []byte("participant,window,site\nA,0,north\n")}, ReadOptions{Features: []string{"site"}},
-			`a.csv:2:5: site: "north" is not a number; feature cells hold numbers, or are empty or NA when missing (leave text columns out with --features); --features chose this column`, ErrNotNumber},
+			`a.csv:2:5: site: "north" is not a number; feature cells hold numbers, or are empty or NA when missing (leave text columns out with cohort.ReadOptions.Features); cohort.ReadOptions.Features chose this column`, ErrNotNumber},
 	}
 	for _, c := range cases {
 		t.Run(c.name, func(t *testing.T) {

@@ -63,7 +63,7 @@ func (s *store) append(vals []float64) error {
 	if s.file == nil {
 		f, err := os.CreateTemp(s.dir, ".cohortmix-windows-*.tmp")
 		if err != nil {
-			return fmt.Errorf("cohort: cannot create a temporary file for the windows in %s: %w; pass --temp with a writable folder", s.dir, err)
+			return fmt.Errorf("cohort: cannot create a temporary file for the windows in %s: %w; name a writable folder in cohort.ReadOptions.TempDir", s.dir, err)
 		}
 		s.file, s.w = f, bufio.NewWriterSize(f, 1<<20)
 		for _, seg := range s.mem {
@@ -89,7 +89,7 @@ func (s *store) writeValues(vals []float64) error {
 	b := s.enc[:rows*rb]
 	encodeRows(b, vals, w)
 	if _, err := s.w.Write(b); err != nil {
-		return fmt.Errorf("cohort: writing the temporary windows file in %s: %w; free disk space or pass --temp", s.dir, err)
+		return fmt.Errorf("cohort: writing the temporary windows file in %s: %w; free disk space or name another folder in cohort.ReadOptions.TempDir", s.dir, err)
 	}
 	return nil
 }
@@ -115,7 +115,7 @@ func (s *store) flush() error {
 		return nil
 	}
 	if err := s.w.Flush(); err != nil {
-		return fmt.Errorf("cohort: writing the temporary windows file in %s: %w; free disk space or pass --temp", s.dir, err)
+		return fmt.Errorf("cohort: writing the temporary windows file in %s: %w; free disk space or name another folder in cohort.ReadOptions.TempDir", s.dir, err)
 	}
 	s.flushed = s.n
 	return nil

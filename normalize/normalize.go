@@ -481,7 +481,7 @@ func FitBlocks(ctx context.Context, features []string, blocks Blocks, opts Optio
 	}
 	for j, s := range f.Spread {
 		if !(s > 0) {
-			return nil, fmt.Errorf("normalize: feature %s has no spread across the cohort after the within-participant step: %w; leave it out with --features or use --within none", features[j], ErrData)
+			return nil, fmt.Errorf("normalize: feature %s has no spread across the cohort after the within-participant step: %w; leave it out with cohort.ReadOptions.Features or use normalize.Options.Within none", features[j], ErrData)
 		}
 	}
 	if opts.NoPCA {
@@ -548,7 +548,7 @@ func (f *Fit) fitBaselineRule(ctx context.Context, blocks Blocks, opts Options) 
 		all = all && t
 	}
 	if opts.Within == WithinRobustZ && all {
-		f.Warnings = append(f.Warnings, "within-participant robust z-scoring touches every feature: it erases the between-participant level differences that signatures rely on; restrict it with --within-features")
+		f.Warnings = append(f.Warnings, "within-participant robust z-scoring touches every feature: it erases the between-participant level differences that signatures rely on; restrict it with normalize.Options.WithinFeatures")
 	}
 	// The quiet score ranks a participant's windows by the cohort-scaled mean of the untouched
 	// features (all features when every one is touched).

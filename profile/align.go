@@ -101,7 +101,7 @@ func FitAligned(ctx context.Context, units [][]float64, fit *normalize.Fit, opts
 		total += len(x) / d
 	}
 	if total < 2*kmax {
-		return nil, fmt.Errorf("profile: %d sampled windows for up to %d states: %w; raise --sample or lower --states", total, kmax, ErrData)
+		return nil, fmt.Errorf("profile: %d sampled windows for up to %d states: %w; raise job.Options.Sample or lower profile.AlignOptions.States", total, kmax, ErrData)
 	}
 	logged := make([][]float64, len(units))
 	cluster.Each(len(units), opts.Workers, func(u int) { logged[u] = fit.LogInto(nil, units[u]) })
@@ -668,7 +668,7 @@ func (s *States) assignInto(dst []int, y []float64, dim int) []int {
 // checkStates checks a list of candidate numbers of states.
 func checkStates(states []int) error {
 	if len(states) == 0 {
-		return fmt.Errorf("profile: no number of states given: %w; pass --states 6 or a range such as 2-12", ErrOption)
+		return fmt.Errorf("profile: no number of states given: %w; set profile.AlignOptions.States to 6 or a range such as 2-12", ErrOption)
 	}
 	for i, k := range states {
 		if k < 2 || (i > 0 && k <= states[i-1]) {

@@ -147,7 +147,7 @@ func FitStates(ctx context.Context, sample *mat.Dense, opts Options) (*States, e
 	}
 	maxK := opts.States[len(opts.States)-1]
 	if n < 2*maxK {
-		return nil, fmt.Errorf("profile: %d sampled windows for up to %d states: %w; raise --sample or lower --states", n, maxK, ErrData)
+		return nil, fmt.Errorf("profile: %d sampled windows for up to %d states: %w; raise job.Options.Sample or lower profile.Options.States", n, maxK, ErrData)
 	}
 	x := sample
 	// Validity indices on a fixed sub-sample, the same for every candidate.
@@ -246,7 +246,7 @@ func fitByValley(ctx context.Context, sample *mat.Dense, opts Options) (*States,
 	}
 	kmax := opts.States[len(opts.States)-1]
 	if n < 2*kmax {
-		return nil, fmt.Errorf("profile: %d sampled windows for up to %d states: %w; raise --sample or lower --states", n, kmax, ErrData)
+		return nil, fmt.Errorf("profile: %d sampled windows for up to %d states: %w; raise job.Options.Sample or lower profile.Options.States", n, kmax, ErrData)
 	}
 	if opts.Valley == 0 {
 		opts.Valley = DefaultValley

@@ -18,7 +18,7 @@ func CheckTarget(path string, force bool) error {
 			return fmt.Errorf("%s: is a directory: %w; name a file", path, ErrExists)
 		}
 		if !force {
-			return fmt.Errorf("%s: %w; pass --force to replace it, or choose another name", path, ErrExists)
+			return fmt.Errorf("%s: %w; set reports.WriteAtomic force to replace it, or choose another name", path, ErrExists)
 		}
 	}
 	return nil

@@ -177,22 +177,22 @@ func ParseModel(name string, b []byte) (*Model, error) {
 		Version int    `json:"version"`
 	}
 	if err := json.Unmarshal(b, &head); err != nil {
-		return nil, fmt.Errorf("%s: not a model file (%v): %w; pass the .json file that 'cohortmix group --model' wrote", name, jsonPos(b, err), ErrModel)
+		return nil, fmt.Errorf("%s: not a model file (%v): %w; pass the .json file that reports.ModelTo wrote", name, jsonPos(b, err), ErrModel)
 	}
 	if head.Format != ModelFormat {
-		return nil, fmt.Errorf("%s: format is %q, not %q: %w; pass a file written by 'cohortmix group --model'", name, head.Format, ModelFormat, ErrModel)
+		return nil, fmt.Errorf("%s: format is %q, not %q: %w; pass a file written by reports.ModelTo", name, head.Format, ModelFormat, ErrModel)
 	}
 	if head.Version != ModelVersion {
-		return nil, fmt.Errorf("%s: schema version %d, this tool reads version %d: %w; refit with 'cohortmix group --model' using this version", name, head.Version, ModelVersion, ErrModel)
+		return nil, fmt.Errorf("%s: schema version %d, this tool reads version %d: %w; refit with reports.ModelTo using this version", name, head.Version, ModelVersion, ErrModel)
 	}
 	dec := json.NewDecoder(bytes.NewReader(b))
 	dec.DisallowUnknownFields()
 	var m Model
 	if err := dec.Decode(&m); err != nil {
-		return nil, fmt.Errorf("%s: damaged or hand-edited (%v): %w; write it again with 'cohortmix group --model'", name, jsonPos(b, err), ErrModel)
+		return nil, fmt.Errorf("%s: damaged or hand-edited (%v): %w; write it again with reports.ModelTo", name, jsonPos(b, err), ErrModel)
 	}
 	if err := m.check(); err != nil {
-		return nil, fmt.Errorf("%s: %v: %w; write it again with 'cohortmix group --model'", name, err, ErrModel)
+		return nil, fmt.Errorf("%s: %v: %w; write it again with reports.ModelTo", name, err, ErrModel)
 	}
 	return &m, nil
 }

@@ -51,11 +51,11 @@ func PlanOutputs(targets []Target, inputs []string, tempDir string, force bool) 
 			os.Remove(probe.Name())
 		}
 		if tempDir != "" && sameFile(t.Path, tempDir) {
-			return nil, fmt.Errorf("%s %s: is the folder for temporary files (--temp): %w; name a file", t.Flag, t.Path, ErrOutput)
+			return nil, fmt.Errorf("%s %s: is the folder for temporary files (cohort.ReadOptions.TempDir): %w; name a file", t.Flag, t.Path, ErrOutput)
 		}
 		for _, in := range inputs {
 			if in != "-" && sameFile(t.Path, in) {
-				return nil, fmt.Errorf("%s %s: is one of the inputs: %w; an output never replaces an input, whatever --force says; name another file", t.Flag, t.Path, ErrOutput)
+				return nil, fmt.Errorf("%s %s: is one of the inputs: %w; an output never replaces an input, whatever reports.PlanOutputs force says; name another file", t.Flag, t.Path, ErrOutput)
 			}
 		}
 		for _, u := range targets[:i] {
@@ -80,7 +80,7 @@ func checkTarget(t Target, force bool) error {
 	case st.IsDir():
 		return fmt.Errorf("%s %s: is a folder: %w; name a file", t.Flag, t.Path, ErrExists)
 	case !force:
-		return fmt.Errorf("%s %s: %w; pass --force to replace it, or choose another name", t.Flag, t.Path, ErrExists)
+		return fmt.Errorf("%s %s: %w; set reports.PlanOutputs force to replace it, or choose another name", t.Flag, t.Path, ErrExists)
 	}
 	return nil
 }

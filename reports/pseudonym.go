@@ -50,9 +50,9 @@ var ErrKey = errors.New("pseudonymization key does not fit the model")
 func (m *Model) CheckKey(modelPath, keyPath string, key []byte) error {
 	switch {
 	case m.Pseudonymized && key == nil:
-		return fmt.Errorf("%s: the model holds pseudonyms, not study ids: %w; pass --pseudonymize with the key it was written with, or returning participants could not be found and study ids would reach the outputs", modelPath, ErrKey)
+		return fmt.Errorf("%s: the model holds pseudonyms, not study ids: %w; give reports.Model.CheckKey the key it was written with, or returning participants could not be found and study ids would reach the outputs", modelPath, ErrKey)
 	case !m.Pseudonymized && key != nil:
-		return fmt.Errorf("%s: the model holds study ids, not pseudonyms: %w; leave --pseudonymize out, or refit with 'cohortmix group --pseudonymize %s'", modelPath, ErrKey, keyPath)
+		return fmt.Errorf("%s: the model holds study ids, not pseudonyms: %w; give no key, or refit pseudonymized with reports.Pseudonymize and %s", modelPath, ErrKey, keyPath)
 	case key != nil && KeyFingerprint(key) != m.KeyFingerprint:
 		return fmt.Errorf("%s: was pseudonymized with another key than %s: %w; pass the key the model was written with", modelPath, keyPath, ErrKey)
 	}

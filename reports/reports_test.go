@@ -209,8 +209,8 @@ func TestWriteAtomicKeepsExistingOutput(t *testing.T) {
 	dir := t.TempDir()
 	p := filepath.Join(dir, "out.xlsx")
 	os.WriteFile(p, []byte("earlier"), 0o644)
-	if err := WriteAtomic(p, false, func(w io.Writer) error { return nil }); !errors.Is(err, ErrExists) || !strings.Contains(err.Error(), "--force") {
-		t.Errorf("got %v, want ErrExists naming --force", err)
+	if err := WriteAtomic(p, false, func(w io.Writer) error { return nil }); !errors.Is(err, ErrExists) || !strings.Contains(err.Error(), "force") {
+		t.Errorf("got %v, want ErrExists naming the force option", err)
 	}
 	boom := errors.New("interrupted")
 	if err := WriteAtomic(p, true, func(w io.Writer) error { w.Write([]byte("half")); return boom }); !errors.Is(err, boom) {

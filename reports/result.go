@@ -73,6 +73,9 @@ type Result struct {
 	// SensitivityNote reads the sensitivity table in a line.
 	SensitivityNote string
 	Notes           []string // what the run decided on its own that a reader should know (not warnings)
+	// OptionName names an option (given by its Go name, such as job.Options.Window) as the
+	// reader sets it, for example by a command-line flag; nil leaves the Go name.
+	OptionName func(string) string
 	// SeparationBasis says which units the separating-variable tests use when that is not
 	// simply every grouped participant (waves: one per person; atypical ones left out).
 	SeparationBasis string
@@ -94,4 +97,12 @@ var Cautions = []string{
 	"Decisions about a participant belong to qualified clinicians, under the study protocol and local rules.",
 	"This workbook holds participant-level data: handle it under the study's data-protection rules.",
 	"The separating-variable p- and q-values are descriptive: the groups were found on the same data, so they do not confirm a difference.",
+}
+
+// optionName names an option as the reader sets it (OptionName).
+func (r *Result) optionName(goName string) string {
+	if r.OptionName == nil {
+		return goName
+	}
+	return r.OptionName(goName)
 }

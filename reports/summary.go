@@ -182,7 +182,7 @@ func sheetGuide(r *Result) [][2]string {
 // detailRows are the run's particulars in words.
 func detailRows(r *Result) [][2]string {
 	q, c := r.Quality, r.Counts()
-	window := "not known: bout lengths are in windows (give the window length with --window-length, or times in the order column)"
+	window := "not known: bout lengths are in windows (give the window length with " + r.optionName("job.Options.Window") + ", or times in the order column)"
 	if r.WindowLength > 0 {
 		window = fmt.Sprintf("%s (from %s); bout lengths are also given in minutes", r.WindowLength, r.WindowSource)
 	}

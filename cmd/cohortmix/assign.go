@@ -144,6 +144,7 @@ func assignRun(ctx context.Context, o *assignOptions) error {
 	if err := ctx.Err(); err != nil {
 		return err
 	}
+	inFlagWords(res)
 	if err := plan.Write("--out", func(w io.Writer) error { return reports.WorkbookTo(w, res) }); err != nil {
 		return err
 	}

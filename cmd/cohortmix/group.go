@@ -129,6 +129,7 @@ func (o *groupOptions) prepare() (job.Options, []byte, error) {
 // write writes the workbook and, when asked for, the members CSV and the model file, each to a
 // temporary file, and puts them all in place together.
 func (o *groupOptions) write(res *reports.Result, read cohort.ReadOptions, options map[string]string) error {
+	inFlagWords(res)
 	if err := o.plan.Write("--out", func(w io.Writer) error { return reports.WorkbookTo(w, res) }); err != nil {
 		return err
 	}

@@ -83,14 +83,14 @@ type Fitted struct {
 // participants (first, each of the features' width). The note says which, for the workbook.
 func findAxesIn(features []string, first [][]float64, names []string, none bool) ([]int, string, error) {
 	if none {
-		return nil, "the align step turns no axis means (--axes none): it shifts each feature only", nil
+		return nil, "the align step turns no axis means (job.Options.NoAxes): it shifts each feature only", nil
 	}
 	if len(names) > 0 {
 		var axes []int
 		for _, n := range names {
 			j := slices.Index(features, n)
 			if j < 0 {
-				return nil, "", fmt.Errorf("--axes names %s, which is not among the features %v: %w; name the three axis-mean columns in x, y, z order, or pass --axes none", n, features, cohort.ErrMismatch)
+				return nil, "", fmt.Errorf("job.Options.Axes names %s, which is not among the features %v: %w; name the three axis-mean columns in x, y, z order, or set job.Options.NoAxes", n, features, cohort.ErrMismatch)
 			}
 			axes = append(axes, j)
 		}
@@ -98,7 +98,7 @@ func findAxesIn(features []string, first [][]float64, names []string, none bool)
 	}
 	axes, why := normalize.FindAxes(features, slices.Concat(first...))
 	if axes == nil {
-		return nil, "the align step found no axis means to turn (" + why + "); it shifts each feature only; name them with --axes", nil
+		return nil, "the align step found no axis means to turn (" + why + "); it shifts each feature only; name them with job.Options.Axes", nil
 	}
 	return axes, "the align step turns the axis means " + why, nil
 }

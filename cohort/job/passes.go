@@ -249,7 +249,7 @@ func (o Options) typed() Options {
 // longer steps and do not count); 0 when neither is there.
 func windowFromSteps(steps [][]int64, orderKind string, given time.Duration) (time.Duration, string) {
 	if given > 0 {
-		return given, "--window-length"
+		return given, "job.Options.Window"
 	}
 	if orderKind != "time" {
 		return 0, ""
@@ -433,11 +433,11 @@ func checkCounts(p *Plan, o Options) error {
 		name = p.Files[0].Path
 	}
 	if len(p.Units) < 3 {
-		return fmt.Errorf("%s: %d participants are left to group (%d excluded, see their reasons with a lower --min-windows): %w; grouping needs at least 3",
+		return fmt.Errorf("%s: %d participants are left to group (%d excluded, see their reasons with a lower cohort.ReadOptions.MinWindows): %w; grouping needs at least 3",
 			name, len(p.Units), len(p.Quality.Excluded), cohort.ErrTooFew)
 	}
 	if maxK := o.Groups[len(o.Groups)-1]; maxK > len(p.Units)-1 {
-		return fmt.Errorf("%s: --groups asks for up to %d groups but %d participants are grouped: %w; lower --groups to at most %d",
+		return fmt.Errorf("%s: job.Options.Groups asks for up to %d groups but %d participants are grouped: %w; lower job.Options.Groups to at most %d",
 			name, maxK, len(p.Units), cohort.ErrTooFew, len(p.Units)-1)
 	}
 	return nil

@@ -1,0 +1,78 @@
+package main
+
+import (
+	"slices"
+	"strings"
+
+	"github.com/cohortmix/cohortmix/cohort"
+	"github.com/cohortmix/cohortmix/reports"
+)
+
+// optionFlags names, for the command line, the library options that errors, notes and warnings
+// refer to: the libraries name their own options (cohort.ReadOptions.MinWindows), and only this
+// layer knows the flags that set them.
+var optionFlags = map[string]string{
+	"cohort.ReadOptions.TempDir":       "--temp",
+	"cohort.ReadOptions.MinWindows":    "--min-windows",
+	"cohort.ReadOptions.Features":      "--features",
+	"cohort.GroupOptions.Groups":       "--groups",
+	"cohort.GroupOptions.Method":       "--method",
+	"job.Options.Groups":               "--groups",
+	"job.Options.Window":               "--window-length",
+	"job.Options.Axes":                 "--axes",
+	"job.Options.NoAxes":               "--axes none",
+	"job.Options.Sample":               "--sample",
+	"normalize.Options.Within":         "--within",
+	"normalize.Options.WithinFeatures": "--within-features",
+	"profile.Options.States":           "--states",
+	"profile.AlignOptions.States":      "--states",
+	"reports.PlanOutputs force":        "--force",
+	"reports.WriteAtomic force":        "--force",
+	"reports.ModelTo":                  "'cohortmix group --model'",
+	"reports.Model.CheckKey the key":   "--pseudonymize with the key",
+	"give no key, or refit pseudonymized with reports.Pseudonymize and": "leave --pseudonymize out, or refit with 'cohortmix group --pseudonymize'",
+}
+
+// optionNames are optionFlags' keys, longest first, so that no name is replaced inside another.
+var optionNames = func() []string {
+	names := make([]string, 0, len(optionFlags))
+	for n := range optionFlags {
+		names = append(names, n)
+	}
+	slices.SortFunc(names, func(a, b string) int { return len(b) - len(a) })
+	return names
+}()
+
+// flagWords names the options a text refers to by their flags.
+func flagWords(s string) string {
+	if !strings.Contains(s, ".") {
+		return s
+	}
+	for _, n := range optionNames {
+		s = strings.ReplaceAll(s, n, optionFlags[n])
+	}
+	return s
+}
+
+// inFlagWords names the options by their flags in every text of a result that reaches a reader.
+func inFlagWords(r *reports.Result) {
+	q := &r.Quality
+	for i := range q.Excluded {
+		q.Excluded[i].Reason = flagWords(q.Excluded[i].Reason)
+	}
+	for _, notes := range [][]cohort.Note{q.IgnoredColumns, q.DroppedFeatures} {
+		for i := range notes {
+			notes[i].Reason = flagWords(notes[i].Reason)
+		}
+	}
+	for _, list := range [][]string{q.Notes, r.Notes, r.Warnings} {
+		for i := range list {
+			list[i] = flagWords(list[i])
+		}
+	}
+	r.WindowSource = flagWords(r.WindowSource)
+	if r.Grouping != nil {
+		r.Grouping.Note = flagWords(r.Grouping.Note)
+	}
+	r.OptionName = flagWords
+}
