@@ -1,7 +1,10 @@
 package main
 
 import (
+	"fmt"
+
 	"context"
+	"github.com/cohortmix/cohortmix/cohort/job"
 	"testing"
 	"time"
 
@@ -51,6 +54,11 @@ func TestCommandLinesBecomeOptions(t *testing.T) {
 		}
 		if ao.Norm.Within.String() != "align" || ao.Norm.PCAVariance != 0.99 || ao.States[0] != 2 || ao.States[len(ao.States)-1] != 12 || ao.Read.ID != "participant" || ao.Seed != 1 {
 			t.Errorf("default options %+v", ao)
+		}
+		// The flags' defaults are the library's (job.Defaults), so a program that imports the
+		// job gets what the command line gives.
+		if got, want := fmt.Sprintf("%+v", ao), fmt.Sprintf("%+v", job.Defaults("a.csv")); got != want {
+			t.Errorf("the flags' defaults\n%s\nare not the library's\n%s", got, want)
 		}
 	})
 	t.Run("check", func(t *testing.T) {

@@ -533,3 +533,27 @@ func boutText(windows float64, window time.Duration) string {
 	}
 	return fmt.Sprintf("%.3g windows", windows)
 }
+
+// Defaults are the settings of a run that sets nothing else, the command line's defaults: the
+// align step with started log scales and PCA keeping 99 % of the variance; 2–12 movement states,
+// neighbours that form one mode merged (the valley rule); 2–8 groups by Ward linkage on the
+// Hellinger embedding (k-means on the centred log-ratios above 10,000 participants), the
+// number chosen by the gap statistic with 20 reference sets; about 50,000 windows sampled for
+// the fit; seed 1.
+func Defaults(inputs ...string) Options {
+	span := func(lo, hi int) []int {
+		var out []int
+		for k := lo; k <= hi; k++ {
+			out = append(out, k)
+		}
+		return out
+	}
+	return Options{
+		Inputs: inputs,
+		Read:   cohort.ReadOptions{ID: "participant", Order: "window", Missing: cohort.DropWindow, MinWindows: 20},
+		Norm: normalize.Options{Within: normalize.WithinAlign, Scale: normalize.ScaleZ, Log: true, PCAVariance: 0.99,
+			OffsetICC: 0.3, RestShare: 0.1},
+		States: span(2, 12), StatesRule: profile.ByValley, Valley: profile.DefaultValley, Sample: 50_000,
+		Groups: span(2, 8), Method: cohort.Auto, Criterion: cohort.ByGap, Bootstrap: 20, Seed: 1,
+	}
+}
