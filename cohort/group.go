@@ -8,6 +8,7 @@ import (
 	"slices"
 	"sort"
 	"strconv"
+	"strings"
 
 	"github.com/cohortmix/cohortmix/cluster"
 	"gonum.org/v1/gonum/mat"
@@ -28,18 +29,58 @@ const (
 // tree, and one tree per bootstrap resample and gap reference) to k-means on the CLR.
 const LargeCohort = 10_000
 
-var methodNames = map[Method]string{WardHellinger: "ward-hellinger", PAMAitchison: "pam-aitchison", PAMJensenShannon: "pam-js", KMeansCLR: "kmeans-clr", Auto: "auto"}
+// method is what sets a grouping method apart: one row per method, from which its name, its
+// parser, its help and its behaviour in GroupSignatures all come.
+type method struct {
+	name, help string
+	clr        bool // embeds the shares by their centred log-ratios; otherwise by their square roots
+	js         bool // distances are Jensen–Shannon between the shares; otherwise Euclidean in the embedding
+	medoids    bool // k-medoids on the distance matrix, with medoids for centres
+	tree       bool // Ward linkage: one tree, cut at every number of groups
+}
 
-func (m Method) String() string { return methodNames[m] }
+// methods lists the methods in the order their help names them.
+var methods = []struct {
+	m Method
+	method
+}{
+	{Auto, method{name: "auto", help: "ward-hellinger, or kmeans-clr above 10,000 participants"}},
+	{WardHellinger, method{name: "ward-hellinger", help: "Ward linkage on the Hellinger embedding", tree: true}},
+	{PAMAitchison, method{name: "pam-aitchison", help: "k-medoids on the Aitchison distance", clr: true, medoids: true}},
+	{PAMJensenShannon, method{name: "pam-js", help: "k-medoids on the Jensen–Shannon distance", js: true, medoids: true}},
+	{KMeansCLR, method{name: "kmeans-clr", help: "k-means on the centred log-ratios", clr: true}},
+}
 
-// ParseMethod reads a grouping method name.
-func ParseMethod(s string) (Method, error) {
-	for m, n := range methodNames {
-		if n == s {
-			return m, nil
+func (m Method) row() method {
+	for _, r := range methods {
+		if r.m == m {
+			return r.method
 		}
 	}
-	return 0, fmt.Errorf("cohort: grouping method %q: %w; use auto, ward-hellinger, pam-aitchison, pam-js or kmeans-clr", s, ErrBadOption)
+	return method{name: fmt.Sprintf("method(%d)", int(m))}
+}
+
+func (m Method) String() string { return m.row().name }
+
+// MethodHelp names every grouping method with a few words on each, for a flag's help.
+func MethodHelp() string {
+	var parts []string
+	for _, r := range methods {
+		parts = append(parts, r.name+" ("+r.help+")")
+	}
+	return strings.Join(parts[:len(parts)-1], ", ") + " or " + parts[len(parts)-1]
+}
+
+// ParseMethod reads a grouping method name (methods).
+func ParseMethod(s string) (Method, error) {
+	var names []string
+	for _, r := range methods {
+		if r.name == s {
+			return r.m, nil
+		}
+		names = append(names, r.name)
+	}
+	return 0, fmt.Errorf("cohort: grouping method %q: %w; use %s or %s", s, ErrBadOption, strings.Join(names[:len(names)-1], ", "), names[len(names)-1])
 }
 
 // Criterion chooses the number of groups from a range.
@@ -116,22 +157,19 @@ type Grouping struct {
 // Embed maps a signature (shares) into the grouping space of the method.
 func Embed(m Method, share []float64) []float64 {
 	out := make([]float64, len(share))
-	switch m {
-	case WardHellinger, PAMJensenShannon:
+	if !m.row().clr {
 		for j, v := range share {
 			out[j] = math.Sqrt(max(0, v))
 		}
-	case PAMAitchison, KMeansCLR:
-		if _, err := cluster.CLR(out, share, cluster.DefaultZeroDelta); err != nil {
-			copy(out, share)
-		}
+	} else if _, err := cluster.CLR(out, share, cluster.DefaultZeroDelta); err != nil {
+		copy(out, share)
 	}
 	return out
 }
 
 // SpaceDistance is the distance the method uses between two embedded signatures.
 func SpaceDistance(m Method, a, b []float64) float64 {
-	if m == PAMJensenShannon {
+	if m.row().js {
 		p, q := make([]float64, len(a)), make([]float64, len(b))
 		for j := range a {
 			p[j], q[j] = a[j]*a[j], b[j]*b[j]
@@ -183,10 +221,10 @@ func GroupSignatures(ctx context.Context, shares [][]float64, opts GroupOptions)
 	}
 	// Distance matrix for PAM and the silhouette, behind the memory guard.
 	var dist *cluster.Condensed
-	needDist := opts.Method == PAMAitchison || opts.Method == PAMJensenShannon
+	needDist := opts.Method.row().medoids
 	if cluster.CondensedBytes(n) <= opts.MaxBytes {
 		metric := cluster.Euclidean
-		if opts.Method == PAMJensenShannon {
+		if opts.Method.row().js {
 			metric = cluster.JensenShannon
 		}
 		src := x
@@ -203,7 +241,7 @@ func GroupSignatures(ctx context.Context, shares [][]float64, opts GroupOptions)
 	} else if needDist {
 		return nil, fmt.Errorf("cohort: %d participants need %d MiB of distances for PAM: %w; use cohort.GroupOptions.Method kmeans-clr or ward-hellinger for a cohort this large", n, cluster.CondensedBytes(n)>>20, cluster.ErrTooLarge)
 	}
-	if opts.Method == WardHellinger {
+	if opts.Method.row().tree {
 		tree, err := cluster.WardPoints(ctx, x, cluster.WardOptions{Workers: opts.Workers})
 		if err != nil {
 			return nil, err
@@ -356,14 +394,14 @@ func silhouetteOf(x *mat.Dense, dist *cluster.Condensed, lab []int, opts GroupOp
 
 // newCutter returns a function giving labels for k groups with the method; Ward builds its tree once.
 func newCutter(ctx context.Context, m Method, x *mat.Dense, dist *cluster.Condensed, opts GroupOptions) (func(k int) ([]int, error), error) {
-	switch m {
-	case WardHellinger:
+	switch r := m.row(); {
+	case r.tree:
 		tree, err := cluster.WardPoints(ctx, x, cluster.WardOptions{Workers: opts.Workers})
 		if err != nil {
 			return nil, err
 		}
 		return tree.Cut, nil
-	case PAMAitchison, PAMJensenShannon:
+	case r.medoids:
 		return func(k int) ([]int, error) {
 			r, err := cluster.PAM(ctx, dist, cluster.PAMOptions{K: k})
 			if err != nil {
@@ -604,7 +642,7 @@ func renumberBySize(lab []int, k int) []int {
 func centroids(m Method, x *mat.Dense, dist *cluster.Condensed, lab []int, k int) [][]float64 {
 	n, d := x.Dims()
 	out := make([][]float64, k)
-	if (m == PAMAitchison || m == PAMJensenShannon) && dist != nil {
+	if m.row().medoids && dist != nil {
 		for g := 0; g < k; g++ {
 			best, bestSum := -1, math.Inf(1)
 			for i := 0; i < n; i++ {
@@ -682,7 +720,7 @@ func Place(m Method, centroids [][]float64, shares [][]float64, workers int) (*G
 	if distinct(g.Labels) >= 2 && distinct(g.Labels) <= n-1 {
 		opts := GroupOptions{Method: m, Workers: workers}
 		var dist *cluster.Condensed
-		if m == PAMJensenShannon && cluster.CondensedBytes(n) < 1<<30 {
+		if m.row().js && cluster.CondensedBytes(n) < 1<<30 {
 			raw := mat.NewDense(n, len(shares[0]), nil)
 			for i, s := range shares {
 				raw.SetRow(i, s)
@@ -791,7 +829,7 @@ func subsetRows(x *mat.Dense, dist *cluster.Condensed, idx []int, m Method) (*ma
 		sub.SetRow(r, x.RawRowView(i))
 	}
 	var subDist *cluster.Condensed
-	if dist != nil && (m == PAMAitchison || m == PAMJensenShannon) {
+	if dist != nil && m.row().medoids {
 		subDist = &cluster.Condensed{N: len(idx), D: make([]float64, len(idx)*(len(idx)-1)/2)}
 		for a := 0; a < len(idx); a++ {
 			for c := a + 1; c < len(idx); c++ {

@@ -191,3 +191,13 @@ func TestValleyCapMergesOneModeCutInTwo(t *testing.T) {
 		}
 	}
 }
+
+// Every grouping method's name reads back as the method, and the help names them all.
+func TestMethodsReadBack(t *testing.T) {
+	for _, r := range methods {
+		m, err := ParseMethod(r.name)
+		if err != nil || m != r.m || m.String() != r.name || !strings.Contains(MethodHelp(), r.name+" (") {
+			t.Errorf("%s: %v %v, help %q", r.name, m, err, MethodHelp())
+		}
+	}
+}

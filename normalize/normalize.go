@@ -29,6 +29,7 @@ import (
 	"math"
 	"path"
 	"slices"
+	"strings"
 	"sync"
 
 	"github.com/cohortmix/cohortmix/cluster"
@@ -56,23 +57,62 @@ const (
 	WithinAlign
 )
 
-var withinNames = map[Within]string{WithinNone: "none", WithinRest: "rest", WithinCentre: "centre", WithinRobustZ: "robust-z", WithinAlign: "align"}
+// withinStep is what sets a within-participant step apart: one row per step, from which its
+// name, its parser, its help and its behaviour in the fit all come.
+type withinStep struct {
+	name, help string
+	baseline   bool // finds a baseline of each participant's own, applied by ApplyBaseline
+	quiet      bool // the baseline is over the participant's quietest windows
+	scales     bool // the baseline also divides by the participant's spread (MAD)
+}
 
-func (w Within) String() string { return withinNames[w] }
+// withinSteps lists the steps in the order their help names them.
+var withinSteps = []struct {
+	w Within
+	withinStep
+}{
+	{WithinAlign, withinStep{name: "align", help: "each device's rotation and offsets, fitted with the states"}},
+	{WithinRest, withinStep{name: "rest", help: "each participant's median over its quietest windows subtracted", baseline: true, quiet: true}},
+	{WithinCentre, withinStep{name: "centre", help: "each participant's median subtracted", baseline: true}},
+	{WithinRobustZ, withinStep{name: "robust-z", help: "each participant's median subtracted and its MAD divided out", baseline: true, scales: true}},
+	{WithinNone, withinStep{name: "none", help: "features as read"}},
+}
 
-// ParseWithin reads a within-participant step name: align, none, rest, centre or robust-z.
-func ParseWithin(s string) (Within, error) {
-	for w, n := range withinNames {
-		if n == s {
-			return w, nil
+func (w Within) step() withinStep {
+	for _, s := range withinSteps {
+		if s.w == w {
+			return s.withinStep
 		}
 	}
-	return 0, fmt.Errorf("normalize: within-participant step %q: %w; use align, none, rest, centre or robust-z", s, ErrOption)
+	return withinStep{name: fmt.Sprintf("within(%d)", int(w))}
+}
+
+func (w Within) String() string { return w.step().name }
+
+// WithinHelp names every within-participant step with a few words on each, for a flag's help.
+func WithinHelp() string {
+	var parts []string
+	for _, s := range withinSteps {
+		parts = append(parts, s.name+" ("+s.help+")")
+	}
+	return strings.Join(parts[:len(parts)-1], ", ") + " or " + parts[len(parts)-1]
+}
+
+// ParseWithin reads a within-participant step name (withinSteps).
+func ParseWithin(s string) (Within, error) {
+	var names []string
+	for _, st := range withinSteps {
+		if st.name == s {
+			return st.w, nil
+		}
+		names = append(names, st.name)
+	}
+	return 0, fmt.Errorf("normalize: within-participant step %q: %w; use %s or %s", s, ErrOption, strings.Join(names[:len(names)-1], ", "), names[len(names)-1])
 }
 
 // baseline reports whether the step finds a baseline of each participant's own (rest, centre,
 // robust z); none and align have none.
-func (w Within) baseline() bool { return w != WithinNone && w != WithinAlign }
+func (w Within) baseline() bool { return w.step().baseline }
 
 // Scale is the cohort-wide step.
 type Scale int
@@ -806,7 +846,7 @@ func (f *Fit) Baseline(x []float64) Baseline {
 		x = f.scaleInto(&buf, x)
 	}
 	var rows []int
-	if f.Within == WithinRest {
+	if f.Within.step().quiet {
 		rows = f.quietest(x, n)
 	}
 	count := n
@@ -830,7 +870,7 @@ func (f *Fit) Baseline(x []float64) Baseline {
 		}
 		med := median(buf)
 		b.Center[j] = med
-		if f.Within == WithinRobustZ {
+		if f.Within.step().scales {
 			for k := range buf {
 				buf[k] = math.Abs(buf[k] - med)
 			}

@@ -66,7 +66,7 @@ func TestWarnsWhenZScoringEverything(t *testing.T) {
 }
 
 func TestOptionErrors(t *testing.T) {
-	if _, err := ParseWithin("median"); !errors.Is(err, ErrOption) || !strings.Contains(err.Error(), "use align, none, rest, centre or robust-z") {
+	if _, err := ParseWithin("median"); !errors.Is(err, ErrOption) || !strings.Contains(err.Error(), "use align, rest, centre, robust-z or none") {
 		t.Errorf("got %v", err)
 	}
 	constant := [][]float64{{1, 2, 1, 3}, {1, 4, 1, 5}}
@@ -194,6 +194,16 @@ func TestOneGoApplyMatchesTwoSteps(t *testing.T) {
 					t.Fatalf("%s, participant %d value %d: %v, two steps give %v", c.name, u, i, buf[i], want[i])
 				}
 			}
+		}
+	}
+}
+
+// Every within step's name reads back as the step, and the help names them all.
+func TestWithinStepsReadBack(t *testing.T) {
+	for _, s := range withinSteps {
+		w, err := ParseWithin(s.name)
+		if err != nil || w != s.w || w.String() != s.name || !strings.Contains(WithinHelp(), s.name+" (") {
+			t.Errorf("%s: %v %v, help %q", s.name, w, err, WithinHelp())
 		}
 	}
 }

@@ -69,7 +69,7 @@ type mainFlags struct {
 func (m *mainFlags) register(cmd *cobra.Command) {
 	m.registerRead(cmd)
 	f := cmd.Flags()
-	f.StringVar(&m.Within, "within", "align", "within-participant step: align (each device's rotation and offsets, fitted with the states), rest, centre, robust-z or none")
+	f.StringVar(&m.Within, "within", "align", "within-participant step: "+normalize.WithinHelp())
 	f.StringSliceVar(&m.WithinFeatures, "within-features", nil, "features the within step touches: patterns, or * for all (default: every feature with align, otherwise those found to carry offsets)")
 	f.StringVar(&m.Axes, "axes", "auto", "the axis-mean features the align step turns, in x,y,z order; auto finds them by name; none turns nothing")
 	f.StringVar(&m.Log, "log", "auto", "auto takes every feature that is never below 0 on a log scale; none keeps every feature as read")
@@ -82,7 +82,7 @@ func (m *mainFlags) register(cmd *cobra.Command) {
 	f.StringVar(&m.StatesRule, "states-rule", "valley", "how a range of states is decided: valley (fit the most, merge states that form one mode) or ch (largest Calinski–Harabasz index)")
 	f.IntVar(&m.Sample, "sample", 50000, "windows sampled to fit the states")
 	f.StringVar(&m.Groups, "groups", "2-8", "number of participant groups, or a range to choose from")
-	f.StringVar(&m.Method, "method", "auto", "grouping: auto (ward-hellinger, or kmeans-clr above 10,000 participants), ward-hellinger, pam-aitchison, pam-js or kmeans-clr")
+	f.StringVar(&m.Method, "method", "auto", "grouping: "+cohort.MethodHelp())
 	f.StringVar(&m.Criterion, "criterion", "gap", "rule for the number of groups: gap, stability or silhouette")
 	f.Float64Var(&m.GroupValley, "group-valley", 0, "lower the number of groups while two of them form one mode (density between them at least this share of its height; 0: off)")
 	f.IntVar(&m.Bootstrap, "bootstrap", 20, "resamples for stability and reference sets for the gap statistic")
