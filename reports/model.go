@@ -20,8 +20,12 @@ import (
 // ModelFormat and ModelVersion identify the model file's schema.
 const (
 	ModelFormat  = "cohortmix model"
-	ModelVersion = 2 // 2: log scales, the align step's axes, the aligned states' postures, pseudonymization
+	ModelVersion = 3 // 2: log scales, the align step's axes, the aligned states' postures, pseudonymization; 3: the fit's settings typed (ModelFit)
 )
+
+// oldestModel is the oldest model version this tool still reads: a version-2 file keeps its
+// settings by flag name (Model.Options), which refresh reads as before.
+const oldestModel = 2
 
 // ErrModel is wrapped by every error about a model file.
 var ErrModel = errors.New("model file not usable")
@@ -39,7 +43,8 @@ type Model struct {
 	States    ModelStates       `json:"states"`
 	Grouping  ModelGrouping     `json:"grouping"`
 	Settings  []Setting         `json:"settings"`
-	Options   map[string]string `json:"options"` // the command-line options of the fit, by flag name, for refresh
+	Fit       *ModelFit         `json:"fit,omitempty"`     // how the model was fitted, for refresh (version 3)
+	Options   map[string]string `json:"options,omitempty"` // version 2: the command-line options of the fit, by flag name
 	Members   []ModelMember     `json:"members"`
 	// Pseudonymized says the members' ids are pseudonyms (Pseudonym), made with the key whose
 	// fingerprint (KeyFingerprint) is KeyFingerprint.
@@ -51,9 +56,42 @@ type Model struct {
 // ModelRead records the column roles used.
 type ModelRead struct {
 	ID, Order, Wave string
-	Label           string `json:",omitempty"` // the label column of the fit, which assign does not use
+	Label           string   `json:",omitempty"` // the label column of the fit, which assign does not use
+	Features        []string `json:",omitempty"` // the feature name patterns given (none: every numeric column)
 	Missing         string
 	MinWindows      int
+}
+
+// ReadOf records the reading settings of a run.
+func ReadOf(read cohort.ReadOptions) ModelRead {
+	return ModelRead{ID: read.ID, Order: read.Order, Wave: read.Wave, Label: read.Label, Features: read.Features, Missing: read.Missing.String(), MinWindows: read.MinWindows}
+}
+
+// ModelFit is how a model was fitted, in the library's own terms (the settings of a run that
+// are not about one run: no files, folders or workers), so that refresh can fit again as before.
+type ModelFit struct {
+	Within         string   `json:"within"`
+	WithinFeatures []string `json:"within_features,omitempty"`
+	OffsetICC      float64  `json:"offset_icc"`
+	RestShare      float64  `json:"rest_share"`
+	Axes           []string `json:"axes,omitempty"`    // the axis means named; none named: found by their names
+	NoAxes         bool     `json:"no_axes,omitempty"` // the align step turned no axis means
+	Log            bool     `json:"log"`
+	Scale          string   `json:"scale"`
+	PCAComponents  int      `json:"pca_components,omitempty"`
+	PCAVariance    float64  `json:"pca_variance,omitempty"`
+	NoPCA          bool     `json:"no_pca,omitempty"`
+	States         []int    `json:"states"` // the numbers of states tried
+	StatesRule     string   `json:"states_rule"`
+	Valley         float64  `json:"valley"`
+	Sample         int      `json:"sample"`
+	Groups         []int    `json:"groups"` // the numbers of groups tried
+	Method         string   `json:"method"`
+	Criterion      string   `json:"criterion"`
+	GroupValley    float64  `json:"group_valley,omitempty"`
+	Bootstrap      int      `json:"bootstrap"`
+	Seed           uint64   `json:"seed"`
+	WindowSeconds  float64  `json:"window_seconds,omitempty"` // the window length given (0: from the order column's times)
 }
 
 // ModelNorm is a frozen normalize.Fit.
@@ -112,7 +150,7 @@ func NewModel(r *Result, read cohort.ReadOptions, featureMeds [][3]float64) *Mod
 	n := r.Norm
 	m := &Model{Format: ModelFormat, Version: ModelVersion, Created: r.Created.UTC(), Tool: r.Tool + " " + r.Version,
 		Features: r.Features, Settings: r.Settings, FeatureMeds: featureMeds,
-		Read: ModelRead{ID: read.ID, Order: read.Order, Wave: read.Wave, Label: read.Label, Missing: read.Missing.String(), MinWindows: read.MinWindows},
+		Read: ReadOf(read),
 		Normalize: ModelNorm{Logged: n.Logged, LogShift: n.LogShift, Axes: n.Axes, Within: n.Within.String(), Touched: n.Touched, TouchedBy: n.TouchedBy, RestShare: n.RestShare,
 			QuietScore: n.QuietScore, QuietMid: n.QuietMid, QuietScale: n.QuietScale, Scale: n.ScaleKind.String(),
 			Center: n.Center, Spread: n.Spread, ICC: n.ICC},
@@ -182,8 +220,8 @@ func ParseModel(name string, b []byte) (*Model, error) {
 	if head.Format != ModelFormat {
 		return nil, fmt.Errorf("%s: format is %q, not %q: %w; pass a file written by reports.ModelTo", name, head.Format, ModelFormat, ErrModel)
 	}
-	if head.Version != ModelVersion {
-		return nil, fmt.Errorf("%s: schema version %d, this tool reads version %d: %w; refit with reports.ModelTo using this version", name, head.Version, ModelVersion, ErrModel)
+	if head.Version < oldestModel || head.Version > ModelVersion {
+		return nil, fmt.Errorf("%s: schema version %d, this tool reads versions %d to %d: %w; refit with reports.ModelTo using this version", name, head.Version, oldestModel, ModelVersion, ErrModel)
 	}
 	dec := json.NewDecoder(bytes.NewReader(b))
 	dec.DisallowUnknownFields()
@@ -218,6 +256,20 @@ func (m *Model) check() error {
 	d := len(m.Features)
 	if d == 0 {
 		return errors.New("no features")
+	}
+	if m.Version >= 3 && m.Fit == nil || m.Version < 3 && m.Options == nil {
+		return fmt.Errorf("a version %d model without the settings it was fitted with", m.Version)
+	}
+	if f := m.Fit; f != nil {
+		if _, err := normalize.ParseWithin(f.Within); err != nil {
+			return err
+		}
+		if _, err := cohort.ParseMethod(f.Method); err != nil {
+			return err
+		}
+		if len(f.States) == 0 || len(f.Groups) == 0 {
+			return errors.New("the settings name no numbers of states or groups")
+		}
 	}
 	n := m.Normalize
 	within, err := normalize.ParseWithin(n.Within)

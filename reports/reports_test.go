@@ -229,6 +229,8 @@ func TestModelRoundTripAndDamage(t *testing.T) {
 	r := fixture(t, 12, func(i int) string { return "P" + digits(i) })
 	r.Norm.PCA = nil
 	m := NewModel(r, cohort.ReadOptions{ID: "participant", Order: "window"}, [][3]float64{{0, 1, 2}, {0, 1, 2}, {0, 1, 2}})
+	m.Fit = &ModelFit{Within: "align", Log: true, Scale: "z", PCAVariance: 0.99, States: []int{2, 3, 4}, StatesRule: "valley", Valley: 0.5,
+		Sample: 50000, Groups: []int{2, 3}, Method: "ward-hellinger", Criterion: "gap", Bootstrap: 20, Seed: 1}
 	dir := t.TempDir()
 	p := filepath.Join(dir, "m.json")
 	if err := WriteModel(p, m, false); err != nil {
@@ -238,14 +240,16 @@ func TestModelRoundTripAndDamage(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if back.States.K != 4 || back.Grouping.K != 3 || len(back.Members) != 12 {
+	if back.States.K != 4 || back.Grouping.K != 3 || len(back.Members) != 12 || back.Fit == nil || back.Fit.Method != "ward-hellinger" || len(back.Fit.States) != 3 {
 		t.Errorf("read back %d states, %d groups, %d members", back.States.K, back.Grouping.K, len(back.Members))
 	}
 	good, _ := os.ReadFile(p)
 	cases := []struct{ name, edit, want string }{
 		{"not JSON", "}{", "not a model file"},
-		{"older schema", strings.Replace(string(good), `"version": 2`, `"version": 1`, 1), "schema version 1, this tool reads version 2"},
-		{"other file", `{"format":"something else","version":2}`, `format is "something else"`},
+		{"older schema", strings.Replace(string(good), `"version": 3`, `"version": 1`, 1), "schema version 1, this tool reads versions 2 to 3"},
+		{"other file", `{"format":"something else","version":3}`, `format is "something else"`},
+		{"version 2 without its options", strings.Replace(string(good), `"version": 3`, `"version": 2`, 1), "a version 2 model without the settings it was fitted with"},
+		{"settings left out", withoutField(t, good, "fit"), "a version 3 model without the settings"},
 		{"unknown field", strings.Replace(string(good), `"tool":`, `"extra": 1, "tool":`, 1), "damaged or hand-edited"},
 		{"wrong size", strings.Replace(string(good), `"k": 4`, `"k": 5`, 1), "states: k = 5 with 4 centroids"},
 		{"bad spread", strings.Replace(string(good), `"spread": [
@@ -332,4 +336,15 @@ func TestNaturalOrder(t *testing.T) {
 	if got, want := strings.Join(ids, " "), "P1 P2 P02 P9 P9a P10 P100 Q1"; got != want {
 		t.Errorf("natural order %q, want %q", got, want)
 	}
+}
+
+// withoutField is a JSON object without one of its fields.
+func withoutField(t *testing.T, b []byte, name string) string {
+	var m map[string]json.RawMessage
+	if err := json.Unmarshal(b, &m); err != nil {
+		t.Fatal(err)
+	}
+	delete(m, name)
+	out, _ := json.Marshal(m)
+	return string(out)
 }

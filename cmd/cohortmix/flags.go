@@ -3,7 +3,9 @@ package main
 import (
 	"fmt"
 	"github.com/cohortmix/cohortmix/cohort/job"
+	"math"
 	"path/filepath"
+	"slices"
 	"strconv"
 	"strings"
 	"time"
@@ -335,22 +337,8 @@ func countBar(env *Env, quiet bool, unit string) func(step string, done, total i
 // runOnly are flags that belong to one run, not to the fit: refresh does not carry them over.
 var runOnly = map[string]bool{"members": true, "model": true, "force": true, "quiet": true, "workers": true, "out": true, "pseudonymize": true, "temp": true}
 
-// asOptions gives every fit flag's value by name, as the model file stores them.
-func (m *mainFlags) asOptions() map[string]string {
-	var tmp mainFlags
-	cmd := &cobra.Command{}
-	tmp.register(cmd)
-	tmp = *m
-	out := map[string]string{}
-	cmd.Flags().VisitAll(func(f *pflag.Flag) {
-		if !runOnly[f.Name] {
-			out[f.Name] = flagString(f)
-		}
-	})
-	return out
-}
-
-// applyOptions sets the fit flags from a model's options, except those the user gave (changed).
+// applyOptions sets the fit flags from a version-2 model's options (by flag name), except those
+// the user gave (changed).
 func (m *mainFlags) applyOptions(opts map[string]string, changed func(name string) bool) error {
 	var tmp mainFlags
 	cmd := &cobra.Command{}
@@ -396,4 +384,107 @@ func windowSetting(d time.Duration) string {
 		return "from the order column's times, when it holds times"
 	}
 	return d.String()
+}
+
+// modelFlags sets each fit flag from a model's settings (reports.ModelFit and ModelRead), for
+// refresh: every flag that is not runOnly has a row (TestModelFlagsCoverEveryFitFlag).
+var modelFlags = map[string]func(m *mainFlags, f *reports.ModelFit, r reports.ModelRead){
+	"id":    func(m *mainFlags, _ *reports.ModelFit, r reports.ModelRead) { m.ID = r.ID },
+	"order": func(m *mainFlags, _ *reports.ModelFit, r reports.ModelRead) { m.Order = r.Order },
+	"wave":  func(m *mainFlags, _ *reports.ModelFit, r reports.ModelRead) { m.Wave = r.Wave },
+	"label": func(m *mainFlags, _ *reports.ModelFit, r reports.ModelRead) { m.Label = r.Label },
+	"features": func(m *mainFlags, _ *reports.ModelFit, r reports.ModelRead) {
+		m.Features = slices.Clone(r.Features)
+	},
+	"missing": func(m *mainFlags, _ *reports.ModelFit, r reports.ModelRead) {
+		m.Missing = "drop"
+		if r.Missing == cohort.ImputeMedian.String() {
+			m.Missing = "impute"
+		}
+	},
+	"min-windows": func(m *mainFlags, _ *reports.ModelFit, r reports.ModelRead) { m.MinWindows = r.MinWindows },
+	"within":      func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) { m.Within = f.Within },
+	"within-features": func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) {
+		m.WithinFeatures = slices.Clone(f.WithinFeatures)
+	},
+	"offset-icc": func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) { m.OffsetICC = f.OffsetICC },
+	"rest-share": func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) { m.RestShare = f.RestShare },
+	"axes": func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) {
+		switch {
+		case f.NoAxes:
+			m.Axes = "none"
+		case len(f.Axes) > 0:
+			m.Axes = strings.Join(f.Axes, ",")
+		default:
+			m.Axes = "auto"
+		}
+	},
+	"log": func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) {
+		m.Log = "none"
+		if f.Log {
+			m.Log = "auto"
+		}
+	},
+	"scale": func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) { m.Scale = f.Scale },
+	"pca": func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) {
+		switch {
+		case f.NoPCA:
+			m.PCA = "off"
+		case f.PCAComponents > 0:
+			m.PCA = strconv.Itoa(f.PCAComponents)
+		default:
+			m.PCA = strconv.FormatFloat(f.PCAVariance, 'f', -1, 64)
+			if !strings.Contains(m.PCA, ".") {
+				m.PCA += ".0" // a share, not a number of components
+			}
+		}
+	},
+	"states":       func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) { m.States = rangeText(f.States) },
+	"states-rule":  func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) { m.StatesRule = f.StatesRule },
+	"valley":       func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) { m.Valley = f.Valley },
+	"sample":       func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) { m.Sample = f.Sample },
+	"groups":       func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) { m.Groups = rangeText(f.Groups) },
+	"method":       func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) { m.Method = f.Method },
+	"criterion":    func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) { m.Criterion = f.Criterion },
+	"group-valley": func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) { m.GroupValley = f.GroupValley },
+	"bootstrap":    func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) { m.Bootstrap = f.Bootstrap },
+	"seed":         func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) { m.Seed = f.Seed },
+	"window-length": func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) {
+		m.WindowLength = time.Duration(math.Round(f.WindowSeconds * float64(time.Second)))
+	},
+}
+
+// rangeText writes increasing numbers as --states and --groups take them: "6" or "2-12".
+func rangeText(ks []int) string {
+	if len(ks) == 0 {
+		return ""
+	}
+	if len(ks) == 1 {
+		return strconv.Itoa(ks[0])
+	}
+	return fmt.Sprintf("%d-%d", ks[0], ks[len(ks)-1])
+}
+
+// fromModel sets the fit flags the user did not give (changed) as a model was fitted: from its
+// typed settings, or for a version-2 model from its options by flag name.
+func (m *mainFlags) fromModel(prev *reports.Model, changed func(name string) bool) error {
+	if prev.Fit == nil {
+		return m.applyOptions(prev.Options, changed)
+	}
+	for name, set := range modelFlags {
+		if !changed(name) {
+			set(m, prev.Fit, prev.Read)
+		}
+	}
+	return nil
+}
+
+// mostStates is the largest number of states the model's fit tried.
+func mostStates(prev *reports.Model) int {
+	if f := prev.Fit; f != nil {
+		return f.States[len(f.States)-1]
+	}
+	_, hi, _ := strings.Cut(prev.Options["states"], "-")
+	n, _ := strconv.Atoi(hi)
+	return n
 }

@@ -101,7 +101,7 @@ func groupRun(ctx context.Context, o *groupOptions) error {
 	res.Tool, res.Version, res.Created, res.Synthetic = "cohortmix", version, o.Now(), o.Synthetic
 	res.Command = strings.Join(o.Args, " ")
 	res.Settings = o.Flags.settings()
-	if err := o.write(res, ao.Read, o.Flags.asOptions()); err != nil {
+	if err := o.write(res, ao.Read, ao.ModelFit()); err != nil {
 		return err
 	}
 	printSummary(o.IO, res, o.Out)
@@ -128,7 +128,7 @@ func (o *groupOptions) prepare() (job.Options, []byte, error) {
 
 // write writes the workbook and, when asked for, the members CSV and the model file, each to a
 // temporary file, and puts them all in place together.
-func (o *groupOptions) write(res *reports.Result, read cohort.ReadOptions, options map[string]string) error {
+func (o *groupOptions) write(res *reports.Result, read cohort.ReadOptions, fit *reports.ModelFit) error {
 	inFlagWords(res)
 	if err := o.plan.Write("--out", func(w io.Writer) error { return reports.WorkbookTo(w, res) }); err != nil {
 		return err
@@ -140,7 +140,7 @@ func (o *groupOptions) write(res *reports.Result, read cohort.ReadOptions, optio
 	}
 	if o.plan.Has("--model") {
 		m := reports.NewModel(res, read, res.FeatureRange)
-		m.Options = options
+		m.Fit = fit
 		if o.key != nil {
 			m.Pseudonymized, m.KeyFingerprint = true, reports.KeyFingerprint(o.key)
 		}

@@ -63,7 +63,7 @@ func refreshRun(ctx context.Context, o *refreshOptions) error {
 	if err != nil {
 		return err
 	}
-	if err := o.Flags.applyOptions(prev.Options, o.changed); err != nil {
+	if err := o.Flags.fromModel(prev, o.changed); err != nil {
 		return fmt.Errorf("%s: %w", o.Previous, err)
 	}
 	if !o.changed("states") {
@@ -72,10 +72,8 @@ func refreshRun(ctx context.Context, o *refreshOptions) error {
 		// previous range, then merged, but not below it), so that the same data give the same
 		// states.
 		o.Flags.States = strconv.Itoa(prev.States.K)
-		if _, hi, ok := strings.Cut(prev.Options["states"], "-"); ok {
-			if n, err := strconv.Atoi(hi); err == nil && n > prev.States.K {
-				o.Flags.States = fmt.Sprintf("%d-%d", prev.States.K, n)
-			}
+		if n := mostStates(prev); n > prev.States.K {
+			o.Flags.States = fmt.Sprintf("%d-%d", prev.States.K, n)
 		}
 	}
 	ao, key, err := o.prepare()
@@ -135,7 +133,7 @@ func refreshRun(ctx context.Context, o *refreshOptions) error {
 	if err := ctx.Err(); err != nil {
 		return err
 	}
-	if err := o.write(res, ao.Read, o.Flags.asOptions()); err != nil {
+	if err := o.write(res, ao.Read, ao.ModelFit()); err != nil {
 		return err
 	}
 	printSummary(o.IO, res, o.Out)

@@ -227,7 +227,7 @@ func (o *shardOptions) census(ctx context.Context, inputs []string, shard, piece
 	if err != nil {
 		return err
 	}
-	c.Meta = job.Meta{Command: strings.Join(o.argv, " "), Settings: o.Flags.settings(), ModelOptions: o.Flags.asOptions()}
+	c.Meta = job.Meta{Command: strings.Join(o.argv, " "), Settings: o.Flags.settings()}
 	files, _ := cohort.ExpandPaths(inputs)
 	return o.writePiece(piece, job.KindCensus, files, c)
 }
@@ -372,7 +372,7 @@ func (o *shardOptions) finish(ctx context.Context, fitFile string, assigned []st
 	meta := fp.Plan.Meta
 	res.Tool, res.Version, res.Created = "cohortmix", version, o.Now()
 	res.Command, res.Settings = meta.Command, meta.Settings
-	if err := g.write(res, fp.Plan.Options.Read, meta.ModelOptions); err != nil {
+	if err := g.write(res, fp.Plan.Options.Read, fp.Plan.Options.ModelFit()); err != nil {
 		return err
 	}
 	printSummary(o.IO, res, o.Out)

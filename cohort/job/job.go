@@ -557,3 +557,15 @@ func Defaults(inputs ...string) Options {
 		Groups: span(2, 8), Method: cohort.Auto, Criterion: cohort.ByGap, Bootstrap: 20, Seed: 1,
 	}
 }
+
+// ModelFit is how a run fits, as the model file keeps it for a later refit.
+func (o Options) ModelFit() *reports.ModelFit {
+	return &reports.ModelFit{
+		Within: o.Norm.Within.String(), WithinFeatures: o.Norm.WithinFeatures, OffsetICC: o.Norm.OffsetICC, RestShare: o.Norm.RestShare,
+		Axes: o.Axes, NoAxes: o.NoAxes, Log: o.Norm.Log, Scale: o.Norm.Scale.String(),
+		PCAComponents: o.Norm.PCAComponents, PCAVariance: o.Norm.PCAVariance, NoPCA: o.Norm.NoPCA,
+		States: o.States, StatesRule: o.StatesRule.String(), Valley: o.Valley, Sample: o.Sample,
+		Groups: o.Groups, Method: o.Method.String(), Criterion: o.Criterion.String(), GroupValley: o.GroupValley,
+		Bootstrap: o.Bootstrap, Seed: o.Seed, WindowSeconds: o.Window.Seconds(),
+	}
+}

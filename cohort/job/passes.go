@@ -25,12 +25,11 @@ import (
 // units is summed exactly or in ordinal order, so that any number of shards gives the result of
 // one machine bit for bit. On one machine the same passes run on the whole table, in memory.
 
-// Meta is how a run was asked for, as the reports show it (the command line, the settings and
-// the model file's options); the passes carry it from the census to the finish.
+// Meta is how a run was asked for, as the reports show it (the command line and the settings);
+// the passes carry it from the census to the finish.
 type Meta struct {
-	Command      string
-	Settings     []reports.Setting
-	ModelOptions map[string]string
+	Command  string
+	Settings []reports.Setting
 }
 
 // checkShards tells whether pieces of a kind come one from each of count shards.
