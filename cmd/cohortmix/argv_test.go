@@ -102,4 +102,44 @@ func TestCommandLinesBecomeOptions(t *testing.T) {
 			t.Errorf("synth options %+v", got.Synth)
 		}
 	})
+	t.Run("shard", func(t *testing.T) {
+		for _, c := range []struct {
+			argv []string
+			ok   func(o *shardOptions) bool
+		}{
+			{[]string{"census", "a.csv", "b.csv", "--shard", "2/4", "--piece", "c2.piece", "--states", "6", "--seed", "3"}, func(o *shardOptions) bool {
+				ao, err := o.Flags.options(o.Args)
+				return err == nil && o.Step == "census" && len(o.Args) == 2 && o.Shard == "2/4" && o.Piece == "c2.piece" && ao.States[0] == 6 && ao.Seed == 3
+			}},
+			{[]string{"plan", "c1.piece", "c2.piece", "--piece", "plan.piece"}, func(o *shardOptions) bool {
+				return o.Step == "plan" && len(o.Args) == 2 && o.Piece == "plan.piece"
+			}},
+			{[]string{"sample", "--plan", "plan.piece", "--shard", "1/4", "--piece", "s1.piece", "--temp", "tmp"}, func(o *shardOptions) bool {
+				return o.Step == "sample" && o.Plan == "plan.piece" && o.Shard == "1/4" && o.Flags.Temp == "tmp"
+			}},
+			{[]string{"fit", "--plan", "plan.piece", "s1.piece", "s2.piece", "--piece", "fit.piece", "--workers", "3"}, func(o *shardOptions) bool {
+				return o.Step == "fit" && len(o.Args) == 2 && o.Flags.Workers == 3
+			}},
+			{[]string{"assign", "--fit", "fit.piece", "--shard", "4/4", "--piece", "a4.piece"}, func(o *shardOptions) bool {
+				return o.Step == "assign" && o.Fit == "fit.piece" && o.Shard == "4/4"
+			}},
+			{[]string{"finish", "--fit", "fit.piece", "a1.piece", "--out", "r.xlsx", "--members", "m.csv", "--model", "m.json"}, func(o *shardOptions) bool {
+				return o.Step == "finish" && len(o.Args) == 1 && o.Out == "r.xlsx" && o.Flags.Members == "m.csv" && o.Flags.Model == "m.json"
+			}},
+			{[]string{"run", "a.csv", "--shards", "7", "--out", "r.xlsx", "--pieces", "p"}, func(o *shardOptions) bool {
+				return o.Step == "run" && o.Shards == 7 && o.Pieces == "p" && o.Out == "r.xlsx"
+			}},
+		} {
+			var got *shardOptions
+			execute(t, newShardCmd(env, func(_ context.Context, o *shardOptions) error { got = o; return nil }), c.argv...)
+			if got == nil || !c.ok(got) {
+				t.Errorf("shard %v: options %+v", c.argv, got)
+			}
+		}
+		for _, bad := range []string{"0/4", "5/4", "2", "a/b", "1/0"} {
+			if _, err := parseShard(bad); err == nil {
+				t.Errorf("--shard %s was taken", bad)
+			}
+		}
+	})
 }

@@ -62,6 +62,13 @@ func newShardCmd(env *Env, runF func(context.Context, *shardOptions) error) *cob
   $ cohortmix shard fit --plan pieces/plan.piece pieces/sample-*.piece --piece pieces/fit.piece
   $ cohortmix shard assign --fit pieces/fit.piece --shard 2/4 --piece pieces/assign-2.piece
   $ cohortmix shard finish --fit pieces/fit.piece pieces/assign-*.piece --out results.xlsx --members members.csv`,
+		Args: cobra.ArbitraryArgs,
+		RunE: func(cmd *cobra.Command, args []string) error {
+			if len(args) > 0 {
+				return flagErrorf("unknown step %q for 'cohortmix shard': the steps are census, plan, sample, fit, assign, finish and run", args[0])
+			}
+			return cmd.Help()
+		},
 	}
 	step := func(name, use, short string, args cobra.PositionalArgs, flags func(*cobra.Command, *shardOptions)) {
 		o := &shardOptions{IO: env.IO, Now: time.Now, Step: name}
