@@ -219,7 +219,7 @@ func TestCommandLineMistakesExit2(t *testing.T) {
 		{"shard", "census", in, "--piece", "c.piece"}, // no --shard
 		{"shard", "census", in, "--shard", "5/4", "--piece", filepath.Join(dir, "c.piece")},
 		{"shard", "census", in, "--shard", "1/2", "--piece", filepath.Join(dir, "c.piece"), "--within", "rest"}, // shards take align
-		{"shard", "plan", "--piece", "p.piece"}, // no census pieces
+		{"shard", "plan", "--piece", "p.piece"},                                                                 // no census pieces
 		{"shard", "sample", "--plan", "p.piece", "--piece", "s.piece"},
 		{"shard", "fit", "--plan", "p.piece", "--piece", "f.piece"},
 		{"shard", "finish", "--fit", "f.piece", "a.piece"}, // no --out
