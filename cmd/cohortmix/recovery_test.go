@@ -2,10 +2,13 @@ package main
 
 import (
 	"context"
+	"encoding/json"
 	"flag"
 	"fmt"
 	"github.com/cohortmix/cohortmix/cohort/job"
+	"gonum.org/v1/gonum/mat"
 	"math"
+	"os"
 	"path/filepath"
 	"slices"
 	"strings"
@@ -145,6 +148,9 @@ func runCohort(t testing.TB, so synth.Options, variants []variant) (oracle scena
 		}
 		ari, _ := cluster.AdjustedRand(a, b)
 		runs = append(runs, scenarioRun{ari, f.States.K, f.Grouping.K, f.Labels.ARI})
+		if dir := os.Getenv("COHORTMIX_RECOVERY_DUMP"); dir != "" {
+			dumpRecovery(t, dir, v.name, seed, truthK, len(truth[0].Shares), a, f)
+		}
 	}
 	return oracle, runs, truthK
 }
@@ -320,5 +326,24 @@ func TestRecoveryOnSmallScenarios(t *testing.T) {
 	}
 	if m := mean(aris); m < 0.8 || slices.Min(aris) < 0.6 {
 		t.Errorf("mean ARI %.3f, worst %.3f on the small scenarios; want ≥ 0.8 and ≥ 0.6", m, slices.Min(aris))
+	}
+}
+
+// dumpRecovery writes what a run of the defaults chose, with the participants' signatures and
+// planted groups, for studying rules for the number of groups away from the benchmark
+// (COHORTMIX_RECOVERY_DUMP names the folder; a developer's aid).
+func dumpRecovery(t testing.TB, dir, variant string, seed uint64, truthK, truthStates int, want []int, f *job.Fitted) {
+	shares := make([][]float64, len(f.Sigs))
+	for i, s := range f.Sigs {
+		shares[i] = s.Share
+	}
+	b, err := json.Marshal(map[string]any{"seed": seed, "true_groups": truthK, "true_states": truthStates, "want": want,
+		"states": f.States.K, "groups": f.Grouping.K, "labels": f.Grouping.Labels, "shares": shares, "scores": f.Grouping.Scores,
+		"centroids": mat.DenseCopyOf(f.States.Centroids).RawMatrix().Data, "dim": f.States.Centroids.RawMatrix().Cols})
+	if err == nil {
+		err = os.WriteFile(filepath.Join(dir, fmt.Sprintf("seed-%03d-%s.json", seed, strings.ReplaceAll(variant, " ", "_"))), b, 0o644)
+	}
+	if err != nil {
+		t.Fatal(err)
 	}
 }
