@@ -85,6 +85,9 @@ func (o ReadOptions) withDefaults() ReadOptions {
 // Shard names one of Count parts of the participants, split by a hash of their id.
 type Shard struct{ Index, Count int }
 
+// String is the shard as the command line gives it: "2/4" for Index 1 of 4.
+func (s Shard) String() string { return fmt.Sprintf("%d/%d", s.Index+1, s.Count) }
+
 // ShardOf is the shard, of count, of the participant with this id: all waves of one person fall
 // in the same shard, whatever the files they sit in (FNV-1a of the id, mixed by SplitMix64).
 func ShardOf(id string, count int) int {

@@ -240,13 +240,9 @@ func (o *shardOptions) census(ctx context.Context, inputs []string, shard, piece
 }
 
 func (o *shardOptions) plan(censuses []string, piece string) error {
-	var parts []*job.Census
-	for _, p := range censuses {
-		c := new(job.Census)
-		if err := job.ReadPiece(p, job.KindCensus, c); err != nil {
-			return err
-		}
-		parts = append(parts, c)
+	parts, err := job.ReadPieces[job.Census](censuses, job.KindCensus)
+	if err != nil {
+		return err
 	}
 	plan, err := job.MergeCensus(parts)
 	if err != nil {
@@ -305,13 +301,9 @@ func (o *shardOptions) fit(ctx context.Context, planFile string, samples []strin
 	if err := job.ReadPiece(planFile, job.KindPlan, plan); err != nil {
 		return err
 	}
-	var parts []*job.SamplePiece
-	for _, p := range samples {
-		sp := new(job.SamplePiece)
-		if err := job.ReadPiece(p, job.KindSample, sp); err != nil {
-			return err
-		}
-		parts = append(parts, sp)
+	parts, err := job.ReadPieces[job.SamplePiece](samples, job.KindSample)
+	if err != nil {
+		return err
 	}
 	plan.Options.Workers = o.Flags.Workers
 	fp, err := job.FitSample(ctx, plan, parts)
@@ -356,13 +348,9 @@ func (o *shardOptions) finish(ctx context.Context, fitFile string, assigned []st
 	if err := job.ReadPiece(fitFile, job.KindFit, fp); err != nil {
 		return err
 	}
-	var parts []*job.AssignPiece
-	for _, p := range assigned {
-		ap := new(job.AssignPiece)
-		if err := job.ReadPiece(p, job.KindAssign, ap); err != nil {
-			return err
-		}
-		parts = append(parts, ap)
+	parts, err := job.ReadPieces[job.AssignPiece](assigned, job.KindAssign)
+	if err != nil {
+		return err
 	}
 	fp.Plan.Options.Workers = o.Flags.Workers
 	f, err := job.Finish(ctx, fp, parts)

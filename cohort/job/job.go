@@ -154,13 +154,13 @@ func rebuild(dst, y []float64, comps *mat.Dense) []float64 {
 // WindowLength is the length of one window: as given, or read from the order column's times
 // of the first few participants (windowFromSteps); 0 when neither is there.
 func WindowLength(t *cohort.Table, given time.Duration) (time.Duration, string) {
-	c, err := CensusOf(t, Options{})
-	if err != nil {
-		return 0, ""
-	}
 	var steps [][]int64
-	for _, fw := range c.First[:min(len(c.First), stepUnits)] {
-		steps = append(steps, fw.Steps)
+	for u := 0; u < min(stepUnits, len(t.Units)); u++ {
+		s, err := orderSteps(t, u)
+		if err != nil {
+			return 0, ""
+		}
+		steps = append(steps, s)
 	}
 	return windowFromSteps(steps, t.OrderKind, given)
 }

@@ -102,20 +102,32 @@ func CensusOf(t *cohort.Table, o Options) (*Census, error) {
 			return nil, err
 		}
 		fw := FirstWindows{Ordinal: un.Ordinal, Rows: slices.Clone(x[:min(len(x), firstRows*d)])}
-		if u < stepUnits && t.OrderKind == "time" {
-			ord, err := t.Order(u)
-			if err != nil {
+		if u < stepUnits {
+			if fw.Steps, err = orderSteps(t, u); err != nil {
 				return nil, err
-			}
-			for i := 1; i < len(ord); i++ {
-				if s := ord[i] - ord[i-1]; s > 0 {
-					fw.Steps = append(fw.Steps, s)
-				}
 			}
 		}
 		c.First = append(c.First, fw)
 	}
 	return c, nil
+}
+
+// orderSteps are the positive steps between unit u's consecutive order keys, when they are times.
+func orderSteps(t *cohort.Table, u int) ([]int64, error) {
+	if t.OrderKind != "time" {
+		return nil, nil
+	}
+	ord, err := t.Order(u)
+	if err != nil {
+		return nil, err
+	}
+	var steps []int64
+	for i := 1; i < len(ord); i++ {
+		if s := ord[i] - ord[i-1]; s > 0 {
+			steps = append(steps, s)
+		}
+	}
+	return steps, nil
 }
 
 // Plan is the census of the whole input, merged from every shard's: what the sample and
@@ -148,8 +160,12 @@ func MergeCensus(parts []*Census) (*Plan, error) {
 	slices.SortFunc(parts, func(a, b *Census) int { return a.Shard.Index - b.Shard.Index })
 	first := parts[0]
 	count := max(1, first.Shard.Count)
-	if len(parts) != count {
-		return nil, fmt.Errorf("job: %d census pieces for %d shards: %w; give the piece of every shard once", len(parts), count, ErrPiece)
+	shards := make([]cohort.Shard, len(parts))
+	for i, c := range parts {
+		shards[i] = c.Shard
+	}
+	if err := checkShards(KindCensus, shards, count); err != nil {
+		return nil, err
 	}
 	p := &Plan{Options: first.Options, Meta: first.Meta, Shards: count, OrderKind: first.OrderKind, HasLabels: first.HasLabels, Files: first.Files}
 	q := &p.Quality
@@ -157,9 +173,6 @@ func MergeCensus(parts []*Census) (*Plan, error) {
 	var first20 []FirstWindows
 	var constancy []*cohort.Constancy
 	for i, c := range parts {
-		if c.Shard.Index != i || max(1, c.Shard.Count) != count {
-			return nil, fmt.Errorf("job: census pieces of shards %v and %v: %w; give the piece of every shard once", parts[max(0, i-1)].Shard, c.Shard, ErrPiece)
-		}
 		if !slices.Equal(c.Features, first.Features) || !slices.Equal(c.Files, first.Files) || c.Quality.UnitsIn != q.UnitsIn || c.Quality.WindowsIn != q.WindowsIn ||
 			!sameOptions(c.Options, first.Options) {
 			return nil, fmt.Errorf("job: the census of shard %d was taken of other input files or with other settings than shard 0's: %w; run every shard on the same files with the same settings", i, ErrPiece)

@@ -72,3 +72,15 @@ func ReadPiece(path, kind string, v any) error {
 	}
 	return nil
 }
+
+// ReadPieces reads pieces of one kind from files.
+func ReadPieces[T any](paths []string, kind string) ([]*T, error) {
+	out := make([]*T, len(paths))
+	for i, p := range paths {
+		out[i] = new(T)
+		if err := ReadPiece(p, kind, out[i]); err != nil {
+			return nil, err
+		}
+	}
+	return out, nil
+}
