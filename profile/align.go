@@ -144,6 +144,11 @@ func FitAligned(ctx context.Context, units [][]float64, fit *normalize.Fit, opts
 	}
 	s := &States{Sampled: total, Offsets: a.offsets, Prior: opts.Prior, Rounds: opts.Rounds, Rule: "fixed"}
 	if len(opts.States) > 1 {
+		// The states as fitted, before any merge: the caller may keep them (States.Fine).
+		fine := &States{K: a.k, Sampled: total, Offsets: a.offsets, Prior: opts.Prior, Rounds: opts.Rounds,
+			Rule: fmt.Sprintf("%d states fitted with each device aligned, none merged", a.k)}
+		fine.Centroids, fine.Posture = orderAligned(mat.NewDense(a.k, dim, slices.Clone(a.centres)), clonePosture(a.posture))
+		s.Fine = fine
 		s.Rule = fmt.Sprintf("%d states fitted with each device aligned, then neighbours that form one mode merged (valley ratio ≥ %.2f; after Hennig 2010)", kmax, opts.Valley)
 		merges, err := a.merge(opts.States[0], opts.Valley, func(int) { progress() })
 		if err != nil {
@@ -508,6 +513,17 @@ func MergeStates(x *mat.Dense, labels []int, k, lo int, valley float64, progress
 		}
 	}
 	return lab, merges, nil
+}
+
+func clonePosture(p [][]float64) [][]float64 {
+	if p == nil {
+		return nil
+	}
+	out := make([][]float64, len(p))
+	for i, r := range p {
+		out[i] = slices.Clone(r)
+	}
+	return out
 }
 
 // orderAligned numbers aligned states as orderStates does, quietest-looking first, with their

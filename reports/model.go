@@ -83,6 +83,7 @@ type ModelFit struct {
 	NoPCA          bool     `json:"no_pca,omitempty"`
 	States         []int    `json:"states"` // the numbers of states tried
 	StatesRule     string   `json:"states_rule"`
+	KeepMerged     bool     `json:"keep_merged,omitempty"` // the merged states were kept without comparing the grouping's stability
 	Valley         float64  `json:"valley"`
 	Sample         int      `json:"sample"`
 	Groups         []int    `json:"groups"` // the numbers of groups tried

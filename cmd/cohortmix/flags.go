@@ -48,6 +48,7 @@ type mainFlags struct {
 	Axes                   string
 	Log                    string
 	StatesRule             string
+	StatesLevel            string
 	Valley                 float64
 	OffsetICC, RestShare   float64
 	Scale                  string
@@ -82,6 +83,7 @@ func (m *mainFlags) register(cmd *cobra.Command) {
 	f.StringVar(&m.States, "states", "2-12", "number of movement states, or a range to choose from")
 	f.Float64Var(&m.Valley, "valley", profile.DefaultValley, "with --states-rule valley: two states merge when the density of their windows between them keeps at least this share of its height at them")
 	f.StringVar(&m.StatesRule, "states-rule", "valley", "how a range of states is decided: valley (fit the most, merge states that form one mode) or ch (largest Calinski–Harabasz index)")
+	f.StringVar(&m.StatesLevel, "states-level", "stable", "with the valley rule and the align step: stable keeps the states as fitted instead of merged when the sampled participants group more stably over them; merged always keeps the merged states")
 	f.IntVar(&m.Sample, "sample", 50000, "windows sampled to fit the states")
 	f.StringVar(&m.Groups, "groups", "2-8", "number of participant groups, or a range to choose from")
 	f.StringVar(&m.Method, "method", "auto", "grouping: "+cohort.MethodHelp())
@@ -179,6 +181,13 @@ func (m *mainFlags) options(inputs []string) (job.Options, error) {
 	if o.StatesRule == profile.ByCalinskiHarabasz && o.Norm.Within == normalize.WithinAlign {
 		return o, flagErrorf("--states-rule ch with --within align: the aligned states decide a range by the valley rule; use --within none, rest, centre or robust-z for ch")
 	}
+	switch m.StatesLevel {
+	case "stable":
+	case "merged":
+		o.KeepMerged = true
+	default:
+		return o, flagErrorf("--states-level %q: use stable or merged", m.StatesLevel)
+	}
 	if !(m.Valley > 0 && m.Valley <= 1) {
 		return o, flagErrorf("--valley %v: a share of the density's height lies in (0, 1]", m.Valley)
 	}
@@ -231,7 +240,7 @@ func (m *mainFlags) settings() []reports.Setting {
 		s("id column", m.ID), s("order column", m.Order), s("wave column", m.Wave), s("label column", m.Label),
 		s("feature patterns", strings.Join(m.Features, ",")), s("missing cells", m.Missing), s("minimum windows", strconv.Itoa(m.MinWindows)),
 		s("within-participant step", m.Within), s("within-step features", strings.Join(m.WithinFeatures, ",")),
-		s("axis means (align)", m.Axes), s("log scale", m.Log), s("rule for a range of states", m.StatesRule), s("valley ratio", fmt.Sprint(m.Valley)),
+		s("axis means (align)", m.Axes), s("log scale", m.Log), s("rule for a range of states", m.StatesRule), s("states kept", m.StatesLevel), s("valley ratio", fmt.Sprint(m.Valley)),
 		s("offset ICC threshold", fmt.Sprint(m.OffsetICC)), s("rest share", fmt.Sprint(m.RestShare)),
 		s("cohort scaling", m.Scale), s("PCA", m.PCA), s("states", m.States), s("window sample", strconv.Itoa(m.Sample)),
 		s("groups", m.Groups), s("grouping method", m.Method), s("criterion for groups", m.Criterion), s("group valley cap", strconv.FormatFloat(m.GroupValley, 'g', -1, 64)),
@@ -439,8 +448,14 @@ var modelFlags = map[string]func(m *mainFlags, f *reports.ModelFit, r reports.Mo
 			}
 		}
 	},
-	"states":       func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) { m.States = rangeText(f.States) },
-	"states-rule":  func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) { m.StatesRule = f.StatesRule },
+	"states":      func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) { m.States = rangeText(f.States) },
+	"states-rule": func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) { m.StatesRule = f.StatesRule },
+	"states-level": func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) {
+		m.StatesLevel = "stable"
+		if f.KeepMerged {
+			m.StatesLevel = "merged"
+		}
+	},
 	"valley":       func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) { m.Valley = f.Valley },
 	"sample":       func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) { m.Sample = f.Sample },
 	"groups":       func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) { m.Groups = rangeText(f.Groups) },

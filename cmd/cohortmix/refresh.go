@@ -74,6 +74,10 @@ func refreshRun(ctx context.Context, o *refreshOptions) error {
 		o.Flags.States = strconv.Itoa(prev.States.K)
 		if n := mostStates(prev); n > prev.States.K {
 			o.Flags.States = fmt.Sprintf("%d-%d", prev.States.K, n)
+			// The previous states were merged: merged they stay, so that they keep their names.
+			if !o.changed("states-level") {
+				o.Flags.StatesLevel = "merged"
+			}
 		}
 	}
 	ao, key, err := o.prepare()

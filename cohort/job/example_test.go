@@ -16,7 +16,7 @@ func ExampleAnalyze() {
 	dir, _ := os.MkdirTemp("", "cohortmix-example")
 	defer os.RemoveAll(dir)
 	path := filepath.Join(dir, "cohort.csv")
-	if _, err := synth.WriteFile(path, synth.Options{Participants: 60, Windows: 1000, Seed: 3}); err != nil {
+	if _, err := synth.WriteFile(path, synth.Options{Participants: 60, Windows: 1000, Seed: 1}); err != nil {
 		fmt.Println(err)
 		return
 	}

@@ -35,6 +35,9 @@ type Options struct {
 	Axes       []string
 	NoAxes     bool
 	StatesRule profile.Rule
+	// KeepMerged keeps, for a range of states, the valley rule's merged states, without asking
+	// whether the participants group more stably over the states as fitted (chooseStates).
+	KeepMerged bool
 	Valley     float64 // see profile.MergeStates; 0 means profile.DefaultValley
 	// GroupValley lowers the number of groups while two form one mode (cohort.GroupOptions.Valley).
 	GroupValley float64
@@ -564,7 +567,7 @@ func (o Options) ModelFit() *reports.ModelFit {
 		Within: o.Norm.Within.String(), WithinFeatures: o.Norm.WithinFeatures, OffsetICC: o.Norm.OffsetICC, RestShare: o.Norm.RestShare,
 		Axes: o.Axes, NoAxes: o.NoAxes, Log: o.Norm.Log, Scale: o.Norm.Scale.String(),
 		PCAComponents: o.Norm.PCAComponents, PCAVariance: o.Norm.PCAVariance, NoPCA: o.Norm.NoPCA,
-		States: o.States, StatesRule: o.StatesRule.String(), Valley: o.Valley, Sample: o.Sample,
+		States: o.States, StatesRule: o.StatesRule.String(), KeepMerged: o.KeepMerged, Valley: o.Valley, Sample: o.Sample,
 		Groups: o.Groups, Method: o.Method.String(), Criterion: o.Criterion.String(), GroupValley: o.GroupValley,
 		Bootstrap: o.Bootstrap, Seed: o.Seed, WindowSeconds: o.Window.Seconds(),
 	}

@@ -416,6 +416,12 @@ func FitSample(ctx context.Context, p *Plan, samples []*SamplePiece) (*FitPiece,
 	if fp.States, err = profile.FitAligned(ctx, units, fp.Fit, profile.AlignOptions{States: o.States, Valley: o.Valley, Seed: o.Seed, Workers: o.Workers, Progress: o.Steps}); err != nil {
 		return nil, err
 	}
+	if note, err = chooseStates(ctx, fp, units, o); err != nil {
+		return nil, err
+	}
+	if note != "" {
+		fp.Notes = append(fp.Notes, note)
+	}
 	// Each feature's ICC(1) once aligned, on the sampled participants' windows; with PCA, on the
 	// features rebuilt from the kept components (an ICC does not change with a shift of the
 	// feature, so the PCA's centre is not added back).
@@ -434,6 +440,68 @@ func FitSample(ctx context.Context, p *Plan, samples []*SamplePiece) (*FitPiece,
 	}
 	fp.Fit.ICCAfter = icc.ICC()
 	return fp, nil
+}
+
+// levelUnits is the fewest sampled participants on which chooseStates compares the two levels.
+const levelUnits = 20
+
+// chooseStates keeps the states as fitted, before any merge (States.Fine), when the sampled
+// participants' signatures over them group more stably than over the merged states: the
+// number of states that serves the grouping rather than the windows. Each level's signatures
+// are grouped as the run groups (method, range, criterion), and the grouping's stability is the
+// mean adjusted Rand index of its bootstrap resamples at the number of groups chosen (Lange T,
+// Roth V, Braun ML & Buhmann JM (2004), Stability-based validation of clustering solutions,
+// Neural Comput. 16:1299–1323). It says in a note which level was kept and why.
+func chooseStates(ctx context.Context, fp *FitPiece, units [][]float64, o Options) (string, error) {
+	merged, fine := fp.States, fp.States.Fine
+	merged.Fine = nil
+	if o.KeepMerged || fine == nil || fine.K <= merged.K || len(units) < levelUnits {
+		return "", nil
+	}
+	var groups []int
+	for _, k := range o.Groups {
+		if k < len(units) {
+			groups = append(groups, k)
+		}
+	}
+	if len(groups) < 2 {
+		return "", nil // one number of groups: no stability is measured
+	}
+	stability := func(st *profile.States) (float64, error) {
+		shares := make([][]float64, len(units))
+		for i, x := range units {
+			_, _, lab, err := st.AlignUnit(fp.Fit, x, nil)
+			if err != nil {
+				return 0, err
+			}
+			shares[i] = profile.Signatures(lab, st.K).Share
+		}
+		g, err := cohort.GroupSignatures(ctx, shares, cohort.GroupOptions{Method: o.Method, Groups: groups, Criterion: o.Criterion,
+			Bootstrap: o.Bootstrap, Seed: o.Seed, Workers: o.Workers})
+		if err != nil {
+			return 0, err
+		}
+		for _, sc := range g.Scores {
+			if sc.K == g.K {
+				return sc.Stability, nil
+			}
+		}
+		return 0, nil
+	}
+	sm, err := stability(merged)
+	if err != nil {
+		return "", err
+	}
+	sf, err := stability(fine)
+	if err != nil {
+		return "", err
+	}
+	if sf > sm {
+		fine.Rule += fmt.Sprintf(", kept unmerged: the sampled participants group more stably over them than over the %d merged states (bootstrap stability %.2f against %.2f)", merged.K, sf, sm)
+		fp.States = fine
+		return fmt.Sprintf("the %d states fitted were kept unmerged: the sampled participants group more stably over them (%.2f) than over the %d states the valley rule merged them to (%.2f)", fine.K, sf, merged.K, sm), nil
+	}
+	return fmt.Sprintf("the valley rule's %d states were kept: the sampled participants group more stably over them (%.2f) than over the %d states fitted (%.2f)", merged.K, sm, fine.K, sf), nil
 }
 
 // checkCounts refuses a run with too few participants for the numbers of groups asked for.
