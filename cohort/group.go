@@ -136,6 +136,9 @@ type KScore struct {
 	Silhouette float64
 	Gap, GapSE float64
 	Stability  float64
+	// StabilitySE is the standard error of Stability, the resamples' standard deviation over
+	// the square root of their number.
+	StabilitySE float64
 }
 
 // Grouping is the frozen grouping of participants.
@@ -530,7 +533,7 @@ func withinSS(x *mat.Dense, lab []int, k int) float64 {
 // compared by ARI with the grouping of all participants on the resampled ones (Lange et al. 2004).
 func scoreStability(ctx context.Context, x *mat.Dense, dist *cluster.Condensed, scores []KScore, labelsByK map[int][]int, opts GroupOptions) error {
 	n, _ := x.Dims()
-	sum := make([]float64, len(scores))
+	sum, sum2 := make([]float64, len(scores)), make([]float64, len(scores))
 	for b := 0; b < opts.Bootstrap; b++ {
 		if ctx.Err() != nil {
 			return ctx.Err()
@@ -568,11 +571,17 @@ func scoreStability(ctx context.Context, x *mat.Dense, dist *cluster.Condensed, 
 				return err
 			}
 			sum[i] += ari
+			sum2[i] += ari * ari
 		}
 		opts.report("stability: resamples", b+1, opts.Bootstrap)
 	}
+	nb := float64(opts.Bootstrap)
 	for i := range scores {
-		scores[i].Stability = sum[i] / float64(opts.Bootstrap)
+		scores[i].Stability = sum[i] / nb
+		if nb > 1 {
+			variance := max(0, (sum2[i]-sum[i]*sum[i]/nb)/(nb-1))
+			scores[i].StabilitySE = math.Sqrt(variance / nb)
+		}
 	}
 	return nil
 }

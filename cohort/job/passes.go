@@ -446,8 +446,9 @@ func FitSample(ctx context.Context, p *Plan, samples []*SamplePiece) (*FitPiece,
 const levelUnits = 20
 
 // chooseStates keeps the states as fitted, before any merge (States.Fine), when the sampled
-// participants' signatures over them group more stably than over the merged states: the
-// number of states that serves the grouping rather than the windows. Each level's signatures
+// participants' signatures over them group clearly more stably than over the merged states (by
+// more than one standard error): the number of states that serves the grouping rather than the
+// windows. Each level's signatures
 // are grouped as the run groups (method, range, criterion), and the grouping's stability is the
 // mean adjusted Rand index of its bootstrap resamples at the number of groups chosen (Lange T,
 // Roth V, Braun ML & Buhmann JM (2004), Stability-based validation of clustering solutions,
@@ -467,41 +468,51 @@ func chooseStates(ctx context.Context, fp *FitPiece, units [][]float64, o Option
 	if len(groups) < 2 {
 		return "", nil // one number of groups: no stability is measured
 	}
-	stability := func(st *profile.States) (float64, error) {
+	stability := func(st *profile.States) (float64, float64, error) {
 		shares := make([][]float64, len(units))
 		for i, x := range units {
 			_, _, lab, err := st.AlignUnit(fp.Fit, x, nil)
 			if err != nil {
-				return 0, err
+				return 0, 0, err
 			}
 			shares[i] = profile.Signatures(lab, st.K).Share
 		}
 		g, err := cohort.GroupSignatures(ctx, shares, cohort.GroupOptions{Method: o.Method, Groups: groups, Criterion: o.Criterion,
 			Bootstrap: o.Bootstrap, Seed: o.Seed, Workers: o.Workers})
 		if err != nil {
-			return 0, err
+			return 0, 0, err
 		}
 		for _, sc := range g.Scores {
 			if sc.K == g.K {
-				return sc.Stability, nil
+				return sc.Stability, sc.StabilitySE, nil
 			}
 		}
-		return 0, nil
+		return 0, 0, nil
 	}
-	sm, err := stability(merged)
-	if err != nil {
+	// The two levels are grouped side by side: each grouping is its own, so the result does
+	// not depend on which finishes first.
+	var sm, se, sf float64
+	var errM, errF error
+	var wg sync.WaitGroup
+	wg.Add(1)
+	go func() {
+		defer wg.Done()
+		sf, _, errF = stability(fine)
+	}()
+	sm, se, errM = stability(merged)
+	wg.Wait()
+	if err := errors.Join(errM, errF); err != nil {
 		return "", err
 	}
-	sf, err := stability(fine)
-	if err != nil {
-		return "", err
-	}
-	if sf > sm {
-		fine.Rule += fmt.Sprintf(", kept unmerged: the sampled participants group more stably over them than over the %d merged states (bootstrap stability %.2f against %.2f)", merged.K, sf, sm)
+	// The fewer states are kept unless the states as fitted group clearly more stably: by more
+	// than one standard error of the merged states' stability (the one-standard-error rule of
+	// Breiman, Friedman, Olshen & Stone 1984, as the gap statistic uses it).
+	if sf > sm+se {
+		fine.Rule += fmt.Sprintf(", kept unmerged: the sampled participants group more stably over them than over the %d merged states (bootstrap stability %.3f against %.3f ± %.3f)", merged.K, sf, sm, se)
 		fp.States = fine
-		return fmt.Sprintf("the %d states fitted were kept unmerged: the sampled participants group more stably over them (%.2f) than over the %d states the valley rule merged them to (%.2f)", fine.K, sf, merged.K, sm), nil
+		return fmt.Sprintf("the %d states fitted were kept unmerged: the sampled participants group more stably over them (bootstrap stability %.3f) than over the %d states the valley rule merged them to (%.3f ± %.3f)", fine.K, sf, merged.K, sm, se), nil
 	}
-	return fmt.Sprintf("the valley rule's %d states were kept: the sampled participants group more stably over them (%.2f) than over the %d states fitted (%.2f)", merged.K, sm, fine.K, sf), nil
+	return fmt.Sprintf("the valley rule's %d states were kept: over the %d states fitted, the sampled participants group no more stably by more than one standard error (bootstrap stability %.3f against %.3f ± %.3f)", merged.K, fine.K, sf, sm, se), nil
 }
 
 // checkCounts refuses a run with too few participants for the numbers of groups asked for.
