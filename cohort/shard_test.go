@@ -2,6 +2,7 @@ package cohort
 
 import (
 	"context"
+	"errors"
 	"slices"
 	"strings"
 	"testing"
@@ -86,5 +87,49 @@ func TestShardsMakeUpTheWholeRead(t *testing.T) {
 	}
 	if _, err := Read(context.Background(), paths, ReadOptions{Shard: Shard{3, 3}}); err == nil {
 		t.Error("shard 3 of 3 was read")
+	}
+}
+
+// A windows file gives back the table it was written from: the same units, ordinals, labels,
+// windows and order keys, in memory and spilled; other files are refused.
+func TestWindowsFileGivesBackTheTable(t *testing.T) {
+	dir := t.TempDir()
+	var b strings.Builder
+	b.WriteString("participant,window,f1,f2,act\n")
+	for i := 0; i < 60; i++ {
+		for p := 0; p < 5; p++ {
+			b.WriteString("P" + itoa(p) + "," + itoa(60-i) + "," + itoa(i%7+p) + ".125,-" + itoa(i%3) + ".5,a" + itoa(i%2) + "\n")
+		}
+	}
+	path := write(t, dir, "c.csv", []byte(b.String()))
+	opts := ReadOptions{Label: "act", Shard: Shard{1, 2}}
+	tab, err := Read(context.Background(), []string{path}, opts)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var buf strings.Builder
+	if err := tab.WriteWindows(&buf, opts.Shard); err != nil {
+		t.Fatal(err)
+	}
+	file := write(t, dir, "w.windows", []byte(buf.String()))
+	for _, memory := range []int64{0, 50} {
+		back, shard, err := ReadWindows(file, ReadOptions{TempDir: dir, MemoryValues: memory})
+		if err != nil {
+			t.Fatal(err)
+		}
+		if shard != opts.Shard || len(back.Units) != len(tab.Units) || !slices.Equal(back.Features, tab.Features) || back.Spilled() != (memory > 0) {
+			t.Fatalf("memory %d: shard %v, %d units, features %v, spilled %v", memory, shard, len(back.Units), back.Features, back.Spilled())
+		}
+		for u, un := range tab.Units {
+			bu := back.Units[u]
+			if bu.ID != un.ID || bu.Ordinal != un.Ordinal || !slices.Equal(bu.Labels, un.Labels) ||
+				!slices.Equal(block(t, back, u), block(t, tab, u)) || !slices.Equal(order(t, back, u), order(t, tab, u)) {
+				t.Errorf("memory %d: unit %s differs after the windows file", memory, un.ID)
+			}
+		}
+		back.Close()
+	}
+	if _, _, err := ReadWindows(path, ReadOptions{}); !errors.Is(err, ErrWindows) {
+		t.Errorf("a CSV file read as a windows file: %v", err)
 	}
 }

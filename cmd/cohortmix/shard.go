@@ -28,15 +28,19 @@ type shardOptions struct {
 	Plan   string   // the plan piece (sample, fit)
 	Fit    string   // the fit piece (assign, finish)
 	Pieces string   // run: the folder for the pieces
-	Out    string   // finish, run: the workbook
-	Flags  mainFlags
-	argv   []string // the command line, for the settings sheet
+	// Windows is the shard's windows file: written by census, read by sample and assign
+	// instead of every input file (optional).
+	Windows string
+	Out     string // finish, run: the workbook
+	Flags   mainFlags
+	argv    []string // the command line, for the settings sheet
 }
 
 const shardLong = `A run split in shards gives the result of 'group' bit for bit (members, model and workbook,
 apart from the date and the command line), for any number of shards: participants are split by
-a hash of their id, every pass reads the whole input and keeps one shard, and the pieces are
-merged in the order the participants first appear. It takes the align step (the default).
+a hash of their id, each census reads the whole input and keeps one shard (with --windows it
+writes that shard's windows for its sample and assign steps), and the pieces are merged in the
+order the participants first appear. It takes the align step (the default).
 
 The steps, each a command that a workflow engine can run on another machine:
   census  (each shard)  who is in the input, what is left out and why      → census piece
@@ -56,11 +60,11 @@ func newShardCmd(env *Env, runF func(context.Context, *shardOptions) error) *cob
 		Short: "Run the job split in shards of participants, step by step (for a cluster)",
 		Long:  shardLong,
 		Example: `  $ cohortmix shard run study.csv.gz --shards 4 --pieces pieces/ --out results.xlsx --members members.csv
-  $ cohortmix shard census study.csv.gz --shard 2/4 --piece pieces/census-2.piece
+  $ cohortmix shard census study.csv.gz --shard 2/4 --piece pieces/census-2.piece --windows pieces/windows-2.piece
   $ cohortmix shard plan pieces/census-*.piece --piece pieces/plan.piece
-  $ cohortmix shard sample --plan pieces/plan.piece --shard 2/4 --piece pieces/sample-2.piece
+  $ cohortmix shard sample --plan pieces/plan.piece --windows pieces/windows-2.piece --shard 2/4 --piece pieces/sample-2.piece
   $ cohortmix shard fit --plan pieces/plan.piece pieces/sample-*.piece --piece pieces/fit.piece
-  $ cohortmix shard assign --fit pieces/fit.piece --shard 2/4 --piece pieces/assign-2.piece
+  $ cohortmix shard assign --fit pieces/fit.piece --windows pieces/windows-2.piece --shard 2/4 --piece pieces/assign-2.piece
   $ cohortmix shard finish --fit pieces/fit.piece pieces/assign-*.piece --out results.xlsx --members members.csv`,
 		Args: cobra.ArbitraryArgs,
 		RunE: func(cmd *cobra.Command, args []string) error {
@@ -94,6 +98,7 @@ func newShardCmd(env *Env, runF func(context.Context, *shardOptions) error) *cob
 		c.Flags().StringVar(&o.Shard, "shard", "", "this step's shard and their number, I/N with I from 1 to N")
 		_ = c.MarkFlagRequired("shard")
 		c.Flags().IntVar(&o.Flags.Workers, "workers", 0, "worker goroutines (0: all cores); never changes the result")
+		c.Flags().StringVar(&o.Windows, "windows", "", "the shard's windows file that census wrote, read instead of every input file")
 	}
 	step("census", "census <windows.csv>... --shard I/N --piece <census.piece>", "Count one shard's participants and what was left out (every setting of the run is given here)",
 		cobra.MinimumNArgs(1), func(c *cobra.Command, o *shardOptions) {
@@ -105,6 +110,7 @@ func newShardCmd(env *Env, runF func(context.Context, *shardOptions) error) *cob
 			_ = c.MarkFlagRequired("shard")
 			c.Flags().StringVar(&o.Piece, "piece", "", "the piece file to write")
 			_ = c.MarkFlagRequired("piece")
+			c.Flags().StringVar(&o.Windows, "windows", "", "also write the shard's windows to this file, for sample and assign to read instead of every input file")
 		})
 	step("plan", "plan <census.piece>... --piece <plan.piece>", "Merge every shard's census into the plan of the run", cobra.MinimumNArgs(1), pieceFlag)
 	step("sample", "sample --plan <plan.piece> --shard I/N --piece <sample.piece>", "Draw one shard's windows for the fit", cobra.NoArgs,
@@ -236,7 +242,24 @@ func (o *shardOptions) census(ctx context.Context, inputs []string, shard, piece
 	}
 	c.Meta = job.Meta{Command: strings.Join(o.argv, " "), Settings: o.Flags.settings()}
 	files, _ := cohort.ExpandPaths(inputs)
-	return o.writePiece(piece, job.KindCensus, files, c)
+	targets := []reports.Target{{Flag: "--piece", Path: piece}}
+	if o.Windows != "" {
+		targets = append(targets, reports.Target{Flag: "--windows", Path: o.Windows})
+	}
+	plan, err := reports.PlanOutputs(targets, files, "", o.Flags.Force)
+	if err != nil {
+		return err
+	}
+	defer plan.Abort()
+	if err := plan.Write("--piece", func(w io.Writer) error { return job.WritePiece(w, job.KindCensus, c) }); err != nil {
+		return err
+	}
+	if o.Windows != "" {
+		if err := plan.Write("--windows", func(w io.Writer) error { return t.WriteWindows(w, sh) }); err != nil {
+			return err
+		}
+	}
+	return plan.Commit()
 }
 
 func (o *shardOptions) plan(censuses []string, piece string) error {
@@ -266,12 +289,25 @@ func (o *shardOptions) readShard(ctx context.Context, plan *job.Plan, shard, pie
 	if ro.TempDir == "" {
 		ro.TempDir = filepath.Dir(piece)
 	}
-	t, err := cohort.Read(ctx, plan.Options.Inputs, ro)
-	if err != nil {
+	var t *cohort.Table
+	if o.Windows != "" {
+		var of cohort.Shard
+		if t, of, err = cohort.ReadWindows(o.Windows, ro); err != nil {
+			return nil, sh, err
+		}
+		if of != sh {
+			t.Close()
+			return nil, sh, fmt.Errorf("%s: the windows of shard %s, not %s: %w; give this shard's windows file", o.Windows, of, sh, job.ErrPiece)
+		}
+	} else if t, err = cohort.Read(ctx, plan.Options.Inputs, ro); err != nil {
 		return nil, sh, err
 	}
+	if len(t.Files) != len(plan.Files) {
+		t.Close()
+		return nil, sh, fmt.Errorf("the shard's inputs are %d files, the census's %d: %w; run the split run again from its census", len(t.Files), len(plan.Files), job.ErrPiece)
+	}
 	for i, f := range t.Files {
-		if i >= len(plan.Files) || f.SHA256 != plan.Files[i].SHA256 || f.Path != plan.Files[i].Path {
+		if f.SHA256 != plan.Files[i].SHA256 || f.Path != plan.Files[i].Path {
 			t.Close()
 			return nil, sh, fmt.Errorf("%s: not the file the census was taken of (its content or its place in the inputs changed): %w; run the split run again from its census", f.Path, job.ErrPiece)
 		}
@@ -406,21 +442,32 @@ func (o *shardOptions) runAll(ctx context.Context) (err error) {
 		}
 		return out, nil
 	}
-	censuses, err := each("census", func(shard, piece string) error { return o.census(ctx, o.Args, shard, piece) })
+	windows := func(i int) string { return filepath.Join(dir, fmt.Sprintf("windows-%d.piece", i)) }
+	shardNo := func(shard string) int { n, _ := strconv.Atoi(strings.Split(shard, "/")[0]); return n }
+	censuses, err := each("census", func(shard, piece string) error {
+		o.Windows = windows(shardNo(shard))
+		return o.census(ctx, o.Args, shard, piece)
+	})
 	if err != nil {
 		return err
 	}
 	if err := o.plan(censuses, name("plan", -1)); err != nil {
 		return err
 	}
-	samples, err := each("sample", func(shard, piece string) error { return o.sample(name("plan", -1), shard, piece) })
+	samples, err := each("sample", func(shard, piece string) error {
+		o.Windows = windows(shardNo(shard))
+		return o.sample(name("plan", -1), shard, piece)
+	})
 	if err != nil {
 		return err
 	}
 	if err := o.fit(ctx, name("plan", -1), samples, name("fit", -1)); err != nil {
 		return err
 	}
-	assigned, err := each("assign", func(shard, piece string) error { return o.assign(ctx, name("fit", -1), shard, piece) })
+	assigned, err := each("assign", func(shard, piece string) error {
+		o.Windows = windows(shardNo(shard))
+		return o.assign(ctx, name("fit", -1), shard, piece)
+	})
 	if err != nil {
 		return err
 	}

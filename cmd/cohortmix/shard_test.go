@@ -86,5 +86,31 @@ func TestShardsGiveTheOneMachineResult(t *testing.T) {
 				t.Errorf("%d shards, memory %d: the workbook differs from one machine's", n, spill)
 			}
 		}
+		// Step by step, as a workflow engine runs them, with sample and assign reading the
+		// inputs again instead of the census's windows files.
+		p := filepath.Join(dir, fmt.Sprintf("steps-%d", spill))
+		os.MkdirAll(p, 0o755)
+		piece := func(kind string, i int) string { return filepath.Join(p, fmt.Sprintf("%s-%d.piece", kind, i)) }
+		var censuses, samples, assigned []string
+		for i := 1; i <= 2; i++ {
+			mustRun(t, append(append([]string{"shard", "census"}, inputs...), "--shard", fmt.Sprintf("%d/2", i), "--piece", piece("census", i),
+				"--groups", "2-5", "--states", "3-8", "--bootstrap", "5", "--label", "activity", "--quiet")...)
+			censuses = append(censuses, piece("census", i))
+		}
+		mustRun(t, append(append([]string{"shard", "plan"}, censuses...), "--piece", piece("plan", 0), "--quiet")...)
+		for i := 1; i <= 2; i++ {
+			mustRun(t, "shard", "sample", "--plan", piece("plan", 0), "--shard", fmt.Sprintf("%d/2", i), "--piece", piece("sample", i), "--quiet")
+			samples = append(samples, piece("sample", i))
+		}
+		mustRun(t, append(append([]string{"shard", "fit", "--plan", piece("plan", 0)}, samples...), "--piece", piece("fit", 0), "--quiet")...)
+		for i := 1; i <= 2; i++ {
+			mustRun(t, "shard", "assign", "--fit", piece("fit", 0), "--shard", fmt.Sprintf("%d/2", i), "--piece", piece("assign", i), "--quiet")
+			assigned = append(assigned, piece("assign", i))
+		}
+		mem := filepath.Join(p, "members.csv")
+		mustRun(t, append(append([]string{"shard", "finish", "--fit", piece("fit", 0)}, assigned...), "--out", filepath.Join(p, "r.xlsx"), "--members", mem, "--quiet")...)
+		if m, _ := os.ReadFile(mem); !bytes.Equal(m, members) {
+			t.Errorf("step by step, reading the inputs again, memory %d: the members differ from one machine's", spill)
+		}
 	}
 }

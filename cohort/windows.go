@@ -1,0 +1,158 @@
+package cohort
+
+import (
+	"bufio"
+	"encoding/binary"
+	"encoding/gob"
+	"errors"
+	"fmt"
+	"io"
+	"math"
+	"os"
+	"slices"
+)
+
+// WindowsFormat and WindowsVersion identify a windows file (Table.WriteWindows): a table's
+// units and windows, without its accounting, so that a later pass of a run split in shards reads
+// its shard's windows once more from there instead of every input file.
+const (
+	WindowsFormat  = "cohortmix windows"
+	WindowsVersion = 1
+)
+
+type windowsHeader struct {
+	Format    string
+	Version   int
+	Shard     Shard
+	Files     []FileInfo // the inputs the windows were read from
+	Features  []string
+	Width     int // values a window: the features, then the order key and source
+	OrderKind string
+	HasLabels bool
+	Units     []windowsUnit
+}
+
+// windowBytes is a window's size in a windows file: its features as float32, then the order key
+// and source as float64 bit patterns, little-endian whatever the machine.
+func windowBytes(width int) int { return 4*(width-2) + 16 }
+
+type windowsUnit struct {
+	ID, Wave string
+	Ordinal  int
+	Rows     int
+	Labels   []string
+}
+
+// WriteWindows writes the table's units and their windows (every stored column, in the windows
+// file's encoding: features as float32, to which they were rounded when read) as a windows file
+// of the given shard.
+func (t *Table) WriteWindows(w io.Writer, shard Shard) error {
+	h := windowsHeader{Format: WindowsFormat, Version: WindowsVersion, Shard: shard, Files: t.Files, OrderKind: t.OrderKind,
+		HasLabels: t.HasLabels, Width: t.store.width, Features: t.Features}
+	for j, c := range t.cols {
+		if c != j || len(t.cols) != h.Width-2 {
+			return fmt.Errorf("cohort: WriteWindows: a table with %d of its %d stored features selected: %w; write it before selecting features", len(t.cols), h.Width-2, ErrBadOption)
+		}
+	}
+	for _, u := range t.Units {
+		h.Units = append(h.Units, windowsUnit{ID: u.ID, Wave: u.Wave, Ordinal: u.Ordinal, Rows: u.rows, Labels: u.Labels})
+	}
+	bw := bufio.NewWriterSize(w, 1<<20)
+	if err := gob.NewEncoder(bw).Encode(h); err != nil {
+		return fmt.Errorf("cohort: writing a windows file: %w", err)
+	}
+	var x []float64
+	var b []byte
+	rb := windowBytes(h.Width)
+	for _, u := range t.Units {
+		var err error
+		if x, err = t.readUnit(u, nil, x); err != nil {
+			return err
+		}
+		b = slices.Grow(b[:0], u.rows*rb)[:u.rows*rb]
+		for i := 0; i < u.rows; i++ {
+			row, out := x[i*h.Width:(i+1)*h.Width], b[i*rb:(i+1)*rb]
+			d := h.Width - 2
+			for j, v := range row[:d] {
+				binary.LittleEndian.PutUint32(out[4*j:], math.Float32bits(float32(v)))
+			}
+			binary.LittleEndian.PutUint64(out[4*d:], math.Float64bits(row[d]))
+			binary.LittleEndian.PutUint64(out[4*d+8:], math.Float64bits(row[d+1]))
+		}
+		if _, err := bw.Write(b); err != nil {
+			return fmt.Errorf("cohort: writing a windows file: %w", err)
+		}
+	}
+	return bw.Flush()
+}
+
+// ErrWindows is wrapped by every error about a windows file.
+var ErrWindows = errors.New("windows file not usable")
+
+// ReadWindows reads a windows file (WriteWindows) into a table of its units, held in memory or,
+// past opts.MemoryValues, in a temporary file in opts.TempDir, as Read holds them. The table has
+// no accounting; its Files are the inputs the windows came from, for the caller to check.
+func ReadWindows(path string, opts ReadOptions) (*Table, Shard, error) {
+	f, err := os.Open(path)
+	if err != nil {
+		return nil, Shard{}, fmt.Errorf("%s: cannot open: %w", path, errors.Join(ErrWindows, err))
+	}
+	defer f.Close()
+	br := bufio.NewReaderSize(f, 1<<20) // a ByteReader: gob reads no further than its message
+	var h windowsHeader
+	if err := gob.NewDecoder(br).Decode(&h); err != nil || h.Format != WindowsFormat {
+		return nil, Shard{}, fmt.Errorf("%s: not a windows file: %w; name the file the census step wrote", path, ErrWindows)
+	}
+	if h.Version != WindowsVersion {
+		return nil, Shard{}, fmt.Errorf("%s: a windows file of version %d, and this cohortmix reads version %d: %w; run every pass of a split run with the same release", path, h.Version, WindowsVersion, ErrWindows)
+	}
+	d := h.Width - 2
+	if d < 1 || len(h.Features) != d {
+		return nil, Shard{}, fmt.Errorf("%s: a windows file of %d features and %d values a window: %w", path, len(h.Features), h.Width, ErrWindows)
+	}
+	dir := opts.TempDir
+	if dir == "" {
+		dir = os.TempDir()
+	}
+	t := &Table{store: &store{dir: dir, limit: opts.MemoryValues, width: h.Width}, Features: h.Features, Files: h.Files,
+		OrderKind: h.OrderKind, HasLabels: h.HasLabels, cols: make([]int, d)}
+	for j := range t.cols {
+		t.cols[j] = j
+	}
+	rb := windowBytes(h.Width)
+	var b []byte
+	var x []float64
+	for _, wu := range h.Units {
+		if wu.Rows < 1 || wu.Rows > 1<<31 {
+			t.Close()
+			return nil, Shard{}, fmt.Errorf("%s: participant %s has %d windows: %w", path, wu.ID, wu.Rows, ErrWindows)
+		}
+		if cap(b) < wu.Rows*rb {
+			b = make([]byte, wu.Rows*rb)
+		}
+		if _, err := io.ReadFull(br, b[:wu.Rows*rb]); err != nil {
+			t.Close()
+			return nil, Shard{}, fmt.Errorf("%s: the windows of participant %s are cut short: %w; write the file again", path, wu.ID, ErrWindows)
+		}
+		x = slices.Grow(x[:0], wu.Rows*h.Width)[:wu.Rows*h.Width]
+		for i := 0; i < wu.Rows; i++ {
+			in, row := b[i*rb:(i+1)*rb], x[i*h.Width:(i+1)*h.Width]
+			for j := range row[:d] {
+				row[j] = float64(math.Float32frombits(binary.LittleEndian.Uint32(in[4*j:])))
+			}
+			row[d] = math.Float64frombits(binary.LittleEndian.Uint64(in[4*d:]))
+			row[d+1] = math.Float64frombits(binary.LittleEndian.Uint64(in[4*d+8:]))
+		}
+		u := &Unit{ID: wu.ID, Wave: wu.Wave, Ordinal: wu.Ordinal, Labels: wu.Labels, at: t.store.n / int64(h.Width), rows: wu.Rows}
+		if err := t.store.append(x); err != nil {
+			t.Close()
+			return nil, Shard{}, err
+		}
+		t.Units = append(t.Units, u)
+	}
+	if err := t.store.flush(); err != nil {
+		t.Close()
+		return nil, Shard{}, err
+	}
+	return t, h.Shard, nil
+}
