@@ -3,6 +3,8 @@ package cohort
 import (
 	"context"
 	"errors"
+	"os"
+	"path/filepath"
 	"slices"
 	"strings"
 	"testing"
@@ -132,4 +134,32 @@ func TestWindowsFileGivesBackTheTable(t *testing.T) {
 	if _, _, err := ReadWindows(path, ReadOptions{}); !errors.Is(err, ErrWindows) {
 		t.Errorf("a CSV file read as a windows file: %v", err)
 	}
+}
+
+// FuzzReadWindows: no file makes the windows reader panic or ask for more memory than the file
+// could fill; it reads a table or says why not.
+func FuzzReadWindows(f *testing.F) {
+	dir := f.TempDir()
+	path := write(f, dir, "c.csv", []byte(rowsOf(30, ",")))
+	tab, err := Read(context.Background(), []string{path}, ReadOptions{})
+	if err != nil {
+		f.Fatal(err)
+	}
+	var buf strings.Builder
+	if err := tab.WriteWindows(&buf, Shard{}); err != nil {
+		f.Fatal(err)
+	}
+	f.Add([]byte(buf.String()))
+	f.Add([]byte("participant,window\n"))
+	f.Fuzz(func(t *testing.T, b []byte) {
+		p := filepath.Join(t.TempDir(), "w")
+		if err := os.WriteFile(p, b, 0o644); err != nil {
+			t.Fatal(err)
+		}
+		back, _, err := ReadWindows(p, ReadOptions{TempDir: t.TempDir()})
+		if err != nil && !errors.Is(err, ErrWindows) {
+			t.Errorf("an error that is not ErrWindows: %v", err)
+		}
+		back.Close()
+	})
 }

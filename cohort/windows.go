@@ -110,6 +110,21 @@ func ReadWindows(path string, opts ReadOptions) (*Table, Shard, error) {
 	if d < 1 || len(h.Features) != d {
 		return nil, Shard{}, fmt.Errorf("%s: a windows file of %d features and %d values a window: %w", path, len(h.Features), h.Width, ErrWindows)
 	}
+	// The windows the header announces must fit in the file before any room is made for them.
+	st, err := f.Stat()
+	if err != nil {
+		return nil, Shard{}, fmt.Errorf("%s: %w", path, errors.Join(ErrWindows, err))
+	}
+	var need int64
+	for _, wu := range h.Units {
+		if wu.Rows < 1 {
+			return nil, Shard{}, fmt.Errorf("%s: participant %s has %d windows: %w", path, wu.ID, wu.Rows, ErrWindows)
+		}
+		need += int64(wu.Rows) * int64(windowBytes(h.Width))
+		if need > st.Size() {
+			return nil, Shard{}, fmt.Errorf("%s: the header announces more windows than the file holds: %w; write the file again", path, ErrWindows)
+		}
+	}
 	dir := opts.TempDir
 	if dir == "" {
 		dir = os.TempDir()
@@ -123,10 +138,6 @@ func ReadWindows(path string, opts ReadOptions) (*Table, Shard, error) {
 	var b []byte
 	var x []float64
 	for _, wu := range h.Units {
-		if wu.Rows < 1 || wu.Rows > 1<<31 {
-			t.Close()
-			return nil, Shard{}, fmt.Errorf("%s: participant %s has %d windows: %w", path, wu.ID, wu.Rows, ErrWindows)
-		}
 		if cap(b) < wu.Rows*rb {
 			b = make([]byte, wu.Rows*rb)
 		}
