@@ -184,7 +184,7 @@ func shardRun(ctx context.Context, o *shardOptions) error {
 	case "plan":
 		return o.plan(o.Args, o.Piece)
 	case "sample":
-		return o.sample(o.Plan, o.Shard, o.Piece)
+		return o.sample(ctx, o.Plan, o.Shard, o.Piece)
 	case "fit":
 		return o.fit(ctx, o.Plan, o.Args, o.Piece)
 	case "assign":
@@ -195,24 +195,48 @@ func shardRun(ctx context.Context, o *shardOptions) error {
 	return o.runAll(ctx)
 }
 
-// writePiece writes a piece through the output plan: checked first, replaced only with --force,
-// never half-written.
-func (o *shardOptions) writePiece(path, kind string, inputs []string, v any) error {
-	plan, err := reports.PlanOutputs([]reports.Target{{Flag: "--piece", Path: path}}, inputs, "", o.Flags.Force)
+// output is one file a step writes: what it is (for the line printed), its flag, its path and
+// how to write it.
+type output struct {
+	what, flag, path string
+	write            func(io.Writer) error
+}
+
+// writeOutputs writes a step's files through the output plan: checked first, replaced only with
+// --force, never half-written, and put in place together.
+func (o *shardOptions) writeOutputs(inputs []string, outs ...output) error {
+	targets := make([]reports.Target, len(outs))
+	for i, out := range outs {
+		targets[i] = reports.Target{Flag: out.flag, Path: out.path}
+	}
+	plan, err := reports.PlanOutputs(targets, inputs, "", o.Flags.Force)
 	if err != nil {
 		return err
 	}
 	defer plan.Abort()
-	if err := plan.Write("--piece", func(w io.Writer) error { return job.WritePiece(w, kind, v) }); err != nil {
-		return err
+	for _, out := range outs {
+		if err := plan.Write(out.flag, out.write); err != nil {
+			return err
+		}
 	}
 	if err := plan.Commit(); err != nil {
 		return err
 	}
 	if !o.Flags.Quiet {
-		fmt.Fprintf(o.IO.Out, "%s piece → %s\n", kind, path)
+		for _, out := range outs {
+			fmt.Fprintf(o.IO.Out, "%s → %s\n", out.what, out.path)
+		}
 	}
 	return nil
+}
+
+// writePiece writes a step's piece (writeOutputs).
+func (o *shardOptions) writePiece(path, kind string, inputs []string, v any) error {
+	return o.writeOutputs(inputs, pieceOutput(path, kind, v))
+}
+
+func pieceOutput(path, kind string, v any) output {
+	return output{kind + " piece", "--piece", path, func(w io.Writer) error { return job.WritePiece(w, kind, v) }}
 }
 
 func (o *shardOptions) census(ctx context.Context, inputs []string, shard, piece string) error {
@@ -242,24 +266,11 @@ func (o *shardOptions) census(ctx context.Context, inputs []string, shard, piece
 	}
 	c.Meta = job.Meta{Command: strings.Join(o.argv, " "), Settings: o.Flags.settings()}
 	files, _ := cohort.ExpandPaths(inputs)
-	targets := []reports.Target{{Flag: "--piece", Path: piece}}
+	outs := []output{pieceOutput(piece, job.KindCensus, c)}
 	if o.Windows != "" {
-		targets = append(targets, reports.Target{Flag: "--windows", Path: o.Windows})
+		outs = append(outs, output{"windows", "--windows", o.Windows, func(w io.Writer) error { return t.WriteWindows(w, sh) }})
 	}
-	plan, err := reports.PlanOutputs(targets, files, "", o.Flags.Force)
-	if err != nil {
-		return err
-	}
-	defer plan.Abort()
-	if err := plan.Write("--piece", func(w io.Writer) error { return job.WritePiece(w, job.KindCensus, c) }); err != nil {
-		return err
-	}
-	if o.Windows != "" {
-		if err := plan.Write("--windows", func(w io.Writer) error { return t.WriteWindows(w, sh) }); err != nil {
-			return err
-		}
-	}
-	return plan.Commit()
+	return o.writeOutputs(files, outs...)
 }
 
 func (o *shardOptions) plan(censuses []string, piece string) error {
@@ -315,12 +326,12 @@ func (o *shardOptions) readShard(ctx context.Context, plan *job.Plan, shard, pie
 	return t, sh, nil
 }
 
-func (o *shardOptions) sample(planFile, shard, piece string) error {
+func (o *shardOptions) sample(ctx context.Context, planFile, shard, piece string) error {
 	plan := new(job.Plan)
 	if err := job.ReadPiece(planFile, job.KindPlan, plan); err != nil {
 		return err
 	}
-	t, sh, err := o.readShard(context.Background(), plan, shard, piece)
+	t, sh, err := o.readShard(ctx, plan, shard, piece)
 	if err != nil {
 		return err
 	}
@@ -432,9 +443,11 @@ func (o *shardOptions) runAll(ctx context.Context) (err error) {
 		}
 		return filepath.Join(dir, fmt.Sprintf("%s-%d.piece", kind, i+1))
 	}
+	// each runs a step on every shard, with that shard's windows file.
 	each := func(kind string, step func(shard, piece string) error) ([]string, error) {
 		var out []string
 		for i := 0; i < o.Shards; i++ {
+			o.Windows = name("windows", i)
 			if err := step(fmt.Sprintf("%d/%d", i+1, o.Shards), name(kind, i)); err != nil {
 				return nil, err
 			}
@@ -442,32 +455,21 @@ func (o *shardOptions) runAll(ctx context.Context) (err error) {
 		}
 		return out, nil
 	}
-	windows := func(i int) string { return filepath.Join(dir, fmt.Sprintf("windows-%d.piece", i)) }
-	shardNo := func(shard string) int { n, _ := strconv.Atoi(strings.Split(shard, "/")[0]); return n }
-	censuses, err := each("census", func(shard, piece string) error {
-		o.Windows = windows(shardNo(shard))
-		return o.census(ctx, o.Args, shard, piece)
-	})
+	censuses, err := each("census", func(shard, piece string) error { return o.census(ctx, o.Args, shard, piece) })
 	if err != nil {
 		return err
 	}
 	if err := o.plan(censuses, name("plan", -1)); err != nil {
 		return err
 	}
-	samples, err := each("sample", func(shard, piece string) error {
-		o.Windows = windows(shardNo(shard))
-		return o.sample(name("plan", -1), shard, piece)
-	})
+	samples, err := each("sample", func(shard, piece string) error { return o.sample(ctx, name("plan", -1), shard, piece) })
 	if err != nil {
 		return err
 	}
 	if err := o.fit(ctx, name("plan", -1), samples, name("fit", -1)); err != nil {
 		return err
 	}
-	assigned, err := each("assign", func(shard, piece string) error {
-		o.Windows = windows(shardNo(shard))
-		return o.assign(ctx, name("fit", -1), shard, piece)
-	})
+	assigned, err := each("assign", func(shard, piece string) error { return o.assign(ctx, name("fit", -1), shard, piece) })
 	if err != nil {
 		return err
 	}
