@@ -87,7 +87,7 @@ func TestMatchNamesGroups(t *testing.T) {
 	// New fit: states in another order; G2 is the same, G1 has merged into it, G3 is gone, one group is new.
 	next := Next{StateMeans: [][]float64{{0, 1}, {0.02, 0}, {1, 0}},
 		GroupShares: [][]float64{{0.1, 0.1, 0.8}, {0.3, 0.3, 0.4}},
-		PrevGroup:   []int{1, 1, 0, 0, 0, -1, -1},
+		PrevGroup:   []int{1, 1, 1, 0, 0, -1, -1},
 		Labels:      []int{0, 0, 0, 0, 0, 1, 1}}
 	m, err := Match(prev, next)
 	if err != nil {
@@ -101,6 +101,37 @@ func TestMatchNamesGroups(t *testing.T) {
 	}
 	if !strings.HasPrefix(m.PrevStatus[0], "merged into G2") || m.PrevStatus[2] != "gone" || m.NewStatus[1] != "new" {
 		t.Errorf("previous %q, new %q", m.PrevStatus, m.NewStatus)
+	}
+}
+
+// A new group that holds all of a previous group's returning members, and only them, keeps
+// that group's name even when its centre moved nearer another previous group (as when the
+// states are fitted anew on a cohort whose mix changed); the other previous group, whose
+// members did not return, is gone, and a group of newcomers far from both is new.
+func TestMatchNamesGroupsByTheirPeopleFirst(t *testing.T) {
+	prev := Previous{StateNames: []string{"S1", "S2"}, StateMeans: [][]float64{{0, 0}, {1, 0}}, Scale: []float64{1, 1},
+		GroupNames: []string{"G1", "G2"}, GroupShares: [][]float64{{0.9, 0.1}, {0.6, 0.4}}, Cut: 0.2, Method: WardHellinger}
+	next := Next{StateMeans: [][]float64{{0, 0}, {1, 0}},
+		GroupShares: [][]float64{{0.88, 0.12}, {0.05, 0.95}},
+		PrevGroup:   []int{1, 1, 1, -1, -1},
+		Labels:      []int{0, 0, 0, 1, 1}}
+	m, err := Match(prev, next)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if m.GroupNames[0] != "G2" || m.GroupNames[1] != "G3" {
+		t.Errorf("group names %v, want G2 (its people) and a new G3", m.GroupNames)
+	}
+	if m.PrevStatus[0] != "gone" || m.PrevStatus[1] != "continues as G2" || m.NewStatus[1] != "new" {
+		t.Errorf("previous %q, new %q", m.PrevStatus, m.NewStatus)
+	}
+	// Without returning members, the centres decide: the first new group is G1's.
+	next.PrevGroup = []int{-1, -1, -1, -1, -1}
+	if m, err = Match(prev, next); err != nil {
+		t.Fatal(err)
+	}
+	if m.GroupNames[0] != "G1" || m.GroupNames[1] != "G3" {
+		t.Errorf("without returning members: group names %v, want G1 (its centre) and a new G3", m.GroupNames)
 	}
 }
 

@@ -45,10 +45,13 @@ type Matching struct {
 	Place       func(share []float64) []float64
 }
 
-// Match pairs new states with previous ones and new groups with previous ones by the Hungarian
-// method on centroid distance (states on their standardized feature means, groups on their mean
-// shares after the states are aligned), so that a group keeps its name when it is still the same
-// group. A new group whose centre lies farther than Cut from its partner gets a new name; a
+// Match pairs new states with previous ones by the Hungarian method on centroid distance (on
+// their standardized feature means), and new groups with previous ones first by their people (a
+// new group holding more than half of a previous group's returning members, which make up more
+// than half of its own returning members, keeps that group's name) and then by the Hungarian
+// method on the distance between the rest's mean shares once the states are aligned, so that a
+// group keeps its name when it is still the same group. A new group matched by its centre alone
+// gets a new name when that centre lies farther than Cut from every unmatched previous one; a
 // previous group left without a partner is "merged into" the new group that holds most of its
 // returning members when that is at least half of them, and "gone" otherwise.
 func Match(prev Previous, next Next) (*Matching, error) {
@@ -113,19 +116,23 @@ func Match(prev Previous, next Next) (*Matching, error) {
 		m.PrevCentres = append(m.PrevCentres, append([]float64(nil), pg.RawRowView(i)...))
 	}
 	m.Place = func(share []float64) []float64 { return Embed(prev.Method, pad(share, col)) }
-	gp, _, err := cluster.MatchCentroids(pg, ng)
-	if err != nil {
-		return nil, fmt.Errorf("cohort: matching groups: %w", err)
+	// Where did the returning members of each previous group go?
+	moved := make([][]int, len(prev.GroupNames))
+	for i := range moved {
+		moved[i] = make([]int, len(next.GroupShares))
 	}
-	m.GroupDrift = make([]float64, len(gp))
-	for i, p := range gp {
-		m.GroupDrift[i] = math.NaN()
-		if p >= 0 {
-			m.GroupDrift[i] = SpaceDistance(prev.Method, pg.RawRowView(p), ng.RawRowView(i))
-			if m.GroupDrift[i] > prev.Cut {
-				gp[i] = -1 // too far to be the same group
-			}
+	for u, p := range next.PrevGroup {
+		if p >= 0 && p < len(moved) && next.Labels[u] >= 0 && next.Labels[u] < len(next.GroupShares) {
+			moved[p][next.Labels[u]]++
 		}
+	}
+	m.GroupDrift = make([]float64, len(next.GroupShares))
+	for i := range m.GroupDrift {
+		m.GroupDrift[i] = math.NaN()
+	}
+	gp, err := matchGroups(pg, ng, moved, prev.Method, prev.Cut, m.GroupDrift)
+	if err != nil {
+		return nil, err
 	}
 	m.GroupPrev = gp
 	m.GroupNames = freshNames("G", prev.GroupNames, gp)
@@ -137,16 +144,6 @@ func Match(prev Previous, next Next) (*Matching, error) {
 			m.NewStatus[i] = "continues " + prev.GroupNames[p]
 		} else {
 			m.NewStatus[i] = "new"
-		}
-	}
-	// Where did the returning members of each previous group go?
-	moved := make([][]int, len(prev.GroupNames))
-	for i := range moved {
-		moved[i] = make([]int, len(gp))
-	}
-	for u, p := range next.PrevGroup {
-		if p >= 0 && p < len(moved) {
-			moved[p][next.Labels[u]]++
 		}
 	}
 	m.PrevStatus = make([]string, len(prev.GroupNames))
@@ -173,6 +170,75 @@ func Match(prev Previous, next Next) (*Matching, error) {
 		}
 	}
 	return m, nil
+}
+
+// mutualMajority tells whether more than half of previous group p's returning members are in
+// new group i and more than half of i's returning members come from p: the same group by its
+// people, wherever its centre moved.
+func mutualMajority(moved [][]int, p, i int) bool {
+	fromP, intoI := 0, 0
+	for _, c := range moved[p] {
+		fromP += c
+	}
+	for _, row := range moved {
+		intoI += row[i]
+	}
+	return 2*moved[p][i] > fromP && 2*moved[p][i] > intoI
+}
+
+// matchGroups pairs each new group (rows of ng) with a previous one (rows of pg), −1 for none:
+// first the pairs that share a mutual majority of returning members, then the rest by the
+// Hungarian method (cluster.MinCostMatching) on the distance between centres, where a pair
+// farther apart than cut costs cut, as much as leaving both unmatched, and is then left
+// unmatched: a group far from every previous one does not take the partner another new group
+// is close to. It writes each pair's centre distance into drift.
+func matchGroups(pg, ng *mat.Dense, moved [][]int, method Method, cut float64, drift []float64) ([]int, error) {
+	np, _ := pg.Dims()
+	nn, _ := ng.Dims()
+	gp := make([]int, nn)
+	takenP := make([]bool, np)
+	var restN, restP []int
+	for i := range gp {
+		gp[i] = -1
+		for p := 0; p < np; p++ {
+			if mutualMajority(moved, p, i) {
+				gp[i], takenP[p] = p, true
+				drift[i] = SpaceDistance(method, pg.RawRowView(p), ng.RawRowView(i))
+			}
+		}
+		if gp[i] < 0 {
+			restN = append(restN, i)
+		}
+	}
+	for p := 0; p < np; p++ {
+		if !takenP[p] {
+			restP = append(restP, p)
+		}
+	}
+	if len(restN) == 0 || len(restP) == 0 {
+		return gp, nil
+	}
+	cost := mat.NewDense(len(restN), len(restP), nil)
+	for r, i := range restN {
+		for c, p := range restP {
+			cost.Set(r, c, SpaceDistance(method, pg.RawRowView(p), ng.RawRowView(i)))
+		}
+	}
+	capped := mat.DenseCopyOf(cost)
+	capped.Apply(func(_, _ int, v float64) float64 { return math.Min(v, cut) }, capped)
+	match, _, err := cluster.MinCostMatching(capped)
+	if err != nil {
+		return nil, fmt.Errorf("cohort: matching groups: %w", err)
+	}
+	for r, c := range match {
+		if c >= 0 {
+			drift[restN[r]] = cost.At(r, c)
+			if cost.At(r, c) <= cut {
+				gp[restN[r]] = restP[c]
+			}
+		}
+	}
+	return gp, nil
 }
 
 // freshNames keeps the previous name of each matched item and gives unmatched ones the next

@@ -86,6 +86,14 @@ func (f *Fit) setScales(opts Options) error {
 		}
 		f.Axes = slices.Clone(opts.Axes)
 	}
+	if opts.Turned != nil {
+		if err := opts.Turned.Check(d, f.Axes); err != nil {
+			return err
+		}
+		t := *opts.Turned
+		t.SD, t.Cor, t.Angles = slices.Clone(t.SD), slices.Clone(t.Cor), slices.Clone(t.Angles)
+		f.Turned = &t
+	}
 	if !opts.Log {
 		return nil
 	}
@@ -132,8 +140,10 @@ func (f *Fit) logRows(y []float64) {
 	}
 }
 
-// rotateRows turns the axis means of row-major windows by the 3×3 row-major r, in place.
-func (f *Fit) rotateRows(y, r []float64) {
+// rotateRows turns the axis means of row-major windows by the 3×3 row-major r, in place, and
+// the features in f.Turned with them; logged says the rows' logged features are on their log
+// scales.
+func (f *Fit) rotateRows(y, r []float64, logged bool) {
 	d := len(f.Features)
 	a, b, c := f.Axes[0], f.Axes[1], f.Axes[2]
 	for i := 0; i+d <= len(y); i += d {
@@ -141,6 +151,9 @@ func (f *Fit) rotateRows(y, r []float64) {
 		y[i+a] = r[0]*x0 + r[1]*x1 + r[2]*x2
 		y[i+b] = r[3]*x0 + r[4]*x1 + r[5]*x2
 		y[i+c] = r[6]*x0 + r[7]*x1 + r[8]*x2
+		if f.Turned != nil {
+			f.turnRow(y[i:i+d], r, [3]float64{x0, x1, x2}, [3]float64{y[i+a], y[i+b], y[i+c]}, logged)
+		}
 	}
 }
 

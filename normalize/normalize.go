@@ -166,6 +166,8 @@ type Options struct {
 	// Axes are the three columns that hold the axis means (x, y and z), which a Device turns;
 	// nil when the table has none.
 	Axes []int
+	// Turned are the features a Device turns with the axis means (FindTurned); nil: none.
+	Turned *Turned
 	// Keep, when set, is shown every window of the within-step pass that Sampled(Seed, u, w,
 	// KeepRate) keeps, with its within-step values; Fit.Cohort finishes them once the fit is
 	// made. It spares a caller who needs another sample of normalized windows a pass.
@@ -184,6 +186,7 @@ type Fit struct {
 	Logged     []bool    // features taken on a log scale
 	LogShift   []float64 // c in log(x + c) of each logged feature (its first quartile)
 	Axes       []int     // the columns of the axis means, which a Device turns; nil: none
+	Turned     *Turned   // the features a Device turns with the axis means (FindTurned); nil: none
 	Within     Within
 	Touched    []bool    // features the within step changes
 	TouchedBy  string    // "pattern", "offset detection (ICC ≥ x)" or "all features"
@@ -803,7 +806,7 @@ func (r *rowScaler) rows(y, x []float64) {
 		t := r.tmp[:len(x)]
 		copy(t, x)
 		if r.dev.Rotation != nil && f.Axes != nil {
-			f.rotateRows(t, r.dev.Rotation)
+			f.rotateRows(t, r.dev.Rotation, r.logged)
 		}
 		if !r.logged {
 			f.logRows(t)

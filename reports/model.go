@@ -76,6 +76,7 @@ type ModelFit struct {
 	RestShare      float64  `json:"rest_share"`
 	Axes           []string `json:"axes,omitempty"`    // the axis means named; none named: found by their names
 	NoAxes         bool     `json:"no_axes,omitempty"` // the align step turned no axis means
+	NoTurn         bool     `json:"no_turn,omitempty"` // the align step turned the axis means only
 	Log            bool     `json:"log"`
 	Scale          string   `json:"scale"`
 	PCAComponents  int      `json:"pca_components,omitempty"`
@@ -97,22 +98,23 @@ type ModelFit struct {
 
 // ModelNorm is a frozen normalize.Fit.
 type ModelNorm struct {
-	Logged     []bool      `json:"logged,omitempty"`    // features on a started log scale, log(x + log_shift)
-	LogShift   []float64   `json:"log_shift,omitempty"` // the start c of each logged feature
-	Axes       []int       `json:"axes,omitempty"`      // the columns of the axis means the align step turns
-	Within     string      `json:"within"`
-	Touched    []bool      `json:"touched"`
-	TouchedBy  string      `json:"touched_by"`
-	RestShare  float64     `json:"rest_share"`
-	QuietScore []int       `json:"quiet_score"`
-	QuietMid   []float64   `json:"quiet_mid,omitempty"`   // rest baseline only
-	QuietScale []float64   `json:"quiet_scale,omitempty"` // rest baseline only
-	Scale      string      `json:"scale"`
-	Center     []float64   `json:"center"`
-	Spread     []float64   `json:"spread"`
-	PCAMean    []float64   `json:"pca_mean,omitempty"`
-	PCA        [][]float64 `json:"pca_components,omitempty"` // features × components
-	ICC        []float64   `json:"icc"`
+	Logged     []bool            `json:"logged,omitempty"`    // features on a started log scale, log(x + log_shift)
+	LogShift   []float64         `json:"log_shift,omitempty"` // the start c of each logged feature
+	Axes       []int             `json:"axes,omitempty"`      // the columns of the axis means the align step turns
+	Turned     *normalize.Turned `json:"turned,omitempty"`    // the features it turns with them
+	Within     string            `json:"within"`
+	Touched    []bool            `json:"touched"`
+	TouchedBy  string            `json:"touched_by"`
+	RestShare  float64           `json:"rest_share"`
+	QuietScore []int             `json:"quiet_score"`
+	QuietMid   []float64         `json:"quiet_mid,omitempty"`   // rest baseline only
+	QuietScale []float64         `json:"quiet_scale,omitempty"` // rest baseline only
+	Scale      string            `json:"scale"`
+	Center     []float64         `json:"center"`
+	Spread     []float64         `json:"spread"`
+	PCAMean    []float64         `json:"pca_mean,omitempty"`
+	PCA        [][]float64       `json:"pca_components,omitempty"` // features × components
+	ICC        []float64         `json:"icc"`
 }
 
 // ModelStates holds the state centroids in the normalized space.
@@ -152,7 +154,7 @@ func NewModel(r *Result, read cohort.ReadOptions, featureMeds [][3]float64) *Mod
 	m := &Model{Format: ModelFormat, Version: ModelVersion, Created: r.Created.UTC(), Tool: r.Tool + " " + r.Version,
 		Features: r.Features, Settings: r.Settings, FeatureMeds: featureMeds,
 		Read: ReadOf(read),
-		Normalize: ModelNorm{Logged: n.Logged, LogShift: n.LogShift, Axes: n.Axes, Within: n.Within.String(), Touched: n.Touched, TouchedBy: n.TouchedBy, RestShare: n.RestShare,
+		Normalize: ModelNorm{Logged: n.Logged, LogShift: n.LogShift, Axes: n.Axes, Turned: n.Turned, Within: n.Within.String(), Touched: n.Touched, TouchedBy: n.TouchedBy, RestShare: n.RestShare,
 			QuietScore: n.QuietScore, QuietMid: n.QuietMid, QuietScale: n.QuietScale, Scale: n.ScaleKind.String(),
 			Center: n.Center, Spread: n.Spread, ICC: n.ICC},
 		States: ModelStates{K: r.States.K, Names: r.StateNames, Centroids: rows(r.States.Centroids), Means: stateMeans(r),
@@ -307,6 +309,11 @@ func (m *Model) check() error {
 			}
 		}
 	}
+	if n.Turned != nil {
+		if err := n.Turned.Check(d, n.Axes); err != nil {
+			return fmt.Errorf("normalize.turned: %w", err)
+		}
+	}
 	for _, j := range n.QuietScore {
 		if j < 0 || j >= d {
 			return fmt.Errorf("normalize.quiet_score names feature %d of %d", j, d)
@@ -410,7 +417,7 @@ func (m *Model) NormFit() *normalize.Fit {
 	n := m.Normalize
 	w, _ := normalize.ParseWithin(n.Within)
 	sc, _ := normalize.ParseScale(n.Scale)
-	f := &normalize.Fit{Features: m.Features, Logged: n.Logged, LogShift: n.LogShift, Axes: n.Axes, Within: w, Touched: n.Touched, TouchedBy: n.TouchedBy, RestShare: n.RestShare,
+	f := &normalize.Fit{Features: m.Features, Logged: n.Logged, LogShift: n.LogShift, Axes: n.Axes, Turned: n.Turned, Within: w, Touched: n.Touched, TouchedBy: n.TouchedBy, RestShare: n.RestShare,
 		QuietScore: n.QuietScore, QuietMid: n.QuietMid, QuietScale: n.QuietScale, ScaleKind: sc, Center: n.Center, Spread: n.Spread, ICC: n.ICC}
 	if n.PCA != nil {
 		k := len(n.PCA[0])

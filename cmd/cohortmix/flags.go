@@ -46,6 +46,7 @@ type mainFlags struct {
 	Within                 string
 	WithinFeatures         []string
 	Axes                   string
+	Turn                   string
 	Log                    string
 	StatesRule             string
 	StatesLevel            string
@@ -75,6 +76,7 @@ func (m *mainFlags) register(cmd *cobra.Command) {
 	f.StringVar(&m.Within, "within", "align", "within-participant step: "+normalize.WithinHelp())
 	f.StringSliceVar(&m.WithinFeatures, "within-features", nil, "features the within step touches: patterns, or * for all (default: every feature with align, otherwise those found to carry offsets)")
 	f.StringVar(&m.Axes, "axes", "auto", "the axis-mean features the align step turns, in x,y,z order; auto finds them by name; none turns nothing")
+	f.StringVar(&m.Turn, "turn", "all", "what the align step turns with the axis means: all also turns the axis s.d.s, correlations and angles it finds; means turns the axis means only")
 	f.StringVar(&m.Log, "log", "auto", "auto takes every feature that is never below 0 on a log scale; none keeps every feature as read")
 	f.Float64Var(&m.OffsetICC, "offset-icc", 0.3, "features with at least this ICC are taken to carry device offsets")
 	f.Float64Var(&m.RestShare, "rest-share", 0.1, "share of a participant's quietest windows that defines its rest baseline")
@@ -164,6 +166,13 @@ func (m *mainFlags) options(inputs []string) (job.Options, error) {
 		if len(o.Axes) != 3 || o.Axes[0] == "" || o.Axes[1] == "" || o.Axes[2] == "" {
 			return o, flagErrorf("--axes %q: name three features in x,y,z order, such as mean_x,mean_y,mean_z, or auto, or none", m.Axes)
 		}
+	}
+	switch m.Turn {
+	case "all":
+	case "means":
+		o.NoTurn = true
+	default:
+		return o, flagErrorf("--turn %q: use all or means", m.Turn)
 	}
 	if m.Axes != "auto" && o.Norm.Within != normalize.WithinAlign {
 		return o, flagErrorf("--axes %s with --within %s: only the align step turns axis means; leave --axes out or use --within align", m.Axes, m.Within)
@@ -426,6 +435,12 @@ var modelFlags = map[string]func(m *mainFlags, f *reports.ModelFit, r reports.Mo
 			m.Axes = strings.Join(f.Axes, ",")
 		default:
 			m.Axes = "auto"
+		}
+	},
+	"turn": func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) {
+		m.Turn = "all"
+		if f.NoTurn {
+			m.Turn = "means"
 		}
 	},
 	"log": func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) {

@@ -10,6 +10,7 @@ import (
 
 	"github.com/cohortmix/cohortmix/cluster"
 	"github.com/cohortmix/cohortmix/cohort/synth"
+	"github.com/cohortmix/cohortmix/reports"
 	"github.com/xuri/excelize/v2"
 )
 
@@ -205,5 +206,44 @@ func TestRefreshOnTheSameDataKeepsEveryGroup(t *testing.T) {
 		if after[id] != g {
 			t.Fatalf("%s was in %s and is in %s after a refresh on the same data:\n%s", id, g, after[id], out)
 		}
+	}
+}
+
+// The model keeps what the align step turned with the axis means (normalize.FindTurned), and a
+// frozen model turns it alike: assign on the cohort the model was fitted on puts the
+// participants in the groups the fit gave them. Planted structure: member 20 of the scenario family,
+// with devices turned on the wrist.
+func TestModelKeepsTheTurnedFeatures(t *testing.T) {
+	dir := t.TempDir()
+	input := filepath.Join(dir, "c.csv")
+	if _, err := synth.WriteFile(input, synth.Options{Scenario: 20, Seed: 20, Participants: 80, Windows: 600}); err != nil {
+		t.Fatal(err)
+	}
+	model, m1, m2 := filepath.Join(dir, "model.json"), filepath.Join(dir, "m1.csv"), filepath.Join(dir, "m2.csv")
+	mustRun(t, "group", input, "--out", filepath.Join(dir, "g.xlsx"), "--model", model, "--members", m1)
+	m, err := reports.ReadModel(model)
+	if err != nil {
+		t.Fatal(err)
+	}
+	tu := m.Normalize.Turned
+	name := func(j int) string { return m.Features[j] }
+	if tu == nil || len(tu.SD) != 3 || name(tu.SD[0]) != "sd_x" || name(tu.Cor[2]) != "cor_yz" || len(tu.Angles) != 1 || name(tu.Angles[0].Column) != "tilt_deg" {
+		t.Fatalf("model's turned features %+v, want sd_x…, cor_…yz and tilt_deg", tu)
+	}
+	if f := m.NormFit(); f.Turned == nil || len(f.Turned.Angles) != 1 {
+		t.Fatalf("the frozen normalization turns %+v, want what the model keeps", f.Turned)
+	}
+	mustRun(t, "assign", "--model", model, input, "--out", filepath.Join(dir, "a.xlsx"), "--members", m2)
+	// Assign places each participant at its nearest group centre while Ward's cut need not, so a
+	// few on the edge of a group may land in the next one.
+	before, after := readMembers(t, m1), readMembers(t, m2)
+	same := 0
+	for id, g := range before {
+		if after[id] == g {
+			same++
+		}
+	}
+	if frac := float64(same) / float64(len(before)); frac < 0.9 {
+		t.Errorf("assign with the frozen model put %.0f%% of the participants in the group the fit gave them, want ≥ 90%%", 100*frac)
 	}
 }

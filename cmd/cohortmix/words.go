@@ -21,6 +21,7 @@ var optionFlags = map[string]string{
 	"job.Options.Window":               "--window-length",
 	"job.Options.Axes":                 "--axes",
 	"job.Options.NoAxes":               "--axes none",
+	"job.Options.NoTurn":               "--turn means",
 	"job.Options.Sample":               "--sample",
 	"normalize.Options.Within":         "--within",
 	"normalize.Options.WithinFeatures": "--within-features",

@@ -32,8 +32,11 @@ type Options struct {
 	Bootstrap int
 	// Axes names the three features of the axis means that the align step turns; empty finds
 	// them (normalize.FindAxes), unless NoAxes says to turn none.
-	Axes       []string
-	NoAxes     bool
+	Axes   []string
+	NoAxes bool
+	// NoTurn turns only the axis means, not the axis s.d.s, correlations and angles found with
+	// them (normalize.FindTurned).
+	NoTurn     bool
 	StatesRule profile.Rule
 	// KeepMerged keeps, for a range of states, the valley rule's merged states, without asking
 	// whether the participants group more stably over the states as fitted (chooseStates).
@@ -565,7 +568,7 @@ func Defaults(inputs ...string) Options {
 func (o Options) ModelFit() *reports.ModelFit {
 	return &reports.ModelFit{
 		Within: o.Norm.Within.String(), WithinFeatures: o.Norm.WithinFeatures, OffsetICC: o.Norm.OffsetICC, RestShare: o.Norm.RestShare,
-		Axes: o.Axes, NoAxes: o.NoAxes, Log: o.Norm.Log, Scale: o.Norm.Scale.String(),
+		Axes: o.Axes, NoAxes: o.NoAxes, NoTurn: o.NoTurn, Log: o.Norm.Log, Scale: o.Norm.Scale.String(),
 		PCAComponents: o.Norm.PCAComponents, PCAVariance: o.Norm.PCAVariance, NoPCA: o.Norm.NoPCA,
 		States: o.States, StatesRule: o.StatesRule.String(), KeepMerged: o.KeepMerged, Valley: o.Valley, Sample: o.Sample,
 		Groups: o.Groups, Method: o.Method.String(), Criterion: o.Criterion.String(), GroupValley: o.GroupValley,

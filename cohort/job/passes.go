@@ -402,6 +402,12 @@ func FitSample(ctx context.Context, p *Plan, samples []*SamplePiece) (*FitPiece,
 		return nil, err
 	}
 	norm.Axes = axes
+	if axes != nil && !o.NoTurn {
+		var words string
+		if norm.Turned, words = normalize.FindTurned(p.Features, axes, slices.Concat(p.First...)); words != "" {
+			note += "; " + words
+		}
+	}
 	fp.Notes = append(fp.Notes, note)
 	units := sample.units
 	if norm.Log {

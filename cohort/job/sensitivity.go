@@ -88,9 +88,9 @@ func sensitivity(ctx context.Context, f *Fitted, o Options, sample sampleUnits) 
 		no.Within, no.Keep, no.KeepUnit, no.Progress, no.SampleRate = within, nil, nil, nil, 1
 		no.WithinFeatures = nil
 		if within != o.Norm.Within {
-			no.Axes = nil
+			no.Axes, no.Turned = nil, nil
 			if within == normalize.WithinAlign {
-				no.Axes = f.Fit.Axes
+				no.Axes, no.Turned = f.Fit.Axes, f.Fit.Turned
 			}
 		}
 		if no.Log {
