@@ -779,6 +779,7 @@ func (f *Fit) ScaledInto(dst, x []float64, dev Device) []float64 {
 type rowScaler struct {
 	f                  *Fit
 	center, scale, tmp []float64
+	inv                []float64 // 1/Spread: the cohort step multiplies (Fit.scale alike), which is quicker than dividing
 	dev                Device
 	logged, prep       bool
 }
@@ -791,6 +792,10 @@ func (f *Fit) newRowScaler(b Baseline, dev Device, logged bool, rows int) *rowSc
 		if f.Within.baseline() && f.Touched[j] {
 			r.center[j], r.scale[j] = b.Center[j], b.Scale[j]
 		}
+	}
+	r.inv = make([]float64, d)
+	for j, s := range f.Spread {
+		r.inv[j] = 1 / s
 	}
 	r.prep = (f.anyLogged() && !logged) || (dev.Rotation != nil && f.Axes != nil)
 	if r.prep {
@@ -813,11 +818,21 @@ func (r *rowScaler) rows(y, x []float64) {
 		}
 		x = t
 	}
-	center, scale := r.center, r.scale
+	center, scale, inv := r.center, r.scale, r.inv
+	if !f.Within.baseline() {
+		// No baseline: the cohort step alone.
+		for i := 0; i+d <= len(x); i += d {
+			xi, yi := x[i:i+d], y[i:i+d]
+			for j, v := range xi {
+				yi[j] = (v - f.Center[j]) * inv[j]
+			}
+		}
+		return
+	}
 	for i := 0; i+d <= len(x); i += d {
 		xi, yi := x[i:i+d], y[i:i+d]
 		for j, v := range xi {
-			yi[j] = ((v-center[j])/scale[j] - f.Center[j]) / f.Spread[j]
+			yi[j] = ((v-center[j])/scale[j] - f.Center[j]) * inv[j]
 		}
 	}
 }
@@ -941,9 +956,13 @@ func (f *Fit) quietest(x []float64, n int) []int {
 
 func (f *Fit) scale(x []float64) {
 	d := len(f.Features)
+	inv := make([]float64, d)
+	for j, s := range f.Spread {
+		inv[j] = 1 / s // as the rowScaler without a baseline, to the bit
+	}
 	for i := 0; i+d <= len(x); i += d {
 		for j := 0; j < d; j++ {
-			x[i+j] = (x[i+j] - f.Center[j]) / f.Spread[j]
+			x[i+j] = (x[i+j] - f.Center[j]) * inv[j]
 		}
 	}
 }

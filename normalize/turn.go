@@ -235,54 +235,89 @@ func (t *Turned) Check(d int, axes []int) error {
 // (mr) the turn; logged says the row's logged features are on their log scales.
 func (f *Fit) turnRow(row []float64, r []float64, m, mr [3]float64, logged bool) {
 	t := f.Turned
-	get := func(j int) float64 {
-		if logged && f.Logged[j] {
-			return math.Exp(row[j]) - f.LogShift[j]
-		}
-		return row[j]
-	}
-	set := func(j int, v float64) {
-		if logged && f.Logged[j] {
-			v = math.Log(v + f.LogShift[j])
-		}
-		row[j] = v
-	}
 	if t.SD != nil {
 		var s [3]float64
 		for i, j := range t.SD {
-			s[i] = math.Max(0, get(j))
-		}
-		rho := [3]float64{get(t.Cor[0]), get(t.Cor[1]), get(t.Cor[2])}
-		c := [9]float64{s[0] * s[0], rho[0] * s[0] * s[1], rho[1] * s[0] * s[2],
-			0, s[1] * s[1], rho[2] * s[1] * s[2],
-			0, 0, s[2] * s[2]}
-		c[3], c[6], c[7] = c[1], c[2], c[5]
-		// rc = r C, then out = rc rᵀ.
-		var rc, out [9]float64
-		for i := 0; i < 3; i++ {
-			for j := 0; j < 3; j++ {
-				rc[i*3+j] = r[i*3]*c[j] + r[i*3+1]*c[3+j] + r[i*3+2]*c[6+j]
+			v := row[j]
+			if logged && f.Logged[j] {
+				v = math.Exp(v) - f.LogShift[j]
 			}
+			s[i] = max(0, v)
 		}
-		for i := 0; i < 3; i++ {
-			for j := 0; j < 3; j++ {
-				out[i*3+j] = rc[i*3]*r[j*3] + rc[i*3+1]*r[j*3+1] + rc[i*3+2]*r[j*3+2]
+		r01, r02, r12 := row[t.Cor[0]], row[t.Cor[1]], row[t.Cor[2]]
+		c00, c11, c22 := s[0]*s[0], s[1]*s[1], s[2]*s[2]
+		c01, c02, c12 := r01*s[0]*s[1], r02*s[0]*s[2], r12*s[1]*s[2]
+		// out = r C rᵀ, C symmetric: out_ij = Σ_k r_ik (C r_j)_k.
+		var cr [9]float64 // cr[j*3+k] = (C r_j)_k, r_j the j-th row of r
+		for j := 0; j < 3; j++ {
+			a, b, c := r[j*3], r[j*3+1], r[j*3+2]
+			cr[j*3] = c00*a + c01*b + c02*c
+			cr[j*3+1] = c01*a + c11*b + c12*c
+			cr[j*3+2] = c02*a + c12*b + c22*c
+		}
+		out := func(i, j int) float64 { return r[i*3]*cr[j*3] + r[i*3+1]*cr[j*3+1] + r[i*3+2]*cr[j*3+2] }
+		sr := [3]float64{math.Sqrt(max(0, out(0, 0))), math.Sqrt(max(0, out(1, 1))), math.Sqrt(max(0, out(2, 2)))}
+		for i, j := range t.SD {
+			v := sr[i]
+			if logged && f.Logged[j] {
+				v = math.Log(v + f.LogShift[j])
 			}
+			row[j] = v
 		}
-		var sr [3]float64
-		for i := range sr {
-			sr[i] = math.Sqrt(math.Max(0, out[i*4]))
-			set(t.SD[i], sr[i])
+		if den := sr[0] * sr[1]; den > 0 {
+			row[t.Cor[0]] = clampUnit(out(0, 1) / den)
 		}
-		for p, ij := range [3][2]int{{0, 1}, {0, 2}, {1, 2}} {
-			if den := sr[ij[0]] * sr[ij[1]]; den > 0 {
-				set(t.Cor[p], math.Max(-1, math.Min(1, out[ij[0]*3+ij[1]]/den)))
-			}
+		if den := sr[0] * sr[2]; den > 0 {
+			row[t.Cor[1]] = clampUnit(out(0, 2) / den)
 		}
+		if den := sr[1] * sr[2]; den > 0 {
+			row[t.Cor[2]] = clampUnit(out(1, 2) / den)
+		}
+	}
+	if len(t.Angles) == 0 {
+		return
+	}
+	// A turn keeps the vector's length n, so an elevation above the plane normal to an axis is
+	// θ = asin(m_axis/n) before and θ′ = asin(mr_axis/n) after; θ′ − θ is one atan2 of its sine
+	// and cosine (sin θ′ cos θ − cos θ′ sin θ, cos θ′ cos θ + sin θ′ sin θ), and a polar angle
+	// (π/2 minus the elevation) moves by its opposite.
+	n := math.Sqrt(m[0]*m[0] + m[1]*m[1] + m[2]*m[2])
+	if !(n > 0) {
+		return
 	}
 	for _, a := range t.Angles {
-		if v := get(a.Column); !math.IsNaN(v) {
-			set(a.Column, v+a.of(mr)-a.of(m))
+		u, v := m[a.Axis]/n, mr[a.Axis]/n
+		u, v = clampUnit(u), clampUnit(v)
+		cu, cv := math.Sqrt(1-u*u), math.Sqrt(1-v*v)
+		var d float64
+		if sin, cos := v*cu-cv*u, cv*cu+v*u; cos > 0 {
+			d = math.Atan(sin / cos) // a turn of less than a right angle: the usual case, and quicker
+		} else {
+			d = math.Atan2(sin, cos)
+		}
+		if a.Polar {
+			d = -d
+		}
+		if a.Degrees {
+			d *= 180 / math.Pi
+		}
+		j := a.Column
+		if logged && f.Logged[j] {
+			row[j] = math.Log(math.Exp(row[j]) + d) // log(x + c) → log(x + d + c)
+		} else {
+			row[j] += d
 		}
 	}
+}
+
+// clampUnit is v within [−1, 1] (NaN stays NaN), by comparisons, which are quicker than
+// math.Max and math.Min on the hot path.
+func clampUnit(v float64) float64 {
+	if v > 1 {
+		return 1
+	}
+	if v < -1 {
+		return -1
+	}
+	return v
 }
