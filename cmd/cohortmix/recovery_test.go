@@ -48,6 +48,7 @@ var recoveryVariantList = []variant{
 	{"PCA off", []string{"--pca", "off"}},
 	{"groups by stability", []string{"--criterion", "stability"}},
 	{"groups by silhouette", []string{"--criterion", "silhouette"}},
+	{"groups by gap", []string{"--criterion", "gap"}},
 	{"PAM Aitchison", []string{"--method", "pam-aitchison"}},
 	{"k-means CLR", []string{"--method", "kmeans-clr"}},
 	{"true numbers", []string{"--states", "{states}", "--groups", "{groups}"}},
