@@ -249,7 +249,7 @@ func (m *mainFlags) settings() []reports.Setting {
 		s("id column", m.ID), s("order column", m.Order), s("wave column", m.Wave), s("label column", m.Label),
 		s("feature patterns", strings.Join(m.Features, ",")), s("missing cells", m.Missing), s("minimum windows", strconv.Itoa(m.MinWindows)),
 		s("within-participant step", m.Within), s("within-step features", strings.Join(m.WithinFeatures, ",")),
-		s("axis means (align)", m.Axes), s("log scale", m.Log), s("rule for a range of states", m.StatesRule), s("states kept", m.StatesLevel), s("valley ratio", fmt.Sprint(m.Valley)),
+		s("axis means (align)", m.Axes), s("turned with the axis means", m.Turn), s("log scale", m.Log), s("rule for a range of states", m.StatesRule), s("states kept", m.StatesLevel), s("valley ratio", fmt.Sprint(m.Valley)),
 		s("offset ICC threshold", fmt.Sprint(m.OffsetICC)), s("rest share", fmt.Sprint(m.RestShare)),
 		s("cohort scaling", m.Scale), s("PCA", m.PCA), s("states", m.States), s("window sample", strconv.Itoa(m.Sample)),
 		s("groups", m.Groups), s("grouping method", m.Method), s("criterion for groups", m.Criterion), s("group valley cap", strconv.FormatFloat(m.GroupValley, 'g', -1, 64)),
