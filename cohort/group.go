@@ -90,9 +90,19 @@ const (
 	ByGap        Criterion = iota // gap statistic, smallest k with Gap(k) ≥ Gap(k+1) − s(k+1) (Tibshirani et al. 2001)
 	ByStability                   // largest mean bootstrap ARI (Lange et al. 2004)
 	BySilhouette                  // largest mean silhouette (Rousseeuw 1987)
+	// ByGapStable takes the gap statistic's number, then one fewer while the grouping with one
+	// fewer is clearly more stable (StableStep).
+	ByGapStable
 )
 
-var criterionNames = map[Criterion]string{ByStability: "stability", ByGap: "gap", BySilhouette: "silhouette"}
+// StableStep is how much more stable (mean bootstrap ARI, Lange et al. 2004) the grouping with
+// one group fewer must be for ByGapStable to step down to it: a tenth of the ARI's range from
+// chance to identity, about five times the median standard error of a stability over 20
+// resamples in the recovery benchmark's runs (0.019; 90 % of them below 0.035), so a step is
+// rarely taken on resampling noise.
+const StableStep = 0.1
+
+var criterionNames = map[Criterion]string{ByStability: "stability", ByGap: "gap", BySilhouette: "silhouette", ByGapStable: "gap-stable"}
 
 func (c Criterion) String() string { return criterionNames[c] }
 
@@ -103,7 +113,7 @@ func ParseCriterion(s string) (Criterion, error) {
 			return c, nil
 		}
 	}
-	return 0, fmt.Errorf("cohort: criterion %q: %w; use stability, gap or silhouette", s, ErrBadOption)
+	return 0, fmt.Errorf("cohort: criterion %q: %w; use gap-stable, gap, stability or silhouette", s, ErrBadOption)
 }
 
 // GroupOptions sets up GroupSignatures.
@@ -590,13 +600,20 @@ func scoreStability(ctx context.Context, x *mat.Dense, dist *cluster.Condensed, 
 func Choose(scores []KScore, c Criterion) int {
 	best := 0
 	switch c {
-	case ByGap:
-		for i := 0; i+1 < len(scores); i++ {
-			if scores[i].Gap >= scores[i+1].Gap-scores[i+1].GapSE {
-				return scores[i].K
+	case ByGap, ByGapStable:
+		i := len(scores) - 1
+		for j := 0; j+1 < len(scores); j++ {
+			if scores[j].Gap >= scores[j+1].Gap-scores[j+1].GapSE {
+				i = j
+				break
 			}
 		}
-		return scores[len(scores)-1].K
+		if c == ByGapStable {
+			for i > 0 && scores[i-1].K == scores[i].K-1 && scores[i-1].Stability > scores[i].Stability+StableStep {
+				i--
+			}
+		}
+		return scores[i].K
 	case BySilhouette:
 		for i, s := range scores {
 			if s.Silhouette > scores[best].Silhouette {

@@ -232,3 +232,37 @@ func TestMethodsReadBack(t *testing.T) {
 		}
 	}
 }
+
+// Choose on hand-made scores. The gap rule is Tibshirani, Walther & Hastie (2001), eq. 13 with
+// the one-standard-error step: the smallest k with Gap(k) ≥ Gap(k+1) − s(k+1).
+func TestChoose(t *testing.T) {
+	scores := func(gap, se, stab []float64) []KScore {
+		var out []KScore
+		for i := range gap {
+			out = append(out, KScore{K: i + 2, Gap: gap[i], GapSE: se[i], Stability: stab[i], Silhouette: stab[i] / 2})
+		}
+		return out
+	}
+	cases := []struct {
+		name string
+		s    []KScore
+		c    Criterion
+		want int
+	}{
+		{"gap: first k within one s.e. of the next", scores([]float64{0.5, 0.9, 0.95, 1.0}, []float64{0.1, 0.1, 0.1, 0.1}, []float64{1, 1, 1, 1}), ByGap, 3},
+		{"gap: still rising, the largest", scores([]float64{0.5, 0.7, 0.9}, []float64{0.05, 0.05, 0.05}, []float64{1, 1, 1}), ByGap, 4},
+		{"gap-stable: one fewer is more stable by more than 0.1", scores([]float64{0.5, 0.9, 0.95, 1.0}, []float64{0.1, 0.1, 0.1, 0.1}, []float64{0.9, 0.99, 0.62, 0.7}), ByGapStable, 3},
+		{"gap-stable: down two steps", scores([]float64{0.5, 0.7, 0.9}, []float64{0.05, 0.05, 0.05}, []float64{1.0, 0.85, 0.6}), ByGapStable, 2},
+		{"gap-stable: a gain of 0.1 or less is no step", scores([]float64{0.5, 0.7, 0.9}, []float64{0.05, 0.05, 0.05}, []float64{0.7, 0.79, 0.7}), ByGapStable, 4},
+		{"stability: the largest", scores([]float64{0, 0, 0}, []float64{0, 0, 0}, []float64{0.7, 0.9, 0.8}), ByStability, 3},
+		{"silhouette: the largest", scores([]float64{0, 0, 0}, []float64{0, 0, 0}, []float64{0.9, 0.7, 0.8}), BySilhouette, 2},
+	}
+	for _, c := range cases {
+		if got := Choose(c.s, c.c); got != c.want {
+			t.Errorf("%s: Choose = %d, want %d", c.name, got, c.want)
+		}
+	}
+	if c, err := ParseCriterion("gap-stable"); err != nil || c != ByGapStable {
+		t.Errorf("ParseCriterion(gap-stable) = %v, %v", c, err)
+	}
+}

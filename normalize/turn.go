@@ -3,6 +3,7 @@ package normalize
 import (
 	"fmt"
 	"math"
+	"slices"
 	"strings"
 )
 
@@ -149,7 +150,7 @@ func findTriple(features []string, taken map[int]bool, parts, words []string) []
 			if len(cols) != 3 || taken[cols[0]] || taken[cols[1]] || taken[cols[2]] || !holdsWord(stem, words) {
 				continue
 			}
-			if found != nil && !equalInts(found, cols) {
+			if found != nil && !slices.Equal(found, cols) {
 				return nil // two candidates: ambiguous, turn neither
 			}
 			found = cols
@@ -169,18 +170,6 @@ func holdsWord(name string, words []string) bool {
 		}
 	}
 	return false
-}
-
-func equalInts(a, b []int) bool {
-	if len(a) != len(b) {
-		return false
-	}
-	for i := range a {
-		if a[i] != b[i] {
-			return false
-		}
-	}
-	return true
 }
 
 // angleCorrelation is the Pearson correlation of an angle's column with the angle of the axis

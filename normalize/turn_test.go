@@ -4,6 +4,7 @@ import (
 	"errors"
 	"math"
 	"math/rand/v2"
+	"slices"
 	"testing"
 )
 
@@ -103,7 +104,7 @@ func TestTurnGivesBackTheWristFrame(t *testing.T) {
 		t.Fatalf("FindTurned found nothing in %v", turnNames)
 	}
 	want := &Turned{SD: []int{3, 4, 5}, Cor: []int{6, 7, 8}, Angles: []Angle{{Column: 9, Axis: 2, Degrees: true}}}
-	if !equalInts(turned.SD, want.SD) || !equalInts(turned.Cor, want.Cor) || len(turned.Angles) != 1 || turned.Angles[0] != want.Angles[0] {
+	if !slices.Equal(turned.SD, want.SD) || !slices.Equal(turned.Cor, want.Cor) || len(turned.Angles) != 1 || turned.Angles[0] != want.Angles[0] {
 		t.Fatalf("FindTurned = %+v, want %+v (%s)", turned, want, words)
 	}
 	f.Turned = turned
@@ -184,7 +185,7 @@ func TestFindTurned(t *testing.T) {
 			if got == nil {
 				t.Fatalf("FindTurned found nothing, want s.d.s %v and angles %v", c.sd, c.angles)
 			}
-			if !equalInts(got.SD, c.sd) || len(got.Angles) != len(c.angles) {
+			if !slices.Equal(got.SD, c.sd) || len(got.Angles) != len(c.angles) {
 				t.Fatalf("FindTurned = %+v (%s), want s.d.s %v and angles %v", got, words, c.sd, c.angles)
 			}
 			for i := range c.angles {

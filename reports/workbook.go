@@ -140,6 +140,8 @@ func choiceText(r *Result) string {
 		return "gap statistic, Tibshirani et al. 2001, over " + kRange(r)
 	case "stability":
 		return "bootstrap stability, over " + kRange(r)
+	case "gap-stable":
+		return "gap statistic, Tibshirani et al. 2001, then fewer groups while clearly more stable, over " + kRange(r)
 	}
 	return "mean silhouette, over " + kRange(r)
 }

@@ -24,7 +24,7 @@ import (
 // scored by the adjusted Rand index against the planted groups. Methods are chosen on seeds
 // 1–20 ("tune") and reported on seeds 21–40 ("report") and 41–60 ("fresh"); testdata/recovery.sh
 // runs them.
-var recoverySet = flag.String("recovery", "", "run the recovery benchmark: tune (seeds 1–20), report (21–40), fresh (41–60), tune40 (1–40), fresh2 (61–80), fresh3 (81–100), fresh4 (101–120), fresh5 (121–140), fresh6 (141–160), fresh7 (161–180), fresh8 (181–200), fresh9 (201–240), demo or a list such as 3,7")
+var recoverySet = flag.String("recovery", "", "run the recovery benchmark: tune (seeds 1–20), report (21–40), fresh (41–60), tune40 (1–40), fresh2 (61–80), fresh3 (81–100), fresh4 (101–120), fresh5 (121–140), fresh6 (141–160), fresh7 (161–180), fresh8 (181–200), fresh9 (201–240), fresh10 (241–280), demo or a list such as 3,7")
 var recoveryVariants = flag.String("recovery.variants", "", "only the variants whose names contain one of these comma-separated words")
 
 // variant is one way of running the job, as the flags a user would pass.
@@ -49,6 +49,7 @@ var recoveryVariantList = []variant{
 	{"groups by stability", []string{"--criterion", "stability"}},
 	{"groups by silhouette", []string{"--criterion", "silhouette"}},
 	{"groups by gap", []string{"--criterion", "gap"}},
+	{"groups by gap-stable", []string{"--criterion", "gap-stable"}},
 	{"PAM Aitchison", []string{"--method", "pam-aitchison"}},
 	{"k-means CLR", []string{"--method", "kmeans-clr"}},
 	{"true numbers", []string{"--states", "{states}", "--groups", "{groups}"}},
@@ -217,6 +218,10 @@ func TestRecoveryBenchmark(t *testing.T) {
 		}
 	case "fresh9":
 		for s := uint64(201); s <= 240; s++ {
+			seeds = append(seeds, s)
+		}
+	case "fresh10":
+		for s := uint64(241); s <= 280; s++ {
 			seeds = append(seeds, s)
 		}
 	default:
