@@ -93,17 +93,22 @@ func TestTwoEnrolmentWaves(t *testing.T) {
 	t.Run("refresh keeps the names of returning participants", func(t *testing.T) {
 		m3 := filepath.Join(dir, "m3.csv")
 		mustRun(t, "refresh", "--previous", model, w1, w2, "--out", filepath.Join(dir, "refresh.xlsx"), "--members", m3)
-		before, after := readMembers(t, m1), readMembers(t, m3)
-		same := 0
-		for id, g := range before {
-			if after[id] == g {
-				same++
-			}
-		}
-		if frac := float64(same) / float64(len(before)); frac < 0.9 {
+		if frac := sameGroupShare(readMembers(t, m1), readMembers(t, m3)); frac < 0.9 {
 			t.Errorf("%.0f%% of returning participants kept their group name, want ≥ 90%%", 100*frac)
 		}
 	})
+}
+
+// sameGroupShare is the share of the participants in before whose group in after has the same
+// name.
+func sameGroupShare(before, after map[string]string) float64 {
+	same := 0
+	for id, g := range before {
+		if after[id] == g {
+			same++
+		}
+	}
+	return float64(same) / float64(len(before))
 }
 
 func flattenRows(rows [][]string) string {
@@ -236,14 +241,7 @@ func TestModelKeepsTheTurnedFeatures(t *testing.T) {
 	mustRun(t, "assign", "--model", model, input, "--out", filepath.Join(dir, "a.xlsx"), "--members", m2)
 	// Assign places each participant at its nearest group centre while Ward's cut need not, so a
 	// few on the edge of a group may land in the next one.
-	before, after := readMembers(t, m1), readMembers(t, m2)
-	same := 0
-	for id, g := range before {
-		if after[id] == g {
-			same++
-		}
-	}
-	if frac := float64(same) / float64(len(before)); frac < 0.9 {
+	if frac := sameGroupShare(readMembers(t, m1), readMembers(t, m2)); frac < 0.9 {
 		t.Errorf("assign with the frozen model put %.0f%% of the participants in the group the fit gave them, want ≥ 90%%", 100*frac)
 	}
 }
