@@ -779,7 +779,7 @@ func (f *Fit) ScaledInto(dst, x []float64, dev Device) []float64 {
 type rowScaler struct {
 	f                  *Fit
 	center, scale, tmp []float64
-	inv                []float64 // 1/Spread: the cohort step multiplies (Fit.scale alike), which is quicker than dividing
+	inv                []float64 // Fit.inverseSpread
 	dev                Device
 	logged, prep       bool
 }
@@ -793,10 +793,7 @@ func (f *Fit) newRowScaler(b Baseline, dev Device, logged bool, rows int) *rowSc
 			r.center[j], r.scale[j] = b.Center[j], b.Scale[j]
 		}
 	}
-	r.inv = make([]float64, d)
-	for j, s := range f.Spread {
-		r.inv[j] = 1 / s
-	}
+	r.inv = f.inverseSpread()
 	r.prep = (f.anyLogged() && !logged) || (dev.Rotation != nil && f.Axes != nil)
 	if r.prep {
 		r.tmp = make([]float64, rows*d)
@@ -954,12 +951,19 @@ func (f *Fit) quietest(x []float64, n int) []int {
 	return idx
 }
 
+// inverseSpread is 1/Spread of each feature: the cohort step multiplies by it, which is quicker
+// than dividing, in Fit.scale and the rowScaler alike, so both give the same bits.
+func (f *Fit) inverseSpread() []float64 {
+	inv := make([]float64, len(f.Spread))
+	for j, s := range f.Spread {
+		inv[j] = 1 / s
+	}
+	return inv
+}
+
 func (f *Fit) scale(x []float64) {
 	d := len(f.Features)
-	inv := make([]float64, d)
-	for j, s := range f.Spread {
-		inv[j] = 1 / s // as the rowScaler without a baseline, to the bit
-	}
+	inv := f.inverseSpread()
 	for i := 0; i+d <= len(x); i += d {
 		for j := 0; j < d; j++ {
 			x[i+j] = (x[i+j] - f.Center[j]) * inv[j]

@@ -167,35 +167,25 @@ func (m *mainFlags) options(inputs []string) (job.Options, error) {
 			return o, flagErrorf("--axes %q: name three features in x,y,z order, such as mean_x,mean_y,mean_z, or auto, or none", m.Axes)
 		}
 	}
-	switch m.Turn {
-	case "all":
-	case "means":
-		o.NoTurn = true
-	default:
-		return o, flagErrorf("--turn %q: use all or means", m.Turn)
+	if o.NoTurn, err = secondOf("turn", m.Turn, "all", "means"); err != nil {
+		return o, err
 	}
 	if m.Axes != "auto" && o.Norm.Within != normalize.WithinAlign {
 		return o, flagErrorf("--axes %s with --within %s: only the align step turns axis means; leave --axes out or use --within align", m.Axes, m.Within)
 	}
-	switch m.Log {
-	case "auto":
-		o.Norm.Log = true
-	case "none":
-	default:
-		return o, flagErrorf("--log %q: use auto or none", m.Log)
+	noLog, err := secondOf("log", m.Log, "auto", "none")
+	if err != nil {
+		return o, err
 	}
+	o.Norm.Log = !noLog
 	if o.StatesRule, err = profile.ParseRule(m.StatesRule); err != nil {
 		return o, &flagError{err}
 	}
 	if o.StatesRule == profile.ByCalinskiHarabasz && o.Norm.Within == normalize.WithinAlign {
 		return o, flagErrorf("--states-rule ch with --within align: the aligned states decide a range by the valley rule; use --within none, rest, centre or robust-z for ch")
 	}
-	switch m.StatesLevel {
-	case "stable":
-	case "merged":
-		o.KeepMerged = true
-	default:
-		return o, flagErrorf("--states-level %q: use stable or merged", m.StatesLevel)
+	if o.KeepMerged, err = secondOf("states-level", m.StatesLevel, "stable", "merged"); err != nil {
+		return o, err
 	}
 	if !(m.Valley > 0 && m.Valley <= 1) {
 		return o, flagErrorf("--valley %v: a share of the density's height lies in (0, 1]", m.Valley)
@@ -240,6 +230,18 @@ func (m *mainFlags) options(inputs []string) (job.Options, error) {
 		return o, flagErrorf("--sample %d, --bootstrap %d, --workers %d: use at least 100 windows, 2 resamples and ≥ 0 workers", m.Sample, m.Bootstrap, m.Workers)
 	}
 	return o, nil
+}
+
+// secondOf reads a flag that takes one of two words: false for the first, true for the second,
+// and a usage error naming both for anything else.
+func secondOf(flag, value, first, second string) (bool, error) {
+	switch value {
+	case first:
+		return false, nil
+	case second:
+		return true, nil
+	}
+	return false, flagErrorf("--%s %q: use %s or %s", flag, value, first, second)
 }
 
 // settings lists every parameter for the settings sheet.

@@ -86,8 +86,9 @@ type Fitted struct {
 
 // findAxesIn resolves the axis means the align step turns: none, the named features, or, when
 // none are named, the triple that normalize.FindAxes finds on the first windows of up to 20
-// participants (first, each of the features' width). The note says which, for the workbook.
-func findAxesIn(features []string, first [][]float64, names []string, none bool) ([]int, string, error) {
+// participants (first: their windows one after another, row-major). The note says which, for
+// the workbook.
+func findAxesIn(features []string, first []float64, names []string, none bool) ([]int, string, error) {
 	if none {
 		return nil, "the align step turns no axis means (job.Options.NoAxes): it shifts each feature only", nil
 	}
@@ -102,7 +103,7 @@ func findAxesIn(features []string, first [][]float64, names []string, none bool)
 		}
 		return axes, fmt.Sprintf("the align step turns the axis means %s", strings.Join(names, ", ")), nil
 	}
-	axes, why := normalize.FindAxes(features, slices.Concat(first...))
+	axes, why := normalize.FindAxes(features, first)
 	if axes == nil {
 		return nil, "the align step found no axis means to turn (" + why + "); it shifts each feature only; name them with job.Options.Axes", nil
 	}

@@ -397,14 +397,15 @@ func FitSample(ctx context.Context, p *Plan, samples []*SamplePiece) (*FitPiece,
 	if norm.Log {
 		norm.Lowest = slices.Clone(p.Lowest)
 	}
-	axes, note, err := findAxesIn(p.Features, p.First, o.Axes, o.NoAxes)
+	first := slices.Concat(p.First...)
+	axes, note, err := findAxesIn(p.Features, first, o.Axes, o.NoAxes)
 	if err != nil {
 		return nil, err
 	}
 	norm.Axes = axes
 	if axes != nil && !o.NoTurn {
 		var words string
-		if norm.Turned, words = normalize.FindTurned(p.Features, axes, slices.Concat(p.First...)); words != "" {
+		if norm.Turned, words = normalize.FindTurned(p.Features, axes, first); words != "" {
 			note += "; " + words
 		}
 	}
