@@ -236,14 +236,10 @@ func Median(xs []float64) float64 {
 		}
 	}
 	m := n / 2
-	hi := SelectKth(xs, m)
 	if n%2 == 1 {
-		return hi
+		return SelectKth(xs, m)
 	}
-	lo := xs[0]
-	for _, v := range xs[1:m] {
-		lo = max(lo, v)
-	}
+	hi, lo := selectBelow(xs, m)
 	return (lo + hi) / 2
 }
 

@@ -15,16 +15,39 @@ import (
 // rule) is sorted instead, so the worst case is O(n log n), as in Musser's introselect (Musser DR
 // (1997), Introspective sorting and selection algorithms, Softw. Pract. Exper. 27(8):983).
 func quickSelect(a []float64, k int) float64 {
-	return quickSelectWithin(a, k, 2*bits.Len(uint(len(a))))
+	v, _ := quickSelectWithin(a, k, 2*bits.Len(uint(len(a))))
+	return v
 }
 
-// quickSelectWithin is quickSelect with a budget of partitioning rounds before it sorts.
-func quickSelectWithin(a []float64, k, budget int) float64 {
+// selectBelow is quickSelect that also returns the largest value before place k (k ≥ 1), the
+// other middle value of an even count, found among the values of the last range partitioned
+// rather than the whole first half.
+func selectBelow(a []float64, k int) (at, below float64) {
+	at, from := quickSelectWithin(a, k, 2*bits.Len(uint(len(a))))
+	return at, largestBefore(a, k, from)
+}
+
+// largestBefore is the largest of a[:k] after quickSelectWithin(a, k, …) returned from.
+func largestBefore(a []float64, k, from int) float64 {
+	if from >= k {
+		return a[k-1]
+	}
+	below := a[from]
+	for _, v := range a[from+1 : k] {
+		below = max(below, v)
+	}
+	return below
+}
+
+// quickSelectWithin is quickSelect with a budget of partitioning rounds before it sorts. It
+// also returns from: no value before from is larger than one after it, a[from−1] is the
+// largest value before from, and from ≥ k when a[k−1] is the largest value before k.
+func quickSelectWithin(a []float64, k, budget int) (float64, int) {
 	lo, hi := 0, len(a)-1
 	for hi-lo >= 16 {
 		if budget--; budget < 0 {
 			slices.Sort(a[lo : hi+1])
-			return a[k]
+			return a[k], k
 		}
 		// The median of the first, middle and last values goes to a[hi] as the pivot.
 		mid := lo + (hi-lo)/2
@@ -57,7 +80,7 @@ func quickSelectWithin(a []float64, k, budget int) float64 {
 			hi = i - 1
 			continue
 		case k == i:
-			return p
+			return p, lo
 		}
 		// Values equal to p next to it, so that many ties cannot make the loop quadratic.
 		e := i + 1
@@ -72,7 +95,11 @@ func quickSelectWithin(a []float64, k, budget int) float64 {
 			e += step
 		}
 		if k < e {
-			return p
+			// a[i:e] hold p; when k > i the largest value before k is p too.
+			if k > i {
+				return p, k
+			}
+			return p, lo
 		}
 		lo = e
 	}
@@ -85,5 +112,5 @@ func quickSelectWithin(a []float64, k, budget int) float64 {
 		}
 		a[j] = v
 	}
-	return a[k]
+	return a[k], k
 }

@@ -2,6 +2,7 @@ package groupstat
 
 import (
 	"math/rand/v2"
+	"slices"
 	"sort"
 	"testing"
 )
@@ -32,8 +33,22 @@ func TestQuickSelectIsExact(t *testing.T) {
 			}
 			for _, budget := range []int{0, 1, 2 * 64} {
 				a := append([]float64(nil), x...)
-				if got := quickSelectWithin(a, k, budget); got != want[k] || a[k] != want[k] {
+				got, from := quickSelectWithin(a, k, budget)
+				if got != want[k] || a[k] != want[k] {
 					t.Fatalf("n %d, k %d, budget %d: got %v (a[k] %v), sorted copy gives %v", n, k, budget, got, a[k], want[k])
+				}
+				// What selectBelow relies on: nothing before from is larger than what follows it,
+				// a[from−1] is the largest before from, and from ≥ k only when a[k−1] is the
+				// largest before k.
+				if from > 0 && from <= n {
+					if below := slices.Max(a[:from]); a[from-1] != below || (from < n && below > slices.Min(a[from:])) {
+						t.Fatalf("n %d, k %d, budget %d: from %d does not split a", n, k, budget, from)
+					}
+				}
+				if k > 0 {
+					if below := largestBefore(a, k, from); below != want[k-1] {
+						t.Fatalf("n %d, k %d, budget %d: the largest value before k is %v (from %d), sorted copy gives %v", n, k, budget, below, from, want[k-1])
+					}
 				}
 				for i, v := range a {
 					if (i < k && v > a[k]) || (i > k && v < a[k]) {
