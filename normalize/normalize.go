@@ -733,13 +733,16 @@ func (f *Fit) applyInto(dst, x []float64, b Baseline, dev Device, logged bool) [
 	}
 	dst = dst[:n*k]
 	r := f.newRowScaler(b, dev, logged, min(n, applyRows))
+	defer r.release()
 	if f.PCA == nil {
 		for i := 0; i < n; i += applyRows {
 			m := min(applyRows, n-i)
 			r.rows(dst[i*d:(i+m)*d], x[i*d:(i+m)*d])
 		}
 	} else {
-		block := make([]float64, min(n, applyRows)*d)
+		bp := scratch(min(n, applyRows) * d)
+		defer scratchPool.Put(bp)
+		block := *bp
 		for i := 0; i < n; i += applyRows {
 			m := min(applyRows, n-i)
 			r.rows(block, x[i*d:(i+m)*d])
@@ -767,6 +770,7 @@ func (f *Fit) ScaledInto(dst, x []float64, dev Device) []float64 {
 	}
 	dst = dst[:n*d]
 	r := f.newRowScaler(Baseline{}, dev, false, min(n, applyRows))
+	defer r.release()
 	for i := 0; i < n; i += applyRows {
 		m := min(applyRows, n-i)
 		r.rows(dst[i*d:(i+m)*d], x[i*d:(i+m)*d])
@@ -777,11 +781,12 @@ func (f *Fit) ScaledInto(dst, x []float64, dev Device) []float64 {
 // rowScaler takes windows, a block at a time, through the within-participant and cohort
 // scaling: turned and logged first when the fit and device ask for it.
 type rowScaler struct {
-	f                  *Fit
-	center, scale, tmp []float64
-	inv                []float64 // Fit.inverseSpread
-	dev                Device
-	logged, prep       bool
+	f             *Fit
+	center, scale []float64
+	tmp           *[]float64 // from scratchPool while prep
+	inv           []float64  // Fit.inverseSpread
+	dev           Device
+	logged, prep  bool
 }
 
 func (f *Fit) newRowScaler(b Baseline, dev Device, logged bool, rows int) *rowScaler {
@@ -796,16 +801,39 @@ func (f *Fit) newRowScaler(b Baseline, dev Device, logged bool, rows int) *rowSc
 	r.inv = f.inverseSpread()
 	r.prep = (f.anyLogged() && !logged) || (dev.Rotation != nil && f.Axes != nil)
 	if r.prep {
-		r.tmp = make([]float64, rows*d)
+		r.tmp = scratch(rows * d)
 	}
 	return r
+}
+
+// release gives the scaler's scratch block back to the pool; the scaler is not used after.
+func (r *rowScaler) release() {
+	if r.tmp != nil {
+		scratchPool.Put(r.tmp)
+		r.tmp = nil
+	}
+}
+
+// scratchPool holds blocks of windows that applyInto and the rowScaler work in, so that the
+// align step's many small calls (a participant's sampled windows, round after round) do not
+// each allocate them.
+var scratchPool = sync.Pool{New: func() any { return new([]float64) }}
+
+// scratch is a block of n values from scratchPool, with whatever values it held.
+func scratch(n int) *[]float64 {
+	p := scratchPool.Get().(*[]float64)
+	if cap(*p) < n {
+		*p = make([]float64, n)
+	}
+	*p = (*p)[:n]
+	return p
 }
 
 // rows scales the windows of x into y (both rows × features).
 func (r *rowScaler) rows(y, x []float64) {
 	f, d := r.f, len(r.f.Features)
 	if r.prep {
-		t := r.tmp[:len(x)]
+		t := (*r.tmp)[:len(x)]
 		copy(t, x)
 		if r.dev.Rotation != nil && f.Axes != nil {
 			f.rotateRows(t, r.dev.Rotation, r.logged)

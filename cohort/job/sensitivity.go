@@ -30,7 +30,9 @@ const sensitivityUnits = 60
 // read against the first row, the same settings on the same sampled windows.
 func sensitivity(ctx context.Context, f *Fitted, o Options, sample sampleUnits) ([]reports.Sensitivity, error) {
 	k := f.Grouping.K
-	var out []reports.Sensitivity
+	// Each row is a task of its own; the tasks run side by side (each seeded as it would be
+	// alone) and their rows are kept in this order.
+	var tasks []func() (reports.Sensitivity, error)
 	shares := make([][]float64, len(f.Sigs))
 	for i, s := range f.Sigs {
 		shares[i] = s.Share
@@ -39,32 +41,51 @@ func sensitivity(ctx context.Context, f *Fitted, o Options, sample sampleUnits) 
 		if m == f.Grouping.Method || (m != cohort.KMeansCLR && len(shares) > cohort.LargeCohort) {
 			continue
 		}
-		g, err := cohort.GroupSignatures(ctx, shares, cohort.GroupOptions{Method: m, Groups: []int{k}, Bootstrap: 2, Seed: o.Seed, Workers: o.Workers})
-		if err != nil {
-			return nil, err
-		}
-		ari, _ := cluster.AdjustedRand(g.Labels, f.Grouping.Labels)
-		out = append(out, reports.Sensitivity{Choice: "grouping method", Alternative: m.String(), Participants: len(shares), ARI: ari})
+		tasks = append(tasks, func() (reports.Sensitivity, error) {
+			g, err := cohort.GroupSignatures(ctx, shares, cohort.GroupOptions{Method: m, Groups: []int{k}, Bootstrap: 2, Seed: o.Seed, Workers: o.Workers})
+			if err != nil {
+				return reports.Sensitivity{}, err
+			}
+			ari, _ := cluster.AdjustedRand(g.Labels, f.Grouping.Labels)
+			return reports.Sensitivity{Choice: "grouping method", Alternative: m.String(), Participants: len(shares), ARI: ari}, nil
+		})
 	}
 	units, index := sample.units, sample.index
 	if len(units) > sensitivityUnits {
 		units, index = units[:sensitivityUnits], index[:sensitivityUnits]
 	}
-	if len(units) <= k {
-		return out, nil
+	if len(units) > k {
+		tasks = append(tasks, sampleTasks(ctx, f, o, units, index)...)
 	}
+	out := make([]reports.Sensitivity, 0, len(tasks))
+	err := cluster.Ordered(ctx, len(tasks), o.Workers, func(i, _ int) (reports.Sensitivity, error) {
+		return tasks[i]()
+	}, func(_ int, row reports.Sensitivity) error {
+		out = append(out, row)
+		return nil
+	})
+	if err != nil {
+		return nil, err
+	}
+	return out, nil
+}
+
+// sampleTasks are the sensitivity rows refitted on the sampled participants' windows: the
+// reference (the settings used), the other within steps and one state fewer and one more.
+func sampleTasks(ctx context.Context, f *Fitted, o Options, units [][]float64, index []int) []func() (reports.Sensitivity, error) {
+	k := f.Grouping.K
 	made := make([]int, len(index))
 	for r, i := range index {
 		made[r] = f.Grouping.Labels[i]
 	}
-	compare := func(choice, alt string, fit *normalize.Fit, states *profile.States, ref bool) error {
+	compare := func(choice, alt string, fit *normalize.Fit, states *profile.States, ref bool) (reports.Sensitivity, error) {
 		sh := make([][]float64, len(units))
 		for r, x := range units {
 			var labels []int
 			if states.Aligned() {
 				_, _, lab, err := states.AlignUnit(fit, x, nil)
 				if err != nil {
-					return err
+					return reports.Sensitivity{}, err
 				}
 				labels = lab
 			} else {
@@ -74,14 +95,10 @@ func sensitivity(ctx context.Context, f *Fitted, o Options, sample sampleUnits) 
 		}
 		g, err := cohort.GroupSignatures(ctx, sh, cohort.GroupOptions{Method: f.Grouping.Method, Groups: []int{k}, Bootstrap: 2, Seed: o.Seed, Workers: o.Workers})
 		if err != nil {
-			return err
+			return reports.Sensitivity{}, err
 		}
 		ari, _ := cluster.AdjustedRand(g.Labels, made)
-		out = append(out, reports.Sensitivity{Choice: choice, Alternative: alt, Reference: ref, Participants: len(units), OnSample: true, ARI: ari})
-		return nil
-	}
-	if err := compare("reference", "the settings used, on the sampled windows", f.Fit, f.States, true); err != nil {
-		return nil, err
+		return reports.Sensitivity{Choice: choice, Alternative: alt, Reference: ref, Participants: len(units), OnSample: true, ARI: ari}, nil
 	}
 	refit := func(within normalize.Within, states []int) (*normalize.Fit, *profile.States, error) {
 		no := o.Norm
@@ -111,34 +128,34 @@ func sensitivity(ctx context.Context, f *Fitted, o Options, sample sampleUnits) 
 		st, err := profile.FitStates(ctx, mat.NewDense(len(rows)/fit.OutDim(), fit.OutDim(), rows), profile.Options{States: states, Rule: o.StatesRule, Valley: o.Valley, Restarts: 1, Seed: o.Seed, Workers: o.Workers})
 		return fit, st, err
 	}
+	tasks := []func() (reports.Sensitivity, error){func() (reports.Sensitivity, error) {
+		return compare("reference", "the settings used, on the sampled windows", f.Fit, f.States, true)
+	}}
 	for _, w := range []normalize.Within{normalize.WithinAlign, normalize.WithinRest, normalize.WithinNone} {
 		if w == o.Norm.Within {
 			continue
 		}
-		if err := ctx.Err(); err != nil {
-			return nil, err
-		}
-		fit, st, err := refit(w, o.States)
-		if err != nil {
-			return nil, fmt.Errorf("sensitivity to the within step %v: %w", w, err)
-		}
-		if err := compare("within-participant step", w.String(), fit, st, false); err != nil {
-			return nil, err
-		}
+		tasks = append(tasks, func() (reports.Sensitivity, error) {
+			fit, st, err := refit(w, o.States)
+			if err != nil {
+				return reports.Sensitivity{}, fmt.Errorf("sensitivity to the within step %v: %w", w, err)
+			}
+			return compare("within-participant step", w.String(), fit, st, false)
+		})
 	}
 	for _, ks := range []int{f.States.K - 1, f.States.K + 1} {
 		if ks < 2 {
 			continue
 		}
-		fit, st, err := refit(o.Norm.Within, []int{ks})
-		if err != nil {
-			return nil, fmt.Errorf("sensitivity to the number of states: %w", err)
-		}
-		if err := compare("number of states", fmt.Sprintf("%d (fixed)", ks), fit, st, false); err != nil {
-			return nil, err
-		}
+		tasks = append(tasks, func() (reports.Sensitivity, error) {
+			fit, st, err := refit(o.Norm.Within, []int{ks})
+			if err != nil {
+				return reports.Sensitivity{}, fmt.Errorf("sensitivity to the number of states: %w", err)
+			}
+			return compare("number of states", fmt.Sprintf("%d (fixed)", ks), fit, st, false)
+		})
 	}
-	return out, nil
+	return tasks
 }
 
 // sensitivityNote is the line that reads the table: how far the alternatives move the groups.
