@@ -24,7 +24,15 @@ import (
 // scored by the adjusted Rand index against the planted groups. Methods are chosen on seeds
 // 1–20 ("tune") and reported on seeds 21–40 ("report") and 41–60 ("fresh"); testdata/recovery.sh
 // runs them.
-var recoverySet = flag.String("recovery", "", "run the recovery benchmark: tune (seeds 1–20), report (21–40), fresh (41–60), tune40 (1–40), fresh2 (61–80), fresh3 (81–100), fresh4 (101–120), fresh5 (121–140), fresh6 (141–160), fresh7 (161–180), fresh8 (181–200), fresh9 (201–240), fresh10 (241–280), demo or a list such as 3,7")
+var recoverySet = flag.String("recovery", "", "run the recovery benchmark: tune (seeds 1–20), report (21–40), fresh (41–60), tune40 (1–40), fresh2 (61–80), fresh3 (81–100), fresh4 (101–120), fresh5 (121–140), fresh6 (141–160), fresh7 (161–180), fresh8 (181–200), fresh9 (201–240), fresh10 (241–280), fresh11 (281–320), fresh12 (321–360), demo or a list such as 3,7")
+
+// recoverySets are the named sets of scenario seeds, first and last.
+var recoverySets = map[string][2]uint64{
+	"tune": {1, 20}, "report": {21, 40}, "fresh": {41, 60}, "tune40": {1, 40},
+	"fresh2": {61, 80}, "fresh3": {81, 100}, "fresh4": {101, 120}, "fresh5": {121, 140}, "fresh6": {141, 160},
+	"fresh7": {161, 180}, "fresh8": {181, 200}, "fresh9": {201, 240}, "fresh10": {241, 280},
+	"fresh11": {281, 320}, "fresh12": {321, 360},
+}
 var recoveryVariants = flag.String("recovery.variants", "", "only the variants whose names contain one of these comma-separated words")
 
 // variant is one way of running the job, as the flags a user would pass.
@@ -165,64 +173,16 @@ func TestRecoveryBenchmark(t *testing.T) {
 	}
 	var seeds []uint64
 	var demos []synth.Options
-	switch *recoverySet {
-	case "demo":
+	switch r, ok := recoverySets[*recoverySet]; {
+	case ok:
+		for s := r[0]; s <= r[1]; s++ {
+			seeds = append(seeds, s)
+		}
+	case *recoverySet == "demo":
 		for _, f := range []int{12, 24} {
 			for s := uint64(1); s <= 3; s++ {
 				demos = append(demos, synth.Options{Seed: s, Features: f})
 			}
-		}
-	case "tune":
-		for s := uint64(1); s <= 20; s++ {
-			seeds = append(seeds, s)
-		}
-	case "report":
-		for s := uint64(21); s <= 40; s++ {
-			seeds = append(seeds, s)
-		}
-	case "fresh":
-		for s := uint64(41); s <= 60; s++ {
-			seeds = append(seeds, s)
-		}
-	case "tune40":
-		for s := uint64(1); s <= 40; s++ {
-			seeds = append(seeds, s)
-		}
-	case "fresh2":
-		for s := uint64(61); s <= 80; s++ {
-			seeds = append(seeds, s)
-		}
-	case "fresh3":
-		for s := uint64(81); s <= 100; s++ {
-			seeds = append(seeds, s)
-		}
-	case "fresh4":
-		for s := uint64(101); s <= 120; s++ {
-			seeds = append(seeds, s)
-		}
-	case "fresh5":
-		for s := uint64(121); s <= 140; s++ {
-			seeds = append(seeds, s)
-		}
-	case "fresh6":
-		for s := uint64(141); s <= 160; s++ {
-			seeds = append(seeds, s)
-		}
-	case "fresh7":
-		for s := uint64(161); s <= 180; s++ {
-			seeds = append(seeds, s)
-		}
-	case "fresh8":
-		for s := uint64(181); s <= 200; s++ {
-			seeds = append(seeds, s)
-		}
-	case "fresh9":
-		for s := uint64(201); s <= 240; s++ {
-			seeds = append(seeds, s)
-		}
-	case "fresh10":
-		for s := uint64(241); s <= 280; s++ {
-			seeds = append(seeds, s)
 		}
 	default:
 		for _, f := range strings.Split(*recoverySet, ",") {
