@@ -128,11 +128,38 @@ func (f *Fit) scaleInto(buf *[]float64, x []float64) []float64 {
 
 // logRows puts the logged features of row-major windows on their log scale, in place.
 func (f *Fit) logRows(y []float64) {
-	d := len(f.Features)
+	var cols []int
 	for j, l := range f.Logged {
-		if !l {
-			continue
+		if l {
+			cols = append(cols, j)
 		}
+	}
+	f.logColumns(y, cols)
+}
+
+// loggedColumns are the logged features; with late, only those that the turn rebuilds (the
+// features in f.Turned, when there are axis means to turn), and without, all but those when
+// the fit turns them.
+func (f *Fit) loggedColumns(late bool) []int {
+	turned := func(j int) bool { return false }
+	if t := f.Turned; t != nil && f.Axes != nil {
+		turned = func(j int) bool {
+			return slices.Contains(t.SD, j) || slices.Contains(t.Cor, j) || slices.ContainsFunc(t.Angles, func(a Angle) bool { return a.Column == j })
+		}
+	}
+	var cols []int
+	for j, l := range f.Logged {
+		if l && turned(j) == late {
+			cols = append(cols, j)
+		}
+	}
+	return cols
+}
+
+// logColumns puts the given columns of row-major windows on their log scales, in place.
+func (f *Fit) logColumns(y []float64, cols []int) {
+	d := len(f.Features)
+	for _, j := range cols {
 		c := f.LogShift[j]
 		for i := j; i < len(y); i += d {
 			y[i] = math.Log(y[i] + c)
@@ -141,9 +168,8 @@ func (f *Fit) logRows(y []float64) {
 }
 
 // rotateRows turns the axis means of row-major windows by the 3×3 row-major r, in place, and
-// the features in f.Turned with them; logged says the rows' logged features are on their log
-// scales.
-func (f *Fit) rotateRows(y, r []float64, logged bool) {
+// the features in f.Turned with them, which must be as read (not on their log scales).
+func (f *Fit) rotateRows(y, r []float64) {
 	d := len(f.Features)
 	a, b, c := f.Axes[0], f.Axes[1], f.Axes[2]
 	for i := 0; i+d <= len(y); i += d {
@@ -152,7 +178,7 @@ func (f *Fit) rotateRows(y, r []float64, logged bool) {
 		y[i+b] = r[3]*x0 + r[4]*x1 + r[5]*x2
 		y[i+c] = r[6]*x0 + r[7]*x1 + r[8]*x2
 		if f.Turned != nil {
-			f.turnRow(y[i:i+d], r, [3]float64{x0, x1, x2}, [3]float64{y[i+a], y[i+b], y[i+c]}, logged)
+			f.turnRow(y[i:i+d], r, [3]float64{x0, x1, x2}, [3]float64{y[i+a], y[i+b], y[i+c]})
 		}
 	}
 }
@@ -163,17 +189,17 @@ func (f *Fit) ApplyDeviceInto(dst, x []float64, dev Device) []float64 {
 	return f.applyInto(dst, x, Baseline{}, dev, false)
 }
 
-// LogInto writes x with every logged feature on its log scale into dst (grown when too short)
-// and returns it: what ApplyLoggedInto takes, so that windows transformed again and again (with
-// one device after another) are put on their log scales once.
+// LogInto writes x with its logged features on their log scales into dst (grown when too
+// short) and returns it: what ApplyLoggedInto takes, so that windows transformed again and
+// again (with one device after another) are put on their log scales once. The features the
+// turn rebuilds (f.Turned) stay as read: ApplyLoggedInto logs them once turned.
 func (f *Fit) LogInto(dst, x []float64) []float64 {
 	dst = append(dst[:0], x...)
-	f.logRows(dst)
+	f.logColumns(dst, f.loggedColumns(false))
 	return dst
 }
 
-// ApplyLoggedInto is ApplyDeviceInto for windows already on their log scales (LogInto); the
-// axis means are never logged, so a rotation applies to them as read.
+// ApplyLoggedInto is ApplyDeviceInto for windows from LogInto.
 func (f *Fit) ApplyLoggedInto(dst, xl []float64, dev Device) []float64 {
 	return f.applyInto(dst, xl, Baseline{}, dev, true)
 }

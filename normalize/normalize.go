@@ -786,12 +786,14 @@ type rowScaler struct {
 	tmp           *[]float64 // from scratchPool while prep
 	inv           []float64  // Fit.inverseSpread
 	dev           Device
-	logged, prep  bool
+	logCols       []int // the columns to put on their log scales once turned
+	prep          bool
 }
 
+// newRowScaler scales rows windows at a time; logged says they come from LogInto.
 func (f *Fit) newRowScaler(b Baseline, dev Device, logged bool, rows int) *rowScaler {
 	d := len(f.Features)
-	r := &rowScaler{f: f, center: make([]float64, d), scale: make([]float64, d), dev: dev, logged: logged}
+	r := &rowScaler{f: f, center: make([]float64, d), scale: make([]float64, d), dev: dev}
 	for j := range r.scale {
 		r.scale[j] = 1
 		if f.Within.baseline() && f.Touched[j] {
@@ -799,7 +801,13 @@ func (f *Fit) newRowScaler(b Baseline, dev Device, logged bool, rows int) *rowSc
 		}
 	}
 	r.inv = f.inverseSpread()
-	r.prep = (f.anyLogged() && !logged) || (dev.Rotation != nil && f.Axes != nil)
+	if logged {
+		r.logCols = f.loggedColumns(true)
+	} else {
+		r.logCols = f.loggedColumns(false)
+		r.logCols = append(r.logCols, f.loggedColumns(true)...)
+	}
+	r.prep = len(r.logCols) > 0 || (dev.Rotation != nil && f.Axes != nil)
 	if r.prep {
 		r.tmp = scratch(rows * d)
 	}
@@ -836,11 +844,9 @@ func (r *rowScaler) rows(y, x []float64) {
 		t := (*r.tmp)[:len(x)]
 		copy(t, x)
 		if r.dev.Rotation != nil && f.Axes != nil {
-			f.rotateRows(t, r.dev.Rotation, r.logged)
+			f.rotateRows(t, r.dev.Rotation)
 		}
-		if !r.logged {
-			f.logRows(t)
-		}
+		f.logColumns(t, r.logCols)
 		x = t
 	}
 	center, scale, inv := r.center, r.scale, r.inv

@@ -221,17 +221,13 @@ func (t *Turned) Check(d int, axes []int) error {
 }
 
 // turnRow turns one window's turned features by r, given its axis means before (m) and after
-// (mr) the turn; logged says the row's logged features are on their log scales.
-func (f *Fit) turnRow(row []float64, r []float64, m, mr [3]float64, logged bool) {
+// (mr) the turn; the turned features are as read, not on their log scales.
+func (f *Fit) turnRow(row []float64, r []float64, m, mr [3]float64) {
 	t := f.Turned
 	if t.SD != nil {
 		var s [3]float64
 		for i, j := range t.SD {
-			v := row[j]
-			if logged && f.Logged[j] {
-				v = math.Exp(v) - f.LogShift[j]
-			}
-			s[i] = max(0, v)
+			s[i] = max(0, row[j])
 		}
 		r01, r02, r12 := row[t.Cor[0]], row[t.Cor[1]], row[t.Cor[2]]
 		c00, c11, c22 := s[0]*s[0], s[1]*s[1], s[2]*s[2]
@@ -247,11 +243,7 @@ func (f *Fit) turnRow(row []float64, r []float64, m, mr [3]float64, logged bool)
 		out := func(i, j int) float64 { return r[i*3]*cr[j*3] + r[i*3+1]*cr[j*3+1] + r[i*3+2]*cr[j*3+2] }
 		sr := [3]float64{math.Sqrt(max(0, out(0, 0))), math.Sqrt(max(0, out(1, 1))), math.Sqrt(max(0, out(2, 2)))}
 		for i, j := range t.SD {
-			v := sr[i]
-			if logged && f.Logged[j] {
-				v = math.Log(v + f.LogShift[j])
-			}
-			row[j] = v
+			row[j] = sr[i]
 		}
 		if den := sr[0] * sr[1]; den > 0 {
 			row[t.Cor[0]] = clampUnit(out(0, 1) / den)
@@ -290,12 +282,7 @@ func (f *Fit) turnRow(row []float64, r []float64, m, mr [3]float64, logged bool)
 		if a.Degrees {
 			d *= 180 / math.Pi
 		}
-		j := a.Column
-		if logged && f.Logged[j] {
-			row[j] = math.Log(math.Exp(row[j]) + d) // log(x + c) → log(x + d + c)
-		} else {
-			row[j] += d
-		}
+		row[a.Column] += d
 	}
 }
 

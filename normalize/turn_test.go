@@ -1,6 +1,7 @@
 package normalize
 
 import (
+	"context"
 	"errors"
 	"math"
 	"math/rand/v2"
@@ -121,13 +122,17 @@ func TestTurnGivesBackTheWristFrame(t *testing.T) {
 			wrist[9] += 0.7 // the window's own deviation from the angle of its mean
 			device := windowOf(mulVec3(r, m), mul3(mul3(r, c), transpose3(r)))
 			device[9] += 0.7
-			if logged {
-				for _, row := range [][]float64{wrist, device} {
-					f.logRows(row)
-				}
-			}
 			back := transpose3(r)
-			f.rotateRows(device, back[:], logged)
+			if logged {
+				// As ApplyLoggedInto takes them: logged once (LogInto), which leaves the turned
+				// features as read, then turned, then those logged.
+				f.logRows(wrist)
+				device = f.LogInto(nil, device)
+				f.rotateRows(device, back[:])
+				f.logColumns(device, f.loggedColumns(true))
+			} else {
+				f.rotateRows(device, back[:])
+			}
 			for j, w := range wrist {
 				if math.Abs(device[j]-w) > 1e-12*math.Max(1, math.Abs(w)) {
 					t.Errorf("logged %v, trial %d: %s turned back is %.15g, the wrist's %.15g", logged, trial, turnNames[j], device[j], w)
@@ -216,6 +221,49 @@ func TestTurnedCheck(t *testing.T) {
 		err := c.t.Check(11, c.axes)
 		if (err == nil) != c.ok || (err != nil && !errors.Is(err, ErrOption)) {
 			t.Errorf("%s: Check = %v, want ok %v", c.name, err, c.ok)
+		}
+	}
+}
+
+// Windows put on their log scales once (LogInto, which leaves the turned features as read) and
+// then turned with a device (ApplyLoggedInto), as the align step does round after round, give to
+// the bit what turning and logging them in one go (ApplyDeviceInto) gives: each feature is
+// logged once, after the turn, either way. With and without the projection.
+func TestLoggedApplyMatchesOneGo(t *testing.T) {
+	rng := rand.New(rand.NewPCG(7, 8))
+	units := make([][]float64, 4)
+	for u := range units {
+		for w := 0; w < applyRows+21; w++ {
+			m, c := randomWindow(rng)
+			units[u] = append(units[u], windowOf(m, c)...)
+		}
+	}
+	d := len(turnNames)
+	axes := []int{0, 1, 2}
+	turned, _ := FindTurned(turnNames, axes, units[0])
+	if turned == nil || turned.SD == nil || len(turned.Angles) != 1 {
+		t.Fatalf("FindTurned found %+v", turned)
+	}
+	lowest, start := LowestOf(units, d), LogStartOf(units, d)
+	lowest[9] = 0 // the tilt taken as never negative, so that it is logged too
+	for _, noPCA := range []bool{true, false} {
+		fit, err := FitBlocks(context.Background(), turnNames, SliceBlocks(units), Options{Within: WithinAlign, Log: true, Lowest: lowest, LogStart: start, Axes: axes, Turned: turned, NoPCA: noPCA})
+		if err != nil {
+			t.Fatal(err)
+		}
+		if !fit.Logged[3] || !fit.Logged[9] || !fit.Logged[10] {
+			t.Fatalf("logged %v; want the s.d.s, the tilt and vm_sd", fit.Logged)
+		}
+		for u, x := range units {
+			r := randomRotation(rng, 15)
+			dev := Device{Rotation: r[:]}
+			want := fit.ApplyDeviceInto(nil, x, dev)
+			got := fit.ApplyLoggedInto(nil, fit.LogInto(nil, x), dev)
+			for i := range want {
+				if math.Float64bits(want[i]) != math.Float64bits(got[i]) {
+					t.Fatalf("PCA %v, participant %d value %d: %v logged first, %v in one go", !noPCA, u, i, got[i], want[i])
+				}
+			}
 		}
 	}
 }
