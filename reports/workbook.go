@@ -378,7 +378,7 @@ func stabilitySheet(f *excelize.File, st *styles, r *Result) error {
 		if err := t.put(v{"Do the groups depend on a choice?", st.title}); err != nil {
 			return err
 		}
-		if err := t.put(v{"The adjusted Rand index between the groups made and the groups under another choice, with the same number of groups (1: the same groups; 0: no more alike than chance). Other grouping methods group the same signatures. Other within steps and numbers of states were fitted anew on the sampled windows of sampled participants: read those rows against the first of them, the same settings on the same sampled windows.", st.note}); err != nil {
+		if err := t.put(v{"The adjusted Rand index between the groups made and the groups under another choice, with the same number of groups (1: the same groups; 0: no more alike than chance). Other grouping methods group the same signatures. Other within steps, the align step turning the axis means alone, and other numbers of states were fitted anew on the sampled windows of sampled participants: read those rows against the first of them, the same settings on the same sampled windows.", st.note}); err != nil {
 			return err
 		}
 		if err := t.merge(5); err != nil {

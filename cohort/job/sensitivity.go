@@ -71,7 +71,8 @@ func sensitivity(ctx context.Context, f *Fitted, o Options, sample sampleUnits) 
 }
 
 // sampleTasks are the sensitivity rows refitted on the sampled participants' windows: the
-// reference (the settings used), the other within steps and one state fewer and one more.
+// reference (the settings used), the other within steps, the axis means turned alone (when the
+// align step turns more features with them) and one state fewer and one more.
 func sampleTasks(ctx context.Context, f *Fitted, o Options, units [][]float64, index []int) []func() (reports.Sensitivity, error) {
 	k := f.Grouping.K
 	made := make([]int, len(index))
@@ -100,7 +101,7 @@ func sampleTasks(ctx context.Context, f *Fitted, o Options, units [][]float64, i
 		ari, _ := cluster.AdjustedRand(g.Labels, made)
 		return reports.Sensitivity{Choice: choice, Alternative: alt, Reference: ref, Participants: len(units), OnSample: true, ARI: ari}, nil
 	}
-	refit := func(within normalize.Within, states []int) (*normalize.Fit, *profile.States, error) {
+	refit := func(within normalize.Within, states []int, noTurn bool) (*normalize.Fit, *profile.States, error) {
 		no := o.Norm
 		no.Within, no.Keep, no.KeepUnit, no.Progress, no.SampleRate = within, nil, nil, nil, 1
 		no.WithinFeatures = nil
@@ -109,6 +110,9 @@ func sampleTasks(ctx context.Context, f *Fitted, o Options, units [][]float64, i
 			if within == normalize.WithinAlign {
 				no.Axes, no.Turned = f.Fit.Axes, f.Fit.Turned
 			}
+		}
+		if noTurn {
+			no.Turned = nil
 		}
 		if no.Log {
 			no.LogStart = normalize.LogStartOf(units, len(f.Fit.Features))
@@ -136,11 +140,20 @@ func sampleTasks(ctx context.Context, f *Fitted, o Options, units [][]float64, i
 			continue
 		}
 		tasks = append(tasks, func() (reports.Sensitivity, error) {
-			fit, st, err := refit(w, o.States)
+			fit, st, err := refit(w, o.States, false)
 			if err != nil {
 				return reports.Sensitivity{}, fmt.Errorf("sensitivity to the within step %v: %w", w, err)
 			}
 			return compare("within-participant step", w.String(), fit, st, false)
+		})
+	}
+	if f.Fit.Turned != nil {
+		tasks = append(tasks, func() (reports.Sensitivity, error) {
+			fit, st, err := refit(o.Norm.Within, o.States, true)
+			if err != nil {
+				return reports.Sensitivity{}, fmt.Errorf("sensitivity to the turned features: %w", err)
+			}
+			return compare("align step turns", "the axis means only", fit, st, false)
 		})
 	}
 	for _, ks := range []int{f.States.K - 1, f.States.K + 1} {
@@ -148,7 +161,7 @@ func sampleTasks(ctx context.Context, f *Fitted, o Options, units [][]float64, i
 			continue
 		}
 		tasks = append(tasks, func() (reports.Sensitivity, error) {
-			fit, st, err := refit(o.Norm.Within, []int{ks})
+			fit, st, err := refit(o.Norm.Within, []int{ks}, false)
 			if err != nil {
 				return reports.Sensitivity{}, fmt.Errorf("sensitivity to the number of states: %w", err)
 			}
