@@ -457,10 +457,9 @@ func scoreGap(ctx context.Context, x *mat.Dense, scores []KScore, labelsByK map[
 		}
 	}
 	logW := make([][]float64, len(ks)) // per k, per reference
-	for b := 0; b < opts.Bootstrap; b++ {
-		if ctx.Err() != nil {
-			return ctx.Err()
-		}
+	// The references are drawn and grouped side by side, each from its own seed, and their
+	// log W_k gathered in reference order, so the sums are the same on any number of cores.
+	err = cluster.Ordered(ctx, opts.Bootstrap, opts.Workers, func(b, _ int) ([]float64, error) {
 		rng := rand.New(rand.NewPCG(cluster.SubSeed(opts.Seed, "gap reference", b), 1))
 		ref := mat.NewDense(n, d, nil)
 		row := make([]float64, p)
@@ -483,16 +482,26 @@ func scoreGap(ctx context.Context, x *mat.Dense, scores []KScore, labelsByK map[
 		}
 		cut, err := newCutter(ctx, m, ref, nil, GroupOptions{Seed: cluster.SubSeed(opts.Seed, "gap reference grouping", b), Workers: opts.Workers})
 		if err != nil {
-			return err
+			return nil, err
 		}
+		out := make([]float64, len(ks))
 		for i, k := range ks {
 			lab, err := cut(k)
 			if err != nil {
-				return err
+				return nil, err
 			}
-			logW[i] = append(logW[i], math.Log(withinSS(ref, lab, k)))
+			out[i] = math.Log(withinSS(ref, lab, k))
+		}
+		return out, nil
+	}, func(b int, out []float64) error {
+		for i, v := range out {
+			logW[i] = append(logW[i], v)
 		}
 		opts.report("gap statistic: reference sets", b+1, opts.Bootstrap)
+		return nil
+	})
+	if err != nil {
+		return err
 	}
 	B := float64(opts.Bootstrap)
 	for i, k := range ks {
@@ -544,10 +553,13 @@ func withinSS(x *mat.Dense, lab []int, k int) float64 {
 func scoreStability(ctx context.Context, x *mat.Dense, dist *cluster.Condensed, scores []KScore, labelsByK map[int][]int, opts GroupOptions) error {
 	n, _ := x.Dims()
 	sum, sum2 := make([]float64, len(scores)), make([]float64, len(scores))
-	for b := 0; b < opts.Bootstrap; b++ {
-		if ctx.Err() != nil {
-			return ctx.Err()
-		}
+	// The resamples are grouped side by side, each from its own seed, and their indices summed
+	// in resample order, so the sums are the same on any number of cores.
+	type drawn struct {
+		ari     float64
+		counted bool // false: too few drawn for this number of groups
+	}
+	err := cluster.Ordered(ctx, opts.Bootstrap, opts.Workers, func(b, _ int) ([]drawn, error) {
 		rng := rand.New(rand.NewPCG(cluster.SubSeed(opts.Seed, "bootstrap", b), 1))
 		seen := make([]bool, n)
 		for i := 0; i < n; i++ {
@@ -562,15 +574,16 @@ func scoreStability(ctx context.Context, x *mat.Dense, dist *cluster.Condensed, 
 		sub, subDist := subsetRows(x, dist, idx, opts.Method)
 		cut, err := newCutter(ctx, opts.Method, sub, subDist, GroupOptions{Seed: cluster.SubSeed(opts.Seed, "bootstrap grouping", b), Workers: opts.Workers})
 		if err != nil {
-			return err
+			return nil, err
 		}
+		aris := make([]drawn, len(scores))
 		for i, s := range scores {
 			if s.K > len(idx)-1 {
 				continue
 			}
 			lab, err := cut(s.K)
 			if err != nil {
-				return err
+				return nil, err
 			}
 			full := make([]int, len(idx))
 			for r, j := range idx {
@@ -578,12 +591,23 @@ func scoreStability(ctx context.Context, x *mat.Dense, dist *cluster.Condensed, 
 			}
 			ari, err := cluster.AdjustedRand(lab, full)
 			if err != nil {
-				return err
+				return nil, err
 			}
-			sum[i] += ari
-			sum2[i] += ari * ari
+			aris[i] = drawn{ari, true}
+		}
+		return aris, nil
+	}, func(b int, aris []drawn) error {
+		for i, a := range aris {
+			if a.counted {
+				sum[i] += a.ari
+				sum2[i] += a.ari * a.ari
+			}
 		}
 		opts.report("stability: resamples", b+1, opts.Bootstrap)
+		return nil
+	})
+	if err != nil {
+		return err
 	}
 	nb := float64(opts.Bootstrap)
 	for i := range scores {

@@ -52,33 +52,40 @@ func groupStability(ctx context.Context, x *mat.Dense, dist *cluster.Condensed, 
 	drawn := make([]float64, n)
 	stayed := make([]float64, n)
 	counted := make([]float64, k)
-	for b := 0; b < opts.Bootstrap; b++ {
-		if err := ctx.Err(); err != nil {
-			return nil, err
-		}
+	// Each resample is drawn and grouped again on its own (side by side, each from its own
+	// seed); the matching and the sums are made in resample order, so they are the same on any
+	// number of cores.
+	type regrouped struct {
+		idx   []int // participants drawn, in table order of the sample; nil: too few
+		again []int // their groups in the resample
+	}
+	err := cluster.Ordered(ctx, opts.Bootstrap, opts.Workers, func(b, _ int) (regrouped, error) {
 		rng := rand.New(rand.NewPCG(cluster.SubSeed(opts.Seed, "stability", b), 1))
 		seen := make([]bool, m)
 		for i := 0; i < m; i++ {
 			seen[rng.IntN(m)] = true
 		}
-		var idx []int // participants drawn, in table order of the sample
+		var idx []int
 		for r, s := range seen {
 			if s {
 				idx = append(idx, rows[r])
 			}
 		}
 		if len(idx) <= k {
-			opts.report("stability of each group: resamples", b+1, opts.Bootstrap)
-			continue
+			return regrouped{}, nil
 		}
 		sub, subDist := subsetRows(x, dist, idx, opts.Method)
 		cut, err := newCutter(ctx, opts.Method, sub, subDist, GroupOptions{Seed: cluster.SubSeed(opts.Seed, "stability grouping", b), Workers: opts.Workers})
 		if err != nil {
-			return nil, err
+			return regrouped{}, err
 		}
 		again, err := cut(k)
-		if err != nil {
-			return nil, err
+		return regrouped{idx, again}, err
+	}, func(b int, rg regrouped) error {
+		defer opts.report("stability of each group: resamples", b+1, opts.Bootstrap)
+		idx, again := rg.idx, rg.again
+		if idx == nil {
+			return nil
 		}
 		// Contingency of original groups (rows) and resample groups (columns).
 		both := make([][]float64, k)
@@ -112,7 +119,10 @@ func groupStability(ctx context.Context, x *mat.Dense, dist *cluster.Condensed, 
 				stayed[i]++
 			}
 		}
-		opts.report("stability of each group: resamples", b+1, opts.Bootstrap)
+		return nil
+	})
+	if err != nil {
+		return nil, err
 	}
 	for c := range st.Jaccard {
 		if counted[c] > 0 {
