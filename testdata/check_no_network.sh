@@ -3,13 +3,8 @@
 # Installs Debian's strace where it can (as root with apt-get); where it cannot, says so and skips.
 set -euo pipefail
 cd "$(dirname "$0")/.."
-if ! command -v strace >/dev/null 2>&1; then
-  if [ "$(id -u)" = 0 ] && command -v apt-get >/dev/null 2>&1; then
-    echo "check_no_network: installing strace with apt-get"
-    (apt-get update -qq && DEBIAN_FRONTEND=noninteractive apt-get install -y -qq strace) >/dev/null 2>&1 || true
-  fi
-fi
-if ! command -v strace >/dev/null 2>&1; then
+source testdata/install.sh
+if ! ensure check_no_network "command -v strace" strace; then
   echo "check_no_network: SKIPPED: strace is not installed and could not be installed here"
   exit 0
 fi

@@ -6,14 +6,8 @@
 set -euo pipefail
 cd "$(dirname "$0")/.."
 
-have() { command -v soffice >/dev/null 2>&1 && /usr/bin/python3 -c 'import openpyxl' >/dev/null 2>&1; }
-if ! have; then
-  if [ "$(id -u)" = 0 ] && command -v apt-get >/dev/null 2>&1; then
-    echo "check_workbooks: installing libreoffice-calc and python3-openpyxl with apt-get"
-    (apt-get update -qq && DEBIAN_FRONTEND=noninteractive apt-get install -y -qq libreoffice-calc python3-openpyxl) >/dev/null 2>&1 || true
-  fi
-fi
-if ! have; then
+source testdata/install.sh
+if ! ensure check_workbooks "command -v soffice && /usr/bin/python3 -c 'import openpyxl'" libreoffice-calc python3-openpyxl; then
   echo "check_workbooks: SKIPPED: LibreOffice (soffice) or python3-openpyxl is not installed and could not be installed here"
   exit 0
 fi

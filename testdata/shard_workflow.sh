@@ -6,13 +6,8 @@
 set -euo pipefail
 cd "$(dirname "$0")/.."
 
-if ! command -v snakemake >/dev/null 2>&1; then
-  if [ "$(id -u)" = 0 ] && command -v apt-get >/dev/null 2>&1; then
-    echo "shard_workflow: installing snakemake with apt-get"
-    (apt-get update -qq && DEBIAN_FRONTEND=noninteractive apt-get install -y -qq snakemake) >/dev/null 2>&1 || true
-  fi
-fi
-if ! command -v snakemake >/dev/null 2>&1; then
+source testdata/install.sh
+if ! ensure shard_workflow "command -v snakemake" snakemake; then
   echo "shard_workflow: SKIPPED: snakemake is not installed and could not be installed here (apt-get install snakemake, or pip install snakemake)"
   exit 0
 fi
