@@ -4,10 +4,7 @@
 set -euo pipefail
 cd "$(dirname "$0")/.."
 source testdata/install.sh
-if ! ensure check_no_network "command -v strace" strace; then
-  echo "check_no_network: SKIPPED: strace is not installed and could not be installed here"
-  exit 0
-fi
+ensure check_no_network "command -v strace" "strace is not installed and could not be installed here" strace || exit 0
 work=$(mktemp -d)
 trap 'rm -rf "$work"' EXIT
 go build -o "$work/cohortmix" ./cmd/cohortmix

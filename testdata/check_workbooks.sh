@@ -7,10 +7,8 @@ set -euo pipefail
 cd "$(dirname "$0")/.."
 
 source testdata/install.sh
-if ! ensure check_workbooks "command -v soffice && /usr/bin/python3 -c 'import openpyxl'" libreoffice-calc python3-openpyxl; then
-  echo "check_workbooks: SKIPPED: LibreOffice (soffice) or python3-openpyxl is not installed and could not be installed here"
-  exit 0
-fi
+ensure check_workbooks "command -v soffice && /usr/bin/python3 -c 'import openpyxl'" \
+  "LibreOffice (soffice) or python3-openpyxl is not installed and could not be installed here" libreoffice-calc python3-openpyxl || exit 0
 
 work=$(mktemp -d)
 trap 'rm -rf "$work"' EXIT

@@ -1,11 +1,12 @@
 # Sourced by the testdata scripts that need a Debian package.
 #
-# ensure NAME CHECK PACKAGE...: runs the shell command CHECK; when it fails and this is root with
-# apt-get, installs Debian's PACKAGEs (saying so, as NAME) and runs CHECK again. Its status is
-# CHECK's last one, so a script can say it skips when the tool is still missing.
+# ensure NAME CHECK MISSING PACKAGE...: runs the shell command CHECK; when it fails and this is
+# root with apt-get, installs Debian's PACKAGEs (saying so, as NAME) and runs CHECK again. When
+# CHECK still fails it says "NAME: SKIPPED: MISSING" and returns 1, so that a script can end
+# there with `|| exit 0`.
 ensure() {
-  local name=$1 check=$2
-  shift 2
+  local name=$1 check=$2 missing=$3
+  shift 3
   if eval "$check" >/dev/null 2>&1; then
     return 0
   fi
@@ -13,5 +14,8 @@ ensure() {
     echo "$name: installing $* with apt-get"
     (apt-get update -qq && DEBIAN_FRONTEND=noninteractive apt-get install -y -qq "$@") >/dev/null 2>&1 || true
   fi
-  eval "$check" >/dev/null 2>&1
+  if ! eval "$check" >/dev/null 2>&1; then
+    echo "$name: SKIPPED: $missing"
+    return 1
+  fi
 }

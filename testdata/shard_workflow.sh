@@ -7,10 +7,7 @@ set -euo pipefail
 cd "$(dirname "$0")/.."
 
 source testdata/install.sh
-if ! ensure shard_workflow "command -v snakemake" snakemake; then
-  echo "shard_workflow: SKIPPED: snakemake is not installed and could not be installed here (apt-get install snakemake, or pip install snakemake)"
-  exit 0
-fi
+ensure shard_workflow "command -v snakemake" "snakemake is not installed and could not be installed here (apt-get install snakemake, or pip install snakemake)" snakemake || exit 0
 
 work=$(mktemp -d)
 trap 'rm -rf "$work"' EXIT
