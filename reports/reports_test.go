@@ -348,3 +348,46 @@ func withoutField(t *testing.T, b []byte, name string) string {
 	out, _ := json.Marshal(m)
 	return string(out)
 }
+
+// A grouping that does not come back as a whole when the participants are drawn again (its
+// stability at the number of groups chosen below cohort.UnstableGrouping) is called tentative
+// in words on the Summary and on the Stability sheet; at the threshold it is not, and with one
+// number of groups given (no stability measured) neither sheet says anything of it.
+func TestTentativeGroupingIsFlagged(t *testing.T) {
+	cases := []struct {
+		name      string
+		scores    []cohort.KScore
+		tentative bool
+		row       bool
+	}{
+		{"below the threshold", []cohort.KScore{{K: 2, Stability: 0.95}, {K: 3, Stability: cohort.UnstableGrouping - 0.01}}, true, true},
+		{"at the threshold", []cohort.KScore{{K: 2, Stability: 0.95}, {K: 3, Stability: cohort.UnstableGrouping}}, false, true},
+		{"one number of groups given", []cohort.KScore{{K: 3}}, false, false},
+	}
+	for _, c := range cases {
+		r := fixture(t, 30, func(i int) string { return "P" + digits(i) })
+		r.Grouping.Scores = c.scores
+		r.Grouping.Stability = &cohort.GroupStability{Resamples: 20, Jaccard: []float64{0.9, 0.9, 0.9}, Stay: make([]float64, 30)}
+		path := filepath.Join(t.TempDir(), "r.xlsx")
+		if err := WriteWorkbook(path, r, false); err != nil {
+			t.Fatal(err)
+		}
+		f, err := excelize.OpenFile(path)
+		if err != nil {
+			t.Fatal(err)
+		}
+		sum, _ := f.GetRows(SheetSummary)
+		stab, _ := f.GetRows(SheetStability)
+		f.Close()
+		if got := strings.Contains(flatten(sum), "TENTATIVE"); got != c.tentative {
+			t.Errorf("%s: the Summary says TENTATIVE: %v, want %v", c.name, got, c.tentative)
+		}
+		text := flatten(stab)
+		if got := strings.Contains(text, "the grouping as a whole"); got != c.row {
+			t.Errorf("%s: the Stability sheet has the whole grouping's row: %v, want %v", c.name, got, c.row)
+		}
+		if got := strings.Contains(text, "TENTATIVE"); got != c.tentative {
+			t.Errorf("%s: the Stability sheet says TENTATIVE: %v, want %v", c.name, got, c.tentative)
+		}
+	}
+}

@@ -42,6 +42,11 @@ func summarySheet(f *excelize.File, st *styles, r *Result) error {
 			return err
 		}
 	}
+	if ws, ok := r.Grouping.WholeStability(); ok && ws < cohort.UnstableGrouping {
+		if err := put("The grouping as a whole", wholeUnstable(ws, r.Grouping.K)); err != nil {
+			return err
+		}
+	}
 	if r.SensitivityNote != "" {
 		if err := put("Other choices", capital(r.SensitivityNote)+" (see "+SheetStability+")"); err != nil {
 			return err
@@ -232,4 +237,10 @@ func howDone(r *Result) string {
 	}
 	return fmt.Sprintf("First %s; then every feature was put on a common scale across the cohort. %d movement states were learned from %s windows sampled from the whole cohort, and every window was given its nearest state. The participants were grouped by how their time divides among the states (%s). The exact settings are on the %s sheet.",
 		within, r.States.K, cohort.Thousands(r.States.Sampled), method, SheetSettings)
+}
+
+// wholeUnstable is the Summary's warning for a grouping that does not come back as a whole when
+// the participants are drawn again.
+func wholeUnstable(stability float64, k int) string {
+	return fmt.Sprintf("TENTATIVE: when the participants are drawn again, the grouping into %d groups comes back only in part (adjusted Rand index %.2f on average, below %.2f; see %s). Another number of groups, or no clear groups at all, may describe these participants as well; read the groups as tentative.", k, stability, cohort.UnstableGrouping, SheetStability)
 }

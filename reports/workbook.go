@@ -372,6 +372,15 @@ func stabilitySheet(f *excelize.File, st *styles, r *Result) error {
 				return err
 			}
 		}
+		if ws, ok := r.Grouping.WholeStability(); ok {
+			reading := fmt.Sprintf("comes back as a whole: the adjusted Rand index between the groups and those found anew, on average over the resamples (Lange et al. 2004); below %.2f the grouping is flagged as tentative", cohort.UnstableGrouping)
+			if ws < cohort.UnstableGrouping {
+				reading = fmt.Sprintf("TENTATIVE: comes back only in part (the adjusted Rand index between the groups and those found anew, on average over the resamples, is below %.2f; Lange et al. 2004)", cohort.UnstableGrouping)
+			}
+			if err := t.put(v{"the grouping as a whole", st.text}, v{len(r.Units), st.integer}, v{ws, st.dec2}, v{"", st.text}, v{reading, st.wrap}); err != nil {
+				return err
+			}
+		}
 		t.blank()
 	}
 	if len(r.Sensitivity) > 0 {

@@ -8,7 +8,7 @@
 # defaults, 81–100 ("fresh3") were run unseen.
 # "demo" runs the demo's own scenario (150 × 1,000; 12 and 24 features). Run from the
 # repository root; the tables go to standard output (about 25 minutes a set on two cores). Pass
-# a set as the first argument to run only it: tune, report, fresh, tune40, fresh2, fresh3, fresh4 (101–120), fresh5 (121–140), fresh6 (141–160), fresh7 (161–180), fresh8 (181–200), fresh9 (201–240), fresh10 (241–280), fresh11 (281–320), fresh12 (321–360), demo or a list of seeds such
+# a set as the first argument to run only it: tune, report, fresh, tune40, fresh2, fresh3, fresh4 (101–120), fresh5 (121–140), fresh6 (141–160), fresh7 (161–180), fresh8 (181–200), fresh9 (201–240), fresh10 (241–280), fresh11 (281–320), fresh12 (321–360), fresh13 (361–400), fresh14 (401–440), demo or a list of seeds such
 # as 3,7; "-recovery.variants" in the go test line below picks variants by name.
 set -euo pipefail
 sets=${1:-"tune report fresh demo"}
