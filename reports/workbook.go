@@ -281,7 +281,7 @@ func groupsSheet(f *excelize.File, st *styles, r *Result) error {
 	for g := range r.GroupNames {
 		var n, sil float64
 		share := make([]float64, k)
-		bout := make([]float64, k)
+		bout, entered := make([]float64, k), make([]float64, k) // bouts over the members who entered the state
 		for _, u := range r.Units {
 			if u.Group != g || u.Atypical {
 				continue
@@ -290,7 +290,10 @@ func groupsSheet(f *excelize.File, st *styles, r *Result) error {
 			sil += u.Silhouette
 			for s := 0; s < k; s++ {
 				share[s] += u.Share[s]
-				bout[s] += u.Bout[s]
+				if u.Bout[s] > 0 {
+					bout[s] += u.Bout[s]
+					entered[s]++
+				}
 			}
 		}
 		cells := []v{{r.GroupNames[g], st.text}, {int(n), st.integer}, {sil / n, st.dec3}, {r.GroupLines[g], st.wrap}}
@@ -301,11 +304,11 @@ func groupsSheet(f *excelize.File, st *styles, r *Result) error {
 			cells = append(cells, v{share[s] / n, st.pct})
 		}
 		for s := 0; s < k; s++ {
-			cells = append(cells, v{bout[s] / n, st.dec2})
+			cells = append(cells, v{bout[s] / entered[s], st.dec2}) // NaN, an empty cell, when no member entered it
 		}
 		if r.WindowLength > 0 {
 			for s := 0; s < k; s++ {
-				cells = append(cells, v{bout[s] / n * r.WindowLength.Minutes(), st.dec1})
+				cells = append(cells, v{bout[s] / entered[s] * r.WindowLength.Minutes(), st.dec1})
 			}
 		}
 		if err := t.put(cells...); err != nil {

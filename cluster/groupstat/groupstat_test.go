@@ -298,3 +298,20 @@ func TestGroupMeans(t *testing.T) {
 		t.Errorf("sizes %v", sizes)
 	}
 }
+
+// GroupMeansOfPositive averages each column over the rows of a group whose value is above 0,
+// leaves out rows with a negative label, and gives NaN where a group has no such row.
+func TestGroupMeansOfPositive(t *testing.T) {
+	rows := [][]float64{{2, 0}, {4, 0}, {0, 3}, {6, 5}, {100, 100}}
+	labels := []int{0, 0, 1, 1, -1}
+	got := GroupMeansOfPositive(rows, labels, 3)
+	want := [][]float64{{3, math.NaN()}, {6, 4}, {math.NaN(), math.NaN()}}
+	for g := range want {
+		for j := range want[g] {
+			w, v := want[g][j], got[g][j]
+			if (math.IsNaN(w) != math.IsNaN(v)) || (!math.IsNaN(w) && v != w) {
+				t.Errorf("group %d column %d: %v, want %v", g, j, v, w)
+			}
+		}
+	}
+}

@@ -63,3 +63,39 @@ func GroupMeans(rows [][]float64, labels []int, k int) ([][]float64, []int) {
 	}
 	return means, sizes
 }
+
+// GroupMeansOfPositive is GroupMeans counting, in each column, only the rows whose value there
+// is above 0, for measures that do not exist where they are 0 (a mean bout length of a state a
+// participant never entered); a group with no such row in a column has NaN there.
+func GroupMeansOfPositive(rows [][]float64, labels []int, k int) [][]float64 {
+	means := make([][]float64, k)
+	counts := make([][]int, k)
+	for g := range means {
+		if len(rows) > 0 {
+			means[g] = make([]float64, len(rows[0]))
+			counts[g] = make([]int, len(rows[0]))
+		}
+	}
+	for i, row := range rows {
+		g := labels[i]
+		if g < 0 {
+			continue
+		}
+		for j, v := range row {
+			if v > 0 {
+				means[g][j] += v
+				counts[g][j]++
+			}
+		}
+	}
+	for g, m := range means {
+		for j := range m {
+			if counts[g][j] == 0 {
+				m[j] = math.NaN()
+			} else {
+				m[j] /= float64(counts[g][j])
+			}
+		}
+	}
+	return means
+}

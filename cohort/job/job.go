@@ -458,11 +458,12 @@ func groupLines(g *cohort.Grouping, sigs []profile.Signature, stateNames []strin
 			groups[i], all[i] = -1, -1
 		}
 	}
+	// A bout length exists only for a state the participant entered: bouts are averaged over
+	// those who did.
 	overShares, _ := groupstat.GroupMeans(shares, all, 1)
-	overBouts, _ := groupstat.GroupMeans(bouts, all, 1)
-	meanShare, meanBout := overShares[0], overBouts[0]
+	meanShare, meanBout := overShares[0], groupstat.GroupMeansOfPositive(bouts, all, 1)[0]
 	groupShares, sizes := groupstat.GroupMeans(shares, groups, g.K)
-	groupBouts, _ := groupstat.GroupMeans(bouts, groups, g.K)
+	groupBouts := groupstat.GroupMeansOfPositive(bouts, groups, g.K)
 	lines := make([]string, g.K)
 	for c := 0; c < g.K; c++ {
 		share, bout, n := groupShares[c], groupBouts[c], float64(sizes[c])
@@ -481,7 +482,7 @@ func groupLines(g *cohort.Grouping, sigs []profile.Signature, stateNames []strin
 			if meanShare[j] > 0 {
 				ds = append(ds, diff{j, share[j]/meanShare[j] - 1})
 			}
-			if meanBout[j] > 0 {
+			if meanBout[j] > 0 && bout[j] > 0 { // false for NaN: no one in the state
 				db = append(db, diff{j, bout[j]/meanBout[j] - 1})
 			}
 		}
