@@ -62,14 +62,7 @@ func TestWorkbookOpensWithSheetsFormatsAndCharts(t *testing.T) {
 	r := fixture(t, 30, func(i int) string {
 		return []string{"=1+1", "+cmd", "-2", "@SUM(A1)", "P5"}[i%5] + strings.Repeat("x", i/5)
 	})
-	path := filepath.Join(t.TempDir(), "r.xlsx")
-	if err := WriteWorkbook(path, r, false); err != nil {
-		t.Fatal(err)
-	}
-	f, err := excelize.OpenFile(path)
-	if err != nil {
-		t.Fatal(err)
-	}
+	f, path := writeAndOpen(t, r)
 	defer f.Close()
 	want := []string{SheetSummary, SheetCharts, SheetDefinitions, SheetParticipants, SheetGroups, SheetSeparating, SheetStates, SheetChoice, SheetQuality, SheetSettings}
 	if got := f.GetSheetList(); strings.Join(got, "|") != strings.Join(want, "|") {
@@ -161,6 +154,20 @@ func TestWorkbookOpensWithSheetsFormatsAndCharts(t *testing.T) {
 	if charts != 7 || pictures != 1 {
 		t.Errorf("%d charts and %d pictures, want 7 and 1", charts, pictures)
 	}
+}
+
+// writeAndOpen writes r's workbook in a temporary folder and opens it.
+func writeAndOpen(t *testing.T, r *Result) (*excelize.File, string) {
+	t.Helper()
+	path := filepath.Join(t.TempDir(), "r.xlsx")
+	if err := WriteWorkbook(path, r, false); err != nil {
+		t.Fatal(err)
+	}
+	f, err := excelize.OpenFile(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return f, path
 }
 
 func flatten(rows [][]string) string {
@@ -368,14 +375,7 @@ func TestTentativeGroupingIsFlagged(t *testing.T) {
 		r := fixture(t, 30, func(i int) string { return "P" + digits(i) })
 		r.Grouping.Scores = c.scores
 		r.Grouping.Stability = &cohort.GroupStability{Resamples: 20, Jaccard: []float64{0.9, 0.9, 0.9}, Stay: make([]float64, 30)}
-		path := filepath.Join(t.TempDir(), "r.xlsx")
-		if err := WriteWorkbook(path, r, false); err != nil {
-			t.Fatal(err)
-		}
-		f, err := excelize.OpenFile(path)
-		if err != nil {
-			t.Fatal(err)
-		}
+		f, _ := writeAndOpen(t, r)
 		sum, _ := f.GetRows(SheetSummary)
 		stab, _ := f.GetRows(SheetStability)
 		f.Close()

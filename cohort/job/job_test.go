@@ -14,11 +14,7 @@ import (
 // gives a bout shorter than one window (a mean over all members, with 0 for those who never
 // enter a state, did: "0.53 windows"). Scenario 397 of the family has rarely entered states.
 func TestGroupLinesGiveNoBoutShorterThanAWindow(t *testing.T) {
-	path := filepath.Join(t.TempDir(), "c.csv")
-	if _, err := synth.WriteFile(path, synth.Options{Scenario: 397, Seed: 1, Participants: 80, Windows: 1000}); err != nil {
-		t.Fatal(err)
-	}
-	o := Defaults(path)
+	o := Defaults(syntheticCohort(t, synth.Options{Scenario: 397, Seed: 1, Participants: 80, Windows: 1000}))
 	o.Bootstrap, o.NoSensitivity = 5, true
 	res, err := Analyze(context.Background(), o)
 	if err != nil {
@@ -39,4 +35,14 @@ func TestGroupLinesGiveNoBoutShorterThanAWindow(t *testing.T) {
 	if seen == 0 {
 		t.Fatalf("no group line speaks of bouts: %q", res.GroupLines)
 	}
+}
+
+// syntheticCohort writes a synthetic cohort to a temporary CSV and returns its path.
+func syntheticCohort(t *testing.T, so synth.Options) string {
+	t.Helper()
+	path := filepath.Join(t.TempDir(), "c.csv")
+	if _, err := synth.WriteFile(path, so); err != nil {
+		t.Fatal(err)
+	}
+	return path
 }

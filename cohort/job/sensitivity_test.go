@@ -3,7 +3,6 @@ package job
 import (
 	"context"
 	"math"
-	"path/filepath"
 	"testing"
 
 	"github.com/cohortmix/cohortmix/cohort/synth"
@@ -13,10 +12,7 @@ import (
 // on one worker or two (its rows are fitted side by side); the row for the align step turning the
 // axis means alone is there only when the fit turned more features with them.
 func TestSensitivityRowsWhateverTheWorkers(t *testing.T) {
-	path := filepath.Join(t.TempDir(), "c.csv")
-	if _, err := synth.WriteFile(path, synth.Options{Participants: 60, Windows: 400, Features: 24, Seed: 2}); err != nil {
-		t.Fatal(err)
-	}
+	path := syntheticCohort(t, synth.Options{Participants: 60, Windows: 400, Features: 24, Seed: 2})
 	for _, noTurn := range []bool{false, true} {
 		var first []string
 		var firstARI []float64
