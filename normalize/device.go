@@ -127,14 +127,17 @@ func (f *Fit) scaleInto(buf *[]float64, x []float64) []float64 {
 }
 
 // logRows puts the logged features of row-major windows on their log scale, in place.
-func (f *Fit) logRows(y []float64) {
+func (f *Fit) logRows(y []float64) { f.logColumns(y, f.loggedAll()) }
+
+// loggedAll are the logged features.
+func (f *Fit) loggedAll() []int {
 	var cols []int
 	for j, l := range f.Logged {
 		if l {
 			cols = append(cols, j)
 		}
 	}
-	f.logColumns(y, cols)
+	return cols
 }
 
 // loggedColumns are the logged features; with late, only those that the turn rebuilds (the

@@ -801,11 +801,9 @@ func (f *Fit) newRowScaler(b Baseline, dev Device, logged bool, rows int) *rowSc
 		}
 	}
 	r.inv = f.inverseSpread()
+	r.logCols = f.loggedAll()
 	if logged {
-		r.logCols = f.loggedColumns(true)
-	} else {
-		r.logCols = f.loggedColumns(false)
-		r.logCols = append(r.logCols, f.loggedColumns(true)...)
+		r.logCols = f.loggedColumns(true) // the rest were logged by LogInto
 	}
 	r.prep = len(r.logCols) > 0 || (dev.Rotation != nil && f.Axes != nil)
 	if r.prep {
