@@ -25,9 +25,10 @@ const sensitivityUnits = 60
 
 // sensitivity says whether the groups depend on a choice: the adjusted Rand index between the
 // grouping made and the grouping under each alternative, with the same number of groups. The
-// other grouping methods group the same signatures; the other within steps and numbers of
-// states are fitted anew on the windows of up to 60 sampled participants, so their rows are
-// read against the first row, the same settings on the same sampled windows.
+// other grouping methods group the same signatures; the other within steps, the axis means
+// turned alone and the other numbers of states are fitted anew on the windows of up to 60
+// sampled participants, so their rows are read against the first row, the same settings on the
+// same sampled windows.
 func sensitivity(ctx context.Context, f *Fitted, o Options, sample sampleUnits) ([]reports.Sensitivity, error) {
 	k := f.Grouping.K
 	// Each row is a task of its own; the tasks run side by side (each seeded as it would be
