@@ -13,7 +13,7 @@ import (
 type Variable struct {
 	Name   string
 	Kind   string    // "share", "bout length" or "feature median"
-	Values []float64 // one per grouped participant
+	Values []float64 // one per grouped participant; NaN where it does not exist (left out of the test)
 }
 
 // Separation is how strongly a variable differs between groups. These tests are descriptive:
@@ -26,11 +26,15 @@ type Separation struct {
 	Delta          []float64 // Cliff's delta of each group against the rest
 }
 
-// separateOne tests one variable, or says why it cannot be tested.
+// separateOne tests one variable, or says why it cannot be tested. Participants without a value
+// (NaN: a bout length of a state they never entered) are left out of its test; a group left
+// with none takes no part in it, and its quartiles and delta are empty.
 func separateOne(v Variable, labels []int, k int) (*Separation, *Note) {
 	groups := make([][]float64, k)
 	for i, x := range v.Values {
-		groups[labels[i]] = append(groups[labels[i]], x)
+		if !math.IsNaN(x) {
+			groups[labels[i]] = append(groups[labels[i]], x)
+		}
 	}
 	kw, err := groupstat.KruskalWallis(groups)
 	if err != nil {

@@ -350,7 +350,7 @@ func Describe(f *Fitted, stateNames, groupNames []string) (*reports.Result, erro
 		b := cohort.Variable{Name: "bout " + stateNames[s], Kind: "bout length"}
 		for i := range sigs {
 			v.Values = append(v.Values, sigs[i].Share[s])
-			b.Values = append(b.Values, sigs[i].MeanBout[s])
+			b.Values = append(b.Values, boutOf(sigs[i], s))
 		}
 		vars = append(vars, v, b)
 	}
@@ -577,4 +577,13 @@ func (o Options) ModelFit() *reports.ModelFit {
 		Groups: o.Groups, Method: o.Method.String(), Criterion: o.Criterion.String(), GroupValley: o.GroupValley,
 		Bootstrap: o.Bootstrap, Seed: o.Seed, WindowSeconds: o.Window.Seconds(),
 	}
+}
+
+// boutOf is a participant's mean bout length in state s, or NaN when it never entered the state
+// (there is no bout to measure; 0 would rank it as the shortest).
+func boutOf(sig profile.Signature, s int) float64 {
+	if sig.Bouts[s] == 0 {
+		return math.NaN()
+	}
+	return sig.MeanBout[s]
 }

@@ -89,12 +89,13 @@ groups = fcluster(z, 3, criterion="maxclust") - 1
 variables = {}
 for s in range(5):
     variables[f"share S{s+1}"] = shares[:, s]
-    variables[f"bout S{s+1}"] = bouts[:, s]
+    variables[f"bout S{s+1}"] = np.where(bouts[:, s] > 0, bouts[:, s], np.nan)  # never in the state: no bout
 for j, name in enumerate(feat):
     variables["median " + name] = np.array([np.median(b[:, j]) for b in blocks])
 kw = {}
 for name, vals in variables.items():
-    g = [vals[groups == k] for k in range(3)]
+    g = [vals[(groups == k) & ~np.isnan(vals)] for k in range(3)]
+    g = [x for x in g if len(x) > 0]  # a group without values takes no part
     try:
         r = kruskal(*g)
         kw[name] = {"H": r.statistic, "p": r.pvalue}
