@@ -391,3 +391,37 @@ func TestTentativeGroupingIsFlagged(t *testing.T) {
 		}
 	}
 }
+
+// A state a participant never entered has no bout length: an empty cell on the Participants
+// sheet (in windows and in minutes), where a bout that exists is written.
+func TestNoBoutIsAnEmptyCell(t *testing.T) {
+	r := fixture(t, 6, func(i int) string { return "P" + digits(i) })
+	r.WindowLength = time.Minute
+	r.Units[0].Bout = []float64{1, 0, 3, 4}
+	f, _ := writeAndOpen(t, r)
+	defer f.Close()
+	rows, _ := f.GetRows(SheetParticipants)
+	col := func(name string) int {
+		for j, h := range rows[0] {
+			if h == name {
+				return j
+			}
+		}
+		t.Fatalf("no column %q in %q", name, rows[0])
+		return -1
+	}
+	cell := func(row, j int) string {
+		if j < len(rows[row]) {
+			return rows[row][j]
+		}
+		return ""
+	}
+	for _, name := range []string{"bout S2 (windows)", "bout S2 (min)"} {
+		if got := cell(1, col(name)); got != "" {
+			t.Errorf("%s of a participant never in S2: %q, want an empty cell", name, got)
+		}
+		if got := cell(2, col(name)); got == "" {
+			t.Errorf("%s of a participant with bouts in S2 is empty", name)
+		}
+	}
+}

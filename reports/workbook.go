@@ -225,11 +225,11 @@ func participantsSheet(f *excelize.File, st *styles, r *Result) error {
 			cells = append(cells, v{x, st.pct})
 		}
 		for _, x := range u.Bout {
-			cells = append(cells, v{x, st.dec2})
+			cells = append(cells, v{boutCell(x), st.dec2})
 		}
 		if r.WindowLength > 0 {
 			for _, x := range u.Bout {
-				cells = append(cells, v{x * r.WindowLength.Minutes(), st.dec1})
+				cells = append(cells, v{boutCell(x) * r.WindowLength.Minutes(), st.dec1})
 			}
 		}
 		if err := t.put(cells...); err != nil {
@@ -713,4 +713,13 @@ func boutColumns(r *Result, without, with int) int {
 		return with
 	}
 	return without
+}
+
+// boutCell is a participant's mean bout length in a state, or NaN (an empty cell) for 0: a state
+// it never entered has no bout length.
+func boutCell(x float64) float64 {
+	if x == 0 {
+		return math.NaN()
+	}
+	return x
 }
