@@ -393,7 +393,8 @@ func TestTentativeGroupingIsFlagged(t *testing.T) {
 }
 
 // A state a participant never entered has no bout length: an empty cell on the Participants
-// sheet (in windows and in minutes), where a bout that exists is written.
+// sheet (in windows and in minutes), where a bout that exists is written, and no part of its
+// group's mean bout on the Groups sheet.
 func TestNoBoutIsAnEmptyCell(t *testing.T) {
 	r := fixture(t, 6, func(i int) string { return "P" + digits(i) })
 	r.WindowLength = time.Minute
@@ -423,5 +424,17 @@ func TestNoBoutIsAnEmptyCell(t *testing.T) {
 		if got := cell(2, col(name)); got == "" {
 			t.Errorf("%s of a participant with bouts in S2 is empty", name)
 		}
+	}
+	// The group's mean bout counts only its members who entered S2: G1 holds participants 0
+	// and 3 (every third), and only 3 did, with a bout of 2 windows.
+	groups, _ := f.GetRows(SheetGroups)
+	j := -1
+	for c, h := range groups[0] {
+		if h == "mean bout S2 (windows)" {
+			j = c
+		}
+	}
+	if j < 0 || len(groups) < 2 || j >= len(groups[1]) || groups[1][j] != "2.00" {
+		t.Errorf("G1's mean bout in S2: %q, want 2.00 (participant 3's alone)", groups)
 	}
 }

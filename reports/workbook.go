@@ -5,6 +5,7 @@ import (
 	"io"
 	"math"
 
+	"github.com/cohortmix/cohortmix/cluster/groupstat"
 	"github.com/cohortmix/cohortmix/cohort"
 	"github.com/xuri/excelize/v2"
 )
@@ -278,10 +279,20 @@ func groupsSheet(f *excelize.File, st *styles, r *Result) error {
 	if err := t.heading(head...); err != nil {
 		return err
 	}
+	// A group's bout length in a state is averaged over the members who entered it (NaN, an
+	// empty cell, when none did), as on the Summary's group lines.
+	bouts, labels := make([][]float64, len(r.Units)), make([]int, len(r.Units))
+	for i, u := range r.Units {
+		bouts[i], labels[i] = u.Bout, u.Group
+		if u.Atypical {
+			labels[i] = -1
+		}
+	}
+	groupBouts := groupstat.GroupMeansOfPositive(bouts, labels, len(r.GroupNames))
 	for g := range r.GroupNames {
 		var n, sil float64
 		share := make([]float64, k)
-		bout, entered := make([]float64, k), make([]float64, k) // bouts over the members who entered the state
+		bout := groupBouts[g]
 		for _, u := range r.Units {
 			if u.Group != g || u.Atypical {
 				continue
@@ -290,10 +301,6 @@ func groupsSheet(f *excelize.File, st *styles, r *Result) error {
 			sil += u.Silhouette
 			for s := 0; s < k; s++ {
 				share[s] += u.Share[s]
-				if u.Bout[s] > 0 {
-					bout[s] += u.Bout[s]
-					entered[s]++
-				}
 			}
 		}
 		cells := []v{{r.GroupNames[g], st.text}, {int(n), st.integer}, {sil / n, st.dec3}, {r.GroupLines[g], st.wrap}}
@@ -304,11 +311,11 @@ func groupsSheet(f *excelize.File, st *styles, r *Result) error {
 			cells = append(cells, v{share[s] / n, st.pct})
 		}
 		for s := 0; s < k; s++ {
-			cells = append(cells, v{bout[s] / entered[s], st.dec2}) // NaN, an empty cell, when no member entered it
+			cells = append(cells, v{bout[s], st.dec2})
 		}
 		if r.WindowLength > 0 {
 			for s := 0; s < k; s++ {
-				cells = append(cells, v{bout[s] / entered[s] * r.WindowLength.Minutes(), st.dec1})
+				cells = append(cells, v{bout[s] * r.WindowLength.Minutes(), st.dec1})
 			}
 		}
 		if err := t.put(cells...); err != nil {
