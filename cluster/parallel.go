@@ -26,6 +26,18 @@ func Slots(w int) int { return 4 * workers(w) }
 // index before i in the same slot has been consumed when work(i) starts, so a buffer per slot
 // can be reused. It stops at the first error, or when ctx is cancelled.
 func Ordered[R any](ctx context.Context, n, nWorkers int, work func(i, slot int) (R, error), consume func(i int, r R) error) error {
+	return Stream(ctx, min(workers(nWorkers), max(n, 1)), func(i int) (struct{}, bool, error) {
+		return struct{}{}, i < n, nil
+	}, func(i int, _ struct{}, slot int) (R, error) {
+		return work(i, slot)
+	}, consume)
+}
+
+// Stream is Ordered over items that come one at a time, as when they are read from a file:
+// next(i) gives item i (ok false after the last), called for 0, 1, … in turn and never twice at
+// once, each time by the worker that then runs work on it. An error from next ends the stream:
+// Stream returns it once the results before it are consumed.
+func Stream[T, R any](ctx context.Context, nWorkers int, next func(i int) (T, bool, error), work func(i int, item T, slot int) (R, error), consume func(i int, r R) error) error {
 	w := workers(nWorkers)
 	ahead := Slots(nWorkers)
 	type result struct {
@@ -37,9 +49,9 @@ func Ordered[R any](ctx context.Context, n, nWorkers int, work func(i, slot int)
 	results := make(chan result, ahead)
 	stop := make(chan struct{})
 	var mu sync.Mutex
-	next := 0
+	taken, ended := 0, false
 	var wg sync.WaitGroup
-	for g := 0; g < min(w, n); g++ {
+	for g := 0; g < w; g++ {
 		wg.Add(1)
 		go func() {
 			defer wg.Done()
@@ -50,13 +62,23 @@ func Ordered[R any](ctx context.Context, n, nWorkers int, work func(i, slot int)
 					return
 				}
 				mu.Lock()
-				i := next
-				next++
-				mu.Unlock()
-				if i >= n {
+				if ended {
+					mu.Unlock()
 					return
 				}
-				r, err := work(i, i%ahead)
+				i := taken
+				item, ok, err := next(i)
+				ended = !ok || err != nil
+				if !ok && err == nil {
+					mu.Unlock()
+					return
+				}
+				taken++
+				mu.Unlock()
+				var r R
+				if err == nil {
+					r, err = work(i, item, i%ahead)
+				}
 				select {
 				case results <- result{i, r, err}:
 				case <-stop:
@@ -72,11 +94,8 @@ func Ordered[R any](ctx context.Context, n, nWorkers int, work func(i, slot int)
 		}
 	}()
 	pending := make(map[int]result, ahead)
-	for want := 0; want < n; {
-		res, ok := <-results
-		if !ok {
-			break
-		}
+	want := 0
+	for res := range results {
 		pending[res.i] = res
 		for {
 			res, ok := pending[want]

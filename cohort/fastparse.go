@@ -8,12 +8,13 @@ import (
 	"fmt"
 	"io"
 	"math"
-	"runtime"
 	"slices"
 	"strconv"
 	"strings"
 	"sync"
 	"time"
+
+	"github.com/cohortmix/cohortmix/cluster"
 )
 
 // The body of a table (everything after its first window) is parsed in chunks of whole lines,
@@ -69,7 +70,6 @@ func unpackSource(v float64) (file, line int) {
 
 // parsedChunk holds a chunk's windows in store layout.
 type parsedChunk struct {
-	seq    int
 	n      int       // windows
 	vals   []float64 // n × (nf+2)
 	segs   []segment // stretches of consecutive windows of one unit
@@ -127,107 +127,46 @@ func (c *parsedChunk) line(i, w int) int {
 }
 
 // parseBody reads the rest of br in chunks, parses them on all cores, and hands each chunk to
-// merge in order. firstLine is the line number of the first line in br.
+// merge in order (cluster.Stream). firstLine is the line number of the first line in br.
 func (r *reader) parseBody(br *bufio.Reader, spec *parseSpec, firstLine int, merge func(*parsedChunk) error) error {
 	type job struct {
-		seq   int
-		data  []byte
-		line  int
-		lines int
-		quote bool
+		data        []byte
+		line, lines int
+		quote       bool
 	}
-	workers := r.opts.Workers
-	if workers <= 0 {
-		workers = runtime.GOMAXPROCS(0)
-	}
-	jobs := make(chan job, workers)
-	results := make(chan *parsedChunk, workers)
-	stop := make(chan struct{})
-	var wg sync.WaitGroup
-	for w := 0; w < workers; w++ {
-		wg.Add(1)
-		go func() {
-			defer wg.Done()
-			for j := range jobs {
-				c := &parsedChunk{seq: j.seq}
-				if j.quote {
-					spec.parseQuoted(j.data, j.line, c)
-				} else {
-					spec.parsePlain(j.data, j.line, j.lines+1, c)
-				}
-				if c.err == nil {
-					c.summarize(spec.nf, spec.nf+2)
-				}
-				chunkBufs.Put(&j.data)
-				select {
-				case results <- c:
-				case <-stop:
-					return
-				}
-			}
-		}()
-	}
-	readErr := make(chan error, 1)
-	go func() {
-		defer close(jobs)
-		line, seq := firstLine, 0
-		ch := &chunker{br: br}
-		for {
+	ch := &chunker{br: br}
+	line := firstLine
+	var readErr error // what came with the last chunk read: the end, or an error
+	next := func(int) (job, bool, error) {
+		for readErr == nil {
 			data, quote, err := ch.next()
+			readErr = err
 			if len(data) > 0 {
-				lines := bytes.Count(data, []byte{'\n'})
-				select {
-				case jobs <- job{seq, data, line, lines, quote}:
-				case <-stop:
-					readErr <- nil
-					return
-				}
-				line += lines
-				seq++
+				j := job{data, line, bytes.Count(data, []byte{'\n'}), quote}
+				line += j.lines
 				r.progress()
-			}
-			if err != nil {
-				if errors.Is(err, io.EOF) {
-					err = nil
-				}
-				readErr <- err
-				return
+				return j, true, nil
 			}
 		}
-	}()
-	go func() { wg.Wait(); close(results) }()
-	pending := map[int]*parsedChunk{}
-	next := 0
-	var failed error
-	for c := range results {
-		if failed != nil {
-			continue
+		if errors.Is(readErr, io.EOF) {
+			return job{}, false, nil
 		}
-		pending[c.seq] = c
-		for {
-			c, ok := pending[next]
-			if !ok {
-				break
-			}
-			delete(pending, next)
-			next++
-			if err := r.ctx.Err(); err != nil {
-				failed = err
-			} else if c.err != nil {
-				failed = c.err
-			} else if err := merge(c); err != nil {
-				failed = err
-			}
-			if failed != nil {
-				close(stop)
-				break
-			}
-		}
+		return job{}, false, r.gzipOrIO(spec.file, readErr)
 	}
-	if err := <-readErr; err != nil && failed == nil {
-		failed = r.gzipOrIO(spec.file, err)
+	parse := func(_ int, j job, _ int) (*parsedChunk, error) {
+		c := &parsedChunk{}
+		if j.quote {
+			spec.parseQuoted(j.data, j.line, c)
+		} else {
+			spec.parsePlain(j.data, j.line, j.lines+1, c)
+		}
+		if c.err == nil {
+			c.summarize(spec.nf, spec.nf+2)
+		}
+		chunkBufs.Put(&j.data)
+		return c, c.err
 	}
-	return failed
+	return cluster.Stream(r.ctx, r.opts.Workers, next, parse, func(_ int, c *parsedChunk) error { return merge(c) })
 }
 
 // chunker cuts a stream into chunks of whole lines; when a chunk holds quotes it is extended

@@ -623,7 +623,7 @@ func groupByUnit(c *parsedChunk, w int) *parsedChunk {
 	if len(units) == len(c.segs) {
 		return c // every unit in one stretch already
 	}
-	out := &parsedChunk{seq: c.seq, n: c.n, vals: make([]float64, 0, len(c.vals)), kinds: make([]byte, 0, c.n), cells: c.cells}
+	out := &parsedChunk{n: c.n, vals: make([]float64, 0, len(c.vals)), kinds: make([]byte, 0, c.n), cells: c.cells}
 	if c.nan != nil {
 		out.nan = make([]bool, 0, c.n)
 	}
