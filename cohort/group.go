@@ -93,6 +93,10 @@ const (
 	// ByGapStable takes the gap statistic's number, then one fewer while the grouping with one
 	// fewer is clearly more stable (StableStep).
 	ByGapStable
+	// ByGapSteady takes ByGapStable's number, then, when that grouping is tentative (its
+	// stability below UnstableGrouping), the largest smaller number whose grouping is not; it
+	// keeps ByGapStable's number when no smaller one is stable.
+	ByGapSteady
 )
 
 // StableStep is how much more stable (mean bootstrap ARI, Lange et al. 2004) the grouping with
@@ -102,7 +106,7 @@ const (
 // rarely taken on resampling noise.
 const StableStep = 0.1
 
-var criterionNames = map[Criterion]string{ByStability: "stability", ByGap: "gap", BySilhouette: "silhouette", ByGapStable: "gap-stable"}
+var criterionNames = map[Criterion]string{ByStability: "stability", ByGap: "gap", BySilhouette: "silhouette", ByGapStable: "gap-stable", ByGapSteady: "gap-steady"}
 
 func (c Criterion) String() string { return criterionNames[c] }
 
@@ -113,7 +117,7 @@ func ParseCriterion(s string) (Criterion, error) {
 			return c, nil
 		}
 	}
-	return 0, fmt.Errorf("cohort: criterion %q: %w; use gap-stable, gap, stability or silhouette", s, ErrBadOption)
+	return 0, fmt.Errorf("cohort: criterion %q: %w; use gap-steady, gap-stable, gap, stability or silhouette", s, ErrBadOption)
 }
 
 // GroupOptions sets up GroupSignatures.
@@ -624,7 +628,7 @@ func scoreStability(ctx context.Context, x *mat.Dense, dist *cluster.Condensed, 
 func Choose(scores []KScore, c Criterion) int {
 	best := 0
 	switch c {
-	case ByGap, ByGapStable:
+	case ByGap, ByGapStable, ByGapSteady:
 		i := len(scores) - 1
 		for j := 0; j+1 < len(scores); j++ {
 			if scores[j].Gap >= scores[j+1].Gap-scores[j+1].GapSE {
@@ -632,9 +636,16 @@ func Choose(scores []KScore, c Criterion) int {
 				break
 			}
 		}
-		if c == ByGapStable {
+		if c == ByGapStable || c == ByGapSteady {
 			for i > 0 && scores[i-1].K == scores[i].K-1 && scores[i-1].Stability > scores[i].Stability+StableStep {
 				i--
+			}
+		}
+		if c == ByGapSteady && scores[i].Stability < UnstableGrouping {
+			for j := i - 1; j >= 0; j-- {
+				if scores[j].Stability >= UnstableGrouping {
+					return scores[j].K
+				}
 			}
 		}
 		return scores[i].K

@@ -143,6 +143,8 @@ func choiceText(r *Result) string {
 		return "bootstrap stability, over " + kRange(r)
 	case "gap-stable":
 		return "gap statistic, Tibshirani et al. 2001, then fewer groups while clearly more stable, over " + kRange(r)
+	case "gap-steady":
+		return "gap statistic, Tibshirani et al. 2001, then fewer groups while clearly more stable, and fewer still if that grouping is tentative and one with fewer is not, over " + kRange(r)
 	}
 	return "mean silhouette, over " + kRange(r)
 }

@@ -89,7 +89,7 @@ func (m *mainFlags) register(cmd *cobra.Command) {
 	f.IntVar(&m.Sample, "sample", 50000, "windows sampled to fit the states")
 	f.StringVar(&m.Groups, "groups", "2-8", "number of participant groups, or a range to choose from")
 	f.StringVar(&m.Method, "method", "auto", "grouping: "+cohort.MethodHelp())
-	f.StringVar(&m.Criterion, "criterion", "gap-stable", "rule for the number of groups: gap-stable (the gap statistic's number, then one fewer while that groups more stably by more than 0.1), gap, stability or silhouette")
+	f.StringVar(&m.Criterion, "criterion", "gap-steady", "rule for the number of groups: gap-steady (gap-stable's number, or when that grouping is tentative, its stability below 0.8, the largest smaller number whose grouping is not), gap-stable (the gap statistic's number, then one fewer while that groups more stably by more than 0.1), gap, stability or silhouette")
 	f.Float64Var(&m.GroupValley, "group-valley", 0, "lower the number of groups while two of them form one mode (density between them at least this share of its height; 0: off)")
 	f.IntVar(&m.Bootstrap, "bootstrap", 20, "resamples for stability and reference sets for the gap statistic")
 	f.Uint64Var(&m.Seed, "seed", 1, "seed for every random step")

@@ -1,12 +1,14 @@
 package main
 
 import (
+	"cmp"
 	"context"
 	"encoding/json"
 	"flag"
 	"fmt"
 	"github.com/cohortmix/cohortmix/cohort/job"
 	"gonum.org/v1/gonum/mat"
+	"maps"
 	"math"
 	"os"
 	"path/filepath"
@@ -24,15 +26,28 @@ import (
 // scored by the adjusted Rand index against the planted groups. Methods are chosen on seeds
 // 1–20 ("tune") and reported on seeds 21–40 ("report") and 41–60 ("fresh"); testdata/recovery.sh
 // runs them.
-var recoverySet = flag.String("recovery", "", "run the recovery benchmark: tune (seeds 1–20), report (21–40), fresh (41–60), tune40 (1–40), fresh2 (61–80), fresh3 (81–100), fresh4 (101–120), fresh5 (121–140), fresh6 (141–160), fresh7 (161–180), fresh8 (181–200), fresh9 (201–240), fresh10 (241–280), fresh11 (281–320), fresh12 (321–360), fresh13 (361–400), fresh14 (401–440), demo or a list such as 3,7")
+var recoverySet = flag.String("recovery", "", "run the recovery benchmark: "+setsHelp()+", demo or a list such as 3,7")
 
 // recoverySets are the named sets of scenario seeds, first and last.
 var recoverySets = map[string][2]uint64{
 	"tune": {1, 20}, "report": {21, 40}, "fresh": {41, 60}, "tune40": {1, 40},
 	"fresh2": {61, 80}, "fresh3": {81, 100}, "fresh4": {101, 120}, "fresh5": {121, 140}, "fresh6": {141, 160},
 	"fresh7": {161, 180}, "fresh8": {181, 200}, "fresh9": {201, 240}, "fresh10": {241, 280},
-	"fresh11": {281, 320}, "fresh12": {321, 360}, "fresh13": {361, 400}, "fresh14": {401, 440},
+	"fresh11": {281, 320}, "fresh12": {321, 360}, "fresh13": {361, 400}, "fresh14": {401, 440}, "fresh15": {441, 480},
 }
+
+// setsHelp lists the named sets for the -recovery flag, by first seed: "tune (1–20), …".
+func setsHelp() string {
+	names := slices.SortedFunc(maps.Keys(recoverySets), func(a, b string) int {
+		return cmp.Or(cmp.Compare(recoverySets[a][0], recoverySets[b][0]), cmp.Compare(recoverySets[a][1], recoverySets[b][1]))
+	})
+	parts := make([]string, len(names))
+	for i, n := range names {
+		parts[i] = fmt.Sprintf("%s (%d–%d)", n, recoverySets[n][0], recoverySets[n][1])
+	}
+	return strings.Join(parts, ", ")
+}
+
 var recoveryVariants = flag.String("recovery.variants", "", "only the variants whose names contain one of these comma-separated words")
 var recoverySensitivity = flag.Bool("recovery.sensitivity", false, "fit the sensitivity table for the defaults too, to mark where its line says the groups change (about 15 s more per scenario)")
 

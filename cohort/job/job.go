@@ -547,8 +547,9 @@ func boutText(windows float64, window time.Duration) string {
 // neighbours that form one mode merged (the valley rule); 2–8 groups by Ward linkage on the
 // Hellinger embedding (k-means on the centred log-ratios above 10,000 participants), the
 // number chosen by the gap statistic with 20 reference sets, then one fewer while that groups
-// more stably by more than cohort.StableStep (20 resamples); about 50,000 windows sampled for
-// the fit; seed 1.
+// more stably by more than cohort.StableStep (20 resamples), then, when that grouping is
+// tentative, the largest smaller number whose grouping is not (cohort.ByGapSteady); about
+// 50,000 windows sampled for the fit; seed 1.
 func Defaults(inputs ...string) Options {
 	span := func(lo, hi int) []int {
 		var out []int
@@ -563,7 +564,7 @@ func Defaults(inputs ...string) Options {
 		Norm: normalize.Options{Within: normalize.WithinAlign, Scale: normalize.ScaleZ, Log: true, PCAVariance: 0.99,
 			OffsetICC: 0.3, RestShare: 0.1},
 		States: span(2, 12), StatesRule: profile.ByValley, Valley: profile.DefaultValley, Sample: 50_000,
-		Groups: span(2, 8), Method: cohort.Auto, Criterion: cohort.ByGapStable, Bootstrap: 20, Seed: 1,
+		Groups: span(2, 8), Method: cohort.Auto, Criterion: cohort.ByGapSteady, Bootstrap: 20, Seed: 1,
 	}
 }
 

@@ -456,7 +456,8 @@ const levelUnits = 20
 // participants' signatures over them group clearly more stably than over the merged states (by
 // more than one standard error): the number of states that serves the grouping rather than the
 // windows. Each level's signatures
-// are grouped as the run groups (method, range, criterion), and the grouping's stability is the
+// are grouped as the run groups (method, range, criterion, with gap-steady taken as gap-stable),
+// and the grouping's stability is the
 // mean adjusted Rand index of its bootstrap resamples at the number of groups chosen (Lange T,
 // Roth V, Braun ML & Buhmann JM (2004), Stability-based validation of clustering solutions,
 // Neural Comput. 16:1299–1323). It says in a note which level was kept and why.
@@ -475,6 +476,12 @@ func chooseStates(ctx context.Context, fp *FitPiece, units [][]float64, o Option
 	if len(groups) < 2 {
 		return "", nil // one number of groups: no stability is measured
 	}
+	// Under gap-steady the two levels are compared at the number gap-stable chooses: its fall
+	// back to a smaller stable number would make whichever level groups less stably look stable.
+	criterion := o.Criterion
+	if criterion == cohort.ByGapSteady {
+		criterion = cohort.ByGapStable
+	}
 	stability := func(st *profile.States) (float64, float64, error) {
 		shares := make([][]float64, len(units))
 		for i, x := range units {
@@ -484,7 +491,7 @@ func chooseStates(ctx context.Context, fp *FitPiece, units [][]float64, o Option
 			}
 			shares[i] = profile.Signatures(lab, st.K).Share
 		}
-		g, err := cohort.GroupSignatures(ctx, shares, cohort.GroupOptions{Method: o.Method, Groups: groups, Criterion: o.Criterion,
+		g, err := cohort.GroupSignatures(ctx, shares, cohort.GroupOptions{Method: o.Method, Groups: groups, Criterion: criterion,
 			Bootstrap: o.Bootstrap, Seed: o.Seed, Workers: o.Workers})
 		if err != nil {
 			return 0, 0, err
