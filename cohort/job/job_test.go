@@ -5,6 +5,7 @@ import (
 	"path/filepath"
 	"regexp"
 	"strconv"
+	"strings"
 	"testing"
 
 	"github.com/cohortmix/cohortmix/cohort"
@@ -70,5 +71,31 @@ func TestStatesLevelIsComparedAsUnderGapStable(t *testing.T) {
 	}
 	if kept["gap-stable"] != kept["gap-steady"] {
 		t.Errorf("states kept: %v; the criterion for the number of groups must not change which level is kept", kept)
+	}
+}
+
+// Scenario 24 of the family (benchmark size, 2 planted groups) is one where the gap statistic
+// and the stability step choose 4 groups at a bootstrap stability of 0.66; gap-steady keeps 2
+// (stability 0.98, the planted two) and says so in the grouping's note.
+func TestGapSteadyFallsBackAndSaysSo(t *testing.T) {
+	if testing.Short() {
+		t.Skip("two runs on 200 × 2,016 windows")
+	}
+	path := syntheticCohort(t, synth.Options{Scenario: 24, Seed: 24, Participants: 200, Windows: 2016})
+	for _, tc := range []struct {
+		c    cohort.Criterion
+		k    int
+		note bool
+	}{{cohort.ByGapStable, 4, false}, {cohort.ByGapSteady, 2, true}} {
+		o := Defaults(path)
+		o.Criterion, o.NoSensitivity = tc.c, true
+		res, err := Analyze(context.Background(), o)
+		if err != nil {
+			t.Fatal(err)
+		}
+		said := strings.Contains(res.Grouping.Note, "chose 4 groups, a tentative grouping")
+		if res.Grouping.K != tc.k || said != tc.note {
+			t.Errorf("%v: %d groups, note %q; want %d groups and the fall back said: %v", tc.c, res.Grouping.K, res.Grouping.Note, tc.k, tc.note)
+		}
 	}
 }
