@@ -314,8 +314,10 @@ func GroupSignatures(ctx context.Context, shares [][]float64, opts GroupOptions)
 			if g.Note != "" {
 				g.Note += "; "
 			}
+			s0, _ := g.Score(k0)
+			s, _ := g.Score(g.K)
 			g.Note += fmt.Sprintf("the gap statistic and the stability step chose %d groups, a tentative grouping (bootstrap stability %.2f, below %.2f), so %d were kept, the largest smaller number whose grouping is stable (%.2f)",
-				k0, scoreOf(g.Scores, k0).Stability, UnstableGrouping, g.K, scoreOf(g.Scores, g.K).Stability)
+				k0, s0.Stability, UnstableGrouping, g.K, s.Stability)
 		}
 		if opts.Valley > 0 {
 			k, note, err := valleyCap(cx, clab, opts.Groups, g.K, opts.Valley)
@@ -670,16 +672,6 @@ func Choose(scores []KScore, c Criterion) int {
 		}
 	}
 	return scores[best].K
-}
-
-// scoreOf is the score of k groups.
-func scoreOf(scores []KScore, k int) KScore {
-	for _, s := range scores {
-		if s.K == k {
-			return s
-		}
-	}
-	return KScore{K: k}
 }
 
 // renumberBySize renames groups 0…k−1 from the largest to the smallest (ties to the group whose

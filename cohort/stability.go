@@ -39,12 +39,18 @@ const UnstableGrouping = 0.8
 // WholeStability is the stability of the grouping as a whole at the number of groups chosen
 // (see UnstableGrouping); ok is false when it was not measured (one number of groups given).
 func (g *Grouping) WholeStability() (stability float64, ok bool) {
+	s, ok := g.Score(g.K)
+	return s.Stability, ok && len(g.Scores) > 1
+}
+
+// Score is the grouping's score at k groups; ok is false when k was not among those scored.
+func (g *Grouping) Score(k int) (s KScore, ok bool) {
 	for _, s := range g.Scores {
-		if s.K == g.K && len(g.Scores) > 1 {
-			return s.Stability, true
+		if s.K == k {
+			return s, true
 		}
 	}
-	return 0, false
+	return KScore{}, false
 }
 
 // groupStability computes GroupStability for the grouping lab (k groups) of the rows of x by

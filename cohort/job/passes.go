@@ -496,12 +496,8 @@ func chooseStates(ctx context.Context, fp *FitPiece, units [][]float64, o Option
 		if err != nil {
 			return 0, 0, err
 		}
-		for _, sc := range g.Scores {
-			if sc.K == g.K {
-				return sc.Stability, sc.StabilitySE, nil
-			}
-		}
-		return 0, 0, nil
+		sc, _ := g.Score(g.K)
+		return sc.Stability, sc.StabilitySE, nil
 	}
 	// The two levels are grouped side by side: each grouping is its own, so the result does
 	// not depend on which finishes first.
