@@ -116,18 +116,22 @@ func chartsSheet(f *excelize.File, st *styles, r *Result) error {
 	row = max(row+g+3, top+18)
 
 	// 5. The choice of the number of states and of groups.
+	// Shown when a range of numbers was scored (the Calinski–Harabasz rule); the valley rule's
+	// merges are on the Choosing k sheet.
 	top = row
-	w.text(1, row, "States", st.header)
-	w.text(2, row, "Calinski–Harabasz", st.header)
-	w.text(3, row, "silhouette", st.header)
-	w.text(4, row, "Davies–Bouldin", st.header)
+	nc := len(r.States.Candidates)
+	if nc > 0 {
+		w.text(1, row, "States", st.header)
+		w.text(2, row, "Calinski–Harabasz", st.header)
+		w.text(3, row, "silhouette", st.header)
+		w.text(4, row, "Davies–Bouldin", st.header)
+	}
 	for i, c := range r.States.Candidates {
 		w.num(1, row+1+i, float64(c.K), st.integer)
 		w.num(2, row+1+i, c.CalinskiHarabasz, st.dec2)
 		w.num(3, row+1+i, c.Silhouette, st.dec3)
 		w.num(4, row+1+i, c.DaviesBouldin, st.dec3)
 	}
-	nc := len(r.States.Candidates)
 	if nc > 1 {
 		ch := chart(excelize.Line, "Choosing the number of states: Calinski–Harabasz (larger is better)", []excelize.ChartSeries{
 			lineSeries(name, 2, top, nc, 0)}, "number of states", "index")
@@ -140,7 +144,9 @@ func chartsSheet(f *excelize.File, st *styles, r *Result) error {
 			return err
 		}
 	}
-	row = max(row+nc+3, top+18)
+	if nc > 0 {
+		row = max(row+nc+3, top+18)
+	}
 	top = row
 	w.pageBreak(row)
 	w.text(1, row, "Groups", st.header)

@@ -438,3 +438,46 @@ func TestNoBoutIsAnEmptyCell(t *testing.T) {
 		t.Errorf("G1's mean bout in S2: %q, want 2.00 (participant 3's alone)", groups)
 	}
 }
+
+// The Choosing k sheet records how the number of states was reached: each number's scores under
+// a range rule, each merge of the valley rule in order with the density kept between the pair,
+// or nothing beyond the rule's words when one number was fitted; the charts sheet shows a states
+// block only when there are scores to chart.
+func TestStatesChoiceIsRecorded(t *testing.T) {
+	cases := []struct {
+		name       string
+		candidates []profile.Candidate
+		merges     []profile.Merge
+		want       []string // rows of the Choosing k sheet, cells joined by |
+		none       []string // text that must not be on it
+		chartRows  bool     // the charts sheet has its States block
+	}{
+		{"scores of a range", []profile.Candidate{{K: 3, Silhouette: 0.6}, {K: 4, Silhouette: 0.5}}, nil,
+			[]string{"states|within SS|silhouette", "3|", "4|"}, []string{"states before"}, true},
+		{"merges of the valley rule", nil, []profile.Merge{{From: 6, A: 0, B: 4, Valley: 0.912}, {From: 5, A: 1, B: 2, Valley: 0.604}},
+			[]string{"states before|states after|density kept between them", "6|5|0.912", "5|4|0.604"}, []string{"within SS"}, false},
+		{"one number fitted", nil, nil, nil, []string{"within SS", "states before"}, false},
+	}
+	for _, c := range cases {
+		r := fixture(t, 30, func(i int) string { return "P" + digits(i) })
+		r.States.Candidates, r.States.Merges = c.candidates, c.merges
+		f, _ := writeAndOpen(t, r)
+		choice, _ := f.GetRows(SheetChoice)
+		charts, _ := f.GetRows(SheetCharts)
+		f.Close()
+		text := flatten(choice)
+		for _, w := range c.want {
+			if !strings.Contains(text, "\n"+w) {
+				t.Errorf("%s: no row starting %q on the Choosing k sheet:\n%s", c.name, w, text)
+			}
+		}
+		for _, n := range c.none {
+			if strings.Contains(text, n) {
+				t.Errorf("%s: %q on the Choosing k sheet", c.name, n)
+			}
+		}
+		if got := strings.Contains(flatten(charts), "States|Calinski–Harabasz"); got != c.chartRows {
+			t.Errorf("%s: the charts sheet has a States block: %v, want %v", c.name, got, c.chartRows)
+		}
+	}
+}

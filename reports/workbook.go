@@ -7,6 +7,7 @@ import (
 
 	"github.com/cohortmix/cohortmix/cluster/groupstat"
 	"github.com/cohortmix/cohortmix/cohort"
+	"github.com/cohortmix/cohortmix/profile"
 	"github.com/xuri/excelize/v2"
 )
 
@@ -147,6 +148,41 @@ func choiceText(r *Result) string {
 		return "gap statistic, Tibshirani et al. 2001, then fewer groups while clearly more stable, and fewer still if that grouping is tentative and one with fewer is not, over " + kRange(r)
 	}
 	return "mean silhouette, over " + kRange(r)
+}
+
+// statesChoice is the Choosing k sheet's record of the number of states: the score of each
+// number fitted (a range under the Calinski–Harabasz rule), or each merge the valley rule made,
+// in order; nothing when one number was fitted and kept as it was.
+func statesChoice(t *table, st *styles, s *profile.States) error {
+	if len(s.Candidates) > 0 {
+		if err := t.heading("states", "within SS", "silhouette", "Calinski–Harabasz", "Davies–Bouldin", "chosen"); err != nil {
+			return err
+		}
+		for _, c := range s.Candidates {
+			if err := t.put(v{c.K, st.integer}, v{c.Inertia, st.dec2}, v{c.Silhouette, st.dec3}, v{c.CalinskiHarabasz, st.dec2}, v{c.DaviesBouldin, st.dec3}, v{mark(c.K == s.K), st.text}); err != nil {
+				return err
+			}
+		}
+		return nil
+	}
+	if len(s.Merges) == 0 {
+		return nil
+	}
+	if err := t.put(v{"Each row is one merge, in order: of the states then fitted, the two neighbours whose windows dip least in density along the line joining them were merged while that density kept at least the valley ratio of its height between them (no valley: one mode; after Hennig 2010).", st.note}); err != nil {
+		return err
+	}
+	if err := t.merge(6); err != nil {
+		return err
+	}
+	if err := t.heading("states before", "states after", "density kept between them"); err != nil {
+		return err
+	}
+	for _, m := range s.Merges {
+		if err := t.put(v{m.From, st.integer}, v{m.From - 1, st.integer}, v{m.Valley, st.dec3}); err != nil {
+			return err
+		}
+	}
+	return nil
 }
 
 func kRange(r *Result) string {
@@ -560,13 +596,8 @@ func choiceSheet(f *excelize.File, st *styles, r *Result) error {
 	if err := t.put(v{"Number of movement states: " + r.States.Rule, st.title}); err != nil {
 		return err
 	}
-	if err := t.heading("states", "within SS", "silhouette", "Calinski–Harabasz", "Davies–Bouldin", "chosen"); err != nil {
+	if err := statesChoice(t, st, r.States); err != nil {
 		return err
-	}
-	for _, c := range r.States.Candidates {
-		if err := t.put(v{c.K, st.integer}, v{c.Inertia, st.dec2}, v{c.Silhouette, st.dec3}, v{c.CalinskiHarabasz, st.dec2}, v{c.DaviesBouldin, st.dec3}, v{mark(c.K == r.States.K), st.text}); err != nil {
-			return err
-		}
 	}
 	t.blank()
 	if err := t.put(v{"Number of participant groups: " + choiceText(r), st.title}); err != nil {
