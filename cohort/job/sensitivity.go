@@ -189,5 +189,12 @@ func sensitivityNote(rows []reports.Sensitivity) string {
 	if len(moved) == 0 {
 		return "no alternative moved the groups much: the grouping does not hinge on these choices"
 	}
-	return "the groups change under " + strings.Join(moved, "; ") + ": read them with that choice in mind"
+	// On the recovery benchmark this line fires on most runs, right or wrong (38 of 40 on seeds
+	// 241–280): the alternatives recover planted groups less well, so they move the groups either
+	// way. It says what the choices do; the tentative mark and the group flags are the warnings.
+	which := "these choices"
+	if len(moved) == 1 {
+		which = "this choice"
+	}
+	return "the groups change under " + strings.Join(moved, "; ") + ": they hinge on " + which + ". The settings used recovered planted groups best on the tool's synthetic test cohorts, so read this as what each choice does; the warnings are the tentative mark and the group stability flags, where they appear"
 }

@@ -3,9 +3,11 @@ package job
 import (
 	"context"
 	"math"
+	"strings"
 	"testing"
 
 	"github.com/cohortmix/cohortmix/cohort/synth"
+	"github.com/cohortmix/cohortmix/reports"
 )
 
 // The sensitivity table has a row for each alternative, in a fixed order, with the same values
@@ -66,4 +68,37 @@ func containsInOrder(got, want []string) bool {
 		}
 	}
 	return i == len(want)
+}
+
+// The line that reads the table names each alternative that moved the groups (adjusted Rand
+// index below 0.8 and more than 0.2 below the reference refit), says in the number it needs
+// whether one choice or several did, and points to the stability marks as the warnings.
+func TestSensitivityNoteNamesWhatMoved(t *testing.T) {
+	ref := reports.Sensitivity{Choice: "within step", Alternative: "align (used)", Reference: true, ARI: 0.9}
+	cases := []struct {
+		name    string
+		rows    []reports.Sensitivity
+		want    []string
+		notWant []string
+	}{
+		{"nothing moved", []reports.Sensitivity{ref, {Choice: "method", Alternative: "pam-js", ARI: 0.85}},
+			[]string{"does not hinge"}, []string{"change under"}},
+		{"one choice", []reports.Sensitivity{ref, {Choice: "method", Alternative: "pam-js", ARI: 0.65}, {Choice: "within step", Alternative: "none", ARI: 0.75}},
+			[]string{"change under method pam-js (adjusted Rand index 0.65)", "this choice", "the tentative mark and the group stability flags"}, []string{"within step none", "these choices"}},
+		{"two choices", []reports.Sensitivity{ref, {Choice: "method", Alternative: "pam-js", ARI: 0.65}, {Choice: "number of states", Alternative: "4 (fixed)", ARI: 0.3}},
+			[]string{"method pam-js", "number of states 4 (fixed)", "these choices"}, []string{"this choice"}},
+	}
+	for _, c := range cases {
+		got := sensitivityNote(c.rows)
+		for _, w := range c.want {
+			if !strings.Contains(got, w) {
+				t.Errorf("%s: %q does not say %q", c.name, got, w)
+			}
+		}
+		for _, w := range c.notWant {
+			if strings.Contains(got, w) {
+				t.Errorf("%s: %q says %q", c.name, got, w)
+			}
+		}
+	}
 }
