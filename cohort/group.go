@@ -310,14 +310,16 @@ func GroupSignatures(ctx context.Context, shares [][]float64, opts GroupOptions)
 			return nil, err
 		}
 		g.K = Choose(g.Scores, opts.Criterion)
-		if k0 := Choose(g.Scores, ByGapStable); opts.Criterion == ByGapSteady && k0 != g.K {
-			if g.Note != "" {
-				g.Note += "; "
+		if opts.Criterion == ByGapSteady {
+			if k0 := Choose(g.Scores, ByGapStable); k0 != g.K {
+				if g.Note != "" {
+					g.Note += "; "
+				}
+				s0, _ := g.Score(k0)
+				s, _ := g.Score(g.K)
+				g.Note += fmt.Sprintf("the gap statistic and the stability step chose %d groups, a tentative grouping (bootstrap stability %.2f, below %.2f), so %d were kept, the largest smaller number whose grouping is stable (%.2f)",
+					k0, s0.Stability, UnstableGrouping, g.K, s.Stability)
 			}
-			s0, _ := g.Score(k0)
-			s, _ := g.Score(g.K)
-			g.Note += fmt.Sprintf("the gap statistic and the stability step chose %d groups, a tentative grouping (bootstrap stability %.2f, below %.2f), so %d were kept, the largest smaller number whose grouping is stable (%.2f)",
-				k0, s0.Stability, UnstableGrouping, g.K, s.Stability)
 		}
 		if opts.Valley > 0 {
 			k, note, err := valleyCap(cx, clab, opts.Groups, g.K, opts.Valley)
