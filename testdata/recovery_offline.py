@@ -57,6 +57,8 @@ def mmd_embedding(d, f):
 
 
 def line(name, vals):
+    if not vals:
+        return  # not dumped
     v = np.array(vals)
     print(f"{name:58s} n={len(v):3d}  mean {v.mean():.3f}  worst {v.min():.3f}  below 0.60: {int((v < 0.6).sum())}")
 
@@ -106,3 +108,32 @@ for seed, d in merged.items():
     pick = e if {s["K"]: s for s in e["scores"]}[e["groups"]]["Stability"] > {s["K"]: s for s in d["scores"]}[d["groups"]]["Stability"] else d
     vals.append(ari(pick["want"], pick["labels"]))
 line("merged or 12 states, whichever groups more stably", vals)
+
+# The two levels of states side by side, when the runs were dumped with the variants
+# "states level merged,states 12" (the states as fitted are the 12 the default run would keep).
+# A proxy: the run compares the levels on the sampled participants, these are the whole cohorts'
+# groupings; it chose the margin of the second reason (cohort/job LevelGapMargin), then checked
+# in full runs.
+levels_m, levels_f = load("states_level_merged"), load("states_12")
+both = sorted(set(levels_m) & set(levels_f))
+if both:
+    def scored(d):
+        return {s["K"]: s for s in d["scores"]}, cuts(np.sqrt(np.maximum(0, np.array(d["shares"]))), d["want"])
+    pairs = {s: (scored(levels_m[s]), scored(levels_f[s])) for s in both}
+
+    def pick(m, f, margin):
+        (ms, _), (fs, _) = m, f
+        km, kf = gap_stable(ms), gap_stable(fs)
+        if fs[kf]["Stability"] > ms[km]["Stability"] + ms[km]["StabilitySE"]:
+            return f
+        if margin is not None and kf > km and fs[kf]["Stability"] > ms[kf]["Stability"] + ms[kf]["StabilitySE"] \
+                and fs[kf]["Gap"] > ms[km]["Gap"] + margin:
+            return f
+        return m
+
+    for margin in (None, 0.0, 0.05, 0.1, 0.15, 0.2):
+        vals = []
+        for s in both:
+            sc, a = pick(*pairs[s], margin)
+            vals.append(a[gap_steady(sc)])
+        line("levels: more stable" + ("" if margin is None else f", or more groups with a gap larger by > {margin}"), vals)

@@ -34,7 +34,7 @@ var recoverySets = map[string][2]uint64{
 	"fresh2": {61, 80}, "fresh3": {81, 100}, "fresh4": {101, 120}, "fresh5": {121, 140}, "fresh6": {141, 160},
 	"fresh7": {161, 180}, "fresh8": {181, 200}, "fresh9": {201, 240}, "fresh10": {241, 280},
 	"fresh11": {281, 320}, "fresh12": {321, 360}, "fresh13": {361, 400}, "fresh14": {401, 440}, "fresh15": {441, 480},
-	"fresh16": {481, 520}, "fresh17": {521, 560},
+	"fresh16": {481, 520}, "fresh17": {521, 560}, "fresh18": {561, 600}, "fresh19": {601, 640},
 }
 
 // setsHelp lists the named sets for the -recovery flag, by first seed: "tune (1–20), …".
@@ -372,7 +372,8 @@ func dumpRecovery(t testing.TB, dir, variant string, seed uint64, truthK, truthS
 	}
 	b, err := json.Marshal(map[string]any{"seed": seed, "true_groups": truthK, "true_states": truthStates, "want": want,
 		"states": f.States.K, "groups": f.Grouping.K, "labels": f.Grouping.Labels, "shares": shares, "scores": f.Grouping.Scores,
-		"centroids": mat.DenseCopyOf(f.States.Centroids).RawMatrix().Data, "dim": f.States.Centroids.RawMatrix().Cols})
+		"centroids": mat.DenseCopyOf(f.States.Centroids).RawMatrix().Data, "dim": f.States.Centroids.RawMatrix().Cols,
+		"notes": f.Notes})
 	if err == nil {
 		err = os.WriteFile(filepath.Join(dir, fmt.Sprintf("seed-%03d-%s.json", seed, strings.ReplaceAll(variant, " ", "_"))), b, 0o644)
 	}

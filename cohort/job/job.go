@@ -39,7 +39,7 @@ type Options struct {
 	NoTurn     bool
 	StatesRule profile.Rule
 	// KeepMerged keeps, for a range of states, the valley rule's merged states, without asking
-	// whether the participants group more stably over the states as fitted (chooseStates).
+	// whether the states as fitted serve the grouping better (chooseStates).
 	KeepMerged bool
 	Valley     float64 // see profile.MergeStates; 0 means profile.DefaultValley
 	// GroupValley lowers the number of groups while two form one mode (cohort.GroupOptions.Valley).
