@@ -146,7 +146,7 @@ func FitAligned(ctx context.Context, units [][]float64, fit *normalize.Fit, opts
 	if len(opts.States) > 1 {
 		// The states as fitted, before any merge: the caller may keep them (States.Fine).
 		fine := &States{K: a.k, Sampled: total, Offsets: a.offsets, Prior: opts.Prior, Rounds: opts.Rounds,
-			Rule: fmt.Sprintf("%d states fitted with each device aligned, none merged", a.k)}
+			Rule: fmt.Sprintf("%d states fitted with each device aligned", a.k)}
 		fine.Centroids, fine.Posture = orderAligned(mat.NewDense(a.k, dim, slices.Clone(a.centres)), clonePosture(a.posture))
 		s.Fine = fine
 		s.Rule = fmt.Sprintf("%d states fitted with each device aligned, then neighbours that form one mode merged (valley ratio ≥ %.2f; after Hennig 2010)", kmax, opts.Valley)

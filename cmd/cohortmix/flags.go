@@ -85,7 +85,7 @@ func (m *mainFlags) register(cmd *cobra.Command) {
 	f.StringVar(&m.States, "states", "2-12", "number of movement states, or a range to choose from")
 	f.Float64Var(&m.Valley, "valley", profile.DefaultValley, "with --states-rule valley: two states merge when the density of their windows between them keeps at least this share of its height at them")
 	f.StringVar(&m.StatesRule, "states-rule", "valley", "how a range of states is decided: valley (fit the most, merge states that form one mode) or ch (largest Calinski–Harabasz index)")
-	f.StringVar(&m.StatesLevel, "states-level", "stable", "with the valley rule and the align step: stable keeps the states as fitted instead of merged when the sampled participants group more stably over them, or into more groups that are more stable and more clearly apart; merged always keeps the merged states")
+	f.StringVar(&m.StatesLevel, "states-level", "stable", "with the valley rule and the align step: stable keeps the states as fitted instead of merged when the sampled participants group more stably over them, or as stably and more clearly apart; merged always keeps the merged states")
 	f.IntVar(&m.Sample, "sample", 50000, "windows sampled to fit the states")
 	f.StringVar(&m.Groups, "groups", "2-8", "number of participant groups, or a range to choose from")
 	f.StringVar(&m.Method, "method", "auto", "grouping: "+cohort.MethodHelp())

@@ -454,7 +454,7 @@ const levelUnits = 20
 
 // LevelGapMargin is how much larger the gap statistic of the grouping over the states as fitted
 // must be than over the merged states for chooseStates to keep the states as fitted because they
-// show more groups (its second reason). It was chosen on the recovery benchmark's seeds 1–400,
+// show more groups (its second reason) or group as well (its third). It was chosen on the recovery benchmark's seeds 1–400,
 // studied on the gap statistics of the whole cohorts' groupings at both levels, where every
 // margin from 0.05 to 0.10 made the same choices, and 0.05 is the smallest that made none of
 // the choices that went wrong with smaller margins (testdata/recovery-history.md).
@@ -474,7 +474,10 @@ const LevelGapMargin = 0.05
 //     stably than the merged states do (by more than one standard error) and more clearly (a gap
 //     statistic larger, by more than LevelGapMargin, than the merged states' at the number they
 //     chose): merged states that join two postures the groups differ in hide groups, and more
-//     groups are nearly always less stable, so reason 1 alone keeps the merged states then.
+//     groups are nearly always less stable, so reason 1 alone keeps the merged states then; or
+//  3. when they group into as many groups or more, at least as stably, and more clearly (a gap
+//     statistic larger by more than LevelGapMargin): where both levels group at the ceiling of
+//     stability, stability cannot tell them apart, and the gap can.
 //
 // Stability is the mean adjusted Rand index of the grouping's bootstrap resamples (Lange T, Roth
 // V, Braun ML & Buhmann JM (2004), Stability-based validation of clustering solutions, Neural
@@ -543,7 +546,11 @@ func chooseStates(ctx context.Context, fp *FitPiece, units [][]float64, o Option
 		return keep(fmt.Sprintf("over them the sampled participants fall into %d groups, more clearly than into the %d over the merged states (gap statistic %.3f against %.3f) and more stably than the merged states split into %d (bootstrap stability %.3f against %.3f ± %.3f)",
 			gf.K, gm.K, f.Gap, m.Gap, gf.K, f.Stability, mf.Stability, mf.StabilitySE)), nil
 	}
-	return fmt.Sprintf("the valley rule's %d states were kept: over the %d states fitted, the sampled participants group no more stably by more than one standard error (bootstrap stability %.3f with %d groups, against %.3f ± %.3f with %d), nor into more groups that are both more stable and more clearly apart",
+	if gf.K >= gm.K && f.Stability >= m.Stability && f.Gap > m.Gap+LevelGapMargin {
+		return keep(fmt.Sprintf("over them the sampled participants group at least as stably (bootstrap stability %.3f with %d groups, against %.3f with %d) and more clearly apart (gap statistic %.3f against %.3f)",
+			f.Stability, gf.K, m.Stability, gm.K, f.Gap, m.Gap)), nil
+	}
+	return fmt.Sprintf("the valley rule's %d states were kept: over the %d states fitted, the sampled participants group no more stably by more than one standard error (bootstrap stability %.3f with %d groups, against %.3f ± %.3f with %d), nor into more groups that are both more stable and more clearly apart, nor as stably into as many and more clearly apart",
 		merged.K, fine.K, f.Stability, gf.K, m.Stability, m.StabilitySE, gm.K), nil
 }
 
