@@ -102,46 +102,49 @@ func TestFittedStatesKeptWhenTheyServeTheGrouping(t *testing.T) {
 		{359, 7, "fall into 4 groups, more clearly than into the 2", 0.8, 0.6},
 		{606, 2, "group at least as stably (bootstrap stability 1.000 with 2 groups", 0.9, 0.6},
 	} {
-		path := filepath.Join(t.TempDir(), "c.csv")
-		truth, err := synth.WriteFile(path, synth.Options{Scenario: sc.scenario, Seed: sc.scenario, Participants: 200, Windows: 2016, Labels: true})
-		if err != nil {
-			t.Fatal(err)
-		}
-		base := Defaults(path)
-		base.Read.Label = "activity" // the planted state of each window, as the benchmark reads it
-		tab, err := cohort.Read(context.Background(), []string{path}, base.Read)
-		if err != nil {
-			t.Fatal(err)
-		}
-		defer tab.Close()
-		group := map[string]int{}
-		for _, tr := range truth {
-			group[tr.ID] = tr.Group
-		}
-		var want []int
-		for _, u := range tab.Units {
-			want = append(want, group[u.ID])
-		}
-		for _, merged := range []bool{false, true} {
-			o := base
-			o.KeepMerged, o.NoSensitivity = merged, true
-			f, err := FitTable(context.Background(), tab, o)
+		// Each scenario in a subtest of its own, so that its table is closed when it is done.
+		t.Run("scenario "+strconv.FormatUint(sc.scenario, 10), func(t *testing.T) {
+			path := filepath.Join(t.TempDir(), "c.csv")
+			truth, err := synth.WriteFile(path, synth.Options{Scenario: sc.scenario, Seed: sc.scenario, Participants: 200, Windows: 2016, Labels: true})
 			if err != nil {
 				t.Fatal(err)
 			}
-			ari, err := cluster.AdjustedRand(want, f.Grouping.Labels)
+			base := Defaults(path)
+			base.Read.Label = "activity" // the planted state of each window, as the benchmark reads it
+			tab, err := cohort.Read(context.Background(), []string{path}, base.Read)
 			if err != nil {
 				t.Fatal(err)
 			}
-			notes := strings.Join(f.Notes, "; ")
-			switch {
-			case !merged && (f.States.K != 12 || ari < sc.fine || !strings.Contains(notes, sc.note)):
-				t.Errorf("scenario %d: %d states, %d groups, ARI %.2f, notes %q; want the 12 states as fitted, ARI at least %.1f and a note saying %q",
-					sc.scenario, f.States.K, f.Grouping.K, ari, notes, sc.fine, sc.note)
-			case merged && (f.States.K != sc.merged || ari >= sc.coarse):
-				t.Errorf("scenario %d, merged states kept: %d states, ARI %.2f; want %d states and ARI below %.1f", sc.scenario, f.States.K, ari, sc.merged, sc.coarse)
+			defer tab.Close()
+			group := map[string]int{}
+			for _, tr := range truth {
+				group[tr.ID] = tr.Group
 			}
-		}
+			var want []int
+			for _, u := range tab.Units {
+				want = append(want, group[u.ID])
+			}
+			for _, merged := range []bool{false, true} {
+				o := base
+				o.KeepMerged, o.NoSensitivity = merged, true
+				f, err := FitTable(context.Background(), tab, o)
+				if err != nil {
+					t.Fatal(err)
+				}
+				ari, err := cluster.AdjustedRand(want, f.Grouping.Labels)
+				if err != nil {
+					t.Fatal(err)
+				}
+				notes := strings.Join(f.Notes, "; ")
+				switch {
+				case !merged && (f.States.K != 12 || ari < sc.fine || !strings.Contains(notes, sc.note)):
+					t.Errorf("scenario %d: %d states, %d groups, ARI %.2f, notes %q; want the 12 states as fitted, ARI at least %.1f and a note saying %q",
+						sc.scenario, f.States.K, f.Grouping.K, ari, notes, sc.fine, sc.note)
+				case merged && (f.States.K != sc.merged || ari >= sc.coarse):
+					t.Errorf("scenario %d, merged states kept: %d states, ARI %.2f; want %d states and ARI below %.1f", sc.scenario, f.States.K, ari, sc.merged, sc.coarse)
+				}
+			}
+		})
 	}
 }
 
