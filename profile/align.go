@@ -185,7 +185,6 @@ func (a *aligner) descend(ctx context.Context, kmax int, seed uint64, opts Align
 		if err := a.updateDevices(); err != nil {
 			return 0, err
 		}
-		a.transform()
 		a.recentre()
 		if !a.assign() {
 			break // no window changed state: the devices and centres would stay as they are
@@ -331,8 +330,10 @@ func (a *aligner) recentre() {
 	}
 }
 
-// updateDevices finds each unit's rotation and offsets from its windows' states, then centres the
-// offsets over units.
+// updateDevices finds each unit's rotation and offsets from its windows' states, centres the
+// offsets over units and leaves each unit's windows normalized with its new device. fitDevice
+// has already turned and scaled them; the centred offsets are subtracted here, as
+// normalize.Fit.ApplyLoggedInto subtracts them last, so the windows are not transformed twice.
 func (a *aligner) updateDevices() error {
 	errs := make([]error, len(a.units))
 	a.each(func(u int) {
@@ -344,6 +345,14 @@ func (a *aligner) updateDevices() error {
 		}
 	}
 	a.centreOffsets()
+	a.each(func(u int) {
+		y, off := a.ys[u], a.devs[u].Offset
+		for i := 0; i+a.dim <= len(y); i += a.dim {
+			for c, o := range off {
+				y[i+c] -= o
+			}
+		}
+	})
 	return nil
 }
 
