@@ -85,6 +85,7 @@ type ModelFit struct {
 	States         []int    `json:"states"` // the numbers of states tried
 	StatesRule     string   `json:"states_rule"`
 	KeepMerged     bool     `json:"keep_merged,omitempty"` // the merged states were kept without comparing the grouping's stability
+	Fits           int      `json:"fits,omitempty"`        // times the states were fitted from different random starts (0: once)
 	Valley         float64  `json:"valley"`
 	Sample         int      `json:"sample"`
 	Groups         []int    `json:"groups"` // the numbers of groups tried

@@ -50,6 +50,7 @@ type mainFlags struct {
 	Log                    string
 	StatesRule             string
 	StatesLevel            string
+	Fits                   int
 	Valley                 float64
 	OffsetICC, RestShare   float64
 	Scale                  string
@@ -85,6 +86,7 @@ func (m *mainFlags) register(cmd *cobra.Command) {
 	f.StringVar(&m.States, "states", "2-12", "number of movement states, or a range to choose from")
 	f.Float64Var(&m.Valley, "valley", profile.DefaultValley, "with --states-rule valley: two states merge when the density of their windows between them keeps at least this share of its height at them")
 	f.StringVar(&m.StatesRule, "states-rule", "valley", "how a range of states is decided: valley (fit the most, merge states that form one mode) or ch (largest Calinski–Harabasz index)")
+	f.IntVar(&m.Fits, "fits", job.DefaultFits, "with the align step: fit the states this many times from different random starts and keep the fit whose grouping of the sampled participants agrees best with the others' (each fit adds about half the time of a run on large cohorts)")
 	f.StringVar(&m.StatesLevel, "states-level", "stable", "with the valley rule and the align step: stable keeps the states as fitted instead of merged when the sampled participants group more stably over them, or as stably and more clearly apart; merged always keeps the merged states")
 	f.IntVar(&m.Sample, "sample", 50000, "windows sampled to fit the states")
 	f.StringVar(&m.Groups, "groups", "2-8", "number of participant groups, or a range to choose from")
@@ -191,6 +193,10 @@ func (m *mainFlags) options(inputs []string) (job.Options, error) {
 		return o, flagErrorf("--valley %v: a share of the density's height lies in (0, 1]", m.Valley)
 	}
 	o.Valley = m.Valley
+	if m.Fits < 1 || m.Fits > 9 {
+		return o, flagErrorf("--fits %d: fit the states 1 to 9 times", m.Fits)
+	}
+	o.Fits = m.Fits
 	if !(m.OffsetICC > 0 && m.OffsetICC <= 1) || !(m.RestShare > 0 && m.RestShare <= 1) {
 		return o, flagErrorf("--offset-icc %v, --rest-share %v: both lie in (0, 1]", m.OffsetICC, m.RestShare)
 	}
@@ -251,7 +257,7 @@ func (m *mainFlags) settings() []reports.Setting {
 		s("id column", m.ID), s("order column", m.Order), s("wave column", m.Wave), s("label column", m.Label),
 		s("feature patterns", strings.Join(m.Features, ",")), s("missing cells", m.Missing), s("minimum windows", strconv.Itoa(m.MinWindows)),
 		s("within-participant step", m.Within), s("within-step features", strings.Join(m.WithinFeatures, ",")),
-		s("axis means (align)", m.Axes), s("turned with the axis means", m.Turn), s("log scale", m.Log), s("rule for a range of states", m.StatesRule), s("states kept", m.StatesLevel), s("valley ratio", fmt.Sprint(m.Valley)),
+		s("axis means (align)", m.Axes), s("turned with the axis means", m.Turn), s("log scale", m.Log), s("rule for a range of states", m.StatesRule), s("states kept", m.StatesLevel), s("fits of the states", strconv.Itoa(m.Fits)), s("valley ratio", fmt.Sprint(m.Valley)),
 		s("offset ICC threshold", fmt.Sprint(m.OffsetICC)), s("rest share", fmt.Sprint(m.RestShare)),
 		s("cohort scaling", m.Scale), s("PCA", m.PCA), s("states", m.States), s("window sample", strconv.Itoa(m.Sample)),
 		s("groups", m.Groups), s("grouping method", m.Method), s("criterion for groups", m.Criterion), s("group valley cap", strconv.FormatFloat(m.GroupValley, 'g', -1, 64)),
@@ -474,6 +480,7 @@ var modelFlags = map[string]func(m *mainFlags, f *reports.ModelFit, r reports.Mo
 		}
 	},
 	"valley":       func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) { m.Valley = f.Valley },
+	"fits":         func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) { m.Fits = max(1, f.Fits) },
 	"sample":       func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) { m.Sample = f.Sample },
 	"groups":       func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) { m.Groups = rangeText(f.Groups) },
 	"method":       func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) { m.Method = f.Method },

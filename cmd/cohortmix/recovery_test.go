@@ -92,6 +92,7 @@ var recoveryVariantList = []variant{
 	{"group valley 0.7", []string{"--group-valley", "0.7"}},
 	{"states level merged", []string{"--states-level", "merged"}},
 	{"turn means only", []string{"--turn", "means"}},
+	{"fits 3", []string{"--fits", "3"}},
 }
 
 // scenarioRun is one variant's result on one scenario.

@@ -41,7 +41,10 @@ type Options struct {
 	// KeepMerged keeps, for a range of states, the valley rule's merged states, without asking
 	// whether the states as fitted serve the grouping better (chooseStates).
 	KeepMerged bool
-	Valley     float64 // see profile.MergeStates; 0 means profile.DefaultValley
+	// Fits is how many times the states are fitted from different random starts, the fit kept
+	// being the one whose grouping agrees best with the others' (fitStates); 0 and 1 fit once.
+	Fits   int
+	Valley float64 // see profile.MergeStates; 0 means profile.DefaultValley
 	// GroupValley lowers the number of groups while two form one mode (cohort.GroupOptions.Valley).
 	GroupValley float64
 	Seed        uint64
@@ -564,7 +567,7 @@ func Defaults(inputs ...string) Options {
 		Norm: normalize.Options{Within: normalize.WithinAlign, Scale: normalize.ScaleZ, Log: true, PCAVariance: 0.99,
 			OffsetICC: 0.3, RestShare: 0.1},
 		States: span(2, 12), StatesRule: profile.ByValley, Valley: profile.DefaultValley, Sample: 50_000,
-		Groups: span(2, 8), Method: cohort.Auto, Criterion: cohort.ByGapSteady, Bootstrap: 20, Seed: 1,
+		Groups: span(2, 8), Method: cohort.Auto, Criterion: cohort.ByGapSteady, Bootstrap: 20, Seed: 1, Fits: DefaultFits,
 	}
 }
 
@@ -574,7 +577,7 @@ func (o Options) ModelFit() *reports.ModelFit {
 		Within: o.Norm.Within.String(), WithinFeatures: o.Norm.WithinFeatures, OffsetICC: o.Norm.OffsetICC, RestShare: o.Norm.RestShare,
 		Axes: o.Axes, NoAxes: o.NoAxes, NoTurn: o.NoTurn, Log: o.Norm.Log, Scale: o.Norm.Scale.String(),
 		PCAComponents: o.Norm.PCAComponents, PCAVariance: o.Norm.PCAVariance, NoPCA: o.Norm.NoPCA,
-		States: o.States, StatesRule: o.StatesRule.String(), KeepMerged: o.KeepMerged, Valley: o.Valley, Sample: o.Sample,
+		States: o.States, StatesRule: o.StatesRule.String(), KeepMerged: o.KeepMerged, Fits: o.Fits, Valley: o.Valley, Sample: o.Sample,
 		Groups: o.Groups, Method: o.Method.String(), Criterion: o.Criterion.String(), GroupValley: o.GroupValley,
 		Bootstrap: o.Bootstrap, Seed: o.Seed, WindowSeconds: o.Window.Seconds(),
 	}

@@ -2,6 +2,7 @@ package job
 
 import (
 	"context"
+	"math"
 	"path/filepath"
 	"regexp"
 	"strconv"
@@ -170,6 +171,37 @@ func TestGapSteadyFallsBackAndSaysSo(t *testing.T) {
 		said := strings.Contains(res.Grouping.Note, "chose 4 groups, a tentative grouping")
 		if res.Grouping.K != tc.k || said != tc.note {
 			t.Errorf("%v: %d groups, note %q; want %d groups and the fall back said: %v", tc.c, res.Grouping.K, res.Grouping.Note, tc.k, tc.note)
+		}
+	}
+}
+
+// The fit kept among several is the medoid of their groupings by the adjusted Rand index: the
+// one that agrees best with the others, ties to the first. Values worked by hand: two identical
+// partitions of six agree with ARI 1; {0,0,0,1,1,1} against {0,0,1,1,2,2} has ARI (2 − 6·3/15) / ((6 + 3)/2 − 6·3/15) = 8/33 (Hubert & Arabie 1985).
+func TestMedoidOfGroupings(t *testing.T) {
+	a := []int{0, 0, 0, 1, 1, 1}
+	aRenamed := []int{1, 1, 1, 0, 0, 0}
+	b := []int{0, 0, 1, 1, 2, 2}
+	for _, c := range []struct {
+		name   string
+		labels [][]int
+		best   int
+		agree  []float64
+	}{
+		{"the odd one out is first", [][]int{b, a, aRenamed}, 1, []float64{8.0 / 33, 1}},
+		{"the odd one out is last", [][]int{a, aRenamed, b}, 0, []float64{1, 8.0 / 33}},
+		{"all alike: the first", [][]int{a, aRenamed, a}, 0, []float64{1, 1}},
+		{"two fits: the first", [][]int{a, b}, 0, []float64{8.0 / 33}},
+	} {
+		best, agree := medoid(c.labels)
+		if best != c.best || len(agree) != len(c.agree) {
+			t.Errorf("%s: fit %d kept, agreement %v; want fit %d, %v", c.name, best, agree, c.best, c.agree)
+			continue
+		}
+		for i := range agree {
+			if math.Abs(agree[i]-c.agree[i]) > 1e-12 { // exact fractions, up to rounding
+				t.Errorf("%s: agreement %v, want %v", c.name, agree, c.agree)
+			}
 		}
 	}
 }
