@@ -51,6 +51,50 @@ func syntheticCohort(t *testing.T, so synth.Options) string {
 	return path
 }
 
+// plantedScenario writes a member of the scenario family at the benchmark's size, reads it as
+// the recovery benchmark does (the planted state of each window as the label column) and gives
+// the table (closed when the test ends), the default options for it and each participant's
+// planted group in the table's order.
+func plantedScenario(t *testing.T, scenario uint64) (*cohort.Table, Options, []int) {
+	t.Helper()
+	path := filepath.Join(t.TempDir(), "c.csv")
+	truth, err := synth.WriteFile(path, synth.Options{Scenario: scenario, Seed: scenario, Participants: 200, Windows: 2016, Labels: true})
+	if err != nil {
+		t.Fatal(err)
+	}
+	o := Defaults(path)
+	o.Read.Label = "activity"
+	tab, err := cohort.Read(context.Background(), []string{path}, o.Read)
+	if err != nil {
+		t.Fatal(err)
+	}
+	t.Cleanup(func() { tab.Close() })
+	group := map[string]int{}
+	for _, tr := range truth {
+		group[tr.ID] = tr.Group
+	}
+	want := make([]int, len(tab.Units))
+	for i, u := range tab.Units {
+		want[i] = group[u.ID]
+	}
+	return tab, o, want
+}
+
+// fitScored runs the job on the table and gives the result, the adjusted Rand index of its groups
+// against want and its notes in one line.
+func fitScored(t *testing.T, tab *cohort.Table, o Options, want []int) (*Fitted, float64, string) {
+	t.Helper()
+	f, err := FitTable(context.Background(), tab, o)
+	if err != nil {
+		t.Fatal(err)
+	}
+	ari, err := cluster.AdjustedRand(want, f.Grouping.Labels)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return f, ari, strings.Join(f.Notes, "; ")
+}
+
 // Under gap-steady the two levels of states are compared at the number of groups gap-stable
 // chooses: falling back to a smaller stable number at either level would make that level look
 // stable. Scenario 86 of the family (benchmark size) is one where the fall back, applied in the
@@ -103,40 +147,14 @@ func TestFittedStatesKeptWhenTheyServeTheGrouping(t *testing.T) {
 		{359, 7, "fall into 4 groups, more clearly than into the 2", 0.8, 0.6},
 		{606, 2, "group at least as stably (bootstrap stability 1.000 with 2 groups", 0.9, 0.6},
 	} {
-		// Each scenario in a subtest of its own, so that its table is closed when it is done.
+		// Each scenario in a subtest of its own, so that its table is closed when it is done
+		// (plantedScenario's clean-up runs at the end of the subtest).
 		t.Run("scenario "+strconv.FormatUint(sc.scenario, 10), func(t *testing.T) {
-			path := filepath.Join(t.TempDir(), "c.csv")
-			truth, err := synth.WriteFile(path, synth.Options{Scenario: sc.scenario, Seed: sc.scenario, Participants: 200, Windows: 2016, Labels: true})
-			if err != nil {
-				t.Fatal(err)
-			}
-			base := Defaults(path)
-			base.Read.Label = "activity" // the planted state of each window, as the benchmark reads it
-			tab, err := cohort.Read(context.Background(), []string{path}, base.Read)
-			if err != nil {
-				t.Fatal(err)
-			}
-			defer tab.Close()
-			group := map[string]int{}
-			for _, tr := range truth {
-				group[tr.ID] = tr.Group
-			}
-			var want []int
-			for _, u := range tab.Units {
-				want = append(want, group[u.ID])
-			}
+			tab, base, want := plantedScenario(t, sc.scenario)
 			for _, merged := range []bool{false, true} {
 				o := base
 				o.KeepMerged, o.NoSensitivity = merged, true
-				f, err := FitTable(context.Background(), tab, o)
-				if err != nil {
-					t.Fatal(err)
-				}
-				ari, err := cluster.AdjustedRand(want, f.Grouping.Labels)
-				if err != nil {
-					t.Fatal(err)
-				}
-				notes := strings.Join(f.Notes, "; ")
+				f, ari, notes := fitScored(t, tab, o, want)
 				switch {
 				case !merged && (f.States.K != 12 || ari < sc.fine || !strings.Contains(notes, sc.note)):
 					t.Errorf("scenario %d: %d states, %d groups, ARI %.2f, notes %q; want the 12 states as fitted, ARI at least %.1f and a note saying %q",
@@ -216,38 +234,11 @@ func TestSeveralFitsKeepTheOneTheOthersAgreeWith(t *testing.T) {
 	if testing.Short() {
 		t.Skip("four fits on 200 × 2,016 windows")
 	}
-	path := filepath.Join(t.TempDir(), "c.csv")
-	truth, err := synth.WriteFile(path, synth.Options{Scenario: 617, Seed: 617, Participants: 200, Windows: 2016, Labels: true})
-	if err != nil {
-		t.Fatal(err)
-	}
-	base := Defaults(path)
-	base.Read.Label = "activity" // read as the benchmark reads it
-	tab, err := cohort.Read(context.Background(), []string{path}, base.Read)
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer tab.Close()
-	group := map[string]int{}
-	for _, tr := range truth {
-		group[tr.ID] = tr.Group
-	}
-	var want []int
-	for _, u := range tab.Units {
-		want = append(want, group[u.ID])
-	}
+	tab, base, want := plantedScenario(t, 617)
 	for _, fits := range []int{1, 3} {
 		o := base
 		o.Fits, o.NoSensitivity = fits, true
-		f, err := FitTable(context.Background(), tab, o)
-		if err != nil {
-			t.Fatal(err)
-		}
-		ari, err := cluster.AdjustedRand(want, f.Grouping.Labels)
-		if err != nil {
-			t.Fatal(err)
-		}
-		notes := strings.Join(f.Notes, "; ")
+		f, ari, notes := fitScored(t, tab, o, want)
 		t.Logf("%d fits: %d states, %d groups, ARI %.2f; %s", fits, f.States.K, f.Grouping.K, ari, notes)
 		said := strings.Contains(notes, "the states were fitted 3 times") && strings.Contains(notes, "some fits group the participants differently")
 		switch {
