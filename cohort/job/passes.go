@@ -481,7 +481,8 @@ const LevelGapMargin = 0.05
 // Stability is the mean adjusted Rand index of the grouping's bootstrap resamples (Lange T, Roth
 // V, Braun ML & Buhmann JM (2004), Stability-based validation of clustering solutions, Neural
 // Comput. 16:1299–1323); the gap statistic is Tibshirani, Walther & Hastie (2001). It says in a
-// note which level was kept and why.
+// note which level was kept and why. It returns the states kept, the note (empty when no
+// comparison was made) and the sampled participants' grouping over the states kept (nil then).
 func chooseStates(ctx context.Context, fit *normalize.Fit, states *profile.States, units [][]float64, o Options) (*profile.States, string, []int, error) {
 	merged, fine := states, states.Fine
 	merged.Fine = nil
