@@ -75,6 +75,7 @@ type Fitted struct {
 	Devices  []normalize.Device    // each unit's device, when the states are aligned
 	sample   sampleUnits           // the participants and windows sampled for the fit
 	Notes    []string              // what the run decided on its own, for the reader
+	Warnings []string              // what the reader must weigh before trusting the groups
 	Grouping *cohort.Grouping
 	Window   time.Duration // the length of one window (0: not known)
 	// WindowSource says where the window length came from.
@@ -341,7 +342,7 @@ func Describe(f *Fitted, stateNames, groupNames []string) (*reports.Result, erro
 	d, k := len(t.Features), states.K
 	res := &reports.Result{Features: t.Features, OrderKind: t.OrderKind, Quality: t.Quality, Files: t.Files, Norm: fit, States: states, Grouping: g,
 		StateDesc: f.Desc, Labels: f.Labels}
-	res.Warnings = append(res.Warnings, fit.Warnings...)
+	res.Warnings = append(append(res.Warnings, fit.Warnings...), f.Warnings...)
 	res.Notes = append(res.Notes, f.Notes...)
 	if f.Sensitivity != nil {
 		res.Sensitivity, res.SensitivityNote = f.Sensitivity, sensitivityNote(f.Sensitivity)

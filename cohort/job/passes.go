@@ -355,12 +355,13 @@ func mergeSamples(p *Plan, parts []*SamplePiece) (sampleUnits, error) {
 
 // FitPiece is the fit, made once from the merged sample, that every assignment pass applies.
 type FitPiece struct {
-	Plan   *Plan
-	Fit    *normalize.Fit
-	States *profile.States
-	Notes  []string
-	Sample []SampledUnit     // kept for the sensitivity table of the finish
-	Norm   normalize.Options // the normalizing settings the fit was made with, for that table's refits
+	Plan     *Plan
+	Fit      *normalize.Fit
+	States   *profile.States
+	Notes    []string
+	Warnings []string          // what the reader must weigh before trusting the groups
+	Sample   []SampledUnit     // kept for the sensitivity table of the finish
+	Norm     normalize.Options // the normalizing settings the fit was made with, for that table's refits
 }
 
 // FitSample fits the scaling, the devices and the states on the merged sample (the align step).
@@ -423,11 +424,11 @@ func FitSample(ctx context.Context, p *Plan, samples []*SamplePiece) (*FitPiece,
 	}
 	fp.Norm = norm
 	step("fitting movement states")
-	notes, err := fitStates(ctx, fp, units, o)
+	notes, warnings, err := fitStates(ctx, fp, units, o)
 	if err != nil {
 		return nil, err
 	}
-	fp.Notes = append(fp.Notes, notes...)
+	fp.Notes, fp.Warnings = append(fp.Notes, notes...), warnings
 	// Each feature's ICC(1) once aligned, on the sampled participants' windows; with PCA, on the
 	// features rebuilt from the kept components (an ICC does not change with a shift of the
 	// feature, so the PCA's centre is not added back).
@@ -564,7 +565,8 @@ func sampleGrouping(ctx context.Context, fit *normalize.Fit, st *profile.States,
 }
 
 // fitStates fits the movement states on the sampled participants' windows (profile.FitAligned)
-// and chooses their level (chooseStates), setting fp.States, and returns the notes to show.
+// and chooses their level (chooseStates), setting fp.States, and returns the notes and the
+// warnings to show.
 // With Options.Fits above one it does so that many times, the first from the run's seed and the
 // others from seeds drawn from it, and keeps the fit whose grouping of the sampled participants
 // agrees best with the other fits' groupings: the medoid of the groupings by the adjusted Rand
@@ -572,7 +574,7 @@ func sampleGrouping(ctx context.Context, fit *normalize.Fit, st *profile.States,
 // by device or merged too far, as long as most fits avoid it. The choice of one partition that
 // agrees best with the others is the medoid form of consensus clustering (Strehl & Ghosh 2002,
 // Cluster ensembles, J. Mach. Learn. Res. 3:583–617; Monti et al. 2003 for resampled runs).
-func fitStates(ctx context.Context, fp *FitPiece, units [][]float64, o Options) ([]string, error) {
+func fitStates(ctx context.Context, fp *FitPiece, units [][]float64, o Options) ([]string, []string, error) {
 	fits := max(1, o.Fits)
 	type member struct {
 		states *profile.States
@@ -587,11 +589,11 @@ func fitStates(ctx context.Context, fp *FitPiece, units [][]float64, o Options) 
 		}
 		st, err := profile.FitAligned(ctx, units, fp.Fit, profile.AlignOptions{States: o.States, Valley: o.Valley, Seed: seed, Workers: o.Workers, Progress: o.Steps})
 		if err != nil {
-			return nil, err
+			return nil, nil, err
 		}
 		m := &members[r]
 		if m.states, m.note, m.labels, err = chooseStates(ctx, fp.Fit, st, units, o); err != nil {
-			return nil, err
+			return nil, nil, err
 		}
 		if fits > 1 && m.labels == nil {
 			groups, criterion := levelGroups(o, len(units))
@@ -600,7 +602,7 @@ func fitStates(ctx context.Context, fp *FitPiece, units [][]float64, o Options) 
 			}
 			g, err := sampleGrouping(ctx, fp.Fit, m.states, units, o, groups, criterion)
 			if err != nil {
-				return nil, err
+				return nil, nil, err
 			}
 			m.labels = g.Labels
 		}
@@ -615,7 +617,7 @@ func fitStates(ctx context.Context, fp *FitPiece, units [][]float64, o Options) 
 	}
 	kept := members[best]
 	fp.States = kept.states
-	var notes []string
+	var notes, warnings []string
 	if kept.note != "" {
 		notes = append(notes, kept.note)
 	}
@@ -624,14 +626,14 @@ func fitStates(ctx context.Context, fp *FitPiece, units [][]float64, o Options) 
 		for i, v := range agree {
 			parts[i] = fmt.Sprintf("%.2f", v)
 		}
-		note := fmt.Sprintf("the states were fitted %d times from different random starts and the fit kept (number %d, %d states) is the one whose grouping of the %d sampled participants agrees best with the others' (adjusted Rand index %s)",
-			fits, best+1, kept.states.K, len(units), strings.Join(parts, ", "))
-		if slices.Min(agree) < FitsDisagree {
-			note += fmt.Sprintf("; some fits group the participants differently (agreement below %.2f): the groups depend on where the fit starts", FitsDisagree)
+		notes = append(notes, fmt.Sprintf("the states were fitted %d times from different random starts and the fit kept (number %d, %d states) is the one whose grouping of the %d sampled participants agrees best with the others' (adjusted Rand index %s)",
+			fits, best+1, kept.states.K, len(units), strings.Join(parts, ", ")))
+		if low := slices.Min(agree); low < FitsDisagree {
+			warnings = append(warnings, fmt.Sprintf("DEPENDS ON THE START: of the %d fits of the movement states from different random starts, some group the sampled participants differently (adjusted Rand index down to %.2f against the fit kept, below %.2f). The groups depend on where the fit started: read them as tentative, and compare a run with another --seed.",
+				fits, low, FitsDisagree))
 		}
-		notes = append(notes, note)
 	}
-	return notes, nil
+	return notes, warnings, nil
 }
 
 // medoid is the partition that agrees best with the others (the largest sum of adjusted Rand
@@ -857,7 +859,7 @@ func Finish(ctx context.Context, fp *FitPiece, parts []*AssignPiece) (*Fitted, e
 	if err := checkShards(KindAssign, shards, p.Shards); err != nil {
 		return nil, err
 	}
-	f := &Fitted{Table: t, Fit: fp.Fit, States: fp.States, Notes: fp.Notes, Window: p.Window, WindowSource: p.WindowSource, Workers: o.Workers}
+	f := &Fitted{Table: t, Fit: fp.Fit, States: fp.States, Notes: fp.Notes, Warnings: fp.Warnings, Window: p.Window, WindowSource: p.WindowSource, Workers: o.Workers}
 	if err := mergeAssigned(f, p.Units, parts); err != nil {
 		return nil, err
 	}
