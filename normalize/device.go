@@ -25,6 +25,19 @@ func (d Device) Angle() float64 {
 	return math.Acos(math.Max(-1, math.Min(1, (r[0]+r[4]+r[8]-1)/2))) * 180 / math.Pi
 }
 
+// SubtractOffset takes the device's offsets from each row of y (rows of k output columns, in
+// place): the last step of ApplyDeviceInto.
+func (d Device) SubtractOffset(y []float64, k int) {
+	if d.Offset == nil {
+		return
+	}
+	for i := 0; i+k <= len(y); i += k {
+		for c, o := range d.Offset {
+			y[i+c] -= o
+		}
+	}
+}
+
 // LowestOf returns each of the d columns' lowest value over row-major blocks (NaN ignored, +Inf
 // for a column without values): what Options.Lowest takes.
 func LowestOf(units [][]float64, d int) []float64 {

@@ -749,13 +749,7 @@ func (f *Fit) applyInto(dst, x []float64, b Baseline, dev Device, logged bool) [
 			f.PCA.TransformRows(dst[i*k:(i+m)*k], block[:m*d])
 		}
 	}
-	if dev.Offset != nil {
-		for i := 0; i+k <= len(dst); i += k {
-			for c, o := range dev.Offset {
-				dst[i+c] -= o
-			}
-		}
-	}
+	dev.SubtractOffset(dst, k)
 	return dst
 }
 

@@ -332,8 +332,9 @@ func (a *aligner) recentre() {
 
 // updateDevices finds each unit's rotation and offsets from its windows' states, centres the
 // offsets over units and leaves each unit's windows normalized with its new device. fitDevice
-// has already turned and scaled them; the centred offsets are subtracted here, as
-// normalize.Fit.ApplyLoggedInto subtracts them last, so the windows are not transformed twice.
+// has already turned and scaled them; the centred offsets are subtracted here
+// (normalize.Device.SubtractOffset, the last step of the transform), so the windows are not
+// transformed twice.
 func (a *aligner) updateDevices() error {
 	errs := make([]error, len(a.units))
 	a.each(func(u int) {
@@ -345,14 +346,7 @@ func (a *aligner) updateDevices() error {
 		}
 	}
 	a.centreOffsets()
-	a.each(func(u int) {
-		y, off := a.ys[u], a.devs[u].Offset
-		for i := 0; i+a.dim <= len(y); i += a.dim {
-			for c, o := range off {
-				y[i+c] -= o
-			}
-		}
-	})
+	a.each(func(u int) { a.devs[u].SubtractOffset(a.ys[u], a.dim) })
 	return nil
 }
 

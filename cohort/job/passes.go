@@ -566,8 +566,7 @@ func sampleGrouping(ctx context.Context, fit *normalize.Fit, st *profile.States,
 
 // fitStates fits the movement states on the sampled participants' windows (profile.FitAligned)
 // and chooses their level (chooseStates), setting fp.States, and returns the notes and the
-// warnings to show.
-// With Options.Fits above one it does so that many times, the first from the run's seed and the
+// warnings to show. With Options.Fits above one it does so that many times, the first from the run's seed and the
 // others from seeds drawn from it, and keeps the fit whose grouping of the sampled participants
 // agrees best with the other fits' groupings: the medoid of the groupings by the adjusted Rand
 // index (Hubert & Arabie 1985), which sets aside a fit that a random start led to states split
@@ -641,14 +640,21 @@ func fitStates(ctx context.Context, fp *FitPiece, units [][]float64, o Options) 
 func medoid(labels [][]int) (int, []float64) {
 	n := len(labels)
 	pair := make([][]float64, n)
-	best, bestSum := 0, math.Inf(-1)
-	for i := range labels {
+	for i := range pair {
 		pair[i] = make([]float64, n)
+	}
+	for i := range labels {
+		for j := i + 1; j < n; j++ { // the index is symmetric: each pair once
+			pair[i][j], _ = cluster.AdjustedRand(labels[i], labels[j])
+			pair[j][i] = pair[i][j]
+		}
+	}
+	best, bestSum := 0, math.Inf(-1)
+	for i, row := range pair {
 		var sum float64
-		for j := range labels {
-			if i != j {
-				pair[i][j], _ = cluster.AdjustedRand(labels[i], labels[j])
-				sum += pair[i][j]
+		for j, v := range row {
+			if j != i {
+				sum += v
 			}
 		}
 		if sum > bestSum {
