@@ -1,6 +1,7 @@
 package profile
 
 import (
+	"cmp"
 	"context"
 	"fmt"
 	"math"
@@ -19,6 +20,7 @@ type AlignOptions struct {
 	Reseeds  int     // times the states are seeded again on the aligned windows; 0 means 1, −1 none
 	Starts   int     // 1: no device at first; 2 (0 means 2): also each participant's offsets at its medians, the better kept
 	Rounds   int     // alternations of device and state updates after each seeding; 0 means 10
+	Twins    int     // most tries at folding two states that no participant uses both of (see foldTwins); 0 means 3, −1 none
 	Prior    float64 // pull of each rotation toward none, in windows' worth per window; 0 means 0.01
 	Valley   float64 // see MergeStates; 0 means DefaultValley
 	Seed     uint64
@@ -58,8 +60,9 @@ type Merge struct {
 // k-means++ (cluster.KMeans) seeds the states from two starts (no device; each participant's
 // offsets at its medians) and again, Reseeds times each, on the aligned windows, so that states
 // that only looked apart because of the devices are found again as one; the start with the
-// lower within-state sum of squares is kept. With a range of numbers, the largest is fitted and neighbours that are
-// one mode are merged (MergeStates).
+// lower within-state sum of squares is kept. Then pairs of states that no participant uses both
+// of are tried as one posture held twice, once per device slant (foldTwins). With a range of
+// numbers, the largest is fitted and neighbours that are one mode are merged (MergeStates).
 //
 // units holds each sampled participant's windows × features as read (row-major); fit must have
 // the WithinAlign step. References: Lloyd SP (1982), Least squares quantization in PCM, IEEE
@@ -84,6 +87,11 @@ func FitAligned(ctx context.Context, units [][]float64, fit *normalize.Fit, opts
 	}
 	if opts.Rounds == 0 {
 		opts.Rounds = 10
+	}
+	if opts.Twins == 0 {
+		opts.Twins = 3
+	} else if opts.Twins < 0 {
+		opts.Twins = 0
 	}
 	if opts.Prior == 0 {
 		opts.Prior = 0.01
@@ -122,11 +130,7 @@ func FitAligned(ctx context.Context, units [][]float64, fit *normalize.Fit, opts
 		}
 	}
 	for start := 0; start < opts.Starts; start++ {
-		b := &aligner{fit: fit, units: logged, d: d, dim: dim, prior: opts.Prior, workers: opts.Workers, offsets: offsetColumns(fit)}
-		b.devs = make([]normalize.Device, len(units))
-		b.ys = make([][]float64, len(units))
-		b.labels = make([][]int, len(units))
-		b.transform()
+		b := newAligner(fit, logged, opts.Prior, opts.Workers)
 		if start == 1 {
 			b.medianOffsets()
 			b.transform()
@@ -141,6 +145,9 @@ func FitAligned(ctx context.Context, units [][]float64, fit *normalize.Fit, opts
 		if sse < bestSSE {
 			a, bestSSE = b, sse
 		}
+	}
+	if _, err := a.foldTwins(ctx, opts); err != nil {
+		return nil, err
 	}
 	s := &States{Sampled: total, Offsets: a.offsets, Prior: opts.Prior, Rounds: opts.Rounds, Rule: "fixed"}
 	if len(opts.States) > 1 {
@@ -178,12 +185,22 @@ func (a *aligner) descend(ctx context.Context, kmax int, seed uint64, opts Align
 	a.k, a.centres = kmax, km.Centroids.RawMatrix().Data
 	a.assign()
 	a.recentre()
-	for round := 0; round < opts.Rounds; round++ {
+	if err := a.rounds(ctx, opts.Rounds); err != nil {
+		return 0, err
+	}
+	progress()
+	return a.sse(), nil
+}
+
+// rounds alternates device and state updates until no window changes state, at most n times,
+// and leaves the centres at their windows' means.
+func (a *aligner) rounds(ctx context.Context, n int) error {
+	for round := 0; round < n; round++ {
 		if err := ctx.Err(); err != nil {
-			return 0, err
+			return err
 		}
 		if err := a.updateDevices(); err != nil {
-			return 0, err
+			return err
 		}
 		a.recentre()
 		if !a.assign() {
@@ -191,7 +208,12 @@ func (a *aligner) descend(ctx context.Context, kmax int, seed uint64, opts Align
 		}
 	}
 	a.recentre()
-	progress()
+	return nil
+}
+
+// sse is the within-state sum of squares of the windows as their devices leave them, summed in
+// unit order.
+func (a *aligner) sse() float64 {
 	var sse float64
 	for u, y := range a.ys {
 		for w, l := range a.labels[u] {
@@ -201,7 +223,224 @@ func (a *aligner) descend(ctx context.Context, kmax int, seed uint64, opts Align
 			}
 		}
 	}
-	return sse, nil
+	return sse
+}
+
+// twinOverlap is the most two states may share their participants (twinPairs) and still be
+// tried as one posture that the descent holds twice, once per device slant.
+const twinOverlap = 0.1
+
+// foldTwins moves the descent out of one local optimum that block coordinate descent with
+// per-participant devices is prone to: a posture held by two states, one for the participants
+// whose devices lean one way and one for the rest. Then no participant uses both, so the
+// signatures part the participants by device. For each pair of states that participants use one
+// or the other of but rarely both (twinPairs, fewest shared first), it tries a split-and-merge
+// move (after Ueda et al. 2000, SMEM algorithm for mixture models, Neural Computation 12; fold):
+// the two are folded into one and the devices and the states left descend for Rounds rounds;
+// then the state with the largest within-state sum of squares is split in two along its first
+// principal axis (as in Linde, Buzo & Gray 1980) and all descend Rounds rounds more. The move is
+// kept only when the within-state sum of squares ends lower than the descent's own after as
+// many rounds without it, so what is kept is the move's doing and not the extra rounds'. Two
+// postures that differ in truth are left apart, since no turn of the devices makes one state
+// hold both. At most Twins moves are tried; it returns how many were kept.
+func (a *aligner) foldTwins(ctx context.Context, opts AlignOptions) (int, error) {
+	folds := 0
+	for tried := 0; tried < opts.Twins; {
+		pairs := a.twinPairs()
+		if len(pairs) == 0 {
+			break
+		}
+		// The baseline: the descent left to run the fold's rounds without it.
+		stay := a.clone()
+		if err := stay.rounds(ctx, 2*opts.Rounds); err != nil {
+			return 0, err
+		}
+		cur := stay.sse()
+		moved := false
+		for _, p := range pairs {
+			if tried >= opts.Twins {
+				break
+			}
+			tried++
+			b := a.clone()
+			if ok, err := b.fold(ctx, p[0], p[1], opts.Rounds); err != nil {
+				return 0, err
+			} else if !ok {
+				continue
+			}
+			if err := b.rounds(ctx, opts.Rounds); err != nil {
+				return 0, err
+			}
+			if b.sse() < cur {
+				*a, moved = *b, true
+				folds++
+				break
+			}
+		}
+		if !moved {
+			break
+		}
+	}
+	return folds, nil
+}
+
+// twinPairs lists the pairs of states that the sampled participants share least, those sharing
+// less than twinOverlap, fewest shared first: the overlap of states s and t is
+// Σᵢ min(pᵢₛ, pᵢₜ) / min(Σᵢ pᵢₛ, Σᵢ pᵢₜ), pᵢₛ being participant i's share of windows in s. It
+// is 0 when no participant uses both and 1 when every participant uses the lesser state as much
+// as the other. States held by fewer than 1 % of the participants' time are left out.
+func (a *aligner) twinPairs() [][2]int {
+	share := make([][]float64, len(a.labels))
+	total := make([]float64, a.k)
+	for u, lab := range a.labels {
+		share[u] = make([]float64, a.k)
+		for _, l := range lab {
+			share[u][l]++
+		}
+		for l := range share[u] {
+			if len(lab) > 0 {
+				share[u][l] /= float64(len(lab))
+			}
+			total[l] += share[u][l]
+		}
+	}
+	type pair struct {
+		s, t    int
+		overlap float64
+	}
+	var pairs []pair
+	least := 0.01 * float64(len(a.labels))
+	for s := 0; s < a.k; s++ {
+		for t := s + 1; t < a.k; t++ {
+			if total[s] < least || total[t] < least {
+				continue
+			}
+			var both float64
+			for _, p := range share {
+				both += min(p[s], p[t])
+			}
+			if o := both / min(total[s], total[t]); o < twinOverlap {
+				pairs = append(pairs, pair{s, t, o})
+			}
+		}
+	}
+	slices.SortStableFunc(pairs, func(p, q pair) int { return cmp.Compare(p.overlap, q.overlap) })
+	out := make([][2]int, len(pairs))
+	for i, p := range pairs {
+		out[i] = [2]int{p.s, p.t}
+	}
+	return out
+}
+
+// fold puts state t's windows in state s, lets the devices and the states left descend for
+// settle rounds (a turn of the devices may now hold what the two held), and reuses t for half
+// of the widest state (the largest within-state sum of squares): that state's centre moves
+// σ√(2/π) along its first principal axis and t's the same way back, σ² being the variance along
+// that axis (the means of the two halves of a normal distribution), and every window is
+// assigned again. The states are numbered anew, t taking the last number. It reports false
+// when no state has two windows to split.
+func (a *aligner) fold(ctx context.Context, s, t, settle int) (bool, error) {
+	last := a.k - 1
+	if s == last {
+		s = t
+	}
+	for _, lab := range a.labels {
+		for w, l := range lab {
+			switch l {
+			case t:
+				lab[w] = s
+			case last:
+				lab[w] = t
+			}
+		}
+	}
+	if t != last {
+		copy(a.centres[t*a.dim:(t+1)*a.dim], a.centres[last*a.dim:])
+	}
+	a.k--
+	a.recentre()
+	if err := a.rounds(ctx, settle); err != nil {
+		return false, err
+	}
+	a.k++
+	within := make([]float64, a.k)
+	cnt := make([]int, a.k)
+	for u, y := range a.ys {
+		for w, l := range a.labels[u] {
+			cnt[l]++
+			for c := 0; c < a.dim; c++ {
+				v := y[w*a.dim+c] - a.centres[l*a.dim+c]
+				within[l] += v * v
+			}
+		}
+	}
+	wide := -1
+	for l := range within[:last] {
+		if cnt[l] >= 2 && (wide < 0 || within[l] > within[wide]) {
+			wide = l
+		}
+	}
+	if wide < 0 {
+		return false, nil
+	}
+	centre := a.centres[wide*a.dim : (wide+1)*a.dim]
+	cov := make([]float64, a.dim*a.dim)
+	v := make([]float64, a.dim)
+	for u, y := range a.ys {
+		for w, l := range a.labels[u] {
+			if l != wide {
+				continue
+			}
+			for c := range v {
+				v[c] = y[w*a.dim+c] - centre[c]
+			}
+			for i, vi := range v {
+				for j, vj := range v[:i+1] {
+					cov[i*a.dim+j] += vi * vj
+				}
+			}
+		}
+	}
+	for i := 0; i < a.dim; i++ {
+		for j := 0; j <= i; j++ {
+			cov[i*a.dim+j] /= float64(cnt[wide] - 1)
+			cov[j*a.dim+i] = cov[i*a.dim+j]
+		}
+	}
+	var eig mat.EigenSym
+	if !eig.Factorize(mat.NewSymDense(a.dim, cov), true) {
+		return false, nil
+	}
+	var vecs mat.Dense
+	eig.VectorsTo(&vecs)
+	top := a.dim - 1 // EigenSym gives the values in increasing order
+	step := math.Sqrt(max(eig.Values(nil)[top], 0) * 2 / math.Pi)
+	for c := 0; c < a.dim; c++ {
+		d := step * vecs.At(c, top)
+		a.centres[last*a.dim+c] = centre[c] - d
+		centre[c] += d
+	}
+	a.assign()
+	a.recentre()
+	return true, nil
+}
+
+// clone is a copy of the descent that can move without changing a.
+func (a *aligner) clone() *aligner {
+	b := *a
+	b.devs = make([]normalize.Device, len(a.devs))
+	for u, dev := range a.devs {
+		b.devs[u] = normalize.Device{Rotation: slices.Clone(dev.Rotation), Offset: slices.Clone(dev.Offset)}
+	}
+	b.ys = make([][]float64, len(a.ys))
+	b.labels = make([][]int, len(a.labels))
+	for u := range a.ys {
+		b.ys[u] = slices.Clone(a.ys[u])
+		b.labels[u] = slices.Clone(a.labels[u])
+	}
+	b.centres = slices.Clone(a.centres)
+	b.posture = clonePosture(a.posture)
+	return &b
 }
 
 // medianOffsets sets each unit's offsets to its medians of the offset columns, centred over
@@ -249,6 +488,16 @@ type aligner struct {
 	labels    [][]int
 	centres   []float64   // k × dim
 	posture   [][]float64 // k × 3: each state's mean axis means once turned; nil without axes
+}
+
+// newAligner starts the descent on the units' windows (on their log scales) with no device.
+func newAligner(fit *normalize.Fit, logged [][]float64, prior float64, workers int) *aligner {
+	a := &aligner{fit: fit, units: logged, d: len(fit.Features), dim: fit.OutDim(), prior: prior, workers: workers, offsets: offsetColumns(fit)}
+	a.devs = make([]normalize.Device, len(logged))
+	a.ys = make([][]float64, len(logged))
+	a.labels = make([][]int, len(logged))
+	a.transform()
+	return a
 }
 
 // each runs f(u) for every unit on all cores; each call writes only what belongs to u.
