@@ -211,19 +211,30 @@ func (a *aligner) rounds(ctx context.Context, n int) error {
 	return nil
 }
 
-// sse is the within-state sum of squares of the windows as their devices leave them, summed in
-// unit order.
+// sse is the within-state sum of squares of the windows as their devices leave them.
 func (a *aligner) sse() float64 {
+	within, _ := a.within()
 	var sse float64
+	for _, v := range within {
+		sse += v
+	}
+	return sse
+}
+
+// within is each state's sum of squares and number of windows, summed in unit order.
+func (a *aligner) within() ([]float64, []int) {
+	sums := make([]float64, a.k)
+	cnt := make([]int, a.k)
 	for u, y := range a.ys {
 		for w, l := range a.labels[u] {
+			cnt[l]++
 			for c := 0; c < a.dim; c++ {
 				v := y[w*a.dim+c] - a.centres[l*a.dim+c]
-				sse += v * v
+				sums[l] += v * v
 			}
 		}
 	}
-	return sse
+	return sums, cnt
 }
 
 // twinOverlap is the most two states may share their participants (twinPairs) and still be
@@ -335,8 +346,8 @@ func (a *aligner) twinPairs() [][2]int {
 // fold puts state t's windows in state s, lets the devices and the states left descend for
 // settle rounds (a turn of the devices may now hold what the two held), and reuses t for half
 // of the widest state (the largest within-state sum of squares): that state's centre moves
-// σ√(2/π) along its first principal axis and t's the same way back, σ² being the variance along
-// that axis (the means of the two halves of a normal distribution), and every window is
+// σ√(2/π) along its first principal axis (cluster.FitPCA) and t's the same way back, σ² being the
+// variance along that axis (the means of the two halves of a normal distribution), and every window is
 // assigned again. The states are numbered anew, t taking the last number. It reports false
 // when no state has two windows to split.
 func (a *aligner) fold(ctx context.Context, s, t, settle int) (bool, error) {
@@ -363,17 +374,7 @@ func (a *aligner) fold(ctx context.Context, s, t, settle int) (bool, error) {
 		return false, err
 	}
 	a.k++
-	within := make([]float64, a.k)
-	cnt := make([]int, a.k)
-	for u, y := range a.ys {
-		for w, l := range a.labels[u] {
-			cnt[l]++
-			for c := 0; c < a.dim; c++ {
-				v := y[w*a.dim+c] - a.centres[l*a.dim+c]
-				within[l] += v * v
-			}
-		}
-	}
+	within, cnt := a.within()
 	wide := -1
 	for l := range within[:last] {
 		if cnt[l] >= 2 && (wide < 0 || within[l] > within[wide]) {
@@ -383,40 +384,22 @@ func (a *aligner) fold(ctx context.Context, s, t, settle int) (bool, error) {
 	if wide < 0 {
 		return false, nil
 	}
-	centre := a.centres[wide*a.dim : (wide+1)*a.dim]
-	cov := make([]float64, a.dim*a.dim)
-	v := make([]float64, a.dim)
+	rows := make([]float64, 0, cnt[wide]*a.dim)
 	for u, y := range a.ys {
 		for w, l := range a.labels[u] {
-			if l != wide {
-				continue
-			}
-			for c := range v {
-				v[c] = y[w*a.dim+c] - centre[c]
-			}
-			for i, vi := range v {
-				for j, vj := range v[:i+1] {
-					cov[i*a.dim+j] += vi * vj
-				}
+			if l == wide {
+				rows = append(rows, y[w*a.dim:(w+1)*a.dim]...)
 			}
 		}
 	}
-	for i := 0; i < a.dim; i++ {
-		for j := 0; j <= i; j++ {
-			cov[i*a.dim+j] /= float64(cnt[wide] - 1)
-			cov[j*a.dim+i] = cov[i*a.dim+j]
-		}
+	pca, err := cluster.FitPCA(mat.NewDense(cnt[wide], a.dim, rows), cluster.PCAOptions{Components: 1})
+	if err != nil {
+		return false, nil // every window of the widest state alike: nothing to split
 	}
-	var eig mat.EigenSym
-	if !eig.Factorize(mat.NewSymDense(a.dim, cov), true) {
-		return false, nil
-	}
-	var vecs mat.Dense
-	eig.VectorsTo(&vecs)
-	top := a.dim - 1 // EigenSym gives the values in increasing order
-	step := math.Sqrt(max(eig.Values(nil)[top], 0) * 2 / math.Pi)
+	step := math.Sqrt(pca.Variance[0] * 2 / math.Pi)
+	centre := a.centres[wide*a.dim : (wide+1)*a.dim]
 	for c := 0; c < a.dim; c++ {
-		d := step * vecs.At(c, top)
+		d := step * pca.Components.At(c, 0)
 		a.centres[last*a.dim+c] = centre[c] - d
 		centre[c] += d
 	}
