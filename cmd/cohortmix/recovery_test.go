@@ -35,7 +35,7 @@ var recoverySets = map[string][2]uint64{
 	"fresh7": {161, 180}, "fresh8": {181, 200}, "fresh9": {201, 240}, "fresh10": {241, 280},
 	"fresh11": {281, 320}, "fresh12": {321, 360}, "fresh13": {361, 400}, "fresh14": {401, 440}, "fresh15": {441, 480},
 	"fresh16": {481, 520}, "fresh17": {521, 560}, "fresh18": {561, 600}, "fresh19": {601, 640}, "fresh20": {641, 680},
-	"fresh21": {681, 720}, "fresh22": {721, 760}, "fresh23": {761, 800}, "fresh24": {801, 840}, "fresh25": {841, 880},
+	"fresh21": {681, 720}, "fresh22": {721, 760}, "fresh23": {761, 800}, "fresh24": {801, 840}, "fresh25": {841, 880}, "fresh26": {881, 920}, "fresh27": {921, 960},
 }
 
 // setsHelp lists the named sets for the -recovery flag, by first seed: "tune (1–20), …".
