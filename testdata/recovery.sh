@@ -6,7 +6,7 @@
 # for every variant; "-recovery.variants" in the go test line below picks variants by name).
 # Pass a set as the first argument to run only it: a named set of seeds (recoverySets in
 # cmd/cohortmix/recovery_test.go; `go test ./cmd/cohortmix/ -run XXX -args -help` lists them,
-# from tune, seeds 1–20, to fresh25, 841–880), demo (the demo's own scenario, 150 × 1,000 with
+# from tune, seeds 1–20, to fresh27, 921–960), demo (the demo's own scenario, 150 × 1,000 with
 # 12 and 24 features) or a list of seeds such as 3,7. Which sets each default was chosen on,
 # and which were run unseen, is in testdata/recovery-history.md.
 set -euo pipefail
