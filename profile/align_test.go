@@ -59,14 +59,9 @@ func plantedDevices(n, windows int) (units [][]float64, states [][]int, rot [][]
 func TestFitAlignedRecoversPlantedDevices(t *testing.T) {
 	features := []string{"mean_x", "mean_y", "mean_z", "bias", "amp", "freq"}
 	units, truth, rot, bias, gain := plantedDevices(40, 400)
-	axes, _ := normalize.FindAxes(features, units[0])
-	if len(axes) != 3 || axes[0] != 0 || axes[1] != 1 || axes[2] != 2 {
+	fit := alignStep(t, features, units, true, 0)
+	if axes := fit.Axes; len(axes) != 3 || axes[0] != 0 || axes[1] != 1 || axes[2] != 2 {
 		t.Fatalf("axes %v, want the columns of mean_x, mean_y, mean_z", axes)
-	}
-	fit, err := normalize.FitBlocks(context.Background(), features, normalize.SliceBlocks(units), normalize.Options{Within: normalize.WithinAlign, Axes: axes, NoPCA: true,
-		Log: true, Lowest: normalize.LowestOf(units, 6), LogStart: normalize.LogStartOf(units, 6)})
-	if err != nil {
-		t.Fatal(err)
 	}
 	if fit.Logged[3] || !fit.Logged[4] || !fit.Logged[5] || fit.Logged[0] {
 		t.Fatalf("logged %v: want amp and freq, not bias (negative) nor the axis means", fit.Logged)
@@ -204,17 +199,25 @@ func TestFoldedScoresMatchTheDistances(t *testing.T) {
 	}
 }
 
+// alignStep fits the normalization with the align step on the axes found among features, log
+// scales where they apply, and a PCA keeping this share of the variance (or none).
+func alignStep(t *testing.T, features []string, units [][]float64, noPCA bool, share float64) *normalize.Fit {
+	t.Helper()
+	axes, _ := normalize.FindAxes(features, units[0])
+	d := len(features)
+	fit, err := normalize.FitBlocks(context.Background(), features, normalize.SliceBlocks(units), normalize.Options{Within: normalize.WithinAlign, Axes: axes, NoPCA: noPCA, PCAVariance: share,
+		Log: true, Lowest: normalize.LowestOf(units, d), LogStart: normalize.LogStartOf(units, d)})
+	if err != nil {
+		t.Fatal(err)
+	}
+	return fit
+}
+
 // alignedFit fits the align step (with a PCA keeping this share of the variance, or none) and
 // four states to the planted devices' units.
 func alignedFit(t *testing.T, units [][]float64, noPCA bool, share float64) (*normalize.Fit, *States) {
 	t.Helper()
-	features := []string{"mean_x", "mean_y", "mean_z", "bias", "amp", "freq"}
-	axes, _ := normalize.FindAxes(features, units[0])
-	fit, err := normalize.FitBlocks(context.Background(), features, normalize.SliceBlocks(units), normalize.Options{Within: normalize.WithinAlign, Axes: axes, NoPCA: noPCA, PCAVariance: share,
-		Log: true, Lowest: normalize.LowestOf(units, 6), LogStart: normalize.LogStartOf(units, 6)})
-	if err != nil {
-		t.Fatal(err)
-	}
+	fit := alignStep(t, []string{"mean_x", "mean_y", "mean_z", "bias", "amp", "freq"}, units, noPCA, share)
 	states, err := FitAligned(context.Background(), units, fit, AlignOptions{States: []int{4}, Seed: 1})
 	if err != nil {
 		t.Fatal(err)
@@ -276,13 +279,7 @@ func turnY(th, a, b float64) []float64 {
 // slantedAligner fits the align step to units and starts the descent from the given labels.
 func slantedAligner(t *testing.T, units [][]float64, labels [][]int, k int) *aligner {
 	t.Helper()
-	features := []string{"mean_x", "mean_y", "mean_z", "amp", "freq"}
-	axes, _ := normalize.FindAxes(features, units[0])
-	fit, err := normalize.FitBlocks(context.Background(), features, normalize.SliceBlocks(units), normalize.Options{Within: normalize.WithinAlign, Axes: axes, NoPCA: true,
-		Log: true, Lowest: normalize.LowestOf(units, 5), LogStart: normalize.LogStartOf(units, 5)})
-	if err != nil {
-		t.Fatal(err)
-	}
+	fit := alignStep(t, []string{"mean_x", "mean_y", "mean_z", "amp", "freq"}, units, true, 0)
 	logged := make([][]float64, len(units))
 	for u := range units {
 		logged[u] = fit.LogInto(nil, units[u])
