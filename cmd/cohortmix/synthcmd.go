@@ -42,6 +42,9 @@ Exit codes: 0 success, 1 error, 2 wrong command line, 130 interrupted.`,
 			if opts.Synth.Scenario != 0 && cmd.Flags().Changed("groups") {
 				return flagErrorf("--groups with --scenario %d: a scenario plants its own groups; leave --groups out", opts.Synth.Scenario)
 			}
+			if _, err := synth.ParseFamily(string(opts.Synth.Family)); err != nil {
+				return flagErrorf("--family %s: use wrist, calib, param, counts, bouts, small or null", opts.Synth.Family)
+			}
 			if opts.Synth.Scenario != 0 && !cmd.Flags().Changed("features") {
 				opts.Synth.Features = 24 // the family's features
 			}
@@ -61,6 +64,7 @@ Exit codes: 0 success, 1 error, 2 wrong command line, 130 interrupted.`,
 	f.IntVar(&opts.Synth.Groups, "groups", 3, "planted groups (2–4)")
 	f.Uint64Var(&opts.Synth.Seed, "seed", 1, "seed")
 	f.Uint64Var(&opts.Synth.Scenario, "scenario", 0, "write member N of the scenario family (0: the demo's scenario)")
+	f.StringVar((*string)(&opts.Synth.Family), "family", "wrist", "with --scenario, the family to draw it from: wrist, calib, param, counts, bouts, small or null")
 	f.BoolVar(&opts.Synth.Times, "times", false, "ISO-8601 times in the window column")
 	f.BoolVar(&opts.Synth.Labels, "labels", false, "add an activity column with each window's true state")
 	f.IntVar(&opts.Synth.FirstID, "first-id", 0, "number participants from first-id+1, e.g. for a second enrolment wave")

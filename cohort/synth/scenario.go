@@ -33,6 +33,15 @@ type Scenario struct {
 	// QuietSplit is set when every group spends the same share of time quiet and the groups
 	// differ in how that time divides among the quiet postures (and among the active states).
 	QuietSplit bool
+	// Family is the family the scenario was drawn from ("" for DrawScenario's), and Physics how
+	// its windows' features are made.
+	Family  Family
+	Physics Physics
+	// CalibOffsetSD and CalibGainSD are the s.d.s of each device's per-axis calibration offset
+	// (g) and gain around 1 (Calibrated), or of the additive offsets on the axis means
+	// (Parametric, CalibOffsetSD only).
+	CalibOffsetSD, CalibGainSD float64
+	Count                      *CountDesign // the count-data design (CountData only)
 }
 
 // State is one planted movement state.
@@ -46,6 +55,8 @@ type State struct {
 	Focus     float64    // share of the movement along Direction (0 every way, 1 along it)
 	Rhythm    float64    // 0 irregular … 1 periodic
 	Bout      float64    // mean bout length, windows
+	law       countLaw   // CountData: the law of the state's counts
+	param     *paramLaw  // Parametric: the law of the state's features
 }
 
 // Group is one planted group.
@@ -55,10 +66,18 @@ type Group struct {
 	BoutFactor []float64 // multiplies each state's mean bout length
 }
 
-// DrawScenario draws the member of the family that seed names.
+// DrawScenario draws the member of the wrist family that seed names (DrawFamily(Wrist, seed)).
 func DrawScenario(seed uint64) Scenario {
 	rng := rand.New(rand.NewPCG(seed, 0x5ce7a410))
 	sc := Scenario{Seed: seed}
+	nQuiet := sc.drawWristStates(rng)
+	sc.drawNuisance(rng)
+	sc.drawGroups(rng, nQuiet, Mixtures, 2016)
+	return sc
+}
+
+// drawWristStates draws 4–8 states, 2–3 of them quiet postures, and returns the number quiet.
+func (sc *Scenario) drawWristStates(rng *rand.Rand) int {
 	nStates := 4 + rng.IntN(5) // 4…8
 	nQuiet := 2 + rng.IntN(2)  // 2…3
 	if nStates-nQuiet < 2 {
@@ -111,7 +130,11 @@ func DrawScenario(seed uint64) Scenario {
 		active[i].Name = "active-" + strconv.Itoa(i+1)
 	}
 	sc.States = append(sc.States, active...)
+	return nQuiet
+}
 
+// drawNuisance draws how far participants stray from their group and how their devices differ.
+func (sc *Scenario) drawNuisance(rng *rand.Rand) {
 	sc.Concentration = logUniform(rng, 40, 400)
 	sc.RotationSD = 4 + 16*rng.Float64()
 	sc.GainSD = 0.01 + 0.07*rng.Float64()
@@ -119,7 +142,14 @@ func DrawScenario(seed uint64) Scenario {
 	sc.IntensitySD = 0.05 + 0.2*rng.Float64()
 	sc.ShortShare = 0.1 * rng.Float64()
 	sc.QuietSplit = rng.Float64() < 0.35
+}
 
+// drawGroups plants the groups over the scenario's states (the first nQuiet quiet, the rest
+// active): their number and sizes, and what sets them apart (structure). recording is the
+// number of windows in a typical recording, which sets how far apart groups must be drawn.
+func (sc *Scenario) drawGroups(rng *rand.Rand, nQuiet int, structure Structure, recording int) {
+	nStates := len(sc.States)
+	nActive := nStates - nQuiet
 	// Groups: 2…5 of unequal sizes (none below 8 %), mixtures drawn around a common base and
 	// kept only when every two groups are apart by at least four times the spread of their
 	// members. A participant's √shares stray from its group's by about 1/(2√c) per state, where
@@ -129,12 +159,27 @@ func DrawScenario(seed uint64) Scenario {
 	// family's recordings of N = 2,016 windows. Where draws keep failing, the groups are drawn
 	// further apart.
 	nGroups := 2 + rng.IntN(4)
+	switch structure {
+	case Bouts:
+		nGroups = 2 + rng.IntN(2)
+	case OneGroup:
+		nGroups = 1
+	}
 	var sizes []float64
 	for {
 		sizes = dirichlet(rng, repeat(1.0/float64(nGroups), nGroups), 4*float64(nGroups))
 		if minOf(sizes) >= 0.08 {
 			break
 		}
+	}
+	if structure == SmallGroup {
+		// One group of 5–10 % of the cohort; the others share the rest as drawn.
+		small := 0.05 + 0.05*rng.Float64()
+		for g := range sizes {
+			sizes[g] *= 1 - small
+		}
+		sizes[nGroups-1] = small
+		normalizeSum(sizes)
 	}
 	qTotal := 0.5 + 0.3*rng.Float64()
 	base := make([]float64, nStates)
@@ -145,6 +190,10 @@ func DrawScenario(seed uint64) Scenario {
 	}
 	for i := range as {
 		base[nQuiet+i] = (1 - qTotal) * as[i]
+	}
+	if structure == Bouts || structure == OneGroup {
+		sc.drawBoutGroups(rng, base, sizes)
+		return
 	}
 	alpha := 10 + 15*rng.Float64()
 	for tries := 0; ; tries++ {
@@ -178,7 +227,7 @@ func DrawScenario(seed uint64) Scenario {
 		for i, st := range sc.States {
 			bout += base[i] * st.Bout
 		}
-		c := 1 / (1/(sc.Concentration+1) + 2*bout/2016)
+		c := 1 / (1/(sc.Concentration+1) + 2*bout/float64(recording))
 		if minHellinger(groups)*2*math.Sqrt2*math.Sqrt(c) >= 4 {
 			sc.Groups = groups
 			break
@@ -187,7 +236,6 @@ func DrawScenario(seed uint64) Scenario {
 			alpha = math.Max(1, alpha*0.9)
 		}
 	}
-	return sc
 }
 
 // Describe is a line about the scenario, for tables of results.
@@ -217,6 +265,9 @@ type person struct {
 	rotation  [3][3]float64
 	gain      float64
 	windows   int
+	// axisGain and axisOffset are the device's per-axis calibration (Calibrated, and the
+	// offsets of Parametric); zero when it has none.
+	axisGain, axisOffset [3]float64
 }
 
 func (sc Scenario) person(rng *rand.Rand, p, windows int) person {
@@ -251,12 +302,21 @@ func (sc Scenario) person(rng *rand.Rand, p, windows int) person {
 	if rng.Float64() < sc.ShortShare {
 		pe.windows = min(windows, 100+rng.IntN(501))
 	}
+	if sc.Physics == Calibrated || sc.Physics == Parametric {
+		for i := range pe.axisOffset {
+			pe.axisOffset[i] = sc.CalibOffsetSD * rng.NormFloat64()
+			pe.axisGain[i] = 1 + sc.CalibGainSD*rng.NormFloat64()
+		}
+	}
 	return pe
 }
 
 // generate invents the scenario's participants one at a time, handing each window to emit; the
 // truth holds each participant's group and realized share of time in each state.
 func (sc Scenario) generate(opts Options, emit func(id string, window int, feat []float64, state int) error) ([]Truth, error) {
+	if sc.Physics == CountData {
+		return sc.generateCounts(opts, emit)
+	}
 	truth := make([]Truth, opts.Participants)
 	d := 24
 	if opts.Features == 12 {
@@ -275,7 +335,11 @@ func (sc Scenario) generate(opts Options, emit func(id string, window int, feat 
 				left = 1 + int(rng.ExpFloat64()*(pe.bout[state]-1)+0.5)
 			}
 			left--
-			sc.window(rng, &pe, state, feat)
+			if sc.Physics == Parametric {
+				sc.paramWindow(rng, &pe, state, feat)
+			} else {
+				sc.window(rng, &pe, state, feat)
+			}
 			shares[state]++
 			if err := emit(id, wi, feat[:d], state); err != nil {
 				return nil, err
@@ -322,12 +386,22 @@ func (sc Scenario) window(rng *rand.Rand, pe *person, s int, feat []float64) {
 	R, G := pe.rotation, pe.gain
 	gd := mulVec(R, g)
 	cd := mulMat(mulMat(R, c), transpose(R))
+	// The device's gain, and with a per-axis calibration its offset and gain on each axis: the
+	// axis means read Gᵢ·m + oᵢ, the axis s.d.s Gᵢ times theirs, the magnitude |Gm + o|.
+	m, scale, norm := [3]float64{G * gd[0], G * gd[1], G * gd[2]}, [3]float64{G, G, G}, G
+	if sc.Physics == Calibrated {
+		for i := range m {
+			m[i] = pe.axisGain[i]*m[i] + pe.axisOffset[i]
+			scale[i] = G * pe.axisGain[i]
+		}
+		norm = math.Sqrt(dot(m, m))
+	}
 	for i := 0; i < 3; i++ {
-		feat[i] = G*gd[i] + 0.01*rng.NormFloat64()                             // mean_x, mean_y, mean_z
-		feat[3+i] = G * math.Sqrt(cd[i][i]) * math.Exp(0.05*rng.NormFloat64()) // sd_x, sd_y, sd_z
+		feat[i] = m[i] + 0.01*rng.NormFloat64()                                       // mean_x, mean_y, mean_z
+		feat[3+i] = scale[i] * math.Sqrt(cd[i][i]) * math.Exp(0.05*rng.NormFloat64()) // sd_x, sd_y, sd_z
 	}
 	along := math.Abs(dot(g, u)) // rotation moves g and u together: the magnitude does not see it
-	vmMean := G * (1 + 0.45*a*a + 0.003*rng.NormFloat64())
+	vmMean := norm * (1 + 0.45*a*a + 0.003*rng.NormFloat64())
 	vmSD := G * (0.003 + a*(0.5+0.5*along)) * math.Exp(0.08*rng.NormFloat64())
 	vmPeak := vmMean + 2.8*vmSD*math.Exp(0.1*rng.NormFloat64())
 	high := 1 / (1 + math.Exp(-3*(f-1.5))) // share of the power above about 1.5 Hz

@@ -44,6 +44,9 @@ type Options struct {
 	// member's own, and Groups, Offset, Spread and GroupSet are not used. Features then
 	// defaults to 24.
 	Scenario uint64
+	// Family, with Scenario, draws that member of another family (DrawFamily); "" is the wrist
+	// family of DrawScenario.
+	Family Family
 	// Design, when set, is the scenario to draw the cohort from (a member of the family
 	// changed by hand, say); it takes the place of Scenario.
 	Design *Scenario
@@ -55,10 +58,30 @@ func (o Options) design() *Scenario {
 		return o.Design
 	}
 	if o.Scenario != 0 {
-		sc := DrawScenario(o.Scenario)
+		sc, err := DrawFamily(o.Family, o.Scenario)
+		if err != nil {
+			return nil
+		}
 		return &sc
 	}
 	return nil
+}
+
+// featureNames are the columns a cohort holds: the count-data design's, or those of the number
+// of features asked for.
+func (o Options) featureNames() []string {
+	if sc := o.design(); sc != nil && sc.Count != nil {
+		return sc.Count.Features
+	}
+	return FeatureNames(o.Features)
+}
+
+// times tells whether the window column holds times: asked for, or a count-data design's days.
+func (o Options) times() bool {
+	if sc := o.design(); sc != nil && sc.Count != nil {
+		return true
+	}
+	return o.Times
 }
 
 func (o Options) withDefaults() Options {
@@ -152,6 +175,9 @@ func (o Options) stateNames() []string {
 	for i, s := range sc.States {
 		names[i] = s.Name
 	}
+	if sc.Count != nil {
+		names = append(names, sc.Count.Sleep.Name)
+	}
 	return names
 }
 
@@ -168,7 +194,8 @@ func Write(w io.Writer, opts Options, gz bool) ([]Truth, error) {
 		out = zw
 	}
 	bw := bufio.NewWriterSize(out, 1<<20)
-	names := FeatureNames(opts.Features)
+	names := opts.featureNames()
+	times := opts.times()
 	bw.WriteString("participant")
 	if opts.Waves {
 		bw.WriteString(",wave")
@@ -191,7 +218,7 @@ func Write(w io.Writer, opts Options, gz bool) ([]Truth, error) {
 			buf = append(buf, ",1"...)
 		}
 		buf = append(buf, ',')
-		if opts.Times {
+		if times {
 			buf = start.Add(time.Duration(wi)*time.Minute).AppendFormat(buf, "2006-01-02T15:04:05")
 		} else {
 			buf = strconv.AppendInt(buf, int64(wi), 10)
@@ -229,7 +256,7 @@ func WriteParquet(w io.Writer, opts Options) ([]Truth, error) {
 	if err := opts.check(); err != nil {
 		return nil, err
 	}
-	names := FeatureNames(opts.Features)
+	names := opts.featureNames()
 	group := parquet.Group{"participant": parquet.String(), "window": parquet.Int(64)}
 	if opts.Waves {
 		group["wave"] = parquet.String()
@@ -285,6 +312,11 @@ func WriteParquet(w io.Writer, opts Options) ([]Truth, error) {
 }
 
 func (opts Options) check() error {
+	if opts.Scenario != 0 && opts.Design == nil {
+		if _, err := DrawFamily(opts.Family, opts.Scenario); err != nil {
+			return err
+		}
+	}
 	if opts.Features != 12 && opts.Features != 24 {
 		return fmt.Errorf("synth: %d features: choose 12 or 24", opts.Features)
 	}
