@@ -12,8 +12,30 @@ import (
 // axis means, as a device turned on the wrist moves them, and an offset on each output column,
 // as a calibration offset, or an amplitude gain on a log scale, moves it.
 type Device struct {
-	Rotation []float64 // 3×3 row-major, applied to the axis means (x, y, z) as read; nil leaves them
-	Offset   []float64 // subtracted from each output column (OutDim values); nil subtracts nothing
+	Rotation []float64 // 3×3 row-major, applied to the axis means (x, y, z) once calibrated; nil leaves them
+	// AxisScale and AxisOffset calibrate the axis means before the turn: axis i reads
+	// AxisScale[i] × value + AxisOffset[i], the per-axis gain and offset of the autocalibration
+	// of van Hees et al. (2014, J Appl Physiol 117:738); the axis s.d.s scale with them and the
+	// angles of the axis means move with them. nil leaves the axes as read.
+	AxisScale, AxisOffset []float64
+	Offset                []float64 // subtracted from each output column (OutDim values); nil subtracts nothing
+}
+
+// Calibrated reports whether the device calibrates the axis means.
+func (d Device) Calibrated() bool { return d.AxisScale != nil }
+
+// moves reports whether the device changes the axis means (and what turns with them).
+func (d Device) moves() bool { return d.Rotation != nil || d.AxisScale != nil }
+
+// Calibrate is a window's axis means (x, y, z) as the device's calibration reads them.
+func (d Device) Calibrate(m [3]float64) [3]float64 {
+	if d.AxisScale == nil {
+		return m
+	}
+	for i := range m {
+		m[i] = d.AxisScale[i]*m[i] + d.AxisOffset[i]
+	}
+	return m
 }
 
 // Angle is the rotation's angle in degrees (0 without one).
@@ -183,13 +205,27 @@ func (f *Fit) logColumns(y []float64, cols []int) {
 	}
 }
 
-// rotateRows turns the axis means of row-major windows by the 3×3 row-major r, in place, and
-// the features in f.Turned with them, which must be as read (not on their log scales).
-func (f *Fit) rotateRows(y, r []float64) {
+// rotateRows calibrates (when the device does) and turns the axis means of row-major windows
+// by the device, in place, and the features in f.Turned with them, which must be as read (not
+// on their log scales).
+func (f *Fit) rotateRows(y []float64, dev Device) {
 	d := len(f.Features)
 	a, b, c := f.Axes[0], f.Axes[1], f.Axes[2]
+	r := dev.Rotation
 	for i := 0; i+d <= len(y); i += d {
 		x0, x1, x2 := y[i+a], y[i+b], y[i+c]
+		if dev.AxisScale != nil {
+			m := [3]float64{x0, x1, x2}
+			mc := dev.Calibrate(m)
+			if f.Turned != nil {
+				f.calibrateRow(y[i:i+d], dev.AxisScale, m, mc)
+			}
+			x0, x1, x2 = mc[0], mc[1], mc[2]
+			y[i+a], y[i+b], y[i+c] = x0, x1, x2
+		}
+		if r == nil {
+			continue
+		}
 		y[i+a] = r[0]*x0 + r[1]*x1 + r[2]*x2
 		y[i+b] = r[3]*x0 + r[4]*x1 + r[5]*x2
 		y[i+c] = r[6]*x0 + r[7]*x1 + r[8]*x2

@@ -799,7 +799,7 @@ func (f *Fit) newRowScaler(b Baseline, dev Device, logged bool, rows int) *rowSc
 	if logged {
 		r.logCols = f.loggedColumns(true) // the rest were logged by LogInto
 	}
-	r.prep = len(r.logCols) > 0 || (dev.Rotation != nil && f.Axes != nil)
+	r.prep = len(r.logCols) > 0 || (dev.moves() && f.Axes != nil)
 	if r.prep {
 		r.tmp = scratch(rows * d)
 	}
@@ -835,8 +835,8 @@ func (r *rowScaler) rows(y, x []float64) {
 	if r.prep {
 		t := (*r.tmp)[:len(x)]
 		copy(t, x)
-		if r.dev.Rotation != nil && f.Axes != nil {
-			f.rotateRows(t, r.dev.Rotation)
+		if r.dev.moves() && f.Axes != nil {
+			f.rotateRows(t, r.dev)
 		}
 		f.logColumns(t, r.logCols)
 		x = t

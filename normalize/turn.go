@@ -286,6 +286,31 @@ func (f *Fit) turnRow(row []float64, r []float64, m, mr [3]float64) {
 	}
 }
 
+// calibrateRow moves one window's turned features with the calibration of its axis means, from
+// m as read to mc calibrated: each axis s.d. scales with its axis (the correlations do not
+// change), and each angle moves by the change of the angle of the axis means; the turned
+// features are as read, not on their log scales.
+func (f *Fit) calibrateRow(row []float64, scale []float64, m, mc [3]float64) {
+	t := f.Turned
+	for i, j := range t.SD {
+		row[j] *= math.Abs(scale[i])
+	}
+	n, nc := math.Sqrt(m[0]*m[0]+m[1]*m[1]+m[2]*m[2]), math.Sqrt(mc[0]*mc[0]+mc[1]*mc[1]+mc[2]*mc[2])
+	if !(n > 0) || !(nc > 0) {
+		return
+	}
+	for _, a := range t.Angles {
+		d := math.Asin(clampUnit(mc[a.Axis]/nc)) - math.Asin(clampUnit(m[a.Axis]/n))
+		if a.Polar {
+			d = -d
+		}
+		if a.Degrees {
+			d *= 180 / math.Pi
+		}
+		row[a.Column] += d
+	}
+}
+
 // clampUnit is v within [−1, 1] (NaN stays NaN), by comparisons, which are quicker than
 // math.Max and math.Min on the hot path.
 func clampUnit(v float64) float64 {

@@ -128,10 +128,10 @@ func TestTurnGivesBackTheWristFrame(t *testing.T) {
 				// features as read, then turned, then those logged.
 				f.logRows(wrist)
 				device = f.LogInto(nil, device)
-				f.rotateRows(device, back[:])
+				f.rotateRows(device, Device{Rotation: back[:]})
 				f.logColumns(device, f.loggedColumns(true))
 			} else {
-				f.rotateRows(device, back[:])
+				f.rotateRows(device, Device{Rotation: back[:]})
 			}
 			for j, w := range wrist {
 				if math.Abs(device[j]-w) > 1e-12*math.Max(1, math.Abs(w)) {

@@ -21,11 +21,14 @@ type AlignOptions struct {
 	Starts   int     // 1: no device at first; 2 (0 means 2): also each participant's offsets at its medians, the better kept
 	Rounds   int     // alternations of device and state updates after each seeding; 0 means 10
 	Twins    int     // most tries at folding two states that no participant uses both of (see foldTwins); 0 means 3, −1 none
-	Prior    float64 // pull of each rotation toward none, in windows' worth per window; 0 means 0.01
-	Valley   float64 // see MergeStates; 0 means DefaultValley
-	Seed     uint64
-	Workers  int
-	Progress func(step string, done, total int) // after each seeding and each merge; may be nil
+	Prior    float64 // pull of each rotation toward none, and of each calibration toward none, in windows' worth per window; 0 means 0.01
+	// Calibrate fits each device's per-axis gain and offset of the axis means before its turn
+	// (normalize.Device.AxisScale, AxisOffset).
+	Calibrate bool
+	Valley    float64 // see MergeStates; 0 means DefaultValley
+	Seed      uint64
+	Workers   int
+	Progress  func(step string, done, total int) // after each seeding and each merge; may be nil
 }
 
 // DefaultValley is the valley ratio at or above which two neighbouring states merge: the
@@ -131,6 +134,7 @@ func FitAligned(ctx context.Context, units [][]float64, fit *normalize.Fit, opts
 	}
 	for start := 0; start < opts.Starts; start++ {
 		b := newAligner(fit, logged, opts.Prior, opts.Workers)
+		b.calibrate = opts.Calibrate
 		if start == 1 {
 			b.medianOffsets()
 			b.transform()
@@ -149,10 +153,10 @@ func FitAligned(ctx context.Context, units [][]float64, fit *normalize.Fit, opts
 	if _, err := a.foldTwins(ctx, opts); err != nil {
 		return nil, err
 	}
-	s := &States{Sampled: total, Offsets: a.offsets, Prior: opts.Prior, Rounds: opts.Rounds, Rule: "fixed"}
+	s := &States{Sampled: total, Offsets: a.offsets, Prior: opts.Prior, Rounds: opts.Rounds, Calibrate: a.calibrate, Rule: "fixed"}
 	if len(opts.States) > 1 {
 		// The states as fitted, before any merge: the caller may keep them (States.Fine).
-		fine := &States{K: a.k, Sampled: total, Offsets: a.offsets, Prior: opts.Prior, Rounds: opts.Rounds,
+		fine := &States{K: a.k, Sampled: total, Offsets: a.offsets, Prior: opts.Prior, Rounds: opts.Rounds, Calibrate: a.calibrate,
 			Rule: fmt.Sprintf("%d states fitted with each device aligned", a.k)}
 		fine.Centroids, fine.Posture = orderAligned(mat.NewDense(a.k, dim, slices.Clone(a.centres)), clonePosture(a.posture))
 		s.Fine = fine
@@ -413,7 +417,7 @@ func (a *aligner) clone() *aligner {
 	b := *a
 	b.devs = make([]normalize.Device, len(a.devs))
 	for u, dev := range a.devs {
-		b.devs[u] = normalize.Device{Rotation: slices.Clone(dev.Rotation), Offset: slices.Clone(dev.Offset)}
+		b.devs[u] = normalize.Device{Rotation: slices.Clone(dev.Rotation), AxisScale: slices.Clone(dev.AxisScale), AxisOffset: slices.Clone(dev.AxisOffset), Offset: slices.Clone(dev.Offset)}
 	}
 	b.ys = make([][]float64, len(a.ys))
 	b.labels = make([][]int, len(a.labels))
@@ -461,6 +465,7 @@ func offsetColumns(fit *normalize.Fit) []bool {
 // aligner holds the block coordinate descent of FitAligned.
 type aligner struct {
 	fit       *normalize.Fit
+	calibrate bool
 	units     [][]float64
 	d, dim, k int
 	prior     float64
@@ -522,14 +527,14 @@ func (a *aligner) recentre() {
 		post = make([]float64, a.k*3)
 	}
 	for u, y := range a.ys {
-		x, r := a.units[u], a.devs[u].Rotation
+		x, dev := a.units[u], a.devs[u]
 		for w, l := range a.labels[u] {
 			cnt[l]++
 			for c, v := range y[w*a.dim : (w+1)*a.dim] {
 				sum[l*a.dim+c] += v
 			}
 			if axes != nil {
-				m := turned(x[w*a.d:(w+1)*a.d], axes, r)
+				m := turned(x[w*a.d:(w+1)*a.d], axes, dev)
 				for i := 0; i < 3; i++ {
 					post[l*3+i] += m[i]
 				}
@@ -570,7 +575,7 @@ func (a *aligner) recentre() {
 func (a *aligner) updateDevices() error {
 	errs := make([]error, len(a.units))
 	a.each(func(u int) {
-		a.devs[u], a.ys[u], errs[u] = fitDevice(a.fit, a.units[u], a.labels[u], a.centres, a.posture, a.offsets, a.prior, a.ys[u])
+		a.devs[u], a.ys[u], errs[u] = fitDevice(a.fit, a.units[u], a.labels[u], a.centres, a.posture, a.offsets, a.prior, a.calibrate, a.ys[u])
 	})
 	for _, err := range errs {
 		if err != nil {
@@ -599,32 +604,45 @@ func (a *aligner) centreOffsets() {
 }
 
 // fitDevice finds one participant's device from its windows x (on their log scales) and their
-// states: the rotation that best turns its axis means onto its states' postures, then the mean
-// residual of its windows, so turned, from their states' centres on the offset columns. It
-// returns the device and the windows normalized with its rotation but without its offsets, in
-// buf (reused).
-func fitDevice(fit *normalize.Fit, x []float64, labels []int, centres []float64, posture [][]float64, offsets []bool, prior float64, buf []float64) (normalize.Device, []float64, error) {
+// states: the rotation that best turns its axis means onto its states' postures (Kabsch, pulled
+// toward none by prior), and with calibrate, alternately with it, each axis's gain and offset
+// that bring its axis means, so turned, nearest its states' postures (a least-squares line per
+// axis, pulled toward gain 1 and offset 0 by prior: the autocalibration model of van Hees et
+// al. 2014, with the states' postures for the unit sphere); then the mean residual of its
+// windows, so calibrated and turned, from their states' centres on the offset columns. It
+// returns the device and the windows normalized with its calibration and rotation but without
+// its offsets, in buf (reused).
+func fitDevice(fit *normalize.Fit, x []float64, labels []int, centres []float64, posture [][]float64, offsets []bool, prior float64, calibrate bool, buf []float64) (normalize.Device, []float64, error) {
 	d, dim := len(fit.Features), fit.OutDim()
 	var dev normalize.Device
 	n := float64(len(labels))
 	if fit.Axes != nil && posture != nil {
-		m := make([]float64, 9)
-		for w, l := range labels {
-			row := x[w*d : (w+1)*d]
-			for i := 0; i < 3; i++ {
-				for j := 0; j < 3; j++ {
-					m[i*3+j] += posture[l][i] * row[fit.Axes[j]]
+		tries := 1
+		if calibrate {
+			tries = calibrationRounds
+		}
+		for try := 0; try < tries; try++ {
+			m := make([]float64, 9)
+			for w, l := range labels {
+				c := dev.Calibrate(axisMeans(x[w*d:(w+1)*d], fit.Axes))
+				for i := 0; i < 3; i++ {
+					for j := 0; j < 3; j++ {
+						m[i*3+j] += posture[l][i] * c[j]
+					}
 				}
 			}
+			for i := 0; i < 3; i++ {
+				m[i*3+i] += prior * n
+			}
+			r, err := cluster.Rotation3(m)
+			if err != nil {
+				return dev, nil, fmt.Errorf("profile: aligning a device: %w", err)
+			}
+			dev.Rotation = r
+			if calibrate {
+				dev.AxisScale, dev.AxisOffset = calibration(x, d, fit.Axes, labels, posture, r, prior)
+			}
 		}
-		for i := 0; i < 3; i++ {
-			m[i*3+i] += prior * n
-		}
-		r, err := cluster.Rotation3(m)
-		if err != nil {
-			return dev, nil, fmt.Errorf("profile: aligning a device: %w", err)
-		}
-		dev.Rotation = r
 	}
 	y := fit.ApplyLoggedInto(buf, x, dev)
 	dev.Offset = make([]float64, dim)
@@ -638,13 +656,56 @@ func fitDevice(fit *normalize.Fit, x []float64, labels []int, centres []float64,
 	return dev, y, nil
 }
 
-// turned is a window's axis means turned by r (3×3 row-major; nil: as read).
-func turned(row []float64, axes []int, r []float64) [3]float64 {
-	x0, x1, x2 := row[axes[0]], row[axes[1]], row[axes[2]]
-	if r == nil {
-		return [3]float64{x0, x1, x2}
+// calibrationRounds is how many times fitDevice alternates the turn and the calibration.
+const calibrationRounds = 3
+
+// calibration is each axis's gain a and offset b that bring a·m + b, the axis means m of the
+// windows as read, nearest the postures of their states turned back into the device's frame
+// (rᵀ p), with the penalty prior·n·((a − 1)² + b²): per axis, the normal equations
+// [Σm² + λ, Σm; Σm, n + λ] [a; b] = [Σmt + λ; Σt] with λ = prior·n.
+func calibration(x []float64, d int, axes []int, labels []int, posture [][]float64, r []float64, prior float64) ([]float64, []float64) {
+	n := float64(len(labels))
+	var smm, sm, st, smt [3]float64
+	for w, l := range labels {
+		m := axisMeans(x[w*d:(w+1)*d], axes)
+		p := posture[l]
+		for i := 0; i < 3; i++ {
+			t := r[i]*p[0] + r[3+i]*p[1] + r[6+i]*p[2] // (rᵀ p)_i
+			smm[i] += m[i] * m[i]
+			sm[i] += m[i]
+			st[i] += t
+			smt[i] += m[i] * t
+		}
 	}
-	return [3]float64{r[0]*x0 + r[1]*x1 + r[2]*x2, r[3]*x0 + r[4]*x1 + r[5]*x2, r[6]*x0 + r[7]*x1 + r[8]*x2}
+	lambda := prior * n
+	scale, offset := make([]float64, 3), make([]float64, 3)
+	for i := 0; i < 3; i++ {
+		a11, a12, a22 := smm[i]+lambda, sm[i], n+lambda
+		b1, b2 := smt[i]+lambda, st[i]
+		det := a11*a22 - a12*a12
+		if !(det > 0) {
+			scale[i] = 1
+			continue
+		}
+		scale[i] = (b1*a22 - a12*b2) / det
+		offset[i] = (a11*b2 - a12*b1) / det
+	}
+	return scale, offset
+}
+
+// axisMeans are a window's axis means (x, y, z) as read.
+func axisMeans(row []float64, axes []int) [3]float64 {
+	return [3]float64{row[axes[0]], row[axes[1]], row[axes[2]]}
+}
+
+// turned is a window's axis means calibrated and turned by the device.
+func turned(row []float64, axes []int, dev normalize.Device) [3]float64 {
+	m := dev.Calibrate(axisMeans(row, axes))
+	r := dev.Rotation
+	if r == nil {
+		return m
+	}
+	return [3]float64{r[0]*m[0] + r[1]*m[1] + r[2]*m[2], r[3]*m[0] + r[4]*m[1] + r[5]*m[2], r[6]*m[0] + r[7]*m[1] + r[8]*m[2]}
 }
 
 // pooled is every unit's normalized windows in one matrix, in unit order.
@@ -815,7 +876,7 @@ func (s *States) alignDevice(fit *normalize.Fit, x []float64) (normalize.Device,
 		if round == s.Rounds || (round > 0 && slices.Equal(before, labels)) {
 			break
 		}
-		if dev, y, err = fitDevice(fit, sub, labels, centres, s.Posture, s.Offsets, s.Prior, y); err != nil {
+		if dev, y, err = fitDevice(fit, sub, labels, centres, s.Posture, s.Offsets, s.Prior, s.Calibrate, y); err != nil {
 			return dev, err
 		}
 		for i := 0; i < len(y); i += dim { // the offsets, on windows already turned
@@ -881,7 +942,7 @@ func (s *States) assignFolded(fit *normalize.Fit, x []float64, dev normalize.Dev
 		}
 		b[c] = bc
 	}
-	buf = fit.ScaledInto(buf, x, normalize.Device{Rotation: dev.Rotation})
+	buf = fit.ScaledInto(buf, x, normalize.Device{Rotation: dev.Rotation, AxisScale: dev.AxisScale, AxisOffset: dev.AxisOffset})
 	n := len(x) / d
 	labels := make([]int, n)
 	for i := 0; i < n; i++ {

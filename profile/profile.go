@@ -101,6 +101,9 @@ type States struct {
 	Offsets []bool      // output columns that carry a participant's offset; nil when the states are not aligned
 	Prior   float64     // pull of a rotation toward none, in windows' worth per window
 	Rounds  int         // most alternations of state assignment and device fit for one participant
+	// Calibrate fits each device's per-axis gain and offset of the axis means beside its turn
+	// (normalize.Device.AxisScale, AxisOffset).
+	Calibrate bool
 	// Fine holds, for states fitted over a range and merged (FitAligned), the largest number of
 	// states as fitted, before any merge; nil otherwise.
 	Fine *States

@@ -380,9 +380,50 @@ func FitSample(ctx context.Context, p *Plan, samples []*SamplePiece) (*FitPiece,
 	if err := checkShards(KindSample, shards, p.Shards); err != nil {
 		return nil, err
 	}
-	sample, err := mergeSamples(p, samples)
+	fp, units, err := fitScaling(ctx, p, samples)
 	if err != nil {
 		return nil, err
+	}
+	step := func(s string) {
+		if o.Progress != nil {
+			o.Progress(s)
+		}
+	}
+	step("fitting movement states")
+	notes, warnings, err := fitStates(ctx, fp, units, o)
+	if err != nil {
+		return nil, err
+	}
+	fp.Notes, fp.Warnings = append(fp.Notes, notes...), warnings
+	d := len(p.Features)
+	// Each feature's ICC(1) once aligned, on the sampled participants' windows; with PCA, on the
+	// features rebuilt from the kept components (an ICC does not change with a shift of the
+	// feature, so the PCA's centre is not added back).
+	icc := normalize.NewICCSum(d)
+	var back []float64
+	for _, x := range units {
+		_, y, _, err := fp.States.AlignUnit(fp.Fit, x, nil)
+		if err != nil {
+			return nil, err
+		}
+		if pc := fp.Fit.PCA; pc != nil {
+			back = rebuild(back, y, pc.Components)
+			y = back
+		}
+		icc.Add(normalize.UnitICCPart(y, d))
+	}
+	fp.Fit.ICCAfter = icc.ICC()
+	return fp, nil
+}
+
+// fitScaling fits the scaling of the align step (log scales, cohort scaling, PCA, the axes it
+// turns) on the merged sample, and returns the fit piece without states and the sampled units'
+// windows.
+func fitScaling(ctx context.Context, p *Plan, samples []*SamplePiece) (*FitPiece, [][]float64, error) {
+	o := p.Options
+	sample, err := mergeSamples(p, samples)
+	if err != nil {
+		return nil, nil, err
 	}
 	fp := &FitPiece{Plan: p}
 	for _, s := range samples {
@@ -404,7 +445,7 @@ func FitSample(ctx context.Context, p *Plan, samples []*SamplePiece) (*FitPiece,
 	first := slices.Concat(p.First...)
 	axes, note, err := findAxesIn(p.Features, first, o.Axes, o.NoAxes)
 	if err != nil {
-		return nil, err
+		return nil, nil, err
 	}
 	norm.Axes = axes
 	if axes != nil && !o.NoTurn {
@@ -420,33 +461,10 @@ func FitSample(ctx context.Context, p *Plan, samples []*SamplePiece) (*FitPiece,
 	}
 	norm.SampleRate, norm.Workers = 1, o.Workers
 	if fp.Fit, err = normalize.FitBlocks(ctx, p.Features, normalize.SliceBlocks(units), norm); err != nil {
-		return nil, err
+		return nil, nil, err
 	}
 	fp.Norm = norm
-	step("fitting movement states")
-	notes, warnings, err := fitStates(ctx, fp, units, o)
-	if err != nil {
-		return nil, err
-	}
-	fp.Notes, fp.Warnings = append(fp.Notes, notes...), warnings
-	// Each feature's ICC(1) once aligned, on the sampled participants' windows; with PCA, on the
-	// features rebuilt from the kept components (an ICC does not change with a shift of the
-	// feature, so the PCA's centre is not added back).
-	icc := normalize.NewICCSum(d)
-	var back []float64
-	for _, x := range units {
-		_, y, _, err := fp.States.AlignUnit(fp.Fit, x, nil)
-		if err != nil {
-			return nil, err
-		}
-		if pc := fp.Fit.PCA; pc != nil {
-			back = rebuild(back, y, pc.Components)
-			y = back
-		}
-		icc.Add(normalize.UnitICCPart(y, d))
-	}
-	fp.Fit.ICCAfter = icc.ICC()
-	return fp, nil
+	return fp, units, nil
 }
 
 // levelUnits is the fewest sampled participants on which chooseStates compares the two levels.

@@ -1,0 +1,342 @@
+package job
+
+import (
+	"context"
+	"encoding/json"
+	"fmt"
+	"math"
+	"os"
+	"path/filepath"
+	"slices"
+	"sort"
+	"strings"
+	"testing"
+
+	"github.com/cohortmix/cohortmix/cluster"
+	"github.com/cohortmix/cohortmix/cluster/mixture"
+	"github.com/cohortmix/cohortmix/cohort"
+	"gonum.org/v1/gonum/mat"
+)
+
+type grouped struct {
+	labels []int
+	k      int
+}
+
+// groupBy runs one candidate grouping model on one fit's counts.
+func groupBy(t *testing.T, method string, ff familyFit, maxK int) grouped {
+	ctx := context.Background()
+	n, s := len(ff.Counts), ff.S
+	switch {
+	case strings.HasPrefix(method, "dmm") || strings.HasPrefix(method, "markov"):
+		var x *mat.Dense
+		var blocks []int
+		if strings.HasPrefix(method, "markov") {
+			x = mat.NewDense(n, s*s, nil)
+			for i, tr := range ff.Trans {
+				for j, v := range tr {
+					x.Set(i, j, float64(v))
+				}
+			}
+			blocks = make([]int, s)
+			for b := range blocks {
+				blocks[b] = s
+			}
+		} else {
+			x = mat.NewDense(n, s, nil)
+			for i, c := range ff.Counts {
+				for j, v := range c {
+					x.Set(i, j, float64(v))
+				}
+			}
+		}
+		crit := "bic"
+		if i := strings.Index(method, "-"); i > 0 {
+			crit = method[i+1:]
+		}
+		var best *mixture.DMM
+		bestV := math.Inf(1)
+		for k := 1; k <= maxK; k++ {
+			m, err := mixture.FitDMM(ctx, x, mixture.DMMOptions{K: k, Blocks: blocks, Starts: 5, Seed: 1})
+			if err != nil {
+				t.Fatalf("%s k=%d: %v", method, k, err)
+			}
+			v := map[string]float64{"bic": m.BIC, "icl": m.ICL, "aic": m.AIC, "lap": m.Laplace}[crit]
+			if v < bestV {
+				best, bestV = m, v
+			}
+		}
+		return grouped{best.Labels, best.K}
+	case strings.HasPrefix(method, "gmm"):
+		y := sqrtEmbedding(ff, strings.Contains(method, "bout"))
+		crit := "bic"
+		if strings.HasSuffix(method, "icl") {
+			crit = "icl"
+		}
+		var best *mixture.Gaussian
+		bestV := math.Inf(1)
+		for k := 1; k <= maxK; k++ {
+			g, err := mixture.FitTiedGaussian(ctx, y, mixture.GaussianOptions{K: k, Starts: 5, Seed: 1})
+			if err != nil {
+				t.Fatalf("%s k=%d: %v", method, k, err)
+			}
+			v := g.BIC
+			if crit == "icl" {
+				v = g.ICL
+			}
+			if v < bestV {
+				best, bestV = g, v
+			}
+		}
+		return grouped{best.Labels, best.K}
+	case method == "ward":
+		shares := make([][]float64, n)
+		for i, c := range ff.Counts {
+			shares[i] = make([]float64, s)
+			var tot float64
+			for _, v := range c {
+				tot += float64(v)
+			}
+			for j, v := range c {
+				shares[i][j] = float64(v) / tot
+			}
+		}
+		g, err := cohort.GroupSignatures(ctx, shares, cohort.GroupOptions{Method: cohort.WardHellinger, Groups: []int{2, 3, 4, 5, 6, 7, 8}, Criterion: cohort.ByGapSteady, Seed: 1})
+		if err != nil {
+			t.Fatal(err)
+		}
+		return grouped{g.Labels, g.K}
+	}
+	t.Fatalf("no method %s", method)
+	return grouped{}
+}
+
+// sqrtEmbedding is each unit's square-root shares on the principal axes that carry variance
+// (the sphere's normal carries none), with the log of its mean bout length beside them when
+// bout is set.
+func sqrtEmbedding(ff familyFit, bout bool) *mat.Dense {
+	n, s := len(ff.Counts), ff.S
+	x := mat.NewDense(n, s, nil)
+	for i, c := range ff.Counts {
+		var tot float64
+		for _, v := range c {
+			tot += float64(v)
+		}
+		for j, v := range c {
+			x.Set(i, j, math.Sqrt(float64(v)/tot))
+		}
+	}
+	pca, err := cluster.FitPCA(x, cluster.PCAOptions{})
+	if err != nil {
+		panic(err)
+	}
+	z, _ := pca.Transform(x)
+	keep := 0
+	for _, ev := range pca.Variance {
+		if ev > 1e-9*pca.Variance[0] {
+			keep++
+		}
+	}
+	keep = min(keep, s-1)
+	cols := keep
+	if bout {
+		cols++
+	}
+	y := mat.NewDense(n, cols, nil)
+	for i := 0; i < n; i++ {
+		for j := 0; j < keep; j++ {
+			y.Set(i, j, z.At(i, j))
+		}
+		if bout {
+			var runs, tot float64
+			for a := 0; a < s; a++ {
+				for b := 0; b < s; b++ {
+					v := float64(ff.Trans[i][a*s+b])
+					tot += v
+					if a != b {
+						runs += v
+					}
+				}
+			}
+			y.Set(i, keep, math.Log((tot+1)/(runs+1)))
+		}
+	}
+	return y
+}
+
+// cachedGroupings are one model's groupings of one dump at every number of states and fit,
+// keyed "S/fit".
+type cachedGroupings map[string]grouped2
+
+type grouped2 struct {
+	Labels []int
+	K      int
+}
+
+func groupingsOf(t *testing.T, dir string, d *familyDump, method string) cachedGroupings {
+	path := filepath.Join(dir, "cache", fmt.Sprintf("%s-%04d-%s.json", d.Family, d.Seed, method))
+	if b, err := os.ReadFile(path); err == nil {
+		var c cachedGroupings
+		if json.Unmarshal(b, &c) == nil {
+			return c
+		}
+	}
+	c := cachedGroupings{}
+	for _, ff := range d.Fits {
+		if ff.S < 3 {
+			continue
+		}
+		g := groupBy(t, method, ff, 8)
+		c[fmt.Sprintf("%d/%d", ff.S, ff.Fit)] = grouped2{g.labels, g.k}
+	}
+	os.MkdirAll(filepath.Join(dir, "cache"), 0o755)
+	b, _ := json.Marshal(c)
+	os.WriteFile(path, b, 0o644)
+	return c
+}
+
+func TestFamiliesEval(t *testing.T) {
+	if *familiesEval == "" {
+		t.Skip("pass -families.eval DIR")
+	}
+	dumps := readFamilyDumps(t, *familiesEval)
+	methods := strings.Split(*familiesMethods, ",")
+	type key struct{ family, column string }
+	aris := map[key][]float64{}
+	var fams, cols []string
+	addCol := func(c string) {
+		if !slices.Contains(cols, c) {
+			cols = append(cols, c)
+		}
+	}
+	var b strings.Builder
+	// Every dump and model is grouped side by side, then reported in order.
+	type job struct {
+		d *familyDump
+		m string
+	}
+	var jobs []job
+	for _, d := range dumps {
+		for _, m := range methods {
+			jobs = append(jobs, job{d, m})
+		}
+	}
+	got := make([]cachedGroupings, len(jobs))
+	cluster.Each(len(jobs), 0, func(i int) { got[i] = groupingsOf(t, *familiesEval, jobs[i].d, jobs[i].m) })
+	for i, jb := range jobs {
+		d, m, c := jb.d, jb.m, got[i]
+		if !slices.Contains(fams, d.Family) {
+			fams = append(fams, d.Family)
+		}
+		if i%len(methods) == 0 {
+			fmt.Fprintf(&b, "\n%-7s %4d K=%d S=%d defaults %.2f (%d,%d)", d.Family, d.Seed, d.TrueGroups, d.TrueStates, d.DefaultsARI, d.DefaultsS, d.DefaultsK)
+			addCol("defaults")
+			aris[key{d.Family, "defaults"}] = append(aris[key{d.Family, "defaults"}], d.DefaultsARI)
+		}
+		score := func(col string, labels []int) float64 {
+			a := adjustedRand(d.Want, labels)
+			addCol(col)
+			aris[key{d.Family, col}] = append(aris[key{d.Family, col}], a)
+			return a
+		}
+		fmt.Fprintf(&b, " | %s:", m)
+		trueS := min(max(d.TrueStates, 3), 12)
+		fmt.Fprintf(&b, " trueS %.2f", score(m+" trueS", c[fmt.Sprintf("%d/0", trueS)].Labels))
+		best := -1.0
+		for s := 3; s <= 12; s++ {
+			best = max(best, adjustedRand(d.Want, c[fmt.Sprintf("%d/0", s)].Labels))
+		}
+		score(m+" bestS", nil2(best))
+		for _, r := range consensusRules {
+			labels, note := r.choose(c)
+			fmt.Fprintf(&b, " %s %.2f%s", r.name, score(m+" "+r.name, labels), note)
+		}
+	}
+	sort.Strings(fams)
+	fmt.Fprintf(&b, "\n\n%-8s", "family")
+	for _, c := range cols {
+		fmt.Fprintf(&b, " %-16s", c)
+	}
+	b.WriteString("\n")
+	for _, f := range fams {
+		fmt.Fprintf(&b, "%-8s", f)
+		for _, c := range cols {
+			a := aris[key{f, c}]
+			fmt.Fprintf(&b, " %-16s", fmt.Sprintf("%.3f/%.2f", mean(a), minOf(a)))
+		}
+		b.WriteString("\n")
+	}
+	t.Log("\n" + b.String())
+}
+
+func nil2(v float64) []int { return []int{-1, int(math.Round(v * 1e6))} }
+
+type consensusRule struct {
+	name   string
+	choose func(c cachedGroupings) ([]int, string)
+}
+
+// consensusRules are the candidate rules that take one grouping from all of a dump's groupings.
+var consensusRules = []consensusRule{
+	{"med4-12", func(c cachedGroupings) ([]int, string) { return medoidOver(c, 4, 12, 3) }},
+	{"med3-8", func(c cachedGroupings) ([]int, string) { return medoidOver(c, 3, 8, 3) }},
+	{"med4-10", func(c cachedGroupings) ([]int, string) { return medoidOver(c, 4, 10, 3) }},
+	{"S6", func(c cachedGroupings) ([]int, string) { return c["6/0"].Labels, "" }},
+	{"S8", func(c cachedGroupings) ([]int, string) { return c["8/0"].Labels, "" }},
+}
+
+// medoidOver is the grouping that agrees best (sum of ARI) with all groupings at lo…hi states
+// and fits below fits.
+func medoidOver(c cachedGroupings, lo, hi, fits int) ([]int, string) {
+	var all [][]int
+	var names []string
+	for s := lo; s <= hi; s++ {
+		for r := 0; r < fits; r++ {
+			if g, ok := c[fmt.Sprintf("%d/%d", s, r)]; ok {
+				all = append(all, g.Labels)
+				names = append(names, fmt.Sprintf("%d/%d", s, r))
+			}
+		}
+	}
+	best, bestSum := 0, math.Inf(-1)
+	for i := range all {
+		var sum float64
+		for j := range all {
+			if i != j {
+				sum += adjustedRand(all[i], all[j])
+			}
+		}
+		if sum > bestSum {
+			best, bestSum = i, sum
+		}
+	}
+	return all[best], fmt.Sprintf("(%s k%d)", names[best], slices.Max(all[best])+1)
+}
+
+// adjustedRand is the ARI, with two one-group labelings agreeing fully (1) and a one-group
+// labeling against a grouped one 0.
+func adjustedRand(a, b []int) float64 {
+	if len(b) == 2 && b[0] == -1 {
+		return float64(b[1]) / 1e6 // a score given directly (nil2)
+	}
+	if slices.Max(a) == slices.Min(a) && slices.Max(b) == slices.Min(b) {
+		return 1
+	}
+	v, _ := cluster.AdjustedRand(a, b)
+	return v
+}
+
+func mean(xs []float64) float64 {
+	var s float64
+	for _, x := range xs {
+		s += x
+	}
+	return s / math.Max(1, float64(len(xs)))
+}
+
+func minOf(xs []float64) float64 {
+	if len(xs) == 0 {
+		return math.NaN()
+	}
+	return slices.Min(xs)
+}

@@ -1,0 +1,211 @@
+package job
+
+import (
+	"context"
+	"encoding/json"
+	"flag"
+	"fmt"
+	"os"
+	"path/filepath"
+	"strings"
+	"testing"
+	"time"
+
+	"github.com/cohortmix/cohortmix/cluster"
+	"github.com/cohortmix/cohortmix/cohort"
+	"github.com/cohortmix/cohortmix/cohort/synth"
+	"github.com/cohortmix/cohortmix/profile"
+)
+
+// The families study: members of every scenario family, with the movement states fitted at
+// each number of states from several random starts, dumped for choosing the grouping model and
+// the rule for the number of states away from the job (a developer's aid).
+var familiesSet = flag.String("families", "", "dump the families study: family:first-last[,family:first-last…]")
+var familiesDump = flag.String("families.dump", "", "folder to dump the families study to")
+var familiesFits = flag.Int("families.fits", 3, "fits from different random starts at each number of states")
+var familiesNoCal = flag.Bool("families.nocal", false, "fit the states without calibrating the devices")
+
+type familyFit struct {
+	S, Fit        int
+	Counts        [][]int   // per unit, windows in each state
+	Trans         [][]int   // per unit, S×S transitions between consecutive windows (row-major)
+	SampleCounts  [][]int   // per sampled unit, its sampled windows in each state
+	WindowARI     float64   // states against the planted states over all windows
+	Seconds       float64   // time to fit
+	Centroids     []float64 // the states' centres
+	AssignSeconds float64
+}
+
+type familyDump struct {
+	Family       string
+	Seed         uint64
+	TrueGroups   int
+	TrueStates   int
+	Want         []int // planted group of each unit, in the table's order
+	Windows      []int
+	Sampled      []int // the sampled units, by index in the table
+	DefaultsARI  float64
+	DefaultsK    int
+	DefaultsS    int
+	DefaultsSecs float64
+	Fits         []familyFit
+}
+
+func TestFamiliesDump(t *testing.T) {
+	if *familiesSet == "" || *familiesDump == "" {
+		t.Skip("pass -families family:first-last -families.dump DIR")
+	}
+	for _, part := range strings.Split(*familiesSet, ",") {
+		var name string
+		var lo, hi uint64
+		if _, err := fmt.Sscanf(strings.Replace(part, ":", " ", 1), "%s %d-%d", &name, &lo, &hi); err != nil {
+			t.Fatalf("%s: %v", part, err)
+		}
+		fam, err := synth.ParseFamily(name)
+		if err != nil {
+			t.Fatal(err)
+		}
+		for seed := lo; seed <= hi; seed++ {
+			out := filepath.Join(*familiesDump, fmt.Sprintf("%s-%04d.json", fam, seed))
+			if _, err := os.Stat(out); err == nil {
+				continue
+			}
+			d := dumpFamilyMember(t, fam, seed)
+			b, err := json.Marshal(d)
+			if err != nil {
+				t.Fatal(err)
+			}
+			if err := os.WriteFile(out, b, 0o644); err != nil {
+				t.Fatal(err)
+			}
+			t.Logf("%s %d: defaults ARI %.3f (%d states, %d groups; planted %d, %d)", fam, seed, d.DefaultsARI, d.DefaultsS, d.DefaultsK, d.TrueStates, d.TrueGroups)
+		}
+	}
+}
+
+func dumpFamilyMember(t *testing.T, fam synth.Family, seed uint64) *familyDump {
+	ctx := context.Background()
+	path := filepath.Join(t.TempDir(), "scenario.csv")
+	so := synth.Options{Scenario: seed, Family: fam, Seed: seed, Participants: 200, Windows: 2016, Labels: true}
+	truth, err := synth.WriteFile(path, so)
+	if err != nil {
+		t.Fatal(err)
+	}
+	sc, _ := synth.DrawFamily(fam, seed)
+	o := Defaults(path)
+	o.Read.Label = "activity"
+	o.NoSensitivity = true
+	tab, err := cohort.Read(ctx, []string{path}, o.Read)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer tab.Close()
+	byID := map[string]int{}
+	for _, tr := range truth {
+		byID[tr.ID] = tr.Group
+	}
+	d := &familyDump{Family: string(fam), Seed: seed, TrueGroups: len(sc.Groups), TrueStates: len(truth[0].Shares)}
+	for _, u := range tab.Units {
+		d.Want = append(d.Want, byID[u.ID])
+		d.Windows = append(d.Windows, u.Windows())
+	}
+	start := time.Now()
+	f, err := FitTable(ctx, tab, o)
+	if err != nil {
+		t.Fatal(err)
+	}
+	d.DefaultsSecs = time.Since(start).Seconds()
+	d.DefaultsARI, _ = cluster.AdjustedRand(d.Want, f.Grouping.Labels)
+	d.DefaultsK, d.DefaultsS = f.Grouping.K, f.States.K
+	c, err := CensusOf(tab, o)
+	if err != nil {
+		t.Fatal(err)
+	}
+	plan, err := MergeCensus([]*Census{c})
+	if err != nil {
+		t.Fatal(err)
+	}
+	sp, err := SampleOf(tab, plan, cohort.Shard{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	fp, units, err := fitScaling(ctx, plan, []*SamplePiece{sp})
+	if err != nil {
+		t.Fatal(err)
+	}
+	sample, err := mergeSamples(plan, []*SamplePiece{sp})
+	if err != nil {
+		t.Fatal(err)
+	}
+	d.Sampled = sample.index
+	for s := 2; s <= 12; s++ {
+		for r := 0; r < *familiesFits; r++ {
+			start := time.Now()
+			st, err := profile.FitAligned(ctx, units, fp.Fit, profile.AlignOptions{States: []int{s}, Seed: cluster.SubSeed(o.Seed, "fit", r), Calibrate: !*familiesNoCal})
+			if err != nil {
+				t.Fatal(err)
+			}
+			ff := familyFit{S: st.K, Fit: r, Seconds: time.Since(start).Seconds(), Centroids: st.Centroids.RawMatrix().Data}
+			start = time.Now()
+			lc := profile.NewLabelCounter(st.K)
+			for u := range tab.Units {
+				x, err := tab.Block(u, nil)
+				if err != nil {
+					t.Fatal(err)
+				}
+				_, lab, _, err := st.AssignUnit(fp.Fit, x, nil)
+				if err != nil {
+					t.Fatal(err)
+				}
+				cnt := make([]int, st.K)
+				tr := make([]int, st.K*st.K)
+				for w, l := range lab {
+					cnt[l]++
+					if w > 0 {
+						tr[lab[w-1]*st.K+l]++
+					}
+				}
+				ff.Counts, ff.Trans = append(ff.Counts, cnt), append(ff.Trans, tr)
+				lc.Add(lab, tab.Units[u].Labels)
+			}
+			ff.AssignSeconds = time.Since(start).Seconds()
+			if lt, err := lc.Table(); err == nil {
+				ff.WindowARI = lt.ARI
+			}
+			for _, x := range units {
+				_, _, lab, err := st.AlignUnit(fp.Fit, x, nil)
+				if err != nil {
+					t.Fatal(err)
+				}
+				cnt := make([]int, st.K)
+				for _, l := range lab {
+					cnt[l]++
+				}
+				ff.SampleCounts = append(ff.SampleCounts, cnt)
+			}
+			d.Fits = append(d.Fits, ff)
+		}
+	}
+	return d
+}
+
+var familiesEval = flag.String("families.eval", "", "evaluate grouping models on the families study dumped in this folder")
+var familiesMethods = flag.String("families.methods", "dmm,gmm,ward", "grouping models to evaluate")
+var familiesS = flag.String("families.s", "4,6,8,12", "numbers of states to evaluate")
+
+func readFamilyDumps(t *testing.T, dir string) []*familyDump {
+	files, _ := filepath.Glob(filepath.Join(dir, "*.json"))
+	var out []*familyDump
+	for _, f := range files {
+		b, err := os.ReadFile(f)
+		if err != nil {
+			t.Fatal(err)
+		}
+		var d familyDump
+		if err := json.Unmarshal(b, &d); err != nil {
+			t.Fatal(err)
+		}
+		out = append(out, &d)
+	}
+	return out
+}
