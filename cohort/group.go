@@ -11,6 +11,7 @@ import (
 	"strings"
 
 	"github.com/cohortmix/cohortmix/cluster"
+	"github.com/cohortmix/cohortmix/cluster/mixture"
 	"gonum.org/v1/gonum/mat"
 )
 
@@ -23,6 +24,10 @@ const (
 	PAMJensenShannon               // k-medoids on the Jensen–Shannon distance
 	KMeansCLR                      // k-means on the centred log-ratios
 	Auto                           // Ward on Hellinger up to LargeCohort participants, k-means on CLR above
+	// Mixture is a Dirichlet-multinomial mixture of the participants' bouts in each state and of
+	// how often their windows start a bout (see BoutTable), its number of groups, one among them,
+	// by an information criterion (ByBIC or ByICL).
+	Mixture
 )
 
 // LargeCohort is the number of participants above which Auto switches from Ward (O(n²) time per
@@ -44,6 +49,7 @@ var methods = []struct {
 	m Method
 	method
 }{
+	{Mixture, method{name: "mixture", help: "a Dirichlet-multinomial mixture of each participant's bouts in each state and how often a window starts one; one group is a possible answer"}},
 	{Auto, method{name: "auto", help: "ward-hellinger, or kmeans-clr above 10,000 participants"}},
 	{WardHellinger, method{name: "ward-hellinger", help: "Ward linkage on the Hellinger embedding", tree: true}},
 	{PAMAitchison, method{name: "pam-aitchison", help: "k-medoids on the Aitchison distance", clr: true, medoids: true}},
@@ -97,6 +103,11 @@ const (
 	// stability below UnstableGrouping), the largest smaller number whose grouping is not; it
 	// keeps ByGapStable's number when no smaller one is stable.
 	ByGapSteady
+	// ByBIC and ByICL choose the mixture method's number of groups by the smallest Bayesian
+	// information criterion (Schwarz 1978) or integrated completed likelihood (Biernacki,
+	// Celeux & Govaert 2000), which adds to the BIC the entropy of the memberships.
+	ByBIC
+	ByICL
 )
 
 // StableStep is how much more stable (mean bootstrap ARI, Lange et al. 2004) the grouping with
@@ -106,7 +117,7 @@ const (
 // rarely taken on resampling noise.
 const StableStep = 0.1
 
-var criterionNames = map[Criterion]string{ByStability: "stability", ByGap: "gap", BySilhouette: "silhouette", ByGapStable: "gap-stable", ByGapSteady: "gap-steady"}
+var criterionNames = map[Criterion]string{ByStability: "stability", ByGap: "gap", BySilhouette: "silhouette", ByGapStable: "gap-stable", ByGapSteady: "gap-steady", ByBIC: "bic", ByICL: "icl"}
 
 func (c Criterion) String() string { return criterionNames[c] }
 
@@ -117,13 +128,13 @@ func ParseCriterion(s string) (Criterion, error) {
 			return c, nil
 		}
 	}
-	return 0, fmt.Errorf("cohort: criterion %q: %w; use gap-steady, gap-stable, gap, stability or silhouette", s, ErrBadOption)
+	return 0, fmt.Errorf("cohort: criterion %q: %w; use bic or icl (the mixture method), or gap-steady, gap-stable, gap, stability or silhouette", s, ErrBadOption)
 }
 
 // GroupOptions sets up GroupSignatures.
 type GroupOptions struct {
 	Method    Method
-	Groups    []int     // candidate numbers of groups, increasing (required)
+	Groups    []int     // candidate numbers of groups, increasing (required); 1 allowed for the mixture method
 	Criterion Criterion // used when Groups has more than one value
 	Bootstrap int       // resamples for stability and references for the gap; 0 means 20
 	Seed      uint64
@@ -132,9 +143,12 @@ type GroupOptions struct {
 	// while some pair of its groups forms one mode: the density of the pair's participants along
 	// the line joining their centres keeps at least this share of its height between them
 	// (cluster.Valley; the states' merging rule, after Hennig 2010, applied to groups).
-	Valley   float64
-	Workers  int
-	Progress func(step string, done, total int) // after each grouping, reference set and resample; may be nil
+	Valley float64
+	// Counts and Bouts are each participant's windows and bouts in each state, which the mixture
+	// method groups (BoutTable); the other methods do not use them.
+	Counts, Bouts [][]float64
+	Workers       int
+	Progress      func(step string, done, total int) // after each grouping, reference set and resample; may be nil
 }
 
 // report tells opts.Progress, if set, that done of total of a step are finished.
@@ -153,6 +167,8 @@ type KScore struct {
 	// StabilitySE is the standard error of Stability, the resamples' standard deviation over
 	// the square root of their number.
 	StabilitySE float64
+	// BIC, ICL and LogLik are the mixture method's (NaN for the others).
+	BIC, ICL, LogLik float64
 }
 
 // Grouping is the frozen grouping of participants.
@@ -169,6 +185,12 @@ type Grouping struct {
 	Tree         *cluster.Tree // the participants' dendrogram, for Ward
 	CentroidTree *cluster.Tree // average linkage of the group centres, for a dendrogram of the groups
 	Stability    *GroupStability
+	// Mixture is the mixture method's frozen model, its components in the groups' order; nil
+	// for the other methods.
+	Mixture *mixture.DMM
+	// Posterior is each participant's posterior probability of its group under the mixture (nil
+	// for the other methods).
+	Posterior []float64
 }
 
 // Embed maps a signature (shares) into the grouping space of the method.
@@ -206,12 +228,28 @@ func SpaceDistance(m Method, a, b []float64) float64 {
 func GroupSignatures(ctx context.Context, shares [][]float64, opts GroupOptions) (*Grouping, error) {
 	n := len(shares)
 	if len(opts.Groups) == 0 {
-		return nil, fmt.Errorf("cohort: no number of groups given: %w; set cohort.GroupOptions.Groups to 3 or a range such as 2-8", ErrBadOption)
+		return nil, fmt.Errorf("cohort: no number of groups given: %w; set cohort.GroupOptions.Groups to 3 or a range such as 1-8", ErrBadOption)
+	}
+	least := 2
+	if opts.Method == Mixture {
+		least = 1
 	}
 	for i, k := range opts.Groups {
-		if k < 2 || (i > 0 && k <= opts.Groups[i-1]) {
-			return nil, fmt.Errorf("cohort: groups %v: %w; give increasing numbers ≥ 2", opts.Groups, ErrBadOption)
+		if k < least || (i > 0 && k <= opts.Groups[i-1]) {
+			return nil, fmt.Errorf("cohort: groups %v: %w; give increasing numbers ≥ %d", opts.Groups, ErrBadOption, least)
 		}
+	}
+	if opts.Bootstrap == 0 {
+		opts.Bootstrap = 20
+	}
+	if opts.Method == Mixture {
+		if n < 2 {
+			return nil, fmt.Errorf("cohort: %d participants to group: %w; grouping needs at least 2", n, ErrTooFew)
+		}
+		return groupMixture(ctx, shares, opts)
+	}
+	if opts.Criterion == ByBIC || opts.Criterion == ByICL {
+		return nil, fmt.Errorf("cohort: criterion %s is the mixture method's; %s chooses by gap-steady, gap-stable, gap, stability or silhouette: %w", opts.Criterion, opts.Method, ErrBadOption)
 	}
 	if maxK := opts.Groups[len(opts.Groups)-1]; maxK > n-1 {
 		return nil, fmt.Errorf("cohort: %d groups asked for but %d participants are grouped: %w; lower cohort.GroupOptions.Groups to at most %d", maxK, n, ErrTooFew, max(2, n-1))

@@ -23,6 +23,9 @@ type GroupStability struct {
 	// group that best matches its own; NaN when no resample drew it (or it was outside the
 	// sample the criteria are computed on, above LargeCohort participants).
 	Stay []float64
+	// ARI is the mean adjusted Rand index between the groups and those found anew, over the
+	// resamples (Lange et al. 2004): the stability of the grouping as a whole.
+	ARI float64
 }
 
 // UnstableJaccard is the stability below which a group is flagged as not holding.
@@ -62,6 +65,22 @@ func (g *Grouping) Score(k int) (s KScore, ok bool) {
 // Anal. 52:258–271.
 func groupStability(ctx context.Context, x *mat.Dense, dist *cluster.Condensed, lab []int, k int, opts GroupOptions) (*GroupStability, error) {
 	n, _ := x.Dims()
+	if n > LargeCohort {
+		dist = nil
+	}
+	return resampleStability(ctx, n, lab, k, opts, func(idx []int, b int) ([]int, error) {
+		sub, subDist := subsetRows(x, dist, idx, opts.Method)
+		cut, err := newCutter(ctx, opts.Method, sub, subDist, GroupOptions{Seed: cluster.SubSeed(opts.Seed, "stability grouping", b), Workers: opts.Workers})
+		if err != nil {
+			return nil, err
+		}
+		return cut(k)
+	})
+}
+
+// resampleStability is groupStability with the regrouping of a resample given: regroup(idx, b)
+// groups the participants idx (resample b) again into k groups.
+func resampleStability(ctx context.Context, n int, lab []int, k int, opts GroupOptions, regroup func(idx []int, b int) ([]int, error)) (*GroupStability, error) {
 	st := &GroupStability{Resamples: opts.Bootstrap, Jaccard: make([]float64, k), Stay: make([]float64, n)}
 	rows := make([]int, n) // the participants resampled from
 	for i := range rows {
@@ -71,12 +90,12 @@ func groupStability(ctx context.Context, x *mat.Dense, dist *cluster.Condensed, 
 		rng := rand.New(rand.NewPCG(cluster.SubSeed(opts.Seed, "stability sample", 0), 1))
 		perm := rng.Perm(n)[:LargeCohort]
 		rows = perm
-		dist = nil
 	}
 	m := len(rows)
 	drawn := make([]float64, n)
 	stayed := make([]float64, n)
 	counted := make([]float64, k)
+	resamples := 0
 	// Each resample is drawn and grouped again on its own (side by side, each from its own
 	// seed); the matching and the sums are made in resample order, so they are the same on any
 	// number of cores.
@@ -99,12 +118,7 @@ func groupStability(ctx context.Context, x *mat.Dense, dist *cluster.Condensed, 
 		if len(idx) <= k {
 			return regrouped{}, nil
 		}
-		sub, subDist := subsetRows(x, dist, idx, opts.Method)
-		cut, err := newCutter(ctx, opts.Method, sub, subDist, GroupOptions{Seed: cluster.SubSeed(opts.Seed, "stability grouping", b), Workers: opts.Workers})
-		if err != nil {
-			return regrouped{}, err
-		}
-		again, err := cut(k)
+		again, err := regroup(idx, b)
 		return regrouped{idx, again}, err
 	}, func(b int, rg regrouped) error {
 		defer opts.report("stability of each group: resamples", b+1, opts.Bootstrap)
@@ -138,16 +152,29 @@ func groupStability(ctx context.Context, x *mat.Dense, dist *cluster.Condensed, 
 			st.Jaccard[c] += bj
 			counted[c]++
 		}
+		orig2 := make([]int, len(idx))
 		for r, i := range idx {
 			drawn[i]++
+			orig2[r] = lab[i]
 			if again[r] == best[lab[i]] {
 				stayed[i]++
 			}
 		}
+		ari, err := cluster.AdjustedRand(orig2, again)
+		if err != nil || math.IsNaN(ari) {
+			ari = 1 // one group both times: the same grouping
+		}
+		st.ARI += ari
+		resamples++
 		return nil
 	})
 	if err != nil {
 		return nil, err
+	}
+	if resamples > 0 {
+		st.ARI /= float64(resamples)
+	} else {
+		st.ARI = math.NaN()
 	}
 	for c := range st.Jaccard {
 		if counted[c] > 0 {

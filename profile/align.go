@@ -22,8 +22,8 @@ type AlignOptions struct {
 	Rounds   int     // alternations of device and state updates after each seeding; 0 means 10
 	Twins    int     // most tries at folding two states that no participant uses both of (see foldTwins); 0 means 3, −1 none
 	Prior    float64 // pull of each rotation toward none, and of each calibration toward none, in windows' worth per window; 0 means 0.01
-	// Calibrate fits each device's per-axis gain and offset of the axis means before its turn
-	// (normalize.Device.AxisScale, AxisOffset).
+	// Calibrate calibrates each device's axis means on its own windows before they are turned
+	// (normalize.SphereCalibration: a per-axis gain and offset, van Hees et al. 2014).
 	Calibrate bool
 	Valley    float64 // see MergeStates; 0 means DefaultValley
 	Seed      uint64
@@ -116,6 +116,14 @@ func FitAligned(ctx context.Context, units [][]float64, fit *normalize.Fit, opts
 	}
 	logged := make([][]float64, len(units))
 	cluster.Each(len(units), opts.Workers, func(u int) { logged[u] = fit.LogInto(nil, units[u]) })
+	// Each device's calibration, once, on its own windows (normalize.SphereCalibration).
+	var cal []normalize.Device
+	var gravity float64
+	if opts.Calibrate && fit.Axes != nil {
+		gravity = gravityOf(logged, d, fit.Axes)
+		cal = make([]normalize.Device, len(logged))
+		cluster.Each(len(logged), opts.Workers, func(u int) { cal[u] = calibrate(logged[u], d, fit.Axes, gravity) })
+	}
 	steps := opts.Starts * (1 + opts.Reseeds)
 	if len(opts.States) > 1 {
 		steps += kmax - opts.States[0]
@@ -134,7 +142,13 @@ func FitAligned(ctx context.Context, units [][]float64, fit *normalize.Fit, opts
 	}
 	for start := 0; start < opts.Starts; start++ {
 		b := newAligner(fit, logged, opts.Prior, opts.Workers)
-		b.calibrate = opts.Calibrate
+		if cal != nil {
+			b.cal = cal
+			for u := range b.devs {
+				b.devs[u] = cal[u]
+			}
+			b.transform()
+		}
 		if start == 1 {
 			b.medianOffsets()
 			b.transform()
@@ -153,10 +167,10 @@ func FitAligned(ctx context.Context, units [][]float64, fit *normalize.Fit, opts
 	if _, err := a.foldTwins(ctx, opts); err != nil {
 		return nil, err
 	}
-	s := &States{Sampled: total, Offsets: a.offsets, Prior: opts.Prior, Rounds: opts.Rounds, Calibrate: a.calibrate, Rule: "fixed"}
+	s := &States{Sampled: total, Offsets: a.offsets, Prior: opts.Prior, Rounds: opts.Rounds, Calibrate: cal != nil, Gravity: gravity, Rule: "fixed"}
 	if len(opts.States) > 1 {
 		// The states as fitted, before any merge: the caller may keep them (States.Fine).
-		fine := &States{K: a.k, Sampled: total, Offsets: a.offsets, Prior: opts.Prior, Rounds: opts.Rounds, Calibrate: a.calibrate,
+		fine := &States{K: a.k, Sampled: total, Offsets: a.offsets, Prior: opts.Prior, Rounds: opts.Rounds, Calibrate: cal != nil, Gravity: gravity,
 			Rule: fmt.Sprintf("%d states fitted with each device aligned", a.k)}
 		fine.Centroids, fine.Posture = orderAligned(mat.NewDense(a.k, dim, slices.Clone(a.centres)), clonePosture(a.posture))
 		s.Fine = fine
@@ -465,7 +479,7 @@ func offsetColumns(fit *normalize.Fit) []bool {
 // aligner holds the block coordinate descent of FitAligned.
 type aligner struct {
 	fit       *normalize.Fit
-	calibrate bool
+	cal       []normalize.Device // each unit's calibration (normalize.SphereCalibration); nil: none
 	units     [][]float64
 	d, dim, k int
 	prior     float64
@@ -575,7 +589,11 @@ func (a *aligner) recentre() {
 func (a *aligner) updateDevices() error {
 	errs := make([]error, len(a.units))
 	a.each(func(u int) {
-		a.devs[u], a.ys[u], errs[u] = fitDevice(a.fit, a.units[u], a.labels[u], a.centres, a.posture, a.offsets, a.prior, a.calibrate, a.ys[u])
+		var cal normalize.Device
+		if a.cal != nil {
+			cal = a.cal[u]
+		}
+		a.devs[u], a.ys[u], errs[u] = fitDevice(a.fit, a.units[u], a.labels[u], a.centres, a.posture, a.offsets, a.prior, cal, a.ys[u])
 	})
 	for _, err := range errs {
 		if err != nil {
@@ -604,45 +622,34 @@ func (a *aligner) centreOffsets() {
 }
 
 // fitDevice finds one participant's device from its windows x (on their log scales) and their
-// states: the rotation that best turns its axis means onto its states' postures (Kabsch, pulled
-// toward none by prior), and with calibrate, alternately with it, each axis's gain and offset
-// that bring its axis means, so turned, nearest its states' postures (a least-squares line per
-// axis, pulled toward gain 1 and offset 0 by prior: the autocalibration model of van Hees et
-// al. 2014, with the states' postures for the unit sphere); then the mean residual of its
-// windows, so calibrated and turned, from their states' centres on the offset columns. It
-// returns the device and the windows normalized with its calibration and rotation but without
-// its offsets, in buf (reused).
-func fitDevice(fit *normalize.Fit, x []float64, labels []int, centres []float64, posture [][]float64, offsets []bool, prior float64, calibrate bool, buf []float64) (normalize.Device, []float64, error) {
+// states: the rotation that best turns its axis means, calibrated by cal (a device whose
+// AxisScale and AxisOffset only are used; the zero Device for none), onto its states'
+// postures (Kabsch, pulled toward none by prior); then the mean residual of its windows, so
+// calibrated and turned, from their states' centres on the offset columns. It returns the
+// device (with cal's calibration) and the windows normalized with its calibration and rotation
+// but without its offsets, in buf (reused).
+func fitDevice(fit *normalize.Fit, x []float64, labels []int, centres []float64, posture [][]float64, offsets []bool, prior float64, cal normalize.Device, buf []float64) (normalize.Device, []float64, error) {
 	d, dim := len(fit.Features), fit.OutDim()
-	var dev normalize.Device
+	dev := normalize.Device{AxisScale: cal.AxisScale, AxisOffset: cal.AxisOffset}
 	n := float64(len(labels))
 	if fit.Axes != nil && posture != nil {
-		tries := 1
-		if calibrate {
-			tries = calibrationRounds
-		}
-		for try := 0; try < tries; try++ {
-			m := make([]float64, 9)
-			for w, l := range labels {
-				c := dev.Calibrate(axisMeans(x[w*d:(w+1)*d], fit.Axes))
-				for i := 0; i < 3; i++ {
-					for j := 0; j < 3; j++ {
-						m[i*3+j] += posture[l][i] * c[j]
-					}
+		m := make([]float64, 9)
+		for w, l := range labels {
+			c := dev.Calibrate(axisMeans(x[w*d:(w+1)*d], fit.Axes))
+			for i := 0; i < 3; i++ {
+				for j := 0; j < 3; j++ {
+					m[i*3+j] += posture[l][i] * c[j]
 				}
 			}
-			for i := 0; i < 3; i++ {
-				m[i*3+i] += prior * n
-			}
-			r, err := cluster.Rotation3(m)
-			if err != nil {
-				return dev, nil, fmt.Errorf("profile: aligning a device: %w", err)
-			}
-			dev.Rotation = r
-			if calibrate {
-				dev.AxisScale, dev.AxisOffset = calibration(x, d, fit.Axes, labels, posture, r, prior)
-			}
 		}
+		for i := 0; i < 3; i++ {
+			m[i*3+i] += prior * n
+		}
+		r, err := cluster.Rotation3(m)
+		if err != nil {
+			return dev, nil, fmt.Errorf("profile: aligning a device: %w", err)
+		}
+		dev.Rotation = r
 	}
 	y := fit.ApplyLoggedInto(buf, x, dev)
 	dev.Offset = make([]float64, dim)
@@ -656,41 +663,35 @@ func fitDevice(fit *normalize.Fit, x []float64, labels []int, centres []float64,
 	return dev, y, nil
 }
 
-// calibrationRounds is how many times fitDevice alternates the turn and the calibration.
-const calibrationRounds = 3
+// calibrate is a participant's calibration of its axis means (normalize.SphereCalibration) on
+// its windows x (row-major, d features), as a Device with only AxisScale and AxisOffset; the
+// zero Device when it cannot be calibrated.
+func calibrate(x []float64, d int, axes []int, gravity float64) normalize.Device {
+	means := make([][3]float64, 0, len(x)/d)
+	for w := 0; w+d <= len(x); w += d {
+		means = append(means, axisMeans(x[w:w+d], axes))
+	}
+	scale, offset, ok := normalize.SphereCalibration(means, gravity)
+	if !ok {
+		return normalize.Device{}
+	}
+	return normalize.Device{AxisScale: scale[:], AxisOffset: offset[:]}
+}
 
-// calibration is each axis's gain a and offset b that bring a·m + b, the axis means m of the
-// windows as read, nearest the postures of their states turned back into the device's frame
-// (rᵀ p), with the penalty prior·n·((a − 1)² + b²): per axis, the normal equations
-// [Σm² + λ, Σm; Σm, n + λ] [a; b] = [Σmt + λ; Σt] with λ = prior·n.
-func calibration(x []float64, d int, axes []int, labels []int, posture [][]float64, r []float64, prior float64) ([]float64, []float64) {
-	n := float64(len(labels))
-	var smm, sm, st, smt [3]float64
-	for w, l := range labels {
-		m := axisMeans(x[w*d:(w+1)*d], axes)
-		p := posture[l]
-		for i := 0; i < 3; i++ {
-			t := r[i]*p[0] + r[3+i]*p[1] + r[6+i]*p[2] // (rᵀ p)_i
-			smm[i] += m[i] * m[i]
-			sm[i] += m[i]
-			st[i] += t
-			smt[i] += m[i] * t
+// gravityOf is the median length of the windows' axis means over the units: the length of
+// gravity in the units read (1 in g, about 9.81 in m/s²).
+func gravityOf(units [][]float64, d int, axes []int) float64 {
+	var lens []float64
+	for _, x := range units {
+		for w := 0; w+d <= len(x); w += d {
+			m := axisMeans(x[w:w+d], axes)
+			lens = append(lens, math.Sqrt(m[0]*m[0]+m[1]*m[1]+m[2]*m[2]))
 		}
 	}
-	lambda := prior * n
-	scale, offset := make([]float64, 3), make([]float64, 3)
-	for i := 0; i < 3; i++ {
-		a11, a12, a22 := smm[i]+lambda, sm[i], n+lambda
-		b1, b2 := smt[i]+lambda, st[i]
-		det := a11*a22 - a12*a12
-		if !(det > 0) {
-			scale[i] = 1
-			continue
-		}
-		scale[i] = (b1*a22 - a12*b2) / det
-		offset[i] = (a11*b2 - a12*b1) / det
+	if len(lens) == 0 {
+		return 0
 	}
-	return scale, offset
+	return groupstat.Median(lens)
 }
 
 // axisMeans are a window's axis means (x, y, z) as read.
@@ -866,7 +867,11 @@ func (s *States) alignDevice(fit *normalize.Fit, x []float64) (normalize.Device,
 	}
 	sub = fit.LogInto(nil, sub) // on their log scales once, for every round
 	centres := s.Centroids.RawMatrix().Data
-	var dev normalize.Device
+	var cal normalize.Device
+	if s.Calibrate && fit.Axes != nil {
+		cal = calibrate(x, d, fit.Axes, s.Gravity)
+	}
+	dev := cal
 	var y []float64
 	var labels, before []int
 	var err error
@@ -876,7 +881,7 @@ func (s *States) alignDevice(fit *normalize.Fit, x []float64) (normalize.Device,
 		if round == s.Rounds || (round > 0 && slices.Equal(before, labels)) {
 			break
 		}
-		if dev, y, err = fitDevice(fit, sub, labels, centres, s.Posture, s.Offsets, s.Prior, s.Calibrate, y); err != nil {
+		if dev, y, err = fitDevice(fit, sub, labels, centres, s.Posture, s.Offsets, s.Prior, cal, y); err != nil {
 			return dev, err
 		}
 		for i := 0; i < len(y); i += dim { // the offsets, on windows already turned

@@ -101,9 +101,11 @@ type States struct {
 	Offsets []bool      // output columns that carry a participant's offset; nil when the states are not aligned
 	Prior   float64     // pull of a rotation toward none, in windows' worth per window
 	Rounds  int         // most alternations of state assignment and device fit for one participant
-	// Calibrate fits each device's per-axis gain and offset of the axis means beside its turn
-	// (normalize.Device.AxisScale, AxisOffset).
+	// Calibrate calibrates each device's axis means on its own windows before it is turned
+	// (normalize.SphereCalibration, onto the sphere of radius Gravity: the median length of the
+	// sampled windows' axis means).
 	Calibrate bool
+	Gravity   float64
 	// Fine holds, for states fitted over a range and merged (FitAligned), the largest number of
 	// states as fitted, before any merge; nil otherwise.
 	Fine *States
@@ -331,13 +333,15 @@ type Signature struct {
 	Share    []float64 // share of windows in each state; sums to 1
 	MeanBout []float64 // mean length, in windows, of runs of consecutive windows in each state; 0 when absent
 	Bouts    []int     // number of runs in each state
+	Counts   []int     // windows in each state
 	Windows  int
 }
 
 // Signatures summarizes a participant's state sequence (windows in order).
 func Signatures(labels []int, k int) Signature {
-	s := Signature{Share: make([]float64, k), MeanBout: make([]float64, k), Bouts: make([]int, k), Windows: len(labels)}
+	s := Signature{Share: make([]float64, k), MeanBout: make([]float64, k), Bouts: make([]int, k), Counts: make([]int, k), Windows: len(labels)}
 	for i, l := range labels {
+		s.Counts[l]++
 		s.Share[l]++
 		if i == 0 || labels[i-1] != l {
 			s.Bouts[l]++

@@ -89,6 +89,7 @@ type Sensitivity struct {
 	Participants        int
 	OnSample            bool // refitted on the sampled participants' sampled windows
 	ARI                 float64
+	Skipped             string // why the row could not be computed (ARI is NaN then); empty when it was
 }
 
 // Cautions are shown wherever results reach a person's care.

@@ -8,7 +8,6 @@ import (
 
 	"github.com/cohortmix/cohortmix/cluster"
 	"gonum.org/v1/gonum/mat"
-	"gonum.org/v1/gonum/mathext"
 )
 
 // DMMOptions sets up FitDMM. Zero values take the documented defaults.
@@ -18,9 +17,11 @@ type DMMOptions struct {
 	// multinomial of its own given the component (the rows of a transition-count matrix, say);
 	// nil is one block of every column.
 	Blocks  []int
-	Starts  int     // random starts; 0 means 10 (1 when K is 1, which has no start to choose)
-	MaxIter int     // EM iterations per start; 0 means 2000
-	Tol     float64 // stop when the objective rises by less than Tol × |objective|; 0 means 1e-10
+	Starts  int // random starts; 0 means 10 (1 when K is 1, which has no start to choose)
+	MaxIter int // EM iterations per start; 0 means 1000
+	// Tol stops EM when the objective rises by less than Tol per row (the mean log-likelihood,
+	// as scikit-learn's tolerance, tighter); 0 means 1e-7.
+	Tol float64
 	// Eta and Nu are the shape and rate of the Gamma prior on each α (on the scale of log α, as
 	// Holmes et al. 2012 place it); 0 means 0.1 each, as theirs; NoPrior fits by maximum
 	// likelihood instead.
@@ -44,7 +45,100 @@ type DMM struct {
 	BIC, AIC, ICL    float64 // on the −2 log L scale (see the package doc)
 	Laplace          float64 // −2 × the Laplace approximation to the log evidence (Holmes et al. 2012)
 	Iter, Start      int     // EM iterations of the start kept, and its index
+	Blocks           []int   // the sizes of the column blocks fitted
 	priorNu          float64 // the prior's rate, for the Hessian
+}
+
+// blockSizes are the sizes of the data's column blocks.
+func (dd *dmmData) blockSizes() []int {
+	out := make([]int, len(dd.blocks))
+	for b, bl := range dd.blocks {
+		out[b] = bl[1] - bl[0]
+	}
+	return out
+}
+
+// FitDMMFrom runs EM from given memberships (rows × K, each row summing to 1) with the
+// options' MaxIter, Tol and prior; a warm start, as for refitting a resample of the rows with
+// the memberships a fit of all of them gave. K is the memberships' width.
+func FitDMMFrom(ctx context.Context, counts mat.Matrix, post [][]float64, opts DMMOptions) (*DMM, error) {
+	if counts == nil {
+		return nil, fmt.Errorf("mixture: FitDMMFrom: no counts: %w", cluster.ErrEmpty)
+	}
+	n, _ := counts.Dims()
+	if len(post) != n || n == 0 || len(post[0]) < 1 {
+		return nil, fmt.Errorf("mixture: FitDMMFrom: %d memberships for %d rows: %w", len(post), n, cluster.ErrShape)
+	}
+	data, err := newDMMData(counts, opts.Blocks)
+	if err != nil {
+		return nil, err
+	}
+	opts = dmmDefaults(opts)
+	opts.K = len(post[0])
+	cp := make([][]float64, n)
+	for i, r := range post {
+		if len(r) != opts.K {
+			return nil, fmt.Errorf("mixture: FitDMMFrom: row %d has %d memberships, row 0 has %d: %w", i, len(r), opts.K, cluster.ErrShape)
+		}
+		cp[i] = append([]float64(nil), r...)
+	}
+	m, err := data.fitFrom(ctx, opts, cp, 0)
+	if err != nil {
+		return nil, err
+	}
+	m.criteria(data, opts)
+	return m, nil
+}
+
+// dmmDefaults fills the options' zero values.
+func dmmDefaults(opts DMMOptions) DMMOptions {
+	if opts.Starts == 0 {
+		opts.Starts = 10
+	}
+	if opts.K == 1 {
+		opts.Starts = 1
+	}
+	if opts.MaxIter == 0 {
+		opts.MaxIter = 1000
+	}
+	if opts.Tol == 0 {
+		opts.Tol = 1e-7
+	}
+	if opts.Eta == 0 {
+		opts.Eta = 0.1
+	}
+	if opts.Nu == 0 {
+		opts.Nu = 0.1
+	}
+	if opts.NoPrior {
+		opts.Eta, opts.Nu = 0, 0
+	}
+	return opts
+}
+
+// Place puts new rows of counts (with the fit's columns and blocks) by the frozen
+// mixture: each row's posterior probability of each component, and its most probable one.
+func (m *DMM) Place(counts mat.Matrix) ([][]float64, []int, error) {
+	if counts == nil {
+		return nil, nil, fmt.Errorf("mixture: Place: no counts: %w", cluster.ErrEmpty)
+	}
+	n, d := counts.Dims()
+	if len(m.Alpha) != m.K || m.K == 0 || d != len(m.Alpha[0]) {
+		return nil, nil, fmt.Errorf("mixture: Place: %d columns for a mixture over %d: %w", d, len(m.Alpha[0]), cluster.ErrShape)
+	}
+	if n == 0 {
+		return nil, nil, nil
+	}
+	data, err := newDMMData(counts, m.Blocks)
+	if err != nil {
+		return nil, nil, err
+	}
+	cp := &DMM{K: m.K, Weights: m.Weights, Alpha: m.Alpha, Posterior: make([][]float64, n)}
+	for i := range cp.Posterior {
+		cp.Posterior[i] = make([]float64, m.K)
+	}
+	data.eStep(cp)
+	return cp.Posterior, cp.Labels, nil
 }
 
 // dmmData is the count table in the form the fit uses: each row's nonzero cells and each
@@ -90,27 +184,7 @@ func FitDMM(ctx context.Context, counts mat.Matrix, opts DMMOptions) (*DMM, erro
 	if err != nil {
 		return nil, err
 	}
-	if opts.Starts == 0 {
-		opts.Starts = 10
-	}
-	if opts.K == 1 {
-		opts.Starts = 1
-	}
-	if opts.MaxIter == 0 {
-		opts.MaxIter = 2000
-	}
-	if opts.Tol == 0 {
-		opts.Tol = 1e-10
-	}
-	if opts.Eta == 0 {
-		opts.Eta = 0.1
-	}
-	if opts.Nu == 0 {
-		opts.Nu = 0.1
-	}
-	if opts.NoPrior {
-		opts.Eta, opts.Nu = 0, 0
-	}
+	opts = dmmDefaults(opts)
 	var best *DMM
 	bestObj := math.Inf(-1)
 	err = cluster.Ordered(ctx, opts.Starts, opts.Workers, func(s, _ int) (*DMM, error) {
@@ -195,13 +269,11 @@ func (dd *dmmData) logDM(i int, alpha, A, lgA, lgAlpha []float64) float64 {
 	var s float64
 	for b, t := range dd.total[i] {
 		if t > 0 {
-			lg, _ := math.Lgamma(t + A[b])
-			s += lgA[b] - lg
+			s += lgA[b] - lnGamma(t+A[b])
 		}
 	}
 	for z, j := range dd.nzCol[i] {
-		lg, _ := math.Lgamma(dd.nzVal[i][z] + alpha[j])
-		s += lg - lgAlpha[j]
+		s += lnGamma(dd.nzVal[i][z]+alpha[j]) - lgAlpha[j]
 	}
 	return s
 }
@@ -217,22 +289,27 @@ func (dd *dmmData) component(alpha []float64) component {
 		for j := bl[0]; j < bl[1]; j++ {
 			c.A[b] += alpha[j]
 		}
-		c.lgA[b], _ = math.Lgamma(c.A[b])
+		c.lgA[b] = lnGamma(c.A[b])
 	}
 	for j, a := range alpha {
-		c.lgAlpha[j], _ = math.Lgamma(a)
+		c.lgAlpha[j] = lnGamma(a)
 	}
 	return c
 }
 
 // fit runs EM from start s.
 func (dd *dmmData) fit(ctx context.Context, opts DMMOptions, s int) (*DMM, error) {
-	k := opts.K
-	post, err := dd.startLabels(ctx, k, cluster.SubSeed(opts.Seed, "dmm start", s))
+	post, err := dd.startLabels(ctx, opts.K, cluster.SubSeed(opts.Seed, "dmm start", s))
 	if err != nil {
 		return nil, err
 	}
-	m := &DMM{K: k, Start: s, Weights: make([]float64, k), Alpha: make([][]float64, k), Posterior: post}
+	return dd.fitFrom(ctx, opts, post, s)
+}
+
+// fitFrom runs EM from the memberships post (rows × K, changed in place).
+func (dd *dmmData) fitFrom(ctx context.Context, opts DMMOptions, post [][]float64, s int) (*DMM, error) {
+	k := opts.K
+	m := &DMM{K: k, Start: s, Weights: make([]float64, k), Alpha: make([][]float64, k), Posterior: post, Blocks: dd.blockSizes()}
 	for c := range m.Alpha {
 		m.Alpha[c] = dd.momentAlpha(post, c)
 	}
@@ -243,9 +320,9 @@ func (dd *dmmData) fit(ctx context.Context, opts DMMOptions, s int) (*DMM, error
 				return nil, err
 			}
 		}
-		inner := 20
+		inner := 3
 		if it == 1 {
-			inner = 500
+			inner = 50
 		}
 		dd.mStep(m, opts, inner)
 		obj := dd.eStep(m) + m.LogPrior
@@ -253,7 +330,7 @@ func (dd *dmmData) fit(ctx context.Context, opts DMMOptions, s int) (*DMM, error
 		if math.IsNaN(obj) {
 			return nil, fmt.Errorf("mixture: FitDMM: the likelihood became NaN: %w", cluster.ErrNonFinite)
 		}
-		if obj-prev <= opts.Tol*math.Abs(obj) {
+		if obj-prev <= opts.Tol*float64(dd.n) {
 			break
 		}
 		prev = obj
@@ -365,21 +442,12 @@ func (dd *dmmData) stats(post [][]float64, c, b int, alpha []float64, second boo
 	for _, a := range alpha {
 		A += a
 	}
-	psiA := mathext.Digamma(A)
-	lgA, _ := math.Lgamma(A)
-	var triA float64
-	if second {
-		triA = trigamma(A)
-	}
+	lgA, psiA, triA := lnGammaTerms(A, second)
 	psi := make([]float64, len(alpha))
 	lg := make([]float64, len(alpha))
 	tri := make([]float64, len(alpha))
 	for j, a := range alpha {
-		psi[j] = mathext.Digamma(a)
-		lg[j], _ = math.Lgamma(a)
-		if second {
-			tri[j] = trigamma(a)
-		}
+		lg[j], psi[j], tri[j] = lnGammaTerms(a, second)
 	}
 	for i, r := range post {
 		w := r[c]
@@ -387,25 +455,24 @@ func (dd *dmmData) stats(post [][]float64, c, b int, alpha []float64, second boo
 		if w < 1e-12 || t == 0 {
 			continue
 		}
-		lgt, _ := math.Lgamma(t + A)
+		lgt, psit, trit := lnGammaTerms(t+A, second)
 		st.objData += w * (lgA - lgt)
-		st.h += w * (mathext.Digamma(t+A) - psiA)
-		if second {
-			st.ht += w * (triA - trigamma(t+A))
-		}
+		st.h += w * (psit - psiA)
+		st.ht += w * (triA - trit)
 		for z := dd.blockFrom[i][b]; z < dd.blockFrom[i][b+1]; z++ {
 			j := int(dd.nzCol[i][z]) - lo
-			x := dd.nzVal[i][z]
-			l, _ := math.Lgamma(x + alpha[j])
+			l, p, q := lnGammaTerms(dd.nzVal[i][z]+alpha[j], second)
 			st.objData += w * (l - lg[j])
-			st.g[j] += w * (mathext.Digamma(x+alpha[j]) - psi[j])
-			if second {
-				st.gt[j] += w * (trigamma(x+alpha[j]) - tri[j])
-			}
+			st.g[j] += w * (p - psi[j])
+			st.gt[j] += w * (q - tri[j])
 		}
 	}
 	return st
 }
+
+// newtonHalvings is how many times raiseBlock halves a Newton step that does not raise the
+// objective before it takes the fixed-point step instead.
+const newtonHalvings = 4
 
 // blockObjective is the component's objective in one block: the data's part and the prior's.
 func blockObjective(st blockStats, alpha []float64, eta, nu float64) float64 {
@@ -443,23 +510,29 @@ func (dd *dmmData) raiseBlock(m *DMM, c, b int, opts DMMOptions, inner int) {
 		}
 		moved := false
 		if ok && 1+st.ht*aDa > 0 {
-			// (D + c a aᵀ)⁻¹ γ = D⁻¹γ − c D⁻¹a (aᵀD⁻¹γ) / (1 + c aᵀD⁻¹a); the step is minus that.
+			// (D + c a aᵀ)⁻¹ γ = D⁻¹γ − c D⁻¹a (aᵀD⁻¹γ) / (1 + c aᵀD⁻¹a); the step is minus that,
+			// halved up to newtonHalvings times while it does not raise the objective.
 			f := st.ht * aDg / (1 + st.ht*aDa)
+			step := make([]float64, len(alpha))
 			for j, a := range alpha {
-				d := -(grad[j] - a*f) / q[j]
-				next[j] = a * math.Exp(math.Max(-3, math.Min(3, d)))
+				step[j] = math.Max(-3, math.Min(3, -(grad[j]-a*f)/q[j]))
 			}
-			trial := dd.stats(m.Posterior, c, b, next, true)
-			if o := blockObjective(trial, next, eta, nu); o >= obj {
-				moved = true
+			for h := 0; h <= newtonHalvings && !moved; h++ {
 				change := 0.0
-				for j := range alpha {
-					change = math.Max(change, math.Abs(next[j]-alpha[j])/alpha[j])
+				for j, a := range alpha {
+					next[j] = a * math.Exp(step[j])
+					change = math.Max(change, math.Abs(step[j]))
+					step[j] /= 2
 				}
-				copy(alpha, next)
-				st, obj = trial, o
-				if change < 1e-10 {
-					return
+				trial := dd.stats(m.Posterior, c, b, next, true)
+				o := blockObjective(trial, next, eta, nu)
+				if o >= obj || (change < 1e-9 && obj-o <= 1e-12*math.Abs(obj)) {
+					moved = true
+					copy(alpha, next)
+					st, obj = trial, o
+					if change < 1e-9 {
+						return
+					}
 				}
 			}
 		}
@@ -601,14 +674,17 @@ func (dd *dmmData) hessian(m *DMM, c int) *mat.SymDense {
 		}
 		for b, t := range dd.total[i] {
 			if t > 0 {
-				hA[b] += w * (mathext.Digamma(A[b]) - mathext.Digamma(t+A[b]))
-				hAt[b] += w * (trigamma(A[b]) - trigamma(t+A[b]))
+				_, pA, tA := lnGammaTerms(A[b], true)
+				_, p, q := lnGammaTerms(t+A[b], true)
+				hA[b] += w * (pA - p)
+				hAt[b] += w * (tA - q)
 			}
 		}
 		for z, j := range dd.nzCol[i] {
-			x := dd.nzVal[i][z]
-			g[j] += w * (mathext.Digamma(x+alpha[j]) - mathext.Digamma(alpha[j]))
-			gt[j] += w * (trigamma(x+alpha[j]) - trigamma(alpha[j]))
+			_, pa, ta := lnGammaTerms(alpha[j], true)
+			_, p, q := lnGammaTerms(dd.nzVal[i][z]+alpha[j], true)
+			g[j] += w * (p - pa)
+			gt[j] += w * (q - ta)
 		}
 	}
 	h := mat.NewSymDense(dd.d, nil)
@@ -629,14 +705,3 @@ func (dd *dmmData) hessian(m *DMM, c int) *mat.SymDense {
 
 // nu is the prior's rate the fit was made with.
 func (m *DMM) nu() float64 { return m.priorNu }
-
-// trigamma is ψ′(x) for x > 0: the recurrence ψ′(x) = ψ′(x + 1) + 1/x² up to x ≥ 6, then the
-// asymptotic series 1/x + 1/(2x²) + Σ B₂ₖ/x^(2k+1) (Abramowitz & Stegun 6.4.12).
-func trigamma(x float64) float64 {
-	var r float64
-	for ; x < 6; x++ {
-		r += 1 / (x * x)
-	}
-	x2 := 1 / (x * x)
-	return r + 1/x + x2/2 + (1.0/6-x2*(1.0/30-x2*(1.0/42-x2/30)))/(x*x*x)
-}

@@ -20,15 +20,18 @@ import (
 )
 
 // parseRange reads "6" or "2-8" into the increasing list of candidates.
-func parseRange(flag, s string) ([]int, error) {
+func parseRange(flag, s string) ([]int, error) { return parseRangeFrom(flag, s, 2) }
+
+// parseRangeFrom is parseRange with the least number allowed.
+func parseRangeFrom(flag, s string, least int) ([]int, error) {
 	lo, hi, isRange := strings.Cut(strings.TrimSpace(s), "-")
 	a, err := strconv.Atoi(strings.TrimSpace(lo))
 	b := a
 	if err == nil && isRange {
 		b, err = strconv.Atoi(strings.TrimSpace(hi))
 	}
-	if err != nil || a < 2 || b < a || b > 64 {
-		return nil, flagErrorf("--%s %q: give a number such as 5 or a range such as 2-8 (each between 2 and 64)", flag, s)
+	if err != nil || a < least || b < a || b > 64 {
+		return nil, flagErrorf("--%s %q: give a number such as 5 or a range such as %d-8 (each between %d and 64)", flag, s, least, least)
 	}
 	out := make([]int, 0, b-a+1)
 	for k := a; k <= b; k++ {
@@ -219,11 +222,15 @@ func (m *mainFlags) options(inputs []string) (job.Options, error) {
 	if o.States, err = parseRange("states", m.States); err != nil {
 		return o, err
 	}
-	if o.Groups, err = parseRange("groups", m.Groups); err != nil {
-		return o, err
-	}
 	if o.Method, err = cohort.ParseMethod(m.Method); err != nil {
 		return o, &flagError{err}
+	}
+	least := 2
+	if o.Method == cohort.Mixture {
+		least = 1 // the mixture may find no groups
+	}
+	if o.Groups, err = parseRangeFrom("groups", m.Groups, least); err != nil {
+		return o, err
 	}
 	if m.GroupValley < 0 || m.GroupValley >= 1 {
 		return o, flagErrorf("--group-valley %v: use a share in [0, 1)", m.GroupValley)

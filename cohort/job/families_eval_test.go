@@ -10,12 +10,20 @@ import (
 	"slices"
 	"sort"
 	"strings"
+	"sync"
 	"testing"
 
 	"github.com/cohortmix/cohortmix/cluster"
 	"github.com/cohortmix/cohortmix/cluster/mixture"
 	"github.com/cohortmix/cohortmix/cohort"
 	"gonum.org/v1/gonum/mat"
+)
+
+// scans keep one model's fits over every number of groups for one fit's counts, so that two
+// criteria on the same model share them.
+var (
+	scans  = map[string][]*mixture.DMM{}
+	scanMu sync.Mutex
 )
 
 type grouped struct {
@@ -31,7 +39,75 @@ func groupBy(t *testing.T, method string, ff familyFit, maxK int) grouped {
 	case strings.HasPrefix(method, "dmm") || strings.HasPrefix(method, "markov"):
 		var x *mat.Dense
 		var blocks []int
-		if strings.HasPrefix(method, "markov") {
+		base := method
+		if i := strings.Index(method, "-"); i > 0 {
+			base = method[:i]
+		}
+		eff := strings.Contains(base, "eff")
+		bout := strings.Contains(base, "bout")
+		run := strings.Contains(base, "run")
+		switch {
+		case run:
+			// Each state's number of bouts, then each state's stays and leavings.
+			x = mat.NewDense(n, 3*s, nil)
+			blocks = []int{s}
+			for j := 0; j < s; j++ {
+				blocks = append(blocks, 2)
+			}
+			for i := range ff.Counts {
+				for a := 0; a < s; a++ {
+					var leave float64
+					for b := 0; b < s; b++ {
+						if a != b {
+							leave += float64(ff.Trans[i][a*s+b])
+						}
+					}
+					x.Set(i, a, leave)
+					x.Set(i, s+2*a, float64(ff.Trans[i][a*s+a]))
+					x.Set(i, s+2*a+1, leave)
+				}
+			}
+		case eff || bout:
+			// Shares times the participant's number of bouts (eff) or its windows, and with
+			// bout each state's stays and leavings beside them.
+			cols := s
+			if bout {
+				cols += 2 * s
+			}
+			x = mat.NewDense(n, cols, nil)
+			blocks = []int{s}
+			if bout {
+				for j := 0; j < s; j++ {
+					blocks = append(blocks, 2)
+				}
+			}
+			for i, c := range ff.Counts {
+				var tot, runs float64
+				for _, v := range c {
+					tot += float64(v)
+				}
+				for a := 0; a < s; a++ {
+					var leave float64
+					for b := 0; b < s; b++ {
+						if a != b {
+							leave += float64(ff.Trans[i][a*s+b])
+						}
+					}
+					runs += leave
+					if bout {
+						x.Set(i, s+2*a, float64(ff.Trans[i][a*s+a]))
+						x.Set(i, s+2*a+1, leave)
+					}
+				}
+				scale := 1.0
+				if eff {
+					scale = (runs + 1) / tot
+				}
+				for j, v := range c {
+					x.Set(i, j, float64(v)*scale)
+				}
+			}
+		case strings.HasPrefix(method, "markov"):
 			x = mat.NewDense(n, s*s, nil)
 			for i, tr := range ff.Trans {
 				for j, v := range tr {
@@ -42,7 +118,7 @@ func groupBy(t *testing.T, method string, ff familyFit, maxK int) grouped {
 			for b := range blocks {
 				blocks[b] = s
 			}
-		} else {
+		default:
 			x = mat.NewDense(n, s, nil)
 			for i, c := range ff.Counts {
 				for j, v := range c {
@@ -54,13 +130,25 @@ func groupBy(t *testing.T, method string, ff familyFit, maxK int) grouped {
 		if i := strings.Index(method, "-"); i > 0 {
 			crit = method[i+1:]
 		}
+		key := fmt.Sprintf("%p", ff.Counts) + base
+		scanMu.Lock()
+		fits, ok := scans[key]
+		scanMu.Unlock()
+		if !ok {
+			for k := 1; k <= maxK; k++ {
+				m, err := mixture.FitDMM(ctx, x, mixture.DMMOptions{K: k, Blocks: blocks, Starts: 3, Seed: 1, Tol: 1e-8, Workers: 1})
+				if err != nil {
+					t.Fatalf("%s k=%d: %v", method, k, err)
+				}
+				fits = append(fits, m)
+			}
+			scanMu.Lock()
+			scans[key] = fits
+			scanMu.Unlock()
+		}
 		var best *mixture.DMM
 		bestV := math.Inf(1)
-		for k := 1; k <= maxK; k++ {
-			m, err := mixture.FitDMM(ctx, x, mixture.DMMOptions{K: k, Blocks: blocks, Starts: 5, Seed: 1})
-			if err != nil {
-				t.Fatalf("%s k=%d: %v", method, k, err)
-			}
+		for _, m := range fits {
 			v := map[string]float64{"bic": m.BIC, "icl": m.ICL, "aic": m.AIC, "lap": m.Laplace}[crit]
 			if v < bestV {
 				best, bestV = m, v
@@ -76,7 +164,7 @@ func groupBy(t *testing.T, method string, ff familyFit, maxK int) grouped {
 		var best *mixture.Gaussian
 		bestV := math.Inf(1)
 		for k := 1; k <= maxK; k++ {
-			g, err := mixture.FitTiedGaussian(ctx, y, mixture.GaussianOptions{K: k, Starts: 5, Seed: 1})
+			g, err := mixture.FitTiedGaussian(ctx, y, mixture.GaussianOptions{K: k, Starts: 3, Seed: 1})
 			if err != nil {
 				t.Fatalf("%s k=%d: %v", method, k, err)
 			}
@@ -182,11 +270,12 @@ func groupingsOf(t *testing.T, dir string, d *familyDump, method string) cachedG
 		}
 	}
 	c := cachedGroupings{}
+	trueS := min(max(d.TrueStates, 3), 12)
 	for _, ff := range d.Fits {
-		if ff.S < 3 {
+		if !slices.Contains(evalStates(), ff.S) && !(ff.S == trueS && ff.Fit == 0) || ff.Fit >= *familiesEvalFits {
 			continue
 		}
-		g := groupBy(t, method, ff, 8)
+		g := groupBy(t, method, ff, 7)
 		c[fmt.Sprintf("%d/%d", ff.S, ff.Fit)] = grouped2{g.labels, g.k}
 	}
 	os.MkdirAll(filepath.Join(dir, "cache"), 0o755)
@@ -222,7 +311,15 @@ func TestFamiliesEval(t *testing.T) {
 		}
 	}
 	got := make([]cachedGroupings, len(jobs))
-	cluster.Each(len(jobs), 0, func(i int) { got[i] = groupingsOf(t, *familiesEval, jobs[i].d, jobs[i].m) })
+	cluster.Each(len(dumps), 0, func(di int) {
+		for mi := range methods {
+			i := di*len(methods) + mi
+			got[i] = groupingsOf(t, *familiesEval, jobs[i].d, jobs[i].m)
+		}
+		scanMu.Lock()
+		clear(scans)
+		scanMu.Unlock()
+	})
 	for i, jb := range jobs {
 		d, m, c := jb.d, jb.m, got[i]
 		if !slices.Contains(fams, d.Family) {
@@ -243,7 +340,7 @@ func TestFamiliesEval(t *testing.T) {
 		trueS := min(max(d.TrueStates, 3), 12)
 		fmt.Fprintf(&b, " trueS %.2f", score(m+" trueS", c[fmt.Sprintf("%d/0", trueS)].Labels))
 		best := -1.0
-		for s := 3; s <= 12; s++ {
+		for _, s := range evalStates() {
 			best = max(best, adjustedRand(d.Want, c[fmt.Sprintf("%d/0", s)].Labels))
 		}
 		score(m+" bestS", nil2(best))
@@ -278,19 +375,52 @@ type consensusRule struct {
 
 // consensusRules are the candidate rules that take one grouping from all of a dump's groupings.
 var consensusRules = []consensusRule{
-	{"med4-12", func(c cachedGroupings) ([]int, string) { return medoidOver(c, 4, 12, 3) }},
-	{"med3-8", func(c cachedGroupings) ([]int, string) { return medoidOver(c, 3, 8, 3) }},
-	{"med4-10", func(c cachedGroupings) ([]int, string) { return medoidOver(c, 4, 10, 3) }},
+	{"med", func(c cachedGroupings) ([]int, string) { return medoidOver(c, evalStates(), 3) }},
+	{"med1", func(c cachedGroupings) ([]int, string) { return medoidOver(c, evalStates(), 1) }},
 	{"S6", func(c cachedGroupings) ([]int, string) { return c["6/0"].Labels, "" }},
 	{"S8", func(c cachedGroupings) ([]int, string) { return c["8/0"].Labels, "" }},
+	{"rep8", func(c cachedGroupings) ([]int, string) { return reproducibility(c, 8) }},
 }
 
-// medoidOver is the grouping that agrees best (sum of ARI) with all groupings at lo…hi states
-// and fits below fits.
-func medoidOver(c cachedGroupings, lo, hi, fits int) ([]int, string) {
+// evalStates are the numbers of states evaluated (-families.s).
+func evalStates() []int {
+	var ss []int
+	for _, f := range strings.Split(*familiesS, ",") {
+		var v int
+		fmt.Sscan(f, &v)
+		ss = append(ss, v)
+	}
+	return ss
+}
+
+// reproducibility is the fit-0 grouping at s states, noted with the median ARI of the fits'
+// groupings there.
+func reproducibility(c cachedGroupings, s int) ([]int, string) {
+	var all [][]int
+	for r := 0; r < 3; r++ {
+		if g, ok := c[fmt.Sprintf("%d/%d", s, r)]; ok {
+			all = append(all, g.Labels)
+		}
+	}
+	var aris []float64
+	for i := range all {
+		for j := i + 1; j < len(all); j++ {
+			aris = append(aris, adjustedRand(all[i], all[j]))
+		}
+	}
+	slices.Sort(aris)
+	if len(aris) == 0 {
+		return all[0], ""
+	}
+	return all[0], fmt.Sprintf("(rep %.2f)", aris[len(aris)/2])
+}
+
+// medoidOver is the grouping that agrees best (sum of ARI) with all groupings at the numbers
+// of states ss and fits below fits.
+func medoidOver(c cachedGroupings, ss []int, fits int) ([]int, string) {
 	var all [][]int
 	var names []string
-	for s := lo; s <= hi; s++ {
+	for _, s := range ss {
 		for r := 0; r < fits; r++ {
 			if g, ok := c[fmt.Sprintf("%d/%d", s, r)]; ok {
 				all = append(all, g.Labels)

@@ -190,8 +190,9 @@ func dumpFamilyMember(t *testing.T, fam synth.Family, seed uint64) *familyDump {
 }
 
 var familiesEval = flag.String("families.eval", "", "evaluate grouping models on the families study dumped in this folder")
+var familiesEvalFits = flag.Int("families.evalfits", 3, "fits evaluated at each number of states")
 var familiesMethods = flag.String("families.methods", "dmm,gmm,ward", "grouping models to evaluate")
-var familiesS = flag.String("families.s", "4,6,8,12", "numbers of states to evaluate")
+var familiesS = flag.String("families.s", "4,6,8,10,12", "numbers of states to evaluate")
 
 func readFamilyDumps(t *testing.T, dir string) []*familyDump {
 	files, _ := filepath.Glob(filepath.Join(dir, "*.json"))

@@ -274,14 +274,12 @@ func fitEveryWindow(ctx context.Context, t *cohort.Table, plan *Plan, sample sam
 // groupFitted groups the participants on their signatures and, unless told not to, checks the
 // groups against other choices.
 func groupFitted(ctx context.Context, f *Fitted, o Options) error {
-	shares := make([][]float64, len(f.Sigs))
-	for i, sg := range f.Sigs {
-		shares[i] = sg.Share
-	}
+	shares, counts, bouts := signatureColumns(f.Sigs)
 	if o.Progress != nil {
 		o.Progress("grouping participants")
 	}
-	g, err := cohort.GroupSignatures(ctx, shares, cohort.GroupOptions{Method: o.Method, Groups: o.Groups, Criterion: o.Criterion, Bootstrap: o.Bootstrap, Seed: o.Seed, Valley: o.GroupValley, Workers: o.Workers, Progress: o.Steps})
+	g, err := cohort.GroupSignatures(ctx, shares, cohort.GroupOptions{Method: o.Method, Groups: o.Groups, Criterion: o.Criterion, Bootstrap: o.Bootstrap, Seed: o.Seed, Valley: o.GroupValley,
+		Counts: counts, Bouts: bouts, Workers: o.Workers, Progress: o.Steps})
 	if err != nil {
 		return err
 	}
@@ -295,6 +293,21 @@ func groupFitted(ctx context.Context, f *Fitted, o Options) error {
 		}
 	}
 	return nil
+}
+
+// signatureColumns are the signatures' shares, and their windows and bouts in each state as
+// numbers, for the grouping.
+func signatureColumns(sigs []profile.Signature) (shares, counts, bouts [][]float64) {
+	shares, counts, bouts = make([][]float64, len(sigs)), make([][]float64, len(sigs)), make([][]float64, len(sigs))
+	for i, sg := range sigs {
+		shares[i] = sg.Share
+		counts[i], bouts[i] = make([]float64, len(sg.Share)), make([]float64, len(sg.Share))
+		for j := range sg.Share {
+			counts[i][j] = float64(sg.Counts[j])
+			bouts[i][j] = float64(sg.Bouts[j])
+		}
+	}
+	return shares, counts, bouts
 }
 
 // rawBlocks gives each unit's windows as read, so that no second copy of all windows is held. A

@@ -3,6 +3,7 @@ package job
 import (
 	"context"
 	"fmt"
+	"math"
 	"strings"
 
 	"github.com/cohortmix/cohortmix/cluster"
@@ -31,6 +32,9 @@ const sensitivityUnits = 60
 // same sampled windows.
 func sensitivity(ctx context.Context, f *Fitted, o Options, sample sampleUnits) ([]reports.Sensitivity, error) {
 	k := f.Grouping.K
+	if k < 2 {
+		return nil, nil // one group: there are no groups for a choice to move
+	}
 	// Each row is a task of its own; the tasks run side by side (each seeded as it would be
 	// alone) and their rows are kept in this order.
 	var tasks []func() (reports.Sensitivity, error)
@@ -43,12 +47,13 @@ func sensitivity(ctx context.Context, f *Fitted, o Options, sample sampleUnits) 
 			continue
 		}
 		tasks = append(tasks, func() (reports.Sensitivity, error) {
-			g, err := cohort.GroupSignatures(ctx, shares, cohort.GroupOptions{Method: m, Groups: []int{k}, Bootstrap: 2, Seed: o.Seed, Workers: o.Workers})
+			row := reports.Sensitivity{Choice: "grouping method", Alternative: m.String(), Participants: len(shares)}
+			g, err := cohort.GroupSignatures(ctx, shares, cohort.GroupOptions{Method: m, Groups: []int{k}, Criterion: cohort.ByGap, Bootstrap: 2, Seed: o.Seed, Workers: o.Workers})
 			if err != nil {
-				return reports.Sensitivity{}, err
+				return skipped(row, err), nil
 			}
-			ari, _ := cluster.AdjustedRand(g.Labels, f.Grouping.Labels)
-			return reports.Sensitivity{Choice: "grouping method", Alternative: m.String(), Participants: len(shares), ARI: ari}, nil
+			row.ARI, _ = cluster.AdjustedRand(g.Labels, f.Grouping.Labels)
+			return row, nil
 		})
 	}
 	units, index := sample.units, sample.index
@@ -81,7 +86,8 @@ func sampleTasks(ctx context.Context, f *Fitted, o Options, units [][]float64, i
 		made[r] = f.Grouping.Labels[i]
 	}
 	compare := func(choice, alt string, fit *normalize.Fit, states *profile.States, ref bool) (reports.Sensitivity, error) {
-		sh := make([][]float64, len(units))
+		row := reports.Sensitivity{Choice: choice, Alternative: alt, Reference: ref, Participants: len(units), OnSample: true}
+		sigs := make([]profile.Signature, len(units))
 		for r, x := range units {
 			var labels []int
 			if states.Aligned() {
@@ -93,14 +99,18 @@ func sampleTasks(ctx context.Context, f *Fitted, o Options, units [][]float64, i
 			} else {
 				labels = states.Assign(fit.Apply(x))
 			}
-			sh[r] = profile.Signatures(labels, states.K).Share
+			sigs[r] = profile.Signatures(labels, states.K)
 		}
-		g, err := cohort.GroupSignatures(ctx, sh, cohort.GroupOptions{Method: f.Grouping.Method, Groups: []int{k}, Bootstrap: 2, Seed: o.Seed, Workers: o.Workers})
+		// The sampled windows are scattered, so their runs are no bouts: the mixture sees each
+		// window as a bout of its own there.
+		sh, counts, _ := signatureColumns(sigs)
+		g, err := cohort.GroupSignatures(ctx, sh, cohort.GroupOptions{Method: f.Grouping.Method, Groups: []int{k}, Criterion: f.Grouping.Criterion, Bootstrap: 2, Seed: o.Seed,
+			Counts: counts, Bouts: counts, Workers: o.Workers})
 		if err != nil {
-			return reports.Sensitivity{}, err
+			return skipped(row, err), nil
 		}
-		ari, _ := cluster.AdjustedRand(g.Labels, made)
-		return reports.Sensitivity{Choice: choice, Alternative: alt, Reference: ref, Participants: len(units), OnSample: true, ARI: ari}, nil
+		row.ARI, _ = cluster.AdjustedRand(g.Labels, made)
+		return row, nil
 	}
 	refit := func(within normalize.Within, states []int, noTurn bool) (*normalize.Fit, *profile.States, error) {
 		no := o.Norm
@@ -143,7 +153,7 @@ func sampleTasks(ctx context.Context, f *Fitted, o Options, units [][]float64, i
 		tasks = append(tasks, func() (reports.Sensitivity, error) {
 			fit, st, err := refit(w, o.States, false)
 			if err != nil {
-				return reports.Sensitivity{}, fmt.Errorf("sensitivity to the within step %v: %w", w, err)
+				return skipped(reports.Sensitivity{Choice: "within-participant step", Alternative: w.String(), Participants: len(units), OnSample: true}, err), nil
 			}
 			return compare("within-participant step", w.String(), fit, st, false)
 		})
@@ -152,7 +162,7 @@ func sampleTasks(ctx context.Context, f *Fitted, o Options, units [][]float64, i
 		tasks = append(tasks, func() (reports.Sensitivity, error) {
 			fit, st, err := refit(o.Norm.Within, o.States, true)
 			if err != nil {
-				return reports.Sensitivity{}, fmt.Errorf("sensitivity to the turned features: %w", err)
+				return skipped(reports.Sensitivity{Choice: "align step turns", Alternative: "the axis means only", Participants: len(units), OnSample: true}, err), nil
 			}
 			return compare("align step turns", "the axis means only", fit, st, false)
 		})
@@ -164,12 +174,19 @@ func sampleTasks(ctx context.Context, f *Fitted, o Options, units [][]float64, i
 		tasks = append(tasks, func() (reports.Sensitivity, error) {
 			fit, st, err := refit(o.Norm.Within, []int{ks}, false)
 			if err != nil {
-				return reports.Sensitivity{}, fmt.Errorf("sensitivity to the number of states: %w", err)
+				return skipped(reports.Sensitivity{Choice: "number of states", Alternative: fmt.Sprintf("%d (fixed)", ks), Participants: len(units), OnSample: true}, err), nil
 			}
 			return compare("number of states", fmt.Sprintf("%d (fixed)", ks), fit, st, false)
 		})
 	}
 	return tasks
+}
+
+// skipped is a row that could not be computed, with the reason: a refit that fails on these
+// data (ties among many small units, say) leaves its row empty and does not stop the run.
+func skipped(row reports.Sensitivity, err error) reports.Sensitivity {
+	row.ARI, row.Skipped = math.NaN(), err.Error()
+	return row
 }
 
 // sensitivityNote is the line that reads the table: how far the alternatives move the groups.
@@ -182,7 +199,7 @@ func sensitivityNote(rows []reports.Sensitivity) string {
 		}
 	}
 	for _, r := range rows {
-		if !r.Reference && r.ARI < min(0.8, base-0.2) {
+		if !r.Reference && r.Skipped == "" && r.ARI < min(0.8, base-0.2) {
 			moved = append(moved, fmt.Sprintf("%s %s (adjusted Rand index %.2f)", r.Choice, r.Alternative, r.ARI))
 		}
 	}

@@ -1,0 +1,274 @@
+package cohort
+
+import (
+	"context"
+	"fmt"
+	"math"
+	"math/rand/v2"
+	"slices"
+
+	"github.com/cohortmix/cohortmix/cluster"
+	"github.com/cohortmix/cohortmix/cluster/mixture"
+	"gonum.org/v1/gonum/mat"
+)
+
+// The mixture method's model, in a sentence: each group has its own law of which state a bout
+// is spent in and, for each state, of how often a window in it starts a new bout; participants
+// stray from their group's law as a Dirichlet allows. Its data, per participant, are the
+// number of bouts in each state, and for each state the windows that continue a bout and those
+// that start one: a Dirichlet-multinomial over the states, and a beta-binomial per state
+// (mixture.FitDMM with one block of states and one block of two per state; Holmes, Harris &
+// Quince 2012; the bouts as a renewal process's, after the Markov-chain mixtures of Cadez et
+// al. 2003). Time shares come from both: a state's share is its bouts times their length.
+
+// mixtureFitRows is the most participants the mixture is fitted on; above it the fit uses a
+// reproducible sample of them and places every participant with the frozen mixture.
+const mixtureFitRows = 3000
+
+// mixtureStarts is how many random starts each number of groups is fitted from.
+const mixtureStarts = 5
+
+// BoutTable is the mixture method's data for participants with these windows and bouts in each
+// state: per row, the bouts in each state, then for each state the windows that continue a bout
+// and those that start one; and the sizes of its column blocks.
+func BoutTable(counts, bouts [][]float64) (*mat.Dense, []int, error) {
+	n := len(counts)
+	if n == 0 || len(bouts) != n {
+		return nil, nil, fmt.Errorf("cohort: %d participants' windows and %d participants' bouts: %w", n, len(bouts), ErrBadOption)
+	}
+	s := len(counts[0])
+	x := mat.NewDense(n, 3*s, nil)
+	blocks := []int{s}
+	for j := 0; j < s; j++ {
+		blocks = append(blocks, 2)
+	}
+	for i := range counts {
+		if len(counts[i]) != s || len(bouts[i]) != s {
+			return nil, nil, fmt.Errorf("cohort: participant %d has %d states' windows and %d states' bouts, participant 0 %d: %w", i, len(counts[i]), len(bouts[i]), s, ErrBadOption)
+		}
+		for j := 0; j < s; j++ {
+			c, b := counts[i][j], bouts[i][j]
+			if b > c || b < 0 || (c > 0 && b == 0) {
+				return nil, nil, fmt.Errorf("cohort: participant %d, state %d: %v bouts in %v windows: %w", i, j, b, c, ErrBadOption)
+			}
+			x.Set(i, j, b)
+			x.Set(i, s+2*j, c-b)
+			x.Set(i, s+2*j+1, b)
+		}
+	}
+	return x, blocks, nil
+}
+
+// groupMixture is GroupSignatures for the mixture method: the mixture is fitted for each
+// number of groups in opts.Groups (1 allowed), from mixtureStarts starts each, in increasing
+// order until the criterion has risen twice in a row past its best; the number with the lowest
+// criterion (BIC or ICL) is kept.
+func groupMixture(ctx context.Context, shares [][]float64, opts GroupOptions) (*Grouping, error) {
+	n := len(shares)
+	if opts.Criterion != ByBIC && opts.Criterion != ByICL {
+		return nil, fmt.Errorf("cohort: the mixture method chooses its number of groups by bic or icl, not %s: %w", opts.Criterion, ErrBadOption)
+	}
+	x, blocks, err := BoutTable(opts.Counts, opts.Bouts)
+	if err != nil {
+		return nil, err
+	}
+	if x.RawMatrix().Rows != n {
+		return nil, fmt.Errorf("cohort: %d participants' shares and %d participants' bouts: %w", n, x.RawMatrix().Rows, ErrBadOption)
+	}
+	g := &Grouping{Method: Mixture, Criterion: opts.Criterion}
+	fitRows := x
+	var sampled []int
+	if n > mixtureFitRows {
+		rng := rand.New(rand.NewPCG(cluster.SubSeed(opts.Seed, "mixture sample", 0), 1))
+		sampled = rng.Perm(n)[:mixtureFitRows]
+		slices.Sort(sampled)
+		fitRows = mat.NewDense(len(sampled), x.RawMatrix().Cols, nil)
+		for r, i := range sampled {
+			fitRows.SetRow(r, x.RawRowView(i))
+		}
+		g.Note = fmt.Sprintf("the mixture was fitted on a reproducible sample of %s of the %s participants, and every participant was placed by it", Thousands(mixtureFitRows), Thousands(n))
+	}
+	fr := fitRows.RawMatrix().Rows
+	var best *mixture.DMM
+	bestV, rises := math.Inf(1), 0
+	for i, k := range opts.Groups {
+		if k > fr {
+			break
+		}
+		m, err := mixture.FitDMM(ctx, fitRows, mixture.DMMOptions{K: k, Blocks: blocks, Starts: mixtureStarts, Seed: cluster.SubSeed(opts.Seed, "mixture", k), Workers: opts.Workers})
+		if err != nil {
+			return nil, fmt.Errorf("cohort: fitting the mixture with %d groups: %w", k, err)
+		}
+		opts.report("mixture for each number of groups", i+1, len(opts.Groups))
+		v := m.BIC
+		if opts.Criterion == ByICL {
+			v = m.ICL
+		}
+		g.Scores = append(g.Scores, KScore{K: k, BIC: m.BIC, ICL: m.ICL, LogLik: m.LogLik, Silhouette: math.NaN(), Gap: math.NaN(), GapSE: math.NaN(), Stability: math.NaN(), StabilitySE: math.NaN()})
+		switch {
+		case v < bestV:
+			best, bestV, rises = m, v, 0
+		default:
+			rises++
+		}
+		if rises == 2 && len(opts.Groups) > 1 {
+			break
+		}
+	}
+	if best == nil {
+		return nil, fmt.Errorf("cohort: %d participants for at least %d groups: %w", fr, opts.Groups[0], ErrTooFew)
+	}
+	post, labels := best.Posterior, best.Labels
+	if sampled != nil {
+		if post, labels, err = best.Place(x); err != nil {
+			return nil, err
+		}
+	}
+	// A component that is no participant's most probable one is no group: it is left out, and
+	// the participants are placed again by the components that hold them.
+	if used := distinct(labels); used < best.K {
+		chose := best.K
+		kept := *best
+		kept.K, kept.Weights, kept.Alpha = 0, nil, nil
+		var w float64
+		for c := 0; c < best.K; c++ {
+			if slices.Contains(labels, c) {
+				kept.K++
+				kept.Weights = append(kept.Weights, best.Weights[c])
+				kept.Alpha = append(kept.Alpha, best.Alpha[c])
+				w += best.Weights[c]
+			}
+		}
+		for c := range kept.Weights {
+			kept.Weights[c] /= w
+		}
+		if post, labels, err = kept.Place(x); err != nil {
+			return nil, err
+		}
+		best = &kept
+		g.Note = joinNote(g.Note, fmt.Sprintf("of the %d groups the criterion chose, %d held no participant as its most probable group and were left out", chose, chose-used))
+	}
+	g.K = best.K
+	// Groups numbered by size, largest first; the frozen mixture's components with them.
+	g.Labels = renumberBySize(labels, g.K)
+	order := make([]int, g.K) // order[new] = old
+	for i, l := range labels {
+		order[g.Labels[i]] = l
+	}
+	frozen := *best
+	frozen.Weights, frozen.Alpha = make([]float64, g.K), make([][]float64, g.K)
+	for to, from := range order {
+		frozen.Weights[to], frozen.Alpha[to] = best.Weights[from], best.Alpha[from]
+	}
+	frozen.Posterior, frozen.Labels = nil, nil
+	g.Mixture = &frozen
+	g.Posterior = make([]float64, n)
+	for i := range post {
+		g.Posterior[i] = post[i][labels[i]]
+	}
+	// The Hellinger embedding serves the centres, the distances (atypical participants), the
+	// silhouettes and the dendrogram, as for Ward linkage.
+	d := len(shares[0])
+	emb := mat.NewDense(n, d, nil)
+	for i, s := range shares {
+		emb.SetRow(i, Embed(WardHellinger, s))
+	}
+	g.Silhouette = make([]float64, n)
+	for i := range g.Silhouette {
+		g.Silhouette[i] = math.NaN()
+	}
+	if g.K > 1 {
+		var dist *cluster.Condensed
+		if cluster.CondensedBytes(n) <= max(opts.MaxBytes, 512<<20) {
+			if dist, err = cluster.Pairwise(emb, cluster.Euclidean, max(opts.MaxBytes, 512<<20), opts.Workers); err != nil {
+				return nil, err
+			}
+		}
+		sil, err := silhouetteOf(emb, dist, g.Labels, opts)
+		if err != nil {
+			return nil, err
+		}
+		g.Silhouette = expand(sil, n)
+	}
+	g.Centroids = centroids(WardHellinger, emb, nil, g.Labels, g.K)
+	g.Distance = make([]float64, n)
+	for i := 0; i < n; i++ {
+		g.Distance[i] = SpaceDistance(WardHellinger, emb.RawRowView(i), g.Centroids[g.Labels[i]])
+	}
+	if g.K > 1 {
+		if g.CentroidTree, err = CentroidTree(ctx, WardHellinger, g.Centroids); err != nil {
+			return nil, err
+		}
+		if g.Stability, err = mixtureStability(ctx, x, blocks, g, opts); err != nil {
+			return nil, err
+		}
+		for i := range g.Scores {
+			if g.Scores[i].K == g.K {
+				g.Scores[i].Stability = g.Stability.ARI
+			}
+		}
+	}
+	return g, nil
+}
+
+// mixtureStability is the groups' bootstrap stability (resampleStability): each resample is
+// fitted again with the same number of groups by EM from the memberships the whole fit gave its
+// participants (a warm start, so that a group that holds is found again where it was).
+func mixtureStability(ctx context.Context, x *mat.Dense, blocks []int, g *Grouping, opts GroupOptions) (*GroupStability, error) {
+	n, cols := x.Dims()
+	post, _, err := g.Mixture.Place(x)
+	if err != nil {
+		return nil, err
+	}
+	return resampleStability(ctx, n, g.Labels, g.K, opts, func(idx []int, b int) ([]int, error) {
+		sub := mat.NewDense(len(idx), cols, nil)
+		start := make([][]float64, len(idx))
+		for r, i := range idx {
+			sub.SetRow(r, x.RawRowView(i))
+			start[r] = post[i]
+		}
+		m, err := mixture.FitDMMFrom(ctx, sub, start, mixture.DMMOptions{Blocks: blocks})
+		if err != nil {
+			return nil, err
+		}
+		return m.Labels, nil
+	})
+}
+
+// PlaceMixture puts participants into the groups of a frozen mixture (Grouping.Mixture): each
+// in its most probable group, with that probability, and its distance to the group's centre
+// in the Hellinger embedding (centroids), as GroupSignatures measured the members'.
+func PlaceMixture(m *mixture.DMM, centroids [][]float64, shares, counts, bouts [][]float64) (*Grouping, error) {
+	n := len(shares)
+	g := &Grouping{Method: Mixture, K: m.K, Centroids: centroids, Mixture: m, Labels: make([]int, n), Distance: make([]float64, n), Silhouette: make([]float64, n), Posterior: make([]float64, n)}
+	for i := range g.Silhouette {
+		g.Silhouette[i] = math.NaN()
+	}
+	if n == 0 {
+		return g, nil
+	}
+	x, _, err := BoutTable(counts, bouts)
+	if err != nil {
+		return nil, err
+	}
+	post, labels, err := m.Place(x)
+	if err != nil {
+		return nil, fmt.Errorf("cohort: placing participants with the model's mixture: %w", err)
+	}
+	for i := range labels {
+		g.Labels[i], g.Posterior[i] = labels[i], post[i][labels[i]]
+		g.Distance[i] = SpaceDistance(WardHellinger, Embed(WardHellinger, shares[i]), centroids[labels[i]])
+	}
+	if m.K > 1 {
+		g.CentroidTree, err = CentroidTree(context.Background(), WardHellinger, centroids)
+	}
+	return g, err
+}
+
+// joinNote adds a note to a note, with a semicolon between.
+func joinNote(a, b string) string {
+	if a == "" {
+		return b
+	}
+	return a + "; " + b
+}
