@@ -145,9 +145,14 @@ type GroupOptions struct {
 	// (cluster.Valley; the states' merging rule, after Hennig 2010, applied to groups).
 	Valley float64
 	// Counts and Bouts are each participant's windows and bouts in each state, which the mixture
-	// method groups (BoutTable); the other methods do not use them.
+	// method groups (BoutTable); the other methods do not use them. With NoBouts the mixture
+	// groups the counts alone, as independent draws (windows sampled apart, whose runs are no
+	// bouts); Bouts is not used then.
 	Counts, Bouts [][]float64
-	Workers       int
+	NoBouts       bool
+	// NoStability leaves out the bootstrap stability of the groups chosen (GroupStability).
+	NoStability bool
+	Workers     int
 	Progress      func(step string, done, total int) // after each grouping, reference set and resample; may be nil
 }
 
@@ -191,6 +196,8 @@ type Grouping struct {
 	// Posterior is each participant's posterior probability of its group under the mixture (nil
 	// for the other methods).
 	Posterior []float64
+	// NoBouts says the mixture grouped the counts alone (GroupOptions.NoBouts).
+	NoBouts bool
 }
 
 // Embed maps a signature (shares) into the grouping space of the method.

@@ -12,14 +12,15 @@ import (
 	"gonum.org/v1/gonum/mat"
 )
 
-// The mixture method's model, in a sentence: each group has its own law of which state a bout
-// is spent in and, for each state, of how often a window in it starts a new bout; participants
-// stray from their group's law as a Dirichlet allows. Its data, per participant, are the
-// number of bouts in each state, and for each state the windows that continue a bout and those
-// that start one: a Dirichlet-multinomial over the states, and a beta-binomial per state
-// (mixture.FitDMM with one block of states and one block of two per state; Holmes, Harris &
-// Quince 2012; the bouts as a renewal process's, after the Markov-chain mixtures of Cadez et
-// al. 2003). Time shares come from both: a state's share is its bouts times their length.
+// The mixture method's model, in a sentence: each group has its own law of how a participant's
+// time divides among the states and, for each state, of how often a window in it starts a new
+// bout; participants stray from their group's laws as a Dirichlet allows. Its data, per
+// participant, are its shares of time in the states counted in bouts (each share times its
+// number of bouts: the windows of a bout are one observation, not many), a Dirichlet-
+// multinomial; and for each state the windows that continue a bout and those that start one, a
+// beta-binomial (mixture.FitDMM with one block of states and one block of two per state; Holmes,
+// Harris & Quince 2012; the bouts of a renewal process, after the Markov-chain mixtures of Cadez
+// et al. 2003).
 
 // mixtureFitRows is the most participants the mixture is fitted on; above it the fit uses a
 // reproducible sample of them and places every participant with the frozen mixture.
@@ -29,29 +30,45 @@ const mixtureFitRows = 3000
 const mixtureStarts = 5
 
 // BoutTable is the mixture method's data for participants with these windows and bouts in each
-// state: per row, the bouts in each state, then for each state the windows that continue a bout
-// and those that start one; and the sizes of its column blocks.
-func BoutTable(counts, bouts [][]float64) (*mat.Dense, []int, error) {
+// state: per row, its share of windows in each state times its number of bouts, then for each
+// state the windows that continue a bout and those that start one; and the sizes of its column
+// blocks. With noBouts it is the windows in each state alone (bouts is not used).
+func BoutTable(counts, bouts [][]float64, noBouts bool) (*mat.Dense, []int, error) {
 	n := len(counts)
-	if n == 0 || len(bouts) != n {
+	if n == 0 || (!noBouts && len(bouts) != n) {
 		return nil, nil, fmt.Errorf("cohort: %d participants' windows and %d participants' bouts: %w", n, len(bouts), ErrBadOption)
 	}
 	s := len(counts[0])
-	x := mat.NewDense(n, 3*s, nil)
+	cols := 3 * s
 	blocks := []int{s}
-	for j := 0; j < s; j++ {
-		blocks = append(blocks, 2)
-	}
-	for i := range counts {
-		if len(counts[i]) != s || len(bouts[i]) != s {
-			return nil, nil, fmt.Errorf("cohort: participant %d has %d states' windows and %d states' bouts, participant 0 %d: %w", i, len(counts[i]), len(bouts[i]), s, ErrBadOption)
+	if noBouts {
+		cols = s
+	} else {
+		for j := 0; j < s; j++ {
+			blocks = append(blocks, 2)
 		}
+	}
+	x := mat.NewDense(n, cols, nil)
+	for i := range counts {
+		if len(counts[i]) != s || (!noBouts && len(bouts[i]) != s) {
+			return nil, nil, fmt.Errorf("cohort: participant %d has %d states' windows, participant 0 %d: %w", i, len(counts[i]), s, ErrBadOption)
+		}
+		if noBouts {
+			x.SetRow(i, counts[i])
+			continue
+		}
+		var total, runs float64
 		for j := 0; j < s; j++ {
 			c, b := counts[i][j], bouts[i][j]
 			if b > c || b < 0 || (c > 0 && b == 0) {
 				return nil, nil, fmt.Errorf("cohort: participant %d, state %d: %v bouts in %v windows: %w", i, j, b, c, ErrBadOption)
 			}
-			x.Set(i, j, b)
+			total += c
+			runs += b
+		}
+		for j := 0; j < s; j++ {
+			c, b := counts[i][j], bouts[i][j]
+			x.Set(i, j, c/total*runs)
 			x.Set(i, s+2*j, c-b)
 			x.Set(i, s+2*j+1, b)
 		}
@@ -68,14 +85,14 @@ func groupMixture(ctx context.Context, shares [][]float64, opts GroupOptions) (*
 	if opts.Criterion != ByBIC && opts.Criterion != ByICL {
 		return nil, fmt.Errorf("cohort: the mixture method chooses its number of groups by bic or icl, not %s: %w", opts.Criterion, ErrBadOption)
 	}
-	x, blocks, err := BoutTable(opts.Counts, opts.Bouts)
+	x, blocks, err := BoutTable(opts.Counts, opts.Bouts, opts.NoBouts)
 	if err != nil {
 		return nil, err
 	}
 	if x.RawMatrix().Rows != n {
 		return nil, fmt.Errorf("cohort: %d participants' shares and %d participants' bouts: %w", n, x.RawMatrix().Rows, ErrBadOption)
 	}
-	g := &Grouping{Method: Mixture, Criterion: opts.Criterion}
+	g := &Grouping{Method: Mixture, Criterion: opts.Criterion, NoBouts: opts.NoBouts}
 	fitRows := x
 	var sampled []int
 	if n > mixtureFitRows {
@@ -177,7 +194,7 @@ func groupMixture(ctx context.Context, shares [][]float64, opts GroupOptions) (*
 	for i := range g.Silhouette {
 		g.Silhouette[i] = math.NaN()
 	}
-	if g.K > 1 {
+	if g.K > 1 && !opts.NoStability {
 		var dist *cluster.Condensed
 		if cluster.CondensedBytes(n) <= max(opts.MaxBytes, 512<<20) {
 			if dist, err = cluster.Pairwise(emb, cluster.Euclidean, max(opts.MaxBytes, 512<<20), opts.Workers); err != nil {
@@ -199,12 +216,14 @@ func groupMixture(ctx context.Context, shares [][]float64, opts GroupOptions) (*
 		if g.CentroidTree, err = CentroidTree(ctx, WardHellinger, g.Centroids); err != nil {
 			return nil, err
 		}
-		if g.Stability, err = mixtureStability(ctx, x, blocks, g, opts); err != nil {
-			return nil, err
-		}
-		for i := range g.Scores {
-			if g.Scores[i].K == g.K {
-				g.Scores[i].Stability = g.Stability.ARI
+		if !opts.NoStability {
+			if g.Stability, err = mixtureStability(ctx, x, blocks, g, opts); err != nil {
+				return nil, err
+			}
+			for i := range g.Scores {
+				if g.Scores[i].K == g.K {
+					g.Scores[i].Stability = g.Stability.ARI
+				}
 			}
 		}
 	}
@@ -247,7 +266,7 @@ func PlaceMixture(m *mixture.DMM, centroids [][]float64, shares, counts, bouts [
 	if n == 0 {
 		return g, nil
 	}
-	x, _, err := BoutTable(counts, bouts)
+	x, _, err := BoutTable(counts, bouts, len(m.Blocks) == 1)
 	if err != nil {
 		return nil, err
 	}

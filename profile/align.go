@@ -869,7 +869,7 @@ func (s *States) alignDevice(fit *normalize.Fit, x []float64) (normalize.Device,
 	centres := s.Centroids.RawMatrix().Data
 	var cal normalize.Device
 	if s.Calibrate && fit.Axes != nil {
-		cal = calibrate(x, d, fit.Axes, s.Gravity)
+		cal = calibrate(sub, d, fit.Axes, s.Gravity) // the axis means are never on a log scale
 	}
 	dev := cal
 	var y []float64

@@ -176,13 +176,15 @@ func chartsSheet(f *excelize.File, st *styles, r *Result) error {
 	if err != nil {
 		return err
 	}
-	w.text(1, row, caption, st.note)
-	w.merge(row)
-	if err := f.AddPictureFromBytes(name, fmt.Sprintf("I%d", row), &excelize.Picture{Extension: ".png", File: png,
-		Format: &excelize.GraphicOptions{AltText: caption, ScaleX: 0.8, ScaleY: 0.8}}); err != nil {
-		return err
+	if png != nil {
+		w.text(1, row, caption, st.note)
+		w.merge(row)
+		if err := f.AddPictureFromBytes(name, fmt.Sprintf("I%d", row), &excelize.Picture{Extension: ".png", File: png,
+			Format: &excelize.GraphicOptions{AltText: caption, ScaleX: 0.8, ScaleY: 0.8}}); err != nil {
+			return err
+		}
+		row += 24
 	}
-	row += 24
 	w.pageBreak(row)
 	// 6. Members' silhouettes, sorted within each group (one series per group).
 	top = row

@@ -27,6 +27,9 @@ func Dendrogram(r *Result) ([]byte, string, error) {
 		tree, leafGroup = g.CentroidTree, func(i int) int { return i }
 		caption = fmt.Sprintf("Dendrogram of the %d group centres (average linkage in the grouping space); participants are too many, or the method has no tree, to draw one by one.", g.K)
 	}
+	if tree == nil {
+		return nil, "", nil // one group: there is nothing to join
+	}
 	p := plot.New()
 	p.Title.Text = "How participants join into groups"
 	p.Y.Label.Text = "merge height"

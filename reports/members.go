@@ -17,7 +17,7 @@ func WriteMembers(path string, r *Result, force bool) error {
 // "atypical"; an excluded one has no group and the flag "excluded: " and the reason.
 func MembersTo(w io.Writer, r *Result) error {
 	cw := csv.NewWriter(w)
-	if err := cw.Write([]string{"participant", "wave", "group", "silhouette", "flag"}); err != nil {
+	if err := cw.Write([]string{"participant", "wave", "group", "probability", "silhouette", "flag"}); err != nil {
 		return err
 	}
 	for _, i := range unitOrder(r) {
@@ -26,16 +26,20 @@ func MembersTo(w io.Writer, r *Result) error {
 		if u.Silhouette == u.Silhouette { // not NaN
 			sil = strconv.FormatFloat(u.Silhouette, 'f', 4, 64)
 		}
+		prob := ""
+		if u.Posterior == u.Posterior {
+			prob = strconv.FormatFloat(u.Posterior, 'f', 4, 64)
+		}
 		group, flag := r.GroupNames[u.Group], u.Flag
 		if u.Atypical {
 			group, flag = "", "atypical"
 		}
-		if err := cw.Write([]string{u.ID, u.Wave, group, sil, flag}); err != nil {
+		if err := cw.Write([]string{u.ID, u.Wave, group, prob, sil, flag}); err != nil {
 			return err
 		}
 	}
 	for _, e := range r.Quality.Excluded {
-		if err := cw.Write([]string{e.ID, e.Wave, "", "", "excluded: " + e.Reason}); err != nil {
+		if err := cw.Write([]string{e.ID, e.Wave, "", "", "", "excluded: " + e.Reason}); err != nil {
 			return err
 		}
 	}

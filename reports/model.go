@@ -11,6 +11,7 @@ import (
 	"time"
 
 	"github.com/cohortmix/cohortmix/cluster"
+	"github.com/cohortmix/cohortmix/cluster/mixture"
 	"github.com/cohortmix/cohortmix/cohort"
 	"github.com/cohortmix/cohortmix/normalize"
 	"github.com/cohortmix/cohortmix/profile"
@@ -20,7 +21,7 @@ import (
 // ModelFormat and ModelVersion identify the model file's schema.
 const (
 	ModelFormat  = "cohortmix model"
-	ModelVersion = 3 // 2: log scales, the align step's axes, the aligned states' postures, pseudonymization; 3: the fit's settings typed (ModelFit)
+	ModelVersion = 4 // 2: log scales, the align step's axes, the aligned states' postures, pseudonymization; 3: the fit's settings typed (ModelFit); 4: the devices' calibration, the mixture of the groups
 )
 
 // oldestModel is the oldest model version this tool still reads: a version-2 file keeps its
@@ -84,8 +85,9 @@ type ModelFit struct {
 	NoPCA          bool     `json:"no_pca,omitempty"`
 	States         []int    `json:"states"` // the numbers of states tried
 	StatesRule     string   `json:"states_rule"`
-	KeepMerged     bool     `json:"keep_merged,omitempty"` // the merged states were kept without comparing the grouping's stability
-	Fits           int      `json:"fits,omitempty"`        // times the states were fitted from different random starts (0: once)
+	KeepMerged     bool     `json:"keep_merged,omitempty"`    // version 3: the merged states were kept without comparing the grouping's stability
+	NoCalibration  bool     `json:"no_calibration,omitempty"` // the align step left the axis means uncalibrated
+	Fits           int      `json:"fits,omitempty"`           // times each number of states was fitted from different random starts (0: once)
 	Valley         float64  `json:"valley"`
 	Sample         int      `json:"sample"`
 	Groups         []int    `json:"groups"` // the numbers of groups tried
@@ -129,16 +131,29 @@ type ModelStates struct {
 	Offsets []bool      `json:"offset_columns,omitempty"` // the normalized columns that carry a participant's offset
 	Prior   float64     `json:"rotation_prior,omitempty"` // pull of a rotation toward none, in windows' worth per window
 	Rounds  int         `json:"rounds,omitempty"`         // most alternations of states and device for one participant
+	// Calibrate says each device's axis means are calibrated onto the sphere of radius Gravity
+	// (normalize.SphereCalibration) before they are turned (version 4).
+	Calibrate bool    `json:"calibrate,omitempty"`
+	Gravity   float64 `json:"gravity,omitempty"`
+}
+
+// ModelMixture is the mixture method's frozen model (cohort.Grouping.Mixture): each group's
+// weight and Dirichlet parameters over the columns of cohort.BoutTable, in blocks.
+type ModelMixture struct {
+	Weights []float64   `json:"weights"`
+	Alpha   [][]float64 `json:"alpha"`
+	Blocks  []int       `json:"blocks"`
 }
 
 // ModelGrouping holds the group centres in the grouping space.
 type ModelGrouping struct {
-	Method    string      `json:"method"`
-	K         int         `json:"k"`
-	Names     []string    `json:"names"`
-	Centroids [][]float64 `json:"centroids"`
-	Atypical  float64     `json:"atypical_distance"` // 99th percentile of fitted members' distances to their own centre
-	Shares    [][]float64 `json:"mean_shares"`       // each group's mean shares over the states, for matching on refresh
+	Method    string        `json:"method"`
+	K         int           `json:"k"`
+	Names     []string      `json:"names"`
+	Centroids [][]float64   `json:"centroids"`
+	Atypical  float64       `json:"atypical_distance"` // 99th percentile of fitted members' distances to their own centre
+	Shares    [][]float64   `json:"mean_shares"`       // each group's mean shares over the states, for matching on refresh
+	Mixture   *ModelMixture `json:"mixture,omitempty"` // the mixture method's model, which places new participants (version 4)
 }
 
 // ModelMember is a fitted participant's group, for the changes sheet of later runs.
@@ -159,10 +174,13 @@ func NewModel(r *Result, read cohort.ReadOptions, featureMeds [][3]float64) *Mod
 			QuietScore: n.QuietScore, QuietMid: n.QuietMid, QuietScale: n.QuietScale, Scale: n.ScaleKind.String(),
 			Center: n.Center, Spread: n.Spread, ICC: n.ICC},
 		States: ModelStates{K: r.States.K, Names: r.StateNames, Centroids: rows(r.States.Centroids), Means: stateMeans(r),
-			Posture: r.States.Posture, Offsets: r.States.Offsets, Prior: r.States.Prior, Rounds: r.States.Rounds},
+			Posture: r.States.Posture, Offsets: r.States.Offsets, Prior: r.States.Prior, Rounds: r.States.Rounds, Calibrate: r.States.Calibrate, Gravity: r.States.Gravity},
 		Grouping: ModelGrouping{Method: r.Grouping.Method.String(), K: r.Grouping.K, Names: r.GroupNames, Centroids: r.Grouping.Centroids, Atypical: r.AtypicalCut},
 	}
 	m.Grouping.Shares, _, _ = groupMeans(r)
+	if mx := r.Grouping.Mixture; mx != nil {
+		m.Grouping.Mixture = &ModelMixture{Weights: mx.Weights, Alpha: mx.Alpha, Blocks: mx.Blocks}
+	}
 	if n.PCA != nil {
 		m.Normalize.PCAMean = n.PCA.Mean
 		m.Normalize.PCA = rows(n.PCA.Components)
@@ -390,6 +408,12 @@ func (m *Model) check() error {
 	if !(g.Atypical >= 0) || math.IsInf(g.Atypical, 0) {
 		return fmt.Errorf("grouping.atypical_distance is %v", g.Atypical)
 	}
+	if err := g.checkMixture(s.K); err != nil {
+		return err
+	}
+	if s.Calibrate && !(s.Gravity > 0 && !math.IsInf(s.Gravity, 0)) {
+		return fmt.Errorf("states.gravity is %v; calibrated states need the length of gravity, above 0", s.Gravity)
+	}
 	if m.Pseudonymized != (m.KeyFingerprint != "") {
 		return fmt.Errorf("pseudonymized is %v with key_fingerprint %q; a pseudonymized model has a fingerprint and a plain one none", m.Pseudonymized, m.KeyFingerprint)
 	}
@@ -397,6 +421,62 @@ func (m *Model) check() error {
 		return fmt.Errorf("feature_median_range has %d entries for %d features", len(m.FeatureMeds), d)
 	}
 	return nil
+}
+
+// checkMixture checks the mixture method's model against k groups over s states: a weight per
+// group summing to 1, and positive finite Dirichlet parameters over the columns of
+// cohort.BoutTable (s, or 3s with the bouts).
+func (g ModelGrouping) checkMixture(s int) error {
+	mx := g.Mixture
+	if g.Method == "mixture" && mx == nil {
+		return errors.New("grouping: the mixture method's model is missing")
+	}
+	if mx == nil {
+		return nil
+	}
+	cols := 0
+	for _, b := range mx.Blocks {
+		if b < 1 {
+			return fmt.Errorf("grouping.mixture.blocks %v: each block holds at least one column", mx.Blocks)
+		}
+		cols += b
+	}
+	if cols != s && cols != 3*s {
+		return fmt.Errorf("grouping.mixture.blocks %v cover %d columns, not %d or %d for %d states", mx.Blocks, cols, s, 3*s, s)
+	}
+	if len(mx.Weights) != g.K || len(mx.Alpha) != g.K {
+		return fmt.Errorf("grouping.mixture has %d weights and %d alpha rows for %d groups", len(mx.Weights), len(mx.Alpha), g.K)
+	}
+	var sum float64
+	for c, w := range mx.Weights {
+		if !(w > 0 && w <= 1) {
+			return fmt.Errorf("grouping.mixture.weights[%d] is %v; weights lie in (0, 1]", c, w)
+		}
+		sum += w
+	}
+	if math.Abs(sum-1) > 1e-6 {
+		return fmt.Errorf("grouping.mixture.weights sum to %v, not 1", sum)
+	}
+	if err := finiteRows("grouping.mixture.alpha", mx.Alpha, cols); err != nil {
+		return err
+	}
+	for c, row := range mx.Alpha {
+		for j, a := range row {
+			if !(a > 0) {
+				return fmt.Errorf("grouping.mixture.alpha[%d][%d] is %v; Dirichlet parameters are positive", c, j, a)
+			}
+		}
+	}
+	return nil
+}
+
+// GroupMixture rebuilds the mixture method's frozen model; nil for the other methods.
+func (m *Model) GroupMixture() *mixture.DMM {
+	mx := m.Grouping.Mixture
+	if mx == nil {
+		return nil
+	}
+	return &mixture.DMM{K: len(mx.Weights), Weights: mx.Weights, Alpha: mx.Alpha, Blocks: mx.Blocks}
 }
 
 func finiteRows(name string, rows [][]float64, width int) error {
@@ -438,5 +518,5 @@ func (m *Model) StateFit() *profile.States {
 		c.SetRow(i, r)
 	}
 	st := m.States
-	return &profile.States{K: st.K, Centroids: c, Rule: "from the model file", Posture: st.Posture, Offsets: st.Offsets, Prior: st.Prior, Rounds: st.Rounds}
+	return &profile.States{K: st.K, Centroids: c, Rule: "from the model file", Posture: st.Posture, Offsets: st.Offsets, Prior: st.Prior, Rounds: st.Rounds, Calibrate: st.Calibrate, Gravity: st.Gravity}
 }

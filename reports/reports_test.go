@@ -69,7 +69,7 @@ func TestWorkbookOpensWithSheetsFormatsAndCharts(t *testing.T) {
 		t.Fatalf("sheets %v, want %v", got, want)
 	}
 	head, _ := f.GetRows(SheetParticipants)
-	if strings.Join(head[0][:7], "|") != "participant|wave|windows|group|silhouette|distance to centre|flag" {
+	if strings.Join(head[0][:8], "|") != "participant|wave|windows|group|probability of the group|silhouette|distance to centre|flag" {
 		t.Errorf("participants header %v", head[0])
 	}
 	// Formula-looking ids are text cells with no formula.
@@ -95,7 +95,7 @@ func TestWorkbookOpensWithSheetsFormatsAndCharts(t *testing.T) {
 			t.Errorf("%s!%s format %s, want %s", sheet, cell, got, want)
 		}
 	}
-	checkFormat(SheetParticipants, "H2", "0.0%")
+	checkFormat(SheetParticipants, "I2", "0.0%")
 	checkFormat(SheetSeparating, "E3", `[<0.001]"<0.001";0.000`)
 	checkFormat(SheetGroups, "E2", "0.0%")
 	// Frozen header and filter on the participants sheet.
@@ -253,10 +253,10 @@ func TestModelRoundTripAndDamage(t *testing.T) {
 	good, _ := os.ReadFile(p)
 	cases := []struct{ name, edit, want string }{
 		{"not JSON", "}{", "not a model file"},
-		{"older schema", strings.Replace(string(good), `"version": 3`, `"version": 1`, 1), "schema version 1, this tool reads versions 2 to 3"},
+		{"older schema", strings.Replace(string(good), `"version": 4`, `"version": 1`, 1), "schema version 1, this tool reads versions 2 to 4"},
 		{"other file", `{"format":"something else","version":3}`, `format is "something else"`},
-		{"version 2 without its options", strings.Replace(string(good), `"version": 3`, `"version": 2`, 1), "a version 2 model without the settings it was fitted with"},
-		{"settings left out", withoutField(t, good, "fit"), "a version 3 model without the settings"},
+		{"version 2 without its options", strings.Replace(string(good), `"version": 4`, `"version": 2`, 1), "a version 2 model without the settings it was fitted with"},
+		{"settings left out", withoutField(t, good, "fit"), "a version 4 model without the settings"},
 		{"unknown field", strings.Replace(string(good), `"tool":`, `"extra": 1, "tool":`, 1), "damaged or hand-edited"},
 		{"wrong size", strings.Replace(string(good), `"k": 4`, `"k": 5`, 1), "states: k = 5 with 4 centroids"},
 		{"bad spread", strings.Replace(string(good), `"spread": [

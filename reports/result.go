@@ -27,7 +27,10 @@ type UnitRow struct {
 	Group      int
 	Silhouette float64
 	Distance   float64
-	Flag       string
+	// Posterior is the probability of its group under the mixture (the mixture method); NaN
+	// for the other methods.
+	Posterior float64
+	Flag      string
 	Share      []float64
 	Bout       []float64
 	Stay       float64 // share of bootstrap resamples in which it stayed with its group; NaN when not computed

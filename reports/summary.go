@@ -30,7 +30,11 @@ func summarySheet(f *excelize.File, st *styles, r *Result) error {
 		return err
 	}
 	t.blank()
-	if err := title("Groups"); err != nil {
+	groupsTitle := "Groups"
+	if r.Grouping.K == 1 {
+		groupsTitle = "No distinct groups"
+	}
+	if err := title(groupsTitle); err != nil {
 		return err
 	}
 	for g, name := range r.GroupNames {
@@ -132,6 +136,8 @@ func inShort(r *Result) string {
 		fmt.Fprintf(&b, "Placed with a frozen model: the new data were put into the %d movement states and %d groups of %s, without refitting. %s are in a group", r.States.K, r.Grouping.K, modelText(r.Changes), capital(who))
 	case r.Changes != nil:
 		fmt.Fprintf(&b, "Refitted and matched: the whole updated cohort was grouped anew, and the new states and groups were matched to those of %s, so that a group keeps its name while it is still the same group. %s were grouped into %d groups by how their time divides among %d movement states", modelText(r.Changes), capital(who), r.Grouping.K, r.States.K)
+	case r.Grouping.K == 1:
+		fmt.Fprintf(&b, "%s were described by how their time divides among %d movement states, learned from the windows of the whole cohort. They form no distinct groups: one common pattern, with the spread shown below, describes them better than any split into groups (see %s)", capital(who), r.States.K, SheetChoice)
 	default:
 		fmt.Fprintf(&b, "%s were grouped into %d groups by how their time divides among %d movement states, learned from the windows of the whole cohort", capital(who), r.Grouping.K, r.States.K)
 	}
@@ -230,6 +236,8 @@ func howDone(r *Result) string {
 	}
 	method := "Ward's method on the square roots of the shares"
 	switch r.Grouping.Method.String() {
+	case "mixture":
+		method = "a mixture model: each group has its own law of which state a bout is spent in and of how long bouts last in each state, and the number of groups, one among them, is the one the data support best by an information criterion"
 	case "pam-aitchison", "pam-js":
 		method = "partitioning around medoids"
 	case "kmeans-clr":

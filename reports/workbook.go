@@ -225,7 +225,7 @@ func participantsSheet(f *excelize.File, st *styles, r *Result) error {
 	if err := t.freeze(1); err != nil {
 		return err
 	}
-	head := []string{"participant", "wave", "windows", "group", "silhouette", "distance to centre", "flag"}
+	head := []string{"participant", "wave", "windows", "group", "probability of the group", "silhouette", "distance to centre", "flag"}
 	if stay {
 		head = append(head, "stays with its group (share of resamples)")
 	}
@@ -253,7 +253,7 @@ func participantsSheet(f *excelize.File, st *styles, r *Result) error {
 			group = ""
 		}
 		cells := []v{{u.ID, st.text}, {u.Wave, st.text}, {u.Windows, st.integer}, {group, st.text},
-			{u.Silhouette, st.dec3}, {u.Distance, st.dec3}, {u.Flag, st.text}}
+			{u.Posterior, st.dec3}, {u.Silhouette, st.dec3}, {u.Distance, st.dec3}, {u.Flag, st.text}}
 		if stay {
 			cells = append(cells, v{u.Stay, st.pct})
 		}
@@ -603,6 +603,9 @@ func choiceSheet(f *excelize.File, st *styles, r *Result) error {
 	if err := t.put(v{"Number of participant groups: " + choiceText(r), st.title}); err != nil {
 		return err
 	}
+	if r.Grouping.Method == cohort.Mixture {
+		return mixtureChoice(t, st, r)
+	}
 	if err := t.put(v{"groups", st.header}, v{"silhouette", st.header}, v{"gap", st.header}, v{"gap s.e.", st.header}, v{"stability (ARI)", st.header}, v{"chosen", st.header}); err != nil {
 		return err
 	}
@@ -612,6 +615,20 @@ func choiceSheet(f *excelize.File, st *styles, r *Result) error {
 			gap, se, stab = math.NaN(), math.NaN(), math.NaN() // not computed for a fixed number
 		}
 		if err := t.put(v{s.K, st.integer}, v{s.Silhouette, st.dec3}, v{gap, st.dec3}, v{se, st.dec3}, v{stab, st.dec3}, v{mark(s.K == r.Grouping.K), st.text}); err != nil {
+			return err
+		}
+	}
+	return t.close(false)
+}
+
+// mixtureChoice is the mixture method's table: each number of groups fitted, its
+// log-likelihood and information criteria, and the one chosen.
+func mixtureChoice(t *table, st *styles, r *Result) error {
+	if err := t.put(v{"groups", st.header}, v{"log-likelihood", st.header}, v{"BIC", st.header}, v{"ICL", st.header}, v{"stability (ARI)", st.header}, v{"chosen", st.header}); err != nil {
+		return err
+	}
+	for _, s := range r.Grouping.Scores {
+		if err := t.put(v{s.K, st.integer}, v{s.LogLik, st.dec1}, v{s.BIC, st.dec1}, v{s.ICL, st.dec1}, v{s.Stability, st.dec3}, v{mark(s.K == r.Grouping.K), st.text}); err != nil {
 			return err
 		}
 	}

@@ -52,7 +52,7 @@ func TestCommandLinesBecomeOptions(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
-		if ao.Norm.Within.String() != "align" || ao.Norm.PCAVariance != 0.99 || ao.States[0] != 2 || ao.States[len(ao.States)-1] != 12 || ao.Read.ID != "participant" || ao.Seed != 1 {
+		if ao.Norm.Within.String() != "align" || ao.Norm.PCAVariance != 0.99 || ao.States[0] != 3 || ao.States[len(ao.States)-1] != 8 || ao.Read.ID != "participant" || ao.Seed != 1 {
 			t.Errorf("default options %+v", ao)
 		}
 		// The flags' defaults are the library's (job.Defaults), so a program that imports the

@@ -106,12 +106,14 @@ func assignRun(ctx context.Context, o *assignOptions) error {
 	if err != nil {
 		return err
 	}
-	shares := make([][]float64, len(f.Sigs))
-	for i, s := range f.Sigs {
-		shares[i] = s.Share
+	shares, counts, bouts := job.SignatureColumns(f.Sigs)
+	if mx := m.GroupMixture(); mx != nil {
+		f.Grouping, err = cohort.PlaceMixture(mx, m.Grouping.Centroids, shares, counts, bouts)
+	} else {
+		method, _ := cohort.ParseMethod(m.Grouping.Method)
+		f.Grouping, err = cohort.Place(method, m.Grouping.Centroids, shares, o.Workers)
 	}
-	method, _ := cohort.ParseMethod(m.Grouping.Method)
-	if f.Grouping, err = cohort.Place(method, m.Grouping.Centroids, shares, o.Workers); err != nil {
+	if err != nil {
 		return err
 	}
 	f.Window, f.WindowSource = job.WindowLength(t, o.Window)

@@ -52,7 +52,7 @@ type mainFlags struct {
 	Turn                   string
 	Log                    string
 	StatesRule             string
-	StatesLevel            string
+	Calibration            string
 	Fits                   int
 	Valley                 float64
 	OffsetICC, RestShare   float64
@@ -86,15 +86,15 @@ func (m *mainFlags) register(cmd *cobra.Command) {
 	f.Float64Var(&m.RestShare, "rest-share", 0.1, "share of a participant's quietest windows that defines its rest baseline")
 	f.StringVar(&m.Scale, "scale", "z", "cohort-wide scaling: z or robust-z")
 	f.StringVar(&m.PCA, "pca", "0.99", "PCA: a variance share in (0,1], a number of components, or off")
-	f.StringVar(&m.States, "states", "2-12", "number of movement states, or a range to choose from")
+	f.StringVar(&m.States, "states", "3-8", "number of movement states, or a range: with the align step each is fitted and the fit kept whose grouping agrees best with the others'; otherwise the rule chooses")
 	f.Float64Var(&m.Valley, "valley", profile.DefaultValley, "with --states-rule valley: two states merge when the density of their windows between them keeps at least this share of its height at them")
 	f.StringVar(&m.StatesRule, "states-rule", "valley", "how a range of states is decided: valley (fit the most, merge states that form one mode) or ch (largest Calinski–Harabasz index)")
-	f.IntVar(&m.Fits, "fits", job.DefaultFits, "with the align step: fit the states this many times from different random starts and keep the fit whose grouping of the sampled participants agrees best with the others' (each fit adds about half the time of a run on large cohorts)")
-	f.StringVar(&m.StatesLevel, "states-level", "stable", "with the valley rule and the align step: stable keeps the states as fitted instead of merged when the sampled participants group more stably over them, or as stably and more clearly apart; merged always keeps the merged states")
+	f.IntVar(&m.Fits, "fits", job.DefaultFits, "with the align step: fit each number of states this many times from different random starts, and keep the fit whose grouping of the sampled participants agrees best with all the others'")
+	f.StringVar(&m.Calibration, "calibration", "sphere", "with the align step: sphere calibrates each device's axis means onto the sphere of gravity before turning them (van Hees et al. 2014); off leaves them as read")
 	f.IntVar(&m.Sample, "sample", 50000, "windows sampled to fit the states")
-	f.StringVar(&m.Groups, "groups", "2-8", "number of participant groups, or a range to choose from")
-	f.StringVar(&m.Method, "method", "auto", "grouping: "+cohort.MethodHelp())
-	f.StringVar(&m.Criterion, "criterion", "gap-steady", "rule for the number of groups: gap-steady (gap-stable's number, or when that grouping is tentative, its stability below 0.8, the largest smaller number whose grouping is not), gap-stable (the gap statistic's number, then one fewer while that groups more stably by more than 0.1), gap, stability or silhouette")
+	f.StringVar(&m.Groups, "groups", "1-8", "number of participant groups, or a range to choose from (1, no distinct groups, is a possible answer of the mixture method)")
+	f.StringVar(&m.Method, "method", "mixture", "grouping: "+cohort.MethodHelp())
+	f.StringVar(&m.Criterion, "criterion", "icl", "rule for the number of groups: icl or bic for the mixture method (the integrated completed likelihood, or the Bayesian information criterion); for the others gap-steady (gap-stable's number, or when that grouping is tentative, its stability below 0.8, the largest smaller number whose grouping is not), gap-stable (the gap statistic's number, then one fewer while that groups more stably by more than 0.1), gap, stability or silhouette")
 	f.Float64Var(&m.GroupValley, "group-valley", 0, "lower the number of groups while two of them form one mode (density between them at least this share of its height; 0: off)")
 	f.IntVar(&m.Bootstrap, "bootstrap", 20, "resamples for stability and reference sets for the gap statistic")
 	f.Uint64Var(&m.Seed, "seed", 1, "seed for every random step")
@@ -189,7 +189,7 @@ func (m *mainFlags) options(inputs []string) (job.Options, error) {
 	if o.StatesRule == profile.ByCalinskiHarabasz && o.Norm.Within == normalize.WithinAlign {
 		return o, flagErrorf("--states-rule ch with --within align: the aligned states decide a range by the valley rule; use --within none, rest, centre or robust-z for ch")
 	}
-	if o.KeepMerged, err = secondOf("states-level", m.StatesLevel, "stable", "merged"); err != nil {
+	if o.NoCalibration, err = secondOf("calibration", m.Calibration, "sphere", "off"); err != nil {
 		return o, err
 	}
 	if !(m.Valley > 0 && m.Valley <= 1) {
@@ -264,7 +264,7 @@ func (m *mainFlags) settings() []reports.Setting {
 		s("id column", m.ID), s("order column", m.Order), s("wave column", m.Wave), s("label column", m.Label),
 		s("feature patterns", strings.Join(m.Features, ",")), s("missing cells", m.Missing), s("minimum windows", strconv.Itoa(m.MinWindows)),
 		s("within-participant step", m.Within), s("within-step features", strings.Join(m.WithinFeatures, ",")),
-		s("axis means (align)", m.Axes), s("turned with the axis means", m.Turn), s("log scale", m.Log), s("rule for a range of states", m.StatesRule), s("states kept", m.StatesLevel), s("fits of the states", strconv.Itoa(m.Fits)), s("valley ratio", fmt.Sprint(m.Valley)),
+		s("axis means (align)", m.Axes), s("turned with the axis means", m.Turn), s("log scale", m.Log), s("rule for a range of states", m.StatesRule), s("calibration of the axis means", m.Calibration), s("fits of the states", strconv.Itoa(m.Fits)), s("valley ratio", fmt.Sprint(m.Valley)),
 		s("offset ICC threshold", fmt.Sprint(m.OffsetICC)), s("rest share", fmt.Sprint(m.RestShare)),
 		s("cohort scaling", m.Scale), s("PCA", m.PCA), s("states", m.States), s("window sample", strconv.Itoa(m.Sample)),
 		s("groups", m.Groups), s("grouping method", m.Method), s("criterion for groups", m.Criterion), s("group valley cap", strconv.FormatFloat(m.GroupValley, 'g', -1, 64)),
@@ -480,10 +480,10 @@ var modelFlags = map[string]func(m *mainFlags, f *reports.ModelFit, r reports.Mo
 	},
 	"states":      func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) { m.States = rangeText(f.States) },
 	"states-rule": func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) { m.StatesRule = f.StatesRule },
-	"states-level": func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) {
-		m.StatesLevel = "stable"
-		if f.KeepMerged {
-			m.StatesLevel = "merged"
+	"calibration": func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) {
+		m.Calibration = "sphere"
+		if f.NoCalibration {
+			m.Calibration = "off"
 		}
 	},
 	"valley":       func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) { m.Valley = f.Valley },
@@ -525,12 +525,3 @@ func (m *mainFlags) fromModel(prev *reports.Model, changed func(name string) boo
 	return nil
 }
 
-// mostStates is the largest number of states the model's fit tried.
-func mostStates(prev *reports.Model) int {
-	if f := prev.Fit; f != nil {
-		return f.States[len(f.States)-1]
-	}
-	_, hi, _ := strings.Cut(prev.Options["states"], "-")
-	n, _ := strconv.Atoi(hi)
-	return n
-}

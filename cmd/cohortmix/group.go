@@ -165,7 +165,11 @@ func printSummary(io IO, r *reports.Result, out string) {
 	if c.Waves {
 		people = fmt.Sprintf(" of %d people", c.PeopleGrouped)
 	}
-	fmt.Fprintf(io.Out, "%d %s%s grouped (%d excluded), %d movement states, %d groups → %s\n", c.Grouped, c.Unit(c.Grouped), people, c.Excluded, r.States.K, r.Grouping.K, out)
+	groups := fmt.Sprintf("%d groups", r.Grouping.K)
+	if r.Grouping.K == 1 {
+		groups = "no distinct groups"
+	}
+	fmt.Fprintf(io.Out, "%d %s%s grouped (%d excluded), %d movement states, %s → %s\n", c.Grouped, c.Unit(c.Grouped), people, c.Excluded, r.States.K, groups, out)
 	sizes := map[int]int{}
 	for _, u := range r.Units {
 		sizes[u.Group]++

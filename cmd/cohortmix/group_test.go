@@ -316,7 +316,7 @@ func TestAccountingOnGeneratedCohorts(t *testing.T) {
 			mf.Close()
 			excluded := 0
 			for _, r := range recs[1:] {
-				if strings.HasPrefix(r[4], "excluded: ") {
+				if strings.HasPrefix(r[5], "excluded: ") {
 					excluded++
 				}
 			}

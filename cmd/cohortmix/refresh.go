@@ -67,18 +67,9 @@ func refreshRun(ctx context.Context, o *refreshOptions) error {
 		return fmt.Errorf("%s: %w", o.Previous, err)
 	}
 	if !o.changed("states") {
-		// At least the previous number of states, so that each previous state can keep its name
-		// and the groups are compared over the same states; fitted as before (the largest of the
-		// previous range, then merged, but not below it), so that the same data give the same
-		// states.
+		// The previous number of states, so that each previous state can keep its name and the
+		// groups are compared over the same states.
 		o.Flags.States = strconv.Itoa(prev.States.K)
-		if n := mostStates(prev); n > prev.States.K {
-			o.Flags.States = fmt.Sprintf("%d-%d", prev.States.K, n)
-			// The previous states were merged: merged they stay, so that they keep their names.
-			if !o.changed("states-level") {
-				o.Flags.StatesLevel = "merged"
-			}
-		}
 	}
 	ao, key, err := o.prepare()
 	if err != nil {

@@ -428,9 +428,9 @@ func TestAtypicalParticipantsAreInNoGroup(t *testing.T) {
 	atypical := 0
 	for _, r := range recs[1:] {
 		switch {
-		case r[4] == "atypical" && r[2] == "":
+		case r[5] == "atypical" && r[2] == "":
 			atypical++
-		case r[4] == "atypical" || r[2] == "":
+		case r[5] == "atypical" || r[2] == "":
 			t.Errorf("members CSV row %v: an atypical participant has no group, and only it", r)
 		}
 	}

@@ -146,6 +146,11 @@ func groupBy(t *testing.T, method string, ff familyFit, maxK int) grouped {
 			scans[key] = fits
 			scanMu.Unlock()
 		}
+		tau := 0.0
+		if i := strings.Index(crit, "m"); i > 0 {
+			fmt.Sscan(crit[i+1:], &tau)
+			crit = crit[:i]
+		}
 		var best *mixture.DMM
 		bestV := math.Inf(1)
 		for _, m := range fits {
@@ -154,9 +159,16 @@ func groupBy(t *testing.T, method string, ff familyFit, maxK int) grouped {
 				best, bestV = m, v
 			}
 		}
+		if tau > 0 {
+			labels, k := mergeOverlapping(best, tau)
+			return grouped{labels, k}
+		}
 		return grouped{best.Labels, best.K}
 	case strings.HasPrefix(method, "gmm"):
 		y := sqrtEmbedding(ff, strings.Contains(method, "bout"))
+		if strings.Contains(method, "ilr") {
+			y = ilrEmbedding(ff, strings.Contains(method, "bout"), 0.9)
+		}
 		crit := "bic"
 		if strings.HasSuffix(method, "icl") {
 			crit = "icl"
@@ -197,6 +209,47 @@ func groupBy(t *testing.T, method string, ff familyFit, maxK int) grouped {
 	}
 	t.Fatalf("no method %s", method)
 	return grouped{}
+}
+
+// mergeOverlapping joins, one pair at a time, the two components whose laws overlap most while
+// their Bhattacharyya coefficient is above tau, and relabels the rows.
+func mergeOverlapping(m *mixture.DMM, tau float64) ([]int, int) {
+	group := make([]int, m.K)
+	for c := range group {
+		group[c] = c
+	}
+	for {
+		ba, bb, bv := -1, -1, tau
+		for a := 0; a < m.K; a++ {
+			for b := a + 1; b < m.K; b++ {
+				if group[a] == group[b] {
+					continue
+				}
+				if v := m.Overlap(a, b); v > bv {
+					ba, bb, bv = a, b, v
+				}
+			}
+		}
+		if ba < 0 {
+			break
+		}
+		from, to := group[bb], group[ba]
+		for c := range group {
+			if group[c] == from {
+				group[c] = to
+			}
+		}
+	}
+	ids := map[int]int{}
+	labels := make([]int, len(m.Labels))
+	for i, l := range m.Labels {
+		g := group[l]
+		if _, ok := ids[g]; !ok {
+			ids[g] = len(ids)
+		}
+		labels[i] = ids[g]
+	}
+	return labels, len(ids)
 }
 
 // sqrtEmbedding is each unit's square-root shares on the principal axes that carry variance
@@ -282,6 +335,66 @@ func groupingsOf(t *testing.T, dir string, d *familyDump, method string) cachedG
 	b, _ := json.Marshal(c)
 	os.WriteFile(path, b, 0o644)
 	return c
+}
+
+// ilrEmbedding is each unit's centred log-ratios of its state counts (half a window added to
+// each), on the principal axes that keep the share keep of their variance, with the log of its
+// mean bout length (windows per bout) beside them when bout is set.
+func ilrEmbedding(ff familyFit, bout bool, keep float64) *mat.Dense {
+	n, s := len(ff.Counts), ff.S
+	x := mat.NewDense(n, s, nil)
+	for i, c := range ff.Counts {
+		var tot, lm float64
+		for _, v := range c {
+			tot += float64(v)
+		}
+		row := make([]float64, s)
+		for j, v := range c {
+			row[j] = math.Log((float64(v) + 0.5) / (tot + 0.5*float64(s)))
+			lm += row[j] / float64(s)
+		}
+		for j := range row {
+			x.Set(i, j, row[j]-lm)
+		}
+	}
+	pca, err := cluster.FitPCA(x, cluster.PCAOptions{})
+	if err != nil {
+		panic(err)
+	}
+	z, _ := pca.Transform(x)
+	keepN, acc := 0, 0.0
+	for _, r := range pca.Ratio {
+		keepN++
+		acc += r
+		if acc >= keep {
+			break
+		}
+	}
+	keepN = min(keepN, s-1)
+	cols := keepN
+	if bout {
+		cols++
+	}
+	y := mat.NewDense(n, cols, nil)
+	for i := 0; i < n; i++ {
+		for j := 0; j < keepN; j++ {
+			y.Set(i, j, z.At(i, j))
+		}
+		if bout {
+			var runs, tot float64
+			for a := 0; a < s; a++ {
+				for b := 0; b < s; b++ {
+					v := float64(ff.Trans[i][a*s+b])
+					tot += v
+					if a != b {
+						runs += v
+					}
+				}
+			}
+			y.Set(i, keepN, math.Log((tot+1)/(runs+1)))
+		}
+	}
+	return y
 }
 
 func TestFamiliesEval(t *testing.T) {

@@ -7,6 +7,7 @@ import (
 	"fmt"
 	"os"
 	"path/filepath"
+	"slices"
 	"strings"
 	"testing"
 	"time"
@@ -209,4 +210,162 @@ func readFamilyDumps(t *testing.T, dir string) []*familyDump {
 		out = append(out, &d)
 	}
 	return out
+}
+
+var familiesRecover = flag.String("families.recover", "", "run the job with the defaults on family members: family:first-last[,…]")
+var familiesSeeds = flag.Int("families.seeds", 3, "tool seeds per member, for reproducibility")
+var familiesArgs = flag.String("families.opts", "", "options changed from the defaults, as key=value,… (states=4, fits=1, criterion=bic, method=ward-hellinger, calibration=off)")
+
+// The families benchmark: the whole job with the defaults (or -families.opts) on members of
+// every family, scored by the adjusted Rand index against the planted groups, each member run
+// with several seeds of the tool to measure reproducibility (median pairwise ARI of the
+// members' groups over the seeds).
+func TestFamiliesRecovery(t *testing.T) {
+	if *familiesRecover == "" {
+		t.Skip("pass -families.recover family:first-last")
+	}
+	type row struct {
+		family         string
+		seed           uint64
+		aris, reps     []float64
+		states, groups []int
+		trueK          int
+		secs           float64
+	}
+	var rows []row
+	_ = rows
+	for _, part := range strings.Split(*familiesRecover, ",") {
+		var name string
+		var lo, hi uint64
+		if _, err := fmt.Sscanf(strings.Replace(part, ":", " ", 1), "%s %d-%d", &name, &lo, &hi); err != nil {
+			t.Fatalf("%s: %v", part, err)
+		}
+		fam, err := synth.ParseFamily(name)
+		if err != nil {
+			t.Fatal(err)
+		}
+		for seed := lo; seed <= hi; seed++ {
+			m := recoverMember(t, fam, seed)
+			r := row(m)
+			rows = append(rows, r)
+			t.Logf("%-7s %4d K=%d: ARI %v, states %v, groups %v, reproducibility %.2f, %.1f s", fam, seed, r.trueK, fmtFloats(r.aris), r.states, r.groups, median(r.reps), r.secs)
+		}
+	}
+	byFam := map[string][]row{}
+	var fams []string
+	for _, r := range rows {
+		if byFam[r.family] == nil {
+			fams = append(fams, r.family)
+		}
+		byFam[r.family] = append(byFam[r.family], r)
+	}
+	var b strings.Builder
+	fmt.Fprintf(&b, "%-8s %8s %8s %8s %10s %12s %8s\n", "family", "members", "mean ARI", "worst", "below 0.5", "median rep.", "worst rep.")
+	for _, f := range fams {
+		var a, rp []float64
+		below := 0
+		for _, r := range byFam[f] {
+			a = append(a, r.aris[0])
+			if r.aris[0] < 0.5 {
+				below++
+			}
+			rp = append(rp, median(r.reps))
+		}
+		fmt.Fprintf(&b, "%-8s %8d %8.3f %8.3f %10d %12.3f %8.3f\n", f, len(a), mean(a), slices.Min(a), below, median(rp), slices.Min(rp))
+	}
+	t.Logf("the job on family members (ARI of the first seed; reproducibility: median pairwise ARI of the members' groups over %d tool seeds):\n%s", *familiesSeeds, b.String())
+}
+
+func fmtFloats(xs []float64) string {
+	parts := make([]string, len(xs))
+	for i, x := range xs {
+		parts[i] = fmt.Sprintf("%.2f", x)
+	}
+	return "[" + strings.Join(parts, " ") + "]"
+}
+
+// recoverMember runs the job on one member with several tool seeds.
+func recoverMember(t *testing.T, fam synth.Family, seed uint64) (r struct {
+	family         string
+	seed           uint64
+	aris, reps     []float64
+	states, groups []int
+	trueK          int
+	secs           float64
+}) {
+	ctx := context.Background()
+	path := filepath.Join(t.TempDir(), "scenario.csv")
+	truth, err := synth.WriteFile(path, synth.Options{Scenario: seed, Family: fam, Seed: seed, Participants: 200, Windows: 2016})
+	if err != nil {
+		t.Fatal(err)
+	}
+	sc, _ := synth.DrawFamily(fam, seed)
+	r.family, r.seed, r.trueK = string(fam), seed, len(sc.Groups)
+	o := Defaults(path)
+	o.NoSensitivity = true
+	for _, kv := range strings.Split(*familiesArgs, ",") {
+		k, v, _ := strings.Cut(kv, "=")
+		switch k {
+		case "":
+		case "states":
+			var a, b int
+			if n, _ := fmt.Sscanf(v, "%d-%d", &a, &b); n == 2 {
+				o.States = nil
+				for s := a; s <= b; s++ {
+					o.States = append(o.States, s)
+				}
+			} else {
+				fmt.Sscan(v, &a)
+				o.States = []int{a}
+			}
+		case "fits":
+			fmt.Sscan(v, &o.Fits)
+		case "criterion":
+			o.Criterion, _ = cohort.ParseCriterion(v)
+		case "method":
+			o.Method, _ = cohort.ParseMethod(v)
+			if o.Method != cohort.Mixture {
+				o.Groups = o.Groups[1:]
+				o.Criterion = cohort.ByGapSteady
+			}
+		case "calibration":
+			o.NoCalibration = v == "off"
+		default:
+			t.Fatalf("-families.opts: no option %s", k)
+		}
+	}
+	tab, err := cohort.Read(ctx, []string{path}, o.Read)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer tab.Close()
+	group := map[string]int{}
+	for _, tr := range truth {
+		group[tr.ID] = tr.Group
+	}
+	want := make([]int, len(tab.Units))
+	for i, u := range tab.Units {
+		want[i] = group[u.ID]
+	}
+	var labels [][]int
+	for s := 1; s <= *familiesSeeds; s++ {
+		o.Seed = uint64(s)
+		start := time.Now()
+		f, err := FitTable(ctx, tab, o)
+		if err != nil {
+			t.Fatalf("%s %d seed %d: %v", fam, seed, s, err)
+		}
+		if s == 1 {
+			r.secs = time.Since(start).Seconds()
+		}
+		labels = append(labels, f.Grouping.Labels)
+		r.aris = append(r.aris, agreement(want, f.Grouping.Labels))
+		r.states, r.groups = append(r.states, f.States.K), append(r.groups, f.Grouping.K)
+	}
+	for i := range labels {
+		for j := i + 1; j < len(labels); j++ {
+			r.reps = append(r.reps, agreement(labels[i], labels[j]))
+		}
+	}
+	return r
 }

@@ -38,11 +38,12 @@ type Options struct {
 	// them (normalize.FindTurned).
 	NoTurn     bool
 	StatesRule profile.Rule
-	// KeepMerged keeps, for a range of states, the valley rule's merged states, without asking
-	// whether the states as fitted serve the grouping better (chooseStates).
-	KeepMerged bool
-	// Fits is how many times the states are fitted from different random starts, the fit kept
-	// being the one whose grouping agrees best with the others' (fitStates); 0 and 1 fit once.
+	// NoCalibration leaves each device's axis means uncalibrated in the align step (see
+	// normalize.SphereCalibration).
+	NoCalibration bool
+	// Fits is how many times each number of states is fitted from different random starts, the
+	// fit kept being the one whose grouping agrees best with all the others' (fitStates); 0 and
+	// 1 fit once.
 	Fits   int
 	Valley float64 // see profile.MergeStates; 0 means profile.DefaultValley
 	// GroupValley lowers the number of groups while two form one mode (cohort.GroupOptions.Valley).
@@ -274,7 +275,7 @@ func fitEveryWindow(ctx context.Context, t *cohort.Table, plan *Plan, sample sam
 // groupFitted groups the participants on their signatures and, unless told not to, checks the
 // groups against other choices.
 func groupFitted(ctx context.Context, f *Fitted, o Options) error {
-	shares, counts, bouts := signatureColumns(f.Sigs)
+	shares, counts, bouts := SignatureColumns(f.Sigs)
 	if o.Progress != nil {
 		o.Progress("grouping participants")
 	}
@@ -295,9 +296,9 @@ func groupFitted(ctx context.Context, f *Fitted, o Options) error {
 	return nil
 }
 
-// signatureColumns are the signatures' shares, and their windows and bouts in each state as
+// SignatureColumns are the signatures' shares, and their windows and bouts in each state as
 // numbers, for the grouping.
-func signatureColumns(sigs []profile.Signature) (shares, counts, bouts [][]float64) {
+func SignatureColumns(sigs []profile.Signature) (shares, counts, bouts [][]float64) {
 	shares, counts, bouts = make([][]float64, len(sigs)), make([][]float64, len(sigs)), make([][]float64, len(sigs))
 	for i, sg := range sigs {
 		shares[i] = sg.Share
@@ -392,13 +393,18 @@ func Describe(f *Fitted, stateNames, groupNames []string) (*reports.Result, erro
 			tested[j].Values[r] = v.Values[i]
 		}
 	}
-	if res.Separations, res.NotTested, err = cohort.Separate(tested, labels, g.K, f.Workers); err != nil {
+	if g.K < 2 {
+		res.NotTested = []cohort.Note{{Name: "every variable", Reason: "not tested: the participants form one group, so there are no groups to set apart"}}
+	} else if res.Separations, res.NotTested, err = cohort.Separate(tested, labels, g.K, f.Workers); err != nil {
 		return nil, err
 	}
 	res.AtypicalCut = groupstat.Quantile(g.Distance, 0.99)
 	for i, u := range t.Units {
 		row := reports.UnitRow{ID: u.ID, Wave: u.Wave, Windows: sigs[i].Windows, Group: g.Labels[i],
-			Silhouette: g.Silhouette[i], Distance: g.Distance[i], Share: sigs[i].Share, Bout: sigs[i].MeanBout, Stay: math.NaN(), Turn: math.NaN()}
+			Silhouette: g.Silhouette[i], Distance: g.Distance[i], Share: sigs[i].Share, Bout: sigs[i].MeanBout, Stay: math.NaN(), Turn: math.NaN(), Posterior: math.NaN()}
+		if g.Posterior != nil {
+			row.Posterior = g.Posterior[i]
+		}
 		if g.Stability != nil {
 			row.Stay = g.Stability.Stay[i]
 		}
@@ -479,6 +485,9 @@ func groupLines(g *cohort.Grouping, sigs []profile.Signature, stateNames []strin
 	// those who did.
 	overShares, _ := groupstat.GroupMeans(shares, all, 1)
 	meanShare, meanBout := overShares[0], groupstat.GroupMeansOfPositive(bouts, all, 1)[0]
+	if g.K == 1 {
+		return []string{spreadLine(shares, bouts, groups, stateNames, units, waves, window)}
+	}
 	groupShares, sizes := groupstat.GroupMeans(shares, groups, g.K)
 	groupBouts := groupstat.GroupMeansOfPositive(bouts, groups, g.K)
 	lines := make([]string, g.K)
@@ -542,6 +551,43 @@ func groupLines(g *cohort.Grouping, sigs []profile.Signature, stateNames []strin
 	return lines
 }
 
+// spreadLine describes participants who form one group: how many, and for each state the
+// median share of time and the range of the middle 80 % (10th to 90th percentile), with the
+// median bout length, so that the reader sees the spread where there are no groups to compare.
+func spreadLine(shares, bouts [][]float64, groups []int, stateNames []string, units []*cohort.Unit, waves bool, window time.Duration) string {
+	n := 0
+	people := map[string]bool{}
+	for i, gr := range groups {
+		if gr == 0 {
+			n++
+			people[units[i].ID] = true
+		}
+	}
+	count := fmt.Sprintf("%d participants", n)
+	if waves {
+		count = fmt.Sprintf("%d participant-waves of %d people", n, len(people))
+	}
+	var parts []string
+	for j, name := range stateNames {
+		var col, bcol []float64
+		for i, gr := range groups {
+			if gr == 0 {
+				col = append(col, shares[i][j])
+				if bouts[i][j] > 0 {
+					bcol = append(bcol, bouts[i][j])
+				}
+			}
+		}
+		part := fmt.Sprintf("%s %s of their time (10th–90th percentile %s–%s)", name, reports.Percent(groupstat.Quantile(col, 0.5)),
+			reports.Percent(groupstat.Quantile(col, 0.1)), reports.Percent(groupstat.Quantile(col, 0.9)))
+		if len(bcol) > 0 {
+			part += ", bouts of " + boutText(groupstat.Quantile(bcol, 0.5), window)
+		}
+		parts = append(parts, part)
+	}
+	return count + ", with no distinct groups: their mixtures of states vary around one common pattern. In the median, " + strings.Join(parts, "; ")
+}
+
 // withNote adds a note to a name in brackets, inside the brackets it may already have:
 // "sitting (S1)" and "43%" give "sitting (S1, 43%)".
 func withNote(name, note string) string {
@@ -560,13 +606,11 @@ func boutText(windows float64, window time.Duration) string {
 }
 
 // Defaults are the settings of a run that sets nothing else, the command line's defaults: the
-// align step with started log scales and PCA keeping 99 % of the variance; 2–12 movement states,
-// neighbours that form one mode merged (the valley rule); 2–8 groups by Ward linkage on the
-// Hellinger embedding (k-means on the centred log-ratios above 10,000 participants), the
-// number chosen by the gap statistic with 20 reference sets, then one fewer while that groups
-// more stably by more than cohort.StableStep (20 resamples), then, when that grouping is
-// tentative, the largest smaller number whose grouping is not (cohort.ByGapSteady); about
-// 50,000 windows sampled for the fit; seed 1.
+// align step with started log scales, each device calibrated, and PCA keeping 99 % of the
+// variance; movement states fitted with 3 to 8 states from 3 random starts each, the fit
+// kept the one whose grouping of the sampled participants agrees best with the others'
+// (fitStates); the participants grouped by the mixture (cohort.Mixture) into 1 to 8 groups by
+// the integrated completed likelihood; about 50,000 windows sampled for the fit; seed 1.
 func Defaults(inputs ...string) Options {
 	span := func(lo, hi int) []int {
 		var out []int
@@ -580,8 +624,8 @@ func Defaults(inputs ...string) Options {
 		Read:   cohort.ReadOptions{ID: "participant", Order: "window", Missing: cohort.DropWindow, MinWindows: 20},
 		Norm: normalize.Options{Within: normalize.WithinAlign, Scale: normalize.ScaleZ, Log: true, PCAVariance: 0.99,
 			OffsetICC: 0.3, RestShare: 0.1},
-		States: span(2, 12), StatesRule: profile.ByValley, Valley: profile.DefaultValley, Sample: 50_000,
-		Groups: span(2, 8), Method: cohort.Auto, Criterion: cohort.ByGapSteady, Bootstrap: 20, Seed: 1, Fits: DefaultFits,
+		States: span(3, 8), StatesRule: profile.ByValley, Valley: profile.DefaultValley, Sample: 50_000,
+		Groups: span(1, 8), Method: cohort.Mixture, Criterion: cohort.ByICL, Bootstrap: 20, Seed: 1, Fits: DefaultFits,
 	}
 }
 
@@ -591,7 +635,7 @@ func (o Options) ModelFit() *reports.ModelFit {
 		Within: o.Norm.Within.String(), WithinFeatures: o.Norm.WithinFeatures, OffsetICC: o.Norm.OffsetICC, RestShare: o.Norm.RestShare,
 		Axes: o.Axes, NoAxes: o.NoAxes, NoTurn: o.NoTurn, Log: o.Norm.Log, Scale: o.Norm.Scale.String(),
 		PCAComponents: o.Norm.PCAComponents, PCAVariance: o.Norm.PCAVariance, NoPCA: o.Norm.NoPCA,
-		States: o.States, StatesRule: o.StatesRule.String(), KeepMerged: o.KeepMerged, Fits: o.Fits, Valley: o.Valley, Sample: o.Sample,
+		States: o.States, StatesRule: o.StatesRule.String(), NoCalibration: o.NoCalibration, Fits: o.Fits, Valley: o.Valley, Sample: o.Sample,
 		Groups: o.Groups, Method: o.Method.String(), Criterion: o.Criterion.String(), GroupValley: o.GroupValley,
 		Bootstrap: o.Bootstrap, Seed: o.Seed, WindowSeconds: o.Window.Seconds(),
 	}

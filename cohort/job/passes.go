@@ -355,7 +355,11 @@ func mergeSamples(p *Plan, parts []*SamplePiece) (sampleUnits, error) {
 
 // FitPiece is the fit, made once from the merged sample, that every assignment pass applies.
 type FitPiece struct {
-	Plan     *Plan
+	// Reproducibility is the median agreement (adjusted Rand index) of the groupings of the
+	// sampled participants over the states fitted from different random starts, at the number
+	// of states kept; NaN when the states were fitted once.
+	Reproducibility float64
+	Plan            *Plan
 	Fit      *normalize.Fit
 	States   *profile.States
 	Notes    []string
@@ -425,7 +429,7 @@ func fitScaling(ctx context.Context, p *Plan, samples []*SamplePiece) (*FitPiece
 	if err != nil {
 		return nil, nil, err
 	}
-	fp := &FitPiece{Plan: p}
+	fp := &FitPiece{Plan: p, Reproducibility: math.NaN()}
 	for _, s := range samples {
 		fp.Sample = append(fp.Sample, s.Units...)
 	}
@@ -467,194 +471,159 @@ func fitScaling(ctx context.Context, p *Plan, samples []*SamplePiece) (*FitPiece
 	return fp, units, nil
 }
 
-// levelUnits is the fewest sampled participants on which chooseStates compares the two levels.
-const levelUnits = 20
-
-// LevelGapMargin is how much larger the gap statistic of the grouping over the states as fitted
-// must be than over the merged states for chooseStates to keep the states as fitted because they
-// show more groups (its second reason) or group as well (its third). It was chosen on the recovery benchmark's seeds 1–400,
-// studied on the gap statistics of the whole cohorts' groupings at both levels, where every
-// margin from 0.05 to 0.10 made the same choices, and 0.05 is the smallest that made none of
-// the choices that went wrong with smaller margins (testdata/recovery-history.md).
-const LevelGapMargin = 0.05
-
-// chooseStates keeps the states as fitted, before any merge (States.Fine), instead of the merged
-// states when the sampled participants' signatures over them serve the grouping better: the
-// number of states that serves the grouping rather than the windows. Each level's signatures are
-// grouped as the run groups (method, range, criterion, with gap-steady taken as gap-stable). The
-// states as fitted are kept
-//
-//  1. when their grouping is clearly more stable than the merged states' grouping, each at the
-//     number of groups it chooses: more stable by more than one standard error of the merged
-//     states' stability (the one-standard-error rule of Breiman, Friedman, Olshen & Stone 1984,
-//     as the gap statistic uses it); or
-//  2. when they show more groups than the merged states, and at that number they group more
-//     stably than the merged states do (by more than one standard error) and more clearly (a gap
-//     statistic larger, by more than LevelGapMargin, than the merged states' at the number they
-//     chose): merged states that join two postures the groups differ in hide groups, and more
-//     groups are nearly always less stable, so reason 1 alone keeps the merged states then; or
-//  3. when they group into as many groups or more, at least as stably, and more clearly (a gap
-//     statistic larger by more than LevelGapMargin): where both levels group at the ceiling of
-//     stability, stability cannot tell them apart, and the gap can.
-//
-// Stability is the mean adjusted Rand index of the grouping's bootstrap resamples (Lange T, Roth
-// V, Braun ML & Buhmann JM (2004), Stability-based validation of clustering solutions, Neural
-// Comput. 16:1299–1323); the gap statistic is Tibshirani, Walther & Hastie (2001). It says in a
-// note which level was kept and why. It returns the states kept, the note (empty when no
-// comparison was made) and the sampled participants' grouping over the states kept (nil then).
-func chooseStates(ctx context.Context, fit *normalize.Fit, states *profile.States, units [][]float64, o Options) (*profile.States, string, []int, error) {
-	merged, fine := states, states.Fine
-	merged.Fine = nil
-	if o.KeepMerged || fine == nil || fine.K <= merged.K || len(units) < levelUnits {
-		return merged, "", nil, nil
+// fitStates fits the movement states on the sampled participants' windows and sets fp.States,
+// and returns the notes and warnings to show. Each number of states in o.States is fitted
+// directly (profile.FitAligned with that number alone), o.Fits times from different random
+// starts, the first from the run's seed and the others from seeds drawn from it; each fit's
+// states group the sampled participants (the run's method on their sampled windows' counts,
+// which, scattered through the recording, are close to independent draws), and the fit kept
+// is the one whose grouping agrees best with all the others' (the largest sum of adjusted Rand
+// indices): the medoid partition of the ensemble, the consensus of Strehl & Ghosh (2002,
+// Cluster ensembles, J. Mach. Learn. Res. 3:583–617). The answer then rests on neither one
+// random start nor one number of states. The agreement of the fits at the number of states
+// kept (their median pairwise adjusted Rand index, Hubert & Arabie 1985) is the run's
+// reproducibility; below Unreproducible the warnings say so.
+func fitStates(ctx context.Context, fp *FitPiece, units [][]float64, o Options) ([]string, []string, error) {
+	fits := max(1, o.Fits)
+	type member struct {
+		states *profile.States
+		s, fit int
+		labels []int
 	}
-	groups, criterion := levelGroups(o, len(units))
-	if len(groups) < 2 {
-		return merged, "", nil, nil // one number of groups: no stability is measured
-	}
-	// The two levels are grouped side by side: each grouping is its own, so the result does
-	// not depend on which finishes first.
-	var gm, gf *cohort.Grouping
-	var errM, errF error
-	var wg sync.WaitGroup
-	wg.Add(1)
-	go func() {
-		defer wg.Done()
-		gf, errF = sampleGrouping(ctx, fit, fine, units, o, groups, criterion)
-	}()
-	gm, errM = sampleGrouping(ctx, fit, merged, units, o, groups, criterion)
-	wg.Wait()
-	if err := errors.Join(errM, errF); err != nil {
-		return nil, "", nil, err
-	}
-	m, _ := gm.Score(gm.K)
-	f, _ := gf.Score(gf.K)
-	keep := func(why string) (*profile.States, string, []int, error) {
-		fine.Rule += ", kept unmerged: " + why
-		return fine, fmt.Sprintf("the %d states fitted were kept unmerged instead of the %d states the valley rule merged them to: %s", fine.K, merged.K, why), gf.Labels, nil
-	}
-	if f.Stability > m.Stability+m.StabilitySE {
-		return keep(fmt.Sprintf("the sampled participants group more stably over them (bootstrap stability %.3f with %d groups, against %.3f ± %.3f with %d)",
-			f.Stability, gf.K, m.Stability, m.StabilitySE, gm.K))
-	}
-	if mf, ok := gm.Score(gf.K); ok && gf.K > gm.K && f.Stability > mf.Stability+mf.StabilitySE && f.Gap > m.Gap+LevelGapMargin {
-		return keep(fmt.Sprintf("over them the sampled participants fall into %d groups, more clearly than into the %d over the merged states (gap statistic %.3f against %.3f) and more stably than the merged states split into %d (bootstrap stability %.3f against %.3f ± %.3f)",
-			gf.K, gm.K, f.Gap, m.Gap, gf.K, f.Stability, mf.Stability, mf.StabilitySE))
-	}
-	if gf.K >= gm.K && f.Stability >= m.Stability && f.Gap > m.Gap+LevelGapMargin {
-		return keep(fmt.Sprintf("over them the sampled participants group at least as stably (bootstrap stability %.3f with %d groups, against %.3f with %d) and more clearly apart (gap statistic %.3f against %.3f)",
-			f.Stability, gf.K, m.Stability, gm.K, f.Gap, m.Gap))
-	}
-	return merged, fmt.Sprintf("the valley rule's %d states were kept: over the %d states fitted, the sampled participants group no more stably by more than one standard error (bootstrap stability %.3f with %d groups, against %.3f ± %.3f with %d), nor into more groups that are both more stable and more clearly apart, nor as stably into as many and more clearly apart",
-		merged.K, fine.K, f.Stability, gf.K, m.Stability, m.StabilitySE, gm.K), gm.Labels, nil
-}
-
-// levelGroups are the numbers of groups the sampled participants are grouped into when states
-// are compared (those below their count), and the criterion: under gap-steady the comparison is
-// made at the number gap-stable chooses, since its fall back to a smaller stable number would
-// make whichever grouping is less stable look stable.
-func levelGroups(o Options, units int) ([]int, cohort.Criterion) {
-	var groups []int
-	for _, k := range o.Groups {
-		if k < units {
-			groups = append(groups, k)
+	var members []member
+	for _, s := range o.States {
+		for r := 0; r < fits; r++ {
+			members = append(members, member{s: s, fit: r})
 		}
 	}
-	criterion := o.Criterion
-	if criterion == cohort.ByGapSteady {
-		criterion = cohort.ByGapStable
+	groups := o.Groups
+	if o.Method == cohort.Mixture {
+		groups = nil
+		for _, k := range o.Groups {
+			if k <= len(units) {
+				groups = append(groups, k)
+			}
+		}
 	}
-	return groups, criterion
+	done := 0
+	err := cluster.Ordered(ctx, len(members), o.Workers, func(i, _ int) (member, error) {
+		m := members[i]
+		seed := o.Seed
+		if m.fit > 0 {
+			seed = cluster.SubSeed(o.Seed, "fit", m.fit)
+		}
+		// One start seeded once per fit: the ensemble of fits, not each fit's own restarts, is
+		// what keeps the answer from hanging on a random start.
+		st, err := profile.FitAligned(ctx, units, fp.Fit, profile.AlignOptions{States: []int{m.s}, Calibrate: !o.NoCalibration, Starts: 1, Reseeds: -1, Seed: seed, Workers: o.Workers})
+		if err != nil {
+			return m, err
+		}
+		m.states = st
+		if len(members) > 1 {
+			if m.labels, err = sampleGrouping(ctx, fp.Fit, st, units, o, groups); err != nil {
+				return m, err
+			}
+		}
+		return m, nil
+	}, func(i int, m member) error {
+		members[i] = m
+		done++
+		if o.Steps != nil {
+			o.Steps("fitting movement states", done, len(members))
+		}
+		return nil
+	})
+	if err != nil {
+		return nil, nil, err
+	}
+	best := 0
+	var notes, warnings []string
+	if len(members) > 1 {
+		labels := make([][]int, len(members))
+		for i, m := range members {
+			labels[i] = m.labels
+		}
+		var agree []float64
+		best, agree = medoid(labels)
+		kept := members[best]
+		var same []float64 // the other fits at the number of states kept
+		for i, m := range members {
+			if i != best && m.s == kept.s {
+				same = append(same, agreement(labels[best], labels[i]))
+			}
+		}
+		notes = append(notes, fmt.Sprintf("the movement states were fitted %d times (%s states, %d random starts each); the fit kept (%d states, start %d) is the one whose grouping of the %d sampled participants agrees best with the others' (median adjusted Rand index %.2f, lowest %.2f)",
+			len(members), numbersText(o.States), fits, kept.s, kept.fit+1, len(units), median(agree), slices.Min(agree)))
+		if len(same) > 0 {
+			fp.Reproducibility = median(same)
+			if fp.Reproducibility < Unreproducible {
+				warnings = append(warnings, fmt.Sprintf("NOT REPRODUCIBLE: fitted again from other random starts, the movement states group the sampled participants differently (median adjusted Rand index %.2f, below %.2f). These data do not hold one grouping firmly; read the groups as tentative, and compare a run with another --seed.",
+					fp.Reproducibility, Unreproducible))
+			}
+		}
+	}
+	fp.States = members[best].states
+	return notes, warnings, nil
 }
 
-// sampleGrouping groups the sampled participants' signatures over the states st as the run
-// groups (method, numbers of groups, criterion, resamples, seed).
-func sampleGrouping(ctx context.Context, fit *normalize.Fit, st *profile.States, units [][]float64, o Options, groups []int, criterion cohort.Criterion) (*cohort.Grouping, error) {
-	shares := make([][]float64, len(units))
+// Unreproducible is the agreement (median adjusted Rand index) of the groupings from fits of the
+// states from different random starts below which the run says its grouping is not
+// reproducible: 0.8, the mark below which the bootstrap stability of a grouping also calls it
+// tentative (cohort.UnstableGrouping).
+const Unreproducible = 0.8
+
+// DefaultFits is how many times each number of states is fitted, from different random starts.
+const DefaultFits = 3
+
+// sampleGrouping groups the sampled participants over the states st, as the run groups but on
+// their sampled windows' counts alone: those windows are scattered through each recording, so
+// their runs are no bouts.
+func sampleGrouping(ctx context.Context, fit *normalize.Fit, st *profile.States, units [][]float64, o Options, groups []int) ([]int, error) {
+	sigs := make([]profile.Signature, len(units))
 	for i, x := range units {
 		_, _, lab, err := st.AlignUnit(fit, x, nil)
 		if err != nil {
 			return nil, err
 		}
-		shares[i] = profile.Signatures(lab, st.K).Share
+		sigs[i] = profile.Signatures(lab, st.K)
 	}
-	return cohort.GroupSignatures(ctx, shares, cohort.GroupOptions{Method: o.Method, Groups: groups, Criterion: criterion,
-		Bootstrap: o.Bootstrap, Seed: o.Seed, Workers: o.Workers})
+	shares, counts, _ := SignatureColumns(sigs)
+	criterion := o.Criterion
+	if criterion == cohort.ByGapSteady {
+		criterion = cohort.ByGapStable
+	}
+	var valid []int
+	for _, k := range groups {
+		if k < len(units) {
+			valid = append(valid, k)
+		}
+	}
+	if len(valid) == 0 {
+		valid = []int{min(max(1, len(units)-1), o.Groups[0])}
+	}
+	g, err := cohort.GroupSignatures(ctx, shares, cohort.GroupOptions{Method: o.Method, Groups: valid, Criterion: criterion, Bootstrap: o.Bootstrap, Seed: o.Seed,
+		Counts: counts, NoBouts: true, NoStability: true, Workers: o.Workers})
+	if err != nil {
+		return nil, err
+	}
+	return g.Labels, nil
 }
 
-// fitStates fits the movement states on the sampled participants' windows (profile.FitAligned)
-// and chooses their level (chooseStates), setting fp.States, and returns the notes and the
-// warnings to show. With Options.Fits above one it does so that many times, the first from the run's seed and the
-// others from seeds drawn from it, and keeps the fit whose grouping of the sampled participants
-// agrees best with the other fits' groupings: the medoid of the groupings by the adjusted Rand
-// index (Hubert & Arabie 1985), which sets aside a fit that a random start led to states split
-// by device or merged too far, as long as most fits avoid it. The choice of one partition that
-// agrees best with the others is the medoid form of consensus clustering (Strehl & Ghosh 2002,
-// Cluster ensembles, J. Mach. Learn. Res. 3:583–617; Monti et al. 2003 for resampled runs).
-func fitStates(ctx context.Context, fp *FitPiece, units [][]float64, o Options) ([]string, []string, error) {
-	fits := max(1, o.Fits)
-	type member struct {
-		states *profile.States
-		note   string
-		labels []int
+// agreement is the adjusted Rand index of two groupings, with two groupings into one group
+// agreeing fully.
+func agreement(a, b []int) float64 {
+	if slices.Max(a) == 0 && slices.Max(b) == 0 {
+		return 1
 	}
-	members := make([]member, fits)
-	for r := range members {
-		seed := o.Seed
-		if r > 0 {
-			seed = cluster.SubSeed(o.Seed, "fit", r)
-		}
-		st, err := profile.FitAligned(ctx, units, fp.Fit, profile.AlignOptions{States: o.States, Valley: o.Valley, Seed: seed, Workers: o.Workers, Progress: o.Steps})
-		if err != nil {
-			return nil, nil, err
-		}
-		m := &members[r]
-		if m.states, m.note, m.labels, err = chooseStates(ctx, fp.Fit, st, units, o); err != nil {
-			return nil, nil, err
-		}
-		if fits > 1 && m.labels == nil {
-			groups, criterion := levelGroups(o, len(units))
-			if len(groups) == 0 {
-				groups = []int{min(o.Groups[0], len(units)-1)}
-			}
-			g, err := sampleGrouping(ctx, fp.Fit, m.states, units, o, groups, criterion)
-			if err != nil {
-				return nil, nil, err
-			}
-			m.labels = g.Labels
-		}
+	v, err := cluster.AdjustedRand(a, b)
+	if err != nil || math.IsNaN(v) {
+		return 0
 	}
-	best, agree := 0, []float64(nil)
-	if fits > 1 {
-		labels := make([][]int, fits)
-		for i, m := range members {
-			labels[i] = m.labels
-		}
-		best, agree = medoid(labels)
-	}
-	kept := members[best]
-	fp.States = kept.states
-	var notes, warnings []string
-	if kept.note != "" {
-		notes = append(notes, kept.note)
-	}
-	if fits > 1 {
-		parts := make([]string, len(agree))
-		for i, v := range agree {
-			parts[i] = fmt.Sprintf("%.2f", v)
-		}
-		notes = append(notes, fmt.Sprintf("the states were fitted %d times from different random starts and the fit kept (number %d, %d states) is the one whose grouping of the %d sampled participants agrees best with the others' (adjusted Rand index %s)",
-			fits, best+1, kept.states.K, len(units), strings.Join(parts, ", ")))
-		if low := slices.Min(agree); low < FitsDisagree {
-			warnings = append(warnings, fmt.Sprintf("DEPENDS ON THE START: of the %d fits of the movement states from different random starts, some group the sampled participants differently (adjusted Rand index down to %.2f against the fit kept, below %.2f). The groups depend on where the fit started: read them as tentative, and compare a run with another --seed.",
-				fits, low, FitsDisagree))
-		}
-	}
-	return notes, warnings, nil
+	return v
 }
 
-// medoid is the partition that agrees best with the others (the largest sum of adjusted Rand
-// indices to them; ties to the first) and its agreement with each of the others, in order.
+// medoid is the partition that agrees best with the others (the largest sum of agreements with
+// them; ties to the first) and its agreement with each of the others, in order.
 func medoid(labels [][]int) (int, []float64) {
 	n := len(labels)
 	pair := make([][]float64, n)
@@ -663,7 +632,7 @@ func medoid(labels [][]int) (int, []float64) {
 	}
 	for i := range labels {
 		for j := i + 1; j < n; j++ { // the index is symmetric: each pair once
-			pair[i][j], _ = cluster.AdjustedRand(labels[i], labels[j])
+			pair[i][j] = agreement(labels[i], labels[j])
 			pair[j][i] = pair[i][j]
 		}
 	}
@@ -688,16 +657,30 @@ func medoid(labels [][]int) (int, []float64) {
 	return best, agree
 }
 
-// DefaultFits is how many times the states are fitted by default (Options.Fits): once, since
-// three fits cost about half the run's time again on the time goal's cohort and lowered the
-// recovery benchmark's losses only within chance (seeds 401–800: 10 below an ARI of 0.60
-// against 13; testdata/recovery-history.md).
-const DefaultFits = 1
+// median is the median of xs (not changed).
+func median(xs []float64) float64 {
+	c := slices.Clone(xs)
+	slices.Sort(c)
+	if len(c) == 0 {
+		return math.NaN()
+	}
+	if len(c)%2 == 1 {
+		return c[len(c)/2]
+	}
+	return (c[len(c)/2-1] + c[len(c)/2]) / 2
+}
 
-// FitsDisagree is the agreement (adjusted Rand index) between the kept fit's grouping and
-// another fit's below which the note says the groups depend on the random start; 0.6 is the
-// mark the recovery targets use for a grouping that has missed.
-const FitsDisagree = 0.6
+// numbersText writes numbers as "3, 4 and 5".
+func numbersText(ks []int) string {
+	parts := make([]string, len(ks))
+	for i, k := range ks {
+		parts[i] = fmt.Sprint(k)
+	}
+	if len(parts) == 1 {
+		return parts[0]
+	}
+	return strings.Join(parts[:len(parts)-1], ", ") + " and " + parts[len(parts)-1]
+}
 
 // checkCounts refuses a run with too few participants for the numbers of groups asked for.
 func checkCounts(p *Plan, o Options) error {

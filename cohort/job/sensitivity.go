@@ -103,7 +103,7 @@ func sampleTasks(ctx context.Context, f *Fitted, o Options, units [][]float64, i
 		}
 		// The sampled windows are scattered, so their runs are no bouts: the mixture sees each
 		// window as a bout of its own there.
-		sh, counts, _ := signatureColumns(sigs)
+		sh, counts, _ := SignatureColumns(sigs)
 		g, err := cohort.GroupSignatures(ctx, sh, cohort.GroupOptions{Method: f.Grouping.Method, Groups: []int{k}, Criterion: f.Grouping.Criterion, Bootstrap: 2, Seed: o.Seed,
 			Counts: counts, Bouts: counts, Workers: o.Workers})
 		if err != nil {
