@@ -153,7 +153,7 @@ type GroupOptions struct {
 	// NoStability leaves out the bootstrap stability of the groups chosen (GroupStability).
 	NoStability bool
 	Workers     int
-	Progress      func(step string, done, total int) // after each grouping, reference set and resample; may be nil
+	Progress    func(step string, done, total int) // after each grouping, reference set and resample; may be nil
 }
 
 // report tells opts.Progress, if set, that done of total of a step are finished.

@@ -31,10 +31,10 @@ type UnitRow struct {
 	// for the other methods.
 	Posterior float64
 	Flag      string
-	Share      []float64
-	Bout       []float64
-	Stay       float64 // share of bootstrap resamples in which it stayed with its group; NaN when not computed
-	Turn       float64 // degrees its device was turned by the align step; NaN without one
+	Share     []float64
+	Bout      []float64
+	Stay      float64 // share of bootstrap resamples in which it stayed with its group; NaN when not computed
+	Turn      float64 // degrees its device was turned by the align step; NaN without one
 	// Atypical marks a unit that assign found farther from every group than the model's members:
 	// it belongs to no group (Group is only its nearest).
 	Atypical bool

@@ -524,4 +524,3 @@ func (m *mainFlags) fromModel(prev *reports.Model, changed func(name string) boo
 	}
 	return nil
 }
-

@@ -95,9 +95,6 @@ func fitScored(t *testing.T, tab *cohort.Table, o Options, want []int) (*Fitted,
 	return f, ari, strings.Join(f.Notes, "; ")
 }
 
-
-
-
 // The fit kept among several is the medoid of their groupings by the adjusted Rand index: the
 // one that agrees best with the others, ties to the first. Values worked by hand: two identical
 // partitions of six agree with ARI 1; {0,0,0,1,1,1} against {0,0,1,1,2,2} has ARI (2 − 6·3/15) / ((6 + 3)/2 − 6·3/15) = 8/33 (Hubert & Arabie 1985).
@@ -128,5 +125,3 @@ func TestMedoidOfGroupings(t *testing.T) {
 		}
 	}
 }
-
-

@@ -360,12 +360,12 @@ type FitPiece struct {
 	// of states kept; NaN when the states were fitted once.
 	Reproducibility float64
 	Plan            *Plan
-	Fit      *normalize.Fit
-	States   *profile.States
-	Notes    []string
-	Warnings []string          // what the reader must weigh before trusting the groups
-	Sample   []SampledUnit     // kept for the sensitivity table of the finish
-	Norm     normalize.Options // the normalizing settings the fit was made with, for that table's refits
+	Fit             *normalize.Fit
+	States          *profile.States
+	Notes           []string
+	Warnings        []string          // what the reader must weigh before trusting the groups
+	Sample          []SampledUnit     // kept for the sensitivity table of the finish
+	Norm            normalize.Options // the normalizing settings the fit was made with, for that table's refits
 }
 
 // FitSample fits the scaling, the devices and the states on the merged sample (the align step).

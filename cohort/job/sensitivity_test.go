@@ -21,7 +21,7 @@ func TestSensitivityRowsWhateverTheWorkers(t *testing.T) {
 		for _, workers := range []int{1, 2} {
 			o := Defaults(path)
 			o.Workers, o.Bootstrap, o.NoTurn = workers, 5, noTurn
-			o.Groups = []int{3} // a grouping to be sensitive about, whatever this small cohort shows
+			o.Groups = []int{3}                             // a grouping to be sensitive about, whatever this small cohort shows
 			o.Axes = []string{"mean_x", "mean_y", "mean_z"} // named: this small cohort's vector length varies too much for the axes to be found by it
 			f, err := FitAll(context.Background(), o)
 			if err != nil {
