@@ -69,6 +69,9 @@ type Result struct {
 	Separations  []cohort.Separation
 	NotTested    []cohort.Note
 	Warnings     []string
+	// Reproducibility is how alike the fits of the states from different random starts group
+	// the sampled participants (median adjusted Rand index); NaN when not measured.
+	Reproducibility float64
 	AtypicalCut  float64      // 99th percentile of members' distances to their group centre
 	FeatureRange [][3]float64 // per feature: 1st percentile, median and 99th percentile of participant medians
 	Changes      *Changes     // set by assign and refresh

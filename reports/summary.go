@@ -2,6 +2,7 @@ package reports
 
 import (
 	"fmt"
+	"math"
 	"strings"
 
 	"github.com/cohortmix/cohortmix/cohort"
@@ -39,6 +40,12 @@ func summarySheet(f *excelize.File, st *styles, r *Result) error {
 	}
 	for g, name := range r.GroupNames {
 		line := r.GroupLines[g]
+		if r.Reproducibility < Unreproducible {
+			line = "NOT REPRODUCIBLE (see the warning below): " + line
+		}
+		if r.Grouping.K == 1 {
+			name = "All"
+		}
 		if gs := r.Grouping.Stability; gs != nil && gs.Jaccard[g] < cohort.UnstableJaccard {
 			line = fmt.Sprintf("UNSTABLE: this group does not hold when the participants are drawn again (bootstrap stability %.2f, below %.2f; see %s). %s", gs.Jaccard[g], cohort.UnstableJaccard, SheetStability, line)
 		}
@@ -201,6 +208,7 @@ func detailRows(r *Result) [][2]string {
 		{"How it was done", howDone(r)},
 		{"Number of states", fmt.Sprintf("%d (%s)", r.States.K, r.States.Rule)},
 		{"Number of groups", fmt.Sprintf("%d (%s)", r.Grouping.K, choiceText(r))},
+		{"Reproducibility", reproducibilityText(r.Reproducibility)},
 		{capital(c.Unit(2)), participantsText(c)},
 		{"Windows", fmt.Sprintf("%s in the input: %s used, %s dropped for missing cells, %s in excluded %s", cohort.Thousands(q.WindowsIn), cohort.Thousands(q.WindowsIn-q.WindowsDropped-q.WindowsExcluded), cohort.Thousands(q.WindowsDropped), cohort.Thousands(q.WindowsExcluded), c.Unit(2))},
 		{"Window length", window},
@@ -251,4 +259,20 @@ func howDone(r *Result) string {
 // the participants are drawn again.
 func wholeUnstable(stability float64, k int) string {
 	return fmt.Sprintf("TENTATIVE: when the participants are drawn again, the grouping into %d groups comes back only in part (adjusted Rand index %.2f on average, below %.2f; see %s). Another number of groups, or no clear groups at all, may describe these participants as well; read the groups as tentative.", k, stability, cohort.UnstableGrouping, SheetStability)
+}
+
+// Unreproducible is the agreement of the fits from different random starts below which the
+// groups are marked as not reproducible (job.Unreproducible).
+const Unreproducible = 0.8
+
+// reproducibilityText says how alike the fits of the states from different random starts
+// group the participants.
+func reproducibilityText(v float64) string {
+	switch {
+	case math.IsNaN(v):
+		return "not measured (the states were fitted once, or taken from a model)"
+	case v >= Unreproducible:
+		return fmt.Sprintf("%.2f: fitted again from other random starts, the movement states group the sampled participants alike (median adjusted Rand index between the fits)", v)
+	}
+	return fmt.Sprintf("%.2f: fitted again from other random starts, the movement states group the sampled participants differently (median adjusted Rand index between the fits, below %.2f); the grouping is not reproducible on these data", v, Unreproducible)
 }

@@ -77,6 +77,9 @@ type Fitted struct {
 	sample   sampleUnits           // the participants and windows sampled for the fit
 	Notes    []string              // what the run decided on its own, for the reader
 	Warnings []string              // what the reader must weigh before trusting the groups
+	// Reproducibility is how alike the fits of the states from different random starts group
+	// the sampled participants (FitPiece.Reproducibility); NaN when not measured.
+	Reproducibility float64
 	Grouping *cohort.Grouping
 	Window   time.Duration // the length of one window (0: not known)
 	// WindowSource says where the window length came from.
@@ -344,7 +347,7 @@ func AssignWindows(ctx context.Context, t *cohort.Table, fit *normalize.Fit, sta
 	for i, u := range t.Units {
 		units[i] = UnitInfo{ID: u.ID, Wave: u.Wave, Ordinal: u.Ordinal, Windows: u.Windows()}
 	}
-	f := &Fitted{Table: t, Fit: fit, States: states, Workers: workers}
+	f := &Fitted{Table: t, Fit: fit, States: states, Workers: workers, Reproducibility: math.NaN()}
 	return f, mergeAssigned(f, units, []*AssignPiece{ap})
 }
 
@@ -357,6 +360,7 @@ func Describe(f *Fitted, stateNames, groupNames []string) (*reports.Result, erro
 	res := &reports.Result{Features: t.Features, OrderKind: t.OrderKind, Quality: t.Quality, Files: t.Files, Norm: fit, States: states, Grouping: g,
 		StateDesc: f.Desc, Labels: f.Labels}
 	res.Warnings = append(append(res.Warnings, fit.Warnings...), f.Warnings...)
+	res.Reproducibility = f.Reproducibility
 	res.Notes = append(res.Notes, f.Notes...)
 	if f.Sensitivity != nil {
 		res.Sensitivity, res.SensitivityNote = f.Sensitivity, sensitivityNote(f.Sensitivity)

@@ -866,7 +866,8 @@ func Finish(ctx context.Context, fp *FitPiece, parts []*AssignPiece) (*Fitted, e
 	if err := checkShards(KindAssign, shards, p.Shards); err != nil {
 		return nil, err
 	}
-	f := &Fitted{Table: t, Fit: fp.Fit, States: fp.States, Notes: fp.Notes, Warnings: fp.Warnings, Window: p.Window, WindowSource: p.WindowSource, Workers: o.Workers}
+	f := &Fitted{Table: t, Fit: fp.Fit, States: fp.States, Notes: fp.Notes, Warnings: fp.Warnings, Window: p.Window, WindowSource: p.WindowSource, Workers: o.Workers,
+		Reproducibility: fp.Reproducibility}
 	if err := mergeAssigned(f, p.Units, parts); err != nil {
 		return nil, err
 	}
