@@ -72,10 +72,10 @@ type Result struct {
 	// Reproducibility is how alike the fits of the states from different random starts group
 	// the sampled participants (median adjusted Rand index); NaN when not measured.
 	Reproducibility float64
-	AtypicalCut  float64      // 99th percentile of members' distances to their group centre
-	FeatureRange [][3]float64 // per feature: 1st percentile, median and 99th percentile of participant medians
-	Changes      *Changes     // set by assign and refresh
-	Sensitivity  []Sensitivity
+	AtypicalCut     float64      // 99th percentile of members' distances to their group centre
+	FeatureRange    [][3]float64 // per feature: 1st percentile, median and 99th percentile of participant medians
+	Changes         *Changes     // set by assign and refresh
+	Sensitivity     []Sensitivity
 	// SensitivityNote reads the sensitivity table in a line.
 	SensitivityNote string
 	Notes           []string // what the run decided on its own that a reader should know (not warnings)

@@ -80,8 +80,8 @@ type Fitted struct {
 	// Reproducibility is how alike the fits of the states from different random starts group
 	// the sampled participants (FitPiece.Reproducibility); NaN when not measured.
 	Reproducibility float64
-	Grouping *cohort.Grouping
-	Window   time.Duration // the length of one window (0: not known)
+	Grouping        *cohort.Grouping
+	Window          time.Duration // the length of one window (0: not known)
 	// WindowSource says where the window length came from.
 	WindowSource string
 	// Atypical marks the units assign placed farther from every group than the model's members;
