@@ -106,9 +106,21 @@ type States struct {
 	// sampled windows' axis means).
 	Calibrate bool
 	Gravity   float64
+	// Ensemble lists the fits the states were chosen among (job's fitStates), one row per fit;
+	// nil when one fit was made.
+	Ensemble []EnsembleFit
 	// Fine holds, for states fitted over a range and merged (FitAligned), the largest number of
 	// states as fitted, before any merge; nil otherwise.
 	Fine *States
+}
+
+// EnsembleFit is one fit of the states among several: its number of states and random start,
+// the number of groups it groups the sampled participants into, and how well that grouping
+// agrees with the others' (the mean adjusted Rand index); Kept marks the fit kept.
+type EnsembleFit struct {
+	States, Start, Groups int
+	Agreement             float64
+	Kept                  bool
 }
 
 // Aligned reports whether a participant's device is aligned before its windows are assigned.

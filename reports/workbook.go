@@ -138,6 +138,10 @@ func choiceText(r *Result) string {
 		return "fixed"
 	}
 	switch r.Grouping.Criterion.String() {
+	case "icl":
+		return "the smallest integrated completed likelihood of the mixture (Biernacki, Celeux & Govaert 2000), over " + kRange(r) + ", fitted in turn until the criterion had risen twice past its best"
+	case "bic":
+		return "the smallest Bayesian information criterion of the mixture (Schwarz 1978), over " + kRange(r) + ", fitted in turn until the criterion had risen twice past its best"
 	case "gap":
 		return "gap statistic, Tibshirani et al. 2001, over " + kRange(r)
 	case "stability":
@@ -154,6 +158,23 @@ func choiceText(r *Result) string {
 // number fitted (a range under the Calinski–Harabasz rule), or each merge the valley rule made,
 // in order; nothing when one number was fitted and kept as it was.
 func statesChoice(t *table, st *styles, s *profile.States) error {
+	if len(s.Ensemble) > 0 {
+		if err := t.put(v{"Each row is one fit of the movement states: each number of states fitted from several random starts, each fit grouping the sampled participants; the fit kept is the one whose grouping agrees best with all the others' (the mean adjusted Rand index of its grouping with theirs).", st.note}); err != nil {
+			return err
+		}
+		if err := t.merge(6); err != nil {
+			return err
+		}
+		if err := t.heading("states", "random start", "groups", "agreement with the others", "kept"); err != nil {
+			return err
+		}
+		for _, e := range s.Ensemble {
+			if err := t.put(v{e.States, st.integer}, v{e.Start, st.integer}, v{e.Groups, st.integer}, v{e.Agreement, st.dec3}, v{mark(e.Kept), st.text}); err != nil {
+				return err
+			}
+		}
+		return nil
+	}
 	if len(s.Candidates) > 0 {
 		if err := t.heading("states", "within SS", "silhouette", "Calinski–Harabasz", "Davies–Bouldin", "chosen"); err != nil {
 			return err

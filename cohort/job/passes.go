@@ -563,6 +563,25 @@ func fitStates(ctx context.Context, fp *FitPiece, units [][]float64, o Options) 
 		}
 	}
 	fp.States = members[best].states
+	if len(members) > 1 {
+		labels := make([][]int, len(members))
+		for i, m := range members {
+			labels[i] = m.labels
+		}
+		kept := members[best]
+		for i, m := range members {
+			var sum float64
+			for j := range members {
+				if j != i {
+					sum += agreement(labels[i], labels[j])
+				}
+			}
+			fp.States.Ensemble = append(fp.States.Ensemble, profile.EnsembleFit{States: m.s, Start: m.fit + 1, Groups: slices.Max(m.labels) + 1,
+				Agreement: sum / float64(len(members)-1), Kept: i == best})
+		}
+		fp.States.Rule = fmt.Sprintf("of %d fits, at %s states from %d random starts each, the one whose grouping of the sampled participants agrees best with the others' (%d states, start %d)",
+			len(members), numbersText(o.States), fits, kept.s, kept.fit+1)
+	}
 	return notes, warnings, nil
 }
 

@@ -16,7 +16,7 @@ import (
 // does: a piece is an intermediate of one run, to be read by the same release that wrote it.
 const (
 	PieceFormat  = "cohortmix piece"
-	PieceVersion = 1
+	PieceVersion = 2 // 2: signatures with their windows per state, the fit with its ensemble and reproducibility
 )
 
 // The kinds of piece.

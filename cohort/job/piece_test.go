@@ -52,7 +52,7 @@ func TestPiecesRefuseWhatTheyAreNot(t *testing.T) {
 	if err := ReadPiece(write("good", good), KindCensus, back); err != nil || len(back.Units) != len(c.Units) || back.Shard != c.Shard || back.Quality.WindowsIn != c.Quality.WindowsIn {
 		t.Fatalf("read back: %v, %d units of shard %v", err, len(back.Units), back.Shard)
 	}
-	newer := bytes.Replace(good, []byte(`"version":1`), []byte(`"version":9`), 1)
+	newer := bytes.Replace(good, []byte(`"version":2`), []byte(`"version":9`), 1)
 	for _, c := range []struct {
 		name string
 		b    []byte
@@ -60,7 +60,7 @@ func TestPiecesRefuseWhatTheyAreNot(t *testing.T) {
 		want string
 	}{
 		{"other kind", good, KindPlan, "a census piece where a plan piece is needed"},
-		{"other version", newer, KindCensus, "a piece of version 9, and this cohortmix reads version 1"},
+		{"other version", newer, KindCensus, "a piece of version 9, and this cohortmix reads version 2"},
 		{"not a piece", []byte("participant,window\nP1,1\n"), KindCensus, "not a piece of a split run"},
 		{"cut short", good[:len(good)/2], KindCensus, "the census piece is damaged"},
 	} {
