@@ -31,6 +31,13 @@ type Outputs struct {
 // run's temporary folder and not another output; and it does not exist unless force is set.
 // Each problem is one line naming the flag and the path. Targets with an empty path are skipped.
 func PlanOutputs(targets []Target, inputs []string, tempDir string, force bool) (*Outputs, error) {
+	return PlanOutputsKeeping(targets, inputs, nil, tempDir, force)
+}
+
+// PlanOutputsKeeping is PlanOutputs with files the run reads that are not inputs of the table,
+// each named by the flag that gives it (the pseudonymization key, say): no output may replace
+// one of them either, whatever force says.
+func PlanOutputsKeeping(targets []Target, inputs []string, keep []Target, tempDir string, force bool) (*Outputs, error) {
 	o := &Outputs{force: force, temps: map[string]string{}}
 	for i, t := range targets {
 		if t.Path == "" {
@@ -52,6 +59,11 @@ func PlanOutputs(targets []Target, inputs []string, tempDir string, force bool) 
 		}
 		if tempDir != "" && sameFile(t.Path, tempDir) {
 			return nil, fmt.Errorf("%s %s: is the folder for temporary files (cohort.ReadOptions.TempDir): %w; name a file", t.Flag, t.Path, ErrOutput)
+		}
+		for _, k := range keep {
+			if k.Path != "" && (filepath.Clean(k.Path) == filepath.Clean(t.Path) || sameFile(t.Path, k.Path)) {
+				return nil, fmt.Errorf("%s %s: is the file given with %s, which this run reads: %w; an output never replaces it, whatever --force says; name another file", t.Flag, t.Path, k.Flag, ErrOutput)
+			}
 		}
 		for _, in := range inputs {
 			if in != "-" && sameFile(t.Path, in) {

@@ -47,6 +47,7 @@ func TestOutputsAreCheckedFirst(t *testing.T) {
 	model := filepath.Join(dir, "model.json")
 	mustRun(t, "group", input, "--out", filepath.Join(dir, "first.xlsx"), "--model", model, "--states", "5", "--groups", "3")
 	modelBefore, _ := os.ReadFile(model)
+	key := writeFile(t, dir, "study.key", "a study key of enough length to pseudonymize with\n")
 	out := filepath.Join(dir, "r.xlsx")
 	cases := []struct {
 		name string
@@ -57,7 +58,12 @@ func TestOutputsAreCheckedFirst(t *testing.T) {
 		{"workbook onto the input", []string{"group", input, "--out", input + ".xlsx", "--force"}, ""}, // not an input: allowed, checked below not to exist
 		{"model onto the input through another path", []string{"group", input, "--out", out, "--model", filepath.Join(dir, ".", "c.csv"), "--force"}, "--model " + filepath.Join(dir, "c.csv") + ": is one of the inputs"},
 		{"members onto the previous model", []string{"refresh", "--previous", model, input, "--out", out, "--members", model, "--force"}, "--members " + model + ": is one of the inputs"},
-		{"members onto assign's model", []string{"assign", "--model", model, input, "--out", out, "--members", model, "--force"}, "--members " + model + ": is one of the inputs"},
+		{"members onto assign's model", []string{"assign", "--model", model, input, "--out", out, "--members", model, "--force"}, "--members " + model + ": is the file given with --model, which this run reads"},
+		// The pseudonymization key is read, never written: an output named like it would make
+		// every model written with the key unusable.
+		{"members onto the key", []string{"group", input, "--out", out, "--pseudonymize", key, "--members", key, "--force"}, "--members " + key + ": is the file given with --pseudonymize"},
+		{"model onto the key", []string{"group", input, "--out", out, "--pseudonymize", key, "--model", key, "--force"}, "--model " + key + ": is the file given with --pseudonymize"},
+		{"members onto assign's key", []string{"assign", "--model", model, input, "--out", out, "--pseudonymize", key, "--members", key, "--force"}, "--members " + key + ": is the file given with --pseudonymize"},
 		{"members into a missing folder", []string{"group", broken, "--out", out, "--members", filepath.Join(dir, "nofolder", "m.csv")}, "--members " + filepath.Join(dir, "nofolder", "m.csv") + ": the folder " + filepath.Join(dir, "nofolder") + " does not exist"},
 		{"workbook into a missing folder", []string{"group", broken, "--out", filepath.Join(dir, "nofolder", "r.xlsx"), "--temp", os.TempDir()}, "--out " + filepath.Join(dir, "nofolder", "r.xlsx") + ": the folder"},
 		{"two outputs on one file", []string{"group", broken, "--out", out, "--members", filepath.Join(dir, "m.csv"), "--model", filepath.Join(dir, "m.csv")}, "--model " + filepath.Join(dir, "m.csv") + ": --members names the same file"},
@@ -86,6 +92,9 @@ func TestOutputsAreCheckedFirst(t *testing.T) {
 	}
 	if after, _ := os.ReadFile(model); !bytes.Equal(modelBefore, after) {
 		t.Error("the model read by refresh or assign was changed")
+	}
+	if after, _ := os.ReadFile(key); string(after) != "a study key of enough length to pseudonymize with\n" {
+		t.Error("the pseudonymization key was changed")
 	}
 	if left, _ := filepath.Glob(filepath.Join(dir, ".*partial")); len(left) > 0 {
 		t.Errorf("temporary files left behind: %v", left)

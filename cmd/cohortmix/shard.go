@@ -209,7 +209,7 @@ func (o *shardOptions) writeOutputs(inputs []string, outs ...output) error {
 	for i, out := range outs {
 		targets[i] = reports.Target{Flag: out.flag, Path: out.path}
 	}
-	plan, err := reports.PlanOutputs(targets, inputs, "", o.Flags.Force)
+	plan, err := reports.PlanOutputsKeeping(targets, inputs, []reports.Target{{Flag: "--pseudonymize", Path: o.Flags.Pseudonymize}}, "", o.Flags.Force)
 	if err != nil {
 		return err
 	}
