@@ -4,6 +4,7 @@ import (
 	"encoding/csv"
 	"io"
 	"strconv"
+	"strings"
 )
 
 // WriteMembers writes the members CSV (MembersTo) to path atomically (see WriteAtomic).
@@ -34,15 +35,25 @@ func MembersTo(w io.Writer, r *Result) error {
 		if u.Atypical {
 			group, flag = "", "atypical"
 		}
-		if err := cw.Write([]string{u.ID, u.Wave, group, prob, sil, flag}); err != nil {
+		if err := cw.Write([]string{SafeCell(u.ID), SafeCell(u.Wave), SafeCell(group), prob, sil, SafeCell(flag)}); err != nil {
 			return err
 		}
 	}
 	for _, e := range r.Quality.Excluded {
-		if err := cw.Write([]string{e.ID, e.Wave, "", "", "", "excluded: " + e.Reason}); err != nil {
+		if err := cw.Write([]string{SafeCell(e.ID), SafeCell(e.Wave), "", "", "", "excluded: " + e.Reason}); err != nil {
 			return err
 		}
 	}
 	cw.Flush()
 	return cw.Error()
+}
+
+// SafeCell is a text cell as a spreadsheet opening the CSV cannot take for a formula: a cell
+// that starts with =, +, -, @, a tab or a carriage return gets a leading apostrophe (the usual
+// neutralisation of CSV formula injection; the README tells the CSV's readers so).
+func SafeCell(s string) string {
+	if s != "" && strings.ContainsRune("=+-@\t\r", rune(s[0])) {
+		return "'" + s
+	}
+	return s
 }

@@ -3,6 +3,7 @@ package reports
 import (
 	"archive/zip"
 	"bytes"
+	"encoding/csv"
 	"encoding/json"
 	"errors"
 	"io"
@@ -478,6 +479,34 @@ func TestStatesChoiceIsRecorded(t *testing.T) {
 		}
 		if got := strings.Contains(flatten(charts), "States|Calinski–Harabasz"); got != c.chartRows {
 			t.Errorf("%s: the charts sheet has a States block: %v, want %v", c.name, got, c.chartRows)
+		}
+	}
+}
+
+// The members CSV never hands a spreadsheet a formula: ids, waves and flags that start as a
+// formula would (=, +, -, @) get a leading apostrophe; plain ids are written as they are.
+func TestMembersCSVNeutralisesFormulas(t *testing.T) {
+	ids := []string{`=HYPERLINK("http://x","y")`, "+cmd|' /C calc'!A0", "@SUM(A1)", "-2", "P5"}
+	r := fixture(t, 5, func(i int) string { return ids[i] })
+	var b strings.Builder
+	if err := MembersTo(&b, r); err != nil {
+		t.Fatal(err)
+	}
+	recs, err := csv.NewReader(strings.NewReader(b.String())).ReadAll()
+	if err != nil {
+		t.Fatal(err)
+	}
+	got := map[string]bool{}
+	for _, rec := range recs[1:] {
+		got[rec[0]] = true
+	}
+	for _, id := range ids {
+		want := "'" + id
+		if id == "P5" {
+			want = id
+		}
+		if !got[want] {
+			t.Errorf("id %q: not written as %q (got %v)", id, want, got)
 		}
 	}
 }
