@@ -151,7 +151,7 @@ func (r *reader) parseBody(br *bufio.Reader, spec *parseSpec, firstLine int, mer
 		if errors.Is(readErr, io.EOF) {
 			return job{}, false, nil
 		}
-		return job{}, false, r.gzipOrIO(spec.file, readErr)
+		return job{}, false, r.gzipCut(spec.file, readErr, line-1)
 	}
 	parse := func(_ int, j job, _ int) (*parsedChunk, error) {
 		c := &parsedChunk{}
@@ -207,11 +207,16 @@ func (ch *chunker) next() ([]byte, bool, error) {
 		buf = make([]byte, chunkSize)
 	}
 	n := copy(buf, ch.rest)
-	m, err := io.ReadFull(ch.br, buf[n:])
-	buf = buf[:n+m]
-	if errors.Is(err, io.ErrUnexpectedEOF) {
-		err = io.EOF
+	// Filled by hand rather than by io.ReadFull, which turns a plain end of the stream after a
+	// partial read into io.ErrUnexpectedEOF: that is what a gzip stream cut short returns, and
+	// the two must stay apart.
+	m, err := 0, error(nil)
+	for n+m < len(buf) && err == nil {
+		var k int
+		k, err = ch.br.Read(buf[n+m:])
+		m += k
 	}
+	buf = buf[:n+m]
 	ch.rest = nil
 	if err == nil {
 		if cut := bytes.LastIndexByte(buf, '\n'); cut >= 0 {
@@ -245,6 +250,12 @@ func (ch *chunker) next() ([]byte, bool, error) {
 	}
 	if errors.Is(err, io.EOF) && len(ch.rest) > 0 {
 		buf = append(buf, ch.rest...)
+		ch.rest = nil
+	}
+	if err != nil && !errors.Is(err, io.EOF) {
+		// The stream broke (a compressed file cut short): only whole lines are handed on, so
+		// that the break, not a line it cut in two, is what the reader reports.
+		buf = buf[:bytes.LastIndexByte(buf, '\n')+1]
 		ch.rest = nil
 	}
 	return buf, quotes > 0, err

@@ -686,6 +686,15 @@ func trimPartialRune(b []byte) []byte {
 	return b
 }
 
+// gzipCut is gzipOrIO for a stream that failed after its line last: a compressed file cut
+// short is an error naming that line, never a table read in part.
+func (r *reader) gzipCut(p string, err error, last int) error {
+	if errors.Is(err, io.ErrUnexpectedEOF) || errors.Is(err, gzip.ErrChecksum) {
+		return &InputError{File: p, Line: last, Msg: fmt.Sprintf("compressed file is cut short or damaged after line %d, the last read whole (%v); copy it again from the source", last, err), Err: ErrNotText}
+	}
+	return r.gzipOrIO(p, err)
+}
+
 func (r *reader) gzipOrIO(p string, err error) error {
 	if errors.Is(err, io.ErrUnexpectedEOF) || errors.Is(err, gzip.ErrChecksum) || errors.Is(err, gzip.ErrHeader) {
 		return &InputError{File: p, Msg: "compressed file is cut short or damaged (" + err.Error() + "); copy it again from the source", Err: ErrNotText}

@@ -885,3 +885,43 @@ func TestInterleavedReadsLikeGrouped(t *testing.T) {
 	}
 	compare(grouped.String(), interleaved.String(), 5)
 }
+
+// A gzip file cut short is an error naming the file and the last line read whole, wherever it
+// is cut (the body, the last block, the trailer), and never a table read in part: a cut file
+// once gave 50 of 60 participants, or its last value cut from 0.1414 to 0.14, and exit 0.
+func TestTruncatedGzipIsAnError(t *testing.T) {
+	dir := t.TempDir()
+	var b strings.Builder
+	b.WriteString("participant,window,f1,f2\n")
+	for p := 0; p < 60; p++ { // 600 kB: past the first 64 kB the reader looks at whole
+		for w := 0; w < 400; w++ {
+			b.WriteString("P" + itoa(p) + "," + itoa(w) + ",0.1414," + itoa((p*w)%17) + ".25\n")
+		}
+	}
+	full := gz([]byte(b.String()))
+	whole := write(t, dir, "whole.csv.gz", full)
+	if _, err := Read(context.Background(), []string{whole}, ReadOptions{}); err != nil {
+		t.Fatalf("the whole file: %v", err)
+	}
+	cuts := []int{len(full) - 40, len(full) - 8, len(full) - 1}
+	for i := 1; i < 100; i++ { // cut points all through the file, as a copy may stop anywhere
+		cuts = append(cuts, i*len(full)/100)
+	}
+	for _, cut := range cuts {
+		for _, size := range []int{4 << 20, 1 << 10} { // one chunk, and many
+			func() {
+				defer func(old int) { chunkSize = old }(chunkSize)
+				chunkSize = size
+				p := write(t, dir, "cut.csv.gz", full[:cut])
+				tab, err := Read(context.Background(), []string{p}, ReadOptions{})
+				if err == nil {
+					t.Fatalf("cut at byte %d of %d, chunks of %d: read %d participants, want an error", cut, len(full), size, len(tab.Units))
+				}
+				var ie *InputError
+				if !errors.As(err, &ie) || ie.File != p || !strings.Contains(err.Error(), "cut short") {
+					t.Errorf("cut at byte %d, chunks of %d: %v; want an error naming %s and saying it is cut short", cut, size, err, p)
+				}
+			}()
+		}
+	}
+}
