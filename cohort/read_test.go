@@ -925,3 +925,48 @@ func TestTruncatedGzipIsAnError(t *testing.T) {
 		}
 	}
 }
+
+// Spreadsheet date-times in the order column read as times across midnight and across days,
+// whether the first window is at midnight (a whole-day serial, once taken for an integer order
+// and refused with "is an integer but the order column held times") or later.
+func TestReadXLSXDatesAcrossMidnight(t *testing.T) {
+	dir := t.TempDir()
+	for _, tc := range []struct {
+		name  string
+		start time.Time
+	}{
+		{"first window at midnight", time.Date(2026, 3, 2, 0, 0, 0, 0, time.UTC)},
+		{"crossing midnight", time.Date(2026, 3, 1, 22, 30, 0, 0, time.UTC)},
+		{"over days", time.Date(2026, 3, 1, 23, 0, 0, 0, time.UTC)},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			rows := [][]any{{"participant", "window", "f1"}}
+			step := 30 * time.Minute
+			if tc.name == "over days" {
+				step = 6 * time.Hour
+			}
+			for i := 0; i < 40; i++ {
+				rows = append(rows, []any{[]string{"A", "B"}[i/20], tc.start.Add(time.Duration(i%20) * step), float64(i%7) + 0.5})
+			}
+			p := filepath.Join(dir, strings.ReplaceAll(tc.name, " ", "-")+".xlsx")
+			writeSheet(t, p, rows, "")
+			tab, err := Read(context.Background(), []string{p}, ReadOptions{})
+			if err != nil {
+				t.Fatal(err)
+			}
+			defer tab.Close()
+			if tab.OrderKind != "time" || len(tab.Units) != 2 {
+				t.Fatalf("order %s, %d units", tab.OrderKind, len(tab.Units))
+			}
+			ord := order(t, tab, 0)
+			for w := 1; w < len(ord); w++ {
+				if ord[w]-ord[w-1] != int64(step) {
+					t.Fatalf("window %d: step %v, want %v (%v)", w, time.Duration(ord[w]-ord[w-1]), step, ord[:3])
+				}
+			}
+			if got := time.Unix(0, ord[0]).UTC(); !got.Equal(tc.start) {
+				t.Errorf("first window at %v, want %v", got, tc.start)
+			}
+		})
+	}
+}

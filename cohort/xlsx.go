@@ -52,6 +52,7 @@ func (r *reader) readXLSX(p string) (err error) {
 	var header []string
 	var roles roles
 	n, rowNo := 0, 0
+	dates := false // the order column is formatted as spreadsheet dates
 	for rows.Next() {
 		rowNo++
 		if rowNo%4096 == 0 && r.ctx.Err() != nil {
@@ -95,7 +96,18 @@ func (r *reader) readXLSX(p string) (err error) {
 				return err
 			}
 		}
-		if err := r.addRecord(p, fileIdx, header, roles, '.', rec, pos, sheetOrder); err != nil {
+		if n == 0 && roles.order >= 0 {
+			// A spreadsheet date-time is a day count with a fraction; a whole-day count (a
+			// window at midnight) is one too when the column is formatted as dates, not an
+			// integer order.
+			cell, _ := excelize.CoordinatesToCellName(roles.order+1, rowNo)
+			dates = isDateCell(f, sheet, cell)
+		}
+		order := sheetOrder
+		if dates {
+			order = sheetDate
+		}
+		if err := r.addRecord(p, fileIdx, header, roles, '.', rec, pos, order); err != nil {
 			return err
 		}
 		n++
@@ -116,6 +128,60 @@ func (r *reader) readXLSX(p string) (err error) {
 	r.files = append(r.files, FileInfo{Path: p, SHA256: hexsum, Bytes: size, Rows: n})
 	r.rows += n
 	return nil
+}
+
+// sheetDate reads an order cell of a column formatted as dates: a spreadsheet day count (whole
+// or with a fraction), or an ISO-8601 time written as text.
+func sheetDate(cell string) (int64, byte, bool) {
+	serial, err := strconv.ParseFloat(strings.TrimSpace(cell), 64)
+	if err != nil {
+		if v, k, ok := parseOrderCell(cell); ok && k == 't' {
+			return v, k, ok
+		}
+		return 0, 0, false
+	}
+	if math.IsNaN(serial) || serial <= 0 {
+		return 0, 0, false
+	}
+	t, err := excelize.ExcelDateToTime(serial, false)
+	if err != nil {
+		return 0, 0, false
+	}
+	return t.UnixNano(), 't', true
+}
+
+// isDateCell tells whether a cell's number format shows a date or a time: one of the built-in
+// date and time formats (14–22, 45–47) or a custom format with a day, month, year, hour or
+// second in it outside quotes and brackets.
+func isDateCell(f *excelize.File, sheet, cell string) bool {
+	id, err := f.GetCellStyle(sheet, cell)
+	if err != nil {
+		return false
+	}
+	st, err := f.GetStyle(id)
+	if err != nil || st == nil {
+		return false
+	}
+	if (st.NumFmt >= 14 && st.NumFmt <= 22) || (st.NumFmt >= 45 && st.NumFmt <= 47) {
+		return true
+	}
+	if st.CustomNumFmt == nil {
+		return false
+	}
+	inQuote, inBracket := false, false
+	for _, c := range strings.ToLower(*st.CustomNumFmt) {
+		switch {
+		case c == '"':
+			inQuote = !inQuote
+		case c == '[' && !inQuote:
+			inBracket = true
+		case c == ']' && !inQuote:
+			inBracket = false
+		case !inQuote && !inBracket && strings.ContainsRune("dmyhs", c):
+			return true
+		}
+	}
+	return false
 }
 
 // sheetOrder reads an order cell of a sheet: an integer, an ISO-8601 time, or a spreadsheet date
