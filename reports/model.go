@@ -2,6 +2,8 @@ package reports
 
 import (
 	"bytes"
+	"crypto/sha256"
+	"encoding/hex"
 	"encoding/json"
 	"errors"
 	"fmt"
@@ -52,6 +54,9 @@ type Model struct {
 	Pseudonymized  bool         `json:"pseudonymized"`
 	KeyFingerprint string       `json:"key_fingerprint,omitempty"`
 	FeatureMeds    [][3]float64 `json:"feature_median_range"` // per feature: 1st percentile, median, 99th percentile of participant medians
+	// Checksum is the SHA-256 of the file as written with this field empty (version 4): a
+	// value changed by hand or by a damaged copy is refused.
+	Checksum string `json:"checksum,omitempty"`
 }
 
 // ModelRead records the column roles used.
@@ -215,9 +220,36 @@ func WriteModel(path string, m *Model, force bool) error {
 
 // ModelTo writes the model as indented JSON.
 func ModelTo(w io.Writer, m *Model) error {
-	enc := json.NewEncoder(w)
+	c := *m
+	c.Checksum = ""
+	if c.Version >= 4 {
+		body, err := modelJSON(&c)
+		if err != nil {
+			return err
+		}
+		c.Checksum = checksum(body)
+	}
+	b, err := modelJSON(&c)
+	if err != nil {
+		return err
+	}
+	_, err = w.Write(b)
+	return err
+}
+
+// modelJSON is the model as the file holds it: indented JSON.
+func modelJSON(m *Model) ([]byte, error) {
+	var buf bytes.Buffer
+	enc := json.NewEncoder(&buf)
 	enc.SetIndent("", " ")
-	return enc.Encode(m)
+	err := enc.Encode(m)
+	return buf.Bytes(), err
+}
+
+// checksum is the SHA-256 of b, in hex.
+func checksum(b []byte) string {
+	sum := sha256.Sum256(b)
+	return hex.EncodeToString(sum[:])
 }
 
 // ReadModel reads and checks a model file: its format and version, and that every array has the
@@ -250,6 +282,15 @@ func ParseModel(name string, b []byte) (*Model, error) {
 	var m Model
 	if err := dec.Decode(&m); err != nil {
 		return nil, fmt.Errorf("%s: damaged or hand-edited (%v): %w; write it again with reports.ModelTo", name, jsonPos(b, err), ErrModel)
+	}
+	if m.Version >= 4 {
+		want := m.Checksum
+		m.Checksum = ""
+		body, err := modelJSON(&m)
+		if err != nil || want == "" || checksum(body) != want {
+			return nil, fmt.Errorf("%s: its checksum does not match its contents: %w; the file was changed after it was written or damaged in a copy; use the file as written, or fit the model again", name, ErrModel)
+		}
+		m.Checksum = want
 	}
 	if err := m.check(); err != nil {
 		return nil, fmt.Errorf("%s: %v: %w; write it again with reports.ModelTo", name, err, ErrModel)
@@ -392,6 +433,18 @@ func (m *Model) check() error {
 	g := m.Grouping
 	if _, err := cohort.ParseMethod(g.Method); err != nil {
 		return err
+	}
+	for _, names := range []struct {
+		what string
+		list []string
+	}{{"states.names", s.Names}, {"grouping.names", g.Names}} {
+		seen := map[string]bool{}
+		for _, n := range names.list {
+			if n == "" || seen[n] {
+				return fmt.Errorf("%s holds %q twice or empty; every state and group has a name of its own", names.what, n)
+			}
+			seen[n] = true
+		}
 	}
 	if g.K < 1 || len(g.Centroids) != g.K || len(g.Names) != g.K {
 		return fmt.Errorf("grouping: k = %d with %d centres and %d names", g.K, len(g.Centroids), len(g.Names))

@@ -257,12 +257,20 @@ func TestModelRoundTripAndDamage(t *testing.T) {
 		{"older schema", strings.Replace(string(good), `"version": 4`, `"version": 1`, 1), "schema version 1, this tool reads versions 2 to 4"},
 		{"other file", `{"format":"something else","version":3}`, `format is "something else"`},
 		{"version 2 without its options", strings.Replace(string(good), `"version": 4`, `"version": 2`, 1), "a version 2 model without the settings it was fitted with"},
-		{"settings left out", withoutField(t, good, "fit"), "a version 4 model without the settings"},
+		{"settings left out", resum(t, withoutField(t, good, "fit")), "a version 4 model without the settings"},
 		{"unknown field", strings.Replace(string(good), `"tool":`, `"extra": 1, "tool":`, 1), "damaged or hand-edited"},
-		{"wrong size", strings.Replace(string(good), `"k": 4`, `"k": 5`, 1), "states: k = 5 with 4 centroids"},
-		{"bad spread", strings.Replace(string(good), `"spread": [
+		{"wrong size", resum(t, strings.Replace(string(good), `"k": 4`, `"k": 5`, 1)), "states: k = 5 with 4 centroids"},
+		{"bad spread", resum(t, strings.Replace(string(good), `"spread": [
    1,`, `"spread": [
-   -1,`, 1), "normalize.spread[0] is -1"},
+   -1,`, 1)), "normalize.spread[0] is -1"},
+		// A value changed by hand (a centroid moved by 5.0, which once made participants
+		// atypical without a word) and a copy with a flipped digit: the checksum refuses both.
+		{"a value changed", strings.Replace(string(good), `"centroids": [
+   [
+    `, `"centroids": [
+   [
+    5.0`, 1), "its checksum does not match its contents"},
+		{"two states of one name", resum(t, strings.Replace(string(good), `"S2"`, `"S1"`, 1)), `states.names holds "S1" twice`},
 	}
 	for _, c := range cases {
 		t.Run(c.name, func(t *testing.T) {
@@ -275,6 +283,21 @@ func TestModelRoundTripAndDamage(t *testing.T) {
 			}
 		})
 	}
+}
+
+// resum gives an edited model file a checksum that fits it, so that the edit reaches the
+// checks behind the checksum.
+func resum(t *testing.T, edited string) string {
+	t.Helper()
+	var m Model
+	if err := json.Unmarshal([]byte(edited), &m); err != nil {
+		t.Fatal(err)
+	}
+	var b bytes.Buffer
+	if err := ModelTo(&b, &m); err != nil {
+		t.Fatal(err)
+	}
+	return b.String()
 }
 
 // FuzzParseModel: a damaged or hand-edited model file is refused with ErrModel, never a panic.
