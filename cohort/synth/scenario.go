@@ -144,6 +144,10 @@ func (sc *Scenario) drawNuisance(rng *rand.Rand) {
 	sc.QuietSplit = rng.Float64() < 0.35
 }
 
+// maxGroupDraws is how many times drawGroups draws the groups' mixtures before it keeps the
+// draw that came closest to its rule.
+const maxGroupDraws = 5000
+
 // drawGroups plants the groups over the scenario's states (the first nQuiet quiet, the rest
 // active): their number and sizes, and what sets them apart (structure). recording is the
 // number of windows in a typical recording, which sets how far apart groups must be drawn.
@@ -175,11 +179,11 @@ func (sc *Scenario) drawGroups(rng *rand.Rand, nQuiet int, structure Structure, 
 	if structure == SmallGroup {
 		// One group of 5–10 % of the cohort; the others share the rest as drawn.
 		small := 0.05 + 0.05*rng.Float64()
+		rest := 1 - sizes[nGroups-1]
 		for g := range sizes {
-			sizes[g] *= 1 - small
+			sizes[g] *= (1 - small) / rest
 		}
 		sizes[nGroups-1] = small
-		normalizeSum(sizes)
 	}
 	qTotal := 0.5 + 0.3*rng.Float64()
 	base := make([]float64, nStates)
@@ -196,6 +200,8 @@ func (sc *Scenario) drawGroups(rng *rand.Rand, nQuiet int, structure Structure, 
 		return
 	}
 	alpha := 10 + 15*rng.Float64()
+	var best []Group // the draw whose closest groups are farthest apart, should no draw pass
+	bestH := -1.0
 	for tries := 0; ; tries++ {
 		groups := make([]Group, nGroups)
 		for g := range groups {
@@ -228,8 +234,19 @@ func (sc *Scenario) drawGroups(rng *rand.Rand, nQuiet int, structure Structure, 
 			bout += base[i] * st.Bout
 		}
 		c := 1 / (1/(sc.Concentration+1) + 2*bout/float64(recording))
-		if minHellinger(groups)*2*math.Sqrt2*math.Sqrt(c) >= 4 {
+		h := minHellinger(groups)
+		if h*2*math.Sqrt2*math.Sqrt(c) >= 4 {
 			sc.Groups = groups
+			break
+		}
+		if h > bestH {
+			best, bestH = groups, h
+		}
+		if tries == maxGroupDraws {
+			// Few states cannot hold groups that far apart (a count-data scenario with three
+			// waking states, say): the best draw is kept, and the groups are closer than the
+			// rule asks.
+			sc.Groups = best
 			break
 		}
 		if tries%50 == 49 {

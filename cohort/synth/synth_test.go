@@ -5,6 +5,7 @@ import (
 	"context"
 	"math"
 	"path/filepath"
+	"slices"
 	"strconv"
 	"strings"
 	"testing"
@@ -128,6 +129,40 @@ func TestScenarioFamily(t *testing.T) {
 		for _, name := range []string{"sd_x", "vm_sd", "power_low", "power_high", "jerk_mean", "zero_cross"} {
 			if num(name) < 0 {
 				t.Fatalf("%s is negative: %v", name, line)
+			}
+		}
+	}
+}
+
+// Every family draws its members: the planted groups as the family says (one for null, 2–3 for
+// bouts with one mixture, one of 5–10 % for small), and no draw hangs (a count-data member once
+// drew its groups for ever, its three waking states unable to hold them as far apart as the
+// rule asked).
+func TestEveryFamilyDrawsItsMembers(t *testing.T) {
+	for _, f := range synth.Families {
+		for seed := uint64(1); seed <= 150; seed++ {
+			sc, err := synth.DrawFamily(f, seed)
+			if err != nil {
+				t.Fatal(err)
+			}
+			k := len(sc.Groups)
+			switch f {
+			case synth.Null:
+				if k != 1 {
+					t.Fatalf("%s %d: %d groups", f, seed, k)
+				}
+			case synth.Bouty:
+				if k < 2 || k > 3 || !slices.Equal(sc.Groups[0].Mixture, sc.Groups[k-1].Mixture) {
+					t.Fatalf("%s %d: %d groups, or mixtures that differ", f, seed, k)
+				}
+			case synth.Small:
+				if s := sc.Groups[k-1].Share; s < 0.05 || s > 0.1 {
+					t.Fatalf("%s %d: the small group holds %.3f", f, seed, s)
+				}
+			default:
+				if k < 2 || k > 5 {
+					t.Fatalf("%s %d: %d groups", f, seed, k)
+				}
 			}
 		}
 	}
