@@ -40,6 +40,10 @@ func parseRangeFrom(flag, s string, least int) ([]int, error) {
 	return out, nil
 }
 
+// defaultGroups and defaultCriterion are the mixture's; the other methods take 2-8 and
+// gap-steady when these are left as they are.
+const defaultGroups, defaultCriterion = "1-8", "icl"
+
 // mainFlags are the flags of every command that runs the main job.
 type mainFlags struct {
 	ID, Order, Wave, Label string
@@ -92,9 +96,9 @@ func (m *mainFlags) register(cmd *cobra.Command) {
 	f.IntVar(&m.Fits, "fits", job.DefaultFits, "with the align step: fit each number of states this many times from different random starts, and keep the fit whose grouping of the sampled participants agrees best with all the others'")
 	f.StringVar(&m.Calibration, "calibration", "sphere", "with the align step: sphere calibrates each device's axis means onto the sphere of gravity before turning them (van Hees et al. 2014); off leaves them as read")
 	f.IntVar(&m.Sample, "sample", 50000, "windows sampled to fit the states")
-	f.StringVar(&m.Groups, "groups", "1-8", "number of participant groups, or a range to choose from (1, no distinct groups, is a possible answer of the mixture method)")
+	f.StringVar(&m.Groups, "groups", defaultGroups, "number of participant groups, or a range to choose from (1, no distinct groups, is a possible answer of the mixture method)")
 	f.StringVar(&m.Method, "method", "mixture", "grouping: "+cohort.MethodHelp())
-	f.StringVar(&m.Criterion, "criterion", "icl", "rule for the number of groups: icl or bic for the mixture method (the integrated completed likelihood, or the Bayesian information criterion); for the others gap-steady (gap-stable's number, or when that grouping is tentative, its stability below 0.8, the largest smaller number whose grouping is not), gap-stable (the gap statistic's number, then one fewer while that groups more stably by more than 0.1), gap, stability or silhouette")
+	f.StringVar(&m.Criterion, "criterion", defaultCriterion, "rule for the number of groups: icl or bic for the mixture method (the integrated completed likelihood, or the Bayesian information criterion); for the others gap-steady (gap-stable's number, or when that grouping is tentative, its stability below 0.8, the largest smaller number whose grouping is not), gap-stable (the gap statistic's number, then one fewer while that groups more stably by more than 0.1), gap, stability or silhouette")
 	f.Float64Var(&m.GroupValley, "group-valley", 0, "lower the number of groups while two of them form one mode (density between them at least this share of its height; 0: off)")
 	f.IntVar(&m.Bootstrap, "bootstrap", 20, "resamples for stability and reference sets for the gap statistic")
 	f.Uint64Var(&m.Seed, "seed", 1, "seed for every random step")
@@ -225,19 +229,31 @@ func (m *mainFlags) options(inputs []string) (job.Options, error) {
 	if o.Method, err = cohort.ParseMethod(m.Method); err != nil {
 		return o, &flagError{err}
 	}
-	least := 2
+	least, groups, criterion := 2, m.Groups, m.Criterion
 	if o.Method == cohort.Mixture {
 		least = 1 // the mixture may find no groups
+	} else {
+		// The defaults are the mixture's: another method groups into 2 to 8 by gap-steady
+		// unless told otherwise.
+		if groups == defaultGroups {
+			groups = "2-8"
+		}
+		if criterion == defaultCriterion {
+			criterion = "gap-steady"
+		}
 	}
-	if o.Groups, err = parseRangeFrom("groups", m.Groups, least); err != nil {
+	if o.Groups, err = parseRangeFrom("groups", groups, least); err != nil {
 		return o, err
 	}
 	if m.GroupValley < 0 || m.GroupValley >= 1 {
 		return o, flagErrorf("--group-valley %v: use a share in [0, 1)", m.GroupValley)
 	}
 	o.GroupValley = m.GroupValley
-	if o.Criterion, err = cohort.ParseCriterion(m.Criterion); err != nil {
+	if o.Criterion, err = cohort.ParseCriterion(criterion); err != nil {
 		return o, &flagError{err}
+	}
+	if mixtureCriterion := o.Criterion == cohort.ByBIC || o.Criterion == cohort.ByICL; mixtureCriterion != (o.Method == cohort.Mixture) {
+		return o, flagErrorf("--criterion %s with --method %s: bic and icl choose the mixture's number of groups, gap-steady, gap-stable, gap, stability and silhouette the other methods'", criterion, o.Method)
 	}
 	if m.Sample < 100 || m.Bootstrap < 2 || m.Workers < 0 {
 		return o, flagErrorf("--sample %d, --bootstrap %d, --workers %d: use at least 100 windows, 2 resamples and ≥ 0 workers", m.Sample, m.Bootstrap, m.Workers)
