@@ -112,7 +112,11 @@ func groupMixture(ctx context.Context, shares [][]float64, opts GroupOptions) (*
 		if k > fr {
 			break
 		}
-		m, err := mixture.FitDMM(ctx, fitRows, mixture.DMMOptions{K: k, Blocks: blocks, Starts: mixtureStarts, Seed: cluster.SubSeed(opts.Seed, "mixture", k), Workers: opts.Workers})
+		mo := mixture.DMMOptions{K: k, Blocks: blocks, Starts: mixtureStarts, Seed: cluster.SubSeed(opts.Seed, "mixture", k), Workers: opts.Workers}
+		if opts.Quick {
+			mo.Starts, mo.Tol, mo.MaxIter = 2, 1e-4, 100
+		}
+		m, err := mixture.FitDMM(ctx, fitRows, mo)
 		if err != nil {
 			return nil, fmt.Errorf("cohort: fitting the mixture with %d groups: %w", k, err)
 		}
@@ -128,7 +132,7 @@ func groupMixture(ctx context.Context, shares [][]float64, opts GroupOptions) (*
 		default:
 			rises++
 		}
-		if rises == 2 && len(opts.Groups) > 1 {
+		if (rises == 2 || opts.Quick && rises == 1) && len(opts.Groups) > 1 {
 			break
 		}
 	}

@@ -184,7 +184,27 @@ func FitAligned(ctx context.Context, units [][]float64, fit *normalize.Fit, opts
 	s.K = a.k
 	s.Centroids = mat.NewDense(a.k, dim, a.centres)
 	s.Posture = a.posture
-	s.Centroids, s.Posture = orderAligned(s.Centroids, s.Posture)
+	var idx []int
+	s.Centroids, idx = orderStates(s.Centroids)
+	if s.Posture != nil {
+		p := make([][]float64, len(idx))
+		for to, from := range idx {
+			p[to] = s.Posture[from]
+		}
+		s.Posture = p
+	}
+	// Each sampled window's state as the fit left it, numbered as the states are ordered.
+	rename := make([]int, len(idx))
+	for to, from := range idx {
+		rename[from] = to
+	}
+	s.SampleLabels = make([][]int, len(a.labels))
+	for u, lab := range a.labels {
+		s.SampleLabels[u] = make([]int, len(lab))
+		for w, l := range lab {
+			s.SampleLabels[u][w] = rename[l]
+		}
+	}
 	return s, nil
 }
 

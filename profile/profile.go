@@ -106,6 +106,10 @@ type States struct {
 	// sampled windows' axis means).
 	Calibrate bool
 	Gravity   float64
+	// SampleLabels are, for states from FitAligned with one number of states, each fitted
+	// unit's windows' states as the fit left them (in the order of the units given); nil
+	// otherwise. A caller that keeps the states may drop them.
+	SampleLabels [][]int
 	// Ensemble lists the fits the states were chosen among (job's fitStates), one row per fit;
 	// nil when one fit was made.
 	Ensemble []EnsembleFit

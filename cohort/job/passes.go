@@ -563,6 +563,7 @@ func fitStates(ctx context.Context, fp *FitPiece, units [][]float64, o Options) 
 		}
 	}
 	fp.States = members[best].states
+	fp.States.SampleLabels = nil // what the ensemble needed; the piece need not carry it
 	if len(members) > 1 {
 		labels := make([][]int, len(members))
 		for i, m := range members {
@@ -600,9 +601,12 @@ const DefaultFits = 3
 func sampleGrouping(ctx context.Context, fit *normalize.Fit, st *profile.States, units [][]float64, o Options, groups []int) ([]int, error) {
 	sigs := make([]profile.Signature, len(units))
 	for i, x := range units {
-		_, _, lab, err := st.AlignUnit(fit, x, nil)
-		if err != nil {
-			return nil, err
+		lab := st.SampleLabels[i] // as the fit left them: the fit aligned these devices itself
+		if len(lab) == 0 {
+			var err error
+			if _, _, lab, err = st.AlignUnit(fit, x, nil); err != nil {
+				return nil, err
+			}
 		}
 		sigs[i] = profile.Signatures(lab, st.K)
 	}
@@ -621,7 +625,7 @@ func sampleGrouping(ctx context.Context, fit *normalize.Fit, st *profile.States,
 		valid = []int{min(max(1, len(units)-1), o.Groups[0])}
 	}
 	g, err := cohort.GroupSignatures(ctx, shares, cohort.GroupOptions{Method: o.Method, Groups: valid, Criterion: criterion, Bootstrap: o.Bootstrap, Seed: o.Seed,
-		Counts: counts, NoBouts: true, NoStability: true, Workers: o.Workers})
+		Counts: counts, NoBouts: true, NoStability: true, Quick: true, Workers: o.Workers})
 	if err != nil {
 		return nil, err
 	}
