@@ -73,21 +73,7 @@ func FitTiedGaussian(ctx context.Context, x mat.Matrix, opts GaussianOptions) (*
 			rows[i][j] = v
 		}
 	}
-	if opts.Starts == 0 {
-		opts.Starts = 10
-	}
-	if opts.K == 1 {
-		opts.Starts = 1
-	}
-	if opts.MaxIter == 0 {
-		opts.MaxIter = 1000
-	}
-	if opts.Tol == 0 {
-		opts.Tol = 1e-10
-	}
-	if opts.Reg == 0 {
-		opts.Reg = 1e-6
-	}
+	opts = gaussianDefaults(opts)
 	dense := mat.NewDense(n, d, nil)
 	for i, r := range rows {
 		dense.SetRow(i, r)
@@ -124,24 +110,17 @@ func FitTiedGaussian(ctx context.Context, x mat.Matrix, opts GaussianOptions) (*
 	if best == nil {
 		return nil, fmt.Errorf("mixture: FitTiedGaussian: no start gave a finite likelihood: %w; the data may lie on a lower-dimensional subspace", cluster.ErrNonFinite)
 	}
-	p := float64(best.Params)
-	best.BIC = -2*best.LogLik + p*math.Log(float64(n))
-	best.AIC = -2*best.LogLik + 2*p
-	best.ICL = best.BIC + 2*entropy(best.Posterior)
+	best.criteria(n)
 	return best, nil
 }
 
-// FitTiedGaussianFrom runs EM from given memberships (rows × K, each row summing to 1), with
-// the options' MaxIter, Tol and Reg; it is what each start of FitTiedGaussian runs, exported so
-// that a fit can be compared with a reference library's from the same start.
-func FitTiedGaussianFrom(ctx context.Context, x mat.Matrix, post [][]float64, opts GaussianOptions) (*Gaussian, error) {
-	n, d := x.Dims()
-	if len(post) != n || n == 0 || len(post[0]) < 1 {
-		return nil, fmt.Errorf("mixture: FitTiedGaussianFrom: %d memberships for %d rows: %w", len(post), n, cluster.ErrShape)
+// gaussianDefaults fills the options' zero values.
+func gaussianDefaults(opts GaussianOptions) GaussianOptions {
+	if opts.Starts == 0 {
+		opts.Starts = 10
 	}
-	rows := make([][]float64, n)
-	for i := range rows {
-		rows[i] = mat.Row(nil, i, x)
+	if opts.K == 1 {
+		opts.Starts = 1
 	}
 	if opts.MaxIter == 0 {
 		opts.MaxIter = 1000
@@ -152,7 +131,31 @@ func FitTiedGaussianFrom(ctx context.Context, x mat.Matrix, post [][]float64, op
 	if opts.Reg == 0 {
 		opts.Reg = 1e-6
 	}
+	return opts
+}
+
+// criteria fills the information criteria of a fit to n rows.
+func (g *Gaussian) criteria(n int) {
+	p := float64(g.Params)
+	g.BIC = -2*g.LogLik + p*math.Log(float64(n))
+	g.AIC = -2*g.LogLik + 2*p
+	g.ICL = g.BIC + 2*entropy(g.Posterior)
+}
+
+// FitTiedGaussianFrom runs EM from given memberships (rows × K, each row summing to 1), with
+// the options' MaxIter, Tol and Reg; it is what each start of FitTiedGaussian runs, exported so
+// that a fit can be compared with a reference library's from the same start.
+func FitTiedGaussianFrom(ctx context.Context, x mat.Matrix, post [][]float64, opts GaussianOptions) (*Gaussian, error) {
+	n, _ := x.Dims()
+	if len(post) != n || n == 0 || len(post[0]) < 1 {
+		return nil, fmt.Errorf("mixture: FitTiedGaussianFrom: %d memberships for %d rows: %w", len(post), n, cluster.ErrShape)
+	}
+	rows := make([][]float64, n)
+	for i := range rows {
+		rows[i] = mat.Row(nil, i, x)
+	}
 	opts.K = len(post[0])
+	opts = gaussianDefaults(opts)
 	cp := make([][]float64, n)
 	for i := range post {
 		cp[i] = append([]float64(nil), post[i]...)
@@ -164,11 +167,7 @@ func FitTiedGaussianFrom(ctx context.Context, x mat.Matrix, post [][]float64, op
 	if g == nil {
 		return nil, fmt.Errorf("mixture: FitTiedGaussianFrom: the covariance is singular: %w", cluster.ErrNonFinite)
 	}
-	p := float64(g.Params)
-	g.BIC = -2*g.LogLik + p*math.Log(float64(n))
-	g.AIC = -2*g.LogLik + 2*p
-	g.ICL = g.BIC + 2*entropy(g.Posterior)
-	_ = d
+	g.criteria(n)
 	return g, nil
 }
 

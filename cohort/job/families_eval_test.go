@@ -289,17 +289,7 @@ func sqrtEmbedding(ff familyFit, bout bool) *mat.Dense {
 			y.Set(i, j, z.At(i, j))
 		}
 		if bout {
-			var runs, tot float64
-			for a := 0; a < s; a++ {
-				for b := 0; b < s; b++ {
-					v := float64(ff.Trans[i][a*s+b])
-					tot += v
-					if a != b {
-						runs += v
-					}
-				}
-			}
-			y.Set(i, keep, math.Log((tot+1)/(runs+1)))
+			y.Set(i, keep, logMeanBout(ff, i))
 		}
 	}
 	return y
@@ -335,6 +325,23 @@ func groupingsOf(t *testing.T, dir string, d *familyDump, method string) cachedG
 	b, _ := json.Marshal(c)
 	os.WriteFile(path, b, 0o644)
 	return c
+}
+
+// logMeanBout is the log of unit i's mean bout length: its transitions over its changes of
+// state, each plus one.
+func logMeanBout(ff familyFit, i int) float64 {
+	s := ff.S
+	var runs, tot float64
+	for a := 0; a < s; a++ {
+		for b := 0; b < s; b++ {
+			v := float64(ff.Trans[i][a*s+b])
+			tot += v
+			if a != b {
+				runs += v
+			}
+		}
+	}
+	return math.Log((tot + 1) / (runs + 1))
 }
 
 // ilrEmbedding is each unit's centred log-ratios of its state counts (half a window added to
@@ -381,17 +388,7 @@ func ilrEmbedding(ff familyFit, bout bool, keep float64) *mat.Dense {
 			y.Set(i, j, z.At(i, j))
 		}
 		if bout {
-			var runs, tot float64
-			for a := 0; a < s; a++ {
-				for b := 0; b < s; b++ {
-					v := float64(ff.Trans[i][a*s+b])
-					tot += v
-					if a != b {
-						runs += v
-					}
-				}
-			}
-			y.Set(i, keepN, math.Log((tot+1)/(runs+1)))
+			y.Set(i, keepN, logMeanBout(ff, i))
 		}
 	}
 	return y

@@ -52,11 +52,16 @@ type familyDump struct {
 	Fits         []familyFit
 }
 
-func TestFamiliesDump(t *testing.T) {
-	if *familiesSet == "" || *familiesDump == "" {
-		t.Skip("pass -families family:first-last -families.dump DIR")
-	}
-	for _, part := range strings.Split(*familiesSet, ",") {
+// familyMember is one member of a family.
+type familyMember struct {
+	family synth.Family
+	seed   uint64
+}
+
+// familyMembers reads "family:first-last[,…]".
+func familyMembers(t *testing.T, spec string) []familyMember {
+	var out []familyMember
+	for _, part := range strings.Split(spec, ",") {
 		var name string
 		var lo, hi uint64
 		if _, err := fmt.Sscanf(strings.Replace(part, ":", " ", 1), "%s %d-%d", &name, &lo, &hi); err != nil {
@@ -67,20 +72,31 @@ func TestFamiliesDump(t *testing.T) {
 			t.Fatal(err)
 		}
 		for seed := lo; seed <= hi; seed++ {
-			out := filepath.Join(*familiesDump, fmt.Sprintf("%s-%04d.json", fam, seed))
-			if _, err := os.Stat(out); err == nil {
-				continue
-			}
-			d := dumpFamilyMember(t, fam, seed)
-			b, err := json.Marshal(d)
-			if err != nil {
-				t.Fatal(err)
-			}
-			if err := os.WriteFile(out, b, 0o644); err != nil {
-				t.Fatal(err)
-			}
-			t.Logf("%s %d: defaults ARI %.3f (%d states, %d groups; planted %d, %d)", fam, seed, d.DefaultsARI, d.DefaultsS, d.DefaultsK, d.TrueStates, d.TrueGroups)
+			out = append(out, familyMember{fam, seed})
 		}
+	}
+	return out
+}
+
+func TestFamiliesDump(t *testing.T) {
+	if *familiesSet == "" || *familiesDump == "" {
+		t.Skip("pass -families family:first-last -families.dump DIR")
+	}
+	for _, m := range familyMembers(t, *familiesSet) {
+		fam, seed := m.family, m.seed
+		out := filepath.Join(*familiesDump, fmt.Sprintf("%s-%04d.json", fam, seed))
+		if _, err := os.Stat(out); err == nil {
+			continue
+		}
+		d := dumpFamilyMember(t, fam, seed)
+		b, err := json.Marshal(d)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if err := os.WriteFile(out, b, 0o644); err != nil {
+			t.Fatal(err)
+		}
+		t.Logf("%s %d: defaults ARI %.3f (%d states, %d groups; planted %d, %d)", fam, seed, d.DefaultsARI, d.DefaultsS, d.DefaultsK, d.TrueStates, d.TrueGroups)
 	}
 }
 
@@ -234,22 +250,12 @@ func TestFamiliesRecovery(t *testing.T) {
 	}
 	var rows []row
 	_ = rows
-	for _, part := range strings.Split(*familiesRecover, ",") {
-		var name string
-		var lo, hi uint64
-		if _, err := fmt.Sscanf(strings.Replace(part, ":", " ", 1), "%s %d-%d", &name, &lo, &hi); err != nil {
-			t.Fatalf("%s: %v", part, err)
-		}
-		fam, err := synth.ParseFamily(name)
-		if err != nil {
-			t.Fatal(err)
-		}
-		for seed := lo; seed <= hi; seed++ {
-			m := recoverMember(t, fam, seed)
-			r := row(m)
-			rows = append(rows, r)
-			t.Logf("%-7s %4d K=%d: ARI %v, states %v, groups %v, reproducibility %.2f, %.1f s", fam, seed, r.trueK, fmtFloats(r.aris), r.states, r.groups, median(r.reps), r.secs)
-		}
+	for _, mem := range familyMembers(t, *familiesRecover) {
+		fam, seed := mem.family, mem.seed
+		m := recoverMember(t, fam, seed)
+		r := row(m)
+		rows = append(rows, r)
+		t.Logf("%-7s %4d K=%d: ARI %v, states %v, groups %v, reproducibility %.2f, %.1f s", fam, seed, r.trueK, fmtFloats(r.aris), r.states, r.groups, median(r.reps), r.secs)
 	}
 	byFam := map[string][]row{}
 	var fams []string
