@@ -139,9 +139,9 @@ func choiceText(r *Result) string {
 	}
 	switch r.Grouping.Criterion.String() {
 	case "icl":
-		return "the smallest integrated completed likelihood of the mixture (Biernacki, Celeux & Govaert 2000), over " + kRange(r) + ", fitted in turn until the criterion had risen twice past its best"
+		return "the mixture's smallest ICL over " + kRange(r)
 	case "bic":
-		return "the smallest Bayesian information criterion of the mixture (Schwarz 1978), over " + kRange(r) + ", fitted in turn until the criterion had risen twice past its best"
+		return "the mixture's smallest BIC over " + kRange(r)
 	case "gap":
 		return "gap statistic, Tibshirani et al. 2001, over " + kRange(r)
 	case "stability":
@@ -159,7 +159,7 @@ func choiceText(r *Result) string {
 // in order; nothing when one number was fitted and kept as it was.
 func statesChoice(t *table, st *styles, s *profile.States) error {
 	if len(s.Ensemble) > 0 {
-		if err := t.put(v{"Each row is one fit of the movement states: each number of states fitted from several random starts, each fit grouping the sampled participants; the fit kept is the one whose grouping agrees best with all the others' (the mean adjusted Rand index of its grouping with theirs).", st.note}); err != nil {
+		if err := t.put(v{"Each row is one fit of the movement states: each number of states fitted from several random starts, each fit grouping the sampled participants; the fit kept is the one whose grouping agrees best with all the others' (the mean adjusted Rand index of its grouping with theirs). The number of groups below is chosen by the mixture's integrated completed likelihood (ICL, Biernacki, Celeux & Govaert 2000) or BIC (Schwarz 1978), each number fitted in turn until the criterion had risen twice past its best.", st.note}); err != nil {
 			return err
 		}
 		if err := t.merge(6); err != nil {

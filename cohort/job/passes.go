@@ -569,7 +569,6 @@ func fitStates(ctx context.Context, fp *FitPiece, units [][]float64, o Options) 
 		for i, m := range members {
 			labels[i] = m.labels
 		}
-		kept := members[best]
 		for i, m := range members {
 			var sum float64
 			for j := range members {
@@ -580,8 +579,7 @@ func fitStates(ctx context.Context, fp *FitPiece, units [][]float64, o Options) 
 			fp.States.Ensemble = append(fp.States.Ensemble, profile.EnsembleFit{States: m.s, Start: m.fit + 1, Groups: slices.Max(m.labels) + 1,
 				Agreement: sum / float64(len(members)-1), Kept: i == best})
 		}
-		fp.States.Rule = fmt.Sprintf("of %d fits, at %s states from %d random starts each, the one whose grouping of the sampled participants agrees best with the others' (%d states, start %d)",
-			len(members), numbersText(o.States), fits, kept.s, kept.fit+1)
+		fp.States.Rule = fmt.Sprintf("the fit that agrees best with the other %d (%s states, %d starts each)", len(members)-1, rangeText(o.States), fits)
 	}
 	return notes, warnings, nil
 }
@@ -691,6 +689,15 @@ func median(xs []float64) float64 {
 		return c[len(c)/2]
 	}
 	return (c[len(c)/2-1] + c[len(c)/2]) / 2
+}
+
+// rangeText writes increasing numbers as "3–8" when they run without a gap, else as
+// numbersText does.
+func rangeText(ks []int) string {
+	if len(ks) > 2 && ks[len(ks)-1]-ks[0] == len(ks)-1 {
+		return fmt.Sprintf("%d–%d", ks[0], ks[len(ks)-1])
+	}
+	return numbersText(ks)
 }
 
 // numbersText writes numbers as "3, 4 and 5".
