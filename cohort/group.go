@@ -155,9 +155,9 @@ type GroupOptions struct {
 	// Quick fits the mixture from 2 starts each, to a looser tolerance (1e-4 per row) and
 	// at most 100 EM iterations, and stops at the first number of groups whose criterion rises:
 	// a vote among many fits, not the run's grouping.
-	Quick bool
-	Workers     int
-	Progress    func(step string, done, total int) // after each grouping, reference set and resample; may be nil
+	Quick    bool
+	Workers  int
+	Progress func(step string, done, total int) // after each grouping, reference set and resample; may be nil
 }
 
 // report tells opts.Progress, if set, that done of total of a step are finished.
