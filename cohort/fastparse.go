@@ -78,6 +78,8 @@ type parsedChunk struct {
 	labels []string
 	cells  []orderCell // order cell text and column of the first row, and of the first row of another kind
 	err    error       // first error in the chunk, positioned
+	// trimmed counts the rows whose id or wave had spaces around it; trimLine is the first.
+	trimmed, trimLine int
 	// lo is each feature's lowest value over the chunk's windows (missing cells aside; +Inf
 	// when there is none), found by summarize.
 	lo []float64
@@ -154,6 +156,11 @@ func (r *reader) parseBody(br *bufio.Reader, spec *parseSpec, firstLine int, mer
 		return job{}, false, r.gzipCut(spec.file, readErr, line-1)
 	}
 	parse := func(_ int, j job, _ int) (*parsedChunk, error) {
+		if off := textFault(j.data, true); off >= 0 {
+			err := textFaultError(spec.file, j.data, off, j.line)
+			chunkBufs.Put(&j.data)
+			return nil, err
+		}
 		c := &parsedChunk{}
 		if j.quote {
 			spec.parseQuoted(j.data, j.line, c)
@@ -371,7 +378,7 @@ func (s *parseSpec) fastRow(c *parsedChunk, ln []byte, line int) bool {
 	// Everything that can send the line to the general path is checked before the chunk's
 	// order cells are touched, so that the general path records them as for any other line.
 	ord, ordOK := scanInt(ordb)
-	if ro.order >= 0 && !ordOK || len(idb) == 0 || !plainEdges(idb) || len(waveb) > 0 && !plainEdges(waveb) {
+	if ro.order >= 0 && !ordOK || len(idb) == 0 || !plainEdges(idb) || ro.wave >= 0 && (len(waveb) == 0 || !plainEdges(waveb)) {
 		c.vals = c.vals[:base]
 		return false
 	}
@@ -523,14 +530,33 @@ func (s *parseSpec) parseQuoted(data []byte, line int, c *parsedChunk) {
 // addRow parses one row's cells into the chunk; on a bad cell it records the error and returns false.
 func (s *parseSpec) addRow(c *parsedChunk, line int, cell func(int) string, col func(int) int, raw func(int) []byte) bool {
 	ro := s.roles
-	idb := bytes.TrimSpace(raw(ro.id))
+	rawID := raw(ro.id)
+	idb := bytes.TrimSpace(rawID)
 	if len(idb) == 0 {
 		c.err = &InputError{File: s.file, Line: line, Column: col(ro.id), Field: s.header[ro.id], Msg: "participant id is empty; fill it in or remove the row", Err: ErrMissingID}
 		return false
 	}
+	trimmed := 0
+	if len(idb) != len(rawID) {
+		trimmed++
+	}
 	var wave []byte
 	if ro.wave >= 0 {
-		wave = bytes.TrimSpace(raw(ro.wave))
+		rawWave := raw(ro.wave)
+		wave = bytes.TrimSpace(rawWave)
+		if len(wave) == 0 {
+			c.err = &InputError{File: s.file, Line: line, Column: col(ro.wave), Field: s.header[ro.wave], Msg: emptyWaveMsg, Err: ErrMissingID}
+			return false
+		}
+		if len(wave) != len(rawWave) {
+			trimmed++
+		}
+	}
+	if trimmed > 0 {
+		if c.trimmed == 0 {
+			c.trimLine = line
+		}
+		c.trimmed += trimmed
 	}
 	var ord int64
 	kind := byte(0)
@@ -538,7 +564,7 @@ func (s *parseSpec) addRow(c *parsedChunk, line int, cell func(int) string, col 
 		text := cell(ro.order)
 		v, k, ok := parseOrderCell(text)
 		if !ok {
-			c.err = &InputError{File: s.file, Line: line, Column: col(ro.order), Field: s.header[ro.order], Msg: fmt.Sprintf("%q is neither an integer nor an ISO-8601 time such as 2026-03-01T08:30:00; fix the cell", text), Err: ErrOrder}
+			c.err = &InputError{File: s.file, Line: line, Column: col(ro.order), Field: s.header[ro.order], Msg: orderMsg(text), Err: ErrOrder}
 			return false
 		}
 		ord, kind = v, k
@@ -570,18 +596,50 @@ func (s *parseSpec) addRow(c *parsedChunk, line int, cell func(int) string, col 
 	return true
 }
 
-// parseOrderCell reads an order cell: an integer ('i') or an ISO-8601 time ('t', Unix ns).
+// emptyWaveMsg is the message for an empty wave cell: a row whose wave is not known cannot be
+// placed in a wave, and a wave of "" would be one of its own.
+const emptyWaveMsg = "wave is empty; fill in the wave of every row, or leave the wave column out"
+
+// parseOrderCell reads an order cell: an integer ('i') or an ISO-8601 time ('t', Unix ns) in
+// the years 1900–2200 (a time outside them is refused; see orderMsg).
 func parseOrderCell(cell string) (int64, byte, bool) {
 	s := strings.TrimSpace(cell)
 	if v, err := strconv.ParseInt(s, 10, 64); err == nil {
 		return v, 'i', true
 	}
-	for _, layout := range timeLayouts {
-		if t, err := time.Parse(layout, s); err == nil {
-			return t.UnixNano(), 't', true
-		}
+	if t, ok := parseTime(s); ok && plausibleTime(t) {
+		return t.UnixNano(), 't', true
 	}
 	return 0, 0, false
+}
+
+func parseTime(s string) (time.Time, bool) {
+	for _, layout := range timeLayouts {
+		if t, err := time.Parse(layout, s); err == nil {
+			return t, true
+		}
+	}
+	return time.Time{}, false
+}
+
+// plausibleTime tells whether t falls in 1900–2200: outside these years a recording's clock is
+// wrong (an unset device clock, a wrong century), and past 2262 Unix nanoseconds overflow.
+func plausibleTime(t time.Time) bool {
+	return t.Year() >= 1900 && t.Year() <= 2200
+}
+
+// minTime and maxTime are the start of 1900 and the end of 2200 in Unix nanoseconds.
+var (
+	minTime = time.Date(1900, 1, 1, 0, 0, 0, 0, time.UTC).UnixNano()
+	maxTime = time.Date(2201, 1, 1, 0, 0, 0, 0, time.UTC).UnixNano() - 1
+)
+
+// orderMsg says what is wrong with an order cell that parseOrderCell refused.
+func orderMsg(cell string) string {
+	if t, ok := parseTime(strings.TrimSpace(cell)); ok && !plausibleTime(t) {
+		return fmt.Sprintf("%q is a time outside 1900–2200; check the year (a wrong century or an unset clock)", cell)
+	}
+	return fmt.Sprintf("%q is neither an integer nor an ISO-8601 time such as 2026-03-01T08:30:00; fix the cell", cell)
 }
 
 // pow10 holds the powers of ten that are exact in float64.

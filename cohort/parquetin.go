@@ -345,12 +345,23 @@ func (s *pqSpec) readRows(cols []int, cursors []*pqCursor, first, n int) (*parse
 	for j := range feats {
 		feats[j] = b.feats[j][:n]
 	}
-	text := func(dst []string, trim bool) func([]parquet.Value, int) *pqError {
+	// trims counts, by column, the cells that had spaces around them, and the first one's row.
+	trims := make([]struct{ n, at int }, len(cols))
+	text := func(k, col int, dst []string, trim bool) func([]parquet.Value, int) *pqError {
 		return func(vals []parquet.Value, at int) *pqError {
 			for i, v := range vals {
 				t := pqText(v)
+				if off := textCellFault(t); off >= 0 {
+					return &pqError{at + i, &InputError{File: s.file, Line: line(at + i), Column: col + 1, Field: s.header[col], Msg: faultMsg(t[off]), Err: ErrNotText}}
+				}
 				if trim {
-					t = strings.TrimSpace(t)
+					if tt := strings.TrimSpace(t); len(tt) != len(t) {
+						if trims[k].n == 0 {
+							trims[k].at = at + i
+						}
+						trims[k].n++
+						t = tt
+					}
 				}
 				if at+i > 0 && t == dst[at+i-1] {
 					t = dst[at+i-1] // one string for a run of equal cells
@@ -365,13 +376,13 @@ func (s *pqSpec) readRows(cols []int, cursors []*pqCursor, first, n int) (*parse
 	for k, col := range cols {
 		switch {
 		case col == ro.id:
-			read[k] = text(ids, true)
+			read[k] = text(k, col, ids, true)
 		case col == ro.wave:
-			read[k] = text(waves, true)
+			read[k] = text(k, col, waves, true)
 		case col == ro.label:
-			read[k] = text(labels, true)
+			read[k] = text(k, col, labels, true)
 		case col == ro.order && orders != nil:
-			read[k] = text(orders, false)
+			read[k] = text(k, col, orders, false)
 		case col == ro.order:
 			scale, kind := int64(1), byte('i')
 			if s.unit > 0 {
@@ -381,6 +392,10 @@ func (s *pqSpec) readRows(cols []int, cursors []*pqCursor, first, n int) (*parse
 				for i, v := range vals {
 					if v.IsNull() {
 						return &pqError{at + i, &InputError{File: s.file, Line: line(at + i), Column: col + 1, Field: s.header[col], Msg: "the order cell is empty; fill it in", Err: ErrOrder}}
+					}
+					if kind == 't' && (v.Int64() < minTime/scale || v.Int64() > maxTime/scale) {
+						t := time.Unix(0, 0).UTC().Add(time.Duration(v.Int64()/int64(time.Second/time.Duration(scale))) * time.Second)
+						return &pqError{at + i, &InputError{File: s.file, Line: line(at + i), Column: col + 1, Field: s.header[col], Msg: orderMsg(t.Format("2006-01-02T15:04:05")), Err: ErrOrder}}
 					}
 					ords[at+i] = v.Int64() * scale
 					kinds[at+i] = kind
@@ -439,6 +454,12 @@ func (s *pqSpec) readRows(cols []int, cursors []*pqCursor, first, n int) (*parse
 			missing[i] = m
 		}
 	})
+	for _, tr := range trims {
+		if tr.n > 0 && (c.trimmed == 0 || line(tr.at) < c.trimLine) {
+			c.trimLine = line(tr.at)
+		}
+		c.trimmed += tr.n
+	}
 	for i := 0; i < n; i++ {
 		if bad != nil && i == bad.row {
 			return nil, bad.err
@@ -451,7 +472,7 @@ func (s *pqSpec) readRows(cols []int, cursors []*pqCursor, first, n int) (*parse
 		if orders != nil {
 			v, k, ok := parseOrderCell(orders[i])
 			if !ok {
-				return nil, &InputError{File: s.file, Line: line(i), Column: ro.order + 1, Field: s.header[ro.order], Msg: fmt.Sprintf("%q is neither an integer nor an ISO-8601 time such as 2026-03-01T08:30:00; fix the cell", orders[i]), Err: ErrOrder}
+				return nil, &InputError{File: s.file, Line: line(i), Column: ro.order + 1, Field: s.header[ro.order], Msg: orderMsg(orders[i]), Err: ErrOrder}
 			}
 			c.vals[i*w+s.nf] = math.Float64frombits(uint64(v))
 			kinds[i] = k
@@ -459,7 +480,9 @@ func (s *pqSpec) readRows(cols []int, cursors []*pqCursor, first, n int) (*parse
 		c.vals[i*w+s.nf+1] = packSource(s.fileIdx, line(i))
 		wave := ""
 		if waves != nil {
-			wave = waves[i]
+			if wave = waves[i]; wave == "" {
+				return nil, &InputError{File: s.file, Line: line(i), Column: ro.wave + 1, Field: s.header[ro.wave], Msg: emptyWaveMsg, Err: ErrMissingID}
+			}
 		}
 		c.addWindow([]byte(ids[i]), []byte(wave), kinds[i], missing[i])
 	}

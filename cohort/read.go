@@ -22,7 +22,6 @@ import (
 	"strings"
 	"sync/atomic"
 	"time"
-	"unicode/utf8"
 
 	"github.com/cohortmix/cohortmix/cluster/groupstat"
 )
@@ -145,11 +144,20 @@ type Quality struct {
 	Notes              []string // policies applied: sorted windows, merged files, …
 	SortedUnits        int      // units whose windows were not in order and were sorted
 	JoinedUnits        int      // units whose windows sat in more than one file
+	// TrimmedCells counts the id and wave cells that had spaces around them, which were
+	// removed ("P6 " is participant P6); TrimmedAt is the first one's row, as file:line.
+	TrimmedCells int
+	TrimmedAt    string
 }
 
-// QualityNotes are the notes of Quality.Notes on sorted and joined units, for those counts.
-func QualityNotes(sorted, joined int, order string) []string {
+// QualityNotes are the notes of Quality.Notes on sorted and joined units and on trimmed cells,
+// for q's counts.
+func QualityNotes(q Quality, order string) []string {
+	sorted, joined := q.SortedUnits, q.JoinedUnits
 	var notes []string
+	if q.TrimmedCells > 0 {
+		notes = append(notes, fmt.Sprintf("%d id or wave cells had spaces around them (the first at %s); the spaces were removed, so \"P6 \" and \"P6\" are one participant", q.TrimmedCells, q.TrimmedAt))
+	}
 	if sorted > 0 {
 		notes = append(notes, fmt.Sprintf("windows of %d participants were not in order in the input and were sorted by %s", sorted, order))
 	}
@@ -336,6 +344,16 @@ type reader struct {
 	ignored   []Note
 	rows      int
 	lo        []float64 // each feature's lowest value, over every window read
+	trimmed   int       // rows whose id or wave had spaces around it
+	trimmedAt string    // the first of them, as file:line
+}
+
+// noteTrimmed counts n rows of file p whose id or wave was trimmed, the first at line.
+func (r *reader) noteTrimmed(p string, n, line int) {
+	if n > 0 && r.trimmed == 0 {
+		r.trimmedAt = fmt.Sprintf("%s:%d", p, line)
+	}
+	r.trimmed += n
 }
 
 // hashFile returns the SHA-256 and size of a file read whole.
@@ -418,7 +436,7 @@ func (r *reader) readFile(p string) error {
 	} else {
 		r.progress = func() {}
 	}
-	br := bufio.NewReaderSize(in, 1<<16)
+	br := bufio.NewReaderSize(newLineLimit(in, p), 1<<16)
 	head, perr := br.Peek(64 << 10)
 	if perr != nil && !errors.Is(perr, io.EOF) && !errors.Is(perr, bufio.ErrBufferFull) {
 		return r.gzipOrIO(p, perr)
@@ -430,8 +448,11 @@ func (r *reader) readFile(p string) error {
 	if len(bytes.TrimSpace(head)) == 0 {
 		return &InputError{File: p, Msg: "file is empty; it needs a header row and at least one window", Err: ErrEmpty}
 	}
-	if bytes.IndexByte(head, 0) >= 0 || !utf8.Valid(trimPartialRune(head)) {
-		return &InputError{File: p, Line: 1, Msg: "is not a text table (binary or not UTF-8); export it as CSV or TSV", Err: ErrNotText}
+	if off := textFault(head, perr != nil && errors.Is(perr, io.EOF)); off >= 0 {
+		if nl := bytes.IndexByte(head, '\n'); nl < 0 || off < nl { // in the header: not text at all
+			return &InputError{File: p, Line: 1, Msg: "is not a text table (binary or not UTF-8); export it as CSV or TSV", Err: ErrNotText}
+		}
+		return textFaultError(p, head, off, 1)
 	}
 	delim := sniffDelimiter(head)
 	cr := csv.NewReader(br)
@@ -521,6 +542,7 @@ func (r *reader) mergeChunk(p string, c *parsedChunk, fileOrder bool) error {
 		r.raw.width = w
 	}
 	r.windows.Add(int64(c.n))
+	r.noteTrimmed(p, c.trimmed, c.trimLine)
 	if c.lo == nil {
 		c.summarize(d, w)
 	}
@@ -676,16 +698,6 @@ func (r *reader) checkKinds(p string, header []string, ro roles, c *parsedChunk)
 	return nil
 }
 
-func trimPartialRune(b []byte) []byte {
-	for i := 0; i < utf8.UTFMax && len(b) > 0; i++ {
-		if utf8.Valid(b) {
-			return b
-		}
-		b = b[:len(b)-1]
-	}
-	return b
-}
-
 // gzipCut is gzipOrIO for a stream that failed after its line last: a compressed file cut
 // short is an error naming that line, never a table read in part.
 func (r *reader) gzipCut(p string, err error, last int) error {
@@ -696,6 +708,10 @@ func (r *reader) gzipCut(p string, err error, last int) error {
 }
 
 func (r *reader) gzipOrIO(p string, err error) error {
+	var ie *InputError
+	if errors.As(err, &ie) { // already worded, as by lineLimit
+		return ie
+	}
 	if errors.Is(err, io.ErrUnexpectedEOF) || errors.Is(err, gzip.ErrChecksum) || errors.Is(err, gzip.ErrHeader) {
 		return &InputError{File: p, Msg: "compressed file is cut short or damaged (" + err.Error() + "); copy it again from the source", Err: ErrNotText}
 	}
@@ -886,6 +902,13 @@ func parseNumber(s string, decimalComma bool) (float64, error) {
 	if decimalComma && strings.Count(s, ",") == 1 && !strings.Contains(s, ".") {
 		s = strings.Replace(s, ",", ".", 1)
 	}
+	if !isDecimal(s) {
+		switch strings.ToLower(strings.TrimLeft(s, "+-")) {
+		case "inf", "infinity":
+			return 0, ErrNonFinite
+		}
+		return 0, ErrNotNumber
+	}
 	v, err := strconv.ParseFloat(s, 64)
 	if err != nil {
 		var ne *strconv.NumError
@@ -898,6 +921,42 @@ func parseNumber(s string, decimalComma bool) (float64, error) {
 		return 0, ErrNonFinite
 	}
 	return v, nil
+}
+
+// isDecimal tells whether s is a number in the one grammar feature cells are read in: an
+// optional sign, digits with an optional decimal point (digits on at least one side of it), and
+// an optional exponent (e or E, an optional sign, digits). Digit separators, hexadecimal and
+// words are not numbers here, though strconv.ParseFloat takes some of them.
+func isDecimal(s string) bool {
+	i := 0
+	if i < len(s) && (s[i] == '+' || s[i] == '-') {
+		i++
+	}
+	digits := 0
+	for ; i < len(s) && s[i] >= '0' && s[i] <= '9'; i++ {
+		digits++
+	}
+	if i < len(s) && s[i] == '.' {
+		for i++; i < len(s) && s[i] >= '0' && s[i] <= '9'; i++ {
+			digits++
+		}
+	}
+	if digits == 0 {
+		return false
+	}
+	if i < len(s) && (s[i] == 'e' || s[i] == 'E') {
+		i++
+		if i < len(s) && (s[i] == '+' || s[i] == '-') {
+			i++
+		}
+		start := i
+		for ; i < len(s) && s[i] >= '0' && s[i] <= '9'; i++ {
+		}
+		if i == start {
+			return false
+		}
+	}
+	return i == len(s)
 }
 
 func numberMsg(cell string, delim rune, err error) string {
@@ -918,7 +977,7 @@ func (r *reader) parseOrder(p string, pos func(int) (int, int), col int, name, c
 	l, c := pos(col)
 	v, k, ok := orderOf(cell)
 	if !ok {
-		return 0, &InputError{File: p, Line: l, Column: c, Field: name, Msg: fmt.Sprintf("%q is neither an integer nor an ISO-8601 time such as 2026-03-01T08:30:00; fix the cell", cell), Err: ErrOrder}
+		return 0, &InputError{File: p, Line: l, Column: c, Field: name, Msg: orderMsg(cell), Err: ErrOrder}
 	}
 	kind := "integer"
 	if k == 't' {
@@ -937,15 +996,36 @@ func (r *reader) parseOrder(p string, pos func(int) (int, int), col int, name, c
 // and adds it; pos gives a cell's line and column for messages.
 func (r *reader) addRecord(p string, fileIdx int, header []string, roles roles, delim rune, rec []string, pos func(int) (int, int), orderOf func(string) (int64, byte, bool)) error {
 	line, _ := pos(0)
+	for _, col := range []int{roles.id, roles.wave, roles.label} {
+		if col < 0 {
+			continue
+		}
+		if off := textCellFault(rec[col]); off >= 0 {
+			l, c := pos(col)
+			return &InputError{File: p, Line: l, Column: c, Field: header[col], Msg: faultMsg(rec[col][off]), Err: ErrNotText}
+		}
+	}
 	id := strings.TrimSpace(rec[roles.id])
 	if id == "" {
 		l, c := pos(roles.id)
 		return &InputError{File: p, Line: l, Column: c, Field: header[roles.id], Msg: "participant id is empty; fill it in or remove the row", Err: ErrMissingID}
 	}
+	trimmed := 0
+	if len(id) != len(rec[roles.id]) {
+		trimmed++
+	}
 	wave := ""
 	if roles.wave >= 0 {
 		wave = strings.TrimSpace(rec[roles.wave])
+		if wave == "" {
+			l, c := pos(roles.wave)
+			return &InputError{File: p, Line: l, Column: c, Field: header[roles.wave], Msg: emptyWaveMsg, Err: ErrMissingID}
+		}
+		if len(wave) != len(rec[roles.wave]) {
+			trimmed++
+		}
 	}
+	r.noteTrimmed(p, trimmed, line)
 	var ord int64
 	if roles.order >= 0 {
 		var err error
@@ -1133,7 +1213,8 @@ func (r *reader) finish() (*Table, error) {
 		return nil, err
 	}
 	q.SortedUnits, q.JoinedUnits = sortedUnits, merged
-	q.Notes = append(q.Notes, QualityNotes(sortedUnits, merged, r.opts.Order)...)
+	q.TrimmedCells, q.TrimmedAt = r.trimmed, r.trimmedAt
+	q.Notes = append(q.Notes, QualityNotes(*q, r.opts.Order)...)
 	if r.opts.Shard.Count > 0 {
 		t.Constancy = &Constancy{Have: constant.have, First: constant.first, Constant: constant.constant}
 		return t, nil

@@ -56,6 +56,7 @@ func itoa(i int) string { return strconv.Itoa(i) }
 func TestReadErrors(t *testing.T) {
 	dir := t.TempDir()
 	good := rowsOf(3, ",")
+	long := rowsOf(4000, ",") // past the 64 KiB the reader looks at before it starts
 	cases := []struct {
 		name  string
 		files map[string][]byte // read in name order
@@ -78,7 +79,32 @@ func TestReadErrors(t *testing.T) {
 		{"empty id", map[string][]byte{"a.csv": []byte(strings.Replace(good, "B,1,", ",1,", 1))}, ReadOptions{},
 			`a.csv:6:1: participant: participant id is empty; fill it in or remove the row`, ErrMissingID},
 		{"id of a vertical tab only (found by FuzzRead: the one-scan path let it through)", map[string][]byte{"a.csv": []byte(strings.Replace(good, "B,1,", "\v,1,", 1))}, ReadOptions{},
-			`a.csv:6:1: participant: participant id is empty; fill it in or remove the row`, ErrMissingID},
+			`a.csv:6:1: control character 0x0b in a text table; save the file again as UTF-8 text, or remove the stray byte`, ErrNotText},
+		// The hostile sweep of issue 28: bytes past the first 64 KiB were not looked at.
+		{"invalid UTF-8 past the first 64 KiB", map[string][]byte{"a.csv": []byte(strings.Replace(long, "\nB,3990,", "\nM\xfcller,3990,", 1))}, ReadOptions{},
+			`a.csv:7992:2: byte 0xfc is not valid UTF-8 in a text table; save the file again as UTF-8 text, or remove the stray byte`, ErrNotText},
+		{"NUL past the first 64 KiB", map[string][]byte{"a.csv": []byte(strings.Replace(long, "\nB,3990,", "\nB\x00,3990,", 1))}, ReadOptions{},
+			`a.csv:7992:2: NUL byte (0x00) in a text table; save the file again as UTF-8 text, or remove the stray byte`, ErrNotText},
+		{"NUL in the first 64 KiB, named where it is", map[string][]byte{"a.csv": []byte(strings.Replace(good, "B,1,", "B\x00,1,", 1))}, ReadOptions{},
+			`a.csv:6:2: NUL byte (0x00) in a text table; save the file again as UTF-8 text, or remove the stray byte`, ErrNotText},
+		{"a line of 2 MiB", map[string][]byte{"a.csv": []byte(strings.Replace(good, "A,2,", "A,2,"+strings.Repeat("1", 2<<20), 1))}, ReadOptions{},
+			`a.csv:4: line is longer than 1 MiB, more than any row of windows; check that this is the table of windows and that its line ends are intact`, ErrNotText},
+		{"a first window of 2 MiB, compressed", map[string][]byte{"a.csv.gz": gz([]byte(strings.Replace(good, "A,0,", "A,0,"+strings.Repeat("1", 2<<20), 1)))}, ReadOptions{},
+			`a.csv.gz:2: line is longer than 1 MiB, more than any row of windows; check that this is the table of windows and that its line ends are intact`, ErrNotText},
+		{"empty wave cell", map[string][]byte{"a.csv": []byte("participant,window,visit,f1\nA,0,1,1\nA,1,,2\n")}, ReadOptions{Wave: "visit"},
+			`a.csv:3:5: visit: wave is empty; fill in the wave of every row, or leave the wave column out`, ErrMissingID},
+		{"empty wave cell in a quoted chunk", map[string][]byte{"a.csv": []byte("participant,window,visit,f1\nA,0,1,1\n\"A\",1,\"\",2\n")}, ReadOptions{Wave: "visit"},
+			`a.csv:3:7: visit: wave is empty; fill in the wave of every row, or leave the wave column out`, ErrMissingID},
+		{"empty wave cell on the first row", map[string][]byte{"a.csv": []byte("participant,window,visit,f1\nA,0,,1\nA,1,1,2\n")}, ReadOptions{Wave: "visit"},
+			`a.csv:2:5: visit: wave is empty; fill in the wave of every row, or leave the wave column out`, ErrMissingID},
+		{"digits with underscores", map[string][]byte{"a.csv": []byte(strings.Replace(good, "A,1,1.5", "A,1,1_000", 1))}, ReadOptions{},
+			`a.csv:3:5: f1: "1_000" is not a number; feature cells hold numbers, or are empty or NA when missing (leave text columns out with cohort.ReadOptions.Features)`, ErrNotNumber},
+		{"a hexadecimal float", map[string][]byte{"a.csv": []byte(strings.Replace(good, "A,1,1.5", "A,1,0x1p-2", 1))}, ReadOptions{},
+			`a.csv:3:5: f1: "0x1p-2" is not a number; feature cells hold numbers, or are empty or NA when missing (leave text columns out with cohort.ReadOptions.Features)`, ErrNotNumber},
+		{"a time after 2200", map[string][]byte{"a.csv": []byte("participant,window,f1\nA,2300-01-01T00:00:00,1\n")}, ReadOptions{},
+			`a.csv:2:3: window: "2300-01-01T00:00:00" is a time outside 1900–2200; check the year (a wrong century or an unset clock)`, ErrOrder},
+		{"a time before 1900 after good ones", map[string][]byte{"a.csv": []byte("participant,window,f1\nA,2026-01-01T00:00:00,1\nA,1850-01-01T00:02:00,2\n")}, ReadOptions{},
+			`a.csv:3:3: window: "1850-01-01T00:02:00" is a time outside 1900–2200; check the year (a wrong century or an unset clock)`, ErrOrder},
 		{"id of a no-break space only", map[string][]byte{"a.csv": []byte(strings.Replace(good, "B,1,", "\u00a0,1,", 1))}, ReadOptions{},
 			`a.csv:6:1: participant: participant id is empty; fill it in or remove the row`, ErrMissingID},
 		{"duplicate window", map[string][]byte{"a.csv": []byte(strings.Replace(good, "A,2,", "A,1,", 1))}, ReadOptions{},
@@ -184,6 +210,13 @@ func TestReadPolicies(t *testing.T) {
 		{"participant split across files", []string{rowsOf(25, ","), "participant,window,f1,f2\nA,100,1,2\n"}, ReadOptions{}, func(t *testing.T, tab *Table) {
 			if len(tab.Units[0].Files) != 2 || tab.Units[0].Windows() != 26 || !strings.Contains(strings.Join(tab.Quality.Notes, ";"), "more than one file") {
 				t.Errorf("files %v windows %d notes %v", tab.Units[0].Files, tab.Units[0].Windows(), tab.Quality.Notes)
+			}
+		}},
+		// Issue 28: "P6 " was merged into P6 with no note; it still is, and counted.
+		{"ids with spaces around them are trimmed, and counted", []string{strings.Replace(strings.Replace(good, "\nB,3,", "\nB ,3,", 1), "\nB,4,", "\n\"  B\",4,", 1)}, ReadOptions{}, func(t *testing.T, tab *Table) {
+			notes := strings.Join(tab.Quality.Notes, ";")
+			if len(tab.Units) != 2 || tab.Quality.TrimmedCells != 2 || !strings.Contains(notes, "2 id or wave cells had spaces around them (the first at ") || !strings.Contains(notes, ".csv:30)") {
+				t.Errorf("units %d, trimmed %d, notes %v", len(tab.Units), tab.Quality.TrimmedCells, tab.Quality.Notes)
 			}
 		}},
 		{"missing cells dropped", []string{strings.Replace(strings.Replace(good, "A,1,1.5,3", "A,1,NA,3", 1), "A,2,2.5,1", "A,2,,1", 1)}, ReadOptions{}, func(t *testing.T, tab *Table) {
@@ -625,6 +658,16 @@ func TestReadParquet(t *testing.T) {
 	defer tt.Close()
 	if tt.OrderKind != "time" || order(t, tt, 0)[1]-order(t, tt, 0)[0] != 60e9 {
 		t.Errorf("order kind %s, step %d", tt.OrderKind, order(t, tt, 0)[1]-order(t, tt, 0)[0])
+	}
+	// A TIMESTAMP outside 1900–2200 is refused as a text time is (issue 28: times past 2262
+	// wrapped in nanoseconds and reordered the windows).
+	trows[3].Window = time.Date(1850, 3, 2, 8, 0, 0, 0, time.UTC)
+	oq := filepath.Join(dir, "old.parquet")
+	if err := parquet.WriteFile(oq, trows); err != nil {
+		t.Fatal(err)
+	}
+	if _, err := Read(context.Background(), []string{oq}, ReadOptions{}); err == nil || !strings.HasSuffix(err.Error(), `:5:2: window: "1850-03-02T08:00:00" is a time outside 1900–2200; check the year (a wrong century or an unset clock)`) {
+		t.Errorf("a Parquet time in 1850: %v", err)
 	}
 	// Damaged frames are refused before parquet-go reads them. The footer length (the four
 	// bytes before the final PAR1, Apache Parquet file format) set near 4 GB made parquet-go

@@ -144,7 +144,7 @@ func sheetDate(cell string) (int64, byte, bool) {
 		return 0, 0, false
 	}
 	t, err := excelize.ExcelDateToTime(serial, false)
-	if err != nil {
+	if err != nil || !plausibleTime(t) {
 		return 0, 0, false
 	}
 	return t.UnixNano(), 't', true
@@ -195,7 +195,7 @@ func sheetOrder(cell string) (int64, byte, bool) {
 		return 0, 0, false
 	}
 	t, err := excelize.ExcelDateToTime(serial, false)
-	if err != nil {
+	if err != nil || !plausibleTime(t) {
 		return 0, 0, false
 	}
 	return t.UnixNano(), 't', true

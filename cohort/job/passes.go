@@ -186,6 +186,7 @@ func MergeCensus(parts []*Census) (*Plan, error) {
 		q.CellsImputed += cq.CellsImputed
 		q.SortedUnits += cq.SortedUnits
 		q.JoinedUnits += cq.JoinedUnits
+		q.TrimmedCells, q.TrimmedAt = cq.TrimmedCells, cq.TrimmedAt // every shard reads every row
 		q.Excluded = append(q.Excluded, cq.Excluded...)
 		p.Units = append(p.Units, c.Units...)
 		first20 = append(first20, c.First...)
@@ -198,7 +199,7 @@ func MergeCensus(parts []*Census) (*Plan, error) {
 	if order == "" {
 		order = "window"
 	}
-	q.Notes = cohort.QualityNotes(q.SortedUnits, q.JoinedUnits, order)
+	q.Notes = cohort.QualityNotes(*q, order)
 	// The features: a whole read has dropped its constant features; shards keep them and tell
 	// which were constant in their own windows.
 	p.Features, p.Lowest = first.Features, first.Lowest
