@@ -6,6 +6,8 @@ import (
 	"encoding/gob"
 	"errors"
 	"fmt"
+	"hash"
+	"hash/crc32"
 	"io"
 	"math"
 	"os"
@@ -14,15 +16,19 @@ import (
 
 // WindowsFormat and WindowsVersion identify a windows file (Table.WriteWindows): a table's
 // units and windows, without its accounting, so that a later pass of a run split in shards reads
-// its shard's windows once more from there instead of every input file.
+// its shard's windows once more from there instead of every input file. The file ends in the
+// CRC-32C (Castagnoli) of everything before it, little-endian, so that damage anywhere is found.
 const (
 	WindowsFormat  = "cohortmix windows"
-	WindowsVersion = 1
+	WindowsVersion = 2 // 2: the run's identity, and the CRC-32C at the end
 )
+
+var castagnoli = crc32.MakeTable(crc32.Castagnoli)
 
 type windowsHeader struct {
 	Format    string
 	Version   int
+	Run       string // the identity of the run the windows were read for, as the caller gives it
 	Shard     Shard
 	Files     []FileInfo // the inputs the windows were read from
 	Features  []string
@@ -45,9 +51,9 @@ type windowsUnit struct {
 
 // WriteWindows writes the table's units and their windows (every stored column, in the windows
 // file's encoding: features as float32, to which they were rounded when read) as a windows file
-// of the given shard.
-func (t *Table) WriteWindows(w io.Writer, shard Shard) error {
-	h := windowsHeader{Format: WindowsFormat, Version: WindowsVersion, Shard: shard, Files: t.Files, OrderKind: t.OrderKind,
+// of the given shard, for the run the caller names.
+func (t *Table) WriteWindows(w io.Writer, shard Shard, run string) error {
+	h := windowsHeader{Format: WindowsFormat, Version: WindowsVersion, Run: run, Shard: shard, Files: t.Files, OrderKind: t.OrderKind,
 		HasLabels: t.HasLabels, Width: t.store.width, Features: t.Features}
 	for j, c := range t.cols {
 		if c != j || len(t.cols) != h.Width-2 {
@@ -57,7 +63,9 @@ func (t *Table) WriteWindows(w io.Writer, shard Shard) error {
 	for _, u := range t.Units {
 		h.Units = append(h.Units, windowsUnit{ID: u.ID, Wave: u.Wave, Ordinal: u.Ordinal, Rows: u.rows, Labels: u.Labels})
 	}
-	bw := bufio.NewWriterSize(w, 1<<20)
+	out := bufio.NewWriterSize(w, 1<<20)
+	crc := crc32.New(castagnoli)
+	bw := io.MultiWriter(out, crc)
 	if err := gob.NewEncoder(bw).Encode(h); err != nil {
 		return fmt.Errorf("cohort: writing a windows file: %w", err)
 	}
@@ -83,7 +91,33 @@ func (t *Table) WriteWindows(w io.Writer, shard Shard) error {
 			return fmt.Errorf("cohort: writing a windows file: %w", err)
 		}
 	}
-	return bw.Flush()
+	if err := binary.Write(out, binary.LittleEndian, crc.Sum32()); err != nil {
+		return err
+	}
+	return out.Flush()
+}
+
+// crcReader passes a buffered reader through, adding what it reads to a CRC; it is an
+// io.ByteReader, so that gob reads no further than its message.
+type crcReader struct {
+	br  *bufio.Reader
+	crc hash.Hash32
+	one [1]byte
+}
+
+func (c *crcReader) Read(p []byte) (int, error) {
+	n, err := c.br.Read(p)
+	c.crc.Write(p[:n])
+	return n, err
+}
+
+func (c *crcReader) ReadByte() (byte, error) {
+	b, err := c.br.ReadByte()
+	if err == nil {
+		c.one[0] = b
+		c.crc.Write(c.one[:])
+	}
+	return b, err
 }
 
 // ErrWindows is wrapped by every error about a windows file.
@@ -91,38 +125,48 @@ var ErrWindows = errors.New("windows file not usable")
 
 // ReadWindows reads a windows file (WriteWindows) into a table of its units, held in memory or,
 // past opts.MemoryValues, in a temporary file in opts.TempDir, as Read holds them. The table has
-// no accounting; its Files are the inputs the windows came from, for the caller to check.
-func ReadWindows(path string, opts ReadOptions) (*Table, Shard, error) {
+// no accounting; its Files are the inputs the windows came from, and run the run it names, for
+// the caller to check.
+func ReadWindows(path string, opts ReadOptions) (*Table, Shard, string, error) {
+	t, h, err := readWindows(path, opts)
+	if err != nil {
+		return nil, Shard{}, "", err
+	}
+	return t, h.Shard, h.Run, nil
+}
+
+func readWindows(path string, opts ReadOptions) (*Table, *windowsHeader, error) {
 	f, err := os.Open(path)
 	if err != nil {
-		return nil, Shard{}, fmt.Errorf("%s: cannot open: %w", path, errors.Join(ErrWindows, err))
+		return nil, nil, fmt.Errorf("%s: cannot open: %w", path, errors.Join(ErrWindows, err))
 	}
 	defer f.Close()
-	br := bufio.NewReaderSize(f, 1<<20) // a ByteReader: gob reads no further than its message
+	raw := bufio.NewReaderSize(f, 1<<20)
+	br := &crcReader{br: raw, crc: crc32.New(castagnoli)}
 	var h windowsHeader
 	if err := gob.NewDecoder(br).Decode(&h); err != nil || h.Format != WindowsFormat {
-		return nil, Shard{}, fmt.Errorf("%s: not a windows file: %w; name the file the census step wrote", path, ErrWindows)
+		return nil, nil, fmt.Errorf("%s: not a windows file: %w; name the file the census step wrote", path, ErrWindows)
 	}
 	if h.Version != WindowsVersion {
-		return nil, Shard{}, fmt.Errorf("%s: a windows file of version %d, and this cohortmix reads version %d: %w; run every pass of a split run with the same release", path, h.Version, WindowsVersion, ErrWindows)
+		return nil, nil, fmt.Errorf("%s: a windows file of version %d, and this cohortmix reads version %d: %w; run every pass of a split run with the same release", path, h.Version, WindowsVersion, ErrWindows)
 	}
 	d := h.Width - 2
 	if d < 1 || len(h.Features) != d {
-		return nil, Shard{}, fmt.Errorf("%s: a windows file of %d features and %d values a window: %w", path, len(h.Features), h.Width, ErrWindows)
+		return nil, nil, fmt.Errorf("%s: a windows file of %d features and %d values a window: %w", path, len(h.Features), h.Width, ErrWindows)
 	}
 	// The windows the header announces must fit in the file before any room is made for them.
 	st, err := f.Stat()
 	if err != nil {
-		return nil, Shard{}, fmt.Errorf("%s: %w", path, errors.Join(ErrWindows, err))
+		return nil, nil, fmt.Errorf("%s: %w", path, errors.Join(ErrWindows, err))
 	}
 	var need int64
 	for _, wu := range h.Units {
 		if wu.Rows < 1 {
-			return nil, Shard{}, fmt.Errorf("%s: participant %s has %d windows: %w", path, wu.ID, wu.Rows, ErrWindows)
+			return nil, nil, fmt.Errorf("%s: participant %s has %d windows: %w", path, wu.ID, wu.Rows, ErrWindows)
 		}
 		need += int64(wu.Rows) * int64(windowBytes(h.Width))
 		if need > st.Size() {
-			return nil, Shard{}, fmt.Errorf("%s: the header announces more windows than the file holds: %w; write the file again", path, ErrWindows)
+			return nil, nil, fmt.Errorf("%s: the header announces more windows than the file holds: %w; write the file again", path, ErrWindows)
 		}
 	}
 	dir := opts.TempDir
@@ -143,7 +187,7 @@ func ReadWindows(path string, opts ReadOptions) (*Table, Shard, error) {
 		}
 		if _, err := io.ReadFull(br, b[:wu.Rows*rb]); err != nil {
 			t.Close()
-			return nil, Shard{}, fmt.Errorf("%s: the windows of participant %s are cut short: %w; write the file again", path, wu.ID, ErrWindows)
+			return nil, nil, fmt.Errorf("%s: the windows of participant %s are cut short: %w; write the file again", path, wu.ID, ErrWindows)
 		}
 		x = slices.Grow(x[:0], wu.Rows*h.Width)[:wu.Rows*h.Width]
 		for i := 0; i < wu.Rows; i++ {
@@ -157,13 +201,22 @@ func ReadWindows(path string, opts ReadOptions) (*Table, Shard, error) {
 		u := &Unit{ID: wu.ID, Wave: wu.Wave, Ordinal: wu.Ordinal, Labels: wu.Labels, at: t.store.n / int64(h.Width), rows: wu.Rows}
 		if err := t.store.append(x); err != nil {
 			t.Close()
-			return nil, Shard{}, err
+			return nil, nil, err
 		}
 		t.Units = append(t.Units, u)
 	}
+	var sum uint32
+	if err := binary.Read(raw, binary.LittleEndian, &sum); err != nil || sum != br.crc.Sum32() {
+		t.Close()
+		return nil, nil, fmt.Errorf("%s: the windows file is damaged (its content does not match its checksum): %w; write it again", path, ErrWindows)
+	}
+	if _, err := raw.ReadByte(); err != io.EOF {
+		t.Close()
+		return nil, nil, fmt.Errorf("%s: bytes after the end of the windows: %w; write the file again", path, ErrWindows)
+	}
 	if err := t.store.flush(); err != nil {
 		t.Close()
-		return nil, Shard{}, err
+		return nil, nil, err
 	}
-	return t, h.Shard, nil
+	return t, &h, nil
 }

@@ -231,12 +231,12 @@ func (o *shardOptions) writeOutputs(inputs []string, outs ...output) error {
 }
 
 // writePiece writes a step's piece (writeOutputs).
-func (o *shardOptions) writePiece(path, kind string, inputs []string, v any) error {
-	return o.writeOutputs(inputs, pieceOutput(path, kind, v))
+func (o *shardOptions) writePiece(path, kind string, id job.PieceID, inputs []string, v any) error {
+	return o.writeOutputs(inputs, pieceOutput(path, kind, id, v))
 }
 
-func pieceOutput(path, kind string, v any) output {
-	return output{kind + " piece", "--piece", path, func(w io.Writer) error { return job.WritePiece(w, kind, v) }}
+func pieceOutput(path, kind string, id job.PieceID, v any) output {
+	return output{kind + " piece", "--piece", path, func(w io.Writer) error { return job.WritePiece(w, kind, id, v) }}
 }
 
 func (o *shardOptions) census(ctx context.Context, inputs []string, shard, piece string) error {
@@ -266,15 +266,16 @@ func (o *shardOptions) census(ctx context.Context, inputs []string, shard, piece
 	}
 	c.Meta = job.Meta{Command: strings.Join(o.argv, " "), Settings: o.Flags.settings()}
 	files, _ := cohort.ExpandPaths(inputs)
-	outs := []output{pieceOutput(piece, job.KindCensus, c)}
+	run := job.RunOf(c.Options, c.Files)
+	outs := []output{pieceOutput(piece, job.KindCensus, job.PieceID{Run: run, Shard: sh.String()}, c)}
 	if o.Windows != "" {
-		outs = append(outs, output{"windows", "--windows", o.Windows, func(w io.Writer) error { return t.WriteWindows(w, sh) }})
+		outs = append(outs, output{"windows", "--windows", o.Windows, func(w io.Writer) error { return t.WriteWindows(w, sh, run) }})
 	}
 	return o.writeOutputs(files, outs...)
 }
 
 func (o *shardOptions) plan(censuses []string, piece string) error {
-	parts, err := job.ReadPieces[job.Census](censuses, job.KindCensus)
+	parts, ids, err := job.ReadPieces[job.Census](censuses, job.KindCensus)
 	if err != nil {
 		return err
 	}
@@ -282,7 +283,12 @@ func (o *shardOptions) plan(censuses []string, piece string) error {
 	if err != nil {
 		return err
 	}
-	return o.writePiece(piece, job.KindPlan, censuses, plan)
+	for i, id := range ids { // MergeCensus compared the settings and inputs the pieces say they had
+		if id.Run != plan.Run {
+			return fmt.Errorf("%s: the census piece's header names another run than its content: %w; take the census again", censuses[i], job.ErrPiece)
+		}
+	}
+	return o.writePiece(piece, job.KindPlan, job.PieceID{Run: plan.Run}, censuses, plan)
 }
 
 // readShard reads one shard of the run's inputs and checks that they are the files the census
@@ -303,12 +309,17 @@ func (o *shardOptions) readShard(ctx context.Context, plan *job.Plan, shard, pie
 	var t *cohort.Table
 	if o.Windows != "" {
 		var of cohort.Shard
-		if t, of, err = cohort.ReadWindows(o.Windows, ro); err != nil {
+		var run string
+		if t, of, run, err = cohort.ReadWindows(o.Windows, ro); err != nil {
 			return nil, sh, err
 		}
 		if of != sh {
 			t.Close()
 			return nil, sh, fmt.Errorf("%s: the windows of shard %s, not %s: %w; give this shard's windows file", o.Windows, of, sh, job.ErrPiece)
+		}
+		if run != plan.Run {
+			t.Close()
+			return nil, sh, fmt.Errorf("%s: the windows of another run (other inputs or settings): %w; give the windows file this run's census wrote", o.Windows, job.ErrPiece)
 		}
 	} else if t, err = cohort.Read(ctx, plan.Options.Inputs, ro); err != nil {
 		return nil, sh, err
@@ -328,7 +339,8 @@ func (o *shardOptions) readShard(ctx context.Context, plan *job.Plan, shard, pie
 
 func (o *shardOptions) sample(ctx context.Context, planFile, shard, piece string) error {
 	plan := new(job.Plan)
-	if err := job.ReadPiece(planFile, job.KindPlan, plan); err != nil {
+	pid, err := job.ReadPiece(planFile, job.KindPlan, plan)
+	if err != nil {
 		return err
 	}
 	t, sh, err := o.readShard(ctx, plan, shard, piece)
@@ -340,16 +352,21 @@ func (o *shardOptions) sample(ctx context.Context, planFile, shard, piece string
 	if err != nil {
 		return err
 	}
-	return o.writePiece(piece, job.KindSample, append([]string{planFile}, plan.Options.Inputs...), sp)
+	id := job.PieceID{Run: pid.Run, Shard: sh.String(), From: pid.Sum}
+	return o.writePiece(piece, job.KindSample, id, append([]string{planFile}, plan.Options.Inputs...), sp)
 }
 
 func (o *shardOptions) fit(ctx context.Context, planFile string, samples []string, piece string) error {
 	plan := new(job.Plan)
-	if err := job.ReadPiece(planFile, job.KindPlan, plan); err != nil {
+	pid, err := job.ReadPiece(planFile, job.KindPlan, plan)
+	if err != nil {
 		return err
 	}
-	parts, err := job.ReadPieces[job.SamplePiece](samples, job.KindSample)
+	parts, ids, err := job.ReadPieces[job.SamplePiece](samples, job.KindSample)
 	if err != nil {
+		return err
+	}
+	if err := job.MadeFrom(planFile, pid, job.KindSample, samples, ids); err != nil {
 		return err
 	}
 	plan.Options.Workers = o.Flags.Workers
@@ -357,13 +374,17 @@ func (o *shardOptions) fit(ctx context.Context, planFile string, samples []strin
 	if err != nil {
 		return err
 	}
-	return o.writePiece(piece, job.KindFit, append([]string{planFile}, samples...), fp)
+	return o.writePiece(piece, job.KindFit, job.PieceID{Run: pid.Run, From: pid.Sum}, append([]string{planFile}, samples...), fp)
 }
 
 func (o *shardOptions) assign(ctx context.Context, fitFile, shard, piece string) error {
 	fp := new(job.FitPiece)
-	if err := job.ReadPiece(fitFile, job.KindFit, fp); err != nil {
+	fid, err := job.ReadPiece(fitFile, job.KindFit, fp)
+	if err != nil {
 		return err
+	}
+	if fp.Plan == nil || fp.Plan.Run != fid.Run {
+		return fmt.Errorf("%s: the fit piece's header names another run than its content: %w; fit again", fitFile, job.ErrPiece)
 	}
 	t, sh, err := o.readShard(ctx, fp.Plan, shard, piece)
 	if err != nil {
@@ -374,7 +395,8 @@ func (o *shardOptions) assign(ctx context.Context, fitFile, shard, piece string)
 	if err != nil {
 		return err
 	}
-	return o.writePiece(piece, job.KindAssign, append([]string{fitFile}, fp.Plan.Options.Inputs...), ap)
+	id := job.PieceID{Run: fid.Run, Shard: sh.String(), From: fid.Sum}
+	return o.writePiece(piece, job.KindAssign, id, append([]string{fitFile}, fp.Plan.Options.Inputs...), ap)
 }
 
 func (o *shardOptions) finish(ctx context.Context, fitFile string, assigned []string) error {
@@ -392,11 +414,18 @@ func (o *shardOptions) finish(ctx context.Context, fitFile string, assigned []st
 	}
 	g.key = key
 	fp := new(job.FitPiece)
-	if err := job.ReadPiece(fitFile, job.KindFit, fp); err != nil {
+	fid, err := job.ReadPiece(fitFile, job.KindFit, fp)
+	if err != nil {
 		return err
 	}
-	parts, err := job.ReadPieces[job.AssignPiece](assigned, job.KindAssign)
+	if fp.Plan == nil || fp.Plan.Run != fid.Run {
+		return fmt.Errorf("%s: the fit piece's header names another run than its content: %w; fit again", fitFile, job.ErrPiece)
+	}
+	parts, ids, err := job.ReadPieces[job.AssignPiece](assigned, job.KindAssign)
 	if err != nil {
+		return err
+	}
+	if err := job.MadeFrom(fitFile, fid, job.KindAssign, assigned, ids); err != nil {
 		return err
 	}
 	fp.Plan.Options.Workers = o.Flags.Workers

@@ -2,6 +2,7 @@ package main
 
 import (
 	"bytes"
+	"context"
 	"fmt"
 	"os"
 	"path/filepath"
@@ -114,4 +115,82 @@ func TestShardsGiveTheOneMachineResult(t *testing.T) {
 			t.Errorf("step by step, reading the inputs again, memory %d: the members differ from one machine's", spill)
 		}
 	}
+}
+
+// Issue 28: pieces of another run, of another seed, of another fit, a windows file of another
+// input, or a damaged piece, all went through with different groups. Each is now refused with a
+// one-line message naming the piece.
+func TestShardPiecesOfAnotherRunAreRefused(t *testing.T) {
+	dir := t.TempDir()
+	in := filepath.Join(dir, "c.csv")
+	if _, err := synth.WriteFile(in, synth.Options{Participants: 16, Windows: 120, Seed: 5}); err != nil {
+		t.Fatal(err)
+	}
+	b, _ := os.ReadFile(in)
+	other := writeFile(t, dir, "other.csv", strings.Replace(string(b), "\nP1,", "\nP1x,", 1))
+	steps := func(name, input string, seed int) func(kind string, i int) string {
+		p := filepath.Join(dir, name)
+		os.MkdirAll(p, 0o755)
+		piece := func(kind string, i int) string { return filepath.Join(p, fmt.Sprintf("%s-%d.piece", kind, i)) }
+		common := []string{"--states", "3", "--groups", "2", "--bootstrap", "2", "--seed", fmt.Sprint(seed), "--quiet"}
+		for i := 1; i <= 2; i++ {
+			mustRun(t, append([]string{"shard", "census", input, "--shard", fmt.Sprintf("%d/2", i), "--piece", piece("census", i), "--windows", piece("windows", i)}, common...)...)
+		}
+		mustRun(t, "shard", "plan", piece("census", 1), piece("census", 2), "--piece", piece("plan", 0), "--quiet")
+		for i := 1; i <= 2; i++ {
+			mustRun(t, "shard", "sample", "--plan", piece("plan", 0), "--windows", piece("windows", i), "--shard", fmt.Sprintf("%d/2", i), "--piece", piece("sample", i), "--quiet")
+		}
+		mustRun(t, "shard", "fit", "--plan", piece("plan", 0), piece("sample", 1), piece("sample", 2), "--piece", piece("fit", 0), "--quiet")
+		for i := 1; i <= 2; i++ {
+			mustRun(t, "shard", "assign", "--fit", piece("fit", 0), "--windows", piece("windows", i), "--shard", fmt.Sprintf("%d/2", i), "--piece", piece("assign", i), "--quiet")
+		}
+		return piece
+	}
+	a, s2, in2 := steps("a", in, 1), steps("seed2", in, 2), steps("input2", other, 1)
+	refit := filepath.Join(dir, "a", "fit-again.piece") // a second fit of run a, from a sample of another seed
+	flipped := filepath.Join(dir, "a", "flipped.piece")
+	pb, _ := os.ReadFile(a("assign", 2))
+	pb[len(pb)-40] ^= 0x10
+	os.WriteFile(flipped, pb, 0o644)
+	out := func(name string) []string {
+		return []string{"--out", filepath.Join(dir, name+".xlsx"), "--members", filepath.Join(dir, name+".csv"), "--quiet"}
+	}
+	mustRun(t, append([]string{"shard", "finish", "--fit", a("fit", 0), a("assign", 1), a("assign", 2)}, out("good")...)...)
+	for _, c := range []struct {
+		name string
+		args []string
+		want string
+	}{
+		{"an assignment piece of a --seed 2 run", append([]string{"shard", "finish", "--fit", a("fit", 0), a("assign", 1), s2("assign", 2)}, out("x1")...),
+			s2("assign", 2) + ": this assignment piece is of another run than " + a("fit", 0)},
+		{"a sample piece of another seed", []string{"shard", "fit", "--plan", a("plan", 0), a("sample", 1), s2("sample", 2), "--piece", refit, "--quiet"},
+			s2("sample", 2) + ": this sample piece is of another run than " + a("plan", 0)},
+		{"a fit piece of another run", append([]string{"shard", "finish", "--fit", s2("fit", 0), a("assign", 1), a("assign", 2)}, out("x2")...),
+			a("assign", 1) + ": this assignment piece is of another run than " + s2("fit", 0)},
+		{"an assignment piece of another input", append([]string{"shard", "finish", "--fit", a("fit", 0), a("assign", 1), in2("assign", 2)}, out("x3")...),
+			in2("assign", 2) + ": this assignment piece is of another run than " + a("fit", 0)},
+		{"a windows file of another input", []string{"shard", "assign", "--fit", a("fit", 0), "--windows", in2("windows", 2), "--shard", "2/2", "--piece", filepath.Join(dir, "x4.piece"), "--quiet"},
+			in2("windows", 2) + ": the windows of another run"},
+		{"a damaged assignment piece", append([]string{"shard", "finish", "--fit", a("fit", 0), a("assign", 1), flipped}, out("x5")...),
+			flipped + ": the assignment piece is damaged (its content does not match its checksum)"},
+	} {
+		env, _, errb := testEnv()
+		if code := run(context.Background(), env, c.args); code != 1 || !strings.Contains(errb.String(), c.want) || strings.Count(strings.TrimSpace(errb.String()), "\n") > 0 {
+			t.Errorf("%s: exit %d, %q; want one line with %q", c.name, code, errb.String(), c.want)
+		}
+	}
+	// A second fit of run a from its own samples is the same fit, and its assignments finish.
+	mustRun(t, "shard", "fit", "--plan", a("plan", 0), a("sample", 1), a("sample", 2), "--piece", refit, "--quiet")
+	if f1, f2 := readBytes(t, a("fit", 0)), readBytes(t, refit); !bytes.Equal(f1, f2) {
+		t.Error("a fit of the same plan and samples differs")
+	}
+}
+
+func readBytes(t *testing.T, p string) []byte {
+	t.Helper()
+	b, err := os.ReadFile(p)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return b
 }

@@ -136,6 +136,7 @@ func orderSteps(t *cohort.Table, u int) ([]int64, error) {
 // Plan is the census of the whole input, merged from every shard's: what the sample and
 // assignment passes and the finish share.
 type Plan struct {
+	Run       string // RunOf the settings and inputs: every later piece carries it
 	Options   Options
 	Meta      Meta
 	Shards    int
@@ -170,7 +171,7 @@ func MergeCensus(parts []*Census) (*Plan, error) {
 	if err := checkShards(KindCensus, shards, count); err != nil {
 		return nil, err
 	}
-	p := &Plan{Options: first.Options, Meta: first.Meta, Shards: count, OrderKind: first.OrderKind, HasLabels: first.HasLabels, Files: first.Files}
+	p := &Plan{Run: RunOf(first.Options, first.Files), Options: first.Options, Meta: first.Meta, Shards: count, OrderKind: first.OrderKind, HasLabels: first.HasLabels, Files: first.Files}
 	q := &p.Quality
 	q.UnitsIn, q.WindowsIn, q.IgnoredColumns = first.Quality.UnitsIn, first.Quality.WindowsIn, first.Quality.IgnoredColumns
 	var first20 []FirstWindows
@@ -827,6 +828,39 @@ func AssignOf(ctx context.Context, t *cohort.Table, shard cohort.Shard, fit *nor
 }
 
 // mergeAssigned gathers the shards' assignment pieces into a fit, in the plan's unit order.
+// checkAssigned checks what an assignment piece says of one unit against the fit: k states and d
+// features, counts that add up, shares and medians that are numbers. A piece is checksummed;
+// this keeps a piece made by other means from reaching the grouping with values it cannot take.
+func checkAssigned(au AssignedUnit, k, d int) error {
+	s := au.Signature
+	if len(s.Share) != k || len(s.MeanBout) != k || len(s.Bouts) != k || len(s.Counts) != k || len(au.Medians) != d {
+		return fmt.Errorf("a signature of %d states and %d medians, where the fit has %d states and %d features", len(s.Share), len(au.Medians), k, d)
+	}
+	total := 0
+	for j := 0; j < k; j++ {
+		c, b := s.Counts[j], s.Bouts[j]
+		if c < 0 || b < 0 || b > c || c > s.Windows || !(s.Share[j] >= 0 && s.Share[j] <= 1) || !(s.MeanBout[j] >= 0 && s.MeanBout[j] <= float64(s.Windows)) {
+			return fmt.Errorf("state %d holds %d windows in %d bouts of %d, share %v, mean bout %v", j+1, c, b, s.Windows, s.Share[j], s.MeanBout[j])
+		}
+		total += c
+	}
+	if s.Windows < 1 || total != s.Windows {
+		return fmt.Errorf("%d windows in its states, of %d", total, s.Windows)
+	}
+	dev := au.Device
+	if dev.Rotation != nil && len(dev.Rotation) != 9 || dev.AxisScale != nil && len(dev.AxisScale) != 3 || dev.AxisOffset != nil && len(dev.AxisOffset) != 3 {
+		return fmt.Errorf("a device of %d rotation, %d scale and %d offset values", len(dev.Rotation), len(dev.AxisScale), len(dev.AxisOffset))
+	}
+	for _, vs := range [][]float64{au.Medians, dev.Rotation, dev.AxisScale, dev.AxisOffset, dev.Offset} {
+		for _, v := range vs {
+			if math.IsNaN(v) || math.IsInf(v, 0) {
+				return fmt.Errorf("a value of %v", v)
+			}
+		}
+	}
+	return nil
+}
+
 func mergeAssigned(f *Fitted, units []UnitInfo, parts []*AssignPiece) error {
 	n := len(units)
 	f.Sigs, f.Medians = make([]profile.Signature, n), make([][]float64, n)
@@ -842,11 +876,17 @@ func mergeAssigned(f *Fitted, units []UnitInfo, parts []*AssignPiece) error {
 			if !ok || f.Medians[i] != nil {
 				return fmt.Errorf("job: an assigned unit (ordinal %d) that the plan does not group, or twice: %w", au.Ordinal, ErrPiece)
 			}
+			if err := checkAssigned(au, f.States.K, len(f.Table.Features)); err != nil {
+				return fmt.Errorf("job: participant %s in an assignment piece: %v: %w; assign the shard again", units[i].ID, err, ErrPiece)
+			}
 			f.Sigs[i], f.Medians[i] = au.Signature, au.Medians
 			if f.Devices != nil {
 				f.Devices[i] = au.Device
 			}
 			seen++
+		}
+		if ap.Desc.D != len(f.Table.Features) || ap.Desc.K != f.States.K || ap.Labels != nil && ap.Labels.K != f.States.K {
+			return fmt.Errorf("job: an assignment piece of %d features and %d states, where the fit has %d and %d: %w; assign the shard again", ap.Desc.D, ap.Desc.K, len(f.Table.Features), f.States.K, ErrPiece)
 		}
 		part, err := ap.Desc.Describer()
 		if err != nil {
