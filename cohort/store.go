@@ -6,6 +6,8 @@ import (
 	"os"
 	"sync"
 	"unsafe"
+
+	tempname "github.com/cohortmix/cohortmix/cohort/scratch"
 )
 
 // segRows is the number of windows in one in-memory segment.
@@ -61,7 +63,7 @@ func (s *store) append(vals []float64) error {
 		return nil
 	}
 	if s.file == nil {
-		f, err := os.CreateTemp(s.dir, ".cohortmix-windows-*.tmp")
+		f, err := os.CreateTemp(s.dir, tempname.Pattern(".cohortmix-windows", ".tmp"))
 		if err != nil {
 			return fmt.Errorf("cohort: cannot create a temporary file for the windows in %s: %w; name a writable folder in cohort.ReadOptions.TempDir", s.dir, err)
 		}

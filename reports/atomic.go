@@ -6,6 +6,8 @@ import (
 	"io"
 	"os"
 	"path/filepath"
+
+	"github.com/cohortmix/cohortmix/cohort/scratch"
 )
 
 // ErrExists is returned when the output exists and overwriting was not asked for.
@@ -30,7 +32,7 @@ func WriteAtomic(path string, force bool, write func(io.Writer) error) (err erro
 	if err := CheckTarget(path, force); err != nil {
 		return err
 	}
-	tmp, err := os.CreateTemp(filepath.Dir(path), "."+filepath.Base(path)+".*.partial")
+	tmp, err := os.CreateTemp(filepath.Dir(path), scratch.Pattern("."+filepath.Base(path), partialSuffix))
 	if err != nil {
 		return fmt.Errorf("%s: cannot create a temporary file beside it: %w", path, err)
 	}

@@ -76,7 +76,7 @@ func assignRun(ctx context.Context, o *assignOptions) error {
 		return flagErrorf("--out %q: the workbook needs a name ending in .xlsx", o.Out)
 	}
 	inputs, _ := cohort.ExpandPaths(o.Inputs) // a bad input is the read's to report
-	plan, err := reports.PlanOutputsKeeping([]reports.Target{{Flag: "--out", Path: o.Out}, {Flag: "--members", Path: o.Members}},
+	plan, err := planOutputs(o.IO, []reports.Target{{Flag: "--out", Path: o.Out}, {Flag: "--members", Path: o.Members}},
 		inputs, []reports.Target{{Flag: "--model", Path: o.Model}, {Flag: "--pseudonymize", Path: o.Key}}, o.Temp, o.Force)
 	if err != nil {
 		return err

@@ -73,7 +73,7 @@ func (o *groupOptions) outputs() error {
 	}
 	inputs, _ := cohort.ExpandPaths(o.Inputs) // a bad input is the read's to report
 	var err error
-	o.plan, err = reports.PlanOutputsKeeping([]reports.Target{{Flag: "--out", Path: o.Out}, {Flag: "--members", Path: o.Flags.Members}, {Flag: "--model", Path: o.Flags.Model}},
+	o.plan, err = planOutputs(o.IO, []reports.Target{{Flag: "--out", Path: o.Out}, {Flag: "--members", Path: o.Flags.Members}, {Flag: "--model", Path: o.Flags.Model}},
 		append(inputs, o.readOnly...), []reports.Target{{Flag: "--pseudonymize", Path: o.Flags.Pseudonymize}}, o.Flags.Temp, o.Flags.Force)
 	return err
 }

@@ -9,6 +9,7 @@ import (
 	"github.com/cohortmix/cohortmix/cohort/job"
 	"io"
 	"os"
+	"os/exec"
 	"path/filepath"
 	"regexp"
 	"strconv"
@@ -470,5 +471,39 @@ func TestAtypicalParticipantsAreInNoGroup(t *testing.T) {
 	}
 	if changes := sheetText(t, out, "Changes"); !strings.Contains(changes, "in no group (atypical)") {
 		t.Errorf("the Changes sheet does not say the atypical are in no group:\n%.600s", changes)
+	}
+}
+
+// Issue 28: after SIGKILL, group left a hidden windows file of 77 MB and the temporary outputs,
+// and later runs left them. The next run in the folder removes what killed runs of this host
+// left, and says so; a live run's files (here a file of this process) are kept.
+func TestLeftoversOfKilledRunsAreRemoved(t *testing.T) {
+	dir := t.TempDir()
+	input := synthCohort40(t, dir)
+	dead := exec.Command("true")
+	if err := dead.Run(); err != nil {
+		t.Skip(err)
+	}
+	host, _ := os.Hostname()
+	mark := func(pid int) string { return "~" + host + "~" + strconv.Itoa(pid) + "~1" }
+	left := []string{".cohortmix-windows" + mark(dead.Process.Pid) + ".tmp", ".r.xlsx" + mark(dead.Process.Pid) + ".partial"}
+	live := ".m.csv" + mark(os.Getpid()) + ".partial"
+	for _, name := range append(left, live) {
+		os.WriteFile(filepath.Join(dir, name), make([]byte, 1000), 0o600)
+	}
+	env, _, errb := testEnv()
+	if code := run(context.Background(), env, []string{"group", input, "--out", filepath.Join(dir, "r.xlsx"), "--states", "5", "--groups", "3", "--quiet"}); code != 0 {
+		t.Fatalf("exit %d: %s", code, errb)
+	}
+	if !strings.Contains(errb.String(), "note: removed 2 temporary files (2,000 bytes) that killed runs left behind") {
+		t.Errorf("no note: %q", errb.String())
+	}
+	for _, name := range left {
+		if _, err := os.Stat(filepath.Join(dir, name)); err == nil {
+			t.Errorf("%s is still there", name)
+		}
+	}
+	if _, err := os.Stat(filepath.Join(dir, live)); err != nil {
+		t.Error("a live process's file was removed")
 	}
 }

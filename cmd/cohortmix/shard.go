@@ -158,7 +158,7 @@ func newShardCmd(env *Env, runF func(context.Context, *shardOptions) error) *cob
 			c.Flags().StringVar(&o.Out, "out", "", "the workbook to write (.xlsx)")
 			_ = c.MarkFlagRequired("out")
 			c.Flags().IntVar(&o.Shards, "shards", 2, "how many shards")
-			c.Flags().StringVar(&o.Pieces, "pieces", "", "folder to keep the pieces in (default: a temporary folder beside --out, removed at the end)")
+			c.Flags().StringVar(&o.Pieces, "pieces", "", "folder to keep the pieces in, which hold the ids as read (default: none; the pieces stay in memory)")
 		})
 	for _, c := range root.Commands() {
 		commandLineErrors(c)
@@ -209,7 +209,7 @@ func (o *shardOptions) writeOutputs(inputs []string, outs ...output) error {
 	for i, out := range outs {
 		targets[i] = reports.Target{Flag: out.flag, Path: out.path}
 	}
-	plan, err := reports.PlanOutputsKeeping(targets, inputs, []reports.Target{{Flag: "--pseudonymize", Path: o.Flags.Pseudonymize}}, "", o.Flags.Force)
+	plan, err := planOutputs(o.IO, targets, inputs, []reports.Target{{Flag: "--pseudonymize", Path: o.Flags.Pseudonymize}}, "", o.Flags.Force)
 	if err != nil {
 		return err
 	}
@@ -247,24 +247,11 @@ func (o *shardOptions) census(ctx context.Context, inputs []string, shard, piece
 	if o.Flags.Temp == "" {
 		o.Flags.Temp = filepath.Dir(piece)
 	}
-	ao, err := o.Flags.options(inputs)
-	if err != nil {
-		return err
-	}
-	if o.Flags.Within != "align" {
-		return flagErrorf("--within %s: a run split in shards takes the align step, whose fit needs only a sample of the windows; leave --within out, or run 'group' on one machine", o.Flags.Within)
-	}
-	ao.Read.Shard = sh
-	t, err := cohort.Read(ctx, inputs, ao.Read)
+	t, c, err := o.takeCensus(ctx, inputs, sh)
 	if err != nil {
 		return err
 	}
 	defer t.Close()
-	c, err := job.CensusOf(t, ao)
-	if err != nil {
-		return err
-	}
-	c.Meta = job.Meta{Command: strings.Join(o.argv, " "), Settings: o.Flags.settings()}
 	files, _ := cohort.ExpandPaths(inputs)
 	run := job.RunOf(c.Options, c.Files)
 	outs := []output{pieceOutput(piece, job.KindCensus, job.PieceID{Run: run, Shard: sh.String()}, c)}
@@ -272,6 +259,29 @@ func (o *shardOptions) census(ctx context.Context, inputs []string, shard, piece
 		outs = append(outs, output{"windows", "--windows", o.Windows, func(w io.Writer) error { return t.WriteWindows(w, sh, run) }})
 	}
 	return o.writeOutputs(files, outs...)
+}
+
+// takeCensus reads one shard of the inputs and takes its census; the caller closes the table.
+func (o *shardOptions) takeCensus(ctx context.Context, inputs []string, sh cohort.Shard) (*cohort.Table, *job.Census, error) {
+	ao, err := o.Flags.options(inputs)
+	if err != nil {
+		return nil, nil, err
+	}
+	if o.Flags.Within != "align" {
+		return nil, nil, flagErrorf("--within %s: a run split in shards takes the align step, whose fit needs only a sample of the windows; leave --within out, or run 'group' on one machine", o.Flags.Within)
+	}
+	ao.Read.Shard = sh
+	t, err := cohort.Read(ctx, inputs, ao.Read)
+	if err != nil {
+		return nil, nil, err
+	}
+	c, err := job.CensusOf(t, ao)
+	if err != nil {
+		t.Close()
+		return nil, nil, err
+	}
+	c.Meta = job.Meta{Command: strings.Join(o.argv, " "), Settings: o.Flags.settings()}
+	return t, c, nil
 }
 
 func (o *shardOptions) plan(censuses []string, piece string) error {
@@ -343,17 +353,23 @@ func (o *shardOptions) sample(ctx context.Context, planFile, shard, piece string
 	if err != nil {
 		return err
 	}
-	t, sh, err := o.readShard(ctx, plan, shard, piece)
-	if err != nil {
-		return err
-	}
-	defer t.Close()
-	sp, err := job.SampleOf(t, plan, sh)
+	sp, sh, err := o.drawSample(ctx, plan, shard, piece)
 	if err != nil {
 		return err
 	}
 	id := job.PieceID{Run: pid.Run, Shard: sh.String(), From: pid.Sum}
 	return o.writePiece(piece, job.KindSample, id, append([]string{planFile}, plan.Options.Inputs...), sp)
+}
+
+// drawSample reads one shard again and draws its sample.
+func (o *shardOptions) drawSample(ctx context.Context, plan *job.Plan, shard, piece string) (*job.SamplePiece, cohort.Shard, error) {
+	t, sh, err := o.readShard(ctx, plan, shard, piece)
+	if err != nil {
+		return nil, sh, err
+	}
+	defer t.Close()
+	sp, err := job.SampleOf(t, plan, sh)
+	return sp, sh, err
 }
 
 func (o *shardOptions) fit(ctx context.Context, planFile string, samples []string, piece string) error {
@@ -386,17 +402,23 @@ func (o *shardOptions) assign(ctx context.Context, fitFile, shard, piece string)
 	if fp.Plan == nil || fp.Plan.Run != fid.Run {
 		return fmt.Errorf("%s: the fit piece's header names another run than its content: %w; fit again", fitFile, job.ErrPiece)
 	}
-	t, sh, err := o.readShard(ctx, fp.Plan, shard, piece)
-	if err != nil {
-		return err
-	}
-	defer t.Close()
-	ap, err := job.AssignOf(ctx, t, sh, fp.Fit, fp.States, o.Flags.Workers, nil)
+	ap, sh, err := o.assignShard(ctx, fp, shard, piece)
 	if err != nil {
 		return err
 	}
 	id := job.PieceID{Run: fid.Run, Shard: sh.String(), From: fid.Sum}
 	return o.writePiece(piece, job.KindAssign, id, append([]string{fitFile}, fp.Plan.Options.Inputs...), ap)
+}
+
+// assignShard reads one shard again and assigns its windows to the fit's states.
+func (o *shardOptions) assignShard(ctx context.Context, fp *job.FitPiece, shard, piece string) (*job.AssignPiece, cohort.Shard, error) {
+	t, sh, err := o.readShard(ctx, fp.Plan, shard, piece)
+	if err != nil {
+		return nil, sh, err
+	}
+	defer t.Close()
+	ap, err := job.AssignOf(ctx, t, sh, fp.Fit, fp.States, o.Flags.Workers, nil)
+	return ap, sh, err
 }
 
 func (o *shardOptions) finish(ctx context.Context, fitFile string, assigned []string) error {
@@ -428,6 +450,12 @@ func (o *shardOptions) finish(ctx context.Context, fitFile string, assigned []st
 	if err := job.MadeFrom(fitFile, fid, job.KindAssign, assigned, ids); err != nil {
 		return err
 	}
+	return o.finishWith(ctx, g, fp, parts)
+}
+
+// finishWith groups the participants of the assignment pieces and writes the outputs that g
+// planned.
+func (o *shardOptions) finishWith(ctx context.Context, g *groupOptions, fp *job.FitPiece, parts []*job.AssignPiece) error {
 	fp.Plan.Options.Workers = o.Flags.Workers
 	f, err := job.Finish(ctx, fp, parts)
 	if err != nil {
@@ -437,8 +465,8 @@ func (o *shardOptions) finish(ctx context.Context, fitFile string, assigned []st
 	if err != nil {
 		return err
 	}
-	if key != nil {
-		reports.Pseudonymize(res, key)
+	if g.key != nil {
+		reports.Pseudonymize(res, g.key)
 	}
 	meta := fp.Plan.Meta
 	res.Tool, res.Version, res.Created = "cohortmix", version, o.Now()
@@ -457,11 +485,12 @@ func (o *shardOptions) runAll(ctx context.Context) (err error) {
 	}
 	dir := o.Pieces
 	if dir == "" {
-		if dir, err = os.MkdirTemp(filepath.Dir(o.Out), ".cohortmix-pieces-"); err != nil {
-			return fmt.Errorf("--pieces: cannot make a temporary folder beside %s: %w", o.Out, err)
-		}
-		defer os.RemoveAll(dir)
-	} else if err := os.MkdirAll(dir, 0o755); err != nil {
+		return o.runInMemory(ctx)
+	}
+	if o.Flags.Pseudonymize != "" {
+		return flagErrorf("--pieces %s with --pseudonymize: the pieces hold the study's ids as read, and --pseudonymize promises that none is written; leave --pieces out (the pieces then stay in memory)", dir)
+	}
+	if err := os.MkdirAll(dir, 0o755); err != nil {
 		return fmt.Errorf("--pieces %s: %w", dir, err)
 	}
 	quiet := o.Flags.Quiet
@@ -504,4 +533,85 @@ func (o *shardOptions) runAll(ctx context.Context) (err error) {
 	}
 	o.Flags.Quiet = quiet
 	return o.finish(ctx, name("fit", -1), assigned)
+}
+
+// runInMemory runs every step here with the pieces kept in memory, so that nothing but the
+// outputs (and, past the memory limit, the windows' values in the temporary folder, which hold
+// no ids) is written: a run killed midway leaves no pieces, and under --pseudonymize no raw id
+// reaches the disk. Each shard is read three times (census, sample, assign), as in a split run
+// without windows files; the result is that of the steps run through piece files.
+func (o *shardOptions) runInMemory(ctx context.Context) error {
+	if !strings.HasSuffix(strings.ToLower(o.Out), ".xlsx") {
+		return flagErrorf("--out %q: the workbook needs a name ending in .xlsx", o.Out)
+	}
+	files, err := cohort.ExpandPaths(o.Args)
+	if err != nil {
+		return err
+	}
+	g := &groupOptions{IO: o.IO, Now: o.Now, Out: o.Out, Flags: o.Flags, readOnly: files}
+	if err := g.outputs(); err != nil {
+		return err
+	}
+	defer g.plan.Abort()
+	if g.key, err = loadKey(o.Flags.Pseudonymize); err != nil {
+		return err
+	}
+	shard := func(i int) string { return fmt.Sprintf("%d/%d", i+1, o.Shards) }
+	censuses := make([]*job.Census, o.Shards)
+	for i := range censuses {
+		t, c, err := o.takeCensus(ctx, o.Args, cohort.Shard{Index: i, Count: o.Shards})
+		if err != nil {
+			return err
+		}
+		t.Close()
+		censuses[i] = c
+	}
+	plan, err := job.MergeCensus(censuses)
+	if err != nil {
+		return err
+	}
+	samples := make([]*job.SamplePiece, o.Shards)
+	for i := range samples {
+		if samples[i], _, err = o.drawSample(ctx, plan, shard(i), o.Out); err != nil {
+			return err
+		}
+	}
+	plan.Options.Workers = o.Flags.Workers
+	fp, err := job.FitSample(ctx, plan, samples)
+	if err != nil {
+		return err
+	}
+	parts := make([]*job.AssignPiece, o.Shards)
+	for i := range parts {
+		if parts[i], _, err = o.assignShard(ctx, fp, shard(i), o.Out); err != nil {
+			return err
+		}
+	}
+	return o.finishWith(ctx, g, fp, parts)
+}
+
+// planOutputs plans a command's outputs (reports.PlanOutputsKeeping) and tells on standard error
+// what it put right of earlier runs that were killed.
+func planOutputs(io IO, targets []reports.Target, inputs []string, keep []reports.Target, temp string, force bool) (*reports.Outputs, error) {
+	plan, err := reports.PlanOutputsKeeping(targets, inputs, keep, temp, force)
+	if plan == nil {
+		return nil, err
+	}
+	var completed []string
+	var removed, bytes int64
+	for _, l := range plan.Leftovers {
+		if l.Completed {
+			completed = append(completed, l.Path)
+		} else {
+			removed++
+			bytes += l.Bytes
+		}
+	}
+	if len(completed) > 0 {
+		fmt.Fprintf(io.Err, "note: an earlier run was killed while putting its outputs in place; its set is now complete: %s\n", strings.Join(completed, ", "))
+	}
+	if removed > 0 {
+		fmt.Fprintf(io.Err, "note: removed %d temporary files (%s bytes) that killed runs left behind\n", removed, cohort.Thousands(int(bytes)))
+	}
+	return plan, err
 }

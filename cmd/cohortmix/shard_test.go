@@ -88,6 +88,15 @@ func TestShardsGiveTheOneMachineResult(t *testing.T) {
 				t.Errorf("%d shards, memory %d: the workbook differs from one machine's", n, spill)
 			}
 		}
+		// Without --pieces the pieces stay in memory, and nothing but the outputs is left.
+		name := fmt.Sprintf("memory-%d", spill)
+		m, mo, bo := run(name, "shard", "run", "--shards", "3")
+		if !bytes.Equal(m, members) || !bytes.Equal(mo, model) || bo != book {
+			t.Errorf("3 shards in memory, memory %d: the result differs from one machine's", spill)
+		}
+		if left, _ := filepath.Glob(filepath.Join(dir, ".*")); len(left) > 0 {
+			t.Errorf("left behind: %v", left)
+		}
 		// Step by step, as a workflow engine runs them, with sample and assign reading the
 		// inputs again instead of the census's windows files.
 		p := filepath.Join(dir, fmt.Sprintf("steps-%d", spill))
@@ -193,4 +202,19 @@ func readBytes(t *testing.T, p string) []byte {
 		t.Fatal(err)
 	}
 	return b
+}
+
+// Issue 28: a pseudonymized split run wrote the raw ids into its pieces folder. Pieces kept on
+// disk with --pseudonymize are refused; without --pieces they never reach the disk.
+func TestPseudonymizedSplitRunKeepsNoIDsOnDisk(t *testing.T) {
+	dir := t.TempDir()
+	in := writeFile(t, dir, "c.csv", cohortText(12, 60))
+	env, _, errb := testEnv()
+	code := run(context.Background(), env, []string{"shard", "run", in, "--shards", "2", "--pieces", filepath.Join(dir, "p"), "--pseudonymize", filepath.Join(dir, "key"), "--out", filepath.Join(dir, "r.xlsx")})
+	if code != 2 || !strings.Contains(errb.String(), "--pieces "+filepath.Join(dir, "p")+" with --pseudonymize: the pieces hold the study's ids as read") {
+		t.Errorf("exit %d: %s", code, errb)
+	}
+	if _, err := os.Stat(filepath.Join(dir, "p")); err == nil {
+		t.Error("the pieces folder was made")
+	}
 }
