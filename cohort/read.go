@@ -454,6 +454,9 @@ func (r *reader) readFile(p string) error {
 		}
 		return textFaultError(p, head, off, 1)
 	}
+	if bytes.IndexByte(head, '\n') < 0 && bytes.IndexByte(head, '\r') >= 0 {
+		return &InputError{File: p, Line: 1, Msg: "lines end in a bare carriage return (an old Mac line end); save the file with LF or CRLF line ends", Err: ErrRagged}
+	}
 	delim := sniffDelimiter(head)
 	cr := csv.NewReader(br)
 	cr.Comma = delim
@@ -724,6 +727,8 @@ func (r *reader) csvError(p string, err error) error {
 		switch {
 		case errors.Is(pe.Err, csv.ErrFieldCount):
 			return &InputError{File: p, Line: pe.StartLine, Msg: "row has a different number of fields than the header; fix the row or quote fields that contain the delimiter", Err: ErrRagged}
+		case errors.Is(pe.Err, csv.ErrQuote) && pe.Line > pe.StartLine:
+			return &InputError{File: p, Line: pe.StartLine, Msg: fmt.Sprintf("a quote opened in this row is not closed where it should be (the reader ran on to line %d); close the quote, or double a quote inside a quoted field", pe.Line), Err: ErrRagged}
 		case errors.Is(pe.Err, csv.ErrQuote), errors.Is(pe.Err, csv.ErrBareQuote):
 			return &InputError{File: p, Line: pe.Line, Column: pe.Column, Msg: "misplaced quote (" + pe.Err.Error() + "); quote whole fields and double quotes inside them", Err: ErrRagged}
 		}
@@ -1072,6 +1077,12 @@ func (r *reader) finish() (*Table, error) {
 	}
 	t := &Table{Features: r.features, Files: r.files, OrderKind: r.orderKind, HasLabels: r.hasLabels, store: r.raw, lo: r.lo}
 	r.raw = nil // the table owns the store now
+	for j, lo := range r.lo {
+		if math.IsInf(lo, 1) { // no window has a value: every participant would be excluded for it
+			t.Close()
+			return nil, &InputError{File: r.firstFile, Field: r.features[j], Msg: "every cell of this feature column is empty or NA; fill it, or leave the column out with cohort.ReadOptions.Features", Err: ErrEmpty}
+		}
+	}
 	t.cols = make([]int, d)
 	for j := range t.cols {
 		t.cols[j] = j

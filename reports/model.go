@@ -532,6 +532,11 @@ func (m *Model) GroupMixture() *mixture.DMM {
 	return &mixture.DMM{K: len(mx.Weights), Weights: mx.Weights, Alpha: mx.Alpha, Blocks: mx.Blocks}
 }
 
+// maxModelValue bounds the values of a model's centres, centre, components and postures: they
+// are in the features' units (at most 1e12, the reader's bound) or standardized, and a value far
+// beyond that overflows the squared distances that place a participant.
+const maxModelValue = 1e12
+
 func finiteRows(name string, rows [][]float64, width int) error {
 	for i, r := range rows {
 		if len(r) != width {
@@ -540,6 +545,9 @@ func finiteRows(name string, rows [][]float64, width int) error {
 		for j, v := range r {
 			if math.IsNaN(v) || math.IsInf(v, 0) {
 				return fmt.Errorf("%s[%d][%d] is not a finite number", name, i, j)
+			}
+			if math.Abs(v) > maxModelValue {
+				return fmt.Errorf("%s[%d][%d] is %g, larger in magnitude than any fit gives (%g)", name, i, j, v, maxModelValue)
 			}
 		}
 	}

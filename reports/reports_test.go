@@ -10,6 +10,7 @@ import (
 	"math"
 	"os"
 	"path/filepath"
+	"regexp"
 	"sort"
 	"strconv"
 	"strings"
@@ -270,6 +271,9 @@ func TestModelRoundTripAndDamage(t *testing.T) {
     `, `"centroids": [
    [
     5.0`, 1), "its checksum does not match its contents"},
+		// Issue 28: a centroid of 1e308 (with a checksum that fits it) reached the grouping and
+		// failed there, in a message that did not name the model file.
+		{"a centroid of 1e308", resum(t, regexp.MustCompile(`("centroids": \[\s*\[\s*)[-0-9.e+]+`).ReplaceAllString(string(good), "${1}1e308")), "states.centroids[0][0] is 1e+308, larger in magnitude than any fit gives (1e+12)"},
 		{"two states of one name", resum(t, strings.Replace(string(good), `"S2"`, `"S1"`, 1)), `states.names holds "S1" twice`},
 	}
 	for _, c := range cases {

@@ -134,8 +134,8 @@ func TestGroupErrors(t *testing.T) {
 		{"ragged row", strings.Replace(good, "PB,0,3.1,1.5\n", "PB,0,3.1\n", 1), nil,
 			`ragged.csv:32: row has a different number of fields than the header; fix the row or quote fields that contain the delimiter`},
 		{"empty file", "", nil, `empty.csv: file is empty; it needs a header row and at least one window`},
-		{"too many groups", good, []string{"--groups", "2-8"},
-			`groups.csv: --groups asks for up to 8 groups but 6 participants are grouped: too few participants; lower --groups to at most 5`},
+		{"too many groups", good, []string{"--groups", "6-8"}, // 2-8 would try 2-5, with a note
+			`groups.csv: --groups asks for 6 or more groups but 6 participants are grouped: too few participants; lower --groups to at most 5`},
 	}
 	files := map[string]string{"missing id column": "missing.csv", "non-numeric cell": "nonnum.csv", "ragged row": "ragged.csv", "empty file": "empty.csv", "too many groups": "groups.csv"}
 	for _, c := range cases {

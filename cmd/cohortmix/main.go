@@ -138,11 +138,11 @@ func run(ctx context.Context, env *Env, args []string) int {
 		fmt.Fprintln(env.IO.Err, "cohortmix: interrupted; no output was written")
 		return 130
 	case errors.As(err, &fe):
-		fmt.Fprintln(env.IO.Err, "cohortmix: "+flagWords(err.Error()))
+		fmt.Fprintln(env.IO.Err, "cohortmix: "+userWords(err.Error()))
 		fmt.Fprintln(env.IO.Err, "Run 'cohortmix --help' for usage.")
 		return 2
 	default:
-		fmt.Fprintln(env.IO.Err, "cohortmix: "+flagWords(err.Error()))
+		fmt.Fprintln(env.IO.Err, "cohortmix: "+userWords(err.Error()))
 		return 1
 	}
 }

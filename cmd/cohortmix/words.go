@@ -1,6 +1,7 @@
 package main
 
 import (
+	"regexp"
 	"slices"
 	"strings"
 
@@ -29,6 +30,7 @@ var optionFlags = map[string]string{
 	"profile.AlignOptions.States":      "--states",
 	"reports.PlanOutputs force":        "--force",
 	"reports.WriteAtomic force":        "--force",
+	"cohort.Quality.Excluded":          "'cohortmix check' lists each reason",
 	"reports.ModelTo":                  "'cohortmix group --model'",
 	"reports.Model.CheckKey the key":   "--pseudonymize with the key",
 	"give no key, or refit pseudonymized with reports.Pseudonymize and": "leave --pseudonymize out, or refit with 'cohortmix group --pseudonymize'",
@@ -53,6 +55,15 @@ func flagWords(s string) string {
 		s = strings.ReplaceAll(s, n, optionFlags[n])
 	}
 	return s
+}
+
+// packagePrefix is a Go package's name at the start of a message or of a wrapped one
+// ("a.csv: job: …"), which says nothing to a person at the command line.
+var packagePrefix = regexp.MustCompile(`(^|: |\()(cohort|job|cluster|mixture|groupstat|profile|normalize|reports|synth|scratch): `)
+
+// userWords is flagWords without the package names.
+func userWords(s string) string {
+	return packagePrefix.ReplaceAllString(flagWords(s), "$1")
 }
 
 // inFlagWords names the options by their flags in every text of a result that reaches a reader.

@@ -48,3 +48,31 @@ func TestLibraryOptionsHaveFlags(t *testing.T) {
 		}
 	}
 }
+
+// Issue 28: package names and Go option names reached the command line's messages.
+func TestUserWordsDropPackageNames(t *testing.T) {
+	for in, want := range map[string]string{
+		"job: the census of shard 2 was taken of other input files":                                     "the census of shard 2 was taken of other input files",
+		"a.csv: job.Options.Groups asks for 5 or more groups (cluster: too few)":                        "a.csv: --groups asks for 5 or more groups (too few)",
+		"m.json: cohort: 9 participants need 1 MiB of distances; use cohort.GroupOptions.Method kmeans": "m.json: 9 participants need 1 MiB of distances; use --method kmeans",
+		"a.csv:3:5: f1: \"cohort: x\" is not a number":                                                  `a.csv:3:5: f1: "cohort: x" is not a number`,
+	} {
+		if got := userWords(in); got != want {
+			t.Errorf("userWords(%q)\n got %q\nwant %q", in, got, want)
+		}
+	}
+}
+
+// Issue 28: check accepted three participants that group then refused (the default groups
+// reach 8). Now group tries the numbers of groups the participants allow, and says so.
+func TestThreeParticipantsAreGroupedAsCheckSays(t *testing.T) {
+	dir := t.TempDir()
+	in := writeFile(t, dir, "c.csv", cohortText(3, 60))
+	if out := mustRun(t, "check", in); !strings.Contains(out, "the tables can be analysed") {
+		t.Fatalf("check: %s", out)
+	}
+	mustRun(t, "group", in, "--out", filepath.Join(dir, "r.xlsx"), "--quiet")
+	if book := workbookText(t, filepath.Join(dir, "r.xlsx")); !strings.Contains(book, "with 3 participants, up to 2 groups were tried, of the up to 8 asked for") {
+		t.Error("the workbook does not say that fewer groups were tried")
+	}
+}

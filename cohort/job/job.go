@@ -195,6 +195,7 @@ func FitTable(ctx context.Context, t *cohort.Table, o Options) (*Fitted, error) 
 	if err := checkCounts(plan, o); err != nil {
 		return nil, err
 	}
+	o.Groups = plan.Options.Groups
 	// About --sample windows from participants chosen by their id, about 250 windows each, as
 	// read: the align step fits the scaling, the states and the devices on them (only their
 	// windows are read), and the sensitivity table refits on them.

@@ -379,6 +379,7 @@ func FitSample(ctx context.Context, p *Plan, samples []*SamplePiece) (*FitPiece,
 	if err := checkCounts(p, o); err != nil {
 		return nil, err
 	}
+	o.Groups = p.Options.Groups
 	var shards []cohort.Shard
 	for _, s := range samples {
 		shards = append(shards, s.Shard)
@@ -714,7 +715,9 @@ func numbersText(ks []int) string {
 	return strings.Join(parts[:len(parts)-1], ", ") + " and " + parts[len(parts)-1]
 }
 
-// checkCounts refuses a run with too few participants for the numbers of groups asked for.
+// checkCounts refuses a run with too few participants to group; of the numbers of groups asked
+// for it keeps those the participants allow (up to one fewer than there are), in the plan's
+// options, with a note when it leaves some out, and refuses a run that allows none of them.
 func checkCounts(p *Plan, o Options) error {
 	name := ""
 	if len(o.Inputs) > 0 {
@@ -723,12 +726,18 @@ func checkCounts(p *Plan, o Options) error {
 		name = p.Files[0].Path
 	}
 	if len(p.Units) < 3 {
-		return fmt.Errorf("%s: %d participants are left to group (%d excluded, see their reasons with a lower cohort.ReadOptions.MinWindows): %w; grouping needs at least 3",
+		return fmt.Errorf("%s: %d participants are left to group (%d excluded; cohort.Quality.Excluded): %w; grouping needs at least 3",
 			name, len(p.Units), len(p.Quality.Excluded), cohort.ErrTooFew)
 	}
-	if maxK := o.Groups[len(o.Groups)-1]; maxK > len(p.Units)-1 {
-		return fmt.Errorf("%s: job.Options.Groups asks for up to %d groups but %d participants are grouped: %w; lower job.Options.Groups to at most %d",
-			name, maxK, len(p.Units), cohort.ErrTooFew, len(p.Units)-1)
+	n := len(p.Units)
+	fit := slices.DeleteFunc(slices.Clone(o.Groups), func(k int) bool { return k > n-1 })
+	if len(fit) == 0 {
+		return fmt.Errorf("%s: job.Options.Groups asks for %d or more groups but %d participants are grouped: %w; lower job.Options.Groups to at most %d",
+			name, o.Groups[0], n, cohort.ErrTooFew, n-1)
+	}
+	if len(fit) < len(o.Groups) {
+		p.Quality.Notes = append(p.Quality.Notes, fmt.Sprintf("with %d participants, up to %d groups were tried, of the up to %d asked for", n, n-1, o.Groups[len(o.Groups)-1]))
+		p.Options.Groups = fit
 	}
 	return nil
 }
