@@ -348,6 +348,10 @@ type reader struct {
 	trimmedAt string    // the first of them, as file:line
 }
 
+// MaxIDBytes bounds a participant id and a wave: far above any study's ids, and far below what
+// a spreadsheet cell holds (32,767 characters), so that an id is never cut in the workbook.
+const MaxIDBytes = 1000
+
 // noteTrimmed counts n rows of file p whose id or wave was trimmed, the first at line.
 func (r *reader) noteTrimmed(p string, n, line int) {
 	if n > 0 && r.trimmed == 0 {
@@ -565,6 +569,13 @@ func (r *reader) mergeChunk(p string, c *parsedChunk, fileOrder bool) error {
 		if cur == nil || cur.id != sg.id || cur.wave != sg.wave {
 			key := sg.id + "\x00" + sg.wave
 			if cur = r.byKey[key]; cur == nil {
+				if len(sg.id) > MaxIDBytes || len(sg.wave) > MaxIDBytes {
+					what, v := "participant id", sg.id
+					if len(sg.id) <= MaxIDBytes {
+						what, v = "wave", sg.wave
+					}
+					return &InputError{File: p, Line: c.line(start, w), Msg: fmt.Sprintf("the %s is %s bytes long (it starts %q); ids and waves are at most %d bytes: is the id column the right one?", what, Thousands(len(v)), v[:20], MaxIDBytes), Err: ErrMissingID}
+				}
 				cur = &rawUnit{id: sg.id, wave: sg.wave, ordinal: r.seen}
 				r.seen++
 				if sh := r.opts.Shard; sh.Count > 0 && ShardOf(sg.id, sh.Count) != sh.Index {

@@ -103,6 +103,8 @@ func TestReadErrors(t *testing.T) {
 			`a.csv:1: lines end in a bare carriage return (an old Mac line end); save the file with LF or CRLF line ends`, ErrRagged},
 		{"a feature column with no value (was: everyone excluded, the column not named)", map[string][]byte{"a.csv": []byte("participant,window,f1,f2\nA,0,1,\nA,1,2,NA\nB,0,1,\n")}, ReadOptions{Missing: ImputeMedian},
 			`a.csv: f2: every cell of this feature column is empty or NA; fill it, or leave the column out with cohort.ReadOptions.Features`, ErrEmpty},
+		{"an id of 100,000 bytes (was cut to 32,767 characters in the workbook only)", map[string][]byte{"a.csv": []byte(strings.Replace(good, "\nB,1,", "\n"+strings.Repeat("B", 100_000)+",1,", 1))}, ReadOptions{},
+			`a.csv:6: the participant id is 100,000 bytes long (it starts "BBBBBBBBBBBBBBBBBBBB"); ids and waves are at most 1000 bytes: is the id column the right one?`, ErrMissingID},
 		{"digits with underscores", map[string][]byte{"a.csv": []byte(strings.Replace(good, "A,1,1.5", "A,1,1_000", 1))}, ReadOptions{},
 			`a.csv:3:5: f1: "1_000" is not a number; feature cells hold numbers, or are empty or NA when missing (leave text columns out with cohort.ReadOptions.Features)`, ErrNotNumber},
 		{"a hexadecimal float", map[string][]byte{"a.csv": []byte(strings.Replace(good, "A,1,1.5", "A,1,0x1p-2", 1))}, ReadOptions{},
