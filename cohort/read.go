@@ -62,6 +62,13 @@ type ReadOptions struct {
 	MemoryValues int64
 	// Workers is how many goroutines parse at once (0: one per core); it never changes the table.
 	Workers int
+	// Pseudonym, when set, replaces every participant id of the table (its units and its
+	// exclusions) as the table is made, so that nothing taken from it (a windows file, a piece,
+	// an output) holds a study id; messages about the input still name the ids as read, for the
+	// analyst to find the rows. Pseudonyms names the key it uses (its fingerprint), for the
+	// record and for the checks of later passes.
+	Pseudonym  func(id string) string
+	Pseudonyms string
 	// Progress, when set, is told how many bytes of a file were read, of its size (0 when not
 	// known, as for standard input), and how many windows were read from all files so far; it is
 	// called from one goroutine at a time.
@@ -1114,6 +1121,9 @@ func (r *reader) finish() (*Table, error) {
 			return nil, r.ctx.Err()
 		}
 		u := &Unit{ID: ru.id, Wave: ru.wave, Ordinal: ru.ordinal, Files: ru.files}
+		if r.opts.Pseudonym != nil {
+			u.ID = r.opts.Pseudonym(ru.id)
+		}
 		if len(ru.files) > 1 {
 			merged++
 		}

@@ -73,5 +73,11 @@ func Pseudonymize(r *Result, key []byte) {
 			r.Changes.Rows[i].ID = Pseudonym(key, r.Changes.Rows[i].ID)
 		}
 	}
+	MarkPseudonymized(r)
+}
+
+// MarkPseudonymized records in the settings that the ids are pseudonyms, for a result whose ids
+// were pseudonymized as they were read (cohort.ReadOptions.Pseudonym).
+func MarkPseudonymized(r *Result) {
 	r.Settings = append(r.Settings, Setting{Name: "participant ids", Value: "pseudonymized (HMAC-SHA256 with the analyst's key)"})
 }

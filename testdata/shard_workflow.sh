@@ -26,4 +26,19 @@ fi
 if ! cmp -s <(grep -v -e '"created"' -e '"checksum"' "$work/one.json") <(grep -v -e '"created"' -e '"checksum"' "$work/split.json"); then
   echo "shard_workflow: FAIL: the model file of the 3-shard workflow differs from the one-machine run"; exit 1
 fi
-echo "shard_workflow: ok: snakemake $(snakemake --version) ran 3 shards; members and model are the one-machine run's, byte for byte"
+# Pseudonymized: the census replaces every id as it reads it, so no piece holds a study id, and
+# the members are those of the one-machine pseudonymized run.
+sed 's/^P/SUBJECT-/' "$work/demo.csv" >"$work/ids.csv"
+printf 'a study key of enough length to pseudonymize with\n' >"$work/study.key"
+"$work/cohortmix" group "$work/ids.csv" $opts --pseudonymize "$work/study.key" --out "$work/pone.xlsx" --members "$work/pone.csv" --quiet >/dev/null
+snakemake --snakefile cmd/cohortmix/workflow/Snakefile --directory "$work" --cores 2 --quiet \
+  --config inputs="$work/ids.csv" shards=3 cohortmix="$work/cohortmix" options="$opts" pseudonymize="$work/study.key" pieces="$work/ppieces" \
+  out="$work/psplit.xlsx" members="$work/psplit.csv" model="$work/psplit.json" >"$work/log" 2>&1 ||
+  { echo "shard_workflow: FAIL: snakemake stopped (pseudonymized):"; cat "$work/log"; exit 1; }
+if ! cmp -s "$work/pone.csv" "$work/psplit.csv"; then
+  echo "shard_workflow: FAIL: the pseudonymized members of the workflow differ from the one-machine run"; exit 1
+fi
+if grep -rl SUBJECT- "$work/ppieces" "$work/psplit.csv" "$work/psplit.json"; then
+  echo "shard_workflow: FAIL: a study id in the pseudonymized run's pieces or outputs (above)"; exit 1
+fi
+echo "shard_workflow: ok: snakemake $(snakemake --version) ran 3 shards; members and model are the one-machine run's, byte for byte, plain and pseudonymized (no study id in any piece)"

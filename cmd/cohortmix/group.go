@@ -93,7 +93,7 @@ func groupRun(ctx context.Context, o *groupOptions) error {
 		return err
 	}
 	if key != nil {
-		reports.Pseudonymize(res, key)
+		reports.MarkPseudonymized(res) // the ids were replaced as they were read
 	}
 	if err := ctx.Err(); err != nil {
 		return err
@@ -123,7 +123,18 @@ func (o *groupOptions) prepare() (job.Options, []byte, error) {
 	ao.Passes = passBar(&Env{IO: o.IO}, o.Flags.Quiet)
 	ao.Steps = stepBar(&Env{IO: o.IO}, o.Flags.Quiet)
 	key, err := loadKey(o.Flags.Pseudonymize)
+	pseudonymAtRead(&ao.Read, key)
 	return ao, key, err
+}
+
+// pseudonymAtRead has the reader replace every id by its pseudonym under the key, when there is
+// one, so that no study id reaches a temporary file, a piece or an output.
+func pseudonymAtRead(ro *cohort.ReadOptions, key []byte) {
+	if key == nil {
+		return
+	}
+	ro.Pseudonym = func(id string) string { return reports.Pseudonym(key, id) }
+	ro.Pseudonyms = reports.KeyFingerprint(key)
 }
 
 // write writes the workbook and, when asked for, the members CSV and the model file, each to a

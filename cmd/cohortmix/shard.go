@@ -270,6 +270,11 @@ func (o *shardOptions) takeCensus(ctx context.Context, inputs []string, sh cohor
 	if o.Flags.Within != "align" {
 		return nil, nil, flagErrorf("--within %s: a run split in shards takes the align step, whose fit needs only a sample of the windows; leave --within out, or run 'group' on one machine", o.Flags.Within)
 	}
+	key, err := loadKey(o.Flags.Pseudonymize)
+	if err != nil {
+		return nil, nil, err
+	}
+	pseudonymAtRead(&ao.Read, key)
 	ao.Read.Shard = sh
 	t, err := cohort.Read(ctx, inputs, ao.Read)
 	if err != nil {
@@ -331,8 +336,17 @@ func (o *shardOptions) readShard(ctx context.Context, plan *job.Plan, shard, pie
 			t.Close()
 			return nil, sh, fmt.Errorf("%s: the windows of another run (other inputs or settings): %w; give the windows file this run's census wrote", o.Windows, job.ErrPiece)
 		}
-	} else if t, err = cohort.Read(ctx, plan.Options.Inputs, ro); err != nil {
-		return nil, sh, err
+	} else {
+		if ro.Pseudonyms != "" { // the census replaced the ids: this read must too, with its key
+			key, err := samePseudonymKey(o.Flags.Pseudonymize, ro.Pseudonyms, "give --windows with the census's windows file")
+			if err != nil {
+				return nil, sh, err
+			}
+			pseudonymAtRead(&ro, key)
+		}
+		if t, err = cohort.Read(ctx, plan.Options.Inputs, ro); err != nil {
+			return nil, sh, err
+		}
 	}
 	if len(t.Files) != len(plan.Files) {
 		t.Close()
@@ -465,7 +479,13 @@ func (o *shardOptions) finishWith(ctx context.Context, g *groupOptions, fp *job.
 	if err != nil {
 		return err
 	}
-	if g.key != nil {
+	switch {
+	case fp.Plan.Options.Read.Pseudonyms != "": // the census replaced the ids as it read them
+		if _, err := samePseudonymKey(o.Flags.Pseudonymize, fp.Plan.Options.Read.Pseudonyms, "give finish the census's key with --pseudonymize"); err != nil {
+			return err
+		}
+		reports.MarkPseudonymized(res)
+	case g.key != nil:
 		reports.Pseudonymize(res, g.key)
 	}
 	meta := fp.Plan.Meta
@@ -486,9 +506,6 @@ func (o *shardOptions) runAll(ctx context.Context) (err error) {
 	dir := o.Pieces
 	if dir == "" {
 		return o.runInMemory(ctx)
-	}
-	if o.Flags.Pseudonymize != "" {
-		return flagErrorf("--pieces %s with --pseudonymize: the pieces hold the study's ids as read, and --pseudonymize promises that none is written; leave --pieces out (the pieces then stay in memory)", dir)
 	}
 	if err := os.MkdirAll(dir, 0o755); err != nil {
 		return fmt.Errorf("--pieces %s: %w", dir, err)
@@ -588,6 +605,22 @@ func (o *shardOptions) runInMemory(ctx context.Context) error {
 		}
 	}
 	return o.finishWith(ctx, g, fp, parts)
+}
+
+// samePseudonymKey loads the key at path and checks that it is the key whose fingerprint the
+// census recorded; without a key, advice says what else to do.
+func samePseudonymKey(path, fingerprint, advice string) ([]byte, error) {
+	if path == "" {
+		return nil, flagErrorf("the census replaced the participant ids by pseudonyms: %s", advice)
+	}
+	key, err := loadKey(path)
+	if err != nil {
+		return nil, err
+	}
+	if reports.KeyFingerprint(key) != fingerprint {
+		return nil, flagErrorf("--pseudonymize %s: not the key the census pseudonymized the ids with; give that key", path)
+	}
+	return key, nil
 }
 
 // planOutputs plans a command's outputs (reports.PlanOutputsKeeping) and tells on standard error

@@ -256,7 +256,7 @@ func sameOptions(a, b Options) bool {
 // typed is the options without the functions that report progress, the temporary folder and
 // the workers.
 func (o Options) typed() Options {
-	o.Progress, o.Passes, o.Steps, o.Read.Progress, o.Norm.Keep, o.Norm.Progress = nil, nil, nil, nil, nil, nil
+	o.Progress, o.Passes, o.Steps, o.Read.Progress, o.Norm.Keep, o.Norm.Progress, o.Read.Pseudonym = nil, nil, nil, nil, nil, nil, nil
 	o.Workers, o.Read.Workers, o.Norm.Workers, o.Read.TempDir = 0, 0, 0, ""
 	return o
 }
