@@ -344,16 +344,17 @@ func TestStateWords(t *testing.T) {
 		{Share: 0.1, Mean: []float64{0.1, 0.5, 2.0}, Drivers: []profile.Driver{{Feature: 1, Effect: 2.2}, {Feature: 2, Effect: 1.1}}},
 	}
 	labels := &profile.LabelTable{Labels: []string{"lying", "walking"}, Counts: [][]int{{0, 0}, {90, 10}, {50, 50}, {5, 95}}}
-	ws := DescribeStates(desc, features, []string{"S1", "S2", "S3", "S4"}, labels)
+	ws := DescribeStates(desc, features, []string{"S1", "S2", "S3", "S4"}, labels, 0)
 	cases := []struct {
 		state       int
 		short, line string
 	}{
 		{0, "S1", "0% of all windows; no feature sets it apart from the average"},
-		{1, "lying (S2)", "Stillness, 30% of all windows; mostly labelled lying (90% of its labelled windows); features: lower sd_x, higher mean_x than average"},
+		// Two states mostly labelled lying: numbered from the stillest, so no two read alike.
+		{1, "lying 1 (S2)", "Lying 1: 30% of all windows, stillness; mostly labelled lying (90% of its labelled windows); features: lower sd_x, higher mean_x than average"},
 		// sd_x of 0.03 lies log(3)/log(50) = 0.28 of the way from 0.01 to 0.5: still.
-		{2, "lying (S3)", "Stillness, 60% of all windows; set apart most by posture (where gravity points on the device); mostly labelled lying (50% of its labelled windows); features: lower mean_x than average"},
-		{3, "walking (S4)", "Vigorous movement, 10% of all windows; with a quicker rhythm than average; mostly labelled walking (95% of its labelled windows); features: higher sd_x, higher dom_freq than average"},
+		{2, "lying 2 (S3)", "Lying 2: 60% of all windows, stillness; set apart most by posture (where gravity points on the device); mostly labelled lying (50% of its labelled windows); features: lower mean_x than average"},
+		{3, "walking (S4)", "Walking: 10% of all windows, vigorous movement; with a quicker rhythm than average; mostly labelled walking (95% of its labelled windows); features: higher sd_x, higher dom_freq than average"},
 	}
 	for _, c := range cases {
 		if got := ws[c.state].Short(); got != c.short {
@@ -361,6 +362,51 @@ func TestStateWords(t *testing.T) {
 		}
 		if got := ws[c.state].Sentence(); got != c.line {
 			t.Errorf("state %d line\n got %q\nwant %q", c.state, got, c.line)
+		}
+	}
+}
+
+// Issue 29: states are named apart, anchored where a feature of a known scale is there, and a
+// rare state does not stretch the scale of the others.
+func TestStateNames(t *testing.T) {
+	state := func(share float64, mean ...float64) profile.Description {
+		return profile.Description{Share: share, Mean: mean}
+	}
+	names := func(ws []StateWords) string {
+		var out []string
+		for _, w := range ws {
+			out = append(out, w.Short())
+		}
+		return strings.Join(out, ", ")
+	}
+	codes := []string{"S1", "S2", "S3", "S4"}
+	for _, c := range []struct {
+		name     string
+		features []string
+		desc     []profile.Description
+		window   time.Duration
+		want     string
+	}{
+		// Without labels or anchors, states of one word are numbered from the stillest.
+		{"relative, two alike", []string{"vm_sd"}, []profile.Description{state(0.4, 0.010), state(0.3, 0.012), state(0.2, 0.2), state(0.1, 0.5)}, 0,
+			"stillness 1 (S1), stillness 2 (S2), moderate movement (S3), vigorous movement (S4)"},
+		// A state of 0.06 % of the windows far above the rest no longer makes them all still.
+		{"a rare extreme state", []string{"vm_sd"}, []profile.Description{state(0.5, 0.01), state(0.3, 0.1), state(0.1994, 0.5), state(0.0006, 50)}, 0,
+			"stillness (S1), light movement (S2), vigorous movement 1 (S3), vigorous movement 2 (S4)"},
+		// Counts of 15-s windows, per minute ×4: 20, 800, 3000, 8000 (Troiano et al. 2008).
+		{"activity counts", []string{"counts", "log_counts"}, []profile.Description{state(0.4, 5, 1), state(0.3, 200, 2), state(0.2, 750, 3), state(0.1, 2000, 4)}, 15 * time.Second,
+			"sedentary (S1), light activity (S2), moderate activity (S3), vigorous activity (S4)"},
+		// Counts without a window length are left relative.
+		{"counts, window unknown", []string{"counts"}, []profile.Description{state(0.5, 5), state(0.5, 2000)}, 0,
+			"stillness (S1), vigorous movement (S2)"},
+		// ENMO in g (below 3): 0.005, 0.03, 0.15, 0.6 g are 5, 30, 150, 600 mg; the two above
+		// 100.6 mg are moderate and vigorous (Hildebrand et al. 2014), the two below keep their
+		// relative word (30 mg lies log 6 / log 120 = 0.37 of the way up: stillness).
+		{"ENMO in g", []string{"enmo"}, []profile.Description{state(0.4, 0.005), state(0.3, 0.03), state(0.2, 0.15), state(0.1, 0.6)}, time.Minute,
+			"stillness 1 (S1), stillness 2 (S2), moderate activity (S3), vigorous activity (S4)"},
+	} {
+		if got := names(DescribeStates(c.desc, c.features, codes[:len(c.desc)], nil, c.window)); got != c.want {
+			t.Errorf("%s:\n got %s\nwant %s", c.name, got, c.want)
 		}
 	}
 }

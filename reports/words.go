@@ -3,8 +3,10 @@ package reports
 import (
 	"fmt"
 	"math"
+	"slices"
 	"sort"
 	"strings"
+	"time"
 
 	"github.com/cohortmix/cohortmix/profile"
 )
@@ -48,8 +50,17 @@ func featureKind(name string) int {
 // measure how much the signal varies (relative to all the cohort's windows), whether it stands
 // apart by posture or cadence, and with known labels the most common one.
 type StateWords struct {
-	Code      string  // the state's name, S1…
-	Intensity string  // "stillness", "light movement", "moderate movement" or "vigorous movement"; "" without intensity features
+	Code string // the state's name, S1…
+	// Name is the state's plain name, distinct within the run: its most common known label, or
+	// its intensity word, numbered from the stillest where two states would read alike
+	// ("stillness 1", "stillness 2"); "" when nothing can be said in words.
+	Name string
+	// Intensity is "stillness", "light movement", "moderate movement" or "vigorous movement",
+	// relative to the run's states; or, where a feature of a known scale is there (Anchor),
+	// "sedentary", "light activity", "moderate activity" or "vigorous activity" by its
+	// published cut-points. "" without intensity features.
+	Intensity string
+	Anchor    string  // the cut-points Intensity comes from, "" when it is relative
 	Score     float64 // where its intensity features lie between the stillest state (0) and the most vigorous (1)
 	Posture   bool    // it stands apart most by where gravity points (axis means, tilt, correlations)
 	Cadence   int     // +1 a quicker rhythm than average, −1 a slower one, 0 neither
@@ -70,8 +81,116 @@ var intensityCuts = []struct {
 	word  string
 }{{0.4, "stillness"}, {0.65, "light movement"}, {0.9, "moderate movement"}, {math.Inf(1), "vigorous movement"}}
 
-// DescribeStates puts every state into words.
-func DescribeStates(desc []profile.Description, features, codes []string, labels *profile.LabelTable) []StateWords {
+// Published cut-points for features of a known scale (each value from memory, to be checked
+// against its paper before a study relies on it):
+//   - activity counts per minute of the vertical axis (Troiano et al. 2008, Med Sci Sports Exerc
+//     40:181): sedentary below 100, light 100–2019, moderate 2020–5998, vigorous 5999 and above;
+//   - ENMO in mg at the non-dominant wrist (Hildebrand et al. 2014, Med Sci Sports Exerc
+//     46:1816): moderate 100.6 and above, vigorous 428.8 and above; below that the word stays
+//     relative, capped at light movement.
+var (
+	troiano    = []float64{100, 2020, 5999}
+	hildebrand = []float64{100.6, 428.8}
+)
+
+// anchorOf finds a feature of a known scale: ENMO (its name holds the word enmo) or activity
+// counts (count, counts or cpm; not of steps, not logged or smoothed); it returns the feature's
+// index and kind, or -1.
+func anchorOf(features []string) (int, string) {
+	for j, name := range features {
+		words := strings.FieldsFunc(strings.ToLower(name), func(r rune) bool { return r == '_' || r == '-' || r == '.' || r == ' ' })
+		has := func(w string) bool { return slices.Contains(words, w) }
+		switch {
+		case has("log") || has("sd") || has("std") || has("rolling") || has("roll") || has("step") || has("steps"):
+			continue
+		case has("enmo"):
+			return j, "enmo"
+		case has("counts") || has("count") || has("cpm"):
+			return j, "counts"
+		}
+	}
+	return -1, ""
+}
+
+// anchor sets the intensity of the states from a feature of a known scale (anchorOf), where
+// there is one: ENMO in g is taken to mg when every state's mean is below 3 (no still or walking
+// state reaches 3 g), and counts per window are taken to counts per minute with the window
+// length, without which they are left relative.
+func anchor(out []StateWords, desc []profile.Description, features []string, window time.Duration) {
+	j, kind := anchorOf(features)
+	if j < 0 {
+		return
+	}
+	scale := 1.0
+	switch kind {
+	case "enmo":
+		top := 0.0
+		for _, d := range desc {
+			if d.Share > 0 {
+				top = max(top, d.Mean[j])
+			}
+		}
+		if top < 3 {
+			scale = 1000
+		}
+	case "counts":
+		if window <= 0 {
+			return
+		}
+		scale = float64(time.Minute) / float64(window)
+	}
+	for s, d := range desc {
+		v := d.Mean[j] * scale
+		if d.Share == 0 || math.IsNaN(v) {
+			continue
+		}
+		w := &out[s]
+		switch kind {
+		case "counts":
+			w.Intensity = []string{"sedentary", "light activity", "moderate activity", "vigorous activity"}[sort.SearchFloat64s(troiano, v+1e-9)]
+			w.Anchor = fmt.Sprintf("%s at %.0f counts a minute, by the cut-points of Troiano et al. 2008", features[j], v)
+		case "enmo":
+			switch {
+			case v >= hildebrand[1]:
+				w.Intensity = "vigorous activity"
+			case v >= hildebrand[0]:
+				w.Intensity = "moderate activity"
+			case w.Intensity == "moderate movement" || w.Intensity == "vigorous movement":
+				w.Intensity = "light movement"
+			}
+			w.Anchor = fmt.Sprintf("%s at %.0f mg, by the wrist cut-points of Hildebrand et al. 2014", features[j], v)
+		}
+	}
+}
+
+// nameStates gives every state its plain name (StateWords.Name), numbering from the stillest
+// the states that would read alike.
+func nameStates(out []StateWords) {
+	byWord := map[string][]int{}
+	for s := range out {
+		w := &out[s]
+		w.Name = w.Intensity
+		if w.Label != "" && w.LabelPct >= 0.5 {
+			w.Name = w.Label
+		}
+		if w.Name != "" {
+			byWord[w.Name] = append(byWord[w.Name], s)
+		}
+	}
+	for word, states := range byWord {
+		if len(states) < 2 {
+			continue
+		}
+		sort.SliceStable(states, func(a, b int) bool { return out[states[a]].Score < out[states[b]].Score })
+		for i, s := range states {
+			out[s].Name = fmt.Sprintf("%s %d", word, i+1)
+		}
+	}
+}
+
+// DescribeStates puts every state into words; window is the length of a window (0 when not
+// known), for features counted per window.
+func DescribeStates(desc []profile.Description, features, codes []string, labels *profile.LabelTable, window time.Duration) []StateWords {
 	out := make([]StateWords, len(desc))
 	score, n := make([]float64, len(desc)), 0.0
 	for j, name := range features {
@@ -130,20 +249,18 @@ func DescribeStates(desc []profile.Description, features, codes []string, labels
 		}
 		out[s] = w
 	}
+	anchor(out, desc, features, window)
+	nameStates(out)
 	return out
 }
 
 // Short is the state's plain name for sentences: "light movement (S2)", or its code alone when
 // nothing can be said in words.
 func (w StateWords) Short() string {
-	word := w.Intensity
-	if w.Label != "" && w.LabelPct >= 0.5 {
-		word = w.Label
-	}
-	if word == "" {
+	if w.Name == "" {
 		return w.Code
 	}
-	return word + " (" + w.Code + ")"
+	return w.Name + " (" + w.Code + ")"
 }
 
 // Sentence describes the state in a line: its share of windows, its intensity, what else sets
@@ -151,10 +268,16 @@ func (w StateWords) Short() string {
 func (w StateWords) Sentence() string {
 	var parts []string
 	head := fmt.Sprintf("%s of all windows", Percent(w.Share))
-	if w.Intensity != "" {
-		head = capital(w.Intensity) + ", " + head
+	if w.Name != "" {
+		head = capital(w.Name) + ": " + head
+	}
+	if w.Intensity != "" && w.Intensity != w.Name {
+		head += ", " + w.Intensity
 	}
 	parts = append(parts, head)
+	if w.Anchor != "" {
+		parts = append(parts, w.Anchor)
+	}
 	switch {
 	case w.Posture:
 		parts = append(parts, "set apart most by posture (where gravity points on the device)")
@@ -182,8 +305,7 @@ func Percent(x float64) string {
 	return fmt.Sprintf("%.0f%%", 100*x)
 }
 
-// ShortNames are the plain names of all states; where two would read the same, the code keeps
-// them apart (it is always there).
+// ShortNames are the plain names of all states, each with its code.
 func ShortNames(ws []StateWords) []string {
 	out := make([]string, len(ws))
 	for i, w := range ws {
@@ -201,6 +323,11 @@ func IntensityOrder(ws []StateWords) []int {
 	sort.SliceStable(idx, func(a, b int) bool { return ws[idx[a]].Score < ws[idx[b]].Score })
 	return idx
 }
+
+// rareState is the share of windows below which a state does not set an end of the intensity
+// scale (it is placed at the end it passes): one state of 0.06 % of the windows once stretched
+// the scale so that seven of twelve states read as stillness.
+const rareState = 0.01
 
 // scalePositions places each state's mean of feature j between the lowest (0) and the highest
 // (1) of the states that hold windows, on a log scale when every mean is above 0; ok is false
@@ -222,13 +349,15 @@ func scalePositions(desc []profile.Description, j int) ([]float64, bool) {
 		if logged {
 			vals[s] = math.Log(vals[s])
 		}
-		lo, hi = min(lo, vals[s]), max(hi, vals[s])
+		if d.Share >= rareState { // a rare state does not set the ends of the scale
+			lo, hi = min(lo, vals[s]), max(hi, vals[s])
+		}
 	}
 	if !(hi > lo) {
 		return nil, false
 	}
 	for s := range vals {
-		vals[s] = (vals[s] - lo) / (hi - lo)
+		vals[s] = min(1, max(0, (vals[s]-lo)/(hi-lo)))
 	}
 	return vals, true
 }

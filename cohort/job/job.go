@@ -430,7 +430,7 @@ func Describe(f *Fitted, stateNames, groupNames []string) (*reports.Result, erro
 	}
 	res.StateNames, res.GroupNames = stateNames, groupNames
 	res.WindowLength, res.WindowSource = f.Window, f.WindowSource
-	res.StateWords = reports.DescribeStates(res.StateDesc, t.Features, stateNames, f.Labels)
+	res.StateWords = reports.DescribeStates(res.StateDesc, t.Features, stateNames, f.Labels, f.Window)
 	res.StateLines = make([]string, k)
 	for s, w := range res.StateWords {
 		res.StateLines[s] = w.Sentence()
@@ -508,12 +508,13 @@ func groupLines(g *cohort.Grouping, sigs []profile.Signature, stateNames []strin
 			j int
 			r float64
 		}
+		// A difference is told only when its numbers, as printed, differ.
 		var ds, db []diff
 		for j := 0; j < k; j++ {
-			if meanShare[j] > 0 {
+			if meanShare[j] > 0 && reports.Percent(share[j]) != reports.Percent(meanShare[j]) {
 				ds = append(ds, diff{j, share[j]/meanShare[j] - 1})
 			}
-			if meanBout[j] > 0 && bout[j] > 0 { // false for NaN: no one in the state
+			if meanBout[j] > 0 && bout[j] > 0 && boutText(bout[j], window) != boutText(meanBout[j], window) { // false for NaN: no one in the state
 				db = append(db, diff{j, bout[j]/meanBout[j] - 1})
 			}
 		}

@@ -15,6 +15,7 @@ import (
 	"github.com/cohortmix/cohortmix/cluster"
 	"github.com/cohortmix/cohortmix/cohort"
 	"github.com/cohortmix/cohortmix/cohort/synth"
+	"github.com/cohortmix/cohortmix/profile"
 )
 
 // A group's bout length is averaged over the members who enter the state, so no group line
@@ -163,5 +164,21 @@ func TestManySmallAlikeUnitsGiveAResult(t *testing.T) {
 		if len(res.Units) != 300 || res.Grouping.K < 1 {
 			t.Errorf("%v: %d units in %d groups", m, len(res.Units), res.Grouping.K)
 		}
+	}
+}
+
+// Issue 29: a difference whose numbers print alike ("<1% against <1%") is not told; one that
+// prints apart is.
+func TestGroupLinesTellOnlyPrintedDifferences(t *testing.T) {
+	sig := func(shares ...float64) profile.Signature {
+		return profile.Signature{Share: shares, MeanBout: []float64{10, 10, 10}, Windows: 100}
+	}
+	// Group 1 has 0.4 % in S3 against 0.2 % on average (twice as much, both "<1%"), and 60 %
+	// in S1 against 50 %.
+	sigs := []profile.Signature{sig(0.6, 0.396, 0.004), sig(0.6, 0.396, 0.004), sig(0.4, 0.6, 0), sig(0.4, 0.6, 0)}
+	units := []*cohort.Unit{{ID: "A"}, {ID: "B"}, {ID: "C"}, {ID: "D"}}
+	lines := groupLines(&cohort.Grouping{K: 2, Labels: []int{0, 0, 1, 1}}, sigs, []string{"S1", "S2", "S3"}, units, nil, 0)
+	if strings.Contains(lines[0], "S3") || !strings.Contains(lines[0], "more time in S1 (60% of their time against 50% on average)") {
+		t.Errorf("group 1: %s", lines[0])
 	}
 }
