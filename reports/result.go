@@ -76,7 +76,8 @@ type Result struct {
 	FeatureRange    [][3]float64 // per feature: 1st percentile, median and 99th percentile of participant medians
 	Changes         *Changes     // set by assign and refresh
 	Sensitivity     []Sensitivity
-	// SensitivityNote reads the sensitivity table in a line.
+	// SensitivityNote says in a line that the groups depend on the number of movement states,
+	// when the fits the states were chosen among say so; "" otherwise.
 	SensitivityNote string
 	Notes           []string // what the run decided on its own that a reader should know (not warnings)
 	// OptionName names an option (given by its Go name, such as job.Options.Window) as the

@@ -59,7 +59,7 @@ func summarySheet(f *excelize.File, st *styles, r *Result) error {
 		}
 	}
 	if r.SensitivityNote != "" {
-		if err := put("Other choices", capital(r.SensitivityNote)+" (see "+SheetStability+")"); err != nil {
+		if err := put("Number of states", capital(r.SensitivityNote)+" (see "+SheetStability+")."); err != nil {
 			return err
 		}
 	}

@@ -364,7 +364,7 @@ func Describe(f *Fitted, stateNames, groupNames []string) (*reports.Result, erro
 	res.Reproducibility = f.Reproducibility
 	res.Notes = append(res.Notes, f.Notes...)
 	if f.Sensitivity != nil {
-		res.Sensitivity, res.SensitivityNote = f.Sensitivity, sensitivityNote(f.Sensitivity)
+		res.Sensitivity, res.SensitivityNote = f.Sensitivity, statesNote(f.States.Ensemble)
 	}
 	var err error
 	vars := make([]cohort.Variable, 0, 2*k+d)

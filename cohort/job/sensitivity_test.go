@@ -3,11 +3,10 @@ package job
 import (
 	"context"
 	"math"
-	"strings"
 	"testing"
 
 	"github.com/cohortmix/cohortmix/cohort/synth"
-	"github.com/cohortmix/cohortmix/reports"
+	"github.com/cohortmix/cohortmix/profile"
 )
 
 // The sensitivity table has a row for each alternative, in a fixed order, with the same values
@@ -71,35 +70,23 @@ func containsInOrder(got, want []string) bool {
 	return i == len(want)
 }
 
-// The line that reads the table names each alternative that moved the groups (adjusted Rand
-// index below 0.8 and more than 0.2 below the reference refit), says in the number it needs
-// whether one choice or several did, and points to the stability marks as the warnings.
-func TestSensitivityNoteNamesWhatMoved(t *testing.T) {
-	ref := reports.Sensitivity{Choice: "within step", Alternative: "align (used)", Reference: true, ARI: 0.9}
-	cases := []struct {
-		name    string
-		rows    []reports.Sensitivity
-		want    []string
-		notWant []string
-	}{
-		{"nothing moved", []reports.Sensitivity{ref, {Choice: "method", Alternative: "pam-js", ARI: 0.85}},
-			[]string{"does not hinge"}, []string{"change under"}},
-		{"one choice", []reports.Sensitivity{ref, {Choice: "method", Alternative: "pam-js", ARI: 0.65}, {Choice: "within step", Alternative: "none", ARI: 0.75}},
-			[]string{"change under method pam-js (adjusted Rand index 0.65)", "this choice", "the tentative mark and the group stability flags"}, []string{"within step none", "these choices"}},
-		{"two choices", []reports.Sensitivity{ref, {Choice: "method", Alternative: "pam-js", ARI: 0.65}, {Choice: "number of states", Alternative: "4 (fixed)", ARI: 0.3}},
-			[]string{"method pam-js", "number of states 4 (fixed)", "these choices"}, []string{"this choice"}},
+// The Summary's line on the number of states reads the ensemble: it speaks when the fit kept
+// agrees with the other fits below 0.8, and is left off otherwise.
+func TestStatesNote(t *testing.T) {
+	ens := func(kept float64) []profile.EnsembleFit {
+		return []profile.EnsembleFit{{States: 4, Agreement: 0.5}, {States: 5, Agreement: kept, Kept: true}, {States: 7, Agreement: 0.6}}
 	}
-	for _, c := range cases {
-		got := sensitivityNote(c.rows)
-		for _, w := range c.want {
-			if !strings.Contains(got, w) {
-				t.Errorf("%s: %q does not say %q", c.name, got, w)
-			}
-		}
-		for _, w := range c.notWant {
-			if strings.Contains(got, w) {
-				t.Errorf("%s: %q says %q", c.name, got, w)
-			}
+	for _, c := range []struct {
+		name string
+		ens  []profile.EnsembleFit
+		want string
+	}{
+		{"one fit", nil, ""},
+		{"the fits agree", ens(0.92), ""},
+		{"the fits disagree", ens(0.62), "the groups depend on the number of movement states: fitted with 4 to 7 states from several random starts, the groupings of the sampled participants agree with the one kept only to a mean adjusted Rand index of 0.62; read the groups with that in mind"},
+	} {
+		if got := statesNote(c.ens); got != c.want {
+			t.Errorf("%s:\n got %q\nwant %q", c.name, got, c.want)
 		}
 	}
 }
