@@ -48,7 +48,7 @@ func chartsSheet(f *excelize.File, st *styles, r *Result) error {
 	top := row
 	w.text(1, row, "Group", st.header)
 	for s := 0; s < k; s++ {
-		w.text(2+s, row, r.StateNames[s], st.header)
+		w.text(2+s, row, r.StateNames[s], st.headerNum)
 	}
 	shares, sizes, sils := groupMeans(r)
 	for i := 0; i < g; i++ {
@@ -76,7 +76,7 @@ func chartsSheet(f *excelize.File, st *styles, r *Result) error {
 	vars := stateVariables(r, 12)
 	w.text(1, row, "Feature (z vs cohort)", st.header)
 	for s := 0; s < k; s++ {
-		w.text(2+s, row, r.StateNames[s], st.header)
+		w.text(2+s, row, r.StateNames[s], st.headerNum)
 	}
 	for i, j := range vars {
 		w.text(1, row+1+i, r.Features[j], st.text)
@@ -101,8 +101,8 @@ func chartsSheet(f *excelize.File, st *styles, r *Result) error {
 	top = row
 	w.pageBreak(row)
 	w.text(1, row, "Group", st.header)
-	w.text(2, row, "members", st.header)
-	w.text(3, row, "mean silhouette", st.header)
+	w.text(2, row, "members", st.headerNum)
+	w.text(3, row, "mean silhouette", st.headerNum)
 	for i := 0; i < g; i++ {
 		w.text(1, row+1+i, r.GroupNames[i], st.text)
 		w.num(2, row+1+i, float64(sizes[i]), st.integer)
@@ -121,10 +121,10 @@ func chartsSheet(f *excelize.File, st *styles, r *Result) error {
 	top = row
 	nc := len(r.States.Candidates)
 	if nc > 0 {
-		w.text(1, row, "States", st.header)
-		w.text(2, row, "Calinski–Harabasz", st.header)
-		w.text(3, row, "silhouette", st.header)
-		w.text(4, row, "Davies–Bouldin", st.header)
+		w.text(1, row, "States", st.headerNum)
+		w.text(2, row, "Calinski–Harabasz", st.headerNum)
+		w.text(3, row, "silhouette", st.headerNum)
+		w.text(4, row, "Davies–Bouldin", st.headerNum)
 	}
 	for i, c := range r.States.Candidates {
 		w.num(1, row+1+i, float64(c.K), st.integer)
@@ -149,10 +149,10 @@ func chartsSheet(f *excelize.File, st *styles, r *Result) error {
 	}
 	top = row
 	w.pageBreak(row)
-	w.text(1, row, "Groups", st.header)
-	w.text(2, row, "gap", st.header)
-	w.text(3, row, "stability", st.header)
-	w.text(4, row, "silhouette", st.header)
+	w.text(1, row, "Groups", st.headerNum)
+	w.text(2, row, "gap", st.headerNum)
+	w.text(3, row, "stability", st.headerNum)
+	w.text(4, row, "silhouette", st.headerNum)
 	ng := len(r.Grouping.Scores)
 	for i, s := range r.Grouping.Scores {
 		w.num(1, row+1+i, float64(s.K), st.integer)
@@ -203,9 +203,9 @@ func chartsSheet(f *excelize.File, st *styles, r *Result) error {
 	for _, b := range byGroup {
 		longest = max(longest, len(b))
 	}
-	w.text(1, row, "Rank in group", st.header)
+	w.text(1, row, "Rank in group", st.headerNum)
 	for i := 0; i < g; i++ {
-		w.text(2+i, row, r.GroupNames[i], st.header)
+		w.text(2+i, row, r.GroupNames[i], st.headerNum)
 	}
 	for rank := 0; rank < longest; rank++ {
 		w.num(1, row+1+rank, float64(rank+1), st.integer)

@@ -491,7 +491,7 @@ func TestNoBoutIsAnEmptyCell(t *testing.T) {
 		}
 		return ""
 	}
-	for _, name := range []string{"bout S2 (windows)", "bout S2 (min)"} {
+	for _, name := range []string{"bout S2 (min)"} {
 		if got := cell(1, col(name)); got != "" {
 			t.Errorf("%s of a participant never in S2: %q, want an empty cell", name, got)
 		}
@@ -500,16 +500,16 @@ func TestNoBoutIsAnEmptyCell(t *testing.T) {
 		}
 	}
 	// The group's mean bout counts only its members who entered S2: G1 holds participants 0
-	// and 3 (every third), and only 3 did, with a bout of 2 windows.
+	// and 3 (every third), and only 3 did, with a bout of 2 windows (2 minutes).
 	groups, _ := f.GetRows(SheetGroups)
 	j := -1
 	for c, h := range groups[0] {
-		if h == "mean bout S2 (windows)" {
+		if h == "mean bout S2 (min)" {
 			j = c
 		}
 	}
-	if j < 0 || len(groups) < 2 || j >= len(groups[1]) || groups[1][j] != "2.00" {
-		t.Errorf("G1's mean bout in S2: %q, want 2.00 (participant 3's alone)", groups)
+	if j < 0 || len(groups) < 2 || j >= len(groups[1]) || groups[1][j] != "2.0" {
+		t.Errorf("G1's mean bout in S2: %q, want 2.0 minutes (participant 3's alone, windows of a minute)", groups)
 	}
 }
 

@@ -10,7 +10,7 @@ import (
 
 // Cell styles of the workbook, made once per file.
 type styles struct {
-	title, header, text, wrap, integer, dec1, dec2, dec3, dec4, pct, pvalue, note, warn int
+	title, header, headerNum, text, wrap, integer, dec1, dec2, dec3, dec4, pct, pvalue, note, warn int
 
 	// fixed[d] shows d decimals with thousands separators, d = 0…6 (see sig3).
 	fixed []int
@@ -58,22 +58,28 @@ func newStyles(f *excelize.File) (*styles, error) {
 	s.title = mk(&excelize.Style{Font: font(true, 15, colAccent)})
 	s.header = mk(&excelize.Style{Font: font(true, 11, colInk), Fill: excelize.Fill{Type: "pattern", Pattern: 1, Color: []string{colHeader}},
 		Border: []excelize.Border{{Type: "bottom", Color: colAccent, Style: 2}}, Alignment: &excelize.Alignment{WrapText: true, Vertical: "top"}})
-	s.text = mk(&excelize.Style{Font: font(false, 11, colInk)})
-	s.wrap = mk(&excelize.Style{Font: font(false, 11, colInk), Alignment: &excelize.Alignment{WrapText: true, Vertical: "top"}})
-	s.integer = mk(&excelize.Style{Font: font(false, 11, colInk), NumFmt: 3}) // #,##0
-	s.dec1 = mk(&excelize.Style{Font: font(false, 11, colInk), CustomNumFmt: numFmt("0.0")})
-	s.dec2 = mk(&excelize.Style{Font: font(false, 11, colInk), CustomNumFmt: numFmt("0.00")})
-	s.dec3 = mk(&excelize.Style{Font: font(false, 11, colInk), CustomNumFmt: numFmt("0.000")})
-	s.dec4 = mk(&excelize.Style{Font: font(false, 11, colInk), CustomNumFmt: numFmt("0.0000")})
-	s.pct = mk(&excelize.Style{Font: font(false, 11, colInk), CustomNumFmt: numFmt("0.0%")})
+	// Every cell sits at the top of its row, so that a label reads beside the first line of a
+	// wrapped text; text starts one indent in, so that it never touches a number on its left;
+	// numbers are right-aligned, and so are their columns' headers (headerNum).
+	top := &excelize.Alignment{Vertical: "top"}
+	s.headerNum = mk(&excelize.Style{Font: font(true, 11, colInk), Fill: excelize.Fill{Type: "pattern", Pattern: 1, Color: []string{colHeader}},
+		Border: []excelize.Border{{Type: "bottom", Color: colAccent, Style: 2}}, Alignment: &excelize.Alignment{WrapText: true, Vertical: "top", Horizontal: "right"}})
+	s.text = mk(&excelize.Style{Font: font(false, 11, colInk), Alignment: &excelize.Alignment{Vertical: "top", Indent: 1}})
+	s.wrap = mk(&excelize.Style{Font: font(false, 11, colInk), Alignment: &excelize.Alignment{WrapText: true, Vertical: "top", Indent: 1}})
+	s.integer = mk(&excelize.Style{Font: font(false, 11, colInk), NumFmt: 3, Alignment: top}) // #,##0
+	s.dec1 = mk(&excelize.Style{Font: font(false, 11, colInk), CustomNumFmt: numFmt("0.0"), Alignment: top})
+	s.dec2 = mk(&excelize.Style{Font: font(false, 11, colInk), CustomNumFmt: numFmt("0.00"), Alignment: top})
+	s.dec3 = mk(&excelize.Style{Font: font(false, 11, colInk), CustomNumFmt: numFmt("0.000"), Alignment: top})
+	s.dec4 = mk(&excelize.Style{Font: font(false, 11, colInk), CustomNumFmt: numFmt("0.0000"), Alignment: top})
+	s.pct = mk(&excelize.Style{Font: font(false, 11, colInk), CustomNumFmt: numFmt("0.0%"), Alignment: top})
 	// Below 0.001 a p- or q-value reads "<0.001"; the cell keeps the exact value for analysts.
-	s.pvalue = mk(&excelize.Style{Font: font(false, 11, colInk), CustomNumFmt: numFmt(`[<0.001]"<0.001";0.000`)})
+	s.pvalue = mk(&excelize.Style{Font: font(false, 11, colInk), CustomNumFmt: numFmt(`[<0.001]"<0.001";0.000`), Alignment: top})
 	for d := 0; d <= 6; d++ {
 		code := "#,##0"
 		if d > 0 {
 			code += "." + strings.Repeat("0", d)
 		}
-		s.fixed = append(s.fixed, mk(&excelize.Style{Font: font(false, 11, colInk), CustomNumFmt: numFmt(code)}))
+		s.fixed = append(s.fixed, mk(&excelize.Style{Font: font(false, 11, colInk), CustomNumFmt: numFmt(code), Alignment: top}))
 	}
 	s.note = mk(&excelize.Style{Font: font(false, 11, colInk), Fill: excelize.Fill{Type: "pattern", Pattern: 1, Color: []string{colNoteBkg}}, Alignment: &excelize.Alignment{WrapText: true, Vertical: "top"}})
 	s.warn = mk(&excelize.Style{Font: font(true, 11, colWarn), Alignment: &excelize.Alignment{WrapText: true, Vertical: "top"}})
@@ -94,6 +100,10 @@ type table struct {
 	widths []float64
 	// longest is the length of each column's longest unwrapped text, for widening at close.
 	longest []int
+	// lastHead is the last row of headers written; numHeader marks its columns that were
+	// right-aligned over their numbers.
+	lastHead  int
+	numHeader []bool
 }
 
 // streamRows is the number of rows past which a sheet is streamed.
@@ -186,10 +196,48 @@ func (t *table) put(cells ...v) error {
 		}
 	}
 	if t.sw == nil {
+		if err := t.alignHeaders(cells); err != nil {
+			return err
+		}
 		return t.fitHeight(cells)
 	}
 	cell, _ := excelize.CoordinatesToCellName(1, t.row)
 	return t.sw.SetRow(cell, out)
+}
+
+// alignHeaders right-aligns the header of each column whose cell in this row (below the
+// header) holds a number, so that the header stands over its numbers.
+func (t *table) alignHeaders(cells []v) error {
+	for _, c := range cells {
+		if c.style == t.st.header || c.style == t.st.headerNum { // a header row: the rows below are its
+			t.lastHead, t.numHeader = t.row, nil
+			return nil
+		}
+	}
+	if t.lastHead == 0 {
+		return nil
+	}
+	for i, c := range cells {
+		switch c.val.(type) {
+		case nil, string:
+			continue
+		}
+		for len(t.numHeader) <= i {
+			t.numHeader = append(t.numHeader, false)
+		}
+		if t.numHeader[i] {
+			continue
+		}
+		t.numHeader[i] = true
+		cell, _ := excelize.CoordinatesToCellName(i+1, t.lastHead)
+		if style, err := t.f.GetCellStyle(t.name, cell); err != nil || style != t.st.header {
+			continue // a header of another style, or none
+		}
+		if err := t.f.SetCellStyle(t.name, cell, cell, t.st.headerNum); err != nil {
+			return err
+		}
+	}
+	return nil
 }
 
 // fitHeight makes a row tall enough for its wrapped text: not every spreadsheet program grows
@@ -211,9 +259,18 @@ func (t *table) fitHeight(cells []v) error {
 
 // heading writes the column header and remembers it for the filter.
 func (t *table) heading(names ...string) error {
+	return t.headingAligned(names, nil)
+}
+
+// headingAligned is heading with the headers of the numeric columns right-aligned from the
+// start, as a streamed sheet needs (its rows cannot be restyled once written).
+func (t *table) headingAligned(names []string, numeric []bool) error {
 	cells := make([]v, len(names))
 	for i, n := range names {
 		cells[i] = v{n, t.st.header}
+		if i < len(numeric) && numeric[i] {
+			cells[i].style = t.st.headerNum
+		}
 	}
 	if err := t.put(cells...); err != nil {
 		return err

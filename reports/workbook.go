@@ -256,15 +256,21 @@ func participantsSheet(f *excelize.File, st *styles, r *Result) error {
 	for s := 0; s < k; s++ {
 		head = append(head, "share "+r.StateNames[s])
 	}
+	// Bouts in one unit, so that the sheet prints at a readable size: minutes when the window
+	// length is known, windows otherwise.
 	for s := 0; s < k; s++ {
-		head = append(head, "bout "+r.StateNames[s]+" (windows)")
-	}
-	if r.WindowLength > 0 {
-		for s := 0; s < k; s++ {
+		if r.WindowLength > 0 {
 			head = append(head, "bout "+r.StateNames[s]+" (min)")
+		} else {
+			head = append(head, "bout "+r.StateNames[s]+" (windows)")
 		}
 	}
-	if err := t.heading(head...); err != nil {
+	text := map[string]bool{"participant": true, "wave": true, "group": true, "flag": true}
+	numeric := make([]bool, len(head))
+	for i, h := range head {
+		numeric[i] = !text[h]
+	}
+	if err := t.headingAligned(head, numeric); err != nil {
 		return err
 	}
 	for _, i := range unitOrder(r) {
@@ -285,11 +291,10 @@ func participantsSheet(f *excelize.File, st *styles, r *Result) error {
 			cells = append(cells, v{x, st.pct})
 		}
 		for _, x := range u.Bout {
-			cells = append(cells, v{boutCell(x), st.dec2})
-		}
-		if r.WindowLength > 0 {
-			for _, x := range u.Bout {
+			if r.WindowLength > 0 {
 				cells = append(cells, v{boutCell(x) * r.WindowLength.Minutes(), st.dec1})
+			} else {
+				cells = append(cells, v{boutCell(x), st.dec2})
 			}
 		}
 		if err := t.put(cells...); err != nil {
@@ -327,12 +332,11 @@ func groupsSheet(f *excelize.File, st *styles, r *Result) error {
 	for s := 0; s < k; s++ {
 		head = append(head, "mean share "+r.StateNames[s])
 	}
-	for s := 0; s < k; s++ {
-		head = append(head, "mean bout "+r.StateNames[s]+" (windows)")
-	}
-	if r.WindowLength > 0 {
-		for s := 0; s < k; s++ {
+	for s := 0; s < k; s++ { // in one unit, as on Participants
+		if r.WindowLength > 0 {
 			head = append(head, "mean bout "+r.StateNames[s]+" (min)")
+		} else {
+			head = append(head, "mean bout "+r.StateNames[s]+" (windows)")
 		}
 	}
 	if err := t.heading(head...); err != nil {
@@ -370,11 +374,10 @@ func groupsSheet(f *excelize.File, st *styles, r *Result) error {
 			cells = append(cells, v{share[s] / n, st.pct})
 		}
 		for s := 0; s < k; s++ {
-			cells = append(cells, v{bout[s], st.dec2})
-		}
-		if r.WindowLength > 0 {
-			for s := 0; s < k; s++ {
+			if r.WindowLength > 0 {
 				cells = append(cells, v{bout[s] * r.WindowLength.Minutes(), st.dec1})
+			} else {
+				cells = append(cells, v{bout[s], st.dec2})
 			}
 		}
 		if err := t.put(cells...); err != nil {

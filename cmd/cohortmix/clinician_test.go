@@ -50,8 +50,9 @@ func TestWorkbookReadsForClinicians(t *testing.T) {
 		}
 	}
 	head, _ := f.GetRows("Participants")
-	if !strings.Contains(strings.Join(head[0], "|"), "bout S1 (windows)|") || !strings.Contains(strings.Join(head[0], "|"), "bout S1 (min)") {
-		t.Errorf("Participants header lacks bout lengths in windows and minutes: %v", head[0])
+	// Bouts in one unit (issue 29: given twice, the sheet printed at about 5 pt).
+	if hs := strings.Join(head[0], "|"); strings.Contains(hs, "bout S1 (windows)") || !strings.Contains(hs, "bout S1 (min)") {
+		t.Errorf("Participants header should give bout lengths in minutes alone: %v", head[0])
 	}
 	// Formats: p below 0.001 as text, integers with thousands separators.
 	zipText := string(readZipText(t, out))

@@ -507,3 +507,50 @@ func TestLeftoversOfKilledRunsAreRemoved(t *testing.T) {
 		t.Error("a live process's file was removed")
 	}
 }
+
+// Issue 29: text headers stood left-aligned over right-aligned numbers, so in a wide column each
+// value read as the next header's. Read from the file: every header cell (bold on the header
+// fill) over a number in the row below is right-aligned, and every cell sits at the top of its
+// row.
+func TestHeadersStandOverTheirNumbers(t *testing.T) {
+	dir := t.TempDir()
+	input := synthCohort40(t, dir)
+	out := filepath.Join(dir, "r.xlsx")
+	mustRun(t, "group", input, "--out", out, "--states", "5", "--groups", "3", "--quiet")
+	f, err := excelize.OpenFile(out)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer f.Close()
+	checked := 0
+	for _, sheet := range f.GetSheetList() {
+		rows, err := f.GetRows(sheet)
+		if err != nil {
+			t.Fatal(err)
+		}
+		for r := range rows {
+			for c := range rows[r] {
+				cell, _ := excelize.CoordinatesToCellName(c+1, r+1)
+				id, _ := f.GetCellStyle(sheet, cell)
+				st, _ := f.GetStyle(id)
+				if st == nil || len(st.Fill.Color) == 0 || !strings.EqualFold(st.Fill.Color[0], "DDEBE8") || st.Font == nil || !st.Font.Bold {
+					continue
+				}
+				below, _ := excelize.CoordinatesToCellName(c+1, r+2)
+				if typ, _ := f.GetCellType(sheet, below); typ != excelize.CellTypeNumber && typ != excelize.CellTypeUnset {
+					continue
+				}
+				if v, _ := f.GetCellValue(sheet, below); v == "" {
+					continue
+				}
+				checked++
+				if st.Alignment == nil || st.Alignment.Horizontal != "right" {
+					t.Errorf("%s!%s %q stands over the number in %s but is not right-aligned", sheet, cell, rows[r][c], below)
+				}
+			}
+		}
+	}
+	if checked < 10 {
+		t.Errorf("only %d headers over numbers were found; is the header fill still DDEBE8?", checked)
+	}
+}
