@@ -38,12 +38,13 @@ type parseSpec struct {
 	delim   rune
 	nf      int   // features
 	featAt  []int // for each column, its feature index, or -1
-	decimal byte  // a second decimal separator (',' in semicolon files), or '.'
+	decimal byte  // a second decimal separator (',' with decimal commas), or '.'
+	comma   bool  // the file's numbers use a decimal comma (semicolon files, and tab files whose head shows one)
 }
 
-func newParseSpec(file string, fileIdx int, header []string, ro roles, delim rune) *parseSpec {
-	s := &parseSpec{file: file, fileIdx: fileIdx, header: header, roles: ro, delim: delim, nf: len(ro.features), decimal: '.'}
-	if delim == ';' {
+func newParseSpec(file string, fileIdx int, header []string, ro roles, delim rune, comma bool) *parseSpec {
+	s := &parseSpec{file: file, fileIdx: fileIdx, header: header, roles: ro, delim: delim, nf: len(ro.features), decimal: '.', comma: comma}
+	if comma {
 		s.decimal = ','
 	}
 	s.featAt = make([]int, len(header))
@@ -578,7 +579,7 @@ func (s *parseSpec) addRow(c *parsedChunk, line int, cell func(int) string, col 
 	row := c.vals[base : base+w]
 	missing := false
 	for j, fc := range ro.features {
-		v, err := parseNumberBytes(raw(fc), s.delim == ';')
+		v, err := parseNumberBytes(raw(fc), s.comma)
 		if err != nil {
 			c.vals = c.vals[:base]
 			c.err = &InputError{File: s.file, Line: line, Column: col(fc), Field: s.header[fc], Msg: numberMsg(cell(fc), s.delim, err), Err: err}

@@ -17,6 +17,7 @@ import (
 	"os"
 	"path"
 	"path/filepath"
+	"regexp"
 	"slices"
 	"strconv"
 	"strings"
@@ -180,6 +181,9 @@ type FileInfo struct {
 	SHA256 string
 	Bytes  int64
 	Rows   int
+	// Delimiter ("comma", "semicolon" or "tab") and Decimal ("point" or "comma") say how a
+	// text table was read; "" for sheets and Parquet.
+	Delimiter, Decimal string
 }
 
 // Table is what the reader returns: the units with their windows and the accounting. Close
@@ -351,6 +355,7 @@ type reader struct {
 	ignored   []Note
 	rows      int
 	lo        []float64 // each feature's lowest value, over every window read
+	comma     bool      // the current text file's numbers use a decimal comma
 	trimmed   int       // rows whose id or wave had spaces around it
 	trimmedAt string    // the first of them, as file:line
 }
@@ -428,6 +433,7 @@ func (c *countWriter) Write(b []byte) (int, error) {
 }
 
 func (r *reader) readFile(p string) error {
+	r.comma = false
 	switch lower := strings.ToLower(p); {
 	case strings.HasSuffix(lower, ".xlsx"):
 		r.progress = func() {}
@@ -469,6 +475,7 @@ func (r *reader) readFile(p string) error {
 		return &InputError{File: p, Line: 1, Msg: "lines end in a bare carriage return (an old Mac line end); save the file with LF or CRLF line ends", Err: ErrRagged}
 	}
 	delim := sniffDelimiter(head)
+	r.comma = delim == ';' || delim == '\t' && decimalCommas(head)
 	cr := csv.NewReader(br)
 	cr.Comma = delim
 	cr.ReuseRecord = true
@@ -491,7 +498,7 @@ func (r *reader) readFile(p string) error {
 	}
 	if err == nil {
 		if r.features == nil {
-			if err := r.classify(p, cr.FieldPos, header, rec, &roles, delim); err != nil {
+			if err := r.classify(p, cr.FieldPos, header, append([][]string{rec}, sampleRecords(head, delim, len(header))...), &roles, delim); err != nil {
 				return err
 			}
 		}
@@ -503,7 +510,7 @@ func (r *reader) readFile(p string) error {
 		for _, f := range rec {
 			line += strings.Count(f, "\n") // quoted newlines
 		}
-		spec := newParseSpec(p, fileIdx, header, roles, delim)
+		spec := newParseSpec(p, fileIdx, header, roles, delim, r.comma)
 		err = r.parseBody(br, spec, line+1, func(c *parsedChunk) error {
 			if err := r.checkKinds(p, header, roles, c); err != nil {
 				return err
@@ -523,7 +530,7 @@ func (r *reader) readFile(p string) error {
 		return &InputError{File: p, Line: 1, Msg: "has a header but no windows; each row should be one window", Err: ErrEmpty}
 	}
 	hexsum, n := sum()
-	r.files = append(r.files, FileInfo{Path: p, SHA256: hexsum, Bytes: n, Rows: rows})
+	r.files = append(r.files, FileInfo{Path: p, SHA256: hexsum, Bytes: n, Rows: rows, Delimiter: delimName[delim], Decimal: decimalName[r.comma]})
 	r.rows += rows
 	return nil
 }
@@ -880,23 +887,47 @@ func (r *reader) isIgnored(name string) bool {
 // classify decides, on the first data row of the first file, which candidate columns are
 // features: a column whose first cell is text is left out and noted (with --features, a matched
 // column must be numeric). An empty first cell keeps the column as a feature.
-func (r *reader) classify(p string, pos func(int) (int, int), header, rec []string, ro *roles, delim rune) error {
+//
+// A column is text, and no feature, when none of the sampled rows (the first window's, then
+// those in the first 64 KiB) holds a number in it and one holds text; a column with numbers in
+// some rows is a feature, whose other cells are missing (empty, NA, n/a…) or an error naming
+// them, never a reason to drop it.
+func (r *reader) classify(p string, pos func(int) (int, int), header []string, sample [][]string, ro *roles, delim rune) error {
 	var keep []int
+	rec := sample[0]
 	for _, col := range ro.features {
-		_, err := parseNumber(rec[col], delim == ';')
-		if errors.Is(err, ErrNotNumber) {
+		numbers, text := 0, ""
+		for _, row := range sample {
+			if col >= len(row) {
+				continue
+			}
+			v, err := parseNumber(row[col], r.comma)
+			switch {
+			case errors.Is(err, ErrNotNumber):
+				if text == "" {
+					text = row[col]
+				}
+			case err != nil || !math.IsNaN(v):
+				numbers++
+			}
+		}
+		if numbers == 0 && text != "" {
 			if len(r.opts.Features) > 0 {
 				l, c := pos(col)
-				return &InputError{File: p, Line: l, Column: c, Field: header[col], Msg: numberMsg(rec[col], delim, err) + "; cohort.ReadOptions.Features chose this column", Err: err}
+				return &InputError{File: p, Line: l, Column: c, Field: header[col], Msg: numberMsg(rec[col], delim, ErrNotNumber) + "; cohort.ReadOptions.Features chose this column", Err: ErrNotNumber}
 			}
-			r.ignored = append(r.ignored, Note{header[col], fmt.Sprintf("text (first value %q), not a feature", rec[col])})
+			r.ignored = append(r.ignored, Note{header[col], fmt.Sprintf("text (%q), not a feature", text)})
 			continue
 		}
 		keep = append(keep, col)
 		r.features = append(r.features, header[col])
 	}
 	if len(keep) == 0 {
-		return &InputError{File: p, Line: 2, Msg: "no numeric feature columns; check the delimiter and cohort.ReadOptions.Features", Err: ErrNoColumn}
+		msg := fmt.Sprintf("no numeric feature columns (read as %s-separated, decimal %s); check the delimiter and cohort.ReadOptions.Features", delimName[delim], decimalName[r.comma])
+		if delim == ',' && decimalCommas(bytes.ReplaceAll([]byte(strings.Join(rec, "\t")), []byte(`"`), nil)) {
+			msg = "no numeric feature columns: the numbers seem to use a decimal comma in a comma-separated file; save it with '.' as the decimal separator, or separated by semicolons or tabs"
+		}
+		return &InputError{File: p, Line: 2, Msg: msg, Err: ErrNoColumn}
 	}
 	ro.features = keep
 	return nil
@@ -918,8 +949,7 @@ const maxMagnitude = 1e12
 // comma is accepted when decimalComma is set.
 func parseNumber(s string, decimalComma bool) (float64, error) {
 	s = strings.TrimSpace(s)
-	switch s {
-	case "", "NA", "NaN", "nan", "N/A", "na", "null", "NULL":
+	if isMissing(s) {
 		return math.NaN(), nil
 	}
 	if decimalComma && strings.Count(s, ",") == 1 && !strings.Contains(s, ".") {
@@ -944,6 +974,57 @@ func parseNumber(s string, decimalComma bool) (float64, error) {
 		return 0, ErrNonFinite
 	}
 	return v, nil
+}
+
+// isMissing tells whether a feature cell marks a missing value: empty, or one of NA, N/A, #N/A,
+// NaN, null and none, in any case.
+func isMissing(s string) bool {
+	if len(s) > 4 {
+		return false
+	}
+	switch strings.ToLower(s) {
+	case "", "na", "n/a", "#n/a", "nan", "null", "none":
+		return true
+	}
+	return false
+}
+
+// delimName and decimalName say how a text table was read, for the record (FileInfo).
+var (
+	delimName   = map[rune]string{',': "comma", ';': "semicolon", '\t': "tab"}
+	decimalName = map[bool]string{false: "point", true: "comma"}
+)
+
+// decimalCommas tells whether the numbers of a tab-separated head use a decimal comma: some
+// cells are digits, a comma and digits, and none are digits, a point and digits. (In a
+// semicolon file a decimal comma is taken as given; in a comma file it cannot be one.)
+func decimalCommas(head []byte) bool {
+	return decimalComma.Match(head) && !decimalPoint.Match(head)
+}
+
+var (
+	decimalComma = regexp.MustCompile(`(?m)(^|\t)[+-]?[0-9]+,[0-9]+(\t|\r?$)`)
+	decimalPoint = regexp.MustCompile(`(?m)(^|\t)[+-]?[0-9]+\.[0-9]+(\t|\r?$)`)
+)
+
+// sampleRecords reads up to 200 rows after the header from the head of a text table (its whole
+// lines), for classify; a row it cannot read ends the sample.
+func sampleRecords(head []byte, delim rune, fields int) [][]string {
+	head = head[:bytes.LastIndexByte(head, '\n')+1]
+	cr := csv.NewReader(bytes.NewReader(head))
+	cr.Comma, cr.FieldsPerRecord = delim, fields
+	if _, err := cr.Read(); err != nil { // the header
+		return nil
+	}
+	var out [][]string
+	for len(out) < 200 {
+		rec, err := cr.Read()
+		if err != nil {
+			break
+		}
+		out = append(out, rec)
+	}
+	return out
 }
 
 // isDecimal tells whether s is a number in the one grammar feature cells are read in: an
@@ -987,7 +1068,7 @@ func numberMsg(cell string, delim rune, err error) string {
 		return fmt.Sprintf("%q is infinite or larger than %.0e in magnitude; fix the value or leave the cell empty to mark it missing", cell, maxMagnitude)
 	}
 	if delim != ';' && strings.Contains(cell, ",") {
-		return fmt.Sprintf("%q is not a number; use '.' as the decimal separator, or pass a semicolon file", cell)
+		return fmt.Sprintf("%q is not a number; use '.' as the decimal separator, or separate the columns by semicolons or tabs (where a decimal comma is read)", cell)
 	}
 	return fmt.Sprintf("%q is not a number; feature cells hold numbers, or are empty or NA when missing (leave text columns out with cohort.ReadOptions.Features)", cell)
 }
@@ -1058,7 +1139,7 @@ func (r *reader) addRecord(p string, fileIdx int, header []string, roles roles, 
 	}
 	vals := make([]float64, len(r.features))
 	for j, col := range roles.features {
-		v, err := parseNumber(rec[col], delim == ';')
+		v, err := parseNumber(rec[col], r.comma)
 		if err != nil {
 			l, c := pos(col)
 			msg := numberMsg(rec[col], delim, err)
@@ -1166,13 +1247,16 @@ func (r *reader) finish() (*Table, error) {
 				}
 				fa, la := unpackSource(x[a*w+d+1])
 				fb, lb := unpackSource(x[b*w+d+1])
-				also := fmt.Sprintf("line %d", la)
+				also, advice := fmt.Sprintf("line %d", la), "remove one of the rows"
 				if fa != fb {
 					also = fmt.Sprintf("%s:%d", r.files[fa].Path, la)
+					if r.opts.Wave == "" { // two files that may be two visits of one cohort
+						advice = "remove one of the rows; or, if the files are two waves (visits) of the same participants, give each row its wave in a column and name it with cohort.ReadOptions.Wave"
+					}
 				}
 				t.Close()
 				return nil, &InputError{File: r.files[fb].Path, Line: lb, Field: r.opts.Order,
-					Msg: fmt.Sprintf("participant %s%s has this window twice (also %s); remove one of the rows", ru.id, waveSuffix(ru.wave), also), Err: ErrDuplicate}
+					Msg: fmt.Sprintf("participant %s%s has this window twice (also %s); %s", ru.id, waveSuffix(ru.wave), also, advice), Err: ErrDuplicate}
 			}
 			for k, i := range idx {
 				if k != i {

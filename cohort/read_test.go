@@ -71,7 +71,7 @@ func TestReadErrors(t *testing.T) {
 		{"duplicate column", map[string][]byte{"a.csv": []byte(strings.Replace(good, "f2", "f1", 1))}, ReadOptions{},
 			`a.csv:1: f1: column name appears twice (columns 3 and 4); rename one`, ErrDuplicate},
 		{"decimal comma in a comma file", map[string][]byte{"a.csv": []byte(strings.Replace(good, "A,1,1.5", `A,1,"1,5"`, 1))}, ReadOptions{},
-			`a.csv:3:5: f1: "1,5" is not a number; use '.' as the decimal separator, or pass a semicolon file`, ErrNotNumber},
+			`a.csv:3:5: f1: "1,5" is not a number; use '.' as the decimal separator, or separate the columns by semicolons or tabs (where a decimal comma is read)`, ErrNotNumber},
 		{"infinite value", map[string][]byte{"a.csv": []byte(strings.Replace(good, "A,1,1.5", "A,1,Inf", 1))}, ReadOptions{},
 			`a.csv:3:5: f1: "Inf" is infinite or larger than 1e+12 in magnitude; fix the value or leave the cell empty to mark it missing`, ErrNonFinite},
 		{"huge value", map[string][]byte{"a.csv": []byte(strings.Replace(good, "A,1,1.5", "A,1,3e200", 1))}, ReadOptions{},
@@ -105,6 +105,10 @@ func TestReadErrors(t *testing.T) {
 			`a.csv: f2: every cell of this feature column is empty or NA; fill it, or leave the column out with cohort.ReadOptions.Features`, ErrEmpty},
 		{"an id of 100,000 bytes (was cut to 32,767 characters in the workbook only)", map[string][]byte{"a.csv": []byte(strings.Replace(good, "\nB,1,", "\n"+strings.Repeat("B", 100_000)+",1,", 1))}, ReadOptions{},
 			`a.csv:6: the participant id is 100,000 bytes long (it starts "BBBBBBBBBBBBBBBBBBBB"); ids and waves are at most 1000 bytes: is the id column the right one?`, ErrMissingID},
+		// Issue 29: text in the first row of a numeric column dropped the column silently; the
+		// column is a feature (numbers follow), and the text is named.
+		{"text in the first row of a numeric column", map[string][]byte{"a.csv": []byte(strings.Replace(good, "A,0,0.5,0", "A,0,low,0", 1))}, ReadOptions{},
+			`a.csv:2:5: f1: "low" is not a number; feature cells hold numbers, or are empty or NA when missing (leave text columns out with cohort.ReadOptions.Features)`, ErrNotNumber},
 		{"digits with underscores", map[string][]byte{"a.csv": []byte(strings.Replace(good, "A,1,1.5", "A,1,1_000", 1))}, ReadOptions{},
 			`a.csv:3:5: f1: "1_000" is not a number; feature cells hold numbers, or are empty or NA when missing (leave text columns out with cohort.ReadOptions.Features)`, ErrNotNumber},
 		{"a hexadecimal float", map[string][]byte{"a.csv": []byte(strings.Replace(good, "A,1,1.5", "A,1,0x1p-2", 1))}, ReadOptions{},
@@ -225,6 +229,23 @@ func TestReadPolicies(t *testing.T) {
 			notes := strings.Join(tab.Quality.Notes, ";")
 			if len(tab.Units) != 2 || tab.Quality.TrimmedCells != 2 || !strings.Contains(notes, "2 id or wave cells had spaces around them (the first at ") || !strings.Contains(notes, ".csv:30)") {
 				t.Errorf("units %d, trimmed %d, notes %v", len(tab.Units), tab.Quality.TrimmedCells, tab.Quality.Notes)
+			}
+		}},
+		// Issue 29: a tab file with decimal commas was "no numeric feature columns".
+		{"tab separated with decimal commas", []string{strings.ReplaceAll(rowsOf(25, "\t"), ".5", ",5")}, ReadOptions{}, func(t *testing.T, tab *Table) {
+			if v := block(t, tab, 0)[2]; v != 1.5 || tab.Files[0].Delimiter != "tab" || tab.Files[0].Decimal != "comma" {
+				t.Errorf("second window f1 = %v, read as %s/%s", v, tab.Files[0].Delimiter, tab.Files[0].Decimal)
+			}
+		}},
+		{"comma separated is read with a decimal point", []string{good}, ReadOptions{}, func(t *testing.T, tab *Table) {
+			if tab.Files[0].Delimiter != "comma" || tab.Files[0].Decimal != "point" {
+				t.Errorf("read as %s/%s", tab.Files[0].Delimiter, tab.Files[0].Decimal)
+			}
+		}},
+		// Issue 29: a single n/a in the first row turned a feature into text, silently.
+		{"n-a in the first row is a missing cell", []string{strings.Replace(good, "A,0,0.5,0", "A,0,n/a,0", 1)}, ReadOptions{}, func(t *testing.T, tab *Table) {
+			if len(tab.Features) != 2 || tab.Units[0].Dropped != 1 || len(tab.Quality.IgnoredColumns) != 0 {
+				t.Errorf("features %v, dropped %d, ignored %v", tab.Features, tab.Units[0].Dropped, tab.Quality.IgnoredColumns)
 			}
 		}},
 		{"missing cells dropped", []string{strings.Replace(strings.Replace(good, "A,1,1.5,3", "A,1,NA,3", 1), "A,2,2.5,1", "A,2,,1", 1)}, ReadOptions{}, func(t *testing.T, tab *Table) {

@@ -92,7 +92,7 @@ func (r *reader) readXLSX(p string) (err error) {
 			}
 		}
 		if n == 0 && r.features == nil {
-			if err := r.classify(p, pos, header, rec, &roles, ','); err != nil {
+			if err := r.classify(p, pos, header, [][]string{rec}, &roles, ','); err != nil {
 				return err
 			}
 		}

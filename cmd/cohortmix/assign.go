@@ -31,6 +31,9 @@ type assignOptions struct {
 	Temp    string
 	Args    []string
 	Window  time.Duration
+	// How to read the new data, where it differs from the model's (empty: the model's).
+	ID, Order, Wave, Missing string
+	MinWindows               int
 }
 
 func newAssignCmd(env *Env, runF func(context.Context, *assignOptions) error) *cobra.Command {
@@ -66,6 +69,11 @@ Exit codes: 0 success, 1 error in the input or the run, 2 wrong command line, 13
 	f.StringVar(&opts.Temp, "temp", "", "folder for temporary files of large inputs (default: the folder of --out)")
 	f.DurationVar(&opts.Window, "window-length", 0, "the length of one window, e.g. 60s, for bout lengths in minutes (default: from the order column's times, when it holds times)")
 	f.StringVar(&opts.Key, "pseudonymize", "", "replace participant ids by a keyed hash (use the key the model was written with)")
+	f.StringVar(&opts.ID, "id", "", "participant id column (default: the model's)")
+	f.StringVar(&opts.Order, "order", "", "window order column, or - for the file's row order (default: the model's)")
+	f.StringVar(&opts.Wave, "wave", "", "visit column: a participant's waves are placed apart (default: the model's)")
+	f.StringVar(&opts.Missing, "missing", "", "missing feature cells: drop (the window) or impute (the participant's median) (default: the model's)")
+	f.IntVar(&opts.MinWindows, "min-windows", 0, "exclude participants with fewer usable windows (default: the model's)")
 	_ = cmd.MarkFlagRequired("model")
 	_ = cmd.MarkFlagRequired("out")
 	return cmd
@@ -96,7 +104,11 @@ func assignRun(ctx context.Context, o *assignOptions) error {
 	if err := m.CheckKey(o.Model, o.Key, key); err != nil {
 		return err
 	}
-	t, extra, err := readForModel(ctx, o.Inputs, m, o.Temp)
+	ro, err := o.readOptions(m)
+	if err != nil {
+		return err
+	}
+	t, extra, err := readForModel(ctx, o.Inputs, m, ro)
 	if err != nil {
 		return err
 	}
@@ -166,13 +178,39 @@ func assignRun(ctx context.Context, o *assignOptions) error {
 	return nil
 }
 
-// readForModel reads new data with the model's column roles and keeps the model's features, in
-// its order; a feature the model needs and the input lacks is an error that names it.
-func readForModel(ctx context.Context, inputs []string, m *reports.Model, temp string) (*cohort.Table, []string, error) {
-	ro := cohort.ReadOptions{ID: m.Read.ID, Order: m.Read.Order, Wave: m.Read.Wave, MinWindows: m.Read.MinWindows, TempDir: temp}
+// readOptions are the model's reading settings, with the flags given over them: a later wave
+// may name its columns otherwise.
+func (o *assignOptions) readOptions(m *reports.Model) (cohort.ReadOptions, error) {
+	ro := cohort.ReadOptions{ID: m.Read.ID, Order: m.Read.Order, Wave: m.Read.Wave, MinWindows: m.Read.MinWindows, TempDir: o.Temp}
 	if m.Read.Missing == cohort.ImputeMedian.String() {
 		ro.Missing = cohort.ImputeMedian
 	}
+	for _, set := range []struct {
+		flag string
+		dst  *string
+	}{{o.ID, &ro.ID}, {o.Order, &ro.Order}, {o.Wave, &ro.Wave}} {
+		if set.flag != "" {
+			*set.dst = set.flag
+		}
+	}
+	if o.MinWindows > 0 {
+		ro.MinWindows = o.MinWindows
+	}
+	switch o.Missing {
+	case "":
+	case "drop":
+		ro.Missing = cohort.DropWindow
+	case "impute":
+		ro.Missing = cohort.ImputeMedian
+	default:
+		return ro, flagErrorf("--missing %q: give drop or impute", o.Missing)
+	}
+	return ro, nil
+}
+
+// readForModel reads new data with the given reading settings and keeps the model's features, in
+// its order; a feature the model needs and the input lacks is an error that names it.
+func readForModel(ctx context.Context, inputs []string, m *reports.Model, ro cohort.ReadOptions) (*cohort.Table, []string, error) {
 	t, err := cohort.Read(ctx, inputs, ro)
 	if err != nil {
 		return nil, nil, err

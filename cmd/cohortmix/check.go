@@ -60,18 +60,23 @@ func checkRun(ctx context.Context, o *checkOptions) error {
 	}
 	q := t.Quality
 	fmt.Fprintf(o.IO.Out, "%d files, %.1f MB, read in %.2f s (%.0f MB/s)\n", len(t.Files), float64(bytes)/1e6, took.Seconds(), float64(bytes)/1e6/max(took.Seconds(), 1e-9))
+	for _, f := range t.Files {
+		if f.Delimiter != "" {
+			fmt.Fprintf(o.IO.Out, "  %s: read as %s-separated, with a decimal %s\n", f.Path, f.Delimiter, f.Decimal)
+		}
+	}
 	fmt.Fprintf(o.IO.Out, "%d windows: %d usable, %d dropped for missing cells, %d in excluded participants; %d cells imputed\n",
 		q.WindowsIn, q.WindowsIn-q.WindowsDropped-q.WindowsExcluded, q.WindowsDropped, q.WindowsExcluded, q.CellsImputed)
 	fmt.Fprintf(o.IO.Out, "%d participants: %d usable, %d excluded\n", q.UnitsIn, len(t.Units), len(q.Excluded))
 	fmt.Fprintf(o.IO.Out, "%d features: %v\n", len(t.Features), t.Features)
 	for _, e := range q.Excluded {
-		fmt.Fprintf(o.IO.Out, "  excluded %s%s: %s\n", e.ID, waveNote(e.Wave), e.Reason)
+		fmt.Fprintf(o.IO.Out, "  excluded %s%s: %s\n", e.ID, waveNote(e.Wave), userWords(e.Reason))
 	}
 	for _, n := range append(q.DroppedFeatures, q.IgnoredColumns...) {
-		fmt.Fprintf(o.IO.Out, "  not used %s: %s\n", n.Name, n.Reason)
+		fmt.Fprintf(o.IO.Out, "  not used %s: %s\n", n.Name, userWords(n.Reason))
 	}
 	for _, n := range q.Notes {
-		fmt.Fprintf(o.IO.Out, "  note: %s\n", n)
+		fmt.Fprintf(o.IO.Out, "  note: %s\n", userWords(n))
 	}
 	if len(t.Units) < 3 {
 		return fmt.Errorf("%s: %d participants can be grouped (%d excluded, see above): %w; grouping needs at least 3", o.Inputs[0], len(t.Units), len(q.Excluded), cohort.ErrTooFew)

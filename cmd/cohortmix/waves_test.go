@@ -245,3 +245,25 @@ func TestModelKeepsTheTurnedFeatures(t *testing.T) {
 		t.Errorf("assign with the frozen model put %.0f%% of the participants in the group the fit gave them, want ≥ 90%%", 100*frac)
 	}
 }
+
+// Issue 29: assign had no --id, yet its error said "pass --id": a later wave whose id column
+// was renamed could not be placed without editing the file.
+func TestAssignReadsARenamedIDColumn(t *testing.T) {
+	dir := t.TempDir()
+	in := writeFile(t, dir, "w1.csv", cohortText(8, 60))
+	model := filepath.Join(dir, "m.json")
+	mustRun(t, "group", in, "--out", filepath.Join(dir, "w1.xlsx"), "--model", model, "--quiet")
+	w2 := writeFile(t, dir, "w2.csv", strings.Replace(cohortText(8, 60), "participant,", "subject,", 1))
+	env, _, errb := testEnv()
+	if code := run(context.Background(), env, []string{"assign", "--model", model, w2, "--out", filepath.Join(dir, "x.xlsx")}); code != 1 || !strings.Contains(errb.String(), "pass --id with one of: subject") {
+		t.Errorf("without --id: exit %d, %s", code, errb)
+	}
+	mustRun(t, "assign", "--model", model, w2, "--id", "subject", "--out", filepath.Join(dir, "w2.xlsx"), "--members", filepath.Join(dir, "w2.csv.members"), "--quiet")
+	if b, _ := os.ReadFile(filepath.Join(dir, "w2.csv.members")); !strings.Contains(string(b), "\nPA,") {
+		t.Errorf("members: %s", b)
+	}
+	env, _, errb = testEnv()
+	if code := run(context.Background(), env, []string{"assign", "--model", model, w2, "--id", "subject", "--missing", "guess", "--out", filepath.Join(dir, "y.xlsx")}); code != 2 || !strings.Contains(errb.String(), `--missing "guess": give drop or impute`) {
+		t.Errorf("a bad --missing: exit %d, %s", code, errb)
+	}
+}

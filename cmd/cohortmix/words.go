@@ -16,6 +16,7 @@ var optionFlags = map[string]string{
 	"cohort.ReadOptions.TempDir":       "--temp",
 	"cohort.ReadOptions.MinWindows":    "--min-windows",
 	"cohort.ReadOptions.Features":      "--features",
+	"cohort.ReadOptions.Wave":          "--wave",
 	"cohort.GroupOptions.Groups":       "--groups",
 	"cohort.GroupOptions.Method":       "--method",
 	"job.Options.Groups":               "--groups",
