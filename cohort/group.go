@@ -117,18 +117,21 @@ const (
 // rarely taken on resampling noise.
 const StableStep = 0.1
 
-var criterionNames = map[Criterion]string{ByStability: "stability", ByGap: "gap", BySilhouette: "silhouette", ByGapStable: "gap-stable", ByGapSteady: "gap-steady", ByBIC: "bic", ByICL: "icl"}
+var criterionNames = map[Criterion]string{ByStability: "stability", ByGap: "gap", BySilhouette: "silhouette", ByGapStable: "gap-stable", ByGapSteady: "gap-stable-firm", ByBIC: "bic", ByICL: "icl"}
 
 func (c Criterion) String() string { return criterionNames[c] }
 
 // ParseCriterion reads a criterion name.
 func ParseCriterion(s string) (Criterion, error) {
+	if s == "gap-steady" { // its name until 2026-12, kept for the model files written then
+		s = criterionNames[ByGapSteady]
+	}
 	for c, n := range criterionNames {
 		if n == s {
 			return c, nil
 		}
 	}
-	return 0, fmt.Errorf("cohort: criterion %q: %w; use bic or icl (the mixture method), or gap-steady, gap-stable, gap, stability or silhouette", s, ErrBadOption)
+	return 0, fmt.Errorf("cohort: criterion %q: %w; use bic or icl (the mixture method), or gap-stable-firm, gap-stable, gap, stability or silhouette", s, ErrBadOption)
 }
 
 // GroupOptions sets up GroupSignatures.
@@ -260,7 +263,7 @@ func GroupSignatures(ctx context.Context, shares [][]float64, opts GroupOptions)
 		return groupMixture(ctx, shares, opts)
 	}
 	if opts.Criterion == ByBIC || opts.Criterion == ByICL {
-		return nil, fmt.Errorf("cohort: criterion %s is the mixture method's; %s chooses by gap-steady, gap-stable, gap, stability or silhouette: %w", opts.Criterion, opts.Method, ErrBadOption)
+		return nil, fmt.Errorf("cohort: criterion %s is the mixture method's; %s chooses by gap-stable-firm, gap-stable, gap, stability or silhouette: %w", opts.Criterion, opts.Method, ErrBadOption)
 	}
 	if maxK := opts.Groups[len(opts.Groups)-1]; maxK > n-1 {
 		return nil, fmt.Errorf("cohort: %d groups asked for but %d participants are grouped: %w; lower cohort.GroupOptions.Groups to at most %d", maxK, n, ErrTooFew, max(2, n-1))

@@ -254,10 +254,10 @@ func TestChoose(t *testing.T) {
 		{"gap-stable: one fewer is more stable by more than 0.1", scores([]float64{0.5, 0.9, 0.95, 1.0}, []float64{0.1, 0.1, 0.1, 0.1}, []float64{0.9, 0.99, 0.62, 0.7}), ByGapStable, 3},
 		{"gap-stable: down two steps", scores([]float64{0.5, 0.7, 0.9}, []float64{0.05, 0.05, 0.05}, []float64{1.0, 0.85, 0.6}), ByGapStable, 2},
 		{"gap-stable: a gain of 0.1 or less is no step", scores([]float64{0.5, 0.7, 0.9}, []float64{0.05, 0.05, 0.05}, []float64{0.7, 0.79, 0.7}), ByGapStable, 4},
-		{"gap-steady: a stable grouping is kept as gap-stable chose it", scores([]float64{0.5, 0.9, 0.95, 1.0}, []float64{0.1, 0.1, 0.1, 0.1}, []float64{0.9, 0.99, 0.82, 0.7}), ByGapSteady, 3},
-		{"gap-steady: a tentative grouping gives way to the largest smaller stable one", scores([]float64{0.5, 0.7, 0.9, 1.1}, []float64{0.05, 0.05, 0.05, 0.05}, []float64{0.98, 0.81, 0.75, 0.66}), ByGapSteady, 3},
-		{"gap-steady: stable at 0.8 exactly", scores([]float64{0.5, 0.7, 0.9}, []float64{0.05, 0.05, 0.05}, []float64{0.95, 0.8, 0.72}), ByGapSteady, 3},
-		{"gap-steady: no smaller stable grouping keeps gap-stable's number", scores([]float64{0.5, 0.7, 0.9}, []float64{0.05, 0.05, 0.05}, []float64{0.7, 0.79, 0.7}), ByGapSteady, 4},
+		{"gap-stable-firm: a stable grouping is kept as gap-stable chose it", scores([]float64{0.5, 0.9, 0.95, 1.0}, []float64{0.1, 0.1, 0.1, 0.1}, []float64{0.9, 0.99, 0.82, 0.7}), ByGapSteady, 3},
+		{"gap-stable-firm: a tentative grouping gives way to the largest smaller stable one", scores([]float64{0.5, 0.7, 0.9, 1.1}, []float64{0.05, 0.05, 0.05, 0.05}, []float64{0.98, 0.81, 0.75, 0.66}), ByGapSteady, 3},
+		{"gap-stable-firm: stable at 0.8 exactly", scores([]float64{0.5, 0.7, 0.9}, []float64{0.05, 0.05, 0.05}, []float64{0.95, 0.8, 0.72}), ByGapSteady, 3},
+		{"gap-stable-firm: no smaller stable grouping keeps gap-stable's number", scores([]float64{0.5, 0.7, 0.9}, []float64{0.05, 0.05, 0.05}, []float64{0.7, 0.79, 0.7}), ByGapSteady, 4},
 		{"stability: the largest", scores([]float64{0, 0, 0}, []float64{0, 0, 0}, []float64{0.7, 0.9, 0.8}), ByStability, 3},
 		{"silhouette: the largest", scores([]float64{0, 0, 0}, []float64{0, 0, 0}, []float64{0.9, 0.7, 0.8}), BySilhouette, 2},
 	}
@@ -270,5 +270,9 @@ func TestChoose(t *testing.T) {
 		if got, err := ParseCriterion(c.String()); err != nil || got != c {
 			t.Errorf("ParseCriterion(%s) = %v, %v", c, got, err)
 		}
+	}
+	// gap-steady, the name before 2026-12 (too close to gap-stable), still reads.
+	if got, err := ParseCriterion("gap-steady"); err != nil || got != ByGapSteady || got.String() != "gap-stable-firm" {
+		t.Errorf("ParseCriterion(gap-steady) = %v, %v", got, err)
 	}
 }

@@ -148,7 +148,7 @@ func choiceText(r *Result) string {
 		return "bootstrap stability, over " + kRange(r)
 	case "gap-stable":
 		return "gap statistic, Tibshirani et al. 2001, then fewer groups while clearly more stable, over " + kRange(r)
-	case "gap-steady":
+	case "gap-stable-firm":
 		return "gap statistic, Tibshirani et al. 2001, then fewer groups while clearly more stable, and fewer still if that grouping is tentative and one with fewer is not, over " + kRange(r)
 	}
 	return "mean silhouette, over " + kRange(r)

@@ -8,7 +8,7 @@ ensure check_no_network "command -v strace" "strace is not installed and could n
 work=$(mktemp -d)
 trap 'rm -rf "$work"' EXIT
 go build -o "$work/cohortmix" ./cmd/cohortmix
-if ! strace -f -qq -e trace=socket,connect -o "$work/trace" "$work/cohortmix" demo --out "$work/demo" --participants 40 --windows 300 --quiet >/dev/null 2>&1; then
+if ! strace -f -qq -e trace=socket,connect -o "$work/trace" "$work/cohortmix" demo --dir "$work/demo" --participants 40 --windows 300 --quiet >/dev/null 2>&1; then
   echo "check_no_network: the demo failed under strace (ptrace may be forbidden here): SKIPPED"
   exit 0
 fi

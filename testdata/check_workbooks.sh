@@ -13,10 +13,10 @@ ensure check_workbooks "command -v soffice && /usr/bin/python3 -c 'import openpy
 work=$(mktemp -d)
 trap 'rm -rf "$work"' EXIT
 go build -o "$work/cohortmix" ./cmd/cohortmix
-"$work/cohortmix" demo --out "$work/demo" --quiet >/dev/null
-"$work/cohortmix" demo --out "$work/pam" --method pam-aitchison --quiet >/dev/null
+"$work/cohortmix" demo --dir "$work/demo" --quiet >/dev/null
+"$work/cohortmix" demo --dir "$work/pam" --method pam-aitchison --quiet >/dev/null
 # Past 2,000 participants the participants sheet is streamed; check that form too.
-"$work/cohortmix" demo --out "$work/large" --participants 2100 --windows 150 --states 5 --quiet >/dev/null
+"$work/cohortmix" demo --dir "$work/large" --participants 2100 --windows 150 --states 5 --quiet >/dev/null
 
 fail=0
 for book in "$work"/demo/demo-results.xlsx "$work"/pam/demo-results.xlsx "$work"/large/demo-results.xlsx; do

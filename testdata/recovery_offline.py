@@ -82,7 +82,7 @@ def gap_steady(sc, stable=0.8):
 
 
 rules = {
-    "gap-steady (the default)": lambda d, a, sc: gap_steady(sc),
+    "gap-stable-firm (the default)": lambda d, a, sc: gap_steady(sc),
     "gap statistic, then fewer while more stable by > 0.1 (gap-stable)": lambda d, a, sc: gap_stable(sc),
     "gap statistic": lambda d, a, sc: gap_rule(sc),
     "largest mean silhouette": lambda d, a, sc: max(sc, key=lambda k: sc[k]["Silhouette"]),

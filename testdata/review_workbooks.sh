@@ -19,7 +19,7 @@ work=$(mktemp -d)
 trap 'rm -rf "$work"' EXIT
 go build -o "$work/cohortmix" ./cmd/cohortmix
 cm="$work/cohortmix"
-"$cm" demo --out "$work/demo" --quiet >/dev/null
+"$cm" demo --dir "$work/demo" --quiet >/dev/null
 "$cm" synth --out "$work/wave2.csv" --participants 60 --windows 1000 --seed 2 --first-id 150 --labels >/dev/null
 "$cm" assign --model "$work/demo/demo-model.json" "$work/wave2.csv" --out "$work/assign.xlsx" --quiet >/dev/null
 "$cm" refresh --previous "$work/demo/demo-model.json" "$work/demo/demo-cohort.csv" "$work/wave2.csv" --out "$work/refresh.xlsx" --quiet >/dev/null

@@ -90,7 +90,7 @@ func TestCommandLinesBecomeOptions(t *testing.T) {
 	})
 	t.Run("demo", func(t *testing.T) {
 		var got *demoOptions
-		execute(t, newDemoCmd(env, func(_ context.Context, o *demoOptions) error { got = o; return nil }), "--out", "d", "--participants", "40", "--windows", "200")
+		execute(t, newDemoCmd(env, func(_ context.Context, o *demoOptions) error { got = o; return nil }), "--dir", "d", "--participants", "40", "--windows", "200")
 		if got.Dir != "d" || got.Synth.Participants != 40 || got.Synth.Windows != 200 {
 			t.Errorf("demo options %+v", got)
 		}

@@ -62,7 +62,7 @@ Exit codes: 0 success, 1 error in the input or the run, 2 wrong command line, 13
 	f := cmd.Flags()
 	f.StringVar(&opts.Model, "model", "", "the model file written by 'cohortmix group --model'")
 	f.StringVar(&opts.Out, "out", "", "the workbook to write (.xlsx)")
-	f.StringVar(&opts.Members, "members", "", "also write a participant,group CSV here")
+	f.StringVar(&opts.Members, "members", "", "also write a CSV here: participant, wave, group, probability of the group, silhouette, flag")
 	f.BoolVar(&opts.Force, "force", false, "replace existing output files")
 	f.BoolVar(&opts.Quiet, "quiet", false, "print only the final summary")
 	f.IntVar(&opts.Workers, "workers", 0, "worker goroutines (0: all cores)")

@@ -27,7 +27,7 @@ type demoOptions struct {
 func newDemoCmd(env *Env, runF func(context.Context, *demoOptions) error) *cobra.Command {
 	opts := &demoOptions{IO: env.IO, Now: time.Now}
 	cmd := &cobra.Command{
-		Use:   "demo --out <dir>",
+		Use:   "demo --dir <folder>",
 		Short: "Write an invented demo cohort and analyse it",
 		Long: `Writes a synthetic cohort (an invented occupational study: adults wearing a wrist device over
 working days, with three planted groups, device offsets and person-to-person spread) into a
@@ -35,8 +35,8 @@ folder, runs the same analysis as 'group' on it, and compares the groups found w
 Everything in the demo is invented; no real person's data is in it.
 
 Exit codes: 0 success, 1 error, 2 wrong command line, 130 interrupted.`,
-		Example: `  $ cohortmix demo --out demo
-  $ cohortmix demo --out demo --force --within none   # see what the within-participant step buys`,
+		Example: `  $ cohortmix demo --dir demo
+  $ cohortmix demo --dir demo --force --within none   # see what the within-participant step buys`,
 		Args: cobra.NoArgs,
 		RunE: func(cmd *cobra.Command, args []string) error {
 			if runF != nil {
@@ -45,8 +45,8 @@ Exit codes: 0 success, 1 error, 2 wrong command line, 130 interrupted.`,
 			return demoRun(cmd.Context(), opts)
 		},
 	}
-	cmd.Flags().StringVar(&opts.Dir, "out", "", "folder for the demo cohort and its results")
-	_ = cmd.MarkFlagRequired("out")
+	cmd.Flags().StringVar(&opts.Dir, "dir", "", "folder for the demo cohort and its results")
+	_ = cmd.MarkFlagRequired("dir")
 	cmd.Flags().IntVar(&opts.Synth.Participants, "participants", 150, "invented participants")
 	cmd.Flags().IntVar(&opts.Synth.Windows, "windows", 1000, "one-minute windows per participant")
 	opts.Flags.register(cmd)

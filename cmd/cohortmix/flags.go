@@ -41,7 +41,7 @@ func parseRangeFrom(flag, s string, least int) ([]int, error) {
 }
 
 // defaultGroups and defaultCriterion are the mixture's; the other methods take 2-8 and
-// gap-steady when these are left as they are.
+// gap-stable-firm when these are left as they are.
 const defaultGroups, defaultCriterion = "1-8", "icl"
 
 // mainFlags are the flags of every command that runs the main job.
@@ -98,13 +98,13 @@ func (m *mainFlags) register(cmd *cobra.Command) {
 	f.IntVar(&m.Sample, "sample", 50000, "windows sampled to fit the states")
 	f.StringVar(&m.Groups, "groups", defaultGroups, "number of participant groups, or a range to choose from (1, no distinct groups, is a possible answer of the mixture method)")
 	f.StringVar(&m.Method, "method", "mixture", "grouping: "+cohort.MethodHelp())
-	f.StringVar(&m.Criterion, "criterion", defaultCriterion, "rule for the number of groups: icl or bic for the mixture method (the integrated completed likelihood, or the Bayesian information criterion); for the others gap-steady (gap-stable's number, or when that grouping is tentative, its stability below 0.8, the largest smaller number whose grouping is not), gap-stable (the gap statistic's number, then one fewer while that groups more stably by more than 0.1), gap, stability or silhouette")
+	f.StringVar(&m.Criterion, "criterion", defaultCriterion, "rule for the number of groups: icl or bic for the mixture method (the integrated completed likelihood, or the Bayesian information criterion); for the others gap-stable-firm (gap-stable's number, or when that grouping is tentative, its stability below 0.8, the largest smaller number whose grouping is not), gap-stable (the gap statistic's number, then one fewer while that groups more stably by more than 0.1), gap, stability or silhouette")
 	f.Float64Var(&m.GroupValley, "group-valley", 0, "lower the number of groups while two of them form one mode (density between them at least this share of its height; 0: off)")
 	f.IntVar(&m.Bootstrap, "bootstrap", 20, "resamples for stability and reference sets for the gap statistic")
 	f.Uint64Var(&m.Seed, "seed", 1, "seed for every random step")
 	f.DurationVar(&m.WindowLength, "window-length", 0, "the length of one window, e.g. 60s, for bout lengths in minutes (default: from the order column's times, when it holds times)")
 	f.IntVar(&m.Workers, "workers", 0, "worker goroutines (0: all cores); never changes the result")
-	f.StringVar(&m.Members, "members", "", "also write a participant,group CSV here")
+	f.StringVar(&m.Members, "members", "", "also write a CSV here: participant, wave, group, probability of the group, silhouette, flag")
 	f.StringVar(&m.Model, "model", "", "also write the model file (JSON) here, for later waves")
 	f.StringVar(&m.Pseudonymize, "pseudonymize", "", "replace participant ids in every output by a keyed hash, with the key in this file")
 	f.BoolVar(&m.Force, "force", false, "replace existing output files")
@@ -233,13 +233,13 @@ func (m *mainFlags) options(inputs []string) (job.Options, error) {
 	if o.Method == cohort.Mixture {
 		least = 1 // the mixture may find no groups
 	} else {
-		// The defaults are the mixture's: another method groups into 2 to 8 by gap-steady
+		// The defaults are the mixture's: another method groups into 2 to 8 by gap-stable-firm
 		// unless told otherwise.
 		if groups == defaultGroups {
 			groups = "2-8"
 		}
 		if criterion == defaultCriterion {
-			criterion = "gap-steady"
+			criterion = "gap-stable-firm"
 		}
 	}
 	if o.Groups, err = parseRangeFrom("groups", groups, least); err != nil {
@@ -253,7 +253,7 @@ func (m *mainFlags) options(inputs []string) (job.Options, error) {
 		return o, &flagError{err}
 	}
 	if mixtureCriterion := o.Criterion == cohort.ByBIC || o.Criterion == cohort.ByICL; mixtureCriterion != (o.Method == cohort.Mixture) {
-		return o, flagErrorf("--criterion %s with --method %s: bic and icl choose the mixture's number of groups, gap-steady, gap-stable, gap, stability and silhouette the other methods'", criterion, o.Method)
+		return o, flagErrorf("--criterion %s with --method %s: bic and icl choose the mixture's number of groups, gap-stable-firm, gap-stable, gap, stability and silhouette the other methods'", criterion, o.Method)
 	}
 	if m.Sample < 100 || m.Bootstrap < 2 || m.Workers < 0 {
 		return o, flagErrorf("--sample %d, --bootstrap %d, --workers %d: use at least 100 windows, 2 resamples and ≥ 0 workers", m.Sample, m.Bootstrap, m.Workers)

@@ -73,7 +73,7 @@ func TestDemoRecoversPlantedGroups(t *testing.T) {
 func TestDemoCommand(t *testing.T) {
 	env, out, errb := testEnv()
 	dir := t.TempDir()
-	if code := run(context.Background(), env, []string{"demo", "--out", dir, "--participants", "60", "--windows", "400"}); code != 0 {
+	if code := run(context.Background(), env, []string{"demo", "--dir", dir, "--participants", "60", "--windows", "400"}); code != 0 {
 		t.Fatalf("exit %d: %s", code, errb)
 	}
 	for _, name := range []string{"demo-cohort.csv", "demo-planted-groups.csv", "demo-results.xlsx", "demo-members.csv", "demo-model.json"} {
@@ -87,7 +87,7 @@ func TestDemoCommand(t *testing.T) {
 	// A second run refuses to overwrite without --force and leaves the files alone.
 	before, _ := os.ReadFile(filepath.Join(dir, "demo-results.xlsx"))
 	env2, _, errb2 := testEnv()
-	if code := run(context.Background(), env2, []string{"demo", "--out", dir}); code != 1 || !strings.Contains(errb2.String(), "--force") {
+	if code := run(context.Background(), env2, []string{"demo", "--dir", dir}); code != 1 || !strings.Contains(errb2.String(), "--force") {
 		t.Errorf("second demo: exit %d, %q; want 1 naming --force", code, errb2)
 	}
 	after, _ := os.ReadFile(filepath.Join(dir, "demo-results.xlsx"))

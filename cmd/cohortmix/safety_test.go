@@ -221,8 +221,8 @@ func TestCommandLineMistakesExit2(t *testing.T) {
 		{"assign", "--model", "m.json", "--out", "w.xlsx"},
 		{"refresh", in, "--out", "w.xlsx"}, // no --previous
 		{"refresh", "--previous", "m.json", in},
-		{"demo"}, // no --out
-		{"demo", "--out", dir, "--participants", "x"},
+		{"demo"}, // no --dir
+		{"demo", "--dir", dir, "--participants", "x"},
 		{"synth"}, // no --out
 		{"synth", "--out", "s.csv", "--scenario", "3", "--groups", "4"},
 		{"shard", "nosuchstep"},

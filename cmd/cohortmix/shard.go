@@ -38,7 +38,7 @@ type shardOptions struct {
 
 const shardLong = `A run split in shards gives the result of 'group' bit for bit (members, model and workbook,
 apart from the date and the command line), for any number of shards: participants are split by
-a hash of their id, each census reads the whole input and keeps one shard (with --windows it
+a hash of their id, each census reads the whole input and keeps one shard (with --windows-file it
 writes that shard's windows for its sample and assign steps), and the pieces are merged in the
 order the participants first appear. It takes the align step (the default).
 
@@ -60,11 +60,11 @@ func newShardCmd(env *Env, runF func(context.Context, *shardOptions) error) *cob
 		Short: "Run the job split in shards of participants, step by step (for a cluster)",
 		Long:  shardLong,
 		Example: `  $ cohortmix shard run study.csv.gz --shards 4 --pieces pieces/ --out results.xlsx --members members.csv
-  $ cohortmix shard census study.csv.gz --shard 2/4 --piece pieces/census-2.piece --windows pieces/windows-2.piece
+  $ cohortmix shard census study.csv.gz --shard 2/4 --piece pieces/census-2.piece --windows-file pieces/windows-2.piece
   $ cohortmix shard plan pieces/census-*.piece --piece pieces/plan.piece
-  $ cohortmix shard sample --plan pieces/plan.piece --windows pieces/windows-2.piece --shard 2/4 --piece pieces/sample-2.piece
+  $ cohortmix shard sample --plan pieces/plan.piece --windows-file pieces/windows-2.piece --shard 2/4 --piece pieces/sample-2.piece
   $ cohortmix shard fit --plan pieces/plan.piece pieces/sample-*.piece --piece pieces/fit.piece
-  $ cohortmix shard assign --fit pieces/fit.piece --windows pieces/windows-2.piece --shard 2/4 --piece pieces/assign-2.piece
+  $ cohortmix shard assign --fit pieces/fit.piece --windows-file pieces/windows-2.piece --shard 2/4 --piece pieces/assign-2.piece
   $ cohortmix shard finish --fit pieces/fit.piece pieces/assign-*.piece --out results.xlsx --members members.csv`,
 		Args: cobra.ArbitraryArgs,
 		RunE: func(cmd *cobra.Command, args []string) error {
@@ -98,7 +98,7 @@ func newShardCmd(env *Env, runF func(context.Context, *shardOptions) error) *cob
 		c.Flags().StringVar(&o.Shard, "shard", "", "this step's shard and their number, I/N with I from 1 to N")
 		_ = c.MarkFlagRequired("shard")
 		c.Flags().IntVar(&o.Flags.Workers, "workers", 0, "worker goroutines (0: all cores); never changes the result")
-		c.Flags().StringVar(&o.Windows, "windows", "", "the shard's windows file that census wrote, read instead of every input file")
+		c.Flags().StringVar(&o.Windows, "windows-file", "", "the shard's windows file that census wrote, read instead of every input file")
 	}
 	step("census", "census <windows.csv>... --shard I/N --piece <census.piece>", "Count one shard's participants and what was left out (every setting of the run is given here)",
 		cobra.MinimumNArgs(1), func(c *cobra.Command, o *shardOptions) {
@@ -110,7 +110,7 @@ func newShardCmd(env *Env, runF func(context.Context, *shardOptions) error) *cob
 			_ = c.MarkFlagRequired("shard")
 			c.Flags().StringVar(&o.Piece, "piece", "", "the piece file to write")
 			_ = c.MarkFlagRequired("piece")
-			c.Flags().StringVar(&o.Windows, "windows", "", "also write the shard's windows to this file, for sample and assign to read instead of every input file")
+			c.Flags().StringVar(&o.Windows, "windows-file", "", "also write the shard's windows to this file, for sample and assign to read instead of every input file")
 		})
 	step("plan", "plan <census.piece>... --piece <plan.piece>", "Merge every shard's census into the plan of the run", cobra.MinimumNArgs(1), pieceFlag)
 	step("sample", "sample --plan <plan.piece> --shard I/N --piece <sample.piece>", "Draw one shard's windows for the fit", cobra.NoArgs,
@@ -139,7 +139,7 @@ func newShardCmd(env *Env, runF func(context.Context, *shardOptions) error) *cob
 	outputs := func(c *cobra.Command, o *shardOptions) {
 		c.Flags().StringVar(&o.Out, "out", "", "the workbook to write (.xlsx)")
 		_ = c.MarkFlagRequired("out")
-		c.Flags().StringVar(&o.Flags.Members, "members", "", "also write a participant,group CSV here")
+		c.Flags().StringVar(&o.Flags.Members, "members", "", "also write a CSV here: participant, wave, group, probability of the group, silhouette, flag")
 		c.Flags().StringVar(&o.Flags.Model, "model", "", "also write the model file (JSON) here, for later waves")
 		c.Flags().StringVar(&o.Flags.Pseudonymize, "pseudonymize", "", "replace participant ids in every output by a keyed hash, with the key in this file")
 	}
@@ -256,7 +256,7 @@ func (o *shardOptions) census(ctx context.Context, inputs []string, shard, piece
 	run := job.RunOf(c.Options, c.Files)
 	outs := []output{pieceOutput(piece, job.KindCensus, job.PieceID{Run: run, Shard: sh.String()}, c)}
 	if o.Windows != "" {
-		outs = append(outs, output{"windows", "--windows", o.Windows, func(w io.Writer) error { return t.WriteWindows(w, sh, run) }})
+		outs = append(outs, output{"windows", "--windows-file", o.Windows, func(w io.Writer) error { return t.WriteWindows(w, sh, run) }})
 	}
 	return o.writeOutputs(files, outs...)
 }
@@ -338,7 +338,7 @@ func (o *shardOptions) readShard(ctx context.Context, plan *job.Plan, shard, pie
 		}
 	} else {
 		if ro.Pseudonyms != "" { // the census replaced the ids: this read must too, with its key
-			key, err := samePseudonymKey(o.Flags.Pseudonymize, ro.Pseudonyms, "give --windows with the census's windows file")
+			key, err := samePseudonymKey(o.Flags.Pseudonymize, ro.Pseudonyms, "give --windows-file with the census's windows file")
 			if err != nil {
 				return nil, sh, err
 			}

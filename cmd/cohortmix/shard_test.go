@@ -143,15 +143,15 @@ func TestShardPiecesOfAnotherRunAreRefused(t *testing.T) {
 		piece := func(kind string, i int) string { return filepath.Join(p, fmt.Sprintf("%s-%d.piece", kind, i)) }
 		common := []string{"--states", "3", "--groups", "2", "--bootstrap", "2", "--seed", fmt.Sprint(seed), "--quiet"}
 		for i := 1; i <= 2; i++ {
-			mustRun(t, append([]string{"shard", "census", input, "--shard", fmt.Sprintf("%d/2", i), "--piece", piece("census", i), "--windows", piece("windows", i)}, common...)...)
+			mustRun(t, append([]string{"shard", "census", input, "--shard", fmt.Sprintf("%d/2", i), "--piece", piece("census", i), "--windows-file", piece("windows", i)}, common...)...)
 		}
 		mustRun(t, "shard", "plan", piece("census", 1), piece("census", 2), "--piece", piece("plan", 0), "--quiet")
 		for i := 1; i <= 2; i++ {
-			mustRun(t, "shard", "sample", "--plan", piece("plan", 0), "--windows", piece("windows", i), "--shard", fmt.Sprintf("%d/2", i), "--piece", piece("sample", i), "--quiet")
+			mustRun(t, "shard", "sample", "--plan", piece("plan", 0), "--windows-file", piece("windows", i), "--shard", fmt.Sprintf("%d/2", i), "--piece", piece("sample", i), "--quiet")
 		}
 		mustRun(t, "shard", "fit", "--plan", piece("plan", 0), piece("sample", 1), piece("sample", 2), "--piece", piece("fit", 0), "--quiet")
 		for i := 1; i <= 2; i++ {
-			mustRun(t, "shard", "assign", "--fit", piece("fit", 0), "--windows", piece("windows", i), "--shard", fmt.Sprintf("%d/2", i), "--piece", piece("assign", i), "--quiet")
+			mustRun(t, "shard", "assign", "--fit", piece("fit", 0), "--windows-file", piece("windows", i), "--shard", fmt.Sprintf("%d/2", i), "--piece", piece("assign", i), "--quiet")
 		}
 		return piece
 	}
@@ -178,7 +178,7 @@ func TestShardPiecesOfAnotherRunAreRefused(t *testing.T) {
 			a("assign", 1) + ": this assignment piece is of another run than " + s2("fit", 0)},
 		{"an assignment piece of another input", append([]string{"shard", "finish", "--fit", a("fit", 0), a("assign", 1), in2("assign", 2)}, out("x3")...),
 			in2("assign", 2) + ": this assignment piece is of another run than " + a("fit", 0)},
-		{"a windows file of another input", []string{"shard", "assign", "--fit", a("fit", 0), "--windows", in2("windows", 2), "--shard", "2/2", "--piece", filepath.Join(dir, "x4.piece"), "--quiet"},
+		{"a windows file of another input", []string{"shard", "assign", "--fit", a("fit", 0), "--windows-file", in2("windows", 2), "--shard", "2/2", "--piece", filepath.Join(dir, "x4.piece"), "--quiet"},
 			in2("windows", 2) + ": the windows of another run"},
 		{"a damaged assignment piece", append([]string{"shard", "finish", "--fit", a("fit", 0), a("assign", 1), flipped}, out("x5")...),
 			flipped + ": the assignment piece is damaged (its content does not match its checksum)"},
@@ -240,7 +240,7 @@ func TestPseudonymizedSplitRunKeepsNoIDsOnDisk(t *testing.T) {
 	// A sample step that reads the inputs again, without the key, is refused.
 	env, _, errb := testEnv()
 	code := run(context.Background(), env, []string{"shard", "sample", "--plan", filepath.Join(pieces, "plan.piece"), "--shard", "1/3", "--piece", filepath.Join(dir, "s.piece")})
-	if code != 2 || !strings.Contains(errb.String(), "the census replaced the participant ids by pseudonyms: give --windows with the census's windows file") {
+	if code != 2 || !strings.Contains(errb.String(), "the census replaced the participant ids by pseudonyms: give --windows-file with the census's windows file") {
 		t.Errorf("exit %d: %s", code, errb)
 	}
 }
