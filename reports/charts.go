@@ -6,6 +6,7 @@ import (
 	"math"
 	"sort"
 
+	"github.com/cohortmix/cohortmix/cohort"
 	"github.com/xuri/excelize/v2"
 )
 
@@ -91,10 +92,13 @@ func chartsSheet(f *excelize.File, st *styles, r *Result) error {
 			Fill: excelize.Fill{Type: "pattern", Pattern: 1, Color: []string{colour(s)}},
 		})
 	}
-	if err := f.AddChart(name, fmt.Sprintf("I%d", top), chart(excelize.Col, statesChartTitle(len(vars), len(r.Features)), series, "feature", "s.d. from the cohort mean")); err != nil {
+	// Bars across, so that each feature's name reads whole beside its bars.
+	stateChart := chart(excelize.Bar, statesChartTitle(len(vars), len(r.Features)), series, "feature", "s.d. from the cohort mean")
+	stateChart.Dimension.Height = uint(min(560, 140+len(vars)*(8+4*k)))
+	if err := f.AddChart(name, fmt.Sprintf("I%d", top), stateChart); err != nil {
 		return err
 	}
-	row = max(row+len(vars)+3, top+22)
+	row = max(row+len(vars)+3, top+int(stateChart.Dimension.Height)/20+2) // rows of 20 px: the chart ends above the next section
 
 	// 3. Group sizes and mean silhouettes. Printed, two charts go on a page and a page break
 	// comes before every other section, so that no chart is cut in two.
@@ -110,6 +114,8 @@ func chartsSheet(f *excelize.File, st *styles, r *Result) error {
 	}
 	sizeChart := chart(excelize.Col, "Group sizes", []excelize.ChartSeries{{Name: ref(name, 2, top, 2, top), Categories: ref(name, 1, top+1, 1, top+g), Values: ref(name, 2, top+1, 2, top+g),
 		Fill: excelize.Fill{Type: "pattern", Pattern: 1, Color: []string{colour(0)}}}}, "group", "participants")
+	zero := 0.0
+	sizeChart.YAxis.Minimum = &zero // bars compared by their lengths start at zero
 	if err := f.AddChart(name, fmt.Sprintf("I%d", top), narrow(sizeChart, false)); err != nil {
 		return err
 	}
@@ -149,24 +155,42 @@ func chartsSheet(f *excelize.File, st *styles, r *Result) error {
 	}
 	top = row
 	w.pageBreak(row)
-	w.text(1, row, "Groups", st.headerNum)
-	w.text(2, row, "gap", st.headerNum)
-	w.text(3, row, "stability", st.headerNum)
-	w.text(4, row, "silhouette", st.headerNum)
 	ng := len(r.Grouping.Scores)
-	for i, s := range r.Grouping.Scores {
-		w.num(1, row+1+i, float64(s.K), st.integer)
-		if ng > 1 {
-			w.num(2, row+1+i, s.Gap, st.dec3)
-			w.num(3, row+1+i, s.Stability, st.dec3)
+	w.text(1, row, "Groups", st.headerNum)
+	if r.Grouping.Method == cohort.Mixture {
+		// The mixture's number of groups is chosen by its criteria: the smaller, the better.
+		w.text(2, row, "BIC", st.headerNum)
+		w.text(3, row, "ICL", st.headerNum)
+		for i, s := range r.Grouping.Scores {
+			w.num(1, row+1+i, float64(s.K), st.integer)
+			w.num(2, row+1+i, s.BIC, st.integer)
+			w.num(3, row+1+i, s.ICL, st.integer)
 		}
-		w.num(4, row+1+i, s.Silhouette, st.dec3)
-	}
-	if ng > 1 {
-		ch := chart(excelize.Line, "Choosing the number of groups: gap statistic, bootstrap stability, silhouette", []excelize.ChartSeries{
-			lineSeries(name, 2, top, ng, 0), lineSeries(name, 3, top, ng, 1), lineSeries(name, 4, top, ng, 2)}, "number of groups", "value")
-		if err := f.AddChart(name, fmt.Sprintf("I%d", top), ch); err != nil {
-			return err
+		if ng > 1 {
+			ch := chart(excelize.Line, "Choosing the number of groups: BIC and ICL of the mixture (smaller is better)", []excelize.ChartSeries{
+				lineSeries(name, 2, top, ng, 0), lineSeries(name, 3, top, ng, 1)}, "number of groups", "criterion")
+			if err := f.AddChart(name, fmt.Sprintf("I%d", top), ch); err != nil {
+				return err
+			}
+		}
+	} else {
+		w.text(2, row, "gap", st.headerNum)
+		w.text(3, row, "stability", st.headerNum)
+		w.text(4, row, "silhouette", st.headerNum)
+		for i, s := range r.Grouping.Scores {
+			w.num(1, row+1+i, float64(s.K), st.integer)
+			if ng > 1 {
+				w.num(2, row+1+i, s.Gap, st.dec3)
+				w.num(3, row+1+i, s.Stability, st.dec3)
+			}
+			w.num(4, row+1+i, s.Silhouette, st.dec3)
+		}
+		if ng > 1 {
+			ch := chart(excelize.Line, "Choosing the number of groups: gap statistic, bootstrap stability, silhouette", []excelize.ChartSeries{
+				lineSeries(name, 2, top, ng, 0), lineSeries(name, 3, top, ng, 1), lineSeries(name, 4, top, ng, 2)}, "number of groups", "value")
+			if err := f.AddChart(name, fmt.Sprintf("I%d", top), ch); err != nil {
+				return err
+			}
 		}
 	}
 	row = max(row+ng+3, top+22)
@@ -218,11 +242,12 @@ func chartsSheet(f *excelize.File, st *styles, r *Result) error {
 	series = nil
 	for i := 0; i < g; i++ {
 		series = append(series, excelize.ChartSeries{Name: ref(name, 2+i, top, 2+i, top), Categories: ref(name, 1, top+1, 1, top+longest),
-			Values: ref(name, 2+i, top+1, 2+i, top+longest), Line: excelize.LineOptions{Width: 2.25},
+			Values: ref(name, 2+i, top+1, 2+i, top+longest), Line: excelize.LineOptions{Type: excelize.LineSolid, Width: 2.25},
 			Marker: excelize.ChartMarker{Symbol: "none"}, Fill: excelize.Fill{Type: "pattern", Pattern: 1, Color: []string{colour(i)}}})
 	}
-	silChart := chart(excelize.Line, "Members' silhouettes, best first, by group"+sampled, series, "rank of the member in its group", "silhouette")
-	silChart.XAxis.TickLabelSkip = max(1, longest/10)
+	// A scatter of lines: the ranks are numbers on the axis, labelled at round steps, where a
+	// line chart's categories stacked one label per member.
+	silChart := chart(excelize.Scatter, "Members' silhouettes, best first, by group"+sampled, series, "rank of the member in its group", "silhouette")
 	if err := f.AddChart(name, fmt.Sprintf("I%d", top), silChart); err != nil {
 		return err
 	}

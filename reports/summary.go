@@ -200,9 +200,9 @@ func sheetGuide(r *Result) [][2]string {
 // detailRows are the run's particulars in words.
 func detailRows(r *Result) [][2]string {
 	q, c := r.Quality, r.Counts()
-	window := "not known: bout lengths are in windows (give the window length with " + r.optionName("job.Options.Window") + ", or times in the order column)"
+	window := "not known: bout lengths are counted in windows"
 	if r.WindowLength > 0 {
-		window = fmt.Sprintf("%s (from %s); bout lengths are also given in minutes", r.WindowLength, r.WindowSource)
+		window = fmt.Sprintf("%s (from %s); bout lengths are given in minutes", r.WindowLength, r.WindowSource)
 	}
 	rows := [][2]string{
 		{"How it was done", howDone(r)},
@@ -215,13 +215,20 @@ func detailRows(r *Result) [][2]string {
 		{"Features", fmt.Sprintf("%d used: %s", len(r.Features), join(r.Features))},
 		{"Created", r.Created.UTC().Format("2006-01-02 15:04:05 UTC") + " by " + r.Tool + " " + r.Version},
 	}
-	if r.Grouping.Note != "" {
-		rows = append(rows, [2]string{"Note", r.Grouping.Note})
-	}
-	for _, n := range r.Notes {
-		rows = append(rows, [2]string{"Note", n})
+	if n := len(analystNotes(r)); n > 0 {
+		rows = append(rows, [2]string{"Notes on the method", fmt.Sprintf("%d, for the analyst, on the %s sheet", n, SheetSettings)})
 	}
 	return rows
+}
+
+// analystNotes are the run's notes on the method and the settings: for the analyst, on the
+// Settings sheet, not on the clinician's Summary.
+func analystNotes(r *Result) []string {
+	var notes []string
+	if r.Grouping.Note != "" {
+		notes = append(notes, r.Grouping.Note)
+	}
+	return append(notes, r.Notes...)
 }
 
 // howDone tells the method in words, without codes.
@@ -232,7 +239,10 @@ func howDone(r *Result) string {
 	var within string
 	switch r.Norm.Within.String() {
 	case "align":
-		within = "each participant's device was aligned with the movement states (how it sat turned on the wrist, and its offsets, were measured against the states and removed)"
+		within = "each participant's device was aligned with the movement states (its offsets were measured against the states and removed)"
+		if r.Norm != nil && r.Norm.Axes != nil {
+			within = "each participant's device was aligned with the movement states (how it sat turned on the body, and its offsets, were measured against the states and removed)"
+		}
 	case "rest":
 		within = "each participant's features were shifted by the median of their quietest windows, on the features that carry device offsets"
 	case "centre":

@@ -232,7 +232,7 @@ func participantsSheet(f *excelize.File, st *styles, r *Result) error {
 	if turn {
 		widths = append(widths, 11)
 	}
-	for i := 0; i < boutColumns(r, 2*k, 3*k); i++ {
+	for i := 0; i < 2*k; i++ {
 		widths = append(widths, 10)
 	}
 	streamed := 0
@@ -311,7 +311,7 @@ func groupsSheet(f *excelize.File, st *styles, r *Result) error {
 	if stable {
 		widths = []float64{8, 10, 11, 12, 60}
 	}
-	for i := 0; i < boutColumns(r, 2*k, 3*k); i++ {
+	for i := 0; i < 2*k; i++ {
 		widths = append(widths, 10)
 	}
 	t, err := newTable(f, st, SheetGroups, widths)
@@ -788,6 +788,11 @@ func settingsSheet(f *excelize.File, st *styles, r *Result) error {
 	if err := t.put(v{"tool version", st.text}, v{r.Tool + " " + r.Version, st.text}); err != nil {
 		return err
 	}
+	for _, n := range analystNotes(r) {
+		if err := t.put(v{"note on the method", st.text}, v{n, st.wrap}); err != nil {
+			return err
+		}
+	}
 	t.blank()
 	if err := t.put(v{"input file", st.header}, v{"SHA-256", st.header}, v{"rows", st.header}); err != nil {
 		return err
@@ -798,15 +803,6 @@ func settingsSheet(f *excelize.File, st *styles, r *Result) error {
 		}
 	}
 	return t.close(true)
-}
-
-// boutColumns is the number of share and bout columns: without the window length, shares and
-// bouts in windows; with it, bouts in minutes as well.
-func boutColumns(r *Result, without, with int) int {
-	if r.WindowLength > 0 {
-		return with
-	}
-	return without
 }
 
 // boutCell is a participant's mean bout length in a state, or NaN (an empty cell) for 0: a state
