@@ -3,8 +3,10 @@ package reports
 import (
 	"fmt"
 	"sort"
+	"strings"
 	"time"
 
+	"github.com/cohortmix/cohortmix/cohort"
 	"github.com/xuri/excelize/v2"
 )
 
@@ -19,6 +21,54 @@ type ChangeRow struct {
 	DistNow       float64 // to the centre of its group now
 	DistPrevious  float64 // to the centre of its previous group (NaN when none)
 	Atypical      bool    // farther from every group than almost all fitted members (assign)
+	// Probability is that of its group now under the mixture (the mixture method; NaN
+	// otherwise): what placed it there.
+	Probability float64
+}
+
+// MovedRows are the rows of participants who changed group, in the order of their ids.
+func (c *Changes) MovedRows() []ChangeRow {
+	var out []ChangeRow
+	for _, row := range c.Rows {
+		if row.Moved == "yes" {
+			out = append(out, row)
+		}
+	}
+	sort.SliceStable(out, func(a, b int) bool { return NaturalLess(out[a].ID+"\x00"+out[a].Wave, out[b].ID+"\x00"+out[b].Wave) })
+	return out
+}
+
+// MovedText names who moved, up to ten, with their groups before and now: "P7 (G1 → G2), …";
+// "no one" when no one did.
+func (c *Changes) MovedText() string {
+	moved := c.MovedRows()
+	if len(moved) == 0 {
+		return "no one"
+	}
+	var parts []string
+	for i, row := range moved {
+		if i == 10 {
+			parts = append(parts, fmt.Sprintf("and %d more", len(moved)-10))
+			break
+		}
+		who := row.ID
+		if row.Wave != "" {
+			who += " (wave " + row.Wave + ")"
+		}
+		parts = append(parts, fmt.Sprintf("%s: %s → %s", who, row.Previous, row.Now))
+	}
+	return fmt.Sprintf("%d — %s", len(moved), strings.Join(parts, "; "))
+}
+
+// returningPeople counts the people among the returning rows (a person's waves count once).
+func (c *Changes) returningPeople() int {
+	people := map[string]bool{}
+	for _, row := range c.Rows {
+		if row.Previous != "" {
+			people[row.ID] = true
+		}
+	}
+	return len(people)
 }
 
 // GroupChange is one group's fate.
@@ -56,11 +106,36 @@ func changesSheet(f *excelize.File, st *styles, r *Result) error {
 	if err != nil {
 		return err
 	}
-	intro := fmt.Sprintf("%s against %s: %d returning participants", c.Mode, c.Model, c.Returning)
+	// Counts say what they count: participant-waves and people apart when there are waves.
+	waves := r.Counts().Waves
+	returning := fmt.Sprintf("%d returning participants", c.Returning)
+	if waves {
+		returning = fmt.Sprintf("%d returning participant-waves of %d people", c.Returning, c.returningPeople())
+	}
+	intro := fmt.Sprintf("%s against %s: %s", c.Mode, c.Model, returning)
 	if c.ARI == c.ARI {
 		intro += fmt.Sprintf("; agreement of their old and new groups: adjusted Rand index %.3f", c.ARI)
 	}
 	if err := t.put(v{intro, st.note}); err != nil {
+		return err
+	}
+	if err := t.merge(8); err != nil {
+		return err
+	}
+	if err := t.put(v{"Moved to another group: " + c.MovedText(), st.warn}); err != nil {
+		return err
+	}
+	if err := t.merge(8); err != nil {
+		return err
+	}
+	how := "A participant has moved when its group now is not its group in the model. The distances are to the group centres in the grouping space."
+	if r.Grouping.Method == cohort.Mixture {
+		how = "A participant has moved when its group now is not its group in the model. The mixture puts each participant in its most probable group (the probability is shown); the distances to the group centres are given for reference and need not agree with it."
+	}
+	if err := t.put(v{how, st.note}); err != nil {
+		return err
+	}
+	if err := t.merge(8); err != nil {
 		return err
 	}
 	for _, n := range c.Notes {
@@ -69,7 +144,11 @@ func changesSheet(f *excelize.File, st *styles, r *Result) error {
 		}
 	}
 	t.blank()
-	if err := t.put(v{"group", st.header}, v{"status", st.header}, v{"members before", st.header}, v{"members after", st.header}, v{"centre drift", st.header}); err != nil {
+	unit := "participants"
+	if waves {
+		unit = "participant-waves"
+	}
+	if err := t.put(v{"group", st.header}, v{"status", st.header}, v{"members in the model", st.header}, v{unit + " in it now", st.header}, v{"centre drift", st.header}); err != nil {
 		return err
 	}
 	for _, g := range c.Groups {
@@ -89,24 +168,35 @@ func changesSheet(f *excelize.File, st *styles, r *Result) error {
 		}
 	}
 	t.blank()
-	if err := t.heading("participant", "wave", "previous group", "group now", "moved", "distance now", "distance to previous", "atypical"); err != nil {
+	if err := t.heading("participant", "wave", "previous group", "group now", "moved", "probability of the group now", "distance now", "distance to previous"); err != nil {
 		return err
 	}
 	rows := append([]ChangeRow(nil), c.Rows...)
-	// Ids in natural order (P2 before P10); waves of the same participant side by side.
+	// Who moved first, then those in no group, the new, and the rest; within each, ids in
+	// natural order (P2 before P10), waves of the same participant side by side.
+	rank := func(row ChangeRow) int {
+		switch {
+		case row.Moved == "yes":
+			return 0
+		case row.Atypical:
+			return 1
+		case row.Previous == "":
+			return 2
+		}
+		return 3
+	}
 	sort.SliceStable(rows, func(a, b int) bool {
+		if ra, rb := rank(rows[a]), rank(rows[b]); ra != rb {
+			return ra < rb
+		}
 		if rows[a].ID != rows[b].ID {
 			return NaturalLess(rows[a].ID, rows[b].ID)
 		}
 		return NaturalLess(rows[a].Wave, rows[b].Wave)
 	})
 	for _, row := range rows {
-		at := ""
-		if row.Atypical {
-			at = "atypical"
-		}
 		if err := t.put(v{row.ID, st.text}, v{row.Wave, st.text}, v{row.Previous, st.text}, v{row.Now, st.text}, v{row.Moved, st.text},
-			v{row.DistNow, st.dec3}, v{row.DistPrevious, st.dec3}, v{at, st.text}); err != nil {
+			v{row.Probability, st.dec3}, v{row.DistNow, st.dec3}, v{row.DistPrevious, st.dec3}); err != nil {
 			return err
 		}
 	}

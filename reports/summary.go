@@ -53,6 +53,11 @@ func summarySheet(f *excelize.File, st *styles, r *Result) error {
 			return err
 		}
 	}
+	if r.Changes != nil {
+		if err := put("Moved since the model", capital(r.Changes.MovedText())+" (see "+SheetChanges+")"); err != nil {
+			return err
+		}
+	}
 	if ws, ok := r.Grouping.WholeStability(); ok && ws < cohort.UnstableGrouping {
 		if err := put("The grouping as a whole", wholeUnstable(ws, r.Grouping.K)); err != nil {
 			return err

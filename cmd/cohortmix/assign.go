@@ -284,7 +284,7 @@ func assignChanges(m *reports.Model, res *reports.Result, model string) *reports
 	}
 	for _, u := range res.Units {
 		now := res.GroupNames[u.Group]
-		row := reports.ChangeRow{ID: u.ID, Wave: u.Wave, Now: now, DistNow: u.Distance, DistPrevious: math.NaN(), Atypical: u.Atypical}
+		row := reports.ChangeRow{ID: u.ID, Wave: u.Wave, Now: now, DistNow: u.Distance, DistPrevious: math.NaN(), Probability: u.Posterior, Atypical: u.Atypical}
 		row.Previous = lookupPrevious(byKey, byID, u.ID, u.Wave)
 		row.Moved = moved(row.Previous, now)
 		if u.Atypical {

@@ -158,7 +158,7 @@ func refreshChanges(prev *reports.Model, res *reports.Result, m *cohort.Matching
 	c := &reports.Changes{Mode: "refresh", Model: model, ModelCreated: prev.Created, ARI: math.NaN()}
 	var a, b []int
 	for i, u := range res.Units {
-		row := reports.ChangeRow{ID: u.ID, Wave: u.Wave, Now: res.GroupNames[u.Group], DistNow: u.Distance, DistPrevious: math.NaN()}
+		row := reports.ChangeRow{ID: u.ID, Wave: u.Wave, Now: res.GroupNames[u.Group], DistNow: u.Distance, DistPrevious: math.NaN(), Probability: u.Posterior}
 		if p := next.PrevGroup[i]; p >= 0 {
 			row.Previous = prev.Grouping.Names[p]
 			row.DistPrevious = cohort.SpaceDistance(method, m.Place(u.Share), m.PrevCentres[p])

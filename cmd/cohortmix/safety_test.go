@@ -554,3 +554,37 @@ func TestHeadersStandOverTheirNumbers(t *testing.T) {
 		t.Errorf("only %d headers over numbers were found; is the header fill still DDEBE8?", checked)
 	}
 }
+
+// Issue 29: Changes said "180 returning participants" for 120 people and mixed people with
+// participant-waves in its group counts; 2 who moved were lost among 7 pages, and the Summary
+// did not name them. Now the counts say what they count, who moved leads the sheet and is named
+// on the Summary.
+func TestChangesLeadWithWhoMoved(t *testing.T) {
+	dir := t.TempDir()
+	w1, w2 := filepath.Join(dir, "wave1.csv"), filepath.Join(dir, "wave2.csv")
+	if _, err := synth.WriteFile(w1, synth.Options{Participants: 40, Windows: 300, Seed: 21, Waves: true}); err != nil {
+		t.Fatal(err)
+	}
+	model := filepath.Join(dir, "m.json")
+	mustRun(t, "group", w1, "--wave", "wave", "--out", filepath.Join(dir, "r1.xlsx"), "--model", model, "--states", "5", "--groups", "3", "--quiet")
+	b, _ := os.ReadFile(w1)
+	os.WriteFile(w2, b, 0o644) // the same people again, as wave 2 (below)
+	rewriteCSV(t, w2, func(r, c int, h []string, s string) string {
+		if r > 0 && h[c] == "wave" {
+			return "2"
+		}
+		return s
+	})
+	out := filepath.Join(dir, "r2.xlsx")
+	mustRun(t, "refresh", "--previous", model, w1, w2, "--wave", "wave", "--out", out, "--states", "5", "--groups", "3", "--quiet")
+	changes := sheetText(t, out, "Changes")
+	if !strings.Contains(changes, "returning participant-waves of 40 people") || !strings.Contains(changes, "Moved to another group: ") {
+		t.Errorf("the Changes sheet does not count people apart or does not lead with who moved:\n%.600s", changes)
+	}
+	if !strings.Contains(changes, "members in the model|participant-waves in it now") {
+		t.Errorf("the group counts do not say what they count:\n%.800s", changes)
+	}
+	if summary := sheetText(t, out, "Summary"); !strings.Contains(summary, "Moved since the model|") {
+		t.Errorf("the Summary does not name who moved:\n%.600s", summary)
+	}
+}
