@@ -49,7 +49,7 @@ func chartsSheet(f *excelize.File, st *styles, r *Result) error {
 	top := row
 	w.text(1, row, "Group", st.header)
 	for s := 0; s < k; s++ {
-		w.text(2+s, row, r.StateNames[s], st.headerNum)
+		w.text(2+s, row, stateLabel(r, s), st.headerNum)
 	}
 	shares, sizes, sils := groupMeans(r)
 	for i := 0; i < g; i++ {
@@ -77,7 +77,7 @@ func chartsSheet(f *excelize.File, st *styles, r *Result) error {
 	vars := stateVariables(r, 12)
 	w.text(1, row, "Feature (z vs cohort)", st.header)
 	for s := 0; s < k; s++ {
-		w.text(2+s, row, r.StateNames[s], st.headerNum)
+		w.text(2+s, row, stateLabel(r, s), st.headerNum)
 	}
 	for i, j := range vars {
 		w.text(1, row+1+i, r.Features[j], st.text)

@@ -305,6 +305,15 @@ func Percent(x float64) string {
 	return fmt.Sprintf("%.0f%%", 100*x)
 }
 
+// stateLabel is a state's code with its plain name, "S2 stillness 1", for the charts' legends;
+// the code alone when the state has no name in words.
+func stateLabel(r *Result, s int) string {
+	if s < len(r.StateWords) && r.StateWords[s].Name != "" {
+		return r.StateNames[s] + " " + r.StateWords[s].Name
+	}
+	return r.StateNames[s]
+}
+
 // ShortNames are the plain names of all states, each with its code.
 func ShortNames(ws []StateWords) []string {
 	out := make([]string, len(ws))
