@@ -634,12 +634,3 @@ func (lc *LabelCounter) Table() (*LabelTable, error) {
 	}
 	return t, nil
 }
-
-// CompareLabels builds the states × labels table and its ARI and NMI.
-func CompareLabels(states [][]int, labels [][]string, k int) (*LabelTable, error) {
-	lc := NewLabelCounter(k)
-	for u := range labels {
-		lc.Add(states[u], labels[u])
-	}
-	return lc.Table()
-}

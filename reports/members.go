@@ -7,11 +7,6 @@ import (
 	"strings"
 )
 
-// WriteMembers writes the members CSV (MembersTo) to path atomically (see WriteAtomic).
-func WriteMembers(path string, r *Result, force bool) error {
-	return WriteAtomic(path, force, func(w io.Writer) error { return MembersTo(w, r) })
-}
-
 // MembersTo writes the plain participant, wave, group CSV for R, Stata or Python. Ids are
 // written exactly as they came in, so that they join back to the study's tables; a
 // participant's waves sit side by side. An atypical participant has no group and the flag

@@ -323,16 +323,6 @@ func ShortNames(ws []StateWords) []string {
 	return out
 }
 
-// IntensityOrder lists the states from the stillest to the most vigorous.
-func IntensityOrder(ws []StateWords) []int {
-	idx := make([]int, len(ws))
-	for i := range idx {
-		idx[i] = i
-	}
-	sort.SliceStable(idx, func(a, b int) bool { return ws[idx[a]].Score < ws[idx[b]].Score })
-	return idx
-}
-
 // rareState is the share of windows below which a state does not set an end of the intensity
 // scale (it is placed at the end it passes): one state of 0.06 % of the windows once stretched
 // the scale so that seven of twelve states read as stillness.

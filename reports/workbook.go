@@ -103,33 +103,6 @@ func WorkbookTo(w io.Writer, r *Result) error {
 
 func groupLabel(r *Result, g int) string { return r.GroupNames[g] }
 
-func touchedText(r *Result) string {
-	if r.Norm.Within.String() == "none" {
-		return "no features"
-	}
-	var names []string
-	for j, ok := range r.Norm.Touched {
-		if ok {
-			names = append(names, r.Norm.Features[j])
-		}
-	}
-	if len(names) == 0 {
-		return "no features (" + r.Norm.TouchedBy + " found none)"
-	}
-	return join(names) + ", chosen by " + r.Norm.TouchedBy
-}
-
-func pcaText(r *Result) string {
-	if r.Norm.PCA == nil {
-		return ", without PCA"
-	}
-	var total float64
-	for _, x := range r.Norm.PCA.Ratio {
-		total += x
-	}
-	return fmt.Sprintf(", then projected on %d principal components (%.1f%% of the variance)", len(r.Norm.PCA.Ratio), 100*total)
-}
-
 func choiceText(r *Result) string {
 	if r.Changes != nil && r.Changes.Mode == "assign" {
 		return "the model's groups, not refitted"
