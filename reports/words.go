@@ -271,7 +271,7 @@ func (w StateWords) Sentence() string {
 	if w.Name != "" {
 		head = capital(w.Name) + ": " + head
 	}
-	if w.Intensity != "" && w.Intensity != w.Name {
+	if w.Intensity != "" && !strings.HasPrefix(w.Name, w.Intensity) {
 		head += ", " + w.Intensity
 	}
 	parts = append(parts, head)
