@@ -351,15 +351,24 @@ type Signature struct {
 	Bouts    []int     // number of runs in each state
 	Counts   []int     // windows in each state
 	Windows  int
+	Gaps     int // interruptions of the recording that broke a bout (SignaturesBroken)
 }
 
 // Signatures summarizes a participant's state sequence (windows in order).
-func Signatures(labels []int, k int) Signature {
+func Signatures(labels []int, k int) Signature { return SignaturesBroken(labels, k, nil) }
+
+// SignaturesBroken is Signatures for a sequence with gaps: where gap[i] is set, window i starts
+// a new bout whatever the state before it (the recording was interrupted); Gaps counts them.
+func SignaturesBroken(labels []int, k int, gap []bool) Signature {
 	s := Signature{Share: make([]float64, k), MeanBout: make([]float64, k), Bouts: make([]int, k), Counts: make([]int, k), Windows: len(labels)}
 	for i, l := range labels {
 		s.Counts[l]++
 		s.Share[l]++
-		if i == 0 || labels[i-1] != l {
+		broken := i > 0 && gap != nil && gap[i]
+		if broken {
+			s.Gaps++
+		}
+		if i == 0 || labels[i-1] != l || broken {
 			s.Bouts[l]++
 		}
 	}

@@ -135,3 +135,17 @@ func TestDescriberMergeMatchesOneDescriber(t *testing.T) {
 		}
 	}
 }
+
+// Issue 30: a bout does not run across an interruption of the recording. States 0 0 | 0 1 1:
+// without the gap state 0 has one bout of 3 windows, with it two of 1.5.
+func TestSignaturesBrokenByGaps(t *testing.T) {
+	labels := []int{0, 0, 0, 1, 1}
+	whole := Signatures(labels, 2)
+	broken := SignaturesBroken(labels, 2, []bool{false, false, true, false, false})
+	if whole.Bouts[0] != 1 || whole.MeanBout[0] != 3 || whole.Gaps != 0 {
+		t.Errorf("without the gap: %+v", whole)
+	}
+	if broken.Bouts[0] != 2 || broken.MeanBout[0] != 1.5 || broken.Gaps != 1 || broken.Share[0] != whole.Share[0] || broken.Bouts[1] != 1 {
+		t.Errorf("with the gap: %+v", broken)
+	}
+}

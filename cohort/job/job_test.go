@@ -11,6 +11,7 @@ import (
 	"strconv"
 	"strings"
 	"testing"
+	"time"
 
 	"github.com/cohortmix/cohortmix/cluster"
 	"github.com/cohortmix/cohortmix/cohort"
@@ -180,5 +181,52 @@ func TestGroupLinesTellOnlyPrintedDifferences(t *testing.T) {
 	lines := groupLines(&cohort.Grouping{K: 2, Labels: []int{0, 0, 1, 1}}, sigs, []string{"S1", "S2", "S3"}, units, nil, 0)
 	if strings.Contains(lines[0], "S3") || !strings.Contains(lines[0], "more time in S1 (60% of their time against 50% on average)") {
 		t.Errorf("group 1: %s", lines[0])
+	}
+}
+
+// Issue 30: bouts were runs of consecutive rows whatever the time between them. gapsOf marks
+// the window after a step of more than 1.5 times the participant's usual one, in times and in
+// window numbers; the file's row order has no steps.
+func TestGapsOf(t *testing.T) {
+	dir := t.TempDir()
+	var ints, times strings.Builder
+	ints.WriteString("participant,window,f1\n")
+	times.WriteString("participant,window,f1\n")
+	start := time.Date(2026, 3, 2, 8, 0, 0, 0, time.UTC)
+	for w := 0; w < 60; w++ {
+		if w >= 20 && w < 40 { // twenty windows missing: one interruption
+			continue
+		}
+		fmt.Fprintf(&ints, "A,%d,%d\n", w, w%3)
+		fmt.Fprintf(&times, "A,%s,%d\n", start.Add(time.Duration(w)*time.Minute).Format(time.RFC3339), w%3)
+	}
+	for name, text := range map[string]string{"integers": ints.String(), "times": times.String()} {
+		p := filepath.Join(dir, name+".csv")
+		os.WriteFile(p, []byte(text), 0o644)
+		tab, err := cohort.Read(context.Background(), []string{p}, cohort.ReadOptions{})
+		if err != nil {
+			t.Fatal(err)
+		}
+		gaps, err := gapsOf(tab, 0)
+		tab.Close()
+		marked := []int{}
+		for i, g := range gaps {
+			if g {
+				marked = append(marked, i)
+			}
+		}
+		if err != nil || len(marked) != 1 || marked[0] != 20 {
+			t.Errorf("%s: gaps after windows %v (%v), want the 21st window read (index 20)", name, marked, err)
+		}
+	}
+	p := filepath.Join(dir, "rows.csv")
+	os.WriteFile(p, []byte(ints.String()), 0o644)
+	tab, err := cohort.Read(context.Background(), []string{p}, cohort.ReadOptions{Order: "-"})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer tab.Close()
+	if gaps, err := gapsOf(tab, 0); gaps != nil || err != nil {
+		t.Errorf("file order: %v, %v", gaps, err)
 	}
 }

@@ -742,6 +742,38 @@ func checkCounts(p *Plan, o Options) error {
 	return nil
 }
 
+// GapFactor is how many times its usual step the time from one window to the next must exceed
+// for the recording to count as interrupted there: a bout does not run across an interruption.
+const GapFactor = 1.5
+
+// gapsOf marks the windows of unit i that follow an interruption: a step of the order column
+// (times, or window numbers) more than GapFactor times the unit's median step. nil when the
+// table keeps the file's order, or the unit has no interruption.
+func gapsOf(t *cohort.Table, i int) ([]bool, error) {
+	if t.OrderKind != "time" && t.OrderKind != "integer" {
+		return nil, nil
+	}
+	ord, err := t.Order(i)
+	if err != nil || len(ord) < 3 {
+		return nil, err
+	}
+	steps := make([]float64, len(ord)-1)
+	for w := 1; w < len(ord); w++ {
+		steps[w-1] = float64(ord[w] - ord[w-1])
+	}
+	limit := GapFactor * cohort.Median(slices.Clone(steps))
+	var gaps []bool
+	for w, s := range steps {
+		if s > limit {
+			if gaps == nil {
+				gaps = make([]bool, len(ord))
+			}
+			gaps[w+1] = true
+		}
+	}
+	return gaps, nil
+}
+
 // AssignedUnit is what the assignment pass keeps of one unit.
 type AssignedUnit struct {
 	Ordinal   int
@@ -798,7 +830,11 @@ func AssignOf(ctx context.Context, t *cohort.Table, shard cohort.Shard, fit *nor
 			labels = states.Assign(*bp)
 		}
 		bufs.Put(bp)
-		au.Signature = profile.Signatures(labels, states.K)
+		gaps, err := gapsOf(t, i)
+		if err != nil {
+			return unitResult{}, err
+		}
+		au.Signature = profile.SignaturesBroken(labels, states.K, gaps)
 		au.Medians = make([]float64, d)
 		col := make([]float64, len(x)/d)
 		for j := 0; j < d; j++ {
@@ -853,8 +889,8 @@ func checkAssigned(au AssignedUnit, k, d int) error {
 		}
 		total += c
 	}
-	if s.Windows < 1 || total != s.Windows {
-		return fmt.Errorf("%d windows in its states, of %d", total, s.Windows)
+	if s.Windows < 1 || total != s.Windows || s.Gaps < 0 || s.Gaps >= s.Windows {
+		return fmt.Errorf("%d windows in its states, of %d, and %d gaps", total, s.Windows, s.Gaps)
 	}
 	dev := au.Device
 	if dev.Rotation != nil && len(dev.Rotation) != 9 || dev.AxisScale != nil && len(dev.AxisScale) != 3 || dev.AxisOffset != nil && len(dev.AxisOffset) != 3 {
@@ -920,6 +956,16 @@ func mergeAssigned(f *Fitted, units []UnitInfo, parts []*AssignPiece) error {
 	}
 	if seen != n {
 		return fmt.Errorf("job: %d units assigned of the %d the plan groups: %w; give the assignment piece of every shard", seen, n, ErrPiece)
+	}
+	gaps, gapped := 0, 0
+	for _, s := range f.Sigs {
+		gaps += s.Gaps
+		if s.Gaps > 0 {
+			gapped++
+		}
+	}
+	if gaps > 0 {
+		f.Notes = append(f.Notes, fmt.Sprintf("%d interruptions of the recording (a step to the next window over %.1f times the participant's usual one) in %d participants end the bout they fall in; the shares of time are not changed by them", gaps, GapFactor, gapped))
 	}
 	f.Desc = ds.Descriptions()
 	if lc != nil {
