@@ -16,6 +16,7 @@ import (
 	"github.com/cohortmix/cohortmix/cluster"
 	"github.com/cohortmix/cohortmix/cohort"
 	"github.com/cohortmix/cohortmix/cohort/synth"
+	"github.com/cohortmix/cohortmix/normalize"
 	"github.com/cohortmix/cohortmix/profile"
 )
 
@@ -228,5 +229,17 @@ func TestGapsOf(t *testing.T) {
 	defer tab.Close()
 	if gaps, err := gapsOf(tab, 0); gaps != nil || err != nil {
 		t.Errorf("file order: %v, %v", gaps, err)
+	}
+}
+
+// Issue 30: zero-heavy features were left linear with no word; the note names what was logged
+// and why each other feature was not.
+func TestLogNoteSaysWhatWasLogged(t *testing.T) {
+	fit := &normalize.Fit{Logged: []bool{true, false, false, false}, Axes: []int{3}}
+	norm := normalize.Options{Lowest: []float64{0.01, -2, 0, -1}}
+	got := logNote([]string{"vm_sd", "mean_z", "count", "mean_x"}, fit, norm)
+	want := "taken on a log scale, log(x + c) with c the feature's first quartile: vm_sd; left linear as they take negative values: mean_z; left linear as a quarter or more of their values are 0 (c would be 0): count"
+	if got != want {
+		t.Errorf("\n got %s\nwant %s", got, want)
 	}
 }

@@ -471,7 +471,42 @@ func fitScaling(ctx context.Context, p *Plan, samples []*SamplePiece) (*FitPiece
 		return nil, nil, err
 	}
 	fp.Norm = norm
+	if norm.Log {
+		fp.Notes = append(fp.Notes, logNote(p.Features, fp.Fit, norm))
+	}
 	return fp, units, nil
+}
+
+// logNote says which features were taken on a log scale, log(x + c) with c their first
+// quartile, and why each other one was not: it takes negative values, a quarter or more of its
+// values are 0 (c would be 0), or it is an axis mean.
+func logNote(features []string, fit *normalize.Fit, norm normalize.Options) string {
+	var logged, negative, zeros []string
+	for j, name := range features {
+		switch {
+		case fit.Logged[j]:
+			logged = append(logged, name)
+		case slices.Contains(fit.Axes, j):
+		case !(norm.Lowest[j] >= 0):
+			negative = append(negative, name)
+		default:
+			zeros = append(zeros, name)
+		}
+	}
+	list := func(xs []string) string {
+		if len(xs) == 0 {
+			return "none"
+		}
+		return strings.Join(xs, ", ")
+	}
+	note := "taken on a log scale, log(x + c) with c the feature's first quartile: " + list(logged)
+	if len(negative) > 0 {
+		note += "; left linear as they take negative values: " + list(negative)
+	}
+	if len(zeros) > 0 {
+		note += "; left linear as a quarter or more of their values are 0 (c would be 0): " + list(zeros)
+	}
+	return note
 }
 
 // fitStates fits the movement states on the sampled participants' windows and sets fp.States,
