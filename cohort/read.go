@@ -70,6 +70,11 @@ type ReadOptions struct {
 	// record and for the checks of later passes.
 	Pseudonym  func(id string) string
 	Pseudonyms string
+	// NonWear names a non-wear rule whose windows are left out of the table and counted
+	// (Unit.NonWear, Quality.WindowsNonWear): "" for none, or NonWearTroiano, which needs times
+	// in the order column and a column of activity counts, NonWearFeature or found by its name.
+	NonWear        string
+	NonWearFeature string
 	// Progress, when set, is told how many bytes of a file were read, of its size (0 when not
 	// known, as for standard input), and how many windows were read from all files so far; it is
 	// called from one goroutine at a time.
@@ -120,6 +125,7 @@ type Unit struct {
 	Labels   []string // known activity label per window, when a label column is given
 	Files    []string // the files its windows came from
 	Dropped  int      // windows dropped for missing cells
+	NonWear  int      // windows left out as non-wear (ReadOptions.NonWear)
 	Imputed  int      // cells imputed
 	Sorted   bool     // its windows were not in order in the input and were sorted
 }
@@ -144,6 +150,7 @@ type Note struct {
 type Quality struct {
 	UnitsIn, WindowsIn int
 	WindowsDropped     int // for missing cells, in units that were kept
+	WindowsNonWear     int // left out as non-wear (ReadOptions.NonWear), in units that were kept
 	WindowsExcluded    int // windows of excluded units
 	CellsImputed       int
 	Excluded           []Exclusion
@@ -163,6 +170,9 @@ type Quality struct {
 func QualityNotes(q Quality, order string) []string {
 	sorted, joined := q.SortedUnits, q.JoinedUnits
 	var notes []string
+	if q.WindowsNonWear > 0 {
+		notes = append(notes, fmt.Sprintf("%s windows of the participants kept fell in non-wear periods and were left out (the rule of Troiano et al. 2008: 60 minutes or more of zero counts, with interruptions of up to 2 minutes of at most 100 counts a minute)", Thousands(q.WindowsNonWear)))
+	}
 	if q.TrimmedCells > 0 {
 		notes = append(notes, fmt.Sprintf("%d id or wave cells had spaces around them (the first at %s); the spaces were removed, so \"P6 \" and \"P6\" are one participant", q.TrimmedCells, q.TrimmedAt))
 	}
@@ -1195,6 +1205,22 @@ func (r *reader) finish() (*Table, error) {
 	q.UnitsIn = r.seen
 	q.WindowsIn = r.rows
 	sortedUnits, merged := 0, 0
+	nonWearAt := -1 // the counts column of the non-wear rule
+	if r.opts.NonWear != "" {
+		if r.opts.NonWear != NonWearTroiano {
+			t.Close()
+			return nil, fmt.Errorf("cohort: non-wear rule %q: %w; use %s, or none", r.opts.NonWear, ErrBadOption, NonWearTroiano)
+		}
+		if r.orderKind != "time" {
+			t.Close()
+			return nil, &InputError{File: r.firstFile, Field: r.opts.Order, Msg: "the non-wear rule measures periods in minutes and needs times in the order column (ISO-8601); give times, or leave the rule out", Err: ErrOrder}
+		}
+		var err error
+		if nonWearAt, err = countsFeature(r.features, r.opts.NonWearFeature); err != nil {
+			t.Close()
+			return nil, &InputError{File: r.firstFile, Msg: err.Error(), Err: ErrNoColumn}
+		}
+	}
 	var x, clean []float64
 	for ui, ru := range r.units {
 		if ui%256 == 0 && r.ctx.Err() != nil {
@@ -1213,7 +1239,7 @@ func (r *reader) finish() (*Table, error) {
 		// stretch of the store or in several (a table sorted by time across participants) as
 		// long as they average minStretch windows; shorter ones are copied into one stretch,
 		// since reading them one by one in every pass would cost more than copying them once.
-		if !ru.unsorted && ru.missing == 0 && (len(ru.runs) == 1 || len(ru.runs)*minStretch <= n) {
+		if !ru.unsorted && ru.missing == 0 && nonWearAt < 0 && (len(ru.runs) == 1 || len(ru.runs)*minStretch <= n) {
 			if n < r.opts.MinWindows {
 				q.Excluded = append(q.Excluded, Exclusion{ID: u.ID, Wave: u.Wave, Ordinal: u.Ordinal, Windows: n,
 					Reason: fmt.Sprintf("%d usable windows, fewer than the minimum %d (cohort.ReadOptions.MinWindows)", n, r.opts.MinWindows)})
@@ -1266,6 +1292,15 @@ func (r *reader) finish() (*Table, error) {
 				}
 			}
 		}
+		// Non-wear: the windows of the rule's periods are left out, before anything else.
+		var nonWear []bool
+		if nonWearAt >= 0 {
+			times, counts := make([]int64, n), make([]float64, n)
+			for k, i := range idx {
+				times[k], counts[k] = ord(i), x[i*w+nonWearAt]
+			}
+			nonWear = troianoNonWear(times, counts, medianStep(times))
+		}
 		// Missing cells: drop the window, or impute the participant's median of the feature.
 		var med []float64
 		if r.opts.Missing == ImputeMedian && ru.missing > 0 {
@@ -1273,7 +1308,11 @@ func (r *reader) finish() (*Table, error) {
 		}
 		clean = clean[:0]
 		reason := ""
-		for _, i := range idx {
+		for k, i := range idx {
+			if nonWear != nil && nonWear[k] {
+				u.NonWear++
+				continue
+			}
 			row := x[i*w : (i+1)*w]
 			missing := 0
 			for _, v := range row[:d] {
@@ -1308,6 +1347,9 @@ func (r *reader) finish() (*Table, error) {
 			if u.Dropped > 0 {
 				reason += fmt.Sprintf("; %d dropped for missing cells", u.Dropped)
 			}
+			if u.NonWear > 0 {
+				reason += fmt.Sprintf("; %d left out as non-wear", u.NonWear)
+			}
 		}
 		if reason != "" {
 			q.Excluded = append(q.Excluded, Exclusion{ID: u.ID, Wave: u.Wave, Ordinal: u.Ordinal, Windows: n, Reason: reason})
@@ -1315,6 +1357,7 @@ func (r *reader) finish() (*Table, error) {
 			continue
 		}
 		q.WindowsDropped += u.Dropped
+		q.WindowsNonWear += u.NonWear
 		q.CellsImputed += u.Imputed
 		u.at, u.rows = t.store.n/int64(w), kept
 		if err := t.store.append(clean); err != nil {

@@ -66,11 +66,16 @@ type ModelRead struct {
 	Features        []string `json:",omitempty"` // the feature name patterns given (none: every numeric column)
 	Missing         string
 	MinWindows      int
+	// NonWear is the non-wear rule the windows were read with ("" for none), and
+	// NonWearFeature the counts column it was given (none: found by its name).
+	NonWear        string `json:",omitempty"`
+	NonWearFeature string `json:",omitempty"`
 }
 
 // ReadOf records the reading settings of a run.
 func ReadOf(read cohort.ReadOptions) ModelRead {
-	return ModelRead{ID: read.ID, Order: read.Order, Wave: read.Wave, Label: read.Label, Features: read.Features, Missing: read.Missing.String(), MinWindows: read.MinWindows}
+	return ModelRead{ID: read.ID, Order: read.Order, Wave: read.Wave, Label: read.Label, Features: read.Features, Missing: read.Missing.String(), MinWindows: read.MinWindows,
+		NonWear: read.NonWear, NonWearFeature: read.NonWearFeature}
 }
 
 // ModelFit is how a model was fitted, in the library's own terms (the settings of a run that

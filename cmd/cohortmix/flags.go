@@ -50,6 +50,7 @@ type mainFlags struct {
 	Features               []string
 	Missing                string
 	MinWindows             int
+	NonWear, NonWearColumn string
 	Within                 string
 	WithinFeatures         []string
 	Axes                   string
@@ -121,6 +122,8 @@ func (m *mainFlags) registerRead(cmd *cobra.Command) {
 	f.StringSliceVar(&m.Features, "features", nil, "feature name patterns, e.g. 'mean_*,vm_*' (default: every other numeric column)")
 	f.StringVar(&m.Missing, "missing", "drop", "missing feature cells: drop (the window) or impute (the participant's median)")
 	f.IntVar(&m.MinWindows, "min-windows", 20, "exclude participants with fewer usable windows")
+	f.StringVar(&m.NonWear, "non-wear", "none", "leave out windows the device was not worn: troiano (60 minutes or more of zero activity counts, Troiano et al. 2008; needs times and a counts column) or none")
+	f.StringVar(&m.NonWearColumn, "non-wear-column", "", "the activity-counts column of the non-wear rule (default: the feature named counts, count, cpm or axis1)")
 	f.StringVar(&m.Temp, "temp", "", "folder for temporary files of large inputs (default: the folder of --out, or the system's)")
 	f.BoolVar(&m.Quiet, "quiet", false, "print only the final summary")
 }
@@ -142,6 +145,13 @@ func (m *mainFlags) readOptions() (cohort.ReadOptions, error) {
 	}
 	if m.MinWindows < 1 {
 		return ro, flagErrorf("--min-windows %d: use a number ≥ 1", m.MinWindows)
+	}
+	switch m.NonWear {
+	case "none", "":
+	case cohort.NonWearTroiano:
+		ro.NonWear, ro.NonWearFeature = m.NonWear, m.NonWearColumn
+	default:
+		return ro, flagErrorf("--non-wear %q: use troiano or none", m.NonWear)
 	}
 	return ro, nil
 }
@@ -279,6 +289,7 @@ func (m *mainFlags) settings() []reports.Setting {
 	return []reports.Setting{
 		s("id column", m.ID), s("order column", m.Order), s("wave column", m.Wave), s("label column", m.Label),
 		s("feature patterns", strings.Join(m.Features, ",")), s("missing cells", m.Missing), s("minimum windows", strconv.Itoa(m.MinWindows)),
+		s("non-wear rule", m.NonWear), s("non-wear counts column", m.NonWearColumn),
 		s("within-participant step", m.Within), s("within-step features", strings.Join(m.WithinFeatures, ",")),
 		s("axis means (align)", m.Axes), s("turned with the axis means", m.Turn), s("log scale", m.Log), s("rule for a range of states", m.StatesRule), s("calibration of the axis means", m.Calibration), s("fits of the states", strconv.Itoa(m.Fits)), s("valley ratio", fmt.Sprint(m.Valley)),
 		s("offset ICC threshold", fmt.Sprint(m.OffsetICC)), s("rest share", fmt.Sprint(m.RestShare)),
@@ -452,7 +463,14 @@ var modelFlags = map[string]func(m *mainFlags, f *reports.ModelFit, r reports.Mo
 		}
 	},
 	"min-windows": func(m *mainFlags, _ *reports.ModelFit, r reports.ModelRead) { m.MinWindows = r.MinWindows },
-	"within":      func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) { m.Within = f.Within },
+	"non-wear": func(m *mainFlags, _ *reports.ModelFit, r reports.ModelRead) {
+		m.NonWear = "none"
+		if r.NonWear != "" {
+			m.NonWear = r.NonWear
+		}
+	},
+	"non-wear-column": func(m *mainFlags, _ *reports.ModelFit, r reports.ModelRead) { m.NonWearColumn = r.NonWearFeature },
+	"within":          func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) { m.Within = f.Within },
 	"within-features": func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) {
 		m.WithinFeatures = slices.Clone(f.WithinFeatures)
 	},

@@ -3,10 +3,12 @@ package main
 import (
 	"context"
 	"encoding/csv"
+	"fmt"
 	"os"
 	"path/filepath"
 	"strings"
 	"testing"
+	"time"
 
 	"github.com/cohortmix/cohortmix/cluster"
 	"github.com/cohortmix/cohortmix/cohort/synth"
@@ -265,5 +267,37 @@ func TestAssignReadsARenamedIDColumn(t *testing.T) {
 	env, _, errb = testEnv()
 	if code := run(context.Background(), env, []string{"assign", "--model", model, w2, "--id", "subject", "--missing", "guess", "--out", filepath.Join(dir, "y.xlsx")}); code != 2 || !strings.Contains(errb.String(), `--missing "guess": give drop or impute`) {
 		t.Errorf("a bad --missing: exit %d, %s", code, errb)
+	}
+}
+
+// Issue 30: non-wear was never recognised. With --non-wear troiano, the windows of 60 minutes or
+// more of zero counts are left out and counted, the workbook says so, and the model keeps the
+// rule for later waves.
+func TestNonWearIsLeftOut(t *testing.T) {
+	dir := t.TempDir()
+	var b strings.Builder
+	b.WriteString("participant,window,counts,vm_sd\n")
+	t0 := time.Date(2026, 3, 2, 8, 0, 0, 0, time.UTC)
+	for p := 0; p < 12; p++ {
+		for i := 0; i < 400; i++ {
+			c, sd := 40+(i*7+p)%300, 0.01+float64((i*3+p)%50)/100
+			if p%3 == 0 && i >= 100 && i < 220 { // two hours off the wrist
+				c, sd = 0, 0.001
+			}
+			fmt.Fprintf(&b, "P%d,%s,%d,%.3f\n", p, t0.Add(time.Duration(i)*time.Minute).Format(time.RFC3339), c, sd)
+		}
+	}
+	in := writeFile(t, dir, "c.csv", b.String())
+	model := filepath.Join(dir, "m.json")
+	mustRun(t, "group", in, "--non-wear", "troiano", "--out", filepath.Join(dir, "r.xlsx"), "--model", model, "--states", "3", "--quiet")
+	if quality := sheetText(t, filepath.Join(dir, "r.xlsx"), "Data quality"); !strings.Contains(quality, "480 windows of the participants kept fell in non-wear periods") {
+		t.Errorf("the workbook does not say what was left out as non-wear:\n%.1500s", quality)
+	}
+	if m, _ := os.ReadFile(model); !strings.Contains(string(m), `"NonWear": "troiano"`) {
+		t.Error("the model does not keep the non-wear rule")
+	}
+	env, _, errb := testEnv()
+	if code := run(context.Background(), env, []string{"group", in, "--non-wear", "choi", "--out", filepath.Join(dir, "x.xlsx")}); code != 2 || !strings.Contains(errb.String(), `--non-wear "choi": use troiano or none`) {
+		t.Errorf("an unknown rule: exit %d, %s", code, errb)
 	}
 }

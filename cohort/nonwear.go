@@ -1,0 +1,103 @@
+package cohort
+
+import (
+	"fmt"
+	"math"
+	"slices"
+	"strings"
+	"time"
+)
+
+// NonWearTroiano names the non-wear rule of Troiano et al. (2008, Med Sci Sports Exerc 40:181)
+// for activity counts: at least 60 consecutive minutes of zero counts, allowing interruptions of
+// up to 2 consecutive minutes of 1 to 100 counts a minute. (The rule as commonly applied; its
+// values are from memory, to be checked against the paper.)
+const NonWearTroiano = "troiano"
+
+// Troiano's rule in numbers: the shortest non-wear period, the longest interruption inside it
+// and the most counts a minute an interruption may hold.
+const (
+	troianoPeriod       = 60 * time.Minute
+	troianoInterruption = 2 * time.Minute
+	troianoMaxCounts    = 100
+)
+
+// countsFeature finds the column of activity counts among the features: the one named by
+// want, or else the first whose name holds the word counts, count, cpm or axis1 (not a log or a
+// rolling summary of them).
+func countsFeature(features []string, want string) (int, error) {
+	if want != "" {
+		if j := slices.Index(features, want); j >= 0 {
+			return j, nil
+		}
+		return -1, fmt.Errorf("the non-wear rule's counts column %q is not among the features (%s); name one with cohort.ReadOptions.NonWearFeature", want, strings.Join(features, ", "))
+	}
+	for j, name := range features {
+		words := strings.FieldsFunc(strings.ToLower(name), func(r rune) bool { return r == '_' || r == '-' || r == '.' || r == ' ' })
+		has := func(w string) bool { return slices.Contains(words, w) }
+		if (has("counts") || has("count") || has("cpm") || has("axis1")) && !has("log") && !has("sd") && !has("mean") && !has("rolling") {
+			return j, nil
+		}
+	}
+	return -1, fmt.Errorf("the non-wear rule %s needs a column of activity counts and none of the features is named like one (%s); name it with cohort.ReadOptions.NonWearFeature", NonWearTroiano, strings.Join(features, ", "))
+}
+
+// troianoNonWear marks the windows of one participant that fall in a non-wear period by the
+// rule of Troiano et al. 2008. times are the windows' start times (Unix ns, increasing) and
+// counts their activity counts; a window lasts step (the participant's usual time between
+// windows), its counts are scaled to a minute for the 100-count limit, and a time gap of more
+// than two steps ends a period. A period is a run of windows of zero counts, with interruptions
+// of at most 2 minutes of 1–100 counts a minute between zeros, lasting 60 minutes or more.
+func troianoNonWear(times []int64, counts []float64, step time.Duration) []bool {
+	n := len(times)
+	out := make([]bool, n)
+	if n == 0 || step <= 0 {
+		return out
+	}
+	perMinute := float64(time.Minute) / float64(step)
+	i := 0
+	for i < n {
+		if counts[i] != 0 {
+			i++
+			continue
+		}
+		// A period starts at a zero; it runs while windows are zeros, or short interruptions
+		// followed by a zero, with no gap in time.
+		start, last := i, i // last: the last zero of the period
+		j := i + 1
+		for j < n && time.Duration(times[j]-times[j-1]) <= 2*step {
+			if counts[j] == 0 {
+				last = j
+				j++
+				continue
+			}
+			k := j // an interruption: nonzero windows from j
+			for k < n && counts[k] != 0 && counts[k]*perMinute <= troianoMaxCounts && time.Duration(times[k]-times[k-1]) <= 2*step {
+				k++
+			}
+			if k >= n || counts[k] != 0 || time.Duration(times[k]-times[k-1]) > 2*step || time.Duration(times[k]-times[j]) > troianoInterruption {
+				break // too long, too high, or not followed by a zero: the period ends at last
+			}
+			j = k
+		}
+		if time.Duration(times[last]-times[start])+step >= troianoPeriod {
+			for w := start; w <= last; w++ {
+				out[w] = true
+			}
+		}
+		i = last + 1
+	}
+	return out
+}
+
+// medianStep is the median time between consecutive windows (0 with fewer than two).
+func medianStep(times []int64) time.Duration {
+	if len(times) < 2 {
+		return 0
+	}
+	steps := make([]float64, len(times)-1)
+	for i := range steps {
+		steps[i] = float64(times[i+1] - times[i])
+	}
+	return time.Duration(math.Round(Median(steps)))
+}

@@ -1,0 +1,100 @@
+package cohort
+
+import (
+	"context"
+	"fmt"
+	"strings"
+	"testing"
+	"time"
+)
+
+// minutes builds window start times, one every step, and counts from runs of (value, windows).
+func minutes(step time.Duration, runs ...[2]float64) ([]int64, []float64) {
+	var times []int64
+	var counts []float64
+	t0 := time.Date(2026, 3, 2, 0, 0, 0, 0, time.UTC)
+	for _, r := range runs {
+		for i := 0; i < int(r[1]); i++ {
+			times = append(times, t0.Add(time.Duration(len(times))*step).UnixNano())
+			counts = append(counts, r[0])
+		}
+	}
+	return times, counts
+}
+
+// The rule of Troiano et al. 2008 (as commonly applied; values from memory): 60 minutes or more
+// of zero counts, with interruptions of up to 2 minutes of 1–100 counts a minute. Each case's
+// expected periods follow from that definition by hand.
+func TestTroianoNonWear(t *testing.T) {
+	for _, c := range []struct {
+		name string
+		step time.Duration
+		runs [][2]float64
+		want int // windows marked
+	}{
+		{"70 minutes of zeros", time.Minute, [][2]float64{{500, 10}, {0, 70}, {500, 10}}, 70},
+		{"59 minutes of zeros: too short", time.Minute, [][2]float64{{500, 10}, {0, 59}, {500, 10}}, 0},
+		{"exactly 60 minutes", time.Minute, [][2]float64{{0, 60}}, 60},
+		{"30 + 2 minutes of 50 + 30: one period", time.Minute, [][2]float64{{0, 30}, {50, 2}, {0, 30}}, 62},
+		{"30 + 3 minutes of 50 + 30: the interruption is too long", time.Minute, [][2]float64{{0, 30}, {50, 3}, {0, 30}}, 0},
+		{"30 + 1 minute of 150 + 30: too many counts", time.Minute, [][2]float64{{0, 30}, {150, 1}, {0, 30}}, 0},
+		{"an interruption at the end is not part of it", time.Minute, [][2]float64{{0, 65}, {50, 2}, {800, 5}}, 65},
+		// 15-s windows: counts a window × 4 are counts a minute; 25 a window is 100 a minute.
+		{"15-s windows, 60 minutes", 15 * time.Second, [][2]float64{{0, 240}}, 240},
+		{"15-s windows, an interruption of 2 minutes at 100 a minute", 15 * time.Second, [][2]float64{{0, 120}, {25, 8}, {0, 120}}, 248},
+		{"15-s windows, 104 a minute", 15 * time.Second, [][2]float64{{0, 120}, {26, 8}, {0, 120}}, 0},
+	} {
+		times, counts := minutes(c.step, c.runs...)
+		got := 0
+		for _, m := range troianoNonWear(times, counts, c.step) {
+			if m {
+				got++
+			}
+		}
+		if got != c.want {
+			t.Errorf("%s: %d windows marked, want %d", c.name, got, c.want)
+		}
+	}
+	// A gap in time ends a period: 40 minutes, an hour missing, 40 minutes.
+	times, counts := minutes(time.Minute, [2]float64{0, 80})
+	for i := 40; i < 80; i++ {
+		times[i] += int64(time.Hour)
+	}
+	for _, m := range troianoNonWear(times, counts, time.Minute) {
+		if m {
+			t.Fatal("a period ran across a gap in the recording")
+		}
+	}
+}
+
+// Read with the rule, a participant's non-wear windows are left out and counted, and the table
+// says so; without times the rule is refused.
+func TestReadLeavesOutNonWear(t *testing.T) {
+	dir := t.TempDir()
+	var b strings.Builder
+	b.WriteString("participant,window,counts,vm\n")
+	t0 := time.Date(2026, 3, 2, 8, 0, 0, 0, time.UTC)
+	for _, id := range []string{"A", "B"} {
+		for i := 0; i < 300; i++ {
+			c := 300 + i%7
+			if id == "A" && i >= 100 && i < 190 { // 90 minutes off the wrist
+				c = 0
+			}
+			fmt.Fprintf(&b, "%s,%s,%d,%d.5\n", id, t0.Add(time.Duration(i)*time.Minute).Format(time.RFC3339), c, i%5)
+		}
+	}
+	p := write(t, dir, "c.csv", []byte(b.String()))
+	tab, err := Read(context.Background(), []string{p}, ReadOptions{NonWear: NonWearTroiano})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer tab.Close()
+	if tab.Units[0].NonWear != 90 || tab.Units[0].Windows() != 210 || tab.Units[1].NonWear != 0 || tab.Quality.WindowsNonWear != 90 ||
+		!strings.Contains(strings.Join(tab.Quality.Notes, ";"), "90 windows of the participants kept fell in non-wear periods") {
+		t.Errorf("A: %d non-wear, %d windows; B: %d; notes %v", tab.Units[0].NonWear, tab.Units[0].Windows(), tab.Units[1].NonWear, tab.Quality.Notes)
+	}
+	q := write(t, dir, "ints.csv", []byte("participant,window,counts\nA,1,0\nA,2,0\n"))
+	if _, err := Read(context.Background(), []string{q}, ReadOptions{NonWear: NonWearTroiano, MinWindows: 1}); err == nil || !strings.Contains(err.Error(), "needs times in the order column") {
+		t.Errorf("integer order: %v", err)
+	}
+}
