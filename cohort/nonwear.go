@@ -14,6 +14,24 @@ import (
 // values are from memory, to be checked against the paper.)
 const NonWearTroiano = "troiano"
 
+// NonWearAuto applies NonWearChoi where a table has activity counts and times, and no rule
+// otherwise (Quality.NonWearRule says which).
+const NonWearAuto = "auto"
+
+// NonWearChoi names the non-wear algorithm of Choi et al. (2011, Med Sci Sports Exerc 43:357)
+// for activity counts: at least 90 consecutive minutes of zero counts, allowing an interruption
+// of up to 2 minutes of nonzero counts when the 30 minutes before it and the 30 minutes after it
+// are zeros. (Values from memory, to be checked against the paper.)
+const NonWearChoi = "choi"
+
+// Choi's algorithm in numbers: the shortest non-wear period, the longest interruption and the
+// zeros it needs on each side.
+const (
+	choiPeriod       = 90 * time.Minute
+	choiInterruption = 2 * time.Minute
+	choiQuiet        = 30 * time.Minute
+)
+
 // Troiano's rule in numbers: the shortest non-wear period, the longest interruption inside it
 // and the most counts a minute an interruption may hold.
 const (
@@ -21,6 +39,12 @@ const (
 	troianoInterruption = 2 * time.Minute
 	troianoMaxCounts    = 100
 )
+
+// nonWearRule says each rule in words, for the notes.
+var nonWearRule = map[string]string{
+	NonWearTroiano: "the rule of Troiano et al. 2008: 60 minutes or more of zero counts, with interruptions of up to 2 minutes of at most 100 counts a minute",
+	NonWearChoi:    "the algorithm of Choi et al. 2011: 90 minutes or more of zero counts, with interruptions of up to 2 minutes that have 30 minutes of zeros before and after them",
+}
 
 // countsFeature finds the column of activity counts among the features: the one named by
 // want, or else the first whose name holds the word counts, count, cpm or axis1 (not a log or a
@@ -88,6 +112,72 @@ func troianoNonWear(times []int64, counts []float64, step time.Duration) []bool 
 		i = last + 1
 	}
 	return out
+}
+
+// choiNonWear marks the windows of one participant that fall in a non-wear period by the
+// algorithm of Choi et al. 2011 (see troianoNonWear for times, counts and step): a run of zero
+// counts with no gap in time, allowing interruptions of at most 2 minutes of any counts that have
+// 30 minutes of zeros before and after them, lasting 90 minutes or more.
+func choiNonWear(times []int64, counts []float64, step time.Duration) []bool {
+	n := len(times)
+	out := make([]bool, n)
+	if n == 0 || step <= 0 {
+		return out
+	}
+	joined := func(a, b int) bool { return time.Duration(times[b]-times[b-1]) <= 2*step }
+	// zerosFrom reports whether the windows from i on are zeros, without a gap, for d.
+	zerosFrom := func(i int, d time.Duration) bool {
+		for j := i; j < n; j++ {
+			if counts[j] != 0 || (j > i && !joined(j-1, j)) {
+				return false
+			}
+			if time.Duration(times[j]-times[i])+step >= d {
+				return true
+			}
+		}
+		return false
+	}
+	i := 0
+	for i < n {
+		if counts[i] != 0 {
+			i++
+			continue
+		}
+		start, last, quietFrom := i, i, i // quietFrom: where the current stretch of zeros began
+		j := i + 1
+		for j < n && joined(j-1, j) {
+			if counts[j] == 0 {
+				last = j
+				j++
+				continue
+			}
+			k := j
+			for k < n && counts[k] != 0 && joined(k-1, k) {
+				k++
+			}
+			if k >= n || !joined(k-1, k) || time.Duration(times[k]-times[j]) > choiInterruption ||
+				time.Duration(times[j]-times[quietFrom]) < choiQuiet || !zerosFrom(k, choiQuiet) {
+				break
+			}
+			j, quietFrom = k, k
+		}
+		if time.Duration(times[last]-times[start])+step >= choiPeriod {
+			for w := start; w <= last; w++ {
+				out[w] = true
+			}
+		}
+		i = last + 1
+	}
+	return out
+}
+
+// nonWearOf applies the named rule.
+func nonWearOf(rule string, times []int64, counts []float64) []bool {
+	step := medianStep(times)
+	if rule == NonWearChoi {
+		return choiNonWear(times, counts, step)
+	}
+	return troianoNonWear(times, counts, step)
 }
 
 // medianStep is the median time between consecutive windows (0 with fewer than two).

@@ -93,8 +93,54 @@ func TestReadLeavesOutNonWear(t *testing.T) {
 		!strings.Contains(strings.Join(tab.Quality.Notes, ";"), "90 windows of the participants kept fell in non-wear periods") {
 		t.Errorf("A: %d non-wear, %d windows; B: %d; notes %v", tab.Units[0].NonWear, tab.Units[0].Windows(), tab.Units[1].NonWear, tab.Quality.Notes)
 	}
+	// auto: Choi's algorithm where there are counts and times (the 90 minutes are just enough),
+	// nothing where there are no counts.
+	auto, err := Read(context.Background(), []string{p}, ReadOptions{NonWear: NonWearAuto})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if auto.Quality.NonWearRule != NonWearChoi || auto.Units[0].NonWear != 90 {
+		t.Errorf("auto: rule %q, %d windows", auto.Quality.NonWearRule, auto.Units[0].NonWear)
+	}
+	auto.Close()
+	plain := write(t, dir, "plain.csv", []byte(strings.ReplaceAll(b.String(), "counts,vm", "vm_sd,vm")))
+	if none, err := Read(context.Background(), []string{plain}, ReadOptions{NonWear: NonWearAuto}); err != nil || none.Quality.NonWearRule != "" || none.Quality.WindowsNonWear != 0 {
+		t.Errorf("auto without counts: %v", err)
+	} else {
+		none.Close()
+	}
 	q := write(t, dir, "ints.csv", []byte("participant,window,counts\nA,1,0\nA,2,0\n"))
 	if _, err := Read(context.Background(), []string{q}, ReadOptions{NonWear: NonWearTroiano, MinWindows: 1}); err == nil || !strings.Contains(err.Error(), "needs times in the order column") {
 		t.Errorf("integer order: %v", err)
+	}
+}
+
+// The algorithm of Choi et al. 2011 (values from memory): 90 minutes or more of zero counts,
+// with interruptions of up to 2 minutes of any counts that have 30 minutes of zeros before and
+// after them. Expected periods worked by hand from that definition.
+func TestChoiNonWear(t *testing.T) {
+	for _, c := range []struct {
+		name string
+		runs [][2]float64
+		want int
+	}{
+		{"95 minutes of zeros", [][2]float64{{800, 5}, {0, 95}, {800, 5}}, 95},
+		{"89 minutes: too short", [][2]float64{{800, 5}, {0, 89}, {800, 5}}, 0},
+		{"40 + 2 minutes of 500 + 50: one period", [][2]float64{{0, 40}, {500, 2}, {0, 50}}, 92},
+		{"20 + 2 + 80: too few zeros before the interruption", [][2]float64{{0, 20}, {500, 2}, {0, 80}}, 0},
+		{"40 + 2 + 25 then movement: too few zeros after it", [][2]float64{{0, 70}, {500, 2}, {0, 25}, {900, 5}}, 0},
+		{"40 + 3 + 60: the interruption is too long", [][2]float64{{0, 40}, {500, 3}, {0, 60}}, 0},
+		{"two interruptions, each with 30 quiet minutes around it", [][2]float64{{0, 35}, {300, 1}, {0, 35}, {300, 1}, {0, 35}}, 107},
+	} {
+		times, counts := minutes(time.Minute, c.runs...)
+		got := 0
+		for _, m := range choiNonWear(times, counts, time.Minute) {
+			if m {
+				got++
+			}
+		}
+		if got != c.want {
+			t.Errorf("%s: %d windows marked, want %d", c.name, got, c.want)
+		}
 	}
 }

@@ -71,8 +71,9 @@ type ReadOptions struct {
 	Pseudonym  func(id string) string
 	Pseudonyms string
 	// NonWear names a non-wear rule whose windows are left out of the table and counted
-	// (Unit.NonWear, Quality.WindowsNonWear): "" for none, or NonWearTroiano, which needs times
-	// in the order column and a column of activity counts, NonWearFeature or found by its name.
+	// (Unit.NonWear, Quality.WindowsNonWear): "" for none, NonWearChoi or NonWearTroiano, which
+	// need times in the order column and a column of activity counts (NonWearFeature, or found by
+	// its name), or NonWearAuto: Choi's where those are there, none otherwise.
 	NonWear        string
 	NonWearFeature string
 	// Progress, when set, is told how many bytes of a file were read, of its size (0 when not
@@ -149,9 +150,10 @@ type Note struct {
 // Quality accounts for every window and participant that came in.
 type Quality struct {
 	UnitsIn, WindowsIn int
-	WindowsDropped     int // for missing cells, in units that were kept
-	WindowsNonWear     int // left out as non-wear (ReadOptions.NonWear), in units that were kept
-	WindowsExcluded    int // windows of excluded units
+	WindowsDropped     int    // for missing cells, in units that were kept
+	WindowsNonWear     int    // left out as non-wear (ReadOptions.NonWear), in units that were kept
+	NonWearRule        string // the rule that found them
+	WindowsExcluded    int    // windows of excluded units
 	CellsImputed       int
 	Excluded           []Exclusion
 	DroppedFeatures    []Note
@@ -171,7 +173,7 @@ func QualityNotes(q Quality, order string) []string {
 	sorted, joined := q.SortedUnits, q.JoinedUnits
 	var notes []string
 	if q.WindowsNonWear > 0 {
-		notes = append(notes, fmt.Sprintf("%s windows of the participants kept fell in non-wear periods and were left out (the rule of Troiano et al. 2008: 60 minutes or more of zero counts, with interruptions of up to 2 minutes of at most 100 counts a minute)", Thousands(q.WindowsNonWear)))
+		notes = append(notes, fmt.Sprintf("%s windows of the participants kept fell in non-wear periods and were left out (%s)", Thousands(q.WindowsNonWear), nonWearRule[q.NonWearRule]))
 	}
 	if q.TrimmedCells > 0 {
 		notes = append(notes, fmt.Sprintf("%d id or wave cells had spaces around them (the first at %s); the spaces were removed, so \"P6 \" and \"P6\" are one participant", q.TrimmedCells, q.TrimmedAt))
@@ -1206,10 +1208,20 @@ func (r *reader) finish() (*Table, error) {
 	q.WindowsIn = r.rows
 	sortedUnits, merged := 0, 0
 	nonWearAt := -1 // the counts column of the non-wear rule
-	if r.opts.NonWear != "" {
-		if r.opts.NonWear != NonWearTroiano {
+	rule := r.opts.NonWear
+	if rule == NonWearAuto { // Choi's algorithm where it applies: activity counts with times
+		rule = ""
+		if _, err := countsFeature(r.features, r.opts.NonWearFeature); err == nil && r.orderKind == "time" {
+			rule = NonWearChoi
+		}
+	}
+	q0 := &t.Quality
+	q0.NonWearRule = rule
+	if rule != "" {
+		r.opts.NonWear = rule
+		if rule != NonWearTroiano && rule != NonWearChoi {
 			t.Close()
-			return nil, fmt.Errorf("cohort: non-wear rule %q: %w; use %s, or none", r.opts.NonWear, ErrBadOption, NonWearTroiano)
+			return nil, fmt.Errorf("cohort: non-wear rule %q: %w; use %s or %s, or none", r.opts.NonWear, ErrBadOption, NonWearChoi, NonWearTroiano)
 		}
 		if r.orderKind != "time" {
 			t.Close()
@@ -1299,7 +1311,7 @@ func (r *reader) finish() (*Table, error) {
 			for k, i := range idx {
 				times[k], counts[k] = ord(i), x[i*w+nonWearAt]
 			}
-			nonWear = troianoNonWear(times, counts, medianStep(times))
+			nonWear = nonWearOf(r.opts.NonWear, times, counts)
 		}
 		// Missing cells: drop the window, or impute the participant's median of the feature.
 		var med []float64

@@ -122,7 +122,7 @@ func (m *mainFlags) registerRead(cmd *cobra.Command) {
 	f.StringSliceVar(&m.Features, "features", nil, "feature name patterns, e.g. 'mean_*,vm_*' (default: every other numeric column)")
 	f.StringVar(&m.Missing, "missing", "drop", "missing feature cells: drop (the window) or impute (the participant's median)")
 	f.IntVar(&m.MinWindows, "min-windows", 20, "exclude participants with fewer usable windows")
-	f.StringVar(&m.NonWear, "non-wear", "none", "leave out windows the device was not worn: troiano (60 minutes or more of zero activity counts, Troiano et al. 2008; needs times and a counts column) or none")
+	f.StringVar(&m.NonWear, "non-wear", "auto", "leave out windows the device was not worn, from activity counts with times: choi (90 minutes or more of zero counts, Choi et al. 2011), troiano (60 minutes or more, Troiano et al. 2008), none, or auto (choi where there are counts and times)")
 	f.StringVar(&m.NonWearColumn, "non-wear-column", "", "the activity-counts column of the non-wear rule (default: the feature named counts, count, cpm or axis1)")
 	f.StringVar(&m.Temp, "temp", "", "folder for temporary files of large inputs (default: the folder of --out, or the system's)")
 	f.BoolVar(&m.Quiet, "quiet", false, "print only the final summary")
@@ -148,10 +148,10 @@ func (m *mainFlags) readOptions() (cohort.ReadOptions, error) {
 	}
 	switch m.NonWear {
 	case "none", "":
-	case cohort.NonWearTroiano:
+	case cohort.NonWearChoi, cohort.NonWearTroiano, cohort.NonWearAuto:
 		ro.NonWear, ro.NonWearFeature = m.NonWear, m.NonWearColumn
 	default:
-		return ro, flagErrorf("--non-wear %q: use troiano or none", m.NonWear)
+		return ro, flagErrorf("--non-wear %q: use auto, choi, troiano or none", m.NonWear)
 	}
 	return ro, nil
 }
@@ -464,7 +464,7 @@ var modelFlags = map[string]func(m *mainFlags, f *reports.ModelFit, r reports.Mo
 	},
 	"min-windows": func(m *mainFlags, _ *reports.ModelFit, r reports.ModelRead) { m.MinWindows = r.MinWindows },
 	"non-wear": func(m *mainFlags, _ *reports.ModelFit, r reports.ModelRead) {
-		m.NonWear = "none"
+		m.NonWear = "none" // a model from before the rule read every window
 		if r.NonWear != "" {
 			m.NonWear = r.NonWear
 		}

@@ -297,7 +297,7 @@ func TestNonWearIsLeftOut(t *testing.T) {
 		t.Error("the model does not keep the non-wear rule")
 	}
 	env, _, errb := testEnv()
-	if code := run(context.Background(), env, []string{"group", in, "--non-wear", "choi", "--out", filepath.Join(dir, "x.xlsx")}); code != 2 || !strings.Contains(errb.String(), `--non-wear "choi": use troiano or none`) {
+	if code := run(context.Background(), env, []string{"group", in, "--non-wear", "sleep", "--out", filepath.Join(dir, "x.xlsx")}); code != 2 || !strings.Contains(errb.String(), `--non-wear "sleep": use auto, choi, troiano or none`) {
 		t.Errorf("an unknown rule: exit %d, %s", code, errb)
 	}
 }

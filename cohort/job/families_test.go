@@ -230,7 +230,7 @@ func readFamilyDumps(t *testing.T, dir string) []*familyDump {
 
 var familiesRecover = flag.String("families.recover", "", "run the job with the defaults on family members: family:first-last[,…]")
 var familiesSeeds = flag.Int("families.seeds", 3, "tool seeds per member, for reproducibility")
-var familiesArgs = flag.String("families.opts", "", "options changed from the defaults, as key=value,… (states=4, fits=1, criterion=bic, method=ward-hellinger, calibration=off)")
+var familiesArgs = flag.String("families.opts", "", "options changed from the defaults, as key=value,… (states=4, fits=1, criterion=bic, method=ward-hellinger, calibration=off, nonwear=choi)")
 
 // The families benchmark: the whole job with the defaults (or -families.opts) on members of
 // every family, scored by the adjusted Rand index against the planted groups, each member run
@@ -336,6 +336,8 @@ func recoverMember(t *testing.T, fam synth.Family, seed uint64) (r struct {
 			}
 		case "calibration":
 			o.NoCalibration = v == "off"
+		case "nonwear":
+			o.Read.NonWear = v
 		default:
 			t.Fatalf("-families.opts: no option %s", k)
 		}

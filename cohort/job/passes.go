@@ -184,6 +184,7 @@ func MergeCensus(parts []*Census) (*Plan, error) {
 		cq := c.Quality
 		q.WindowsDropped += cq.WindowsDropped
 		q.WindowsNonWear += cq.WindowsNonWear
+		q.NonWearRule = cq.NonWearRule
 		q.WindowsExcluded += cq.WindowsExcluded
 		q.CellsImputed += cq.CellsImputed
 		q.SortedUnits += cq.SortedUnits
