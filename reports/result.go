@@ -24,6 +24,7 @@ type Setting struct{ Name, Value string }
 type UnitRow struct {
 	ID, Wave   string
 	Windows    int
+	NonWear    int // windows left out as non-wear (cohort.ReadOptions.NonWear)
 	Group      int
 	Silhouette float64
 	Distance   float64

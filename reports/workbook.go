@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"io"
 	"math"
+	"slices"
 
 	"github.com/cohortmix/cohortmix/cluster/groupstat"
 	"github.com/cohortmix/cohortmix/cohort"
@@ -199,6 +200,10 @@ func participantsSheet(f *excelize.File, st *styles, r *Result) error {
 		turn = turn || !math.IsNaN(u.Turn)
 	}
 	widths := []float64{idW, 8, 10, 9, 11, 11, 34}
+	nonWear := r.Quality.WindowsNonWear > 0
+	if nonWear {
+		widths = slices.Insert(widths, 3, 11)
+	}
 	if stay {
 		widths = append(widths, 13)
 	}
@@ -220,6 +225,9 @@ func participantsSheet(f *excelize.File, st *styles, r *Result) error {
 		return err
 	}
 	head := []string{"participant", "wave", "windows", "group", "probability of the group", "silhouette", "distance to centre", "flag"}
+	if nonWear {
+		head = slices.Insert(head, 3, "non-wear windows left out")
+	}
 	if stay {
 		head = append(head, "stays with its group (share of resamples)")
 	}
@@ -254,6 +262,9 @@ func participantsSheet(f *excelize.File, st *styles, r *Result) error {
 		}
 		cells := []v{{u.ID, st.text}, {u.Wave, st.text}, {u.Windows, st.integer}, {group, st.text},
 			{u.Posterior, st.dec3}, {u.Silhouette, st.dec3}, {u.Distance, st.dec3}, {u.Flag, st.text}}
+		if nonWear {
+			cells = slices.Insert(cells, 3, v{u.NonWear, st.integer})
+		}
 		if stay {
 			cells = append(cells, v{u.Stay, st.pct})
 		}

@@ -293,6 +293,9 @@ func TestNonWearIsLeftOut(t *testing.T) {
 	if quality := sheetText(t, filepath.Join(dir, "r.xlsx"), "Data quality"); !strings.Contains(quality, "480 windows of the participants kept fell in non-wear periods") {
 		t.Errorf("the workbook does not say what was left out as non-wear:\n%.1500s", quality)
 	}
+	if parts := sheetText(t, filepath.Join(dir, "r.xlsx"), "Participants"); !strings.Contains(parts, "non-wear windows left out") || !strings.Contains(parts, "|120|") {
+		t.Errorf("the Participants sheet does not give each one's non-wear windows:\n%.600s", parts)
+	}
 	if m, _ := os.ReadFile(model); !strings.Contains(string(m), `"NonWear": "troiano"`) {
 		t.Error("the model does not keep the non-wear rule")
 	}

@@ -405,7 +405,7 @@ func Describe(f *Fitted, stateNames, groupNames []string) (*reports.Result, erro
 	}
 	res.AtypicalCut = groupstat.Quantile(g.Distance, 0.99)
 	for i, u := range t.Units {
-		row := reports.UnitRow{ID: u.ID, Wave: u.Wave, Windows: sigs[i].Windows, Group: g.Labels[i],
+		row := reports.UnitRow{ID: u.ID, Wave: u.Wave, Windows: sigs[i].Windows, NonWear: u.NonWear, Group: g.Labels[i],
 			Silhouette: g.Silhouette[i], Distance: g.Distance[i], Share: sigs[i].Share, Bout: sigs[i].MeanBout, Stay: math.NaN(), Turn: math.NaN(), Posterior: math.NaN()}
 		if g.Posterior != nil {
 			row.Posterior = g.Posterior[i]

@@ -55,6 +55,7 @@ type UnitInfo struct {
 	ID, Wave string
 	Ordinal  int
 	Windows  int
+	NonWear  int // windows left out as non-wear
 }
 
 // FirstWindows are the first windows of one of the first units, from which the align step finds
@@ -96,7 +97,7 @@ func CensusOf(t *cohort.Table, o Options) (*Census, error) {
 		c.Lowest[j] = t.Lowest(j)
 	}
 	for u, un := range t.Units {
-		c.Units = append(c.Units, UnitInfo{ID: un.ID, Wave: un.Wave, Ordinal: un.Ordinal, Windows: un.Windows()})
+		c.Units = append(c.Units, UnitInfo{ID: un.ID, Wave: un.Wave, Ordinal: un.Ordinal, Windows: un.Windows(), NonWear: un.NonWear})
 		if u >= firstUnits {
 			continue
 		}
@@ -1020,7 +1021,7 @@ func Finish(ctx context.Context, fp *FitPiece, parts []*AssignPiece) (*Fitted, e
 	p, o := fp.Plan, fp.Plan.Options
 	t := &cohort.Table{Features: p.Features, OrderKind: p.OrderKind, HasLabels: p.HasLabels, Quality: p.Quality, Files: p.Files}
 	for _, u := range p.Units {
-		t.Units = append(t.Units, &cohort.Unit{ID: u.ID, Wave: u.Wave, Ordinal: u.Ordinal})
+		t.Units = append(t.Units, &cohort.Unit{ID: u.ID, Wave: u.Wave, Ordinal: u.Ordinal, NonWear: u.NonWear})
 	}
 	var shards []cohort.Shard
 	for _, ap := range parts {
