@@ -1,6 +1,7 @@
 package main
 
 import (
+	"bytes"
 	"context"
 	"encoding/csv"
 	"fmt"
@@ -289,7 +290,15 @@ func TestNonWearIsLeftOut(t *testing.T) {
 	}
 	in := writeFile(t, dir, "c.csv", b.String())
 	model := filepath.Join(dir, "m.json")
-	mustRun(t, "group", in, "--non-wear", "troiano", "--out", filepath.Join(dir, "r.xlsx"), "--model", model, "--states", "3", "--quiet")
+	mustRun(t, "group", in, "--non-wear", "troiano", "--out", filepath.Join(dir, "r.xlsx"), "--model", model, "--members", filepath.Join(dir, "m.csv"), "--states", "3", "--quiet")
+	// A run split in shards leaves out the same windows and gives the same members and sheet.
+	mustRun(t, "shard", "run", in, "--shards", "2", "--non-wear", "troiano", "--out", filepath.Join(dir, "s.xlsx"), "--members", filepath.Join(dir, "s.csv"), "--states", "3", "--quiet")
+	if a, b := readBytes(t, filepath.Join(dir, "m.csv")), readBytes(t, filepath.Join(dir, "s.csv")); !bytes.Equal(a, b) {
+		t.Error("the split run's members differ")
+	}
+	if a, b := sheetText(t, filepath.Join(dir, "r.xlsx"), "Participants"), sheetText(t, filepath.Join(dir, "s.xlsx"), "Participants"); a != b {
+		t.Error("the split run's Participants sheet differs")
+	}
 	if quality := sheetText(t, filepath.Join(dir, "r.xlsx"), "Data quality"); !strings.Contains(quality, "480 windows of the participants kept fell in non-wear periods") {
 		t.Errorf("the workbook does not say what was left out as non-wear:\n%.1500s", quality)
 	}
