@@ -601,26 +601,40 @@ func (s *parseSpec) addRow(c *parsedChunk, line int, cell func(int) string, col 
 // placed in a wave, and a wave of "" would be one of its own.
 const emptyWaveMsg = "wave is empty; fill in the wave of every row, or leave the wave column out"
 
-// parseOrderCell reads an order cell: an integer ('i') or an ISO-8601 time ('t', Unix ns) in
-// the years 1900–2200 (a time outside them is refused; see orderMsg).
+// parseOrderCell reads an order cell: an integer ('i') or an ISO-8601 time (Unix ns) in the
+// years 1900–2200, 'z' when it carries a UTC offset (or Z) and 't' when it does not (a time
+// outside those years is refused; see orderMsg).
 func parseOrderCell(cell string) (int64, byte, bool) {
 	s := strings.TrimSpace(cell)
 	if v, err := strconv.ParseInt(s, 10, 64); err == nil {
 		return v, 'i', true
 	}
-	if t, ok := parseTime(s); ok && plausibleTime(t) {
+	if t, zoned, ok := parseTimeZoned(s); ok && plausibleTime(t) {
+		if zoned {
+			return t.UnixNano(), 'z', true
+		}
 		return t.UnixNano(), 't', true
 	}
 	return 0, 0, false
 }
 
+// isTime tells whether an order kind is a time, with a UTC offset or without.
+func isTime(k byte) bool { return k == 't' || k == 'z' }
+
 func parseTime(s string) (time.Time, bool) {
-	for _, layout := range timeLayouts {
+	t, _, ok := parseTimeZoned(s)
+	return t, ok
+}
+
+// parseTimeZoned reads an ISO-8601 time, and tells whether it carries a UTC offset (the first
+// layout, RFC 3339, is the only one with one).
+func parseTimeZoned(s string) (time.Time, bool, bool) {
+	for i, layout := range timeLayouts {
 		if t, err := time.Parse(layout, s); err == nil {
-			return t, true
+			return t, i == 0, true
 		}
 	}
-	return time.Time{}, false
+	return time.Time{}, false, false
 }
 
 // plausibleTime tells whether t falls in 1900–2200: outside these years a recording's clock is

@@ -509,7 +509,7 @@ func orderText(c *parsedChunk, i, w int, orders []string) string {
 		return orders[i]
 	}
 	v := int64(math.Float64bits(c.vals[i*w+w-2]))
-	if c.kinds[i] == 't' {
+	if isTime(c.kinds[i]) {
 		return time.Unix(0, v).UTC().Format(time.RFC3339Nano)
 	}
 	return strconv.FormatInt(v, 10)

@@ -359,6 +359,7 @@ type reader struct {
 	firstFile string
 	orderKind string
 	orderAt   string // where the order kind was decided, for the mixed-order message
+	orderZone string // times: "with a UTC offset" or "without a UTC offset"; "" for integers
 	hasLabels bool
 	byKey     map[string]*rawUnit
 	units     []*rawUnit
@@ -722,18 +723,34 @@ func (r *reader) checkKinds(p string, header []string, ro roles, c *parsedChunk)
 		return nil
 	}
 	for _, cell := range c.cells {
-		kind := "integer"
-		if c.kinds[cell.row] == 't' {
-			kind = "time"
+		if err := r.checkOrderKind(p, c.line(cell.row, len(r.features)+2), cell.col, header[ro.order], cell.text, c.kinds[cell.row]); err != nil {
+			return err
 		}
-		line := c.line(cell.row, len(r.features)+2)
-		if r.orderKind == "" { // the first window of all decides
-			r.orderKind, r.orderAt = kind, fmt.Sprintf("%s:%d", p, line)
+	}
+	return nil
+}
+
+// checkOrderKind checks an order cell's kind against the first window's: integers or times,
+// and times all with a UTC offset or all without (mixed, they would interleave by an hour or
+// more without a word).
+func (r *reader) checkOrderKind(p string, line, col int, field, text string, k byte) error {
+	kind, zone := "integer", ""
+	if isTime(k) {
+		kind, zone = "time", "without a UTC offset"
+		if k == 'z' {
+			zone = "with a UTC offset"
 		}
-		if kind != r.orderKind {
-			return &InputError{File: p, Line: line, Column: cell.col, Field: header[ro.order],
-				Msg: fmt.Sprintf("%q is %s but the order column held %ss from %s on; use one kind throughout", cell.text, article(kind), r.orderKind, r.orderAt), Err: ErrOrder}
-		}
+	}
+	if r.orderKind == "" { // the first window of all decides
+		r.orderKind, r.orderZone, r.orderAt = kind, zone, fmt.Sprintf("%s:%d", p, line)
+	}
+	switch {
+	case kind != r.orderKind:
+		return &InputError{File: p, Line: line, Column: col, Field: field,
+			Msg: fmt.Sprintf("%q is %s but the order column held %ss from %s on; use one kind throughout", text, article(kind), r.orderKind, r.orderAt), Err: ErrOrder}
+	case zone != r.orderZone:
+		return &InputError{File: p, Line: line, Column: col, Field: field,
+			Msg: fmt.Sprintf("%q is a time %s but the order column held times %s from %s on; give every time in one form (all in UTC, say)", text, zone, r.orderZone, r.orderAt), Err: ErrOrder}
 	}
 	return nil
 }
@@ -1095,15 +1112,8 @@ func (r *reader) parseOrder(p string, pos func(int) (int, int), col int, name, c
 	if !ok {
 		return 0, &InputError{File: p, Line: l, Column: c, Field: name, Msg: orderMsg(cell), Err: ErrOrder}
 	}
-	kind := "integer"
-	if k == 't' {
-		kind = "time"
-	}
-	if r.orderKind == "" {
-		r.orderKind = kind
-		r.orderAt = fmt.Sprintf("%s:%d", p, l)
-	} else if r.orderKind != kind {
-		return 0, &InputError{File: p, Line: l, Column: c, Field: name, Msg: fmt.Sprintf("%q is %s but the order column held %ss from %s on; use one kind throughout", cell, article(kind), r.orderKind, r.orderAt), Err: ErrOrder}
+	if err := r.checkOrderKind(p, l, c, name, cell, k); err != nil {
+		return 0, err
 	}
 	return v, nil
 }

@@ -109,6 +109,11 @@ func TestReadErrors(t *testing.T) {
 		// column is a feature (numbers follow), and the text is named.
 		{"text in the first row of a numeric column", map[string][]byte{"a.csv": []byte(strings.Replace(good, "A,0,0.5,0", "A,0,low,0", 1))}, ReadOptions{},
 			`a.csv:2:5: f1: "low" is not a number; feature cells hold numbers, or are empty or NA when missing (leave text columns out with cohort.ReadOptions.Features)`, ErrNotNumber},
+		// Issue 30: naive and +01:00 times in one participant were interleaved silently.
+		{"times with and without a UTC offset", map[string][]byte{"a.csv": []byte("participant,window,f1\nA,2026-03-02T08:00:00,1\nA,2026-03-02T08:01:00+01:00,2\n")}, ReadOptions{},
+			`a.csv:3:3: window: "2026-03-02T08:01:00+01:00" is a time with a UTC offset but the order column held times without a UTC offset from a.csv:2 on; give every time in one form (all in UTC, say)`, ErrOrder},
+		{"times with and without a UTC offset, in a later chunk", map[string][]byte{"a.csv": []byte("participant,window,f1\nA,2026-03-02T08:00:00Z,1\nA,2026-03-02T08:01:00Z,2\nA,2026-03-02T08:02:00,3\n")}, ReadOptions{},
+			`a.csv:4:3: window: "2026-03-02T08:02:00" is a time without a UTC offset but the order column held times with a UTC offset from a.csv:2 on; give every time in one form (all in UTC, say)`, ErrOrder},
 		{"digits with underscores", map[string][]byte{"a.csv": []byte(strings.Replace(good, "A,1,1.5", "A,1,1_000", 1))}, ReadOptions{},
 			`a.csv:3:5: f1: "1_000" is not a number; feature cells hold numbers, or are empty or NA when missing (leave text columns out with cohort.ReadOptions.Features)`, ErrNotNumber},
 		{"a hexadecimal float", map[string][]byte{"a.csv": []byte(strings.Replace(good, "A,1,1.5", "A,1,0x1p-2", 1))}, ReadOptions{},

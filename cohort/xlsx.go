@@ -135,7 +135,7 @@ func (r *reader) readXLSX(p string) (err error) {
 func sheetDate(cell string) (int64, byte, bool) {
 	serial, err := strconv.ParseFloat(strings.TrimSpace(cell), 64)
 	if err != nil {
-		if v, k, ok := parseOrderCell(cell); ok && k == 't' {
+		if v, k, ok := parseOrderCell(cell); ok && isTime(k) {
 			return v, k, ok
 		}
 		return 0, 0, false
