@@ -337,7 +337,7 @@ func recoverMember(t *testing.T, fam synth.Family, seed uint64) (r struct {
 		case "calibration":
 			o.NoCalibration = v == "off"
 		case "nonwear":
-			o.Read.NonWear = v
+			o.Read.NonWear = strings.TrimPrefix(v, "none") // none: no rule
 		default:
 			t.Fatalf("-families.opts: no option %s", k)
 		}
