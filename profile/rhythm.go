@@ -2,6 +2,8 @@ package profile
 
 import (
 	"math"
+	"slices"
+	"strings"
 	"time"
 )
 
@@ -128,6 +130,27 @@ func RhythmOf(times []int64, activity []float64) Rhythm {
 		out.RA = (out.M10 - out.L5) / (out.M10 + out.L5)
 	}
 	return out
+}
+
+// ActivityFeature picks the feature the rhythm is read on, by its name: activity counts
+// (counts, count, cpm, axis1), else ENMO, else the mean amplitude deviation (mad), else the
+// first measure of how much the signal varies (sd, std); -1 when none is there. Logged or
+// rolling versions are passed over.
+func ActivityFeature(features []string) int {
+	for _, group := range [][]string{{"counts", "count", "cpm", "axis1"}, {"enmo"}, {"mad"}, {"sd", "std"}} {
+		for j, name := range features {
+			words := strings.FieldsFunc(strings.ToLower(name), func(r rune) bool { return r == '_' || r == '-' || r == '.' || r == ' ' })
+			if slices.Contains(words, "log") || slices.Contains(words, "rolling") || slices.Contains(words, "mean10") {
+				continue
+			}
+			for _, w := range group {
+				if slices.Contains(words, w) {
+					return j
+				}
+			}
+		}
+	}
+	return -1
 }
 
 // floorDiv is a/b rounded down (times before 1970 are negative).

@@ -25,6 +25,7 @@ type UnitRow struct {
 	ID, Wave   string
 	Windows    int
 	NonWear    int // windows left out as non-wear (cohort.ReadOptions.NonWear)
+	Rhythm     profile.Rhythm
 	Group      int
 	Silhouette float64
 	Distance   float64

@@ -213,6 +213,15 @@ func participantsSheet(f *excelize.File, st *styles, r *Result) error {
 	for i := 0; i < 2*k; i++ {
 		widths = append(widths, 10)
 	}
+	rhythm := false // the rest-activity measures, where they could be read
+	for _, u := range r.Units {
+		rhythm = rhythm || !math.IsNaN(u.Rhythm.IS)
+	}
+	if rhythm {
+		for range rhythmHeads {
+			widths = append(widths, 11)
+		}
+	}
 	streamed := 0
 	if len(r.Units) > streamRows {
 		streamed = 1 + len(r.Units)
@@ -245,6 +254,9 @@ func participantsSheet(f *excelize.File, st *styles, r *Result) error {
 		} else {
 			head = append(head, "bout "+r.StateNames[s]+" (windows)")
 		}
+	}
+	if rhythm {
+		head = append(head, rhythmHeads...)
 	}
 	text := map[string]bool{"participant": true, "wave": true, "group": true, "flag": true}
 	numeric := make([]bool, len(head))
@@ -280,6 +292,16 @@ func participantsSheet(f *excelize.File, st *styles, r *Result) error {
 			} else {
 				cells = append(cells, v{boutCell(x), st.dec2})
 			}
+		}
+		if rhythm {
+			rh := u.Rhythm
+			onset := func(h int) any {
+				if h < 0 {
+					return nil
+				}
+				return h
+			}
+			cells = append(cells, v{rh.IS, st.dec3}, v{rh.IV, st.dec3}, st.sig3(rh.L5), v{onset(rh.L5Onset), st.integer}, st.sig3(rh.M10), v{onset(rh.M10Onset), st.integer}, v{rh.RA, st.dec3})
 		}
 		if err := t.put(cells...); err != nil {
 			return err
@@ -788,6 +810,9 @@ func settingsSheet(f *excelize.File, st *styles, r *Result) error {
 	}
 	return t.close(true)
 }
+
+// rhythmHeads are the Participants sheet's columns of rest-activity measures.
+var rhythmHeads = []string{"interdaily stability (IS)", "intradaily variability (IV)", "L5 (least active 5 h)", "L5 onset (hour)", "M10 (most active 10 h)", "M10 onset (hour)", "relative amplitude (RA)"}
 
 // boutCell is a participant's mean bout length in a state, or NaN (an empty cell) for 0: a state
 // it never entered has no bout length.

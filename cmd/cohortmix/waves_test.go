@@ -7,6 +7,8 @@ import (
 	"fmt"
 	"os"
 	"path/filepath"
+	"slices"
+	"strconv"
 	"strings"
 	"testing"
 	"time"
@@ -311,5 +313,32 @@ func TestNonWearIsLeftOut(t *testing.T) {
 	env, _, errb := testEnv()
 	if code := run(context.Background(), env, []string{"group", in, "--non-wear", "sleep", "--out", filepath.Join(dir, "x.xlsx")}); code != 2 || !strings.Contains(errb.String(), `--non-wear "sleep": use auto, choi, troiano or none`) {
 		t.Errorf("an unknown rule: exit %d, %s", code, errb)
+	}
+}
+
+// Issue 30, point 7: with times over two days or more, the Participants sheet gives each
+// participant's rest-activity measures (values checked against numpy in profile).
+func TestRhythmOnTheParticipantsSheet(t *testing.T) {
+	dir := t.TempDir()
+	in := filepath.Join(dir, "c.csv")
+	if _, err := synth.WriteFile(in, synth.Options{Participants: 12, Windows: 3000, Seed: 7, Times: true}); err != nil {
+		t.Fatal(err)
+	}
+	out := filepath.Join(dir, "r.xlsx")
+	mustRun(t, "group", in, "--out", out, "--states", "4", "--quiet")
+	f, err := excelize.OpenFile(out)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer f.Close()
+	rows, _ := f.GetRows("Participants")
+	col := slices.Index(rows[0], "interdaily stability (IS)")
+	if col < 0 || slices.Index(rows[0], "relative amplitude (RA)") < 0 {
+		t.Fatalf("no rhythm columns in %v", rows[0])
+	}
+	for _, r := range rows[1:] {
+		if v, err := strconv.ParseFloat(r[col], 64); err != nil || v < 0 || v > 1 {
+			t.Errorf("%s: IS %q", r[0], r[col])
+		}
 	}
 }

@@ -70,6 +70,7 @@ type Fitted struct {
 	Fit      *normalize.Fit
 	States   *profile.States
 	Sigs     []profile.Signature
+	Rhythm   []profile.Rhythm // each unit's rest-activity measures (NaN where they cannot be read)
 	Medians  [][]float64           // each unit's median of each feature
 	Desc     []profile.Description // the states in the original units
 	Labels   *profile.LabelTable   // states × known labels, when labels are given
@@ -406,7 +407,10 @@ func Describe(f *Fitted, stateNames, groupNames []string) (*reports.Result, erro
 	res.AtypicalCut = groupstat.Quantile(g.Distance, 0.99)
 	for i, u := range t.Units {
 		row := reports.UnitRow{ID: u.ID, Wave: u.Wave, Windows: sigs[i].Windows, NonWear: u.NonWear, Group: g.Labels[i],
-			Silhouette: g.Silhouette[i], Distance: g.Distance[i], Share: sigs[i].Share, Bout: sigs[i].MeanBout, Stay: math.NaN(), Turn: math.NaN(), Posterior: math.NaN()}
+			Silhouette: g.Silhouette[i], Distance: g.Distance[i], Share: sigs[i].Share, Bout: sigs[i].MeanBout, Stay: math.NaN(), Turn: math.NaN(), Posterior: math.NaN(), Rhythm: profile.NoRhythm}
+		if f.Rhythm != nil {
+			row.Rhythm = f.Rhythm[i]
+		}
 		if g.Posterior != nil {
 			row.Posterior = g.Posterior[i]
 		}

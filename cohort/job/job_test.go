@@ -208,7 +208,7 @@ func TestGapsOf(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
-		gaps, err := gapsOf(tab, 0)
+		gaps, _, err := gapsOf(tab, 0)
 		tab.Close()
 		marked := []int{}
 		for i, g := range gaps {
@@ -227,7 +227,7 @@ func TestGapsOf(t *testing.T) {
 		t.Fatal(err)
 	}
 	defer tab.Close()
-	if gaps, err := gapsOf(tab, 0); gaps != nil || err != nil {
+	if gaps, _, err := gapsOf(tab, 0); gaps != nil || err != nil {
 		t.Errorf("file order: %v, %v", gaps, err)
 	}
 }

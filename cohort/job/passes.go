@@ -786,14 +786,15 @@ const GapFactor = 1.5
 
 // gapsOf marks the windows of unit i that follow an interruption: a step of the order column
 // (times, or window numbers) more than GapFactor times the unit's median step. nil when the
-// table keeps the file's order, or the unit has no interruption.
-func gapsOf(t *cohort.Table, i int) ([]bool, error) {
+// table keeps the file's order, or the unit has no interruption. The unit's order keys come
+// with them (nil in the file's order).
+func gapsOf(t *cohort.Table, i int) ([]bool, []int64, error) {
 	if t.OrderKind != "time" && t.OrderKind != "integer" {
-		return nil, nil
+		return nil, nil, nil
 	}
 	ord, err := t.Order(i)
 	if err != nil || len(ord) < 3 {
-		return nil, err
+		return nil, ord, err
 	}
 	steps := make([]float64, len(ord)-1)
 	for w := 1; w < len(ord); w++ {
@@ -809,13 +810,14 @@ func gapsOf(t *cohort.Table, i int) ([]bool, error) {
 			gaps[w+1] = true
 		}
 	}
-	return gaps, nil
+	return gaps, ord, nil
 }
 
 // AssignedUnit is what the assignment pass keeps of one unit.
 type AssignedUnit struct {
 	Ordinal   int
 	Signature profile.Signature
+	Rhythm    profile.Rhythm // rest-activity measures; NaN without times or on a short recording
 	Medians   []float64 // the unit's median of each feature
 	Device    normalize.Device
 }
@@ -843,6 +845,10 @@ func AssignOf(ctx context.Context, t *cohort.Table, shard cohort.Shard, fit *nor
 		lc = profile.NewLabelCounter(states.K)
 	}
 	d := len(t.Features)
+	activity := -1 // the feature the rest-activity measures are read on, with times
+	if t.OrderKind == "time" {
+		activity = profile.ActivityFeature(t.Features)
+	}
 	type unitResult struct {
 		desc   *profile.Describer
 		labels []int
@@ -868,11 +874,19 @@ func AssignOf(ctx context.Context, t *cohort.Table, shard cohort.Shard, fit *nor
 			labels = states.Assign(*bp)
 		}
 		bufs.Put(bp)
-		gaps, err := gapsOf(t, i)
+		gaps, ord, err := gapsOf(t, i)
 		if err != nil {
 			return unitResult{}, err
 		}
 		au.Signature = profile.SignaturesBroken(labels, states.K, gaps)
+		au.Rhythm = profile.NoRhythm
+		if activity >= 0 && ord != nil {
+			act := make([]float64, len(ord))
+			for w := range act {
+				act[w] = x[w*d+activity]
+			}
+			au.Rhythm = profile.RhythmOf(ord, act)
+		}
 		au.Medians = make([]float64, d)
 		col := make([]float64, len(x)/d)
 		for j := 0; j < d; j++ {
@@ -930,6 +944,10 @@ func checkAssigned(au AssignedUnit, k, d int) error {
 	if s.Windows < 1 || total != s.Windows || s.Gaps < 0 || s.Gaps >= s.Windows {
 		return fmt.Errorf("%d windows in its states, of %d, and %d gaps", total, s.Windows, s.Gaps)
 	}
+	if r := au.Rhythm; r.L5Onset < -1 || r.L5Onset > 23 || r.M10Onset < -1 || r.M10Onset > 23 || r.Hours < 0 ||
+		math.IsInf(r.IS, 0) || math.IsInf(r.IV, 0) || math.IsInf(r.L5, 0) || math.IsInf(r.M10, 0) || math.IsInf(r.RA, 0) {
+		return fmt.Errorf("rest-activity measures %+v", r)
+	}
 	dev := au.Device
 	if dev.Rotation != nil && len(dev.Rotation) != 9 || dev.AxisScale != nil && len(dev.AxisScale) != 3 || dev.AxisOffset != nil && len(dev.AxisOffset) != 3 {
 		return fmt.Errorf("a device of %d rotation, %d scale and %d offset values", len(dev.Rotation), len(dev.AxisScale), len(dev.AxisOffset))
@@ -946,7 +964,7 @@ func checkAssigned(au AssignedUnit, k, d int) error {
 
 func mergeAssigned(f *Fitted, units []UnitInfo, parts []*AssignPiece) error {
 	n := len(units)
-	f.Sigs, f.Medians = make([]profile.Signature, n), make([][]float64, n)
+	f.Sigs, f.Medians, f.Rhythm = make([]profile.Signature, n), make([][]float64, n), make([]profile.Rhythm, n)
 	if f.States.Aligned() {
 		f.Devices = make([]normalize.Device, n)
 	}
@@ -962,7 +980,7 @@ func mergeAssigned(f *Fitted, units []UnitInfo, parts []*AssignPiece) error {
 			if err := checkAssigned(au, f.States.K, len(f.Table.Features)); err != nil {
 				return fmt.Errorf("job: participant %s in an assignment piece: %v: %w; assign the shard again", units[i].ID, err, ErrPiece)
 			}
-			f.Sigs[i], f.Medians[i] = au.Signature, au.Medians
+			f.Sigs[i], f.Medians[i], f.Rhythm[i] = au.Signature, au.Medians, au.Rhythm
 			if f.Devices != nil {
 				f.Devices[i] = au.Device
 			}
