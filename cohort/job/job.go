@@ -70,7 +70,7 @@ type Fitted struct {
 	Fit      *normalize.Fit
 	States   *profile.States
 	Sigs     []profile.Signature
-	Rhythm   []profile.Rhythm // each unit's rest-activity measures (NaN where they cannot be read)
+	Rhythm   []profile.Rhythm      // each unit's rest-activity measures (NaN where they cannot be read)
 	Medians  [][]float64           // each unit's median of each feature
 	Desc     []profile.Description // the states in the original units
 	Labels   *profile.LabelTable   // states × known labels, when labels are given

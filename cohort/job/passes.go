@@ -818,7 +818,7 @@ type AssignedUnit struct {
 	Ordinal   int
 	Signature profile.Signature
 	Rhythm    profile.Rhythm // rest-activity measures; NaN without times or on a short recording
-	Medians   []float64 // the unit's median of each feature
+	Medians   []float64      // the unit's median of each feature
 	Device    normalize.Device
 }
 
