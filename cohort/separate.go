@@ -12,7 +12,7 @@ import (
 // Variable is one participant-level measure tested for separating the groups.
 type Variable struct {
 	Name   string
-	Kind   string    // "share", "bout length" or "feature median"
+	Kind   string    // "share", "bout length", "feature median" or "rest-activity"
 	Values []float64 // one per grouped participant; NaN where it does not exist (left out of the test)
 }
 

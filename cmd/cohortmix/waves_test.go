@@ -325,7 +325,7 @@ func TestRhythmOnTheParticipantsSheet(t *testing.T) {
 		t.Fatal(err)
 	}
 	out := filepath.Join(dir, "r.xlsx")
-	mustRun(t, "group", in, "--out", out, "--states", "4", "--quiet")
+	mustRun(t, "group", in, "--out", out, "--states", "4", "--groups", "2", "--quiet")
 	f, err := excelize.OpenFile(out)
 	if err != nil {
 		t.Fatal(err)
@@ -340,5 +340,8 @@ func TestRhythmOnTheParticipantsSheet(t *testing.T) {
 		if v, err := strconv.ParseFloat(r[col], 64); err != nil || v < 0 || v > 1 {
 			t.Errorf("%s: IS %q", r[0], r[col])
 		}
+	}
+	if sep := sheetText(t, out, "Separating variables"); !strings.Contains(sep, "interdaily stability (IS)") {
+		t.Errorf("the rest-activity measures are not among the separating variables:\n%.800s", sep)
 	}
 }

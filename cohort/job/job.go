@@ -386,6 +386,7 @@ func Describe(f *Fitted, stateNames, groupNames []string) (*reports.Result, erro
 		vars = append(vars, v)
 		res.FeatureRange = append(res.FeatureRange, [3]float64{groupstat.Quantile(v.Values, 0.01), groupstat.Quantile(v.Values, 0.5), groupstat.Quantile(v.Values, 0.99)})
 	}
+	vars = append(vars, rhythmVariables(f.Rhythm)...)
 	rows, basis := separationRows(t.Units, f.Atypical)
 	res.SeparationBasis = basis
 	labels := make([]int, len(rows))
@@ -441,6 +442,28 @@ func Describe(f *Fitted, stateNames, groupNames []string) (*reports.Result, erro
 	}
 	res.GroupLines = groupLines(g, sigs, reports.ShortNames(res.StateWords), t.Units, f.Atypical, f.Window)
 	return res, nil
+}
+
+// rhythmVariables are the rest-activity measures as variables for the separating tests (the
+// onsets, which are hours on a circle, left out), when any participant has them.
+func rhythmVariables(rh []profile.Rhythm) []cohort.Variable {
+	has := false
+	for _, r := range rh {
+		has = has || !math.IsNaN(r.IS)
+	}
+	if !has {
+		return nil
+	}
+	vars := []cohort.Variable{{Name: "interdaily stability (IS)"}, {Name: "intradaily variability (IV)"}, {Name: "L5"}, {Name: "M10"}, {Name: "relative amplitude (RA)"}}
+	for _, r := range rh {
+		for j, x := range []float64{r.IS, r.IV, r.L5, r.M10, r.RA} {
+			vars[j].Values = append(vars[j].Values, x)
+		}
+	}
+	for j := range vars {
+		vars[j].Kind = "rest-activity"
+	}
+	return vars
 }
 
 // separationRows are the units the separating-variable tests use, and in words which they are.
