@@ -22,6 +22,17 @@ func minutes(step time.Duration, runs ...[2]float64) ([]int64, []float64) {
 	return times, counts
 }
 
+// marked counts the windows a rule marked.
+func marked(m []bool) int {
+	n := 0
+	for _, x := range m {
+		if x {
+			n++
+		}
+	}
+	return n
+}
+
 // The rule of Troiano et al. 2008 (as commonly applied; values from memory): 60 minutes or more
 // of zero counts, with interruptions of up to 2 minutes of 1–100 counts a minute. Each case's
 // expected periods follow from that definition by hand.
@@ -45,13 +56,7 @@ func TestTroianoNonWear(t *testing.T) {
 		{"15-s windows, 104 a minute", 15 * time.Second, [][2]float64{{0, 120}, {26, 8}, {0, 120}}, 0},
 	} {
 		times, counts := minutes(c.step, c.runs...)
-		got := 0
-		for _, m := range troianoNonWear(times, counts, c.step) {
-			if m {
-				got++
-			}
-		}
-		if got != c.want {
+		if got := marked(troianoNonWear(times, counts, c.step)); got != c.want {
 			t.Errorf("%s: %d windows marked, want %d", c.name, got, c.want)
 		}
 	}
@@ -133,13 +138,7 @@ func TestChoiNonWear(t *testing.T) {
 		{"two interruptions, each with 30 quiet minutes around it", [][2]float64{{0, 35}, {300, 1}, {0, 35}, {300, 1}, {0, 35}}, 107},
 	} {
 		times, counts := minutes(time.Minute, c.runs...)
-		got := 0
-		for _, m := range choiNonWear(times, counts, time.Minute) {
-			if m {
-				got++
-			}
-		}
-		if got != c.want {
+		if got := marked(choiNonWear(times, counts, time.Minute)); got != c.want {
 			t.Errorf("%s: %d windows marked, want %d", c.name, got, c.want)
 		}
 	}

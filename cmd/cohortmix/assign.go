@@ -197,14 +197,11 @@ func (o *assignOptions) readOptions(m *reports.Model) (cohort.ReadOptions, error
 	if o.MinWindows > 0 {
 		ro.MinWindows = o.MinWindows
 	}
-	switch o.Missing {
-	case "":
-	case "drop":
-		ro.Missing = cohort.DropWindow
-	case "impute":
-		ro.Missing = cohort.ImputeMedian
-	default:
-		return ro, flagErrorf("--missing %q: give drop or impute", o.Missing)
+	if o.Missing != "" {
+		var err error
+		if ro.Missing, err = parseMissing(o.Missing); err != nil {
+			return ro, err
+		}
 	}
 	return ro, nil
 }

@@ -132,16 +132,23 @@ func (m *mainFlags) registerRead(cmd *cobra.Command) {
 // default); tests lower it so that small inputs go to the temporary windows file.
 var memoryValues int64
 
+// parseMissing reads --missing: drop (the window) or impute (the participant's median).
+func parseMissing(s string) (cohort.Missing, error) {
+	switch s {
+	case "drop":
+		return cohort.DropWindow, nil
+	case "impute":
+		return cohort.ImputeMedian, nil
+	}
+	return cohort.DropWindow, flagErrorf("--missing %q: use drop or impute", s)
+}
+
 // readOptions turns the reading flags into the reader's settings.
 func (m *mainFlags) readOptions() (cohort.ReadOptions, error) {
 	ro := cohort.ReadOptions{ID: m.ID, Order: m.Order, Wave: m.Wave, Label: m.Label, Features: m.Features, MinWindows: m.MinWindows, TempDir: m.Temp, MemoryValues: memoryValues, Workers: m.Workers}
-	switch m.Missing {
-	case "drop":
-		ro.Missing = cohort.DropWindow
-	case "impute":
-		ro.Missing = cohort.ImputeMedian
-	default:
-		return ro, flagErrorf("--missing %q: use drop or impute", m.Missing)
+	var err error
+	if ro.Missing, err = parseMissing(m.Missing); err != nil {
+		return ro, err
 	}
 	if m.MinWindows < 1 {
 		return ro, flagErrorf("--min-windows %d: use a number ≥ 1", m.MinWindows)

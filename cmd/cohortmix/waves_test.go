@@ -268,7 +268,7 @@ func TestAssignReadsARenamedIDColumn(t *testing.T) {
 		t.Errorf("members: %s", b)
 	}
 	env, _, errb = testEnv()
-	if code := run(context.Background(), env, []string{"assign", "--model", model, w2, "--id", "subject", "--missing", "guess", "--out", filepath.Join(dir, "y.xlsx")}); code != 2 || !strings.Contains(errb.String(), `--missing "guess": give drop or impute`) {
+	if code := run(context.Background(), env, []string{"assign", "--model", model, w2, "--id", "subject", "--missing", "guess", "--out", filepath.Join(dir, "y.xlsx")}); code != 2 || !strings.Contains(errb.String(), `--missing "guess": use drop or impute`) {
 		t.Errorf("a bad --missing: exit %d, %s", code, errb)
 	}
 }
