@@ -125,6 +125,8 @@ type EnsembleFit struct {
 	States, Start, Groups int
 	Agreement             float64
 	Kept                  bool
+	// WithKept is the adjusted Rand index between this fit's grouping and the kept fit's.
+	WithKept float64
 }
 
 // Aligned reports whether a participant's device is aligned before its windows are assigned.

@@ -618,7 +618,7 @@ func fitStates(ctx context.Context, fp *FitPiece, units [][]float64, o Options) 
 				}
 			}
 			fp.States.Ensemble = append(fp.States.Ensemble, profile.EnsembleFit{States: m.s, Start: m.fit + 1, Groups: slices.Max(m.labels) + 1,
-				Agreement: sum / float64(len(members)-1), Kept: i == best})
+				Agreement: sum / float64(len(members)-1), Kept: i == best, WithKept: agreement(labels[best], labels[i])})
 		}
 		fp.States.Rule = fmt.Sprintf("the fit that agrees best with the other %d (%s states, %d starts each)", len(members)-1, rangeText(o.States), fits)
 	}

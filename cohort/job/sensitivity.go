@@ -3,7 +3,10 @@ package job
 import (
 	"context"
 	"fmt"
+	"maps"
 	"math"
+	"slices"
+	"strings"
 
 	"github.com/cohortmix/cohortmix/cluster"
 	"github.com/cohortmix/cohortmix/cohort"
@@ -191,22 +194,35 @@ func skipped(row reports.Sensitivity, err error) reports.Sensitivity {
 // statesNote is the Summary's line on whether the groups depend on the number of movement
 // states, or "" when they do not. It reads the ensemble the states were chosen from (each number
 // of states fitted from several starts, each fit grouping the sampled participants; nil when one
-// fit was made): when the fit kept agrees with the others only to a mean adjusted Rand index
-// below 0.8 (the mark below which a grouping is called tentative, cohort.UnstableGrouping),
-// numbers of states these data do not rule out group the participants otherwise. The
-// sensitivity table is not read here: its other alternatives (grouping methods, within steps)
-// did worse on the benchmark families (docs/benchmarks.md), so a low agreement under them says
-// what the choice does, not that the groups are in doubt; and its refits with one state fewer
-// or more use fewer participants than the ensemble.
+// fit was made). A number of states is credible on these data when one of its fits agrees with
+// all the others about as well as the fit kept (mean adjusted Rand index at most 0.05 below);
+// the groups depend on it when that fit groups the participants otherwise than the one kept
+// (adjusted Rand index below 0.8, the mark below which a grouping is called tentative). Numbers
+// of states the ensemble voted down are not doubts. The sensitivity table is not read here: its
+// other alternatives (grouping methods, within steps) did worse on the benchmark families
+// (docs/benchmarks.md), and its refits use fewer participants than the ensemble.
 func statesNote(ensemble []profile.EnsembleFit) string {
+	var kept profile.EnsembleFit
 	for _, e := range ensemble {
-		if e.Kept && e.Agreement < Unreproducible {
-			lo, hi := ensemble[0].States, ensemble[0].States
-			for _, f := range ensemble {
-				lo, hi = min(lo, f.States), max(hi, f.States)
-			}
-			return fmt.Sprintf("the groups depend on the number of movement states: fitted with %d to %d states from several random starts, the groupings of the sampled participants agree with the one kept only to a mean adjusted Rand index of %.2f; read the groups with that in mind", lo, hi, e.Agreement)
+		if e.Kept {
+			kept = e
 		}
 	}
-	return ""
+	worst := map[int]float64{}
+	for _, e := range ensemble {
+		if e.States == kept.States || e.Agreement < kept.Agreement-0.05 || e.WithKept >= Unreproducible {
+			continue
+		}
+		if w, ok := worst[e.States]; !ok || e.WithKept < w {
+			worst[e.States] = e.WithKept
+		}
+	}
+	if len(worst) == 0 {
+		return ""
+	}
+	var parts []string
+	for _, s := range slices.Sorted(maps.Keys(worst)) {
+		parts = append(parts, fmt.Sprintf("%d states (adjusted Rand index %.2f)", s, worst[s]))
+	}
+	return fmt.Sprintf("the groups depend on the number of movement states: fitted with %s, which these data support about as well as the %d kept, the sampled participants fall into other groups; read the groups with that in mind", strings.Join(parts, " or "), kept.States)
 }
