@@ -3,6 +3,8 @@ package cohort
 import (
 	"context"
 	"fmt"
+	"math"
+	"math/rand/v2"
 	"strings"
 	"testing"
 	"time"
@@ -141,5 +143,74 @@ func TestChoiNonWear(t *testing.T) {
 		if got := marked(choiNonWear(times, counts, time.Minute)); got != c.want {
 			t.Errorf("%s: %d windows marked, want %d", c.name, got, c.want)
 		}
+	}
+}
+
+// A planted scenario (invented here): 30 participants × 5 days of one-minute counts, days of
+// activity, nights of rest broken by a small movement every 5 to 25 minutes, and for a third of
+// them one period off the wrist of 2 to 24 hours (zeros, with one minute of handling inside).
+// Choi's algorithm should find the planted non-wear (sensitivity) and leave the worn minutes,
+// nights included, alone (specificity): both at least 0.95, the target of issue 30.
+func TestChoiOnPlantedWear(t *testing.T) {
+	rng := rand.New(rand.NewPCG(30, 2))
+	var tp, fn, tn, fp int
+	var ttp, tfn, ttn, tfp int // Troiano's rule on the same minutes, for comparison
+	for p := 0; p < 30; p++ {
+		n := 5 * 1440
+		counts := make([]float64, n)
+		off := make([]bool, n)
+		for m := 0; m < n; m++ {
+			hour := (m / 60) % 24
+			if hour >= 7 && hour < 23 {
+				counts[m] = math.Round(math.Exp(5 + 1.2*rng.NormFloat64())) // about 150 counts, widely spread
+				if rng.Float64() < 0.05 {
+					counts[m] = 0 // a still minute while awake
+				}
+			}
+		}
+		for m := 0; m < n; { // nights: a small movement every 5 to 25 minutes
+			m += 5 + rng.IntN(21)
+			if m < n && ((m/60)%24 >= 23 || (m/60)%24 < 7) {
+				counts[m] = float64(5 + rng.IntN(60))
+			}
+		}
+		if p%3 == 0 {
+			start, length := rng.IntN(n-1440), 120+rng.IntN(22*60)
+			for m := start; m < start+length; m++ {
+				counts[m], off[m] = 0, true
+			}
+			counts[start+length/2] = 40 // handled once while off
+		}
+		times, _ := minutes(time.Minute, [2]float64{0, float64(n)})
+		for m, mark := range troianoNonWear(times, counts, time.Minute) {
+			switch {
+			case off[m] && mark:
+				ttp++
+			case off[m]:
+				tfn++
+			case mark:
+				tfp++
+			default:
+				ttn++
+			}
+		}
+		for m, mark := range choiNonWear(times, counts, time.Minute) {
+			switch {
+			case off[m] && mark:
+				tp++
+			case off[m]:
+				fn++
+			case mark:
+				fp++
+			default:
+				tn++
+			}
+		}
+	}
+	sens, spec := float64(tp)/float64(tp+fn), float64(tn)/float64(tn+fp)
+	t.Logf("planted non-wear, Choi: sensitivity %.4f (%d of %d minutes), specificity %.4f (%d of %d)", sens, tp, tp+fn, spec, tn, tn+fp)
+	t.Logf("planted non-wear, Troiano: sensitivity %.4f, specificity %.4f (its interruptions of up to 100 counts take in nights)", float64(ttp)/float64(ttp+tfn), float64(ttn)/float64(ttn+tfp))
+	if sens < 0.95 || spec < 0.95 {
+		t.Errorf("sensitivity %.3f, specificity %.3f; want both ≥ 0.95", sens, spec)
 	}
 }
