@@ -5,13 +5,11 @@ import (
 	"fmt"
 	"github.com/cohortmix/cohortmix/cohort/job"
 	"io"
-	"math"
 	"path/filepath"
 	"slices"
 	"strings"
 	"time"
 
-	"github.com/cohortmix/cohortmix/cluster"
 	"github.com/cohortmix/cohortmix/cohort"
 	"github.com/cohortmix/cohortmix/reports"
 	"github.com/spf13/cobra"
@@ -152,9 +150,9 @@ func assignRun(ctx context.Context, o *assignOptions) error {
 	if key != nil {
 		reports.Pseudonymize(res, key)
 	}
-	medians := featureMedians(f)
+	medians := job.FeatureMedians(f)
 	res.Warnings = append(res.Warnings, cohort.CheckRanges(t.Features, m.FeatureMeds, medians)...)
-	res.Changes = assignChanges(m, res, o.Model)
+	res.Changes = job.AssignChanges(m, res, o.Model)
 	if err := ctx.Err(); err != nil {
 		return err
 	}
@@ -239,103 +237,4 @@ func readForModel(ctx context.Context, inputs []string, m *reports.Model, ro coh
 		return nil, nil, err
 	}
 	return t, extra, nil
-}
-
-// featureMedians regroups the units' feature medians by feature.
-func featureMedians(f *job.Fitted) [][]float64 {
-	out := make([][]float64, len(f.Table.Features))
-	for _, m := range f.Medians {
-		for j, v := range m {
-			out[j] = append(out[j], v)
-		}
-	}
-	return out
-}
-
-// previousGroups maps the model's members to their groups by id and wave, and by id alone for a
-// returning participant seen in a new wave.
-func previousGroups(m *reports.Model) (byKey, byID map[string]string) {
-	byKey, byID = map[string]string{}, map[string]string{}
-	for _, mem := range m.Members {
-		byKey[mem.ID+"\x00"+mem.Wave] = mem.Group
-		byID[mem.ID] = mem.Group
-	}
-	return byKey, byID
-}
-
-func lookupPrevious(byKey, byID map[string]string, id, wave string) string {
-	if g, ok := byKey[id+"\x00"+wave]; ok {
-		return g
-	}
-	return byID[id]
-}
-
-// assignChanges records who is where, against the model's members.
-func assignChanges(m *reports.Model, res *reports.Result, model string) *reports.Changes {
-	byKey, byID := previousGroups(m)
-	method, _ := cohort.ParseMethod(m.Grouping.Method)
-	c := &reports.Changes{Mode: "assign", Model: model, ModelCreated: m.Created}
-	var a, b []int
-	index := map[string]int{}
-	for i, n := range m.Grouping.Names {
-		index[n] = i
-	}
-	for _, u := range res.Units {
-		now := res.GroupNames[u.Group]
-		row := reports.ChangeRow{ID: u.ID, Wave: u.Wave, Now: now, DistNow: u.Distance, DistPrevious: math.NaN(), Probability: u.Posterior, Atypical: u.Atypical}
-		row.Previous = lookupPrevious(byKey, byID, u.ID, u.Wave)
-		row.Moved = moved(row.Previous, now)
-		if u.Atypical {
-			row.Now, row.Moved = "none (nearest "+now+")", "in no group (atypical)"
-		}
-		if p, ok := index[row.Previous]; ok {
-			row.DistPrevious = cohort.SpaceDistance(method, cohort.Embed(method, u.Share), m.Grouping.Centroids[p])
-			c.Returning++
-			if !u.Atypical {
-				a, b = append(a, p), append(b, u.Group)
-			}
-		}
-		c.Rows = append(c.Rows, row)
-	}
-	c.ARI = agreement(a, b)
-	before, after := groupSizes(m, res)
-	for i, n := range m.Grouping.Names {
-		c.Groups = append(c.Groups, reports.GroupChange{Name: n, Status: "centre frozen (assign does not refit)", Before: before[n], After: after[i], Drift: 0})
-	}
-	return c
-}
-
-// moved says whether a participant changed group ("new participant" when it had none).
-func moved(previous, now string) string {
-	switch previous {
-	case "":
-		return "new participant"
-	case now:
-		return "no"
-	}
-	return "yes"
-}
-
-// agreement is the ARI of returning participants' old and new groups (NaN for fewer than 2).
-func agreement(old, now []int) float64 {
-	if len(old) < 2 {
-		return math.NaN()
-	}
-	ari, _ := cluster.AdjustedRand(old, now)
-	return ari
-}
-
-// groupSizes counts the model's members by group name and the new run's units by group.
-func groupSizes(m *reports.Model, res *reports.Result) (map[string]int, map[int]int) {
-	before := map[string]int{}
-	for _, mem := range m.Members {
-		before[mem.Group]++
-	}
-	after := map[int]int{}
-	for _, u := range res.Units {
-		if !u.Atypical {
-			after[u.Group]++
-		}
-	}
-	return before, after
 }

@@ -3,9 +3,7 @@ package main
 import (
 	"context"
 	"fmt"
-	"github.com/cohortmix/cohortmix/cluster/groupstat"
 	"github.com/cohortmix/cohortmix/cohort/job"
-	"math"
 	"strconv"
 	"strings"
 	"time"
@@ -85,12 +83,12 @@ func refreshRun(ctx context.Context, o *refreshOptions) error {
 	}
 	defer f.Table.Close()
 	method, _ := cohort.ParseMethod(prev.Grouping.Method)
-	byKey, byID := previousGroups(prev)
+	byKey, byID := job.PreviousGroups(prev)
 	prevIndex := map[string]int{}
 	for i, n := range prev.Grouping.Names {
 		prevIndex[n] = i
 	}
-	next := cohort.Next{Labels: f.Grouping.Labels, GroupShares: meanShares(f)}
+	next := cohort.Next{Labels: f.Grouping.Labels, GroupShares: job.MeanShares(f)}
 	for _, dsc := range f.Desc {
 		next.StateMeans = append(next.StateMeans, dsc.Mean)
 	}
@@ -99,7 +97,7 @@ func refreshRun(ctx context.Context, o *refreshOptions) error {
 		if key != nil {
 			id = reports.Pseudonym(key, id) // the previous model holds pseudonyms
 		}
-		p, ok := prevIndex[lookupPrevious(byKey, byID, id, u.Wave)]
+		p, ok := prevIndex[job.LookupPrevious(byKey, byID, id, u.Wave)]
 		if !ok {
 			p = -1
 		}
@@ -124,7 +122,7 @@ func refreshRun(ctx context.Context, o *refreshOptions) error {
 	if key != nil {
 		reports.Pseudonymize(res, key)
 	}
-	res.Changes = refreshChanges(prev, res, match, next, o.Previous)
+	res.Changes = job.RefreshChanges(prev, res, match, next, o.Previous)
 	if err := ctx.Err(); err != nil {
 		return err
 	}
@@ -140,74 +138,4 @@ func refreshRun(ctx context.Context, o *refreshOptions) error {
 
 func sameFeatures(a, b []string) bool {
 	return strings.Join(a, "\x00") == strings.Join(b, "\x00")
-}
-
-// meanShares is each new group's mean signature.
-func meanShares(f *job.Fitted) [][]float64 {
-	shares := make([][]float64, len(f.Sigs))
-	for i, s := range f.Sigs {
-		shares[i] = s.Share
-	}
-	means, _ := groupstat.GroupMeans(shares, f.Grouping.Labels, f.Grouping.K)
-	return means
-}
-
-// refreshChanges records the fate of each group and state and who moved.
-func refreshChanges(prev *reports.Model, res *reports.Result, m *cohort.Matching, next cohort.Next, model string) *reports.Changes {
-	method, _ := cohort.ParseMethod(prev.Grouping.Method)
-	c := &reports.Changes{Mode: "refresh", Model: model, ModelCreated: prev.Created, ARI: math.NaN()}
-	var a, b []int
-	for i, u := range res.Units {
-		row := reports.ChangeRow{ID: u.ID, Wave: u.Wave, Now: res.GroupNames[u.Group], DistNow: u.Distance, DistPrevious: math.NaN(), Probability: u.Posterior}
-		if p := next.PrevGroup[i]; p >= 0 {
-			row.Previous = prev.Grouping.Names[p]
-			row.DistPrevious = cohort.SpaceDistance(method, m.Place(u.Share), m.PrevCentres[p])
-			c.Returning++
-			a, b = append(a, p), append(b, u.Group)
-		}
-		row.Moved = moved(row.Previous, row.Now)
-		c.Rows = append(c.Rows, row)
-	}
-	c.ARI = agreement(a, b)
-	before, after := groupSizes(prev, res)
-	var news, gone, merged []string
-	for i, name := range res.GroupNames {
-		gc := reports.GroupChange{Name: name, Status: m.NewStatus[i], After: after[i], Drift: m.GroupDrift[i]}
-		if p := m.GroupPrev[i]; p >= 0 {
-			gc.Before = before[prev.Grouping.Names[p]]
-		} else {
-			news = append(news, name)
-			gc.Drift = math.NaN()
-		}
-		c.Groups = append(c.Groups, gc)
-	}
-	for p, name := range prev.Grouping.Names {
-		st := m.PrevStatus[p]
-		if strings.HasPrefix(st, "continues") {
-			continue
-		}
-		if st == "gone" {
-			gone = append(gone, name)
-		} else {
-			merged = append(merged, name+" "+st)
-		}
-		c.Groups = append(c.Groups, reports.GroupChange{Name: name, Status: st, Before: before[name], Drift: math.NaN()})
-	}
-	for j, name := range m.StateNames {
-		st := "continues"
-		if m.StatePrev[j] < 0 {
-			st = "new state"
-		}
-		c.States = append(c.States, reports.GroupChange{Name: name, Status: st, Drift: m.StateDrift[j]})
-	}
-	c.Notes = append(c.Notes, fmt.Sprintf("groups: %d kept their names, new: %s; gone: %s; merged: %s",
-		len(res.GroupNames)-len(news), listOrNone(news), listOrNone(gone), listOrNone(merged)))
-	return c
-}
-
-func listOrNone(xs []string) string {
-	if len(xs) == 0 {
-		return "none"
-	}
-	return strings.Join(xs, ", ")
 }

@@ -1,0 +1,186 @@
+package job
+
+import (
+	"fmt"
+	"math"
+	"strings"
+
+	"github.com/cohortmix/cohortmix/cluster"
+	"github.com/cohortmix/cohortmix/cluster/groupstat"
+	"github.com/cohortmix/cohortmix/cohort"
+	"github.com/cohortmix/cohortmix/reports"
+)
+
+// The record of a later wave against the model it was placed or refitted with: who is where,
+// who moved, and what became of each group and state (the Changes sheet), as library calls so
+// that any program can place a wave as the command line does.
+
+// FeatureMedians regroups the units' feature medians by feature.
+func FeatureMedians(f *Fitted) [][]float64 {
+	out := make([][]float64, len(f.Table.Features))
+	for _, m := range f.Medians {
+		for j, v := range m {
+			out[j] = append(out[j], v)
+		}
+	}
+	return out
+}
+
+// PreviousGroups maps the model's members to their groups by id and wave, and by id alone for a
+// returning participant seen in a new wave.
+func PreviousGroups(m *reports.Model) (byKey, byID map[string]string) {
+	byKey, byID = map[string]string{}, map[string]string{}
+	for _, mem := range m.Members {
+		byKey[mem.ID+"\x00"+mem.Wave] = mem.Group
+		byID[mem.ID] = mem.Group
+	}
+	return byKey, byID
+}
+
+// LookupPrevious is a participant-wave's group in the model: by id and wave, else by id.
+func LookupPrevious(byKey, byID map[string]string, id, wave string) string {
+	if g, ok := byKey[id+"\x00"+wave]; ok {
+		return g
+	}
+	return byID[id]
+}
+
+// AssignChanges records who is where, against the model's members.
+func AssignChanges(m *reports.Model, res *reports.Result, model string) *reports.Changes {
+	byKey, byID := PreviousGroups(m)
+	method, _ := cohort.ParseMethod(m.Grouping.Method)
+	c := &reports.Changes{Mode: "assign", Model: model, ModelCreated: m.Created}
+	var a, b []int
+	index := map[string]int{}
+	for i, n := range m.Grouping.Names {
+		index[n] = i
+	}
+	for _, u := range res.Units {
+		now := res.GroupNames[u.Group]
+		row := reports.ChangeRow{ID: u.ID, Wave: u.Wave, Now: now, DistNow: u.Distance, DistPrevious: math.NaN(), Probability: u.Posterior, Atypical: u.Atypical}
+		row.Previous = LookupPrevious(byKey, byID, u.ID, u.Wave)
+		row.Moved = moved(row.Previous, now)
+		if u.Atypical {
+			row.Now, row.Moved = "none (nearest "+now+")", "in no group (atypical)"
+		}
+		if p, ok := index[row.Previous]; ok {
+			row.DistPrevious = cohort.SpaceDistance(method, cohort.Embed(method, u.Share), m.Grouping.Centroids[p])
+			c.Returning++
+			if !u.Atypical {
+				a, b = append(a, p), append(b, u.Group)
+			}
+		}
+		c.Rows = append(c.Rows, row)
+	}
+	c.ARI = returningAgreement(a, b)
+	before, after := groupSizes(m, res)
+	for i, n := range m.Grouping.Names {
+		c.Groups = append(c.Groups, reports.GroupChange{Name: n, Status: "centre frozen (assign does not refit)", Before: before[n], After: after[i], Drift: 0})
+	}
+	return c
+}
+
+// moved says whether a participant changed group ("new participant" when it had none).
+func moved(previous, now string) string {
+	switch previous {
+	case "":
+		return "new participant"
+	case now:
+		return "no"
+	}
+	return "yes"
+}
+
+// returningAgreement is the ARI of returning participants' old and new groups (NaN for fewer than 2).
+func returningAgreement(old, now []int) float64 {
+	if len(old) < 2 {
+		return math.NaN()
+	}
+	ari, _ := cluster.AdjustedRand(old, now)
+	return ari
+}
+
+// groupSizes counts the model's members by group name and the new run's units by group.
+func groupSizes(m *reports.Model, res *reports.Result) (map[string]int, map[int]int) {
+	before := map[string]int{}
+	for _, mem := range m.Members {
+		before[mem.Group]++
+	}
+	after := map[int]int{}
+	for _, u := range res.Units {
+		if !u.Atypical {
+			after[u.Group]++
+		}
+	}
+	return before, after
+}
+
+// MeanShares is each new group's mean signature.
+func MeanShares(f *Fitted) [][]float64 {
+	shares := make([][]float64, len(f.Sigs))
+	for i, s := range f.Sigs {
+		shares[i] = s.Share
+	}
+	means, _ := groupstat.GroupMeans(shares, f.Grouping.Labels, f.Grouping.K)
+	return means
+}
+
+// RefreshChanges records the fate of each group and state and who moved.
+func RefreshChanges(prev *reports.Model, res *reports.Result, m *cohort.Matching, next cohort.Next, model string) *reports.Changes {
+	method, _ := cohort.ParseMethod(prev.Grouping.Method)
+	c := &reports.Changes{Mode: "refresh", Model: model, ModelCreated: prev.Created, ARI: math.NaN()}
+	var a, b []int
+	for i, u := range res.Units {
+		row := reports.ChangeRow{ID: u.ID, Wave: u.Wave, Now: res.GroupNames[u.Group], DistNow: u.Distance, DistPrevious: math.NaN(), Probability: u.Posterior}
+		if p := next.PrevGroup[i]; p >= 0 {
+			row.Previous = prev.Grouping.Names[p]
+			row.DistPrevious = cohort.SpaceDistance(method, m.Place(u.Share), m.PrevCentres[p])
+			c.Returning++
+			a, b = append(a, p), append(b, u.Group)
+		}
+		row.Moved = moved(row.Previous, row.Now)
+		c.Rows = append(c.Rows, row)
+	}
+	c.ARI = returningAgreement(a, b)
+	before, after := groupSizes(prev, res)
+	var news, gone, merged []string
+	for i, name := range res.GroupNames {
+		gc := reports.GroupChange{Name: name, Status: m.NewStatus[i], After: after[i], Drift: m.GroupDrift[i]}
+		if p := m.GroupPrev[i]; p >= 0 {
+			gc.Before = before[prev.Grouping.Names[p]]
+		} else {
+			news = append(news, name)
+			gc.Drift = math.NaN()
+		}
+		c.Groups = append(c.Groups, gc)
+	}
+	for p, name := range prev.Grouping.Names {
+		st := m.PrevStatus[p]
+		if strings.HasPrefix(st, "continues") {
+			continue
+		}
+		if st == "gone" {
+			gone = append(gone, name)
+		} else {
+			merged = append(merged, name+" "+st)
+		}
+		c.Groups = append(c.Groups, reports.GroupChange{Name: name, Status: st, Before: before[name], Drift: math.NaN()})
+	}
+	for j, name := range m.StateNames {
+		st := "continues"
+		if m.StatePrev[j] < 0 {
+			st = "new state"
+		}
+		c.States = append(c.States, reports.GroupChange{Name: name, Status: st, Drift: m.StateDrift[j]})
+	}
+	c.Notes = append(c.Notes, fmt.Sprintf("groups: %d kept their names, new: %s; gone: %s; merged: %s",
+		len(res.GroupNames)-len(news), listOrNone(news), listOrNone(gone), listOrNone(merged)))
+	return c
+}
+
+func listOrNone(xs []string) string {
+	if len(xs) == 0 {
+		return "none"
+	}
+	return strings.Join(xs, ", ")
+}
