@@ -57,7 +57,7 @@ func countsFeature(features []string, want string) (int, error) {
 		return -1, fmt.Errorf("the non-wear rule's counts column %q is not among the features (%s); name one with cohort.ReadOptions.NonWearFeature", want, strings.Join(features, ", "))
 	}
 	for j, name := range features {
-		words := strings.FieldsFunc(strings.ToLower(name), func(r rune) bool { return r == '_' || r == '-' || r == '.' || r == ' ' })
+		words := strings.FieldsFunc(strings.ToLower(name), func(r rune) bool { return r == '_' || r == '-' || r == '.' || r == ' ' }) // as profile.FeatureWords, which this package sits below
 		has := func(w string) bool { return slices.Contains(words, w) }
 		if (has("counts") || has("count") || has("cpm") || has("axis1")) && !has("log") && !has("sd") && !has("mean") && !has("rolling") {
 			return j, nil

@@ -1225,10 +1225,8 @@ func (r *reader) finish() (*Table, error) {
 			rule = NonWearChoi
 		}
 	}
-	q0 := &t.Quality
-	q0.NonWearRule = rule
+	q.NonWearRule = rule
 	if rule != "" {
-		r.opts.NonWear = rule
 		if rule != NonWearTroiano && rule != NonWearChoi {
 			t.Close()
 			return nil, fmt.Errorf("cohort: non-wear rule %q: %w; use %s or %s, or none", r.opts.NonWear, ErrBadOption, NonWearChoi, NonWearTroiano)
@@ -1321,7 +1319,7 @@ func (r *reader) finish() (*Table, error) {
 			for k, i := range idx {
 				times[k], counts[k] = ord(i), x[i*w+nonWearAt]
 			}
-			nonWear = nonWearOf(r.opts.NonWear, times, counts)
+			nonWear = nonWearOf(rule, times, counts)
 		}
 		// Missing cells: drop the window, or impute the participant's median of the feature.
 		var med []float64

@@ -139,7 +139,7 @@ func RhythmOf(times []int64, activity []float64) Rhythm {
 func ActivityFeature(features []string) int {
 	for _, group := range [][]string{{"counts", "count", "cpm", "axis1"}, {"enmo"}, {"mad"}, {"sd", "std"}} {
 		for j, name := range features {
-			words := strings.FieldsFunc(strings.ToLower(name), func(r rune) bool { return r == '_' || r == '-' || r == '.' || r == ' ' })
+			words := FeatureWords(name)
 			if slices.Contains(words, "log") || slices.Contains(words, "rolling") || slices.Contains(words, "mean10") {
 				continue
 			}
@@ -151,6 +151,12 @@ func ActivityFeature(features []string) int {
 		}
 	}
 	return -1
+}
+
+// FeatureWords splits a feature's name into its lower-case words at _, -, . and spaces
+// ("VM_sd.1" → vm, sd, 1), for the rules that tell a feature's meaning from its name.
+func FeatureWords(name string) []string {
+	return strings.FieldsFunc(strings.ToLower(name), func(r rune) bool { return r == '_' || r == '-' || r == '.' || r == ' ' })
 }
 
 // floorDiv is a/b rounded down (times before 1970 are negative).

@@ -23,7 +23,7 @@ const (
 
 // featureKind tells a feature's kind from the words in its name.
 func featureKind(name string) int {
-	words := strings.FieldsFunc(strings.ToLower(name), func(r rune) bool { return r == '_' || r == '-' || r == '.' || r == ' ' })
+	words := profile.FeatureWords(name)
 	has := func(set ...string) bool {
 		for _, w := range words {
 			for _, s := range set {
@@ -98,7 +98,7 @@ var (
 // index and kind, or -1.
 func anchorOf(features []string) (int, string) {
 	for j, name := range features {
-		words := strings.FieldsFunc(strings.ToLower(name), func(r rune) bool { return r == '_' || r == '-' || r == '.' || r == ' ' })
+		words := profile.FeatureWords(name)
 		has := func(w string) bool { return slices.Contains(words, w) }
 		switch {
 		case has("log") || has("sd") || has("std") || has("rolling") || has("roll") || has("step") || has("steps"):
