@@ -76,6 +76,20 @@ type ReadOptions struct {
 	// its name), or NonWearAuto: Choi's where those are there, none otherwise.
 	NonWear        string
 	NonWearFeature string
+	// TimeZone is the IANA zone (Europe/Berlin) in which times given with a UTC offset are read
+	// on the wall clock, for days, hours of the day and weekends; "" reads them in UTC. Times
+	// without an offset are read as written.
+	TimeZone string
+	// ValidDay is the wear that makes a calendar day valid (DefaultValidDay; 0: no valid-day
+	// rule). With times in the order column, windows on days with less wear are left out and
+	// counted (Unit.Wear, Quality.WindowsInvalidDays), and a participant with fewer than
+	// ValidDays valid days (0 means DefaultValidDays), or with none on a weekend when WeekendDay
+	// is set, is excluded with the reason. With ValidDayAuto the rule applies only where a
+	// non-wear rule does (a wear-time protocol's recording of activity counts).
+	ValidDay     time.Duration
+	ValidDayAuto bool
+	ValidDays    int
+	WeekendDay   bool
 	// Progress, when set, is told how many bytes of a file were read, of its size (0 when not
 	// known, as for standard input), and how many windows were read from all files so far; it is
 	// called from one goroutine at a time.
@@ -127,6 +141,7 @@ type Unit struct {
 	Files    []string // the files its windows came from
 	Dropped  int      // windows dropped for missing cells
 	NonWear  int      // windows left out as non-wear (ReadOptions.NonWear)
+	Wear     Wear     // wear time by day, under the valid-day rule (ReadOptions.ValidDay)
 	Imputed  int      // cells imputed
 	Sorted   bool     // its windows were not in order in the input and were sorted
 }
@@ -153,6 +168,8 @@ type Quality struct {
 	WindowsDropped     int    // for missing cells, in units that were kept
 	WindowsNonWear     int    // left out as non-wear (ReadOptions.NonWear), in units that were kept
 	NonWearRule        string // the rule that found them
+	WindowsInvalidDays int    // left out as on days of too little wear (ReadOptions.ValidDay), in units that were kept
+	ValidDayRule       string // the valid-day rule applied, in words ("" for none)
 	WindowsExcluded    int    // windows of excluded units
 	CellsImputed       int
 	Excluded           []Exclusion
@@ -167,6 +184,12 @@ type Quality struct {
 	TrimmedAt    string
 }
 
+// WindowsUsed is the windows that were used: those in, less those dropped, left out as non-wear
+// or on days that were not valid, and those of excluded units.
+func (q Quality) WindowsUsed() int {
+	return q.WindowsIn - q.WindowsDropped - q.WindowsNonWear - q.WindowsInvalidDays - q.WindowsExcluded
+}
+
 // QualityNotes are the notes of Quality.Notes on sorted and joined units and on trimmed cells,
 // for q's counts.
 func QualityNotes(q Quality, order string) []string {
@@ -174,6 +197,9 @@ func QualityNotes(q Quality, order string) []string {
 	var notes []string
 	if q.WindowsNonWear > 0 {
 		notes = append(notes, fmt.Sprintf("%s windows of the participants kept fell in non-wear periods and were left out (%s)", Thousands(q.WindowsNonWear), nonWearRule[q.NonWearRule]))
+	}
+	if q.ValidDayRule != "" {
+		notes = append(notes, fmt.Sprintf("valid days: %s; %s windows of the participants kept fell on other days and were left out", q.ValidDayRule, Thousands(q.WindowsInvalidDays)))
 	}
 	if q.TrimmedCells > 0 {
 		notes = append(notes, fmt.Sprintf("%d id or wave cells had spaces around them (the first at %s); the spaces were removed, so \"P6 \" and \"P6\" are one participant", q.TrimmedCells, q.TrimmedAt))
@@ -208,6 +234,9 @@ type Table struct {
 	Quality   Quality
 	Files     []FileInfo
 	OrderKind string // "integer", "time" or "file order"
+	// TimeZone is the zone in which times with a UTC offset are read on the wall clock
+	// (ReadOptions.TimeZone; "" for UTC).
+	TimeZone  string
 	HasLabels bool
 	// Constancy says which features took one value in every kept window, for a table read as a
 	// shard (ReadOptions.Shard), whose constant features are kept; nil otherwise.
@@ -1226,6 +1255,17 @@ func (r *reader) finish() (*Table, error) {
 		}
 	}
 	q.NonWearRule = rule
+	wr, err := r.opts.wearRule(rule, r.orderKind, r.orderZone == "without a UTC offset")
+	if err != nil {
+		t.Close()
+		return nil, err
+	}
+	if r.orderKind == "time" {
+		t.TimeZone = r.opts.TimeZone
+	}
+	if wr != nil {
+		q.ValidDayRule = wr.String()
+	}
 	if rule != "" {
 		if rule != NonWearTroiano && rule != NonWearChoi {
 			t.Close()
@@ -1242,6 +1282,7 @@ func (r *reader) finish() (*Table, error) {
 		}
 	}
 	var x, clean []float64
+	shortUnits, mostDays := 0, 0 // units short of valid days, and the most valid days of those
 	for ui, ru := range r.units {
 		if ui%256 == 0 && r.ctx.Err() != nil {
 			t.Close()
@@ -1259,7 +1300,7 @@ func (r *reader) finish() (*Table, error) {
 		// stretch of the store or in several (a table sorted by time across participants) as
 		// long as they average minStretch windows; shorter ones are copied into one stretch,
 		// since reading them one by one in every pass would cost more than copying them once.
-		if !ru.unsorted && ru.missing == 0 && nonWearAt < 0 && (len(ru.runs) == 1 || len(ru.runs)*minStretch <= n) {
+		if !ru.unsorted && ru.missing == 0 && nonWearAt < 0 && wr == nil && (len(ru.runs) == 1 || len(ru.runs)*minStretch <= n) {
 			if n < r.opts.MinWindows {
 				q.Excluded = append(q.Excluded, Exclusion{ID: u.ID, Wave: u.Wave, Ordinal: u.Ordinal, Windows: n,
 					Reason: fmt.Sprintf("%d usable windows, fewer than the minimum %d (cohort.ReadOptions.MinWindows)", n, r.opts.MinWindows)})
@@ -1321,6 +1362,17 @@ func (r *reader) finish() (*Table, error) {
 			}
 			nonWear = nonWearOf(rule, times, counts)
 		}
+		// Valid days: the windows of days of too little wear are left out, and a participant
+		// with too few valid days is excluded.
+		var invalidDay []bool
+		short := ""
+		if wr != nil {
+			times := make([]int64, n)
+			for k, i := range idx {
+				times[k] = ord(i)
+			}
+			invalidDay, u.Wear, short = wr.wearDays(times, nonWear, medianStep(times))
+		}
 		// Missing cells: drop the window, or impute the participant's median of the feature.
 		var med []float64
 		if r.opts.Missing == ImputeMedian && ru.missing > 0 {
@@ -1332,6 +1384,9 @@ func (r *reader) finish() (*Table, error) {
 			if nonWear != nil && nonWear[k] {
 				u.NonWear++
 				continue
+			}
+			if invalidDay != nil && invalidDay[k] {
+				continue // counted in u.Wear.LeftOut
 			}
 			row := x[i*w : (i+1)*w]
 			missing := 0
@@ -1362,6 +1417,11 @@ func (r *reader) finish() (*Table, error) {
 			}
 		}
 		kept := len(clean) / w
+		if reason == "" && short != "" {
+			reason = short
+			shortUnits++
+			mostDays = max(mostDays, u.Wear.ValidDays)
+		}
 		if reason == "" && kept < r.opts.MinWindows {
 			reason = fmt.Sprintf("%d usable windows, fewer than the minimum %d (cohort.ReadOptions.MinWindows)", kept, r.opts.MinWindows)
 			if u.Dropped > 0 {
@@ -1378,6 +1438,7 @@ func (r *reader) finish() (*Table, error) {
 		}
 		q.WindowsDropped += u.Dropped
 		q.WindowsNonWear += u.NonWear
+		q.WindowsInvalidDays += u.Wear.LeftOut
 		q.CellsImputed += u.Imputed
 		u.at, u.rows = t.store.n/int64(w), kept
 		if err := t.store.append(clean); err != nil {
@@ -1390,6 +1451,10 @@ func (r *reader) finish() (*Table, error) {
 	if err := t.store.flush(); err != nil {
 		t.Close()
 		return nil, err
+	}
+	if wr != nil && len(t.Units) == 0 && shortUnits > 0 && r.opts.Shard.Count == 0 {
+		t.Close()
+		return nil, &InputError{File: r.firstFile, Msg: fmt.Sprintf("no participant has the valid days the rule asks for (%s); the most any has is %d: lower cohort.ReadOptions.ValidDays, or lift the rule with cohort.ReadOptions.ValidDay", wr, mostDays), Err: ErrTooFew}
 	}
 	q.SortedUnits, q.JoinedUnits = sortedUnits, merged
 	q.TrimmedCells, q.TrimmedAt = r.trimmed, r.trimmedAt

@@ -70,12 +70,30 @@ type ModelRead struct {
 	// NonWearFeature the counts column it was given (none: found by its name).
 	NonWear        string `json:",omitempty"`
 	NonWearFeature string `json:",omitempty"`
+	// TimeZone is the zone times with an offset were read in ("" for UTC); ValidDay the
+	// valid-day rule ("auto", hours as "10h0m0s", or "" for none), ValidDays and WeekendDay
+	// what a participant needed under it.
+	TimeZone   string `json:",omitempty"`
+	ValidDay   string `json:",omitempty"`
+	ValidDays  int    `json:",omitempty"`
+	WeekendDay bool   `json:",omitempty"`
 }
 
 // ReadOf records the reading settings of a run.
 func ReadOf(read cohort.ReadOptions) ModelRead {
 	return ModelRead{ID: read.ID, Order: read.Order, Wave: read.Wave, Label: read.Label, Features: read.Features, Missing: read.Missing.String(), MinWindows: read.MinWindows,
-		NonWear: read.NonWear, NonWearFeature: read.NonWearFeature}
+		NonWear: read.NonWear, NonWearFeature: read.NonWearFeature, TimeZone: read.TimeZone, ValidDays: read.ValidDays, WeekendDay: read.WeekendDay, ValidDay: validDayText(read)}
+}
+
+// validDayText is the valid-day rule of a reading as the model records it.
+func validDayText(read cohort.ReadOptions) string {
+	switch {
+	case read.ValidDay <= 0:
+		return ""
+	case read.ValidDayAuto:
+		return "auto"
+	}
+	return read.ValidDay.String()
 }
 
 // ModelFit is how a model was fitted, in the library's own terms (the settings of a run that

@@ -215,7 +215,7 @@ func detailRows(r *Result) [][2]string {
 		{"Number of groups", fmt.Sprintf("%d (%s)", r.Grouping.K, choiceText(r))},
 		{"Reproducibility", reproducibilityText(r.Reproducibility)},
 		{capital(c.Unit(2)), participantsText(c)},
-		{"Windows", fmt.Sprintf("%s in the input: %s used, %s dropped for missing cells, %s in excluded %s", cohort.Thousands(q.WindowsIn), cohort.Thousands(q.WindowsIn-q.WindowsDropped-q.WindowsExcluded), cohort.Thousands(q.WindowsDropped), cohort.Thousands(q.WindowsExcluded), c.Unit(2))},
+		{"Windows", windowsText(q, c.Unit(2))},
 		{"Window length", window},
 		{"Features", fmt.Sprintf("%d used: %s", len(r.Features), join(r.Features))},
 		{"Created", r.Created.UTC().Format("2006-01-02 15:04:05 UTC") + " by " + r.Tool + " " + r.Version},
@@ -290,4 +290,16 @@ func reproducibilityText(v float64) string {
 		return fmt.Sprintf("%.2f: fitted again from other random starts, the movement states group the sampled participants alike (median adjusted Rand index between the fits)", v)
 	}
 	return fmt.Sprintf("%.2f: fitted again from other random starts, the movement states group the sampled participants differently (median adjusted Rand index between the fits, below %.2f); the grouping is not reproducible on these data", v, Unreproducible)
+}
+
+// windowsText accounts for the windows in a sentence: those used and where the others went.
+func windowsText(q cohort.Quality, units string) string {
+	s := fmt.Sprintf("%s in the input: %s used, %s dropped for missing cells", cohort.Thousands(q.WindowsIn), cohort.Thousands(q.WindowsUsed()), cohort.Thousands(q.WindowsDropped))
+	if q.NonWearRule != "" {
+		s += fmt.Sprintf(", %s left out as non-wear", cohort.Thousands(q.WindowsNonWear))
+	}
+	if q.ValidDayRule != "" {
+		s += fmt.Sprintf(", %s on days that were not valid", cohort.Thousands(q.WindowsInvalidDays))
+	}
+	return s + fmt.Sprintf(", %s in excluded %s", cohort.Thousands(q.WindowsExcluded), units)
 }

@@ -707,8 +707,15 @@ func qualitySheet(f *excelize.File, st *styles, r *Result) error {
 	if c.Waves {
 		counts = append(counts, count{"people in", c.PeopleIn}, count{"people with a grouped wave", c.PeopleGrouped})
 	}
-	counts = append(counts, count{"windows in", q.WindowsIn}, count{"windows used", q.WindowsIn - q.WindowsDropped - q.WindowsExcluded},
-		count{"windows dropped (missing cells)", q.WindowsDropped}, count{"windows of excluded " + u, q.WindowsExcluded}, count{"cells imputed", q.CellsImputed})
+	counts = append(counts, count{"windows in", q.WindowsIn}, count{"windows used", q.WindowsUsed()},
+		count{"windows dropped (missing cells)", q.WindowsDropped})
+	if q.NonWearRule != "" {
+		counts = append(counts, count{"windows left out as non-wear", q.WindowsNonWear})
+	}
+	if q.ValidDayRule != "" {
+		counts = append(counts, count{"windows on days that were not valid", q.WindowsInvalidDays})
+	}
+	counts = append(counts, count{"windows of excluded " + u, q.WindowsExcluded}, count{"cells imputed", q.CellsImputed})
 	for _, row := range counts {
 		if err := t.put(v{row.a, st.text}, v{row.n, st.integer}); err != nil {
 			return err

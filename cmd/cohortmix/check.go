@@ -65,8 +65,8 @@ func checkRun(ctx context.Context, o *checkOptions) error {
 			fmt.Fprintf(o.IO.Out, "  %s: read as %s-separated, with a decimal %s\n", f.Path, f.Delimiter, f.Decimal)
 		}
 	}
-	fmt.Fprintf(o.IO.Out, "%d windows: %d usable, %d dropped for missing cells, %d in excluded participants; %d cells imputed\n",
-		q.WindowsIn, q.WindowsIn-q.WindowsDropped-q.WindowsExcluded, q.WindowsDropped, q.WindowsExcluded, q.CellsImputed)
+	fmt.Fprintf(o.IO.Out, "%d windows: %d usable, %d dropped for missing cells, %d left out as non-wear, %d on days that were not valid, %d in excluded participants; %d cells imputed\n",
+		q.WindowsIn, q.WindowsUsed(), q.WindowsDropped, q.WindowsNonWear, q.WindowsInvalidDays, q.WindowsExcluded, q.CellsImputed)
 	fmt.Fprintf(o.IO.Out, "%d participants: %d usable, %d excluded\n", q.UnitsIn, len(t.Units), len(q.Excluded))
 	fmt.Fprintf(o.IO.Out, "%d features: %v\n", len(t.Features), t.Features)
 	for _, e := range q.Excluded {

@@ -51,6 +51,10 @@ type mainFlags struct {
 	Missing                string
 	MinWindows             int
 	NonWear, NonWearColumn string
+	TimeZone               string
+	ValidDay               string
+	ValidDays              int
+	WeekendDay             bool
 	Within                 string
 	WithinFeatures         []string
 	Axes                   string
@@ -124,6 +128,10 @@ func (m *mainFlags) registerRead(cmd *cobra.Command) {
 	f.IntVar(&m.MinWindows, "min-windows", 20, "exclude participants with fewer usable windows")
 	f.StringVar(&m.NonWear, "non-wear", "auto", "leave out windows the device was not worn, from activity counts with times: choi (90 minutes or more of zero counts, Choi et al. 2011), troiano (60 minutes or more, Troiano et al. 2008), none, or auto (choi where there are counts and times)")
 	f.StringVar(&m.NonWearColumn, "non-wear-column", "", "the activity-counts column of the non-wear rule (default: the feature named counts, count, cpm or axis1)")
+	f.StringVar(&m.TimeZone, "time-zone", "", "the study's time zone (an IANA name such as Europe/Berlin) in which times given with a UTC offset are read for days, hours and weekends (default UTC; times without an offset are read as written)")
+	f.StringVar(&m.ValidDay, "valid-day", "auto", "the wear that makes a day valid, as 10h (16h for a 24-hour protocol), or none; auto: 10h where the non-wear rule runs")
+	f.IntVar(&m.ValidDays, "valid-days", cohort.DefaultValidDays, "valid days a participant needs (with the valid-day rule); others are excluded and listed")
+	f.BoolVar(&m.WeekendDay, "weekend-day", false, "with the valid-day rule, a participant also needs a valid Saturday or Sunday")
 	f.StringVar(&m.Temp, "temp", "", "folder for temporary files of large inputs (default: the folder of --out, or the system's)")
 	f.BoolVar(&m.Quiet, "quiet", false, "print only the final summary")
 }
@@ -159,6 +167,21 @@ func (m *mainFlags) readOptions() (cohort.ReadOptions, error) {
 		ro.NonWear, ro.NonWearFeature = m.NonWear, m.NonWearColumn
 	default:
 		return ro, flagErrorf("--non-wear %q: use auto, choi, troiano or none", m.NonWear)
+	}
+	ro.TimeZone, ro.ValidDays, ro.WeekendDay = m.TimeZone, m.ValidDays, m.WeekendDay
+	switch m.ValidDay {
+	case "none", "":
+	case "auto":
+		ro.ValidDay, ro.ValidDayAuto = cohort.DefaultValidDay, true
+	default:
+		d, err := time.ParseDuration(m.ValidDay)
+		if err != nil || d <= 0 || d > 24*time.Hour {
+			return ro, flagErrorf("--valid-day %q: use hours of wear such as 10h or 16h, auto or none", m.ValidDay)
+		}
+		ro.ValidDay = d
+	}
+	if m.ValidDays < 1 {
+		return ro, flagErrorf("--valid-days %d: use a number ≥ 1", m.ValidDays)
 	}
 	return ro, nil
 }
@@ -296,7 +319,8 @@ func (m *mainFlags) settings() []reports.Setting {
 	return []reports.Setting{
 		s("id column", m.ID), s("order column", m.Order), s("wave column", m.Wave), s("label column", m.Label),
 		s("feature patterns", strings.Join(m.Features, ",")), s("missing cells", m.Missing), s("minimum windows", strconv.Itoa(m.MinWindows)),
-		s("non-wear rule", m.NonWear), s("non-wear counts column", m.NonWearColumn),
+		s("non-wear rule", m.NonWear), s("non-wear counts column", m.NonWearColumn), s("time zone", m.TimeZone),
+		s("valid day", m.ValidDay), s("valid days needed", strconv.Itoa(m.ValidDays)), s("a valid weekend day needed", strconv.FormatBool(m.WeekendDay)),
 		s("within-participant step", m.Within), s("within-step features", strings.Join(m.WithinFeatures, ",")),
 		s("axis means (align)", m.Axes), s("turned with the axis means", m.Turn), s("log scale", m.Log), s("rule for a range of states", m.StatesRule), s("calibration of the axis means", m.Calibration), s("fits of the states", strconv.Itoa(m.Fits)), s("valley ratio", fmt.Sprint(m.Valley)),
 		s("offset ICC threshold", fmt.Sprint(m.OffsetICC)), s("rest share", fmt.Sprint(m.RestShare)),
@@ -477,7 +501,18 @@ var modelFlags = map[string]func(m *mainFlags, f *reports.ModelFit, r reports.Mo
 		}
 	},
 	"non-wear-column": func(m *mainFlags, _ *reports.ModelFit, r reports.ModelRead) { m.NonWearColumn = r.NonWearFeature },
-	"within":          func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) { m.Within = f.Within },
+	"time-zone":       func(m *mainFlags, _ *reports.ModelFit, r reports.ModelRead) { m.TimeZone = r.TimeZone },
+	"valid-day": func(m *mainFlags, _ *reports.ModelFit, r reports.ModelRead) {
+		m.ValidDay = "none" // a model from before the rule kept every day
+		if r.ValidDay != "" {
+			m.ValidDay = r.ValidDay
+		}
+	},
+	"valid-days": func(m *mainFlags, _ *reports.ModelFit, r reports.ModelRead) {
+		m.ValidDays = max(r.ValidDays, 1)
+	},
+	"weekend-day": func(m *mainFlags, _ *reports.ModelFit, r reports.ModelRead) { m.WeekendDay = r.WeekendDay },
+	"within":      func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) { m.Within = f.Within },
 	"within-features": func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) {
 		m.WithinFeatures = slices.Clone(f.WithinFeatures)
 	},

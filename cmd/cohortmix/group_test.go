@@ -331,7 +331,7 @@ func TestCheckCommand(t *testing.T) {
 	dir := t.TempDir()
 	p := writeFile(t, dir, "c.csv", cohortText(4, 30)+"PZ,0,1.0,2.5\n")
 	out := mustRun(t, "check", p)
-	for _, want := range []string{"1 files", "121 windows: 120 usable, 0 dropped for missing cells, 1 in excluded participants", "5 participants: 4 usable, 1 excluded", "excluded PZ: 1 usable windows, fewer than the minimum 20"} {
+	for _, want := range []string{"1 files", "121 windows: 120 usable, 0 dropped for missing cells, 0 left out as non-wear, 0 on days that were not valid, 1 in excluded participants", "5 participants: 4 usable, 1 excluded", "excluded PZ: 1 usable windows, fewer than the minimum 20"} {
 		if !strings.Contains(out, want) {
 			t.Errorf("check output lacks %q:\n%s", want, out)
 		}

@@ -292,9 +292,9 @@ func TestNonWearIsLeftOut(t *testing.T) {
 	}
 	in := writeFile(t, dir, "c.csv", b.String())
 	model := filepath.Join(dir, "m.json")
-	mustRun(t, "group", in, "--non-wear", "troiano", "--out", filepath.Join(dir, "r.xlsx"), "--model", model, "--members", filepath.Join(dir, "m.csv"), "--states", "3", "--quiet")
+	mustRun(t, "group", in, "--non-wear", "troiano", "--valid-day", "none", "--out", filepath.Join(dir, "r.xlsx"), "--model", model, "--members", filepath.Join(dir, "m.csv"), "--states", "3", "--quiet")
 	// A run split in shards leaves out the same windows and gives the same members and sheet.
-	mustRun(t, "shard", "run", in, "--shards", "2", "--non-wear", "troiano", "--out", filepath.Join(dir, "s.xlsx"), "--members", filepath.Join(dir, "s.csv"), "--states", "3", "--quiet")
+	mustRun(t, "shard", "run", in, "--shards", "2", "--non-wear", "troiano", "--valid-day", "none", "--out", filepath.Join(dir, "s.xlsx"), "--members", filepath.Join(dir, "s.csv"), "--states", "3", "--quiet")
 	if a, b := readBytes(t, filepath.Join(dir, "m.csv")), readBytes(t, filepath.Join(dir, "s.csv")); !bytes.Equal(a, b) {
 		t.Error("the split run's members differ")
 	}

@@ -654,7 +654,8 @@ func Defaults(inputs ...string) Options {
 	}
 	return Options{
 		Inputs: inputs,
-		Read:   cohort.ReadOptions{ID: "participant", Order: "window", Missing: cohort.DropWindow, MinWindows: 20, NonWear: cohort.NonWearAuto},
+		Read: cohort.ReadOptions{ID: "participant", Order: "window", Missing: cohort.DropWindow, MinWindows: 20, NonWear: cohort.NonWearAuto,
+			ValidDay: cohort.DefaultValidDay, ValidDayAuto: true, ValidDays: cohort.DefaultValidDays},
 		Norm: normalize.Options{Within: normalize.WithinAlign, Scale: normalize.ScaleZ, Log: true, PCAVariance: 0.99,
 			OffsetICC: 0.3, RestShare: 0.1},
 		States: span(3, 8), StatesRule: profile.ByValley, Valley: profile.DefaultValley, Sample: 50_000,

@@ -55,7 +55,8 @@ type UnitInfo struct {
 	ID, Wave string
 	Ordinal  int
 	Windows  int
-	NonWear  int // windows left out as non-wear
+	NonWear  int         // windows left out as non-wear
+	Wear     cohort.Wear // wear time by day, under the valid-day rule
 }
 
 // FirstWindows are the first windows of one of the first units, from which the align step finds
@@ -97,7 +98,7 @@ func CensusOf(t *cohort.Table, o Options) (*Census, error) {
 		c.Lowest[j] = t.Lowest(j)
 	}
 	for u, un := range t.Units {
-		c.Units = append(c.Units, UnitInfo{ID: un.ID, Wave: un.Wave, Ordinal: un.Ordinal, Windows: un.Windows(), NonWear: un.NonWear})
+		c.Units = append(c.Units, UnitInfo{ID: un.ID, Wave: un.Wave, Ordinal: un.Ordinal, Windows: un.Windows(), NonWear: un.NonWear, Wear: un.Wear})
 		if u >= firstUnits {
 			continue
 		}
@@ -186,6 +187,8 @@ func MergeCensus(parts []*Census) (*Plan, error) {
 		q.WindowsDropped += cq.WindowsDropped
 		q.WindowsNonWear += cq.WindowsNonWear
 		q.NonWearRule = cq.NonWearRule
+		q.WindowsInvalidDays += cq.WindowsInvalidDays
+		q.ValidDayRule = cq.ValidDayRule
 		q.WindowsExcluded += cq.WindowsExcluded
 		q.CellsImputed += cq.CellsImputed
 		q.SortedUnits += cq.SortedUnits
@@ -1038,8 +1041,11 @@ func mergeAssigned(f *Fitted, units []UnitInfo, parts []*AssignPiece) error {
 func Finish(ctx context.Context, fp *FitPiece, parts []*AssignPiece) (*Fitted, error) {
 	p, o := fp.Plan, fp.Plan.Options
 	t := &cohort.Table{Features: p.Features, OrderKind: p.OrderKind, HasLabels: p.HasLabels, Quality: p.Quality, Files: p.Files}
+	if t.OrderKind == "time" {
+		t.TimeZone = o.Read.TimeZone
+	}
 	for _, u := range p.Units {
-		t.Units = append(t.Units, &cohort.Unit{ID: u.ID, Wave: u.Wave, Ordinal: u.Ordinal, NonWear: u.NonWear})
+		t.Units = append(t.Units, &cohort.Unit{ID: u.ID, Wave: u.Wave, Ordinal: u.Ordinal, NonWear: u.NonWear, Wear: u.Wear})
 	}
 	var shards []cohort.Shard
 	for _, ap := range parts {

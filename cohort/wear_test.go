@@ -1,0 +1,140 @@
+package cohort
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"strings"
+	"testing"
+	"time"
+)
+
+// wearDay is one day of a planted recording: hours of wear, then the device off (zero counts)
+// for the rest of the day.
+type wearDay struct{ worn int }
+
+// wearCohort writes one-minute windows of activity counts for participants, each a list of days
+// from 2026-10-19 (a Monday) in Europe/Berlin, with times carrying their UTC offset, so the
+// week holds the end of daylight saving time (Sunday 25 October: 25 hours).
+func wearCohort(t *testing.T, people map[string][]int) string {
+	t.Helper()
+	loc, err := time.LoadLocation("Europe/Berlin")
+	if err != nil {
+		t.Fatal(err)
+	}
+	var b strings.Builder
+	b.WriteString("participant,window,counts\n")
+	for _, id := range []string{"A", "B", "C", "D"} {
+		days, ok := people[id]
+		if !ok {
+			continue
+		}
+		for d, worn := range days {
+			start := time.Date(2026, 10, 19+d, 0, 0, 0, 0, loc)
+			end := time.Date(2026, 10, 20+d, 0, 0, 0, 0, loc)
+			m := 0
+			for at := start; at.Before(end); at = at.Add(time.Minute) {
+				c := 0
+				if m >= 7*60 && m < (7+worn)*60 { // worn from 07:00 for worn hours
+					c = 50 + (m*37)%400
+				}
+				fmt.Fprintf(&b, "%s,%s,%d\n", id, at.Format(time.RFC3339), c)
+				m++
+			}
+		}
+	}
+	return write(t, t.TempDir(), "wear.csv", []byte(b.String()))
+}
+
+// The valid-day rule (common practice: a day counts with 10 hours of wear, a participant with 4
+// such days): days of too little wear are left out and counted, participants short of valid
+// days are excluded with the reason, the accounting adds up, and days are read on the study's
+// wall clock, so the day daylight saving time ends has 25 hours.
+func TestValidDays(t *testing.T) {
+	p := wearCohort(t, map[string][]int{
+		"A": {12, 12, 12, 12, 12, 12, 12}, // 7 valid days, Saturday and Sunday among them
+		"B": {12, 12, 12, 6, 6, 6, 6},     // 3 valid days
+		"C": {12, 12, 12, 12, 12, 2, 2},   // 5 valid weekdays, no valid weekend day
+		"D": {12, 12, 12, 12, 11, 12, 9},  // 6 valid, one short day (Sunday, 9 h)
+	})
+	for _, tc := range []struct {
+		name     string
+		opts     ReadOptions
+		kept     []string
+		excluded map[string]string // id: a phrase of the reason
+	}{
+		{"four valid days", ReadOptions{NonWear: NonWearChoi, ValidDay: DefaultValidDay, TimeZone: "Europe/Berlin"},
+			[]string{"A", "C", "D"}, map[string]string{"B": "3 valid days (10 h or more of wear), fewer than the 4 required"}},
+		{"a weekend day too", ReadOptions{NonWear: NonWearChoi, ValidDay: DefaultValidDay, WeekendDay: true, TimeZone: "Europe/Berlin"},
+			[]string{"A", "D"}, map[string]string{"B": "3 valid days", "C": "no valid weekend day among its 5 valid days"}},
+		{"a 24-hour protocol", ReadOptions{NonWear: NonWearChoi, ValidDay: 16 * time.Hour, ValidDays: 1, TimeZone: "Europe/Berlin"},
+			nil, nil}, // nobody wears it 16 h: refused with advice
+		{"auto without a non-wear rule", ReadOptions{ValidDay: DefaultValidDay, ValidDayAuto: true},
+			[]string{"A", "B", "C", "D"}, nil},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			tab, err := Read(context.Background(), []string{p}, tc.opts)
+			if tc.kept == nil {
+				if !errors.Is(err, ErrTooFew) || !strings.Contains(err.Error(), "the most any has is 0") {
+					t.Fatalf("want a refusal naming the valid days, got %v", err)
+				}
+				return
+			}
+			if err != nil {
+				t.Fatal(err)
+			}
+			defer tab.Close()
+			var kept []string
+			used := 0
+			for _, u := range tab.Units {
+				kept = append(kept, u.ID)
+				used += u.Windows()
+			}
+			if strings.Join(kept, ",") != strings.Join(tc.kept, ",") {
+				t.Errorf("kept %v, want %v", kept, tc.kept)
+			}
+			for _, e := range tab.Quality.Excluded {
+				if want := tc.excluded[e.ID]; want == "" || !strings.Contains(e.Reason, want) {
+					t.Errorf("%s excluded: %q, want %q", e.ID, e.Reason, want)
+				}
+			}
+			q := tab.Quality
+			if q.WindowsUsed() != used {
+				t.Errorf("accounting: %d windows used by the counts, %d in the units", q.WindowsUsed(), used)
+			}
+			if tc.opts.ValidDayAuto {
+				if q.ValidDayRule != "" || q.WindowsInvalidDays != 0 {
+					t.Errorf("auto applied the rule without a non-wear rule: %q", q.ValidDayRule)
+				}
+				return
+			}
+			d := tab.Units[len(tab.Units)-1].Wear // D
+			// D wears from 07:00, so its days of 12, 11 and 9 hours are read whole; the 25-hour
+			// Sunday is its worst day.
+			if d.Days != 7 || d.ValidDays != 6 || d.Worst != "2026-10-25" || d.WorstHours != 9 || d.LeftOut != 9*60 || !d.WeekendOK {
+				t.Errorf("D's wear %+v", d)
+			}
+			if !strings.Contains(strings.Join(q.Notes, ";"), "valid days: a day counts with 10 h or more of wear") {
+				t.Errorf("notes %v", q.Notes)
+			}
+		})
+	}
+}
+
+// Read in UTC, the same instants fall on other days: Berlin's midnight is 22:00 or 23:00 UTC, so
+// each day's first hour of recording belongs to the day before; a zone that is not known is
+// refused.
+func TestValidDaysInUTC(t *testing.T) {
+	p := wearCohort(t, map[string][]int{"A": {12, 12, 12, 12, 12, 12, 12}})
+	tab, err := Read(context.Background(), []string{p}, ReadOptions{NonWear: NonWearChoi, ValidDay: DefaultValidDay})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer tab.Close()
+	if w := tab.Units[0].Wear; w.Days != 8 || w.ValidDays != 7 || w.WorstHours != 0 { // 2026-10-18 22:00 UTC starts it, without wear
+		t.Errorf("in UTC: %+v", w)
+	}
+	if _, err := Read(context.Background(), []string{p}, ReadOptions{TimeZone: "Berlin"}); !errors.Is(err, ErrBadOption) || !strings.Contains(err.Error(), "IANA name") {
+		t.Errorf("an unknown zone: %v", err)
+	}
+}
