@@ -153,6 +153,10 @@ type GroupOptions struct {
 	// bouts); Bouts is not used then.
 	Counts, Bouts [][]float64
 	NoBouts       bool
+	// DayParts, when set, are each participant's windows in each state within each part of the
+	// day (parts·k counts, part-major), which the mixture groups in place of Counts: one block
+	// of states per part (BoutTable); the other methods take day-part shares as their shares.
+	DayParts [][]float64
 	// NoStability leaves out the bootstrap stability of the groups chosen (GroupStability).
 	NoStability bool
 	// Quick fits the mixture from 2 starts each, to a looser tolerance (1e-4 per row) and

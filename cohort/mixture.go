@@ -33,16 +33,31 @@ const mixtureStarts = 5
 // state: per row, its share of windows in each state times its number of bouts, then for each
 // state the windows that continue a bout and those that start one; and the sizes of its column
 // blocks. With noBouts it is the windows in each state alone (bouts is not used).
-func BoutTable(counts, bouts [][]float64, noBouts bool) (*mat.Dense, []int, error) {
+//
+// With parts (each participant's windows in each state within each part of the day, part-major,
+// as GroupOptions.DayParts), the first block gives way to one block of states per part, each
+// cell its windows' share of the participant's times its number of bouts (or its windows, with
+// noBouts): the parts' blocks add up to the whole recording's.
+func BoutTable(counts, bouts, parts [][]float64, noBouts bool) (*mat.Dense, []int, error) {
 	n := len(counts)
-	if n == 0 || (!noBouts && len(bouts) != n) {
-		return nil, nil, fmt.Errorf("cohort: %d participants' windows and %d participants' bouts: %w", n, len(bouts), ErrBadOption)
+	if n == 0 || (!noBouts && len(bouts) != n) || (parts != nil && len(parts) != n) {
+		return nil, nil, fmt.Errorf("cohort: %d participants' windows, %d participants' bouts and %d participants' parts of the day: %w", n, len(bouts), len(parts), ErrBadOption)
 	}
 	s := len(counts[0])
-	cols := 3 * s
+	lead := s // the columns before the bouts'
 	blocks := []int{s}
+	if parts != nil {
+		if len(parts[0])%s != 0 || len(parts[0]) == 0 {
+			return nil, nil, fmt.Errorf("cohort: %d counts by part of the day for %d states: %w", len(parts[0]), s, ErrBadOption)
+		}
+		lead, blocks = len(parts[0]), nil
+		for p := 0; p < lead/s; p++ {
+			blocks = append(blocks, s)
+		}
+	}
+	cols := lead + 2*s
 	if noBouts {
-		cols = s
+		cols = lead
 	} else {
 		for j := 0; j < s; j++ {
 			blocks = append(blocks, 2)
@@ -50,11 +65,15 @@ func BoutTable(counts, bouts [][]float64, noBouts bool) (*mat.Dense, []int, erro
 	}
 	x := mat.NewDense(n, cols, nil)
 	for i := range counts {
-		if len(counts[i]) != s || (!noBouts && len(bouts[i]) != s) {
+		if len(counts[i]) != s || (!noBouts && len(bouts[i]) != s) || (parts != nil && len(parts[i]) != lead) {
 			return nil, nil, fmt.Errorf("cohort: participant %d has %d states' windows, participant 0 %d: %w", i, len(counts[i]), s, ErrBadOption)
 		}
 		if noBouts {
-			x.SetRow(i, counts[i])
+			if parts != nil {
+				x.SetRow(i, parts[i])
+			} else {
+				x.SetRow(i, counts[i])
+			}
 			continue
 		}
 		var total, runs float64
@@ -68,9 +87,14 @@ func BoutTable(counts, bouts [][]float64, noBouts bool) (*mat.Dense, []int, erro
 		}
 		for j := 0; j < s; j++ {
 			c, b := counts[i][j], bouts[i][j]
-			x.Set(i, j, c/total*runs)
-			x.Set(i, s+2*j, c-b)
-			x.Set(i, s+2*j+1, b)
+			if parts == nil {
+				x.Set(i, j, c/total*runs)
+			}
+			x.Set(i, lead+2*j, c-b)
+			x.Set(i, lead+2*j+1, b)
+		}
+		for j := 0; parts != nil && j < lead; j++ {
+			x.Set(i, j, parts[i][j]/total*runs)
 		}
 	}
 	return x, blocks, nil
@@ -85,7 +109,7 @@ func groupMixture(ctx context.Context, shares [][]float64, opts GroupOptions) (*
 	if opts.Criterion != ByBIC && opts.Criterion != ByICL {
 		return nil, fmt.Errorf("cohort: the mixture method chooses its number of groups by bic or icl, not %s: %w", opts.Criterion, ErrBadOption)
 	}
-	x, blocks, err := BoutTable(opts.Counts, opts.Bouts, opts.NoBouts)
+	x, blocks, err := BoutTable(opts.Counts, opts.Bouts, opts.DayParts, opts.NoBouts)
 	if err != nil {
 		return nil, err
 	}
@@ -261,7 +285,10 @@ func mixtureStability(ctx context.Context, x *mat.Dense, blocks []int, g *Groupi
 // PlaceMixture puts participants into the groups of a frozen mixture (Grouping.Mixture): each
 // in its most probable group, with that probability, and its distance to the group's centre
 // in the Hellinger embedding (centroids), as GroupSignatures measured the members'.
-func PlaceMixture(m *mixture.DMM, centroids [][]float64, shares, counts, bouts [][]float64) (*Grouping, error) {
+//
+// parts are the participants' windows by part of the day when the mixture was fitted on them
+// (GroupOptions.DayParts), else nil; shares are then the day-part shares.
+func PlaceMixture(m *mixture.DMM, centroids [][]float64, shares, counts, bouts, parts [][]float64) (*Grouping, error) {
 	n := len(shares)
 	g := &Grouping{Method: Mixture, K: m.K, Centroids: centroids, Mixture: m, Labels: make([]int, n), Distance: make([]float64, n), Silhouette: make([]float64, n), Posterior: make([]float64, n)}
 	for i := range g.Silhouette {
@@ -270,7 +297,11 @@ func PlaceMixture(m *mixture.DMM, centroids [][]float64, shares, counts, bouts [
 	if n == 0 {
 		return g, nil
 	}
-	x, _, err := BoutTable(counts, bouts, len(m.Blocks) == 1)
+	lead := 1 // the blocks of states: one, or one per part of the day
+	if parts != nil && len(counts) > 0 && len(counts[0]) > 0 {
+		lead = len(parts[0]) / len(counts[0])
+	}
+	x, _, err := BoutTable(counts, bouts, parts, len(m.Blocks) == lead)
 	if err != nil {
 		return nil, err
 	}

@@ -171,6 +171,20 @@ func choiNonWear(times []int64, counts []float64, step time.Duration) []bool {
 	return out
 }
 
+// NonWearOf marks the windows of one participant that fall in a non-wear period by the named
+// rule (NonWearChoi or NonWearTroiano): times are the windows' start times (Unix ns, increasing)
+// and counts their activity counts. It is what the reader applies (ReadOptions.NonWear), for a
+// program that holds its windows elsewhere.
+func NonWearOf(rule string, times []int64, counts []float64) ([]bool, error) {
+	if rule != NonWearChoi && rule != NonWearTroiano {
+		return nil, fmt.Errorf("cohort: non-wear rule %q: %w; use %s or %s", rule, ErrBadOption, NonWearChoi, NonWearTroiano)
+	}
+	if len(times) != len(counts) {
+		return nil, fmt.Errorf("cohort: %d times and %d counts: %w", len(times), len(counts), ErrBadOption)
+	}
+	return nonWearOf(rule, times, counts), nil
+}
+
 // nonWearOf applies the named rule.
 func nonWearOf(rule string, times []int64, counts []float64) []bool {
 	step := medianStep(times)

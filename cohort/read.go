@@ -234,8 +234,8 @@ type Table struct {
 	Quality   Quality
 	Files     []FileInfo
 	OrderKind string // "integer", "time" or "file order"
-	// TimeZone is the zone in which times with a UTC offset are read on the wall clock
-	// (ReadOptions.TimeZone; "" for UTC).
+	// TimeZone is the zone in which the times, given with a UTC offset, are read on the wall
+	// clock (ReadOptions.TimeZone); "" for UTC, and for times without an offset, read as written.
 	TimeZone  string
 	HasLabels bool
 	// Constancy says which features took one value in every kept window, for a table read as a
@@ -1260,7 +1260,7 @@ func (r *reader) finish() (*Table, error) {
 		t.Close()
 		return nil, err
 	}
-	if r.orderKind == "time" {
+	if r.orderKind == "time" && r.orderZone == "with a UTC offset" {
 		t.TimeZone = r.opts.TimeZone
 	}
 	if wr != nil {

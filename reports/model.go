@@ -125,6 +125,18 @@ type ModelFit struct {
 	Bootstrap      int      `json:"bootstrap"`
 	Seed           uint64   `json:"seed"`
 	WindowSeconds  float64  `json:"window_seconds,omitempty"` // the window length given (0: from the order column's times)
+	// Signature is what the grouping saw ("" or "whole": the whole recording; "day-parts": the
+	// parts of the day starting at the hours of DayParts).
+	Signature string `json:"signature,omitempty"`
+	DayParts  []int  `json:"day_parts,omitempty"`
+}
+
+// Parts is how many parts of the day the grouping saw the states in (1: the whole recording).
+func (f *ModelFit) Parts() int {
+	if f == nil || f.Signature != "day-parts" {
+		return 1
+	}
+	return max(len(f.DayParts), 1)
 }
 
 // ModelNorm is a frozen normalize.Fit.
@@ -484,7 +496,7 @@ func (m *Model) check() error {
 	if !(g.Atypical >= 0) || math.IsInf(g.Atypical, 0) {
 		return fmt.Errorf("grouping.atypical_distance is %v", g.Atypical)
 	}
-	if err := g.checkMixture(s.K); err != nil {
+	if err := g.checkMixture(s.K, m.Fit.Parts()); err != nil {
 		return err
 	}
 	if s.Calibrate && !(s.Gravity > 0 && !math.IsInf(s.Gravity, 0)) {
@@ -501,8 +513,9 @@ func (m *Model) check() error {
 
 // checkMixture checks the mixture method's model against k groups over s states: a weight per
 // group summing to 1, and positive finite Dirichlet parameters over the columns of
-// cohort.BoutTable (s, or 3s with the bouts).
-func (g ModelGrouping) checkMixture(s int) error {
+// cohort.BoutTable (s, or 3s with the bouts; with the states seen in p parts of the day, p·s or
+// p·s + 2s).
+func (g ModelGrouping) checkMixture(s, p int) error {
 	mx := g.Mixture
 	if g.Method == "mixture" && mx == nil {
 		return errors.New("grouping: the mixture method's model is missing")
@@ -517,8 +530,8 @@ func (g ModelGrouping) checkMixture(s int) error {
 		}
 		cols += b
 	}
-	if cols != s && cols != 3*s {
-		return fmt.Errorf("grouping.mixture.blocks %v cover %d columns, not %d or %d for %d states", mx.Blocks, cols, s, 3*s, s)
+	if cols != p*s && cols != (p+2)*s || len(mx.Blocks) != p && len(mx.Blocks) != p+s {
+		return fmt.Errorf("grouping.mixture.blocks %v cover %d columns, not %d or %d for %d states in %d parts of the day", mx.Blocks, cols, p*s, (p+2)*s, s, p)
 	}
 	if len(mx.Weights) != g.K || len(mx.Alpha) != g.K {
 		return fmt.Errorf("grouping.mixture has %d weights and %d alpha rows for %d groups", len(mx.Weights), len(mx.Alpha), g.K)

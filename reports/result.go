@@ -24,7 +24,8 @@ type Setting struct{ Name, Value string }
 type UnitRow struct {
 	ID, Wave   string
 	Windows    int
-	NonWear    int // windows left out as non-wear (cohort.ReadOptions.NonWear)
+	NonWear    int         // windows left out as non-wear (cohort.ReadOptions.NonWear)
+	Wear       cohort.Wear // wear time by day under the valid-day rule (zero without it)
 	Rhythm     profile.Rhythm
 	Group      int
 	Silhouette float64
@@ -42,6 +43,17 @@ type UnitRow struct {
 	Atypical bool
 }
 
+// GroupTimeOfDay is when in the day and week one group's members spent their windows: the share
+// of each state among the group's windows in each hour of the wall clock, and on weekdays and at
+// weekends (a share row is nil where the group has no window).
+type GroupTimeOfDay struct {
+	ByHour           [24][]float64
+	Hours            [24]int // windows in each hour
+	Weekday, Weekend []float64
+	WeekdayWindows   int
+	WeekendWindows   int
+}
+
 // Result is everything an analysis produced, as the reports show it.
 type Result struct {
 	Tool, Version string
@@ -53,11 +65,18 @@ type Result struct {
 	Features      []string
 	OrderKind     string
 	Quality       cohort.Quality
-	Norm          *normalize.Fit
-	States        *profile.States
-	StateNames    []string
-	StateLines    []string     // one-line description per state
-	StateWords    []StateWords // each state in plain words
+	// TimeZone is the zone times with an offset were read in ("" for UTC, or times without
+	// one); TimeOfDay each group's time of day, nil without times; Signature and DayParts what
+	// the grouping saw (job.Options.Signature).
+	TimeZone   string
+	TimeOfDay  []GroupTimeOfDay
+	Signature  string
+	DayParts   profile.DayParts
+	Norm       *normalize.Fit
+	States     *profile.States
+	StateNames []string
+	StateLines []string     // one-line description per state
+	StateWords []StateWords // each state in plain words
 	// WindowLength is the length of one window (0: not known), and WindowSource where it came
 	// from ("the order column's times" or "--window-length").
 	WindowLength time.Duration

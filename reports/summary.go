@@ -191,6 +191,9 @@ func sheetGuide(r *Result) [][2]string {
 		g = append(g, [2]string{SheetChanges, "Who moved between groups since " + modelText(r.Changes) + ", and what became of each group."})
 	}
 	g = append(g, [2]string{SheetGroups, "Each group's size, fit and mean mixture of states."})
+	if r.TimeOfDay != nil {
+		g = append(g, [2]string{SheetTimeOfDay, "Each group's day hour by hour, its weekdays against its weekends, and its parts of the day."})
+	}
 	if r.Grouping.Stability != nil || len(r.Sensitivity) > 0 {
 		g = append(g, [2]string{SheetStability, "How well each group holds when the participants are drawn again, and whether the groups depend on the choices of method."})
 	}

@@ -42,7 +42,7 @@ func BuildWorkbook(r *Result) (*excelize.File, error) {
 	if r.Synthetic {
 		st.footer = "Synthetic data: no real person's data"
 	}
-	steps := []func(*excelize.File, *styles, *Result) error{summarySheet, chartsSheet, definitionsSheet, participantsSheet, changesSheet, groupsSheet, stabilitySheet, separatingSheet, statesSheet, choiceSheet, qualitySheet, settingsSheet}
+	steps := []func(*excelize.File, *styles, *Result) error{summarySheet, chartsSheet, definitionsSheet, participantsSheet, changesSheet, groupsSheet, timeOfDaySheet, stabilitySheet, separatingSheet, statesSheet, choiceSheet, qualitySheet, settingsSheet}
 	for _, step := range steps {
 		if err := step(f, st, r); err != nil {
 			return nil, fmt.Errorf("reports: %w", err)
@@ -204,6 +204,14 @@ func participantsSheet(f *excelize.File, st *styles, r *Result) error {
 	if nonWear {
 		widths = slices.Insert(widths, 3, 11)
 	}
+	wear := r.Quality.ValidDayRule != "" // the wear-time summary, after the non-wear column
+	at := 3
+	if nonWear {
+		at = 4
+	}
+	if wear {
+		widths = slices.Insert(widths, at, 9, 10, 12, 11)
+	}
 	if stay {
 		widths = append(widths, 13)
 	}
@@ -237,6 +245,9 @@ func participantsSheet(f *excelize.File, st *styles, r *Result) error {
 	if nonWear {
 		head = slices.Insert(head, 3, "non-wear windows left out")
 	}
+	if wear {
+		head = slices.Insert(head, at, "valid days", "wear (h) per valid day", "least-worn day", "its wear (h)")
+	}
 	if stay {
 		head = append(head, "stays with its group (share of resamples)")
 	}
@@ -258,7 +269,7 @@ func participantsSheet(f *excelize.File, st *styles, r *Result) error {
 	if rhythm {
 		head = append(head, rhythmHeads...)
 	}
-	text := map[string]bool{"participant": true, "wave": true, "group": true, "flag": true}
+	text := map[string]bool{"participant": true, "wave": true, "group": true, "flag": true, "least-worn day": true}
 	numeric := make([]bool, len(head))
 	for i, h := range head {
 		numeric[i] = !text[h]
@@ -276,6 +287,9 @@ func participantsSheet(f *excelize.File, st *styles, r *Result) error {
 			{u.Posterior, st.dec3}, {u.Silhouette, st.dec3}, {u.Distance, st.dec3}, {u.Flag, st.text}}
 		if nonWear {
 			cells = slices.Insert(cells, 3, v{u.NonWear, st.integer})
+		}
+		if wear {
+			cells = slices.Insert(cells, at, v{u.Wear.ValidDays, st.integer}, v{u.Wear.MeanHours, st.dec1}, v{u.Wear.Worst, st.text}, v{u.Wear.WorstHours, st.dec1})
 		}
 		if stay {
 			cells = append(cells, v{u.Stay, st.pct})

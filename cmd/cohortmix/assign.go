@@ -117,8 +117,18 @@ func assignRun(ctx context.Context, o *assignOptions) error {
 		return err
 	}
 	shares, counts, bouts := job.SignatureColumns(f.Sigs)
+	var parts [][]float64
+	if m.Fit != nil {
+		if parts, err = f.PartColumns(m.Fit.Signature, m.Fit.DayParts); err != nil {
+			return err
+		}
+		if parts != nil {
+			shares = job.PartShares(parts)
+			f.Signature, f.DayParts = job.SignatureDayParts, m.Fit.DayParts
+		}
+	}
 	if mx := m.GroupMixture(); mx != nil {
-		f.Grouping, err = cohort.PlaceMixture(mx, m.Grouping.Centroids, shares, counts, bouts)
+		f.Grouping, err = cohort.PlaceMixture(mx, m.Grouping.Centroids, shares, counts, bouts, parts)
 	} else {
 		method, _ := cohort.ParseMethod(m.Grouping.Method)
 		f.Grouping, err = cohort.Place(method, m.Grouping.Centroids, shares, o.Workers)

@@ -76,6 +76,8 @@ type mainFlags struct {
 	Seed                   uint64
 	WindowLength           time.Duration
 	GroupValley            float64
+	Signature              string
+	DayParts               []int
 	Workers                int
 	Members, Model         string
 	Pseudonymize           string
@@ -104,6 +106,8 @@ func (m *mainFlags) register(cmd *cobra.Command) {
 	f.StringVar(&m.Groups, "groups", defaultGroups, "number of participant groups, or a range to choose from (1, no distinct groups, is a possible answer of the mixture method)")
 	f.StringVar(&m.Method, "method", "mixture", "grouping: "+cohort.MethodHelp())
 	f.StringVar(&m.Criterion, "criterion", defaultCriterion, "rule for the number of groups: icl or bic for the mixture method (the integrated completed likelihood, or the Bayesian information criterion); for the others gap-stable-firm (gap-stable's number, or when that grouping is tentative, its stability below 0.8, the largest smaller number whose grouping is not), gap-stable (the gap statistic's number, then one fewer while that groups more stably by more than 0.1), gap, stability or silhouette")
+	f.StringVar(&m.Signature, "signature", job.SignatureWhole, "what the groups are found on: whole (each participant's time in each state over the whole recording) or day-parts (in each part of the day; needs times)")
+	f.IntSliceVar(&m.DayParts, "day-parts", []int{0, 6, 12, 18}, "the hours at which the parts of the day begin: night, morning, afternoon, evening (the first may be before midnight, as 22,6,12,18)")
 	f.Float64Var(&m.GroupValley, "group-valley", 0, "lower the number of groups while two of them form one mode (density between them at least this share of its height; 0: off)")
 	f.IntVar(&m.Bootstrap, "bootstrap", 20, "resamples for stability and reference sets for the gap statistic")
 	f.Uint64Var(&m.Seed, "seed", 1, "seed for every random step")
@@ -289,6 +293,16 @@ func (m *mainFlags) options(inputs []string) (job.Options, error) {
 		return o, flagErrorf("--group-valley %v: use a share in [0, 1)", m.GroupValley)
 	}
 	o.GroupValley = m.GroupValley
+	switch m.Signature {
+	case job.SignatureWhole:
+	case job.SignatureDayParts:
+		o.Signature, o.DayParts = m.Signature, profile.DayParts(m.DayParts)
+		if err := o.DayParts.Check(); err != nil {
+			return o, flagErrorf("--day-parts %v: %s", m.DayParts, strings.TrimPrefix(err.Error(), "profile: "))
+		}
+	default:
+		return o, flagErrorf("--signature %q: use whole or day-parts", m.Signature)
+	}
 	if o.Criterion, err = cohort.ParseCriterion(criterion); err != nil {
 		return o, &flagError{err}
 	}
@@ -326,6 +340,7 @@ func (m *mainFlags) settings() []reports.Setting {
 		s("offset ICC threshold", fmt.Sprint(m.OffsetICC)), s("rest share", fmt.Sprint(m.RestShare)),
 		s("cohort scaling", m.Scale), s("PCA", m.PCA), s("states", m.States), s("window sample", strconv.Itoa(m.Sample)),
 		s("groups", m.Groups), s("grouping method", m.Method), s("criterion for groups", m.Criterion), s("group valley cap", strconv.FormatFloat(m.GroupValley, 'g', -1, 64)),
+		s("signature", m.Signature), s("parts of the day begin at", strings.Trim(strings.Join(strings.Fields(fmt.Sprint(m.DayParts)), ","), "[]")),
 		s("bootstrap / gap references", strconv.Itoa(m.Bootstrap)), s("seed", strconv.FormatUint(m.Seed, 10)), s("window length", windowSetting(m.WindowLength)),
 	}
 }
@@ -569,8 +584,20 @@ var modelFlags = map[string]func(m *mainFlags, f *reports.ModelFit, r reports.Mo
 	"method":       func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) { m.Method = f.Method },
 	"criterion":    func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) { m.Criterion = f.Criterion },
 	"group-valley": func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) { m.GroupValley = f.GroupValley },
-	"bootstrap":    func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) { m.Bootstrap = f.Bootstrap },
-	"seed":         func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) { m.Seed = f.Seed },
+	"signature": func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) {
+		m.Signature = job.SignatureWhole
+		if f.Signature != "" {
+			m.Signature = f.Signature
+		}
+	},
+	"day-parts": func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) {
+		m.DayParts = []int{0, 6, 12, 18}
+		if len(f.DayParts) > 0 {
+			m.DayParts = slices.Clone(f.DayParts)
+		}
+	},
+	"bootstrap": func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) { m.Bootstrap = f.Bootstrap },
+	"seed":      func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) { m.Seed = f.Seed },
 	"window-length": func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) {
 		m.WindowLength = time.Duration(math.Round(f.WindowSeconds * float64(time.Second)))
 	},

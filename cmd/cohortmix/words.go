@@ -24,6 +24,7 @@ var optionFlags = map[string]string{
 	"cohort.GroupOptions.Groups":        "--groups",
 	"cohort.GroupOptions.Method":        "--method",
 	"job.Options.Groups":                "--groups",
+	"job.Options.Signature whole":       "--signature whole",
 	"job.Options.Window":                "--window-length",
 	"job.Options.Axes":                  "--axes",
 	"job.Options.NoAxes":                "--axes none",

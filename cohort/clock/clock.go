@@ -36,6 +36,7 @@ type Clock struct {
 	loc        *time.Location
 	from, to   int64 // the instants [from, to) of the hour last read
 	last       Stamp
+	offset     int64 // the zone's offset from UTC in that hour, in ns
 	haveCached bool
 }
 
@@ -75,6 +76,16 @@ func (c *Clock) At(t int64) Stamp {
 	c.from = t - within
 	c.to = c.from + int64(time.Hour)
 	c.last = Stamp{Day: time.Date(y, m, d, 0, 0, 0, 0, time.UTC).Unix() / 86400, Hour: tt.Hour(), Weekday: tt.Weekday()}
+	_, off := tt.Zone()
+	c.offset = int64(off) * int64(time.Second)
 	c.haveCached = true
 	return c.last
+}
+
+// Wall is the instant t (Unix ns) moved by the zone's offset, so that read in UTC it shows the
+// wall clock: how times without an offset are held. Where daylight saving time ends, the
+// repeated hour's two instants each map onto the same wall-clock hour.
+func (c *Clock) Wall(t int64) int64 {
+	c.At(t)
+	return t + c.offset
 }

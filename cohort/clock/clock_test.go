@@ -57,3 +57,21 @@ func TestStampsOfUTC(t *testing.T) {
 		t.Fatal("an unknown zone was accepted")
 	}
 }
+
+// TestWall moves instants onto the wall clock: 06:30 UTC is 08:30 in Berlin in summer and 07:30
+// in winter (CEST +02:00, CET +01:00).
+func TestWall(t *testing.T) {
+	c, _ := In("Europe/Berlin")
+	for _, tc := range []struct {
+		at   time.Time
+		want string
+	}{{time.Date(2026, 7, 1, 6, 30, 0, 0, time.UTC), "2026-07-01T08:30"}, {time.Date(2026, 12, 1, 6, 30, 0, 0, time.UTC), "2026-12-01T07:30"}} {
+		if got := time.Unix(0, c.Wall(tc.at.UnixNano())).UTC().Format("2006-01-02T15:04"); got != tc.want {
+			t.Errorf("%v: %s, want %s", tc.at, got, tc.want)
+		}
+	}
+	var utc Clock
+	if at := time.Date(2026, 7, 1, 6, 30, 0, 0, time.UTC).UnixNano(); utc.Wall(at) != at {
+		t.Error("UTC moved a time")
+	}
+}

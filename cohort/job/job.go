@@ -48,7 +48,13 @@ type Options struct {
 	Valley float64 // see profile.MergeStates; 0 means profile.DefaultValley
 	// GroupValley lowers the number of groups while two form one mode (cohort.GroupOptions.Valley).
 	GroupValley float64
-	Seed        uint64
+	// Signature is what the grouping sees of each participant: its windows in each state over
+	// the whole recording (SignatureWhole, ""), or in each state within each part of the day
+	// (SignatureDayParts, the parts of DayParts; nil means profile.DefaultDayParts), which
+	// needs times in the order column. The bouts are seen either way.
+	Signature string
+	DayParts  profile.DayParts
+	Seed      uint64
 	// Window is the length of one window, given on the command line (0: from the order
 	// column's times, when it holds times).
 	Window time.Duration
@@ -66,18 +72,23 @@ const normSample = 200_000
 
 // Fitted is every fit of one run, before it is described.
 type Fitted struct {
-	Table    *cohort.Table
-	Fit      *normalize.Fit
-	States   *profile.States
-	Sigs     []profile.Signature
-	Rhythm   []profile.Rhythm      // each unit's rest-activity measures (NaN where they cannot be read)
-	Medians  [][]float64           // each unit's median of each feature
-	Desc     []profile.Description // the states in the original units
-	Labels   *profile.LabelTable   // states × known labels, when labels are given
-	Devices  []normalize.Device    // each unit's device, when the states are aligned
-	sample   sampleUnits           // the participants and windows sampled for the fit
-	Notes    []string              // what the run decided on its own, for the reader
-	Warnings []string              // what the reader must weigh before trusting the groups
+	Table  *cohort.Table
+	Fit    *normalize.Fit
+	States *profile.States
+	Sigs   []profile.Signature
+	Rhythm []profile.Rhythm // each unit's rest-activity measures (NaN where they cannot be read)
+	// TimeOfDay is when in the day and week each unit's windows fall, by state (nil without
+	// times in the order column).
+	TimeOfDay []*profile.TimeOfDay
+	Signature string                // what the grouping saw (Options.Signature)
+	DayParts  profile.DayParts      // the parts of the day it saw, for the day-part signature
+	Medians   [][]float64           // each unit's median of each feature
+	Desc      []profile.Description // the states in the original units
+	Labels    *profile.LabelTable   // states × known labels, when labels are given
+	Devices   []normalize.Device    // each unit's device, when the states are aligned
+	sample    sampleUnits           // the participants and windows sampled for the fit
+	Notes     []string              // what the run decided on its own, for the reader
+	Warnings  []string              // what the reader must weigh before trusting the groups
 	// Reproducibility is how alike the fits of the states from different random starts group
 	// the sampled participants (FitPiece.Reproducibility); NaN when not measured.
 	Reproducibility float64
@@ -281,11 +292,22 @@ func fitEveryWindow(ctx context.Context, t *cohort.Table, plan *Plan, sample sam
 // groups against other choices.
 func groupFitted(ctx context.Context, f *Fitted, o Options) error {
 	shares, counts, bouts := SignatureColumns(f.Sigs)
+	parts, err := f.PartColumns(o.Signature, o.DayParts)
+	if err != nil {
+		return err
+	}
+	if parts != nil {
+		shares = PartShares(parts)
+		f.Signature, f.DayParts = SignatureDayParts, o.DayParts
+		if f.DayParts == nil {
+			f.DayParts = profile.DefaultDayParts
+		}
+	}
 	if o.Progress != nil {
 		o.Progress("grouping participants")
 	}
 	g, err := cohort.GroupSignatures(ctx, shares, cohort.GroupOptions{Method: o.Method, Groups: o.Groups, Criterion: o.Criterion, Bootstrap: o.Bootstrap, Seed: o.Seed, Valley: o.GroupValley,
-		Counts: counts, Bouts: bouts, Workers: o.Workers, Progress: o.Steps})
+		Counts: counts, Bouts: bouts, DayParts: parts, Workers: o.Workers, Progress: o.Steps})
 	if err != nil {
 		return err
 	}
@@ -299,6 +321,59 @@ func groupFitted(ctx context.Context, f *Fitted, o Options) error {
 		}
 	}
 	return nil
+}
+
+// The signatures the grouping can see (Options.Signature).
+const (
+	SignatureWhole    = "whole"
+	SignatureDayParts = "day-parts"
+)
+
+// PartColumns are the units' windows in each state within each part of the day (parts·k
+// counts per unit, profile.TimeOfDay.ByPart) for the day-part signature, and nil for the whole
+// recording's; an error when the signature is not known or a unit has no times.
+func (f *Fitted) PartColumns(signature string, parts profile.DayParts) ([][]float64, error) {
+	switch signature {
+	case "", SignatureWhole:
+		return nil, nil
+	case SignatureDayParts:
+	default:
+		return nil, fmt.Errorf("job: signature %q: %w; use %s or %s", signature, cohort.ErrBadOption, SignatureWhole, SignatureDayParts)
+	}
+	if parts == nil {
+		parts = profile.DefaultDayParts
+	}
+	if err := parts.Check(); err != nil {
+		return nil, fmt.Errorf("job: %v: %w", err, cohort.ErrBadOption)
+	}
+	if f.TimeOfDay == nil {
+		return nil, fmt.Errorf("job: the day-part signature needs times in the order column (ISO-8601), and this table's order is %s: %w; give times, or group on the whole recording (job.Options.Signature whole)", f.Table.OrderKind, cohort.ErrBadOption)
+	}
+	out := make([][]float64, len(f.TimeOfDay))
+	for i, td := range f.TimeOfDay {
+		if td == nil {
+			return nil, fmt.Errorf("job: participant %s has no times for the day-part signature: %w", f.Table.Units[i].ID, cohort.ErrBadOption)
+		}
+		out[i] = td.ByPart(parts)
+	}
+	return out, nil
+}
+
+// PartShares are each unit's shares of windows in each state within each part of the day, of
+// all its windows (summing to 1 over parts and states): the day-part signature's shares.
+func PartShares(parts [][]float64) [][]float64 {
+	out := make([][]float64, len(parts))
+	for i, row := range parts {
+		var total float64
+		for _, c := range row {
+			total += c
+		}
+		out[i] = make([]float64, len(row))
+		for j, c := range row {
+			out[i][j] = c / total
+		}
+	}
+	return out
 }
 
 // SignatureColumns are the signatures' shares, and their windows and bouts in each state as
@@ -347,7 +422,7 @@ func AssignWindows(ctx context.Context, t *cohort.Table, fit *normalize.Fit, sta
 	}
 	units := make([]UnitInfo, len(t.Units))
 	for i, u := range t.Units {
-		units[i] = UnitInfo{ID: u.ID, Wave: u.Wave, Ordinal: u.Ordinal, Windows: u.Windows()}
+		units[i] = UnitInfo{ID: u.ID, Wave: u.Wave, Ordinal: u.Ordinal, Windows: u.Windows(), NonWear: u.NonWear, Wear: u.Wear}
 	}
 	f := &Fitted{Table: t, Fit: fit, States: states, Workers: workers, Reproducibility: math.NaN()}
 	return f, mergeAssigned(f, units, []*AssignPiece{ap})
@@ -407,7 +482,7 @@ func Describe(f *Fitted, stateNames, groupNames []string) (*reports.Result, erro
 	}
 	res.AtypicalCut = groupstat.Quantile(g.Distance, 0.99)
 	for i, u := range t.Units {
-		row := reports.UnitRow{ID: u.ID, Wave: u.Wave, Windows: sigs[i].Windows, NonWear: u.NonWear, Group: g.Labels[i],
+		row := reports.UnitRow{ID: u.ID, Wave: u.Wave, Windows: sigs[i].Windows, NonWear: u.NonWear, Wear: u.Wear, Group: g.Labels[i],
 			Silhouette: g.Silhouette[i], Distance: g.Distance[i], Share: sigs[i].Share, Bout: sigs[i].MeanBout, Stay: math.NaN(), Turn: math.NaN(), Posterior: math.NaN(), Rhythm: profile.NoRhythm}
 		if f.Rhythm != nil {
 			row.Rhythm = f.Rhythm[i]
@@ -441,7 +516,63 @@ func Describe(f *Fitted, stateNames, groupNames []string) (*reports.Result, erro
 		res.StateLines[s] = w.Sentence()
 	}
 	res.GroupLines = groupLines(g, sigs, reports.ShortNames(res.StateWords), t.Units, f.Atypical, f.Window)
+	res.TimeZone, res.TimeOfDay = t.TimeZone, groupTimeOfDay(f.TimeOfDay, g.Labels, g.K, k)
+	res.Signature, res.DayParts = f.Signature, f.DayParts
 	return res, nil
+}
+
+// groupTimeOfDay adds up the members' windows of each group by hour of the day and by weekday
+// and weekend, as shares of each state (nil without times).
+func groupTimeOfDay(tds []*profile.TimeOfDay, labels []int, groups, k int) []reports.GroupTimeOfDay {
+	if tds == nil {
+		return nil
+	}
+	out := make([]reports.GroupTimeOfDay, groups)
+	byHour := make([][]int, groups) // 24·k counts per group
+	weekend, all := make([][]int, groups), make([][]int, groups)
+	for c := range out {
+		byHour[c], weekend[c], all[c] = make([]int, 24*k), make([]int, k), make([]int, k)
+	}
+	for i, td := range tds {
+		if td == nil {
+			continue
+		}
+		c := labels[i]
+		for h, n := range td.ByHour {
+			byHour[c][h] += n
+			all[c][h%k] += n
+		}
+		for j, n := range td.Weekend {
+			weekend[c][j] += n
+		}
+	}
+	shares := func(counts []int) ([]float64, int) {
+		total := 0
+		for _, n := range counts {
+			total += n
+		}
+		if total == 0 {
+			return nil, 0
+		}
+		out := make([]float64, len(counts))
+		for j, n := range counts {
+			out[j] = float64(n) / float64(total)
+		}
+		return out, total
+	}
+	for c := range out {
+		g := &out[c]
+		for h := 0; h < 24; h++ {
+			g.ByHour[h], g.Hours[h] = shares(byHour[c][h*k : (h+1)*k])
+		}
+		weekday := make([]int, k)
+		for j := range weekday {
+			weekday[j] = all[c][j] - weekend[c][j]
+		}
+		g.Weekday, g.WeekdayWindows = shares(weekday)
+		g.Weekend, g.WeekendWindows = shares(weekend[c])
+	}
+	return out
 }
 
 // rhythmVariables are the rest-activity measures as variables for the separating tests (the
@@ -671,7 +802,7 @@ func (o Options) ModelFit() *reports.ModelFit {
 		PCAComponents: o.Norm.PCAComponents, PCAVariance: o.Norm.PCAVariance, NoPCA: o.Norm.NoPCA,
 		States: o.States, StatesRule: o.StatesRule.String(), NoCalibration: o.NoCalibration, Fits: o.Fits, Valley: o.Valley, Sample: o.Sample,
 		Groups: o.Groups, Method: o.Method.String(), Criterion: o.Criterion.String(), GroupValley: o.GroupValley,
-		Bootstrap: o.Bootstrap, Seed: o.Seed, WindowSeconds: o.Window.Seconds(),
+		Bootstrap: o.Bootstrap, Seed: o.Seed, WindowSeconds: o.Window.Seconds(), Signature: o.Signature, DayParts: o.DayParts,
 	}
 }
 

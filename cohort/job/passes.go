@@ -13,6 +13,7 @@ import (
 
 	"github.com/cohortmix/cohortmix/cluster"
 	"github.com/cohortmix/cohortmix/cohort"
+	"github.com/cohortmix/cohortmix/cohort/clock"
 	"github.com/cohortmix/cohortmix/normalize"
 	"github.com/cohortmix/cohortmix/profile"
 	"github.com/cohortmix/cohortmix/reports"
@@ -79,6 +80,7 @@ type Census struct {
 	Meta      Meta
 	Features  []string
 	OrderKind string
+	TimeZone  string // the table's (cohort.Table.TimeZone)
 	HasLabels bool
 	Files     []cohort.FileInfo
 	Quality   cohort.Quality
@@ -91,7 +93,7 @@ type Census struct {
 // CensusOf takes the census of a table read whole or as one shard.
 func CensusOf(t *cohort.Table, o Options) (*Census, error) {
 	d := len(t.Features)
-	c := &Census{Shard: o.Read.Shard, Options: o, Features: t.Features, OrderKind: t.OrderKind, HasLabels: t.HasLabels, Files: t.Files,
+	c := &Census{Shard: o.Read.Shard, Options: o, Features: t.Features, OrderKind: t.OrderKind, TimeZone: t.TimeZone, HasLabels: t.HasLabels, Files: t.Files,
 		Quality: t.Quality, Lowest: make([]float64, d), Constancy: t.Constancy}
 	c.Options.Inputs = slices.Clone(o.Inputs)
 	for j := range c.Lowest {
@@ -144,6 +146,7 @@ type Plan struct {
 	Shards    int
 	Features  []string // the features kept
 	OrderKind string
+	TimeZone  string // the table's (cohort.Table.TimeZone)
 	HasLabels bool
 	Files     []cohort.FileInfo
 	Quality   cohort.Quality
@@ -173,7 +176,7 @@ func MergeCensus(parts []*Census) (*Plan, error) {
 	if err := checkShards(KindCensus, shards, count); err != nil {
 		return nil, err
 	}
-	p := &Plan{Run: RunOf(first.Options, first.Files), Options: first.Options, Meta: first.Meta, Shards: count, OrderKind: first.OrderKind, HasLabels: first.HasLabels, Files: first.Files}
+	p := &Plan{Run: RunOf(first.Options, first.Files), Options: first.Options, Meta: first.Meta, Shards: count, OrderKind: first.OrderKind, TimeZone: first.TimeZone, HasLabels: first.HasLabels, Files: first.Files}
 	q := &p.Quality
 	q.UnitsIn, q.WindowsIn, q.IgnoredColumns = first.Quality.UnitsIn, first.Quality.WindowsIn, first.Quality.IgnoredColumns
 	var first20 []FirstWindows
@@ -821,7 +824,9 @@ type AssignedUnit struct {
 	Ordinal   int
 	Signature profile.Signature
 	Rhythm    profile.Rhythm // rest-activity measures; NaN without times or on a short recording
-	Medians   []float64      // the unit's median of each feature
+	// TimeOfDay is when in the day and week its windows fall, by state (nil without times).
+	TimeOfDay *profile.TimeOfDay
+	Medians   []float64 // the unit's median of each feature
 	Device    normalize.Device
 }
 
@@ -849,8 +854,13 @@ func AssignOf(ctx context.Context, t *cohort.Table, shard cohort.Shard, fit *nor
 	}
 	d := len(t.Features)
 	activity := -1 // the feature the rest-activity measures are read on, with times
+	var zone clock.Clock
 	if t.OrderKind == "time" {
 		activity = profile.ActivityFeature(t.Features)
+		var err error
+		if zone, err = clock.In(t.TimeZone); err != nil {
+			return nil, fmt.Errorf("job: %v: %w", err, cohort.ErrBadOption)
+		}
 	}
 	type unitResult struct {
 		desc   *profile.Describer
@@ -883,12 +893,17 @@ func AssignOf(ctx context.Context, t *cohort.Table, shard cohort.Shard, fit *nor
 		}
 		au.Signature = profile.SignaturesBroken(labels, states.K, gaps)
 		au.Rhythm = profile.NoRhythm
-		if activity >= 0 && ord != nil {
-			act := make([]float64, len(ord))
-			for w := range act {
-				act[w] = x[w*d+activity]
+		if t.OrderKind == "time" && ord != nil {
+			wall := wallClock(zone, ord)
+			td := profile.TimeOfDayOf(wall, labels, states.K)
+			au.TimeOfDay = &td
+			if activity >= 0 {
+				act := make([]float64, len(ord))
+				for w := range act {
+					act[w] = x[w*d+activity]
+				}
+				au.Rhythm = profile.RhythmOf(wall, act)
 			}
-			au.Rhythm = profile.RhythmOf(ord, act)
 		}
 		au.Medians = make([]float64, d)
 		col := make([]float64, len(x)/d)
@@ -927,7 +942,19 @@ func AssignOf(ctx context.Context, t *cohort.Table, shard cohort.Shard, fit *nor
 	return ap, nil
 }
 
-// mergeAssigned gathers the shards' assignment pieces into a fit, in the plan's unit order.
+// wallClock is the times on the wall clock of the zone, as UTC Unix ns (the same slice when the
+// zone is UTC).
+func wallClock(zone clock.Clock, times []int64) []int64 {
+	if zone.Zone() == "UTC" {
+		return times
+	}
+	wall := make([]int64, len(times))
+	for i, t := range times {
+		wall[i] = zone.Wall(t)
+	}
+	return wall
+}
+
 // checkAssigned checks what an assignment piece says of one unit against the fit: k states and d
 // features, counts that add up, shares and medians that are numbers. A piece is checksummed;
 // this keeps a piece made by other means from reaching the grouping with values it cannot take.
@@ -951,6 +978,26 @@ func checkAssigned(au AssignedUnit, k, d int) error {
 		math.IsInf(r.IS, 0) || math.IsInf(r.IV, 0) || math.IsInf(r.L5, 0) || math.IsInf(r.M10, 0) || math.IsInf(r.RA, 0) {
 		return fmt.Errorf("rest-activity measures %+v", r)
 	}
+	if td := au.TimeOfDay; td != nil {
+		if len(td.ByHour) != 24*k || len(td.Weekend) != k {
+			return fmt.Errorf("a time of day of %d hourly and %d weekend counts, where the fit has %d states", len(td.ByHour), len(td.Weekend), k)
+		}
+		total := 0
+		for h, c := range td.ByHour {
+			if c < 0 || c > s.Counts[h%k] {
+				return fmt.Errorf("%d windows of state %d at hour %d, of %d", c, h%k+1, h/k, s.Counts[h%k])
+			}
+			total += c
+		}
+		for j, c := range td.Weekend {
+			if c < 0 || c > s.Counts[j] {
+				return fmt.Errorf("%d weekend windows of state %d, of %d", c, j+1, s.Counts[j])
+			}
+		}
+		if total != s.Windows {
+			return fmt.Errorf("%d windows by hour of the day, of %d", total, s.Windows)
+		}
+	}
 	dev := au.Device
 	if dev.Rotation != nil && len(dev.Rotation) != 9 || dev.AxisScale != nil && len(dev.AxisScale) != 3 || dev.AxisOffset != nil && len(dev.AxisOffset) != 3 {
 		return fmt.Errorf("a device of %d rotation, %d scale and %d offset values", len(dev.Rotation), len(dev.AxisScale), len(dev.AxisOffset))
@@ -965,6 +1012,7 @@ func checkAssigned(au AssignedUnit, k, d int) error {
 	return nil
 }
 
+// mergeAssigned gathers the shards' assignment pieces into a fit, in the plan's unit order.
 func mergeAssigned(f *Fitted, units []UnitInfo, parts []*AssignPiece) error {
 	n := len(units)
 	f.Sigs, f.Medians, f.Rhythm = make([]profile.Signature, n), make([][]float64, n), make([]profile.Rhythm, n)
@@ -984,6 +1032,12 @@ func mergeAssigned(f *Fitted, units []UnitInfo, parts []*AssignPiece) error {
 				return fmt.Errorf("job: participant %s in an assignment piece: %v: %w; assign the shard again", units[i].ID, err, ErrPiece)
 			}
 			f.Sigs[i], f.Medians[i], f.Rhythm[i] = au.Signature, au.Medians, au.Rhythm
+			if au.TimeOfDay != nil {
+				if f.TimeOfDay == nil {
+					f.TimeOfDay = make([]*profile.TimeOfDay, n)
+				}
+				f.TimeOfDay[i] = au.TimeOfDay
+			}
 			if f.Devices != nil {
 				f.Devices[i] = au.Device
 			}
@@ -1040,10 +1094,7 @@ func mergeAssigned(f *Fitted, units []UnitInfo, parts []*AssignPiece) error {
 // reports describe (Describe), without a table of windows.
 func Finish(ctx context.Context, fp *FitPiece, parts []*AssignPiece) (*Fitted, error) {
 	p, o := fp.Plan, fp.Plan.Options
-	t := &cohort.Table{Features: p.Features, OrderKind: p.OrderKind, HasLabels: p.HasLabels, Quality: p.Quality, Files: p.Files}
-	if t.OrderKind == "time" {
-		t.TimeZone = o.Read.TimeZone
-	}
+	t := &cohort.Table{Features: p.Features, OrderKind: p.OrderKind, TimeZone: p.TimeZone, HasLabels: p.HasLabels, Quality: p.Quality, Files: p.Files}
 	for _, u := range p.Units {
 		t.Units = append(t.Units, &cohort.Unit{ID: u.ID, Wave: u.Wave, Ordinal: u.Ordinal, NonWear: u.NonWear, Wear: u.Wear})
 	}

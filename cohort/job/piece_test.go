@@ -65,7 +65,7 @@ func TestPiecesRefuseWhatTheyAreNot(t *testing.T) {
 		want string
 	}{
 		{"other kind", good, KindPlan, "a census piece where a plan piece is needed"},
-		{"other version", newer, KindCensus, "a piece of version 9, and this cohortmix reads version 3"},
+		{"other version", newer, KindCensus, "a piece of version 9, and this cohortmix reads version 4"},
 		{"not a piece", []byte("participant,window\nP1,1\n"), KindCensus, "not a piece of a split run"},
 		{"cut short", good[:len(good)/2], KindCensus, "the census piece is damaged (its content does not match its checksum)"},
 		{"a bit flipped (issue 28: 5 of 25 flips in an assignment piece went through)", flipped, KindCensus, "the census piece is damaged (its content does not match its checksum)"},
