@@ -55,7 +55,7 @@ func TestPiecesRefuseWhatTheyAreNot(t *testing.T) {
 	if err != nil || len(back.Units) != len(c.Units) || back.Shard != c.Shard || back.Quality.WindowsIn != c.Quality.WindowsIn || id.Run != "run-1" || id.Shard != "2/2" || len(id.Sum) != 64 {
 		t.Fatalf("read back: %v, %d units of shard %v, id %+v", err, len(back.Units), back.Shard, id)
 	}
-	newer := bytes.Replace(good, []byte(`"version":3`), []byte(`"version":9`), 1)
+	newer := bytes.Replace(good, []byte(`"version":4`), []byte(`"version":9`), 1)
 	flipped := bytes.Clone(good)
 	flipped[len(flipped)-20] ^= 0x04
 	for _, c := range []struct {
