@@ -24,6 +24,10 @@ const NonWearAuto = "auto"
 // are zeros. (Values from memory, to be checked against the paper.)
 const NonWearChoi = "choi"
 
+// NonWearColumn is the rule of a wear column (ReadOptions.WearColumn): a window is off when the
+// column holds 0.
+const NonWearColumn = "column"
+
 // Choi's algorithm in numbers: the shortest non-wear period, the longest interruption and the
 // zeros it needs on each side.
 const (
@@ -44,6 +48,7 @@ const (
 var nonWearRule = map[string]string{
 	NonWearTroiano: "the rule of Troiano et al. 2008: 60 minutes or more of zero counts, with interruptions of up to 2 minutes of at most 100 counts a minute",
 	NonWearChoi:    "the algorithm of Choi et al. 2011: 90 minutes or more of zero counts, with interruptions of up to 2 minutes that have 30 minutes of zeros before and after them",
+	NonWearColumn:  "the wear column given, where it holds 0",
 }
 
 // countsFeature finds the column of activity counts among the features: the one named by
@@ -187,6 +192,13 @@ func NonWearOf(rule string, times []int64, counts []float64) ([]bool, error) {
 
 // nonWearOf applies the named rule.
 func nonWearOf(rule string, times []int64, counts []float64) []bool {
+	if rule == NonWearColumn {
+		out := make([]bool, len(counts))
+		for i, c := range counts {
+			out[i] = c == 0
+		}
+		return out
+	}
 	step := medianStep(times)
 	if rule == NonWearChoi {
 		return choiNonWear(times, counts, step)

@@ -76,6 +76,10 @@ type ReadOptions struct {
 	// its name), or NonWearAuto: Choi's where those are there, none otherwise.
 	NonWear        string
 	NonWearFeature string
+	// WearColumn names a numeric column that marks each window worn (1) or not (0), as a
+	// device's own wear detection gives it, in place of a non-wear rule: its 0 windows are left
+	// out as non-wear, and the column is not a feature.
+	WearColumn string
 	// TimeZone is the IANA zone (Europe/Berlin) in which times given with a UTC offset are read
 	// on the wall clock, for days, hours of the day and weekends; "" reads them in UTC. Times
 	// without an offset are read as written.
@@ -1246,13 +1250,10 @@ func (r *reader) finish() (*Table, error) {
 	q.UnitsIn = r.seen
 	q.WindowsIn = r.rows
 	sortedUnits, merged := 0, 0
-	nonWearAt := -1 // the counts column of the non-wear rule
-	rule := r.opts.NonWear
-	if rule == NonWearAuto { // Choi's algorithm where it applies: activity counts with times
-		rule = ""
-		if _, err := countsFeature(r.features, r.opts.NonWearFeature); err == nil && r.orderKind == "time" {
-			rule = NonWearChoi
-		}
+	rule, nonWearAt, err := r.nonWearColumn()
+	if err != nil {
+		t.Close()
+		return nil, err
 	}
 	q.NonWearRule = rule
 	wr, err := r.opts.wearRule(rule, r.orderKind, r.orderZone == "without a UTC offset")
@@ -1265,21 +1266,6 @@ func (r *reader) finish() (*Table, error) {
 	}
 	if wr != nil {
 		q.ValidDayRule = wr.String()
-	}
-	if rule != "" {
-		if rule != NonWearTroiano && rule != NonWearChoi {
-			t.Close()
-			return nil, fmt.Errorf("cohort: non-wear rule %q: %w; use %s or %s, or none", r.opts.NonWear, ErrBadOption, NonWearChoi, NonWearTroiano)
-		}
-		if r.orderKind != "time" {
-			t.Close()
-			return nil, &InputError{File: r.firstFile, Field: r.opts.Order, Msg: "the non-wear rule measures periods in minutes and needs times in the order column (ISO-8601); give times, or leave the rule out", Err: ErrOrder}
-		}
-		var err error
-		if nonWearAt, err = countsFeature(r.features, r.opts.NonWearFeature); err != nil {
-			t.Close()
-			return nil, &InputError{File: r.firstFile, Msg: err.Error(), Err: ErrNoColumn}
-		}
 	}
 	var x, clean []float64
 	shortUnits, mostDays := 0, 0 // units short of valid days, and the most valid days of those
@@ -1341,6 +1327,11 @@ func (r *reader) finish() (*Table, error) {
 						advice = "remove one of the rows; or, if the files are two waves (visits) of the same participants, give each row its wave in a column and name it with cohort.ReadOptions.Wave"
 					}
 				}
+				if r.orderZone == "without a UTC offset" && fa == fb && la < lb && lb-la > 1 {
+					// Far apart in one file: a wall clock that went back an hour when daylight
+					// saving time ended.
+					advice += "; if the clock went back an hour (daylight saving time ended), give the times with their UTC offset (2026-10-25T02:30:00+01:00) and the zone with cohort.ReadOptions.TimeZone"
+				}
 				t.Close()
 				return nil, &InputError{File: r.files[fb].Path, Line: lb, Field: r.opts.Order,
 					Msg: fmt.Sprintf("participant %s%s has this window twice (also %s); %s", ru.id, waveSuffix(ru.wave), also, advice), Err: ErrDuplicate}
@@ -1359,6 +1350,11 @@ func (r *reader) finish() (*Table, error) {
 			times, counts := make([]int64, n), make([]float64, n)
 			for k, i := range idx {
 				times[k], counts[k] = ord(i), x[i*w+nonWearAt]
+				if rule == NonWearColumn && counts[k] != 0 && counts[k] != 1 {
+					_, line := unpackSource(x[i*w+d+1])
+					t.Close()
+					return nil, &InputError{File: r.files[0].Path, Line: line, Field: r.opts.WearColumn, Msg: fmt.Sprintf("participant %s: the wear column holds %v; give 1 for a worn window and 0 for one when the device was off", ru.id, counts[k]), Err: ErrNotNumber}
+				}
 			}
 			nonWear = nonWearOf(rule, times, counts)
 		}
@@ -1461,13 +1457,65 @@ func (r *reader) finish() (*Table, error) {
 	q.Notes = append(q.Notes, QualityNotes(*q, r.opts.Order)...)
 	if r.opts.Shard.Count > 0 {
 		t.Constancy = &Constancy{Have: constant.have, First: constant.first, Constant: constant.constant}
+		if rule == NonWearColumn { // the wear column has done its work: it is no feature
+			t.Constancy.First = slices.Delete(slices.Clone(t.Constancy.First), nonWearAt, nonWearAt+1)
+			t.Constancy.Constant = slices.Delete(slices.Clone(t.Constancy.Constant), nonWearAt, nonWearAt+1)
+			t.Features = slices.Delete(slices.Clone(t.Features), nonWearAt, nonWearAt+1)
+			t.cols = slices.Delete(t.cols, nonWearAt, nonWearAt+1)
+		}
 		return t, nil
+	}
+	if rule == NonWearColumn {
+		constant.first = slices.Delete(constant.first, nonWearAt, nonWearAt+1)
+		constant.constant = slices.Delete(constant.constant, nonWearAt, nonWearAt+1)
+		t.Features = slices.Delete(slices.Clone(t.Features), nonWearAt, nonWearAt+1)
+		t.cols = slices.Delete(t.cols, nonWearAt, nonWearAt+1)
 	}
 	if err := t.dropConstantFeatures(constant); err != nil {
 		t.Close()
 		return nil, err
 	}
 	return t, nil
+}
+
+// nonWearColumn is the non-wear rule the reading applies ("" for none) and the feature it reads:
+// the wear column (ReadOptions.WearColumn), or the activity counts of Choi's or Troiano's rule
+// (ReadOptions.NonWear; auto: Choi's where there are counts and times).
+func (r *reader) nonWearColumn() (string, int, error) {
+	if r.opts.WearColumn != "" {
+		if r.opts.NonWear != "" && r.opts.NonWear != NonWearAuto {
+			return "", -1, fmt.Errorf("cohort: a wear column (%s) and the non-wear rule %s: %w; give one of them", r.opts.WearColumn, r.opts.NonWear, ErrBadOption)
+		}
+		j := slices.Index(r.features, r.opts.WearColumn)
+		if j < 0 {
+			return "", -1, &InputError{File: r.firstFile, Field: r.opts.WearColumn, Msg: fmt.Sprintf("the wear column is not among the numeric columns read (%s); name a column of 1 (worn) and 0 (off), and do not leave it out with cohort.ReadOptions.Features", strings.Join(r.features, ", ")), Err: ErrNoColumn}
+		}
+		if len(r.features) == 1 {
+			return "", -1, &InputError{File: r.firstFile, Field: r.opts.WearColumn, Msg: "the wear column is the only numeric column; there is no feature left to group on", Err: ErrEmpty}
+		}
+		return NonWearColumn, j, nil
+	}
+	rule := r.opts.NonWear
+	if rule == NonWearAuto { // Choi's algorithm where it applies: activity counts with times
+		rule = ""
+		if _, err := countsFeature(r.features, r.opts.NonWearFeature); err == nil && r.orderKind == "time" {
+			rule = NonWearChoi
+		}
+	}
+	if rule == "" {
+		return "", -1, nil
+	}
+	if rule != NonWearTroiano && rule != NonWearChoi {
+		return "", -1, fmt.Errorf("cohort: non-wear rule %q: %w; use %s or %s, or none", r.opts.NonWear, ErrBadOption, NonWearChoi, NonWearTroiano)
+	}
+	if r.orderKind != "time" {
+		return "", -1, &InputError{File: r.firstFile, Field: r.opts.Order, Msg: "the non-wear rule measures periods in minutes and needs times in the order column (ISO-8601); give times, or leave the rule out", Err: ErrOrder}
+	}
+	j, err := countsFeature(r.features, r.opts.NonWearFeature)
+	if err != nil {
+		return "", -1, &InputError{File: r.firstFile, Msg: err.Error(), Err: ErrNoColumn}
+	}
+	return rule, j, nil
 }
 
 // Block returns unit u's usable windows × features, row-major, in window order; dst is reused

@@ -138,3 +138,66 @@ func TestValidDaysInUTC(t *testing.T) {
 		t.Errorf("an unknown zone: %v", err)
 	}
 }
+
+// A wear column (the device's own wear flags) takes the rule's place: its 0 windows are left
+// out as non-wear, it is no feature, it works in a shard too, and a value other than 0 or 1 is
+// an error naming the line.
+func TestWearColumn(t *testing.T) {
+	dir := t.TempDir()
+	var b strings.Builder
+	b.WriteString("participant,window,vm,sd,worn\n")
+	for _, id := range []string{"A", "B"} {
+		for i := 0; i < 100; i++ {
+			worn := 1
+			if id == "A" && i >= 40 && i < 70 {
+				worn = 0
+			}
+			fmt.Fprintf(&b, "%s,%d,%d.5,%d,%d\n", id, i, i%7, i%3, worn)
+		}
+	}
+	p := write(t, dir, "w.csv", []byte(b.String()))
+	for _, shard := range []Shard{{}, {Index: ShardOf("A", 2), Count: 2}} {
+		tab, err := Read(context.Background(), []string{p}, ReadOptions{WearColumn: "worn", Shard: shard})
+		if err != nil {
+			t.Fatal(err)
+		}
+		if tab.Units[0].ID != "A" || tab.Units[0].NonWear != 30 || tab.Units[0].Windows() != 70 || strings.Join(tab.Features, ",") != "vm,sd" || tab.Quality.NonWearRule != NonWearColumn {
+			t.Errorf("shard %v: %s %d non-wear, %d windows, features %v", shard, tab.Units[0].ID, tab.Units[0].NonWear, tab.Units[0].Windows(), tab.Features)
+		}
+		if shard.Count > 0 && len(tab.Constancy.Constant) != 2 {
+			t.Errorf("the shard's constancy covers %d features", len(tab.Constancy.Constant))
+		}
+		x, err := tab.Block(0, nil)
+		if err != nil || x[2*40] != 0.5 || x[2*40+1] != 1 { // window 70 of A: vm 70%7+.5, sd 70%3
+			t.Errorf("A's 41st kept window %v (%v)", x[2*40:2*40+2], err)
+		}
+		tab.Close()
+	}
+	bad := write(t, dir, "bad.csv", []byte("participant,window,vm,worn\nA,1,0.5,1\nA,2,0.7,2\n"))
+	if _, err := Read(context.Background(), []string{bad}, ReadOptions{WearColumn: "worn", MinWindows: 1}); !errors.Is(err, ErrNotNumber) || !strings.Contains(err.Error(), ":3") || !strings.Contains(err.Error(), "holds 2") {
+		t.Errorf("a wear value of 2: %v", err)
+	}
+	if _, err := Read(context.Background(), []string{bad}, ReadOptions{WearColumn: "on", MinWindows: 1}); !errors.Is(err, ErrNoColumn) {
+		t.Errorf("a wear column that is not there: %v", err)
+	}
+}
+
+// Times without an offset repeat an hour where daylight saving time ends; the duplicate is an
+// error that says so and what to give instead.
+func TestRepeatedHourIsExplained(t *testing.T) {
+	var b strings.Builder
+	b.WriteString("participant,window,vm\n")
+	t0 := time.Date(2026, 10, 25, 1, 0, 0, 0, time.UTC)
+	for i := 0; i < 180; i++ {
+		at := t0.Add(time.Duration(i) * time.Minute)
+		if i >= 120 { // 03:00 on the wall clock became 02:00 again
+			at = at.Add(-time.Hour)
+		}
+		fmt.Fprintf(&b, "A,%s,%d\n", at.Format("2006-01-02T15:04:05"), i%9)
+	}
+	p := write(t, t.TempDir(), "dst.csv", []byte(b.String()))
+	_, err := Read(context.Background(), []string{p}, ReadOptions{})
+	if !errors.Is(err, ErrDuplicate) || !strings.Contains(err.Error(), "daylight saving time ended") || !strings.Contains(err.Error(), "+01:00") {
+		t.Errorf("a repeated hour: %v", err)
+	}
+}

@@ -15,6 +15,7 @@ import (
 	"github.com/cohortmix/cohortmix/cluster"
 	"github.com/cohortmix/cohortmix/cluster/mixture"
 	"github.com/cohortmix/cohortmix/cohort"
+	"github.com/cohortmix/cohortmix/cohort/clock"
 	"github.com/cohortmix/cohortmix/normalize"
 	"github.com/cohortmix/cohortmix/profile"
 	"gonum.org/v1/gonum/mat"
@@ -74,6 +75,7 @@ type ModelRead struct {
 	// valid-day rule ("auto", hours as "10h0m0s", or "" for none), ValidDays and WeekendDay
 	// what a participant needed under it.
 	TimeZone   string `json:",omitempty"`
+	WearColumn string `json:",omitempty"`
 	ValidDay   string `json:",omitempty"`
 	ValidDays  int    `json:",omitempty"`
 	WeekendDay bool   `json:",omitempty"`
@@ -82,7 +84,25 @@ type ModelRead struct {
 // ReadOf records the reading settings of a run.
 func ReadOf(read cohort.ReadOptions) ModelRead {
 	return ModelRead{ID: read.ID, Order: read.Order, Wave: read.Wave, Label: read.Label, Features: read.Features, Missing: read.Missing.String(), MinWindows: read.MinWindows,
-		NonWear: read.NonWear, NonWearFeature: read.NonWearFeature, TimeZone: read.TimeZone, ValidDays: read.ValidDays, WeekendDay: read.WeekendDay, ValidDay: validDayText(read)}
+		NonWear: read.NonWear, NonWearFeature: read.NonWearFeature, TimeZone: read.TimeZone, WearColumn: read.WearColumn, ValidDays: read.ValidDays, WeekendDay: read.WeekendDay, ValidDay: validDayText(read)}
+}
+
+// ReadOptions are the reading settings a model records, as the reader takes them (the inverse of
+// ReadOf; a later wave may name its columns otherwise over them).
+func (r ModelRead) ReadOptions() cohort.ReadOptions {
+	ro := cohort.ReadOptions{ID: r.ID, Order: r.Order, Wave: r.Wave, MinWindows: r.MinWindows, NonWear: r.NonWear, NonWearFeature: r.NonWearFeature,
+		TimeZone: r.TimeZone, WearColumn: r.WearColumn, ValidDays: r.ValidDays, WeekendDay: r.WeekendDay}
+	if r.Missing == cohort.ImputeMedian.String() {
+		ro.Missing = cohort.ImputeMedian
+	}
+	switch r.ValidDay {
+	case "":
+	case "auto":
+		ro.ValidDay, ro.ValidDayAuto = cohort.DefaultValidDay, true
+	default:
+		ro.ValidDay, _ = time.ParseDuration(r.ValidDay) // checked when the model was read
+	}
+	return ro
 }
 
 // validDayText is the valid-day rule of a reading as the model records it.
@@ -129,6 +149,8 @@ type ModelFit struct {
 	// parts of the day starting at the hours of DayParts).
 	Signature string `json:"signature,omitempty"`
 	DayParts  []int  `json:"day_parts,omitempty"`
+	// KeepTwins kept features that order the windows as an earlier one does.
+	KeepTwins bool `json:"keep_twins,omitempty"`
 }
 
 // Parts is how many parts of the day the grouping saw the states in (1: the whole recording).
@@ -355,6 +377,19 @@ func (m *Model) check() error {
 	if d == 0 {
 		return errors.New("no features")
 	}
+	if v := m.Read.ValidDay; v != "" && v != "auto" {
+		if h, err := time.ParseDuration(v); err != nil || h <= 0 || h > 24*time.Hour {
+			return fmt.Errorf("read.ValidDay %q is not hours of wear", v)
+		}
+	}
+	if _, err := clock.In(m.Read.TimeZone); err != nil {
+		return fmt.Errorf("read.TimeZone: %v", err)
+	}
+	if f := m.Fit; f != nil && f.Signature == "day-parts" {
+		if err := profile.DayParts(f.DayParts).Check(); err != nil && len(f.DayParts) > 0 {
+			return fmt.Errorf("fit.day_parts: %v", err)
+		}
+	}
 	if m.Version >= 3 && m.Fit == nil || m.Version < 3 && m.Options == nil {
 		return fmt.Errorf("a version %d model without the settings it was fitted with", m.Version)
 	}
@@ -484,7 +519,7 @@ func (m *Model) check() error {
 	if g.K < 1 || len(g.Centroids) != g.K || len(g.Names) != g.K {
 		return fmt.Errorf("grouping: k = %d with %d centres and %d names", g.K, len(g.Centroids), len(g.Names))
 	}
-	if err := finiteRows("grouping.centroids", g.Centroids, s.K); err != nil {
+	if err := finiteRows("grouping.centroids", g.Centroids, s.K*m.Fit.Parts()); err != nil {
 		return err
 	}
 	if err := finiteRows("grouping.mean_shares", g.Shares, s.K); err != nil {

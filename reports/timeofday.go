@@ -44,13 +44,9 @@ func timeOfDaySheet(f *excelize.File, st *styles, r *Result) error {
 	row := 4
 	for c, g := range r.TimeOfDay {
 		top := row
-		w.text(1, row, "Hour ("+r.GroupNames[c]+")", st.header)
-		for s := 0; s < k; s++ {
-			w.text(2+s, row, stateLabel(r, s), st.headerNum)
-		}
-		w.text(2+k, row, "windows", st.headerNum)
+		w.stateHeads(st, row, "Hour from ("+r.GroupNames[c]+")", k, r)
 		for h := 0; h < 24; h++ {
-			w.text(1, row+1+h, fmt.Sprintf("%02d:00–%02d:00", h, (h+1)%24), st.text)
+			w.text(1, row+1+h, fmt.Sprintf("%02d", h), st.text)
 			for s := 0; g.ByHour[h] != nil && s < k; s++ {
 				w.num(2+s, row+1+h, g.ByHour[h][s], st.pct)
 			}
@@ -63,7 +59,7 @@ func timeOfDaySheet(f *excelize.File, st *styles, r *Result) error {
 				Fill: excelize.Fill{Type: "pattern", Pattern: 1, Color: []string{colour(s)}},
 			})
 		}
-		ch := chart(excelize.ColPercentStacked, fmt.Sprintf("%s: the day hour by hour", r.GroupNames[c]), series, "hour of the day", "share of windows")
+		ch := chart(excelize.ColPercentStacked, fmt.Sprintf("%s: the day hour by hour", r.GroupNames[c]), series, "hour of the day (from)", "share of windows")
 		ch.Dimension.Height = 420
 		col, _ := excelize.ColumnNumberToName(k + 4)
 		if err := f.AddChart(name, fmt.Sprintf("%s%d", col, top), ch); err != nil {
@@ -71,12 +67,9 @@ func timeOfDaySheet(f *excelize.File, st *styles, r *Result) error {
 		}
 		row += 27
 	}
-	// Weekdays and weekends.
-	w.text(1, row, "Group, days", st.header)
-	for s := 0; s < k; s++ {
-		w.text(2+s, row, stateLabel(r, s), st.headerNum)
-	}
-	w.text(2+k, row, "windows", st.headerNum)
+	// Weekdays and weekends, on a page of their own with the parts of the day.
+	w.pageBreak(row)
+	w.stateHeads(st, row, "Group, days", k, r)
 	row++
 	for c, g := range r.TimeOfDay {
 		for _, d := range []struct {
@@ -102,11 +95,7 @@ func timeOfDaySheet(f *excelize.File, st *styles, r *Result) error {
 	if r.Signature == "day-parts" {
 		head += " (the groups were found on these)"
 	}
-	w.text(1, row, head, st.header)
-	for s := 0; s < k; s++ {
-		w.text(2+s, row, stateLabel(r, s), st.headerNum)
-	}
-	w.text(2+k, row, "windows", st.headerNum)
+	w.stateHeads(st, row, head, k, r)
 	row++
 	for c, g := range r.TimeOfDay {
 		for p := range parts {
@@ -130,6 +119,19 @@ func timeOfDaySheet(f *excelize.File, st *styles, r *Result) error {
 		}
 	}
 	return w.err
+}
+
+// stateHeads writes a header row: first, a column per state, and the windows; tall enough for
+// state names on two lines.
+func (w *cellWriter) stateHeads(st *styles, row int, first string, k int, r *Result) {
+	w.text(1, row, first, st.header)
+	for s := 0; s < k; s++ {
+		w.text(2+s, row, stateLabel(r, s), st.headerNum)
+	}
+	w.text(2+k, row, "windows", st.headerNum)
+	if w.err == nil {
+		w.err = w.f.SetRowHeight(w.sheet, row, 30)
+	}
 }
 
 // repeat is n copies of v.

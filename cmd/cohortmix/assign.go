@@ -189,11 +189,8 @@ func assignRun(ctx context.Context, o *assignOptions) error {
 // readOptions are the model's reading settings, with the flags given over them: a later wave
 // may name its columns otherwise.
 func (o *assignOptions) readOptions(m *reports.Model) (cohort.ReadOptions, error) {
-	ro := cohort.ReadOptions{ID: m.Read.ID, Order: m.Read.Order, Wave: m.Read.Wave, MinWindows: m.Read.MinWindows, TempDir: o.Temp,
-		NonWear: m.Read.NonWear, NonWearFeature: m.Read.NonWearFeature}
-	if m.Read.Missing == cohort.ImputeMedian.String() {
-		ro.Missing = cohort.ImputeMedian
-	}
+	ro := m.Read.ReadOptions()
+	ro.TempDir = o.Temp
 	for _, set := range []struct {
 		flag string
 		dst  *string

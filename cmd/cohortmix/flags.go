@@ -52,6 +52,7 @@ type mainFlags struct {
 	MinWindows             int
 	NonWear, NonWearColumn string
 	TimeZone               string
+	WearColumn             string
 	ValidDay               string
 	ValidDays              int
 	WeekendDay             bool
@@ -77,6 +78,7 @@ type mainFlags struct {
 	WindowLength           time.Duration
 	GroupValley            float64
 	Signature              string
+	KeepTwins              bool
 	DayParts               []int
 	Workers                int
 	Members, Model         string
@@ -106,6 +108,7 @@ func (m *mainFlags) register(cmd *cobra.Command) {
 	f.StringVar(&m.Groups, "groups", defaultGroups, "number of participant groups, or a range to choose from (1, no distinct groups, is a possible answer of the mixture method)")
 	f.StringVar(&m.Method, "method", "mixture", "grouping: "+cohort.MethodHelp())
 	f.StringVar(&m.Criterion, "criterion", defaultCriterion, "rule for the number of groups: icl or bic for the mixture method (the integrated completed likelihood, or the Bayesian information criterion); for the others gap-stable-firm (gap-stable's number, or when that grouping is tentative, its stability below 0.8, the largest smaller number whose grouping is not), gap-stable (the gap statistic's number, then one fewer while that groups more stably by more than 0.1), gap, stability or silhouette")
+	f.BoolVar(&m.KeepTwins, "keep-twins", false, "keep features that order every window as an earlier feature does (a log of the counts beside the counts); by default they are left out, as the same information twice")
 	f.StringVar(&m.Signature, "signature", job.SignatureWhole, "what the groups are found on: whole (each participant's time in each state over the whole recording) or day-parts (in each part of the day; needs times)")
 	f.IntSliceVar(&m.DayParts, "day-parts", []int{0, 6, 12, 18}, "the hours at which the parts of the day begin: night, morning, afternoon, evening (the first may be before midnight, as 22,6,12,18)")
 	f.Float64Var(&m.GroupValley, "group-valley", 0, "lower the number of groups while two of them form one mode (density between them at least this share of its height; 0: off)")
@@ -132,6 +135,7 @@ func (m *mainFlags) registerRead(cmd *cobra.Command) {
 	f.IntVar(&m.MinWindows, "min-windows", 20, "exclude participants with fewer usable windows")
 	f.StringVar(&m.NonWear, "non-wear", "auto", "leave out windows the device was not worn, from activity counts with times: choi (90 minutes or more of zero counts, Choi et al. 2011), troiano (60 minutes or more, Troiano et al. 2008), none, or auto (choi where there are counts and times)")
 	f.StringVar(&m.NonWearColumn, "non-wear-column", "", "the activity-counts column of the non-wear rule (default: the feature named counts, count, cpm or axis1)")
+	f.StringVar(&m.WearColumn, "wear-column", "", "a column marking each window worn (1) or not (0), as the device's own wear detection gives it, in place of the non-wear rule")
 	f.StringVar(&m.TimeZone, "time-zone", "", "the study's time zone (an IANA name such as Europe/Berlin) in which times given with a UTC offset are read for days, hours and weekends (default UTC; times without an offset are read as written)")
 	f.StringVar(&m.ValidDay, "valid-day", "auto", "the wear that makes a day valid, as 10h (16h for a 24-hour protocol), or none; auto: 10h where the non-wear rule runs")
 	f.IntVar(&m.ValidDays, "valid-days", cohort.DefaultValidDays, "valid days a participant needs (with the valid-day rule); others are excluded and listed")
@@ -172,7 +176,10 @@ func (m *mainFlags) readOptions() (cohort.ReadOptions, error) {
 	default:
 		return ro, flagErrorf("--non-wear %q: use auto, choi, troiano or none", m.NonWear)
 	}
-	ro.TimeZone, ro.ValidDays, ro.WeekendDay = m.TimeZone, m.ValidDays, m.WeekendDay
+	ro.TimeZone, ro.ValidDays, ro.WeekendDay, ro.WearColumn = m.TimeZone, m.ValidDays, m.WeekendDay, m.WearColumn
+	if ro.WearColumn != "" && m.NonWear == "auto" {
+		ro.NonWear = "" // the column takes the rule's place
+	}
 	switch m.ValidDay {
 	case "none", "":
 	case "auto":
@@ -293,6 +300,7 @@ func (m *mainFlags) options(inputs []string) (job.Options, error) {
 		return o, flagErrorf("--group-valley %v: use a share in [0, 1)", m.GroupValley)
 	}
 	o.GroupValley = m.GroupValley
+	o.KeepTwins = m.KeepTwins
 	switch m.Signature {
 	case job.SignatureWhole:
 	case job.SignatureDayParts:
@@ -333,14 +341,14 @@ func (m *mainFlags) settings() []reports.Setting {
 	return []reports.Setting{
 		s("id column", m.ID), s("order column", m.Order), s("wave column", m.Wave), s("label column", m.Label),
 		s("feature patterns", strings.Join(m.Features, ",")), s("missing cells", m.Missing), s("minimum windows", strconv.Itoa(m.MinWindows)),
-		s("non-wear rule", m.NonWear), s("non-wear counts column", m.NonWearColumn), s("time zone", m.TimeZone),
+		s("non-wear rule", m.NonWear), s("non-wear counts column", m.NonWearColumn), s("time zone", m.TimeZone), s("wear column", m.WearColumn),
 		s("valid day", m.ValidDay), s("valid days needed", strconv.Itoa(m.ValidDays)), s("a valid weekend day needed", strconv.FormatBool(m.WeekendDay)),
 		s("within-participant step", m.Within), s("within-step features", strings.Join(m.WithinFeatures, ",")),
 		s("axis means (align)", m.Axes), s("turned with the axis means", m.Turn), s("log scale", m.Log), s("rule for a range of states", m.StatesRule), s("calibration of the axis means", m.Calibration), s("fits of the states", strconv.Itoa(m.Fits)), s("valley ratio", fmt.Sprint(m.Valley)),
 		s("offset ICC threshold", fmt.Sprint(m.OffsetICC)), s("rest share", fmt.Sprint(m.RestShare)),
 		s("cohort scaling", m.Scale), s("PCA", m.PCA), s("states", m.States), s("window sample", strconv.Itoa(m.Sample)),
 		s("groups", m.Groups), s("grouping method", m.Method), s("criterion for groups", m.Criterion), s("group valley cap", strconv.FormatFloat(m.GroupValley, 'g', -1, 64)),
-		s("signature", m.Signature), s("parts of the day begin at", strings.Trim(strings.Join(strings.Fields(fmt.Sprint(m.DayParts)), ","), "[]")),
+		s("features that are twins of another", map[bool]string{true: "kept", false: "left out"}[m.KeepTwins]), s("signature", m.Signature), s("parts of the day begin at", strings.Trim(strings.Join(strings.Fields(fmt.Sprint(m.DayParts)), ","), "[]")),
 		s("bootstrap / gap references", strconv.Itoa(m.Bootstrap)), s("seed", strconv.FormatUint(m.Seed, 10)), s("window length", windowSetting(m.WindowLength)),
 	}
 }
@@ -517,6 +525,7 @@ var modelFlags = map[string]func(m *mainFlags, f *reports.ModelFit, r reports.Mo
 	},
 	"non-wear-column": func(m *mainFlags, _ *reports.ModelFit, r reports.ModelRead) { m.NonWearColumn = r.NonWearFeature },
 	"time-zone":       func(m *mainFlags, _ *reports.ModelFit, r reports.ModelRead) { m.TimeZone = r.TimeZone },
+	"wear-column":     func(m *mainFlags, _ *reports.ModelFit, r reports.ModelRead) { m.WearColumn = r.WearColumn },
 	"valid-day": func(m *mainFlags, _ *reports.ModelFit, r reports.ModelRead) {
 		m.ValidDay = "none" // a model from before the rule kept every day
 		if r.ValidDay != "" {
@@ -584,6 +593,7 @@ var modelFlags = map[string]func(m *mainFlags, f *reports.ModelFit, r reports.Mo
 	"method":       func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) { m.Method = f.Method },
 	"criterion":    func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) { m.Criterion = f.Criterion },
 	"group-valley": func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) { m.GroupValley = f.GroupValley },
+	"keep-twins":   func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) { m.KeepTwins = f.KeepTwins },
 	"signature": func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) {
 		m.Signature = job.SignatureWhole
 		if f.Signature != "" {

@@ -230,7 +230,7 @@ func readFamilyDumps(t *testing.T, dir string) []*familyDump {
 
 var familiesRecover = flag.String("families.recover", "", "run the job with the defaults on family members: family:first-last[,…]")
 var familiesSeeds = flag.Int("families.seeds", 3, "tool seeds per member, for reproducibility")
-var familiesArgs = flag.String("families.opts", "", "options changed from the defaults, as key=value,… (states=4, fits=1, criterion=bic, method=ward-hellinger, calibration=off, nonwear=choi)")
+var familiesArgs = flag.String("families.opts", "", "options changed from the defaults, as key=value,… (states=4, fits=1, criterion=bic, method=ward-hellinger, calibration=off, nonwear=choi, validday=none, validdays=2, twins=keep)")
 
 // The families benchmark: the whole job with the defaults (or -families.opts) on members of
 // every family, scored by the adjusted Rand index against the planted groups, each member run
@@ -309,6 +309,11 @@ func recoverMember(t *testing.T, fam synth.Family, seed uint64) (r struct {
 	r.family, r.seed, r.trueK = string(fam), seed, len(sc.Groups)
 	o := Defaults(path)
 	o.NoSensitivity = true
+	if sc.Count != nil && sc.Count.Days < cohort.DefaultValidDays {
+		// The invented study's protocol: recordings of 1 to 3 days, each valid day counts (the
+		// default of 4 valid days is a week-long protocol's).
+		o.Read.ValidDays = 1
+	}
 	for _, kv := range strings.Split(*familiesArgs, ",") {
 		k, v, _ := strings.Cut(kv, "=")
 		switch k {
@@ -338,6 +343,15 @@ func recoverMember(t *testing.T, fam synth.Family, seed uint64) (r struct {
 			o.NoCalibration = v == "off"
 		case "nonwear":
 			o.Read.NonWear = strings.TrimPrefix(v, "none") // none: no rule
+		case "validday": // none, or hours of wear such as 10h
+			o.Read.ValidDay, o.Read.ValidDayAuto = 0, false
+			if v != "none" {
+				o.Read.ValidDay, _ = time.ParseDuration(v)
+			}
+		case "validdays":
+			fmt.Sscan(v, &o.Read.ValidDays)
+		case "twins":
+			o.KeepTwins = v == "keep"
 		default:
 			t.Fatalf("-families.opts: no option %s", k)
 		}

@@ -54,6 +54,9 @@ type Options struct {
 	// needs times in the order column. The bouts are seen either way.
 	Signature string
 	DayParts  profile.DayParts
+	// KeepTwins keeps features that order the windows exactly as an earlier one does (a log of
+	// a column of counts beside the counts); by default they are left out (dropTwins).
+	KeepTwins bool
 	Seed      uint64
 	// Window is the length of one window, given on the command line (0: from the order
 	// column's times, when it holds times).
@@ -516,9 +519,63 @@ func Describe(f *Fitted, stateNames, groupNames []string) (*reports.Result, erro
 		res.StateLines[s] = w.Sentence()
 	}
 	res.GroupLines = groupLines(g, sigs, reports.ShortNames(res.StateWords), t.Units, f.Atypical, f.Window)
+	if f.Signature == SignatureDayParts && g.K > 1 {
+		for c, clause := range partLines(f.TimeOfDay, g.Labels, g.K, k, f.DayParts, reports.ShortNames(res.StateWords)) {
+			if clause != "" {
+				res.GroupLines[c] += "; by time of day, " + clause
+			}
+		}
+	}
 	res.TimeZone, res.TimeOfDay = t.TimeZone, groupTimeOfDay(f.TimeOfDay, g.Labels, g.K, k)
 	res.Signature, res.DayParts = f.Signature, f.DayParts
 	return res, nil
+}
+
+// partLines says, for each group found on the day-part signature, the part of the day and the
+// state in which its share of time differs most above the cohort's (in points of the share of
+// that part of the day), as "more S3 vigorous movement in the morning (60% of their morning
+// against 35% on average)"; "" where no share stands 5 points above.
+func partLines(tds []*profile.TimeOfDay, labels []int, groups, k int, parts profile.DayParts, stateNames []string) []string {
+	p := len(parts)
+	sum := make([][]float64, groups+1) // by group, and the cohort last: parts·k counts
+	for c := range sum {
+		sum[c] = make([]float64, p*k)
+	}
+	for i, td := range tds {
+		if td == nil {
+			continue
+		}
+		for j, v := range td.ByPart(parts) {
+			sum[labels[i]][j] += v
+			sum[groups][j] += v
+		}
+	}
+	within := func(c, part, j int) float64 { // share of state j within the part
+		var total float64
+		for s := 0; s < k; s++ {
+			total += sum[c][part*k+s]
+		}
+		if total == 0 {
+			return math.NaN()
+		}
+		return sum[c][part*k+j] / total
+	}
+	out := make([]string, groups)
+	for c := 0; c < groups; c++ {
+		best, bp, bj := 0.05, -1, -1
+		for part := 0; part < p; part++ {
+			for j := 0; j < k; j++ {
+				if d := within(c, part, j) - within(groups, part, j); d > best { // false for NaN
+					best, bp, bj = d, part, j
+				}
+			}
+		}
+		if bp >= 0 {
+			name := parts.Name(bp)
+			out[c] = fmt.Sprintf("more %s in the %s (%s of their %s against %s on average)", stateNames[bj], name, reports.Percent(within(c, bp, bj)), name, reports.Percent(within(groups, bp, bj)))
+		}
+	}
+	return out
 }
 
 // groupTimeOfDay adds up the members' windows of each group by hour of the day and by weekday
@@ -802,7 +859,7 @@ func (o Options) ModelFit() *reports.ModelFit {
 		PCAComponents: o.Norm.PCAComponents, PCAVariance: o.Norm.PCAVariance, NoPCA: o.Norm.NoPCA,
 		States: o.States, StatesRule: o.StatesRule.String(), NoCalibration: o.NoCalibration, Fits: o.Fits, Valley: o.Valley, Sample: o.Sample,
 		Groups: o.Groups, Method: o.Method.String(), Criterion: o.Criterion.String(), GroupValley: o.GroupValley,
-		Bootstrap: o.Bootstrap, Seed: o.Seed, WindowSeconds: o.Window.Seconds(), Signature: o.Signature, DayParts: o.DayParts,
+		Bootstrap: o.Bootstrap, Seed: o.Seed, WindowSeconds: o.Window.Seconds(), Signature: o.Signature, DayParts: o.DayParts, KeepTwins: o.KeepTwins,
 	}
 }
 

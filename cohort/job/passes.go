@@ -66,6 +66,10 @@ type FirstWindows struct {
 	Ordinal int
 	Rows    []float64 // up to firstRows windows × the census's features
 	Steps   []int64   // the positive steps between consecutive order keys (first units only)
+	// Spread is up to firstRows windows taken evenly through the whole recording (all of them
+	// when it has no more), for the search for twin features (dropTwins): the first windows of
+	// a recording that starts at night are too alike to tell.
+	Spread []float64
 }
 
 // firstUnits and firstRows bound the windows FirstWindows keeps; stepUnits is how many units
@@ -109,6 +113,11 @@ func CensusOf(t *cohort.Table, o Options) (*Census, error) {
 			return nil, err
 		}
 		fw := FirstWindows{Ordinal: un.Ordinal, Rows: slices.Clone(x[:min(len(x), firstRows*d)])}
+		n := len(x) / d
+		for i := 0; i < min(n, firstRows); i++ {
+			w := i * n / min(n, firstRows)
+			fw.Spread = append(fw.Spread, x[w*d:(w+1)*d]...)
+		}
 		if u < stepUnits {
 			if fw.Steps, err = orderSteps(t, u); err != nil {
 				return nil, err
@@ -180,6 +189,7 @@ func MergeCensus(parts []*Census) (*Plan, error) {
 	q := &p.Quality
 	q.UnitsIn, q.WindowsIn, q.IgnoredColumns = first.Quality.UnitsIn, first.Quality.WindowsIn, first.Quality.IgnoredColumns
 	var first20 []FirstWindows
+	var spread []float64 // the first units' windows through their recordings, for dropTwins
 	var constancy []*cohort.Constancy
 	for i, c := range parts {
 		if !slices.Equal(c.Features, first.Features) || !slices.Equal(c.Files, first.Files) || c.Quality.UnitsIn != q.UnitsIn || c.Quality.WindowsIn != q.WindowsIn ||
@@ -230,15 +240,49 @@ func MergeCensus(parts []*Census) (*Plan, error) {
 	}
 	for i, fw := range first20[:min(len(first20), firstUnits)] {
 		p.First = append(p.First, selectColumns(fw.Rows, len(first.Features), cols))
+		spread = append(spread, selectColumns(fw.Spread, len(first.Features), cols)...)
 		if i < stepUnits {
 			p.Steps = append(p.Steps, fw.Steps)
 		}
+	}
+	if !p.Options.KeepTwins {
+		dropTwins(p, spread)
 	}
 	for _, u := range p.Units {
 		p.Usable += u.Windows
 	}
 	p.Window, p.WindowSource = windowFromSteps(p.Steps, p.OrderKind, p.Options.Window)
 	return p, nil
+}
+
+// dropTwins leaves out of the plan the features that order the first units' windows (spread:
+// windows taken through their recordings, FirstWindows.Spread) exactly as an earlier feature
+// does (normalize.MonotoneTwins), with a note for each.
+func dropTwins(p *Plan, spread []float64) {
+	d := len(p.Features)
+	twin := normalize.MonotoneTwins(spread, d)
+	var cols []int
+	var kept []string
+	var lowest []float64
+	for j, tw := range twin {
+		if tw >= 0 {
+			p.Quality.DroppedFeatures = append(p.Quality.DroppedFeatures, cohort.Note{Name: p.Features[j],
+				Reason: fmt.Sprintf("it orders every window as %s does (a monotone transform of it), so it would weigh the same information twice; left out (job.Options.KeepTwins keeps it)", p.Features[tw])})
+			continue
+		}
+		cols = append(cols, j)
+		kept = append(kept, p.Features[j])
+		if p.Lowest != nil {
+			lowest = append(lowest, p.Lowest[j])
+		}
+	}
+	if len(cols) == d {
+		return
+	}
+	for i, rows := range p.First {
+		p.First[i] = selectColumns(rows, d, cols)
+	}
+	p.Features, p.Lowest = kept, lowest
 }
 
 // selectColumns keeps columns cols (nil: all) of rows of width d.

@@ -1,0 +1,89 @@
+package main
+
+import (
+	"path/filepath"
+	"strings"
+	"testing"
+
+	"github.com/cohortmix/cohortmix/cluster"
+	"github.com/cohortmix/cohortmix/cohort/synth"
+	"github.com/xuri/excelize/v2"
+)
+
+// Issue 30, point 6, from the command line: --signature day-parts finds the larks and the owls
+// (synth.WriteLarksOwls: equal shares, other hours), the workbook shows each group's day hour by
+// hour, and assign places a second cohort with the model's day parts.
+func TestDayPartsFromTheCommandLine(t *testing.T) {
+	if testing.Short() {
+		t.Skip("whole runs")
+	}
+	dir := t.TempDir()
+	in, second := filepath.Join(dir, "a.csv"), filepath.Join(dir, "b.csv")
+	truth, err := synth.WriteLarksOwls(in, 40, 5)
+	if err != nil {
+		t.Fatal(err)
+	}
+	truth2, err := synth.WriteLarksOwls(second, 20, 6)
+	if err != nil {
+		t.Fatal(err)
+	}
+	model := filepath.Join(dir, "m.json")
+	mustRun(t, "group", in, "--signature", "day-parts", "--time-zone", "Europe/Berlin", "--states", "3", "--out", filepath.Join(dir, "r.xlsx"), "--model", model, "--members", filepath.Join(dir, "m.csv"), "--quiet")
+	mustRun(t, "assign", "--model", model, second, "--out", filepath.Join(dir, "a.xlsx"), "--members", filepath.Join(dir, "a.csv.out"), "--quiet")
+	for _, c := range []struct {
+		members string
+		truth   []int
+	}{{"m.csv", truth}, {"a.csv.out", truth2}} {
+		// An atypical participant (farther from its group than 99% of the model's members, of
+		// only 40 here) is in no group; the others must be placed right.
+		groups := membersGroups(t, filepath.Join(dir, c.members))
+		var got, want []int
+		for i, g := range groups {
+			if g >= 0 {
+				got, want = append(got, g), append(want, c.truth[i])
+			}
+		}
+		if ari, _ := cluster.AdjustedRand(got, want); ari < 0.9 || len(got) < len(groups)*3/4 {
+			t.Errorf("%s: ARI %.3f against the larks and owls, %d of %d placed", c.members, ari, len(got), len(groups))
+		}
+	}
+	f, err := excelize.OpenFile(filepath.Join(dir, "r.xlsx"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer f.Close()
+	rows, err := f.GetRows("Time of day")
+	if err != nil {
+		t.Fatal(err)
+	}
+	text := ""
+	for _, r := range rows {
+		text += strings.Join(r, "|") + "\n"
+	}
+	for _, want := range []string{"on the wall clock of Europe/Berlin", "Hour from (G1)", "G2, weekends", "G1, morning (from 06:00)", "(the groups were found on these)"} {
+		if !strings.Contains(text, want) {
+			t.Errorf("the Time of day sheet lacks %q", want)
+		}
+	}
+}
+
+// membersGroups reads the group of each participant from a members CSV, in its order (−1 for
+// one in no group).
+func membersGroups(t *testing.T, path string) []int {
+	t.Helper()
+	lines := strings.Split(strings.TrimSpace(string(readBytes(t, path))), "\n")
+	var out []int
+	names := map[string]int{}
+	for _, line := range lines[1:] {
+		g := strings.Split(line, ",")[2]
+		if g == "" { // atypical or excluded: in no group
+			out = append(out, -1)
+			continue
+		}
+		if _, ok := names[g]; !ok {
+			names[g] = len(names)
+		}
+		out = append(out, names[g])
+	}
+	return out
+}
