@@ -24,6 +24,10 @@ const NonWearAuto = "auto"
 // are zeros. (Values from memory, to be checked against the paper.)
 const NonWearChoi = "choi"
 
+// AutoWearColumn is the wear column that NonWearAuto takes without being told: the column the
+// features step writes (package raw).
+const AutoWearColumn = "worn"
+
 // NonWearColumn is the rule of a wear column (ReadOptions.WearColumn): a window is off when the
 // column holds 0.
 const NonWearColumn = "column"

@@ -78,7 +78,8 @@ type ReadOptions struct {
 	NonWearFeature string
 	// WearColumn names a numeric column that marks each window worn (1) or not (0), as a
 	// device's own wear detection gives it, in place of a non-wear rule: its 0 windows are left
-	// out as non-wear, and the column is not a feature.
+	// out as non-wear, and the column is not a feature. With NonWear NonWearAuto, a column named
+	// AutoWearColumn is taken as the wear column without being named.
 	WearColumn string
 	// TimeZone is the IANA zone (Europe/Berlin) in which times given with a UTC offset are read
 	// on the wall clock, for days, hours of the day and weekends; "" reads them in UTC. Times
@@ -1482,8 +1483,13 @@ func (r *reader) finish() (*Table, error) {
 // the wear column (ReadOptions.WearColumn), or the activity counts of Choi's or Troiano's rule
 // (ReadOptions.NonWear; auto: Choi's where there are counts and times).
 func (r *reader) nonWearColumn() (string, int, error) {
-	if r.opts.WearColumn != "" {
-		if r.opts.NonWear != "" && r.opts.NonWear != NonWearAuto {
+	wear := r.opts.WearColumn
+	if wear == "" && r.opts.NonWear == NonWearAuto && slices.Contains(r.features, AutoWearColumn) {
+		wear = AutoWearColumn // as the features step writes it
+	}
+	if wear != "" {
+		r.opts.WearColumn = wear
+		if r.opts.NonWear != "" && r.opts.NonWear != NonWearAuto && wear == r.opts.WearColumn && r.opts.WearColumn != AutoWearColumn {
 			return "", -1, fmt.Errorf("cohort: a wear column (%s) and the non-wear rule %s: %w; give one of them", r.opts.WearColumn, r.opts.NonWear, ErrBadOption)
 		}
 		j := slices.Index(r.features, r.opts.WearColumn)

@@ -56,7 +56,7 @@ Exit codes: 0 success, 1 error in the input or the run, 2 wrong command line, 13
 	root.SetOut(env.IO.Out)
 	root.SetErr(env.IO.Err)
 	root.SetFlagErrorFunc(func(c *cobra.Command, err error) error { return &flagError{err} })
-	root.AddCommand(newGroupCmd(env, nil), newCheckCmd(env, nil), newAssignCmd(env, nil), newRefreshCmd(env, nil), newDemoCmd(env, nil), newSynthCmd(env, nil), newShardCmd(env, nil))
+	root.AddCommand(newGroupCmd(env, nil), newCheckCmd(env, nil), newAssignCmd(env, nil), newRefreshCmd(env, nil), newDemoCmd(env, nil), newSynthCmd(env, nil), newShardCmd(env, nil), newFeaturesCmd(env, nil))
 	for _, c := range root.Commands() {
 		commandLineErrors(c)
 	}

@@ -1,6 +1,7 @@
 package main
 
 import (
+	"context"
 	"path/filepath"
 	"strings"
 	"testing"
@@ -86,4 +87,27 @@ func membersGroups(t *testing.T, path string) []int {
 		out = append(out, names[g])
 	}
 	return out
+}
+
+// Issue 31: the demo from raw recordings runs the whole path (invented recordings, the features
+// step with its calibration and non-wear column, the grouping) and finds the planted groups; the
+// features step refuses a per-window table in one line.
+func TestRawDemoFindsThePlantedGroups(t *testing.T) {
+	if testing.Short() {
+		t.Skip("writes 200 MB of invented recordings")
+	}
+	dir := t.TempDir()
+	out := mustRun(t, "demo", "--raw", "--dir", dir)
+	if !strings.Contains(out, "adjusted Rand index 1.000") || !strings.Contains(out, "40 participants, 7200 windows of 1m0s") {
+		t.Errorf("the raw demo said:\n%s", out)
+	}
+	report := string(readBytes(t, filepath.Join(dir, "demo-windows-report.csv")))
+	if strings.Count(report, ",true,") != 40 {
+		t.Errorf("not every invented device was calibrated:\n%s", report)
+	}
+	env, _, errb := testEnv()
+	if code := run(context.Background(), env, []string{"features", filepath.Join(dir, "demo-windows.csv"), "--out", filepath.Join(dir, "again.csv")}); code != 1 ||
+		!strings.Contains(errb.String(), "demo-windows.csv:1: no column for the time among participant, window,") || strings.Count(strings.TrimSpace(errb.String()), "\n") != 0 {
+		t.Errorf("features on a per-window table: exit %d, %s", code, errb)
+	}
 }

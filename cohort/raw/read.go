@@ -1,0 +1,221 @@
+package raw
+
+import (
+	"bufio"
+	"bytes"
+	"compress/gzip"
+	"fmt"
+	"io"
+	"os"
+	"path/filepath"
+	"slices"
+	"strconv"
+	"strings"
+	"time"
+)
+
+// sample is one row of a recording.
+type sample struct {
+	id   string
+	t    int64 // Unix ns; for times without an offset, the wall clock as if in UTC
+	a    [3]float64
+	line int
+}
+
+// layout is where a recording's columns are, and how its times are written.
+type layout struct {
+	delim          byte
+	id, t, x, y, z int  // column index; id −1 without one
+	zoned          bool // times with an offset, or epoch numbers (instants)
+	kindKnown      bool
+	file           string
+	fileID         string
+}
+
+// openText opens a file for reading, through gzip when its name ends in .gz.
+func openText(path string) (io.ReadCloser, error) {
+	f, err := os.Open(path)
+	if err != nil {
+		return nil, fmt.Errorf("%s: cannot open: %w", path, err)
+	}
+	if !strings.HasSuffix(path, ".gz") {
+		return f, nil
+	}
+	z, err := gzip.NewReader(f)
+	if err != nil {
+		f.Close()
+		return nil, fmt.Errorf("%s: not a gzip file (%v): %w", path, err, ErrInput)
+	}
+	return struct {
+		io.Reader
+		io.Closer
+	}{z, f}, nil
+}
+
+// fileID is a file's name without folder and suffixes: the participant of a one-participant file.
+func fileID(path string) string {
+	base := filepath.Base(path)
+	for _, suf := range []string{".gz", ".csv", ".tsv", ".txt"} {
+		base = strings.TrimSuffix(base, suf)
+	}
+	return base
+}
+
+// findLayout reads the header and finds the columns.
+func findLayout(path, header string, o Options) (*layout, error) {
+	l := &layout{file: path, fileID: fileID(path), id: -1}
+	switch {
+	case strings.Count(header, "\t") > strings.Count(header, ","):
+		l.delim = '\t'
+	case strings.Count(header, ";") > strings.Count(header, ","):
+		l.delim = ';'
+	default:
+		l.delim = ','
+	}
+	var names []string
+	for _, h := range strings.Split(header, string(l.delim)) {
+		names = append(names, strings.ToLower(strings.Trim(strings.TrimSpace(h), `"`)))
+	}
+	find := func(given string, role string, alike func(string) bool) (int, error) {
+		if given != "" {
+			if j := slices.Index(names, strings.ToLower(given)); j >= 0 {
+				return j, nil
+			}
+			return -1, fmt.Errorf("%s:1: no column %q for the %s among %s: %w", path, given, role, strings.Join(names, ", "), ErrInput)
+		}
+		for j, n := range names {
+			if alike(n) {
+				return j, nil
+			}
+		}
+		return -1, fmt.Errorf("%s:1: no column for the %s among %s; a raw recording has a time column and x, y, z (name them with the options): %w", path, role, strings.Join(names, ", "), ErrInput)
+	}
+	var err error
+	if l.t, err = find(o.Time, "time", func(n string) bool {
+		return n == "time" || n == "timestamp" || n == "datetime" || n == "date_time" || n == "t"
+	}); err != nil {
+		return nil, err
+	}
+	for i, p := range []*int{&l.x, &l.y, &l.z} {
+		axis := string("xyz"[i])
+		given := []string{o.X, o.Y, o.Z}[i]
+		if *p, err = find(given, "axis "+axis, func(n string) bool {
+			return n == axis || strings.HasSuffix(n, "_"+axis) || n == "acc"+axis || n == "a"+axis || n == "acc_"+axis
+		}); err != nil {
+			return nil, err
+		}
+	}
+	if o.ID != "" {
+		if l.id, err = find(o.ID, "participant id", nil); err != nil {
+			return nil, err
+		}
+	}
+	return l, nil
+}
+
+// scan reads a recording row by row, calling each with its sample; a row that cannot be read is
+// an error naming the file, line and column.
+func scan(path string, o Options, each func(l *layout, s sample) error) error {
+	rc, err := openText(path)
+	if err != nil {
+		return err
+	}
+	defer rc.Close()
+	br := bufio.NewReaderSize(rc, 1<<20)
+	header, err := br.ReadString('\n')
+	if err != nil && header == "" {
+		return fmt.Errorf("%s: empty file; a raw recording has a header row and one row per sample: %w", path, ErrInput)
+	}
+	l, err := findLayout(path, strings.TrimRight(header, "\r\n"), o)
+	if err != nil {
+		return err
+	}
+	width := max(l.t, l.x, l.y, l.z, l.id) + 1
+	cells := make([][]byte, 0, width)
+	line := 1
+	for {
+		row, err := br.ReadSlice('\n')
+		if err == bufio.ErrBufferFull {
+			return fmt.Errorf("%s:%d: a line longer than 1 MiB; this is not a raw recording: %w", path, line+1, ErrInput)
+		}
+		if len(row) == 0 && err != nil {
+			if err == io.EOF {
+				return nil
+			}
+			return fmt.Errorf("%s:%d: %w", path, line+1, err)
+		}
+		line++
+		row = bytes.TrimRight(row, "\r\n")
+		if len(row) == 0 {
+			continue
+		}
+		cells = cells[:0]
+		for len(cells) < width {
+			i := bytes.IndexByte(row, l.delim)
+			if i < 0 {
+				cells = append(cells, row)
+				row = nil
+				break
+			}
+			cells = append(cells, row[:i])
+			row = row[i+1:]
+		}
+		if len(cells) < width {
+			return fmt.Errorf("%s:%d: %d columns where the header has at least %d: %w", path, line, len(cells), width, ErrInput)
+		}
+		s := sample{id: l.fileID, line: line}
+		if l.id >= 0 {
+			s.id = string(bytes.TrimSpace(cells[l.id]))
+		}
+		var zoned bool
+		if s.t, zoned, err = parseTime(cells[l.t]); err != nil {
+			return fmt.Errorf("%s:%d:%d: %v: %w", path, line, l.t+1, err, ErrInput)
+		}
+		if !l.kindKnown {
+			l.zoned, l.kindKnown = zoned, true
+		} else if zoned != l.zoned {
+			return fmt.Errorf("%s:%d:%d: a time %s where the file's first time was %s; give every time in one form: %w", path, line, l.t+1, zoneWord(zoned), zoneWord(l.zoned), ErrInput)
+		}
+		for a, c := range []int{l.x, l.y, l.z} {
+			v, err := strconv.ParseFloat(string(bytes.TrimSpace(cells[c])), 64)
+			if err != nil || v != v || v > 1e6 || v < -1e6 {
+				return fmt.Errorf("%s:%d:%d: %q is not a number of acceleration: %w", path, line, c+1, cells[c], ErrInput)
+			}
+			s.a[a] = v
+		}
+		if err := each(l, s); err != nil {
+			return err
+		}
+	}
+}
+
+func zoneWord(zoned bool) string {
+	if zoned {
+		return "with a UTC offset (or in epoch seconds)"
+	}
+	return "without a UTC offset"
+}
+
+// parseTime reads a time cell: epoch seconds (or milliseconds, from 10¹¹ on) as an instant, or
+// ISO-8601 with or without a UTC offset, in the years 1900–2200.
+func parseTime(b []byte) (int64, bool, error) {
+	s := string(bytes.TrimSpace(b))
+	if v, err := strconv.ParseFloat(s, 64); err == nil {
+		if v >= 1e11 {
+			v /= 1000
+		}
+		if !(v > -2.2e9 && v < 7.3e9) {
+			return 0, false, fmt.Errorf("%q is an epoch time outside 1900–2200", s)
+		}
+		return int64(v * 1e9), true, nil
+	}
+	for i, layout := range []string{time.RFC3339Nano, "2006-01-02T15:04:05.999999999", "2006-01-02 15:04:05.999999999"} {
+		if t, err := time.Parse(layout, s); err == nil {
+			if t.Year() < 1900 || t.Year() > 2200 {
+				return 0, false, fmt.Errorf("%q is a time outside 1900–2200", s)
+			}
+			return t.UnixNano(), i == 0, nil
+		}
+	}
+	return 0, false, fmt.Errorf("%q is neither an ISO-8601 time (2026-03-01T08:30:00.010) nor epoch seconds", s)
+}

@@ -1,0 +1,328 @@
+package raw
+
+import (
+	"bytes"
+	"context"
+	"fmt"
+	"io"
+	"math"
+	"slices"
+	"strconv"
+	"strings"
+	"time"
+
+	"github.com/cohortmix/cohortmix/cluster"
+)
+
+// firstPass gathers one participant's summaries in the first pass, in the units as read.
+type firstPass struct {
+	p        *Participant
+	last     int64
+	lastLine int
+	steps    []float64 // the first positive steps between samples, in s
+	vms      []float64 // the first samples' vector magnitudes
+	block    int64     // the current 10-second block
+	bn       int
+	bs, bs2  [3]float64
+	blocks   [][6]float64 // complete blocks: the mean and s.d. of each axis
+	chunks   []chunk
+}
+
+// firstSamples is how many samples the units and the rate are read from.
+const firstSamples = 2000
+
+func (f *firstPass) add(s sample, path string) error {
+	if f.p.Samples > 0 {
+		switch {
+		case s.t == f.last:
+			return fmt.Errorf("%s:%d: participant %s has this time twice (also line %d); remove one of the rows: %w", path, s.line, f.p.ID, f.lastLine, ErrInput)
+		case s.t < f.last:
+			return fmt.Errorf("%s:%d: participant %s goes back in time from line %d; sort the rows by time: %w", path, s.line, f.p.ID, f.lastLine, ErrInput)
+		}
+		if len(f.steps) < firstSamples {
+			f.steps = append(f.steps, float64(s.t-f.last)/1e9)
+		}
+	}
+	f.p.Samples++
+	f.last, f.lastLine = s.t, s.line
+	if len(f.vms) < firstSamples {
+		f.vms = append(f.vms, math.Sqrt(s.a[0]*s.a[0]+s.a[1]*s.a[1]+s.a[2]*s.a[2]))
+	}
+	if b := floorDiv(s.t, int64(stillBlock)); b != f.block || f.bn == 0 {
+		f.closeBlock()
+		f.block = b
+	}
+	f.bn++
+	for a, v := range s.a {
+		f.bs[a] += v
+		f.bs2[a] += v * v
+	}
+	ck := floorDiv(s.t, int64(nonWearChunk))
+	if len(f.chunks) == 0 || f.chunks[len(f.chunks)-1].key != ck {
+		f.chunks = append(f.chunks, chunk{key: ck})
+	}
+	f.chunks[len(f.chunks)-1].add(s.a)
+	return nil
+}
+
+// closeBlock keeps the current 10-second block's means and s.d.s, when it holds samples.
+func (f *firstPass) closeBlock() {
+	if f.bn < 2 {
+		f.bn, f.bs, f.bs2 = 0, [3]float64{}, [3]float64{}
+		return
+	}
+	var b [6]float64
+	n := float64(f.bn)
+	for a := 0; a < 3; a++ {
+		m := f.bs[a] / n
+		b[a], b[3+a] = m, math.Sqrt(math.Max(0, f.bs2[a]/n-m*m))
+	}
+	f.blocks = append(f.blocks, b)
+	f.bn, f.bs, f.bs2 = 0, [3]float64{}, [3]float64{}
+}
+
+// plan is what the second pass needs of one participant: its units, rate, calibration and the
+// non-wear chunks.
+type plan struct {
+	factor  float64
+	rate    float64
+	cal     Calibration
+	nonWear map[int64]bool
+}
+
+// finish turns the first pass's summaries into the participant's plan.
+func (f *firstPass) finish(path string, o Options) (*plan, error) {
+	f.closeBlock()
+	if f.p.Samples < 2 {
+		return nil, fmt.Errorf("%s: participant %s has %d samples; a raw recording has many: %w", path, f.p.ID, f.p.Samples, ErrInput)
+	}
+	factor, units, err := unitsOf(o.Units, median(f.vms))
+	if err != nil {
+		return nil, fmt.Errorf("%s: participant %s: %w", path, f.p.ID, err)
+	}
+	f.p.Units = units
+	rate := o.Rate
+	if rate == 0 {
+		step := median(f.steps)
+		if !(step > 0) {
+			return nil, fmt.Errorf("%s: participant %s: the sampling rate cannot be read from the times; give it: %w", path, f.p.ID, ErrInput)
+		}
+		rate = math.Round(1/step*100) / 100
+	}
+	f.p.Rate = rate
+	pl := &plan{factor: factor, rate: rate, cal: Calibration{Scale: [3]float64{1, 1, 1}, Reason: "calibration was not asked for"}}
+	if !o.NoCalibration {
+		var still [][3]float64
+		for _, b := range f.blocks {
+			if b[3]*factor < stillSD && b[4]*factor < stillSD && b[5]*factor < stillSD {
+				still = append(still, [3]float64{b[0] * factor, b[1] * factor, b[2] * factor})
+			}
+		}
+		pl.cal = calibrate(still)
+	}
+	f.p.Calibration = pl.cal
+	chunks := slices.Clone(f.chunks)
+	for i := range chunks {
+		for a := 0; a < 3; a++ {
+			chunks[i].sum[a] *= factor
+			chunks[i].sum2[a] *= factor * factor
+			chunks[i].lo[a] *= factor
+			chunks[i].hi[a] *= factor
+		}
+	}
+	pl.nonWear = nonWearChunks(chunks, pl.cal.Scale, rate)
+	f.blocks, f.chunks = nil, nil
+	return pl, nil
+}
+
+// secondPass computes one participant's windows.
+type secondPass struct {
+	p       *Participant
+	pl      *plan
+	o       Options
+	zoned   bool
+	window  int64
+	x, y, z []float64
+	feat    []float64
+	sp      spectrum
+	out     *bytes.Buffer
+}
+
+func (s *secondPass) add(smp sample) {
+	if w := floorDiv(smp.t, int64(s.o.Window)); w != s.window || len(s.x) == 0 {
+		s.flush()
+		s.window = w
+	}
+	var c [3]float64
+	for a, v := range smp.a {
+		v *= s.pl.factor
+		if math.Abs(v) >= 0.99*s.o.Range {
+			s.p.Clipped++
+		}
+		c[a] = s.pl.cal.Scale[a]*v + s.pl.cal.Offset[a]
+	}
+	s.x, s.y, s.z = append(s.x, c[0]), append(s.y, c[1]), append(s.z, c[2])
+}
+
+// flush writes the current window, when it holds enough of its samples.
+func (s *secondPass) flush() {
+	n := len(s.x)
+	if n == 0 {
+		return
+	}
+	defer func() { s.x, s.y, s.z = s.x[:0], s.y[:0], s.z[:0] }()
+	if float64(n) < completeShare*s.pl.rate*s.o.Window.Seconds() {
+		s.p.Incomplete++
+		return
+	}
+	if s.feat == nil {
+		s.feat = make([]float64, len(FeatureNames))
+	}
+	windowFeatures(s.x, s.y, s.z, s.pl.rate, s.feat, &s.sp)
+	start := s.window * int64(s.o.Window)
+	worn := 1
+	if s.pl.nonWear[floorDiv(start, int64(nonWearChunk))] {
+		worn = 0
+		s.p.NonWear++
+	}
+	s.p.Windows++
+	b := s.out
+	b.WriteString(csvCell(s.p.ID))
+	b.WriteByte(',')
+	t := time.Unix(0, start).UTC()
+	if s.zoned {
+		b.WriteString(t.Format("2006-01-02T15:04:05Z"))
+	} else {
+		b.WriteString(t.Format("2006-01-02T15:04:05"))
+	}
+	var num [32]byte
+	for _, v := range s.feat {
+		b.WriteByte(',')
+		if math.IsNaN(v) {
+			b.WriteString("NA")
+			continue
+		}
+		b.Write(strconv.AppendFloat(num[:0], v, 'g', 10, 64))
+	}
+	b.WriteByte(',')
+	b.WriteString(strconv.Itoa(worn))
+	b.WriteByte('\n')
+}
+
+// Header is the first line of the table the step writes.
+func Header() string {
+	return "participant,window," + strings.Join(FeatureNames, ",") + ",worn\n"
+}
+
+// Run computes the windows of every recording in inputs and writes the long table to w (Header,
+// then one row per window, participants in the order of the inputs), returning what was done
+// with each participant. Files are processed on o.Workers cores at once; the table is the same
+// on any number.
+func Run(ctx context.Context, inputs []string, w io.Writer, o Options) ([]Participant, error) {
+	o = o.withDefaults()
+	if o.Window < 5*time.Second || o.Window > 15*time.Minute {
+		return nil, fmt.Errorf("window length %v: %w; use 5s to 15m", o.Window, ErrOption)
+	}
+	if _, _, err := unitsOf(o.Units, math.NaN()); err != nil {
+		return nil, err
+	}
+	if _, err := io.WriteString(w, Header()); err != nil {
+		return nil, err
+	}
+	var all []Participant
+	err := cluster.Ordered(ctx, len(inputs), o.Workers, func(i, _ int) (fileResult, error) {
+		return runFile(ctx, inputs[i], o)
+	}, func(i int, r fileResult) error {
+		all = append(all, r.people...)
+		_, err := w.Write(r.rows.Bytes())
+		return err
+	})
+	return all, err
+}
+
+type fileResult struct {
+	people []Participant
+	rows   *bytes.Buffer
+}
+
+// runFile makes both passes over one file.
+func runFile(ctx context.Context, path string, o Options) (fileResult, error) {
+	var order []*firstPass
+	byID := map[string]*firstPass{}
+	var cur *firstPass
+	lines := 0
+	err := scan(path, o, func(l *layout, s sample) error {
+		if lines++; lines%(1<<20) == 0 && ctx.Err() != nil {
+			return ctx.Err()
+		}
+		if cur == nil || cur.p.ID != s.id {
+			if byID[s.id] != nil {
+				return fmt.Errorf("%s:%d: the rows of participant %s are not together (it appeared before line %d); sort the table by participant, then time: %w", path, s.line, s.id, byID[s.id].lastLine+1, ErrInput)
+			}
+			cur = &firstPass{p: &Participant{ID: s.id, File: path}}
+			byID[s.id] = cur
+			order = append(order, cur)
+		}
+		return cur.add(s, path)
+	})
+	if err != nil {
+		return fileResult{}, err
+	}
+	if len(order) == 0 {
+		return fileResult{}, fmt.Errorf("%s: no samples after the header: %w", path, ErrInput)
+	}
+	plans := map[string]*plan{}
+	for _, f := range order {
+		if plans[f.p.ID], err = f.finish(path, o); err != nil {
+			return fileResult{}, err
+		}
+	}
+	res := fileResult{rows: &bytes.Buffer{}}
+	var sec *secondPass
+	err = scan(path, o, func(l *layout, s sample) error {
+		if sec == nil || sec.p.ID != s.id {
+			if sec != nil {
+				sec.flush()
+			}
+			sec = &secondPass{p: byID[s.id].p, pl: plans[s.id], o: o, zoned: l.zoned, out: res.rows}
+		}
+		sec.add(s)
+		return nil
+	})
+	if err != nil {
+		return fileResult{}, err
+	}
+	sec.flush()
+	for _, f := range order {
+		res.people = append(res.people, *f.p)
+	}
+	return res, nil
+}
+
+// csvCell quotes a cell that holds a comma, a quote or a line break.
+func csvCell(s string) string {
+	if !strings.ContainsAny(s, ",\"\r\n") {
+		return s
+	}
+	return `"` + strings.ReplaceAll(s, `"`, `""`) + `"`
+}
+
+func floorDiv(a, b int64) int64 {
+	q := a / b
+	if a%b != 0 && (a < 0) != (b < 0) {
+		q--
+	}
+	return q
+}
+
+func median(v []float64) float64 {
+	if len(v) == 0 {
+		return math.NaN()
+	}
+	s := slices.Clone(v)
+	slices.Sort(s)
+	if len(s)%2 == 1 {
+		return s[len(s)/2]
+	}
+	return (s[len(s)/2-1] + s[len(s)/2]) / 2
+}
