@@ -6,6 +6,7 @@ import (
 	"encoding/csv"
 	"errors"
 	"fmt"
+	"github.com/cohortmix/cohortmix/cohort/decimal"
 	"io"
 	"math"
 	"slices"
@@ -660,51 +661,11 @@ func orderMsg(cell string) string {
 // pow10 holds the powers of ten that are exact in float64.
 var pow10 = [...]float64{1e0, 1e1, 1e2, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8, 1e9, 1e10, 1e11, 1e12, 1e13, 1e14, 1e15, 1e16, 1e17, 1e18, 1e19, 1e20, 1e21, 1e22}
 
-// parseNumberBytes is parseNumber with a fast path for plain decimals: when the digits form an
-// integer below 2⁵³ with at most 22 decimals, m / 10ᶠ of two exact floats is correctly rounded
-// (Clinger 1990, How to read floating point numbers accurately, PLDI), the same as
-// strconv.ParseFloat. Everything else goes through parseNumber.
+// parseNumberBytes is parseNumber with a fast path for plain decimals (decimal.Plain, exact).
 func parseNumberBytes(b []byte, decimalComma bool) (float64, error) {
-	i, neg := 0, false
-	for i < len(b) && b[i] == ' ' {
-		i++
-	}
-	if i < len(b) && (b[i] == '-' || b[i] == '+') {
-		neg = b[i] == '-'
-		i++
-	}
-	var m uint64
-	digits, frac := 0, -1
-	j := i
-	for ; j < len(b); j++ {
-		ch := b[j]
-		if ch >= '0' && ch <= '9' {
-			m = m*10 + uint64(ch-'0')
-			digits++
-			if frac >= 0 {
-				frac++
-			}
-			continue
-		}
-		if (ch == '.' || (ch == ',' && decimalComma)) && frac < 0 {
-			frac = 0
-			continue
-		}
-		break
-	}
-	k := j
-	for k < len(b) && b[k] == ' ' {
-		k++
-	}
-	if digits == 0 || digits > 15 || k != len(b) || frac == 0 {
+	v, ok := decimal.Plain(b, decimalComma)
+	if !ok {
 		return parseNumber(string(b), decimalComma)
-	}
-	v := float64(m)
-	if frac > 0 {
-		v /= pow10[frac]
-	}
-	if neg {
-		v = -v
 	}
 	if math.Abs(v) > maxMagnitude {
 		return 0, ErrNonFinite

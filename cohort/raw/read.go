@@ -12,6 +12,9 @@ import (
 	"strconv"
 	"strings"
 	"time"
+	"unsafe"
+
+	"github.com/cohortmix/cohortmix/cohort/decimal"
 )
 
 // sample is one row of a recording.
@@ -133,6 +136,7 @@ func scan(path string, o Options, each func(l *layout, s sample) error) error {
 	width := max(l.t, l.x, l.y, l.z, l.id) + 1
 	cells := make([][]byte, 0, width)
 	line := 1
+	lastID := ""
 	for {
 		row, err := br.ReadSlice('\n')
 		if err == bufio.ErrBufferFull {
@@ -165,7 +169,10 @@ func scan(path string, o Options, each func(l *layout, s sample) error) error {
 		}
 		s := sample{id: l.fileID, line: line}
 		if l.id >= 0 {
-			s.id = string(bytes.TrimSpace(cells[l.id]))
+			if c := bytes.TrimSpace(cells[l.id]); string(c) != lastID { // no allocation for the same id
+				lastID = string(c)
+			}
+			s.id = lastID
 		}
 		var zoned bool
 		if s.t, zoned, err = parseTime(cells[l.t]); err != nil {
@@ -177,7 +184,7 @@ func scan(path string, o Options, each func(l *layout, s sample) error) error {
 			return fmt.Errorf("%s:%d:%d: a time %s where the file's first time was %s; give every time in one form: %w", path, line, l.t+1, zoneWord(zoned), zoneWord(l.zoned), ErrInput)
 		}
 		for a, c := range []int{l.x, l.y, l.z} {
-			v, err := strconv.ParseFloat(string(bytes.TrimSpace(cells[c])), 64)
+			v, err := parseFloat(bytes.TrimSpace(cells[c]))
 			if err != nil || v != v || v > 1e6 || v < -1e6 {
 				return fmt.Errorf("%s:%d:%d: %q is not a number of acceleration: %w", path, line, c+1, cells[c], ErrInput)
 			}
@@ -199,7 +206,11 @@ func zoneWord(zoned bool) string {
 // parseTime reads a time cell: epoch seconds (or milliseconds, from 10¹¹ on) as an instant, or
 // ISO-8601 with or without a UTC offset, in the years 1900–2200.
 func parseTime(b []byte) (int64, bool, error) {
-	s := string(bytes.TrimSpace(b))
+	b = bytes.TrimSpace(b)
+	if t, zoned, ok := fastTime(b); ok {
+		return t, zoned, nil
+	}
+	s := string(b)
 	if v, err := strconv.ParseFloat(s, 64); err == nil {
 		if v >= 1e11 {
 			v /= 1000
@@ -218,4 +229,106 @@ func parseTime(b []byte) (int64, bool, error) {
 		}
 	}
 	return 0, false, fmt.Errorf("%q is neither an ISO-8601 time (2026-03-01T08:30:00.010) nor epoch seconds", s)
+}
+
+// parseFloat reads a number: a plain decimal exactly and quickly (decimal.Plain), anything else
+// by strconv.ParseFloat on the bytes, without copying them into a string.
+func parseFloat(b []byte) (float64, error) {
+	if v, ok := decimal.Plain(b, false); ok {
+		return v, nil
+	}
+	if len(b) == 0 {
+		return 0, strconv.ErrSyntax
+	}
+	return strconv.ParseFloat(unsafe.String(&b[0], len(b)), 64)
+}
+
+// fastTime reads the usual form of a raw recording's times, YYYY-MM-DDTHH:MM:SS with an optional
+// fraction and an optional Z or ±hh:mm, without the time package's general parser (whose cost
+// per sample is that of the features); anything else, or anything out of range, is left to
+// parseTime's general path (ok false).
+func fastTime(b []byte) (int64, bool, bool) {
+	if len(b) < 19 || b[4] != '-' || b[7] != '-' || (b[10] != 'T' && b[10] != ' ') || b[13] != ':' || b[16] != ':' {
+		return 0, false, false
+	}
+	num := func(i, n int) (int, bool) {
+		v := 0
+		for _, c := range b[i : i+n] {
+			if c < '0' || c > '9' {
+				return 0, false
+			}
+			v = v*10 + int(c-'0')
+		}
+		return v, true
+	}
+	y, ok1 := num(0, 4)
+	mo, ok2 := num(5, 2)
+	d, ok3 := num(8, 2)
+	h, ok4 := num(11, 2)
+	mi, ok5 := num(14, 2)
+	sec, ok6 := num(17, 2)
+	if !(ok1 && ok2 && ok3 && ok4 && ok5 && ok6) || y < 1900 || y > 2200 || mo < 1 || mo > 12 || d < 1 || d > 28 && d > daysIn(y, mo) || h > 23 || mi > 59 || sec > 59 {
+		return 0, false, false
+	}
+	i := 19
+	var frac int64
+	if i < len(b) && b[i] == '.' {
+		i++
+		scale := int64(1e9)
+		start := i
+		for i < len(b) && b[i] >= '0' && b[i] <= '9' {
+			if scale > 1 {
+				scale /= 10
+				frac += int64(b[i]-'0') * scale
+			}
+			i++
+		}
+		if i == start {
+			return 0, false, false
+		}
+	}
+	zoned, offset := false, 0
+	switch {
+	case i == len(b):
+	case b[i] == 'Z' && i+1 == len(b):
+		zoned = true
+	case (b[i] == '+' || b[i] == '-') && i+6 == len(b) && b[i+3] == ':':
+		oh, okh := num(i+1, 2)
+		om, okm := num(i+4, 2)
+		if !okh || !okm || oh > 23 || om > 59 {
+			return 0, false, false
+		}
+		offset = oh*3600 + om*60
+		if b[i] == '-' {
+			offset = -offset
+		}
+		zoned = true
+	default:
+		return 0, false, false
+	}
+	days := daysFromCivil(y, mo, d)
+	secs := days*86400 + int64(h*3600+mi*60+sec) - int64(offset)
+	return secs*1e9 + frac, zoned, true
+}
+
+// daysFromCivil is the days since 1970-01-01 of a date of the proleptic Gregorian calendar
+// (H. Hinnant's algorithm, "chrono-compatible low-level date algorithms").
+func daysFromCivil(y, m, d int) int64 {
+	if m <= 2 {
+		y--
+	}
+	era := y / 400
+	if y < 0 && y%400 != 0 {
+		era--
+	}
+	yoe := y - era*400
+	mp := (m + 9) % 12
+	doy := (153*mp+2)/5 + d - 1
+	doe := yoe*365 + yoe/4 - yoe/100 + doy
+	return int64(era)*146097 + int64(doe) - 719468
+}
+
+// daysIn is the number of days of a month.
+func daysIn(y, m int) int {
+	return time.Date(y, time.Month(m)+1, 0, 0, 0, 0, 0, time.UTC).Day()
 }

@@ -164,3 +164,35 @@ func FuzzScan(f *testing.F) {
 		_, _ = Run(context.Background(), []string{p}, &out, Options{Window: 5 * time.Second, Workers: 1, ID: "id"})
 	})
 }
+
+// The quick time reader agrees with the time package on every form it takes, and leaves the
+// rest to it.
+func TestFastTime(t *testing.T) {
+	for _, s := range []string{"2026-03-02T08:00:00", "2026-03-02T08:00:00.04Z", "2026-03-02 23:59:59.999999999+01:00", "1969-12-31T23:00:00-05:30",
+		"2200-12-31T23:59:59Z", "1900-01-01T00:00:00Z", "2024-02-29T12:00:00Z", "2026-10-25T02:30:00+02:00"} {
+		got, zoned, ok := fastTime([]byte(s))
+		want, wz, err := parseTimeSlow(s)
+		if !ok || err != nil || got != want || zoned != wz {
+			t.Errorf("%s: %d %v %v, the time package %d %v %v", s, got, zoned, ok, want, wz, err)
+		}
+	}
+	for _, s := range []string{"2026-02-30T08:00:00", "2026-13-02T08:00:00", "2026-03-02T24:00:00", "2026-03-02T08:00:00+1:00", "2026-03-02T08:00:00.Z", "1899-12-31T23:59:59Z"} {
+		if _, _, ok := fastTime([]byte(s)); ok {
+			t.Errorf("%s was taken", s)
+		}
+	}
+}
+
+// parseTimeSlow is parseTime's general path alone.
+func parseTimeSlow(s string) (int64, bool, error) {
+	for i, layout := range []string{time.RFC3339Nano, "2006-01-02T15:04:05.999999999", "2006-01-02 15:04:05.999999999"} {
+		if v, err := time.Parse(layout, s); err == nil {
+			return v.UnixNano(), i == 0, nil
+		}
+	}
+	s2 := strings.Replace(s, " ", "T", 1)
+	if v, err := time.Parse(time.RFC3339Nano, s2); err == nil {
+		return v.UnixNano(), true, nil
+	}
+	return 0, false, fmt.Errorf("%q", s)
+}
