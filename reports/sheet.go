@@ -246,7 +246,7 @@ func (t *table) fitHeight(cells []v) error {
 	lines := 1.0
 	for i, c := range cells {
 		s, ok := c.val.(string)
-		if !ok || i >= len(t.widths) || (c.style != t.st.wrap && c.style != t.st.note && c.style != t.st.warn && c.style != t.st.header) {
+		if !ok || i >= len(t.widths) || (c.style != t.st.wrap && c.style != t.st.note && c.style != t.st.warn && c.style != t.st.header && c.style != t.st.headerNum) {
 			continue
 		}
 		lines = math.Max(lines, math.Ceil(float64(len([]rune(s)))*1.1/math.Max(1, t.widths[i]-1)))

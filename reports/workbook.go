@@ -199,7 +199,7 @@ func participantsSheet(f *excelize.File, st *styles, r *Result) error {
 		stay = stay || !math.IsNaN(u.Stay)
 		turn = turn || !math.IsNaN(u.Turn)
 	}
-	widths := []float64{idW, 8, 10, 9, 11, 11, 34}
+	widths := []float64{idW, 8, 10, 9, 11, 11, 11, 34} // participant, wave, windows, group, probability, silhouette, distance, flag
 	nonWear := r.Quality.WindowsNonWear > 0
 	if nonWear {
 		widths = slices.Insert(widths, 3, 11)
