@@ -54,9 +54,9 @@ Exit codes: 0 success, 1 error, 2 wrong command line, 130 interrupted.`,
 		},
 	}
 	f := cmd.Flags()
-	f.StringVar(&opts.Out, "out", "", "the per-window table to write (CSV)")
+	f.StringVar(&opts.Out, "out", "", "the per-window table to write: .parquet writes Parquet (smaller, and read faster), anything else CSV")
 	_ = cmd.MarkFlagRequired("out")
-	f.StringVar(&opts.Report, "report", "", "the per-participant report to write (CSV; default: beside --out, ending in -report.csv)")
+	f.StringVar(&opts.Report, "report", "", "the per-participant report to write: .xlsx writes a workbook sheet, anything else CSV (default: beside --out, ending in -report.csv)")
 	f.DurationVar(&opts.Raw.Window, "window", time.Minute, "window length, 5s to 15m")
 	f.StringVar(&opts.Raw.Units, "units", "auto", "units of x, y, z: g, mg, m/s2, or auto (told from the vector magnitude)")
 	f.Float64Var(&opts.Raw.Rate, "rate", 0, "sampling rate in Hz (default: read from the times)")
@@ -123,8 +123,13 @@ func featuresRun(ctx context.Context, o *featuresOptions) error {
 	if err != nil {
 		return err
 	}
+	o.Raw.Parquet = strings.HasSuffix(strings.ToLower(o.Out), ".parquet")
 	if o.Report == "" {
-		o.Report = strings.TrimSuffix(strings.TrimSuffix(o.Out, ".gz"), ".csv") + "-report.csv"
+		base := o.Out
+		for _, suf := range []string{".gz", ".csv", ".parquet"} {
+			base = strings.TrimSuffix(base, suf)
+		}
+		o.Report = base + "-report.csv"
 	}
 	plan, err := reports.PlanOutputs([]reports.Target{{Flag: "--out", Path: o.Out}, {Flag: "--report", Path: o.Report}}, inputs, "", o.Force)
 	if err != nil {
@@ -138,7 +143,12 @@ func featuresRun(ctx context.Context, o *featuresOptions) error {
 	}); err != nil {
 		return err
 	}
-	if err := plan.Write("--report", func(w io.Writer) error { return writeRawReport(w, people) }); err != nil {
+	if err := plan.Write("--report", func(w io.Writer) error {
+		if strings.HasSuffix(strings.ToLower(o.Report), ".xlsx") {
+			return reports.CalibrationTo(w, people)
+		}
+		return writeRawReport(w, people)
+	}); err != nil {
 		return err
 	}
 	if err := plan.Commit(); err != nil {

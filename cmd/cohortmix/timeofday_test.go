@@ -2,6 +2,7 @@ package main
 
 import (
 	"context"
+	"fmt"
 	"path/filepath"
 	"strings"
 	"testing"
@@ -104,6 +105,21 @@ func TestRawDemoFindsThePlantedGroups(t *testing.T) {
 	report := string(readBytes(t, filepath.Join(dir, "demo-windows-report.csv")))
 	if strings.Count(report, ",true,") != 40 {
 		t.Errorf("not every invented device was calibrated:\n%s", report)
+	}
+	// As Parquet, with the report as a sheet: the same groups.
+	mustRun(t, "features", filepath.Join(dir, "raw-recordings"), "--out", filepath.Join(dir, "w.parquet"), "--report", filepath.Join(dir, "devices.xlsx"))
+	mustRun(t, "group", filepath.Join(dir, "w.parquet"), "--valid-day", "none", "--out", filepath.Join(dir, "p.xlsx"), "--members", filepath.Join(dir, "p.csv"))
+	if a, b := membersGroups(t, filepath.Join(dir, "demo-members.csv")), membersGroups(t, filepath.Join(dir, "p.csv")); fmt.Sprint(a) != fmt.Sprint(b) {
+		t.Errorf("from Parquet the groups are %v, from CSV %v", b, a)
+	}
+	dev, err := excelize.OpenFile(filepath.Join(dir, "devices.xlsx"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	rows, _ := dev.GetRows("Devices")
+	dev.Close()
+	if len(rows) != 41 || rows[1][len(rows[1])-1] != "calibrated" {
+		t.Errorf("the Devices sheet has %d rows; the first: %v", len(rows), rows[1])
 	}
 	env, _, errb := testEnv()
 	if code := run(context.Background(), env, []string{"features", filepath.Join(dir, "demo-windows.csv"), "--out", filepath.Join(dir, "again.csv")}); code != 1 ||

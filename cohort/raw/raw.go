@@ -33,6 +33,7 @@ type Options struct {
 	// them by their names (time or timestamp; x, y, z or names ending in them).
 	ID, Time, X, Y, Z string
 	NoCalibration     bool // leave the devices as read
+	Parquet           bool // write the table as Parquet (parquetSchema) instead of CSV
 	Workers           int  // files processed at once; 0 means one per core
 }
 

@@ -12,6 +12,7 @@ import (
 	"time"
 
 	"github.com/cohortmix/cohortmix/cluster"
+	"github.com/parquet-go/parquet-go"
 )
 
 // firstPass gathers one participant's summaries in the first pass, in the units as read.
@@ -145,7 +146,62 @@ type secondPass struct {
 	x, y, z []float64
 	feat    []float64
 	sp      spectrum
-	out     *bytes.Buffer
+	out     *sink
+}
+
+// sink gathers one file's rows: as CSV text, or as Parquet rows (Options.Parquet).
+type sink struct {
+	text bytes.Buffer
+	rows []parquet.Row
+	col  map[string]int // the Parquet column of each name; nil for CSV
+}
+
+// add appends one window's row.
+func (k *sink) add(id string, when string, feat []float64, worn int) {
+	if k.col != nil {
+		row := make(parquet.Row, len(feat)+3)
+		set := func(name string, v any) { row[k.col[name]] = parquet.ValueOf(v).Level(0, 0, k.col[name]) }
+		set("participant", id)
+		set("window", when)
+		for j, v := range feat {
+			set(FeatureNames[j], v)
+		}
+		set("worn", int64(worn))
+		k.rows = append(k.rows, row)
+		return
+	}
+	b := &k.text
+	b.WriteString(csvCell(id))
+	b.WriteByte(',')
+	b.WriteString(when)
+	var num [32]byte
+	for _, v := range feat {
+		b.WriteByte(',')
+		if math.IsNaN(v) {
+			b.WriteString("NA")
+			continue
+		}
+		b.Write(strconv.AppendFloat(num[:0], v, 'g', 10, 64))
+	}
+	b.WriteByte(',')
+	b.WriteString(strconv.Itoa(worn))
+	b.WriteByte('\n')
+}
+
+// parquetSchema is the table's schema in Parquet: the participant and the window's start as
+// text, the features as doubles (NaN where a feature is not defined), worn as an integer; the
+// columns in the order Parquet gives a group (by name), and the index of each.
+func parquetSchema() (*parquet.Schema, map[string]int) {
+	g := parquet.Group{"participant": parquet.String(), "window": parquet.String(), "worn": parquet.Int(64)}
+	for _, n := range FeatureNames {
+		g[n] = parquet.Leaf(parquet.DoubleType)
+	}
+	schema := parquet.NewSchema("windows", g)
+	col := map[string]int{}
+	for i, path := range schema.Columns() {
+		col[path[0]] = i
+	}
+	return schema, col
 }
 
 func (s *secondPass) add(smp sample) {
@@ -186,27 +242,12 @@ func (s *secondPass) flush() {
 		s.p.NonWear++
 	}
 	s.p.Windows++
-	b := s.out
-	b.WriteString(csvCell(s.p.ID))
-	b.WriteByte(',')
 	t := time.Unix(0, start).UTC()
+	when := t.Format("2006-01-02T15:04:05")
 	if s.zoned {
-		b.WriteString(t.Format("2006-01-02T15:04:05Z"))
-	} else {
-		b.WriteString(t.Format("2006-01-02T15:04:05"))
+		when += "Z"
 	}
-	var num [32]byte
-	for _, v := range s.feat {
-		b.WriteByte(',')
-		if math.IsNaN(v) {
-			b.WriteString("NA")
-			continue
-		}
-		b.Write(strconv.AppendFloat(num[:0], v, 'g', 10, 64))
-	}
-	b.WriteByte(',')
-	b.WriteString(strconv.Itoa(worn))
-	b.WriteByte('\n')
+	s.out.add(s.p.ID, when, s.feat, worn)
 }
 
 // Header is the first line of the table the step writes.
@@ -226,27 +267,40 @@ func Run(ctx context.Context, inputs []string, w io.Writer, o Options) ([]Partic
 	if _, _, err := unitsOf(o.Units, math.NaN()); err != nil {
 		return nil, err
 	}
-	if _, err := io.WriteString(w, Header()); err != nil {
+	var pw *parquet.Writer
+	var col map[string]int
+	if o.Parquet {
+		var schema *parquet.Schema
+		schema, col = parquetSchema()
+		pw = parquet.NewWriter(w, schema)
+	} else if _, err := io.WriteString(w, Header()); err != nil {
 		return nil, err
 	}
 	var all []Participant
 	err := cluster.Ordered(ctx, len(inputs), o.Workers, func(i, _ int) (fileResult, error) {
-		return runFile(ctx, inputs[i], o)
+		return runFile(ctx, inputs[i], o, col)
 	}, func(i int, r fileResult) error {
 		all = append(all, r.people...)
-		_, err := w.Write(r.rows.Bytes())
+		if pw != nil {
+			_, err := pw.WriteRows(r.rows.rows)
+			return err
+		}
+		_, err := w.Write(r.rows.text.Bytes())
 		return err
 	})
+	if err == nil && pw != nil {
+		err = pw.Close()
+	}
 	return all, err
 }
 
 type fileResult struct {
 	people []Participant
-	rows   *bytes.Buffer
+	rows   *sink
 }
 
 // runFile makes both passes over one file.
-func runFile(ctx context.Context, path string, o Options) (fileResult, error) {
+func runFile(ctx context.Context, path string, o Options, col map[string]int) (fileResult, error) {
 	var order []*firstPass
 	byID := map[string]*firstPass{}
 	var cur *firstPass
@@ -277,7 +331,7 @@ func runFile(ctx context.Context, path string, o Options) (fileResult, error) {
 			return fileResult{}, err
 		}
 	}
-	res := fileResult{rows: &bytes.Buffer{}}
+	res := fileResult{rows: &sink{col: col}}
 	var sec *secondPass
 	err = scan(path, o, func(l *layout, s sample) error {
 		if sec == nil || sec.p.ID != s.id {
