@@ -12,6 +12,7 @@ import (
 	"github.com/cohortmix/cohortmix/cluster"
 	"github.com/cohortmix/cohortmix/cohort"
 	"github.com/cohortmix/cohortmix/cohort/synth"
+	"github.com/cohortmix/cohortmix/reports"
 )
 
 // Issue 30, point 8: on the planted wear scenario (synth.WriteWear: a week of activity counts
@@ -71,23 +72,7 @@ func TestGroupsOnPlantedWear(t *testing.T) {
 			if err != nil {
 				t.Fatal(err)
 			}
-			group := map[string]int{}
-			for _, u := range res.Units {
-				group[u.ID] = u.Group
-			}
-			var got, want, floor []int
-			for _, tr := range truth {
-				if g, ok := group[tr.ID]; ok {
-					got, want = append(got, g), append(want, tr.Group)
-					f := 0
-					if tr.Floor {
-						f = 1
-					}
-					floor = append(floor, f)
-				}
-			}
-			ari, _ := cluster.AdjustedRand(got, want)
-			byFloor, _ := cluster.AdjustedRand(got, floor)
+			ari, byFloor, got := wearAgreement(truth, res)
 			q := res.Quality
 			t.Logf("non-wear: sensitivity %.4f, specificity %.4f; %d of %d grouped in %d groups over %d states; ARI %.3f, against the floors %.3f; %d windows left out as non-wear, %d on days that were not valid",
 				sens, spec, len(got), len(truth), res.Grouping.K, res.States.K, ari, byFloor, q.WindowsNonWear, q.WindowsInvalidDays)
@@ -112,6 +97,29 @@ func TestGroupsOnPlantedWear(t *testing.T) {
 			}
 		})
 	}
+}
+
+// wearAgreement is the ARI of the groups found against the planted ones and against the
+// devices' resting floors, over the participants grouped, and those participants' groups.
+func wearAgreement(truth []synth.WearTruth, res *reports.Result) (float64, float64, []int) {
+	group := map[string]int{}
+	for _, u := range res.Units {
+		group[u.ID] = u.Group
+	}
+	var got, want, floor []int
+	for _, tr := range truth {
+		if g, ok := group[tr.ID]; ok {
+			got, want = append(got, g), append(want, tr.Group)
+			f := 0
+			if tr.Floor {
+				f = 1
+			}
+			floor = append(floor, f)
+		}
+	}
+	ari, _ := cluster.AdjustedRand(got, want)
+	byFloor, _ := cluster.AdjustedRand(got, floor)
+	return ari, byFloor, got
 }
 
 // longRuns marks the windows of runs of set values at least n long.
