@@ -37,6 +37,9 @@ func TestChoiceRulesOnPlantedCohorts(t *testing.T) {
 				t.Fatal(err)
 			}
 			o := variantOptions(t, path, nil, 0, 0)
+			if sc, _ := synth.DrawFamily(synth.Null, seed); planted == 1 && sc.Count != nil && sc.Count.Days < 4 {
+				o.Read.ValidDays = 1 // the invented study's protocol: recordings of 1 to 3 days
+			}
 			f, err := job.FitAll(context.Background(), o)
 			if err != nil {
 				t.Fatal(err)
