@@ -6,6 +6,7 @@ import (
 	"time"
 
 	"github.com/cohortmix/cohortmix/cohort"
+	"github.com/cohortmix/cohortmix/cohort/job"
 	"github.com/spf13/cobra"
 )
 
@@ -57,6 +58,15 @@ func checkRun(ctx context.Context, o *checkOptions) error {
 	var bytes int64
 	for _, f := range t.Files {
 		bytes += f.Bytes
+	}
+	// The features group would leave out as twins of another (job's plan), with the reason.
+	jo := job.Defaults(o.Inputs...)
+	jo.Read = ro
+	if c, err := job.CensusOf(t, jo); err == nil {
+		if plan, err := job.MergeCensus([]*job.Census{c}); err == nil {
+			t.Quality.DroppedFeatures = plan.Quality.DroppedFeatures
+			t.Features = plan.Features
+		}
 	}
 	q := t.Quality
 	fmt.Fprintf(o.IO.Out, "%d files, %.1f MB, read in %.2f s (%.0f MB/s)\n", len(t.Files), float64(bytes)/1e6, took.Seconds(), float64(bytes)/1e6/max(took.Seconds(), 1e-9))

@@ -127,3 +127,17 @@ func TestRawDemoFindsThePlantedGroups(t *testing.T) {
 		t.Errorf("features on a per-window table: exit %d, %s", code, errb)
 	}
 }
+
+// check says which features group would leave out as twins of another, and why.
+func TestCheckNamesTwinFeatures(t *testing.T) {
+	path := filepath.Join(t.TempDir(), "wear.csv")
+	if _, err := synth.WriteWear(path, synth.WearOptions{Participants: 6, Seed: 2}); err != nil {
+		t.Fatal(err)
+	}
+	out := mustRun(t, "check", path, "--time-zone", "Europe/Berlin")
+	for _, want := range []string{"1 features: [counts]", "not used log_counts: it orders every window as counts does", "--keep-twins keeps it", "valid days: a day counts with 10 h or more of wear"} {
+		if !strings.Contains(out, want) {
+			t.Errorf("check lacks %q:\n%s", want, out)
+		}
+	}
+}
