@@ -2,7 +2,6 @@ package cohort
 
 import (
 	"context"
-	"encoding/binary"
 	"errors"
 	"fmt"
 	"github.com/cohortmix/cohortmix/cluster"
@@ -14,38 +13,10 @@ import (
 	"strings"
 	"time"
 
+	"github.com/cohortmix/cohortmix/cohort/pqframe"
 	"github.com/parquet-go/parquet-go"
 	"github.com/parquet-go/parquet-go/format"
 )
-
-// checkParquetFrame checks the frame of a Parquet file before parquet-go reads it, and says what
-// to do when it is wrong. The frame (Apache Parquet file format) is the magic "PAR1" at both
-// ends ("PARE" at the end when the footer is encrypted) and, before the final magic, the
-// footer's length as 4 little-endian bytes, which must fit in the file. parquet-go allocates
-// the footer length it reads before it finds that the length is wrong; fuzzing found a damaged
-// length that made it allocate 4 GB.
-func checkParquetFrame(f io.ReaderAt, size int64) error {
-	var head, tail [8]byte
-	if size < 12 {
-		return fmt.Errorf("too short for a Parquet file (%d bytes); write it again, or export CSV", size)
-	}
-	if _, err := f.ReadAt(head[:4], 0); err != nil {
-		return fmt.Errorf("cannot read it: %v; check the file", err)
-	}
-	if _, err := f.ReadAt(tail[:], size-8); err != nil {
-		return fmt.Errorf("cannot read it: %v; check the file", err)
-	}
-	if string(tail[4:]) == "PARE" {
-		return fmt.Errorf("a Parquet file with an encrypted footer, which this tool does not read; write it without encryption, or export CSV")
-	}
-	if string(head[:4]) != "PAR1" || string(tail[4:]) != "PAR1" {
-		return fmt.Errorf("not a Parquet file (no PAR1 mark at its start and end); write it again, or export CSV")
-	}
-	if n := int64(binary.LittleEndian.Uint32(tail[:4])); n > size-12 {
-		return fmt.Errorf("a damaged or cut-short Parquet file: its footer claims %d bytes of a %d-byte file; write it again, or export CSV", n, size)
-	}
-	return nil
-}
 
 // readParquet reads a flat Parquet file (github.com/parquet-go/parquet-go) row group by row
 // group. Feature columns must be numeric (INT32, INT64, FLOAT, DOUBLE), a null is a missing
@@ -69,7 +40,7 @@ func (r *reader) readParquet(p string) (err error) {
 	if err != nil {
 		return &InputError{File: p, Msg: "cannot open: " + err.Error(), Err: ErrOpen}
 	}
-	if err := checkParquetFrame(f, st.Size()); err != nil {
+	if err := pqframe.Check(f, st.Size()); err != nil {
 		return &InputError{File: p, Msg: err.Error(), Err: ErrNotText}
 	}
 	pf, err := parquet.OpenFile(f, st.Size())

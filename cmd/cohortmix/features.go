@@ -32,7 +32,7 @@ func newFeaturesCmd(env *Env, runF func(context.Context, *featuresOptions) error
 		Use:   "features <recordings or folders>... --out <table.csv>",
 		Short: "Turn raw tri-axial recordings into the per-window table that 'group' reads",
 		Long: `Reads raw acceleration (a time column, ISO-8601 or epoch seconds, and x, y, z in g, mg or m/s²;
-CSV, TSV or .gz; one participant per file, named by the file, or a long table with --id), and
+CSV, TSV, .gz or Parquet; one participant per file, named by the file, or a long table with --id), and
 writes one row per window and participant: ENMO, MAD, the arm angle, the axes' means, s.d.s and
 correlations, the vector magnitude's mean, s.d. and peak, its dominant frequency, band powers and
 spectral entropy, and a worn column (1 worn, 0 off by the non-wear rule of van Hees et al. 2013),
@@ -72,8 +72,8 @@ Exit codes: 0 success, 1 error, 2 wrong command line, 130 interrupted.`,
 	return cmd
 }
 
-// rawInputs expands folders into the recordings in them (.csv, .tsv, .txt, and those .gz), in
-// name order.
+// rawInputs expands folders into the recordings in them (.csv, .tsv, .txt, those .gz, and
+// .parquet), in name order.
 func rawInputs(args []string) ([]string, error) {
 	var out []string
 	for _, a := range args {
@@ -92,12 +92,12 @@ func rawInputs(args []string) ([]string, error) {
 		var found []string
 		for _, e := range entries {
 			name := strings.TrimSuffix(e.Name(), ".gz")
-			if !e.IsDir() && (strings.HasSuffix(name, ".csv") || strings.HasSuffix(name, ".tsv") || strings.HasSuffix(name, ".txt")) {
+			if !e.IsDir() && (strings.HasSuffix(name, ".csv") || strings.HasSuffix(name, ".tsv") || strings.HasSuffix(name, ".txt") || strings.HasSuffix(name, ".parquet")) {
 				found = append(found, filepath.Join(a, e.Name()))
 			}
 		}
 		if len(found) == 0 {
-			return nil, fmt.Errorf("%s: no recordings (.csv, .tsv, .txt, or .gz of them) in this folder", a)
+			return nil, fmt.Errorf("%s: no recordings (.csv, .tsv, .txt, .gz of them, or .parquet) in this folder", a)
 		}
 		slices.Sort(found)
 		out = append(out, found...)

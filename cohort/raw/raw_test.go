@@ -14,6 +14,7 @@ import (
 
 	"github.com/cohortmix/cohortmix/cohort"
 	"github.com/cohortmix/cohortmix/cohort/synth"
+	"github.com/parquet-go/parquet-go"
 )
 
 // The features step on the invented raw scenario: every window accounted for, each device's
@@ -169,4 +170,84 @@ func TestParquetTableReadsAsTheCSV(t *testing.T) {
 			}
 		}
 	}
+}
+
+// A recording written as Parquet (the time a TIMESTAMP in milliseconds, x, y, z doubles) gives
+// the table its CSV gives, byte for byte.
+func TestParquetRecordingReadsAsTheCSV(t *testing.T) {
+	pq := filepath.Join(t.TempDir(), "small.parquet")
+	toParquet(t, "../../testdata/raw/small.csv", pq)
+	opts := Options{Window: 10 * time.Second, NoCalibration: true}
+	var fromCSV, fromPQ bytes.Buffer
+	if _, err := Run(context.Background(), []string{"../../testdata/raw/small.csv"}, &fromCSV, opts); err != nil {
+		t.Fatal(err)
+	}
+	if _, err := Run(context.Background(), []string{pq}, &fromPQ, opts); err != nil {
+		t.Fatal(err)
+	}
+	if !bytes.Equal(fromCSV.Bytes(), fromPQ.Bytes()) || fromCSV.Len() < 1000 {
+		t.Errorf("the Parquet recording gave another table:\n%.300s\n%.300s", fromCSV.String(), fromPQ.String())
+	}
+}
+
+// toParquet writes a recording of time,x,y,z (times with an offset) as Parquet: the time a
+// TIMESTAMP in milliseconds, x, y, z doubles.
+func toParquet(t testing.TB, csvPath, pqPath string) {
+	t.Helper()
+	text, err := os.ReadFile(csvPath)
+	if err != nil {
+		t.Fatal(err)
+	}
+	schema := parquet.NewSchema("recording", parquet.Group{"time": parquet.Timestamp(parquet.Millisecond), "x": parquet.Leaf(parquet.DoubleType), "y": parquet.Leaf(parquet.DoubleType), "z": parquet.Leaf(parquet.DoubleType)})
+	col := map[string]int{}
+	for i, p := range schema.Columns() {
+		col[p[0]] = i
+	}
+	f, err := os.Create(pqPath)
+	if err != nil {
+		t.Fatal(err)
+	}
+	pw := parquet.NewWriter(f, schema)
+	var batch []parquet.Row
+	for _, line := range strings.Split(strings.TrimSpace(string(text)), "\n")[1:] {
+		cells := strings.Split(line, ",")
+		at, err := time.Parse(time.RFC3339Nano, cells[0])
+		if err != nil {
+			t.Fatal(err)
+		}
+		row := make(parquet.Row, 4)
+		row[col["time"]] = parquet.Int64Value(at.UnixMilli()).Level(0, 0, col["time"])
+		for i, name := range []string{"x", "y", "z"} {
+			v, _ := strconv.ParseFloat(cells[1+i], 64)
+			row[col[name]] = parquet.DoubleValue(v).Level(0, 0, col[name])
+		}
+		batch = append(batch, row)
+	}
+	if _, err := pw.WriteRows(batch); err != nil {
+		t.Fatal(err)
+	}
+	if err := pw.Close(); err != nil {
+		t.Fatal(err)
+	}
+	if err := f.Close(); err != nil {
+		t.Fatal(err)
+	}
+}
+
+// BenchmarkRunParquet is BenchmarkRunCSV from the same recording written as Parquet.
+func BenchmarkRunParquet(b *testing.B) {
+	dir := b.TempDir()
+	if _, err := synth.WriteRaw(dir, synth.RawOptions{Participants: 1, Hours: 1, Rate: 100, Seed: 1}); err != nil {
+		b.Fatal(err)
+	}
+	pq := filepath.Join(dir, "R01.parquet")
+	toParquet(b, filepath.Join(dir, "R01.csv"), pq)
+	b.ResetTimer()
+	for i := 0; i < b.N; i++ {
+		var out bytes.Buffer
+		if _, err := Run(context.Background(), []string{pq}, &out, Options{}); err != nil {
+			b.Fatal(err)
+		}
+	}
+	b.ReportMetric(float64(360_000*b.N)/b.Elapsed().Seconds()/1e6, "Msamples/s")
 }

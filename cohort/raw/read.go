@@ -58,7 +58,7 @@ func openText(path string) (io.ReadCloser, error) {
 // fileID is a file's name without folder and suffixes: the participant of a one-participant file.
 func fileID(path string) string {
 	base := filepath.Base(path)
-	for _, suf := range []string{".gz", ".csv", ".tsv", ".txt"} {
+	for _, suf := range []string{".gz", ".csv", ".tsv", ".txt", ".parquet"} {
 		base = strings.TrimSuffix(base, suf)
 	}
 	return base

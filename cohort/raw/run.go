@@ -305,7 +305,7 @@ func runFile(ctx context.Context, path string, o Options, col map[string]int) (f
 	byID := map[string]*firstPass{}
 	var cur *firstPass
 	lines := 0
-	err := scan(path, o, func(l *layout, s sample) error {
+	err := scanAny(path, o, func(l *layout, s sample) error {
 		if lines++; lines%(1<<20) == 0 && ctx.Err() != nil {
 			return ctx.Err()
 		}
@@ -333,7 +333,7 @@ func runFile(ctx context.Context, path string, o Options, col map[string]int) (f
 	}
 	res := fileResult{rows: &sink{col: col}}
 	var sec *secondPass
-	err = scan(path, o, func(l *layout, s sample) error {
+	err = scanAny(path, o, func(l *layout, s sample) error {
 		if sec == nil || sec.p.ID != s.id {
 			if sec != nil {
 				sec.flush()
@@ -351,6 +351,14 @@ func runFile(ctx context.Context, path string, o Options, col map[string]int) (f
 		res.people = append(res.people, *f.p)
 	}
 	return res, nil
+}
+
+// scanAny reads a recording as Parquet when its name ends in .parquet, as text otherwise.
+func scanAny(path string, o Options, each func(l *layout, s sample) error) error {
+	if strings.HasSuffix(strings.ToLower(path), ".parquet") {
+		return scanParquet(path, o, each)
+	}
+	return scan(path, o, each)
 }
 
 // csvCell quotes a cell that holds a comma, a quote or a line break.
