@@ -196,3 +196,24 @@ func parseTimeSlow(s string) (int64, bool, error) {
 	}
 	return 0, false, fmt.Errorf("%q", s)
 }
+
+// FuzzScanParquet feeds the raw reader damaged Parquet recordings: an error or a table, never a
+// panic.
+func FuzzScanParquet(f *testing.F) {
+	pq := filepath.Join(f.TempDir(), "seed.parquet")
+	toParquet(f, "../../testdata/raw/small.csv", pq)
+	seed, err := os.ReadFile(pq)
+	if err != nil {
+		f.Fatal(err)
+	}
+	f.Add(seed)
+	f.Add(seed[:len(seed)/2])
+	f.Fuzz(func(t *testing.T, b []byte) {
+		p := filepath.Join(t.TempDir(), "r.parquet")
+		if err := os.WriteFile(p, b, 0o644); err != nil {
+			t.Fatal(err)
+		}
+		var out bytes.Buffer
+		_, _ = Run(context.Background(), []string{p}, &out, Options{Window: 5 * time.Second, Workers: 1})
+	})
+}
