@@ -34,7 +34,10 @@ type Options struct {
 	ID, Time, X, Y, Z string
 	NoCalibration     bool // leave the devices as read
 	Parquet           bool // write the table as Parquet (parquetSchema) instead of CSV
-	Workers           int  // files processed at once; 0 means one per core
+	Workers           int  // files, or ranges of a long file, processed at once; 0 means one per core
+	// RangeBytes is the size of the ranges a long one-participant text recording is read in on
+	// all cores (split.go); 0 means 64 MiB. The table depends on it in the last digits only.
+	RangeBytes int64
 }
 
 func (o Options) withDefaults() Options {

@@ -251,3 +251,80 @@ func BenchmarkRunParquet(b *testing.B) {
 	}
 	b.ReportMetric(float64(360_000*b.N)/b.Elapsed().Seconds()/1e6, "Msamples/s")
 }
+
+// A long recording read in ranges on all cores: the same table on one core and on two, and the
+// table of a reading in one piece to 1e-9 (the sums of a block cut by a range are added in two
+// parts); the planted calibration and non-wear as before.
+func TestRangesGiveTheWholeReading(t *testing.T) {
+	dir := t.TempDir()
+	if _, err := synth.WriteRaw(dir, synth.RawOptions{Participants: 1, Hours: 4, Rate: 20, Seed: 3}); err != nil {
+		t.Fatal(err)
+	}
+	in := []string{filepath.Join(dir, "R01.csv")}
+	var whole, one, two bytes.Buffer
+	pw, err := Run(context.Background(), in, &whole, Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	p1, err := Run(context.Background(), in, &one, Options{RangeBytes: 1 << 20, Workers: 1})
+	if err != nil {
+		t.Fatal(err)
+	}
+	p2, err := Run(context.Background(), in, &two, Options{RangeBytes: 1 << 20, Workers: 2})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !bytes.Equal(one.Bytes(), two.Bytes()) {
+		t.Fatal("ranges on one core and on two gave other tables")
+	}
+	a, b := strings.Split(whole.String(), "\n"), strings.Split(one.String(), "\n")
+	if len(a) != len(b) || pw[0].Windows != p1[0].Windows || pw[0].NonWear != p1[0].NonWear || pw[0].Samples != p1[0].Samples || p1 == nil || p2[0].Windows != p1[0].Windows {
+		t.Fatalf("%d and %d lines; %+v against %+v", len(a), len(b), pw[0], p1[0])
+	}
+	for i := 1; i < len(a)-1; i++ {
+		ca, cb := strings.Split(a[i], ","), strings.Split(b[i], ",")
+		for j := 2; j < len(ca); j++ {
+			x, _ := strconv.ParseFloat(ca[j], 64)
+			y, _ := strconv.ParseFloat(cb[j], 64)
+			if math.Abs(x-y) > 1e-9*math.Max(1, math.Abs(x)) && !(ca[j] == "NA" && cb[j] == "NA") {
+				t.Fatalf("line %d column %d: %s in one piece, %s in ranges", i+1, j+1, ca[j], cb[j])
+			}
+		}
+	}
+	for a := 0; a < 3; a++ {
+		if math.Abs(pw[0].Scale[a]-p1[0].Scale[a]) > 1e-9 || math.Abs(pw[0].Offset[a]-p1[0].Offset[a]) > 1e-9 {
+			t.Errorf("axis %d: calibration %v %v in one piece, %v %v in ranges", a, pw[0].Scale[a], pw[0].Offset[a], p1[0].Scale[a], p1[0].Offset[a])
+		}
+	}
+}
+
+// Errors found in a later range name the line of the whole file, as a reading in one piece does.
+func TestRangesNameTheWholeFilesLines(t *testing.T) {
+	p := recording(t, "long.csv", 25*60*30, 25, 1, func(i int, r string) string {
+		switch i {
+		case 30000:
+			return strings.Replace(r, ",0.1000,", ",x,", 1)
+		}
+		return r
+	})
+	for _, o := range []Options{{}, {RangeBytes: 256 << 10, Workers: 2}} {
+		var out bytes.Buffer
+		_, err := Run(context.Background(), []string{p}, &out, o)
+		if err == nil || !strings.Contains(err.Error(), "long.csv:30002:2: \"x\" is not a number") {
+			t.Errorf("ranges of %d bytes: %v", o.RangeBytes, err)
+		}
+	}
+	dup := recording(t, "dup.csv", 25*60*30, 25, 1, func(i int, r string) string {
+		if i == 40000 {
+			return r + "\n" + r
+		}
+		return r
+	})
+	for _, o := range []Options{{}, {RangeBytes: 256 << 10, Workers: 2}} {
+		var out bytes.Buffer
+		_, err := Run(context.Background(), []string{dup}, &out, o)
+		if err == nil || !strings.Contains(err.Error(), "dup.csv:40003: participant dup has this time twice (also line 40002)") {
+			t.Errorf("ranges of %d bytes: %v", o.RangeBytes, err)
+		}
+	}
+}

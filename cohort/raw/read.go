@@ -125,17 +125,28 @@ func scan(path string, o Options, each func(l *layout, s sample) error) error {
 	}
 	defer rc.Close()
 	br := bufio.NewReaderSize(rc, 1<<20)
-	header, err := br.ReadString('\n')
-	if err != nil && header == "" {
-		return fmt.Errorf("%s: empty file; a raw recording has a header row and one row per sample: %w", path, ErrInput)
-	}
-	l, err := findLayout(path, strings.TrimRight(header, "\r\n"), o)
+	l, _, err := readHeader(path, br, o)
 	if err != nil {
 		return err
 	}
+	return rows(path, br, l, 1, each)
+}
+
+// readHeader reads the header line and finds the columns; it returns the header's length in
+// bytes.
+func readHeader(path string, br *bufio.Reader, o Options) (*layout, int, error) {
+	header, err := br.ReadString('\n')
+	if err != nil && header == "" {
+		return nil, 0, fmt.Errorf("%s: empty file; a raw recording has a header row and one row per sample: %w", path, ErrInput)
+	}
+	l, err := findLayout(path, strings.TrimRight(header, "\r\n"), o)
+	return l, len(header), err
+}
+
+// rows reads the rows after line (the number of the line before the first), calling each.
+func rows(path string, br *bufio.Reader, l *layout, line int, each func(l *layout, s sample) error) error {
 	width := max(l.t, l.x, l.y, l.z, l.id) + 1
 	cells := make([][]byte, 0, width)
-	line := 1
 	lastID := ""
 	for {
 		row, err := br.ReadSlice('\n')

@@ -17,16 +17,15 @@ import (
 
 // firstPass gathers one participant's summaries in the first pass, in the units as read.
 type firstPass struct {
-	p        *Participant
-	last     int64
-	lastLine int
-	steps    []float64 // the first positive steps between samples, in s
-	vms      []float64 // the first samples' vector magnitudes
-	block    int64     // the current 10-second block
-	bn       int
-	bs, bs2  [3]float64
-	blocks   [][6]float64 // complete blocks: the mean and s.d. of each axis
-	chunks   []chunk
+	p         *Participant
+	first     int64 // the first sample's time, and its line
+	firstLine int
+	last      int64
+	lastLine  int
+	steps     []float64 // the first positive steps between samples, in s
+	vms       []float64 // the first samples' vector magnitudes
+	blocks    []chunk   // the 10-second blocks' sums, in order
+	chunks    []chunk   // the 15-minute chunks' sums, in order
 }
 
 // firstSamples is how many samples the units and the rate are read from.
@@ -44,42 +43,50 @@ func (f *firstPass) add(s sample, path string) error {
 			f.steps = append(f.steps, float64(s.t-f.last)/1e9)
 		}
 	}
+	if f.p.Samples == 0 {
+		f.first, f.firstLine = s.t, s.line
+	}
 	f.p.Samples++
 	f.last, f.lastLine = s.t, s.line
 	if len(f.vms) < firstSamples {
 		f.vms = append(f.vms, math.Sqrt(s.a[0]*s.a[0]+s.a[1]*s.a[1]+s.a[2]*s.a[2]))
 	}
-	if b := floorDiv(s.t, int64(stillBlock)); b != f.block || f.bn == 0 {
-		f.closeBlock()
-		f.block = b
-	}
-	f.bn++
-	for a, v := range s.a {
-		f.bs[a] += v
-		f.bs2[a] += v * v
-	}
-	ck := floorDiv(s.t, int64(nonWearChunk))
-	if len(f.chunks) == 0 || f.chunks[len(f.chunks)-1].key != ck {
-		f.chunks = append(f.chunks, chunk{key: ck})
-	}
-	f.chunks[len(f.chunks)-1].add(s.a)
+	f.blocks = addTo(f.blocks, floorDiv(s.t, int64(stillBlock)), s.a)
+	f.chunks = addTo(f.chunks, floorDiv(s.t, int64(nonWearChunk)), s.a)
 	return nil
 }
 
-// closeBlock keeps the current 10-second block's means and s.d.s, when it holds samples.
-func (f *firstPass) closeBlock() {
-	if f.bn < 2 {
-		f.bn, f.bs, f.bs2 = 0, [3]float64{}, [3]float64{}
-		return
+// addTo adds a sample to the last of a list of sums by key, or to a new one for a new key.
+func addTo(list []chunk, key int64, a [3]float64) []chunk {
+	if len(list) == 0 || list[len(list)-1].key != key {
+		list = append(list, chunk{key: key})
 	}
-	var b [6]float64
-	n := float64(f.bn)
-	for a := 0; a < 3; a++ {
-		m := f.bs[a] / n
-		b[a], b[3+a] = m, math.Sqrt(math.Max(0, f.bs2[a]/n-m*m))
+	list[len(list)-1].add(a)
+	return list
+}
+
+// stillMeans are the means of the still 10-second blocks (every axis's s.d. below stillSD), in
+// g, of blocks of two samples or more.
+func stillMeans(blocks []chunk, factor float64) [][3]float64 {
+	var out [][3]float64
+	for _, b := range blocks {
+		if b.n < 2 {
+			continue
+		}
+		n := float64(b.n)
+		var m [3]float64
+		still := true
+		for a := 0; a < 3; a++ {
+			m[a] = b.sum[a] / n
+			sd := math.Sqrt(math.Max(0, b.sum2[a]/n-m[a]*m[a]))
+			still = still && sd*factor < stillSD
+			m[a] *= factor
+		}
+		if still {
+			out = append(out, m)
+		}
 	}
-	f.blocks = append(f.blocks, b)
-	f.bn, f.bs, f.bs2 = 0, [3]float64{}, [3]float64{}
+	return out
 }
 
 // plan is what the second pass needs of one participant: its units, rate, calibration and the
@@ -93,7 +100,6 @@ type plan struct {
 
 // finish turns the first pass's summaries into the participant's plan.
 func (f *firstPass) finish(path string, o Options) (*plan, error) {
-	f.closeBlock()
 	if f.p.Samples < 2 {
 		return nil, fmt.Errorf("%s: participant %s has %d samples; a raw recording has many: %w", path, f.p.ID, f.p.Samples, ErrInput)
 	}
@@ -113,13 +119,7 @@ func (f *firstPass) finish(path string, o Options) (*plan, error) {
 	f.p.Rate = rate
 	pl := &plan{factor: factor, rate: rate, cal: Calibration{Scale: [3]float64{1, 1, 1}, Reason: "calibration was not asked for"}}
 	if !o.NoCalibration {
-		var still [][3]float64
-		for _, b := range f.blocks {
-			if b[3]*factor < stillSD && b[4]*factor < stillSD && b[5]*factor < stillSD {
-				still = append(still, [3]float64{b[0] * factor, b[1] * factor, b[2] * factor})
-			}
-		}
-		pl.cal = calibrate(still)
+		pl.cal = calibrate(stillMeans(f.blocks, factor))
 	}
 	f.p.Calibration = pl.cal
 	chunks := slices.Clone(f.chunks)
@@ -301,6 +301,11 @@ type fileResult struct {
 
 // runFile makes both passes over one file.
 func runFile(ctx context.Context, path string, o Options, col map[string]int) (fileResult, error) {
+	if ranges, l, err := splits(ctx, path, o); err != nil {
+		return fileResult{}, err
+	} else if ranges != nil {
+		return runFileSplit(ctx, path, o, col, ranges, l)
+	}
 	var order []*firstPass
 	byID := map[string]*firstPass{}
 	var cur *firstPass
