@@ -1,10 +1,13 @@
 package raw
 
 import (
+	"bytes"
 	"errors"
 	"fmt"
 	"io"
 	"os"
+	"strconv"
+	"strings"
 	"time"
 
 	"github.com/cohortmix/cohortmix/cohort/pqframe"
@@ -12,137 +15,286 @@ import (
 	"github.com/parquet-go/parquet-go/format"
 )
 
-// scanParquet is scan for a flat Parquet recording: the time a TIMESTAMP column, epoch seconds
-// or milliseconds (numbers, as in text), or ISO-8601 text; x, y, z numeric; the id text or an
-// integer. Positions in messages are the row (as the line, the first row being line 2) and the
-// column number.
-func scanParquet(path string, o Options, each func(l *layout, s sample) error) (err error) {
-	defer func() { // parquet-go can panic on a damaged file: a damaged input for us
-		if v := recover(); v != nil {
-			err = fmt.Errorf("%s: the Parquet file is damaged (%v); write it again, or export CSV: %w", path, v, ErrInput)
-		}
-	}()
+// pqRecording is an open Parquet recording: its file, its columns' layout and the unit of a
+// TIMESTAMP time column.
+type pqRecording struct {
+	path  string
+	file  *os.File
+	pf    *parquet.File
+	l     *layout
+	kinds []parquet.Type
+	unit  time.Duration
+}
+
+// openParquet opens a flat Parquet recording and finds its columns.
+func openParquet(path string, o Options) (*pqRecording, error) {
 	f, err := os.Open(path)
 	if err != nil {
-		return fmt.Errorf("%s: cannot open: %w", path, err)
+		return nil, fmt.Errorf("%s: cannot open: %w", path, err)
 	}
-	defer f.Close()
-	st, err := f.Stat()
+	r := &pqRecording{path: path, file: f}
+	if err := r.open(o); err != nil {
+		f.Close()
+		return nil, err
+	}
+	return r, nil
+}
+
+func (r *pqRecording) open(o Options) (err error) {
+	defer func() { // parquet-go can panic on a damaged file: a damaged input for us
+		if v := recover(); v != nil {
+			err = fmt.Errorf("%s: the Parquet file is damaged (%v); write it again, or export CSV: %w", r.path, v, ErrInput)
+		}
+	}()
+	st, err := r.file.Stat()
 	if err != nil {
-		return fmt.Errorf("%s: cannot open: %w", path, err)
+		return fmt.Errorf("%s: cannot open: %w", r.path, err)
 	}
-	if err := pqframe.Check(f, st.Size()); err != nil {
-		return fmt.Errorf("%s: %v: %w", path, err, ErrInput)
+	if err := pqframe.Check(r.file, st.Size()); err != nil {
+		return fmt.Errorf("%s: %v: %w", r.path, err, ErrInput)
 	}
-	pf, err := parquet.OpenFile(f, st.Size())
-	if err != nil {
-		return fmt.Errorf("%s: not a readable Parquet file (%v); write it again, or export CSV: %w", path, err, ErrInput)
+	if r.pf, err = parquet.OpenFile(r.file, st.Size()); err != nil {
+		return fmt.Errorf("%s: not a readable Parquet file (%v); write it again, or export CSV: %w", r.path, err, ErrInput)
 	}
 	var names []string
-	var kinds []parquet.Type
-	for _, p := range pf.Schema().Columns() {
-		leaf, _ := pf.Schema().Lookup(p...)
-		names = append(names, p[len(p)-1])
-		kinds = append(kinds, leaf.Node.Type())
+	for _, p := range r.pf.Schema().Columns() {
+		leaf, _ := r.pf.Schema().Lookup(p...)
+		if len(p) != 1 || leaf.MaxRepetitionLevel > 0 {
+			return fmt.Errorf("%s: column %s is nested or repeated; write the recording flat, one value per cell: %w", r.path, strings.Join(p, "."), ErrInput)
+		}
+		names = append(names, p[0])
+		r.kinds = append(r.kinds, leaf.Node.Type())
 	}
-	l, err := findLayout(path, joinNames(names), o)
-	if err != nil {
+	if r.l, err = findLayout(r.path, strings.Join(names, ","), o); err != nil {
 		return err
 	}
-	l.delim = 0
-	var unit time.Duration // of a TIMESTAMP time column
-	if lt := kinds[l.t].LogicalType(); lt != nil {
+	if lt := r.kinds[r.l.t].LogicalType(); lt != nil {
 		if ts, ok := lt.Value.(*format.TimestampType); ok {
 			if u, ok := ts.Unit.Value.(interface{ Duration() time.Duration }); ok {
-				unit = u.Duration()
+				r.unit = u.Duration()
 			}
 		}
-	}
-	buf := make([]parquet.Row, 4096)
-	row := 0
-	for _, rg := range pf.RowGroups() {
-		rows := rg.Rows()
-		for {
-			n, rerr := rows.ReadRows(buf)
-			for _, r := range buf[:n] {
-				row++
-				s := sample{id: l.fileID, line: row + 1}
-				if l.id >= 0 {
-					s.id = r[l.id].String()
-				}
-				tv := r[l.t]
-				zoned := true
-				switch {
-				case tv.IsNull():
-					rows.Close()
-					return fmt.Errorf("%s:%d:%d: an empty time: %w", path, row+1, l.t+1, ErrInput)
-				case unit > 0:
-					s.t = tv.Int64() * int64(unit)
-				case tv.Kind() == parquet.ByteArray:
-					var err error
-					if s.t, zoned, err = parseTime(tv.ByteArray()); err != nil {
-						rows.Close()
-						return fmt.Errorf("%s:%d:%d: %v: %w", path, row+1, l.t+1, err, ErrInput)
-					}
-				default:
-					var err error
-					if s.t, _, err = parseTime([]byte(tv.String())); err != nil {
-						rows.Close()
-						return fmt.Errorf("%s:%d:%d: %v: %w", path, row+1, l.t+1, err, ErrInput)
-					}
-				}
-				if !l.kindKnown {
-					l.zoned, l.kindKnown = zoned, true
-				} else if zoned != l.zoned {
-					rows.Close()
-					return fmt.Errorf("%s:%d:%d: a time %s where the file's first time was %s; give every time in one form: %w", path, row+1, l.t+1, zoneWord(zoned), zoneWord(l.zoned), ErrInput)
-				}
-				for a, c := range []int{l.x, l.y, l.z} {
-					v := r[c]
-					var x float64
-					switch v.Kind() {
-					case parquet.Double:
-						x = v.Double()
-					case parquet.Float:
-						x = float64(v.Float())
-					case parquet.Int32, parquet.Int64:
-						x = float64(v.Int64())
-					default:
-						rows.Close()
-						return fmt.Errorf("%s:%d:%d: %q is not a number of acceleration: %w", path, row+1, c+1, v.String(), ErrInput)
-					}
-					if v.IsNull() || x != x || x > 1e6 || x < -1e6 {
-						rows.Close()
-						return fmt.Errorf("%s:%d:%d: %v is not a number of acceleration: %w", path, row+1, c+1, v, ErrInput)
-					}
-					s.a[a] = x
-				}
-				if err := each(l, s); err != nil {
-					rows.Close()
-					return err
-				}
-			}
-			if errors.Is(rerr, io.EOF) {
-				break
-			}
-			if rerr != nil {
-				rows.Close()
-				return fmt.Errorf("%s: reading row %d failed (%v); the file may be damaged: %w", path, row+2, rerr, ErrInput)
-			}
-		}
-		rows.Close()
 	}
 	return nil
 }
 
-// joinNames is the column names as a comma-separated header, for findLayout.
-func joinNames(names []string) string {
-	out := ""
-	for i, n := range names {
-		if i > 0 {
-			out += ","
-		}
-		out += n
+// parts are the recording's row groups as parts to read apart, each with the line before it
+// (row i of the file is line i + 2, the header being line 1).
+func (r *pqRecording) parts() []byteRange {
+	var out []byteRange
+	line := 1
+	for i, rg := range r.pf.RowGroups() {
+		out = append(out, byteRange{start: int64(i), line: line})
+		line += int(rg.NumRows())
 	}
 	return out
+}
+
+// scanParquet is scan for a flat Parquet recording: the time a TIMESTAMP column, epoch seconds
+// or milliseconds (numbers, as in text), or ISO-8601 text; x, y, z numeric; the id text or an
+// integer. Positions in messages are the row (as the line, the first row being line 2) and the
+// column number.
+func scanParquet(path string, o Options, each func(l *layout, s sample) error) error {
+	r, err := openParquet(path, o)
+	if err != nil {
+		return err
+	}
+	defer r.file.Close()
+	for _, part := range r.parts() {
+		if err := r.scanGroup(part, *r.l, each); err != nil {
+			return err
+		}
+	}
+	return nil
+}
+
+// scanGroup reads one row group, column by column, then hands its rows to each in order.
+func (r *pqRecording) scanGroup(part byteRange, l layout, each func(l *layout, s sample) error) (err error) {
+	defer func() {
+		if v := recover(); v != nil {
+			err = fmt.Errorf("%s: the Parquet file is damaged (%v); write it again, or export CSV: %w", r.path, v, ErrInput)
+		}
+	}()
+	rg := r.pf.RowGroups()[part.start]
+	n := int(rg.NumRows())
+	if n < 0 || n > 1<<28 {
+		return fmt.Errorf("%s: a row group of %d rows; the file is damaged: %w", r.path, n, ErrInput)
+	}
+	chunks := rg.ColumnChunks()
+	var axes [3][]float64
+	for a, c := range []int{l.x, l.y, l.z} {
+		if axes[a], err = r.numbers(chunks[c], n, c, part.line); err != nil {
+			return err
+		}
+	}
+	var times []int64
+	var timeText [][]byte
+	var ids []string
+	if r.unit > 0 || r.kinds[l.t].Kind() != parquet.ByteArray {
+		vals, err := r.numbers(chunks[l.t], n, l.t, part.line)
+		if err != nil {
+			return err
+		}
+		times = make([]int64, n)
+		for i, v := range vals {
+			if r.unit > 0 {
+				times[i] = int64(v) * int64(r.unit)
+				continue
+			}
+			t, _, err := parseTime([]byte(strconv.FormatFloat(v, 'f', -1, 64)))
+			if err != nil {
+				return fmt.Errorf("%s:%d:%d: %v: %w", r.path, part.line+1+i, l.t+1, err, ErrInput)
+			}
+			times[i] = t
+		}
+	} else if timeText, err = r.texts(chunks[l.t], n, l.t, part.line); err != nil {
+		return err
+	}
+	if l.id >= 0 {
+		raw, err := r.texts(chunks[l.id], n, l.id, part.line)
+		if err != nil {
+			return err
+		}
+		ids = make([]string, n)
+		for i, b := range raw {
+			if i > 0 && string(b) == ids[i-1] {
+				ids[i] = ids[i-1]
+			} else {
+				ids[i] = string(b)
+			}
+		}
+	}
+	for i := 0; i < n; i++ {
+		s := sample{id: l.fileID, line: part.line + 1 + i, a: [3]float64{axes[0][i], axes[1][i], axes[2][i]}}
+		if ids != nil {
+			s.id = ids[i]
+		}
+		zoned := true
+		if times != nil {
+			s.t = times[i]
+		} else if s.t, zoned, err = parseTime(timeText[i]); err != nil {
+			return fmt.Errorf("%s:%d:%d: %v: %w", r.path, s.line, l.t+1, err, ErrInput)
+		}
+		if !l.kindKnown {
+			l.zoned, l.kindKnown = zoned, true
+		} else if zoned != l.zoned {
+			return fmt.Errorf("%s:%d:%d: a time %s where the file's first time was %s; give every time in one form: %w", r.path, s.line, l.t+1, zoneWord(zoned), zoneWord(l.zoned), ErrInput)
+		}
+		for a, v := range s.a {
+			if v != v || v > 1e6 || v < -1e6 {
+				return fmt.Errorf("%s:%d:%d: %v is not a number of acceleration: %w", r.path, s.line, []int{l.x, l.y, l.z}[a]+1, v, ErrInput)
+			}
+		}
+		if err := each(&l, s); err != nil {
+			return err
+		}
+	}
+	return nil
+}
+
+// numbers reads the n values of a numeric column chunk (doubles, floats or integers; no empty
+// cell) as float64, page by page.
+func (r *pqRecording) numbers(chunk parquet.ColumnChunk, n, col, line int) ([]float64, error) {
+	out := make([]float64, 0, n)
+	var vals []parquet.Value
+	err := r.pages(chunk, col, line, func(page parquet.Page) error {
+		if page.NumNulls() > 0 {
+			return fmt.Errorf("%s:%d:%d: an empty cell in column %d; every sample needs its time and x, y, z: %w", r.path, line+1+len(out), col+1, col+1, ErrInput)
+		}
+		vr := page.Values()
+		if dr, ok := vr.(parquet.DoubleReader); ok {
+			k := int(page.NumValues())
+			start := len(out)
+			out = append(out, make([]float64, k)...)
+			got, err := dr.ReadDoubles(out[start:])
+			out = out[:start+got]
+			if err != nil && !errors.Is(err, io.EOF) {
+				return err
+			}
+			return nil
+		}
+		if vals == nil {
+			vals = make([]parquet.Value, 4096)
+		}
+		for {
+			k, err := vr.ReadValues(vals)
+			for _, v := range vals[:k] {
+				switch v.Kind() {
+				case parquet.Double:
+					out = append(out, v.Double())
+				case parquet.Float:
+					out = append(out, float64(v.Float()))
+				case parquet.Int32, parquet.Int64:
+					out = append(out, float64(v.Int64()))
+				default:
+					return fmt.Errorf("%s:%d:%d: %q is not a number: %w", r.path, line+1+len(out), col+1, v.String(), ErrInput)
+				}
+			}
+			if errors.Is(err, io.EOF) {
+				return nil
+			}
+			if err != nil {
+				return err
+			}
+		}
+	})
+	if err == nil && len(out) != n {
+		err = fmt.Errorf("%s: column %d holds %d of its %d rows; the file is damaged: %w", r.path, col+1, len(out), n, ErrInput)
+	}
+	return out, err
+}
+
+// texts reads the n values of a column chunk as text.
+func (r *pqRecording) texts(chunk parquet.ColumnChunk, n, col, line int) ([][]byte, error) {
+	out := make([][]byte, 0, n)
+	vals := make([]parquet.Value, 4096)
+	err := r.pages(chunk, col, line, func(page parquet.Page) error {
+		vr := page.Values()
+		for {
+			k, err := vr.ReadValues(vals)
+			for _, v := range vals[:k] {
+				if v.IsNull() {
+					return fmt.Errorf("%s:%d:%d: an empty cell: %w", r.path, line+1+len(out), col+1, ErrInput)
+				}
+				if v.Kind() == parquet.ByteArray || v.Kind() == parquet.FixedLenByteArray {
+					out = append(out, bytes.Clone(v.ByteArray()))
+				} else {
+					out = append(out, []byte(v.String()))
+				}
+			}
+			if errors.Is(err, io.EOF) {
+				return nil
+			}
+			if err != nil {
+				return err
+			}
+		}
+	})
+	if err == nil && len(out) != n {
+		err = fmt.Errorf("%s: column %d holds %d of its %d rows; the file is damaged: %w", r.path, col+1, len(out), n, ErrInput)
+	}
+	return out, err
+}
+
+// pages hands each page of a column chunk to read, and releases it.
+func (r *pqRecording) pages(chunk parquet.ColumnChunk, col, line int, read func(parquet.Page) error) error {
+	pages := chunk.Pages()
+	defer pages.Close()
+	for {
+		page, err := pages.ReadPage()
+		if errors.Is(err, io.EOF) {
+			return nil
+		}
+		if err != nil {
+			return fmt.Errorf("%s: reading column %d after line %d failed (%v); the file may be damaged: %w", r.path, col+1, line, err, ErrInput)
+		}
+		err = read(page)
+		parquet.Release(page)
+		if err != nil {
+			if errors.Is(err, ErrInput) {
+				return err
+			}
+			return fmt.Errorf("%s: reading column %d after line %d failed (%v); the file may be damaged: %w", r.path, col+1, line, err, ErrInput)
+		}
+	}
 }

@@ -149,10 +149,15 @@ func (c *chunk) add(a [3]float64) {
 		c.lo, c.hi = a, a
 	}
 	c.n++
-	for i, v := range a {
+	for i, v := range a { // v is a number (the readers refuse NaN), so plain comparisons serve
 		c.sum[i] += v
 		c.sum2[i] += v * v
-		c.lo[i], c.hi[i] = math.Min(c.lo[i], v), math.Max(c.hi[i], v)
+		if v < c.lo[i] {
+			c.lo[i] = v
+		}
+		if v > c.hi[i] {
+			c.hi[i] = v
+		}
 	}
 }
 

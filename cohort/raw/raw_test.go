@@ -176,7 +176,7 @@ func TestParquetTableReadsAsTheCSV(t *testing.T) {
 // the table its CSV gives, byte for byte.
 func TestParquetRecordingReadsAsTheCSV(t *testing.T) {
 	pq := filepath.Join(t.TempDir(), "small.parquet")
-	toParquet(t, "../../testdata/raw/small.csv", pq)
+	toParquet(t, "../../testdata/raw/small.csv", pq, 1<<20)
 	opts := Options{Window: 10 * time.Second, NoCalibration: true}
 	var fromCSV, fromPQ bytes.Buffer
 	if _, err := Run(context.Background(), []string{"../../testdata/raw/small.csv"}, &fromCSV, opts); err != nil {
@@ -192,7 +192,7 @@ func TestParquetRecordingReadsAsTheCSV(t *testing.T) {
 
 // toParquet writes a recording of time,x,y,z (times with an offset) as Parquet: the time a
 // TIMESTAMP in milliseconds, x, y, z doubles.
-func toParquet(t testing.TB, csvPath, pqPath string) {
+func toParquet(t testing.TB, csvPath, pqPath string, rowsPerGroup int64) {
 	t.Helper()
 	text, err := os.ReadFile(csvPath)
 	if err != nil {
@@ -207,7 +207,7 @@ func toParquet(t testing.TB, csvPath, pqPath string) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	pw := parquet.NewWriter(f, schema)
+	pw := parquet.NewWriter(f, schema, parquet.MaxRowsPerRowGroup(rowsPerGroup))
 	var batch []parquet.Row
 	for _, line := range strings.Split(strings.TrimSpace(string(text)), "\n")[1:] {
 		cells := strings.Split(line, ",")
@@ -234,14 +234,15 @@ func toParquet(t testing.TB, csvPath, pqPath string) {
 	}
 }
 
-// BenchmarkRunParquet is BenchmarkRunCSV from the same recording written as Parquet.
+// BenchmarkRunParquet is BenchmarkRunCSV from the same recording written as Parquet in row
+// groups of 65,536 rows, read on all cores.
 func BenchmarkRunParquet(b *testing.B) {
 	dir := b.TempDir()
 	if _, err := synth.WriteRaw(dir, synth.RawOptions{Participants: 1, Hours: 1, Rate: 100, Seed: 1}); err != nil {
 		b.Fatal(err)
 	}
 	pq := filepath.Join(dir, "R01.parquet")
-	toParquet(b, filepath.Join(dir, "R01.csv"), pq)
+	toParquet(b, filepath.Join(dir, "R01.csv"), pq, 1<<16)
 	b.ResetTimer()
 	for i := 0; i < b.N; i++ {
 		var out bytes.Buffer
@@ -325,6 +326,44 @@ func TestRangesNameTheWholeFilesLines(t *testing.T) {
 		_, err := Run(context.Background(), []string{dup}, &out, o)
 		if err == nil || !strings.Contains(err.Error(), "dup.csv:40003: participant dup has this time twice (also line 40002)") {
 			t.Errorf("ranges of %d bytes: %v", o.RangeBytes, err)
+		}
+	}
+}
+
+// A Parquet recording of several row groups is read on all cores: the same table on one core
+// and on two, and the CSV's to 1e-9.
+func TestParquetRowGroupsOnAllCores(t *testing.T) {
+	dir := t.TempDir()
+	if _, err := synth.WriteRaw(dir, synth.RawOptions{Participants: 1, Hours: 2, Rate: 20, Seed: 5}); err != nil {
+		t.Fatal(err)
+	}
+	pq := filepath.Join(dir, "R01.parquet")
+	toParquet(t, filepath.Join(dir, "R01.csv"), pq, 10_000)
+	var fromCSV, one, two bytes.Buffer
+	if _, err := Run(context.Background(), []string{filepath.Join(dir, "R01.csv")}, &fromCSV, Options{}); err != nil {
+		t.Fatal(err)
+	}
+	if _, err := Run(context.Background(), []string{pq}, &one, Options{Workers: 1}); err != nil {
+		t.Fatal(err)
+	}
+	if _, err := Run(context.Background(), []string{pq}, &two, Options{Workers: 2}); err != nil {
+		t.Fatal(err)
+	}
+	if !bytes.Equal(one.Bytes(), two.Bytes()) {
+		t.Fatal("row groups on one core and on two gave other tables")
+	}
+	a, b := strings.Split(fromCSV.String(), "\n"), strings.Split(one.String(), "\n")
+	if len(a) != len(b) || len(a) < 100 {
+		t.Fatalf("%d and %d lines", len(a), len(b))
+	}
+	for i := 1; i < len(a)-1; i++ {
+		ca, cb := strings.Split(a[i], ","), strings.Split(b[i], ",")
+		for j := 1; j < len(ca); j++ {
+			x, errx := strconv.ParseFloat(ca[j], 64)
+			y, _ := strconv.ParseFloat(cb[j], 64)
+			if j == 1 && ca[j] != cb[j] || errx == nil && math.Abs(x-y) > 1e-9*math.Max(1, math.Abs(x)) {
+				t.Fatalf("line %d column %d: %s from CSV, %s from Parquet", i+1, j+1, ca[j], cb[j])
+			}
 		}
 	}
 }

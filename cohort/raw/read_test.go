@@ -201,7 +201,7 @@ func parseTimeSlow(s string) (int64, bool, error) {
 // panic.
 func FuzzScanParquet(f *testing.F) {
 	pq := filepath.Join(f.TempDir(), "seed.parquet")
-	toParquet(f, "../../testdata/raw/small.csv", pq)
+	toParquet(f, "../../testdata/raw/small.csv", pq, 1000)
 	seed, err := os.ReadFile(pq)
 	if err != nil {
 		f.Fatal(err)

@@ -301,10 +301,25 @@ type fileResult struct {
 
 // runFile makes both passes over one file.
 func runFile(ctx context.Context, path string, o Options, col map[string]int) (fileResult, error) {
+	if strings.HasSuffix(strings.ToLower(path), ".parquet") && o.ID == "" {
+		// A Parquet recording of one participant: its row groups on all cores.
+		r, err := openParquet(path, o)
+		if err != nil {
+			return fileResult{}, err
+		}
+		defer r.file.Close()
+		if parts := r.parts(); len(parts) > 1 {
+			return runFileSplit(ctx, path, o, col, parts, r.l, func(i int, l layout, each func(l *layout, s sample) error) error {
+				return r.scanGroup(parts[i], l, each)
+			})
+		}
+	}
 	if ranges, l, err := splits(ctx, path, o); err != nil {
 		return fileResult{}, err
 	} else if ranges != nil {
-		return runFileSplit(ctx, path, o, col, ranges, l)
+		return runFileSplit(ctx, path, o, col, ranges, l, func(i int, l layout, each func(l *layout, s sample) error) error {
+			return scanRange(path, l, ranges[i], each)
+		})
 	}
 	var order []*firstPass
 	byID := map[string]*firstPass{}

@@ -130,14 +130,17 @@ type window struct {
 }
 
 // runFileSplit is runFile for a long one-participant recording read in ranges.
-func runFileSplit(ctx context.Context, path string, o Options, col map[string]int, ranges []byteRange, l0 *layout) (fileResult, error) {
+//
+// scanPart reads part i (a range of a text file, or a row group of a Parquet file) with a copy of
+// the file's layout.
+func runFileSplit(ctx context.Context, path string, o Options, col map[string]int, ranges []byteRange, l0 *layout, scanPart func(i int, l layout, each func(l *layout, s sample) error) error) (fileResult, error) {
 	id := l0.fileID
 	// First pass, per range, joined in order.
 	var f *firstPass
 	err := cluster.Ordered(ctx, len(ranges), o.Workers, func(i, _ int) (*firstPass, error) {
 		part := &firstPass{p: &Participant{ID: id, File: path}}
 		l := *l0
-		err := scanRange(path, l, ranges[i], func(l *layout, s sample) error { return part.add(s, path) })
+		err := scanPart(i, l, func(l *layout, s sample) error { return part.add(s, path) })
 		return part, err
 	}, func(i int, part *firstPass) error {
 		if part.p.Samples == 0 {
@@ -184,7 +187,7 @@ func runFileSplit(ctx context.Context, path string, o Options, col map[string]in
 		part := &rangePart{rows: &sink{col: col}}
 		sec := &secondPass{p: &part.p, pl: pl, o: o, out: part.rows}
 		l := *l0
-		err := scanRange(path, l, ranges[i], func(l *layout, s sample) error {
+		err := scanPart(i, l, func(l *layout, s sample) error {
 			if part.zoned == nil {
 				part.zoned = new(bool)
 				*part.zoned = l.zoned
