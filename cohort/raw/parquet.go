@@ -196,7 +196,6 @@ func (r *pqRecording) scanGroup(part byteRange, l layout, each func(l *layout, s
 // cell) as float64, page by page.
 func (r *pqRecording) numbers(chunk parquet.ColumnChunk, n, col, line int) ([]float64, error) {
 	out := make([]float64, 0, n)
-	var vals []parquet.Value
 	err := r.pages(chunk, col, line, func(page parquet.Page) error {
 		if page.NumNulls() > 0 {
 			return fmt.Errorf("%s:%d:%d: an empty cell in column %d; every sample needs its time and x, y, z: %w", r.path, line+1+len(out), col+1, col+1, ErrInput)
@@ -213,30 +212,19 @@ func (r *pqRecording) numbers(chunk parquet.ColumnChunk, n, col, line int) ([]fl
 			}
 			return nil
 		}
-		if vals == nil {
-			vals = make([]parquet.Value, 4096)
-		}
-		for {
-			k, err := vr.ReadValues(vals)
-			for _, v := range vals[:k] {
-				switch v.Kind() {
-				case parquet.Double:
-					out = append(out, v.Double())
-				case parquet.Float:
-					out = append(out, float64(v.Float()))
-				case parquet.Int32, parquet.Int64:
-					out = append(out, float64(v.Int64()))
-				default:
-					return fmt.Errorf("%s:%d:%d: %q is not a number: %w", r.path, line+1+len(out), col+1, v.String(), ErrInput)
-				}
+		return eachValue(vr, func(v parquet.Value) error {
+			switch v.Kind() {
+			case parquet.Double:
+				out = append(out, v.Double())
+			case parquet.Float:
+				out = append(out, float64(v.Float()))
+			case parquet.Int32, parquet.Int64:
+				out = append(out, float64(v.Int64()))
+			default:
+				return fmt.Errorf("%s:%d:%d: %q is not a number: %w", r.path, line+1+len(out), col+1, v.String(), ErrInput)
 			}
-			if errors.Is(err, io.EOF) {
-				return nil
-			}
-			if err != nil {
-				return err
-			}
-		}
+			return nil
+		})
 	})
 	if err == nil && len(out) != n {
 		err = fmt.Errorf("%s: column %d holds %d of its %d rows; the file is damaged: %w", r.path, col+1, len(out), n, ErrInput)
@@ -247,33 +235,42 @@ func (r *pqRecording) numbers(chunk parquet.ColumnChunk, n, col, line int) ([]fl
 // texts reads the n values of a column chunk as text.
 func (r *pqRecording) texts(chunk parquet.ColumnChunk, n, col, line int) ([][]byte, error) {
 	out := make([][]byte, 0, n)
-	vals := make([]parquet.Value, 4096)
 	err := r.pages(chunk, col, line, func(page parquet.Page) error {
-		vr := page.Values()
-		for {
-			k, err := vr.ReadValues(vals)
-			for _, v := range vals[:k] {
-				if v.IsNull() {
-					return fmt.Errorf("%s:%d:%d: an empty cell: %w", r.path, line+1+len(out), col+1, ErrInput)
-				}
-				if v.Kind() == parquet.ByteArray || v.Kind() == parquet.FixedLenByteArray {
-					out = append(out, bytes.Clone(v.ByteArray()))
-				} else {
-					out = append(out, []byte(v.String()))
-				}
+		return eachValue(page.Values(), func(v parquet.Value) error {
+			switch {
+			case v.IsNull():
+				return fmt.Errorf("%s:%d:%d: an empty cell: %w", r.path, line+1+len(out), col+1, ErrInput)
+			case v.Kind() == parquet.ByteArray || v.Kind() == parquet.FixedLenByteArray:
+				out = append(out, bytes.Clone(v.ByteArray()))
+			default:
+				out = append(out, []byte(v.String()))
 			}
-			if errors.Is(err, io.EOF) {
-				return nil
-			}
-			if err != nil {
-				return err
-			}
-		}
+			return nil
+		})
 	})
 	if err == nil && len(out) != n {
 		err = fmt.Errorf("%s: column %d holds %d of its %d rows; the file is damaged: %w", r.path, col+1, len(out), n, ErrInput)
 	}
 	return out, err
+}
+
+// eachValue hands each value a page's reader gives to use, in order.
+func eachValue(vr parquet.ValueReader, use func(parquet.Value) error) error {
+	vals := make([]parquet.Value, 4096)
+	for {
+		k, err := vr.ReadValues(vals)
+		for _, v := range vals[:k] {
+			if e := use(v); e != nil {
+				return e
+			}
+		}
+		if errors.Is(err, io.EOF) {
+			return nil
+		}
+		if err != nil {
+			return err
+		}
+	}
 }
 
 // pages hands each page of a column chunk to read, and releases it.

@@ -184,7 +184,7 @@ func runFileSplit(ctx context.Context, path string, o Options, col map[string]in
 		}
 	}
 	err = cluster.Ordered(ctx, len(ranges), o.Workers, func(i, _ int) (*rangePart, error) {
-		part := &rangePart{rows: &sink{col: col}}
+		part := &rangePart{rows: &sink{col: col}, p: Participant{ID: id, File: path}}
 		sec := &secondPass{p: &part.p, pl: pl, o: o, out: part.rows}
 		l := *l0
 		err := scanPart(i, l, func(l *layout, s sample) error {
