@@ -7,6 +7,7 @@ import (
 	"math"
 	"slices"
 	"strings"
+	"sync"
 
 	"github.com/cohortmix/cohortmix/cluster"
 	"github.com/cohortmix/cohortmix/cohort"
@@ -32,6 +33,10 @@ const sensitivityUnits = 60
 // turned alone and the other numbers of states are fitted anew on the windows of up to 60
 // sampled participants, so their rows are read against the first row, the same settings on the
 // same sampled windows.
+// matrixAtOnce is the size of a distance matrix above which the sensitivity table's refits by
+// other methods run one at a time.
+const matrixAtOnce = 32 << 20
+
 func sensitivity(ctx context.Context, f *Fitted, o Options, sample sampleUnits) ([]reports.Sensitivity, error) {
 	k := f.Grouping.K
 	if k < 2 {
@@ -44,11 +49,20 @@ func sensitivity(ctx context.Context, f *Fitted, o Options, sample sampleUnits) 
 	for i, s := range f.Sigs {
 		shares[i] = s.Share
 	}
+	// The other methods keep an n × n matrix of distances (for PAM and the silhouettes); above
+	// matrixAtOnce, one of them at a time, so that the peak holds one matrix, not one per core
+	// (464 MB at 5,000 participants on two cores). The rows are the same either way.
+	var oneMatrix sync.Mutex
+	heavy := cluster.CondensedBytes(len(shares)) > matrixAtOnce
 	for _, m := range []cohort.Method{cohort.WardHellinger, cohort.PAMAitchison, cohort.KMeansCLR} {
 		if m == f.Grouping.Method || (m != cohort.KMeansCLR && len(shares) > cohort.LargeCohort) {
 			continue
 		}
 		tasks = append(tasks, func() (reports.Sensitivity, error) {
+			if heavy {
+				oneMatrix.Lock()
+				defer oneMatrix.Unlock()
+			}
 			row := reports.Sensitivity{Choice: "grouping method", Alternative: m.String(), Participants: len(shares)}
 			g, err := cohort.GroupSignatures(ctx, shares, cohort.GroupOptions{Method: m, Groups: []int{k}, Criterion: cohort.ByGap, Bootstrap: 2, Seed: o.Seed, Workers: o.Workers})
 			if err != nil {
