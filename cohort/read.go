@@ -1345,12 +1345,21 @@ func (r *reader) finish() (*Table, error) {
 				}
 			}
 		}
-		// Non-wear: the windows of the rule's periods are left out, before anything else.
+		// Non-wear: the windows of the rule's periods are left out, before anything else; then
+		// the windows of days of too little wear, and a participant with too few valid days is
+		// excluded. Both read the windows' times, in order.
+		var times []int64
+		if nonWearAt >= 0 || wr != nil {
+			times = make([]int64, n)
+			for k, i := range idx {
+				times[k] = ord(i)
+			}
+		}
 		var nonWear []bool
 		if nonWearAt >= 0 {
-			times, counts := make([]int64, n), make([]float64, n)
+			counts := make([]float64, n)
 			for k, i := range idx {
-				times[k], counts[k] = ord(i), x[i*w+nonWearAt]
+				counts[k] = x[i*w+nonWearAt]
 				if rule == NonWearColumn && counts[k] != 0 && counts[k] != 1 {
 					_, line := unpackSource(x[i*w+d+1])
 					t.Close()
@@ -1359,15 +1368,9 @@ func (r *reader) finish() (*Table, error) {
 			}
 			nonWear = nonWearOf(rule, times, counts)
 		}
-		// Valid days: the windows of days of too little wear are left out, and a participant
-		// with too few valid days is excluded.
 		var invalidDay []bool
 		short := ""
 		if wr != nil {
-			times := make([]int64, n)
-			for k, i := range idx {
-				times[k] = ord(i)
-			}
 			invalidDay, u.Wear, short = wr.wearDays(times, nonWear, medianStep(times))
 		}
 		// Missing cells: drop the window, or impute the participant's median of the feature.

@@ -61,21 +61,22 @@ func (p DayParts) Check() error {
 	return nil
 }
 
-// Part is the part of the day that holds hour h.
+// Part is the part of the day that holds hour h: the one that began last at or before h, or,
+// for the hours before every start, the one that began latest the evening before.
 func (p DayParts) Part(h int) int {
-	part := len(p) - 1
-	for i := 1; i < len(p); i++ {
-		if h >= p[i] {
-			part = i
+	best, latest := -1, 0
+	for i, start := range p {
+		if start <= h && (best < 0 || start > p[best]) {
+			best = i
+		}
+		if start > p[latest] {
+			latest = i
 		}
 	}
-	if h >= p[0] && (p[0] <= p[1] && h < p[1] || p[0] > p[1]) {
-		return 0
+	if best < 0 {
+		return latest
 	}
-	if p[0] > p[1] && h < p[1] {
-		return 0
-	}
-	return part
+	return best
 }
 
 // Name is the name of part i: DayPartNames' with four parts, else "hours a–b".

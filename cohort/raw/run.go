@@ -12,6 +12,7 @@ import (
 	"time"
 
 	"github.com/cohortmix/cohortmix/cluster"
+	"github.com/cohortmix/cohortmix/cluster/groupstat"
 	"github.com/parquet-go/parquet-go"
 )
 
@@ -103,14 +104,14 @@ func (f *firstPass) finish(path string, o Options) (*plan, error) {
 	if f.p.Samples < 2 {
 		return nil, fmt.Errorf("%s: participant %s has %d samples; a raw recording has many: %w", path, f.p.ID, f.p.Samples, ErrInput)
 	}
-	factor, units, err := unitsOf(o.Units, median(f.vms))
+	factor, units, err := unitsOf(o.Units, groupstat.Median(f.vms))
 	if err != nil {
 		return nil, fmt.Errorf("%s: participant %s: %w", path, f.p.ID, err)
 	}
 	f.p.Units = units
 	rate := o.Rate
 	if rate == 0 {
-		step := median(f.steps)
+		step := groupstat.Median(f.steps)
 		if !(step > 0) {
 			return nil, fmt.Errorf("%s: participant %s: the sampling rate cannot be read from the times; give it: %w", path, f.p.ID, ErrInput)
 		}
@@ -395,16 +396,4 @@ func floorDiv(a, b int64) int64 {
 		q--
 	}
 	return q
-}
-
-func median(v []float64) float64 {
-	if len(v) == 0 {
-		return math.NaN()
-	}
-	s := slices.Clone(v)
-	slices.Sort(s)
-	if len(s)%2 == 1 {
-		return s[len(s)/2]
-	}
-	return (s[len(s)/2-1] + s[len(s)/2]) / 2
 }
