@@ -5,13 +5,11 @@ import (
 	"encoding/csv"
 	"fmt"
 	"io"
-	"os"
-	"path/filepath"
-	"slices"
 	"strconv"
 	"strings"
 	"time"
 
+	"github.com/cohortmix/cohortmix/cohort"
 	"github.com/cohortmix/cohortmix/cohort/raw"
 	"github.com/cohortmix/cohortmix/reports"
 	"github.com/spf13/cobra"
@@ -32,7 +30,7 @@ func newFeaturesCmd(env *Env, runF func(context.Context, *featuresOptions) error
 		Use:   "features <recordings or folders>... --out <table.csv>",
 		Short: "Turn raw tri-axial recordings into the per-window table that 'group' reads",
 		Long: `Reads raw acceleration (a time column, ISO-8601 or epoch seconds, and x, y, z in g, mg or m/s²;
-CSV, TSV, .gz or Parquet; one participant per file, named by the file, or a long table with --id), and
+CSV, TSV, .gz or Parquet; one participant per file, named by the file, or a long table with --id; folders and quoted globs are expanded), and
 writes one row per window and participant: ENMO, MAD, the arm angle, the axes' means, s.d.s and
 correlations, the vector magnitude's mean, s.d. and peak, its dominant frequency, band powers and
 spectral entropy, and a worn column (1 worn, 0 off by the non-wear rule of van Hees et al. 2013),
@@ -72,37 +70,19 @@ Exit codes: 0 success, 1 error, 2 wrong command line, 130 interrupted.`,
 	return cmd
 }
 
-// rawInputs expands folders into the recordings in them (.csv, .tsv, .txt, those .gz, and
-// .parquet), in name order.
+// rawInputs are the recordings the arguments name: folders and globs expanded as for the tables
+// (cohort.ExpandPaths); a workbook is refused, as no raw recording comes as one.
 func rawInputs(args []string) ([]string, error) {
-	var out []string
-	for _, a := range args {
-		st, err := os.Stat(a)
-		if err != nil {
-			return nil, fmt.Errorf("%s: cannot open: %w", a, err)
-		}
-		if !st.IsDir() {
-			out = append(out, a)
-			continue
-		}
-		entries, err := os.ReadDir(a)
-		if err != nil {
-			return nil, err
-		}
-		var found []string
-		for _, e := range entries {
-			name := strings.TrimSuffix(e.Name(), ".gz")
-			if !e.IsDir() && (strings.HasSuffix(name, ".csv") || strings.HasSuffix(name, ".tsv") || strings.HasSuffix(name, ".txt") || strings.HasSuffix(name, ".parquet")) {
-				found = append(found, filepath.Join(a, e.Name()))
-			}
-		}
-		if len(found) == 0 {
-			return nil, fmt.Errorf("%s: no recordings (.csv, .tsv, .txt, .gz of them, or .parquet) in this folder", a)
-		}
-		slices.Sort(found)
-		out = append(out, found...)
+	paths, err := cohort.ExpandPaths(args)
+	if err != nil {
+		return nil, err
 	}
-	return out, nil
+	for _, p := range paths {
+		if p == "-" || strings.HasSuffix(strings.ToLower(p), ".xlsx") {
+			return nil, fmt.Errorf("%s: a raw recording is read from a CSV, TSV, gzip or Parquet file; export it as one of those", p)
+		}
+	}
+	return paths, nil
 }
 
 func featuresRun(ctx context.Context, o *featuresOptions) error {
