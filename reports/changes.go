@@ -4,43 +4,18 @@ import (
 	"fmt"
 	"sort"
 	"strings"
-	"time"
 
 	"github.com/cohortmix/cohortmix/cohort"
+	"github.com/cohortmix/cohortmix/cohort/job"
 	"github.com/xuri/excelize/v2"
 )
 
 // SheetChanges compares a run with the model it started from.
 const SheetChanges = "Changes"
 
-// ChangeRow is one participant (or wave) of the new run.
-type ChangeRow struct {
-	ID, Wave      string
-	Previous, Now string  // group names; Previous is empty for a participant new to the cohort
-	Moved         string  // "no", "yes" or "new participant"
-	DistNow       float64 // to the centre of its group now
-	DistPrevious  float64 // to the centre of its previous group (NaN when none)
-	Atypical      bool    // farther from every group than almost all fitted members (assign)
-	// Probability is that of its group now under the mixture (the mixture method; NaN
-	// otherwise): what placed it there.
-	Probability float64
-}
-
-// MovedRows are the rows of participants who changed group, in the order of their ids.
-func (c *Changes) MovedRows() []ChangeRow {
-	var out []ChangeRow
-	for _, row := range c.Rows {
-		if row.Moved == "yes" {
-			out = append(out, row)
-		}
-	}
-	sort.SliceStable(out, func(a, b int) bool { return NaturalLess(out[a].ID+"\x00"+out[a].Wave, out[b].ID+"\x00"+out[b].Wave) })
-	return out
-}
-
 // MovedText names who moved, up to ten, with their groups before and now: "P7 (G1 → G2), …";
 // "no one" when no one did.
-func (c *Changes) MovedText() string {
+func MovedText(c *job.Changes) string {
 	moved := c.MovedRows()
 	if len(moved) == 0 {
 		return "no one"
@@ -60,39 +35,6 @@ func (c *Changes) MovedText() string {
 	return fmt.Sprintf("%d — %s", len(moved), strings.Join(parts, "; "))
 }
 
-// returningPeople counts the people among the returning rows (a person's waves count once).
-func (c *Changes) returningPeople() int {
-	people := map[string]bool{}
-	for _, row := range c.Rows {
-		if row.Previous != "" {
-			people[row.ID] = true
-		}
-	}
-	return len(people)
-}
-
-// GroupChange is one group's fate.
-type GroupChange struct {
-	Name          string
-	Status        string
-	Before, After int
-	Drift         float64 // distance its centre moved (NaN when not matched)
-}
-
-// Changes is the record of who moved between a model and a new run.
-type Changes struct {
-	Mode  string // "assign" or "refresh"
-	Model string // the model file it started from
-	// ModelCreated is when that model was fitted.
-	ModelCreated time.Time
-	Rows         []ChangeRow
-	Groups       []GroupChange
-	States       []GroupChange // state names with their drift (refresh)
-	Returning    int
-	ARI          float64 // agreement of old and new groups among returning participants (NaN if < 2)
-	Notes        []string
-}
-
 func changesSheet(f *excelize.File, st *styles, r *Result) error {
 	c := r.Changes
 	if c == nil {
@@ -110,7 +52,7 @@ func changesSheet(f *excelize.File, st *styles, r *Result) error {
 	waves := r.Counts().Waves
 	returning := fmt.Sprintf("%d returning participants", c.Returning)
 	if waves {
-		returning = fmt.Sprintf("%d returning participant-waves of %d people", c.Returning, c.returningPeople())
+		returning = fmt.Sprintf("%d returning participant-waves of %d people", c.Returning, c.ReturningPeople())
 	}
 	intro := fmt.Sprintf("%s against %s: %s", c.Mode, c.Model, returning)
 	if c.ARI == c.ARI {
@@ -122,7 +64,7 @@ func changesSheet(f *excelize.File, st *styles, r *Result) error {
 	if err := t.merge(8); err != nil {
 		return err
 	}
-	if err := t.put(v{"Moved to another group: " + c.MovedText(), st.warn}); err != nil {
+	if err := t.put(v{"Moved to another group: " + MovedText(c), st.warn}); err != nil {
 		return err
 	}
 	if err := t.merge(8); err != nil {
@@ -171,10 +113,10 @@ func changesSheet(f *excelize.File, st *styles, r *Result) error {
 	if err := t.heading("participant", "wave", "previous group", "group now", "moved", "probability of the group now", "distance now", "distance to previous"); err != nil {
 		return err
 	}
-	rows := append([]ChangeRow(nil), c.Rows...)
+	rows := append([]job.ChangeRow(nil), c.Rows...)
 	// Who moved first, then those in no group, the new, and the rest; within each, ids in
 	// natural order (P2 before P10), waves of the same participant side by side.
-	rank := func(row ChangeRow) int {
+	rank := func(row job.ChangeRow) int {
 		switch {
 		case row.Moved == "yes":
 			return 0
@@ -190,9 +132,9 @@ func changesSheet(f *excelize.File, st *styles, r *Result) error {
 			return ra < rb
 		}
 		if rows[a].ID != rows[b].ID {
-			return NaturalLess(rows[a].ID, rows[b].ID)
+			return cohort.NaturalLess(rows[a].ID, rows[b].ID)
 		}
-		return NaturalLess(rows[a].Wave, rows[b].Wave)
+		return cohort.NaturalLess(rows[a].Wave, rows[b].Wave)
 	})
 	for _, row := range rows {
 		if err := t.put(v{row.ID, st.text}, v{row.Wave, st.text}, v{row.Previous, st.text}, v{row.Now, st.text}, v{row.Moved, st.text},

@@ -2,7 +2,6 @@ package reports
 
 import (
 	"fmt"
-	"github.com/cohortmix/cohortmix/cluster/groupstat"
 	"math"
 	"sort"
 
@@ -51,7 +50,7 @@ func chartsSheet(f *excelize.File, st *styles, r *Result) error {
 	for s := 0; s < k; s++ {
 		w.text(2+s, row, stateLabel(r, s), st.headerNum)
 	}
-	shares, sizes, sils := groupMeans(r)
+	shares, sizes, sils := r.GroupMeans()
 	for i := 0; i < g; i++ {
 		w.text(1, row+1+i, r.GroupNames[i], st.text)
 		for s := 0; s < k; s++ {
@@ -350,26 +349,6 @@ func (w *cellWriter) set(col, row int, val any, style int) {
 	if w.err == nil && style != 0 {
 		w.err = w.f.SetCellStyle(w.sheet, cell, cell, style)
 	}
-}
-
-// groupMeans returns each group's mean shares, size and mean silhouette, over the units in a
-// group (atypical units are in none).
-func groupMeans(r *Result) ([][]float64, []int, []float64) {
-	shares, sils := make([][]float64, len(r.Units)), make([][]float64, len(r.Units))
-	labels := make([]int, len(r.Units))
-	for i, u := range r.Units {
-		shares[i], sils[i], labels[i] = u.Share, []float64{u.Silhouette}, u.Group
-		if u.Atypical {
-			labels[i] = -1
-		}
-	}
-	means, sizes := groupstat.GroupMeans(shares, labels, len(r.GroupNames))
-	silMeans, _ := groupstat.GroupMeans(sils, labels, len(r.GroupNames))
-	out := make([]float64, len(silMeans))
-	for g, m := range silMeans {
-		out[g] = m[0]
-	}
-	return means, sizes, out
 }
 
 // stateVariables are the features that drive the states most, at most n, in feature order.

@@ -1,6 +1,8 @@
 package reports
 
-import "github.com/xuri/excelize/v2"
+import (
+	"github.com/xuri/excelize/v2"
+)
 
 // SheetDefinitions explains every column and measure in plain words.
 const SheetDefinitions = "Definitions"

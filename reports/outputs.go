@@ -46,7 +46,6 @@ type Leftover struct {
 // commit journal and the probes; and the reader's temporary windows files, which a killed run
 // leaves too.
 const (
-	partialSuffix = ".partial"
 	journalPrefix = ".cohortmix-commit"
 	journalSuffix = ".json"
 	probePrefix   = ".cohortmix-probe"
@@ -93,7 +92,7 @@ func recoverLeftovers(dir string) ([]Leftover, error) {
 			return out, err
 		}
 	}
-	for _, sweep := range [][2]string{{".", partialSuffix}, {windowsPrefix, windowsSuffix}, {probePrefix, ""}} {
+	for _, sweep := range [][2]string{{".", scratch.PartialSuffix}, {windowsPrefix, windowsSuffix}, {probePrefix, ""}} {
 		removed, err := scratch.Sweep(dir, sweep[0], sweep[1])
 		for _, r := range removed {
 			out = append(out, Leftover{Path: r.Path, Bytes: r.Bytes})
@@ -195,9 +194,9 @@ func checkTarget(t Target, force bool) error {
 	case err != nil:
 		return nil
 	case st.IsDir():
-		return fmt.Errorf("%s %s: is a folder: %w; name a file", t.Flag, t.Path, ErrExists)
+		return fmt.Errorf("%s %s: is a folder: %w; name a file", t.Flag, t.Path, scratch.ErrExists)
 	case !force:
-		return fmt.Errorf("%s %s: %w; set reports.PlanOutputs force to replace it, or choose another name", t.Flag, t.Path, ErrExists)
+		return fmt.Errorf("%s %s: %w; set reports.PlanOutputs force to replace it, or choose another name", t.Flag, t.Path, scratch.ErrExists)
 	}
 	return nil
 }
@@ -234,7 +233,7 @@ func (o *Outputs) Write(flag string, write func(io.Writer) error) (err error) {
 	if t == nil {
 		return fmt.Errorf("reports: no output was planned for %s", flag)
 	}
-	tmp, err := os.CreateTemp(filepath.Dir(t.Path), scratch.Pattern("."+filepath.Base(t.Path), partialSuffix))
+	tmp, err := os.CreateTemp(filepath.Dir(t.Path), scratch.Pattern("."+filepath.Base(t.Path), scratch.PartialSuffix))
 	if err != nil {
 		o.Abort()
 		return fmt.Errorf("%s %s: cannot create a temporary file beside it: %w", t.Flag, t.Path, err)

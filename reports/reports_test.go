@@ -19,6 +19,9 @@ import (
 
 	"github.com/cohortmix/cohortmix/cluster"
 	"github.com/cohortmix/cohortmix/cohort"
+	"github.com/cohortmix/cohortmix/cohort/job"
+	"github.com/cohortmix/cohortmix/cohort/modelfile"
+	"github.com/cohortmix/cohortmix/cohort/scratch"
 	"github.com/cohortmix/cohortmix/normalize"
 	"github.com/cohortmix/cohortmix/profile"
 	"github.com/xuri/excelize/v2"
@@ -36,10 +39,10 @@ func fixture(t testing.TB, n int, id func(i int) string) *Result {
 		Norm: &normalize.Fit{Features: features, Within: normalize.WithinRest, Touched: []bool{true, false, false}, TouchedBy: "offset detection (ICC ≥ 0.30)",
 			Center: []float64{0, 0, 0}, Spread: []float64{1, 1, 1}, ICC: []float64{0.8, 0.1, 0.05}, ICCAfter: []float64{0.06, 0.1, 0.05}, QuietMid: []float64{0, 0, 0}, QuietScale: []float64{1, 1, 1}},
 		States:     &profile.States{K: k, Centroids: mat.NewDense(k, 3, []float64{0, 0, 0, 1, 0, 0, 0, 1, 0, 0, 0, 1}), Rule: "fixed", Sampled: 100, Candidates: []profile.Candidate{{K: 3, Silhouette: 0.6, CalinskiHarabasz: 90, DaviesBouldin: 0.8}, {K: 4, Silhouette: 0.5, CalinskiHarabasz: 100, DaviesBouldin: 0.7}}},
-		StateNames: []string{"S1", "S2", "S3", "S4"}, StateLines: []string{"a", "b", "c", "d"},
-		GroupNames: []string{"G1", "G2", "G3"}, GroupLines: []string{"x", "y", "z"},
-		Quality:  cohort.Quality{UnitsIn: n + 1, WindowsIn: n*10 + 3, WindowsExcluded: 3, Excluded: []cohort.Exclusion{{ID: "@excluded", Windows: 3, Reason: "3 usable windows"}}},
-		Settings: []Setting{{"seed", "1"}, {"within-participant step", "rest"}},
+		StateNames: []string{"S1", "S2", "S3", "S4"},
+		GroupNames: []string{"G1", "G2", "G3"},
+		Quality:    cohort.Quality{UnitsIn: n + 1, WindowsIn: n*10 + 3, WindowsExcluded: 3, Excluded: []cohort.Exclusion{{ID: "@excluded", Windows: 3, Reason: "3 usable windows"}}},
+		Settings:   []modelfile.Setting{{Name: "seed", Value: "1"}, {Name: "within-participant step", Value: "rest"}},
 	}
 	for s := 0; s < k; s++ {
 		r.StateDesc = append(r.StateDesc, profile.Description{Mean: []float64{float64(s), 1, 2}, Share: 0.25, Drivers: []profile.Driver{{Feature: s % 3, Effect: 1.5 - float64(s)}}})
@@ -50,7 +53,7 @@ func fixture(t testing.TB, n int, id func(i int) string) *Result {
 		share := []float64{0.1, 0.2, 0.3, 0.4}
 		share[i%g] += 0.1
 		share[3] -= 0.1
-		r.Units = append(r.Units, UnitRow{ID: id(i), Windows: 10, Group: i % g, Silhouette: 0.3 + 0.001*float64(i%100), Distance: 0.1, Share: share, Bout: []float64{1, 2, 3, 4}})
+		r.Units = append(r.Units, job.UnitRow{ID: id(i), Windows: 10, Group: i % g, Silhouette: 0.3 + 0.001*float64(i%100), Distance: 0.1, Share: share, Bout: []float64{1, 2, 3, 4}})
 	}
 	tree := &cluster.Tree{N: g, Merges: []cluster.Merge{{A: 0, B: 1, Height: 1, Size: 2}, {A: 2, B: 3, Height: 2, Size: 3}}}
 	r.Grouping = &cohort.Grouping{Method: cohort.WardHellinger, K: g, Labels: labels, Scores: []cohort.KScore{{K: 2, Silhouette: 0.2, Gap: 0.1, GapSE: 0.01, Stability: 0.9}, {K: 3, Silhouette: 0.3, Gap: 0.3, GapSE: 0.01, Stability: 0.8}},
@@ -218,11 +221,11 @@ func TestWriteAtomicKeepsExistingOutput(t *testing.T) {
 	dir := t.TempDir()
 	p := filepath.Join(dir, "out.xlsx")
 	os.WriteFile(p, []byte("earlier"), 0o644)
-	if err := WriteAtomic(p, false, func(w io.Writer) error { return nil }); !errors.Is(err, ErrExists) || !strings.Contains(err.Error(), "force") {
-		t.Errorf("got %v, want ErrExists naming the force option", err)
+	if err := scratch.WriteAtomic(p, false, func(w io.Writer) error { return nil }); !errors.Is(err, scratch.ErrExists) || !strings.Contains(err.Error(), "force") {
+		t.Errorf("got %v, want scratch.ErrExists naming the force option", err)
 	}
 	boom := errors.New("interrupted")
-	if err := WriteAtomic(p, true, func(w io.Writer) error { w.Write([]byte("half")); return boom }); !errors.Is(err, boom) {
+	if err := scratch.WriteAtomic(p, true, func(w io.Writer) error { w.Write([]byte("half")); return boom }); !errors.Is(err, boom) {
 		t.Errorf("got %v", err)
 	}
 	if b, _ := os.ReadFile(p); string(b) != "earlier" {
@@ -237,15 +240,15 @@ func TestWriteAtomicKeepsExistingOutput(t *testing.T) {
 func TestModelRoundTripAndDamage(t *testing.T) {
 	r := fixture(t, 12, func(i int) string { return "P" + digits(i) })
 	r.Norm.PCA = nil
-	m := NewModel(r, cohort.ReadOptions{ID: "participant", Order: "window"}, [][3]float64{{0, 1, 2}, {0, 1, 2}, {0, 1, 2}})
-	m.Fit = &ModelFit{Within: "align", Log: true, Scale: "z", PCAVariance: 0.99, States: []int{2, 3, 4}, StatesRule: "valley", Valley: 0.5,
+	m := job.NewModel(r, cohort.ReadOptions{ID: "participant", Order: "window"}, [][3]float64{{0, 1, 2}, {0, 1, 2}, {0, 1, 2}})
+	m.Fit = &modelfile.FitSettings{Within: "align", Log: true, Scale: "z", PCAVariance: 0.99, States: []int{2, 3, 4}, StatesRule: "valley", Valley: 0.5,
 		Sample: 50000, Groups: []int{2, 3}, Method: "ward-hellinger", Criterion: "gap", Bootstrap: 20, Seed: 1}
 	dir := t.TempDir()
 	p := filepath.Join(dir, "m.json")
-	if err := WriteModel(p, m, false); err != nil {
+	if err := modelfile.Write(p, m, false); err != nil {
 		t.Fatal(err)
 	}
-	back, err := ReadModel(p)
+	back, err := modelfile.ReadFile(p)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -281,9 +284,9 @@ func TestModelRoundTripAndDamage(t *testing.T) {
 			if c.edit == string(good) {
 				t.Fatal("the edit did not apply")
 			}
-			_, err := ParseModel("m.json", []byte(c.edit))
-			if err == nil || !errors.Is(err, ErrModel) || !strings.Contains(err.Error(), c.want) || !strings.HasPrefix(err.Error(), "m.json: ") {
-				t.Errorf("got %v, want ErrModel naming %q", err, c.want)
+			_, err := modelfile.Parse("m.json", []byte(c.edit))
+			if err == nil || !errors.Is(err, modelfile.ErrModel) || !strings.Contains(err.Error(), c.want) || !strings.HasPrefix(err.Error(), "m.json: ") {
+				t.Errorf("got %v, want modelfile.ErrModel naming %q", err, c.want)
 			}
 		})
 	}
@@ -293,30 +296,30 @@ func TestModelRoundTripAndDamage(t *testing.T) {
 // checks behind the checksum.
 func resum(t *testing.T, edited string) string {
 	t.Helper()
-	var m Model
+	var m modelfile.Model
 	if err := json.Unmarshal([]byte(edited), &m); err != nil {
 		t.Fatal(err)
 	}
 	var b bytes.Buffer
-	if err := ModelTo(&b, &m); err != nil {
+	if err := modelfile.Encode(&b, &m); err != nil {
 		t.Fatal(err)
 	}
 	return b.String()
 }
 
-// FuzzParseModel: a damaged or hand-edited model file is refused with ErrModel, never a panic.
+// FuzzParseModel: a damaged or hand-edited model file is refused with modelfile.ErrModel, never a panic.
 func FuzzParseModel(f *testing.F) {
 	r := fixture(f, 6, func(i int) string { return "P" + digits(i) })
-	m := NewModel(r, cohort.ReadOptions{}, [][3]float64{{0, 1, 2}, {0, 1, 2}, {0, 1, 2}})
+	m := job.NewModel(r, cohort.ReadOptions{}, [][3]float64{{0, 1, 2}, {0, 1, 2}, {0, 1, 2}})
 	b, _ := json.MarshalIndent(m, "", " ")
 	f.Add(b)
 	f.Add([]byte(`{"format":"cohortmix model","version":1}`))
 	f.Add([]byte(`{"format":"cohortmix model","version":1,"features":["a"],"normalize":{"pca_components":[[]]}}`))
 	f.Fuzz(func(t *testing.T, b []byte) {
-		m, err := ParseModel("fuzz.json", b)
+		m, err := modelfile.Parse("fuzz.json", b)
 		if err != nil {
-			if !errors.Is(err, ErrModel) {
-				t.Fatalf("error without ErrModel: %v", err)
+			if !errors.Is(err, modelfile.ErrModel) {
+				t.Fatalf("error without modelfile.ErrModel: %v", err)
 			}
 			return
 		}
@@ -413,7 +416,7 @@ func TestStateNames(t *testing.T) {
 
 func TestNaturalOrder(t *testing.T) {
 	ids := []string{"P10", "P2", "P1", "P100", "P02", "Q1", "P9a", "P9"}
-	sort.SliceStable(ids, func(a, b int) bool { return NaturalLess(ids[a], ids[b]) })
+	sort.SliceStable(ids, func(a, b int) bool { return cohort.NaturalLess(ids[a], ids[b]) })
 	if got, want := strings.Join(ids, " "), "P1 P2 P02 P9 P9a P10 P100 Q1"; got != want {
 		t.Errorf("natural order %q, want %q", got, want)
 	}

@@ -6,6 +6,7 @@ import (
 	"strings"
 
 	"github.com/cohortmix/cohortmix/cohort"
+	"github.com/cohortmix/cohortmix/cohort/job"
 	"github.com/xuri/excelize/v2"
 )
 
@@ -38,8 +39,9 @@ func summarySheet(f *excelize.File, st *styles, r *Result) error {
 	if err := title(groupsTitle); err != nil {
 		return err
 	}
+	groupLines := GroupLines(r)
 	for g, name := range r.GroupNames {
-		line := r.GroupLines[g]
+		line := groupLines[g]
 		if r.Reproducibility < Unreproducible {
 			line = "NOT REPRODUCIBLE (see the warning below): " + line
 		}
@@ -54,7 +56,7 @@ func summarySheet(f *excelize.File, st *styles, r *Result) error {
 		}
 	}
 	if r.Changes != nil {
-		if err := put("Moved since the model", capital(r.Changes.MovedText())+" (see "+SheetChanges+")"); err != nil {
+		if err := put("Moved since the model", capital(MovedText(r.Changes))+" (see "+SheetChanges+")"); err != nil {
 			return err
 		}
 	}
@@ -72,8 +74,9 @@ func summarySheet(f *excelize.File, st *styles, r *Result) error {
 	if err := title("Movement states"); err != nil {
 		return err
 	}
+	stateLines := StateLines(r)
 	for s, name := range r.StateNames {
-		if err := put(name, r.StateLines[s]); err != nil {
+		if err := put(name, stateLines[s]); err != nil {
 			return err
 		}
 	}
@@ -121,7 +124,7 @@ func summaryTitle(r *Result) string {
 }
 
 // modelText names the model a run started from and when it was fitted.
-func modelText(c *Changes) string {
+func modelText(c *job.Changes) string {
 	s := "the model " + c.Model
 	if !c.ModelCreated.IsZero() {
 		s += " (fitted " + c.ModelCreated.UTC().Format("2006-01-02") + ")"
@@ -138,7 +141,7 @@ func inShort(r *Result) string {
 			weak++
 		}
 	}
-	who := fmt.Sprintf("%d %s", c.Grouped, c.Unit(c.Grouped))
+	who := fmt.Sprintf("%d %s", c.Grouped, UnitWord(c, c.Grouped))
 	if c.Waves {
 		who += fmt.Sprintf(" (%d people)", c.PeopleGrouped)
 	}
@@ -158,10 +161,10 @@ func inShort(r *Result) string {
 	}
 	b.WriteString(".")
 	if c.Atypical > 0 {
-		fmt.Fprintf(&b, " %d %s lie farther from every group than the model's own members and are in no group.", c.Atypical, c.Unit(c.Atypical))
+		fmt.Fprintf(&b, " %d %s lie farther from every group than the model's own members and are in no group.", c.Atypical, UnitWord(c, c.Atypical))
 	}
 	if c.Excluded > 0 {
-		fmt.Fprintf(&b, " %d %s had too little usable data and were left out (see %s).", c.Excluded, c.Unit(c.Excluded), SheetQuality)
+		fmt.Fprintf(&b, " %d %s had too little usable data and were left out (see %s).", c.Excluded, UnitWord(c, c.Excluded), SheetQuality)
 	}
 	if r.Changes != nil {
 		fmt.Fprintf(&b, " %s shows who moved between groups since then.", SheetChanges)
@@ -185,7 +188,7 @@ func sheetGuide(r *Result) [][2]string {
 		{SheetSummary, "This page: the groups and states in plain words, the cautions, and the details of the run."},
 		{SheetCharts, "The groups' mixtures of states and the states' features as charts, and each group's members."},
 		{SheetDefinitions, "What every measure and column means, what it may and may not be taken to show, and its published source."},
-		{SheetParticipants, "One row per " + r.Counts().Unit(1) + ": group, how well it fits there, and its share of time and bout length in each state."},
+		{SheetParticipants, "One row per " + UnitWord(r.Counts(), 1) + ": group, how well it fits there, and its share of time and bout length in each state."},
 	}
 	if r.Changes != nil {
 		g = append(g, [2]string{SheetChanges, "Who moved between groups since " + modelText(r.Changes) + ", and what became of each group."})
@@ -217,8 +220,8 @@ func detailRows(r *Result) [][2]string {
 		{"Number of states", fmt.Sprintf("%d (%s)", r.States.K, r.States.Rule)},
 		{"Number of groups", fmt.Sprintf("%d (%s)", r.Grouping.K, choiceText(r))},
 		{"Reproducibility", reproducibilityText(r.Reproducibility)},
-		{capital(c.Unit(2)), participantsText(c)},
-		{"Windows", windowsText(q, c.Unit(2))},
+		{capital(UnitWord(c, 2)), participantsText(c)},
+		{"Windows", windowsText(q, UnitWord(c, 2))},
 		{"Window length", window},
 		{"Features", fmt.Sprintf("%d used: %s", len(r.Features), join(r.Features))},
 		{"Created", r.Created.UTC().Format("2006-01-02 15:04:05 UTC") + " by " + r.Tool + " " + r.Version},

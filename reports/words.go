@@ -308,8 +308,8 @@ func Percent(x float64) string {
 // stateLabel is a state's code with its plain name, "S2 stillness 1", for the charts' legends;
 // the code alone when the state has no name in words.
 func stateLabel(r *Result, s int) string {
-	if s < len(r.StateWords) && r.StateWords[s].Name != "" {
-		return r.StateNames[s] + " " + r.StateWords[s].Name
+	if ws := StateWordsOf(r); s < len(ws) && ws[s].Name != "" {
+		return r.StateNames[s] + " " + ws[s].Name
 	}
 	return r.StateNames[s]
 }

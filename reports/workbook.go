@@ -8,6 +8,7 @@ import (
 
 	"github.com/cohortmix/cohortmix/cluster/groupstat"
 	"github.com/cohortmix/cohortmix/cohort"
+	"github.com/cohortmix/cohortmix/cohort/scratch"
 	"github.com/cohortmix/cohortmix/profile"
 	"github.com/xuri/excelize/v2"
 )
@@ -86,9 +87,9 @@ func BuildWorkbook(r *Result) (*excelize.File, error) {
 	return f, nil
 }
 
-// WriteWorkbook writes the workbook to path atomically (see WriteAtomic).
+// WriteWorkbook writes the workbook to path atomically (scratch.WriteAtomic).
 func WriteWorkbook(path string, r *Result, force bool) error {
-	return WriteAtomic(path, force, func(w io.Writer) error { return WorkbookTo(w, r) })
+	return scratch.WriteAtomic(path, force, func(w io.Writer) error { return WorkbookTo(w, r) })
 }
 
 // WorkbookTo builds the workbook and writes it to w.
@@ -372,6 +373,7 @@ func groupsSheet(f *excelize.File, st *styles, r *Result) error {
 		}
 	}
 	groupBouts := groupstat.GroupMeansOfPositive(bouts, labels, len(r.GroupNames))
+	groupLines := GroupLines(r)
 	for g := range r.GroupNames {
 		var n, sil float64
 		share := make([]float64, k)
@@ -386,9 +388,9 @@ func groupsSheet(f *excelize.File, st *styles, r *Result) error {
 				share[s] += u.Share[s]
 			}
 		}
-		cells := []v{{r.GroupNames[g], st.text}, {int(n), st.integer}, {sil / n, st.dec3}, {r.GroupLines[g], st.wrap}}
+		cells := []v{{r.GroupNames[g], st.text}, {int(n), st.integer}, {sil / n, st.dec3}, {groupLines[g], st.wrap}}
 		if stable {
-			cells = []v{{r.GroupNames[g], st.text}, {int(n), st.integer}, {sil / n, st.dec3}, {r.Grouping.Stability.Jaccard[g], st.dec2}, {r.GroupLines[g], st.wrap}}
+			cells = []v{{r.GroupNames[g], st.text}, {int(n), st.integer}, {sil / n, st.dec3}, {r.Grouping.Stability.Jaccard[g], st.dec2}, {groupLines[g], st.wrap}}
 		}
 		for s := 0; s < k; s++ {
 			cells = append(cells, v{share[s] / n, st.pct})
@@ -608,8 +610,9 @@ func statesSheet(f *excelize.File, st *styles, r *Result) error {
 	if err := t.heading(head...); err != nil {
 		return err
 	}
+	stateLines := StateLines(r)
 	for s, d := range r.StateDesc {
-		cells := []v{{r.StateNames[s], st.text}, {d.Share, st.pct}, {r.StateLines[s], st.wrap}}
+		cells := []v{{r.StateNames[s], st.text}, {d.Share, st.pct}, {stateLines[s], st.wrap}}
 		for _, m := range d.Mean {
 			cells = append(cells, v{m, st.dec4})
 		}
@@ -712,7 +715,7 @@ func qualitySheet(f *excelize.File, st *styles, r *Result) error {
 		a string
 		n int
 	}
-	u := c.Unit(2)
+	u := UnitWord(c, 2)
 	counts := []count{{u + " in", q.UnitsIn}, {u + " grouped", c.Grouped}}
 	if c.Atypical > 0 {
 		counts = append(counts, count{u + " atypical (in no group)", c.Atypical})

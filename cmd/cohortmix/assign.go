@@ -11,6 +11,7 @@ import (
 	"time"
 
 	"github.com/cohortmix/cohortmix/cohort"
+	"github.com/cohortmix/cohortmix/cohort/modelfile"
 	"github.com/cohortmix/cohortmix/reports"
 	"github.com/spf13/cobra"
 )
@@ -88,7 +89,7 @@ func assignRun(ctx context.Context, o *assignOptions) error {
 		return err
 	}
 	defer plan.Abort()
-	m, err := reports.ReadModel(o.Model)
+	m, err := modelfile.ReadFile(o.Model)
 	if err != nil {
 		return err
 	}
@@ -147,7 +148,7 @@ func assignRun(ctx context.Context, o *assignOptions) error {
 	}
 	res.Tool, res.Version, res.Created = "cohortmix", version, o.Now()
 	res.Command = strings.Join(o.Args, " ")
-	res.Settings = append([]reports.Setting{{Name: "mode", Value: "assign (no refitting)"}, {Name: "model", Value: o.Model}}, m.Settings...)
+	res.Settings = append([]modelfile.Setting{{Name: "mode", Value: "assign (no refitting)"}, {Name: "model", Value: o.Model}}, m.Settings...)
 	res.States.Candidates = nil
 	for _, name := range extra {
 		res.Quality.IgnoredColumns = append(res.Quality.IgnoredColumns, cohort.Note{Name: name, Reason: "not in the model: ignored"})
@@ -158,7 +159,7 @@ func assignRun(ctx context.Context, o *assignOptions) error {
 		}
 	}
 	if key != nil {
-		reports.Pseudonymize(res, key)
+		job.Pseudonymize(res, key)
 	}
 	medians := job.FeatureMedians(f)
 	res.Warnings = append(res.Warnings, cohort.CheckRanges(t.Features, m.FeatureMeds, medians)...)
@@ -179,7 +180,7 @@ func assignRun(ctx context.Context, o *assignOptions) error {
 		return err
 	}
 	c := res.Counts()
-	fmt.Fprintf(o.IO.Out, "%d %s placed with %s: %d in a group, %d atypical (in no group), %d excluded → %s\n", c.UnitsIn, c.Unit(c.UnitsIn), o.Model, c.Grouped, c.Atypical, c.Excluded, o.Out)
+	fmt.Fprintf(o.IO.Out, "%d %s placed with %s: %d in a group, %d atypical (in no group), %d excluded → %s\n", c.UnitsIn, reports.UnitWord(c, c.UnitsIn), o.Model, c.Grouped, c.Atypical, c.Excluded, o.Out)
 	for _, w := range res.Warnings {
 		fmt.Fprintln(o.IO.Out, "warning: "+w)
 	}
@@ -188,7 +189,7 @@ func assignRun(ctx context.Context, o *assignOptions) error {
 
 // readOptions are the model's reading settings, with the flags given over them: a later wave
 // may name its columns otherwise.
-func (o *assignOptions) readOptions(m *reports.Model) (cohort.ReadOptions, error) {
+func (o *assignOptions) readOptions(m *modelfile.Model) (cohort.ReadOptions, error) {
 	ro := m.Read.ReadOptions()
 	ro.TempDir = o.Temp
 	for _, set := range []struct {
@@ -213,7 +214,7 @@ func (o *assignOptions) readOptions(m *reports.Model) (cohort.ReadOptions, error
 
 // readForModel reads new data with the given reading settings and keeps the model's features, in
 // its order; a feature the model needs and the input lacks is an error that names it.
-func readForModel(ctx context.Context, inputs []string, m *reports.Model, ro cohort.ReadOptions) (*cohort.Table, []string, error) {
+func readForModel(ctx context.Context, inputs []string, m *modelfile.Model, ro cohort.ReadOptions) (*cohort.Table, []string, error) {
 	t, err := cohort.Read(ctx, inputs, ro)
 	if err != nil {
 		return nil, nil, err

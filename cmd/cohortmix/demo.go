@@ -11,8 +11,9 @@ import (
 	"time"
 
 	"github.com/cohortmix/cohortmix/cluster"
+	"github.com/cohortmix/cohortmix/cohort/pseudonym"
+	"github.com/cohortmix/cohortmix/cohort/scratch"
 	"github.com/cohortmix/cohortmix/cohort/synth"
-	"github.com/cohortmix/cohortmix/reports"
 	"github.com/spf13/cobra"
 )
 
@@ -79,7 +80,7 @@ func demoRun(ctx context.Context, o *demoOptions) error {
 	}
 	g.Args = []string{"cohortmix", "group", data, "--label", g.Flags.Label, "--window-length", g.Flags.WindowLength.String(), "--out", g.Out}
 	for _, p := range []string{data, truthPath} {
-		if err := reports.CheckTarget(p, o.Flags.Force); err != nil {
+		if err := scratch.CheckTarget(p, o.Flags.Force); err != nil {
 			return err
 		}
 	}
@@ -89,7 +90,7 @@ func demoRun(ctx context.Context, o *demoOptions) error {
 	so := o.Synth
 	so.Seed, so.Labels = o.Flags.Seed, true
 	var truth []synth.Truth
-	err := reports.WriteAtomic(data, o.Flags.Force, func(w io.Writer) (err error) {
+	err := scratch.WriteAtomic(data, o.Flags.Force, func(w io.Writer) (err error) {
 		truth, err = synth.Write(w, so, false)
 		return err
 	})
@@ -109,7 +110,7 @@ func demoRun(ctx context.Context, o *demoOptions) error {
 			return err
 		}
 		for i := range truth {
-			truth[i].ID = reports.Pseudonym(key, truth[i].ID)
+			truth[i].ID = pseudonym.Of(key, truth[i].ID)
 		}
 	}
 	ari, err := compareMembers(g.Flags.Members, truth)
@@ -121,7 +122,7 @@ func demoRun(ctx context.Context, o *demoOptions) error {
 }
 
 func writeTruth(path string, truth []synth.Truth, force bool) error {
-	return reports.WriteAtomic(path, force, func(w io.Writer) error {
+	return scratch.WriteAtomic(path, force, func(w io.Writer) error {
 		cw := csv.NewWriter(w)
 		_ = cw.Write([]string{"participant", "planted_group"})
 		for _, t := range truth {
@@ -169,7 +170,7 @@ func demoRaw(ctx context.Context, o *demoOptions) error {
 	recs := filepath.Join(o.Dir, "raw-recordings")
 	windows := filepath.Join(o.Dir, "demo-windows.csv")
 	if _, err := os.Stat(recs); err == nil && !o.Flags.Force {
-		return fmt.Errorf("%s: %w; pass --force to write the demo again, or choose another --dir", recs, reports.ErrExists)
+		return fmt.Errorf("%s: %w; pass --force to write the demo again, or choose another --dir", recs, scratch.ErrExists)
 	}
 	raws, err := synth.WriteRaw(recs, synth.RawOptions{Participants: 40, Hours: 3, Rate: 10, Seed: o.Flags.Seed})
 	if err != nil {

@@ -11,9 +11,9 @@ import (
 	"time"
 
 	"github.com/cohortmix/cohortmix/cohort"
+	"github.com/cohortmix/cohortmix/cohort/modelfile"
 	"github.com/cohortmix/cohortmix/normalize"
 	"github.com/cohortmix/cohortmix/profile"
-	"github.com/cohortmix/cohortmix/reports"
 	"github.com/schollz/progressbar/v3"
 	"github.com/spf13/cobra"
 	"github.com/spf13/pflag"
@@ -336,9 +336,9 @@ func secondOf(flag, value, first, second string) (bool, error) {
 }
 
 // settings lists every parameter for the settings sheet.
-func (m *mainFlags) settings() []reports.Setting {
-	s := func(n, v string) reports.Setting { return reports.Setting{Name: n, Value: v} }
-	return []reports.Setting{
+func (m *mainFlags) settings() []modelfile.Setting {
+	s := func(n, v string) modelfile.Setting { return modelfile.Setting{Name: n, Value: v} }
+	return []modelfile.Setting{
 		s("id column", m.ID), s("order column", m.Order), s("wave column", m.Wave), s("label column", m.Label),
 		s("feature patterns", strings.Join(m.Features, ",")), s("missing cells", m.Missing), s("minimum windows", strconv.Itoa(m.MinWindows)),
 		s("non-wear rule", m.NonWear), s("non-wear counts column", m.NonWearColumn), s("time zone", m.TimeZone), s("wear column", m.WearColumn),
@@ -500,49 +500,51 @@ func windowSetting(d time.Duration) string {
 	return d.String()
 }
 
-// modelFlags sets each fit flag from a model's settings (reports.ModelFit and ModelRead), for
+// modelFlags sets each fit flag from a model's settings (modelfile.FitSettings and ModelRead), for
 // refresh: every flag that is not runOnly has a row (TestModelFlagsCoverEveryFitFlag).
-var modelFlags = map[string]func(m *mainFlags, f *reports.ModelFit, r reports.ModelRead){
-	"id":    func(m *mainFlags, _ *reports.ModelFit, r reports.ModelRead) { m.ID = r.ID },
-	"order": func(m *mainFlags, _ *reports.ModelFit, r reports.ModelRead) { m.Order = r.Order },
-	"wave":  func(m *mainFlags, _ *reports.ModelFit, r reports.ModelRead) { m.Wave = r.Wave },
-	"label": func(m *mainFlags, _ *reports.ModelFit, r reports.ModelRead) { m.Label = r.Label },
-	"features": func(m *mainFlags, _ *reports.ModelFit, r reports.ModelRead) {
+var modelFlags = map[string]func(m *mainFlags, f *modelfile.FitSettings, r modelfile.ReadSettings){
+	"id":    func(m *mainFlags, _ *modelfile.FitSettings, r modelfile.ReadSettings) { m.ID = r.ID },
+	"order": func(m *mainFlags, _ *modelfile.FitSettings, r modelfile.ReadSettings) { m.Order = r.Order },
+	"wave":  func(m *mainFlags, _ *modelfile.FitSettings, r modelfile.ReadSettings) { m.Wave = r.Wave },
+	"label": func(m *mainFlags, _ *modelfile.FitSettings, r modelfile.ReadSettings) { m.Label = r.Label },
+	"features": func(m *mainFlags, _ *modelfile.FitSettings, r modelfile.ReadSettings) {
 		m.Features = slices.Clone(r.Features)
 	},
-	"missing": func(m *mainFlags, _ *reports.ModelFit, r reports.ModelRead) {
+	"missing": func(m *mainFlags, _ *modelfile.FitSettings, r modelfile.ReadSettings) {
 		m.Missing = "drop"
 		if r.Missing == cohort.ImputeMedian.String() {
 			m.Missing = "impute"
 		}
 	},
-	"min-windows": func(m *mainFlags, _ *reports.ModelFit, r reports.ModelRead) { m.MinWindows = r.MinWindows },
-	"non-wear": func(m *mainFlags, _ *reports.ModelFit, r reports.ModelRead) {
+	"min-windows": func(m *mainFlags, _ *modelfile.FitSettings, r modelfile.ReadSettings) { m.MinWindows = r.MinWindows },
+	"non-wear": func(m *mainFlags, _ *modelfile.FitSettings, r modelfile.ReadSettings) {
 		m.NonWear = "none" // a model from before the rule read every window
 		if r.NonWear != "" {
 			m.NonWear = r.NonWear
 		}
 	},
-	"non-wear-column": func(m *mainFlags, _ *reports.ModelFit, r reports.ModelRead) { m.NonWearColumn = r.NonWearFeature },
-	"time-zone":       func(m *mainFlags, _ *reports.ModelFit, r reports.ModelRead) { m.TimeZone = r.TimeZone },
-	"wear-column":     func(m *mainFlags, _ *reports.ModelFit, r reports.ModelRead) { m.WearColumn = r.WearColumn },
-	"valid-day": func(m *mainFlags, _ *reports.ModelFit, r reports.ModelRead) {
+	"non-wear-column": func(m *mainFlags, _ *modelfile.FitSettings, r modelfile.ReadSettings) {
+		m.NonWearColumn = r.NonWearFeature
+	},
+	"time-zone":   func(m *mainFlags, _ *modelfile.FitSettings, r modelfile.ReadSettings) { m.TimeZone = r.TimeZone },
+	"wear-column": func(m *mainFlags, _ *modelfile.FitSettings, r modelfile.ReadSettings) { m.WearColumn = r.WearColumn },
+	"valid-day": func(m *mainFlags, _ *modelfile.FitSettings, r modelfile.ReadSettings) {
 		m.ValidDay = "none" // a model from before the rule kept every day
 		if r.ValidDay != "" {
 			m.ValidDay = r.ValidDay
 		}
 	},
-	"valid-days": func(m *mainFlags, _ *reports.ModelFit, r reports.ModelRead) {
+	"valid-days": func(m *mainFlags, _ *modelfile.FitSettings, r modelfile.ReadSettings) {
 		m.ValidDays = max(r.ValidDays, 1)
 	},
-	"weekend-day": func(m *mainFlags, _ *reports.ModelFit, r reports.ModelRead) { m.WeekendDay = r.WeekendDay },
-	"within":      func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) { m.Within = f.Within },
-	"within-features": func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) {
+	"weekend-day": func(m *mainFlags, _ *modelfile.FitSettings, r modelfile.ReadSettings) { m.WeekendDay = r.WeekendDay },
+	"within":      func(m *mainFlags, f *modelfile.FitSettings, _ modelfile.ReadSettings) { m.Within = f.Within },
+	"within-features": func(m *mainFlags, f *modelfile.FitSettings, _ modelfile.ReadSettings) {
 		m.WithinFeatures = slices.Clone(f.WithinFeatures)
 	},
-	"offset-icc": func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) { m.OffsetICC = f.OffsetICC },
-	"rest-share": func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) { m.RestShare = f.RestShare },
-	"axes": func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) {
+	"offset-icc": func(m *mainFlags, f *modelfile.FitSettings, _ modelfile.ReadSettings) { m.OffsetICC = f.OffsetICC },
+	"rest-share": func(m *mainFlags, f *modelfile.FitSettings, _ modelfile.ReadSettings) { m.RestShare = f.RestShare },
+	"axes": func(m *mainFlags, f *modelfile.FitSettings, _ modelfile.ReadSettings) {
 		switch {
 		case f.NoAxes:
 			m.Axes = "none"
@@ -552,20 +554,20 @@ var modelFlags = map[string]func(m *mainFlags, f *reports.ModelFit, r reports.Mo
 			m.Axes = "auto"
 		}
 	},
-	"turn": func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) {
+	"turn": func(m *mainFlags, f *modelfile.FitSettings, _ modelfile.ReadSettings) {
 		m.Turn = "all"
 		if f.NoTurn {
 			m.Turn = "means"
 		}
 	},
-	"log": func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) {
+	"log": func(m *mainFlags, f *modelfile.FitSettings, _ modelfile.ReadSettings) {
 		m.Log = "none"
 		if f.Log {
 			m.Log = "auto"
 		}
 	},
-	"scale": func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) { m.Scale = f.Scale },
-	"pca": func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) {
+	"scale": func(m *mainFlags, f *modelfile.FitSettings, _ modelfile.ReadSettings) { m.Scale = f.Scale },
+	"pca": func(m *mainFlags, f *modelfile.FitSettings, _ modelfile.ReadSettings) {
 		switch {
 		case f.NoPCA:
 			m.PCA = "off"
@@ -578,37 +580,37 @@ var modelFlags = map[string]func(m *mainFlags, f *reports.ModelFit, r reports.Mo
 			}
 		}
 	},
-	"states":      func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) { m.States = rangeText(f.States) },
-	"states-rule": func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) { m.StatesRule = f.StatesRule },
-	"calibration": func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) {
+	"states":      func(m *mainFlags, f *modelfile.FitSettings, _ modelfile.ReadSettings) { m.States = rangeText(f.States) },
+	"states-rule": func(m *mainFlags, f *modelfile.FitSettings, _ modelfile.ReadSettings) { m.StatesRule = f.StatesRule },
+	"calibration": func(m *mainFlags, f *modelfile.FitSettings, _ modelfile.ReadSettings) {
 		m.Calibration = "sphere"
 		if f.NoCalibration {
 			m.Calibration = "off"
 		}
 	},
-	"valley":       func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) { m.Valley = f.Valley },
-	"fits":         func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) { m.Fits = max(1, f.Fits) },
-	"sample":       func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) { m.Sample = f.Sample },
-	"groups":       func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) { m.Groups = rangeText(f.Groups) },
-	"method":       func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) { m.Method = f.Method },
-	"criterion":    func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) { m.Criterion = f.Criterion },
-	"group-valley": func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) { m.GroupValley = f.GroupValley },
-	"keep-twins":   func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) { m.KeepTwins = f.KeepTwins },
-	"signature": func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) {
+	"valley":       func(m *mainFlags, f *modelfile.FitSettings, _ modelfile.ReadSettings) { m.Valley = f.Valley },
+	"fits":         func(m *mainFlags, f *modelfile.FitSettings, _ modelfile.ReadSettings) { m.Fits = max(1, f.Fits) },
+	"sample":       func(m *mainFlags, f *modelfile.FitSettings, _ modelfile.ReadSettings) { m.Sample = f.Sample },
+	"groups":       func(m *mainFlags, f *modelfile.FitSettings, _ modelfile.ReadSettings) { m.Groups = rangeText(f.Groups) },
+	"method":       func(m *mainFlags, f *modelfile.FitSettings, _ modelfile.ReadSettings) { m.Method = f.Method },
+	"criterion":    func(m *mainFlags, f *modelfile.FitSettings, _ modelfile.ReadSettings) { m.Criterion = f.Criterion },
+	"group-valley": func(m *mainFlags, f *modelfile.FitSettings, _ modelfile.ReadSettings) { m.GroupValley = f.GroupValley },
+	"keep-twins":   func(m *mainFlags, f *modelfile.FitSettings, _ modelfile.ReadSettings) { m.KeepTwins = f.KeepTwins },
+	"signature": func(m *mainFlags, f *modelfile.FitSettings, _ modelfile.ReadSettings) {
 		m.Signature = job.SignatureWhole
 		if f.Signature != "" {
 			m.Signature = f.Signature
 		}
 	},
-	"day-parts": func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) {
+	"day-parts": func(m *mainFlags, f *modelfile.FitSettings, _ modelfile.ReadSettings) {
 		m.DayParts = []int{0, 6, 12, 18}
 		if len(f.DayParts) > 0 {
 			m.DayParts = slices.Clone(f.DayParts)
 		}
 	},
-	"bootstrap": func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) { m.Bootstrap = f.Bootstrap },
-	"seed":      func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) { m.Seed = f.Seed },
-	"window-length": func(m *mainFlags, f *reports.ModelFit, _ reports.ModelRead) {
+	"bootstrap": func(m *mainFlags, f *modelfile.FitSettings, _ modelfile.ReadSettings) { m.Bootstrap = f.Bootstrap },
+	"seed":      func(m *mainFlags, f *modelfile.FitSettings, _ modelfile.ReadSettings) { m.Seed = f.Seed },
+	"window-length": func(m *mainFlags, f *modelfile.FitSettings, _ modelfile.ReadSettings) {
 		m.WindowLength = time.Duration(math.Round(f.WindowSeconds * float64(time.Second)))
 	},
 }
@@ -626,7 +628,7 @@ func rangeText(ks []int) string {
 
 // fromModel sets the fit flags the user did not give (changed) as a model was fitted: from its
 // typed settings, or for a version-2 model from its options by flag name.
-func (m *mainFlags) fromModel(prev *reports.Model, changed func(name string) bool) error {
+func (m *mainFlags) fromModel(prev *modelfile.Model, changed func(name string) bool) error {
 	if prev.Fit == nil {
 		return m.applyOptions(prev.Options, changed)
 	}

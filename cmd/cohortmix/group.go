@@ -11,6 +11,8 @@ import (
 	"time"
 
 	"github.com/cohortmix/cohortmix/cohort"
+	"github.com/cohortmix/cohortmix/cohort/modelfile"
+	"github.com/cohortmix/cohortmix/cohort/pseudonym"
 	"github.com/cohortmix/cohortmix/reports"
 	"github.com/spf13/cobra"
 	"github.com/spf13/pflag"
@@ -93,7 +95,7 @@ func groupRun(ctx context.Context, o *groupOptions) error {
 		return err
 	}
 	if key != nil {
-		reports.MarkPseudonymized(res) // the ids were replaced as they were read
+		job.MarkPseudonymized(res) // the ids were replaced as they were read
 	}
 	if err := ctx.Err(); err != nil {
 		return err
@@ -133,13 +135,13 @@ func pseudonymAtRead(ro *cohort.ReadOptions, key []byte) {
 	if key == nil {
 		return
 	}
-	ro.Pseudonym = func(id string) string { return reports.Pseudonym(key, id) }
-	ro.Pseudonyms = reports.KeyFingerprint(key)
+	ro.Pseudonym = func(id string) string { return pseudonym.Of(key, id) }
+	ro.Pseudonyms = pseudonym.Fingerprint(key)
 }
 
 // write writes the workbook and, when asked for, the members CSV and the model file, each to a
 // temporary file, and puts them all in place together.
-func (o *groupOptions) write(res *reports.Result, read cohort.ReadOptions, fit *reports.ModelFit) error {
+func (o *groupOptions) write(res *reports.Result, read cohort.ReadOptions, fit *modelfile.FitSettings) error {
 	inFlagWords(res)
 	if err := o.plan.Write("--out", func(w io.Writer) error { return reports.WorkbookTo(w, res) }); err != nil {
 		return err
@@ -150,12 +152,12 @@ func (o *groupOptions) write(res *reports.Result, read cohort.ReadOptions, fit *
 		}
 	}
 	if o.plan.Has("--model") {
-		m := reports.NewModel(res, read, res.FeatureRange)
+		m := job.NewModel(res, read, res.FeatureRange)
 		m.Fit = fit
 		if o.key != nil {
-			m.Pseudonymized, m.KeyFingerprint = true, reports.KeyFingerprint(o.key)
+			m.Pseudonymized, m.KeyFingerprint = true, pseudonym.Fingerprint(o.key)
 		}
-		if err := o.plan.Write("--model", func(w io.Writer) error { return reports.ModelTo(w, m) }); err != nil {
+		if err := o.plan.Write("--model", func(w io.Writer) error { return modelfile.Encode(w, m) }); err != nil {
 			return err
 		}
 	}
@@ -167,7 +169,7 @@ func loadKey(path string) ([]byte, error) {
 	if path == "" {
 		return nil, nil
 	}
-	return reports.LoadKey(path)
+	return pseudonym.LoadKey(path)
 }
 
 func printSummary(io IO, r *reports.Result, out string) {
@@ -180,7 +182,7 @@ func printSummary(io IO, r *reports.Result, out string) {
 	if r.Grouping.K == 1 {
 		groups = "no distinct groups"
 	}
-	fmt.Fprintf(io.Out, "%d %s%s grouped (%d excluded), %d movement states, %s → %s\n", c.Grouped, c.Unit(c.Grouped), people, c.Excluded, r.States.K, groups, out)
+	fmt.Fprintf(io.Out, "%d %s%s grouped (%d excluded), %d movement states, %s → %s\n", c.Grouped, reports.UnitWord(c, c.Grouped), people, c.Excluded, r.States.K, groups, out)
 	sizes := map[int]int{}
 	for _, u := range r.Units {
 		sizes[u.Group]++
@@ -190,8 +192,9 @@ func printSummary(io IO, r *reports.Result, out string) {
 		keys = append(keys, g)
 	}
 	sort.Ints(keys)
+	lines := reports.GroupLines(r)
 	for _, g := range keys {
-		fmt.Fprintf(io.Out, "  %s: %s\n", r.GroupNames[g], r.GroupLines[g])
+		fmt.Fprintf(io.Out, "  %s: %s\n", r.GroupNames[g], lines[g])
 	}
 	for _, w := range r.Warnings {
 		fmt.Fprintln(io.Out, "warning: "+w)

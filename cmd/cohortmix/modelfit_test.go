@@ -8,13 +8,13 @@ import (
 	"strings"
 	"testing"
 
+	"github.com/cohortmix/cohortmix/cohort/modelfile"
 	"github.com/cohortmix/cohortmix/cohort/synth"
-	"github.com/cohortmix/cohortmix/reports"
 	"github.com/spf13/cobra"
 	"github.com/spf13/pflag"
 )
 
-// The model keeps the fit's settings typed (reports.ModelFit), and refresh turns them back into
+// The model keeps the fit's settings typed (modelfile.FitSettings), and refresh turns them back into
 // flags: every fit flag has a row in modelFlags, and a command line far from the defaults
 // comes back as the same options.
 func TestModelFlagsCoverEveryFitFlag(t *testing.T) {
@@ -48,7 +48,7 @@ func TestModelFlagsCoverEveryFitFlag(t *testing.T) {
 		var back mainFlags
 		b := &cobra.Command{}
 		back.register(b)
-		prev := &reports.Model{Version: reports.ModelVersion, Fit: o.ModelFit(), Read: reports.ReadOf(o.Read)}
+		prev := &modelfile.Model{Version: modelfile.Version, Fit: o.ModelFit(), Read: modelfile.ReadSettingsOf(o.Read)}
 		if err := back.fromModel(prev, func(string) bool { return false }); err != nil {
 			t.Fatal(err)
 		}

@@ -9,7 +9,8 @@ import (
 	"time"
 
 	"github.com/cohortmix/cohortmix/cohort"
-	"github.com/cohortmix/cohortmix/reports"
+	"github.com/cohortmix/cohortmix/cohort/modelfile"
+	"github.com/cohortmix/cohortmix/cohort/pseudonym"
 	"github.com/spf13/cobra"
 )
 
@@ -57,7 +58,7 @@ func refreshRun(ctx context.Context, o *refreshOptions) error {
 		return err
 	}
 	defer o.plan.Abort()
-	prev, err := reports.ReadModel(o.Previous)
+	prev, err := modelfile.ReadFile(o.Previous)
 	if err != nil {
 		return err
 	}
@@ -95,7 +96,7 @@ func refreshRun(ctx context.Context, o *refreshOptions) error {
 	for _, u := range f.Table.Units {
 		id := u.ID
 		if key != nil {
-			id = reports.Pseudonym(key, id) // the previous model holds pseudonyms
+			id = pseudonym.Of(key, id) // the previous model holds pseudonyms
 		}
 		p, ok := prevIndex[job.LookupPrevious(byKey, byID, id, u.Wave)]
 		if !ok {
@@ -118,9 +119,9 @@ func refreshRun(ctx context.Context, o *refreshOptions) error {
 	}
 	res.Tool, res.Version, res.Created = "cohortmix", version, o.Now()
 	res.Command = strings.Join(o.Args, " ")
-	res.Settings = append([]reports.Setting{{Name: "mode", Value: "refresh"}, {Name: "previous model", Value: o.Previous}}, o.Flags.settings()...)
+	res.Settings = append([]modelfile.Setting{{Name: "mode", Value: "refresh"}, {Name: "previous model", Value: o.Previous}}, o.Flags.settings()...)
 	if key != nil {
-		reports.Pseudonymize(res, key)
+		job.Pseudonymize(res, key)
 	}
 	res.Changes = job.RefreshChanges(prev, res, match, next, o.Previous)
 	if err := ctx.Err(); err != nil {

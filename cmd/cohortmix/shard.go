@@ -12,6 +12,7 @@ import (
 
 	"github.com/cohortmix/cohortmix/cohort"
 	"github.com/cohortmix/cohortmix/cohort/job"
+	"github.com/cohortmix/cohortmix/cohort/pseudonym"
 	"github.com/cohortmix/cohortmix/reports"
 	"github.com/spf13/cobra"
 )
@@ -484,9 +485,9 @@ func (o *shardOptions) finishWith(ctx context.Context, g *groupOptions, fp *job.
 		if _, err := samePseudonymKey(o.Flags.Pseudonymize, fp.Plan.Options.Read.Pseudonyms, "give finish the census's key with --pseudonymize"); err != nil {
 			return err
 		}
-		reports.MarkPseudonymized(res)
+		job.MarkPseudonymized(res)
 	case g.key != nil:
-		reports.Pseudonymize(res, g.key)
+		job.Pseudonymize(res, g.key)
 	}
 	meta := fp.Plan.Meta
 	res.Tool, res.Version, res.Created = "cohortmix", version, o.Now()
@@ -617,7 +618,7 @@ func samePseudonymKey(path, fingerprint, advice string) ([]byte, error) {
 	if err != nil {
 		return nil, err
 	}
-	if reports.KeyFingerprint(key) != fingerprint {
+	if pseudonym.Fingerprint(key) != fingerprint {
 		return nil, flagErrorf("--pseudonymize %s: not the key the census pseudonymized the ids with; give that key", path)
 	}
 	return key, nil

@@ -7,8 +7,8 @@ import (
 	"strings"
 	"time"
 
+	"github.com/cohortmix/cohortmix/cohort/scratch"
 	"github.com/cohortmix/cohortmix/cohort/synth"
-	"github.com/cohortmix/cohortmix/reports"
 	"github.com/spf13/cobra"
 )
 
@@ -79,7 +79,7 @@ func synthRun(ctx context.Context, o *synthOptions) error {
 			o.Synth.Participants, o.Synth.Windows, o.Synth.Features, o.Synth.Groups)
 	}
 	var truth []synth.Truth
-	err := reports.WriteAtomic(o.Out, o.Force, func(w io.Writer) (err error) {
+	err := scratch.WriteAtomic(o.Out, o.Force, func(w io.Writer) (err error) {
 		if strings.HasSuffix(o.Out, ".parquet") {
 			truth, err = synth.WriteParquet(w, o.Synth)
 		} else {

@@ -14,8 +14,8 @@ import (
 	"time"
 
 	"github.com/cohortmix/cohortmix/cluster"
+	"github.com/cohortmix/cohortmix/cohort/modelfile"
 	"github.com/cohortmix/cohortmix/cohort/synth"
-	"github.com/cohortmix/cohortmix/reports"
 	"github.com/xuri/excelize/v2"
 )
 
@@ -231,7 +231,7 @@ func TestModelKeepsTheTurnedFeatures(t *testing.T) {
 	}
 	model, m1, m2 := filepath.Join(dir, "model.json"), filepath.Join(dir, "m1.csv"), filepath.Join(dir, "m2.csv")
 	mustRun(t, "group", input, "--out", filepath.Join(dir, "g.xlsx"), "--model", model, "--members", m1)
-	m, err := reports.ReadModel(model)
+	m, err := modelfile.ReadFile(model)
 	if err != nil {
 		t.Fatal(err)
 	}

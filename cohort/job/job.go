@@ -7,15 +7,14 @@ import (
 	"github.com/cohortmix/cohortmix/cluster/groupstat"
 	"math"
 	"slices"
-	"sort"
 	"strings"
 	"sync"
 	"time"
 
 	"github.com/cohortmix/cohortmix/cohort"
+	"github.com/cohortmix/cohortmix/cohort/modelfile"
 	"github.com/cohortmix/cohortmix/normalize"
 	"github.com/cohortmix/cohortmix/profile"
-	"github.com/cohortmix/cohortmix/reports"
 	"gonum.org/v1/gonum/mat"
 )
 
@@ -103,7 +102,7 @@ type Fitted struct {
 	// they belong to no group (nil: none).
 	Atypical []bool
 	// Sensitivity compares the groups with those under other choices (FitTable only).
-	Sensitivity []reports.Sensitivity
+	Sensitivity []Sensitivity
 	Workers     int // goroutines for what Describe computes (0: one per core)
 }
 
@@ -135,7 +134,7 @@ func findAxesIn(features []string, first []float64, names []string, none bool) (
 
 // Analyze connects the stages: read → normalize → states and signatures → grouping → what sets
 // the groups apart. It holds no algorithm of its own.
-func Analyze(ctx context.Context, o Options) (*reports.Result, error) {
+func Analyze(ctx context.Context, o Options) (*Result, error) {
 	f, err := FitAll(ctx, o)
 	if err != nil {
 		return nil, err
@@ -434,10 +433,10 @@ func AssignWindows(ctx context.Context, t *cohort.Table, fit *normalize.Fit, sta
 // Describe gathers what the reports show once every unit has a group: the states in the original
 // units, the states × labels table, the separating variables, and one row per unit, under the
 // given state and group names.
-func Describe(f *Fitted, stateNames, groupNames []string) (*reports.Result, error) {
+func Describe(f *Fitted, stateNames, groupNames []string) (*Result, error) {
 	t, fit, states, sigs, g := f.Table, f.Fit, f.States, f.Sigs, f.Grouping
 	d, k := len(t.Features), states.K
-	res := &reports.Result{Features: t.Features, OrderKind: t.OrderKind, Quality: t.Quality, Files: t.Files, Norm: fit, States: states, Grouping: g,
+	res := &Result{Features: t.Features, OrderKind: t.OrderKind, Quality: t.Quality, Files: t.Files, Norm: fit, States: states, Grouping: g,
 		StateDesc: f.Desc, Labels: f.Labels}
 	res.Warnings = append(append(res.Warnings, fit.Warnings...), f.Warnings...)
 	res.Reproducibility = f.Reproducibility
@@ -485,7 +484,7 @@ func Describe(f *Fitted, stateNames, groupNames []string) (*reports.Result, erro
 	}
 	res.AtypicalCut = groupstat.Quantile(g.Distance, 0.99)
 	for i, u := range t.Units {
-		row := reports.UnitRow{ID: u.ID, Wave: u.Wave, Windows: sigs[i].Windows, NonWear: u.NonWear, Wear: u.Wear, Group: g.Labels[i],
+		row := UnitRow{ID: u.ID, Wave: u.Wave, Windows: sigs[i].Windows, NonWear: u.NonWear, Wear: u.Wear, Group: g.Labels[i],
 			Silhouette: g.Silhouette[i], Distance: g.Distance[i], Share: sigs[i].Share, Bout: sigs[i].MeanBout, Stay: math.NaN(), Turn: math.NaN(), Posterior: math.NaN(), Rhythm: profile.NoRhythm}
 		if f.Rhythm != nil {
 			row.Rhythm = f.Rhythm[i]
@@ -513,33 +512,20 @@ func Describe(f *Fitted, stateNames, groupNames []string) (*reports.Result, erro
 	}
 	res.StateNames, res.GroupNames = stateNames, groupNames
 	res.WindowLength, res.WindowSource = f.Window, f.WindowSource
-	res.StateWords = reports.DescribeStates(res.StateDesc, t.Features, stateNames, f.Labels, f.Window)
-	res.StateLines = make([]string, k)
-	for s, w := range res.StateWords {
-		res.StateLines[s] = w.Sentence()
-	}
-	res.GroupLines = groupLines(g, sigs, reports.ShortNames(res.StateWords), t.Units, f.Atypical, f.Window)
 	if f.Signature == SignatureDayParts && g.K > 1 {
-		for c, clause := range partLines(f.TimeOfDay, g.Labels, g.K, k, f.DayParts, reports.ShortNames(res.StateWords)) {
-			if clause != "" {
-				res.GroupLines[c] += "; by time of day, " + clause
-			}
-		}
+		res.DayPartCounts = dayPartCounts(f.TimeOfDay, g.Labels, g.K, k, f.DayParts)
 	}
 	res.TimeZone, res.TimeOfDay = t.TimeZone, groupTimeOfDay(f.TimeOfDay, g.Labels, g.K, k)
 	res.Signature, res.DayParts = f.Signature, f.DayParts
 	return res, nil
 }
 
-// partLines says, for each group found on the day-part signature, the part of the day and the
-// state in which its share of time differs most above the cohort's (in points of the share of
-// that part of the day), as "more S3 vigorous movement in the morning (60% of their morning
-// against 35% on average)"; "" where no share stands 5 points above.
-func partLines(tds []*profile.TimeOfDay, labels []int, groups, k int, parts profile.DayParts, stateNames []string) []string {
-	p := len(parts)
-	sum := make([][]float64, groups+1) // by group, and the cohort last: parts·k counts
+// dayPartCounts adds up the windows of each group, and of the whole cohort in a last row, in
+// each state within each part of the day: groups+1 rows of len(parts)·k counts, part by part.
+func dayPartCounts(tds []*profile.TimeOfDay, labels []int, groups, k int, parts profile.DayParts) [][]float64 {
+	sum := make([][]float64, groups+1)
 	for c := range sum {
-		sum[c] = make([]float64, p*k)
+		sum[c] = make([]float64, len(parts)*k)
 	}
 	for i, td := range tds {
 		if td == nil {
@@ -550,41 +536,16 @@ func partLines(tds []*profile.TimeOfDay, labels []int, groups, k int, parts prof
 			sum[groups][j] += v
 		}
 	}
-	within := func(c, part, j int) float64 { // share of state j within the part
-		var total float64
-		for s := 0; s < k; s++ {
-			total += sum[c][part*k+s]
-		}
-		if total == 0 {
-			return math.NaN()
-		}
-		return sum[c][part*k+j] / total
-	}
-	out := make([]string, groups)
-	for c := 0; c < groups; c++ {
-		best, bp, bj := 0.05, -1, -1
-		for part := 0; part < p; part++ {
-			for j := 0; j < k; j++ {
-				if d := within(c, part, j) - within(groups, part, j); d > best { // false for NaN
-					best, bp, bj = d, part, j
-				}
-			}
-		}
-		if bp >= 0 {
-			name := parts.Name(bp)
-			out[c] = fmt.Sprintf("more %s in the %s (%s of their %s against %s on average)", stateNames[bj], name, reports.Percent(within(c, bp, bj)), name, reports.Percent(within(groups, bp, bj)))
-		}
-	}
-	return out
+	return sum
 }
 
 // groupTimeOfDay adds up the members' windows of each group by hour of the day and by weekday
 // and weekend, as shares of each state (nil without times).
-func groupTimeOfDay(tds []*profile.TimeOfDay, labels []int, groups, k int) []reports.GroupTimeOfDay {
+func groupTimeOfDay(tds []*profile.TimeOfDay, labels []int, groups, k int) []GroupTimeOfDay {
 	if tds == nil {
 		return nil
 	}
-	out := make([]reports.GroupTimeOfDay, groups)
+	out := make([]GroupTimeOfDay, groups)
 	byHour := make([][]int, groups) // 24·k counts per group
 	weekend, all := make([][]int, groups), make([][]int, groups)
 	for c := range out {
@@ -672,7 +633,7 @@ func separationRows(units []*cohort.Unit, atypical []bool) ([]int, string) {
 		case !seen:
 			first[u.ID] = len(rows)
 			rows = append(rows, i)
-		case reports.NaturalLess(u.Wave, units[rows[j]].Wave):
+		case cohort.NaturalLess(u.Wave, units[rows[j]].Wave):
 			rows[j] = i
 		}
 	}
@@ -684,146 +645,6 @@ func separationRows(units []*cohort.Unit, atypical []bool) ([]int, string) {
 		basis = fmt.Sprintf("The %d atypical participants are in no group and left out of these tests.", n)
 	}
 	return rows, basis
-}
-
-// groupLines describes each group in a line, from its mixture against the mean of the grouped
-// units; atypical units (in no group) are left out. With waves it counts participant-waves and
-// people apart.
-func groupLines(g *cohort.Grouping, sigs []profile.Signature, stateNames []string, units []*cohort.Unit, atypical []bool, window time.Duration) []string {
-	k := len(sigs[0].Share)
-	shares, bouts := make([][]float64, len(sigs)), make([][]float64, len(sigs))
-	groups, all := make([]int, len(sigs)), make([]int, len(sigs)) // atypical units: -1, in no group
-	waves := false
-	for i, s := range sigs {
-		waves = waves || units[i].Wave != ""
-		shares[i], bouts[i], groups[i] = s.Share, s.MeanBout, g.Labels[i]
-		if atypical != nil && atypical[i] {
-			groups[i], all[i] = -1, -1
-		}
-	}
-	// A bout length exists only for a state the participant entered: bouts are averaged over
-	// those who did.
-	overShares, _ := groupstat.GroupMeans(shares, all, 1)
-	meanShare, meanBout := overShares[0], groupstat.GroupMeansOfPositive(bouts, all, 1)[0]
-	if g.K == 1 {
-		return []string{spreadLine(shares, bouts, groups, stateNames, units, waves, window)}
-	}
-	groupShares, sizes := groupstat.GroupMeans(shares, groups, g.K)
-	groupBouts := groupstat.GroupMeansOfPositive(bouts, groups, g.K)
-	lines := make([]string, g.K)
-	for c := 0; c < g.K; c++ {
-		share, bout, n := groupShares[c], groupBouts[c], float64(sizes[c])
-		people := map[string]bool{}
-		for i := range sigs {
-			if groups[i] == c {
-				people[units[i].ID] = true
-			}
-		}
-		type diff struct {
-			j int
-			r float64
-		}
-		// A difference is told only when its numbers, as printed, differ.
-		var ds, db []diff
-		for j := 0; j < k; j++ {
-			if meanShare[j] > 0 && reports.Percent(share[j]) != reports.Percent(meanShare[j]) {
-				ds = append(ds, diff{j, share[j]/meanShare[j] - 1})
-			}
-			if meanBout[j] > 0 && bout[j] > 0 && boutText(bout[j], window) != boutText(meanBout[j], window) { // false for NaN: no one in the state
-				db = append(db, diff{j, bout[j]/meanBout[j] - 1})
-			}
-		}
-		sort.SliceStable(ds, func(a, b int) bool { return ds[a].r > ds[b].r })
-		sort.SliceStable(db, func(a, b int) bool { return db[a].r > db[b].r })
-		var parts []string
-		if len(ds) > 0 && ds[0].r > 0.1 {
-			j := ds[0].j
-			parts = append(parts, "more time in "+withNote(stateNames[j], reports.Percent(share[j])+" of their time against "+reports.Percent(meanShare[j])+" on average"))
-		}
-		if len(ds) > 1 && ds[len(ds)-1].r < -0.1 {
-			j := ds[len(ds)-1].j
-			parts = append(parts, "less in "+withNote(stateNames[j], reports.Percent(share[j])+" against "+reports.Percent(meanShare[j])))
-		}
-		if len(db) > 0 {
-			longer, shorter := db[0], db[len(db)-1]
-			switch {
-			case longer.r > 0.1 && longer.r >= -shorter.r:
-				parts = append(parts, "longer bouts of "+withNote(stateNames[longer.j], boutText(bout[longer.j], window)+" against "+boutText(meanBout[longer.j], window)))
-			case shorter.r < -0.1:
-				parts = append(parts, "shorter bouts of "+withNote(stateNames[shorter.j], boutText(bout[shorter.j], window)+" against "+boutText(meanBout[shorter.j], window)))
-			}
-		}
-		what := "close to the average mixture of all grouped participants"
-		if len(parts) > 0 {
-			what = strings.Join(parts, ", ") + " than the others"
-		}
-		count := fmt.Sprintf("%d participants", int(n))
-		if n == 1 {
-			count = "1 participant"
-		}
-		if waves {
-			count = fmt.Sprintf("%d participant-waves of %d people", int(n), len(people))
-		}
-		lines[c] = count + ": " + what
-		if n == 0 {
-			lines[c] = "no participants in this run"
-		}
-	}
-	return lines
-}
-
-// spreadLine describes participants who form one group: how many, and for each state the
-// median share of time and the range of the middle 80 % (10th to 90th percentile), with the
-// median bout length, so that the reader sees the spread where there are no groups to compare.
-func spreadLine(shares, bouts [][]float64, groups []int, stateNames []string, units []*cohort.Unit, waves bool, window time.Duration) string {
-	n := 0
-	people := map[string]bool{}
-	for i, gr := range groups {
-		if gr == 0 {
-			n++
-			people[units[i].ID] = true
-		}
-	}
-	count := fmt.Sprintf("%d participants", n)
-	if waves {
-		count = fmt.Sprintf("%d participant-waves of %d people", n, len(people))
-	}
-	var parts []string
-	for j, name := range stateNames {
-		var col, bcol []float64
-		for i, gr := range groups {
-			if gr == 0 {
-				col = append(col, shares[i][j])
-				if bouts[i][j] > 0 {
-					bcol = append(bcol, bouts[i][j])
-				}
-			}
-		}
-		part := fmt.Sprintf("%s %s of their time (10th–90th percentile %s–%s)", name, reports.Percent(groupstat.Quantile(col, 0.5)),
-			reports.Percent(groupstat.Quantile(col, 0.1)), reports.Percent(groupstat.Quantile(col, 0.9)))
-		if len(bcol) > 0 {
-			part += ", bouts of " + boutText(groupstat.Quantile(bcol, 0.5), window)
-		}
-		parts = append(parts, part)
-	}
-	return count + ", with no distinct groups: their mixtures of states vary around one common pattern. In the median, " + strings.Join(parts, "; ")
-}
-
-// withNote adds a note to a name in brackets, inside the brackets it may already have:
-// "sitting (S1)" and "43%" give "sitting (S1, 43%)".
-func withNote(name, note string) string {
-	if strings.HasSuffix(name, ")") {
-		return strings.TrimSuffix(name, ")") + ", " + note + ")"
-	}
-	return name + " (" + note + ")"
-}
-
-// boutText is a mean bout length in minutes when the window length is known, else in windows.
-func boutText(windows float64, window time.Duration) string {
-	if window > 0 {
-		return fmt.Sprintf("%.3g min", windows*window.Minutes())
-	}
-	return fmt.Sprintf("%.3g windows", windows)
 }
 
 // Defaults are the settings of a run that sets nothing else, the command line's defaults: the
@@ -852,8 +673,8 @@ func Defaults(inputs ...string) Options {
 }
 
 // ModelFit is how a run fits, as the model file keeps it for a later refit.
-func (o Options) ModelFit() *reports.ModelFit {
-	return &reports.ModelFit{
+func (o Options) ModelFit() *modelfile.FitSettings {
+	return &modelfile.FitSettings{
 		Within: o.Norm.Within.String(), WithinFeatures: o.Norm.WithinFeatures, OffsetICC: o.Norm.OffsetICC, RestShare: o.Norm.RestShare,
 		Axes: o.Axes, NoAxes: o.NoAxes, NoTurn: o.NoTurn, Log: o.Norm.Log, Scale: o.Norm.Scale.String(),
 		PCAComponents: o.Norm.PCAComponents, PCAVariance: o.Norm.PCAVariance, NoPCA: o.Norm.NoPCA,

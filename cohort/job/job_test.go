@@ -7,8 +7,6 @@ import (
 	"math/rand/v2"
 	"os"
 	"path/filepath"
-	"regexp"
-	"strconv"
 	"strings"
 	"testing"
 	"time"
@@ -17,35 +15,7 @@ import (
 	"github.com/cohortmix/cohortmix/cohort"
 	"github.com/cohortmix/cohortmix/cohort/synth"
 	"github.com/cohortmix/cohortmix/normalize"
-	"github.com/cohortmix/cohortmix/profile"
 )
-
-// A group's bout length is averaged over the members who enter the state, so no group line
-// gives a bout shorter than one window (a mean over all members, with 0 for those who never
-// enter a state, did: "0.53 windows"). Scenario 397 of the family has rarely entered states.
-func TestGroupLinesGiveNoBoutShorterThanAWindow(t *testing.T) {
-	o := Defaults(syntheticCohort(t, synth.Options{Scenario: 397, Seed: 1, Participants: 80, Windows: 1000}))
-	o.Bootstrap, o.NoSensitivity = 5, true
-	res, err := Analyze(context.Background(), o)
-	if err != nil {
-		t.Fatal(err)
-	}
-	bout := regexp.MustCompile(`bouts of [^(]*\([^,]*, ([0-9.]+) windows against ([0-9.]+) windows\)`)
-	seen := 0
-	for _, line := range res.GroupLines {
-		for _, m := range bout.FindAllStringSubmatch(line, -1) {
-			seen++
-			for _, x := range m[1:] {
-				if v, _ := strconv.ParseFloat(x, 64); v < 1 {
-					t.Errorf("a bout of %s windows in %q", x, line)
-				}
-			}
-		}
-	}
-	if seen == 0 {
-		t.Fatalf("no group line speaks of bouts: %q", res.GroupLines)
-	}
-}
 
 // syntheticCohort writes a synthetic cohort to a temporary CSV and returns its path.
 func syntheticCohort(t *testing.T, so synth.Options) string {
@@ -166,22 +136,6 @@ func TestManySmallAlikeUnitsGiveAResult(t *testing.T) {
 		if len(res.Units) != 300 || res.Grouping.K < 1 {
 			t.Errorf("%v: %d units in %d groups", m, len(res.Units), res.Grouping.K)
 		}
-	}
-}
-
-// Issue 29: a difference whose numbers print alike ("<1% against <1%") is not told; one that
-// prints apart is.
-func TestGroupLinesTellOnlyPrintedDifferences(t *testing.T) {
-	sig := func(shares ...float64) profile.Signature {
-		return profile.Signature{Share: shares, MeanBout: []float64{10, 10, 10}, Windows: 100}
-	}
-	// Group 1 has 0.4 % in S3 against 0.2 % on average (twice as much, both "<1%"), and 60 %
-	// in S1 against 50 %.
-	sigs := []profile.Signature{sig(0.6, 0.396, 0.004), sig(0.6, 0.396, 0.004), sig(0.4, 0.6, 0), sig(0.4, 0.6, 0)}
-	units := []*cohort.Unit{{ID: "A"}, {ID: "B"}, {ID: "C"}, {ID: "D"}}
-	lines := groupLines(&cohort.Grouping{K: 2, Labels: []int{0, 0, 1, 1}}, sigs, []string{"S1", "S2", "S3"}, units, nil, 0)
-	if strings.Contains(lines[0], "S3") || !strings.Contains(lines[0], "more time in S1 (60% of their time against 50% on average)") {
-		t.Errorf("group 1: %s", lines[0])
 	}
 }
 

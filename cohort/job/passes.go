@@ -14,9 +14,9 @@ import (
 	"github.com/cohortmix/cohortmix/cluster"
 	"github.com/cohortmix/cohortmix/cohort"
 	"github.com/cohortmix/cohortmix/cohort/clock"
+	"github.com/cohortmix/cohortmix/cohort/modelfile"
 	"github.com/cohortmix/cohortmix/normalize"
 	"github.com/cohortmix/cohortmix/profile"
-	"github.com/cohortmix/cohortmix/reports"
 )
 
 // The job in passes. With the align step (the default) the run is:
@@ -33,7 +33,7 @@ import (
 // the passes carry it from the census to the finish.
 type Meta struct {
 	Command  string
-	Settings []reports.Setting
+	Settings []modelfile.Setting
 }
 
 // checkShards tells whether pieces of a kind come one from each of count shards.

@@ -13,7 +13,6 @@ import (
 	"github.com/cohortmix/cohortmix/cohort"
 	"github.com/cohortmix/cohortmix/normalize"
 	"github.com/cohortmix/cohortmix/profile"
-	"github.com/cohortmix/cohortmix/reports"
 	"gonum.org/v1/gonum/mat"
 )
 
@@ -37,14 +36,14 @@ const sensitivityUnits = 60
 // other methods run one at a time.
 const matrixAtOnce = 32 << 20
 
-func sensitivity(ctx context.Context, f *Fitted, o Options, sample sampleUnits) ([]reports.Sensitivity, error) {
+func sensitivity(ctx context.Context, f *Fitted, o Options, sample sampleUnits) ([]Sensitivity, error) {
 	k := f.Grouping.K
 	if k < 2 {
 		return nil, nil // one group: there are no groups for a choice to move
 	}
 	// Each row is a task of its own; the tasks run side by side (each seeded as it would be
 	// alone) and their rows are kept in this order.
-	var tasks []func() (reports.Sensitivity, error)
+	var tasks []func() (Sensitivity, error)
 	shares := make([][]float64, len(f.Sigs))
 	for i, s := range f.Sigs {
 		shares[i] = s.Share
@@ -58,12 +57,12 @@ func sensitivity(ctx context.Context, f *Fitted, o Options, sample sampleUnits) 
 		if m == f.Grouping.Method || (m != cohort.KMeansCLR && len(shares) > cohort.LargeCohort) {
 			continue
 		}
-		tasks = append(tasks, func() (reports.Sensitivity, error) {
+		tasks = append(tasks, func() (Sensitivity, error) {
 			if heavy {
 				oneMatrix.Lock()
 				defer oneMatrix.Unlock()
 			}
-			row := reports.Sensitivity{Choice: "grouping method", Alternative: m.String(), Participants: len(shares)}
+			row := Sensitivity{Choice: "grouping method", Alternative: m.String(), Participants: len(shares)}
 			g, err := cohort.GroupSignatures(ctx, shares, cohort.GroupOptions{Method: m, Groups: []int{k}, Criterion: cohort.ByGap, Bootstrap: 2, Seed: o.Seed, Workers: o.Workers})
 			if err != nil {
 				return skipped(row, err), nil
@@ -79,10 +78,10 @@ func sensitivity(ctx context.Context, f *Fitted, o Options, sample sampleUnits) 
 	if len(units) > k {
 		tasks = append(tasks, sampleTasks(ctx, f, o, units, index)...)
 	}
-	out := make([]reports.Sensitivity, 0, len(tasks))
-	err := cluster.Ordered(ctx, len(tasks), o.Workers, func(i, _ int) (reports.Sensitivity, error) {
+	out := make([]Sensitivity, 0, len(tasks))
+	err := cluster.Ordered(ctx, len(tasks), o.Workers, func(i, _ int) (Sensitivity, error) {
 		return tasks[i]()
-	}, func(_ int, row reports.Sensitivity) error {
+	}, func(_ int, row Sensitivity) error {
 		out = append(out, row)
 		return nil
 	})
@@ -95,21 +94,21 @@ func sensitivity(ctx context.Context, f *Fitted, o Options, sample sampleUnits) 
 // sampleTasks are the sensitivity rows refitted on the sampled participants' windows: the
 // reference (the settings used), the other within steps, the axis means turned alone (when the
 // align step turns more features with them) and one state fewer and one more.
-func sampleTasks(ctx context.Context, f *Fitted, o Options, units [][]float64, index []int) []func() (reports.Sensitivity, error) {
+func sampleTasks(ctx context.Context, f *Fitted, o Options, units [][]float64, index []int) []func() (Sensitivity, error) {
 	k := f.Grouping.K
 	made := make([]int, len(index))
 	for r, i := range index {
 		made[r] = f.Grouping.Labels[i]
 	}
-	compare := func(choice, alt string, fit *normalize.Fit, states *profile.States, ref bool) (reports.Sensitivity, error) {
-		row := reports.Sensitivity{Choice: choice, Alternative: alt, Reference: ref, Participants: len(units), OnSample: true}
+	compare := func(choice, alt string, fit *normalize.Fit, states *profile.States, ref bool) (Sensitivity, error) {
+		row := Sensitivity{Choice: choice, Alternative: alt, Reference: ref, Participants: len(units), OnSample: true}
 		sigs := make([]profile.Signature, len(units))
 		for r, x := range units {
 			var labels []int
 			if states.Aligned() {
 				_, _, lab, err := states.AlignUnit(fit, x, nil)
 				if err != nil {
-					return reports.Sensitivity{}, err
+					return Sensitivity{}, err
 				}
 				labels = lab
 			} else {
@@ -159,26 +158,26 @@ func sampleTasks(ctx context.Context, f *Fitted, o Options, units [][]float64, i
 		st, err := profile.FitStates(ctx, mat.NewDense(len(rows)/fit.OutDim(), fit.OutDim(), rows), profile.Options{States: states, Rule: o.StatesRule, Valley: o.Valley, Restarts: 1, Seed: o.Seed, Workers: o.Workers})
 		return fit, st, err
 	}
-	tasks := []func() (reports.Sensitivity, error){func() (reports.Sensitivity, error) {
+	tasks := []func() (Sensitivity, error){func() (Sensitivity, error) {
 		return compare("reference", "the settings used, on the sampled windows", f.Fit, f.States, true)
 	}}
 	for _, w := range []normalize.Within{normalize.WithinAlign, normalize.WithinRest, normalize.WithinNone} {
 		if w == o.Norm.Within {
 			continue
 		}
-		tasks = append(tasks, func() (reports.Sensitivity, error) {
+		tasks = append(tasks, func() (Sensitivity, error) {
 			fit, st, err := refit(w, o.States, false)
 			if err != nil {
-				return skipped(reports.Sensitivity{Choice: "within-participant step", Alternative: w.String(), Participants: len(units), OnSample: true}, err), nil
+				return skipped(Sensitivity{Choice: "within-participant step", Alternative: w.String(), Participants: len(units), OnSample: true}, err), nil
 			}
 			return compare("within-participant step", w.String(), fit, st, false)
 		})
 	}
 	if f.Fit.Turned != nil {
-		tasks = append(tasks, func() (reports.Sensitivity, error) {
+		tasks = append(tasks, func() (Sensitivity, error) {
 			fit, st, err := refit(o.Norm.Within, o.States, true)
 			if err != nil {
-				return skipped(reports.Sensitivity{Choice: "align step turns", Alternative: "the axis means only", Participants: len(units), OnSample: true}, err), nil
+				return skipped(Sensitivity{Choice: "align step turns", Alternative: "the axis means only", Participants: len(units), OnSample: true}, err), nil
 			}
 			return compare("align step turns", "the axis means only", fit, st, false)
 		})
@@ -187,10 +186,10 @@ func sampleTasks(ctx context.Context, f *Fitted, o Options, units [][]float64, i
 		if ks < 2 {
 			continue
 		}
-		tasks = append(tasks, func() (reports.Sensitivity, error) {
+		tasks = append(tasks, func() (Sensitivity, error) {
 			fit, st, err := refit(o.Norm.Within, []int{ks}, false)
 			if err != nil {
-				return skipped(reports.Sensitivity{Choice: "number of states", Alternative: fmt.Sprintf("%d (fixed)", ks), Participants: len(units), OnSample: true}, err), nil
+				return skipped(Sensitivity{Choice: "number of states", Alternative: fmt.Sprintf("%d (fixed)", ks), Participants: len(units), OnSample: true}, err), nil
 			}
 			return compare("number of states", fmt.Sprintf("%d (fixed)", ks), fit, st, false)
 		})
@@ -200,7 +199,7 @@ func sampleTasks(ctx context.Context, f *Fitted, o Options, units [][]float64, i
 
 // skipped is a row that could not be computed, with the reason: a refit that fails on these
 // data (ties among many small units, say) leaves its row empty and does not stop the run.
-func skipped(row reports.Sensitivity, err error) reports.Sensitivity {
+func skipped(row Sensitivity, err error) Sensitivity {
 	row.ARI, row.Skipped = math.NaN(), err.Error()
 	return row
 }

@@ -8,7 +8,7 @@ import (
 	"github.com/cohortmix/cohortmix/cluster"
 	"github.com/cohortmix/cohortmix/cluster/groupstat"
 	"github.com/cohortmix/cohortmix/cohort"
-	"github.com/cohortmix/cohortmix/reports"
+	"github.com/cohortmix/cohortmix/cohort/modelfile"
 )
 
 // The record of a later wave against the model it was placed or refitted with: who is where,
@@ -28,7 +28,7 @@ func FeatureMedians(f *Fitted) [][]float64 {
 
 // PreviousGroups maps the model's members to their groups by id and wave, and by id alone for a
 // returning participant seen in a new wave.
-func PreviousGroups(m *reports.Model) (byKey, byID map[string]string) {
+func PreviousGroups(m *modelfile.Model) (byKey, byID map[string]string) {
 	byKey, byID = map[string]string{}, map[string]string{}
 	for _, mem := range m.Members {
 		byKey[mem.ID+"\x00"+mem.Wave] = mem.Group
@@ -46,10 +46,10 @@ func LookupPrevious(byKey, byID map[string]string, id, wave string) string {
 }
 
 // AssignChanges records who is where, against the model's members.
-func AssignChanges(m *reports.Model, res *reports.Result, model string) *reports.Changes {
+func AssignChanges(m *modelfile.Model, res *Result, model string) *Changes {
 	byKey, byID := PreviousGroups(m)
 	method, _ := cohort.ParseMethod(m.Grouping.Method)
-	c := &reports.Changes{Mode: "assign", Model: model, ModelCreated: m.Created}
+	c := &Changes{Mode: "assign", Model: model, ModelCreated: m.Created}
 	var a, b []int
 	index := map[string]int{}
 	for i, n := range m.Grouping.Names {
@@ -57,7 +57,7 @@ func AssignChanges(m *reports.Model, res *reports.Result, model string) *reports
 	}
 	for _, u := range res.Units {
 		now := res.GroupNames[u.Group]
-		row := reports.ChangeRow{ID: u.ID, Wave: u.Wave, Now: now, DistNow: u.Distance, DistPrevious: math.NaN(), Probability: u.Posterior, Atypical: u.Atypical}
+		row := ChangeRow{ID: u.ID, Wave: u.Wave, Now: now, DistNow: u.Distance, DistPrevious: math.NaN(), Probability: u.Posterior, Atypical: u.Atypical}
 		row.Previous = LookupPrevious(byKey, byID, u.ID, u.Wave)
 		row.Moved = moved(row.Previous, now)
 		if u.Atypical {
@@ -75,7 +75,7 @@ func AssignChanges(m *reports.Model, res *reports.Result, model string) *reports
 	c.ARI = returningAgreement(a, b)
 	before, after := groupSizes(m, res)
 	for i, n := range m.Grouping.Names {
-		c.Groups = append(c.Groups, reports.GroupChange{Name: n, Status: "centre frozen (assign does not refit)", Before: before[n], After: after[i], Drift: 0})
+		c.Groups = append(c.Groups, GroupChange{Name: n, Status: "centre frozen (assign does not refit)", Before: before[n], After: after[i], Drift: 0})
 	}
 	return c
 }
@@ -101,7 +101,7 @@ func returningAgreement(old, now []int) float64 {
 }
 
 // groupSizes counts the model's members by group name and the new run's units by group.
-func groupSizes(m *reports.Model, res *reports.Result) (map[string]int, map[int]int) {
+func groupSizes(m *modelfile.Model, res *Result) (map[string]int, map[int]int) {
 	before := map[string]int{}
 	for _, mem := range m.Members {
 		before[mem.Group]++
@@ -126,12 +126,12 @@ func MeanShares(f *Fitted) [][]float64 {
 }
 
 // RefreshChanges records the fate of each group and state and who moved.
-func RefreshChanges(prev *reports.Model, res *reports.Result, m *cohort.Matching, next cohort.Next, model string) *reports.Changes {
+func RefreshChanges(prev *modelfile.Model, res *Result, m *cohort.Matching, next cohort.Next, model string) *Changes {
 	method, _ := cohort.ParseMethod(prev.Grouping.Method)
-	c := &reports.Changes{Mode: "refresh", Model: model, ModelCreated: prev.Created, ARI: math.NaN()}
+	c := &Changes{Mode: "refresh", Model: model, ModelCreated: prev.Created, ARI: math.NaN()}
 	var a, b []int
 	for i, u := range res.Units {
-		row := reports.ChangeRow{ID: u.ID, Wave: u.Wave, Now: res.GroupNames[u.Group], DistNow: u.Distance, DistPrevious: math.NaN(), Probability: u.Posterior}
+		row := ChangeRow{ID: u.ID, Wave: u.Wave, Now: res.GroupNames[u.Group], DistNow: u.Distance, DistPrevious: math.NaN(), Probability: u.Posterior}
 		if p := next.PrevGroup[i]; p >= 0 {
 			row.Previous = prev.Grouping.Names[p]
 			row.DistPrevious = cohort.SpaceDistance(method, m.Place(u.Share), m.PrevCentres[p])
@@ -145,7 +145,7 @@ func RefreshChanges(prev *reports.Model, res *reports.Result, m *cohort.Matching
 	before, after := groupSizes(prev, res)
 	var news, gone, merged []string
 	for i, name := range res.GroupNames {
-		gc := reports.GroupChange{Name: name, Status: m.NewStatus[i], After: after[i], Drift: m.GroupDrift[i]}
+		gc := GroupChange{Name: name, Status: m.NewStatus[i], After: after[i], Drift: m.GroupDrift[i]}
 		if p := m.GroupPrev[i]; p >= 0 {
 			gc.Before = before[prev.Grouping.Names[p]]
 		} else {
@@ -164,14 +164,14 @@ func RefreshChanges(prev *reports.Model, res *reports.Result, m *cohort.Matching
 		} else {
 			merged = append(merged, name+" "+st)
 		}
-		c.Groups = append(c.Groups, reports.GroupChange{Name: name, Status: st, Before: before[name], Drift: math.NaN()})
+		c.Groups = append(c.Groups, GroupChange{Name: name, Status: st, Before: before[name], Drift: math.NaN()})
 	}
 	for j, name := range m.StateNames {
 		st := "continues"
 		if m.StatePrev[j] < 0 {
 			st = "new state"
 		}
-		c.States = append(c.States, reports.GroupChange{Name: name, Status: st, Drift: m.StateDrift[j]})
+		c.States = append(c.States, GroupChange{Name: name, Status: st, Drift: m.StateDrift[j]})
 	}
 	c.Notes = append(c.Notes, fmt.Sprintf("groups: %d kept their names, new: %s; gone: %s; merged: %s",
 		len(res.GroupNames)-len(news), listOrNone(news), listOrNone(gone), listOrNone(merged)))

@@ -1,16 +1,15 @@
 package job
 
 import (
+	"github.com/cohortmix/cohortmix/cohort/modelfile"
 	"math"
 	"testing"
-
-	"github.com/cohortmix/cohortmix/reports"
 )
 
 // A participant-wave finds its group in the model by id and wave, else by id (a returning
 // participant in a new wave); a new one has none. Moved follows.
 func TestLookupPreviousAndMoved(t *testing.T) {
-	m := &reports.Model{Members: []reports.ModelMember{{ID: "P1", Wave: "1", Group: "G1"}, {ID: "P1", Wave: "2", Group: "G2"}, {ID: "P2", Wave: "1", Group: "G1"}}}
+	m := &modelfile.Model{Members: []modelfile.Member{{ID: "P1", Wave: "1", Group: "G1"}, {ID: "P1", Wave: "2", Group: "G2"}, {ID: "P2", Wave: "1", Group: "G1"}}}
 	byKey, byID := PreviousGroups(m)
 	for _, c := range []struct{ id, wave, now, previous, moved string }{
 		{"P1", "1", "G1", "G1", "no"},

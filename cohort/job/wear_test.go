@@ -12,7 +12,6 @@ import (
 	"github.com/cohortmix/cohortmix/cluster"
 	"github.com/cohortmix/cohortmix/cohort"
 	"github.com/cohortmix/cohortmix/cohort/synth"
-	"github.com/cohortmix/cohortmix/reports"
 )
 
 // Issue 30, point 8: on the planted wear scenario (synth.WriteWear: a week of activity counts
@@ -101,7 +100,7 @@ func TestGroupsOnPlantedWear(t *testing.T) {
 
 // wearAgreement is the ARI of the groups found against the planted ones and against the
 // devices' resting floors, over the participants grouped, and those participants' groups.
-func wearAgreement(truth []synth.WearTruth, res *reports.Result) (float64, float64, []int) {
+func wearAgreement(truth []synth.WearTruth, res *Result) (float64, float64, []int) {
 	group := map[string]int{}
 	for _, u := range res.Units {
 		group[u.ID] = u.Group

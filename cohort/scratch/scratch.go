@@ -5,6 +5,9 @@
 // suffix. Sweep removes, in one folder, the names of a given prefix and suffix whose maker ran
 // on this host and is no longer running; names from other hosts (a shared folder) and from live
 // processes are left alone. Names without the mark are never touched.
+//
+// WriteAtomic is the one way an output is put in place: written beside its target under such a
+// name, then renamed.
 package scratch
 
 import (

@@ -1,4 +1,4 @@
-package reports
+package scratch
 
 import (
 	"errors"
@@ -6,9 +6,10 @@ import (
 	"io"
 	"os"
 	"path/filepath"
-
-	"github.com/cohortmix/cohortmix/cohort/scratch"
 )
+
+// PartialSuffix ends the name of an output being written, before it is renamed into place.
+const PartialSuffix = ".partial"
 
 // ErrExists is returned when the output exists and overwriting was not asked for.
 var ErrExists = errors.New("output file exists")
@@ -20,7 +21,7 @@ func CheckTarget(path string, force bool) error {
 			return fmt.Errorf("%s: is a directory: %w; name a file", path, ErrExists)
 		}
 		if !force {
-			return fmt.Errorf("%s: %w; set reports.WriteAtomic force to replace it, or choose another name", path, ErrExists)
+			return fmt.Errorf("%s: %w; set scratch.WriteAtomic force to replace it, or choose another name", path, ErrExists)
 		}
 	}
 	return nil
@@ -32,7 +33,7 @@ func WriteAtomic(path string, force bool, write func(io.Writer) error) (err erro
 	if err := CheckTarget(path, force); err != nil {
 		return err
 	}
-	tmp, err := os.CreateTemp(filepath.Dir(path), scratch.Pattern("."+filepath.Base(path), partialSuffix))
+	tmp, err := os.CreateTemp(filepath.Dir(path), Pattern("."+filepath.Base(path), PartialSuffix))
 	if err != nil {
 		return fmt.Errorf("%s: cannot create a temporary file beside it: %w", path, err)
 	}

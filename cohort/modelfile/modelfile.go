@@ -1,4 +1,8 @@
-package reports
+// Package modelfile reads, checks and writes the model file: the frozen normalization, states
+// and groups of a run, with the settings it was fitted with, so that a later wave is placed in
+// the same states and groups (cohort/job's Assign) or refitted as before (Refresh). It is a
+// leaf: the job and the command line read and write models without the workbook.
+package modelfile
 
 import (
 	"bytes"
@@ -16,20 +20,25 @@ import (
 	"github.com/cohortmix/cohortmix/cluster/mixture"
 	"github.com/cohortmix/cohortmix/cohort"
 	"github.com/cohortmix/cohortmix/cohort/clock"
+	"github.com/cohortmix/cohortmix/cohort/pseudonym"
+	"github.com/cohortmix/cohortmix/cohort/scratch"
 	"github.com/cohortmix/cohortmix/normalize"
 	"github.com/cohortmix/cohortmix/profile"
 	"gonum.org/v1/gonum/mat"
 )
 
-// ModelFormat and ModelVersion identify the model file's schema.
+// Format and Version identify the model file's schema.
 const (
-	ModelFormat  = "cohortmix model"
-	ModelVersion = 4 // 2: log scales, the align step's axes, the aligned states' postures, pseudonymization; 3: the fit's settings typed (ModelFit); 4: the devices' calibration, the mixture of the groups
+	Format  = "cohortmix model"
+	Version = 4 // 2: log scales, the align step's axes, the aligned states' postures, pseudonymization; 3: the fit's settings typed (FitSettings); 4: the devices' calibration, the mixture of the groups
 )
 
 // oldestModel is the oldest model version this tool still reads: a version-2 file keeps its
 // settings by flag name (Model.Options), which refresh reads as before.
 const oldestModel = 2
+
+// Setting is one parameter of a run as the Settings sheet shows it and the model keeps it.
+type Setting struct{ Name, Value string }
 
 // ErrModel is wrapped by every error about a model file.
 var ErrModel = errors.New("model file not usable")
@@ -42,14 +51,14 @@ type Model struct {
 	Created   time.Time         `json:"created"`
 	Tool      string            `json:"tool"`
 	Features  []string          `json:"features"`
-	Read      ModelRead         `json:"read"`
-	Normalize ModelNorm         `json:"normalize"`
-	States    ModelStates       `json:"states"`
-	Grouping  ModelGrouping     `json:"grouping"`
+	Read      ReadSettings      `json:"read"`
+	Normalize Norm              `json:"normalize"`
+	States    States            `json:"states"`
+	Grouping  Grouping          `json:"grouping"`
 	Settings  []Setting         `json:"settings"`
-	Fit       *ModelFit         `json:"fit,omitempty"`     // how the model was fitted, for refresh (version 3)
+	Fit       *FitSettings      `json:"fit,omitempty"`     // how the model was fitted, for refresh (version 3)
 	Options   map[string]string `json:"options,omitempty"` // version 2: the command-line options of the fit, by flag name
-	Members   []ModelMember     `json:"members"`
+	Members   []Member          `json:"members"`
 	// Pseudonymized says the members' ids are pseudonyms (Pseudonym), made with the key whose
 	// fingerprint (KeyFingerprint) is KeyFingerprint.
 	Pseudonymized  bool         `json:"pseudonymized"`
@@ -60,8 +69,8 @@ type Model struct {
 	Checksum string `json:"checksum,omitempty"`
 }
 
-// ModelRead records the column roles used.
-type ModelRead struct {
+// ReadSettings records the column roles used.
+type ReadSettings struct {
 	ID, Order, Wave string
 	Label           string   `json:",omitempty"` // the label column of the fit, which assign does not use
 	Features        []string `json:",omitempty"` // the feature name patterns given (none: every numeric column)
@@ -81,15 +90,15 @@ type ModelRead struct {
 	WeekendDay bool   `json:",omitempty"`
 }
 
-// ReadOf records the reading settings of a run.
-func ReadOf(read cohort.ReadOptions) ModelRead {
-	return ModelRead{ID: read.ID, Order: read.Order, Wave: read.Wave, Label: read.Label, Features: read.Features, Missing: read.Missing.String(), MinWindows: read.MinWindows,
+// ReadSettingsOf records the reading settings of a run.
+func ReadSettingsOf(read cohort.ReadOptions) ReadSettings {
+	return ReadSettings{ID: read.ID, Order: read.Order, Wave: read.Wave, Label: read.Label, Features: read.Features, Missing: read.Missing.String(), MinWindows: read.MinWindows,
 		NonWear: read.NonWear, NonWearFeature: read.NonWearFeature, TimeZone: read.TimeZone, WearColumn: read.WearColumn, ValidDays: read.ValidDays, WeekendDay: read.WeekendDay, ValidDay: validDayText(read)}
 }
 
 // ReadOptions are the reading settings a model records, as the reader takes them (the inverse of
-// ReadOf; a later wave may name its columns otherwise over them).
-func (r ModelRead) ReadOptions() cohort.ReadOptions {
+// ReadSettingsOf; a later wave may name its columns otherwise over them).
+func (r ReadSettings) ReadOptions() cohort.ReadOptions {
 	ro := cohort.ReadOptions{ID: r.ID, Order: r.Order, Wave: r.Wave, MinWindows: r.MinWindows, NonWear: r.NonWear, NonWearFeature: r.NonWearFeature,
 		TimeZone: r.TimeZone, WearColumn: r.WearColumn, ValidDays: r.ValidDays, WeekendDay: r.WeekendDay}
 	if r.Missing == cohort.ImputeMedian.String() {
@@ -116,9 +125,9 @@ func validDayText(read cohort.ReadOptions) string {
 	return read.ValidDay.String()
 }
 
-// ModelFit is how a model was fitted, in the library's own terms (the settings of a run that
+// FitSettings is how a model was fitted, in the library's own terms (the settings of a run that
 // are not about one run: no files, folders or workers), so that refresh can fit again as before.
-type ModelFit struct {
+type FitSettings struct {
 	Within         string   `json:"within"`
 	WithinFeatures []string `json:"within_features,omitempty"`
 	OffsetICC      float64  `json:"offset_icc"`
@@ -154,15 +163,15 @@ type ModelFit struct {
 }
 
 // Parts is how many parts of the day the grouping saw the states in (1: the whole recording).
-func (f *ModelFit) Parts() int {
+func (f *FitSettings) Parts() int {
 	if f == nil || f.Signature != "day-parts" {
 		return 1
 	}
 	return max(len(f.DayParts), 1)
 }
 
-// ModelNorm is a frozen normalize.Fit.
-type ModelNorm struct {
+// Norm is a frozen normalize.Fit.
+type Norm struct {
 	Logged     []bool            `json:"logged,omitempty"`    // features on a started log scale, log(x + log_shift)
 	LogShift   []float64         `json:"log_shift,omitempty"` // the start c of each logged feature
 	Axes       []int             `json:"axes,omitempty"`      // the columns of the axis means the align step turns
@@ -182,8 +191,8 @@ type ModelNorm struct {
 	ICC        []float64         `json:"icc"`
 }
 
-// ModelStates holds the state centroids in the normalized space.
-type ModelStates struct {
+// States holds the state centroids in the normalized space.
+type States struct {
 	K         int         `json:"k"`
 	Names     []string    `json:"names"`
 	Centroids [][]float64 `json:"centroids"`
@@ -199,84 +208,40 @@ type ModelStates struct {
 	Gravity   float64 `json:"gravity,omitempty"`
 }
 
-// ModelMixture is the mixture method's frozen model (cohort.Grouping.Mixture): each group's
+// Mixture is the mixture method's frozen model (cohort.Grouping.Mixture): each group's
 // weight and Dirichlet parameters over the columns of cohort.BoutTable, in blocks.
-type ModelMixture struct {
+type Mixture struct {
 	Weights []float64   `json:"weights"`
 	Alpha   [][]float64 `json:"alpha"`
 	Blocks  []int       `json:"blocks"`
 }
 
-// ModelGrouping holds the group centres in the grouping space.
-type ModelGrouping struct {
-	Method    string        `json:"method"`
-	K         int           `json:"k"`
-	Names     []string      `json:"names"`
-	Centroids [][]float64   `json:"centroids"`
-	Atypical  float64       `json:"atypical_distance"` // 99th percentile of fitted members' distances to their own centre
-	Shares    [][]float64   `json:"mean_shares"`       // each group's mean shares over the states, for matching on refresh
-	Mixture   *ModelMixture `json:"mixture,omitempty"` // the mixture method's model, which places new participants (version 4)
+// Grouping holds the group centres in the grouping space.
+type Grouping struct {
+	Method    string      `json:"method"`
+	K         int         `json:"k"`
+	Names     []string    `json:"names"`
+	Centroids [][]float64 `json:"centroids"`
+	Atypical  float64     `json:"atypical_distance"` // 99th percentile of fitted members' distances to their own centre
+	Shares    [][]float64 `json:"mean_shares"`       // each group's mean shares over the states, for matching on refresh
+	Mixture   *Mixture    `json:"mixture,omitempty"` // the mixture method's model, which places new participants (version 4)
 }
 
-// ModelMember is a fitted participant's group, for the changes sheet of later runs.
-type ModelMember struct {
+// Member is a fitted participant's group, for the changes sheet of later runs.
+type Member struct {
 	ID       string  `json:"id"`
 	Wave     string  `json:"wave,omitempty"`
 	Group    string  `json:"group"`
 	Distance float64 `json:"distance"`
 }
 
-// NewModel gathers the frozen fits of a result.
-func NewModel(r *Result, read cohort.ReadOptions, featureMeds [][3]float64) *Model {
-	n := r.Norm
-	m := &Model{Format: ModelFormat, Version: ModelVersion, Created: r.Created.UTC(), Tool: r.Tool + " " + r.Version,
-		Features: r.Features, Settings: r.Settings, FeatureMeds: featureMeds,
-		Read: ReadOf(read),
-		Normalize: ModelNorm{Logged: n.Logged, LogShift: n.LogShift, Axes: n.Axes, Turned: n.Turned, Within: n.Within.String(), Touched: n.Touched, TouchedBy: n.TouchedBy, RestShare: n.RestShare,
-			QuietScore: n.QuietScore, QuietMid: n.QuietMid, QuietScale: n.QuietScale, Scale: n.ScaleKind.String(),
-			Center: n.Center, Spread: n.Spread, ICC: n.ICC},
-		States: ModelStates{K: r.States.K, Names: r.StateNames, Centroids: rows(r.States.Centroids), Means: stateMeans(r),
-			Posture: r.States.Posture, Offsets: r.States.Offsets, Prior: r.States.Prior, Rounds: r.States.Rounds, Calibrate: r.States.Calibrate, Gravity: r.States.Gravity},
-		Grouping: ModelGrouping{Method: r.Grouping.Method.String(), K: r.Grouping.K, Names: r.GroupNames, Centroids: r.Grouping.Centroids, Atypical: r.AtypicalCut},
-	}
-	m.Grouping.Shares, _, _ = groupMeans(r)
-	if mx := r.Grouping.Mixture; mx != nil {
-		m.Grouping.Mixture = &ModelMixture{Weights: mx.Weights, Alpha: mx.Alpha, Blocks: mx.Blocks}
-	}
-	if n.PCA != nil {
-		m.Normalize.PCAMean = n.PCA.Mean
-		m.Normalize.PCA = rows(n.PCA.Components)
-	}
-	for _, u := range r.Units {
-		m.Members = append(m.Members, ModelMember{ID: u.ID, Wave: u.Wave, Group: r.GroupNames[u.Group], Distance: u.Distance})
-	}
-	return m
+// Write writes the model (Encode) to path atomically (scratch.WriteAtomic).
+func Write(path string, m *Model, force bool) error {
+	return scratch.WriteAtomic(path, force, func(w io.Writer) error { return Encode(w, m) })
 }
 
-func stateMeans(r *Result) [][]float64 {
-	out := make([][]float64, len(r.StateDesc))
-	for s, d := range r.StateDesc {
-		out[s] = d.Mean
-	}
-	return out
-}
-
-func rows(m *mat.Dense) [][]float64 {
-	r, _ := m.Dims()
-	out := make([][]float64, r)
-	for i := range out {
-		out[i] = append([]float64(nil), m.RawRowView(i)...)
-	}
-	return out
-}
-
-// WriteModel writes the model (ModelTo) to path atomically (see WriteAtomic).
-func WriteModel(path string, m *Model, force bool) error {
-	return WriteAtomic(path, force, func(w io.Writer) error { return ModelTo(w, m) })
-}
-
-// ModelTo writes the model as indented JSON.
-func ModelTo(w io.Writer, m *Model) error {
+// Encode writes the model as indented JSON, with its checksum.
+func Encode(w io.Writer, m *Model) error {
 	c := *m
 	c.Checksum = ""
 	if c.Version >= 4 {
@@ -309,36 +274,36 @@ func checksum(b []byte) string {
 	return hex.EncodeToString(sum[:])
 }
 
-// ReadModel reads and checks a model file: its format and version, and that every array has the
+// ReadFile reads and checks a model file: its format and version, and that every array has the
 // size the rest of the file implies and holds finite numbers.
-func ReadModel(path string) (*Model, error) {
+func ReadFile(path string) (*Model, error) {
 	b, err := os.ReadFile(path)
 	if err != nil {
 		return nil, fmt.Errorf("%s: cannot read the model: %w", path, err)
 	}
-	return ParseModel(path, b)
+	return Parse(path, b)
 }
 
-// ParseModel is ReadModel on bytes already read; name is used in messages.
-func ParseModel(name string, b []byte) (*Model, error) {
+// Parse is ReadFile on bytes already read; name is used in messages.
+func Parse(name string, b []byte) (*Model, error) {
 	var head struct {
 		Format  string `json:"format"`
 		Version int    `json:"version"`
 	}
 	if err := json.Unmarshal(b, &head); err != nil {
-		return nil, fmt.Errorf("%s: not a model file (%v): %w; pass the .json file that reports.ModelTo wrote", name, jsonPos(b, err), ErrModel)
+		return nil, fmt.Errorf("%s: not a model file (%v): %w; pass the .json file that modelfile.Encode wrote", name, jsonPos(b, err), ErrModel)
 	}
-	if head.Format != ModelFormat {
-		return nil, fmt.Errorf("%s: format is %q, not %q: %w; pass a file written by reports.ModelTo", name, head.Format, ModelFormat, ErrModel)
+	if head.Format != Format {
+		return nil, fmt.Errorf("%s: format is %q, not %q: %w; pass a file written by modelfile.Encode", name, head.Format, Format, ErrModel)
 	}
-	if head.Version < oldestModel || head.Version > ModelVersion {
-		return nil, fmt.Errorf("%s: schema version %d, this tool reads versions %d to %d: %w; refit with reports.ModelTo using this version", name, head.Version, oldestModel, ModelVersion, ErrModel)
+	if head.Version < oldestModel || head.Version > Version {
+		return nil, fmt.Errorf("%s: schema version %d, this tool reads versions %d to %d: %w; refit with modelfile.Encode using this version", name, head.Version, oldestModel, Version, ErrModel)
 	}
 	dec := json.NewDecoder(bytes.NewReader(b))
 	dec.DisallowUnknownFields()
 	var m Model
 	if err := dec.Decode(&m); err != nil {
-		return nil, fmt.Errorf("%s: damaged or hand-edited (%v): %w; write it again with reports.ModelTo", name, jsonPos(b, err), ErrModel)
+		return nil, fmt.Errorf("%s: damaged or hand-edited (%v): %w; write it again with modelfile.Encode", name, jsonPos(b, err), ErrModel)
 	}
 	if m.Version >= 4 {
 		want := m.Checksum
@@ -350,7 +315,7 @@ func ParseModel(name string, b []byte) (*Model, error) {
 		m.Checksum = want
 	}
 	if err := m.check(); err != nil {
-		return nil, fmt.Errorf("%s: %v: %w; write it again with reports.ModelTo", name, err, ErrModel)
+		return nil, fmt.Errorf("%s: %v: %w; write it again with modelfile.Encode", name, err, ErrModel)
 	}
 	return &m, nil
 }
@@ -550,7 +515,7 @@ func (m *Model) check() error {
 // group summing to 1, and positive finite Dirichlet parameters over the columns of
 // cohort.BoutTable (s, or 3s with the bouts; with the states seen in p parts of the day, p·s or
 // p·s + 2s).
-func (g ModelGrouping) checkMixture(s, p int) error {
+func (g Grouping) checkMixture(s, p int) error {
 	mx := g.Mixture
 	if g.Method == "mixture" && mx == nil {
 		return errors.New("grouping: the mixture method's model is missing")
@@ -651,4 +616,18 @@ func (m *Model) StateFit() *profile.States {
 	}
 	st := m.States
 	return &profile.States{K: st.K, Centroids: c, Rule: "from the model file", Posture: st.Posture, Offsets: st.Offsets, Prior: st.Prior, Rounds: st.Rounds, Calibrate: st.Calibrate, Gravity: st.Gravity}
+}
+
+// CheckKey tells whether a run may use this key (nil: none) with this model: a pseudonymized
+// model needs the key it was written with, and a plain model takes no key.
+func (m *Model) CheckKey(modelPath, keyPath string, key []byte) error {
+	switch {
+	case m.Pseudonymized && key == nil:
+		return fmt.Errorf("%s: the model holds pseudonyms, not study ids: %w; give modelfile.Model.CheckKey the key it was written with, or returning participants could not be found and study ids would reach the outputs", modelPath, pseudonym.ErrKey)
+	case !m.Pseudonymized && key != nil:
+		return fmt.Errorf("%s: the model holds study ids, not pseudonyms: %w; give no key, or refit pseudonymized with job.Pseudonymize and %s", modelPath, pseudonym.ErrKey, keyPath)
+	case key != nil && pseudonym.Fingerprint(key) != m.KeyFingerprint:
+		return fmt.Errorf("%s: was pseudonymized with another key than %s: %w; pass the key the model was written with", modelPath, keyPath, pseudonym.ErrKey)
+	}
+	return nil
 }

@@ -1,0 +1,226 @@
+package job
+
+import (
+	"sort"
+	"time"
+
+	"github.com/cohortmix/cohortmix/cluster/groupstat"
+	"github.com/cohortmix/cohortmix/cohort"
+	"github.com/cohortmix/cohortmix/cohort/modelfile"
+	"github.com/cohortmix/cohortmix/normalize"
+	"github.com/cohortmix/cohortmix/profile"
+)
+
+// UnitRow is one grouped participant (or participant wave).
+type UnitRow struct {
+	ID, Wave   string
+	Windows    int
+	NonWear    int         // windows left out as non-wear (cohort.ReadOptions.NonWear)
+	Wear       cohort.Wear // wear time by day under the valid-day rule (zero without it)
+	Rhythm     profile.Rhythm
+	Group      int
+	Silhouette float64
+	Distance   float64
+	// Posterior is the probability of its group under the mixture (the mixture method); NaN
+	// for the other methods.
+	Posterior float64
+	Flag      string
+	Share     []float64
+	Bout      []float64
+	Stay      float64 // share of bootstrap resamples in which it stayed with its group; NaN when not computed
+	Turn      float64 // degrees its device was turned by the align step; NaN without one
+	// Atypical marks a unit that assign found farther from every group than the model's members:
+	// it belongs to no group (Group is only its nearest).
+	Atypical bool
+}
+
+// GroupTimeOfDay is when in the day and week one group's members spent their windows: the share
+// of each state among the group's windows in each hour of the wall clock, and on weekdays and at
+// weekends (a share row is nil where the group has no window).
+type GroupTimeOfDay struct {
+	ByHour           [24][]float64
+	Hours            [24]int // windows in each hour
+	Weekday, Weekend []float64
+	WeekdayWindows   int
+	WeekendWindows   int
+}
+
+// Result is everything an analysis produced, as the reports show it.
+type Result struct {
+	Tool, Version string
+	Created       time.Time
+	Command       string
+	Synthetic     bool // the input is invented demo data
+	Settings      []modelfile.Setting
+	Files         []cohort.FileInfo
+	Features      []string
+	OrderKind     string
+	Quality       cohort.Quality
+	// TimeZone is the zone times with an offset were read in ("" for UTC, or times without
+	// one); TimeOfDay each group's time of day, nil without times; Signature and DayParts what
+	// the grouping saw (job.Options.Signature).
+	TimeZone  string
+	TimeOfDay []GroupTimeOfDay
+	Signature string
+	DayParts  profile.DayParts
+	// DayPartCounts are, with the day-part signature and more than one group, the windows of
+	// each group and of the whole cohort (last row) in each state within each part of the day:
+	// len(DayParts)·k counts per row, part by part; nil otherwise.
+	DayPartCounts [][]float64
+	Norm          *normalize.Fit
+	States        *profile.States
+	StateNames    []string
+	// WindowLength is the length of one window (0: not known), and WindowSource where it came
+	// from ("the order column's times" or "--window-length").
+	WindowLength time.Duration
+	WindowSource string
+	StateDesc    []profile.Description
+	Labels       *profile.LabelTable
+	Grouping     *cohort.Grouping
+	GroupNames   []string
+	Units        []UnitRow
+	Separations  []cohort.Separation
+	NotTested    []cohort.Note
+	Warnings     []string
+	// Reproducibility is how alike the fits of the states from different random starts group
+	// the sampled participants (median adjusted Rand index); NaN when not measured.
+	Reproducibility float64
+	AtypicalCut     float64      // 99th percentile of members' distances to their group centre
+	FeatureRange    [][3]float64 // per feature: 1st percentile, median and 99th percentile of participant medians
+	Changes         *Changes     // set by assign and refresh
+	Sensitivity     []Sensitivity
+	// SensitivityNote says in a line that the groups depend on the number of movement states,
+	// when the fits the states were chosen among say so; "" otherwise.
+	SensitivityNote string
+	Notes           []string // what the run decided on its own that a reader should know (not warnings)
+	// SeparationBasis says which units the separating-variable tests use when that is not
+	// simply every grouped participant (waves: one per person; atypical ones left out).
+	SeparationBasis string
+}
+
+// Sensitivity is one row of the sensitivity table: the adjusted Rand index between the groups
+// made and the groups under one alternative choice, with the same number of groups.
+type Sensitivity struct {
+	Choice, Alternative string
+	Reference           bool // the settings used, refitted on the sampled windows: what the other sampled rows compare with
+	Participants        int
+	OnSample            bool // refitted on the sampled participants' sampled windows
+	ARI                 float64
+	Skipped             string // why the row could not be computed (ARI is NaN then); empty when it was
+}
+
+// ChangeRow is one participant (or wave) of the new run.
+type ChangeRow struct {
+	ID, Wave      string
+	Previous, Now string  // group names; Previous is empty for a participant new to the cohort
+	Moved         string  // "no", "yes" or "new participant"
+	DistNow       float64 // to the centre of its group now
+	DistPrevious  float64 // to the centre of its previous group (NaN when none)
+	Atypical      bool    // farther from every group than almost all fitted members (assign)
+	// Probability is that of its group now under the mixture (the mixture method; NaN
+	// otherwise): what placed it there.
+	Probability float64
+}
+
+// MovedRows are the rows of participants who changed group, in the order of their ids.
+func (c *Changes) MovedRows() []ChangeRow {
+	var out []ChangeRow
+	for _, row := range c.Rows {
+		if row.Moved == "yes" {
+			out = append(out, row)
+		}
+	}
+	sort.SliceStable(out, func(a, b int) bool {
+		return cohort.NaturalLess(out[a].ID+"\x00"+out[a].Wave, out[b].ID+"\x00"+out[b].Wave)
+	})
+	return out
+}
+
+// ReturningPeople counts the people among the returning rows (a person's waves count once).
+func (c *Changes) ReturningPeople() int {
+	people := map[string]bool{}
+	for _, row := range c.Rows {
+		if row.Previous != "" {
+			people[row.ID] = true
+		}
+	}
+	return len(people)
+}
+
+// GroupChange is one group's fate.
+type GroupChange struct {
+	Name          string
+	Status        string
+	Before, After int
+	Drift         float64 // distance its centre moved (NaN when not matched)
+}
+
+// Changes is the record of who moved between a model and a new run.
+type Changes struct {
+	Mode  string // "assign" or "refresh"
+	Model string // the model file it started from
+	// ModelCreated is when that model was fitted.
+	ModelCreated time.Time
+	Rows         []ChangeRow
+	Groups       []GroupChange
+	States       []GroupChange // state names with their drift (refresh)
+	Returning    int
+	ARI          float64 // agreement of old and new groups among returning participants (NaN if < 2)
+	Notes        []string
+}
+
+// Counts are the numbers of participants as every sheet states them. With a wave column each
+// wave of a participant is a unit of its own (a participant-wave), and people are counted apart;
+// atypical units (placed by assign farther from every group than the model's members) belong to
+// no group and are counted apart from the grouped ones.
+type Counts struct {
+	Waves                     bool // units are participant-waves
+	UnitsIn, Grouped          int  // units in the input; units in a group
+	Atypical, Excluded        int
+	PeopleIn, PeopleGrouped   int // distinct participants, in the input and in a group
+	PeopleAtypical, PeopleOut int // distinct participants with an atypical or an excluded unit
+}
+
+// Counts counts the result's participants, participant-waves and people.
+func (r *Result) Counts() Counts {
+	c := Counts{UnitsIn: r.Quality.UnitsIn, Excluded: len(r.Quality.Excluded)}
+	in, grouped, atyp, out := map[string]bool{}, map[string]bool{}, map[string]bool{}, map[string]bool{}
+	for _, u := range r.Units {
+		c.Waves = c.Waves || u.Wave != ""
+		in[u.ID] = true
+		if u.Atypical {
+			c.Atypical++
+			atyp[u.ID] = true
+		} else {
+			c.Grouped++
+			grouped[u.ID] = true
+		}
+	}
+	for _, e := range r.Quality.Excluded {
+		c.Waves = c.Waves || e.Wave != ""
+		in[e.ID] = true
+		out[e.ID] = true
+	}
+	c.PeopleIn, c.PeopleGrouped, c.PeopleAtypical, c.PeopleOut = len(in), len(grouped), len(atyp), len(out)
+	return c
+}
+
+// GroupMeans returns each group's mean shares, size and mean silhouette, over the units in a
+// group (atypical units are in none).
+func (r *Result) GroupMeans() ([][]float64, []int, []float64) {
+	shares, sils := make([][]float64, len(r.Units)), make([][]float64, len(r.Units))
+	labels := make([]int, len(r.Units))
+	for i, u := range r.Units {
+		shares[i], sils[i], labels[i] = u.Share, []float64{u.Silhouette}, u.Group
+		if u.Atypical {
+			labels[i] = -1
+		}
+	}
+	means, sizes := groupstat.GroupMeans(shares, labels, len(r.GroupNames))
+	silMeans, _ := groupstat.GroupMeans(sils, labels, len(r.GroupNames))
+	out := make([]float64, len(silMeans))
+	for g, m := range silMeans {
+		out[g] = m[0]
+	}
+	return means, sizes, out
+}
