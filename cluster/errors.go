@@ -4,8 +4,8 @@ import (
 	"errors"
 	"fmt"
 	"math"
-	"runtime"
 
+	"github.com/cohortmix/cohortmix/cluster/par"
 	"gonum.org/v1/gonum/mat"
 )
 
@@ -63,12 +63,7 @@ func checkK(fn string, k, n int) error {
 	return nil
 }
 
-func workers(w int) int {
-	if w <= 0 {
-		return runtime.GOMAXPROCS(0)
-	}
-	return w
-}
+func workers(w int) int { return par.Workers(w) }
 
 // sqDist is the squared Euclidean distance between two equal-length vectors.
 func sqDist(a, b []float64) float64 {

@@ -6,6 +6,7 @@ import (
 	"math"
 	"math/rand/v2"
 
+	"github.com/cohortmix/cohortmix/cluster/par"
 	"gonum.org/v1/gonum/mat"
 )
 
@@ -68,7 +69,7 @@ func MiniBatchKMeans(ctx context.Context, x mat.Matrix, opts MiniBatchOptions) (
 	for i, r := range perm {
 		copy(sample[i*d:(i+1)*d], data[r*d:(r+1)*d])
 	}
-	init, err := KMeans(ctx, mat.NewDense(initSize, d, sample), KMeansOptions{K: k, Restarts: restarts, MaxIter: 20, Seed: SubSeed(opts.Seed, "mini-batch start", 0), Workers: 1})
+	init, err := KMeans(ctx, mat.NewDense(initSize, d, sample), KMeansOptions{K: k, Restarts: restarts, MaxIter: 20, Seed: par.SubSeed(opts.Seed, "mini-batch start", 0), Workers: 1})
 	if err != nil {
 		return nil, err
 	}

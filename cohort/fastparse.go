@@ -6,6 +6,7 @@ import (
 	"encoding/csv"
 	"errors"
 	"fmt"
+	"github.com/cohortmix/cohortmix/cluster/par"
 	"github.com/cohortmix/cohortmix/cohort/decimal"
 	"io"
 	"math"
@@ -14,8 +15,6 @@ import (
 	"strings"
 	"sync"
 	"time"
-
-	"github.com/cohortmix/cohortmix/cluster"
 )
 
 // The body of a table (everything after its first window) is parsed in chunks of whole lines,
@@ -131,7 +130,7 @@ func (c *parsedChunk) line(i, w int) int {
 }
 
 // parseBody reads the rest of br in chunks, parses them on all cores, and hands each chunk to
-// merge in order (cluster.Stream). firstLine is the line number of the first line in br.
+// merge in order (par.Stream). firstLine is the line number of the first line in br.
 func (r *reader) parseBody(br *bufio.Reader, spec *parseSpec, firstLine int, merge func(*parsedChunk) error) error {
 	type job struct {
 		data        []byte
@@ -175,7 +174,7 @@ func (r *reader) parseBody(br *bufio.Reader, spec *parseSpec, firstLine int, mer
 		chunkBufs.Put(&j.data)
 		return c, c.err
 	}
-	return cluster.Stream(r.ctx, r.opts.Workers, next, parse, func(_ int, c *parsedChunk) error { return merge(c) })
+	return par.Stream(r.ctx, r.opts.Workers, next, parse, func(_ int, c *parsedChunk) error { return merge(c) })
 }
 
 // chunker cuts a stream into chunks of whole lines; when a chunk holds quotes it is extended

@@ -1,6 +1,9 @@
 package cohort
 
-import "strings"
+import (
+	"strconv"
+	"strings"
+)
 
 // NaturalLess orders text with the runs of digits in it taken as numbers, so that P2 comes
 // before P10 and wave 9 before wave 10; otherwise it compares bytes.
@@ -35,4 +38,13 @@ func digitRun(s string) int {
 		n++
 	}
 	return n
+}
+
+// Thousands writes n with commas between groups of three digits, as the workbook's notes do.
+func Thousands(n int) string {
+	s := strconv.Itoa(n)
+	for i := len(s) - 3; i > 0 && s[i-1] != '-'; i -= 3 {
+		s = s[:i] + "," + s[i:]
+	}
+	return s
 }

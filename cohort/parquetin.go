@@ -4,7 +4,6 @@ import (
 	"context"
 	"errors"
 	"fmt"
-	"github.com/cohortmix/cohortmix/cluster"
 	"io"
 	"math"
 	"os"
@@ -13,6 +12,7 @@ import (
 	"strings"
 	"time"
 
+	"github.com/cohortmix/cohortmix/cluster/par"
 	"github.com/cohortmix/cohortmix/cohort/pqframe"
 	"github.com/parquet-go/parquet-go"
 	"github.com/parquet-go/parquet-go/format"
@@ -399,7 +399,7 @@ func (s *pqSpec) readRows(cols []int, cursors []*pqCursor, first, n int) (*parse
 		}
 	}
 	found := make([]*pqError, len(cols))
-	cluster.Each(len(cols), s.workers, func(k int) {
+	par.Each(len(cols), s.workers, func(k int) {
 		found[k] = s.readColumn(cursors[k], n, cols[k], first, dsts[k], read[k])
 	})
 	// The first problem in row order (then in column order) is the one reported.
@@ -413,7 +413,7 @@ func (s *pqSpec) readRows(cols []int, cursors []*pqCursor, first, n int) (*parse
 	// with a missing cell; the rest of each row is filled in order below.
 	missing := b.missing[:n]
 	const stretch = 4096
-	cluster.Each((n+stretch-1)/stretch, s.workers, func(p int) {
+	par.Each((n+stretch-1)/stretch, s.workers, func(p int) {
 		for i := p * stretch; i < min(n, (p+1)*stretch); i++ {
 			row := c.vals[i*w : i*w+s.nf]
 			m := false

@@ -1,6 +1,8 @@
 package normalize
 
-import "github.com/cohortmix/cohortmix/cluster"
+import (
+	"github.com/cohortmix/cohortmix/cluster"
+)
 
 // SphereCalibration fits one device's per-axis scale and offset so that its windows' axis means
 // m (x, y, z as read), calibrated as scale·m + offset, lie on the sphere of radius gravity: the

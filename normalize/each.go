@@ -2,8 +2,7 @@ package normalize
 
 import (
 	"context"
-
-	"github.com/cohortmix/cohortmix/cluster"
+	"github.com/cohortmix/cohortmix/cluster/par"
 )
 
 // EachBlock hands every block to work, on workers goroutines at once (0 means one per core),
@@ -14,8 +13,8 @@ import (
 // already consumed are reused, so x is valid only until consume has taken the result of block u.
 func EachBlock[R any](ctx context.Context, blocks Blocks, workers int, work func(u int, x []float64) (R, error), consume func(u int, r R) error) error {
 	filler, _ := blocks.(Filler)
-	bufs := make([][]float64, cluster.Slots(workers))
-	return cluster.Ordered(ctx, blocks.Len(), workers, func(u, slot int) (R, error) {
+	bufs := make([][]float64, par.Slots(workers))
+	return par.Ordered(ctx, blocks.Len(), workers, func(u, slot int) (R, error) {
 		// The block before u in this slot has been consumed, so its buffer is free.
 		if filler == nil {
 			return work(u, blocks.Block(u))

@@ -9,6 +9,7 @@ import (
 
 	"github.com/cohortmix/cohortmix/cluster"
 	"github.com/cohortmix/cohortmix/cluster/groupstat"
+	"github.com/cohortmix/cohortmix/cluster/par"
 	"github.com/cohortmix/cohortmix/normalize"
 	"gonum.org/v1/gonum/mat"
 )
@@ -115,14 +116,14 @@ func FitAligned(ctx context.Context, units [][]float64, fit *normalize.Fit, opts
 		return nil, fmt.Errorf("profile: %d sampled windows for up to %d states: %w; raise job.Options.Sample or lower profile.AlignOptions.States", total, kmax, ErrData)
 	}
 	logged := make([][]float64, len(units))
-	cluster.Each(len(units), opts.Workers, func(u int) { logged[u] = fit.LogInto(nil, units[u]) })
+	par.Each(len(units), opts.Workers, func(u int) { logged[u] = fit.LogInto(nil, units[u]) })
 	// Each device's calibration, once, on its own windows (normalize.SphereCalibration).
 	var cal []normalize.Device
 	var gravity float64
 	if opts.Calibrate && fit.Axes != nil {
 		gravity = gravityOf(logged, d, fit.Axes)
 		cal = make([]normalize.Device, len(logged))
-		cluster.Each(len(logged), opts.Workers, func(u int) { cal[u] = calibrate(logged[u], d, fit.Axes, gravity) })
+		par.Each(len(logged), opts.Workers, func(u int) { cal[u] = calibrate(logged[u], d, fit.Axes, gravity) })
 	}
 	steps := opts.Starts * (1 + opts.Reseeds)
 	if len(opts.States) > 1 {
@@ -156,7 +157,7 @@ func FitAligned(ctx context.Context, units [][]float64, fit *normalize.Fit, opts
 		var sse float64
 		for r := 0; r <= opts.Reseeds; r++ {
 			var err error
-			if sse, err = b.descend(ctx, kmax, cluster.SubSeed(opts.Seed, "states", 100*start+r), opts, progress); err != nil {
+			if sse, err = b.descend(ctx, kmax, par.SubSeed(opts.Seed, "states", 100*start+r), opts, progress); err != nil {
 				return nil, err
 			}
 		}
@@ -523,7 +524,7 @@ func newAligner(fit *normalize.Fit, logged [][]float64, prior float64, workers i
 }
 
 // each runs f(u) for every unit on all cores; each call writes only what belongs to u.
-func (a *aligner) each(f func(u int)) { cluster.Each(len(a.units), a.workers, f) }
+func (a *aligner) each(f func(u int)) { par.Each(len(a.units), a.workers, f) }
 
 func (a *aligner) transform() {
 	a.each(func(u int) { a.ys[u] = a.fit.ApplyLoggedInto(a.ys[u], a.units[u], a.devs[u]) })

@@ -1,6 +1,8 @@
 package profile
 
-import "math"
+import (
+	"math"
+)
 
 // exactSum holds a sum of floating-point numbers exactly, as non-overlapping partials, so that
 // its rounded value does not depend on the order the numbers were added in: sums made on

@@ -10,7 +10,7 @@
 // an offset on every other feature) is fitted jointly with the states and, for every
 // participant, alone against the frozen states (States.AlignUnit). A range of numbers of states
 // is decided by merging states that form one mode (MergeStates) or by the Calinski–Harabasz
-// index. Inputs are never modified; every random step is seeded (cluster.SubSeed).
+// index. Inputs are never modified; every random step is seeded (par.SubSeed).
 //
 // # References
 //
@@ -33,6 +33,7 @@ import (
 	"sort"
 
 	"github.com/cohortmix/cohortmix/cluster"
+	"github.com/cohortmix/cohortmix/cluster/par"
 	"github.com/cohortmix/cohortmix/normalize"
 	"gonum.org/v1/gonum/mat"
 )
@@ -210,7 +211,7 @@ func FitStates(ctx context.Context, sample *mat.Dense, opts Options) (*States, e
 	var best *cluster.KMeansResult
 	bestCH := math.Inf(-1)
 	for i, k := range opts.States {
-		r, err := cluster.KMeans(ctx, x, cluster.KMeansOptions{K: k, Restarts: candidateRestarts, Seed: cluster.SubSeed(opts.Seed, "states k-means", k), Workers: opts.Workers})
+		r, err := cluster.KMeans(ctx, x, cluster.KMeansOptions{K: k, Restarts: candidateRestarts, Seed: par.SubSeed(opts.Seed, "states k-means", k), Workers: opts.Workers})
 		if err != nil {
 			return nil, fmt.Errorf("profile: %w", err)
 		}
@@ -252,7 +253,7 @@ func FitStates(ctx context.Context, sample *mat.Dense, opts Options) (*States, e
 	if candidateRestarts < restarts {
 		// The chosen number gets every restart; its first restarts are the candidate's own
 		// (one PCG stream per restart), so this can only lower the within-state sum of squares.
-		r, err := cluster.KMeans(ctx, x, cluster.KMeansOptions{K: s.K, Restarts: restarts, Seed: cluster.SubSeed(opts.Seed, "states k-means", s.K), Workers: opts.Workers})
+		r, err := cluster.KMeans(ctx, x, cluster.KMeansOptions{K: s.K, Restarts: restarts, Seed: par.SubSeed(opts.Seed, "states k-means", s.K), Workers: opts.Workers})
 		if err != nil {
 			return nil, fmt.Errorf("profile: %w", err)
 		}
@@ -277,7 +278,7 @@ func fitByValley(ctx context.Context, sample *mat.Dense, opts Options) (*States,
 	if opts.Valley == 0 {
 		opts.Valley = DefaultValley
 	}
-	r, err := cluster.KMeans(ctx, sample, cluster.KMeansOptions{K: kmax, Restarts: opts.Restarts, Seed: cluster.SubSeed(opts.Seed, "states", 0), Workers: opts.Workers})
+	r, err := cluster.KMeans(ctx, sample, cluster.KMeansOptions{K: kmax, Restarts: opts.Restarts, Seed: par.SubSeed(opts.Seed, "states", 0), Workers: opts.Workers})
 	if err != nil {
 		return nil, fmt.Errorf("profile: %w", err)
 	}

@@ -6,6 +6,7 @@ import (
 	"strings"
 
 	"github.com/cohortmix/cohortmix/cohort"
+	"github.com/cohortmix/cohortmix/cohort/group"
 	"github.com/cohortmix/cohortmix/cohort/job"
 	"github.com/xuri/excelize/v2"
 )
@@ -71,7 +72,7 @@ func changesSheet(f *excelize.File, st *styles, r *Result) error {
 		return err
 	}
 	how := "A participant has moved when its group now is not its group in the model. The distances are to the group centres in the grouping space."
-	if r.Grouping.Method == cohort.Mixture {
+	if r.Grouping.Method == group.Mixture {
 		how = "A participant has moved when its group now is not its group in the model. The mixture puts each participant in its most probable group (the probability is shown); the distances to the group centres are given for reference and need not agree with it."
 	}
 	if err := t.put(v{how, st.note}); err != nil {

@@ -5,7 +5,7 @@ import (
 	"math"
 	"sort"
 
-	"github.com/cohortmix/cohortmix/cohort"
+	"github.com/cohortmix/cohortmix/cohort/group"
 	"github.com/xuri/excelize/v2"
 )
 
@@ -156,7 +156,7 @@ func chartsSheet(f *excelize.File, st *styles, r *Result) error {
 	w.pageBreak(row)
 	ng := len(r.Grouping.Scores)
 	w.text(1, row, "Groups", st.headerNum)
-	if r.Grouping.Method == cohort.Mixture {
+	if r.Grouping.Method == group.Mixture {
 		// The mixture's number of groups is chosen by its criteria: the smaller, the better.
 		w.text(2, row, "BIC", st.headerNum)
 		w.text(3, row, "ICL", st.headerNum)

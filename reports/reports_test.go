@@ -19,6 +19,7 @@ import (
 
 	"github.com/cohortmix/cohortmix/cluster"
 	"github.com/cohortmix/cohortmix/cohort"
+	"github.com/cohortmix/cohortmix/cohort/group"
 	"github.com/cohortmix/cohortmix/cohort/job"
 	"github.com/cohortmix/cohortmix/cohort/modelfile"
 	"github.com/cohortmix/cohortmix/cohort/scratch"
@@ -56,9 +57,9 @@ func fixture(t testing.TB, n int, id func(i int) string) *Result {
 		r.Units = append(r.Units, job.UnitRow{ID: id(i), Windows: 10, Group: i % g, Silhouette: 0.3 + 0.001*float64(i%100), Distance: 0.1, Share: share, Bout: []float64{1, 2, 3, 4}})
 	}
 	tree := &cluster.Tree{N: g, Merges: []cluster.Merge{{A: 0, B: 1, Height: 1, Size: 2}, {A: 2, B: 3, Height: 2, Size: 3}}}
-	r.Grouping = &cohort.Grouping{Method: cohort.WardHellinger, K: g, Labels: labels, Scores: []cohort.KScore{{K: 2, Silhouette: 0.2, Gap: 0.1, GapSE: 0.01, Stability: 0.9}, {K: 3, Silhouette: 0.3, Gap: 0.3, GapSE: 0.01, Stability: 0.8}},
+	r.Grouping = &group.Grouping{Method: group.WardHellinger, K: g, Labels: labels, Scores: []group.KScore{{K: 2, Silhouette: 0.2, Gap: 0.1, GapSE: 0.01, Stability: 0.9}, {K: 3, Silhouette: 0.3, Gap: 0.3, GapSE: 0.01, Stability: 0.8}},
 		Centroids: [][]float64{{0.5, 0.5, 0.5, 0.5}, {0.4, 0.6, 0.5, 0.5}, {0.5, 0.4, 0.6, 0.5}}, CentroidTree: tree}
-	r.Separations = []cohort.Separation{{Name: "share S1", Kind: "share", H: 10, P: 1e-5, Q: 2e-5, Epsilon2: 0.4, Median: []float64{1, 2, 3}, Q1: []float64{0, 1, 2}, Q3: []float64{2, 3, 4}, Delta: []float64{0.1, 0.2, -0.3}}}
+	r.Separations = []group.Separation{{Name: "share S1", Kind: "share", H: 10, P: 1e-5, Q: 2e-5, Epsilon2: 0.4, Median: []float64{1, 2, 3}, Q1: []float64{0, 1, 2}, Q3: []float64{2, 3, 4}, Delta: []float64{0.1, 0.2, -0.3}}}
 	r.Warnings = []string{"+a warning that looks like a formula"}
 	return r
 }
@@ -434,24 +435,24 @@ func withoutField(t *testing.T, b []byte, name string) string {
 }
 
 // A grouping that does not come back as a whole when the participants are drawn again (its
-// stability at the number of groups chosen below cohort.UnstableGrouping) is called tentative
+// stability at the number of groups chosen below group.UnstableGrouping) is called tentative
 // in words on the Summary and on the Stability sheet; at the threshold it is not, and with one
 // number of groups given (no stability measured) neither sheet says anything of it.
 func TestTentativeGroupingIsFlagged(t *testing.T) {
 	cases := []struct {
 		name      string
-		scores    []cohort.KScore
+		scores    []group.KScore
 		tentative bool
 		row       bool
 	}{
-		{"below the threshold", []cohort.KScore{{K: 2, Stability: 0.95}, {K: 3, Stability: cohort.UnstableGrouping - 0.01}}, true, true},
-		{"at the threshold", []cohort.KScore{{K: 2, Stability: 0.95}, {K: 3, Stability: cohort.UnstableGrouping}}, false, true},
-		{"one number of groups given", []cohort.KScore{{K: 3}}, false, false},
+		{"below the threshold", []group.KScore{{K: 2, Stability: 0.95}, {K: 3, Stability: group.UnstableGrouping - 0.01}}, true, true},
+		{"at the threshold", []group.KScore{{K: 2, Stability: 0.95}, {K: 3, Stability: group.UnstableGrouping}}, false, true},
+		{"one number of groups given", []group.KScore{{K: 3}}, false, false},
 	}
 	for _, c := range cases {
 		r := fixture(t, 30, func(i int) string { return "P" + digits(i) })
 		r.Grouping.Scores = c.scores
-		r.Grouping.Stability = &cohort.GroupStability{Resamples: 20, Jaccard: []float64{0.9, 0.9, 0.9}, Stay: make([]float64, 30)}
+		r.Grouping.Stability = &group.Stability{Resamples: 20, Jaccard: []float64{0.9, 0.9, 0.9}, Stay: make([]float64, 30)}
 		f, _ := writeAndOpen(t, r)
 		sum, _ := f.GetRows(SheetSummary)
 		stab, _ := f.GetRows(SheetStability)

@@ -6,6 +6,7 @@ import (
 	"strings"
 
 	"github.com/cohortmix/cohortmix/cohort"
+	"github.com/cohortmix/cohortmix/cohort/group"
 	"github.com/cohortmix/cohortmix/cohort/job"
 	"github.com/xuri/excelize/v2"
 )
@@ -48,8 +49,8 @@ func summarySheet(f *excelize.File, st *styles, r *Result) error {
 		if r.Grouping.K == 1 {
 			name = "All"
 		}
-		if gs := r.Grouping.Stability; gs != nil && gs.Jaccard[g] < cohort.UnstableJaccard {
-			line = fmt.Sprintf("UNSTABLE: this group does not hold when the participants are drawn again (bootstrap stability %.2f, below %.2f; see %s). %s", gs.Jaccard[g], cohort.UnstableJaccard, SheetStability, line)
+		if gs := r.Grouping.Stability; gs != nil && gs.Jaccard[g] < group.UnstableJaccard {
+			line = fmt.Sprintf("UNSTABLE: this group does not hold when the participants are drawn again (bootstrap stability %.2f, below %.2f; see %s). %s", gs.Jaccard[g], group.UnstableJaccard, SheetStability, line)
 		}
 		if err := put(name, line); err != nil {
 			return err
@@ -60,7 +61,7 @@ func summarySheet(f *excelize.File, st *styles, r *Result) error {
 			return err
 		}
 	}
-	if ws, ok := r.Grouping.WholeStability(); ok && ws < cohort.UnstableGrouping {
+	if ws, ok := r.Grouping.WholeStability(); ok && ws < group.UnstableGrouping {
 		if err := put("The grouping as a whole", wholeUnstable(ws, r.Grouping.K)); err != nil {
 			return err
 		}
@@ -279,7 +280,7 @@ func howDone(r *Result) string {
 // wholeUnstable is the Summary's warning for a grouping that does not come back as a whole when
 // the participants are drawn again.
 func wholeUnstable(stability float64, k int) string {
-	return fmt.Sprintf("TENTATIVE: when the participants are drawn again, the grouping into %d groups comes back only in part (adjusted Rand index %.2f on average, below %.2f; see %s). Another number of groups, or no clear groups at all, may describe these participants as well; read the groups as tentative.", k, stability, cohort.UnstableGrouping, SheetStability)
+	return fmt.Sprintf("TENTATIVE: when the participants are drawn again, the grouping into %d groups comes back only in part (adjusted Rand index %.2f on average, below %.2f; see %s). Another number of groups, or no clear groups at all, may describe these participants as well; read the groups as tentative.", k, stability, group.UnstableGrouping, SheetStability)
 }
 
 // Unreproducible is the agreement of the fits from different random starts below which the

@@ -8,6 +8,7 @@ import (
 
 	"github.com/cohortmix/cohortmix/cluster/groupstat"
 	"github.com/cohortmix/cohortmix/cohort"
+	"github.com/cohortmix/cohortmix/cohort/group"
 	"github.com/cohortmix/cohortmix/cohort/scratch"
 	"github.com/cohortmix/cohortmix/profile"
 	"github.com/xuri/excelize/v2"
@@ -423,7 +424,7 @@ func stabilityReading(j float64) string {
 	switch {
 	case math.IsNaN(j):
 		return ""
-	case j < cohort.UnstableJaccard:
+	case j < group.UnstableJaccard:
 		return "does not hold: it dissolves in many resamples"
 	case j < 0.75:
 		return "a pattern, not a firm group"
@@ -448,7 +449,7 @@ func stabilitySheet(f *excelize.File, st *styles, r *Result) error {
 		if err := t.put(v{"How well each group holds", st.title}); err != nil {
 			return err
 		}
-		if err := t.put(v{fmt.Sprintf("The participants were drawn again %d times with replacement and grouped anew with the same method and number of groups; each group's stability is the mean, over those resamples, of its best Jaccard similarity with a group found anew (Hennig 2007). Below %.2f a group is flagged.", gs.Resamples, cohort.UnstableJaccard), st.note}); err != nil {
+		if err := t.put(v{fmt.Sprintf("The participants were drawn again %d times with replacement and grouped anew with the same method and number of groups; each group's stability is the mean, over those resamples, of its best Jaccard similarity with a group found anew (Hennig 2007). Below %.2f a group is flagged.", gs.Resamples, group.UnstableJaccard), st.note}); err != nil {
 			return err
 		}
 		if err := t.merge(5); err != nil {
@@ -467,9 +468,9 @@ func stabilitySheet(f *excelize.File, st *styles, r *Result) error {
 			}
 		}
 		if ws, ok := r.Grouping.WholeStability(); ok {
-			reading := fmt.Sprintf("comes back as a whole: the adjusted Rand index between the groups and those found anew, on average over the resamples (Lange et al. 2004); below %.2f the grouping is flagged as tentative", cohort.UnstableGrouping)
-			if ws < cohort.UnstableGrouping {
-				reading = fmt.Sprintf("TENTATIVE: comes back only in part (the adjusted Rand index between the groups and those found anew, on average over the resamples, is below %.2f; Lange et al. 2004)", cohort.UnstableGrouping)
+			reading := fmt.Sprintf("comes back as a whole: the adjusted Rand index between the groups and those found anew, on average over the resamples (Lange et al. 2004); below %.2f the grouping is flagged as tentative", group.UnstableGrouping)
+			if ws < group.UnstableGrouping {
+				reading = fmt.Sprintf("TENTATIVE: comes back only in part (the adjusted Rand index between the groups and those found anew, on average over the resamples, is below %.2f; Lange et al. 2004)", group.UnstableGrouping)
 			}
 			if err := t.put(v{"the grouping as a whole", st.text}, v{len(r.Units), st.integer}, v{ws, st.dec2}, v{"", st.text}, v{reading, st.wrap}); err != nil {
 				return err
@@ -663,7 +664,7 @@ func choiceSheet(f *excelize.File, st *styles, r *Result) error {
 	if err := t.put(v{"Number of participant groups: " + choiceText(r), st.title}); err != nil {
 		return err
 	}
-	if r.Grouping.Method == cohort.Mixture {
+	if r.Grouping.Method == group.Mixture {
 		return mixtureChoice(t, st, r)
 	}
 	if err := t.put(v{"groups", st.header}, v{"silhouette", st.header}, v{"gap", st.header}, v{"gap s.e.", st.header}, v{"stability (ARI)", st.header}, v{"chosen", st.header}); err != nil {

@@ -7,6 +7,7 @@ import (
 	"math/rand/v2"
 
 	"github.com/cohortmix/cohortmix/cluster"
+	"github.com/cohortmix/cohortmix/cluster/par"
 	"gonum.org/v1/gonum/mat"
 )
 
@@ -187,7 +188,7 @@ func FitDMM(ctx context.Context, counts mat.Matrix, opts DMMOptions) (*DMM, erro
 	opts = dmmDefaults(opts)
 	var best *DMM
 	bestObj := math.Inf(-1)
-	err = cluster.Ordered(ctx, opts.Starts, opts.Workers, func(s, _ int) (*DMM, error) {
+	err = par.Ordered(ctx, opts.Starts, opts.Workers, func(s, _ int) (*DMM, error) {
 		return data.fit(ctx, opts, s)
 	}, func(s int, m *DMM) error {
 		if obj := m.LogLik + m.LogPrior; obj > bestObj {
@@ -299,7 +300,7 @@ func (dd *dmmData) component(alpha []float64) component {
 
 // fit runs EM from start s.
 func (dd *dmmData) fit(ctx context.Context, opts DMMOptions, s int) (*DMM, error) {
-	post, err := dd.startLabels(ctx, opts.K, cluster.SubSeed(opts.Seed, "dmm start", s))
+	post, err := dd.startLabels(ctx, opts.K, par.SubSeed(opts.Seed, "dmm start", s))
 	if err != nil {
 		return nil, err
 	}

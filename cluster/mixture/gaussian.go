@@ -6,6 +6,7 @@ import (
 	"math"
 
 	"github.com/cohortmix/cohortmix/cluster"
+	"github.com/cohortmix/cohortmix/cluster/par"
 	"gonum.org/v1/gonum/mat"
 )
 
@@ -79,7 +80,7 @@ func FitTiedGaussian(ctx context.Context, x mat.Matrix, opts GaussianOptions) (*
 		dense.SetRow(i, r)
 	}
 	var best *Gaussian
-	err := cluster.Ordered(ctx, opts.Starts, opts.Workers, func(s, _ int) (*Gaussian, error) {
+	err := par.Ordered(ctx, opts.Starts, opts.Workers, func(s, _ int) (*Gaussian, error) {
 		post := make([][]float64, n)
 		for i := range post {
 			post[i] = make([]float64, opts.K)
@@ -89,7 +90,7 @@ func FitTiedGaussian(ctx context.Context, x mat.Matrix, opts GaussianOptions) (*
 				post[i][0] = 1
 			}
 		} else {
-			km, err := cluster.KMeans(ctx, dense, cluster.KMeansOptions{K: opts.K, Restarts: 1, Seed: cluster.SubSeed(opts.Seed, "gaussian start", s), Workers: 1})
+			km, err := cluster.KMeans(ctx, dense, cluster.KMeansOptions{K: opts.K, Restarts: 1, Seed: par.SubSeed(opts.Seed, "gaussian start", s), Workers: 1})
 			if err != nil {
 				return nil, fmt.Errorf("mixture: FitTiedGaussian: start: %w", err)
 			}

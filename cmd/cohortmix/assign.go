@@ -11,6 +11,7 @@ import (
 	"time"
 
 	"github.com/cohortmix/cohortmix/cohort"
+	"github.com/cohortmix/cohortmix/cohort/group"
 	"github.com/cohortmix/cohortmix/cohort/modelfile"
 	"github.com/cohortmix/cohortmix/reports"
 	"github.com/spf13/cobra"
@@ -129,10 +130,10 @@ func assignRun(ctx context.Context, o *assignOptions) error {
 		}
 	}
 	if mx := m.GroupMixture(); mx != nil {
-		f.Grouping, err = cohort.PlaceMixture(mx, m.Grouping.Centroids, shares, counts, bouts, parts)
+		f.Grouping, err = group.PlaceMixture(mx, m.Grouping.Centroids, shares, counts, bouts, parts)
 	} else {
-		method, _ := cohort.ParseMethod(m.Grouping.Method)
-		f.Grouping, err = cohort.Place(method, m.Grouping.Centroids, shares, o.Workers)
+		method, _ := group.ParseMethod(m.Grouping.Method)
+		f.Grouping, err = group.Place(method, m.Grouping.Centroids, shares, o.Workers)
 	}
 	if err != nil {
 		return err
@@ -162,7 +163,7 @@ func assignRun(ctx context.Context, o *assignOptions) error {
 		job.Pseudonymize(res, key)
 	}
 	medians := job.FeatureMedians(f)
-	res.Warnings = append(res.Warnings, cohort.CheckRanges(t.Features, m.FeatureMeds, medians)...)
+	res.Warnings = append(res.Warnings, group.CheckRanges(t.Features, m.FeatureMeds, medians)...)
 	res.Changes = job.AssignChanges(m, res, o.Model)
 	if err := ctx.Err(); err != nil {
 		return err

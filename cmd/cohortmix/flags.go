@@ -11,6 +11,7 @@ import (
 	"time"
 
 	"github.com/cohortmix/cohortmix/cohort"
+	"github.com/cohortmix/cohortmix/cohort/group"
 	"github.com/cohortmix/cohortmix/cohort/modelfile"
 	"github.com/cohortmix/cohortmix/normalize"
 	"github.com/cohortmix/cohortmix/profile"
@@ -106,7 +107,7 @@ func (m *mainFlags) register(cmd *cobra.Command) {
 	f.StringVar(&m.Calibration, "calibration", "sphere", "with the align step: sphere calibrates each device's axis means onto the sphere of gravity before turning them (van Hees et al. 2014); off leaves them as read")
 	f.IntVar(&m.Sample, "sample", 50000, "windows sampled to fit the states")
 	f.StringVar(&m.Groups, "groups", defaultGroups, "number of participant groups, or a range to choose from (1, no distinct groups, is a possible answer of the mixture method)")
-	f.StringVar(&m.Method, "method", "mixture", "grouping: "+cohort.MethodHelp())
+	f.StringVar(&m.Method, "method", "mixture", "grouping: "+group.MethodHelp())
 	f.StringVar(&m.Criterion, "criterion", defaultCriterion, "rule for the number of groups: icl or bic for the mixture method (the integrated completed likelihood, or the Bayesian information criterion); for the others gap-stable-firm (gap-stable's number, or when that grouping is tentative, its stability below 0.8, the largest smaller number whose grouping is not), gap-stable (the gap statistic's number, then one fewer while that groups more stably by more than 0.1), gap, stability or silhouette")
 	f.BoolVar(&m.KeepTwins, "keep-twins", false, "keep features that order every window as an earlier feature does (a log of the counts beside the counts); by default they are left out, as the same information twice")
 	f.StringVar(&m.Signature, "signature", job.SignatureWhole, "what the groups are found on: whole (each participant's time in each state over the whole recording) or day-parts (in each part of the day; needs times)")
@@ -277,11 +278,11 @@ func (m *mainFlags) options(inputs []string) (job.Options, error) {
 	if o.States, err = parseRange("states", m.States); err != nil {
 		return o, err
 	}
-	if o.Method, err = cohort.ParseMethod(m.Method); err != nil {
+	if o.Method, err = group.ParseMethod(m.Method); err != nil {
 		return o, &flagError{err}
 	}
 	least, groups, criterion := 2, m.Groups, m.Criterion
-	if o.Method == cohort.Mixture {
+	if o.Method == group.Mixture {
 		least = 1 // the mixture may find no groups
 	} else {
 		// The defaults are the mixture's: another method groups into 2 to 8 by gap-stable-firm
@@ -311,10 +312,10 @@ func (m *mainFlags) options(inputs []string) (job.Options, error) {
 	default:
 		return o, flagErrorf("--signature %q: use whole or day-parts", m.Signature)
 	}
-	if o.Criterion, err = cohort.ParseCriterion(criterion); err != nil {
+	if o.Criterion, err = group.ParseCriterion(criterion); err != nil {
 		return o, &flagError{err}
 	}
-	if mixtureCriterion := o.Criterion == cohort.ByBIC || o.Criterion == cohort.ByICL; mixtureCriterion != (o.Method == cohort.Mixture) {
+	if mixtureCriterion := o.Criterion == group.ByBIC || o.Criterion == group.ByICL; mixtureCriterion != (o.Method == group.Mixture) {
 		return o, flagErrorf("--criterion %s with --method %s: bic and icl choose the mixture's number of groups, gap-stable-firm, gap-stable, gap, stability and silhouette the other methods'", criterion, o.Method)
 	}
 	if m.Sample < 100 || m.Bootstrap < 2 || m.Workers < 0 {

@@ -13,7 +13,7 @@ import (
 	"time"
 
 	"github.com/cohortmix/cohortmix/cluster"
-	"github.com/cohortmix/cohortmix/cohort"
+	"github.com/cohortmix/cohortmix/cohort/group"
 	"github.com/cohortmix/cohortmix/cohort/synth"
 	"github.com/cohortmix/cohortmix/normalize"
 	"github.com/spf13/cobra"
@@ -34,7 +34,7 @@ func plantedARI(t *testing.T, within normalize.Within, so synth.Options) float64
 		t.Fatal(err)
 	}
 	res, err := job.Analyze(context.Background(), job.Options{Inputs: []string{path}, Norm: normalize.Options{Within: within},
-		States: rangeOf(2, 10), Groups: rangeOf(2, 8), Method: cohort.WardHellinger, Criterion: cohort.ByGap, Bootstrap: 20, Seed: 1})
+		States: rangeOf(2, 10), Groups: rangeOf(2, 8), Method: group.WardHellinger, Criterion: group.ByGap, Bootstrap: 20, Seed: 1})
 	if err != nil {
 		t.Fatal(err)
 	}

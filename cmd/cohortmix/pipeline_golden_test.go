@@ -10,6 +10,7 @@ import (
 
 	"github.com/cohortmix/cohortmix/cluster"
 	"github.com/cohortmix/cohortmix/cohort"
+	"github.com/cohortmix/cohortmix/cohort/group"
 	"github.com/cohortmix/cohortmix/normalize"
 	"github.com/cohortmix/cohortmix/profile"
 	"gonum.org/v1/gonum/mat"
@@ -134,7 +135,7 @@ func TestStagesMatchReference(t *testing.T) {
 	t.Run("Ward grouping and separating variables", func(t *testing.T) {
 		x := mat.NewDense(len(shares), 5, nil)
 		for i, s := range shares {
-			x.SetRow(i, cohort.Embed(cohort.WardHellinger, s))
+			x.SetRow(i, group.Embed(group.WardHellinger, s))
 		}
 		tree, err := cluster.WardPoints(context.Background(), x, cluster.WardOptions{})
 		if err != nil {
@@ -150,10 +151,10 @@ func TestStagesMatchReference(t *testing.T) {
 		if ari, _ := cluster.AdjustedRand(lab, g.Groups); ari != 1 {
 			t.Fatalf("Ward cut ARI %v against scipy fcluster", ari)
 		}
-		var vars []cohort.Variable
+		var vars []group.Variable
 		for s := 0; s < 5; s++ {
-			v := cohort.Variable{Name: "share S" + string(rune('1'+s)), Kind: "share"}
-			b := cohort.Variable{Name: "bout S" + string(rune('1'+s)), Kind: "bout length"}
+			v := group.Variable{Name: "share S" + string(rune('1'+s)), Kind: "share"}
+			b := group.Variable{Name: "bout S" + string(rune('1'+s)), Kind: "bout length"}
 			for u := range shares {
 				v.Values = append(v.Values, g.Shares[u][s])
 				bout := g.Bouts[u][s]
@@ -166,7 +167,7 @@ func TestStagesMatchReference(t *testing.T) {
 		}
 		d := len(tab.Features)
 		for j, name := range tab.Features {
-			v := cohort.Variable{Name: "median " + name, Kind: "feature median"}
+			v := group.Variable{Name: "median " + name, Kind: "feature median"}
 			for i := range tab.Units {
 				x := raw[i]
 				col := make([]float64, 0, len(x)/d)
@@ -177,7 +178,7 @@ func TestStagesMatchReference(t *testing.T) {
 			}
 			vars = append(vars, v)
 		}
-		seps, _, err := cohort.Separate(vars, lab, 3, 0)
+		seps, _, err := group.Separate(vars, lab, 3, 0)
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -200,7 +201,7 @@ func TestStagesMatchReference(t *testing.T) {
 func TestSameGroupingAsReferencePipeline(t *testing.T) {
 	g := readPipelineGolden(t)
 	res, err := job.Analyze(context.Background(), job.Options{Inputs: []string{smallCohort}, Norm: normalize.Options{Within: normalize.WithinRest, PCAVariance: 0.99},
-		States: []int{5}, Groups: []int{3}, Method: cohort.WardHellinger, Seed: 1})
+		States: []int{5}, Groups: []int{3}, Method: group.WardHellinger, Seed: 1})
 	if err != nil {
 		t.Fatal(err)
 	}

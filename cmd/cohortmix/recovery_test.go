@@ -18,6 +18,7 @@ import (
 
 	"github.com/cohortmix/cohortmix/cluster"
 	"github.com/cohortmix/cohortmix/cohort"
+	"github.com/cohortmix/cohortmix/cohort/group"
 	"github.com/cohortmix/cohortmix/cohort/synth"
 	"github.com/spf13/cobra"
 )
@@ -102,8 +103,8 @@ type scenarioRun struct {
 	states, groups int
 	windowARI      float64 // states against the planted states, over all windows
 	// What the workbook says about trust, for the defaults only (empty otherwise): "t" when the
-	// grouping as a whole is flagged tentative (cohort.UnstableGrouping), "u" when a group's
-	// bootstrap stability is below cohort.UnstableJaccard, and with -recovery.sensitivity "c"
+	// grouping as a whole is flagged tentative (group.UnstableGrouping), "u" when a group's
+	// bootstrap stability is below group.UnstableJaccard, and with -recovery.sensitivity "c"
 	// when the sensitivity table's line says the groups change under another choice.
 	warned string
 }
@@ -165,7 +166,7 @@ func runCohort(t testing.TB, so synth.Options, variants []variant) (oracle scena
 			truthK = 3
 		}
 	}
-	g, err := cohort.GroupSignatures(context.Background(), shares, cohort.GroupOptions{Method: cohort.WardHellinger, Groups: []int{truthK}, Seed: 1})
+	g, err := group.Signatures(context.Background(), shares, group.Options{Method: group.WardHellinger, Groups: []int{truthK}, Seed: 1})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -180,10 +181,10 @@ func runCohort(t testing.TB, so synth.Options, variants []variant) (oracle scena
 		}
 		warned := ""
 		if v.name == "defaults" {
-			if ws, ok := f.Grouping.WholeStability(); ok && ws < cohort.UnstableGrouping {
+			if ws, ok := f.Grouping.WholeStability(); ok && ws < group.UnstableGrouping {
 				warned += "t"
 			}
-			if st := f.Grouping.Stability; st != nil && slices.Min(st.Jaccard) < cohort.UnstableJaccard {
+			if st := f.Grouping.Stability; st != nil && slices.Min(st.Jaccard) < group.UnstableJaccard {
 				warned += "u"
 			}
 		}

@@ -9,6 +9,7 @@ import (
 	"time"
 
 	"github.com/cohortmix/cohortmix/cohort"
+	"github.com/cohortmix/cohortmix/cohort/group"
 	"github.com/cohortmix/cohortmix/cohort/modelfile"
 	"github.com/cohortmix/cohortmix/cohort/pseudonym"
 	"github.com/spf13/cobra"
@@ -83,13 +84,13 @@ func refreshRun(ctx context.Context, o *refreshOptions) error {
 		return err
 	}
 	defer f.Table.Close()
-	method, _ := cohort.ParseMethod(prev.Grouping.Method)
+	method, _ := group.ParseMethod(prev.Grouping.Method)
 	byKey, byID := job.PreviousGroups(prev)
 	prevIndex := map[string]int{}
 	for i, n := range prev.Grouping.Names {
 		prevIndex[n] = i
 	}
-	next := cohort.Next{Labels: f.Grouping.Labels, GroupShares: job.MeanShares(f)}
+	next := group.Next{Labels: f.Grouping.Labels, GroupShares: job.MeanShares(f)}
 	for _, dsc := range f.Desc {
 		next.StateMeans = append(next.StateMeans, dsc.Mean)
 	}
@@ -108,7 +109,7 @@ func refreshRun(ctx context.Context, o *refreshOptions) error {
 		return fmt.Errorf("%s: the features (%s) differ from the previous model's (%s): %w; refresh needs the same features, or start anew with 'cohortmix group'",
 			o.Inputs[0], strings.Join(f.Table.Features, ", "), strings.Join(prev.Features, ", "), cohort.ErrMismatch)
 	}
-	match, err := cohort.Match(cohort.Previous{StateNames: prev.States.Names, StateMeans: prev.States.Means, Scale: prev.Normalize.Spread,
+	match, err := group.Match(group.Previous{StateNames: prev.States.Names, StateMeans: prev.States.Means, Scale: prev.Normalize.Spread,
 		GroupNames: prev.Grouping.Names, GroupShares: prev.Grouping.Shares, Cut: prev.Grouping.Atypical, Method: method}, next)
 	if err != nil {
 		return err

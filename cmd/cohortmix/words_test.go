@@ -52,10 +52,10 @@ func TestLibraryOptionsHaveFlags(t *testing.T) {
 // Issue 28: package names and Go option names reached the command line's messages.
 func TestUserWordsDropPackageNames(t *testing.T) {
 	for in, want := range map[string]string{
-		"job: the census of shard 2 was taken of other input files":                                     "the census of shard 2 was taken of other input files",
-		"a.csv: job.Options.Groups asks for 5 or more groups (cluster: too few)":                        "a.csv: --groups asks for 5 or more groups (too few)",
-		"m.json: cohort: 9 participants need 1 MiB of distances; use cohort.GroupOptions.Method kmeans": "m.json: 9 participants need 1 MiB of distances; use --method kmeans",
-		"a.csv:3:5: f1: \"cohort: x\" is not a number":                                                  `a.csv:3:5: f1: "cohort: x" is not a number`,
+		"job: the census of shard 2 was taken of other input files":                               "the census of shard 2 was taken of other input files",
+		"a.csv: job.Options.Groups asks for 5 or more groups (cluster: too few)":                  "a.csv: --groups asks for 5 or more groups (too few)",
+		"m.json: cohort: 9 participants need 1 MiB of distances; use group.Options.Method kmeans": "m.json: 9 participants need 1 MiB of distances; use --method kmeans",
+		"a.csv:3:5: f1: \"cohort: x\" is not a number":                                            `a.csv:3:5: f1: "cohort: x" is not a number`,
 	} {
 		if got := userWords(in); got != want {
 			t.Errorf("userWords(%q)\n got %q\nwant %q", in, got, want)

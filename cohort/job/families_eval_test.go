@@ -15,7 +15,8 @@ import (
 
 	"github.com/cohortmix/cohortmix/cluster"
 	"github.com/cohortmix/cohortmix/cluster/mixture"
-	"github.com/cohortmix/cohortmix/cohort"
+	"github.com/cohortmix/cohortmix/cluster/par"
+	"github.com/cohortmix/cohortmix/cohort/group"
 	"gonum.org/v1/gonum/mat"
 )
 
@@ -201,7 +202,7 @@ func groupBy(t *testing.T, method string, ff familyFit, maxK int) grouped {
 				shares[i][j] = float64(v) / tot
 			}
 		}
-		g, err := cohort.GroupSignatures(ctx, shares, cohort.GroupOptions{Method: cohort.WardHellinger, Groups: []int{2, 3, 4, 5, 6, 7, 8}, Criterion: cohort.ByGapSteady, Seed: 1})
+		g, err := group.Signatures(ctx, shares, group.Options{Method: group.WardHellinger, Groups: []int{2, 3, 4, 5, 6, 7, 8}, Criterion: group.ByGapSteady, Seed: 1})
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -421,7 +422,7 @@ func TestFamiliesEval(t *testing.T) {
 		}
 	}
 	got := make([]cachedGroupings, len(jobs))
-	cluster.Each(len(dumps), 0, func(di int) {
+	par.Each(len(dumps), 0, func(di int) {
 		for mi := range methods {
 			i := di*len(methods) + mi
 			got[i] = groupingsOf(t, *familiesEval, jobs[i].d, jobs[i].m)

@@ -13,7 +13,9 @@ import (
 	"time"
 
 	"github.com/cohortmix/cohortmix/cluster"
+	"github.com/cohortmix/cohortmix/cluster/par"
 	"github.com/cohortmix/cohortmix/cohort"
+	"github.com/cohortmix/cohortmix/cohort/group"
 	"github.com/cohortmix/cohortmix/cohort/synth"
 	"github.com/cohortmix/cohortmix/profile"
 )
@@ -158,7 +160,7 @@ func dumpFamilyMember(t *testing.T, fam synth.Family, seed uint64) *familyDump {
 	for s := 2; s <= 12; s++ {
 		for r := 0; r < *familiesFits; r++ {
 			start := time.Now()
-			st, err := profile.FitAligned(ctx, units, fp.Fit, profile.AlignOptions{States: []int{s}, Seed: cluster.SubSeed(o.Seed, "fit", r), Calibrate: !*familiesNoCal})
+			st, err := profile.FitAligned(ctx, units, fp.Fit, profile.AlignOptions{States: []int{s}, Seed: par.SubSeed(o.Seed, "fit", r), Calibrate: !*familiesNoCal})
 			if err != nil {
 				t.Fatal(err)
 			}
@@ -332,12 +334,12 @@ func recoverMember(t *testing.T, fam synth.Family, seed uint64) (r struct {
 		case "fits":
 			fmt.Sscan(v, &o.Fits)
 		case "criterion":
-			o.Criterion, _ = cohort.ParseCriterion(v)
+			o.Criterion, _ = group.ParseCriterion(v)
 		case "method":
-			o.Method, _ = cohort.ParseMethod(v)
-			if o.Method != cohort.Mixture {
+			o.Method, _ = group.ParseMethod(v)
+			if o.Method != group.Mixture {
 				o.Groups = o.Groups[1:]
-				o.Criterion = cohort.ByGapSteady
+				o.Criterion = group.ByGapSteady
 			}
 		case "calibration":
 			o.NoCalibration = v == "off"

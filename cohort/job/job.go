@@ -12,6 +12,7 @@ import (
 	"time"
 
 	"github.com/cohortmix/cohortmix/cohort"
+	"github.com/cohortmix/cohortmix/cohort/group"
 	"github.com/cohortmix/cohortmix/cohort/modelfile"
 	"github.com/cohortmix/cohortmix/normalize"
 	"github.com/cohortmix/cohortmix/profile"
@@ -26,8 +27,8 @@ type Options struct {
 	States    []int
 	Sample    int
 	Groups    []int
-	Method    cohort.Method
-	Criterion cohort.Criterion
+	Method    group.Method
+	Criterion group.Criterion
 	Bootstrap int
 	// Axes names the three features of the axis means that the align step turns; empty finds
 	// them (normalize.FindAxes), unless NoAxes says to turn none.
@@ -45,7 +46,7 @@ type Options struct {
 	// 1 fit once.
 	Fits   int
 	Valley float64 // see profile.MergeStates; 0 means profile.DefaultValley
-	// GroupValley lowers the number of groups while two form one mode (cohort.GroupOptions.Valley).
+	// GroupValley lowers the number of groups while two form one mode (group.Options.Valley).
 	GroupValley float64
 	// Signature is what the grouping sees of each participant: its windows in each state over
 	// the whole recording (SignatureWhole, ""), or in each state within each part of the day
@@ -94,7 +95,7 @@ type Fitted struct {
 	// Reproducibility is how alike the fits of the states from different random starts group
 	// the sampled participants (FitPiece.Reproducibility); NaN when not measured.
 	Reproducibility float64
-	Grouping        *cohort.Grouping
+	Grouping        *group.Grouping
 	Window          time.Duration // the length of one window (0: not known)
 	// WindowSource says where the window length came from.
 	WindowSource string
@@ -308,7 +309,7 @@ func groupFitted(ctx context.Context, f *Fitted, o Options) error {
 	if o.Progress != nil {
 		o.Progress("grouping participants")
 	}
-	g, err := cohort.GroupSignatures(ctx, shares, cohort.GroupOptions{Method: o.Method, Groups: o.Groups, Criterion: o.Criterion, Bootstrap: o.Bootstrap, Seed: o.Seed, Valley: o.GroupValley,
+	g, err := group.Signatures(ctx, shares, group.Options{Method: o.Method, Groups: o.Groups, Criterion: o.Criterion, Bootstrap: o.Bootstrap, Seed: o.Seed, Valley: o.GroupValley,
 		Counts: counts, Bouts: bouts, DayParts: parts, Workers: o.Workers, Progress: o.Steps})
 	if err != nil {
 		return err
@@ -445,10 +446,10 @@ func Describe(f *Fitted, stateNames, groupNames []string) (*Result, error) {
 		res.Sensitivity, res.SensitivityNote = f.Sensitivity, statesNote(f.States.Ensemble)
 	}
 	var err error
-	vars := make([]cohort.Variable, 0, 2*k+d)
+	vars := make([]group.Variable, 0, 2*k+d)
 	for s := 0; s < k; s++ {
-		v := cohort.Variable{Name: "share " + stateNames[s], Kind: "share"}
-		b := cohort.Variable{Name: "bout " + stateNames[s], Kind: "bout length"}
+		v := group.Variable{Name: "share " + stateNames[s], Kind: "share"}
+		b := group.Variable{Name: "bout " + stateNames[s], Kind: "bout length"}
 		for i := range sigs {
 			v.Values = append(v.Values, sigs[i].Share[s])
 			b.Values = append(b.Values, boutOf(sigs[i], s))
@@ -456,7 +457,7 @@ func Describe(f *Fitted, stateNames, groupNames []string) (*Result, error) {
 		vars = append(vars, v, b)
 	}
 	for j, name := range t.Features {
-		v := cohort.Variable{Name: "median " + name, Kind: "feature median"}
+		v := group.Variable{Name: "median " + name, Kind: "feature median"}
 		for i := range t.Units {
 			v.Values = append(v.Values, f.Medians[i][j])
 		}
@@ -470,16 +471,16 @@ func Describe(f *Fitted, stateNames, groupNames []string) (*Result, error) {
 	for r, i := range rows {
 		labels[r] = g.Labels[i]
 	}
-	tested := make([]cohort.Variable, len(vars))
+	tested := make([]group.Variable, len(vars))
 	for j, v := range vars {
-		tested[j] = cohort.Variable{Name: v.Name, Kind: v.Kind, Values: make([]float64, len(rows))}
+		tested[j] = group.Variable{Name: v.Name, Kind: v.Kind, Values: make([]float64, len(rows))}
 		for r, i := range rows {
 			tested[j].Values[r] = v.Values[i]
 		}
 	}
 	if g.K < 2 {
 		res.NotTested = []cohort.Note{{Name: "every variable", Reason: "not tested: the participants form one group, so there are no groups to set apart"}}
-	} else if res.Separations, res.NotTested, err = cohort.Separate(tested, labels, g.K, f.Workers); err != nil {
+	} else if res.Separations, res.NotTested, err = group.Separate(tested, labels, g.K, f.Workers); err != nil {
 		return nil, err
 	}
 	res.AtypicalCut = groupstat.Quantile(g.Distance, 0.99)
@@ -595,7 +596,7 @@ func groupTimeOfDay(tds []*profile.TimeOfDay, labels []int, groups, k int) []Gro
 
 // rhythmVariables are the rest-activity measures as variables for the separating tests (the
 // onsets, which are hours on a circle, left out), when any participant has them.
-func rhythmVariables(rh []profile.Rhythm) []cohort.Variable {
+func rhythmVariables(rh []profile.Rhythm) []group.Variable {
 	has := false
 	for _, r := range rh {
 		has = has || !math.IsNaN(r.IS)
@@ -603,7 +604,7 @@ func rhythmVariables(rh []profile.Rhythm) []cohort.Variable {
 	if !has {
 		return nil
 	}
-	vars := []cohort.Variable{{Name: "interdaily stability (IS)"}, {Name: "intradaily variability (IV)"}, {Name: "L5"}, {Name: "M10"}, {Name: "relative amplitude (RA)"}}
+	vars := []group.Variable{{Name: "interdaily stability (IS)"}, {Name: "intradaily variability (IV)"}, {Name: "L5"}, {Name: "M10"}, {Name: "relative amplitude (RA)"}}
 	for _, r := range rh {
 		for j, x := range []float64{r.IS, r.IV, r.L5, r.M10, r.RA} {
 			vars[j].Values = append(vars[j].Values, x)
@@ -651,7 +652,7 @@ func separationRows(units []*cohort.Unit, atypical []bool) ([]int, string) {
 // align step with started log scales, each device calibrated, and PCA keeping 99 % of the
 // variance; movement states fitted with 3 to 8 states from 3 random starts each, the fit
 // kept the one whose grouping of the sampled participants agrees best with the others'
-// (fitStates); the participants grouped by the mixture (cohort.Mixture) into 1 to 8 groups by
+// (fitStates); the participants grouped by the mixture (group.Mixture) into 1 to 8 groups by
 // the integrated completed likelihood; about 50,000 windows sampled for the fit; seed 1.
 func Defaults(inputs ...string) Options {
 	span := func(lo, hi int) []int {
@@ -668,7 +669,7 @@ func Defaults(inputs ...string) Options {
 		Norm: normalize.Options{Within: normalize.WithinAlign, Scale: normalize.ScaleZ, Log: true, PCAVariance: 0.99,
 			OffsetICC: 0.3, RestShare: 0.1},
 		States: span(3, 8), StatesRule: profile.ByValley, Valley: profile.DefaultValley, Sample: 50_000,
-		Groups: span(1, 8), Method: cohort.Mixture, Criterion: cohort.ByICL, Bootstrap: 20, Seed: 1, Fits: DefaultFits,
+		Groups: span(1, 8), Method: group.Mixture, Criterion: group.ByICL, Bootstrap: 20, Seed: 1, Fits: DefaultFits,
 	}
 }
 

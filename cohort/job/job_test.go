@@ -13,6 +13,7 @@ import (
 
 	"github.com/cohortmix/cohortmix/cluster"
 	"github.com/cohortmix/cohortmix/cohort"
+	"github.com/cohortmix/cohortmix/cohort/group"
 	"github.com/cohortmix/cohortmix/cohort/synth"
 	"github.com/cohortmix/cohortmix/normalize"
 )
@@ -123,11 +124,11 @@ func TestManySmallAlikeUnitsGiveAResult(t *testing.T) {
 	if err := os.WriteFile(path, []byte(b.String()), 0o644); err != nil {
 		t.Fatal(err)
 	}
-	for _, m := range []cohort.Method{cohort.Mixture, cohort.WardHellinger} {
+	for _, m := range []group.Method{group.Mixture, group.WardHellinger} {
 		o := Defaults(path)
 		o.Method, o.Bootstrap = m, 5
-		if m != cohort.Mixture {
-			o.Groups, o.Criterion = o.Groups[1:], cohort.ByGapSteady
+		if m != group.Mixture {
+			o.Groups, o.Criterion = o.Groups[1:], group.ByGapSteady
 		}
 		res, err := Analyze(context.Background(), o)
 		if err != nil {

@@ -12,8 +12,10 @@ import (
 	"time"
 
 	"github.com/cohortmix/cohortmix/cluster"
+	"github.com/cohortmix/cohortmix/cluster/par"
 	"github.com/cohortmix/cohortmix/cohort"
 	"github.com/cohortmix/cohortmix/cohort/clock"
+	"github.com/cohortmix/cohortmix/cohort/group"
 	"github.com/cohortmix/cohortmix/cohort/modelfile"
 	"github.com/cohortmix/cohortmix/normalize"
 	"github.com/cohortmix/cohortmix/profile"
@@ -588,7 +590,7 @@ func fitStates(ctx context.Context, fp *FitPiece, units [][]float64, o Options) 
 		}
 	}
 	groups := o.Groups
-	if o.Method == cohort.Mixture {
+	if o.Method == group.Mixture {
 		groups = nil
 		for _, k := range o.Groups {
 			if k <= len(units) {
@@ -597,11 +599,11 @@ func fitStates(ctx context.Context, fp *FitPiece, units [][]float64, o Options) 
 		}
 	}
 	done := 0
-	err := cluster.Ordered(ctx, len(members), o.Workers, func(i, _ int) (member, error) {
+	err := par.Ordered(ctx, len(members), o.Workers, func(i, _ int) (member, error) {
 		m := members[i]
 		seed := o.Seed
 		if m.fit > 0 {
-			seed = cluster.SubSeed(o.Seed, "fit", m.fit)
+			seed = par.SubSeed(o.Seed, "fit", m.fit)
 		}
 		// One start seeded once per fit: the ensemble of fits, not each fit's own restarts, is
 		// what keeps the answer from hanging on a random start.
@@ -678,7 +680,7 @@ func fitStates(ctx context.Context, fp *FitPiece, units [][]float64, o Options) 
 // Unreproducible is the agreement (median adjusted Rand index) of the groupings from fits of the
 // states from different random starts below which the run says its grouping is not
 // reproducible: 0.8, the mark below which the bootstrap stability of a grouping also calls it
-// tentative (cohort.UnstableGrouping).
+// tentative (group.UnstableGrouping).
 const Unreproducible = 0.8
 
 // DefaultFits is how many times each number of states is fitted, from different random starts.
@@ -701,8 +703,8 @@ func sampleGrouping(ctx context.Context, fit *normalize.Fit, st *profile.States,
 	}
 	shares, counts, _ := SignatureColumns(sigs)
 	criterion := o.Criterion
-	if criterion == cohort.ByGapSteady {
-		criterion = cohort.ByGapStable
+	if criterion == group.ByGapSteady {
+		criterion = group.ByGapStable
 	}
 	var valid []int
 	for _, k := range groups {
@@ -713,7 +715,7 @@ func sampleGrouping(ctx context.Context, fit *normalize.Fit, st *profile.States,
 	if len(valid) == 0 {
 		valid = []int{min(max(1, len(units)-1), o.Groups[0])}
 	}
-	g, err := cohort.GroupSignatures(ctx, shares, cohort.GroupOptions{Method: o.Method, Groups: valid, Criterion: criterion, Bootstrap: o.Bootstrap, Seed: o.Seed,
+	g, err := group.Signatures(ctx, shares, group.Options{Method: o.Method, Groups: valid, Criterion: criterion, Bootstrap: o.Bootstrap, Seed: o.Seed,
 		Counts: counts, NoBouts: true, NoStability: true, Quick: true, Workers: o.Workers})
 	if err != nil {
 		return nil, err

@@ -6,6 +6,7 @@ import (
 
 	"github.com/cohortmix/cohortmix/cluster/groupstat"
 	"github.com/cohortmix/cohortmix/cohort"
+	"github.com/cohortmix/cohortmix/cohort/group"
 	"github.com/cohortmix/cohortmix/cohort/modelfile"
 	"github.com/cohortmix/cohortmix/normalize"
 	"github.com/cohortmix/cohortmix/profile"
@@ -76,10 +77,10 @@ type Result struct {
 	WindowSource string
 	StateDesc    []profile.Description
 	Labels       *profile.LabelTable
-	Grouping     *cohort.Grouping
+	Grouping     *group.Grouping
 	GroupNames   []string
 	Units        []UnitRow
-	Separations  []cohort.Separation
+	Separations  []group.Separation
 	NotTested    []cohort.Note
 	Warnings     []string
 	// Reproducibility is how alike the fits of the states from different random starts group

@@ -10,7 +10,8 @@ import (
 	"sync"
 
 	"github.com/cohortmix/cohortmix/cluster"
-	"github.com/cohortmix/cohortmix/cohort"
+	"github.com/cohortmix/cohortmix/cluster/par"
+	"github.com/cohortmix/cohortmix/cohort/group"
 	"github.com/cohortmix/cohortmix/normalize"
 	"github.com/cohortmix/cohortmix/profile"
 	"gonum.org/v1/gonum/mat"
@@ -53,8 +54,8 @@ func sensitivity(ctx context.Context, f *Fitted, o Options, sample sampleUnits) 
 	// (464 MB at 5,000 participants on two cores). The rows are the same either way.
 	var oneMatrix sync.Mutex
 	heavy := cluster.CondensedBytes(len(shares)) > matrixAtOnce
-	for _, m := range []cohort.Method{cohort.WardHellinger, cohort.PAMAitchison, cohort.KMeansCLR} {
-		if m == f.Grouping.Method || (m != cohort.KMeansCLR && len(shares) > cohort.LargeCohort) {
+	for _, m := range []group.Method{group.WardHellinger, group.PAMAitchison, group.KMeansCLR} {
+		if m == f.Grouping.Method || (m != group.KMeansCLR && len(shares) > group.LargeCohort) {
 			continue
 		}
 		tasks = append(tasks, func() (Sensitivity, error) {
@@ -63,7 +64,7 @@ func sensitivity(ctx context.Context, f *Fitted, o Options, sample sampleUnits) 
 				defer oneMatrix.Unlock()
 			}
 			row := Sensitivity{Choice: "grouping method", Alternative: m.String(), Participants: len(shares)}
-			g, err := cohort.GroupSignatures(ctx, shares, cohort.GroupOptions{Method: m, Groups: []int{k}, Criterion: cohort.ByGap, Bootstrap: 2, Seed: o.Seed, Workers: o.Workers})
+			g, err := group.Signatures(ctx, shares, group.Options{Method: m, Groups: []int{k}, Criterion: group.ByGap, Bootstrap: 2, Seed: o.Seed, Workers: o.Workers})
 			if err != nil {
 				return skipped(row, err), nil
 			}
@@ -79,7 +80,7 @@ func sensitivity(ctx context.Context, f *Fitted, o Options, sample sampleUnits) 
 		tasks = append(tasks, sampleTasks(ctx, f, o, units, index)...)
 	}
 	out := make([]Sensitivity, 0, len(tasks))
-	err := cluster.Ordered(ctx, len(tasks), o.Workers, func(i, _ int) (Sensitivity, error) {
+	err := par.Ordered(ctx, len(tasks), o.Workers, func(i, _ int) (Sensitivity, error) {
 		return tasks[i]()
 	}, func(_ int, row Sensitivity) error {
 		out = append(out, row)
@@ -119,7 +120,7 @@ func sampleTasks(ctx context.Context, f *Fitted, o Options, units [][]float64, i
 		// The sampled windows are scattered, so their runs are no bouts: the mixture sees each
 		// window as a bout of its own there.
 		sh, counts, _ := SignatureColumns(sigs)
-		g, err := cohort.GroupSignatures(ctx, sh, cohort.GroupOptions{Method: f.Grouping.Method, Groups: []int{k}, Criterion: f.Grouping.Criterion, Bootstrap: 2, Seed: o.Seed,
+		g, err := group.Signatures(ctx, sh, group.Options{Method: f.Grouping.Method, Groups: []int{k}, Criterion: f.Grouping.Criterion, Bootstrap: 2, Seed: o.Seed,
 			Counts: counts, Bouts: counts, Workers: o.Workers})
 		if err != nil {
 			return skipped(row, err), nil

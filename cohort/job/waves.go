@@ -7,7 +7,7 @@ import (
 
 	"github.com/cohortmix/cohortmix/cluster"
 	"github.com/cohortmix/cohortmix/cluster/groupstat"
-	"github.com/cohortmix/cohortmix/cohort"
+	"github.com/cohortmix/cohortmix/cohort/group"
 	"github.com/cohortmix/cohortmix/cohort/modelfile"
 )
 
@@ -48,7 +48,7 @@ func LookupPrevious(byKey, byID map[string]string, id, wave string) string {
 // AssignChanges records who is where, against the model's members.
 func AssignChanges(m *modelfile.Model, res *Result, model string) *Changes {
 	byKey, byID := PreviousGroups(m)
-	method, _ := cohort.ParseMethod(m.Grouping.Method)
+	method, _ := group.ParseMethod(m.Grouping.Method)
 	c := &Changes{Mode: "assign", Model: model, ModelCreated: m.Created}
 	var a, b []int
 	index := map[string]int{}
@@ -64,7 +64,7 @@ func AssignChanges(m *modelfile.Model, res *Result, model string) *Changes {
 			row.Now, row.Moved = "none (nearest "+now+")", "in no group (atypical)"
 		}
 		if p, ok := index[row.Previous]; ok {
-			row.DistPrevious = cohort.SpaceDistance(method, cohort.Embed(method, u.Share), m.Grouping.Centroids[p])
+			row.DistPrevious = group.SpaceDistance(method, group.Embed(method, u.Share), m.Grouping.Centroids[p])
 			c.Returning++
 			if !u.Atypical {
 				a, b = append(a, p), append(b, u.Group)
@@ -126,15 +126,15 @@ func MeanShares(f *Fitted) [][]float64 {
 }
 
 // RefreshChanges records the fate of each group and state and who moved.
-func RefreshChanges(prev *modelfile.Model, res *Result, m *cohort.Matching, next cohort.Next, model string) *Changes {
-	method, _ := cohort.ParseMethod(prev.Grouping.Method)
+func RefreshChanges(prev *modelfile.Model, res *Result, m *group.Matching, next group.Next, model string) *Changes {
+	method, _ := group.ParseMethod(prev.Grouping.Method)
 	c := &Changes{Mode: "refresh", Model: model, ModelCreated: prev.Created, ARI: math.NaN()}
 	var a, b []int
 	for i, u := range res.Units {
 		row := ChangeRow{ID: u.ID, Wave: u.Wave, Now: res.GroupNames[u.Group], DistNow: u.Distance, DistPrevious: math.NaN(), Probability: u.Posterior}
 		if p := next.PrevGroup[i]; p >= 0 {
 			row.Previous = prev.Grouping.Names[p]
-			row.DistPrevious = cohort.SpaceDistance(method, m.Place(u.Share), m.PrevCentres[p])
+			row.DistPrevious = group.SpaceDistance(method, m.Place(u.Share), m.PrevCentres[p])
 			c.Returning++
 			a, b = append(a, p), append(b, u.Group)
 		}

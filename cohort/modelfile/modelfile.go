@@ -20,6 +20,7 @@ import (
 	"github.com/cohortmix/cohortmix/cluster/mixture"
 	"github.com/cohortmix/cohortmix/cohort"
 	"github.com/cohortmix/cohortmix/cohort/clock"
+	"github.com/cohortmix/cohortmix/cohort/group"
 	"github.com/cohortmix/cohortmix/cohort/pseudonym"
 	"github.com/cohortmix/cohortmix/cohort/scratch"
 	"github.com/cohortmix/cohortmix/normalize"
@@ -208,8 +209,8 @@ type States struct {
 	Gravity   float64 `json:"gravity,omitempty"`
 }
 
-// Mixture is the mixture method's frozen model (cohort.Grouping.Mixture): each group's
-// weight and Dirichlet parameters over the columns of cohort.BoutTable, in blocks.
+// Mixture is the mixture method's frozen model (group.Grouping.Mixture): each group's
+// weight and Dirichlet parameters over the columns of group.BoutTable, in blocks.
 type Mixture struct {
 	Weights []float64   `json:"weights"`
 	Alpha   [][]float64 `json:"alpha"`
@@ -362,7 +363,7 @@ func (m *Model) check() error {
 		if _, err := normalize.ParseWithin(f.Within); err != nil {
 			return err
 		}
-		if _, err := cohort.ParseMethod(f.Method); err != nil {
+		if _, err := group.ParseMethod(f.Method); err != nil {
 			return err
 		}
 		if len(f.States) == 0 || len(f.Groups) == 0 {
@@ -466,7 +467,7 @@ func (m *Model) check() error {
 		}
 	}
 	g := m.Grouping
-	if _, err := cohort.ParseMethod(g.Method); err != nil {
+	if _, err := group.ParseMethod(g.Method); err != nil {
 		return err
 	}
 	for _, names := range []struct {
@@ -513,7 +514,7 @@ func (m *Model) check() error {
 
 // checkMixture checks the mixture method's model against k groups over s states: a weight per
 // group summing to 1, and positive finite Dirichlet parameters over the columns of
-// cohort.BoutTable (s, or 3s with the bouts; with the states seen in p parts of the day, p·s or
+// group.BoutTable (s, or 3s with the bouts; with the states seen in p parts of the day, p·s or
 // p·s + 2s).
 func (g Grouping) checkMixture(s, p int) error {
 	mx := g.Mixture

@@ -11,8 +11,8 @@ import (
 	"strings"
 	"time"
 
-	"github.com/cohortmix/cohortmix/cluster"
 	"github.com/cohortmix/cohortmix/cluster/groupstat"
+	"github.com/cohortmix/cohortmix/cluster/par"
 	"github.com/parquet-go/parquet-go"
 )
 
@@ -278,7 +278,7 @@ func Run(ctx context.Context, inputs []string, w io.Writer, o Options) ([]Partic
 		return nil, err
 	}
 	var all []Participant
-	err := cluster.Ordered(ctx, len(inputs), o.Workers, func(i, _ int) (fileResult, error) {
+	err := par.Ordered(ctx, len(inputs), o.Workers, func(i, _ int) (fileResult, error) {
 		return runFile(ctx, inputs[i], o, col)
 	}, func(i int, r fileResult) error {
 		all = append(all, r.people...)

@@ -5,11 +5,10 @@ import (
 	"bytes"
 	"context"
 	"fmt"
+	"github.com/cohortmix/cohortmix/cluster/par"
 	"io"
 	"os"
 	"strings"
-
-	"github.com/cohortmix/cohortmix/cluster"
 )
 
 // A long recording of one participant (a text file, not compressed, without an id column) is
@@ -68,7 +67,7 @@ func splits(ctx context.Context, path string, o Options) ([]byteRange, *layout, 
 	cuts = append(cuts, st.Size())
 	ranges := make([]byteRange, len(cuts)-1)
 	lines := make([]int, len(ranges))
-	err = cluster.Ordered(ctx, len(ranges), o.Workers, func(i, _ int) (int, error) {
+	err = par.Ordered(ctx, len(ranges), o.Workers, func(i, _ int) (int, error) {
 		return countLines(f, cuts[i], cuts[i+1])
 	}, func(i, n int) error {
 		lines[i] = n
@@ -137,7 +136,7 @@ func runFileSplit(ctx context.Context, path string, o Options, col map[string]in
 	id := l0.fileID
 	// First pass, per range, joined in order.
 	var f *firstPass
-	err := cluster.Ordered(ctx, len(ranges), o.Workers, func(i, _ int) (*firstPass, error) {
+	err := par.Ordered(ctx, len(ranges), o.Workers, func(i, _ int) (*firstPass, error) {
 		part := &firstPass{p: &Participant{ID: id, File: path}}
 		l := *l0
 		err := scanPart(i, l, func(l *layout, s sample) error { return part.add(s, path) })
@@ -183,7 +182,7 @@ func runFileSplit(ctx context.Context, path string, o Options, col map[string]in
 			pending = nil
 		}
 	}
-	err = cluster.Ordered(ctx, len(ranges), o.Workers, func(i, _ int) (*rangePart, error) {
+	err = par.Ordered(ctx, len(ranges), o.Workers, func(i, _ int) (*rangePart, error) {
 		part := &rangePart{rows: &sink{col: col}, p: Participant{ID: id, File: path}}
 		sec := &secondPass{p: &part.p, pl: pl, o: o, out: part.rows}
 		l := *l0

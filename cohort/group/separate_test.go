@@ -1,4 +1,4 @@
-package cohort
+package group
 
 import (
 	"math"

@@ -1,4 +1,4 @@
-package cluster
+package par
 
 // SubSeed derives the seed of one random step of a run from the run's seed, a name for the step
 // and an index (FNV-1a over the name, then the SplitMix64 finalizer of Steele, Lea & Flood 2014),

@@ -1,7 +1,11 @@
-package cluster
+// Package par runs work on all cores with results handed back in index order, so that whatever
+// a caller accumulates is the same on any number of cores, and derives the seed of each random
+// step from a run's seed (SubSeed). It is a leaf: the readers, the algorithms and the job use it.
+package par
 
 import (
 	"context"
+	"runtime"
 	"sync"
 )
 
@@ -17,7 +21,7 @@ func Each(n, nWorkers int, f func(i int)) {
 
 // Slots is how many results Ordered lets run ahead of consume with this many workers: the
 // number of buffers a caller that reuses them needs (Ordered's slot).
-func Slots(w int) int { return 4 * workers(w) }
+func Slots(w int) int { return 4 * Workers(w) }
 
 // Ordered runs work(i) for i in [0, n) on workers goroutines at once (0 means one per core) and
 // hands each result to consume (when not nil), one at a time and in index order, so that what
@@ -26,7 +30,7 @@ func Slots(w int) int { return 4 * workers(w) }
 // index before i in the same slot has been consumed when work(i) starts, so a buffer per slot
 // can be reused. It stops at the first error, or when ctx is cancelled.
 func Ordered[R any](ctx context.Context, n, nWorkers int, work func(i, slot int) (R, error), consume func(i int, r R) error) error {
-	return Stream(ctx, min(workers(nWorkers), max(n, 1)), func(i int) (struct{}, bool, error) {
+	return Stream(ctx, min(Workers(nWorkers), max(n, 1)), func(i int) (struct{}, bool, error) {
 		return struct{}{}, i < n, nil
 	}, func(i int, _ struct{}, slot int) (R, error) {
 		return work(i, slot)
@@ -38,7 +42,7 @@ func Ordered[R any](ctx context.Context, n, nWorkers int, work func(i, slot int)
 // once, each time by the worker that then runs work on it. An error from next ends the stream:
 // Stream returns it once the results before it are consumed.
 func Stream[T, R any](ctx context.Context, nWorkers int, next func(i int) (T, bool, error), work func(i int, item T, slot int) (R, error), consume func(i int, r R) error) error {
-	w := workers(nWorkers)
+	w := Workers(nWorkers)
 	ahead := Slots(nWorkers)
 	type result struct {
 		i   int
@@ -119,4 +123,12 @@ func Stream[T, R any](ctx context.Context, nWorkers int, next func(i int) (T, bo
 		}
 	}
 	return ctx.Err()
+}
+
+// Workers is the number of goroutines for a requested count: w, or one per core when w ≤ 0.
+func Workers(w int) int {
+	if w <= 0 {
+		return runtime.GOMAXPROCS(0)
+	}
+	return w
 }

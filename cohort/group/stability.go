@@ -1,4 +1,4 @@
-package cohort
+package group
 
 import (
 	"context"
@@ -6,13 +6,14 @@ import (
 	"math/rand/v2"
 
 	"github.com/cohortmix/cohortmix/cluster"
+	"github.com/cohortmix/cohortmix/cluster/par"
 	"gonum.org/v1/gonum/mat"
 )
 
-// GroupStability is how well each group of a grouping holds when the participants are drawn
+// Stability is how well each group of a grouping holds when the participants are drawn
 // again: the clusterwise bootstrap stability of Hennig (2007), and how often each participant
 // stays with its group.
-type GroupStability struct {
+type Stability struct {
 	Resamples int
 	// Jaccard is, per group, the mean over resamples of its best Jaccard similarity with a group
 	// found anew on the resample (both restricted to the participants drawn). Hennig reads
@@ -56,21 +57,21 @@ func (g *Grouping) Score(k int) (s KScore, ok bool) {
 	return KScore{}, false
 }
 
-// groupStability computes GroupStability for the grouping lab (k groups) of the rows of x by
+// groupStability computes Stability for the grouping lab (k groups) of the rows of x by
 // drawing B bootstrap resamples of the participants (with replacement; each participant drawn
 // counts once), grouping each resample again by the method with k groups, and matching every
 // original group with the resample group of largest Jaccard similarity. Above LargeCohort
 // participants it works on a reproducible sample of LargeCohort of them, as the criteria do.
 // Reference: Hennig C (2007), Cluster-wise assessment of cluster stability, Comput. Stat. Data
 // Anal. 52:258–271.
-func groupStability(ctx context.Context, x *mat.Dense, dist *cluster.Condensed, lab []int, k int, opts GroupOptions) (*GroupStability, error) {
+func groupStability(ctx context.Context, x *mat.Dense, dist *cluster.Condensed, lab []int, k int, opts Options) (*Stability, error) {
 	n, _ := x.Dims()
 	if n > LargeCohort {
 		dist = nil
 	}
 	return resampleStability(ctx, n, lab, k, opts, func(idx []int, b int) ([]int, error) {
 		sub, subDist := subsetRows(x, dist, idx, opts.Method)
-		cut, err := newCutter(ctx, opts.Method, sub, subDist, GroupOptions{Seed: cluster.SubSeed(opts.Seed, "stability grouping", b), Workers: opts.Workers})
+		cut, err := newCutter(ctx, opts.Method, sub, subDist, Options{Seed: par.SubSeed(opts.Seed, "stability grouping", b), Workers: opts.Workers})
 		if err != nil {
 			return nil, err
 		}
@@ -80,14 +81,14 @@ func groupStability(ctx context.Context, x *mat.Dense, dist *cluster.Condensed, 
 
 // resampleStability is groupStability with the regrouping of a resample given: regroup(idx, b)
 // groups the participants idx (resample b) again into k groups.
-func resampleStability(ctx context.Context, n int, lab []int, k int, opts GroupOptions, regroup func(idx []int, b int) ([]int, error)) (*GroupStability, error) {
-	st := &GroupStability{Resamples: opts.Bootstrap, Jaccard: make([]float64, k), Stay: make([]float64, n)}
+func resampleStability(ctx context.Context, n int, lab []int, k int, opts Options, regroup func(idx []int, b int) ([]int, error)) (*Stability, error) {
+	st := &Stability{Resamples: opts.Bootstrap, Jaccard: make([]float64, k), Stay: make([]float64, n)}
 	rows := make([]int, n) // the participants resampled from
 	for i := range rows {
 		rows[i] = i
 	}
 	if n > LargeCohort {
-		rng := rand.New(rand.NewPCG(cluster.SubSeed(opts.Seed, "stability sample", 0), 1))
+		rng := rand.New(rand.NewPCG(par.SubSeed(opts.Seed, "stability sample", 0), 1))
 		perm := rng.Perm(n)[:LargeCohort]
 		rows = perm
 	}
@@ -103,8 +104,8 @@ func resampleStability(ctx context.Context, n int, lab []int, k int, opts GroupO
 		idx   []int // participants drawn, in table order of the sample; nil: too few
 		again []int // their groups in the resample
 	}
-	err := cluster.Ordered(ctx, opts.Bootstrap, opts.Workers, func(b, _ int) (regrouped, error) {
-		rng := rand.New(rand.NewPCG(cluster.SubSeed(opts.Seed, "stability", b), 1))
+	err := par.Ordered(ctx, opts.Bootstrap, opts.Workers, func(b, _ int) (regrouped, error) {
+		rng := rand.New(rand.NewPCG(par.SubSeed(opts.Seed, "stability", b), 1))
 		seen := make([]bool, m)
 		for i := 0; i < m; i++ {
 			seen[rng.IntN(m)] = true

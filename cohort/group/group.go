@@ -1,4 +1,4 @@
-package cohort
+package group
 
 import (
 	"context"
@@ -7,11 +7,12 @@ import (
 	"math/rand/v2"
 	"slices"
 	"sort"
-	"strconv"
 	"strings"
 
 	"github.com/cohortmix/cohortmix/cluster"
 	"github.com/cohortmix/cohortmix/cluster/mixture"
+	"github.com/cohortmix/cohortmix/cluster/par"
+	"github.com/cohortmix/cohortmix/cohort"
 	"gonum.org/v1/gonum/mat"
 )
 
@@ -35,7 +36,7 @@ const (
 const LargeCohort = 10_000
 
 // method is what sets a grouping method apart: one row per method, from which its name, its
-// parser, its help and its behaviour in GroupSignatures all come.
+// parser, its help and its behaviour in Signatures all come.
 type method struct {
 	name, help string
 	clr        bool // embeds the shares by their centred log-ratios; otherwise by their square roots
@@ -86,7 +87,7 @@ func ParseMethod(s string) (Method, error) {
 		}
 		names = append(names, r.name)
 	}
-	return 0, fmt.Errorf("cohort: grouping method %q: %w; use %s or %s", s, ErrBadOption, strings.Join(names[:len(names)-1], ", "), names[len(names)-1])
+	return 0, fmt.Errorf("cohort: grouping method %q: %w; use %s or %s", s, cohort.ErrBadOption, strings.Join(names[:len(names)-1], ", "), names[len(names)-1])
 }
 
 // Criterion chooses the number of groups from a range.
@@ -131,11 +132,11 @@ func ParseCriterion(s string) (Criterion, error) {
 			return c, nil
 		}
 	}
-	return 0, fmt.Errorf("cohort: criterion %q: %w; use bic or icl (the mixture method), or gap-stable-firm, gap-stable, gap, stability or silhouette", s, ErrBadOption)
+	return 0, fmt.Errorf("cohort: criterion %q: %w; use bic or icl (the mixture method), or gap-stable-firm, gap-stable, gap, stability or silhouette", s, cohort.ErrBadOption)
 }
 
-// GroupOptions sets up GroupSignatures.
-type GroupOptions struct {
+// Options sets up Signatures.
+type Options struct {
 	Method    Method
 	Groups    []int     // candidate numbers of groups, increasing (required); 1 allowed for the mixture method
 	Criterion Criterion // used when Groups has more than one value
@@ -157,7 +158,7 @@ type GroupOptions struct {
 	// day (parts·k counts, part-major), which the mixture groups in place of Counts: one block
 	// of states per part (BoutTable); the other methods take day-part shares as their shares.
 	DayParts [][]float64
-	// NoStability leaves out the bootstrap stability of the groups chosen (GroupStability).
+	// NoStability leaves out the bootstrap stability of the groups chosen (Stability).
 	NoStability bool
 	// Quick fits the mixture from 2 starts each, to a looser tolerance (1e-4 per row) and
 	// at most 100 EM iterations, and stops at the first number of groups whose criterion rises:
@@ -168,7 +169,7 @@ type GroupOptions struct {
 }
 
 // report tells opts.Progress, if set, that done of total of a step are finished.
-func (o GroupOptions) report(step string, done, total int) {
+func (o Options) report(step string, done, total int) {
 	if o.Progress != nil {
 		o.Progress(step, done, total)
 	}
@@ -200,14 +201,14 @@ type Grouping struct {
 	Note         string        // what the method did, e.g. a switch for a large cohort
 	Tree         *cluster.Tree // the participants' dendrogram, for Ward
 	CentroidTree *cluster.Tree // average linkage of the group centres, for a dendrogram of the groups
-	Stability    *GroupStability
+	Stability    *Stability
 	// Mixture is the mixture method's frozen model, its components in the groups' order; nil
 	// for the other methods.
 	Mixture *mixture.DMM
 	// Posterior is each participant's posterior probability of its group under the mixture (nil
 	// for the other methods).
 	Posterior []float64
-	// NoBouts says the mixture grouped the counts alone (GroupOptions.NoBouts).
+	// NoBouts says the mixture grouped the counts alone (Options.NoBouts).
 	NoBouts bool
 }
 
@@ -242,11 +243,11 @@ func SpaceDistance(m Method, a, b []float64) float64 {
 	return math.Sqrt(s)
 }
 
-// GroupSignatures groups participants by their shares (rows of shares, each summing to 1).
-func GroupSignatures(ctx context.Context, shares [][]float64, opts GroupOptions) (*Grouping, error) {
+// Signatures groups participants by their shares (rows of shares, each summing to 1).
+func Signatures(ctx context.Context, shares [][]float64, opts Options) (*Grouping, error) {
 	n := len(shares)
 	if len(opts.Groups) == 0 {
-		return nil, fmt.Errorf("cohort: no number of groups given: %w; set cohort.GroupOptions.Groups to 3 or a range such as 1-8", ErrBadOption)
+		return nil, fmt.Errorf("cohort: no number of groups given: %w; set cohort.GroupOptions.Groups to 3 or a range such as 1-8", cohort.ErrBadOption)
 	}
 	least := 2
 	if opts.Method == Mixture {
@@ -254,7 +255,7 @@ func GroupSignatures(ctx context.Context, shares [][]float64, opts GroupOptions)
 	}
 	for i, k := range opts.Groups {
 		if k < least || (i > 0 && k <= opts.Groups[i-1]) {
-			return nil, fmt.Errorf("cohort: groups %v: %w; give increasing numbers ≥ %d", opts.Groups, ErrBadOption, least)
+			return nil, fmt.Errorf("cohort: groups %v: %w; give increasing numbers ≥ %d", opts.Groups, cohort.ErrBadOption, least)
 		}
 	}
 	if opts.Bootstrap == 0 {
@@ -262,15 +263,15 @@ func GroupSignatures(ctx context.Context, shares [][]float64, opts GroupOptions)
 	}
 	if opts.Method == Mixture {
 		if n < 2 {
-			return nil, fmt.Errorf("cohort: %d participants to group: %w; grouping needs at least 2", n, ErrTooFew)
+			return nil, fmt.Errorf("cohort: %d participants to group: %w; grouping needs at least 2", n, cohort.ErrTooFew)
 		}
 		return groupMixture(ctx, shares, opts)
 	}
 	if opts.Criterion == ByBIC || opts.Criterion == ByICL {
-		return nil, fmt.Errorf("cohort: criterion %s is the mixture method's; %s chooses by gap-stable-firm, gap-stable, gap, stability or silhouette: %w", opts.Criterion, opts.Method, ErrBadOption)
+		return nil, fmt.Errorf("cohort: criterion %s is the mixture method's; %s chooses by gap-stable-firm, gap-stable, gap, stability or silhouette: %w", opts.Criterion, opts.Method, cohort.ErrBadOption)
 	}
 	if maxK := opts.Groups[len(opts.Groups)-1]; maxK > n-1 {
-		return nil, fmt.Errorf("cohort: %d groups asked for but %d participants are grouped: %w; lower cohort.GroupOptions.Groups to at most %d", maxK, n, ErrTooFew, max(2, n-1))
+		return nil, fmt.Errorf("cohort: %d groups asked for but %d participants are grouped: %w; lower cohort.GroupOptions.Groups to at most %d", maxK, n, cohort.ErrTooFew, max(2, n-1))
 	}
 	if opts.Bootstrap == 0 {
 		opts.Bootstrap = 20
@@ -283,7 +284,7 @@ func GroupSignatures(ctx context.Context, shares [][]float64, opts GroupOptions)
 		opts.Method = WardHellinger
 		if n > LargeCohort {
 			opts.Method = KMeansCLR
-			note = fmt.Sprintf("%s participants are more than %s: they were grouped by k-means on the centred log-ratios, which scales, instead of Ward linkage (set cohort.GroupOptions.Method ward-hellinger to insist)", Thousands(n), Thousands(LargeCohort))
+			note = fmt.Sprintf("%s participants are more than %s: they were grouped by k-means on the centred log-ratios, which scales, instead of Ward linkage (set cohort.GroupOptions.Method ward-hellinger to insist)", cohort.Thousands(n), cohort.Thousands(LargeCohort))
 		}
 	}
 	g := &Grouping{Method: opts.Method, Criterion: opts.Criterion, Note: note}
@@ -347,7 +348,7 @@ func GroupSignatures(ctx context.Context, shares [][]float64, opts GroupOptions)
 		if g.Note != "" {
 			g.Note += "; "
 		}
-		g.Note += fmt.Sprintf("the mean silhouettes, the gap statistic and the stability of each number of groups were computed on a reproducible sample of %s of the %s participants", Thousands(LargeCohort), Thousands(n))
+		g.Note += fmt.Sprintf("the mean silhouettes, the gap statistic and the stability of each number of groups were computed on a reproducible sample of %s of the %s participants", cohort.Thousands(LargeCohort), cohort.Thousands(n))
 	}
 	for _, k := range opts.Groups {
 		sc := KScore{K: k}
@@ -414,7 +415,7 @@ func GroupSignatures(ctx context.Context, shares [][]float64, opts GroupOptions)
 		if g.Note != "" {
 			g.Note += "; "
 		}
-		g.Note += fmt.Sprintf("silhouettes were computed for a sample of 5,000 participants (each against all): a full distance matrix on %s would need %s MiB", Thousands(n), Thousands(int(cluster.CondensedBytes(n)>>20)))
+		g.Note += fmt.Sprintf("silhouettes were computed for a sample of 5,000 participants (each against all): a full distance matrix on %s would need %s MiB", cohort.Thousands(n), cohort.Thousands(int(cluster.CondensedBytes(n)>>20)))
 	}
 	return g, nil
 }
@@ -423,7 +424,7 @@ func GroupSignatures(ctx context.Context, shares [][]float64, opts GroupOptions)
 // in row order) with their labels for every k.
 func sampleRows(x *mat.Dense, labelsByK map[int][]int, m int, seed uint64) (*mat.Dense, map[int][]int) {
 	n, d := x.Dims()
-	rng := rand.New(rand.NewPCG(cluster.SubSeed(seed, "criteria sample", 0), 1))
+	rng := rand.New(rand.NewPCG(par.SubSeed(seed, "criteria sample", 0), 1))
 	perm := make([]int, n)
 	for i := range perm {
 		perm[i] = i
@@ -449,15 +450,6 @@ func sampleRows(x *mat.Dense, labelsByK map[int][]int, m int, seed uint64) (*mat
 	return out, lab
 }
 
-// Thousands writes n with commas between groups of three digits, as the workbook's notes do.
-func Thousands(n int) string {
-	s := strconv.Itoa(n)
-	for i := len(s) - 3; i > 0 && s[i-1] != '-'; i -= 3 {
-		s = s[:i] + "," + s[i:]
-	}
-	return s
-}
-
 func expand(s *cluster.SilhouetteResult, n int) []float64 {
 	out := make([]float64, n)
 	for i := range out {
@@ -469,7 +461,7 @@ func expand(s *cluster.SilhouetteResult, n int) []float64 {
 	return out
 }
 
-func silhouetteOf(x *mat.Dense, dist *cluster.Condensed, lab []int, opts GroupOptions) (*cluster.SilhouetteResult, error) {
+func silhouetteOf(x *mat.Dense, dist *cluster.Condensed, lab []int, opts Options) (*cluster.SilhouetteResult, error) {
 	if dist != nil {
 		return cluster.SilhouetteCondensed(dist, lab, cluster.SilhouetteOptions{Workers: opts.Workers})
 	}
@@ -477,7 +469,7 @@ func silhouetteOf(x *mat.Dense, dist *cluster.Condensed, lab []int, opts GroupOp
 }
 
 // newCutter returns a function giving labels for k groups with the method; Ward builds its tree once.
-func newCutter(ctx context.Context, m Method, x *mat.Dense, dist *cluster.Condensed, opts GroupOptions) (func(k int) ([]int, error), error) {
+func newCutter(ctx context.Context, m Method, x *mat.Dense, dist *cluster.Condensed, opts Options) (func(k int) ([]int, error), error) {
 	switch r := m.row(); {
 	case r.tree:
 		tree, err := cluster.WardPoints(ctx, x, cluster.WardOptions{Workers: opts.Workers})
@@ -495,7 +487,7 @@ func newCutter(ctx context.Context, m Method, x *mat.Dense, dist *cluster.Conden
 		}, nil
 	default:
 		return func(k int) ([]int, error) {
-			r, err := cluster.KMeans(ctx, x, cluster.KMeansOptions{K: k, Seed: cluster.SubSeed(opts.Seed, "groups k-means", k), Workers: opts.Workers})
+			r, err := cluster.KMeans(ctx, x, cluster.KMeansOptions{K: k, Seed: par.SubSeed(opts.Seed, "groups k-means", k), Workers: opts.Workers})
 			if err != nil {
 				return nil, err
 			}
@@ -507,7 +499,7 @@ func newCutter(ctx context.Context, m Method, x *mat.Dense, dist *cluster.Conden
 // scoreGap fills Gap and GapSE: log W_k of the data against B reference sets drawn uniformly in
 // the box of the data's principal axes (Tibshirani, Walther & Hastie 2001, §3, reference (b)),
 // each grouped by the Euclidean form of the method (Ward, or k-means for the others).
-func scoreGap(ctx context.Context, x *mat.Dense, scores []KScore, labelsByK map[int][]int, opts GroupOptions) error {
+func scoreGap(ctx context.Context, x *mat.Dense, scores []KScore, labelsByK map[int][]int, opts Options) error {
 	n, d := x.Dims()
 	ks := make([]int, len(scores))
 	for i, s := range scores {
@@ -530,8 +522,8 @@ func scoreGap(ctx context.Context, x *mat.Dense, scores []KScore, labelsByK map[
 	logW := make([][]float64, len(ks)) // per k, per reference
 	// The references are drawn and grouped side by side, each from its own seed, and their
 	// log W_k gathered in reference order, so the sums are the same on any number of cores.
-	err = cluster.Ordered(ctx, opts.Bootstrap, opts.Workers, func(b, _ int) ([]float64, error) {
-		rng := rand.New(rand.NewPCG(cluster.SubSeed(opts.Seed, "gap reference", b), 1))
+	err = par.Ordered(ctx, opts.Bootstrap, opts.Workers, func(b, _ int) ([]float64, error) {
+		rng := rand.New(rand.NewPCG(par.SubSeed(opts.Seed, "gap reference", b), 1))
 		ref := mat.NewDense(n, d, nil)
 		row := make([]float64, p)
 		for i := 0; i < n; i++ {
@@ -551,7 +543,7 @@ func scoreGap(ctx context.Context, x *mat.Dense, scores []KScore, labelsByK map[
 		if m != WardHellinger {
 			m = KMeansCLR
 		}
-		cut, err := newCutter(ctx, m, ref, nil, GroupOptions{Seed: cluster.SubSeed(opts.Seed, "gap reference grouping", b), Workers: opts.Workers})
+		cut, err := newCutter(ctx, m, ref, nil, Options{Seed: par.SubSeed(opts.Seed, "gap reference grouping", b), Workers: opts.Workers})
 		if err != nil {
 			return nil, err
 		}
@@ -621,7 +613,7 @@ func withinSS(x *mat.Dense, lab []int, k int) float64 {
 
 // scoreStability fills Stability: for B bootstrap resamples, the grouping of the resample is
 // compared by ARI with the grouping of all participants on the resampled ones (Lange et al. 2004).
-func scoreStability(ctx context.Context, x *mat.Dense, dist *cluster.Condensed, scores []KScore, labelsByK map[int][]int, opts GroupOptions) error {
+func scoreStability(ctx context.Context, x *mat.Dense, dist *cluster.Condensed, scores []KScore, labelsByK map[int][]int, opts Options) error {
 	n, _ := x.Dims()
 	sum, sum2 := make([]float64, len(scores)), make([]float64, len(scores))
 	// The resamples are grouped side by side, each from its own seed, and their indices summed
@@ -630,8 +622,8 @@ func scoreStability(ctx context.Context, x *mat.Dense, dist *cluster.Condensed, 
 		ari     float64
 		counted bool // false: too few drawn for this number of groups
 	}
-	err := cluster.Ordered(ctx, opts.Bootstrap, opts.Workers, func(b, _ int) ([]drawn, error) {
-		rng := rand.New(rand.NewPCG(cluster.SubSeed(opts.Seed, "bootstrap", b), 1))
+	err := par.Ordered(ctx, opts.Bootstrap, opts.Workers, func(b, _ int) ([]drawn, error) {
+		rng := rand.New(rand.NewPCG(par.SubSeed(opts.Seed, "bootstrap", b), 1))
 		seen := make([]bool, n)
 		for i := 0; i < n; i++ {
 			seen[rng.IntN(n)] = true
@@ -643,7 +635,7 @@ func scoreStability(ctx context.Context, x *mat.Dense, dist *cluster.Condensed, 
 			}
 		}
 		sub, subDist := subsetRows(x, dist, idx, opts.Method)
-		cut, err := newCutter(ctx, opts.Method, sub, subDist, GroupOptions{Seed: cluster.SubSeed(opts.Seed, "bootstrap grouping", b), Workers: opts.Workers})
+		cut, err := newCutter(ctx, opts.Method, sub, subDist, Options{Seed: par.SubSeed(opts.Seed, "bootstrap grouping", b), Workers: opts.Workers})
 		if err != nil {
 			return nil, err
 		}
@@ -831,7 +823,7 @@ func Place(m Method, centroids [][]float64, shares [][]float64, workers int) (*G
 	for i, s := range shares {
 		e := Embed(m, s)
 		if len(e) != len(centroids[0]) {
-			return nil, fmt.Errorf("cohort: Place: signature of %d states for centres over %d: %w", len(e), len(centroids[0]), ErrMismatch)
+			return nil, fmt.Errorf("cohort: Place: signature of %d states for centres over %d: %w", len(e), len(centroids[0]), cohort.ErrMismatch)
 		}
 		x.SetRow(i, e)
 		best, bestD := 0, math.Inf(1)
@@ -846,7 +838,7 @@ func Place(m Method, centroids [][]float64, shares [][]float64, workers int) (*G
 		g.Silhouette[i] = math.NaN()
 	}
 	if distinct(g.Labels) >= 2 && distinct(g.Labels) <= n-1 {
-		opts := GroupOptions{Method: m, Workers: workers}
+		opts := Options{Method: m, Workers: workers}
 		var dist *cluster.Condensed
 		if m.row().js && cluster.CondensedBytes(n) < 1<<30 {
 			raw := mat.NewDense(n, len(shares[0]), nil)
@@ -886,7 +878,7 @@ func CheckRanges(features []string, fitted [][3]float64, medians [][]float64) []
 		}
 		lo, hi := fitted[j][0], fitted[j][2]
 		w := math.Max(hi-lo, 1e-12)
-		m := Median(append([]float64(nil), medians[j]...))
+		m := cohort.Median(append([]float64(nil), medians[j]...))
 		if m < lo-w || m > hi+w {
 			out = append(out, fmt.Sprintf("feature %s: the new participants' median is %.4g, far outside the fitted participants' range %.4g to %.4g; check its unit or scale", name, m, lo, hi))
 		}

@@ -1,4 +1,4 @@
-package cohort
+package group
 
 import (
 	"context"
@@ -9,6 +9,8 @@ import (
 
 	"github.com/cohortmix/cohortmix/cluster"
 	"github.com/cohortmix/cohortmix/cluster/mixture"
+	"github.com/cohortmix/cohortmix/cluster/par"
+	"github.com/cohortmix/cohortmix/cohort"
 	"gonum.org/v1/gonum/mat"
 )
 
@@ -35,20 +37,20 @@ const mixtureStarts = 5
 // blocks. With noBouts it is the windows in each state alone (bouts is not used).
 //
 // With parts (each participant's windows in each state within each part of the day, part-major,
-// as GroupOptions.DayParts), the first block gives way to one block of states per part, each
+// as Options.DayParts), the first block gives way to one block of states per part, each
 // cell its windows' share of the participant's times its number of bouts (or its windows, with
 // noBouts): the parts' blocks add up to the whole recording's.
 func BoutTable(counts, bouts, parts [][]float64, noBouts bool) (*mat.Dense, []int, error) {
 	n := len(counts)
 	if n == 0 || (!noBouts && len(bouts) != n) || (parts != nil && len(parts) != n) {
-		return nil, nil, fmt.Errorf("cohort: %d participants' windows, %d participants' bouts and %d participants' parts of the day: %w", n, len(bouts), len(parts), ErrBadOption)
+		return nil, nil, fmt.Errorf("cohort: %d participants' windows, %d participants' bouts and %d participants' parts of the day: %w", n, len(bouts), len(parts), cohort.ErrBadOption)
 	}
 	s := len(counts[0])
 	lead := s // the columns before the bouts'
 	blocks := []int{s}
 	if parts != nil {
 		if len(parts[0])%s != 0 || len(parts[0]) == 0 {
-			return nil, nil, fmt.Errorf("cohort: %d counts by part of the day for %d states: %w", len(parts[0]), s, ErrBadOption)
+			return nil, nil, fmt.Errorf("cohort: %d counts by part of the day for %d states: %w", len(parts[0]), s, cohort.ErrBadOption)
 		}
 		lead, blocks = len(parts[0]), nil
 		for p := 0; p < lead/s; p++ {
@@ -66,7 +68,7 @@ func BoutTable(counts, bouts, parts [][]float64, noBouts bool) (*mat.Dense, []in
 	x := mat.NewDense(n, cols, nil)
 	for i := range counts {
 		if len(counts[i]) != s || (!noBouts && len(bouts[i]) != s) || (parts != nil && len(parts[i]) != lead) {
-			return nil, nil, fmt.Errorf("cohort: participant %d has %d states' windows, participant 0 %d: %w", i, len(counts[i]), s, ErrBadOption)
+			return nil, nil, fmt.Errorf("cohort: participant %d has %d states' windows, participant 0 %d: %w", i, len(counts[i]), s, cohort.ErrBadOption)
 		}
 		if noBouts {
 			if parts != nil {
@@ -80,7 +82,7 @@ func BoutTable(counts, bouts, parts [][]float64, noBouts bool) (*mat.Dense, []in
 		for j := 0; j < s; j++ {
 			c, b := counts[i][j], bouts[i][j]
 			if b > c || b < 0 || (c > 0 && b == 0) {
-				return nil, nil, fmt.Errorf("cohort: participant %d, state %d: %v bouts in %v windows: %w", i, j, b, c, ErrBadOption)
+				return nil, nil, fmt.Errorf("cohort: participant %d, state %d: %v bouts in %v windows: %w", i, j, b, c, cohort.ErrBadOption)
 			}
 			total += c
 			runs += b
@@ -100,34 +102,34 @@ func BoutTable(counts, bouts, parts [][]float64, noBouts bool) (*mat.Dense, []in
 	return x, blocks, nil
 }
 
-// groupMixture is GroupSignatures for the mixture method: the mixture is fitted for each
+// groupMixture is Signatures for the mixture method: the mixture is fitted for each
 // number of groups in opts.Groups (1 allowed), from mixtureStarts starts each, in increasing
 // order until the criterion has risen twice in a row past its best; the number with the lowest
 // criterion (BIC or ICL) is kept.
-func groupMixture(ctx context.Context, shares [][]float64, opts GroupOptions) (*Grouping, error) {
+func groupMixture(ctx context.Context, shares [][]float64, opts Options) (*Grouping, error) {
 	n := len(shares)
 	if opts.Criterion != ByBIC && opts.Criterion != ByICL {
-		return nil, fmt.Errorf("cohort: the mixture method chooses its number of groups by bic or icl, not %s: %w", opts.Criterion, ErrBadOption)
+		return nil, fmt.Errorf("cohort: the mixture method chooses its number of groups by bic or icl, not %s: %w", opts.Criterion, cohort.ErrBadOption)
 	}
 	x, blocks, err := BoutTable(opts.Counts, opts.Bouts, opts.DayParts, opts.NoBouts)
 	if err != nil {
 		return nil, err
 	}
 	if x.RawMatrix().Rows != n {
-		return nil, fmt.Errorf("cohort: %d participants' shares and %d participants' bouts: %w", n, x.RawMatrix().Rows, ErrBadOption)
+		return nil, fmt.Errorf("cohort: %d participants' shares and %d participants' bouts: %w", n, x.RawMatrix().Rows, cohort.ErrBadOption)
 	}
 	g := &Grouping{Method: Mixture, Criterion: opts.Criterion, NoBouts: opts.NoBouts}
 	fitRows := x
 	var sampled []int
 	if n > mixtureFitRows {
-		rng := rand.New(rand.NewPCG(cluster.SubSeed(opts.Seed, "mixture sample", 0), 1))
+		rng := rand.New(rand.NewPCG(par.SubSeed(opts.Seed, "mixture sample", 0), 1))
 		sampled = rng.Perm(n)[:mixtureFitRows]
 		slices.Sort(sampled)
 		fitRows = mat.NewDense(len(sampled), x.RawMatrix().Cols, nil)
 		for r, i := range sampled {
 			fitRows.SetRow(r, x.RawRowView(i))
 		}
-		g.Note = fmt.Sprintf("the mixture was fitted on a reproducible sample of %s of the %s participants, and every participant was placed by it", Thousands(mixtureFitRows), Thousands(n))
+		g.Note = fmt.Sprintf("the mixture was fitted on a reproducible sample of %s of the %s participants, and every participant was placed by it", cohort.Thousands(mixtureFitRows), cohort.Thousands(n))
 	}
 	fr := fitRows.RawMatrix().Rows
 	var best *mixture.DMM
@@ -136,7 +138,7 @@ func groupMixture(ctx context.Context, shares [][]float64, opts GroupOptions) (*
 		if k > fr {
 			break
 		}
-		mo := mixture.DMMOptions{K: k, Blocks: blocks, Starts: mixtureStarts, Seed: cluster.SubSeed(opts.Seed, "mixture", k), Workers: opts.Workers}
+		mo := mixture.DMMOptions{K: k, Blocks: blocks, Starts: mixtureStarts, Seed: par.SubSeed(opts.Seed, "mixture", k), Workers: opts.Workers}
 		if opts.Quick {
 			mo.Starts, mo.Tol, mo.MaxIter = 2, 1e-4, 100
 		}
@@ -161,7 +163,7 @@ func groupMixture(ctx context.Context, shares [][]float64, opts GroupOptions) (*
 		}
 	}
 	if best == nil {
-		return nil, fmt.Errorf("cohort: %d participants for at least %d groups: %w", fr, opts.Groups[0], ErrTooFew)
+		return nil, fmt.Errorf("cohort: %d participants for at least %d groups: %w", fr, opts.Groups[0], cohort.ErrTooFew)
 	}
 	post, labels := best.Posterior, best.Labels
 	if sampled != nil {
@@ -261,7 +263,7 @@ func groupMixture(ctx context.Context, shares [][]float64, opts GroupOptions) (*
 // mixtureStability is the groups' bootstrap stability (resampleStability): each resample is
 // fitted again with the same number of groups by EM from the memberships the whole fit gave its
 // participants (a warm start, so that a group that holds is found again where it was).
-func mixtureStability(ctx context.Context, x *mat.Dense, blocks []int, g *Grouping, opts GroupOptions) (*GroupStability, error) {
+func mixtureStability(ctx context.Context, x *mat.Dense, blocks []int, g *Grouping, opts Options) (*Stability, error) {
 	n, cols := x.Dims()
 	post, _, err := g.Mixture.Place(x)
 	if err != nil {
@@ -284,10 +286,10 @@ func mixtureStability(ctx context.Context, x *mat.Dense, blocks []int, g *Groupi
 
 // PlaceMixture puts participants into the groups of a frozen mixture (Grouping.Mixture): each
 // in its most probable group, with that probability, and its distance to the group's centre
-// in the Hellinger embedding (centroids), as GroupSignatures measured the members'.
+// in the Hellinger embedding (centroids), as Signatures measured the members'.
 //
 // parts are the participants' windows by part of the day when the mixture was fitted on them
-// (GroupOptions.DayParts), else nil; shares are then the day-part shares.
+// (Options.DayParts), else nil; shares are then the day-part shares.
 func PlaceMixture(m *mixture.DMM, centroids [][]float64, shares, counts, bouts, parts [][]float64) (*Grouping, error) {
 	n := len(shares)
 	g := &Grouping{Method: Mixture, K: m.K, Centroids: centroids, Mixture: m, Labels: make([]int, n), Distance: make([]float64, n), Silhouette: make([]float64, n), Posterior: make([]float64, n)}

@@ -1,4 +1,4 @@
-package cohort
+package group
 
 import (
 	"context"
@@ -9,6 +9,7 @@ import (
 	"testing"
 
 	"github.com/cohortmix/cohortmix/cluster"
+	"github.com/cohortmix/cohortmix/cohort"
 	"gonum.org/v1/gonum/mat"
 )
 
@@ -38,7 +39,7 @@ func TestGroupingMethodsRecoverPlantedGroups(t *testing.T) {
 	shares, truth := plantedShares(120, 3, 1)
 	for _, m := range []Method{WardHellinger, PAMAitchison, PAMJensenShannon, KMeansCLR} {
 		t.Run(m.String(), func(t *testing.T) {
-			g, err := GroupSignatures(context.Background(), shares, GroupOptions{Method: m, Groups: []int{2, 3, 4, 5}, Bootstrap: 10, Seed: 1})
+			g, err := Signatures(context.Background(), shares, Options{Method: m, Groups: []int{2, 3, 4, 5}, Bootstrap: 10, Seed: 1})
 			if err != nil {
 				t.Fatal(err)
 			}
@@ -60,7 +61,7 @@ func TestAutoSwitchesForLargeCohorts(t *testing.T) {
 		t.Skip("groups 10,050 signatures")
 	}
 	shares, truth := plantedShares(LargeCohort+50, 3, 2)
-	g, err := GroupSignatures(context.Background(), shares, GroupOptions{Method: Auto, Groups: []int{3}, Seed: 1})
+	g, err := Signatures(context.Background(), shares, Options{Method: Auto, Groups: []int{3}, Seed: 1})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -72,7 +73,7 @@ func TestAutoSwitchesForLargeCohorts(t *testing.T) {
 	}
 	// With a range, the gap and the stability work on a sample of LargeCohort participants, and
 	// the gap still finds the three planted groups.
-	g, err = GroupSignatures(context.Background(), shares, GroupOptions{Method: Auto, Groups: []int{2, 3, 4}, Bootstrap: 5, Seed: 1})
+	g, err = Signatures(context.Background(), shares, Options{Method: Auto, Groups: []int{2, 3, 4}, Bootstrap: 5, Seed: 1})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -137,13 +138,13 @@ func TestMatchNamesGroupsByTheirPeopleFirst(t *testing.T) {
 
 func TestThousands(t *testing.T) {
 	for n, want := range map[int]string{0: "0", 999: "999", 1000: "1,000", 38146: "38,146", 100000: "100,000", 1234567: "1,234,567", -1500: "-1,500"} {
-		if got := Thousands(n); got != want {
+		if got := cohort.Thousands(n); got != want {
 			t.Errorf("Thousands(%d) = %q, want %q", n, got, want)
 		}
 	}
 }
 
-// GroupSignatures reports each step it counts (one grouping per candidate number, then the
+// Signatures reports each step it counts (one grouping per candidate number, then the
 // gap's reference sets and the stability's resamples), each counting up to its total; the
 // reports do not change the result.
 func TestGroupReportsProgress(t *testing.T) {
@@ -153,13 +154,13 @@ func TestGroupReportsProgress(t *testing.T) {
 		done, total int
 	}
 	var calls []call
-	opts := GroupOptions{Method: KMeansCLR, Groups: []int{2, 3, 4}, Bootstrap: 5, Seed: 1}
-	quiet, err := GroupSignatures(context.Background(), shares, opts)
+	opts := Options{Method: KMeansCLR, Groups: []int{2, 3, 4}, Bootstrap: 5, Seed: 1}
+	quiet, err := Signatures(context.Background(), shares, opts)
 	if err != nil {
 		t.Fatal(err)
 	}
 	opts.Progress = func(step string, done, total int) { calls = append(calls, call{step, done, total}) }
-	g, err := GroupSignatures(context.Background(), shares, opts)
+	g, err := Signatures(context.Background(), shares, opts)
 	if err != nil {
 		t.Fatal(err)
 	}

@@ -1,4 +1,4 @@
-package cohort
+package group
 
 import (
 	"fmt"
@@ -7,6 +7,7 @@ import (
 	"strings"
 
 	"github.com/cohortmix/cohortmix/cluster"
+	"github.com/cohortmix/cohortmix/cohort"
 	"gonum.org/v1/gonum/mat"
 )
 
@@ -73,7 +74,7 @@ func Match(prev Previous, next Next) (*Matching, error) {
 		return out
 	}
 	if len(next.StateMeans) == 0 || len(prev.StateMeans) == 0 {
-		return nil, fmt.Errorf("cohort: Match: no states: %w", ErrMismatch)
+		return nil, fmt.Errorf("cohort: Match: no states: %w", cohort.ErrMismatch)
 	}
 	sp, sd, err := cluster.MatchCentroids(std(prev.StateMeans), std(next.StateMeans))
 	if err != nil {
