@@ -6,6 +6,8 @@ import (
 	"encoding/csv"
 	"encoding/json"
 	"errors"
+	"image/color"
+	"image/png"
 	"io"
 	"math"
 	"os"
@@ -584,6 +586,38 @@ func TestMembersCSVNeutralisesFormulas(t *testing.T) {
 		}
 		if !got[want] {
 			t.Errorf("id %q: not written as %q (got %v)", id, want, got)
+		}
+	}
+}
+
+// The dendrogram is a PNG of the stated size in which the tree's ink and every group's colour
+// appear (a picture that failed to draw its leaves or lines would lack them).
+func TestDendrogramDrawsTreeAndLeaves(t *testing.T) {
+	r := fixture(t, 30, func(i int) string { return "P" + digits(i) })
+	b, caption, err := Dendrogram(r)
+	if err != nil || b == nil || !strings.Contains(caption, "3 group centres") {
+		t.Fatalf("%d bytes, %q, %v", len(b), caption, err)
+	}
+	img, err := png.Decode(bytes.NewReader(b))
+	if err != nil {
+		t.Fatal(err)
+	}
+	if got := img.Bounds().Size(); got.X != dendroW || got.Y != dendroH {
+		t.Errorf("size %v, want %dx%d", got, dendroW, dendroH)
+	}
+	seen := map[color.RGBA]int{}
+	for y := 0; y < dendroH; y++ {
+		for x := 0; x < dendroW; x++ {
+			r, g, b, _ := img.At(x, y).RGBA()
+			seen[color.RGBA{uint8(r >> 8), uint8(g >> 8), uint8(b >> 8), 0xff}]++
+		}
+	}
+	if seen[ink] < 500 {
+		t.Errorf("%d pixels of ink: the tree and axis are not drawn", seen[ink])
+	}
+	for g := range r.GroupNames {
+		if seen[groupColour(g)] < 20 {
+			t.Errorf("group %d's colour on %d pixels: its leaf and legend are not drawn", g, seen[groupColour(g)])
 		}
 	}
 }
