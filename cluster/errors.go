@@ -11,13 +11,13 @@ import (
 
 // Sentinel causes; every error of this package wraps one of them.
 var (
-	ErrK            = errors.New("number of groups out of range")
-	ErrNonFinite    = errors.New("value is NaN or infinite")
-	ErrShape        = errors.New("sizes do not match")
-	ErrEmpty        = errors.New("no data")
-	ErrZeroVariance = errors.New("no variance")
-	ErrTooLarge     = errors.New("memory limit exceeded")
-	ErrDomain       = errors.New("value outside the method's domain")
+	ErrK            = errors.New("cluster: number of groups out of range")
+	ErrNonFinite    = errors.New("cluster: value is NaN or infinite")
+	ErrShape        = errors.New("cluster: sizes do not match")
+	ErrEmpty        = errors.New("cluster: no data")
+	ErrZeroVariance = errors.New("cluster: no variance")
+	ErrTooLarge     = errors.New("cluster: memory limit exceeded")
+	ErrDomain       = errors.New("cluster: value outside the method's domain")
 )
 
 // rowMajor returns the entries of x row by row, without copying when x is a compact *mat.Dense.

@@ -33,19 +33,19 @@ func (r *reader) readParquet(p string) (err error) {
 	}()
 	f, err := os.Open(p)
 	if err != nil {
-		return &InputError{File: p, Msg: "cannot open: " + err.Error(), Err: ErrOpen}
+		return &InputError{File: p, Msg: "cannot open: " + err.Error(), Err: ErrOpen, Cause: err}
 	}
 	defer f.Close()
 	st, err := f.Stat()
 	if err != nil {
-		return &InputError{File: p, Msg: "cannot open: " + err.Error(), Err: ErrOpen}
+		return &InputError{File: p, Msg: "cannot open: " + err.Error(), Err: ErrOpen, Cause: err}
 	}
 	if err := pqframe.Check(f, st.Size()); err != nil {
-		return &InputError{File: p, Msg: err.Error(), Err: ErrNotText}
+		return &InputError{File: p, Msg: err.Error(), Err: ErrNotText, Cause: err}
 	}
 	pf, err := parquet.OpenFile(f, st.Size())
 	if err != nil {
-		return &InputError{File: p, Msg: "not a readable Parquet file (" + err.Error() + "); write it again, or export CSV", Err: ErrNotText}
+		return &InputError{File: p, Msg: "not a readable Parquet file (" + err.Error() + "); write it again, or export CSV", Err: ErrNotText, Cause: err}
 	}
 	schema := pf.Schema()
 	var header []string
@@ -154,7 +154,7 @@ func (r *reader) readParquet(p string) (err error) {
 	hashed := <-hashing
 	hexsum, size, err := hashed.sum, hashed.size, hashed.err
 	if err != nil {
-		return &InputError{File: p, Msg: "cannot read: " + err.Error(), Err: ErrOpen}
+		return &InputError{File: p, Msg: "cannot read: " + err.Error(), Err: ErrOpen, Cause: err}
 	}
 	r.files = append(r.files, FileInfo{Path: p, SHA256: hexsum, Bytes: size, Rows: rowNo - 1})
 	r.rows += rowNo - 1

@@ -319,7 +319,7 @@ func expandPaths(paths []string) ([]string, error) {
 		case err == nil && st.IsDir():
 			entries, err := os.ReadDir(p)
 			if err != nil {
-				return nil, &InputError{File: p, Msg: "cannot list the folder: " + err.Error(), Err: ErrOpen}
+				return nil, &InputError{File: p, Msg: "cannot list the folder: " + err.Error(), Err: ErrOpen, Cause: err}
 			}
 			n := len(out)
 			for _, e := range entries {
@@ -440,13 +440,13 @@ func openInput(p string) (io.Reader, func() (string, int64), func() error, *coun
 	} else {
 		st, err := os.Stat(p)
 		if err != nil {
-			return nil, nil, nil, nil, 0, &InputError{File: p, Msg: "cannot open: " + strings.TrimPrefix(err.Error(), "stat "+p+": ") + "; check the path", Err: ErrOpen}
+			return nil, nil, nil, nil, 0, &InputError{File: p, Msg: "cannot open: " + strings.TrimPrefix(err.Error(), "stat "+p+": ") + "; check the path", Err: ErrOpen, Cause: err}
 		}
 		if st.IsDir() {
 			return nil, nil, nil, nil, 0, &InputError{File: p, Msg: "is a directory; name the table files inside it", Err: ErrOpen}
 		}
 		if f, err = os.Open(p); err != nil {
-			return nil, nil, nil, nil, 0, &InputError{File: p, Msg: "cannot open: " + err.Error(), Err: ErrOpen}
+			return nil, nil, nil, nil, 0, &InputError{File: p, Msg: "cannot open: " + err.Error(), Err: ErrOpen, Cause: err}
 		}
 		size = st.Size()
 	}
@@ -458,7 +458,7 @@ func openInput(p string) (io.Reader, func() (string, int64), func() error, *coun
 		gz, err := gzip.NewReader(raw)
 		if err != nil {
 			f.Close()
-			return nil, nil, nil, nil, 0, &InputError{File: p, Msg: "gzip header is damaged: " + err.Error(), Err: ErrNotText}
+			return nil, nil, nil, nil, 0, &InputError{File: p, Msg: "gzip header is damaged: " + err.Error(), Err: ErrNotText, Cause: err}
 		}
 		in = bufio.NewReaderSize(gz, 1<<20)
 	}
@@ -804,9 +804,9 @@ func (r *reader) gzipOrIO(p string, err error) error {
 		return ie
 	}
 	if errors.Is(err, io.ErrUnexpectedEOF) || errors.Is(err, gzip.ErrChecksum) || errors.Is(err, gzip.ErrHeader) {
-		return &InputError{File: p, Msg: "compressed file is cut short or damaged (" + err.Error() + "); copy it again from the source", Err: ErrNotText}
+		return &InputError{File: p, Msg: "compressed file is cut short or damaged (" + err.Error() + "); copy it again from the source", Err: ErrNotText, Cause: err}
 	}
-	return &InputError{File: p, Msg: "read failed: " + err.Error(), Err: ErrOpen}
+	return &InputError{File: p, Msg: "read failed: " + err.Error(), Err: ErrOpen, Cause: err}
 }
 
 func (r *reader) csvError(p string, err error) error {
@@ -1522,7 +1522,7 @@ func (r *reader) nonWearColumn() (string, int, error) {
 	}
 	j, err := countsFeature(r.features, r.opts.NonWearFeature)
 	if err != nil {
-		return "", -1, &InputError{File: r.firstFile, Msg: err.Error(), Err: ErrNoColumn}
+		return "", -1, &InputError{File: r.firstFile, Msg: err.Error(), Err: ErrNoColumn, Cause: err}
 	}
 	return rule, j, nil
 }

@@ -7,6 +7,7 @@ import (
 	"encoding/binary"
 	"errors"
 	"fmt"
+	"io/fs"
 	"math"
 	"math/rand/v2"
 	"os"
@@ -186,6 +187,15 @@ func TestReadMissingPaths(t *testing.T) {
 		if err == nil || err.Error() != c.path+": "+c.want || !errors.Is(err, ErrOpen) {
 			t.Errorf("%s: got %v", c.path, err)
 		}
+	}
+	// The system's error is kept beneath the message (issue 27): a missing file is
+	// fs.ErrNotExist to a caller, as well as ErrOpen.
+	if _, err := Read(context.Background(), []string{filepath.Join(dir, "nope.csv")}, ReadOptions{}); !errors.Is(err, fs.ErrNotExist) {
+		t.Errorf("a missing file: %v is not fs.ErrNotExist", err)
+	}
+	// With no file to name, the message does not start with a colon.
+	if _, err := Read(context.Background(), nil, ReadOptions{}); err == nil || strings.HasPrefix(err.Error(), ":") || !errors.Is(err, ErrOpen) {
+		t.Errorf("no inputs: %v", err)
 	}
 }
 

@@ -25,14 +25,14 @@ func (r *reader) readXLSX(p string) (err error) {
 	}()
 	st, err := os.Stat(p)
 	if err != nil {
-		return &InputError{File: p, Msg: "cannot open: " + err.Error(), Err: ErrOpen}
+		return &InputError{File: p, Msg: "cannot open: " + err.Error(), Err: ErrOpen, Cause: err}
 	}
 	// A damaged or hostile archive must not make the unzipper allocate without bound: allow the
 	// sheet XML at most 200 times the file's size (real sheets compress about 5 to 20 times).
 	limit := max(64<<20, 200*st.Size())
 	f, err := excelize.OpenFile(p, excelize.Options{UnzipSizeLimit: limit, UnzipXMLSizeLimit: limit})
 	if err != nil {
-		return &InputError{File: p, Msg: "cannot open as a workbook (" + err.Error() + "); save it again as .xlsx, or export CSV", Err: ErrNotText}
+		return &InputError{File: p, Msg: "cannot open as a workbook (" + err.Error() + "); save it again as .xlsx, or export CSV", Err: ErrNotText, Cause: err}
 	}
 	defer f.Close()
 	sheets := f.GetSheetList()
@@ -45,7 +45,7 @@ func (r *reader) readXLSX(p string) (err error) {
 	}
 	rows, err := f.Rows(sheet)
 	if err != nil {
-		return &InputError{File: p, Msg: "cannot read sheet " + strconv.Quote(sheet) + ": " + err.Error(), Err: ErrNotText}
+		return &InputError{File: p, Msg: "cannot read sheet " + strconv.Quote(sheet) + ": " + err.Error(), Err: ErrNotText, Cause: err}
 	}
 	defer rows.Close()
 	fileIdx := len(r.files)
@@ -60,7 +60,7 @@ func (r *reader) readXLSX(p string) (err error) {
 		}
 		rec, err := rows.Columns(excelize.Options{RawCellValue: true})
 		if err != nil {
-			return &InputError{File: p, Line: rowNo, Msg: "cannot read the row: " + err.Error(), Err: ErrNotText}
+			return &InputError{File: p, Line: rowNo, Msg: "cannot read the row: " + err.Error(), Err: ErrNotText, Cause: err}
 		}
 		if header == nil {
 			if len(rec) == 0 {
@@ -113,7 +113,7 @@ func (r *reader) readXLSX(p string) (err error) {
 		n++
 	}
 	if err := rows.Error(); err != nil {
-		return &InputError{File: p, Msg: "reading the sheet failed: " + err.Error(), Err: ErrNotText}
+		return &InputError{File: p, Msg: "reading the sheet failed: " + err.Error(), Err: ErrNotText, Cause: err}
 	}
 	if header == nil {
 		return &InputError{File: p, Msg: "the sheet is empty; it needs a header row and at least one window", Err: ErrEmpty}
@@ -123,7 +123,7 @@ func (r *reader) readXLSX(p string) (err error) {
 	}
 	hexsum, size, err := hashFile(p)
 	if err != nil {
-		return &InputError{File: p, Msg: "cannot read: " + err.Error(), Err: ErrOpen}
+		return &InputError{File: p, Msg: "cannot read: " + err.Error(), Err: ErrOpen, Cause: err}
 	}
 	r.files = append(r.files, FileInfo{Path: p, SHA256: hexsum, Bytes: size, Rows: n})
 	r.rows += n

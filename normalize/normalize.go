@@ -39,8 +39,8 @@ import (
 
 // ErrOption is wrapped by errors about options; ErrData by errors about the data.
 var (
-	ErrOption = errors.New("invalid normalization option")
-	ErrData   = errors.New("data cannot be normalized")
+	ErrOption = errors.New("normalize: invalid normalization option")
+	ErrData   = errors.New("normalize: data cannot be normalized")
 )
 
 // Within is the within-participant step.

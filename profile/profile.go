@@ -40,8 +40,8 @@ import (
 
 // ErrOption is wrapped by errors about options; ErrData by errors about the data.
 var (
-	ErrOption = errors.New("invalid profile option")
-	ErrData   = errors.New("too little data for the states")
+	ErrOption = errors.New("profile: invalid profile option")
+	ErrData   = errors.New("profile: too little data for the states")
 )
 
 // Rule chooses the number of states from a range.

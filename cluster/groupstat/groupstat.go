@@ -28,8 +28,8 @@ import (
 
 // Sentinel causes.
 var (
-	ErrInput = errors.New("invalid input")
-	ErrNaN   = errors.New("value is NaN")
+	ErrInput = errors.New("groupstat: invalid input")
+	ErrNaN   = errors.New("groupstat: value is NaN")
 )
 
 // KruskalWallisResult holds the statistic, its p-value and effect size.

@@ -473,12 +473,12 @@ func (m *mainFlags) applyOptions(opts map[string]string, changed func(name strin
 				items = strings.Split(val, ",")
 			}
 			if err := sv.Replace(items); err != nil {
-				return fmt.Errorf("the model's option --%s %q: %v", name, val, err)
+				return fmt.Errorf("the model's option --%s %q: %w", name, val, err)
 			}
 			continue
 		}
 		if err := f.Value.Set(val); err != nil {
-			return fmt.Errorf("the model's option --%s %q: %v", name, val, err)
+			return fmt.Errorf("the model's option --%s %q: %w", name, val, err)
 		}
 	}
 	*m = tmp

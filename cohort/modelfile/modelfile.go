@@ -349,11 +349,11 @@ func (m *Model) check() error {
 		}
 	}
 	if _, err := clock.In(m.Read.TimeZone); err != nil {
-		return fmt.Errorf("read.TimeZone: %v", err)
+		return fmt.Errorf("read.TimeZone: %w", err)
 	}
 	if f := m.Fit; f != nil && f.Signature == "day-parts" {
 		if err := profile.DayParts(f.DayParts).Check(); err != nil && len(f.DayParts) > 0 {
-			return fmt.Errorf("fit.day_parts: %v", err)
+			return fmt.Errorf("fit.day_parts: %w", err)
 		}
 	}
 	if m.Version >= 3 && m.Fit == nil || m.Version < 3 && m.Options == nil {

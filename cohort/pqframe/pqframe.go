@@ -20,10 +20,10 @@ func Check(f io.ReaderAt, size int64) error {
 		return fmt.Errorf("too short for a Parquet file (%d bytes); write it again, or export CSV", size)
 	}
 	if _, err := f.ReadAt(head[:4], 0); err != nil {
-		return fmt.Errorf("cannot read it: %v; check the file", err)
+		return fmt.Errorf("cannot read it: %w; check the file", err)
 	}
 	if _, err := f.ReadAt(tail[:], size-8); err != nil {
-		return fmt.Errorf("cannot read it: %v; check the file", err)
+		return fmt.Errorf("cannot read it: %w; check the file", err)
 	}
 	if string(tail[4:]) == "PARE" {
 		return fmt.Errorf("a Parquet file with an encrypted footer, which this tool does not read; write it without encryption, or export CSV")
