@@ -11,6 +11,7 @@ import (
 	"strings"
 	"testing"
 
+	"gonum.org/v1/gonum/floats/scalar"
 	"gonum.org/v1/gonum/mat"
 )
 
@@ -76,9 +77,8 @@ func dataSet(t testing.TB, name string) *mat.Dense {
 	return tiesData(t)
 }
 
-func near(got, want, tol float64) bool {
-	return math.Abs(got-want) <= tol*max(1, math.Abs(want))
-}
+// near is got within tol of want, absolutely for values below 1 and relatively above.
+func near(got, want, tol float64) bool { return scalar.EqualWithinAbsOrRel(got, want, tol, tol) }
 
 func TestKMeansGolden(t *testing.T) {
 	var g struct {
@@ -102,7 +102,7 @@ func TestKMeansGolden(t *testing.T) {
 			if err != nil {
 				t.Fatal(err)
 			}
-			if res.Inertia > c.BestInertia*(1+1e-9) {
+			if !scalar.EqualWithinRel(res.Inertia, c.BestInertia, 1e-9) {
 				t.Errorf("best inertia %.12g, sklearn %.12g (tol 1e-9 relative)", res.Inertia, c.BestInertia)
 			}
 			// Lloyd from the same starting centres: Hamerly's bounds must give plain Lloyd's

@@ -75,14 +75,34 @@ func TestOptionErrors(t *testing.T) {
 	}
 }
 
+// Sampled is a keyed hash: the draw at a rate depends on the seed, the participant and the
+// window alone, so it is the same in any order and any process; another seed or participant
+// draws other windows, and the share drawn is the rate.
 func TestSampledIsReproducible(t *testing.T) {
-	n, hits := 100000, 0
+	n, hits, sameOtherSeed, sameOtherUnit := 100000, 0, 0, 0
+	first := make([]bool, n)
 	for w := 0; w < n; w++ {
-		if Sampled(7, 3, w, 0.1) {
-			hits++
+		first[w] = Sampled(7, 3, w, 0.1)
+	}
+	for w := n - 1; w >= 0; w-- { // again, in the other order
+		if Sampled(7, 3, w, 0.1) != first[w] {
+			t.Fatalf("window %d drawn differently the second time", w)
 		}
-		if Sampled(7, 3, w, 0.1) != Sampled(7, 3, w, 0.1) {
-			t.Fatal("not reproducible")
+		if first[w] {
+			hits++
+			if Sampled(8, 3, w, 0.1) {
+				sameOtherSeed++
+			}
+			if Sampled(7, 4, w, 0.1) {
+				sameOtherUnit++
+			}
+		}
+	}
+	// Draws under another seed or for another participant are independent of these: about
+	// 10 % of the drawn windows are drawn again (binomial(10000, 0.1): 1,000 ± 5 s.d. = ±150).
+	for what, k := range map[string]int{"another seed": sameOtherSeed, "another participant": sameOtherUnit} {
+		if k < 850 || k > 1150 {
+			t.Errorf("%s draws %d of the %d windows drawn, want about a tenth", what, k, hits)
 		}
 	}
 	// A binomial(100000, 0.1) count lies within 5 s.d. (±474) of 10,000 but for 1 in 3 million.

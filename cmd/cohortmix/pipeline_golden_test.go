@@ -13,6 +13,7 @@ import (
 	"github.com/cohortmix/cohortmix/cohort/group"
 	"github.com/cohortmix/cohortmix/normalize"
 	"github.com/cohortmix/cohortmix/profile"
+	"gonum.org/v1/gonum/floats/scalar"
 	"gonum.org/v1/gonum/mat"
 )
 
@@ -51,9 +52,8 @@ func readPipelineGolden(t *testing.T) pipelineGolden {
 	return g
 }
 
-func closeTo(got, want, tol float64) bool {
-	return math.Abs(got-want) <= tol*math.Max(1, math.Abs(want))
-}
+// closeTo is got within tol of want, absolutely for values below 1 and relatively above.
+func closeTo(got, want, tol float64) bool { return scalar.EqualWithinAbsOrRel(got, want, tol, tol) }
 
 func TestStagesMatchReference(t *testing.T) {
 	g := readPipelineGolden(t)
