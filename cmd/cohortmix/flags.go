@@ -3,9 +3,7 @@ package main
 import (
 	"fmt"
 	"github.com/cohortmix/cohortmix/cohort/job"
-	"math"
 	"path/filepath"
-	"slices"
 	"strconv"
 	"strings"
 	"time"
@@ -41,9 +39,9 @@ func parseRangeFrom(flag, s string, least int) ([]int, error) {
 	return out, nil
 }
 
-// defaultGroups and defaultCriterion are the mixture's; the other methods take 2-8 and
-// gap-stable-firm when these are left as they are.
-const defaultGroups, defaultCriterion = "1-8", "icl"
+// defaultGroups and defaultCriterion are the mixture's (job.Defaults); the other methods take
+// 2-8 and gap-stable-firm when these are left as they are.
+var defaultGroups, defaultCriterion = rangeText(job.Defaults().Groups), job.Defaults().Criterion.String()
 
 // mainFlags are the flags of every command that runs the main job.
 type mainFlags struct {
@@ -89,60 +87,19 @@ type mainFlags struct {
 }
 
 func (m *mainFlags) register(cmd *cobra.Command) {
-	m.registerRead(cmd)
-	f := cmd.Flags()
-	f.StringVar(&m.Within, "within", "align", "within-participant step: "+normalize.WithinHelp())
-	f.StringSliceVar(&m.WithinFeatures, "within-features", nil, "features the within step touches: patterns, or * for all (default: every feature with align, otherwise those found to carry offsets)")
-	f.StringVar(&m.Axes, "axes", "auto", "the axis-mean features the align step turns, in x,y,z order; auto finds them by name; none turns nothing")
-	f.StringVar(&m.Turn, "turn", "all", "what the align step turns with the axis means: all also turns the axis s.d.s, correlations and angles it finds; means turns the axis means only")
-	f.StringVar(&m.Log, "log", "auto", "auto takes every feature that is never below 0 on a log scale; none keeps every feature as read")
-	f.Float64Var(&m.OffsetICC, "offset-icc", 0.3, "features with at least this ICC are taken to carry device offsets")
-	f.Float64Var(&m.RestShare, "rest-share", 0.1, "share of a participant's quietest windows that defines its rest baseline")
-	f.StringVar(&m.Scale, "scale", "z", "cohort-wide scaling: z or robust-z")
-	f.StringVar(&m.PCA, "pca", "0.99", "PCA: a variance share in (0,1], a number of components, or off")
-	f.StringVar(&m.States, "states", "3-8", "number of movement states, or a range: with the align step each is fitted and the fit kept whose grouping agrees best with the others'; otherwise the rule chooses")
-	f.Float64Var(&m.Valley, "valley", profile.DefaultValley, "with --states-rule valley: two states merge when the density of their windows between them keeps at least this share of its height at them")
-	f.StringVar(&m.StatesRule, "states-rule", "valley", "how a range of states is decided: valley (fit the most, merge states that form one mode) or ch (largest Calinski–Harabasz index)")
-	f.IntVar(&m.Fits, "fits", job.DefaultFits, "with the align step: fit each number of states this many times from different random starts, and keep the fit whose grouping of the sampled participants agrees best with all the others'")
-	f.StringVar(&m.Calibration, "calibration", "sphere", "with the align step: sphere calibrates each device's axis means onto the sphere of gravity before turning them (van Hees et al. 2014); off leaves them as read")
-	f.IntVar(&m.Sample, "sample", 50000, "windows sampled to fit the states")
-	f.StringVar(&m.Groups, "groups", defaultGroups, "number of participant groups, or a range to choose from (1, no distinct groups, is a possible answer of the mixture method)")
-	f.StringVar(&m.Method, "method", "mixture", "grouping: "+group.MethodHelp())
-	f.StringVar(&m.Criterion, "criterion", defaultCriterion, "rule for the number of groups: icl or bic for the mixture method (the integrated completed likelihood, or the Bayesian information criterion); for the others gap-stable-firm (gap-stable's number, or when that grouping is tentative, its stability below 0.8, the largest smaller number whose grouping is not), gap-stable (the gap statistic's number, then one fewer while that groups more stably by more than 0.1), gap, stability or silhouette")
-	f.BoolVar(&m.KeepTwins, "keep-twins", false, "keep features that order every window as an earlier feature does (a log of the counts beside the counts); by default they are left out, as the same information twice")
-	f.StringVar(&m.Signature, "signature", job.SignatureWhole, "what the groups are found on: whole (each participant's time in each state over the whole recording) or day-parts (in each part of the day; needs times)")
-	f.IntSliceVar(&m.DayParts, "day-parts", []int{0, 6, 12, 18}, "the hours at which the parts of the day begin: night, morning, afternoon, evening (the first may be before midnight, as 22,6,12,18)")
-	f.Float64Var(&m.GroupValley, "group-valley", 0, "lower the number of groups while two of them form one mode (density between them at least this share of its height; 0: off)")
-	f.IntVar(&m.Bootstrap, "bootstrap", 20, "resamples for stability and reference sets for the gap statistic")
-	f.Uint64Var(&m.Seed, "seed", 1, "seed for every random step")
-	f.DurationVar(&m.WindowLength, "window-length", 0, "the length of one window, e.g. 60s, for bout lengths in minutes (default: from the order column's times, when it holds times)")
-	f.IntVar(&m.Workers, "workers", 0, "worker goroutines (0: all cores); never changes the result")
-	f.StringVar(&m.Members, "members", "", "also write a CSV here: participant, wave, group, probability of the group, silhouette, flag")
-	f.StringVar(&m.Model, "model", "", "also write the model file (JSON) here, for later waves")
-	f.StringVar(&m.Pseudonymize, "pseudonymize", "", "replace participant ids in every output by a keyed hash, with the key in this file")
-	f.BoolVar(&m.Force, "force", false, "replace existing output files")
+	for _, s := range settingTable {
+		s.bind(cmd.Flags(), m)
+	}
 }
 
 // registerRead registers the flags that say how the tables are read, with --temp and --quiet:
 // all that 'check' takes.
 func (m *mainFlags) registerRead(cmd *cobra.Command) {
-	f := cmd.Flags()
-	f.StringVar(&m.ID, "id", "participant", "column holding the participant id")
-	f.StringVar(&m.Order, "order", "window", "column holding the window order (integers or ISO-8601 times); - keeps file order")
-	f.StringVar(&m.Wave, "wave", "", "optional column holding the visit or wave; each wave of a participant is grouped on its own")
-	f.StringVar(&m.Label, "label", "", "optional column of known activity labels, used only for the validation table")
-	f.StringSliceVar(&m.Features, "features", nil, "feature name patterns, e.g. 'mean_*,vm_*' (default: every other numeric column)")
-	f.StringVar(&m.Missing, "missing", "drop", "missing feature cells: drop (the window) or impute (the participant's median)")
-	f.IntVar(&m.MinWindows, "min-windows", 20, "exclude participants with fewer usable windows")
-	f.StringVar(&m.NonWear, "non-wear", "auto", "leave out windows the device was not worn, from activity counts with times: choi (90 minutes or more of zero counts, Choi et al. 2011), troiano (60 minutes or more, Troiano et al. 2008), none, or auto (choi where there are counts and times)")
-	f.StringVar(&m.NonWearColumn, "non-wear-column", "", "the activity-counts column of the non-wear rule (default: the feature named counts, count, cpm or axis1)")
-	f.StringVar(&m.WearColumn, "wear-column", "", "a column marking each window worn (1) or not (0), as the device's own wear detection gives it, in place of the non-wear rule")
-	f.StringVar(&m.TimeZone, "time-zone", "", "the study's time zone (an IANA name such as Europe/Berlin) in which times given with a UTC offset are read for days, hours and weekends (default UTC; times without an offset are read as written)")
-	f.StringVar(&m.ValidDay, "valid-day", "auto", "the wear that makes a day valid, as 10h (16h for a 24-hour protocol), or none; auto: 10h where the non-wear rule runs")
-	f.IntVar(&m.ValidDays, "valid-days", cohort.DefaultValidDays, "valid days a participant needs (with the valid-day rule); others are excluded and listed")
-	f.BoolVar(&m.WeekendDay, "weekend-day", false, "with the valid-day rule, a participant also needs a valid Saturday or Sunday")
-	f.StringVar(&m.Temp, "temp", "", "folder for temporary files of large inputs (default: the folder of --out, or the system's)")
-	f.BoolVar(&m.Quiet, "quiet", false, "print only the final summary")
+	for _, s := range settingTable {
+		if s.read {
+			s.bind(cmd.Flags(), m)
+		}
+	}
 }
 
 // memoryValues is the reader's in-memory limit (cohort.ReadOptions.MemoryValues; 0: its
@@ -336,22 +293,15 @@ func secondOf(flag, value, first, second string) (bool, error) {
 	return false, flagErrorf("--%s %q: use %s or %s", flag, value, first, second)
 }
 
-// settings lists every parameter for the settings sheet.
+// settings lists every setting of the fit for the Settings sheet, in settingTable's order.
 func (m *mainFlags) settings() []modelfile.Setting {
-	s := func(n, v string) modelfile.Setting { return modelfile.Setting{Name: n, Value: v} }
-	return []modelfile.Setting{
-		s("id column", m.ID), s("order column", m.Order), s("wave column", m.Wave), s("label column", m.Label),
-		s("feature patterns", strings.Join(m.Features, ",")), s("missing cells", m.Missing), s("minimum windows", strconv.Itoa(m.MinWindows)),
-		s("non-wear rule", m.NonWear), s("non-wear counts column", m.NonWearColumn), s("time zone", m.TimeZone), s("wear column", m.WearColumn),
-		s("valid day", m.ValidDay), s("valid days needed", strconv.Itoa(m.ValidDays)), s("a valid weekend day needed", strconv.FormatBool(m.WeekendDay)),
-		s("within-participant step", m.Within), s("within-step features", strings.Join(m.WithinFeatures, ",")),
-		s("axis means (align)", m.Axes), s("turned with the axis means", m.Turn), s("log scale", m.Log), s("rule for a range of states", m.StatesRule), s("calibration of the axis means", m.Calibration), s("fits of the states", strconv.Itoa(m.Fits)), s("valley ratio", fmt.Sprint(m.Valley)),
-		s("offset ICC threshold", fmt.Sprint(m.OffsetICC)), s("rest share", fmt.Sprint(m.RestShare)),
-		s("cohort scaling", m.Scale), s("PCA", m.PCA), s("states", m.States), s("window sample", strconv.Itoa(m.Sample)),
-		s("groups", m.Groups), s("grouping method", m.Method), s("criterion for groups", m.Criterion), s("group valley cap", strconv.FormatFloat(m.GroupValley, 'g', -1, 64)),
-		s("features that are twins of another", map[bool]string{true: "kept", false: "left out"}[m.KeepTwins]), s("signature", m.Signature), s("parts of the day begin at", strings.Trim(strings.Join(strings.Fields(fmt.Sprint(m.DayParts)), ","), "[]")),
-		s("bootstrap / gap references", strconv.Itoa(m.Bootstrap)), s("seed", strconv.FormatUint(m.Seed, 10)), s("window length", windowSetting(m.WindowLength)),
+	var out []modelfile.Setting
+	for _, s := range settingTable {
+		if s.label != "" {
+			out = append(out, modelfile.Setting{Name: s.label, Value: s.show(m)})
+		}
 	}
+	return out
 }
 
 // progress returns a step printer: on a terminal, a line per step on stderr; otherwise nothing.
@@ -449,9 +399,6 @@ func countBar(env *Env, quiet bool, unit string) func(step string, done, total i
 	}
 }
 
-// runOnly are flags that belong to one run, not to the fit: refresh does not carry them over.
-var runOnly = map[string]bool{"members": true, "model": true, "force": true, "quiet": true, "workers": true, "out": true, "pseudonymize": true, "temp": true}
-
 // applyOptions sets the fit flags from a version-2 model's options (by flag name), except those
 // the user gave (changed).
 func (m *mainFlags) applyOptions(opts map[string]string, changed func(name string) bool) error {
@@ -460,7 +407,7 @@ func (m *mainFlags) applyOptions(opts map[string]string, changed func(name strin
 	tmp.register(cmd)
 	tmp = *m
 	for name, val := range opts {
-		if runOnly[name] || changed(name) {
+		if runOnly(name) || changed(name) {
 			continue
 		}
 		f := cmd.Flags().Lookup(name)
@@ -501,121 +448,6 @@ func windowSetting(d time.Duration) string {
 	return d.String()
 }
 
-// modelFlags sets each fit flag from a model's settings (modelfile.FitSettings and ModelRead), for
-// refresh: every flag that is not runOnly has a row (TestModelFlagsCoverEveryFitFlag).
-var modelFlags = map[string]func(m *mainFlags, f *modelfile.FitSettings, r modelfile.ReadSettings){
-	"id":    func(m *mainFlags, _ *modelfile.FitSettings, r modelfile.ReadSettings) { m.ID = r.ID },
-	"order": func(m *mainFlags, _ *modelfile.FitSettings, r modelfile.ReadSettings) { m.Order = r.Order },
-	"wave":  func(m *mainFlags, _ *modelfile.FitSettings, r modelfile.ReadSettings) { m.Wave = r.Wave },
-	"label": func(m *mainFlags, _ *modelfile.FitSettings, r modelfile.ReadSettings) { m.Label = r.Label },
-	"features": func(m *mainFlags, _ *modelfile.FitSettings, r modelfile.ReadSettings) {
-		m.Features = slices.Clone(r.Features)
-	},
-	"missing": func(m *mainFlags, _ *modelfile.FitSettings, r modelfile.ReadSettings) {
-		m.Missing = "drop"
-		if r.Missing == cohort.ImputeMedian.String() {
-			m.Missing = "impute"
-		}
-	},
-	"min-windows": func(m *mainFlags, _ *modelfile.FitSettings, r modelfile.ReadSettings) { m.MinWindows = r.MinWindows },
-	"non-wear": func(m *mainFlags, _ *modelfile.FitSettings, r modelfile.ReadSettings) {
-		m.NonWear = "none" // a model from before the rule read every window
-		if r.NonWear != "" {
-			m.NonWear = r.NonWear
-		}
-	},
-	"non-wear-column": func(m *mainFlags, _ *modelfile.FitSettings, r modelfile.ReadSettings) {
-		m.NonWearColumn = r.NonWearFeature
-	},
-	"time-zone":   func(m *mainFlags, _ *modelfile.FitSettings, r modelfile.ReadSettings) { m.TimeZone = r.TimeZone },
-	"wear-column": func(m *mainFlags, _ *modelfile.FitSettings, r modelfile.ReadSettings) { m.WearColumn = r.WearColumn },
-	"valid-day": func(m *mainFlags, _ *modelfile.FitSettings, r modelfile.ReadSettings) {
-		m.ValidDay = "none" // a model from before the rule kept every day
-		if r.ValidDay != "" {
-			m.ValidDay = r.ValidDay
-		}
-	},
-	"valid-days": func(m *mainFlags, _ *modelfile.FitSettings, r modelfile.ReadSettings) {
-		m.ValidDays = max(r.ValidDays, 1)
-	},
-	"weekend-day": func(m *mainFlags, _ *modelfile.FitSettings, r modelfile.ReadSettings) { m.WeekendDay = r.WeekendDay },
-	"within":      func(m *mainFlags, f *modelfile.FitSettings, _ modelfile.ReadSettings) { m.Within = f.Within },
-	"within-features": func(m *mainFlags, f *modelfile.FitSettings, _ modelfile.ReadSettings) {
-		m.WithinFeatures = slices.Clone(f.WithinFeatures)
-	},
-	"offset-icc": func(m *mainFlags, f *modelfile.FitSettings, _ modelfile.ReadSettings) { m.OffsetICC = f.OffsetICC },
-	"rest-share": func(m *mainFlags, f *modelfile.FitSettings, _ modelfile.ReadSettings) { m.RestShare = f.RestShare },
-	"axes": func(m *mainFlags, f *modelfile.FitSettings, _ modelfile.ReadSettings) {
-		switch {
-		case f.NoAxes:
-			m.Axes = "none"
-		case len(f.Axes) > 0:
-			m.Axes = strings.Join(f.Axes, ",")
-		default:
-			m.Axes = "auto"
-		}
-	},
-	"turn": func(m *mainFlags, f *modelfile.FitSettings, _ modelfile.ReadSettings) {
-		m.Turn = "all"
-		if f.NoTurn {
-			m.Turn = "means"
-		}
-	},
-	"log": func(m *mainFlags, f *modelfile.FitSettings, _ modelfile.ReadSettings) {
-		m.Log = "none"
-		if f.Log {
-			m.Log = "auto"
-		}
-	},
-	"scale": func(m *mainFlags, f *modelfile.FitSettings, _ modelfile.ReadSettings) { m.Scale = f.Scale },
-	"pca": func(m *mainFlags, f *modelfile.FitSettings, _ modelfile.ReadSettings) {
-		switch {
-		case f.NoPCA:
-			m.PCA = "off"
-		case f.PCAComponents > 0:
-			m.PCA = strconv.Itoa(f.PCAComponents)
-		default:
-			m.PCA = strconv.FormatFloat(f.PCAVariance, 'f', -1, 64)
-			if !strings.Contains(m.PCA, ".") {
-				m.PCA += ".0" // a share, not a number of components
-			}
-		}
-	},
-	"states":      func(m *mainFlags, f *modelfile.FitSettings, _ modelfile.ReadSettings) { m.States = rangeText(f.States) },
-	"states-rule": func(m *mainFlags, f *modelfile.FitSettings, _ modelfile.ReadSettings) { m.StatesRule = f.StatesRule },
-	"calibration": func(m *mainFlags, f *modelfile.FitSettings, _ modelfile.ReadSettings) {
-		m.Calibration = "sphere"
-		if f.NoCalibration {
-			m.Calibration = "off"
-		}
-	},
-	"valley":       func(m *mainFlags, f *modelfile.FitSettings, _ modelfile.ReadSettings) { m.Valley = f.Valley },
-	"fits":         func(m *mainFlags, f *modelfile.FitSettings, _ modelfile.ReadSettings) { m.Fits = max(1, f.Fits) },
-	"sample":       func(m *mainFlags, f *modelfile.FitSettings, _ modelfile.ReadSettings) { m.Sample = f.Sample },
-	"groups":       func(m *mainFlags, f *modelfile.FitSettings, _ modelfile.ReadSettings) { m.Groups = rangeText(f.Groups) },
-	"method":       func(m *mainFlags, f *modelfile.FitSettings, _ modelfile.ReadSettings) { m.Method = f.Method },
-	"criterion":    func(m *mainFlags, f *modelfile.FitSettings, _ modelfile.ReadSettings) { m.Criterion = f.Criterion },
-	"group-valley": func(m *mainFlags, f *modelfile.FitSettings, _ modelfile.ReadSettings) { m.GroupValley = f.GroupValley },
-	"keep-twins":   func(m *mainFlags, f *modelfile.FitSettings, _ modelfile.ReadSettings) { m.KeepTwins = f.KeepTwins },
-	"signature": func(m *mainFlags, f *modelfile.FitSettings, _ modelfile.ReadSettings) {
-		m.Signature = job.SignatureWhole
-		if f.Signature != "" {
-			m.Signature = f.Signature
-		}
-	},
-	"day-parts": func(m *mainFlags, f *modelfile.FitSettings, _ modelfile.ReadSettings) {
-		m.DayParts = []int{0, 6, 12, 18}
-		if len(f.DayParts) > 0 {
-			m.DayParts = slices.Clone(f.DayParts)
-		}
-	},
-	"bootstrap": func(m *mainFlags, f *modelfile.FitSettings, _ modelfile.ReadSettings) { m.Bootstrap = f.Bootstrap },
-	"seed":      func(m *mainFlags, f *modelfile.FitSettings, _ modelfile.ReadSettings) { m.Seed = f.Seed },
-	"window-length": func(m *mainFlags, f *modelfile.FitSettings, _ modelfile.ReadSettings) {
-		m.WindowLength = time.Duration(math.Round(f.WindowSeconds * float64(time.Second)))
-	},
-}
-
 // rangeText writes increasing numbers as --states and --groups take them: "6" or "2-12".
 func rangeText(ks []int) string {
 	if len(ks) == 0 {
@@ -633,9 +465,9 @@ func (m *mainFlags) fromModel(prev *modelfile.Model, changed func(name string) b
 	if prev.Fit == nil {
 		return m.applyOptions(prev.Options, changed)
 	}
-	for name, set := range modelFlags {
-		if !changed(name) {
-			set(m, prev.Fit, prev.Read)
+	for _, s := range settingTable {
+		if !s.runOnly() && !changed(s.flag) {
+			s.fromModel(m, prev.Fit, prev.Read)
 		}
 	}
 	return nil

@@ -13,47 +13,40 @@ import (
 // refer to: the libraries name their own options (cohort.ReadOptions.MinWindows), and only this
 // layer knows the flags that set them.
 var optionFlags = map[string]string{
-	"cohort.ReadOptions.TempDir":                                    "--temp",
-	"cohort.ReadOptions.MinWindows":                                 "--min-windows",
-	"cohort.ReadOptions.Features":                                   "--features",
-	"cohort.ReadOptions.Wave":                                       "--wave",
-	"cohort.ReadOptions.NonWearFeature":                             "--non-wear-column",
-	"cohort.ReadOptions.ValidDays":                                  "--valid-days",
-	"cohort.ReadOptions.WearColumn":                                 "--wear-column",
-	"cohort.ReadOptions.TimeZone":                                   "--time-zone",
-	"cohort.ReadOptions.ValidDay":                                   "--valid-day none",
-	"cohort.ReadOptions.WeekendDay":                                 "--weekend-day",
-	"group.Options.Groups":                                          "--groups",
-	"group.Options.Method":                                          "--method",
-	"job.Options.Groups":                                            "--groups",
-	"job.Options.Signature whole":                                   "--signature whole",
-	"job.Options.KeepTwins":                                         "--keep-twins",
-	"job.Options.Window":                                            "--window-length",
-	"job.Options.Axes":                                              "--axes",
-	"job.Options.NoAxes":                                            "--axes none",
-	"job.Options.NoTurn":                                            "--turn means",
-	"job.Options.Sample":                                            "--sample",
-	"normalize.Options.Within":                                      "--within",
-	"normalize.Options.WithinFeatures":                              "--within-features",
-	"profile.Options.States":                                        "--states",
-	"profile.AlignOptions.States":                                   "--states",
-	"reports.PlanOutputs force":                                     "--force",
-	"scratch.WriteAtomic force":                                     "--force",
-	"cohort.Quality.Excluded":                                       "'cohortmix check' lists each reason",
-	"modelfile.Encode":                                              "'cohortmix group --model'",
-	"modelfile.Model.CheckKey the key":                              "--pseudonymize with the key",
+	"cohort.ReadOptions.ValidDay":      "--valid-day none",
+	"job.Options.Signature whole":      "--signature whole",
+	"job.Options.NoAxes":               "--axes none",
+	"job.Options.NoTurn":               "--turn means",
+	"reports.PlanOutputs force":        "--force",
+	"scratch.WriteAtomic force":        "--force",
+	"cohort.Quality.Excluded":          "'cohortmix check' lists each reason",
+	"modelfile.Encode":                 "'cohortmix group --model'",
+	"modelfile.Model.CheckKey the key": "--pseudonymize with the key",
 	"give no key, or refit pseudonymized with job.Pseudonymize and": "leave --pseudonymize out, or refit with 'cohortmix group --pseudonymize'",
 }
 
+// The options an entry of settingTable sets are named by its flag.
+func init() {
+	for _, s := range settingTable {
+		for _, o := range s.options {
+			optionFlags[o] = "--" + s.flag
+		}
+	}
+	optionNames = sortedOptionNames()
+}
+
 // optionNames are optionFlags' keys, longest first, so that no name is replaced inside another.
-var optionNames = func() []string {
+var optionNames []string
+
+// sortedOptionNames are optionFlags' keys, longest first.
+func sortedOptionNames() []string {
 	names := make([]string, 0, len(optionFlags))
 	for n := range optionFlags {
 		names = append(names, n)
 	}
 	slices.SortFunc(names, func(a, b string) int { return len(b) - len(a) })
 	return names
-}()
+}
 
 // flagWords names the options a text refers to by their flags.
 func flagWords(s string) string {
