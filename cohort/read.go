@@ -1224,262 +1224,328 @@ func article(kind string) string {
 // minimum-window rule, and drops constant features; every step is counted in Quality. A unit
 // whose windows came in order, in one stretch and complete, stays where it is in the store; the
 // others are read back, put right and written again at its end.
-func (r *reader) finish() (*Table, error) {
-	d := len(r.features)
-	w := d + 2
+func (r *reader) finish() (t *Table, err error) {
 	if err := r.raw.flush(); err != nil {
 		return nil, err
 	}
-	t := &Table{Features: r.features, Files: r.files, OrderKind: r.orderKind, HasLabels: r.hasLabels, store: r.raw, lo: r.lo}
+	t = &Table{Features: r.features, Files: r.files, OrderKind: r.orderKind, HasLabels: r.hasLabels, store: r.raw, lo: r.lo}
 	r.raw = nil // the table owns the store now
+	defer func() {
+		if err != nil {
+			t.Close()
+			t = nil
+		}
+	}()
 	for j, lo := range r.lo {
 		if math.IsInf(lo, 1) { // no window has a value: every participant would be excluded for it
-			t.Close()
 			return nil, &InputError{File: r.firstFile, Field: r.features[j], Msg: "every cell of this feature column is empty or NA; fill it, or leave the column out with cohort.ReadOptions.Features", Err: ErrEmpty}
 		}
 	}
+	d := len(r.features)
 	t.cols = make([]int, d)
 	for j := range t.cols {
 		t.cols[j] = j
 	}
-	constant := newConstancy(d)
 	if r.opts.Order == "-" {
 		t.OrderKind = "file order"
 	}
+	f := &finisher{r: r, t: t, d: d, w: d + 2, constant: newConstancy(d)}
 	q := &t.Quality
 	q.IgnoredColumns = r.ignored
 	q.UnitsIn = r.seen
 	q.WindowsIn = r.rows
-	sortedUnits, merged := 0, 0
-	rule, nonWearAt, err := r.nonWearColumn()
-	if err != nil {
-		t.Close()
+	if f.rule, f.nonWearAt, err = r.nonWearColumn(); err != nil {
 		return nil, err
 	}
-	q.NonWearRule = rule
-	wr, err := r.opts.wearRule(rule, r.orderKind, r.orderZone == "without a UTC offset")
-	if err != nil {
-		t.Close()
+	q.NonWearRule = f.rule
+	if f.wr, err = r.opts.wearRule(f.rule, r.orderKind, r.orderZone == "without a UTC offset"); err != nil {
 		return nil, err
 	}
 	if r.orderKind == "time" && r.orderZone == "with a UTC offset" {
 		t.TimeZone = r.opts.TimeZone
 	}
-	if wr != nil {
-		q.ValidDayRule = wr.String()
+	if f.wr != nil {
+		q.ValidDayRule = f.wr.String()
 	}
-	var x, clean []float64
-	shortUnits, mostDays := 0, 0 // units short of valid days, and the most valid days of those
 	for ui, ru := range r.units {
 		if ui%256 == 0 && r.ctx.Err() != nil {
-			t.Close()
 			return nil, r.ctx.Err()
 		}
-		u := &Unit{ID: ru.id, Wave: ru.wave, Ordinal: ru.ordinal, Files: ru.files}
-		if r.opts.Pseudonym != nil {
-			u.ID = r.opts.Pseudonym(ru.id)
-		}
-		if len(ru.files) > 1 {
-			merged++
-		}
-		n := ru.n
-		// A unit whose windows came in order with no missing cell stays where it landed, in one
-		// stretch of the store or in several (a table sorted by time across participants) as
-		// long as they average minStretch windows; shorter ones are copied into one stretch,
-		// since reading them one by one in every pass would cost more than copying them once.
-		if !ru.unsorted && ru.missing == 0 && nonWearAt < 0 && wr == nil && (len(ru.runs) == 1 || len(ru.runs)*minStretch <= n) {
-			if n < r.opts.MinWindows {
-				q.Excluded = append(q.Excluded, Exclusion{ID: u.ID, Wave: u.Wave, Ordinal: u.Ordinal, Windows: n,
-					Reason: fmt.Sprintf("%d usable windows, fewer than the minimum %d (cohort.ReadOptions.MinWindows)", n, r.opts.MinWindows)})
-				q.WindowsExcluded += n
-				continue
-			}
-			u.at, u.rows, u.Labels = ru.runs[0].at, n, ru.labels
-			if len(ru.runs) > 1 {
-				u.runs = ru.runs
-			}
-			constant.addUnit(ru.first, ru.varies)
-			t.Units = append(t.Units, u)
-			continue
-		}
-		var err error
-		if x, err = t.store.readRuns(ru.runs, nil, x); err != nil {
-			t.Close()
+		if err := f.unit(ru); err != nil {
 			return nil, err
 		}
-		ord := func(i int) int64 { return int64(math.Float64bits(x[i*w+d])) }
-		idx := make([]int, n)
-		for i := range idx {
-			idx[i] = i
-		}
-		if ru.unsorted {
-			slices.SortStableFunc(idx, func(a, b int) int { return cmp.Compare(ord(a), ord(b)) })
-			for k := 1; k < n; k++ {
-				a, b := idx[k-1], idx[k]
-				if ord(a) != ord(b) {
-					continue
-				}
-				fa, la := unpackSource(x[a*w+d+1])
-				fb, lb := unpackSource(x[b*w+d+1])
-				also, advice := fmt.Sprintf("line %d", la), "remove one of the rows"
-				if fa != fb {
-					also = fmt.Sprintf("%s:%d", r.files[fa].Path, la)
-					if r.opts.Wave == "" { // two files that may be two visits of one cohort
-						advice = "remove one of the rows; or, if the files are two waves (visits) of the same participants, give each row its wave in a column and name it with cohort.ReadOptions.Wave"
-					}
-				}
-				if r.orderZone == "without a UTC offset" && fa == fb && la < lb && lb-la > 1 {
-					// Far apart in one file: a wall clock that went back an hour when daylight
-					// saving time ended.
-					advice += "; if the clock went back an hour (daylight saving time ended), give the times with their UTC offset (2026-10-25T02:30:00+01:00) and the zone with cohort.ReadOptions.TimeZone"
-				}
-				t.Close()
-				return nil, &InputError{File: r.files[fb].Path, Line: lb, Field: r.opts.Order,
-					Msg: fmt.Sprintf("participant %s%s has this window twice (also %s); %s", ru.id, waveSuffix(ru.wave), also, advice), Err: ErrDuplicate}
-			}
-			for k, i := range idx {
-				if k != i {
-					u.Sorted = true
-					sortedUnits++
-					break
-				}
-			}
-		}
-		// Non-wear: the windows of the rule's periods are left out, before anything else; then
-		// the windows of days of too little wear, and a participant with too few valid days is
-		// excluded. Both read the windows' times, in order.
-		var times []int64
-		if nonWearAt >= 0 || wr != nil {
-			times = make([]int64, n)
-			for k, i := range idx {
-				times[k] = ord(i)
-			}
-		}
-		var nonWear []bool
-		if nonWearAt >= 0 {
-			counts := make([]float64, n)
-			for k, i := range idx {
-				counts[k] = x[i*w+nonWearAt]
-				if rule == NonWearColumn && counts[k] != 0 && counts[k] != 1 {
-					_, line := unpackSource(x[i*w+d+1])
-					t.Close()
-					return nil, &InputError{File: r.files[0].Path, Line: line, Field: r.opts.WearColumn, Msg: fmt.Sprintf("participant %s: the wear column holds %v; give 1 for a worn window and 0 for one when the device was off", ru.id, counts[k]), Err: ErrNotNumber}
-				}
-			}
-			nonWear = nonWearOf(rule, times, counts)
-		}
-		var invalidDay []bool
-		short := ""
-		if wr != nil {
-			invalidDay, u.Wear, short = wr.wearDays(times, nonWear, medianStep(times))
-		}
-		// Missing cells: drop the window, or impute the participant's median of the feature.
-		var med []float64
-		if r.opts.Missing == ImputeMedian && ru.missing > 0 {
-			med = columnMedians(x, d, w)
-		}
-		clean = clean[:0]
-		reason := ""
-		for k, i := range idx {
-			if nonWear != nil && nonWear[k] {
-				u.NonWear++
-				continue
-			}
-			if invalidDay != nil && invalidDay[k] {
-				continue // counted in u.Wear.LeftOut
-			}
-			row := x[i*w : (i+1)*w]
-			missing := 0
-			for _, v := range row[:d] {
-				if math.IsNaN(v) {
-					missing++
-				}
-			}
-			if missing > 0 && r.opts.Missing == DropWindow {
-				u.Dropped++
-				continue
-			}
-			start := len(clean)
-			clean = append(clean, row...)
-			if missing > 0 {
-				for j, v := range row[:d] {
-					if math.IsNaN(v) {
-						if math.IsNaN(med[j]) {
-							reason = fmt.Sprintf("feature %s is missing in every window, so it cannot be imputed", r.features[j])
-						}
-						u.Imputed++
-						clean[start+j] = med[j]
-					}
-				}
-			}
-			if ru.labels != nil {
-				u.Labels = append(u.Labels, ru.labels[i])
-			}
-		}
-		kept := len(clean) / w
-		if reason == "" && short != "" {
-			reason = short
-			shortUnits++
-			mostDays = max(mostDays, u.Wear.ValidDays)
-		}
-		if reason == "" && kept < r.opts.MinWindows {
-			reason = fmt.Sprintf("%d usable windows, fewer than the minimum %d (cohort.ReadOptions.MinWindows)", kept, r.opts.MinWindows)
-			if u.Dropped > 0 {
-				reason += fmt.Sprintf("; %d dropped for missing cells", u.Dropped)
-			}
-			if u.NonWear > 0 {
-				reason += fmt.Sprintf("; %d left out as non-wear", u.NonWear)
-			}
-		}
-		if reason != "" {
-			q.Excluded = append(q.Excluded, Exclusion{ID: u.ID, Wave: u.Wave, Ordinal: u.Ordinal, Windows: n, Reason: reason})
-			q.WindowsExcluded += n
-			continue
-		}
-		q.WindowsDropped += u.Dropped
-		q.WindowsNonWear += u.NonWear
-		q.WindowsInvalidDays += u.Wear.LeftOut
-		q.CellsImputed += u.Imputed
-		u.at, u.rows = t.store.n/int64(w), kept
-		if err := t.store.append(clean); err != nil {
-			t.Close()
-			return nil, err
-		}
-		constant.add(clean, w)
-		t.Units = append(t.Units, u)
 	}
 	if err := t.store.flush(); err != nil {
-		t.Close()
 		return nil, err
 	}
-	if wr != nil && len(t.Units) == 0 && shortUnits > 0 && r.opts.Shard.Count == 0 {
-		t.Close()
-		return nil, &InputError{File: r.firstFile, Msg: fmt.Sprintf("no participant has the valid days the rule asks for (%s); the most any has is %d: lower cohort.ReadOptions.ValidDays, or lift the rule with cohort.ReadOptions.ValidDay", wr, mostDays), Err: ErrTooFew}
+	if f.wr != nil && len(t.Units) == 0 && f.shortUnits > 0 && r.opts.Shard.Count == 0 {
+		return nil, &InputError{File: r.firstFile, Msg: fmt.Sprintf("no participant has the valid days the rule asks for (%s); the most any has is %d: lower cohort.ReadOptions.ValidDays, or lift the rule with cohort.ReadOptions.ValidDay", f.wr, f.mostDays), Err: ErrTooFew}
 	}
-	q.SortedUnits, q.JoinedUnits = sortedUnits, merged
+	q.SortedUnits, q.JoinedUnits = f.sortedUnits, f.merged
 	q.TrimmedCells, q.TrimmedAt = r.trimmed, r.trimmedAt
 	q.Notes = append(q.Notes, QualityNotes(*q, r.opts.Order)...)
-	if r.opts.Shard.Count > 0 {
-		t.Constancy = &Constancy{Have: constant.have, First: constant.first, Constant: constant.constant}
-		if rule == NonWearColumn { // the wear column has done its work: it is no feature
-			t.Constancy.First = slices.Delete(slices.Clone(t.Constancy.First), nonWearAt, nonWearAt+1)
-			t.Constancy.Constant = slices.Delete(slices.Clone(t.Constancy.Constant), nonWearAt, nonWearAt+1)
-			t.Features = slices.Delete(slices.Clone(t.Features), nonWearAt, nonWearAt+1)
-			t.cols = slices.Delete(t.cols, nonWearAt, nonWearAt+1)
+	return t, f.features()
+}
+
+// finisher makes the table's units from the reader's, one at a time (unit), and then its
+// features (features); it holds what they share.
+type finisher struct {
+	r        *reader
+	t        *Table
+	d, w     int // features, and values per stored window (features, order key, source)
+	constant *constancy
+	// rule is the non-wear rule ("" for none) and nonWearAt the column it reads (-1: none); wr
+	// the valid-day rule (nil: none).
+	rule      string
+	nonWearAt int
+	wr        *wearRule
+	x, clean  []float64 // a unit's windows as stored, and those kept, reused
+	// Counts over units: sorted and joined from several files; short of valid days, with the
+	// most valid days among those.
+	sortedUnits, merged, shortUnits, mostDays int
+}
+
+// unit makes the table's unit of one reader's unit: excluded with the reason, kept where it
+// landed in the store, or its windows sorted, checked for duplicates, cleared of non-wear,
+// invalid days and missing cells, and stored again.
+func (f *finisher) unit(ru *rawUnit) error {
+	r, t, q := f.r, f.t, &f.t.Quality
+	u := &Unit{ID: ru.id, Wave: ru.wave, Ordinal: ru.ordinal, Files: ru.files}
+	if r.opts.Pseudonym != nil {
+		u.ID = r.opts.Pseudonym(ru.id)
+	}
+	if len(ru.files) > 1 {
+		f.merged++
+	}
+	n := ru.n
+	// A unit whose windows came in order with no missing cell stays where it landed, in one
+	// stretch of the store or in several (a table sorted by time across participants) as
+	// long as they average minStretch windows; shorter ones are copied into one stretch,
+	// since reading them one by one in every pass would cost more than copying them once.
+	if !ru.unsorted && ru.missing == 0 && f.nonWearAt < 0 && f.wr == nil && (len(ru.runs) == 1 || len(ru.runs)*minStretch <= n) {
+		if n < r.opts.MinWindows {
+			q.Excluded = append(q.Excluded, Exclusion{ID: u.ID, Wave: u.Wave, Ordinal: u.Ordinal, Windows: n,
+				Reason: fmt.Sprintf("%d usable windows, fewer than the minimum %d (cohort.ReadOptions.MinWindows)", n, r.opts.MinWindows)})
+			q.WindowsExcluded += n
+			return nil
 		}
-		return t, nil
+		u.at, u.rows, u.Labels = ru.runs[0].at, n, ru.labels
+		if len(ru.runs) > 1 {
+			u.runs = ru.runs
+		}
+		f.constant.addUnit(ru.first, ru.varies)
+		t.Units = append(t.Units, u)
+		return nil
 	}
-	if rule == NonWearColumn {
-		constant.first = slices.Delete(constant.first, nonWearAt, nonWearAt+1)
-		constant.constant = slices.Delete(constant.constant, nonWearAt, nonWearAt+1)
-		t.Features = slices.Delete(slices.Clone(t.Features), nonWearAt, nonWearAt+1)
-		t.cols = slices.Delete(t.cols, nonWearAt, nonWearAt+1)
+	var err error
+	if f.x, err = t.store.readRuns(ru.runs, nil, f.x); err != nil {
+		return err
 	}
-	if err := t.dropConstantFeatures(constant); err != nil {
-		t.Close()
-		return nil, err
+	idx, err := f.order(ru, u)
+	if err != nil {
+		return err
 	}
-	return t, nil
+	// Non-wear: the windows of the rule's periods are left out, before anything else; then
+	// the windows of days of too little wear, and a participant with too few valid days is
+	// excluded. Both read the windows' times, in order.
+	var times []int64
+	if f.nonWearAt >= 0 || f.wr != nil {
+		times = make([]int64, n)
+		for k, i := range idx {
+			times[k] = f.ord(i)
+		}
+	}
+	var nonWear []bool
+	if f.nonWearAt >= 0 {
+		if nonWear, err = f.nonWear(ru, idx, times); err != nil {
+			return err
+		}
+	}
+	var invalidDay []bool
+	short := ""
+	if f.wr != nil {
+		invalidDay, u.Wear, short = f.wr.wearDays(times, nonWear, medianStep(times))
+	}
+	kept := 0
+	reason := f.keep(ru, u, idx, nonWear, invalidDay)
+	if reason == "" {
+		kept = len(f.clean) / f.w
+		reason = f.shortOf(u, kept, short)
+	}
+	if reason != "" {
+		q.Excluded = append(q.Excluded, Exclusion{ID: u.ID, Wave: u.Wave, Ordinal: u.Ordinal, Windows: n, Reason: reason})
+		q.WindowsExcluded += n
+		return nil
+	}
+	q.WindowsDropped += u.Dropped
+	q.WindowsNonWear += u.NonWear
+	q.WindowsInvalidDays += u.Wear.LeftOut
+	q.CellsImputed += u.Imputed
+	u.at, u.rows = t.store.n/int64(f.w), kept
+	if err := t.store.append(f.clean); err != nil {
+		return err
+	}
+	f.constant.add(f.clean, f.w)
+	t.Units = append(t.Units, u)
+	return nil
+}
+
+// shortOf is the reason a unit with this many windows kept falls short: of valid days (short,
+// from the valid-day rule), or of windows; "" when it does not.
+func (f *finisher) shortOf(u *Unit, kept int, short string) string {
+	if short != "" {
+		f.shortUnits++
+		f.mostDays = max(f.mostDays, u.Wear.ValidDays)
+		return short
+	}
+	if kept >= f.r.opts.MinWindows {
+		return ""
+	}
+	reason := fmt.Sprintf("%d usable windows, fewer than the minimum %d (cohort.ReadOptions.MinWindows)", kept, f.r.opts.MinWindows)
+	if u.Dropped > 0 {
+		reason += fmt.Sprintf("; %d dropped for missing cells", u.Dropped)
+	}
+	if u.NonWear > 0 {
+		reason += fmt.Sprintf("; %d left out as non-wear", u.NonWear)
+	}
+	return reason
+}
+
+// ord is the order key of window i of the unit read into f.x.
+func (f *finisher) ord(i int) int64 { return int64(math.Float64bits(f.x[i*f.w+f.d])) }
+
+// order is the order of a unit's windows: as read, or sorted by their order keys for a unit
+// that came out of order, where a window given twice is an error naming both rows.
+func (f *finisher) order(ru *rawUnit, u *Unit) ([]int, error) {
+	r, n := f.r, ru.n
+	idx := make([]int, n)
+	for i := range idx {
+		idx[i] = i
+	}
+	if !ru.unsorted {
+		return idx, nil
+	}
+	slices.SortStableFunc(idx, func(a, b int) int { return cmp.Compare(f.ord(a), f.ord(b)) })
+	for k := 1; k < n; k++ {
+		a, b := idx[k-1], idx[k]
+		if f.ord(a) != f.ord(b) {
+			continue
+		}
+		fa, la := unpackSource(f.x[a*f.w+f.d+1])
+		fb, lb := unpackSource(f.x[b*f.w+f.d+1])
+		also, advice := fmt.Sprintf("line %d", la), "remove one of the rows"
+		if fa != fb {
+			also = fmt.Sprintf("%s:%d", r.files[fa].Path, la)
+			if r.opts.Wave == "" { // two files that may be two visits of one cohort
+				advice = "remove one of the rows; or, if the files are two waves (visits) of the same participants, give each row its wave in a column and name it with cohort.ReadOptions.Wave"
+			}
+		}
+		if r.orderZone == "without a UTC offset" && fa == fb && la < lb && lb-la > 1 {
+			// Far apart in one file: a wall clock that went back an hour when daylight
+			// saving time ended.
+			advice += "; if the clock went back an hour (daylight saving time ended), give the times with their UTC offset (2026-10-25T02:30:00+01:00) and the zone with cohort.ReadOptions.TimeZone"
+		}
+		return nil, &InputError{File: r.files[fb].Path, Line: lb, Field: r.opts.Order,
+			Msg: fmt.Sprintf("participant %s%s has this window twice (also %s); %s", ru.id, waveSuffix(ru.wave), also, advice), Err: ErrDuplicate}
+	}
+	for k, i := range idx {
+		if k != i {
+			u.Sorted = true
+			f.sortedUnits++
+			break
+		}
+	}
+	return idx, nil
+}
+
+// nonWear marks the unit's windows (in order) that its non-wear rule leaves out; a wear column
+// holding anything but 0 and 1 is an error naming its row.
+func (f *finisher) nonWear(ru *rawUnit, idx []int, times []int64) ([]bool, error) {
+	counts := make([]float64, len(idx))
+	for k, i := range idx {
+		counts[k] = f.x[i*f.w+f.nonWearAt]
+		if f.rule == NonWearColumn && counts[k] != 0 && counts[k] != 1 {
+			_, line := unpackSource(f.x[i*f.w+f.d+1])
+			return nil, &InputError{File: f.r.files[0].Path, Line: line, Field: f.r.opts.WearColumn, Msg: fmt.Sprintf("participant %s: the wear column holds %v; give 1 for a worn window and 0 for one when the device was off", ru.id, counts[k]), Err: ErrNotNumber}
+		}
+	}
+	return nonWearOf(f.rule, times, counts), nil
+}
+
+// keep puts the unit's windows that are kept into f.clean, in order: not non-wear, not on an
+// invalid day, and with no missing cell, or with each missing cell imputed by the unit's
+// median of the feature; it counts what it leaves out and imputes, and returns a reason to
+// exclude the unit when a feature is missing in every window and cannot be imputed.
+func (f *finisher) keep(ru *rawUnit, u *Unit, idx []int, nonWear, invalidDay []bool) string {
+	d, w := f.d, f.w
+	var med []float64
+	if f.r.opts.Missing == ImputeMedian && ru.missing > 0 {
+		med = columnMedians(f.x, d, w)
+	}
+	f.clean = f.clean[:0]
+	reason := ""
+	for k, i := range idx {
+		if nonWear != nil && nonWear[k] {
+			u.NonWear++
+			continue
+		}
+		if invalidDay != nil && invalidDay[k] {
+			continue // counted in u.Wear.LeftOut
+		}
+		row := f.x[i*w : (i+1)*w]
+		missing := 0
+		for _, v := range row[:d] {
+			if math.IsNaN(v) {
+				missing++
+			}
+		}
+		if missing > 0 && f.r.opts.Missing == DropWindow {
+			u.Dropped++
+			continue
+		}
+		start := len(f.clean)
+		f.clean = append(f.clean, row...)
+		if missing > 0 {
+			for j, v := range row[:d] {
+				if math.IsNaN(v) {
+					if math.IsNaN(med[j]) {
+						reason = fmt.Sprintf("feature %s is missing in every window, so it cannot be imputed", f.r.features[j])
+					}
+					u.Imputed++
+					f.clean[start+j] = med[j]
+				}
+			}
+		}
+		if ru.labels != nil {
+			u.Labels = append(u.Labels, ru.labels[i])
+		}
+	}
+	return reason
+}
+
+// features settles the table's features once every unit is in: the wear column, which has
+// done its work, is no feature; a shard keeps what it saw of each feature's constancy for the
+// merge (Constancy), and a whole table drops its constant features.
+func (f *finisher) features() error {
+	t, at := f.t, f.nonWearAt
+	constant := f.constant
+	if f.r.opts.Shard.Count > 0 {
+		t.Constancy = &Constancy{Have: constant.have, First: constant.first, Constant: constant.constant}
+		if f.rule == NonWearColumn {
+			t.Constancy.First = slices.Delete(slices.Clone(t.Constancy.First), at, at+1)
+			t.Constancy.Constant = slices.Delete(slices.Clone(t.Constancy.Constant), at, at+1)
+			t.Features = slices.Delete(slices.Clone(t.Features), at, at+1)
+			t.cols = slices.Delete(t.cols, at, at+1)
+		}
+		return nil
+	}
+	if f.rule == NonWearColumn {
+		constant.first = slices.Delete(constant.first, at, at+1)
+		constant.constant = slices.Delete(constant.constant, at, at+1)
+		t.Features = slices.Delete(slices.Clone(t.Features), at, at+1)
+		t.cols = slices.Delete(t.cols, at, at+1)
+	}
+	return t.dropConstantFeatures(constant)
 }
 
 // nonWearColumn is the non-wear rule the reading applies ("" for none) and the feature it reads:

@@ -339,8 +339,17 @@ func jsonPos(b []byte, err error) string {
 }
 
 func (m *Model) check() error {
-	d := len(m.Features)
-	if d == 0 {
+	for _, part := range []func(*Model) error{(*Model).checkRead, (*Model).checkFit, (*Model).checkNormalize, (*Model).checkStates, (*Model).checkGrouping, (*Model).checkRest} {
+		if err := part(m); err != nil {
+			return err
+		}
+	}
+	return nil
+}
+
+// checkRead checks the features and the reading settings.
+func (m *Model) checkRead() error {
+	if len(m.Features) == 0 {
 		return errors.New("no features")
 	}
 	if v := m.Read.ValidDay; v != "" && v != "auto" {
@@ -351,6 +360,11 @@ func (m *Model) check() error {
 	if _, err := clock.In(m.Read.TimeZone); err != nil {
 		return fmt.Errorf("read.TimeZone: %w", err)
 	}
+	return nil
+}
+
+// checkFit checks the settings the model was fitted with.
+func (m *Model) checkFit() error {
 	if f := m.Fit; f != nil && f.Signature == "day-parts" {
 		if err := profile.DayParts(f.DayParts).Check(); err != nil && len(f.DayParts) > 0 {
 			return fmt.Errorf("fit.day_parts: %w", err)
@@ -370,6 +384,22 @@ func (m *Model) check() error {
 			return errors.New("the settings name no numbers of states or groups")
 		}
 	}
+	return nil
+}
+
+// dims are the number of features and of normalized columns (the PCA's components, when there
+// is a PCA); checkNormalize has checked the PCA's shape.
+func (m *Model) dims() (d, dim int) {
+	d, dim = len(m.Features), len(m.Features)
+	if m.Normalize.PCA != nil {
+		dim = len(m.Normalize.PCA[0])
+	}
+	return d, dim
+}
+
+// checkNormalize checks the frozen normalization against the features.
+func (m *Model) checkNormalize() error {
+	d := len(m.Features)
 	n := m.Normalize
 	within, err := normalize.ParseWithin(n.Within)
 	if err != nil {
@@ -395,6 +425,37 @@ func (m *Model) check() error {
 			return fmt.Errorf("normalize.log_shift[%d] is %v; a log scale starts above 0", j, c)
 		}
 	}
+	if err := m.checkColumns(); err != nil {
+		return err
+	}
+	for j, s := range n.Spread {
+		if !(s > 0) || math.IsInf(s, 0) {
+			return fmt.Errorf("normalize.spread[%d] is %v; spreads are positive", j, s)
+		}
+	}
+	if n.PCA != nil {
+		if len(n.PCA) != d || len(n.PCAMean) != d {
+			return fmt.Errorf("normalize.pca_components has %d rows and pca_mean %d for %d features", len(n.PCA), len(n.PCAMean), d)
+		}
+		if err := finiteRows("normalize.pca_components", n.PCA, len(n.PCA[0])); err != nil {
+			return err
+		}
+	}
+	if err := finiteRows("normalize.center", [][]float64{n.Center}, d); err != nil {
+		return err
+	}
+	if within == normalize.WithinRest {
+		if err := finiteRows("normalize.quiet_mid", [][]float64{n.QuietMid}, d); err != nil {
+			return err
+		}
+	}
+	return nil
+}
+
+// checkColumns checks the features the normalization names by their columns: the axis means,
+// what is turned with them, and the quiet score.
+func (m *Model) checkColumns() error {
+	n, d := m.Normalize, len(m.Features)
 	if n.Axes != nil {
 		if len(n.Axes) != 3 || n.Axes[0] == n.Axes[1] || n.Axes[0] == n.Axes[2] || n.Axes[1] == n.Axes[2] {
 			return fmt.Errorf("normalize.axes is %v; it names three different features", n.Axes)
@@ -415,29 +476,15 @@ func (m *Model) check() error {
 			return fmt.Errorf("normalize.quiet_score names feature %d of %d", j, d)
 		}
 	}
-	for j, s := range n.Spread {
-		if !(s > 0) || math.IsInf(s, 0) {
-			return fmt.Errorf("normalize.spread[%d] is %v; spreads are positive", j, s)
-		}
-	}
-	dim := d
-	if n.PCA != nil {
-		if len(n.PCA) != d || len(n.PCAMean) != d {
-			return fmt.Errorf("normalize.pca_components has %d rows and pca_mean %d for %d features", len(n.PCA), len(n.PCAMean), d)
-		}
-		dim = len(n.PCA[0])
-		if err := finiteRows("normalize.pca_components", n.PCA, dim); err != nil {
-			return err
-		}
-	}
-	if err := finiteRows("normalize.center", [][]float64{n.Center}, d); err != nil {
-		return err
-	}
-	if within == normalize.WithinRest {
-		if err := finiteRows("normalize.quiet_mid", [][]float64{n.QuietMid}, d); err != nil {
-			return err
-		}
-	}
+	return nil
+}
+
+// checkStates checks the states' centroids, means and, for the align step, what places a
+// device.
+func (m *Model) checkStates() error {
+	d, dim := m.dims()
+	n := m.Normalize
+	within, _ := normalize.ParseWithin(n.Within) // checked by checkNormalize
 	s := m.States
 	if s.K < 1 || len(s.Centroids) != s.K || len(s.Names) != s.K {
 		return fmt.Errorf("states: k = %d with %d centroids and %d names", s.K, len(s.Centroids), len(s.Names))
@@ -466,6 +513,12 @@ func (m *Model) check() error {
 			}
 		}
 	}
+	return nil
+}
+
+// checkGrouping checks the groups' names, centres, shares and mixture.
+func (m *Model) checkGrouping() error {
+	s := m.States
 	g := m.Grouping
 	if _, err := group.ParseMethod(g.Method); err != nil {
 		return err
@@ -500,14 +553,20 @@ func (m *Model) check() error {
 	if err := g.checkMixture(s.K, m.Fit.Parts()); err != nil {
 		return err
 	}
+	return nil
+}
+
+// checkRest checks what the model says of gravity, pseudonyms and the features' ranges.
+func (m *Model) checkRest() error {
+	s := m.States
 	if s.Calibrate && !(s.Gravity > 0 && !math.IsInf(s.Gravity, 0)) {
 		return fmt.Errorf("states.gravity is %v; calibrated states need the length of gravity, above 0", s.Gravity)
 	}
 	if m.Pseudonymized != (m.KeyFingerprint != "") {
 		return fmt.Errorf("pseudonymized is %v with key_fingerprint %q; a pseudonymized model has a fingerprint and a plain one none", m.Pseudonymized, m.KeyFingerprint)
 	}
-	if len(m.FeatureMeds) != d {
-		return fmt.Errorf("feature_median_range has %d entries for %d features", len(m.FeatureMeds), d)
+	if len(m.FeatureMeds) != len(m.Features) {
+		return fmt.Errorf("feature_median_range has %d entries for %d features", len(m.FeatureMeds), len(m.Features))
 	}
 	return nil
 }
