@@ -39,18 +39,38 @@ func chartsSheet(f *excelize.File, st *styles, r *Result) error {
 	w.text(1, 1, "The numbers behind the charts", st.title)
 	w.text(1, 2, "Charts are to the right; each table below feeds the chart beside it. Groups describe movement statistically, not diagnoses.", st.note)
 	w.merge(2)
+	c := &chartPage{f: f, st: st, r: r, w: w, name: name}
 	row := 4
-	anchor := func() string { return fmt.Sprintf("I%d", row) }
+	for _, section := range []func(int) (int, error){c.mixtures, c.stateProfiles, c.sizes, c.statesChoice, c.groupsChoice, c.dendrogram, c.silhouettes} {
+		var err error
+		if row, err = section(row); err != nil {
+			return err
+		}
+	}
+	return w.err
+}
+
+// chartPage is the At a glance sheet as it is written: the workbook, the result and the cells.
+type chartPage struct {
+	f    *excelize.File
+	st   *styles
+	r    *Result
+	w    *cellWriter
+	name string
+}
+
+// mixtures is each group's mixture over the states, as a stacked bar.
+func (c *chartPage) mixtures(row int) (int, error) {
+	f, st, r, w, name := c.f, c.st, c.r, c.w, c.name
 	k := r.States.K
 	g := len(r.GroupNames)
-
 	// 1. Each group's mixture over the states (stacked bar).
 	top := row
 	w.text(1, row, "Group", st.header)
 	for s := 0; s < k; s++ {
 		w.text(2+s, row, stateLabel(r, s), st.headerNum)
 	}
-	shares, sizes, sils := r.GroupMeans()
+	shares, _, _ := r.GroupMeans()
 	for i := 0; i < g; i++ {
 		w.text(1, row+1+i, r.GroupNames[i], st.text)
 		for s := 0; s < k; s++ {
@@ -66,13 +86,19 @@ func chartsSheet(f *excelize.File, st *styles, r *Result) error {
 			Fill:       excelize.Fill{Type: "pattern", Pattern: 1, Color: []string{colour(s)}},
 		})
 	}
-	if err := f.AddChart(name, anchor(), chart(excelize.BarPercentStacked, "Each group's time in each movement state", series, "group", "share of windows")); err != nil {
-		return err
+	if err := f.AddChart(name, fmt.Sprintf("I%d", row), chart(excelize.BarPercentStacked, "Each group's time in each movement state", series, "group", "share of windows")); err != nil {
+		return 0, err
 	}
 	row = max(row+g+3, top+22)
+	return row, w.err
+}
 
+// stateProfiles is each state's profile over the features that set the states apart.
+func (c *chartPage) stateProfiles(row int) (int, error) {
+	f, st, r, w, name := c.f, c.st, c.r, c.w, c.name
+	k := r.States.K
 	// 2. Each state's profile over the variables that set states apart (standardized means).
-	top = row
+	top := row
 	vars := stateVariables(r, 12)
 	w.text(1, row, "Feature (z vs cohort)", st.header)
 	for s := 0; s < k; s++ {
@@ -84,7 +110,7 @@ func chartsSheet(f *excelize.File, st *styles, r *Result) error {
 			w.num(2+s, row+1+i, effect(r, s, j), st.dec2)
 		}
 	}
-	series = nil
+	var series []excelize.ChartSeries
 	for s := 0; s < k; s++ {
 		series = append(series, excelize.ChartSeries{
 			Name: ref(name, 2+s, top, 2+s, top), Categories: ref(name, 1, top+1, 1, top+len(vars)), Values: ref(name, 2+s, top+1, 2+s, top+len(vars)),
@@ -95,13 +121,20 @@ func chartsSheet(f *excelize.File, st *styles, r *Result) error {
 	stateChart := chart(excelize.Bar, statesChartTitle(len(vars), len(r.Features)), series, "feature", "s.d. from the cohort mean")
 	stateChart.Dimension.Height = uint(min(560, 140+len(vars)*(8+4*k)))
 	if err := f.AddChart(name, fmt.Sprintf("I%d", top), stateChart); err != nil {
-		return err
+		return 0, err
 	}
 	row = max(row+len(vars)+3, top+int(stateChart.Dimension.Height)/20+2) // rows of 20 px: the chart ends above the next section
+	return row, w.err
+}
 
+// sizes is the groups' sizes and mean silhouettes.
+func (c *chartPage) sizes(row int) (int, error) {
+	f, st, r, w, name := c.f, c.st, c.r, c.w, c.name
+	g := len(r.GroupNames)
 	// 3. Group sizes and mean silhouettes. Printed, two charts go on a page and a page break
 	// comes before every other section, so that no chart is cut in two.
-	top = row
+	_, sizes, sils := r.GroupMeans()
+	top := row
 	w.pageBreak(row)
 	w.text(1, row, "Group", st.header)
 	w.text(2, row, "members", st.headerNum)
@@ -116,14 +149,19 @@ func chartsSheet(f *excelize.File, st *styles, r *Result) error {
 	zero := 0.0
 	sizeChart.YAxis.Minimum = &zero // bars compared by their lengths start at zero
 	if err := f.AddChart(name, fmt.Sprintf("I%d", top), narrow(sizeChart, false)); err != nil {
-		return err
+		return 0, err
 	}
 	row = max(row+g+3, top+18)
+	return row, w.err
+}
 
+// statesChoice is the choice of the number of states, where a range was scored.
+func (c *chartPage) statesChoice(row int) (int, error) {
+	f, st, r, w, name := c.f, c.st, c.r, c.w, c.name
 	// 5. The choice of the number of states and of groups.
 	// Shown when a range of numbers was scored (the Calinski–Harabasz rule); the valley rule's
 	// merges are on the Choosing k sheet.
-	top = row
+	top := row
 	nc := len(r.States.Candidates)
 	if nc > 0 {
 		w.text(1, row, "States", st.headerNum)
@@ -141,18 +179,24 @@ func chartsSheet(f *excelize.File, st *styles, r *Result) error {
 		ch := chart(excelize.Line, "Choosing the number of states: Calinski–Harabasz (larger is better)", []excelize.ChartSeries{
 			lineSeries(name, 2, top, nc, 0)}, "number of states", "index")
 		if err := f.AddChart(name, fmt.Sprintf("I%d", top), narrow(ch, false)); err != nil {
-			return err
+			return 0, err
 		}
 		ch2 := chart(excelize.Line, "Silhouette (larger is better) and Davies–Bouldin (smaller is better)", []excelize.ChartSeries{
 			lineSeries(name, 3, top, nc, 1), lineSeries(name, 4, top, nc, 2)}, "number of states", "index")
 		if err := f.AddChart(name, fmt.Sprintf("P%d", top), narrow(ch2, true)); err != nil {
-			return err
+			return 0, err
 		}
 	}
 	if nc > 0 {
 		row = max(row+nc+3, top+18)
 	}
-	top = row
+	return row, w.err
+}
+
+// groupsChoice is the choice of the number of groups by the method's criteria.
+func (c *chartPage) groupsChoice(row int) (int, error) {
+	f, st, r, w, name := c.f, c.st, c.r, c.w, c.name
+	top := row
 	w.pageBreak(row)
 	ng := len(r.Grouping.Scores)
 	w.text(1, row, "Groups", st.headerNum)
@@ -169,7 +213,7 @@ func chartsSheet(f *excelize.File, st *styles, r *Result) error {
 			ch := chart(excelize.Line, "Choosing the number of groups: BIC and ICL of the mixture (smaller is better)", []excelize.ChartSeries{
 				lineSeries(name, 2, top, ng, 0), lineSeries(name, 3, top, ng, 1)}, "number of groups", "criterion")
 			if err := f.AddChart(name, fmt.Sprintf("I%d", top), ch); err != nil {
-				return err
+				return 0, err
 			}
 		}
 	} else {
@@ -188,29 +232,41 @@ func chartsSheet(f *excelize.File, st *styles, r *Result) error {
 			ch := chart(excelize.Line, "Choosing the number of groups: gap statistic, bootstrap stability, silhouette", []excelize.ChartSeries{
 				lineSeries(name, 2, top, ng, 0), lineSeries(name, 3, top, ng, 1), lineSeries(name, 4, top, ng, 2)}, "number of groups", "value")
 			if err := f.AddChart(name, fmt.Sprintf("I%d", top), ch); err != nil {
-				return err
+				return 0, err
 			}
 		}
 	}
 	row = max(row+ng+3, top+22)
+	return row, w.err
+}
 
+// dendrogram is the dendrogram, as a picture.
+func (c *chartPage) dendrogram(row int) (int, error) {
+	f, st, r, w, name := c.f, c.st, c.r, c.w, c.name
 	// 5b. The dendrogram, as a picture.
 	png, caption, err := Dendrogram(r)
 	if err != nil {
-		return err
+		return 0, err
 	}
 	if png != nil {
 		w.text(1, row, caption, st.note)
 		w.merge(row)
 		if err := f.AddPictureFromBytes(name, fmt.Sprintf("I%d", row), &excelize.Picture{Extension: ".png", File: png,
 			Format: &excelize.GraphicOptions{AltText: caption, ScaleX: 0.8, ScaleY: 0.8}}); err != nil {
-			return err
+			return 0, err
 		}
 		row += 24
 	}
 	w.pageBreak(row)
+	return row, w.err
+}
+
+// silhouettes is the members' silhouettes, sorted within each group, one line per group.
+func (c *chartPage) silhouettes(row int) (int, error) {
+	f, st, r, w, name := c.f, c.st, c.r, c.w, c.name
+	g := len(r.GroupNames)
 	// 6. Members' silhouettes, sorted within each group (one series per group).
-	top = row
+	top := row
 	members := silhouetteBars(r)
 	sampled := ""
 	if len(r.Units) > maxSilhouetteBars {
@@ -238,7 +294,7 @@ func chartsSheet(f *excelize.File, st *styles, r *Result) error {
 			}
 		}
 	}
-	series = nil
+	var series []excelize.ChartSeries
 	for i := 0; i < g; i++ {
 		series = append(series, excelize.ChartSeries{Name: ref(name, 2+i, top, 2+i, top), Categories: ref(name, 1, top+1, 1, top+longest),
 			Values: ref(name, 2+i, top+1, 2+i, top+longest), Line: excelize.LineOptions{Type: excelize.LineSolid, Width: 2.25},
@@ -248,10 +304,9 @@ func chartsSheet(f *excelize.File, st *styles, r *Result) error {
 	// line chart's categories stacked one label per member.
 	silChart := chart(excelize.Scatter, "Members' silhouettes, best first, by group"+sampled, series, "rank of the member in its group", "silhouette")
 	if err := f.AddChart(name, fmt.Sprintf("I%d", top), silChart); err != nil {
-		return err
+		return 0, err
 	}
-
-	return w.err
+	return row, w.err
 }
 
 func lineSeries(sheet string, col, top, n, c int) excelize.ChartSeries {
