@@ -61,7 +61,7 @@ func flagWords(s string) string {
 
 // packagePrefix is a Go package's name at the start of a message or of a wrapped one
 // ("a.csv: job: …"), which says nothing to a person at the command line.
-var packagePrefix = regexp.MustCompile(`(^|: |\()(cohort|job|cluster|mixture|groupstat|profile|normalize|reports|synth|scratch): `)
+var packagePrefix = regexp.MustCompile(`(^|: |\()(cohort|group|job|cluster|mixture|groupstat|profile|normalize|reports|synth|scratch|modelfile|pseudonym|par|raw): `)
 
 // userWords is flagWords without the package names.
 func userWords(s string) string {

@@ -87,7 +87,7 @@ func ParseMethod(s string) (Method, error) {
 		}
 		names = append(names, r.name)
 	}
-	return 0, fmt.Errorf("cohort: grouping method %q: %w; use %s or %s", s, cohort.ErrBadOption, strings.Join(names[:len(names)-1], ", "), names[len(names)-1])
+	return 0, fmt.Errorf("group: grouping method %q: %w; use %s or %s", s, cohort.ErrBadOption, strings.Join(names[:len(names)-1], ", "), names[len(names)-1])
 }
 
 // Criterion chooses the number of groups from a range.
@@ -132,7 +132,7 @@ func ParseCriterion(s string) (Criterion, error) {
 			return c, nil
 		}
 	}
-	return 0, fmt.Errorf("cohort: criterion %q: %w; use bic or icl (the mixture method), or gap-stable-firm, gap-stable, gap, stability or silhouette", s, cohort.ErrBadOption)
+	return 0, fmt.Errorf("group: criterion %q: %w; use bic or icl (the mixture method), or gap-stable-firm, gap-stable, gap, stability or silhouette", s, cohort.ErrBadOption)
 }
 
 // Options sets up Signatures.
@@ -246,35 +246,23 @@ func SpaceDistance(m Method, a, b []float64) float64 {
 // Signatures groups participants by their shares (rows of shares, each summing to 1).
 func Signatures(ctx context.Context, shares [][]float64, opts Options) (*Grouping, error) {
 	n := len(shares)
-	if len(opts.Groups) == 0 {
-		return nil, fmt.Errorf("cohort: no number of groups given: %w; set cohort.GroupOptions.Groups to 3 or a range such as 1-8", cohort.ErrBadOption)
-	}
-	least := 2
-	if opts.Method == Mixture {
-		least = 1
-	}
-	for i, k := range opts.Groups {
-		if k < least || (i > 0 && k <= opts.Groups[i-1]) {
-			return nil, fmt.Errorf("cohort: groups %v: %w; give increasing numbers ≥ %d", opts.Groups, cohort.ErrBadOption, least)
-		}
+	if err := opts.checkGroups(); err != nil {
+		return nil, err
 	}
 	if opts.Bootstrap == 0 {
 		opts.Bootstrap = 20
 	}
 	if opts.Method == Mixture {
 		if n < 2 {
-			return nil, fmt.Errorf("cohort: %d participants to group: %w; grouping needs at least 2", n, cohort.ErrTooFew)
+			return nil, fmt.Errorf("group: %d participants to group: %w; grouping needs at least 2", n, cohort.ErrTooFew)
 		}
 		return groupMixture(ctx, shares, opts)
 	}
 	if opts.Criterion == ByBIC || opts.Criterion == ByICL {
-		return nil, fmt.Errorf("cohort: criterion %s is the mixture method's; %s chooses by gap-stable-firm, gap-stable, gap, stability or silhouette: %w", opts.Criterion, opts.Method, cohort.ErrBadOption)
+		return nil, fmt.Errorf("group: criterion %s is the mixture method's; %s chooses by gap-stable-firm, gap-stable, gap, stability or silhouette: %w", opts.Criterion, opts.Method, cohort.ErrBadOption)
 	}
 	if maxK := opts.Groups[len(opts.Groups)-1]; maxK > n-1 {
-		return nil, fmt.Errorf("cohort: %d groups asked for but %d participants are grouped: %w; lower cohort.GroupOptions.Groups to at most %d", maxK, n, cohort.ErrTooFew, max(2, n-1))
-	}
-	if opts.Bootstrap == 0 {
-		opts.Bootstrap = 20
+		return nil, fmt.Errorf("group: %d groups asked for but %d participants are grouped: %w; lower group.Options.Groups to at most %d", maxK, n, cohort.ErrTooFew, max(2, n-1))
 	}
 	if opts.MaxBytes == 0 {
 		opts.MaxBytes = 512 << 20
@@ -284,7 +272,7 @@ func Signatures(ctx context.Context, shares [][]float64, opts Options) (*Groupin
 		opts.Method = WardHellinger
 		if n > LargeCohort {
 			opts.Method = KMeansCLR
-			note = fmt.Sprintf("%s participants are more than %s: they were grouped by k-means on the centred log-ratios, which scales, instead of Ward linkage (set cohort.GroupOptions.Method ward-hellinger to insist)", cohort.Thousands(n), cohort.Thousands(LargeCohort))
+			note = fmt.Sprintf("%s participants are more than %s: they were grouped by k-means on the centred log-ratios, which scales, instead of Ward linkage (set group.Options.Method ward-hellinger to insist)", cohort.Thousands(n), cohort.Thousands(LargeCohort))
 		}
 	}
 	g := &Grouping{Method: opts.Method, Criterion: opts.Criterion, Note: note}
@@ -293,7 +281,46 @@ func Signatures(ctx context.Context, shares [][]float64, opts Options) (*Groupin
 	for i, s := range shares {
 		x.SetRow(i, Embed(opts.Method, s))
 	}
-	// Distance matrix for PAM and the silhouette, behind the memory guard.
+	dist, err := distances(x, shares, opts)
+	if err != nil {
+		return nil, err
+	}
+	labelsByK, err := g.labelsForEach(ctx, x, dist, opts)
+	if err != nil {
+		return nil, err
+	}
+	if err := g.chooseK(ctx, x, dist, labelsByK, opts); err != nil {
+		return nil, err
+	}
+	if err := g.describe(ctx, x, dist, labelsByK[g.K], opts); err != nil {
+		return nil, err
+	}
+	return g, nil
+}
+
+// checkGroups checks the numbers of groups asked for: increasing, from 1 for the mixture and
+// from 2 for the other methods.
+func (opts Options) checkGroups() error {
+	if len(opts.Groups) == 0 {
+		return fmt.Errorf("group: no number of groups given: %w; set group.Options.Groups to 3 or a range such as 1-8", cohort.ErrBadOption)
+	}
+	least := 2
+	if opts.Method == Mixture {
+		least = 1
+	}
+	for i, k := range opts.Groups {
+		if k < least || (i > 0 && k <= opts.Groups[i-1]) {
+			return fmt.Errorf("group: groups %v: %w; give increasing numbers ≥ %d", opts.Groups, cohort.ErrBadOption, least)
+		}
+	}
+	return nil
+}
+
+// distances are the participants' distances for PAM and the silhouette (Jensen–Shannon on the
+// shares, or Euclidean in the grouping space x), nil where they would pass opts.MaxBytes and
+// the method can do without them.
+func distances(x *mat.Dense, shares [][]float64, opts Options) (*cluster.Condensed, error) {
+	n, d := x.Dims()
 	var dist *cluster.Condensed
 	needDist := opts.Method.row().medoids
 	if cluster.CondensedBytes(n) <= opts.MaxBytes {
@@ -313,8 +340,14 @@ func Signatures(ctx context.Context, shares [][]float64, opts Options) (*Groupin
 			return nil, err
 		}
 	} else if needDist {
-		return nil, fmt.Errorf("cohort: %d participants need %d MiB of distances for PAM: %w; use cohort.GroupOptions.Method kmeans-clr or ward-hellinger for a cohort this large", n, cluster.CondensedBytes(n)>>20, cluster.ErrTooLarge)
+		return nil, fmt.Errorf("group: %d participants need %d MiB of distances for PAM: %w; use group.Options.Method kmeans-clr or ward-hellinger for a cohort this large", n, cluster.CondensedBytes(n)>>20, cluster.ErrTooLarge)
 	}
+	return dist, nil
+}
+
+// labelsForEach groups the participants into each number of groups asked for: by cutting Ward's
+// tree (kept in g.Tree), or by the method's own fit for each number.
+func (g *Grouping) labelsForEach(ctx context.Context, x *mat.Dense, dist *cluster.Condensed, opts Options) (map[int][]int, error) {
 	if opts.Method.row().tree {
 		tree, err := cluster.WardPoints(ctx, x, cluster.WardOptions{Workers: opts.Workers})
 		if err != nil {
@@ -338,6 +371,13 @@ func Signatures(ctx context.Context, shares [][]float64, opts Options) (*Groupin
 		labelsByK[k] = lab
 		opts.report("grouping for each number of groups", i+1, len(opts.Groups))
 	}
+	return labelsByK, nil
+}
+
+// chooseK chooses the number of groups by the criterion (g.K), with the scores of every number
+// in g.Scores.
+func (g *Grouping) chooseK(ctx context.Context, x *mat.Dense, dist *cluster.Condensed, labelsByK map[int][]int, opts Options) error {
+	n, _ := x.Dims()
 	// The criteria for the number of groups (silhouette, and the gap's references and the
 	// stability's resamples, which cluster the data again and again) work above LargeCohort on
 	// a reproducible sample of participants, with the labels the whole cohort gave them.
@@ -354,17 +394,17 @@ func Signatures(ctx context.Context, shares [][]float64, opts Options) (*Groupin
 		sc := KScore{K: k}
 		sil, err := silhouetteOf(cx, cdist, clab[k], opts)
 		if err != nil {
-			return nil, err
+			return err
 		}
 		sc.Silhouette = sil.Mean
 		g.Scores = append(g.Scores, sc)
 	}
 	if len(opts.Groups) > 1 {
 		if err := scoreGap(ctx, cx, g.Scores, clab, opts); err != nil {
-			return nil, err
+			return err
 		}
 		if err := scoreStability(ctx, cx, cdist, g.Scores, clab, opts); err != nil {
-			return nil, err
+			return err
 		}
 		g.K = Choose(g.Scores, opts.Criterion)
 		if opts.Criterion == ByGapSteady {
@@ -381,7 +421,7 @@ func Signatures(ctx context.Context, shares [][]float64, opts Options) (*Groupin
 		if opts.Valley > 0 {
 			k, note, err := valleyCap(cx, clab, opts.Groups, g.K, opts.Valley)
 			if err != nil {
-				return nil, err
+				return err
 			}
 			if k != g.K {
 				if g.Note != "" {
@@ -394,13 +434,21 @@ func Signatures(ctx context.Context, shares [][]float64, opts Options) (*Groupin
 	} else {
 		g.K = opts.Groups[0]
 	}
-	g.Labels = renumberBySize(labelsByK[g.K], g.K)
+	return nil
+}
+
+// describe sets what the chosen grouping says of each participant and group: labels numbered by
+// size, bootstrap stability, silhouettes, centres, distances and the centres' tree.
+func (g *Grouping) describe(ctx context.Context, x *mat.Dense, dist *cluster.Condensed, labels []int, opts Options) error {
+	n, _ := x.Dims()
+	var err error
+	g.Labels = renumberBySize(labels, g.K)
 	if g.Stability, err = groupStability(ctx, x, dist, g.Labels, g.K, opts); err != nil {
-		return nil, err
+		return err
 	}
 	sil, err := silhouetteOf(x, dist, g.Labels, opts)
 	if err != nil {
-		return nil, err
+		return err
 	}
 	g.Silhouette = expand(sil, n)
 	g.Centroids = centroids(opts.Method, x, dist, g.Labels, g.K)
@@ -409,7 +457,7 @@ func Signatures(ctx context.Context, shares [][]float64, opts Options) (*Groupin
 		g.Distance[i] = SpaceDistance(opts.Method, x.RawRowView(i), g.Centroids[g.Labels[i]])
 	}
 	if g.CentroidTree, err = CentroidTree(ctx, opts.Method, g.Centroids); err != nil {
-		return nil, err
+		return err
 	}
 	if dist == nil {
 		if g.Note != "" {
@@ -417,7 +465,7 @@ func Signatures(ctx context.Context, shares [][]float64, opts Options) (*Groupin
 		}
 		g.Note += fmt.Sprintf("silhouettes were computed for a sample of 5,000 participants (each against all): a full distance matrix on %s would need %s MiB", cohort.Thousands(n), cohort.Thousands(int(cluster.CondensedBytes(n)>>20)))
 	}
-	return g, nil
+	return nil
 }
 
 // sampleRows draws m of x's rows without replacement (a seeded partial Fisher–Yates shuffle, kept
@@ -507,7 +555,7 @@ func scoreGap(ctx context.Context, x *mat.Dense, scores []KScore, labelsByK map[
 	}
 	pca, err := cluster.FitPCA(x, cluster.PCAOptions{})
 	if err != nil {
-		return fmt.Errorf("cohort: gap statistic: %w", err)
+		return fmt.Errorf("group: gap statistic: %w", err)
 	}
 	z, _ := pca.Transform(x)
 	_, p := z.Dims()
@@ -823,7 +871,7 @@ func Place(m Method, centroids [][]float64, shares [][]float64, workers int) (*G
 	for i, s := range shares {
 		e := Embed(m, s)
 		if len(e) != len(centroids[0]) {
-			return nil, fmt.Errorf("cohort: Place: signature of %d states for centres over %d: %w", len(e), len(centroids[0]), cohort.ErrMismatch)
+			return nil, fmt.Errorf("group: Place: signature of %d states for centres over %d: %w", len(e), len(centroids[0]), cohort.ErrMismatch)
 		}
 		x.SetRow(i, e)
 		best, bestD := 0, math.Inf(1)

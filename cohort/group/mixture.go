@@ -43,14 +43,14 @@ const mixtureStarts = 5
 func BoutTable(counts, bouts, parts [][]float64, noBouts bool) (*mat.Dense, []int, error) {
 	n := len(counts)
 	if n == 0 || (!noBouts && len(bouts) != n) || (parts != nil && len(parts) != n) {
-		return nil, nil, fmt.Errorf("cohort: %d participants' windows, %d participants' bouts and %d participants' parts of the day: %w", n, len(bouts), len(parts), cohort.ErrBadOption)
+		return nil, nil, fmt.Errorf("group: %d participants' windows, %d participants' bouts and %d participants' parts of the day: %w", n, len(bouts), len(parts), cohort.ErrBadOption)
 	}
 	s := len(counts[0])
 	lead := s // the columns before the bouts'
 	blocks := []int{s}
 	if parts != nil {
 		if len(parts[0])%s != 0 || len(parts[0]) == 0 {
-			return nil, nil, fmt.Errorf("cohort: %d counts by part of the day for %d states: %w", len(parts[0]), s, cohort.ErrBadOption)
+			return nil, nil, fmt.Errorf("group: %d counts by part of the day for %d states: %w", len(parts[0]), s, cohort.ErrBadOption)
 		}
 		lead, blocks = len(parts[0]), nil
 		for p := 0; p < lead/s; p++ {
@@ -68,7 +68,7 @@ func BoutTable(counts, bouts, parts [][]float64, noBouts bool) (*mat.Dense, []in
 	x := mat.NewDense(n, cols, nil)
 	for i := range counts {
 		if len(counts[i]) != s || (!noBouts && len(bouts[i]) != s) || (parts != nil && len(parts[i]) != lead) {
-			return nil, nil, fmt.Errorf("cohort: participant %d has %d states' windows, participant 0 %d: %w", i, len(counts[i]), s, cohort.ErrBadOption)
+			return nil, nil, fmt.Errorf("group: participant %d has %d states' windows, participant 0 %d: %w", i, len(counts[i]), s, cohort.ErrBadOption)
 		}
 		if noBouts {
 			if parts != nil {
@@ -82,7 +82,7 @@ func BoutTable(counts, bouts, parts [][]float64, noBouts bool) (*mat.Dense, []in
 		for j := 0; j < s; j++ {
 			c, b := counts[i][j], bouts[i][j]
 			if b > c || b < 0 || (c > 0 && b == 0) {
-				return nil, nil, fmt.Errorf("cohort: participant %d, state %d: %v bouts in %v windows: %w", i, j, b, c, cohort.ErrBadOption)
+				return nil, nil, fmt.Errorf("group: participant %d, state %d: %v bouts in %v windows: %w", i, j, b, c, cohort.ErrBadOption)
 			}
 			total += c
 			runs += b
@@ -109,14 +109,14 @@ func BoutTable(counts, bouts, parts [][]float64, noBouts bool) (*mat.Dense, []in
 func groupMixture(ctx context.Context, shares [][]float64, opts Options) (*Grouping, error) {
 	n := len(shares)
 	if opts.Criterion != ByBIC && opts.Criterion != ByICL {
-		return nil, fmt.Errorf("cohort: the mixture method chooses its number of groups by bic or icl, not %s: %w", opts.Criterion, cohort.ErrBadOption)
+		return nil, fmt.Errorf("group: the mixture method chooses its number of groups by bic or icl, not %s: %w", opts.Criterion, cohort.ErrBadOption)
 	}
 	x, blocks, err := BoutTable(opts.Counts, opts.Bouts, opts.DayParts, opts.NoBouts)
 	if err != nil {
 		return nil, err
 	}
 	if x.RawMatrix().Rows != n {
-		return nil, fmt.Errorf("cohort: %d participants' shares and %d participants' bouts: %w", n, x.RawMatrix().Rows, cohort.ErrBadOption)
+		return nil, fmt.Errorf("group: %d participants' shares and %d participants' bouts: %w", n, x.RawMatrix().Rows, cohort.ErrBadOption)
 	}
 	g := &Grouping{Method: Mixture, Criterion: opts.Criterion, NoBouts: opts.NoBouts}
 	fitRows := x
@@ -131,6 +131,24 @@ func groupMixture(ctx context.Context, shares [][]float64, opts Options) (*Group
 		}
 		g.Note = fmt.Sprintf("the mixture was fitted on a reproducible sample of %s of the %s participants, and every participant was placed by it", cohort.Thousands(mixtureFitRows), cohort.Thousands(n))
 	}
+	best, err := g.fitEach(ctx, fitRows, blocks, opts)
+	if err != nil {
+		return nil, err
+	}
+	post, labels, best, err := g.place(best, x, sampled != nil)
+	if err != nil {
+		return nil, err
+	}
+	g.freeze(best, post, labels)
+	if err := g.describeMixture(ctx, shares, x, blocks, opts); err != nil {
+		return nil, err
+	}
+	return g, nil
+}
+
+// fitEach fits the mixture for each number of groups in turn, scoring each in g.Scores, until the
+// criterion has risen twice (once when quick) past its best, and returns the best fit.
+func (g *Grouping) fitEach(ctx context.Context, fitRows *mat.Dense, blocks []int, opts Options) (*mixture.DMM, error) {
 	fr := fitRows.RawMatrix().Rows
 	var best *mixture.DMM
 	bestV, rises := math.Inf(1), 0
@@ -144,7 +162,7 @@ func groupMixture(ctx context.Context, shares [][]float64, opts Options) (*Group
 		}
 		m, err := mixture.FitDMM(ctx, fitRows, mo)
 		if err != nil {
-			return nil, fmt.Errorf("cohort: fitting the mixture with %d groups: %w", k, err)
+			return nil, fmt.Errorf("group: fitting the mixture with %d groups: %w", k, err)
 		}
 		opts.report("mixture for each number of groups", i+1, len(opts.Groups))
 		v := m.BIC
@@ -163,12 +181,20 @@ func groupMixture(ctx context.Context, shares [][]float64, opts Options) (*Group
 		}
 	}
 	if best == nil {
-		return nil, fmt.Errorf("cohort: %d participants for at least %d groups: %w", fr, opts.Groups[0], cohort.ErrTooFew)
+		return nil, fmt.Errorf("group: %d participants for at least %d groups: %w", fr, opts.Groups[0], cohort.ErrTooFew)
 	}
+	return best, nil
+}
+
+// place gives every participant (of x) its posterior and most probable group under the fit,
+// placing them again where the fit was made on a sample; a component that is no participant's
+// most probable one is left out, with a note.
+func (g *Grouping) place(best *mixture.DMM, x *mat.Dense, sampled bool) ([][]float64, []int, *mixture.DMM, error) {
+	var err error
 	post, labels := best.Posterior, best.Labels
-	if sampled != nil {
+	if sampled {
 		if post, labels, err = best.Place(x); err != nil {
-			return nil, err
+			return nil, nil, nil, err
 		}
 	}
 	// A component that is no participant's most probable one is no group: it is left out, and
@@ -190,11 +216,17 @@ func groupMixture(ctx context.Context, shares [][]float64, opts Options) (*Group
 			kept.Weights[c] /= w
 		}
 		if post, labels, err = kept.Place(x); err != nil {
-			return nil, err
+			return nil, nil, nil, err
 		}
 		best = &kept
 		g.Note = joinNote(g.Note, fmt.Sprintf("of the %d groups the criterion chose, %d held no participant as its most probable group and were left out", chose, chose-used))
 	}
+	return post, labels, best, nil
+}
+
+// freeze numbers the groups by size, largest first, and keeps the mixture's components in that
+// order, with each participant's posterior probability of its group.
+func (g *Grouping) freeze(best *mixture.DMM, post [][]float64, labels []int) {
 	g.K = best.K
 	// Groups numbered by size, largest first; the frozen mixture's components with them.
 	g.Labels = renumberBySize(labels, g.K)
@@ -209,10 +241,17 @@ func groupMixture(ctx context.Context, shares [][]float64, opts Options) (*Group
 	}
 	frozen.Posterior, frozen.Labels = nil, nil
 	g.Mixture = &frozen
-	g.Posterior = make([]float64, n)
+	g.Posterior = make([]float64, len(labels))
 	for i := range post {
 		g.Posterior[i] = post[i][labels[i]]
 	}
+}
+
+// describeMixture sets the centres, distances, silhouettes and dendrogram of the mixture's groups
+// in the Hellinger embedding, as for Ward linkage, and the groups' bootstrap stability.
+func (g *Grouping) describeMixture(ctx context.Context, shares [][]float64, x *mat.Dense, blocks []int, opts Options) error {
+	n := len(shares)
+	var err error
 	// The Hellinger embedding serves the centres, the distances (atypical participants), the
 	// silhouettes and the dendrogram, as for Ward linkage.
 	d := len(shares[0])
@@ -228,12 +267,12 @@ func groupMixture(ctx context.Context, shares [][]float64, opts Options) (*Group
 		var dist *cluster.Condensed
 		if cluster.CondensedBytes(n) <= max(opts.MaxBytes, 512<<20) {
 			if dist, err = cluster.Pairwise(emb, cluster.Euclidean, max(opts.MaxBytes, 512<<20), opts.Workers); err != nil {
-				return nil, err
+				return err
 			}
 		}
 		sil, err := silhouetteOf(emb, dist, g.Labels, opts)
 		if err != nil {
-			return nil, err
+			return err
 		}
 		g.Silhouette = expand(sil, n)
 	}
@@ -244,11 +283,11 @@ func groupMixture(ctx context.Context, shares [][]float64, opts Options) (*Group
 	}
 	if g.K > 1 {
 		if g.CentroidTree, err = CentroidTree(ctx, WardHellinger, g.Centroids); err != nil {
-			return nil, err
+			return err
 		}
 		if !opts.NoStability {
 			if g.Stability, err = mixtureStability(ctx, x, blocks, g, opts); err != nil {
-				return nil, err
+				return err
 			}
 			for i := range g.Scores {
 				if g.Scores[i].K == g.K {
@@ -257,7 +296,7 @@ func groupMixture(ctx context.Context, shares [][]float64, opts Options) (*Group
 			}
 		}
 	}
-	return g, nil
+	return nil
 }
 
 // mixtureStability is the groups' bootstrap stability (resampleStability): each resample is
@@ -309,7 +348,7 @@ func PlaceMixture(m *mixture.DMM, centroids [][]float64, shares, counts, bouts, 
 	}
 	post, labels, err := m.Place(x)
 	if err != nil {
-		return nil, fmt.Errorf("cohort: placing participants with the model's mixture: %w", err)
+		return nil, fmt.Errorf("group: placing participants with the model's mixture: %w", err)
 	}
 	for i := range labels {
 		g.Labels[i], g.Posterior[i] = labels[i], post[i][labels[i]]

@@ -74,11 +74,11 @@ func Match(prev Previous, next Next) (*Matching, error) {
 		return out
 	}
 	if len(next.StateMeans) == 0 || len(prev.StateMeans) == 0 {
-		return nil, fmt.Errorf("cohort: Match: no states: %w", cohort.ErrMismatch)
+		return nil, fmt.Errorf("group: Match: no states: %w", cohort.ErrMismatch)
 	}
 	sp, sd, err := cluster.MatchCentroids(std(prev.StateMeans), std(next.StateMeans))
 	if err != nil {
-		return nil, fmt.Errorf("cohort: matching states: %w", err)
+		return nil, fmt.Errorf("group: matching states: %w", err)
 	}
 	m.StatePrev, m.StateDrift = sp, sd
 	m.StateNames = freshNames("S", prev.StateNames, sp)
@@ -229,7 +229,7 @@ func matchGroups(pg, ng *mat.Dense, moved [][]int, method Method, cut float64, d
 	capped.Apply(func(_, _ int, v float64) float64 { return math.Min(v, cut) }, capped)
 	match, _, err := cluster.MinCostMatching(capped)
 	if err != nil {
-		return nil, fmt.Errorf("cohort: matching groups: %w", err)
+		return nil, fmt.Errorf("group: matching groups: %w", err)
 	}
 	for r, c := range match {
 		if c >= 0 {

@@ -63,7 +63,7 @@ func separateOne(v Variable, labels []int, k int) (*Separation, *cohort.Note) {
 func Separate(vars []Variable, labels []int, k, workers int) ([]Separation, []cohort.Note, error) {
 	for _, v := range vars {
 		if len(v.Values) != len(labels) {
-			return nil, nil, fmt.Errorf("cohort: Separate: %s has %d values for %d participants: %w", v.Name, len(v.Values), len(labels), cohort.ErrMismatch)
+			return nil, nil, fmt.Errorf("group: Separate: %s has %d values for %d participants: %w", v.Name, len(v.Values), len(labels), cohort.ErrMismatch)
 		}
 	}
 	// The variables are tested on all cores, each on its own; results keep the variables' order.
