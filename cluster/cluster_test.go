@@ -25,6 +25,7 @@ func blobs(seed uint64, n, d, k int, spread float64) (*mat.Dense, []int) {
 }
 
 func TestKMeansDeterministicAcrossWorkers(t *testing.T) {
+	t.Parallel()
 	x, _ := blobs(3, 3000, 5, 4, 1.5)
 	var first *KMeansResult
 	for _, w := range []int{1, 2, 3, 8} {
@@ -43,6 +44,7 @@ func TestKMeansDeterministicAcrossWorkers(t *testing.T) {
 }
 
 func TestKMeansRecoversPlantedGroups(t *testing.T) {
+	t.Parallel()
 	// Planted structure: four well-separated blobs.
 	x, y := blobs(5, 800, 4, 4, 0.5)
 	for _, fit := range []struct {
@@ -73,6 +75,7 @@ func TestKMeansRecoversPlantedGroups(t *testing.T) {
 }
 
 func TestErrors(t *testing.T) {
+	t.Parallel()
 	ctx := context.Background()
 	x := mat.NewDense(3, 2, []float64{1, 2, 3, 4, 5, 6})
 	bad := mat.NewDense(3, 2, []float64{1, 2, math.NaN(), 4, 5, 6})
@@ -124,6 +127,7 @@ func TestErrors(t *testing.T) {
 }
 
 func TestProperties(t *testing.T) {
+	t.Parallel()
 	rng := rand.New(rand.NewPCG(9, 9))
 	a := make([]int, 200)
 	for i := range a {
@@ -179,6 +183,7 @@ func TestProperties(t *testing.T) {
 }
 
 func TestMatchLabels(t *testing.T) {
+	t.Parallel()
 	a := []int{0, 0, 1, 1, 2, 2, 2}
 	b := []int{5, 5, 3, 3, 9, 9, 3}
 	m, err := MatchLabels(a, b)
@@ -200,6 +205,7 @@ func TestMatchLabels(t *testing.T) {
 }
 
 func TestHierarchicalOrderAndCancel(t *testing.T) {
+	t.Parallel()
 	x, _ := blobs(4, 60, 2, 3, 0.3)
 	d, _ := Pairwise(x, Euclidean, 0, 0)
 	tree, err := Hierarchical(context.Background(), d, HierarchicalOptions{Linkage: Average})
@@ -227,6 +233,7 @@ func TestHierarchicalOrderAndCancel(t *testing.T) {
 }
 
 func TestWardPointsMatchesMatrix(t *testing.T) {
+	t.Parallel()
 	for _, spread := range []float64{0.3, 1, 3} {
 		x, _ := blobs(11, 400, 3, 4, spread)
 		d, _ := Pairwise(x, Euclidean, 0, 0)
@@ -251,6 +258,7 @@ func TestWardPointsMatchesMatrix(t *testing.T) {
 
 // TransformRows, two rows at a time, gives each row bit for bit what TransformRow gives.
 func TestTransformRowsMatchesTransformRow(t *testing.T) {
+	t.Parallel()
 	rng := rand.New(rand.NewPCG(5, 6))
 	x := mat.NewDense(301, 7, nil)
 	for i := 0; i < 301; i++ {
@@ -301,6 +309,7 @@ func BenchmarkTransformRows(b *testing.B) {
 // smoothed by the kernel (bandwidth 0.9·1.8·4000^(−1/5) ≈ 0.31 here), whose components have
 // s.d. √(1+0.31²) ≈ 1.047, so it expects 2φ(1.433)/(φ(0)+φ(2.865)) ≈ 0.708.
 func TestValleyOnPlantedPairs(t *testing.T) {
+	t.Parallel()
 	normal := func(rng *rand.Rand, n int, mx float64) *mat.Dense {
 		x := mat.NewDense(n, 2, nil)
 		for i := 0; i < n; i++ {

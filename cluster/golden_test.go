@@ -81,6 +81,7 @@ func dataSet(t testing.TB, name string) *mat.Dense {
 func near(got, want, tol float64) bool { return scalar.EqualWithinAbsOrRel(got, want, tol, tol) }
 
 func TestKMeansGolden(t *testing.T) {
+	t.Parallel()
 	var g struct {
 		Cases map[string]struct {
 			BestInertia  float64     `json:"best_inertia"`
@@ -135,6 +136,7 @@ func TestKMeansGolden(t *testing.T) {
 }
 
 func TestHierarchicalGolden(t *testing.T) {
+	t.Parallel()
 	var g struct {
 		Cases map[string]struct {
 			Heights []float64 `json:"heights"`
@@ -237,6 +239,7 @@ func equalInts(a, b []int) bool {
 }
 
 func TestValidityGolden(t *testing.T) {
+	t.Parallel()
 	var g struct {
 		Iris map[string]struct {
 			Labels            []int     `json:"labels"`
@@ -290,6 +293,7 @@ func TestValidityGolden(t *testing.T) {
 }
 
 func TestPCAGolden(t *testing.T) {
+	t.Parallel()
 	var g struct {
 		Variance, Ratio    []float64
 		Components, Scores [][]float64
@@ -330,6 +334,7 @@ func TestPCAGolden(t *testing.T) {
 }
 
 func TestAssignmentGolden(t *testing.T) {
+	t.Parallel()
 	var g struct {
 		Cases []struct {
 			Cost  [][]float64
@@ -368,6 +373,7 @@ func TestAssignmentGolden(t *testing.T) {
 }
 
 func TestDistanceGolden(t *testing.T) {
+	t.Parallel()
 	var g struct {
 		Comp                                                        [][]float64
 		Delta                                                       float64
@@ -402,6 +408,7 @@ func TestDistanceGolden(t *testing.T) {
 }
 
 func TestPAMGolden(t *testing.T) {
+	t.Parallel()
 	var g struct {
 		Cases map[string]struct {
 			Medoids        []int
@@ -449,6 +456,7 @@ func TestPAMGolden(t *testing.T) {
 // scipy.spatial.transform.Rotation.align_vectors (Debian's python3-scipy 1.10.1), through
 // testdata/cluster/rotation.json written by testdata/cluster/make_rotation.py.
 func TestRotation3Golden(t *testing.T) {
+	t.Parallel()
 	var g struct {
 		Cases []struct {
 			Name        string

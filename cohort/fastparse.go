@@ -22,12 +22,9 @@ import (
 // the number of cores. A chunk without quote characters is split by hand; a chunk with quotes is
 // extended until its quotes pair up and is parsed by encoding/csv.
 
-// fastRows turns fastRow on; tests turn it off to compare it with the general path.
-var fastRows = true
-
-// chunkSize is the number of bytes read per chunk (extended to the end of a line); tests set it
-// small to cut tables into many chunks.
-var chunkSize = 4 << 20
+// defaultChunkBytes is the number of bytes read per chunk (extended to the end of a line), unless
+// ReadOptions.tuning says otherwise.
+const defaultChunkBytes = 4 << 20
 
 // parseSpec is what a worker needs to parse rows of one file; it is read-only.
 type parseSpec struct {
@@ -40,6 +37,8 @@ type parseSpec struct {
 	featAt  []int // for each column, its feature index, or -1
 	decimal byte  // a second decimal separator (',' with decimal commas), or '.'
 	comma   bool  // the file's numbers use a decimal comma (semicolon files, and tab files whose head shows one)
+	// generalRows sends every row through the general reader (readTuning).
+	generalRows bool
 }
 
 func newParseSpec(file string, fileIdx int, header []string, ro roles, delim rune, comma bool) *parseSpec {
@@ -137,7 +136,10 @@ func (r *reader) parseBody(br *bufio.Reader, spec *parseSpec, firstLine int, mer
 		line, lines int
 		quote       bool
 	}
-	ch := &chunker{br: br}
+	ch := &chunker{br: br, size: r.opts.tuning.chunkBytes}
+	if ch.size <= 0 {
+		ch.size = defaultChunkBytes
+	}
 	line := firstLine
 	var readErr error // what came with the last chunk read: the end, or an error
 	next := func(int) (job, bool, error) {
@@ -180,6 +182,7 @@ func (r *reader) parseBody(br *bufio.Reader, spec *parseSpec, firstLine int, mer
 // chunker cuts a stream into chunks of whole lines; when a chunk holds quotes it is extended
 // until they pair up, so that no quoted field is cut.
 type chunker struct {
+	size int // bytes per chunk
 	br   *bufio.Reader
 	rest []byte // the start of a line carried over from the previous chunk
 }
@@ -209,10 +212,10 @@ func (c *parsedChunk) release() {
 
 func (ch *chunker) next() ([]byte, bool, error) {
 	var buf []byte
-	if p, ok := chunkBufs.Get().(*[]byte); ok && cap(*p) >= chunkSize {
-		buf = (*p)[:chunkSize]
+	if p, ok := chunkBufs.Get().(*[]byte); ok && cap(*p) >= ch.size {
+		buf = (*p)[:ch.size]
 	} else {
-		buf = make([]byte, chunkSize)
+		buf = make([]byte, ch.size)
 	}
 	n := copy(buf, ch.rest)
 	// Filled by hand rather than by io.ReadFull, which turns a plain end of the stream after a
@@ -292,7 +295,7 @@ func (s *parseSpec) parsePlain(data []byte, line, rows int, c *parsedChunk) {
 			line++
 			continue // blank lines are skipped, as encoding/csv does
 		}
-		if fastRows && s.fastRow(c, ln, line) {
+		if !s.generalRows && s.fastRow(c, ln, line) {
 			line++
 			continue
 		}

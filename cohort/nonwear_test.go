@@ -39,6 +39,7 @@ func marked(m []bool) int {
 // of zero counts, with interruptions of up to 2 minutes of 1–100 counts a minute. Each case's
 // expected periods follow from that definition by hand.
 func TestTroianoNonWear(t *testing.T) {
+	t.Parallel()
 	for _, c := range []struct {
 		name string
 		step time.Duration
@@ -77,6 +78,7 @@ func TestTroianoNonWear(t *testing.T) {
 // Read with the rule, a participant's non-wear windows are left out and counted, and the table
 // says so; without times the rule is refused.
 func TestReadLeavesOutNonWear(t *testing.T) {
+	t.Parallel()
 	dir := t.TempDir()
 	var b strings.Builder
 	b.WriteString("participant,window,counts,vm\n")
@@ -126,6 +128,7 @@ func TestReadLeavesOutNonWear(t *testing.T) {
 // with interruptions of up to 2 minutes of any counts that have 30 minutes of zeros before and
 // after them. Expected periods worked by hand from that definition.
 func TestChoiNonWear(t *testing.T) {
+	t.Parallel()
 	for _, c := range []struct {
 		name string
 		runs [][2]float64
@@ -152,6 +155,7 @@ func TestChoiNonWear(t *testing.T) {
 // Choi's algorithm should find the planted non-wear (sensitivity) and leave the worn minutes,
 // nights included, alone (specificity): both at least 0.95, the target of issue 30.
 func TestChoiOnPlantedWear(t *testing.T) {
+	t.Parallel()
 	rng := rand.New(rand.NewPCG(30, 2))
 	var tp, fn, tn, fp int
 	var ttp, tfn, ttn, tfp int // Troiano's rule on the same minutes, for comparison

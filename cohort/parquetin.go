@@ -126,7 +126,10 @@ func (r *reader) readParquet(p string) (err error) {
 		k := leaves[roles.order].Node.Type().Kind()
 		intOrder = unit > 0 || k == parquet.Int32 || k == parquet.Int64
 	}
-	spec := &pqSpec{file: p, fileIdx: fileIdx, header: header, roles: roles, unit: unit, intOrder: intOrder, nf: len(r.features), labels: r.hasLabels, workers: r.opts.Workers}
+	spec := &pqSpec{file: p, fileIdx: fileIdx, header: header, roles: roles, unit: unit, intOrder: intOrder, nf: len(r.features), labels: r.hasLabels, workers: r.opts.Workers, rows: r.opts.tuning.parquetRows}
+	if spec.rows <= 0 {
+		spec.rows = pqRows
+	}
 	rows := 0
 	total := pf.NumRows()
 	emit := func(c *parsedChunk) error {
@@ -174,6 +177,7 @@ type pqSpec struct {
 	nf       int
 	labels   bool
 	workers  int // goroutines for the columns and rows (0: one per core)
+	rows     int // rows read at a time (pqRows)
 }
 
 // pqBuffers are the slices one read of rows fills, kept for the next.
@@ -206,9 +210,10 @@ type pqError struct {
 	err error
 }
 
-// pqRows is how many rows of a row group are read at a time: the chunk they make is what is
+// pqRows is how many rows of a row group are read at a time, unless ReadOptions.tuning says
+// otherwise: the chunk they make is what is
 // held in memory, whatever the size of the group.
-var pqRows = 1 << 16
+const pqRows = 1 << 16
 
 // readGroup reads one row group column by column, pqRows rows at a time with the columns on
 // all cores, and hands each slice to emit as a chunk in store layout. before is the number of
@@ -261,9 +266,9 @@ func (s *pqSpec) readGroup(ctx context.Context, rg parquet.RowGroup, before int,
 			}
 		}()
 		sets := [2]*pqBuffers{}
-		for k, start := 0, 0; start < total; k, start = k+1, start+pqRows {
+		for k, start := 0, 0; start < total; k, start = k+1, start+s.rows {
 			s.bufs = sets[k%2]
-			c, err := s.readRows(cols, cursors, before+start, min(pqRows, total-start))
+			c, err := s.readRows(cols, cursors, before+start, min(s.rows, total-start))
 			sets[k%2] = s.bufs
 			select {
 			case out <- read{c, err}:

@@ -63,6 +63,9 @@ type ReadOptions struct {
 	MemoryValues int64
 	// Workers is how many goroutines parse at once (0: one per core); it never changes the table.
 	Workers int
+	// tuning sets how the reader cuts its work; none of it changes the table, which tests
+	// check by changing it.
+	tuning readTuning
 	// Pseudonym, when set, replaces every participant id of the table (its units and its
 	// exclusions) as the table is made, so that nothing taken from it (a windows file, a piece,
 	// an output) holds a study id; messages about the input still name the ids as read, for the
@@ -160,6 +163,14 @@ type Exclusion struct {
 	Ordinal  int // as Unit.Ordinal
 	Windows  int
 	Reason   string
+}
+
+// readTuning is how the reader cuts its work (ReadOptions.tuning); the zero value is the
+// default of each.
+type readTuning struct {
+	chunkBytes  int  // bytes read per chunk of text, extended to the end of a line; 0: 4 MiB
+	generalRows bool // every row through the general reader, none through fastRow
+	parquetRows int  // rows of a Parquet row group read at a time; 0: 65,536
 }
 
 // Note is a column or feature that was not used, with why.
@@ -558,6 +569,7 @@ func (r *reader) readFile(p string) error {
 			line += strings.Count(f, "\n") // quoted newlines
 		}
 		spec := newParseSpec(p, fileIdx, header, roles, delim, r.comma)
+		spec.generalRows = r.opts.tuning.generalRows
 		err = r.parseBody(br, spec, line+1, func(c *parsedChunk) error {
 			if err := r.checkKinds(p, header, roles, c); err != nil {
 				return err

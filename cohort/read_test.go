@@ -55,6 +55,7 @@ func itoa(i int) string { return strconv.Itoa(i) }
 
 // Each bad input ends in the exact one-line message users see.
 func TestReadErrors(t *testing.T) {
+	t.Parallel()
 	dir := t.TempDir()
 	good := rowsOf(3, ",")
 	long := rowsOf(4000, ",") // past the 64 KiB the reader looks at before it starts
@@ -177,6 +178,7 @@ func TestReadErrors(t *testing.T) {
 }
 
 func TestReadMissingPaths(t *testing.T) {
+	t.Parallel()
 	dir := t.TempDir()
 	for _, c := range []struct{ path, want string }{
 		{filepath.Join(dir, "nope.csv"), "cannot open: no such file or directory; check the path"},
@@ -201,6 +203,7 @@ func TestReadMissingPaths(t *testing.T) {
 
 // Inputs that are accepted, and the policy each shows in the result.
 func TestReadPolicies(t *testing.T) {
+	t.Parallel()
 	dir := t.TempDir()
 	good := rowsOf(25, ",")
 	cases := []struct {
@@ -372,9 +375,7 @@ func FuzzRead(f *testing.F) {
 		tab, err := Read(context.Background(), []string{p}, ReadOptions{MinWindows: 1})
 		// The one-scan path for plain lines and the general path must agree on every input:
 		// the same error, or the same table bit for bit.
-		fastRows = false
-		slow, serr := Read(context.Background(), []string{p}, ReadOptions{MinWindows: 1})
-		fastRows = true
+		slow, serr := Read(context.Background(), []string{p}, ReadOptions{MinWindows: 1, tuning: readTuning{generalRows: true}})
 		if (err == nil) != (serr == nil) || (err != nil && err.Error() != serr.Error()) {
 			t.Fatalf("fast path: %v; general path: %v", err, serr)
 		}
@@ -416,6 +417,7 @@ func sameTable(t *testing.T, a, b *Table) {
 // The result does not depend on the chunk size: tiny chunks cut every line and quoted field
 // boundary there is, and must give the same table as one chunk.
 func TestReadSameWhateverTheChunkSize(t *testing.T) {
+	t.Parallel()
 	dir := t.TempDir()
 	var b strings.Builder
 	b.WriteString("participant,window,f1,f2,note\r\n")
@@ -427,11 +429,9 @@ func TestReadSameWhateverTheChunkSize(t *testing.T) {
 		b.WriteString("P" + itoa(i%4) + "," + itoa(i/4) + "," + itoa(i%13) + ".25,-" + itoa(i%5) + "e-1," + note + "\r\n")
 	}
 	p := write(t, dir, "c.csv", []byte(b.String()))
-	defer func(old int) { chunkSize = old }(chunkSize)
 	var first *Table
 	for _, size := range []int{4 << 20, 97, 13, 1} {
-		chunkSize = size
-		tab, err := Read(context.Background(), []string{p}, ReadOptions{})
+		tab, err := Read(context.Background(), []string{p}, ReadOptions{tuning: readTuning{chunkBytes: size}})
 		if err != nil {
 			t.Fatalf("chunk %d: %v", size, err)
 		}
@@ -459,6 +459,7 @@ func TestReadSameWhateverTheChunkSize(t *testing.T) {
 
 // The fast number path agrees with strconv.ParseFloat bit for bit.
 func TestParseNumberFastPath(t *testing.T) {
+	t.Parallel()
 	for _, s := range []string{"0", "-0", "1.5", "0.0314", "-12.3456", "123456789012345", "0.000000000000001", "9.99999999999999", ".5", "+3.25", " 7.5 ", "1e-3", "12345678901234567", "NA", "", "1,5"} {
 		want, werr := parseNumber(s, false)
 		got, gerr := parseNumberBytes([]byte(s), false)
@@ -492,6 +493,7 @@ func order(t testing.TB, tab *Table, u int) []int64 {
 // Past spillAfter values the windows go to a temporary file, which gives the same table, up to
 // the float32 rounding of the features in the file, and is removed by Close.
 func TestSpillGivesTheSameTable(t *testing.T) {
+	t.Parallel()
 	dir := t.TempDir()
 	var d strings.Builder
 	for i := 0; i < 30; i++ {
@@ -502,10 +504,8 @@ func TestSpillGivesTheSameTable(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	defer func(old int64) { spillAfter = old }(spillAfter)
-	spillAfter = 50
 	tmp := t.TempDir()
-	spilled, err := Read(context.Background(), []string{p}, ReadOptions{TempDir: tmp})
+	spilled, err := Read(context.Background(), []string{p}, ReadOptions{TempDir: tmp, MemoryValues: 50})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -535,6 +535,7 @@ func TestSpillGivesTheSameTable(t *testing.T) {
 
 // A folder of per-participant files, or a glob of them, reads like the files named one by one.
 func TestReadFolderAndGlob(t *testing.T) {
+	t.Parallel()
 	dir := t.TempDir()
 	for i, p := range []string{"A", "B", "C"} {
 		var b strings.Builder
@@ -582,6 +583,7 @@ func writeSheet(t *testing.T, path string, rows [][]any, merge string) {
 }
 
 func TestReadXLSX(t *testing.T) {
+	t.Parallel()
 	dir := t.TempDir()
 	rows := [][]any{{"participant", "window", "f1", "f2", "site"}}
 	start := time.Date(2026, 3, 2, 8, 0, 0, 0, time.UTC)
@@ -635,6 +637,7 @@ type pqTimeRow struct {
 
 // Parquet input reads like the same table as CSV, with nulls as missing cells.
 func TestReadParquet(t *testing.T) {
+	t.Parallel()
 	dir := t.TempDir()
 	var rows []pqRow
 	var csvText strings.Builder
@@ -668,9 +671,7 @@ func TestReadParquet(t *testing.T) {
 	}
 	// Read in slices of 7 rows (the columns are read pqRows rows at a time, across pages), the
 	// table is the same.
-	defer func(old int) { pqRows = old }(pqRows)
-	pqRows = 7
-	sliced, err := Read(context.Background(), []string{pq}, ReadOptions{})
+	sliced, err := Read(context.Background(), []string{pq}, ReadOptions{tuning: readTuning{parquetRows: 7}})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -790,6 +791,7 @@ func FuzzReadXLSX(f *testing.F) {
 // FuzzReadXLSX and FuzzReadParquet, run with `-fuzzminimizetime 10x` (see the README): with the
 // default minimizing time (60 s for each new input) they seemed to stall at 0 execs/s.
 func TestDamagedBinaryInputs(t *testing.T) {
+	t.Parallel()
 	dir := t.TempDir()
 	xl := excelize.NewFile()
 	xl.SetSheetRow("Sheet1", "A1", &[]any{"participant", "window", "f1"})
@@ -849,6 +851,7 @@ func TestDamagedBinaryInputs(t *testing.T) {
 // from 1 to 15 digits, wherever the cell sits in a line (the word-at-a-time reading looks past a
 // cell's end, into bytes that are digits here on purpose), and refuses what it does not read.
 func TestScanDecimalMatchesStrconv(t *testing.T) {
+	t.Parallel()
 	rng := rand.New(rand.NewPCG(3, 4))
 	buf := make([]byte, 0, 64)
 	for n := 0; n < 200000; n++ {
@@ -903,6 +906,7 @@ func TestScanDecimalMatchesStrconv(t *testing.T) {
 // reads as the same table as one grouped by participant, in memory and spilled, in one chunk or
 // many: the interleaved windows are gathered per participant as each chunk is merged.
 func TestInterleavedReadsLikeGrouped(t *testing.T) {
+	t.Parallel()
 	dir := t.TempDir()
 	var grouped, interleaved strings.Builder
 	grouped.WriteString("participant,window,f1,f2\n")
@@ -920,7 +924,6 @@ func TestInterleavedReadsLikeGrouped(t *testing.T) {
 			interleaved.WriteString(cell(p, w))
 		}
 	}
-	defer func(c int, s int64) { chunkSize, spillAfter = c, s }(chunkSize, spillAfter)
 	// compare reads both files with large and small chunks, in memory and spilled; stretches,
 	// when above 0, is how many stretches of the store each interleaved participant must be
 	// read from in place.
@@ -931,12 +934,12 @@ func TestInterleavedReadsLikeGrouped(t *testing.T) {
 			chunk int
 			spill int64
 		}{{4 << 20, 8 << 20}, {4096, 8 << 20}, {4096, 500}} {
-			chunkSize, spillAfter = setting.chunk, setting.spill
-			a, err := Read(context.Background(), []string{gp}, ReadOptions{})
+			opts := ReadOptions{MemoryValues: setting.spill, tuning: readTuning{chunkBytes: setting.chunk}}
+			a, err := Read(context.Background(), []string{gp}, opts)
 			if err != nil {
 				t.Fatal(err)
 			}
-			b, err := Read(context.Background(), []string{ip}, ReadOptions{})
+			b, err := Read(context.Background(), []string{ip}, opts)
 			if err != nil {
 				t.Fatal(err)
 			}
@@ -977,6 +980,7 @@ func TestInterleavedReadsLikeGrouped(t *testing.T) {
 // is cut (the body, the last block, the trailer), and never a table read in part: a cut file
 // once gave 50 of 60 participants, or its last value cut from 0.1414 to 0.14, and exit 0.
 func TestTruncatedGzipIsAnError(t *testing.T) {
+	t.Parallel()
 	dir := t.TempDir()
 	var b strings.Builder
 	b.WriteString("participant,window,f1,f2\n")
@@ -997,10 +1001,8 @@ func TestTruncatedGzipIsAnError(t *testing.T) {
 	for _, cut := range cuts {
 		for _, size := range []int{4 << 20, 1 << 10} { // one chunk, and many
 			func() {
-				defer func(old int) { chunkSize = old }(chunkSize)
-				chunkSize = size
 				p := write(t, dir, "cut.csv.gz", full[:cut])
-				tab, err := Read(context.Background(), []string{p}, ReadOptions{})
+				tab, err := Read(context.Background(), []string{p}, ReadOptions{tuning: readTuning{chunkBytes: size}})
 				if err == nil {
 					t.Fatalf("cut at byte %d of %d, chunks of %d: read %d participants, want an error", cut, len(full), size, len(tab.Units))
 				}
@@ -1017,6 +1019,7 @@ func TestTruncatedGzipIsAnError(t *testing.T) {
 // whether the first window is at midnight (a whole-day serial, once taken for an integer order
 // and refused with "is an integer but the order column held times") or later.
 func TestReadXLSXDatesAcrossMidnight(t *testing.T) {
+	t.Parallel()
 	dir := t.TempDir()
 	for _, tc := range []struct {
 		name  string

@@ -13,6 +13,7 @@ import (
 // Read in shards, the participants fall apart by id and together make up the whole read: the
 // same units with the same ordinals and windows, the same exclusions, and counts that add up.
 func TestShardsMakeUpTheWholeRead(t *testing.T) {
+	t.Parallel()
 	dir := t.TempDir()
 	var a, b strings.Builder
 	a.WriteString("participant,window,f1,f2,flat\n")
@@ -95,6 +96,7 @@ func TestShardsMakeUpTheWholeRead(t *testing.T) {
 // A windows file gives back the table it was written from: the same units, ordinals, labels,
 // windows and order keys, in memory and spilled; other files are refused.
 func TestWindowsFileGivesBackTheTable(t *testing.T) {
+	t.Parallel()
 	dir := t.TempDir()
 	var b strings.Builder
 	b.WriteString("participant,window,f1,f2,act\n")

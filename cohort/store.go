@@ -14,8 +14,8 @@ import (
 const segRows = 1 << 15
 
 // spillAfter is the number of values a store keeps in memory before it moves them to a
-// temporary file (64 MiB of float64); tests set it small.
-var spillAfter int64 = 8 << 20
+// temporary file (64 MiB of float64), unless ReadOptions.MemoryValues says otherwise.
+const spillAfter int64 = 8 << 20
 
 // store holds windows out of the heap's way, width values a window: in memory while they are
 // few, then in a temporary file, read back one participant at a time. In the file a window's

@@ -25,6 +25,7 @@ func FuzzTextFault(f *testing.F) {
 }
 
 func TestTextFault(t *testing.T) {
+	t.Parallel()
 	for _, c := range []struct {
 		in    string
 		whole bool
@@ -48,6 +49,7 @@ func TestTextFault(t *testing.T) {
 
 // lineLimit refuses a line past MaxLineBytes whatever the reads' sizes, and passes the rest.
 func TestLineLimit(t *testing.T) {
+	t.Parallel()
 	ok := strings.Repeat(strings.Repeat("x", 1000)+"\n", 3000) + strings.Repeat("y", MaxLineBytes) + "\nend"
 	if b, err := io.ReadAll(newLineLimit(strings.NewReader(ok), "f")); err != nil || !bytes.Equal(b, []byte(ok)) {
 		t.Fatalf("a line of exactly the limit: %v", err)

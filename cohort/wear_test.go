@@ -51,6 +51,7 @@ func wearCohort(t *testing.T, people map[string][]int) string {
 // days are excluded with the reason, the accounting adds up, and days are read on the study's
 // wall clock, so the day daylight saving time ends has 25 hours.
 func TestValidDays(t *testing.T) {
+	t.Parallel()
 	p := wearCohort(t, map[string][]int{
 		"A": {12, 12, 12, 12, 12, 12, 12}, // 7 valid days, Saturday and Sunday among them
 		"B": {12, 12, 12, 6, 6, 6, 6},     // 3 valid days
@@ -125,6 +126,7 @@ func TestValidDays(t *testing.T) {
 // each day's first hour of recording belongs to the day before; a zone that is not known is
 // refused.
 func TestValidDaysInUTC(t *testing.T) {
+	t.Parallel()
 	p := wearCohort(t, map[string][]int{"A": {12, 12, 12, 12, 12, 12, 12}})
 	tab, err := Read(context.Background(), []string{p}, ReadOptions{NonWear: NonWearChoi, ValidDay: DefaultValidDay})
 	if err != nil {
@@ -143,6 +145,7 @@ func TestValidDaysInUTC(t *testing.T) {
 // out as non-wear, it is no feature, it works in a shard too, and a value other than 0 or 1 is
 // an error naming the line.
 func TestWearColumn(t *testing.T) {
+	t.Parallel()
 	dir := t.TempDir()
 	var b strings.Builder
 	b.WriteString("participant,window,vm,sd,worn\n")
@@ -185,6 +188,7 @@ func TestWearColumn(t *testing.T) {
 // Times without an offset repeat an hour where daylight saving time ends; the duplicate is an
 // error that says so and what to give instead.
 func TestRepeatedHourIsExplained(t *testing.T) {
+	t.Parallel()
 	var b strings.Builder
 	b.WriteString("participant,window,vm\n")
 	t0 := time.Date(2026, 10, 25, 1, 0, 0, 0, time.UTC)

@@ -11,6 +11,7 @@ import (
 // scale and offset it was given (planted structure). The tolerance is about three standard
 // errors of the fit with 500 windows and noise of 0.01 g.
 func TestSphereCalibrationRecoversAPlantedCalibration(t *testing.T) {
+	t.Parallel()
 	for _, tt := range []struct {
 		name          string
 		scale, offset [3]float64

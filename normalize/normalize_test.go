@@ -18,6 +18,7 @@ func offsetUnits() [][]float64 {
 }
 
 func TestICCSeparatesOffsetFeatures(t *testing.T) {
+	t.Parallel()
 	icc := ICC(offsetUnits(), 2)
 	// f0: between-participant variance dominates (offset 10); f1: none. Hand check of ICC(1):
 	// MSB of f1 is tiny, so ICC(1) is at or below 0; that of f0 is close to 1.
@@ -27,6 +28,7 @@ func TestICCSeparatesOffsetFeatures(t *testing.T) {
 }
 
 func TestRestBaselineRemovesOffsets(t *testing.T) {
+	t.Parallel()
 	fit, out, err := FitTransform([]string{"f0", "f1"}, offsetUnits(), Options{Within: WithinRest, RestShare: 0.2, NoPCA: true, Scale: ScaleZ})
 	if err != nil {
 		t.Fatal(err)
@@ -56,6 +58,7 @@ func TestRestBaselineRemovesOffsets(t *testing.T) {
 }
 
 func TestWarnsWhenZScoringEverything(t *testing.T) {
+	t.Parallel()
 	fit, _, err := FitTransform([]string{"f0", "f1"}, offsetUnits(), Options{Within: WithinRobustZ, WithinFeatures: []string{"*"}, NoPCA: true})
 	if err != nil {
 		t.Fatal(err)
@@ -66,6 +69,7 @@ func TestWarnsWhenZScoringEverything(t *testing.T) {
 }
 
 func TestOptionErrors(t *testing.T) {
+	t.Parallel()
 	if _, err := ParseWithin("median"); !errors.Is(err, ErrOption) || !strings.Contains(err.Error(), "use align, rest, centre, robust-z or none") {
 		t.Errorf("got %v", err)
 	}
@@ -79,6 +83,7 @@ func TestOptionErrors(t *testing.T) {
 // window alone, so it is the same in any order and any process; another seed or participant
 // draws other windows, and the share drawn is the rate.
 func TestSampledIsReproducible(t *testing.T) {
+	t.Parallel()
 	n, hits, sameOtherSeed, sameOtherUnit := 100000, 0, 0, 0
 	first := make([]bool, n)
 	for w := 0; w < n; w++ {
@@ -122,6 +127,7 @@ func ExampleICC() {
 // The baselines kept from the fitting pass give what finding them anew gives, bit for bit, and
 // the windows handed to Keep, finished by Cohort, are the sampled rows of Apply's output.
 func TestKeptBaselinesAndSampleMatchApply(t *testing.T) {
+	t.Parallel()
 	units := make([][]float64, 6)
 	for u := range units {
 		for w := 0; w < 40; w++ {
@@ -170,6 +176,7 @@ func TestKeptBaselinesAndSampleMatchApply(t *testing.T) {
 // bit what the within-participant step followed by Cohort gives, for every within mode, with and
 // without the projection, over more windows than one block, and into a reused buffer.
 func TestOneGoApplyMatchesTwoSteps(t *testing.T) {
+	t.Parallel()
 	units := make([][]float64, 5)
 	for u := range units {
 		for w := 0; w < applyRows+37; w++ {
@@ -220,6 +227,7 @@ func TestOneGoApplyMatchesTwoSteps(t *testing.T) {
 
 // Every within step's name reads back as the step, and the help names them all.
 func TestWithinStepsReadBack(t *testing.T) {
+	t.Parallel()
 	for _, s := range withinSteps {
 		w, err := ParseWithin(s.name)
 		if err != nil || w != s.w || w.String() != s.name || !strings.Contains(WithinHelp(), s.name+" (") {

@@ -92,6 +92,7 @@ func randomWindow(rng *rand.Rand) ([3]float64, [9]float64) {
 // and the tilt exactly as its definition gives it, with a window's own deviation from the
 // angle of its mean kept.
 func TestTurnGivesBackTheWristFrame(t *testing.T) {
+	t.Parallel()
 	axes := []int{0, 1, 2}
 	f := &Fit{Features: turnNames, Axes: axes, Logged: make([]bool, len(turnNames)), LogShift: make([]float64, len(turnNames))}
 	rng := rand.New(rand.NewPCG(3, 4))
@@ -143,6 +144,7 @@ func TestTurnGivesBackTheWristFrame(t *testing.T) {
 }
 
 func TestFindTurned(t *testing.T) {
+	t.Parallel()
 	rng := rand.New(rand.NewPCG(5, 6))
 	window := func(angle func(m [3]float64) float64) []float64 {
 		m, c := randomWindow(rng)
@@ -203,6 +205,7 @@ func TestFindTurned(t *testing.T) {
 }
 
 func TestTurnedCheck(t *testing.T) {
+	t.Parallel()
 	axes := []int{0, 1, 2}
 	cases := []struct {
 		name string
@@ -230,6 +233,7 @@ func TestTurnedCheck(t *testing.T) {
 // the bit what turning and logging them in one go (ApplyDeviceInto) gives: each feature is
 // logged once, after the turn, either way. With and without the projection.
 func TestLoggedApplyMatchesOneGo(t *testing.T) {
+	t.Parallel()
 	rng := rand.New(rand.NewPCG(7, 8))
 	units := make([][]float64, 4)
 	for u := range units {

@@ -7,6 +7,7 @@ import (
 )
 
 func TestMonotoneTwins(t *testing.T) {
+	t.Parallel()
 	rng := rand.New(rand.NewPCG(1, 2))
 	const n = 2000
 	// counts, log1p(counts) to 2 decimals (large counts tie), a 10-window mean of counts,

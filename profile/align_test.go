@@ -57,6 +57,7 @@ func plantedDevices(n, windows int) (units [][]float64, states [][]int, rot [][]
 // The aligned fit finds the states and, participant by participant, the device that was
 // planted: its rotation, its calibration offset and its gain.
 func TestFitAlignedRecoversPlantedDevices(t *testing.T) {
+	t.Parallel()
 	features := []string{"mean_x", "mean_y", "mean_z", "bias", "amp", "freq"}
 	units, truth, rot, bias, gain := plantedDevices(40, 400)
 	fit := alignStep(t, features, units, true, 0)
@@ -137,6 +138,7 @@ func angleBetween(a, b []float64) float64 {
 // (planted structure: the devices of TestFitAlignedRecoversPlantedDevices; PCA keeping 90 % of
 // the variance, so that the projection drops a dimension).
 func TestAssignUnitMatchesAlignUnit(t *testing.T) {
+	t.Parallel()
 	units, _, _, _, _ := plantedDevices(30, 300)
 	for _, pca := range []struct {
 		no    bool
@@ -174,6 +176,7 @@ func TestAssignUnitMatchesAlignUnit(t *testing.T) {
 // devices with large offsets and turns (synthetic devices on the planted cohort above); a
 // wrong term in the scores moves many windows.
 func TestFoldedScoresMatchTheDistances(t *testing.T) {
+	t.Parallel()
 	units, _, _, _, _ := plantedDevices(20, 300)
 	fit, states := alignedFit(t, units, false, 0.9)
 	rng := rand.New(rand.NewPCG(9, 0))
@@ -310,6 +313,7 @@ func windowARI(t *testing.T, a *aligner, truth [][]int) float64 {
 // by one half of the participants only, are tried as twins too and kept apart, since no turn of
 // the devices makes one state of them. Planted structure: slantedCohort, devices turned ±30°.
 func TestFoldTwinsUndoesAPostureHeldTwice(t *testing.T) {
+	t.Parallel()
 	ctx := context.Background()
 	opts := AlignOptions{Rounds: 10, Twins: 3}
 	units, truth, half := slantedCohort(40, 400, 30, false)

@@ -11,6 +11,7 @@ import (
 // The exact sum is checked against math/big (Go's standard library), which adds at 4,000 bits
 // here, far more than any sum of these numbers needs, and rounds to nearest even.
 func TestExactSumIsCorrectlyRoundedInAnyOrder(t *testing.T) {
+	t.Parallel()
 	rng := rand.New(rand.NewPCG(1, 2))
 	cases := map[string][]float64{
 		"cancelling":   {1e16, 1, -1e16},
@@ -47,6 +48,7 @@ func TestExactSumIsCorrectlyRoundedInAnyOrder(t *testing.T) {
 // Describers merged in any grouping and order give the same bits, and a piece read back is the
 // Describer it was written from.
 func TestDescriberMergesExactly(t *testing.T) {
+	t.Parallel()
 	rng := rand.New(rand.NewPCG(3, 4))
 	const d, k, units = 3, 2, 12
 	parts := make([]*Describer, units)

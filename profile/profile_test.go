@@ -13,6 +13,7 @@ import (
 )
 
 func TestSignatures(t *testing.T) {
+	t.Parallel()
 	s := Signatures([]int{0, 0, 1, 1, 1, 0, 2, 2, 0, 0}, 4)
 	want := Signature{Share: []float64{0.5, 0.3, 0.2, 0}, MeanBout: []float64{5.0 / 3, 3, 2, 0}, Bouts: []int{3, 1, 1, 0}, Windows: 10}
 	for j := range want.Share {
@@ -44,6 +45,7 @@ func plantedBlocks() ([][]float64, [][]int) {
 }
 
 func TestFitStatesRecoversPlantedStates(t *testing.T) {
+	t.Parallel()
 	blocks, truth := plantedBlocks()
 	sample := Sample(normalize.SliceBlocks(blocks), 3, 2000, 4000, 1)
 	// The valley rule fits 6 states and merges the two pairs that split a planted state (one
@@ -93,6 +95,7 @@ func TestFitStatesRecoversPlantedStates(t *testing.T) {
 }
 
 func TestFitStatesErrors(t *testing.T) {
+	t.Parallel()
 	blocks, _ := plantedBlocks()
 	if _, err := FitStates(context.Background(), Sample(normalize.SliceBlocks(blocks), 3, 0, 4000, 1), Options{States: []int{4, 3}}); !errors.Is(err, ErrOption) {
 		t.Errorf("decreasing range: %v", err)
@@ -111,6 +114,7 @@ func ExampleSignatures() {
 // Describing participants apart and merging the parts gives the same means and shares as
 // describing them in one Describer (sums in another order: equal to rounding).
 func TestDescriberMergeMatchesOneDescriber(t *testing.T) {
+	t.Parallel()
 	a, b := []float64{1, 2, 3, 4, 5, 6}, []float64{7, 8, 9, 10.5}
 	la, lb := []int{0, 1, 1}, []int{0, 0}
 	one := NewDescriber(2, 2)
@@ -139,6 +143,7 @@ func TestDescriberMergeMatchesOneDescriber(t *testing.T) {
 // Issue 30: a bout does not run across an interruption of the recording. States 0 0 | 0 1 1:
 // without the gap state 0 has one bout of 3 windows, with it two of 1.5.
 func TestSignaturesBrokenByGaps(t *testing.T) {
+	t.Parallel()
 	labels := []int{0, 0, 0, 1, 1}
 	whole := Signatures(labels, 2)
 	broken := SignaturesBroken(labels, 2, []bool{false, false, true, false, false})

@@ -13,6 +13,7 @@ import (
 // Van Someren et al. 1999 written again with numpy, on an invented five-day series with a gap
 // and missing windows). Tolerance 1e-9 relative: numpy sums pairwise, Go in order.
 func TestRhythmMatchesNumpy(t *testing.T) {
+	t.Parallel()
 	f, err := os.Open("../testdata/rhythm/series.csv")
 	if err != nil {
 		t.Fatal(err)

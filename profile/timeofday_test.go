@@ -7,6 +7,7 @@ import (
 
 // Hours and weekends by the calendar (2026-12-05 is a Saturday, 12-07 a Monday).
 func TestTimeOfDayOf(t *testing.T) {
+	t.Parallel()
 	at := func(s string) int64 {
 		v, err := time.Parse("2006-01-02T15:04", s)
 		if err != nil {
@@ -24,6 +25,7 @@ func TestTimeOfDayOf(t *testing.T) {
 }
 
 func TestDayParts(t *testing.T) {
+	t.Parallel()
 	for _, tc := range []struct {
 		p    DayParts
 		want string // the part of each hour 0–23

@@ -16,6 +16,7 @@ import (
 // gives a bout shorter than one window (a mean over all members, with 0 for those who never
 // enter a state, did: "0.53 windows"). Scenario 397 of the family has rarely entered states.
 func TestGroupLinesGiveNoBoutShorterThanAWindow(t *testing.T) {
+	t.Parallel()
 	path := filepath.Join(t.TempDir(), "c.csv")
 	if _, err := synth.WriteFile(path, synth.Options{Scenario: 397, Seed: 1, Participants: 80, Windows: 1000}); err != nil {
 		t.Fatal(err)
@@ -46,6 +47,7 @@ func TestGroupLinesGiveNoBoutShorterThanAWindow(t *testing.T) {
 // Issue 29: a difference whose numbers print alike ("<1% against <1%") is not told; one that
 // prints apart is.
 func TestGroupLinesTellOnlyPrintedDifferences(t *testing.T) {
+	t.Parallel()
 	unit := func(id string, group int, shares ...float64) job.UnitRow {
 		return job.UnitRow{ID: id, Group: group, Share: shares, Bout: []float64{10, 10, 10}, Windows: 100}
 	}

@@ -67,6 +67,7 @@ func fixture(t testing.TB, n int, id func(i int) string) *Result {
 }
 
 func TestWorkbookOpensWithSheetsFormatsAndCharts(t *testing.T) {
+	t.Parallel()
 	r := fixture(t, 30, func(i int) string {
 		return []string{"=1+1", "+cmd", "-2", "@SUM(A1)", "P5"}[i%5] + strings.Repeat("x", i/5)
 	})
@@ -187,6 +188,7 @@ func flatten(rows [][]string) string {
 }
 
 func TestLargeCohortIsStreamed(t *testing.T) {
+	t.Parallel()
 	r := fixture(t, 20000, func(i int) string { return "P" + strings.Repeat("0", 5-len(digits(i))) + digits(i) })
 	f, err := BuildWorkbook(r)
 	if err != nil {
@@ -221,6 +223,7 @@ func TestLargeCohortIsStreamed(t *testing.T) {
 func digits(i int) string { return strconv.Itoa(i) }
 
 func TestWriteAtomicKeepsExistingOutput(t *testing.T) {
+	t.Parallel()
 	dir := t.TempDir()
 	p := filepath.Join(dir, "out.xlsx")
 	os.WriteFile(p, []byte("earlier"), 0o644)
@@ -241,6 +244,7 @@ func TestWriteAtomicKeepsExistingOutput(t *testing.T) {
 }
 
 func TestModelRoundTripAndDamage(t *testing.T) {
+	t.Parallel()
 	r := fixture(t, 12, func(i int) string { return "P" + digits(i) })
 	r.Norm.PCA = nil
 	m := job.NewModel(r, cohort.ReadOptions{ID: "participant", Order: "window"}, [][3]float64{{0, 1, 2}, {0, 1, 2}, {0, 1, 2}})
@@ -342,6 +346,7 @@ func FuzzParseModel(f *testing.F) {
 // A state that no feature sets apart is described without an empty fragment; intensity words
 // follow the features that measure how much the signal varies.
 func TestStateWords(t *testing.T) {
+	t.Parallel()
 	features := []string{"mean_x", "sd_x", "dom_freq"}
 	desc := []profile.Description{
 		{Share: 0, Mean: []float64{math.NaN(), math.NaN(), math.NaN()}},
@@ -375,6 +380,7 @@ func TestStateWords(t *testing.T) {
 // Issue 29: states are named apart, anchored where a feature of a known scale is there, and a
 // rare state does not stretch the scale of the others.
 func TestStateNames(t *testing.T) {
+	t.Parallel()
 	state := func(share float64, mean ...float64) profile.Description {
 		return profile.Description{Share: share, Mean: mean}
 	}
@@ -418,6 +424,7 @@ func TestStateNames(t *testing.T) {
 }
 
 func TestNaturalOrder(t *testing.T) {
+	t.Parallel()
 	ids := []string{"P10", "P2", "P1", "P100", "P02", "Q1", "P9a", "P9"}
 	sort.SliceStable(ids, func(a, b int) bool { return cohort.NaturalLess(ids[a], ids[b]) })
 	if got, want := strings.Join(ids, " "), "P1 P2 P02 P9 P9a P10 P100 Q1"; got != want {
@@ -441,6 +448,7 @@ func withoutField(t *testing.T, b []byte, name string) string {
 // in words on the Summary and on the Stability sheet; at the threshold it is not, and with one
 // number of groups given (no stability measured) neither sheet says anything of it.
 func TestTentativeGroupingIsFlagged(t *testing.T) {
+	t.Parallel()
 	cases := []struct {
 		name      string
 		scores    []group.KScore
@@ -476,6 +484,7 @@ func TestTentativeGroupingIsFlagged(t *testing.T) {
 // sheet (in windows and in minutes), where a bout that exists is written, and no part of its
 // group's mean bout on the Groups sheet.
 func TestNoBoutIsAnEmptyCell(t *testing.T) {
+	t.Parallel()
 	r := fixture(t, 6, func(i int) string { return "P" + digits(i) })
 	r.WindowLength = time.Minute
 	r.Units[0].Bout = []float64{1, 0, 3, 4}
@@ -524,6 +533,7 @@ func TestNoBoutIsAnEmptyCell(t *testing.T) {
 // or nothing beyond the rule's words when one number was fitted; the charts sheet shows a states
 // block only when there are scores to chart.
 func TestStatesChoiceIsRecorded(t *testing.T) {
+	t.Parallel()
 	cases := []struct {
 		name       string
 		candidates []profile.Candidate
@@ -565,6 +575,7 @@ func TestStatesChoiceIsRecorded(t *testing.T) {
 // The members CSV never hands a spreadsheet a formula: ids, waves and flags that start as a
 // formula would (=, +, -, @) get a leading apostrophe; plain ids are written as they are.
 func TestMembersCSVNeutralisesFormulas(t *testing.T) {
+	t.Parallel()
 	ids := []string{`=HYPERLINK("http://x","y")`, "+cmd|' /C calc'!A0", "@SUM(A1)", "-2", "P5"}
 	r := fixture(t, 5, func(i int) string { return ids[i] })
 	var b strings.Builder
@@ -593,6 +604,7 @@ func TestMembersCSVNeutralisesFormulas(t *testing.T) {
 // The dendrogram is a PNG of the stated size in which the tree's ink and every group's colour
 // appear (a picture that failed to draw its leaves or lines would lack them).
 func TestDendrogramDrawsTreeAndLeaves(t *testing.T) {
+	t.Parallel()
 	r := fixture(t, 30, func(i int) string { return "P" + digits(i) })
 	b, caption, err := Dendrogram(r)
 	if err != nil || b == nil || !strings.Contains(caption, "3 group centres") {

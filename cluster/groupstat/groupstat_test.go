@@ -41,6 +41,7 @@ func readKW(t *testing.T) kwGolden {
 func near(got, want, tol float64) bool { return scalar.EqualWithinRel(got, want, tol) }
 
 func TestKruskalWallisGolden(t *testing.T) {
+	t.Parallel()
 	// scipy.stats.kruskal 1.10.1 via testdata/cluster/make_golden.py: iris features by species and
 	// tied integers. H is a sum of rank ratios (1e-12 relative); p is a χ² tail from two different
 	// incomplete-gamma implementations (cephes vs gonum), 1e-9 relative.
@@ -62,6 +63,7 @@ func TestKruskalWallisGolden(t *testing.T) {
 }
 
 func TestCliffsDeltaGolden(t *testing.T) {
+	t.Parallel()
 	// δ = 2U/(mn) − 1 with U from scipy.stats.mannwhitneyu 1.10.1 (ties count one half): exact counts.
 	for i, c := range readKW(t).Cliff {
 		d, err := CliffsDelta(c.X, c.Y)
@@ -79,6 +81,7 @@ func TestCliffsDeltaGolden(t *testing.T) {
 // Hochberg (1995, section 4), and invented ones with ties and ones in no particular order. Both
 // are the same few divisions and running minima, so 1e-12 relative.
 func TestBenjaminiHochbergGolden(t *testing.T) {
+	t.Parallel()
 	b, err := os.ReadFile(filepath.Join("..", "..", "testdata", "cluster", "padjust.json"))
 	if err != nil {
 		t.Fatal(err)
@@ -106,6 +109,7 @@ func TestBenjaminiHochbergGolden(t *testing.T) {
 }
 
 func TestBenjaminiHochbergPublished(t *testing.T) {
+	t.Parallel()
 	// The fifteen p-values of Benjamini & Hochberg (1995), section 4 (as R's p.adjust gives them,
 	// TestBenjaminiHochbergGolden): at q = 0.05 the step-up procedure rejects the four smallest,
 	// where Bonferroni rejects three.
@@ -135,6 +139,7 @@ func TestBenjaminiHochbergPublished(t *testing.T) {
 }
 
 func TestErrors(t *testing.T) {
+	t.Parallel()
 	for _, c := range []struct {
 		name string
 		err  error
@@ -156,6 +161,7 @@ func TestErrors(t *testing.T) {
 }
 
 func TestCliffsDeltaProperties(t *testing.T) {
+	t.Parallel()
 	x := []float64{1, 2, 2, 5, 9}
 	y := []float64{2, 3, 3, 4}
 	d, _ := CliffsDelta(x, y)
@@ -206,6 +212,7 @@ func ExampleKruskalWallis() {
 // the mean of the two middle ones, as numpy.median), on random values with many ties and on
 // the orders that defeat a naive pivot (sorted, reversed, all equal, organ pipe).
 func TestMedianSelectsLikeASort(t *testing.T) {
+	t.Parallel()
 	rng := rand.New(rand.NewPCG(1, 2))
 	var cases [][]float64
 	for n := 1; n <= 300; n++ {
@@ -268,6 +275,7 @@ func TestMedianSelectsLikeASort(t *testing.T) {
 // CliffsDeltaVsRest must give exactly what CliffsDelta gives for each group against the others
 // put together (the same integer counts), on random groups with ties, and NaN for an empty group.
 func TestCliffsDeltaVsRestMatchesPairwise(t *testing.T) {
+	t.Parallel()
 	rng := rand.New(rand.NewPCG(13, 14))
 	for trial := 0; trial < 40; trial++ {
 		k := 2 + trial%4
@@ -307,6 +315,7 @@ func TestCliffsDeltaVsRestMatchesPairwise(t *testing.T) {
 // python3-numpy): np.quantile([3, 1, 4, 1, 5, 9, 2, 6], [0, 0.1, 0.25, 0.5, 0.99, 1]) =
 // [1, 1, 1.75, 3.5, 8.79, 9]; NaN is left out here (numpy.nanquantile).
 func TestQuantileMatchesNumpy(t *testing.T) {
+	t.Parallel()
 	xs := []float64{3, 1, 4, 1, 5, 9, 2, 6, math.NaN()}
 	for _, c := range []struct{ p, want float64 }{{0, 1}, {0.1, 1}, {0.25, 1.75}, {0.5, 3.5}, {0.99, 8.79}, {1, 9}} {
 		if got := Quantile(xs, c.p); math.Abs(got-c.want) > 1e-12 {
@@ -319,6 +328,7 @@ func TestQuantileMatchesNumpy(t *testing.T) {
 }
 
 func TestGroupMeans(t *testing.T) {
+	t.Parallel()
 	rows := [][]float64{{1, 10}, {3, 30}, {5, 50}, {100, 100}}
 	means, sizes := GroupMeans(rows, []int{0, 0, 1, -1}, 3)
 	want := [][]float64{{2, 20}, {5, 50}, {0, 0}}
@@ -335,6 +345,7 @@ func TestGroupMeans(t *testing.T) {
 // GroupMeansOfPositive averages each column over the rows of a group whose value is above 0,
 // leaves out rows with a negative label, and gives NaN where a group has no such row.
 func TestGroupMeansOfPositive(t *testing.T) {
+	t.Parallel()
 	rows := [][]float64{{2, 0}, {4, 0}, {0, 3}, {6, 5}, {100, 100}}
 	labels := []int{0, 0, 1, 1, -1}
 	got := GroupMeansOfPositive(rows, labels, 3)

@@ -12,6 +12,7 @@ import (
 // and when its budget of rounds runs out and it sorts the rest (budgets 0 and 1 force that).
 // The check is exact: a selection returns one of the input values.
 func TestQuickSelectIsExact(t *testing.T) {
+	t.Parallel()
 	rng := rand.New(rand.NewPCG(3, 4))
 	var cases [][]float64
 	for _, n := range []int{1, 2, 15, 16, 17, 100, 1260, 10080} {

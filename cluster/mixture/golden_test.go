@@ -65,6 +65,7 @@ type dmnGolden struct {
 }
 
 func TestDMMMatchesDirichletMultinomial(t *testing.T) {
+	t.Parallel()
 	var g struct {
 		Source string
 		DMN    []dmnGolden
@@ -137,6 +138,7 @@ func cmpFloat(a, b float64) int {
 }
 
 func TestOneDMMMatchesDirmult(t *testing.T) {
+	t.Parallel()
 	var g struct {
 		Source       string
 		DirmultTwins struct {
@@ -190,6 +192,7 @@ func TestOneDMMMatchesDirmult(t *testing.T) {
 }
 
 func TestTiedGaussianMatchesScikitLearn(t *testing.T) {
+	t.Parallel()
 	var g struct {
 		Source string
 		Fits   []struct {

@@ -63,6 +63,7 @@ func gammaDraw(rng *rand.Rand, shape float64) float64 {
 // BIC finds the number of planted Dirichlet laws, one among them: a cohort drawn around one
 // mixture is one group, and the fits' labels recover the planted ones (planted structure).
 func TestDMMFindsThePlantedNumberOfGroups(t *testing.T) {
+	t.Parallel()
 	for _, tt := range []struct {
 		name   string
 		groups [][]float64
@@ -98,6 +99,7 @@ func TestDMMFindsThePlantedNumberOfGroups(t *testing.T) {
 // from the fit's own memberships stays at the fit (a fixed point); the same seed gives the same
 // fit whatever the number of workers.
 func TestDMMPlaceAndWarmStartAgreeWithTheFit(t *testing.T) {
+	t.Parallel()
 	x, _ := dirichletCounts(rand.New(rand.NewPCG(9, 1)), [][]float64{{0.6, 0.3, 0.1}, {0.2, 0.2, 0.6}}, 40, 80, 300)
 	m, err := FitDMM(context.Background(), x, DMMOptions{K: 2, Seed: 1, Workers: 1})
 	if err != nil {
@@ -129,6 +131,7 @@ func TestDMMPlaceAndWarmStartAgreeWithTheFit(t *testing.T) {
 }
 
 func TestMixtureRefusesBadInput(t *testing.T) {
+	t.Parallel()
 	ctx := context.Background()
 	good := mat.NewDense(3, 2, []float64{1, 2, 3, 4, 5, 6})
 	for _, tt := range []struct {

@@ -10,6 +10,7 @@ import (
 // Lgamma over the range the fits meet (α from 1e-6, counts to 1e6), and the recurrences across
 // the switch to the asymptotic series at 10, which must hold to rounding.
 func TestLnGammaTermsMatchHandbookValues(t *testing.T) {
+	t.Parallel()
 	const euler = 0.57721566490153286061
 	for _, tt := range []struct {
 		name      string

@@ -11,6 +11,7 @@ import (
 // Ordered hands results over in index order whatever the workers, never reuses a slot before
 // its last result was consumed, and stops at the first error.
 func TestOrderedKeepsOrderAndSlots(t *testing.T) {
+	t.Parallel()
 	stop := errors.New("stop")
 	for _, w := range []int{1, 2, 7} {
 		for _, failAt := range []int{-1, 500} {
@@ -52,6 +53,7 @@ func TestOrderedKeepsOrderAndSlots(t *testing.T) {
 // Stream takes its items in turn, one call of next at a time, hands the results over in order
 // whatever the workers, and returns an error of next only after the results before it.
 func TestStreamTakesItemsInTurn(t *testing.T) {
+	t.Parallel()
 	readErr := errors.New("read")
 	for _, w := range []int{1, 2, 7} {
 		for _, failAt := range []int{-1, 0, 700} {

@@ -31,6 +31,7 @@ func (*nopWriter) Write(p []byte) (int, error) { return len(p), nil }
 
 // Each command turns its command line into the options it runs with.
 func TestCommandLinesBecomeOptions(t *testing.T) {
+	t.Parallel()
 	env, _, _ := testEnv()
 	t.Run("group", func(t *testing.T) {
 		var got *groupOptions

@@ -16,6 +16,7 @@ import (
 // every printed sheet, a title on every chart axis, and no sentence with an empty piece
 // (planted structure: synth seed 31, with times and labels).
 func TestWorkbookReadsForClinicians(t *testing.T) {
+	t.Parallel()
 	dir := t.TempDir()
 	in := filepath.Join(dir, "c.csv")
 	if _, err := synth.WriteFile(in, synth.Options{Participants: 60, Windows: 400, Seed: 31, Times: true, Labels: true}); err != nil {

@@ -83,6 +83,7 @@ type mainFlags struct {
 	Members, Model         string
 	Pseudonymize           string
 	Temp                   string
+	MemoryValues           int64
 	Force, Quiet           bool
 }
 
@@ -102,10 +103,6 @@ func (m *mainFlags) registerRead(cmd *cobra.Command) {
 	}
 }
 
-// memoryValues is the reader's in-memory limit (cohort.ReadOptions.MemoryValues; 0: its
-// default); tests lower it so that small inputs go to the temporary windows file.
-var memoryValues int64
-
 // parseMissing reads --missing: drop (the window) or impute (the participant's median).
 func parseMissing(s string) (cohort.Missing, error) {
 	switch s {
@@ -119,7 +116,7 @@ func parseMissing(s string) (cohort.Missing, error) {
 
 // readOptions turns the reading flags into the reader's settings.
 func (m *mainFlags) readOptions() (cohort.ReadOptions, error) {
-	ro := cohort.ReadOptions{ID: m.ID, Order: m.Order, Wave: m.Wave, Label: m.Label, Features: m.Features, MinWindows: m.MinWindows, TempDir: m.Temp, MemoryValues: memoryValues, Workers: m.Workers}
+	ro := cohort.ReadOptions{ID: m.ID, Order: m.Order, Wave: m.Wave, Label: m.Label, Features: m.Features, MinWindows: m.MinWindows, TempDir: m.Temp, MemoryValues: m.MemoryValues, Workers: m.Workers}
 	var err error
 	if ro.Missing, err = parseMissing(m.Missing); err != nil {
 		return ro, err

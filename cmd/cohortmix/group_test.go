@@ -55,6 +55,7 @@ func rangeOf(a, b int) []int {
 }
 
 func TestDemoRecoversPlantedGroups(t *testing.T) {
+	t.Parallel()
 	// Planted structure (synth): three groups, device offsets of s.d. 0.35 g, Dirichlet spread.
 	for _, seed := range []uint64{1, 2, 3} {
 		so := synth.Options{Seed: seed}
@@ -71,6 +72,7 @@ func TestDemoRecoversPlantedGroups(t *testing.T) {
 }
 
 func TestDemoCommand(t *testing.T) {
+	t.Parallel()
 	env, out, errb := testEnv()
 	dir := t.TempDir()
 	if code := run(context.Background(), env, []string{"demo", "--dir", dir, "--participants", "60", "--windows", "400"}); code != 0 {
@@ -120,6 +122,7 @@ func cohortText(n, w int) string {
 func itoa(i int) string { return strconv.Itoa(i) }
 
 func TestGroupErrors(t *testing.T) {
+	t.Parallel()
 	dir := t.TempDir()
 	good := cohortText(6, 30)
 	cases := []struct {
@@ -164,6 +167,7 @@ func TestGroupErrors(t *testing.T) {
 }
 
 func TestExclusionsAndAccounting(t *testing.T) {
+	t.Parallel()
 	dir := t.TempDir()
 	path := filepath.Join(dir, "cohort.csv")
 	if _, err := synth.WriteFile(path, synth.Options{Participants: 40, Windows: 300, Seed: 5}); err != nil {
@@ -220,6 +224,7 @@ func TestExclusionsAndAccounting(t *testing.T) {
 }
 
 func TestSameResultWhateverTheWorkers(t *testing.T) {
+	t.Parallel()
 	path := filepath.Join(t.TempDir(), "c.csv")
 	if _, err := synth.WriteFile(path, synth.Options{Participants: 60, Windows: 400, Seed: 9}); err != nil {
 		t.Fatal(err)
@@ -259,6 +264,7 @@ func defaultFlags() mainFlags {
 // Every participant and window that comes in is accounted for, in the workbook and the members
 // CSV, on several generated cohorts with missing cells and short participants.
 func TestAccountingOnGeneratedCohorts(t *testing.T) {
+	t.Parallel()
 	for _, seed := range []uint64{41, 42, 43} {
 		for _, missing := range []string{"drop", "impute"} {
 			dir := t.TempDir()
@@ -328,6 +334,7 @@ func TestAccountingOnGeneratedCohorts(t *testing.T) {
 }
 
 func TestCheckCommand(t *testing.T) {
+	t.Parallel()
 	dir := t.TempDir()
 	p := writeFile(t, dir, "c.csv", cohortText(4, 30)+"PZ,0,1.0,2.5\n")
 	out := mustRun(t, "check", p)

@@ -19,6 +19,7 @@ import (
 // policy whose effect shows in the output (exit 0). A panic fails the test run; an exit 0
 // without the policy's note is a silent case. The counts are logged.
 func TestHostileSweep(t *testing.T) {
+	t.Parallel()
 	dir := t.TempDir()
 	base := filepath.Join(dir, "base.csv")
 	if _, err := synth.WriteFile(base, synth.Options{Participants: 20, Windows: 60, Seed: 28}); err != nil {

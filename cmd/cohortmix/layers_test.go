@@ -26,6 +26,7 @@ var layers = map[string]int{
 // TestImportsPointDown reads the module's import graph with go list and checks every import
 // between its packages against layers.
 func TestImportsPointDown(t *testing.T) {
+	t.Parallel()
 	if testing.Short() {
 		t.Skip("runs go list")
 	}

@@ -18,6 +18,7 @@ import (
 // flags: every flag is an entry of settingTable, whose fit flags say how refresh sets them from the model, and a command line far from the defaults
 // comes back as the same options.
 func TestModelFlagsCoverEveryFitFlag(t *testing.T) {
+	t.Parallel()
 	var m mainFlags
 	cmd := &cobra.Command{}
 	m.register(cmd)
@@ -68,6 +69,7 @@ func TestModelFlagsCoverEveryFitFlag(t *testing.T) {
 
 // A version-2 model, whose settings are kept by flag name, still refreshes.
 func TestRefreshTakesAVersion2Model(t *testing.T) {
+	t.Parallel()
 	dir := t.TempDir()
 	in := filepath.Join(dir, "c.csv")
 	if _, err := synth.WriteFile(in, synth.Options{Participants: 40, Windows: 300, Seed: 5}); err != nil {

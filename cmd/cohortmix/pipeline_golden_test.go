@@ -56,6 +56,7 @@ func readPipelineGolden(t *testing.T) pipelineGolden {
 func closeTo(got, want, tol float64) bool { return scalar.EqualWithinAbsOrRel(got, want, tol, tol) }
 
 func TestStagesMatchReference(t *testing.T) {
+	t.Parallel()
 	g := readPipelineGolden(t)
 	tab, err := cohort.Read(context.Background(), []string{smallCohort}, cohort.ReadOptions{})
 	if err != nil {
@@ -199,6 +200,7 @@ func TestStagesMatchReference(t *testing.T) {
 }
 
 func TestSameGroupingAsReferencePipeline(t *testing.T) {
+	t.Parallel()
 	g := readPipelineGolden(t)
 	res, err := job.Analyze(context.Background(), job.Options{Inputs: []string{smallCohort}, Norm: normalize.Options{Within: normalize.WithinRest, PCAVariance: 0.99},
 		States: []int{5}, Groups: []int{3}, Method: group.WardHellinger, Seed: 1})

@@ -212,6 +212,7 @@ func runCohort(t testing.TB, so synth.Options, variants []variant) (oracle scena
 }
 
 func TestRecoveryBenchmark(t *testing.T) {
+	t.Parallel()
 	if *recoverySet == "" {
 		t.Skip("pass -recovery tune, report or a list of seeds (testdata/recovery.sh)")
 	}
@@ -302,6 +303,7 @@ func mean(xs []float64) float64 {
 // because both groups spend some time in the quieter of the two postures, which then sets
 // every participant's baseline alike.
 func TestGroupsThatDifferOnlyInQuietPosture(t *testing.T) {
+	t.Parallel()
 	sc := synth.DrawScenario(2)
 	var quiet []int
 	for s, st := range sc.States {
@@ -351,6 +353,7 @@ func TestGroupsThatDifferOnlyInQuietPosture(t *testing.T) {
 // participants × 2,016 windows each, with the defaults. The floor sits well below what they
 // reach (mean 0.97, worst 0.91 when this was written), so that only a regression fails.
 func TestRecoveryOnSmallScenarios(t *testing.T) {
+	t.Parallel()
 	if testing.Short() {
 		t.Skip("five scenario cohorts take about ten seconds")
 	}

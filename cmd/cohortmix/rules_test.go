@@ -19,6 +19,7 @@ import (
 // scenario's noise and were set below what the defaults reached when this was written (see the
 // logged table).
 func TestChoiceRulesOnPlantedCohorts(t *testing.T) {
+	t.Parallel()
 	if testing.Short() {
 		t.Skip("planted-cohort study takes about a minute")
 	}

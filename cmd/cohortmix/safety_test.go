@@ -40,6 +40,7 @@ func synthCohort40(t *testing.T, dir string) string {
 // Outputs never replace an input, whatever --force says, and every output path is checked
 // before any window is read: a bad one costs nothing and leaves nothing behind.
 func TestOutputsAreCheckedFirst(t *testing.T) {
+	t.Parallel()
 	dir := t.TempDir()
 	input := synthCohort40(t, dir)
 	before, _ := os.ReadFile(input)
@@ -106,6 +107,7 @@ func TestOutputsAreCheckedFirst(t *testing.T) {
 // stay as they were: here the members CSV fails (its folder is replaced by a file while the run
 // works, which the check before cannot foresee), so neither the workbook nor the model appears.
 func TestNoHalfOutputs(t *testing.T) {
+	t.Parallel()
 	dir := t.TempDir()
 	input := synthCohort40(t, dir)
 	out := filepath.Join(dir, "r.xlsx")
@@ -149,6 +151,7 @@ func TestNoHalfOutputs(t *testing.T) {
 // A model records whether its ids are pseudonyms and a fingerprint of the key; assign and
 // refresh refuse a pseudonymized model without the key, a key with a plain model, and another key.
 func TestPseudonymKeyMustFitTheModel(t *testing.T) {
+	t.Parallel()
 	dir := t.TempDir()
 	input := filepath.Join(dir, "c.csv")
 	synth.WriteFile(input, synth.Options{Participants: 40, Windows: 300, Seed: 13, IDPrefix: "STUDY-"})
@@ -201,6 +204,7 @@ func TestPseudonymKeyMustFitTheModel(t *testing.T) {
 
 // Every command-line mistake exits 2, as --help says, for every command.
 func TestCommandLineMistakesExit2(t *testing.T) {
+	t.Parallel()
 	dir := t.TempDir()
 	in := writeFile(t, dir, "c.csv", cohortText(4, 30))
 	cases := [][]string{
@@ -245,6 +249,7 @@ func TestCommandLineMistakesExit2(t *testing.T) {
 
 // check fails when nothing can be grouped, and says so.
 func TestCheckFailsWhenNothingCanBeGrouped(t *testing.T) {
+	t.Parallel()
 	dir := t.TempDir()
 	in := writeFile(t, dir, "short.csv", cohortText(4, 10)) // 10 windows each, under the minimum 20
 	code, msg := runCode("check", in)
@@ -261,6 +266,7 @@ func TestCheckFailsWhenNothingCanBeGrouped(t *testing.T) {
 // (openpyxl's read-only mode; testdata/check_workbooks.sh reads every sheet that way) see every
 // row. Both forms are checked: sheets built in memory and the streamed participants sheet.
 func TestSheetDimensionsCoverTheirCells(t *testing.T) {
+	t.Parallel()
 	dir := t.TempDir()
 	input := synthCohort40(t, dir)
 	out := filepath.Join(dir, "r.xlsx")
@@ -362,6 +368,7 @@ var emptyFragment = regexp.MustCompile(`;\s*(than|,|;|$)|,\s*,|  +\S|: ;|\(\s*\)
 // and the separating variables use one row per person (planted structure: synth seed 21, 60
 // people, 20 of them seen again in a second wave).
 func TestWavesCountPeopleApart(t *testing.T) {
+	t.Parallel()
 	dir := t.TempDir()
 	w1, w2 := filepath.Join(dir, "wave1.csv"), filepath.Join(dir, "wave2.csv")
 	if _, err := synth.WriteFile(w1, synth.Options{Participants: 60, Windows: 300, Seed: 21, Waves: true}); err != nil {
@@ -412,6 +419,7 @@ func TestWavesCountPeopleApart(t *testing.T) {
 // group or state line has an empty fragment. The later wave has a unit mistake (every feature ×
 // 1,000), so most of them are atypical (planted structure: synth seeds 13 and 14).
 func TestAtypicalParticipantsAreInNoGroup(t *testing.T) {
+	t.Parallel()
 	dir := t.TempDir()
 	input := synthCohort40(t, dir)
 	model := filepath.Join(dir, "model.json")
@@ -513,6 +521,7 @@ func TestLeftoversOfKilledRunsAreRemoved(t *testing.T) {
 // fill) over a number in the row below is right-aligned, and every cell sits at the top of its
 // row.
 func TestHeadersStandOverTheirNumbers(t *testing.T) {
+	t.Parallel()
 	dir := t.TempDir()
 	input := synthCohort40(t, dir)
 	out := filepath.Join(dir, "r.xlsx")
@@ -560,6 +569,7 @@ func TestHeadersStandOverTheirNumbers(t *testing.T) {
 // did not name them. Now the counts say what they count, who moved leads the sheet and is named
 // on the Summary.
 func TestChangesLeadWithWhoMoved(t *testing.T) {
+	t.Parallel()
 	dir := t.TempDir()
 	w1, w2 := filepath.Join(dir, "wave1.csv"), filepath.Join(dir, "wave2.csv")
 	if _, err := synth.WriteFile(w1, synth.Options{Participants: 40, Windows: 300, Seed: 21, Waves: true}); err != nil {

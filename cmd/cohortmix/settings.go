@@ -252,6 +252,10 @@ var settingTable = func() []setting {
 		{flag: "temp", read: true, options: []string{"cohort.ReadOptions.TempDir"}, bind: func(f *pflag.FlagSet, m *mainFlags) {
 			f.StringVar(&m.Temp, "temp", "", "folder for temporary files of large inputs (default: the folder of --out, or the system's)")
 		}},
+		{flag: "memory-values", read: true, bind: func(f *pflag.FlagSet, m *mainFlags) {
+			f.Int64Var(&m.MemoryValues, "memory-values", 0, "values the windows may hold in memory before they go to a temporary file (0: 8 Mi, 64 MiB); never changes the result")
+			f.MarkHidden("memory-values") // for tests of the temporary file on small inputs
+		}},
 		{flag: "quiet", read: true, bind: func(f *pflag.FlagSet, m *mainFlags) {
 			f.BoolVar(&m.Quiet, "quiet", false, "print only the final summary")
 		}},

@@ -31,6 +31,7 @@ func workbookText(t *testing.T, path string) string {
 // windows sit in two files, one participant with too few windows and a window with a missing
 // cell, so that every piece of the accounting is merged.
 func TestShardsGiveTheOneMachineResult(t *testing.T) {
+	t.Parallel()
 	if testing.Short() {
 		t.Skip("runs the job 9 times")
 	}
@@ -68,16 +69,15 @@ func TestShardsGiveTheOneMachineResult(t *testing.T) {
 		model = regexp.MustCompile(`"checksum": "[^"]*"`).ReplaceAll(model, nil) // covers the time it was made
 		return members, regexp.MustCompile(`"created": "[^"]*"`).ReplaceAll(model, nil), workbookText(t, out)
 	}
-	defer func(old int64) { memoryValues = old }(memoryValues)
 	for _, spill := range []int64{0, 2000} {
-		memoryValues = spill
-		members, model, book := run(fmt.Sprintf("one-%d", spill), "group")
+		memory := []string{"--memory-values", fmt.Sprint(spill)}
+		members, model, book := run(fmt.Sprintf("one-%d", spill), append([]string{"group"}, memory...)...)
 		if !bytes.Contains(members, []byte("P7,")) || !strings.Contains(book, "fewer than the minimum") {
 			t.Fatal("the excluded participant is not in the one-machine result")
 		}
 		for _, n := range []int{1, 2, 3, 7} {
 			name := fmt.Sprintf("shards-%d-%d", n, spill)
-			m, mo, bo := run(name, "shard", "run", "--shards", fmt.Sprint(n), "--pieces", filepath.Join(dir, name))
+			m, mo, bo := run(name, append([]string{"shard", "run", "--shards", fmt.Sprint(n), "--pieces", filepath.Join(dir, name)}, memory...)...)
 			if !bytes.Equal(m, members) {
 				t.Errorf("%d shards, memory %d: the members differ from one machine's", n, spill)
 			}
@@ -130,6 +130,7 @@ func TestShardsGiveTheOneMachineResult(t *testing.T) {
 // input, or a damaged piece, all went through with different groups. Each is now refused with a
 // one-line message naming the piece.
 func TestShardPiecesOfAnotherRunAreRefused(t *testing.T) {
+	t.Parallel()
 	dir := t.TempDir()
 	in := filepath.Join(dir, "c.csv")
 	if _, err := synth.WriteFile(in, synth.Options{Participants: 16, Windows: 120, Seed: 5}); err != nil {
@@ -209,6 +210,7 @@ func readBytes(t *testing.T, p string) []byte {
 // and the result is that of 'group --pseudonymize' byte for byte. Later steps that read the
 // inputs again need the same key.
 func TestPseudonymizedSplitRunKeepsNoIDsOnDisk(t *testing.T) {
+	t.Parallel()
 	dir := t.TempDir()
 	in := filepath.Join(dir, "c.csv")
 	if _, err := synth.WriteFile(in, synth.Options{Participants: 24, Windows: 200, Seed: 8}); err != nil {

@@ -16,6 +16,7 @@ import (
 // (synth.WriteLarksOwls: equal shares, other hours), the workbook shows each group's day hour by
 // hour, and assign places a second cohort with the model's day parts.
 func TestDayPartsFromTheCommandLine(t *testing.T) {
+	t.Parallel()
 	if testing.Short() {
 		t.Skip("whole runs")
 	}
@@ -94,6 +95,7 @@ func membersGroups(t *testing.T, path string) []int {
 // step with its calibration and non-wear column, the grouping) and finds the planted groups; the
 // features step refuses a per-window table in one line.
 func TestRawDemoFindsThePlantedGroups(t *testing.T) {
+	t.Parallel()
 	if testing.Short() {
 		t.Skip("writes 200 MB of invented recordings")
 	}
@@ -130,6 +132,7 @@ func TestRawDemoFindsThePlantedGroups(t *testing.T) {
 
 // check says which features group would leave out as twins of another, and why.
 func TestCheckNamesTwinFeatures(t *testing.T) {
+	t.Parallel()
 	path := filepath.Join(t.TempDir(), "wear.csv")
 	if _, err := synth.WriteWear(path, synth.WearOptions{Participants: 6, Seed: 2}); err != nil {
 		t.Fatal(err)

@@ -65,6 +65,7 @@ func plantedAgreement(truth []synth.Truth, members map[string]string) float64 {
 }
 
 func TestTwoEnrolmentWaves(t *testing.T) {
+	t.Parallel()
 	dir := t.TempDir()
 	w1, w2 := filepath.Join(dir, "wave1.csv"), filepath.Join(dir, "wave2.csv")
 	// Planted structure: one invented cohort enrolled in two halves (synth, same seed).
@@ -125,6 +126,7 @@ func flattenRows(rows [][]string) string {
 }
 
 func TestRefreshReportsGoneAndNewGroups(t *testing.T) {
+	t.Parallel()
 	// Member 20 of the scenario family (a tuning seed: four planted groups of six states): the
 	// first cohort holds planted groups 0, 1 and 2; later group 2 has left and group 3 enrolled.
 	dir := t.TempDir()
@@ -179,6 +181,7 @@ func TestRefreshReportsGoneAndNewGroups(t *testing.T) {
 }
 
 func TestAssignRefusesAMissingFeature(t *testing.T) {
+	t.Parallel()
 	dir := t.TempDir()
 	w1 := filepath.Join(dir, "w1.csv")
 	synth.WriteFile(w1, synth.Options{Participants: 30, Windows: 300, Seed: 4})
@@ -203,6 +206,7 @@ func TestAssignRefusesAMissingFeature(t *testing.T) {
 // Refreshing a model on the very data it was fitted on changes nothing: every participant keeps
 // its group's name (planted structure: synth seed 21).
 func TestRefreshOnTheSameDataKeepsEveryGroup(t *testing.T) {
+	t.Parallel()
 	dir := t.TempDir()
 	in := filepath.Join(dir, "c.csv")
 	if _, err := synth.WriteFile(in, synth.Options{Participants: 90, Windows: 800, Seed: 21}); err != nil {
@@ -224,6 +228,7 @@ func TestRefreshOnTheSameDataKeepsEveryGroup(t *testing.T) {
 // participants in the groups the fit gave them. Planted structure: member 20 of the scenario family,
 // with devices turned on the wrist.
 func TestModelKeepsTheTurnedFeatures(t *testing.T) {
+	t.Parallel()
 	dir := t.TempDir()
 	input := filepath.Join(dir, "c.csv")
 	if _, err := synth.WriteFile(input, synth.Options{Scenario: 20, Seed: 20, Participants: 80, Windows: 600}); err != nil {
@@ -254,6 +259,7 @@ func TestModelKeepsTheTurnedFeatures(t *testing.T) {
 // Issue 29: assign had no --id, yet its error said "pass --id": a later wave whose id column
 // was renamed could not be placed without editing the file.
 func TestAssignReadsARenamedIDColumn(t *testing.T) {
+	t.Parallel()
 	dir := t.TempDir()
 	in := writeFile(t, dir, "w1.csv", cohortText(8, 60))
 	model := filepath.Join(dir, "m.json")
@@ -277,6 +283,7 @@ func TestAssignReadsARenamedIDColumn(t *testing.T) {
 // more of zero counts are left out and counted, the workbook says so, and the model keeps the
 // rule for later waves.
 func TestNonWearIsLeftOut(t *testing.T) {
+	t.Parallel()
 	dir := t.TempDir()
 	var b strings.Builder
 	b.WriteString("participant,window,counts,vm_sd\n")
@@ -319,6 +326,7 @@ func TestNonWearIsLeftOut(t *testing.T) {
 // Issue 30, point 7: with times over two days or more, the Participants sheet gives each
 // participant's rest-activity measures (values checked against numpy in profile).
 func TestRhythmOnTheParticipantsSheet(t *testing.T) {
+	t.Parallel()
 	dir := t.TempDir()
 	in := filepath.Join(dir, "c.csv")
 	if _, err := synth.WriteFile(in, synth.Options{Participants: 12, Windows: 3000, Seed: 7, Times: true}); err != nil {

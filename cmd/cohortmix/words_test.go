@@ -11,6 +11,7 @@ import (
 // Every option a library text names by its Go name reaches the command line as a flag: a text
 // that names an option without a flag in optionFlags fails here, with the file it is in.
 func TestLibraryOptionsHaveFlags(t *testing.T) {
+	t.Parallel()
 	literal := regexp.MustCompile("\"(?:[^\"\\\\\n]|\\\\.)*\"")
 	option := regexp.MustCompile(`\b(?:cohort|job|normalize|profile|reports)\.[A-Z]\w*(?:\.[A-Z]\w*)?`)
 	found := 0
@@ -51,6 +52,7 @@ func TestLibraryOptionsHaveFlags(t *testing.T) {
 
 // Issue 28: package names and Go option names reached the command line's messages.
 func TestUserWordsDropPackageNames(t *testing.T) {
+	t.Parallel()
 	for in, want := range map[string]string{
 		"job: the census of shard 2 was taken of other input files":                               "the census of shard 2 was taken of other input files",
 		"a.csv: job.Options.Groups asks for 5 or more groups (cluster: too few)":                  "a.csv: --groups asks for 5 or more groups (too few)",
@@ -66,6 +68,7 @@ func TestUserWordsDropPackageNames(t *testing.T) {
 // Issue 28: check accepted three participants that group then refused (the default groups
 // reach 8). Now group tries the numbers of groups the participants allow, and says so.
 func TestThreeParticipantsAreGroupedAsCheckSays(t *testing.T) {
+	t.Parallel()
 	dir := t.TempDir()
 	in := writeFile(t, dir, "c.csv", cohortText(3, 60))
 	if out := mustRun(t, "check", in); !strings.Contains(out, "the tables can be analysed") {

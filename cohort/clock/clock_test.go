@@ -9,6 +9,7 @@ import (
 // recording in Europe/Berlin across both changes of 2026 (29 March, clocks forward at 02:00;
 // 25 October, back at 03:00: EU rule, common knowledge), from instants one minute apart.
 func TestDaylightSavingDaysKeepTheirLength(t *testing.T) {
+	t.Parallel()
 	c, err := In("Europe/Berlin")
 	if err != nil {
 		t.Fatal(err)
@@ -41,6 +42,7 @@ func TestDaylightSavingDaysKeepTheirLength(t *testing.T) {
 // TestStampsOfUTC checks the zero clock against the time package, with a weekday of the
 // calendar (2026-12-05 is a Saturday).
 func TestStampsOfUTC(t *testing.T) {
+	t.Parallel()
 	var c Clock
 	at := time.Date(2026, 12, 5, 13, 59, 59, 0, time.UTC)
 	s := c.At(at.UnixNano())
@@ -61,6 +63,7 @@ func TestStampsOfUTC(t *testing.T) {
 // TestWall moves instants onto the wall clock: 06:30 UTC is 08:30 in Berlin in summer and 07:30
 // in winter (CEST +02:00, CET +01:00).
 func TestWall(t *testing.T) {
+	t.Parallel()
 	c, _ := In("Europe/Berlin")
 	for _, tc := range []struct {
 		at   time.Time

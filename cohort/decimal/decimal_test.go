@@ -9,6 +9,7 @@ import (
 // Plain agrees bit for bit with strconv.ParseFloat on every plain decimal it takes (the
 // standard library as the reference), and takes none of the other forms.
 func TestPlainAgreesWithStrconv(t *testing.T) {
+	t.Parallel()
 	rng := rand.New(rand.NewPCG(1, 2))
 	for i := 0; i < 200000; i++ {
 		s := strconv.FormatFloat((rng.Float64()-0.5)*pow10[rng.IntN(12)], 'f', rng.IntN(10), 64)

@@ -36,6 +36,7 @@ func plantedShares(n, g int, seed uint64) ([][]float64, []int) {
 }
 
 func TestGroupingMethodsRecoverPlantedGroups(t *testing.T) {
+	t.Parallel()
 	shares, truth := plantedShares(120, 3, 1)
 	for _, m := range []Method{WardHellinger, PAMAitchison, PAMJensenShannon, KMeansCLR} {
 		t.Run(m.String(), func(t *testing.T) {
@@ -57,6 +58,7 @@ func TestGroupingMethodsRecoverPlantedGroups(t *testing.T) {
 }
 
 func TestAutoSwitchesForLargeCohorts(t *testing.T) {
+	t.Parallel()
 	if testing.Short() {
 		t.Skip("groups 10,050 signatures")
 	}
@@ -83,6 +85,7 @@ func TestAutoSwitchesForLargeCohorts(t *testing.T) {
 }
 
 func TestMatchNamesGroups(t *testing.T) {
+	t.Parallel()
 	prev := Previous{StateNames: []string{"S1", "S2", "S3"}, StateMeans: [][]float64{{0, 0}, {1, 0}, {0, 1}}, Scale: []float64{1, 1},
 		GroupNames: []string{"G1", "G2", "G3"}, GroupShares: [][]float64{{0.8, 0.1, 0.1}, {0.1, 0.8, 0.1}, {0.1, 0.1, 0.8}}, Cut: 0.2, Method: WardHellinger}
 	// New fit: states in another order; G2 is the same, G1 has merged into it, G3 is gone, one group is new.
@@ -110,6 +113,7 @@ func TestMatchNamesGroups(t *testing.T) {
 // states are fitted anew on a cohort whose mix changed); the other previous group, whose
 // members did not return, is gone, and a group of newcomers far from both is new.
 func TestMatchNamesGroupsByTheirPeopleFirst(t *testing.T) {
+	t.Parallel()
 	prev := Previous{StateNames: []string{"S1", "S2"}, StateMeans: [][]float64{{0, 0}, {1, 0}}, Scale: []float64{1, 1},
 		GroupNames: []string{"G1", "G2"}, GroupShares: [][]float64{{0.9, 0.1}, {0.6, 0.4}}, Cut: 0.2, Method: WardHellinger}
 	next := Next{StateMeans: [][]float64{{0, 0}, {1, 0}},
@@ -137,6 +141,7 @@ func TestMatchNamesGroupsByTheirPeopleFirst(t *testing.T) {
 }
 
 func TestThousands(t *testing.T) {
+	t.Parallel()
 	for n, want := range map[int]string{0: "0", 999: "999", 1000: "1,000", 38146: "38,146", 100000: "100,000", 1234567: "1,234,567", -1500: "-1,500"} {
 		if got := cohort.Thousands(n); got != want {
 			t.Errorf("Thousands(%d) = %q, want %q", n, got, want)
@@ -148,6 +153,7 @@ func TestThousands(t *testing.T) {
 // gap's reference sets and the stability's resamples), each counting up to its total; the
 // reports do not change the result.
 func TestGroupReportsProgress(t *testing.T) {
+	t.Parallel()
 	shares, _ := plantedShares(60, 3, 2)
 	type call struct {
 		step        string
@@ -191,6 +197,7 @@ func TestGroupReportsProgress(t *testing.T) {
 // normal blobs 10 s.d. apart, each cut in two along the other axis), and keeps a number whose
 // groups are all parted by a valley.
 func TestValleyCapMergesOneModeCutInTwo(t *testing.T) {
+	t.Parallel()
 	rng := rand.New(rand.NewPCG(4, 0))
 	n := 200
 	x := mat.NewDense(n, 2, nil)
@@ -226,6 +233,7 @@ func TestValleyCapMergesOneModeCutInTwo(t *testing.T) {
 
 // Every grouping method's name reads back as the method, and the help names them all.
 func TestMethodsReadBack(t *testing.T) {
+	t.Parallel()
 	for _, r := range methods {
 		m, err := ParseMethod(r.name)
 		if err != nil || m != r.m || m.String() != r.name || !strings.Contains(MethodHelp(), r.name+" (") {
@@ -237,6 +245,7 @@ func TestMethodsReadBack(t *testing.T) {
 // Choose on hand-made scores. The gap rule is Tibshirani, Walther & Hastie (2001), eq. 13 with
 // the one-standard-error step: the smallest k with Gap(k) ≥ Gap(k+1) − s(k+1).
 func TestChoose(t *testing.T) {
+	t.Parallel()
 	scores := func(gap, se, stab []float64) []KScore {
 		var out []KScore
 		for i := range gap {

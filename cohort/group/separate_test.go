@@ -12,6 +12,7 @@ import (
 // takes no part and has empty quartiles. The reference is groupstat.KruskalWallis on the values
 // kept, itself checked against scipy.stats.kruskal (testdata/pipeline/golden.json).
 func TestSeparateLeavesOutMissingValues(t *testing.T) {
+	t.Parallel()
 	nan := math.NaN()
 	labels := []int{0, 0, 0, 1, 1, 1, 2, 2}
 	cases := []struct {

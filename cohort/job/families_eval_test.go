@@ -396,6 +396,7 @@ func ilrEmbedding(ff familyFit, bout bool, keep float64) *mat.Dense {
 }
 
 func TestFamiliesEval(t *testing.T) {
+	t.Parallel()
 	if *familiesEval == "" {
 		t.Skip("pass -families.eval DIR")
 	}

@@ -81,6 +81,7 @@ func familyMembers(t *testing.T, spec string) []familyMember {
 }
 
 func TestFamiliesDump(t *testing.T) {
+	t.Parallel()
 	if *familiesSet == "" || *familiesDump == "" {
 		t.Skip("pass -families family:first-last -families.dump DIR")
 	}
@@ -239,6 +240,7 @@ var familiesArgs = flag.String("families.opts", "", "options changed from the de
 // with several seeds of the tool to measure reproducibility (median pairwise ARI of the
 // members' groups over the seeds).
 func TestFamiliesRecovery(t *testing.T) {
+	t.Parallel()
 	if *familiesRecover == "" {
 		t.Skip("pass -families.recover family:first-last")
 	}

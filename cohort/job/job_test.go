@@ -76,6 +76,7 @@ func fitScored(t *testing.T, tab *cohort.Table, o Options, want []int) (*Fitted,
 // one that agrees best with the others, ties to the first. Values worked by hand: two identical
 // partitions of six agree with ARI 1; {0,0,0,1,1,1} against {0,0,1,1,2,2} has ARI (2 − 6·3/15) / ((6 + 3)/2 − 6·3/15) = 8/33 (Hubert & Arabie 1985).
 func TestMedoidOfGroupings(t *testing.T) {
+	t.Parallel()
 	a := []int{0, 0, 0, 1, 1, 1}
 	aRenamed := []int{1, 1, 1, 0, 0, 0}
 	b := []int{0, 0, 1, 1, 2, 2}
@@ -108,6 +109,7 @@ func TestMedoidOfGroupings(t *testing.T) {
 // hours: the run gives a grouping, with every grouping method and with the sensitivity table,
 // which once stopped on ties ("Hierarchical: distance entry is NaN"). Invented data.
 func TestManySmallAlikeUnitsGiveAResult(t *testing.T) {
+	t.Parallel()
 	path := filepath.Join(t.TempDir(), "ties.csv")
 	var b strings.Builder
 	b.WriteString("participant,window,count\n")
@@ -144,6 +146,7 @@ func TestManySmallAlikeUnitsGiveAResult(t *testing.T) {
 // the window after a step of more than 1.5 times the participant's usual one, in times and in
 // window numbers; the file's row order has no steps.
 func TestGapsOf(t *testing.T) {
+	t.Parallel()
 	dir := t.TempDir()
 	var ints, times strings.Builder
 	ints.WriteString("participant,window,f1\n")
@@ -190,6 +193,7 @@ func TestGapsOf(t *testing.T) {
 // Issue 30: zero-heavy features were left linear with no word; the note names what was logged
 // and why each other feature was not.
 func TestLogNoteSaysWhatWasLogged(t *testing.T) {
+	t.Parallel()
 	fit := &normalize.Fit{Logged: []bool{true, false, false, false}, Axes: []int{3}}
 	norm := normalize.Options{Lowest: []float64{0.01, -2, 0, -1}}
 	got := logNote([]string{"vm_sd", "mean_z", "count", "mean_x"}, fit, norm)

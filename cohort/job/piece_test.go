@@ -34,6 +34,7 @@ func censusOf(t *testing.T, path string, o Options, shard cohort.Shard) *Census 
 // A piece is read back as it was written, and every other file is refused with a message
 // that says what it is.
 func TestPiecesRefuseWhatTheyAreNot(t *testing.T) {
+	t.Parallel()
 	dir := t.TempDir()
 	path := filepath.Join(dir, "c.csv")
 	if _, err := synth.WriteFile(path, synth.Options{Participants: 12, Windows: 60, Seed: 4}); err != nil {
@@ -79,6 +80,7 @@ func TestPiecesRefuseWhatTheyAreNot(t *testing.T) {
 
 // The plan takes one census of every shard, all of the same input and settings.
 func TestPlanNeedsEveryShardOnce(t *testing.T) {
+	t.Parallel()
 	dir := t.TempDir()
 	path := filepath.Join(dir, "c.csv")
 	if _, err := synth.WriteFile(path, synth.Options{Participants: 12, Windows: 60, Seed: 4}); err != nil {
@@ -135,6 +137,7 @@ func FuzzReadPiece(f *testing.F) {
 // A piece names the run and the piece it was made from; MadeFrom refuses the pieces of another
 // run and those made from another plan or fit of the same run.
 func TestMadeFrom(t *testing.T) {
+	t.Parallel()
 	parent := PieceID{Run: "r1", Sum: "fit-a"}
 	for _, c := range []struct {
 		name string

@@ -13,6 +13,7 @@ import (
 // on one worker or two (its rows are fitted side by side); the row for the align step turning the
 // axis means alone is there only when the fit turned more features with them.
 func TestSensitivityRowsWhateverTheWorkers(t *testing.T) {
+	t.Parallel()
 	path := syntheticCohort(t, synth.Options{Participants: 60, Windows: 400, Features: 24, Seed: 2})
 	for _, noTurn := range []bool{false, true} {
 		var first []string
@@ -75,6 +76,7 @@ func containsInOrder(got, want []string) bool {
 // others is at most 0.05 below the kept fit's) groups the participants otherwise (below 0.8
 // with the kept fit), and is left off otherwise, as for numbers of states voted down.
 func TestStatesNote(t *testing.T) {
+	t.Parallel()
 	ens := func(agree4, with4 float64) []profile.EnsembleFit {
 		return []profile.EnsembleFit{
 			{States: 5, Agreement: 0.70, Kept: true, WithKept: 1},

@@ -13,6 +13,7 @@ import (
 // the whole recording's shares and found by the day-part signature; a table without times is
 // refused the day-part signature with a sentence that says why.
 func TestDayPartSignatureFindsWhenPeopleMove(t *testing.T) {
+	t.Parallel()
 	if testing.Short() {
 		t.Skip("two whole runs")
 	}

@@ -9,6 +9,7 @@ import (
 // A participant-wave finds its group in the model by id and wave, else by id (a returning
 // participant in a new wave); a new one has none. Moved follows.
 func TestLookupPreviousAndMoved(t *testing.T) {
+	t.Parallel()
 	m := &modelfile.Model{Members: []modelfile.Member{{ID: "P1", Wave: "1", Group: "G1"}, {ID: "P1", Wave: "2", Group: "G2"}, {ID: "P2", Wave: "1", Group: "G1"}}}
 	byKey, byID := PreviousGroups(m)
 	for _, c := range []struct{ id, wave, now, previous, moved string }{

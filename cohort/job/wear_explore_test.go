@@ -18,6 +18,7 @@ var wearSeeds = flag.String("wear.seeds", "", "seeds of the wear scenario to mea
 //
 //	go test ./cohort/job -run TestWearScenarioSeeds -wear.seeds 101-108 -v
 func TestWearScenarioSeeds(t *testing.T) {
+	t.Parallel()
 	var first, last uint64
 	if n, _ := fmt.Sscanf(*wearSeeds, "%d-%d", &first, &last); n != 2 {
 		t.Skip("give -wear.seeds first-last")

@@ -22,6 +22,7 @@ import (
 // participants have a day off the wrist (ARI ≥ 0.9), they do not follow the devices' resting
 // floors, and every window is accounted for.
 func TestGroupsOnPlantedWear(t *testing.T) {
+	t.Parallel()
 	if testing.Short() {
 		t.Skip("whole runs on a week of minutes")
 	}

@@ -10,6 +10,7 @@ import (
 // The frame of the Apache Parquet file format: PAR1 at both ends, the footer's length in the
 // 4 bytes before the last mark.
 func TestCheck(t *testing.T) {
+	t.Parallel()
 	frame := func(head, tail string, footer uint32, size int) []byte {
 		b := make([]byte, size)
 		copy(b, head)

@@ -20,6 +20,7 @@ import (
 // The features step on the invented raw scenario: every window accounted for, each device's
 // planted calibration error recovered, the planted non-wear found.
 func TestRunOnPlantedRaw(t *testing.T) {
+	t.Parallel()
 	dir := t.TempDir()
 	truth, err := synth.WriteRaw(dir, synth.RawOptions{Participants: 6, Hours: 4, Rate: 20, Seed: 3})
 	if err != nil {
@@ -75,6 +76,7 @@ func TestRunOnPlantedRaw(t *testing.T) {
 // python3-numpy, on an invented two-minute recording): agreement to 1e-9 relative, the rounding
 // of two independent sums and FFTs.
 func TestFeaturesMatchNumpy(t *testing.T) {
+	t.Parallel()
 	var out bytes.Buffer
 	if _, err := Run(context.Background(), []string{"../../testdata/raw/small.csv"}, &out, Options{Window: 10 * time.Second, NoCalibration: true, Units: "g"}); err != nil {
 		t.Fatal(err)
@@ -126,6 +128,7 @@ func BenchmarkRunCSV(b *testing.B) {
 // The table written as Parquet reads back, through the cohort reader, as the CSV one does:
 // the same participants, windows and values, feature by feature.
 func TestParquetTableReadsAsTheCSV(t *testing.T) {
+	t.Parallel()
 	dir := t.TempDir()
 	if _, err := synth.WriteRaw(dir, synth.RawOptions{Participants: 2, Hours: 1, Rate: 10, Seed: 4}); err != nil {
 		t.Fatal(err)
@@ -175,6 +178,7 @@ func TestParquetTableReadsAsTheCSV(t *testing.T) {
 // A recording written as Parquet (the time a TIMESTAMP in milliseconds, x, y, z doubles) gives
 // the table its CSV gives, byte for byte.
 func TestParquetRecordingReadsAsTheCSV(t *testing.T) {
+	t.Parallel()
 	pq := filepath.Join(t.TempDir(), "small.parquet")
 	toParquet(t, "../../testdata/raw/small.csv", pq, 1<<20)
 	opts := Options{Window: 10 * time.Second, NoCalibration: true}
@@ -257,6 +261,7 @@ func BenchmarkRunParquet(b *testing.B) {
 // table of a reading in one piece to 1e-9 (the sums of a block cut by a range are added in two
 // parts); the planted calibration and non-wear as before.
 func TestRangesGiveTheWholeReading(t *testing.T) {
+	t.Parallel()
 	dir := t.TempDir()
 	if _, err := synth.WriteRaw(dir, synth.RawOptions{Participants: 1, Hours: 4, Rate: 20, Seed: 3}); err != nil {
 		t.Fatal(err)
@@ -304,6 +309,7 @@ func TestRangesGiveTheWholeReading(t *testing.T) {
 
 // Errors found in a later range name the line of the whole file, as a reading in one piece does.
 func TestRangesNameTheWholeFilesLines(t *testing.T) {
+	t.Parallel()
 	p := recording(t, "long.csv", 25*60*30, 25, 1, func(i int, r string) string {
 		switch i {
 		case 30000:
@@ -336,6 +342,7 @@ func TestRangesNameTheWholeFilesLines(t *testing.T) {
 // A Parquet recording of several row groups is read on all cores: the same table on one core
 // and on two, and the CSV's to 1e-9.
 func TestParquetRowGroupsOnAllCores(t *testing.T) {
+	t.Parallel()
 	dir := t.TempDir()
 	if _, err := synth.WriteRaw(dir, synth.RawOptions{Participants: 1, Hours: 2, Rate: 20, Seed: 5}); err != nil {
 		t.Fatal(err)

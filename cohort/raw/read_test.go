@@ -40,6 +40,7 @@ func recording(t *testing.T, name string, n int, rate, scale float64, edit func(
 // Bad raw input (issue 31, point 6): each a one-line error naming the file, the line and what to
 // change, or a policy whose effect the report counts.
 func TestRawInputFaults(t *testing.T) {
+	t.Parallel()
 	for _, c := range []struct {
 		name  string
 		path  func(t *testing.T) string
@@ -168,6 +169,7 @@ func FuzzScan(f *testing.F) {
 // The quick time reader agrees with the time package on every form it takes, and leaves the
 // rest to it.
 func TestFastTime(t *testing.T) {
+	t.Parallel()
 	for _, s := range []string{"2026-03-02T08:00:00", "2026-03-02T08:00:00.04Z", "2026-03-02 23:59:59.999999999+01:00", "1969-12-31T23:00:00-05:30",
 		"2200-12-31T23:59:59Z", "1900-01-01T00:00:00Z", "2024-02-29T12:00:00Z", "2026-10-25T02:30:00+02:00"} {
 		got, zoned, ok := fastTime([]byte(s))

@@ -9,6 +9,7 @@ import (
 )
 
 func TestOwner(t *testing.T) {
+	t.Parallel()
 	for _, c := range []struct {
 		name, prefix, suffix string
 		host                 string
@@ -32,6 +33,7 @@ func TestOwner(t *testing.T) {
 // Sweep removes what a finished process left, and keeps what a live one (this one) holds and
 // names it did not make.
 func TestSweep(t *testing.T) {
+	t.Parallel()
 	dir := t.TempDir()
 	cmd := exec.Command("true")
 	if err := cmd.Run(); err != nil {

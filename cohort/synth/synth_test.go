@@ -16,6 +16,7 @@ import (
 
 // The same options give the same cohort, as CSV or as Parquet, and the same seed the same bytes.
 func TestSynthIsReproducibleInBothFormats(t *testing.T) {
+	t.Parallel()
 	dir := t.TempDir()
 	opts := synth.Options{Participants: 12, Windows: 80, Features: 24, Seed: 3, Labels: true}
 	var a, b bytes.Buffer
@@ -67,6 +68,7 @@ func TestSynthIsReproducibleInBothFormats(t *testing.T) {
 // windows are physically consistent: the tilt is the angle of the axis means' vector above the
 // device's x–y plane, whatever the device's rotation.
 func TestScenarioFamily(t *testing.T) {
+	t.Parallel()
 	for seed := uint64(1); seed <= 40; seed++ {
 		sc := synth.DrawScenario(seed)
 		if len(sc.States) < 4 || len(sc.States) > 8 || len(sc.Groups) < 2 || len(sc.Groups) > 5 {
@@ -139,6 +141,7 @@ func TestScenarioFamily(t *testing.T) {
 // drew its groups for ever, its three waking states unable to hold them as far apart as the
 // rule asked).
 func TestEveryFamilyDrawsItsMembers(t *testing.T) {
+	t.Parallel()
 	for _, f := range synth.Families {
 		for seed := uint64(1); seed <= 150; seed++ {
 			sc, err := synth.DrawFamily(f, seed)
