@@ -428,57 +428,15 @@ func (c *parsedChunk) addWindow(id, wave []byte, kind byte, missing bool) {
 	c.n++
 }
 
-// scanDecimal reads a plain decimal cell (an optional sign, digits, an optional decimal point
-// and digits; at most 15 digits) that starts at b[pos] and ends at delim or the end of b. It
-// returns the value and the position of the end. For such cells m / 10ᶠ of two exact floats is
-// correctly rounded (Clinger 1990, How to read floating point numbers accurately, PLDI), the
-// same as strconv.ParseFloat. Any other cell is refused (ok false) and left to parseNumber.
-// (Reading eight digits at a time as one word was tried and was slower on cells of this length:
-// its chain of dependent steps is longer than the few loop turns it saves.)
-func scanDecimal(b []byte, pos int, delim, decimal byte) (v float64, end int, ok bool) {
-	i, neg := pos, false
-	if i < len(b) && (b[i] == '-' || b[i] == '+') {
-		neg = b[i] == '-'
-		i++
-	}
-	start := i
-	i, m := scanDigits(b, i, 0)
-	digits := i - start
-	frac := 0
-	if i < len(b) && (b[i] == '.' || b[i] == decimal) {
-		fs := i + 1
-		i, m = scanDigits(b, fs, m)
-		if frac = i - fs; frac == 0 {
-			return 0, 0, false
-		}
-		digits += frac
-	}
-	if digits == 0 || digits > 15 || (i < len(b) && b[i] != delim) {
+// scanDecimal reads a plain decimal cell that starts at b[pos] and ends at delim or the end of b
+// (decimal.Scan), within the reader's bound on magnitudes; any other cell is refused (ok false)
+// and left to parseNumber.
+func scanDecimal(b []byte, pos int, delim, point byte) (v float64, end int, ok bool) {
+	v, end, ok = decimal.Scan(b, pos, delim, point)
+	if !ok || math.Abs(v) > maxMagnitude {
 		return 0, 0, false
 	}
-	v = float64(m)
-	if frac > 0 {
-		v /= pow10[frac]
-	}
-	if v > maxMagnitude {
-		return 0, 0, false
-	}
-	if neg {
-		v = -v
-	}
-	return v, i, true
-}
-
-// scanDigits reads decimal digits from b[i], appending them to m; it returns where they end.
-func scanDigits(b []byte, i int, m uint64) (int, uint64) {
-	for ; i < len(b); i++ {
-		d := b[i] - '0'
-		if d > 9 {
-			break
-		}
-		m = m*10 + uint64(d)
-	}
-	return i, m
+	return v, end, true
 }
 
 // scanInt reads a plain integer order cell (an optional minus sign and at most 18 digits).
@@ -660,8 +618,6 @@ func orderMsg(cell string) string {
 	return fmt.Sprintf("%q is neither an integer nor an ISO-8601 time such as 2026-03-01T08:30:00; fix the cell", cell)
 }
 
-// pow10 holds the powers of ten that are exact in float64.
-var pow10 = [...]float64{1e0, 1e1, 1e2, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8, 1e9, 1e10, 1e11, 1e12, 1e13, 1e14, 1e15, 1e16, 1e17, 1e18, 1e19, 1e20, 1e21, 1e22}
 
 // parseNumberBytes is parseNumber with a fast path for plain decimals (decimal.Plain, exact).
 func parseNumberBytes(b []byte, decimalComma bool) (float64, error) {
