@@ -143,26 +143,3 @@ func PAM(ctx context.Context, dist *Condensed, opts PAMOptions) (*PAMResult, err
 	res.Dist = dn
 	return res, nil
 }
-
-// AssignMedoids gives each of m new points its nearest medoid, from an m × k matrix of distances
-// to the medoids (row-major); ties go to the lower label.
-func AssignMedoids(distToMedoids []float64, m, k int) ([]int, []float64, error) {
-	if k < 1 || len(distToMedoids) != m*k {
-		return nil, nil, fmt.Errorf("cluster: AssignMedoids: %d distances for %d points and %d medoids: %w", len(distToMedoids), m, k, ErrShape)
-	}
-	labels, dist := make([]int, m), make([]float64, m)
-	for i := 0; i < m; i++ {
-		row := distToMedoids[i*k : (i+1)*k]
-		best := 0
-		for l, v := range row {
-			if math.IsNaN(v) {
-				return nil, nil, fmt.Errorf("cluster: AssignMedoids: point %d, medoid %d is NaN: %w", i, l, ErrNonFinite)
-			}
-			if v < row[best] {
-				best = l
-			}
-		}
-		labels[i], dist[i] = best, row[best]
-	}
-	return labels, dist, nil
-}

@@ -618,7 +618,6 @@ func orderMsg(cell string) string {
 	return fmt.Sprintf("%q is neither an integer nor an ISO-8601 time such as 2026-03-01T08:30:00; fix the cell", cell)
 }
 
-
 // parseNumberBytes is parseNumber with a fast path for plain decimals (decimal.Plain, exact).
 func parseNumberBytes(b []byte, decimalComma bool) (float64, error) {
 	v, ok := decimal.Plain(b, decimalComma)

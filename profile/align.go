@@ -863,14 +863,15 @@ func orderAligned(c *mat.Dense, posture [][]float64) (*mat.Dense, [][]float64) {
 // fitting the device (rotation and offsets, as FitAligned does, without the centring), on at
 // most 500 of its windows evenly spaced, Rounds times or until the states stop changing; then
 // every window is normalized with the device and assigned. dst is reused for the normalized
-// windows, which are returned with the device and the labels.
-func (s *States) AlignUnit(fit *normalize.Fit, x, dst []float64) (normalize.Device, []float64, []int, error) {
+// windows, which are returned after the device and the labels, in the order AssignUnit returns
+// them.
+func (s *States) AlignUnit(fit *normalize.Fit, x, dst []float64) (normalize.Device, []int, []float64, error) {
 	dev, err := s.alignDevice(fit, x)
 	if err != nil {
 		return dev, nil, nil, err
 	}
 	dst = fit.ApplyDeviceInto(dst, x, dev)
-	return dev, dst, s.assignInto(nil, dst, fit.OutDim()), nil
+	return dev, s.assignInto(nil, dst, fit.OutDim()), dst, nil
 }
 
 // alignDevice fits one participant's device against the frozen states (see AlignUnit).
@@ -925,8 +926,7 @@ func (s *States) alignDevice(fit *normalize.Fit, x []float64) (normalize.Device,
 func (s *States) AssignUnit(fit *normalize.Fit, x, buf []float64) (normalize.Device, []int, []float64, error) {
 	p := fit.PCA
 	if p == nil {
-		dev, y, labels, err := s.AlignUnit(fit, x, buf)
-		return dev, labels, y, err
+		return s.AlignUnit(fit, x, buf)
 	}
 	dev, err := s.alignDevice(fit, x)
 	if err != nil {

@@ -77,7 +77,7 @@ func TestFitAlignedRecoversPlantedDevices(t *testing.T) {
 	var got, want []int
 	devs := make([]normalize.Device, len(units))
 	for u, x := range units {
-		dev, _, lab, err := states.AlignUnit(fit, x, nil)
+		dev, lab, _, err := states.AlignUnit(fit, x, nil)
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -147,7 +147,7 @@ func TestAssignUnitMatchesAlignUnit(t *testing.T) {
 		fit, states := alignedFit(t, units, pca.no, pca.share)
 		differ, total := 0, 0
 		for _, x := range units {
-			dev1, _, want, err := states.AlignUnit(fit, x, nil)
+			dev1, want, _, err := states.AlignUnit(fit, x, nil)
 			if err != nil {
 				t.Fatal(err)
 			}

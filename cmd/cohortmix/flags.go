@@ -429,14 +429,6 @@ func (m *mainFlags) applyOptions(opts map[string]string, changed func(name strin
 	return nil
 }
 
-// flagString is a flag's value as it would be typed (slices without brackets).
-func flagString(f *pflag.Flag) string {
-	if sv, ok := f.Value.(pflag.SliceValue); ok {
-		return strings.Join(sv.GetSlice(), ",")
-	}
-	return f.Value.String()
-}
-
 // windowSetting is the window length as the settings sheet shows it.
 func windowSetting(d time.Duration) string {
 	if d == 0 {

@@ -103,7 +103,7 @@ func groupRun(ctx context.Context, o *groupOptions) error {
 	res.Tool, res.Version, res.Created, res.Synthetic = "cohortmix", version, o.Now(), o.Synthetic
 	res.Command = strings.Join(o.Args, " ")
 	res.Settings = o.Flags.settings()
-	if err := o.write(res, ao.Read, ao.ModelFit()); err != nil {
+	if err := o.write(res, ao.Read, ao.FitSettings()); err != nil {
 		return err
 	}
 	printSummary(o.IO, res, o.Out)

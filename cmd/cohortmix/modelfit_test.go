@@ -53,7 +53,7 @@ func TestModelFlagsCoverEveryFitFlag(t *testing.T) {
 		var back mainFlags
 		b := &cobra.Command{}
 		back.register(b)
-		prev := &modelfile.Model{Version: modelfile.Version, Fit: o.ModelFit(), Read: modelfile.ReadSettingsOf(o.Read)}
+		prev := &modelfile.Model{Version: modelfile.Version, Fit: o.FitSettings(), Read: modelfile.ReadSettingsOf(o.Read)}
 		if err := back.fromModel(prev, func(string) bool { return false }); err != nil {
 			t.Fatal(err)
 		}

@@ -131,13 +131,8 @@ func variantOptions(t testing.TB, path string, args []string, states, groups int
 	return o
 }
 
-// runScenario writes scenario seed to a temporary CSV (participants × windows), reads it once
-// and runs every variant on it, with the oracle (Ward on the participants' true shares) beside.
-func runScenario(t testing.TB, seed uint64, participants, windows int, variants []variant) (oracle scenarioRun, runs []scenarioRun, truthK int) {
-	return runCohort(t, synth.Options{Scenario: seed, Seed: seed, Participants: participants, Windows: windows, Labels: true}, variants)
-}
-
-// runCohort is runScenario for any synth cohort, the demo's scenario included.
+// runCohort writes a synth cohort to a temporary CSV, reads it once and runs every variant on it,
+// with the oracle (Ward on the participants' true shares) beside.
 func runCohort(t testing.TB, so synth.Options, variants []variant) (oracle scenarioRun, runs []scenarioRun, truthK int) {
 	t.Helper()
 	path := filepath.Join(t.TempDir(), "scenario.csv")

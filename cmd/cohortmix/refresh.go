@@ -128,7 +128,7 @@ func refreshRun(ctx context.Context, o *refreshOptions) error {
 	if err := ctx.Err(); err != nil {
 		return err
 	}
-	if err := o.write(res, ao.Read, ao.ModelFit()); err != nil {
+	if err := o.write(res, ao.Read, ao.FitSettings()); err != nil {
 		return err
 	}
 	printSummary(o.IO, res, o.Out)

@@ -134,7 +134,7 @@ func TestNoHalfOutputs(t *testing.T) {
 	}
 	os.RemoveAll(sub)
 	os.WriteFile(sub, nil, 0o644) // the folder is now a file
-	if err := o.write(res, ao.Read, ao.ModelFit()); err == nil {
+	if err := o.write(res, ao.Read, ao.FitSettings()); err == nil {
 		t.Fatal("writing into a folder that became a file succeeded")
 	}
 	if got, _ := os.ReadFile(out); !bytes.Equal(got, old) {

@@ -94,7 +94,7 @@ func (s setting) shownAs(show func(m *mainFlags) string) setting { s.show = show
 // Settings sheet. The defaults are those of job.Defaults, so that a run with no flags is the
 // library's default run (TestCommandLinesBecomeOptions). A new setting is an entry here, its field
 // in mainFlags, its reading into job.Options in (*mainFlags).options, and, when the fit depends
-// on it, its field in modelfile.FitSettings (job.Options.ModelFit).
+// on it, its field in modelfile.FitSettings (job.Options.FitSettings).
 var settingTable = func() []setting {
 	d := job.Defaults()
 	type fit = modelfile.FitSettings

@@ -492,7 +492,7 @@ func (o *shardOptions) finishWith(ctx context.Context, g *groupOptions, fp *job.
 	meta := fp.Plan.Meta
 	res.Tool, res.Version, res.Created = "cohortmix", version, o.Now()
 	res.Command, res.Settings = meta.Command, meta.Settings
-	if err := g.write(res, fp.Plan.Options.Read, fp.Plan.Options.ModelFit()); err != nil {
+	if err := g.write(res, fp.Plan.Options.Read, fp.Plan.Options.FitSettings()); err != nil {
 		return err
 	}
 	printSummary(o.IO, res, o.Out)

@@ -193,7 +193,7 @@ func dumpFamilyMember(t *testing.T, fam synth.Family, seed uint64) *familyDump {
 				ff.WindowARI = lt.ARI
 			}
 			for _, x := range units {
-				_, _, lab, err := st.AlignUnit(fp.Fit, x, nil)
+				_, lab, _, err := st.AlignUnit(fp.Fit, x, nil)
 				if err != nil {
 					t.Fatal(err)
 				}

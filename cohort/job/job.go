@@ -673,8 +673,8 @@ func Defaults(inputs ...string) Options {
 	}
 }
 
-// ModelFit is how a run fits, as the model file keeps it for a later refit.
-func (o Options) ModelFit() *modelfile.FitSettings {
+// FitSettings are how a run fits, as the model file keeps them for a later refit.
+func (o Options) FitSettings() *modelfile.FitSettings {
 	return &modelfile.FitSettings{
 		Within: o.Norm.Within.String(), WithinFeatures: o.Norm.WithinFeatures, OffsetICC: o.Norm.OffsetICC, RestShare: o.Norm.RestShare,
 		Axes: o.Axes, NoAxes: o.NoAxes, NoTurn: o.NoTurn, Log: o.Norm.Log, Scale: o.Norm.Scale.String(),

@@ -11,7 +11,6 @@ import (
 	"testing"
 	"time"
 
-	"github.com/cohortmix/cohortmix/cluster"
 	"github.com/cohortmix/cohortmix/cohort"
 	"github.com/cohortmix/cohortmix/cohort/group"
 	"github.com/cohortmix/cohortmix/cohort/synth"
@@ -26,50 +25,6 @@ func syntheticCohort(t *testing.T, so synth.Options) string {
 		t.Fatal(err)
 	}
 	return path
-}
-
-// plantedScenario writes a member of the scenario family at the benchmark's size, reads it as
-// the recovery benchmark does (the planted state of each window as the label column) and gives
-// the table (closed when the test ends), the default options for it and each participant's
-// planted group in the table's order.
-func plantedScenario(t *testing.T, scenario uint64) (*cohort.Table, Options, []int) {
-	t.Helper()
-	path := filepath.Join(t.TempDir(), "c.csv")
-	truth, err := synth.WriteFile(path, synth.Options{Scenario: scenario, Seed: scenario, Participants: 200, Windows: 2016, Labels: true})
-	if err != nil {
-		t.Fatal(err)
-	}
-	o := Defaults(path)
-	o.Read.Label = "activity"
-	tab, err := cohort.Read(context.Background(), []string{path}, o.Read)
-	if err != nil {
-		t.Fatal(err)
-	}
-	t.Cleanup(func() { tab.Close() })
-	group := map[string]int{}
-	for _, tr := range truth {
-		group[tr.ID] = tr.Group
-	}
-	want := make([]int, len(tab.Units))
-	for i, u := range tab.Units {
-		want[i] = group[u.ID]
-	}
-	return tab, o, want
-}
-
-// fitScored runs the job on the table and gives the result, the adjusted Rand index of its groups
-// against want and its notes in one line.
-func fitScored(t *testing.T, tab *cohort.Table, o Options, want []int) (*Fitted, float64, string) {
-	t.Helper()
-	f, err := FitTable(context.Background(), tab, o)
-	if err != nil {
-		t.Fatal(err)
-	}
-	ari, err := cluster.AdjustedRand(want, f.Grouping.Labels)
-	if err != nil {
-		t.Fatal(err)
-	}
-	return f, ari, strings.Join(f.Notes, "; ")
 }
 
 // The fit kept among several is the medoid of their groupings by the adjusted Rand index: the

@@ -464,7 +464,7 @@ func FitSample(ctx context.Context, p *Plan, samples []*SamplePiece) (*FitPiece,
 	icc := normalize.NewICCSum(d)
 	var back []float64
 	for _, x := range units {
-		_, y, _, err := fp.States.AlignUnit(fp.Fit, x, nil)
+		_, _, y, err := fp.States.AlignUnit(fp.Fit, x, nil)
 		if err != nil {
 			return nil, err
 		}
@@ -695,7 +695,7 @@ func sampleGrouping(ctx context.Context, fit *normalize.Fit, st *profile.States,
 		lab := st.SampleLabels[i] // as the fit left them: the fit aligned these devices itself
 		if len(lab) == 0 {
 			var err error
-			if _, _, lab, err = st.AlignUnit(fit, x, nil); err != nil {
+			if _, lab, _, err = st.AlignUnit(fit, x, nil); err != nil {
 				return nil, err
 			}
 		}

@@ -107,7 +107,7 @@ func sampleTasks(ctx context.Context, f *Fitted, o Options, units [][]float64, i
 		for r, x := range units {
 			var labels []int
 			if states.Aligned() {
-				_, _, lab, err := states.AlignUnit(fit, x, nil)
+				_, lab, _, err := states.AlignUnit(fit, x, nil)
 				if err != nil {
 					return Sensitivity{}, err
 				}
