@@ -58,7 +58,11 @@ func windowFeatures(x, y, z []float64, rate float64, out []float64, sp *spectrum
 		vm[i] = r
 		vmSum += r
 		enmo += math.Max(r-1, 0)
-		angle += math.Atan2(z[i], math.Hypot(x[i], y[i]))
+		if h := math.Sqrt(x[i]*x[i] + y[i]*y[i]); h > 0 {
+			angle += math.Atan(z[i] / h)
+		} else {
+			angle += math.Atan2(z[i], h) // straight up or down, or no signal at all
+		}
 		peak = math.Max(peak, r)
 	}
 	vmMean := vmSum / fn

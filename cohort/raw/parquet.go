@@ -6,8 +6,10 @@ import (
 	"fmt"
 	"io"
 	"os"
+	"slices"
 	"strconv"
 	"strings"
+	"sync"
 	"time"
 
 	"github.com/cohortmix/cohortmix/cohort/pqframe"
@@ -108,6 +110,14 @@ func scanParquet(path string, o Options, each func(l *layout, s sample) error) e
 	return nil
 }
 
+// groupBuf holds the columns of one row group as read, for the next row group to reuse.
+type groupBuf struct {
+	axes  [3][]float64
+	times []int64
+}
+
+var groupBufs sync.Pool
+
 // scanGroup reads one row group, column by column, then hands its rows to each in order.
 func (r *pqRecording) scanGroup(part byteRange, l layout, each func(l *layout, s sample) error) (err error) {
 	defer func() {
@@ -121,17 +131,30 @@ func (r *pqRecording) scanGroup(part byteRange, l layout, each func(l *layout, s
 		return fmt.Errorf("%s: a row group of %d rows; the file is damaged: %w", r.path, n, ErrInput)
 	}
 	chunks := rg.ColumnChunks()
-	var axes [3][]float64
+	buf, _ := groupBufs.Get().(*groupBuf)
+	if buf == nil {
+		buf = new(groupBuf)
+	}
+	defer groupBufs.Put(buf)
+	axes := &buf.axes
 	for a, c := range []int{l.x, l.y, l.z} {
-		if axes[a], err = r.numbers(chunks[c], n, c, part.line); err != nil {
+		if axes[a], err = r.numbers(chunks[c], n, c, part.line, axes[a]); err != nil {
 			return err
 		}
 	}
 	var times []int64
 	var timeText [][]byte
 	var ids []string
-	if r.unit > 0 || r.kinds[l.t].Kind() != parquet.ByteArray {
-		vals, err := r.numbers(chunks[l.t], n, l.t, part.line)
+	if r.unit > 0 && r.kinds[l.t].Kind() == parquet.Int64 {
+		if buf.times, err = r.ints(chunks[l.t], n, l.t, part.line, buf.times); err != nil {
+			return err
+		}
+		times = buf.times
+		for i := range times {
+			times[i] *= int64(r.unit)
+		}
+	} else if r.unit > 0 || r.kinds[l.t].Kind() != parquet.ByteArray {
+		vals, err := r.numbers(chunks[l.t], n, l.t, part.line, nil)
 		if err != nil {
 			return err
 		}
@@ -164,25 +187,32 @@ func (r *pqRecording) scanGroup(part byteRange, l layout, each func(l *layout, s
 			}
 		}
 	}
+	for a, vals := range axes {
+		for i, v := range vals {
+			if v != v || v > 1e6 || v < -1e6 {
+				return fmt.Errorf("%s:%d:%d: %v is not a number of acceleration: %w", r.path, part.line+1+i, []int{l.x, l.y, l.z}[a]+1, v, ErrInput)
+			}
+		}
+	}
+	if times != nil { // numbers are instants
+		if err := r.zone(&l, true, part.line+1); err != nil {
+			return err
+		}
+	}
 	for i := 0; i < n; i++ {
 		s := sample{id: l.fileID, line: part.line + 1 + i, a: [3]float64{axes[0][i], axes[1][i], axes[2][i]}}
 		if ids != nil {
 			s.id = ids[i]
 		}
-		zoned := true
 		if times != nil {
 			s.t = times[i]
-		} else if s.t, zoned, err = parseTime(timeText[i]); err != nil {
-			return fmt.Errorf("%s:%d:%d: %v: %w", r.path, s.line, l.t+1, err, ErrInput)
-		}
-		if !l.kindKnown {
-			l.zoned, l.kindKnown = zoned, true
-		} else if zoned != l.zoned {
-			return fmt.Errorf("%s:%d:%d: a time %s where the file's first time was %s; give every time in one form: %w", r.path, s.line, l.t+1, zoneWord(zoned), zoneWord(l.zoned), ErrInput)
-		}
-		for a, v := range s.a {
-			if v != v || v > 1e6 || v < -1e6 {
-				return fmt.Errorf("%s:%d:%d: %v is not a number of acceleration: %w", r.path, s.line, []int{l.x, l.y, l.z}[a]+1, v, ErrInput)
+		} else {
+			var zoned bool
+			if s.t, zoned, err = parseTime(timeText[i]); err != nil {
+				return fmt.Errorf("%s:%d:%d: %v: %w", r.path, s.line, l.t+1, err, ErrInput)
+			}
+			if err := r.zone(&l, zoned, s.line); err != nil {
+				return err
 			}
 		}
 		if err := each(&l, s); err != nil {
@@ -192,10 +222,21 @@ func (r *pqRecording) scanGroup(part byteRange, l layout, each func(l *layout, s
 	return nil
 }
 
+// zone records whether the recording's times carry an offset, from its first time, and refuses
+// a time at line of the other form.
+func (r *pqRecording) zone(l *layout, zoned bool, line int) error {
+	if !l.kindKnown {
+		l.zoned, l.kindKnown = zoned, true
+	} else if zoned != l.zoned {
+		return fmt.Errorf("%s:%d:%d: a time %s where the file's first time was %s; give every time in one form: %w", r.path, line, l.t+1, zoneWord(zoned), zoneWord(l.zoned), ErrInput)
+	}
+	return nil
+}
+
 // numbers reads the n values of a numeric column chunk (doubles, floats or integers; no empty
 // cell) as float64, page by page.
-func (r *pqRecording) numbers(chunk parquet.ColumnChunk, n, col, line int) ([]float64, error) {
-	out := make([]float64, 0, n)
+func (r *pqRecording) numbers(chunk parquet.ColumnChunk, n, col, line int, dst []float64) ([]float64, error) {
+	out := slices.Grow(dst[:0], n)
 	err := r.pages(chunk, col, line, func(page parquet.Page) error {
 		if page.NumNulls() > 0 {
 			return fmt.Errorf("%s:%d:%d: an empty cell in column %d; every sample needs its time and x, y, z: %w", r.path, line+1+len(out), col+1, col+1, ErrInput)
@@ -204,9 +245,21 @@ func (r *pqRecording) numbers(chunk parquet.ColumnChunk, n, col, line int) ([]fl
 		if dr, ok := vr.(parquet.DoubleReader); ok {
 			k := int(page.NumValues())
 			start := len(out)
-			out = append(out, make([]float64, k)...)
+			out = slices.Grow(out, k)[:start+k]
 			got, err := dr.ReadDoubles(out[start:])
 			out = out[:start+got]
+			if err != nil && !errors.Is(err, io.EOF) {
+				return err
+			}
+			return nil
+		}
+		if ir, ok := vr.(parquet.Int64Reader); ok {
+			k := int(page.NumValues())
+			buf := make([]int64, k)
+			got, err := ir.ReadInt64s(buf)
+			for _, v := range buf[:got] {
+				out = append(out, float64(v))
+			}
 			if err != nil && !errors.Is(err, io.EOF) {
 				return err
 			}
@@ -223,6 +276,36 @@ func (r *pqRecording) numbers(chunk parquet.ColumnChunk, n, col, line int) ([]fl
 			default:
 				return fmt.Errorf("%s:%d:%d: %q is not a number: %w", r.path, line+1+len(out), col+1, v.String(), ErrInput)
 			}
+			return nil
+		})
+	})
+	if err == nil && len(out) != n {
+		err = fmt.Errorf("%s: column %d holds %d of its %d rows; the file is damaged: %w", r.path, col+1, len(out), n, ErrInput)
+	}
+	return out, err
+}
+
+// ints reads the n values of an INT64 column chunk (no empty cell), page by page.
+func (r *pqRecording) ints(chunk parquet.ColumnChunk, n, col, line int, dst []int64) ([]int64, error) {
+	out := slices.Grow(dst[:0], n)
+	err := r.pages(chunk, col, line, func(page parquet.Page) error {
+		if page.NumNulls() > 0 {
+			return fmt.Errorf("%s:%d:%d: an empty cell in column %d; every sample needs its time and x, y, z: %w", r.path, line+1+len(out), col+1, col+1, ErrInput)
+		}
+		vr := page.Values()
+		if ir, ok := vr.(parquet.Int64Reader); ok {
+			k := int(page.NumValues())
+			start := len(out)
+			out = slices.Grow(out, k)[:start+k]
+			got, err := ir.ReadInt64s(out[start:])
+			out = out[:start+got]
+			if err != nil && !errors.Is(err, io.EOF) {
+				return err
+			}
+			return nil
+		}
+		return eachValue(vr, func(v parquet.Value) error {
+			out = append(out, v.Int64())
 			return nil
 		})
 	})

@@ -6,7 +6,6 @@ import (
 	"fmt"
 	"io"
 	"math"
-	"slices"
 	"strconv"
 	"strings"
 	"time"
@@ -25,8 +24,8 @@ type firstPass struct {
 	lastLine  int
 	steps     []float64 // the first positive steps between samples, in s
 	vms       []float64 // the first samples' vector magnitudes
-	blocks    []chunk   // the 10-second blocks' sums, in order
-	chunks    []chunk   // the 15-minute chunks' sums, in order
+	blocks    []chunk   // the 10-second blocks' sums, in order (the 15-minute chunks are made of them)
+	blockEnd  int64     // the time the last block ends (Unix ns)
 }
 
 // firstSamples is how many samples the units and the rate are read from.
@@ -52,8 +51,13 @@ func (f *firstPass) add(s sample, path string) error {
 	if len(f.vms) < firstSamples {
 		f.vms = append(f.vms, math.Sqrt(s.a[0]*s.a[0]+s.a[1]*s.a[1]+s.a[2]*s.a[2]))
 	}
-	f.blocks = addTo(f.blocks, floorDiv(s.t, int64(stillBlock)), s.a)
-	f.chunks = addTo(f.chunks, floorDiv(s.t, int64(nonWearChunk)), s.a)
+	if len(f.blocks) == 0 || s.t >= f.blockEnd { // times increase: a new block starts only here
+		key := floorDiv(s.t, int64(stillBlock))
+		f.blocks = addTo(f.blocks, key, s.a)
+		f.blockEnd = (key + 1) * int64(stillBlock)
+		return nil
+	}
+	f.blocks[len(f.blocks)-1].add(s.a)
 	return nil
 }
 
@@ -123,7 +127,7 @@ func (f *firstPass) finish(path string, o Options) (*plan, error) {
 		pl.cal = calibrate(stillMeans(f.blocks, factor))
 	}
 	f.p.Calibration = pl.cal
-	chunks := slices.Clone(f.chunks)
+	chunks := chunksOf(f.blocks)
 	for i := range chunks {
 		for a := 0; a < 3; a++ {
 			chunks[i].sum[a] *= factor
@@ -133,8 +137,19 @@ func (f *firstPass) finish(path string, o Options) (*plan, error) {
 		}
 	}
 	pl.nonWear = nonWearChunks(chunks, pl.cal.Scale, rate)
-	f.blocks, f.chunks = nil, nil
+	f.blocks = nil
 	return pl, nil
+}
+
+// chunksOf adds the 10-second blocks up into the 15-minute chunks they fall in (a chunk is 90
+// whole blocks, both counted from the epoch).
+func chunksOf(blocks []chunk) []chunk {
+	var out []chunk
+	for _, b := range blocks {
+		b.key = floorDiv(b.key*int64(stillBlock), int64(nonWearChunk))
+		out = joinSums(out, []chunk{b})
+	}
+	return out
 }
 
 // secondPass computes one participant's windows.
@@ -143,7 +158,8 @@ type secondPass struct {
 	pl      *plan
 	o       Options
 	zoned   bool
-	window  int64
+	window  int64 // the current window's number, counted from the epoch
+	end     int64 // the time its next window starts (Unix ns)
 	x, y, z []float64
 	feat    []float64
 	sp      spectrum
@@ -205,20 +221,30 @@ func parquetSchema() (*parquet.Schema, map[string]int) {
 	return schema, col
 }
 
+// add takes one sample (times increase): a sample past the current window's end starts the
+// next window after writing the current one.
 func (s *secondPass) add(smp sample) {
-	if w := floorDiv(smp.t, int64(s.o.Window)); w != s.window || len(s.x) == 0 {
-		s.flush()
-		s.window = w
-	}
-	var c [3]float64
-	for a, v := range smp.a {
-		v *= s.pl.factor
-		if math.Abs(v) >= 0.99*s.o.Range {
-			s.p.Clipped++
+	if smp.t >= s.end || len(s.x) == 0 {
+		w := floorDiv(smp.t, int64(s.o.Window))
+		if w != s.window || len(s.x) == 0 {
+			s.flush()
+			s.window = w
 		}
-		c[a] = s.pl.cal.Scale[a]*v + s.pl.cal.Offset[a]
+		s.end = (w + 1) * int64(s.o.Window)
 	}
-	s.x, s.y, s.z = append(s.x, c[0]), append(s.y, c[1]), append(s.z, c[2])
+	f, clip := s.pl.factor, 0.99*s.o.Range
+	cal := &s.pl.cal
+	x, y, z := smp.a[0]*f, smp.a[1]*f, smp.a[2]*f
+	if math.Abs(x) >= clip || math.Abs(y) >= clip || math.Abs(z) >= clip {
+		for _, v := range [3]float64{x, y, z} {
+			if math.Abs(v) >= clip {
+				s.p.Clipped++
+			}
+		}
+	}
+	s.x = append(s.x, cal.Scale[0]*x+cal.Offset[0])
+	s.y = append(s.y, cal.Scale[1]*y+cal.Offset[1])
+	s.z = append(s.z, cal.Scale[2]*z+cal.Offset[2])
 }
 
 // flush writes the current window, when it holds enough of its samples.

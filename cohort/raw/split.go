@@ -158,7 +158,6 @@ func runFileSplit(ctx context.Context, path string, o Options, col map[string]in
 		f.p.Samples += part.p.Samples
 		f.last, f.lastLine = part.last, part.lastLine
 		f.blocks = joinSums(f.blocks, part.blocks)
-		f.chunks = joinSums(f.chunks, part.chunks)
 		return nil
 	})
 	if err != nil {
@@ -192,8 +191,7 @@ func runFileSplit(ctx context.Context, path string, o Options, col map[string]in
 				*part.zoned = l.zoned
 				sec.zoned = l.zoned
 			}
-			w := floorDiv(s.t, int64(o.Window))
-			if len(sec.x) > 0 && w != sec.window && part.head == nil { // the first window: kept for the join
+			if part.head == nil && len(sec.x) > 0 && s.t >= sec.end && floorDiv(s.t, int64(o.Window)) != sec.window { // the first window: kept for the join
 				part.head = &window{key: sec.window, x: clone(sec.x), y: clone(sec.y), z: clone(sec.z)}
 				sec.x, sec.y, sec.z = sec.x[:0], sec.y[:0], sec.z[:0]
 			}
