@@ -149,16 +149,11 @@ func (c *chunk) add(a [3]float64) {
 		c.lo, c.hi = a, a
 	}
 	c.n++
-	for i, v := range a { // v is a number (the readers refuse NaN), so plain comparisons serve
-		c.sum[i] += v
-		c.sum2[i] += v * v
-		if v < c.lo[i] {
-			c.lo[i] = v
-		}
-		if v > c.hi[i] {
-			c.hi[i] = v
-		}
-	}
+	x, y, z := a[0], a[1], a[2] // numbers: the readers refuse NaN
+	c.sum[0], c.sum[1], c.sum[2] = c.sum[0]+x, c.sum[1]+y, c.sum[2]+z
+	c.sum2[0], c.sum2[1], c.sum2[2] = c.sum2[0]+x*x, c.sum2[1]+y*y, c.sum2[2]+z*z
+	c.lo[0], c.lo[1], c.lo[2] = min(c.lo[0], x), min(c.lo[1], y), min(c.lo[2], z)
+	c.hi[0], c.hi[1], c.hi[2] = max(c.hi[0], x), max(c.hi[1], y), max(c.hi[2], z)
 }
 
 // nonWearChunks marks the chunks (by key) that fall in a non-wear span, with the calibration's
