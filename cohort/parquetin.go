@@ -159,7 +159,8 @@ func (r *reader) readParquet(p string) (err error) {
 	if err != nil {
 		return &InputError{File: p, Msg: "cannot read: " + err.Error(), Err: ErrOpen, Cause: err}
 	}
-	r.files = append(r.files, FileInfo{Path: p, SHA256: hexsum, Bytes: size, Rows: rowNo - 1})
+	madeBy, _ := pf.Lookup(MadeByKey)
+	r.files = append(r.files, FileInfo{Path: p, SHA256: hexsum, Bytes: size, Rows: rowNo - 1, MadeBy: madeBy})
 	r.rows += rowNo - 1
 	r.progress()
 	return nil

@@ -238,6 +238,27 @@ type FileInfo struct {
 	// Delimiter ("comma", "semicolon" or "tab") and Decimal ("point" or "comma") say how a
 	// text table was read; "" for sheets and Parquet.
 	Delimiter, Decimal string
+	// MadeBy is the record of how the table was made, where the features step made it: the
+	// JSON it keeps in a Parquet table's metadata (MadeByKey) or in a file beside a text table
+	// (named as the table with MadeBySuffix added); "" otherwise.
+	MadeBy string
+}
+
+// MadeByKey and MadeBySuffix are where the features step (package raw) leaves its record of
+// how a table was made: raw.ProvenanceKey and raw.ProvenanceSuffix.
+const (
+	MadeByKey    = "cohortmix.features"
+	MadeBySuffix = ".features.json"
+)
+
+// madeByBeside reads the record of how a text table was made from the file beside it; "" when
+// there is none. A record larger than 64 KiB is no record of the features step.
+func madeByBeside(p string) string {
+	b, err := os.ReadFile(p + MadeBySuffix)
+	if err != nil || len(b) > 64<<10 {
+		return ""
+	}
+	return strings.TrimSpace(string(b))
 }
 
 // Table is what the reader returns: the units with their windows and the accounting. Close
@@ -589,7 +610,7 @@ func (r *reader) readFile(p string) error {
 		return &InputError{File: p, Line: 1, Msg: "has a header but no windows; each row should be one window", Err: ErrEmpty}
 	}
 	hexsum, n := sum()
-	r.files = append(r.files, FileInfo{Path: p, SHA256: hexsum, Bytes: n, Rows: rows, Delimiter: delimName[delim], Decimal: decimalName[r.comma]})
+	r.files = append(r.files, FileInfo{Path: p, SHA256: hexsum, Bytes: n, Rows: rows, Delimiter: delimName[delim], Decimal: decimalName[r.comma], MadeBy: madeByBeside(p)})
 	r.rows += rows
 	return nil
 }

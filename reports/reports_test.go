@@ -265,10 +265,10 @@ func TestModelRoundTripAndDamage(t *testing.T) {
 	good, _ := os.ReadFile(p)
 	cases := []struct{ name, edit, want string }{
 		{"not JSON", "}{", "not a model file"},
-		{"older schema", strings.Replace(string(good), `"version": 4`, `"version": 1`, 1), "schema version 1, this tool reads versions 2 to 4"},
+		{"older schema", strings.Replace(string(good), `"version": 5`, `"version": 1`, 1), "schema version 1, this tool reads versions 2 to 5"},
 		{"other file", `{"format":"something else","version":3}`, `format is "something else"`},
-		{"version 2 without its options", strings.Replace(string(good), `"version": 4`, `"version": 2`, 1), "a version 2 model without the settings it was fitted with"},
-		{"settings left out", resum(t, withoutField(t, good, "fit")), "a version 4 model without the settings"},
+		{"version 2 without its options", strings.Replace(string(good), `"version": 5`, `"version": 2`, 1), "a version 2 model without the settings it was fitted with"},
+		{"settings left out", resum(t, withoutField(t, good, "fit")), "a version 5 model without the settings"},
 		{"unknown field", strings.Replace(string(good), `"tool":`, `"extra": 1, "tool":`, 1), "damaged or hand-edited"},
 		{"wrong size", resum(t, strings.Replace(string(good), `"k": 4`, `"k": 5`, 1)), "states: k = 5 with 4 centroids"},
 		{"bad spread", resum(t, strings.Replace(string(good), `"spread": [

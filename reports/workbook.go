@@ -9,9 +9,13 @@ import (
 	"github.com/cohortmix/cohortmix/cluster/groupstat"
 	"github.com/cohortmix/cohortmix/cohort"
 	"github.com/cohortmix/cohortmix/cohort/group"
+	"github.com/cohortmix/cohortmix/cohort/job"
+	"github.com/cohortmix/cohortmix/cohort/raw"
 	"github.com/cohortmix/cohortmix/cohort/scratch"
 	"github.com/cohortmix/cohortmix/profile"
 	"github.com/xuri/excelize/v2"
+	"strconv"
+	"strings"
 )
 
 // Sheet names, in the order of the tabs.
@@ -819,6 +823,11 @@ func settingsSheet(f *excelize.File, st *styles, r *Result) error {
 	if err := t.put(v{"tool version", st.text}, v{r.Tool + " " + r.Version, st.text}); err != nil {
 		return err
 	}
+	if made := madeByText(r); made != "" {
+		if err := t.put(v{"how the features were made", st.text}, v{made, st.wrap}); err != nil {
+			return err
+		}
+	}
 	for _, n := range analystNotes(r) {
 		if err := t.put(v{"note on the method", st.text}, v{n, st.wrap}); err != nil {
 			return err
@@ -834,6 +843,29 @@ func settingsSheet(f *excelize.File, st *styles, r *Result) error {
 		}
 	}
 	return t.close(true)
+}
+
+// madeByText says in a line how the features were made, where the features step made them (the
+// first input's record; the warnings say where the inputs differ); "" otherwise.
+func madeByText(r *Result) string {
+	made := job.MadeBy(r.Files)
+	if made == "" {
+		return ""
+	}
+	p, err := raw.ParseProvenance("", made)
+	if err != nil {
+		return "by the features step, in a record this version cannot read"
+	}
+	rate := "read from the times"
+	if p.Rate > 0 {
+		rate = strconv.FormatFloat(p.Rate, 'g', -1, 64) + " Hz"
+	}
+	cal := "each device autocalibrated on its still periods (van Hees et al. 2014)"
+	if !p.Calibration {
+		cal = "no calibration"
+	}
+	return fmt.Sprintf("%s, features step (features version %d): windows of %s; units %s; sampling rate %s; sensor range %g g; %s; non-wear by %s; %d features (%s)",
+		p.Tool, p.Version, p.Window, p.Units, rate, p.Range, cal, p.NonWear, len(p.Features), strings.Join(p.Features, ", "))
 }
 
 // rhythmHeads are the Participants sheet's columns of rest-activity measures.

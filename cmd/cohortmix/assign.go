@@ -164,6 +164,7 @@ func assignRun(ctx context.Context, o *assignOptions) error {
 	}
 	medians := job.FeatureMedians(f)
 	res.Warnings = append(res.Warnings, group.CheckRanges(t.Features, m.FeatureMeds, medians)...)
+	res.Warnings = append(res.Warnings, job.MadeByWarnings(t.Files, m.Read.FeaturesStep)...)
 	res.Changes = job.AssignChanges(m, res, o.Model)
 	if err := ctx.Err(); err != nil {
 		return err

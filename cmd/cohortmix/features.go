@@ -111,7 +111,12 @@ func featuresRun(ctx context.Context, o *featuresOptions) error {
 		}
 		o.Report = base + "-report.csv"
 	}
-	plan, err := reports.PlanOutputs([]reports.Target{{Flag: "--out", Path: o.Out}, {Flag: "--report", Path: o.Report}}, inputs, "", o.Force)
+	o.Raw.Tool = "cohortmix " + version
+	targets := []reports.Target{{Flag: "--out", Path: o.Out}, {Flag: "--report", Path: o.Report}}
+	if !o.Raw.Parquet { // a CSV table's record of how it was made goes beside it
+		targets = append(targets, reports.Target{Flag: "--out's record", Path: o.Out + raw.ProvenanceSuffix})
+	}
+	plan, err := reports.PlanOutputs(targets, inputs, "", o.Force)
 	if err != nil {
 		return err
 	}
@@ -122,6 +127,14 @@ func featuresRun(ctx context.Context, o *featuresOptions) error {
 		return err
 	}); err != nil {
 		return err
+	}
+	if !o.Raw.Parquet {
+		if err := plan.Write("--out's record", func(w io.Writer) error {
+			_, err := io.WriteString(w, raw.ProvenanceOf(o.Raw, o.Raw.Tool).JSON()+"\n")
+			return err
+		}); err != nil {
+			return err
+		}
 	}
 	if err := plan.Write("--report", func(w io.Writer) error {
 		if strings.HasSuffix(strings.ToLower(o.Report), ".xlsx") {

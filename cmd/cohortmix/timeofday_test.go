@@ -123,6 +123,22 @@ func TestRawDemoFindsThePlantedGroups(t *testing.T) {
 	if len(rows) != 41 || rows[1][len(rows[1])-1] != "calibrated" {
 		t.Errorf("the Devices sheet has %d rows; the first: %v", len(rows), rows[1])
 	}
+	// Issue 31, point 7: the workbook and the model record how the features were made, from the
+	// file beside the CSV table and from the Parquet table's metadata alike; a later wave whose
+	// features were made with other windows is placed with a warning that names the difference.
+	for _, book := range []string{"demo-results.xlsx", "p.xlsx"} {
+		if text := workbookText(t, filepath.Join(dir, book)); !strings.Contains(text, "how the features were made") || !strings.Contains(text, "windows of 1m0s") {
+			t.Errorf("%s does not say how the features were made", book)
+		}
+	}
+	if model := string(readBytes(t, filepath.Join(dir, "demo-model.json"))); !strings.Contains(model, `"FeaturesStep": "{\"format\":\"cohortmix features\"`) {
+		t.Errorf("the model does not keep the features step's record")
+	}
+	mustRun(t, "features", filepath.Join(dir, "raw-recordings"), "--window", "30s", "--out", filepath.Join(dir, "w30.csv"))
+	placed := mustRun(t, "assign", filepath.Join(dir, "w30.csv"), "--model", filepath.Join(dir, "demo-model.json"), "--out", filepath.Join(dir, "a30.xlsx"))
+	if !strings.Contains(placed, "its features were made otherwise than those of the model's data (window 30s, not 1m0s)") {
+		t.Errorf("assign of features made with 30 s windows said:\n%s", placed)
+	}
 	env, _, errb := testEnv()
 	if code := run(context.Background(), env, []string{"features", filepath.Join(dir, "demo-windows.csv"), "--out", filepath.Join(dir, "again.csv")}); code != 1 ||
 		!strings.Contains(errb.String(), "demo-windows.csv:1: no column for the time among participant, window,") || strings.Count(strings.TrimSpace(errb.String()), "\n") != 0 {

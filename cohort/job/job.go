@@ -440,6 +440,7 @@ func Describe(f *Fitted, stateNames, groupNames []string) (*Result, error) {
 	res := &Result{Features: t.Features, OrderKind: t.OrderKind, Quality: t.Quality, Files: t.Files, Norm: fit, States: states, Grouping: g,
 		StateDesc: f.Desc, Labels: f.Labels}
 	res.Warnings = append(append(res.Warnings, fit.Warnings...), f.Warnings...)
+	res.Warnings = append(res.Warnings, MadeByWarnings(t.Files, "")...)
 	res.Reproducibility = f.Reproducibility
 	res.Notes = append(res.Notes, f.Notes...)
 	if f.Sensitivity != nil {

@@ -21,6 +21,7 @@ func NewModel(r *Result, read cohort.ReadOptions, featureMeds [][3]float64) *mod
 		Grouping: modelfile.Grouping{Method: r.Grouping.Method.String(), K: r.Grouping.K, Names: r.GroupNames, Centroids: r.Grouping.Centroids, Atypical: r.AtypicalCut},
 	}
 	m.Grouping.Shares, _, _ = r.GroupMeans()
+	m.Read.FeaturesStep = MadeBy(r.Files)
 	if mx := r.Grouping.Mixture; mx != nil {
 		m.Grouping.Mixture = &modelfile.Mixture{Weights: mx.Weights, Alpha: mx.Alpha, Blocks: mx.Blocks}
 	}

@@ -31,7 +31,7 @@ import (
 // Format and Version identify the model file's schema.
 const (
 	Format  = "cohortmix model"
-	Version = 4 // 2: log scales, the align step's axes, the aligned states' postures, pseudonymization; 3: the fit's settings typed (FitSettings); 4: the devices' calibration, the mixture of the groups
+	Version = 5 // 2: log scales, the align step's axes, the aligned states' postures, pseudonymization; 3: the fit's settings typed (FitSettings); 4: the devices' calibration, the mixture of the groups; 5: the features step's record (ReadSettings.FeaturesStep)
 )
 
 // oldestModel is the oldest model version this tool still reads: a version-2 file keeps its
@@ -89,6 +89,9 @@ type ReadSettings struct {
 	ValidDay   string `json:",omitempty"`
 	ValidDays  int    `json:",omitempty"`
 	WeekendDay bool   `json:",omitempty"`
+	// FeaturesStep is the record of how the features of the fitted data were made, where the
+	// features step made them (cohort.FileInfo.MadeBy, version 5); "" otherwise.
+	FeaturesStep string `json:",omitempty"`
 }
 
 // ReadSettingsOf records the reading settings of a run.

@@ -35,6 +35,9 @@ type Options struct {
 	NoCalibration     bool // leave the devices as read
 	Parquet           bool // write the table as Parquet (parquetSchema) instead of CSV
 	Workers           int  // files, or ranges of a long file, processed at once; 0 means one per core
+	// Tool names the program and its version in the table's record of how it was made
+	// (Provenance).
+	Tool string
 	// RangeBytes is the size of the ranges a long one-participant text recording is read in on
 	// all cores (split.go); 0 means 64 MiB. The table depends on it in the last digits only.
 	RangeBytes int64

@@ -377,3 +377,49 @@ func TestParquetRowGroupsOnAllCores(t *testing.T) {
 		}
 	}
 }
+
+// Issue 31, point 7: a table of windows carries the record of how it was made (in a Parquet
+// table's metadata; beside a CSV table, as the command writes it), the cohort reader finds it in
+// both, and a record of other settings is told apart and its difference named.
+func TestTablesCarryHowTheyWereMade(t *testing.T) {
+	t.Parallel()
+	if cohort.MadeByKey != ProvenanceKey || cohort.MadeBySuffix != ProvenanceSuffix {
+		t.Fatalf("the reader looks for %q and %q, the step writes %q and %q", cohort.MadeByKey, cohort.MadeBySuffix, ProvenanceKey, ProvenanceSuffix)
+	}
+	dir := t.TempDir()
+	if _, err := synth.WriteRaw(dir, synth.RawOptions{Participants: 3, Hours: 1, Rate: 10, Seed: 2}); err != nil {
+		t.Fatal(err)
+	}
+	ins, _ := filepath.Glob(filepath.Join(dir, "R*.csv"))
+	o := Options{Tool: "cohortmix test"}
+	want := ProvenanceOf(o, o.Tool)
+	for _, name := range []string{"w.parquet", "w.csv"} {
+		o.Parquet = strings.HasSuffix(name, ".parquet")
+		var out bytes.Buffer
+		if _, err := Run(context.Background(), ins, &out, o); err != nil {
+			t.Fatal(err)
+		}
+		p := filepath.Join(dir, name)
+		os.WriteFile(p, out.Bytes(), 0o644)
+		if !o.Parquet {
+			os.WriteFile(p+ProvenanceSuffix, []byte(want.JSON()+"\n"), 0o644)
+		}
+		tab, err := cohort.Read(context.Background(), []string{p}, cohort.ReadOptions{ID: "participant", Order: "window", MinWindows: 1})
+		if err != nil {
+			t.Fatal(err)
+		}
+		made := tab.Files[0].MadeBy
+		tab.Close()
+		got, err := ParseProvenance(p, made)
+		if err != nil || !got.Same(want) || got.Tool != "cohortmix test" || got.Window != "1m0s" || len(got.Features) != len(FeatureNames) {
+			t.Errorf("%s: record %q (%v)", name, made, err)
+		}
+	}
+	other := ProvenanceOf(Options{Window: 30 * time.Second, NoCalibration: true}, "another tool")
+	if other.Same(want) || other.Differences(want) != "window 30s, not 1m0s; calibration false, not true" {
+		t.Errorf("differences: %q", other.Differences(want))
+	}
+	if !ProvenanceOf(Options{}, "another tool").Same(want) {
+		t.Error("records that differ only in the tool are not the same")
+	}
+}

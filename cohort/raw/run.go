@@ -299,7 +299,7 @@ func Run(ctx context.Context, inputs []string, w io.Writer, o Options) ([]Partic
 	if o.Parquet {
 		var schema *parquet.Schema
 		schema, col = parquetSchema()
-		pw = parquet.NewWriter(w, schema)
+		pw = parquet.NewWriter(w, schema, parquet.KeyValueMetadata(ProvenanceKey, ProvenanceOf(o, o.Tool).JSON()))
 	} else if _, err := io.WriteString(w, Header()); err != nil {
 		return nil, err
 	}
