@@ -317,13 +317,17 @@ func (opts Options) checkGroups() error {
 }
 
 // distances are the participants' distances for PAM and the silhouette (Jensen–Shannon on the
-// shares, or Euclidean in the grouping space x), nil where they would pass opts.MaxBytes and
-// the method can do without them.
+// shares, or Euclidean in the grouping space x): for PAM up to opts.MaxBytes, for the
+// silhouettes alone up to SilhouetteMatrixBytes; nil past them where the method can do without.
 func distances(x *mat.Dense, shares [][]float64, opts Options) (*cluster.Condensed, error) {
 	n, d := x.Dims()
 	var dist *cluster.Condensed
 	needDist := opts.Method.row().medoids
-	if cluster.CondensedBytes(n) <= opts.MaxBytes {
+	limit := min(opts.MaxBytes, SilhouetteMatrixBytes) // for the silhouettes alone
+	if needDist {
+		limit = opts.MaxBytes
+	}
+	if cluster.CondensedBytes(n) <= limit {
 		metric := cluster.Euclidean
 		if opts.Method.row().js {
 			metric = cluster.JensenShannon
@@ -459,13 +463,28 @@ func (g *Grouping) describe(ctx context.Context, x *mat.Dense, dist *cluster.Con
 	if g.CentroidTree, err = CentroidTree(ctx, opts.Method, g.Centroids); err != nil {
 		return err
 	}
-	if dist == nil {
+	if dist == nil && n > silhouetteSample {
 		if g.Note != "" {
 			g.Note += "; "
 		}
-		g.Note += fmt.Sprintf("silhouettes were computed for a sample of 5,000 participants (each against all): a full distance matrix on %s would need %s MiB", cohort.Thousands(n), cohort.Thousands(int(cluster.CondensedBytes(n)>>20)))
+		g.Note += sampledSilhouettes(n)
 	}
 	return nil
+}
+
+// SilhouetteMatrixBytes bounds the matrix of distances held for the silhouettes alone (64 MiB,
+// about 4,100 participants); past it each participant's silhouette is computed against all
+// others without one (for a sample of silhouetteSample participants past that number), so that
+// memory does not grow with the square of the cohort.
+const SilhouetteMatrixBytes = 64 << 20
+
+// silhouetteSample is how many participants' silhouettes are computed, each against all, where
+// there is no matrix of distances.
+const silhouetteSample = 5000
+
+// sampledSilhouettes says that the silhouettes of n participants were computed for a sample.
+func sampledSilhouettes(n int) string {
+	return fmt.Sprintf("silhouettes were computed for a sample of 5,000 participants (each against all): a full distance matrix on %s would need %s MiB", cohort.Thousands(n), cohort.Thousands(int(cluster.CondensedBytes(n)>>20)))
 }
 
 // sampleRows draws m of x's rows without replacement (a seeded partial Fisher–Yates shuffle, kept
@@ -513,7 +532,7 @@ func silhouetteOf(x *mat.Dense, dist *cluster.Condensed, lab []int, opts Options
 	if dist != nil {
 		return cluster.SilhouetteCondensed(dist, lab, cluster.SilhouetteOptions{Workers: opts.Workers})
 	}
-	return cluster.Silhouette(x, lab, cluster.SilhouetteOptions{SampleSize: 5000, Seed: opts.Seed, Workers: opts.Workers})
+	return cluster.Silhouette(x, lab, cluster.SilhouetteOptions{SampleSize: silhouetteSample, Seed: opts.Seed, Workers: opts.Workers})
 }
 
 // newCutter returns a function giving labels for k groups with the method; Ward builds its tree once.

@@ -265,8 +265,8 @@ func (g *Grouping) describeMixture(ctx context.Context, shares [][]float64, x *m
 	}
 	if g.K > 1 && !opts.NoStability {
 		var dist *cluster.Condensed
-		if cluster.CondensedBytes(n) <= max(opts.MaxBytes, 512<<20) {
-			if dist, err = cluster.Pairwise(emb, cluster.Euclidean, max(opts.MaxBytes, 512<<20), opts.Workers); err != nil {
+		if cluster.CondensedBytes(n) <= SilhouetteMatrixBytes {
+			if dist, err = cluster.Pairwise(emb, cluster.Euclidean, SilhouetteMatrixBytes, opts.Workers); err != nil {
 				return err
 			}
 		}

@@ -64,6 +64,10 @@ func sensitivity(ctx context.Context, f *Fitted, o Options, sample sampleUnits) 
 				defer oneMatrix.Unlock()
 			}
 			row := Sensitivity{Choice: "grouping method", Alternative: m.String(), Participants: len(shares)}
+			if need := cluster.CondensedBytes(len(shares)); m == group.PAMAitchison && need > group.SilhouetteMatrixBytes {
+				row.ARI, row.Skipped = math.NaN(), fmt.Sprintf("left out: PAM would hold a matrix of distances of %d MiB for %d participants, more than the %d MiB a refit may", need>>20, len(shares), group.SilhouetteMatrixBytes>>20)
+				return row, nil
+			}
 			g, err := group.Signatures(ctx, shares, group.Options{Method: m, Groups: []int{k}, Criterion: group.ByGap, Bootstrap: 2, Seed: o.Seed, Workers: o.Workers})
 			if err != nil {
 				return skipped(row, err), nil
