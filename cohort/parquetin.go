@@ -298,112 +298,8 @@ func (s *pqSpec) readGroup(ctx context.Context, rg parquet.RowGroup, before int,
 
 // readRows reads the next n rows of every column; first is the file row of the first.
 func (s *pqSpec) readRows(cols []int, cursors []*pqCursor, first, n int) (*parsedChunk, error) {
-	w := s.nf + 2
-	ro := s.roles
-	b := s.buffers(n)
-	c := &parsedChunk{vals: b.vals[:n*w], kinds: b.chunkKinds[:0]}
-	line := func(i int) int { return first + i + 2 }
-	ids := b.ids[:n]
-	var waves, labels, orders []string
-	if ro.wave >= 0 {
-		waves = b.waves[:n]
-	}
-	if s.labels {
-		labels = b.labels[:n]
-	}
-	if ro.order >= 0 && !s.intOrder {
-		orders = b.orders[:n]
-	}
-	kinds := b.kinds[:n]
-	// Each column is read into a slice of its own (the goroutines never write near each other)
-	// and laid out in rows afterwards.
-	ords := b.ords[:n]
-	feats := make([][]float64, s.nf)
-	for j := range feats {
-		feats[j] = b.feats[j][:n]
-	}
-	// trims counts, by column, the cells that had spaces around them, and the first one's row.
-	trims := make([]struct{ n, at int }, len(cols))
-	text := func(k, col int, dst []string, trim bool) func([]parquet.Value, int) *pqError {
-		return func(vals []parquet.Value, at int) *pqError {
-			for i, v := range vals {
-				t := pqText(v)
-				if off := textCellFault(t); off >= 0 {
-					return &pqError{at + i, &InputError{File: s.file, Line: line(at + i), Column: col + 1, Field: s.header[col], Msg: faultMsg(t[off]), Err: ErrNotText}}
-				}
-				if trim {
-					if tt := strings.TrimSpace(t); len(tt) != len(t) {
-						if trims[k].n == 0 {
-							trims[k].at = at + i
-						}
-						trims[k].n++
-						t = tt
-					}
-				}
-				if at+i > 0 && t == dst[at+i-1] {
-					t = dst[at+i-1] // one string for a run of equal cells
-				}
-				dst[at+i] = t
-			}
-			return nil
-		}
-	}
-	read := make([]func([]parquet.Value, int) *pqError, len(cols))
-	dsts := make([][]float64, len(cols)) // a feature column's slice, for readColumn's plain path
-	for k, col := range cols {
-		switch {
-		case col == ro.id:
-			read[k] = text(k, col, ids, true)
-		case col == ro.wave:
-			read[k] = text(k, col, waves, true)
-		case col == ro.label:
-			read[k] = text(k, col, labels, true)
-		case col == ro.order && orders != nil:
-			read[k] = text(k, col, orders, false)
-		case col == ro.order:
-			scale, kind := int64(1), byte('i')
-			if s.unit > 0 {
-				scale, kind = int64(s.unit), 't'
-			}
-			read[k] = func(vals []parquet.Value, at int) *pqError {
-				for i, v := range vals {
-					if v.IsNull() {
-						return &pqError{at + i, &InputError{File: s.file, Line: line(at + i), Column: col + 1, Field: s.header[col], Msg: "the order cell is empty; fill it in", Err: ErrOrder}}
-					}
-					if kind == 't' && (v.Int64() < minTime/scale || v.Int64() > maxTime/scale) {
-						t := time.Unix(0, 0).UTC().Add(time.Duration(v.Int64()/int64(time.Second/time.Duration(scale))) * time.Second)
-						return &pqError{at + i, &InputError{File: s.file, Line: line(at + i), Column: col + 1, Field: s.header[col], Msg: orderMsg(t.Format("2006-01-02T15:04:05")), Err: ErrOrder}}
-					}
-					ords[at+i] = v.Int64() * scale
-					kinds[at+i] = kind
-				}
-				return nil
-			}
-		default:
-			dst := feats[slices.Index(ro.features, col)]
-			dsts[k] = dst
-			read[k] = func(vals []parquet.Value, at int) *pqError {
-				for i, v := range vals {
-					var x float64
-					switch {
-					case v.IsNull():
-						x = math.NaN()
-					case v.Kind() == parquet.Double:
-						x = v.Double()
-					case v.Kind() == parquet.Float:
-						x = float64(v.Float())
-					default:
-						x = float64(v.Int64())
-					}
-					if math.IsInf(x, 0) || math.Abs(x) > maxMagnitude {
-						return &pqError{at + i, &InputError{File: s.file, Line: line(at + i), Column: col + 1, Field: s.header[col], Msg: numberMsg(strconv.FormatFloat(x, 'g', -1, 64), ',', ErrNonFinite), Err: ErrNonFinite}}
-					}
-					dst[at+i] = x
-				}
-				return nil
-			}
-		}
-	}
+	rr := s.newRowRead(first, n, len(cols))
+	read, dsts := rr.readers(cols)
 	found := make([]*pqError, len(cols))
 	par.Each(len(cols), s.workers, func(k int) {
 		found[k] = s.readColumn(cursors[k], n, cols[k], first, dsts[k], read[k])
@@ -415,64 +311,216 @@ func (s *pqSpec) readRows(cols []int, cursors []*pqCursor, first, n int) (*parse
 			bad = e
 		}
 	}
-	// The features are laid out in rows on all cores, a stretch of rows each, noting the rows
-	// with a missing cell; the rest of each row is filled in order below.
-	missing := b.missing[:n]
+	rr.layFeatures()
+	return rr.rows(bad)
+}
+
+// pqRowRead is one read of n rows from first: each column read into a slice of its own (the
+// goroutines never write near each other), then laid out in rows.
+type pqRowRead struct {
+	s                          *pqSpec
+	first, n, w                int
+	c                          *parsedChunk
+	ids, waves, labels, orders []string
+	kinds                      []byte
+	ords                       []int64
+	feats                      [][]float64
+	missing                    []bool
+	trims                      []struct{ n, at int } // by column: cells with spaces around them, and the first one's row
+}
+
+func (s *pqSpec) newRowRead(first, n, cols int) *pqRowRead {
+	w := s.nf + 2
+	b := s.buffers(n)
+	rr := &pqRowRead{s: s, first: first, n: n, w: w, c: &parsedChunk{vals: b.vals[:n*w], kinds: b.chunkKinds[:0]},
+		ids: b.ids[:n], kinds: b.kinds[:n], ords: b.ords[:n], missing: b.missing[:n], trims: make([]struct{ n, at int }, cols)}
+	if s.roles.wave >= 0 {
+		rr.waves = b.waves[:n]
+	}
+	if s.labels {
+		rr.labels = b.labels[:n]
+	}
+	if s.roles.order >= 0 && !s.intOrder {
+		rr.orders = b.orders[:n]
+	}
+	rr.feats = make([][]float64, s.nf)
+	for j := range rr.feats {
+		rr.feats[j] = b.feats[j][:n]
+	}
+	return rr
+}
+
+// line is the input line of row i.
+func (rr *pqRowRead) line(i int) int { return rr.first + i + 2 }
+
+// readers are, for each column read, the function that takes its values into the read's slices,
+// and for a feature column its slice (for readColumn's plain path).
+func (rr *pqRowRead) readers(cols []int) ([]func([]parquet.Value, int) *pqError, [][]float64) {
+	ro := rr.s.roles
+	read := make([]func([]parquet.Value, int) *pqError, len(cols))
+	dsts := make([][]float64, len(cols))
+	for k, col := range cols {
+		switch {
+		case col == ro.id:
+			read[k] = rr.text(k, col, rr.ids, true)
+		case col == ro.wave:
+			read[k] = rr.text(k, col, rr.waves, true)
+		case col == ro.label:
+			read[k] = rr.text(k, col, rr.labels, true)
+		case col == ro.order && rr.orders != nil:
+			read[k] = rr.text(k, col, rr.orders, false)
+		case col == ro.order:
+			read[k] = rr.order(col)
+		default:
+			dsts[k] = rr.feats[slices.Index(ro.features, col)]
+			read[k] = rr.feature(col, dsts[k])
+		}
+	}
+	return read, dsts
+}
+
+// text takes a text column's cells into dst, checking every byte, trimming spaces around them
+// where trim is set (counted in trims), and keeping one string for a run of equal cells.
+func (rr *pqRowRead) text(k, col int, dst []string, trim bool) func([]parquet.Value, int) *pqError {
+	s := rr.s
+	return func(vals []parquet.Value, at int) *pqError {
+		for i, v := range vals {
+			t := pqText(v)
+			if off := textCellFault(t); off >= 0 {
+				return &pqError{at + i, &InputError{File: s.file, Line: rr.line(at + i), Column: col + 1, Field: s.header[col], Msg: faultMsg(t[off]), Err: ErrNotText}}
+			}
+			if trim {
+				if tt := strings.TrimSpace(t); len(tt) != len(t) {
+					if rr.trims[k].n == 0 {
+						rr.trims[k].at = at + i
+					}
+					rr.trims[k].n++
+					t = tt
+				}
+			}
+			if at+i > 0 && t == dst[at+i-1] {
+				t = dst[at+i-1] // one string for a run of equal cells
+			}
+			dst[at+i] = t
+		}
+		return nil
+	}
+}
+
+// order takes an integer or TIMESTAMP order column's cells into the order keys.
+func (rr *pqRowRead) order(col int) func([]parquet.Value, int) *pqError {
+	s := rr.s
+	scale, kind := int64(1), byte('i')
+	if s.unit > 0 {
+		scale, kind = int64(s.unit), 't'
+	}
+	return func(vals []parquet.Value, at int) *pqError {
+		for i, v := range vals {
+			if v.IsNull() {
+				return &pqError{at + i, &InputError{File: s.file, Line: rr.line(at + i), Column: col + 1, Field: s.header[col], Msg: "the order cell is empty; fill it in", Err: ErrOrder}}
+			}
+			if kind == 't' && (v.Int64() < minTime/scale || v.Int64() > maxTime/scale) {
+				t := time.Unix(0, 0).UTC().Add(time.Duration(v.Int64()/int64(time.Second/time.Duration(scale))) * time.Second)
+				return &pqError{at + i, &InputError{File: s.file, Line: rr.line(at + i), Column: col + 1, Field: s.header[col], Msg: orderMsg(t.Format("2006-01-02T15:04:05")), Err: ErrOrder}}
+			}
+			rr.ords[at+i] = v.Int64() * scale
+			rr.kinds[at+i] = kind
+		}
+		return nil
+	}
+}
+
+// feature takes a numeric feature column's cells into dst (an empty cell is NaN, missing).
+func (rr *pqRowRead) feature(col int, dst []float64) func([]parquet.Value, int) *pqError {
+	s := rr.s
+	return func(vals []parquet.Value, at int) *pqError {
+		for i, v := range vals {
+			var x float64
+			switch {
+			case v.IsNull():
+				x = math.NaN()
+			case v.Kind() == parquet.Double:
+				x = v.Double()
+			case v.Kind() == parquet.Float:
+				x = float64(v.Float())
+			default:
+				x = float64(v.Int64())
+			}
+			if math.IsInf(x, 0) || math.Abs(x) > maxMagnitude {
+				return &pqError{at + i, &InputError{File: s.file, Line: rr.line(at + i), Column: col + 1, Field: s.header[col], Msg: numberMsg(strconv.FormatFloat(x, 'g', -1, 64), ',', ErrNonFinite), Err: ErrNonFinite}}
+			}
+			dst[at+i] = x
+		}
+		return nil
+	}
+}
+
+// layFeatures lays the features out in rows on all cores, a stretch of rows each, noting the
+// rows with a missing cell; the rest of each row is filled in order by rows.
+func (rr *pqRowRead) layFeatures() {
 	const stretch = 4096
-	par.Each((n+stretch-1)/stretch, s.workers, func(p int) {
+	n, w, nf := rr.n, rr.w, rr.s.nf
+	par.Each((n+stretch-1)/stretch, rr.s.workers, func(p int) {
 		for i := p * stretch; i < min(n, (p+1)*stretch); i++ {
-			row := c.vals[i*w : i*w+s.nf]
+			row := rr.c.vals[i*w : i*w+nf]
 			m := false
-			for j, f := range feats {
+			for j, f := range rr.feats {
 				v := f[i]
 				row[j] = v
 				m = m || v != v
 			}
-			missing[i] = m
+			rr.missing[i] = m
 		}
 	})
-	for _, tr := range trims {
-		if tr.n > 0 && (c.trimmed == 0 || line(tr.at) < c.trimLine) {
-			c.trimLine = line(tr.at)
+}
+
+// rows fills in each row's order key and source and adds its window, in order, stopping at the
+// first problem in row order (bad, from the columns, or an empty id or wave); it returns the
+// chunk with the order cells the kinds' check must see.
+func (rr *pqRowRead) rows(bad *pqError) (*parsedChunk, error) {
+	s, c, w, ro := rr.s, rr.c, rr.w, rr.s.roles
+	for _, tr := range rr.trims {
+		if tr.n > 0 && (c.trimmed == 0 || rr.line(tr.at) < c.trimLine) {
+			c.trimLine = rr.line(tr.at)
 		}
 		c.trimmed += tr.n
 	}
-	for i := 0; i < n; i++ {
+	for i := 0; i < rr.n; i++ {
 		if bad != nil && i == bad.row {
 			return nil, bad.err
 		}
 		row := c.vals[i*w : (i+1)*w]
-		row[s.nf] = math.Float64frombits(uint64(ords[i]))
-		if ids[i] == "" {
-			return nil, &InputError{File: s.file, Line: line(i), Column: ro.id + 1, Field: s.header[ro.id], Msg: "participant id is empty; fill it in or remove the row", Err: ErrMissingID}
+		row[s.nf] = math.Float64frombits(uint64(rr.ords[i]))
+		if rr.ids[i] == "" {
+			return nil, &InputError{File: s.file, Line: rr.line(i), Column: ro.id + 1, Field: s.header[ro.id], Msg: "participant id is empty; fill it in or remove the row", Err: ErrMissingID}
 		}
-		if orders != nil {
-			v, k, ok := parseOrderCell(orders[i])
+		if rr.orders != nil {
+			v, k, ok := parseOrderCell(rr.orders[i])
 			if !ok {
-				return nil, &InputError{File: s.file, Line: line(i), Column: ro.order + 1, Field: s.header[ro.order], Msg: orderMsg(orders[i]), Err: ErrOrder}
+				return nil, &InputError{File: s.file, Line: rr.line(i), Column: ro.order + 1, Field: s.header[ro.order], Msg: orderMsg(rr.orders[i]), Err: ErrOrder}
 			}
 			c.vals[i*w+s.nf] = math.Float64frombits(uint64(v))
-			kinds[i] = k
+			rr.kinds[i] = k
 		}
-		c.vals[i*w+s.nf+1] = packSource(s.fileIdx, line(i))
+		c.vals[i*w+s.nf+1] = packSource(s.fileIdx, rr.line(i))
 		wave := ""
-		if waves != nil {
-			if wave = waves[i]; wave == "" {
-				return nil, &InputError{File: s.file, Line: line(i), Column: ro.wave + 1, Field: s.header[ro.wave], Msg: emptyWaveMsg, Err: ErrMissingID}
+		if rr.waves != nil {
+			if wave = rr.waves[i]; wave == "" {
+				return nil, &InputError{File: s.file, Line: rr.line(i), Column: ro.wave + 1, Field: s.header[ro.wave], Msg: emptyWaveMsg, Err: ErrMissingID}
 			}
 		}
-		c.addWindow([]byte(ids[i]), []byte(wave), kinds[i], missing[i])
+		c.addWindow([]byte(rr.ids[i]), []byte(wave), rr.kinds[i], rr.missing[i])
 	}
 	if bad != nil {
 		return nil, bad.err
 	}
-	c.labels = labels
-	if ro.order >= 0 && n > 0 {
+	c.labels = rr.labels
+	if ro.order >= 0 && rr.n > 0 {
 		// The order cells checkKinds must see: the first, and the first of another kind.
-		c.cells = append(c.cells, orderCell{row: 0, text: orderText(c, 0, w, orders), col: ro.order + 1})
-		for i := 1; i < n; i++ {
-			if kinds[i] != kinds[0] {
-				c.cells = append(c.cells, orderCell{row: i, text: orderText(c, i, w, orders), col: ro.order + 1})
+		c.cells = append(c.cells, orderCell{row: 0, text: orderText(c, 0, w, rr.orders), col: ro.order + 1})
+		for i := 1; i < rr.n; i++ {
+			if rr.kinds[i] != rr.kinds[0] {
+				c.cells = append(c.cells, orderCell{row: i, text: orderText(c, i, w, rr.orders), col: ro.order + 1})
 				break
 			}
 		}
