@@ -47,68 +47,18 @@ func (r *reader) readParquet(p string) (err error) {
 	if err != nil {
 		return &InputError{File: p, Msg: "not a readable Parquet file (" + err.Error() + "); write it again, or export CSV", Err: ErrNotText, Cause: err}
 	}
-	schema := pf.Schema()
-	var header []string
-	var leaves []parquet.LeafColumn
-	for _, path := range schema.Columns() {
-		if len(path) != 1 {
-			return &InputError{File: p, Field: strings.Join(path, "."), Msg: "is a nested column; write the table flat, one column per variable", Err: ErrRagged}
-		}
-		leaf, _ := schema.Lookup(path...)
-		if leaf.MaxRepetitionLevel > 0 {
-			return &InputError{File: p, Field: path[0], Msg: "is a repeated column; write one value per cell", Err: ErrRagged}
-		}
-		header = append(header, path[0])
-		leaves = append(leaves, leaf)
-	}
-	if len(header) == 0 {
-		return &InputError{File: p, Msg: "has no columns", Err: ErrEmpty}
+	header, leaves, err := pqColumns(p, pf.Schema())
+	if err != nil {
+		return err
 	}
 	roles, err := r.assignRoles(p, header)
 	if err != nil {
 		return err
 	}
-	numeric := func(c int) bool {
-		switch leaves[c].Node.Type().Kind() {
-		case parquet.Int32, parquet.Int64, parquet.Float, parquet.Double:
-			return true
-		}
-		return false
+	if err := r.pqFeatures(p, header, leaves, &roles); err != nil {
+		return err
 	}
-	kindName := func(c int) string { return leaves[c].Node.Type().String() }
-	if r.features == nil { // the first file: numeric columns are the features
-		var keep []int
-		for _, c := range roles.features {
-			if numeric(c) {
-				keep = append(keep, c)
-				r.features = append(r.features, header[c])
-			} else if len(r.opts.Features) > 0 {
-				return &InputError{File: p, Column: c + 1, Field: header[c], Msg: fmt.Sprintf("is %s, not a number, but cohort.ReadOptions.Features chose it; choose numeric columns", kindName(c)), Err: ErrNotNumber}
-			} else {
-				r.ignored = append(r.ignored, Note{header[c], fmt.Sprintf("%s column, not a feature", kindName(c))})
-			}
-		}
-		if len(keep) == 0 {
-			return &InputError{File: p, Msg: "no numeric feature columns; check cohort.ReadOptions.Features", Err: ErrNoColumn}
-		}
-		roles.features = keep
-	} else {
-		for _, c := range roles.features {
-			if !numeric(c) {
-				return &InputError{File: p, Column: c + 1, Field: header[c], Msg: fmt.Sprintf("is %s here but numeric in %s; write it as a number", kindName(c), r.firstFile), Err: ErrMismatch}
-			}
-		}
-	}
-	var unit time.Duration // of a TIMESTAMP order column
-	if roles.order >= 0 {
-		if lt := leaves[roles.order].Node.Type().LogicalType(); lt != nil {
-			if ts, ok := lt.Value.(*format.TimestampType); ok {
-				if u, ok := ts.Unit.Value.(interface{ Duration() time.Duration }); ok {
-					unit = u.Duration()
-				}
-			}
-		}
-	}
+	unit := pqTimeUnit(leaves, roles.order)
 	// The file's hash is taken while its columns are read.
 	type hashResult struct {
 		sum  string
@@ -164,6 +114,81 @@ func (r *reader) readParquet(p string) (err error) {
 	r.rows += rowNo - 1
 	r.progress()
 	return nil
+}
+
+// pqColumns are a Parquet file's flat columns: their names and leaves; a nested or repeated
+// column is an error.
+func pqColumns(p string, schema *parquet.Schema) ([]string, []parquet.LeafColumn, error) {
+	var header []string
+	var leaves []parquet.LeafColumn
+	for _, path := range schema.Columns() {
+		if len(path) != 1 {
+			return nil, nil, &InputError{File: p, Field: strings.Join(path, "."), Msg: "is a nested column; write the table flat, one column per variable", Err: ErrRagged}
+		}
+		leaf, _ := schema.Lookup(path...)
+		if leaf.MaxRepetitionLevel > 0 {
+			return nil, nil, &InputError{File: p, Field: path[0], Msg: "is a repeated column; write one value per cell", Err: ErrRagged}
+		}
+		header = append(header, path[0])
+		leaves = append(leaves, leaf)
+	}
+	if len(header) == 0 {
+		return nil, nil, &InputError{File: p, Msg: "has no columns", Err: ErrEmpty}
+	}
+	return header, leaves, nil
+}
+
+// pqFeatures settles the feature columns of a Parquet file: in the first file, its numeric
+// columns among roles.features (the others are noted as not features); in a later one, the same
+// columns must be numeric.
+func (r *reader) pqFeatures(p string, header []string, leaves []parquet.LeafColumn, roles *roles) error {
+	numeric := func(c int) bool {
+		switch leaves[c].Node.Type().Kind() {
+		case parquet.Int32, parquet.Int64, parquet.Float, parquet.Double:
+			return true
+		}
+		return false
+	}
+	kindName := func(c int) string { return leaves[c].Node.Type().String() }
+	if r.features == nil { // the first file: numeric columns are the features
+		var keep []int
+		for _, c := range roles.features {
+			if numeric(c) {
+				keep = append(keep, c)
+				r.features = append(r.features, header[c])
+			} else if len(r.opts.Features) > 0 {
+				return &InputError{File: p, Column: c + 1, Field: header[c], Msg: fmt.Sprintf("is %s, not a number, but cohort.ReadOptions.Features chose it; choose numeric columns", kindName(c)), Err: ErrNotNumber}
+			} else {
+				r.ignored = append(r.ignored, Note{header[c], fmt.Sprintf("%s column, not a feature", kindName(c))})
+			}
+		}
+		if len(keep) == 0 {
+			return &InputError{File: p, Msg: "no numeric feature columns; check cohort.ReadOptions.Features", Err: ErrNoColumn}
+		}
+		roles.features = keep
+	} else {
+		for _, c := range roles.features {
+			if !numeric(c) {
+				return &InputError{File: p, Column: c + 1, Field: header[c], Msg: fmt.Sprintf("is %s here but numeric in %s; write it as a number", kindName(c), r.firstFile), Err: ErrMismatch}
+			}
+		}
+	}
+	return nil
+}
+
+// pqTimeUnit is the unit of a TIMESTAMP order column (0 for another column, or none).
+func pqTimeUnit(leaves []parquet.LeafColumn, order int) time.Duration {
+	if order < 0 {
+		return 0
+	}
+	if lt := leaves[order].Node.Type().LogicalType(); lt != nil {
+		if ts, ok := lt.Value.(*format.TimestampType); ok {
+			if u, ok := ts.Unit.Value.(interface{ Duration() time.Duration }); ok {
+				return u.Duration()
+			}
+		}
+	}
+	return 0
 }
 
 // pqSpec is what reading a Parquet file's row groups needs, with the buffers it reuses.
