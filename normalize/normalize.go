@@ -396,6 +396,37 @@ func FitBlocks(ctx context.Context, features []string, blocks Blocks, opts Optio
 	if d == 0 || blocks.Len() == 0 {
 		return nil, fmt.Errorf("normalize: no features or no participants: %w", ErrData)
 	}
+	opts, err := opts.checked()
+	if err != nil {
+		return nil, err
+	}
+	f := &Fit{Features: features, Within: opts.Within, RestShare: opts.RestShare, ScaleKind: opts.Scale}
+	if err := f.setScales(opts); err != nil {
+		return nil, err
+	}
+	f.setTouched(opts)
+	if opts.Within.baseline() {
+		if err := f.fitBaselineRule(ctx, blocks, opts); err != nil {
+			return nil, err
+		}
+	}
+	sample, moments, err := f.withinPass(ctx, blocks, opts)
+	if err != nil {
+		return nil, err
+	}
+	if err := f.setCohortScale(sample, moments, opts); err != nil {
+		return nil, err
+	}
+	if !opts.NoPCA {
+		if err := f.fitPCA(sample, opts); err != nil {
+			return nil, err
+		}
+	}
+	return f, nil
+}
+
+// checked is the options with their defaults, or an error naming one out of its range.
+func (opts Options) checked() (Options, error) {
 	if opts.OffsetICC == 0 {
 		opts.OffsetICC = 0.3
 	}
@@ -403,18 +434,22 @@ func FitBlocks(ctx context.Context, features []string, blocks Blocks, opts Optio
 		opts.RestShare = 0.1
 	}
 	if opts.RestShare < 0 || opts.RestShare > 1 || opts.OffsetICC < 0 || opts.OffsetICC > 1 {
-		return nil, fmt.Errorf("normalize: rest share %v, offset ICC %v: %w; both lie in (0, 1]", opts.RestShare, opts.OffsetICC, ErrOption)
+		return opts, fmt.Errorf("normalize: rest share %v, offset ICC %v: %w; both lie in (0, 1]", opts.RestShare, opts.OffsetICC, ErrOption)
 	}
 	if opts.SampleRate < 0 || opts.SampleRate > 1 {
-		return nil, fmt.Errorf("normalize: sample rate %v: %w; use a share in (0, 1]", opts.SampleRate, ErrOption)
+		return opts, fmt.Errorf("normalize: sample rate %v: %w; use a share in (0, 1]", opts.SampleRate, ErrOption)
 	}
 	if opts.SampleRate == 0 {
 		opts.SampleRate = 1
 	}
-	f := &Fit{Features: features, Within: opts.Within, RestShare: opts.RestShare, ScaleKind: opts.Scale}
-	if err := f.setScales(opts); err != nil {
-		return nil, err
-	}
+	return opts, nil
+}
+
+// setTouched marks the features the within step touches when the options say which: none, all,
+// or those a pattern names (otherwise fitBaselineRule finds them by their ICC).
+func (f *Fit) setTouched(opts Options) {
+	features := f.Features
+	d := len(features)
 	f.Touched = make([]bool, d)
 	switch {
 	case opts.Within == WithinNone:
@@ -434,13 +469,13 @@ func FitBlocks(ctx context.Context, features []string, blocks Blocks, opts Optio
 			}
 		}
 	}
-	if opts.Within.baseline() {
-		if err := f.fitBaselineRule(ctx, blocks, opts); err != nil {
-			return nil, err
-		}
-	}
-	// Pass 2 (the only one without a baseline): each participant's baseline, kept for
-	// ApplyUnit, and the cohort step's statistics and sample, on the within-step windows.
+}
+
+// withinPass is pass 2 (the only one without a baseline): each participant's baseline, kept for
+// ApplyUnit, and the cohort step's statistics (the moments, and the ICC after the within step)
+// and sample, on the within-step windows; it hands the windows opts.Keep asks for to it.
+func (f *Fit) withinPass(ctx context.Context, blocks Blocks, opts Options) ([]float64, moments, error) {
+	d := len(f.Features)
 	var moments moments
 	var sampleParts [][]float64
 	if opts.Within.baseline() {
@@ -503,14 +538,20 @@ func FitBlocks(ctx context.Context, features []string, blocks Blocks, opts Optio
 		return nil
 	})
 	if err != nil {
-		return nil, err
+		return nil, moments, err
 	}
 	sample := slices.Concat(sampleParts...)
-	sampleParts = nil
 	f.ICCAfter = accAfter.icc()
 	if !opts.Within.baseline() {
 		f.ICC = f.ICCAfter // nothing happened between the two; with align, the states' fit says what the devices took
 	}
+	return sample, moments, nil
+}
+
+// setCohortScale sets the cohort step's centre and spread (z: mean and s.d.; robust-z: median and
+// MAD), refusing a feature with no spread.
+func (f *Fit) setCohortScale(sample []float64, moments moments, opts Options) error {
+	d, features := len(f.Features), f.Features
 	switch opts.Scale {
 	case ScaleZ:
 		f.Center, f.Spread = moments.meanSD()
@@ -520,20 +561,22 @@ func FitBlocks(ctx context.Context, features []string, blocks Blocks, opts Optio
 			f.Spread[j] *= 1.4826 // consistent with the s.d. under normality
 		}
 	default:
-		return nil, fmt.Errorf("normalize: cohort scaling %d: %w", opts.Scale, ErrOption)
+		return fmt.Errorf("normalize: cohort scaling %d: %w", opts.Scale, ErrOption)
 	}
 	for j, s := range f.Spread {
 		if !(s > 0) {
-			return nil, fmt.Errorf("normalize: feature %s has no spread across the cohort after the within-participant step: %w; leave it out with cohort.ReadOptions.Features or use normalize.Options.Within none", features[j], ErrData)
+			return fmt.Errorf("normalize: feature %s has no spread across the cohort after the within-participant step: %w; leave it out with cohort.ReadOptions.Features or use normalize.Options.Within none", features[j], ErrData)
 		}
 	}
-	if opts.NoPCA {
-		return f, nil
-	}
-	// PCA on the sample of scaled windows.
+	return nil
+}
+
+// fitPCA fits the PCA on the sample of scaled windows.
+func (f *Fit) fitPCA(sample []float64, opts Options) error {
+	d := len(f.Features)
 	f.scale(sample)
 	if len(sample)/d < 2 {
-		return nil, fmt.Errorf("normalize: the sample has %d windows: %w; raise the sample size", len(sample)/d, ErrData)
+		return fmt.Errorf("normalize: the sample has %d windows: %w; raise the sample size", len(sample)/d, ErrData)
 	}
 	target := opts.PCAVariance
 	if opts.PCAComponents == 0 && target == 0 {
@@ -541,10 +584,10 @@ func FitBlocks(ctx context.Context, features []string, blocks Blocks, opts Optio
 	}
 	pca, err := cluster.FitPCA(mat.NewDense(len(sample)/d, d, sample), cluster.PCAOptions{Components: opts.PCAComponents, VarianceTarget: target})
 	if err != nil {
-		return nil, fmt.Errorf("normalize: %w", err)
+		return fmt.Errorf("normalize: %w", err)
 	}
 	f.PCA = pca
-	return f, nil
+	return nil
 }
 
 // fitBaselineRule is pass 1 of a within step with a baseline: ICC(1) of each feature, the
