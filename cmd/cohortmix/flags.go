@@ -162,11 +162,29 @@ func (m *mainFlags) options(inputs []string) (job.Options, error) {
 	if o.Read, err = m.readOptions(); err != nil {
 		return o, err
 	}
+	if err := m.normOptions(&o); err != nil {
+		return o, err
+	}
+	if err := m.statesOptions(&o); err != nil {
+		return o, err
+	}
+	if err := m.groupOptions(&o); err != nil {
+		return o, err
+	}
+	if m.Sample < 100 || m.Bootstrap < 2 || m.Workers < 0 {
+		return o, flagErrorf("--sample %d, --bootstrap %d, --workers %d: use at least 100 windows, 2 resamples and ≥ 0 workers", m.Sample, m.Bootstrap, m.Workers)
+	}
+	return o, nil
+}
+
+// normOptions reads the within step, the axes, the log scales and the cohort scaling.
+func (m *mainFlags) normOptions(o *job.Options) error {
+	var err error
 	if o.Norm.Within, err = normalize.ParseWithin(m.Within); err != nil {
-		return o, &flagError{err}
+		return &flagError{err}
 	}
 	if o.Norm.Scale, err = normalize.ParseScale(m.Scale); err != nil {
-		return o, &flagError{err}
+		return &flagError{err}
 	}
 	o.Norm.WithinFeatures, o.Norm.OffsetICC, o.Norm.RestShare = m.WithinFeatures, m.OffsetICC, m.RestShare
 	switch a := strings.TrimSpace(m.Axes); {
@@ -179,39 +197,46 @@ func (m *mainFlags) options(inputs []string) (job.Options, error) {
 			o.Axes[i] = strings.TrimSpace(o.Axes[i])
 		}
 		if len(o.Axes) != 3 || o.Axes[0] == "" || o.Axes[1] == "" || o.Axes[2] == "" {
-			return o, flagErrorf("--axes %q: name three features in x,y,z order, such as mean_x,mean_y,mean_z, or auto, or none", m.Axes)
+			return flagErrorf("--axes %q: name three features in x,y,z order, such as mean_x,mean_y,mean_z, or auto, or none", m.Axes)
 		}
 	}
 	if o.NoTurn, err = secondOf("turn", m.Turn, "all", "means"); err != nil {
-		return o, err
+		return err
 	}
 	if m.Axes != "auto" && o.Norm.Within != normalize.WithinAlign {
-		return o, flagErrorf("--axes %s with --within %s: only the align step turns axis means; leave --axes out or use --within align", m.Axes, m.Within)
+		return flagErrorf("--axes %s with --within %s: only the align step turns axis means; leave --axes out or use --within align", m.Axes, m.Within)
 	}
 	noLog, err := secondOf("log", m.Log, "auto", "none")
 	if err != nil {
-		return o, err
+		return err
 	}
 	o.Norm.Log = !noLog
+	return nil
+}
+
+// statesOptions reads how the movement states are fitted: the rule, the calibration, the valley,
+// the fits, the offset and rest shares, the PCA and the numbers of states.
+func (m *mainFlags) statesOptions(o *job.Options) error {
+	var err error
 	if o.StatesRule, err = profile.ParseRule(m.StatesRule); err != nil {
-		return o, &flagError{err}
+		return &flagError{err}
 	}
 	if o.StatesRule == profile.ByCalinskiHarabasz && o.Norm.Within == normalize.WithinAlign {
-		return o, flagErrorf("--states-rule ch with --within align: the aligned states decide a range by the valley rule; use --within none, rest, centre or robust-z for ch")
+		return flagErrorf("--states-rule ch with --within align: the aligned states decide a range by the valley rule; use --within none, rest, centre or robust-z for ch")
 	}
 	if o.NoCalibration, err = secondOf("calibration", m.Calibration, "sphere", "off"); err != nil {
-		return o, err
+		return err
 	}
 	if !(m.Valley > 0 && m.Valley <= 1) {
-		return o, flagErrorf("--valley %v: a share of the density's height lies in (0, 1]", m.Valley)
+		return flagErrorf("--valley %v: a share of the density's height lies in (0, 1]", m.Valley)
 	}
 	o.Valley = m.Valley
 	if m.Fits < 1 || m.Fits > 9 {
-		return o, flagErrorf("--fits %d: fit the states 1 to 9 times", m.Fits)
+		return flagErrorf("--fits %d: fit the states 1 to 9 times", m.Fits)
 	}
 	o.Fits = m.Fits
 	if !(m.OffsetICC > 0 && m.OffsetICC <= 1) || !(m.RestShare > 0 && m.RestShare <= 1) {
-		return o, flagErrorf("--offset-icc %v, --rest-share %v: both lie in (0, 1]", m.OffsetICC, m.RestShare)
+		return flagErrorf("--offset-icc %v, --rest-share %v: both lie in (0, 1]", m.OffsetICC, m.RestShare)
 	}
 	switch p := strings.TrimSpace(m.PCA); {
 	case p == "off":
@@ -219,21 +244,27 @@ func (m *mainFlags) options(inputs []string) (job.Options, error) {
 	case strings.Contains(p, "."):
 		v, err := strconv.ParseFloat(p, 64)
 		if err != nil || !(v > 0 && v <= 1) {
-			return o, flagErrorf("--pca %q: a variance share lies in (0, 1]", m.PCA)
+			return flagErrorf("--pca %q: a variance share lies in (0, 1]", m.PCA)
 		}
 		o.Norm.PCAVariance = v
 	default:
 		n, err := strconv.Atoi(p)
 		if err != nil || n < 1 {
-			return o, flagErrorf("--pca %q: give a share such as 0.99, a number of components, or off", m.PCA)
+			return flagErrorf("--pca %q: give a share such as 0.99, a number of components, or off", m.PCA)
 		}
 		o.Norm.PCAComponents = n
 	}
 	if o.States, err = parseRange("states", m.States); err != nil {
-		return o, err
+		return err
 	}
+	return nil
+}
+
+// groupOptions reads how the participants are grouped, and on what signature.
+func (m *mainFlags) groupOptions(o *job.Options) error {
+	var err error
 	if o.Method, err = group.ParseMethod(m.Method); err != nil {
-		return o, &flagError{err}
+		return &flagError{err}
 	}
 	least, groups, criterion := 2, m.Groups, m.Criterion
 	if o.Method == group.Mixture {
@@ -249,10 +280,10 @@ func (m *mainFlags) options(inputs []string) (job.Options, error) {
 		}
 	}
 	if o.Groups, err = parseRangeFrom("groups", groups, least); err != nil {
-		return o, err
+		return err
 	}
 	if m.GroupValley < 0 || m.GroupValley >= 1 {
-		return o, flagErrorf("--group-valley %v: use a share in [0, 1)", m.GroupValley)
+		return flagErrorf("--group-valley %v: use a share in [0, 1)", m.GroupValley)
 	}
 	o.GroupValley = m.GroupValley
 	o.KeepTwins = m.KeepTwins
@@ -261,21 +292,18 @@ func (m *mainFlags) options(inputs []string) (job.Options, error) {
 	case job.SignatureDayParts:
 		o.Signature, o.DayParts = m.Signature, profile.DayParts(m.DayParts)
 		if err := o.DayParts.Check(); err != nil {
-			return o, flagErrorf("--day-parts %v: %s", m.DayParts, strings.TrimPrefix(err.Error(), "profile: "))
+			return flagErrorf("--day-parts %v: %s", m.DayParts, strings.TrimPrefix(err.Error(), "profile: "))
 		}
 	default:
-		return o, flagErrorf("--signature %q: use whole or day-parts", m.Signature)
+		return flagErrorf("--signature %q: use whole or day-parts", m.Signature)
 	}
 	if o.Criterion, err = group.ParseCriterion(criterion); err != nil {
-		return o, &flagError{err}
+		return &flagError{err}
 	}
 	if mixtureCriterion := o.Criterion == group.ByBIC || o.Criterion == group.ByICL; mixtureCriterion != (o.Method == group.Mixture) {
-		return o, flagErrorf("--criterion %s with --method %s: bic and icl choose the mixture's number of groups, gap-stable-firm, gap-stable, gap, stability and silhouette the other methods'", criterion, o.Method)
+		return flagErrorf("--criterion %s with --method %s: bic and icl choose the mixture's number of groups, gap-stable-firm, gap-stable, gap, stability and silhouette the other methods'", criterion, o.Method)
 	}
-	if m.Sample < 100 || m.Bootstrap < 2 || m.Workers < 0 {
-		return o, flagErrorf("--sample %d, --bootstrap %d, --workers %d: use at least 100 windows, 2 resamples and ≥ 0 workers", m.Sample, m.Bootstrap, m.Workers)
-	}
-	return o, nil
+	return nil
 }
 
 // secondOf reads a flag that takes one of two words: false for the first, true for the second,
