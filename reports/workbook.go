@@ -195,86 +195,19 @@ func kRange(r *Result) string {
 }
 
 func participantsSheet(f *excelize.File, st *styles, r *Result) error {
-	k := r.States.K
-	idW := 12.0
-	for _, u := range r.Units {
-		idW = width(idW, u.ID)
-	}
-	stay, turn := false, false
-	for _, u := range r.Units {
-		stay = stay || !math.IsNaN(u.Stay)
-		turn = turn || !math.IsNaN(u.Turn)
-	}
-	widths := []float64{idW, 8, 10, 9, 11, 11, 11, 34} // participant, wave, windows, group, probability, silhouette, distance, flag
-	nonWear := r.Quality.WindowsNonWear > 0
-	if nonWear {
-		widths = slices.Insert(widths, 3, 11)
-	}
-	wear := r.Quality.ValidDayRule != "" // the wear-time summary, after the non-wear column
-	at := 3
-	if nonWear {
-		at = 4
-	}
-	if wear {
-		widths = slices.Insert(widths, at, 9, 10, 12, 11)
-	}
-	if stay {
-		widths = append(widths, 13)
-	}
-	if turn {
-		widths = append(widths, 11)
-	}
-	for i := 0; i < 2*k; i++ {
-		widths = append(widths, 10)
-	}
-	rhythm := false // the rest-activity measures, where they could be read
-	for _, u := range r.Units {
-		rhythm = rhythm || !math.IsNaN(u.Rhythm.IS)
-	}
-	if rhythm {
-		for range rhythmHeads {
-			widths = append(widths, 11)
-		}
-	}
+	pc := participantColumnsOf(r)
 	streamed := 0
 	if len(r.Units) > streamRows {
 		streamed = 1 + len(r.Units)
 	}
-	t, err := openTable(f, st, SheetParticipants, widths, streamed)
+	t, err := openTable(f, st, SheetParticipants, pc.widths(r), streamed)
 	if err != nil {
 		return err
 	}
 	if err := t.freeze(1); err != nil {
 		return err
 	}
-	head := []string{"participant", "wave", "windows", "group", "probability of the group", "silhouette", "distance to centre", "flag"}
-	if nonWear {
-		head = slices.Insert(head, 3, "non-wear windows left out")
-	}
-	if wear {
-		head = slices.Insert(head, at, "valid days", "wear (h) per valid day", "least-worn day", "its wear (h)")
-	}
-	if stay {
-		head = append(head, "stays with its group (share of resamples)")
-	}
-	if turn {
-		head = append(head, "device turned (degrees)")
-	}
-	for s := 0; s < k; s++ {
-		head = append(head, "share "+r.StateNames[s])
-	}
-	// Bouts in one unit, so that the sheet prints at a readable size: minutes when the window
-	// length is known, windows otherwise.
-	for s := 0; s < k; s++ {
-		if r.WindowLength > 0 {
-			head = append(head, "bout "+r.StateNames[s]+" (min)")
-		} else {
-			head = append(head, "bout "+r.StateNames[s]+" (windows)")
-		}
-	}
-	if rhythm {
-		head = append(head, rhythmHeads...)
-	}
+	head := pc.head(r)
 	text := map[string]bool{"participant": true, "wave": true, "group": true, "flag": true, "least-worn day": true}
 	numeric := make([]bool, len(head))
 	for i, h := range head {
@@ -284,50 +217,139 @@ func participantsSheet(f *excelize.File, st *styles, r *Result) error {
 		return err
 	}
 	for _, i := range unitOrder(r) {
-		u := r.Units[i]
-		group := groupLabel(r, u.Group)
-		if u.Atypical {
-			group = ""
-		}
-		cells := []v{{u.ID, st.text}, {u.Wave, st.text}, {u.Windows, st.integer}, {group, st.text},
-			{u.Posterior, st.dec3}, {u.Silhouette, st.dec3}, {u.Distance, st.dec3}, {u.Flag, st.text}}
-		if nonWear {
-			cells = slices.Insert(cells, 3, v{u.NonWear, st.integer})
-		}
-		if wear {
-			cells = slices.Insert(cells, at, v{u.Wear.ValidDays, st.integer}, v{u.Wear.MeanHours, st.dec1}, v{u.Wear.Worst, st.text}, v{u.Wear.WorstHours, st.dec1})
-		}
-		if stay {
-			cells = append(cells, v{u.Stay, st.pct})
-		}
-		if turn {
-			cells = append(cells, v{u.Turn, st.dec1})
-		}
-		for _, x := range u.Share {
-			cells = append(cells, v{x, st.pct})
-		}
-		for _, x := range u.Bout {
-			if r.WindowLength > 0 {
-				cells = append(cells, v{boutCell(x) * r.WindowLength.Minutes(), st.dec1})
-			} else {
-				cells = append(cells, v{boutCell(x), st.dec2})
-			}
-		}
-		if rhythm {
-			rh := u.Rhythm
-			onset := func(h int) any {
-				if h < 0 {
-					return nil
-				}
-				return h
-			}
-			cells = append(cells, v{rh.IS, st.dec3}, v{rh.IV, st.dec3}, st.sig3(rh.L5), v{onset(rh.L5Onset), st.integer}, st.sig3(rh.M10), v{onset(rh.M10Onset), st.integer}, v{rh.RA, st.dec3})
-		}
-		if err := t.put(cells...); err != nil {
+		if err := t.put(pc.cells(r, st, r.Units[i])...); err != nil {
 			return err
 		}
 	}
 	return t.close(true)
+}
+
+// participantColumns are the Participants sheet's optional columns, each there when some
+// participant has a value for it: the non-wear windows, the wear-time summary (after the
+// non-wear column, at column at), the bootstrap stay, the device's turn and the rest-activity
+// measures.
+type participantColumns struct {
+	nonWear, wear, stay, turn, rhythm bool
+	at                                int
+}
+
+func participantColumnsOf(r *Result) participantColumns {
+	pc := participantColumns{nonWear: r.Quality.WindowsNonWear > 0, wear: r.Quality.ValidDayRule != "", at: 3}
+	if pc.nonWear {
+		pc.at = 4
+	}
+	for _, u := range r.Units {
+		pc.stay = pc.stay || !math.IsNaN(u.Stay)
+		pc.turn = pc.turn || !math.IsNaN(u.Turn)
+		pc.rhythm = pc.rhythm || !math.IsNaN(u.Rhythm.IS)
+	}
+	return pc
+}
+
+// widths are the columns' widths, the first fitting the longest id.
+func (pc participantColumns) widths(r *Result) []float64 {
+	idW := 12.0
+	for _, u := range r.Units {
+		idW = width(idW, u.ID)
+	}
+	widths := []float64{idW, 8, 10, 9, 11, 11, 11, 34} // participant, wave, windows, group, probability, silhouette, distance, flag
+	if pc.nonWear {
+		widths = slices.Insert(widths, 3, 11)
+	}
+	if pc.wear {
+		widths = slices.Insert(widths, pc.at, 9, 10, 12, 11)
+	}
+	if pc.stay {
+		widths = append(widths, 13)
+	}
+	if pc.turn {
+		widths = append(widths, 11)
+	}
+	for i := 0; i < 2*r.States.K; i++ {
+		widths = append(widths, 10)
+	}
+	if pc.rhythm {
+		for range rhythmHeads {
+			widths = append(widths, 11)
+		}
+	}
+	return widths
+}
+
+// head is the sheet's header row.
+func (pc participantColumns) head(r *Result) []string {
+	head := []string{"participant", "wave", "windows", "group", "probability of the group", "silhouette", "distance to centre", "flag"}
+	if pc.nonWear {
+		head = slices.Insert(head, 3, "non-wear windows left out")
+	}
+	if pc.wear {
+		head = slices.Insert(head, pc.at, "valid days", "wear (h) per valid day", "least-worn day", "its wear (h)")
+	}
+	if pc.stay {
+		head = append(head, "stays with its group (share of resamples)")
+	}
+	if pc.turn {
+		head = append(head, "device turned (degrees)")
+	}
+	for s := 0; s < r.States.K; s++ {
+		head = append(head, "share "+r.StateNames[s])
+	}
+	// Bouts in one unit, so that the sheet prints at a readable size: minutes when the window
+	// length is known, windows otherwise.
+	for s := 0; s < r.States.K; s++ {
+		if r.WindowLength > 0 {
+			head = append(head, "bout "+r.StateNames[s]+" (min)")
+		} else {
+			head = append(head, "bout "+r.StateNames[s]+" (windows)")
+		}
+	}
+	if pc.rhythm {
+		head = append(head, rhythmHeads...)
+	}
+	return head
+}
+
+// cells are one participant's row.
+func (pc participantColumns) cells(r *Result, st *styles, u job.UnitRow) []v {
+	group := groupLabel(r, u.Group)
+	if u.Atypical {
+		group = ""
+	}
+	cells := []v{{u.ID, st.text}, {u.Wave, st.text}, {u.Windows, st.integer}, {group, st.text},
+		{u.Posterior, st.dec3}, {u.Silhouette, st.dec3}, {u.Distance, st.dec3}, {u.Flag, st.text}}
+	if pc.nonWear {
+		cells = slices.Insert(cells, 3, v{u.NonWear, st.integer})
+	}
+	if pc.wear {
+		cells = slices.Insert(cells, pc.at, v{u.Wear.ValidDays, st.integer}, v{u.Wear.MeanHours, st.dec1}, v{u.Wear.Worst, st.text}, v{u.Wear.WorstHours, st.dec1})
+	}
+	if pc.stay {
+		cells = append(cells, v{u.Stay, st.pct})
+	}
+	if pc.turn {
+		cells = append(cells, v{u.Turn, st.dec1})
+	}
+	for _, x := range u.Share {
+		cells = append(cells, v{x, st.pct})
+	}
+	for _, x := range u.Bout {
+		if r.WindowLength > 0 {
+			cells = append(cells, v{boutCell(x) * r.WindowLength.Minutes(), st.dec1})
+		} else {
+			cells = append(cells, v{boutCell(x), st.dec2})
+		}
+	}
+	if pc.rhythm {
+		rh := u.Rhythm
+		onset := func(h int) any {
+			if h < 0 {
+				return nil
+			}
+			return h
+		}
+		cells = append(cells, v{rh.IS, st.dec3}, v{rh.IV, st.dec3}, st.sig3(rh.L5), v{onset(rh.L5Onset), st.integer}, st.sig3(rh.M10), v{onset(rh.M10Onset), st.integer}, v{rh.RA, st.dec3})
+	}
+	return cells
 }
 
 func groupsSheet(f *excelize.File, st *styles, r *Result) error {
