@@ -1,0 +1,122 @@
+package main
+
+import (
+	"go/ast"
+	"go/parser"
+	"go/token"
+	"io/fs"
+	"path/filepath"
+	"strings"
+	"testing"
+)
+
+// Functions a reader can hold: at most maxLines lines and a branch complexity of maxBranches
+// (1 + each if, for, range, case and && or ||). longFunctions are those still above, by file and
+// name, to be cut along their steps; the test fails on any other, so that the list only shrinks.
+const maxLines, maxBranches = 85, 25
+
+var longFunctions = map[string]bool{
+	"cluster/hierarchical.go:nnChain":             true,
+	"cluster/minibatch.go:MiniBatchKMeans":        true,
+	"cluster/mixture/gaussian.go:FitTiedGaussian": true,
+	"cluster/mixture/gaussian.go:fitGaussianFrom": true,
+	"cluster/pam.go:PAM":                          true,
+	"cluster/valley.go:Valley":                    true,
+	"cluster/ward.go:WardPoints":                  true,
+	"cmd/cohortmix/assign.go:assignRun":           true,
+	"cmd/cohortmix/shard.go:newShardCmd":          true,
+	"cohort/group/mixture.go:BoutTable":           true,
+	"cohort/group/refresh.go:Match":               true,
+	"cohort/group/stability.go:resampleStability": true,
+	"cohort/job/job.go:Describe":                  true,
+	"cohort/job/passes.go:AssignOf":               true,
+	"cohort/job/passes.go:checkAssigned":          true,
+	"cohort/job/passes.go:fitStates":              true,
+	"cohort/job/sensitivity.go:sampleTasks":       true,
+	"cohort/parquetin.go:readParquet":             true,
+	"cohort/raw/parquet.go:scanGroup":             true,
+	"cohort/raw/read.go:fastTime":                 true,
+	"cohort/raw/split.go:runFileSplit":            true,
+	"cohort/read.go:assignRoles":                  true,
+	"cohort/read.go:mergeChunk":                   true,
+	"cohort/read.go:readFile":                     true,
+	"cohort/synth/rawsignal.go:WriteRaw":          true,
+	"cohort/synth/scenario.go:drawGroups":         true,
+	"cohort/synth/wear.go:WriteWear":              true,
+	"cohort/xlsx.go:readXLSX":                     true,
+	"profile/align.go:FitAligned":                 true,
+	"profile/profile.go:FitStates":                true,
+	"profile/rhythm.go:RhythmOf":                  true,
+	"reports/changes.go:changesSheet":             true,
+	"reports/grouplines.go:groupLines":            true,
+	"reports/summary.go:summarySheet":             true,
+	"reports/timeofday.go:timeOfDaySheet":         true,
+	"reports/workbook.go:groupsSheet":             true,
+	"reports/workbook.go:qualitySheet":            true,
+	"reports/workbook.go:stabilitySheet":          true,
+}
+
+func TestFunctionsStayShort(t *testing.T) {
+	t.Parallel()
+	root := filepath.Join("..", "..")
+	fset := token.NewFileSet()
+	seen := map[string]bool{}
+	err := filepath.WalkDir(root, func(p string, d fs.DirEntry, err error) error {
+		if err != nil || d.IsDir() || !strings.HasSuffix(p, ".go") || strings.HasSuffix(p, "_test.go") {
+			return err
+		}
+		f, err := parser.ParseFile(fset, p, nil, 0)
+		if err != nil {
+			return err
+		}
+		rel, _ := filepath.Rel(root, p)
+		for _, decl := range f.Decls {
+			fd, ok := decl.(*ast.FuncDecl)
+			if !ok || fd.Body == nil {
+				continue
+			}
+			lines := fset.Position(fd.End()).Line - fset.Position(fd.Pos()).Line + 1
+			if key := filepath.ToSlash(rel) + ":" + fd.Name.Name; lines > maxLines || branches(fd) > maxBranches {
+				seen[key] = true
+				if !longFunctions[key] {
+					t.Errorf("%s: %d lines, branch complexity %d (at most %d and %d): cut it along its steps", key, lines, branches(fd), maxLines, maxBranches)
+				}
+			}
+		}
+		return nil
+	})
+	if err != nil {
+		t.Fatal(err)
+	}
+	for key := range longFunctions {
+		if !seen[key] {
+			t.Errorf("%s is short now (or gone): take it off longFunctions", key)
+		}
+	}
+}
+
+// branches is 1 plus the function's branch points: if, for, range, each case with a list or
+// communication, and each && and ||.
+func branches(fn *ast.FuncDecl) int {
+	c := 1
+	ast.Inspect(fn, func(n ast.Node) bool {
+		switch n := n.(type) {
+		case *ast.IfStmt, *ast.ForStmt, *ast.RangeStmt:
+			c++
+		case *ast.CaseClause:
+			if n.List != nil {
+				c++
+			}
+		case *ast.CommClause:
+			if n.Comm != nil {
+				c++
+			}
+		case *ast.BinaryExpr:
+			if n.Op == token.LAND || n.Op == token.LOR {
+				c++
+			}
+		}
+		return true
+	})
+	return c
+}
