@@ -78,6 +78,68 @@ func FitAligned(ctx context.Context, units [][]float64, fit *normalize.Fit, opts
 	if err := checkStates(opts.States); err != nil {
 		return nil, err
 	}
+	opts, err := opts.withDefaults()
+	if err != nil {
+		return nil, err
+	}
+	kmax := opts.States[len(opts.States)-1]
+	d, dim := len(fit.Features), fit.OutDim()
+	total := 0
+	for _, x := range units {
+		total += len(x) / d
+	}
+	if total < 2*kmax {
+		return nil, fmt.Errorf("profile: %d sampled windows for up to %d states: %w; raise job.Options.Sample or lower profile.AlignOptions.States", total, kmax, ErrData)
+	}
+	logged := make([][]float64, len(units))
+	par.Each(len(units), opts.Workers, func(u int) { logged[u] = fit.LogInto(nil, units[u]) })
+	// Each device's calibration, once, on its own windows (normalize.SphereCalibration).
+	var cal []normalize.Device
+	var gravity float64
+	if opts.Calibrate && fit.Axes != nil {
+		gravity = gravityOf(logged, d, fit.Axes)
+		cal = make([]normalize.Device, len(logged))
+		par.Each(len(logged), opts.Workers, func(u int) { cal[u] = calibrate(logged[u], d, fit.Axes, gravity) })
+	}
+	steps := opts.Starts * (1 + opts.Reseeds)
+	if len(opts.States) > 1 {
+		steps += kmax - opts.States[0]
+	}
+	done := 0
+	progress := func() {
+		done++
+		if opts.Progress != nil {
+			opts.Progress("fitting movement states with each device aligned", done, steps)
+		}
+	}
+	a, err := bestStart(ctx, fit, logged, cal, kmax, opts, progress)
+	if err != nil {
+		return nil, err
+	}
+	if _, err := a.foldTwins(ctx, opts); err != nil {
+		return nil, err
+	}
+	s := &States{Sampled: total, Offsets: a.offsets, Prior: opts.Prior, Rounds: opts.Rounds, Calibrate: cal != nil, Gravity: gravity, Rule: "fixed"}
+	if len(opts.States) > 1 {
+		// The states as fitted, before any merge: the caller may keep them (States.Fine).
+		fine := &States{K: a.k, Sampled: total, Offsets: a.offsets, Prior: opts.Prior, Rounds: opts.Rounds, Calibrate: cal != nil, Gravity: gravity,
+			Rule: fmt.Sprintf("%d states fitted with each device aligned", a.k)}
+		fine.Centroids, fine.Posture = orderAligned(mat.NewDense(a.k, dim, slices.Clone(a.centres)), clonePosture(a.posture))
+		s.Fine = fine
+		s.Rule = fmt.Sprintf("%d states fitted with each device aligned, then neighbours that form one mode merged (valley ratio ≥ %.2f; after Hennig 2010)", kmax, opts.Valley)
+		merges, err := a.merge(opts.States[0], opts.Valley, func(int) { progress() })
+		if err != nil {
+			return nil, err
+		}
+		s.Merges = merges
+	}
+	s.setFrom(a, dim)
+	return s, nil
+}
+
+// withDefaults is the options with each zero taken as its default, or an error naming one out of
+// its range.
+func (opts AlignOptions) withDefaults() (AlignOptions, error) {
 	if opts.Restarts == 0 {
 		opts.Restarts = 4
 	}
@@ -104,43 +166,19 @@ func FitAligned(ctx context.Context, units [][]float64, fit *normalize.Fit, opts
 		opts.Valley = DefaultValley
 	}
 	if opts.Restarts < 0 || opts.Rounds < 0 || opts.Prior < 0 || opts.Valley < 0 || opts.Valley > 1 || opts.Starts < 1 || opts.Starts > 2 {
-		return nil, fmt.Errorf("profile: FitAligned: restarts %d, rounds %d, prior %v, valley %v: %w", opts.Restarts, opts.Rounds, opts.Prior, opts.Valley, ErrOption)
+		return opts, fmt.Errorf("profile: FitAligned: restarts %d, rounds %d, prior %v, valley %v: %w", opts.Restarts, opts.Rounds, opts.Prior, opts.Valley, ErrOption)
 	}
-	kmax := opts.States[len(opts.States)-1]
-	d, dim := len(fit.Features), fit.OutDim()
-	total := 0
-	for _, x := range units {
-		total += len(x) / d
-	}
-	if total < 2*kmax {
-		return nil, fmt.Errorf("profile: %d sampled windows for up to %d states: %w; raise job.Options.Sample or lower profile.AlignOptions.States", total, kmax, ErrData)
-	}
-	logged := make([][]float64, len(units))
-	par.Each(len(units), opts.Workers, func(u int) { logged[u] = fit.LogInto(nil, units[u]) })
-	// Each device's calibration, once, on its own windows (normalize.SphereCalibration).
-	var cal []normalize.Device
-	var gravity float64
-	if opts.Calibrate && fit.Axes != nil {
-		gravity = gravityOf(logged, d, fit.Axes)
-		cal = make([]normalize.Device, len(logged))
-		par.Each(len(logged), opts.Workers, func(u int) { cal[u] = calibrate(logged[u], d, fit.Axes, gravity) })
-	}
-	steps := opts.Starts * (1 + opts.Reseeds)
-	if len(opts.States) > 1 {
-		steps += kmax - opts.States[0]
-	}
+	return opts, nil
+}
+
+// bestStart runs the fit from its starts, each seeded 1 + Reseeds times, and keeps the one of
+// the lower within-state sum of squares.
+func bestStart(ctx context.Context, fit *normalize.Fit, logged [][]float64, cal []normalize.Device, kmax int, opts AlignOptions, progress func()) (*aligner, error) {
 	// Two starts, each seeded 1 + Reseeds times, kept by the lower within-state sum of squares:
 	// no device at all, and each participant's offsets at its own medians (centred), which puts
 	// large calibration offsets right from the first seeding.
 	var a *aligner
 	bestSSE := math.Inf(1)
-	done := 0
-	progress := func() {
-		done++
-		if opts.Progress != nil {
-			opts.Progress("fitting movement states with each device aligned", done, steps)
-		}
-	}
 	for start := 0; start < opts.Starts; start++ {
 		b := newAligner(fit, logged, opts.Prior, opts.Workers)
 		if cal != nil {
@@ -165,23 +203,12 @@ func FitAligned(ctx context.Context, units [][]float64, fit *normalize.Fit, opts
 			a, bestSSE = b, sse
 		}
 	}
-	if _, err := a.foldTwins(ctx, opts); err != nil {
-		return nil, err
-	}
-	s := &States{Sampled: total, Offsets: a.offsets, Prior: opts.Prior, Rounds: opts.Rounds, Calibrate: cal != nil, Gravity: gravity, Rule: "fixed"}
-	if len(opts.States) > 1 {
-		// The states as fitted, before any merge: the caller may keep them (States.Fine).
-		fine := &States{K: a.k, Sampled: total, Offsets: a.offsets, Prior: opts.Prior, Rounds: opts.Rounds, Calibrate: cal != nil, Gravity: gravity,
-			Rule: fmt.Sprintf("%d states fitted with each device aligned", a.k)}
-		fine.Centroids, fine.Posture = orderAligned(mat.NewDense(a.k, dim, slices.Clone(a.centres)), clonePosture(a.posture))
-		s.Fine = fine
-		s.Rule = fmt.Sprintf("%d states fitted with each device aligned, then neighbours that form one mode merged (valley ratio ≥ %.2f; after Hennig 2010)", kmax, opts.Valley)
-		merges, err := a.merge(opts.States[0], opts.Valley, func(int) { progress() })
-		if err != nil {
-			return nil, err
-		}
-		s.Merges = merges
-	}
+	return a, nil
+}
+
+// setFrom takes the aligner's states, ordered (orderStates), with their postures and each
+// sampled window's state numbered as the states are.
+func (s *States) setFrom(a *aligner, dim int) {
 	s.K = a.k
 	s.Centroids = mat.NewDense(a.k, dim, a.centres)
 	s.Posture = a.posture
@@ -206,7 +233,6 @@ func FitAligned(ctx context.Context, units [][]float64, fit *normalize.Fit, opts
 			s.SampleLabels[u][w] = rename[l]
 		}
 	}
-	return s, nil
 }
 
 // descend seeds kmax states by k-means++ (with the given seed) on the windows as the devices

@@ -44,7 +44,6 @@ var longFunctions = map[string]bool{
 	"cohort/synth/scenario.go:drawGroups":         true,
 	"cohort/synth/wear.go:WriteWear":              true,
 	"cohort/xlsx.go:readXLSX":                     true,
-	"profile/align.go:FitAligned":                 true,
 	"profile/profile.go:FitStates":                true,
 	"profile/rhythm.go:RhythmOf":                  true,
 	"reports/changes.go:changesSheet":             true,
