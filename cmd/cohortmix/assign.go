@@ -11,7 +11,6 @@ import (
 	"time"
 
 	"github.com/cohortmix/cohortmix/cohort"
-	"github.com/cohortmix/cohortmix/cohort/group"
 	"github.com/cohortmix/cohortmix/cohort/modelfile"
 	"github.com/cohortmix/cohortmix/reports"
 	"github.com/spf13/cobra"
@@ -113,59 +112,13 @@ func assignRun(ctx context.Context, o *assignOptions) error {
 		return err
 	}
 	defer t.Close()
-	fit, states := m.NormFit(), m.StateFit()
-	f, err := job.AssignWindows(ctx, t, fit, states, o.Workers, passBar(&Env{IO: o.IO}, o.Quiet))
-	if err != nil {
-		return err
-	}
-	shares, counts, bouts := job.SignatureColumns(f.Sigs)
-	var parts [][]float64
-	if m.Fit != nil {
-		if parts, err = f.PartColumns(m.Fit.Signature, m.Fit.DayParts); err != nil {
-			return err
-		}
-		if parts != nil {
-			shares = job.PartShares(parts)
-			f.Signature, f.DayParts = job.SignatureDayParts, m.Fit.DayParts
-		}
-	}
-	if mx := m.GroupMixture(); mx != nil {
-		f.Grouping, err = group.PlaceMixture(mx, m.Grouping.Centroids, shares, counts, bouts, parts)
-	} else {
-		method, _ := group.ParseMethod(m.Grouping.Method)
-		f.Grouping, err = group.Place(method, m.Grouping.Centroids, shares, o.Workers)
-	}
-	if err != nil {
-		return err
-	}
-	f.Window, f.WindowSource = job.WindowLength(t, o.Window)
-	f.Atypical = make([]bool, len(f.Sigs))
-	for i, d := range f.Grouping.Distance {
-		f.Atypical[i] = d > m.Grouping.Atypical
-	}
-	res, err := job.Describe(f, m.States.Names, m.Grouping.Names)
+	res, err := job.Assign(ctx, t, m, job.AssignOptions{Model: o.Model, Extra: extra, Key: key, Window: o.Window, Workers: o.Workers, Progress: passBar(&Env{IO: o.IO}, o.Quiet)})
 	if err != nil {
 		return err
 	}
 	res.Tool, res.Version, res.Created = "cohortmix", version, o.Now()
 	res.Command = strings.Join(o.Args, " ")
-	res.Settings = append([]modelfile.Setting{{Name: "mode", Value: "assign (no refitting)"}, {Name: "model", Value: o.Model}}, m.Settings...)
-	res.States.Candidates = nil
-	for _, name := range extra {
-		res.Quality.IgnoredColumns = append(res.Quality.IgnoredColumns, cohort.Note{Name: name, Reason: "not in the model: ignored"})
-	}
-	for i, n := range res.Quality.IgnoredColumns {
-		if m.Read.Label != "" && n.Name == m.Read.Label {
-			res.Quality.IgnoredColumns[i].Reason = "the activity labels the model's cohort was described with; placing new data needs none, so assign reads no labels"
-		}
-	}
-	if key != nil {
-		job.Pseudonymize(res, key)
-	}
-	medians := job.FeatureMedians(f)
-	res.Warnings = append(res.Warnings, group.CheckRanges(t.Features, m.FeatureMeds, medians)...)
-	res.Warnings = append(res.Warnings, job.MadeByWarnings(t.Files, m.Read.FeaturesStep)...)
-	res.Changes = job.AssignChanges(m, res, o.Model)
+	res.Settings = append([]modelfile.Setting{{Name: "mode", Value: "assign (no refitting)"}, {Name: "model", Value: o.Model}}, res.Settings...)
 	if err := ctx.Err(); err != nil {
 		return err
 	}

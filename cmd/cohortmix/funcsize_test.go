@@ -23,7 +23,6 @@ var longFunctions = map[string]bool{
 	"cluster/pam.go:PAM":                          true,
 	"cluster/valley.go:Valley":                    true,
 	"cluster/ward.go:WardPoints":                  true,
-	"cmd/cohortmix/assign.go:assignRun":           true,
 	"cmd/cohortmix/shard.go:newShardCmd":          true,
 	"cohort/group/mixture.go:BoutTable":           true,
 	"cohort/group/refresh.go:Match":               true,

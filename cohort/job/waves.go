@@ -1,14 +1,18 @@
 package job
 
 import (
+	"context"
 	"fmt"
 	"math"
+	"slices"
 	"strings"
 
 	"github.com/cohortmix/cohortmix/cluster"
 	"github.com/cohortmix/cohortmix/cluster/groupstat"
+	"github.com/cohortmix/cohortmix/cohort"
 	"github.com/cohortmix/cohortmix/cohort/group"
 	"github.com/cohortmix/cohortmix/cohort/modelfile"
+	"time"
 )
 
 // The record of a later wave against the model it was placed or refitted with: who is where,
@@ -183,4 +187,74 @@ func listOrNone(xs []string) string {
 		return "none"
 	}
 	return strings.Join(xs, ", ")
+}
+
+// AssignOptions steer Assign.
+type AssignOptions struct {
+	Model   string   // the model file's name, for the record of who moved
+	Extra   []string // columns of the table the model does not know, which were ignored
+	Key     []byte   // the pseudonymization key of a pseudonymized model (nil: none)
+	Window  time.Duration
+	Workers int
+	// Progress, when set, is told of the pass over the participants.
+	Progress func(step string, done, total int)
+}
+
+// Assign places a later wave into a model's states and groups without refitting: the table t
+// (read with the model's reading settings) is normalized with the frozen fit, each window given
+// its nearest state, each participant its most probable group under the frozen mixture (or its
+// nearest centre for the other methods) and marked atypical when farther from every group than
+// the model's members; the result carries the model's settings, warnings where the features
+// lie outside the model's range or were made otherwise, and who moved since the model.
+func Assign(ctx context.Context, t *cohort.Table, m *modelfile.Model, o AssignOptions) (*Result, error) {
+	f, err := AssignWindows(ctx, t, m.NormFit(), m.StateFit(), o.Workers, o.Progress)
+	if err != nil {
+		return nil, err
+	}
+	shares, counts, bouts := SignatureColumns(f.Sigs)
+	var parts [][]float64
+	if m.Fit != nil {
+		if parts, err = f.PartColumns(m.Fit.Signature, m.Fit.DayParts); err != nil {
+			return nil, err
+		}
+		if parts != nil {
+			shares = PartShares(parts)
+			f.Signature, f.DayParts = SignatureDayParts, m.Fit.DayParts
+		}
+	}
+	if mx := m.GroupMixture(); mx != nil {
+		f.Grouping, err = group.PlaceMixture(mx, m.Grouping.Centroids, shares, counts, bouts, parts)
+	} else {
+		method, _ := group.ParseMethod(m.Grouping.Method)
+		f.Grouping, err = group.Place(method, m.Grouping.Centroids, shares, o.Workers)
+	}
+	if err != nil {
+		return nil, err
+	}
+	f.Window, f.WindowSource = WindowLength(t, o.Window)
+	f.Atypical = make([]bool, len(f.Sigs))
+	for i, d := range f.Grouping.Distance {
+		f.Atypical[i] = d > m.Grouping.Atypical
+	}
+	res, err := Describe(f, m.States.Names, m.Grouping.Names)
+	if err != nil {
+		return nil, err
+	}
+	res.Settings = slices.Clone(m.Settings)
+	res.States.Candidates = nil
+	for _, name := range o.Extra {
+		res.Quality.IgnoredColumns = append(res.Quality.IgnoredColumns, cohort.Note{Name: name, Reason: "not in the model: ignored"})
+	}
+	for i, n := range res.Quality.IgnoredColumns {
+		if m.Read.Label != "" && n.Name == m.Read.Label {
+			res.Quality.IgnoredColumns[i].Reason = "the activity labels the model's cohort was described with; placing new data needs none, so assign reads no labels"
+		}
+	}
+	if o.Key != nil {
+		Pseudonymize(res, o.Key)
+	}
+	res.Warnings = append(res.Warnings, group.CheckRanges(t.Features, m.FeatureMeds, FeatureMedians(f))...)
+	res.Warnings = append(res.Warnings, MadeByWarnings(t.Files, m.Read.FeaturesStep)...)
+	res.Changes = AssignChanges(m, res, o.Model)
+	return res, nil
 }
