@@ -8,10 +8,7 @@ import (
 	"strings"
 	"time"
 
-	"github.com/cohortmix/cohortmix/cohort"
-	"github.com/cohortmix/cohortmix/cohort/group"
 	"github.com/cohortmix/cohortmix/cohort/modelfile"
-	"github.com/cohortmix/cohortmix/cohort/pseudonym"
 	"github.com/spf13/cobra"
 )
 
@@ -79,52 +76,13 @@ func refreshRun(ctx context.Context, o *refreshOptions) error {
 		return err
 	}
 	o.key = key
-	f, err := job.FitAll(ctx, ao)
-	if err != nil {
-		return err
-	}
-	defer f.Table.Close()
-	method, _ := group.ParseMethod(prev.Grouping.Method)
-	byKey, byID := job.PreviousGroups(prev)
-	prevIndex := map[string]int{}
-	for i, n := range prev.Grouping.Names {
-		prevIndex[n] = i
-	}
-	next := group.Next{Labels: f.Grouping.Labels, GroupShares: job.MeanShares(f)}
-	for _, dsc := range f.Desc {
-		next.StateMeans = append(next.StateMeans, dsc.Mean)
-	}
-	for _, u := range f.Table.Units {
-		id := u.ID
-		if key != nil {
-			id = pseudonym.Of(key, id) // the previous model holds pseudonyms
-		}
-		p, ok := prevIndex[job.LookupPrevious(byKey, byID, id, u.Wave)]
-		if !ok {
-			p = -1
-		}
-		next.PrevGroup = append(next.PrevGroup, p)
-	}
-	if !sameFeatures(prev.Features, f.Table.Features) {
-		return fmt.Errorf("%s: the features (%s) differ from the previous model's (%s): %w; refresh needs the same features, or start anew with 'cohortmix group'",
-			o.Inputs[0], strings.Join(f.Table.Features, ", "), strings.Join(prev.Features, ", "), cohort.ErrMismatch)
-	}
-	match, err := group.Match(group.Previous{StateNames: prev.States.Names, StateMeans: prev.States.Means, Scale: prev.Normalize.Spread,
-		GroupNames: prev.Grouping.Names, GroupShares: prev.Grouping.Shares, Cut: prev.Grouping.Atypical, Method: method}, next)
-	if err != nil {
-		return err
-	}
-	res, err := job.Describe(f, match.StateNames, match.GroupNames)
+	res, err := job.Refresh(ctx, prev, ao, key, o.Previous)
 	if err != nil {
 		return err
 	}
 	res.Tool, res.Version, res.Created = "cohortmix", version, o.Now()
 	res.Command = strings.Join(o.Args, " ")
 	res.Settings = append([]modelfile.Setting{{Name: "mode", Value: "refresh"}, {Name: "previous model", Value: o.Previous}}, o.Flags.settings()...)
-	if key != nil {
-		job.Pseudonymize(res, key)
-	}
-	res.Changes = job.RefreshChanges(prev, res, match, next, o.Previous)
 	if err := ctx.Err(); err != nil {
 		return err
 	}
@@ -136,8 +94,4 @@ func refreshRun(ctx context.Context, o *refreshOptions) error {
 		fmt.Fprintln(o.IO.Out, "  "+n)
 	}
 	return nil
-}
-
-func sameFeatures(a, b []string) bool {
-	return strings.Join(a, "\x00") == strings.Join(b, "\x00")
 }

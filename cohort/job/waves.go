@@ -12,6 +12,7 @@ import (
 	"github.com/cohortmix/cohortmix/cohort"
 	"github.com/cohortmix/cohortmix/cohort/group"
 	"github.com/cohortmix/cohortmix/cohort/modelfile"
+	"github.com/cohortmix/cohortmix/cohort/pseudonym"
 	"time"
 )
 
@@ -257,4 +258,64 @@ func Assign(ctx context.Context, t *cohort.Table, m *modelfile.Model, o AssignOp
 	res.Warnings = append(res.Warnings, MadeByWarnings(t.Files, m.Read.FeaturesStep)...)
 	res.Changes = AssignChanges(m, res, o.Model)
 	return res, nil
+}
+
+// Refresh fits the updated cohort anew with the options o (the previous model's settings, with
+// any given over them) and matches the new states and groups to the previous model's by the
+// Hungarian method (group.Match), so that a state or group keeps its name while it is still the
+// same; the result carries who moved, which groups are new, merged or gone, and how far each
+// moved. key is the pseudonymization key of a pseudonymized model (nil: none); model is its
+// file's name, for the record.
+func Refresh(ctx context.Context, prev *modelfile.Model, o Options, key []byte, model string) (*Result, error) {
+	f, err := FitAll(ctx, o)
+	if err != nil {
+		return nil, err
+	}
+	defer f.Table.Close()
+	if strings.Join(prev.Features, "\x00") != strings.Join(f.Table.Features, "\x00") {
+		return nil, fmt.Errorf("%s: the features (%s) differ from the previous model's (%s): %w; refresh needs the same features, or start anew with job.Analyze",
+			o.Inputs[0], strings.Join(f.Table.Features, ", "), strings.Join(prev.Features, ", "), cohort.ErrMismatch)
+	}
+	next := nextOf(f, prev, key)
+	method, _ := group.ParseMethod(prev.Grouping.Method)
+	match, err := group.Match(group.Previous{StateNames: prev.States.Names, StateMeans: prev.States.Means, Scale: prev.Normalize.Spread,
+		GroupNames: prev.Grouping.Names, GroupShares: prev.Grouping.Shares, Cut: prev.Grouping.Atypical, Method: method}, next)
+	if err != nil {
+		return nil, err
+	}
+	res, err := Describe(f, match.StateNames, match.GroupNames)
+	if err != nil {
+		return nil, err
+	}
+	if key != nil {
+		Pseudonymize(res, key)
+	}
+	res.Changes = RefreshChanges(prev, res, match, next, model)
+	return res, nil
+}
+
+// nextOf is the refit as group.Match compares it with the previous model: the new groups, their
+// mean shares, the states' feature means and each unit's previous group (-1: none).
+func nextOf(f *Fitted, prev *modelfile.Model, key []byte) group.Next {
+	byKey, byID := PreviousGroups(prev)
+	prevIndex := map[string]int{}
+	for i, n := range prev.Grouping.Names {
+		prevIndex[n] = i
+	}
+	next := group.Next{Labels: f.Grouping.Labels, GroupShares: MeanShares(f)}
+	for _, dsc := range f.Desc {
+		next.StateMeans = append(next.StateMeans, dsc.Mean)
+	}
+	for _, u := range f.Table.Units {
+		id := u.ID
+		if key != nil {
+			id = pseudonym.Of(key, id) // the previous model holds pseudonyms
+		}
+		p, ok := prevIndex[LookupPrevious(byKey, byID, id, u.Wave)]
+		if !ok {
+			p = -1
+		}
+		next.PrevGroup = append(next.PrevGroup, p)
+	}
+	return next
 }
