@@ -21,6 +21,7 @@ var optionFlags = map[string]string{
 	"scratch.WriteAtomic force":        "--force",
 	"cohort.Quality.Excluded":          "'cohortmix check' lists each reason",
 	"modelfile.Encode":                 "'cohortmix group --model'",
+	"job.Analyze":                      "'cohortmix group'",
 	"modelfile.Model.CheckKey the key": "--pseudonymize with the key",
 	"give no key, or refit pseudonymized with job.Pseudonymize and": "leave --pseudonymize out, or refit with 'cohortmix group --pseudonymize'",
 }

@@ -79,3 +79,13 @@ func TestThreeParticipantsAreGroupedAsCheckSays(t *testing.T) {
 		t.Error("the workbook does not say that fewer groups were tried")
 	}
 }
+
+// Refresh's library error names the library's call for a new grouping; the command line says
+// the command instead.
+func TestRefreshMismatchNamesTheCommand(t *testing.T) {
+	t.Parallel()
+	got := userWords("job: a.csv: the features (x) differ from the previous model's (y): cohort: files do not agree; refresh needs the same features, or start anew with job.Analyze")
+	if want := "a.csv: the features (x) differ from the previous model's (y): files do not agree; refresh needs the same features, or start anew with 'cohortmix group'"; got != want {
+		t.Errorf("\n got %s\nwant %s", got, want)
+	}
+}
