@@ -49,6 +49,18 @@ func changesSheet(f *excelize.File, st *styles, r *Result) error {
 	if err != nil {
 		return err
 	}
+	for _, part := range []func(*table, *styles, *Result) error{changesIntro, changedGroups, changedRows} {
+		if err := part(t, st, r); err != nil {
+			return err
+		}
+	}
+	return t.close(true)
+}
+
+// changesIntro says against which model the changes are, how many returned, their agreement,
+// who moved, what moving means and the notes of the comparison.
+func changesIntro(t *table, st *styles, r *Result) error {
+	c := r.Changes
 	// Counts say what they count: participant-waves and people apart when there are waves.
 	waves := r.Counts().Waves
 	returning := fmt.Sprintf("%d returning participants", c.Returning)
@@ -86,6 +98,13 @@ func changesSheet(f *excelize.File, st *styles, r *Result) error {
 			return err
 		}
 	}
+	return nil
+}
+
+// changedGroups is each group's fate, and each state's with a refit.
+func changedGroups(t *table, st *styles, r *Result) error {
+	c := r.Changes
+	waves := r.Counts().Waves
 	t.blank()
 	unit := "participants"
 	if waves {
@@ -110,6 +129,13 @@ func changesSheet(f *excelize.File, st *styles, r *Result) error {
 			}
 		}
 	}
+	return nil
+}
+
+// changedRows is one row per participant (or wave): who moved first, then those in no group,
+// the new, and the rest.
+func changedRows(t *table, st *styles, r *Result) error {
+	c := r.Changes
 	t.blank()
 	if err := t.heading("participant", "wave", "previous group", "group now", "moved", "probability of the group now", "distance now", "distance to previous"); err != nil {
 		return err
@@ -143,5 +169,5 @@ func changesSheet(f *excelize.File, st *styles, r *Result) error {
 			return err
 		}
 	}
-	return t.close(true)
+	return nil
 }

@@ -45,7 +45,6 @@ var longFunctions = map[string]bool{
 	"cohort/xlsx.go:readXLSX":                     true,
 	"profile/profile.go:FitStates":                true,
 	"profile/rhythm.go:RhythmOf":                  true,
-	"reports/changes.go:changesSheet":             true,
 	"reports/grouplines.go:groupLines":            true,
 	"reports/summary.go:summarySheet":             true,
 	"reports/timeofday.go:timeOfDaySheet":         true,
