@@ -25,7 +25,6 @@ var longFunctions = map[string]bool{
 	"cluster/ward.go:WardPoints":                  true,
 	"cmd/cohortmix/shard.go:newShardCmd":          true,
 	"cohort/group/mixture.go:BoutTable":           true,
-	"cohort/group/refresh.go:Match":               true,
 	"cohort/group/stability.go:resampleStability": true,
 	"cohort/job/job.go:Describe":                  true,
 	"cohort/job/passes.go:AssignOf":               true,

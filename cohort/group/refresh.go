@@ -57,6 +57,37 @@ type Matching struct {
 // returning members when that is at least half of them, and "gone" otherwise.
 func Match(prev Previous, next Next) (*Matching, error) {
 	m := &Matching{}
+	if err := m.matchStates(prev, next); err != nil {
+		return nil, err
+	}
+	pg, ng := m.groupCentres(prev, next)
+	// Where did the returning members of each previous group go?
+	moved := make([][]int, len(prev.GroupNames))
+	for i := range moved {
+		moved[i] = make([]int, len(next.GroupShares))
+	}
+	for u, p := range next.PrevGroup {
+		if p >= 0 && p < len(moved) && next.Labels[u] >= 0 && next.Labels[u] < len(next.GroupShares) {
+			moved[p][next.Labels[u]]++
+		}
+	}
+	m.GroupDrift = make([]float64, len(next.GroupShares))
+	for i := range m.GroupDrift {
+		m.GroupDrift[i] = math.NaN()
+	}
+	gp, err := matchGroups(pg, ng, moved, prev.Method, prev.Cut, m.GroupDrift)
+	if err != nil {
+		return nil, err
+	}
+	m.GroupPrev = gp
+	m.GroupNames = freshNames("G", prev.GroupNames, gp)
+	m.setStatus(prev, moved)
+	return m, nil
+}
+
+// matchStates matches the new states to the previous ones by their feature means, each feature
+// divided by the previous model's spread (a missing mean taken as 0), and names them.
+func (m *Matching) matchStates(prev Previous, next Next) error {
 	std := func(rows [][]float64) *mat.Dense {
 		out := mat.NewDense(len(rows), len(prev.Scale), nil)
 		for i, r := range rows {
@@ -74,14 +105,22 @@ func Match(prev Previous, next Next) (*Matching, error) {
 		return out
 	}
 	if len(next.StateMeans) == 0 || len(prev.StateMeans) == 0 {
-		return nil, fmt.Errorf("group: Match: no states: %w", cohort.ErrMismatch)
+		return fmt.Errorf("group: Match: no states: %w", cohort.ErrMismatch)
 	}
 	sp, sd, err := cluster.MatchCentroids(std(prev.StateMeans), std(next.StateMeans))
 	if err != nil {
-		return nil, fmt.Errorf("group: matching states: %w", err)
+		return fmt.Errorf("group: matching states: %w", err)
 	}
 	m.StatePrev, m.StateDrift = sp, sd
 	m.StateNames = freshNames("S", prev.StateNames, sp)
+	return nil
+}
+
+// groupCentres are the previous and the new groups' centres in the grouping space over the union
+// of states (the previous states first, then the new-only ones), and m.Place, which puts a new
+// participant's shares there.
+func (m *Matching) groupCentres(prev Previous, next Next) (pg, ng *mat.Dense) {
+	sp := m.StatePrev
 	// Shares over the union of states: previous states first, then the new-only ones.
 	extra := 0
 	col := make([]int, len(sp))
@@ -105,11 +144,11 @@ func Match(prev Previous, next Next) (*Matching, error) {
 	for i := range identity {
 		identity[i] = i
 	}
-	pg := mat.NewDense(len(prev.GroupShares), width, nil)
+	pg = mat.NewDense(len(prev.GroupShares), width, nil)
 	for i, s := range prev.GroupShares {
 		pg.SetRow(i, Embed(prev.Method, pad(s, identity)))
 	}
-	ng := mat.NewDense(len(next.GroupShares), width, nil)
+	ng = mat.NewDense(len(next.GroupShares), width, nil)
 	for i, s := range next.GroupShares {
 		ng.SetRow(i, Embed(prev.Method, pad(s, col)))
 	}
@@ -117,26 +156,14 @@ func Match(prev Previous, next Next) (*Matching, error) {
 		m.PrevCentres = append(m.PrevCentres, append([]float64(nil), pg.RawRowView(i)...))
 	}
 	m.Place = func(share []float64) []float64 { return Embed(prev.Method, pad(share, col)) }
-	// Where did the returning members of each previous group go?
-	moved := make([][]int, len(prev.GroupNames))
-	for i := range moved {
-		moved[i] = make([]int, len(next.GroupShares))
-	}
-	for u, p := range next.PrevGroup {
-		if p >= 0 && p < len(moved) && next.Labels[u] >= 0 && next.Labels[u] < len(next.GroupShares) {
-			moved[p][next.Labels[u]]++
-		}
-	}
-	m.GroupDrift = make([]float64, len(next.GroupShares))
-	for i := range m.GroupDrift {
-		m.GroupDrift[i] = math.NaN()
-	}
-	gp, err := matchGroups(pg, ng, moved, prev.Method, prev.Cut, m.GroupDrift)
-	if err != nil {
-		return nil, err
-	}
-	m.GroupPrev = gp
-	m.GroupNames = freshNames("G", prev.GroupNames, gp)
+	return pg, ng
+}
+
+// setStatus says what became of each group: a new group continues a previous one or is new; a
+// previous group continues, merged into the new group that holds at least half of its returning
+// members, or is gone.
+func (m *Matching) setStatus(prev Previous, moved [][]int) {
+	gp := m.GroupPrev
 	m.NewStatus = make([]string, len(gp))
 	kept := make([]bool, len(prev.GroupNames))
 	for i, p := range gp {
@@ -170,7 +197,6 @@ func Match(prev Previous, next Next) (*Matching, error) {
 			m.PrevStatus[p] = "gone"
 		}
 	}
-	return m, nil
 }
 
 // mutualMajority tells whether more than half of previous group p's returning members are in
