@@ -532,26 +532,9 @@ func (r *reader) readFile(p string) error {
 	} else {
 		r.progress = func() {}
 	}
-	br := bufio.NewReaderSize(newLineLimit(in, p), 1<<16)
-	head, perr := br.Peek(64 << 10)
-	if perr != nil && !errors.Is(perr, io.EOF) && !errors.Is(perr, bufio.ErrBufferFull) {
-		return r.gzipOrIO(p, perr)
-	}
-	if bytes.HasPrefix(head, []byte("\xef\xbb\xbf")) {
-		_, _ = br.Discard(3)
-		head = head[3:]
-	}
-	if len(bytes.TrimSpace(head)) == 0 {
-		return &InputError{File: p, Msg: "file is empty; it needs a header row and at least one window", Err: ErrEmpty}
-	}
-	if off := textFault(head, perr != nil && errors.Is(perr, io.EOF)); off >= 0 {
-		if nl := bytes.IndexByte(head, '\n'); nl < 0 || off < nl { // in the header: not text at all
-			return &InputError{File: p, Line: 1, Msg: "is not a text table (binary or not UTF-8); export it as CSV or TSV", Err: ErrNotText}
-		}
-		return textFaultError(p, head, off, 1)
-	}
-	if bytes.IndexByte(head, '\n') < 0 && bytes.IndexByte(head, '\r') >= 0 {
-		return &InputError{File: p, Line: 1, Msg: "lines end in a bare carriage return (an old Mac line end); save the file with LF or CRLF line ends", Err: ErrRagged}
+	br, head, err := r.textHead(p, in)
+	if err != nil {
+		return err
 	}
 	delim := sniffDelimiter(head)
 	r.comma = delim == ';' || delim == '\t' && decimalCommas(head)
@@ -567,24 +550,68 @@ func (r *reader) readFile(p string) error {
 	if err != nil {
 		return err
 	}
+	rows, err := r.textRows(p, br, cr, head, header, roles, delim)
+	if err != nil {
+		return err
+	}
+	if rows == 0 {
+		return &InputError{File: p, Line: 1, Msg: "has a header but no windows; each row should be one window", Err: ErrEmpty}
+	}
+	hexsum, n := sum()
+	r.files = append(r.files, FileInfo{Path: p, SHA256: hexsum, Bytes: n, Rows: rows, Delimiter: delimName[delim], Decimal: decimalName[r.comma], MadeBy: madeByBeside(p)})
+	r.rows += rows
+	return nil
+}
+
+// textHead opens a text table for reading and checks its head (the first 64 KiB, after a
+// byte-order mark): not empty, text, and lines that end in LF or CRLF.
+func (r *reader) textHead(p string, in io.Reader) (*bufio.Reader, []byte, error) {
+	br := bufio.NewReaderSize(newLineLimit(in, p), 1<<16)
+	head, perr := br.Peek(64 << 10)
+	if perr != nil && !errors.Is(perr, io.EOF) && !errors.Is(perr, bufio.ErrBufferFull) {
+		return nil, nil, r.gzipOrIO(p, perr)
+	}
+	if bytes.HasPrefix(head, []byte("\xef\xbb\xbf")) {
+		_, _ = br.Discard(3)
+		head = head[3:]
+	}
+	if len(bytes.TrimSpace(head)) == 0 {
+		return nil, nil, &InputError{File: p, Msg: "file is empty; it needs a header row and at least one window", Err: ErrEmpty}
+	}
+	if off := textFault(head, perr != nil && errors.Is(perr, io.EOF)); off >= 0 {
+		if nl := bytes.IndexByte(head, '\n'); nl < 0 || off < nl { // in the header: not text at all
+			return nil, nil, &InputError{File: p, Line: 1, Msg: "is not a text table (binary or not UTF-8); export it as CSV or TSV", Err: ErrNotText}
+		}
+		return nil, nil, textFaultError(p, head, off, 1)
+	}
+	if bytes.IndexByte(head, '\n') < 0 && bytes.IndexByte(head, '\r') >= 0 {
+		return nil, nil, &InputError{File: p, Line: 1, Msg: "lines end in a bare carriage return (an old Mac line end); save the file with LF or CRLF line ends", Err: ErrRagged}
+	}
+	return br, head, nil
+}
+
+// textRows reads a text table's windows after its header: the first through encoding/csv (it
+// decides the feature columns of the first file and the kind of the order column), the rest in
+// parallel chunks; it returns how many there were.
+func (r *reader) textRows(p string, br *bufio.Reader, cr *csv.Reader, head []byte, header []string, roles roles, delim rune) (int, error) {
 	fileIdx := len(r.files)
 	rows := 0
 	// The first window goes through encoding/csv: it decides the feature columns of the first
 	// file and the kind of the order column. The rest is parsed in parallel chunks.
 	rec, err := cr.Read()
 	if err != nil && err != io.EOF {
-		return r.csvError(p, err)
+		return 0, r.csvError(p, err)
 	}
 	if err == nil {
 		if r.features == nil {
 			if err := r.classify(p, cr.FieldPos, header, append([][]string{rec}, sampleRecords(head, delim, len(header))...), &roles, delim); err != nil {
-				return err
+				return 0, err
 			}
 		}
 		rows = 1
 		line, _ := cr.FieldPos(0)
 		if err := r.addRecord(p, fileIdx, header, roles, delim, rec, cr.FieldPos, parseOrderCell); err != nil {
-			return err
+			return 0, err
 		}
 		for _, f := range rec {
 			line += strings.Count(f, "\n") // quoted newlines
@@ -603,16 +630,10 @@ func (r *reader) readFile(p string) error {
 			return nil
 		})
 		if err != nil {
-			return err
+			return 0, err
 		}
 	}
-	if rows == 0 {
-		return &InputError{File: p, Line: 1, Msg: "has a header but no windows; each row should be one window", Err: ErrEmpty}
-	}
-	hexsum, n := sum()
-	r.files = append(r.files, FileInfo{Path: p, SHA256: hexsum, Bytes: n, Rows: rows, Delimiter: delimName[delim], Decimal: decimalName[r.comma], MadeBy: madeByBeside(p)})
-	r.rows += rows
-	return nil
+	return rows, nil
 }
 
 // appendRow adds one window read cell by cell (from a sheet, a Parquet row or the first line of

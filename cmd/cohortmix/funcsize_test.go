@@ -37,7 +37,6 @@ var longFunctions = map[string]bool{
 	"cohort/raw/split.go:runFileSplit":            true,
 	"cohort/read.go:assignRoles":                  true,
 	"cohort/read.go:mergeChunk":                   true,
-	"cohort/read.go:readFile":                     true,
 	"cohort/synth/rawsignal.go:WriteRaw":          true,
 	"cohort/synth/scenario.go:drawGroups":         true,
 	"cohort/synth/wear.go:WriteWear":              true,
