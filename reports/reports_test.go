@@ -6,6 +6,7 @@ import (
 	"encoding/csv"
 	"encoding/json"
 	"errors"
+	"github.com/cohortmix/cohortmix/cohort/note"
 	"image/color"
 	"image/png"
 	"io"
@@ -630,6 +631,26 @@ func TestDendrogramDrawsTreeAndLeaves(t *testing.T) {
 	for g := range r.GroupNames {
 		if seen[groupColour(g)] < 20 {
 			t.Errorf("group %d's colour on %d pixels: its leaf and legend are not drawn", g, seen[groupColour(g)])
+		}
+	}
+}
+
+// The words of the grouping's typed notes, with the option named as the reader sets it.
+func TestNoteWords(t *testing.T) {
+	t.Parallel()
+	r := &Result{OptionName: func(s string) string { return map[string]string{"group.Options.Method": "--method"}[s] }}
+	for _, c := range []struct {
+		n    note.Note
+		want string
+	}{
+		{note.Note{Kind: group.NoteAutoKMeans, Ints: []int{12000, 10000}, Option: "group.Options.Method"}, "12,000 participants are more than 10,000: they were grouped by k-means on the centred log-ratios, which scales, instead of Ward linkage (set --method ward-hellinger to insist)"},
+		{note.Note{Kind: group.NoteGapSteady, Ints: []int{5, 3}, Floats: []float64{0.61, 0.8, 0.93}}, "the gap statistic and the stability step chose 5 groups, a tentative grouping (bootstrap stability 0.61, below 0.80), so 3 were kept, the largest smaller number whose grouping is stable (0.93)"},
+		{note.Note{Kind: group.NoteMixtureSample, Ints: []int{3000, 20000}}, "the mixture was fitted on a reproducible sample of 3,000 of the 20,000 participants, and every participant was placed by it"},
+		{note.Note{Kind: group.NoteEmptyComponents, Ints: []int{4, 1}}, "of the 4 groups the criterion chose, 1 held no participant as its most probable group and were left out"},
+		{note.Note{Kind: "later.kind", Ints: []int{1}}, "later.kind [1] [] "},
+	} {
+		if got := NoteWords(r, c.n); got != c.want {
+			t.Errorf("%s:\n got %s\nwant %s", c.n.Kind, got, c.want)
 		}
 	}
 }

@@ -237,8 +237,12 @@ func detailRows(r *Result) [][2]string {
 // Settings sheet, not on the clinician's Summary.
 func analystNotes(r *Result) []string {
 	var notes []string
-	if r.Grouping.Note != "" {
-		notes = append(notes, r.Grouping.Note)
+	if len(r.Grouping.Notes) > 0 {
+		words := make([]string, len(r.Grouping.Notes))
+		for i, n := range r.Grouping.Notes {
+			words[i] = NoteWords(r, n)
+		}
+		notes = append(notes, strings.Join(words, "; "))
 	}
 	return append(notes, r.Notes...)
 }

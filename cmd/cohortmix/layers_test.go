@@ -10,7 +10,7 @@ import (
 // lower layers, so that imports point down: readers and leaves, the algorithms, the job, the
 // words, the command line (DEVELOPERS.md). A new package must be placed here.
 var layers = map[string]int{
-	"cohort/clock": 0, "cohort/decimal": 0, "cohort/pqframe": 0, "cohort/scratch": 0, "cohort/pseudonym": 0,
+	"cohort/clock": 0, "cohort/decimal": 0, "cohort/pqframe": 0, "cohort/scratch": 0, "cohort/pseudonym": 0, "cohort/note": 0,
 	"cluster/groupstat": 0, "cluster/par": 0,
 	"cluster": 1, "cluster/mixture": 2,
 	"cohort": 3, "cohort/raw": 3, "cohort/synth": 3,

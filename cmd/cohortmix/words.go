@@ -86,7 +86,5 @@ func inFlagWords(r *reports.Result) {
 		}
 	}
 	r.WindowSource = flagWords(r.WindowSource)
-	if r.Grouping != nil {
-		r.Grouping.Note = flagWords(r.Grouping.Note)
-	}
+	r.OptionName = flagWords
 }

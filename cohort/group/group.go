@@ -13,6 +13,7 @@ import (
 	"github.com/cohortmix/cohortmix/cluster/mixture"
 	"github.com/cohortmix/cohortmix/cluster/par"
 	"github.com/cohortmix/cohortmix/cohort"
+	"github.com/cohortmix/cohortmix/cohort/note"
 	"gonum.org/v1/gonum/mat"
 )
 
@@ -198,7 +199,7 @@ type Grouping struct {
 	Scores       []KScore      // every criterion over the range tried
 	Centroids    [][]float64   // per group, in the grouping space (a medoid for PAM)
 	Distance     []float64     // each participant's distance to its group's centroid
-	Note         string        // what the method did, e.g. a switch for a large cohort
+	Notes        []note.Note   // what the method did on its own, e.g. a switch for a large cohort (the kinds below)
 	Tree         *cluster.Tree // the participants' dendrogram, for Ward
 	CentroidTree *cluster.Tree // average linkage of the group centres, for a dendrogram of the groups
 	Stability    *Stability
@@ -267,15 +268,15 @@ func Signatures(ctx context.Context, shares [][]float64, opts Options) (*Groupin
 	if opts.MaxBytes == 0 {
 		opts.MaxBytes = 512 << 20
 	}
-	note := ""
+	var notes []note.Note
 	if opts.Method == Auto {
 		opts.Method = WardHellinger
 		if n > LargeCohort {
 			opts.Method = KMeansCLR
-			note = fmt.Sprintf("%s participants are more than %s: they were grouped by k-means on the centred log-ratios, which scales, instead of Ward linkage (set group.Options.Method ward-hellinger to insist)", cohort.Thousands(n), cohort.Thousands(LargeCohort))
+			notes = append(notes, note.Note{Kind: NoteAutoKMeans, Ints: []int{n, LargeCohort}, Option: "group.Options.Method"})
 		}
 	}
-	g := &Grouping{Method: opts.Method, Criterion: opts.Criterion, Note: note}
+	g := &Grouping{Method: opts.Method, Criterion: opts.Criterion, Notes: notes}
 	d := len(shares[0])
 	x := mat.NewDense(n, d, nil)
 	for i, s := range shares {
@@ -389,10 +390,7 @@ func (g *Grouping) chooseK(ctx context.Context, x *mat.Dense, dist *cluster.Cond
 	if n > LargeCohort && len(opts.Groups) > 1 {
 		cx, clab = sampleRows(x, labelsByK, LargeCohort, opts.Seed)
 		cdist = nil
-		if g.Note != "" {
-			g.Note += "; "
-		}
-		g.Note += fmt.Sprintf("the mean silhouettes, the gap statistic and the stability of each number of groups were computed on a reproducible sample of %s of the %s participants", cohort.Thousands(LargeCohort), cohort.Thousands(n))
+		g.Notes = append(g.Notes, note.Note{Kind: NoteCriteriaSample, Ints: []int{LargeCohort, n}})
 	}
 	for _, k := range opts.Groups {
 		sc := KScore{K: k}
@@ -413,25 +411,18 @@ func (g *Grouping) chooseK(ctx context.Context, x *mat.Dense, dist *cluster.Cond
 		g.K = Choose(g.Scores, opts.Criterion)
 		if opts.Criterion == ByGapSteady {
 			if k0 := Choose(g.Scores, ByGapStable); k0 != g.K {
-				if g.Note != "" {
-					g.Note += "; "
-				}
 				s0, _ := g.Score(k0)
 				s, _ := g.Score(g.K)
-				g.Note += fmt.Sprintf("the gap statistic and the stability step chose %d groups, a tentative grouping (bootstrap stability %.2f, below %.2f), so %d were kept, the largest smaller number whose grouping is stable (%.2f)",
-					k0, s0.Stability, UnstableGrouping, g.K, s.Stability)
+				g.Notes = append(g.Notes, note.Note{Kind: NoteGapSteady, Ints: []int{k0, g.K}, Floats: []float64{s0.Stability, UnstableGrouping, s.Stability}})
 			}
 		}
 		if opts.Valley > 0 {
-			k, note, err := valleyCap(cx, clab, opts.Groups, g.K, opts.Valley)
+			k, err := valleyCap(cx, clab, opts.Groups, g.K, opts.Valley)
 			if err != nil {
 				return err
 			}
 			if k != g.K {
-				if g.Note != "" {
-					g.Note += "; "
-				}
-				g.Note += note
+				g.Notes = append(g.Notes, note.Note{Kind: NoteValleyCap, Ints: []int{g.K, k}})
 			}
 			g.K = k
 		}
@@ -464,10 +455,7 @@ func (g *Grouping) describe(ctx context.Context, x *mat.Dense, dist *cluster.Con
 		return err
 	}
 	if dist == nil && n > silhouetteSample {
-		if g.Note != "" {
-			g.Note += "; "
-		}
-		g.Note += sampledSilhouettes(n)
+		g.Notes = append(g.Notes, note.Note{Kind: NoteSilhouetteSample, Ints: []int{silhouetteSample, n, int(cluster.CondensedBytes(n) >> 20)}})
 	}
 	return nil
 }
@@ -482,10 +470,30 @@ const SilhouetteMatrixBytes = 64 << 20
 // there is no matrix of distances.
 const silhouetteSample = 5000
 
-// sampledSilhouettes says that the silhouettes of n participants were computed for a sample.
-func sampledSilhouettes(n int) string {
-	return fmt.Sprintf("silhouettes were computed for a sample of 5,000 participants (each against all): a full distance matrix on %s would need %s MiB", cohort.Thousands(n), cohort.Thousands(int(cluster.CondensedBytes(n)>>20)))
-}
+// The kinds of the grouping's notes (Grouping.Notes), with the order of their numbers.
+const (
+	// NoteAutoKMeans: the automatic method grouped Ints[0] participants, more than Ints[1], by
+	// k-means on the centred log-ratios instead of Ward linkage.
+	NoteAutoKMeans note.Kind = "group.auto-kmeans"
+	// NoteCriteriaSample: the criteria for the number of groups were computed on a sample of
+	// Ints[0] of the Ints[1] participants.
+	NoteCriteriaSample note.Kind = "group.criteria-sample"
+	// NoteGapSteady: the gap statistic and the stability step chose Ints[0] groups, whose
+	// stability Floats[0] is below Floats[1], so Ints[1] were kept, of stability Floats[2].
+	NoteGapSteady note.Kind = "group.gap-steady"
+	// NoteValleyCap: the rule chose Ints[0] groups, some of which formed one mode with a
+	// neighbour, so Ints[1] were kept.
+	NoteValleyCap note.Kind = "group.valley-cap"
+	// NoteSilhouetteSample: silhouettes were computed for a sample of Ints[0] of the Ints[1]
+	// participants, each against all; a full matrix of distances would need Ints[2] MiB.
+	NoteSilhouetteSample note.Kind = "group.silhouette-sample"
+	// NoteMixtureSample: the mixture was fitted on a sample of Ints[0] of the Ints[1]
+	// participants, and everyone was placed by it.
+	NoteMixtureSample note.Kind = "group.mixture-sample"
+	// NoteEmptyComponents: of the Ints[0] groups the criterion chose, Ints[1] held no
+	// participant as its most probable group and were left out.
+	NoteEmptyComponents note.Kind = "group.empty-components"
+)
 
 // sampleRows draws m of x's rows without replacement (a seeded partial Fisher–Yates shuffle, kept
 // in row order) with their labels for every k.
@@ -954,21 +962,21 @@ func CheckRanges(features []string, fitted [][3]float64, medians [][]float64) []
 }
 
 // valleyCap lowers the chosen number of groups, down the candidates, while some pair of groups
-// forms one mode (no density valley deeper than the valley share between them); it returns the
-// number kept and a note for the reader.
-func valleyCap(x *mat.Dense, labels map[int][]int, ks []int, chosen int, valley float64) (int, string, error) {
+// forms one mode (no density valley deeper than the valley share between them, after Hennig
+// 2010); it returns the number kept.
+func valleyCap(x *mat.Dense, labels map[int][]int, ks []int, chosen int, valley float64) (int, error) {
 	k := chosen
 	for i := slices.Index(ks, chosen); i >= 0; i-- {
 		k = ks[i]
 		merged, err := onePairIsOneMode(x, labels[k], k, valley)
 		if err != nil {
-			return 0, "", err
+			return 0, err
 		}
 		if !merged || i == 0 {
 			break
 		}
 	}
-	return k, fmt.Sprintf("the rule for the number of groups chose %d, but some of those groups formed one mode with a neighbour (no density valley between them, after Hennig 2010), so %d were kept", chosen, k), nil
+	return k, nil
 }
 
 // onePairIsOneMode tells whether any two of the k groups form one mode along the line joining

@@ -11,6 +11,7 @@ import (
 	"github.com/cohortmix/cohortmix/cluster/mixture"
 	"github.com/cohortmix/cohortmix/cluster/par"
 	"github.com/cohortmix/cohortmix/cohort"
+	"github.com/cohortmix/cohortmix/cohort/note"
 	"gonum.org/v1/gonum/mat"
 )
 
@@ -129,7 +130,7 @@ func groupMixture(ctx context.Context, shares [][]float64, opts Options) (*Group
 		for r, i := range sampled {
 			fitRows.SetRow(r, x.RawRowView(i))
 		}
-		g.Note = fmt.Sprintf("the mixture was fitted on a reproducible sample of %s of the %s participants, and every participant was placed by it", cohort.Thousands(mixtureFitRows), cohort.Thousands(n))
+		g.Notes = append(g.Notes, note.Note{Kind: NoteMixtureSample, Ints: []int{mixtureFitRows, n}})
 	}
 	best, err := g.fitEach(ctx, fitRows, blocks, opts)
 	if err != nil {
@@ -219,7 +220,7 @@ func (g *Grouping) place(best *mixture.DMM, x *mat.Dense, sampled bool) ([][]flo
 			return nil, nil, nil, err
 		}
 		best = &kept
-		g.Note = joinNote(g.Note, fmt.Sprintf("of the %d groups the criterion chose, %d held no participant as its most probable group and were left out", chose, chose-used))
+		g.Notes = append(g.Notes, note.Note{Kind: NoteEmptyComponents, Ints: []int{chose, chose - used}})
 	}
 	return post, labels, best, nil
 }
@@ -358,12 +359,4 @@ func PlaceMixture(m *mixture.DMM, centroids [][]float64, shares, counts, bouts, 
 		g.CentroidTree, err = CentroidTree(context.Background(), WardHellinger, centroids)
 	}
 	return g, err
-}
-
-// joinNote adds a note to a note, with a semicolon between.
-func joinNote(a, b string) string {
-	if a == "" {
-		return b
-	}
-	return a + "; " + b
 }

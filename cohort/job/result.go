@@ -94,6 +94,10 @@ type Result struct {
 	// when the fits the states were chosen among say so; "" otherwise.
 	SensitivityNote string
 	Notes           []string // what the run decided on its own that a reader should know (not warnings)
+	// OptionName names an option (given by its Go name, such as group.Options.Method) as the
+	// reader sets it, for example by a command-line flag, where the words of a typed note
+	// (note.Note.Option) name it; nil leaves the Go name.
+	OptionName func(string) string
 	// SeparationBasis says which units the separating-variable tests use when that is not
 	// simply every grouped participant (waves: one per person; atypical ones left out).
 	SeparationBasis string
