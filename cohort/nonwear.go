@@ -48,13 +48,6 @@ const (
 	troianoMaxCounts    = 100
 )
 
-// nonWearRule says each rule in words, for the notes.
-var nonWearRule = map[string]string{
-	NonWearTroiano: "the rule of Troiano et al. 2008: 60 minutes or more of zero counts, with interruptions of up to 2 minutes of at most 100 counts a minute",
-	NonWearChoi:    "the algorithm of Choi et al. 2011: 90 minutes or more of zero counts, with interruptions of up to 2 minutes that have 30 minutes of zeros before and after them",
-	NonWearColumn:  "the wear column given, where it holds 0",
-}
-
 // countsFeature finds the column of activity counts among the features: the one named by
 // want, or else the first whose name holds the word counts, count, cpm or axis1 (not a log or a
 // rolling summary of them).

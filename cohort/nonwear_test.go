@@ -3,8 +3,10 @@ package cohort
 import (
 	"context"
 	"fmt"
+	"github.com/cohortmix/cohortmix/cohort/note"
 	"math"
 	"math/rand/v2"
+	"slices"
 	"strings"
 	"testing"
 	"time"
@@ -99,7 +101,9 @@ func TestReadLeavesOutNonWear(t *testing.T) {
 	}
 	defer tab.Close()
 	if tab.Units[0].NonWear != 90 || tab.Units[0].Windows() != 210 || tab.Units[1].NonWear != 0 || tab.Quality.WindowsNonWear != 90 ||
-		!strings.Contains(strings.Join(tab.Quality.Notes, ";"), "90 windows of the participants kept fell in non-wear periods") {
+		!slices.ContainsFunc(tab.Quality.Notes, func(n note.Note) bool {
+			return n.Kind == NoteNonWear && n.Ints[0] == 90 && n.Names[0] == NonWearTroiano
+		}) {
 		t.Errorf("A: %d non-wear, %d windows; B: %d; notes %v", tab.Units[0].NonWear, tab.Units[0].Windows(), tab.Units[1].NonWear, tab.Quality.Notes)
 	}
 	// auto: Choi's algorithm where there are counts and times (the 90 minutes are just enough),

@@ -11,6 +11,7 @@ import (
 	"encoding/hex"
 	"errors"
 	"fmt"
+	"github.com/cohortmix/cohortmix/cohort/note"
 	"hash"
 	"io"
 	"math"
@@ -191,9 +192,9 @@ type Quality struct {
 	Excluded           []Exclusion
 	DroppedFeatures    []Note
 	IgnoredColumns     []Note
-	Notes              []string // policies applied: sorted windows, merged files, …
-	SortedUnits        int      // units whose windows were not in order and were sorted
-	JoinedUnits        int      // units whose windows sat in more than one file
+	Notes              []note.Note // policies applied: sorted windows, merged files, … (the Note kinds of this package)
+	SortedUnits        int         // units whose windows were not in order and were sorted
+	JoinedUnits        int         // units whose windows sat in more than one file
 	// TrimmedCells counts the id and wave cells that had spaces around them, which were
 	// removed ("P6 " is participant P6); TrimmedAt is the first one's row, as file:line.
 	TrimmedCells int
@@ -206,25 +207,42 @@ func (q Quality) WindowsUsed() int {
 	return q.WindowsIn - q.WindowsDropped - q.WindowsNonWear - q.WindowsInvalidDays - q.WindowsExcluded
 }
 
-// QualityNotes are the notes of Quality.Notes on sorted and joined units and on trimmed cells,
-// for q's counts.
-func QualityNotes(q Quality, order string) []string {
-	sorted, joined := q.SortedUnits, q.JoinedUnits
-	var notes []string
+// The kinds of the reading's notes (Quality.Notes), with the order of their numbers and names.
+const (
+	// NoteNonWear: Ints[0] windows of the participants kept fell in non-wear periods and were
+	// left out, by the rule Names[0] (NonWearChoi, NonWearTroiano or NonWearColumn).
+	NoteNonWear note.Kind = "cohort.non-wear"
+	// NoteValidDays: the valid-day rule Names[0] (in words) left out Ints[0] windows of the
+	// participants kept, on other days.
+	NoteValidDays note.Kind = "cohort.valid-days"
+	// NoteTrimmed: Ints[0] id or wave cells had spaces around them, the first at Names[0]; the
+	// spaces were removed.
+	NoteTrimmed note.Kind = "cohort.trimmed"
+	// NoteSorted: the windows of Ints[0] participants were not in order and were sorted by the
+	// order column Names[0].
+	NoteSorted note.Kind = "cohort.sorted"
+	// NoteJoined: Ints[0] participants had windows in more than one file, which were joined.
+	NoteJoined note.Kind = "cohort.joined"
+)
+
+// QualityNotes are the notes of Quality.Notes on non-wear, valid days, trimmed cells and sorted
+// and joined units, for q's counts; order names the order column.
+func QualityNotes(q Quality, order string) []note.Note {
+	var notes []note.Note
 	if q.WindowsNonWear > 0 {
-		notes = append(notes, fmt.Sprintf("%s windows of the participants kept fell in non-wear periods and were left out (%s)", Thousands(q.WindowsNonWear), nonWearRule[q.NonWearRule]))
+		notes = append(notes, note.Note{Kind: NoteNonWear, Ints: []int{q.WindowsNonWear}, Names: []string{q.NonWearRule}})
 	}
 	if q.ValidDayRule != "" {
-		notes = append(notes, fmt.Sprintf("valid days: %s; %s windows of the participants kept fell on other days and were left out", q.ValidDayRule, Thousands(q.WindowsInvalidDays)))
+		notes = append(notes, note.Note{Kind: NoteValidDays, Ints: []int{q.WindowsInvalidDays}, Names: []string{q.ValidDayRule}})
 	}
 	if q.TrimmedCells > 0 {
-		notes = append(notes, fmt.Sprintf("%d id or wave cells had spaces around them (the first at %s); the spaces were removed, so \"P6 \" and \"P6\" are one participant", q.TrimmedCells, q.TrimmedAt))
+		notes = append(notes, note.Note{Kind: NoteTrimmed, Ints: []int{q.TrimmedCells}, Names: []string{q.TrimmedAt}})
 	}
-	if sorted > 0 {
-		notes = append(notes, fmt.Sprintf("windows of %d participants were not in order in the input and were sorted by %s", sorted, order))
+	if q.SortedUnits > 0 {
+		notes = append(notes, note.Note{Kind: NoteSorted, Ints: []int{q.SortedUnits}, Names: []string{order}})
 	}
-	if joined > 0 {
-		notes = append(notes, fmt.Sprintf("%d participants had windows in more than one file; their windows were joined", joined))
+	if q.JoinedUnits > 0 {
+		notes = append(notes, note.Note{Kind: NoteJoined, Ints: []int{q.JoinedUnits}})
 	}
 	return notes
 }

@@ -238,14 +238,14 @@ func TestReadPolicies(t *testing.T) {
 			}
 		}},
 		{"participant split across files", []string{rowsOf(25, ","), "participant,window,f1,f2\nA,100,1,2\n"}, ReadOptions{}, func(t *testing.T, tab *Table) {
-			if len(tab.Units[0].Files) != 2 || tab.Units[0].Windows() != 26 || !strings.Contains(strings.Join(tab.Quality.Notes, ";"), "more than one file") {
+			if len(tab.Units[0].Files) != 2 || tab.Units[0].Windows() != 26 || len(tab.Quality.Notes) != 1 || tab.Quality.Notes[0].Kind != NoteJoined || tab.Quality.Notes[0].Ints[0] != 1 {
 				t.Errorf("files %v windows %d notes %v", tab.Units[0].Files, tab.Units[0].Windows(), tab.Quality.Notes)
 			}
 		}},
 		// Issue 28: "P6 " was merged into P6 with no note; it still is, and counted.
 		{"ids with spaces around them are trimmed, and counted", []string{strings.Replace(strings.Replace(good, "\nB,3,", "\nB ,3,", 1), "\nB,4,", "\n\"  B\",4,", 1)}, ReadOptions{}, func(t *testing.T, tab *Table) {
-			notes := strings.Join(tab.Quality.Notes, ";")
-			if len(tab.Units) != 2 || tab.Quality.TrimmedCells != 2 || !strings.Contains(notes, "2 id or wave cells had spaces around them (the first at ") || !strings.Contains(notes, ".csv:30)") {
+			notes := tab.Quality.Notes
+			if len(tab.Units) != 2 || tab.Quality.TrimmedCells != 2 || len(notes) != 1 || notes[0].Kind != NoteTrimmed || notes[0].Ints[0] != 2 || !strings.HasSuffix(notes[0].Names[0], ".csv:30") {
 				t.Errorf("units %d, trimmed %d, notes %v", len(tab.Units), tab.Quality.TrimmedCells, tab.Quality.Notes)
 			}
 		}},

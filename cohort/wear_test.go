@@ -4,6 +4,8 @@ import (
 	"context"
 	"errors"
 	"fmt"
+	"github.com/cohortmix/cohortmix/cohort/note"
+	"slices"
 	"strings"
 	"testing"
 	"time"
@@ -115,7 +117,9 @@ func TestValidDays(t *testing.T) {
 			if d.Days != 7 || d.ValidDays != 6 || d.Worst != "2026-10-25" || d.WorstHours != 9 || d.LeftOut != 9*60 || !d.WeekendOK {
 				t.Errorf("D's wear %+v", d)
 			}
-			if !strings.Contains(strings.Join(q.Notes, ";"), "valid days: a day counts with 10 h or more of wear") {
+			if !slices.ContainsFunc(q.Notes, func(n note.Note) bool {
+				return n.Kind == NoteValidDays && strings.HasPrefix(n.Names[0], "a day counts with 10 h or more of wear")
+			}) {
 				t.Errorf("notes %v", q.Notes)
 			}
 		})

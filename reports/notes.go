@@ -5,12 +5,23 @@ import (
 
 	"github.com/cohortmix/cohortmix/cohort"
 	"github.com/cohortmix/cohortmix/cohort/group"
+	"github.com/cohortmix/cohortmix/cohort/job"
 	"github.com/cohortmix/cohortmix/cohort/note"
 )
 
-// NoteWords puts a typed note of the library into words, naming its option as the reader sets it
-// (Result.OptionName). A kind this version does not know is given by its name and numbers.
+// NoteWords puts a typed note of the library into words, with the options it names put as the
+// reader sets them (Result.OptionName; r may be nil). A kind this version does not know is given
+// by its name and numbers.
 func NoteWords(r *Result, n note.Note) string {
+	text := noteText(n)
+	if r != nil && r.OptionName != nil {
+		text = r.OptionName(text)
+	}
+	return text
+}
+
+// noteText is a note in words, with the options named by their Go names.
+func noteText(n note.Note) string {
 	i := func(k int) int {
 		if k < len(n.Ints) {
 			return n.Ints[k]
@@ -24,10 +35,25 @@ func NoteWords(r *Result, n note.Note) string {
 		return 0
 	}
 	option := n.Option
-	if r != nil && r.OptionName != nil && option != "" {
-		option = r.OptionName(option)
+	name := func(k int) string {
+		if k < len(n.Names) {
+			return n.Names[k]
+		}
+		return ""
 	}
 	switch n.Kind {
+	case cohort.NoteNonWear:
+		return fmt.Sprintf("%s windows of the participants kept fell in non-wear periods and were left out (%s)", cohort.Thousands(i(0)), nonWearRule[name(0)])
+	case cohort.NoteValidDays:
+		return fmt.Sprintf("valid days: %s; %s windows of the participants kept fell on other days and were left out", name(0), cohort.Thousands(i(0)))
+	case cohort.NoteTrimmed:
+		return fmt.Sprintf("%d id or wave cells had spaces around them (the first at %s); the spaces were removed, so \"P6 \" and \"P6\" are one participant", i(0), name(0))
+	case cohort.NoteSorted:
+		return fmt.Sprintf("windows of %d participants were not in order in the input and were sorted by %s", i(0), name(0))
+	case cohort.NoteJoined:
+		return fmt.Sprintf("%d participants had windows in more than one file; their windows were joined", i(0))
+	case job.NoteGroupsCapped:
+		return fmt.Sprintf("with %d participants, up to %d groups were tried, of the up to %d asked for", i(0), i(1), i(2))
 	case group.NoteAutoKMeans:
 		return fmt.Sprintf("%s participants are more than %s: they were grouped by k-means on the centred log-ratios, which scales, instead of Ward linkage (set %s ward-hellinger to insist)",
 			cohort.Thousands(i(0)), cohort.Thousands(i(1)), option)
@@ -48,4 +74,11 @@ func NoteWords(r *Result, n note.Note) string {
 		return fmt.Sprintf("of the %d groups the criterion chose, %d held no participant as its most probable group and were left out", i(0), i(1))
 	}
 	return fmt.Sprintf("%s %v %v %s", n.Kind, n.Ints, n.Floats, option)
+}
+
+// nonWearRule says each non-wear rule in words.
+var nonWearRule = map[string]string{
+	cohort.NonWearTroiano: "the rule of Troiano et al. 2008: 60 minutes or more of zero counts, with interruptions of up to 2 minutes of at most 100 counts a minute",
+	cohort.NonWearChoi:    "the algorithm of Choi et al. 2011: 90 minutes or more of zero counts, with interruptions of up to 2 minutes that have 30 minutes of zeros before and after them",
+	cohort.NonWearColumn:  "the wear column given, where it holds 0",
 }

@@ -638,7 +638,7 @@ func TestDendrogramDrawsTreeAndLeaves(t *testing.T) {
 // The words of the grouping's typed notes, with the option named as the reader sets it.
 func TestNoteWords(t *testing.T) {
 	t.Parallel()
-	r := &Result{OptionName: func(s string) string { return map[string]string{"group.Options.Method": "--method"}[s] }}
+	r := &Result{OptionName: func(s string) string { return strings.ReplaceAll(s, "group.Options.Method", "--method") }}
 	for _, c := range []struct {
 		n    note.Note
 		want string

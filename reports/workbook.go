@@ -766,7 +766,7 @@ func qualitySheet(f *excelize.File, st *styles, r *Result) error {
 		}
 	}
 	for _, n := range q.Notes {
-		if err := t.put(v{"policy applied", st.text}, v{"", st.text}, v{"", st.text}, v{"", st.text}, v{n, st.wrap}); err != nil {
+		if err := t.put(v{"policy applied", st.text}, v{"", st.text}, v{"", st.text}, v{"", st.text}, v{NoteWords(r, n), st.wrap}); err != nil {
 			return err
 		}
 	}

@@ -7,6 +7,7 @@ import (
 
 	"github.com/cohortmix/cohortmix/cohort"
 	"github.com/cohortmix/cohortmix/cohort/job"
+	"github.com/cohortmix/cohortmix/reports"
 	"github.com/spf13/cobra"
 )
 
@@ -86,7 +87,7 @@ func checkRun(ctx context.Context, o *checkOptions) error {
 		fmt.Fprintf(o.IO.Out, "  not used %s: %s\n", n.Name, userWords(n.Reason))
 	}
 	for _, n := range q.Notes {
-		fmt.Fprintf(o.IO.Out, "  note: %s\n", userWords(n))
+		fmt.Fprintf(o.IO.Out, "  note: %s\n", userWords(reports.NoteWords(nil, n)))
 	}
 	if len(t.Units) < 3 {
 		return fmt.Errorf("%s: %d participants can be grouped (%d excluded, see above): %w; grouping needs at least 3", o.Inputs[0], len(t.Units), len(q.Excluded), cohort.ErrTooFew)

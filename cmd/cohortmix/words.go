@@ -80,7 +80,7 @@ func inFlagWords(r *reports.Result) {
 			notes[i].Reason = flagWords(notes[i].Reason)
 		}
 	}
-	for _, list := range [][]string{q.Notes, r.Notes, r.Warnings} {
+	for _, list := range [][]string{r.Notes, r.Warnings} {
 		for i := range list {
 			list[i] = flagWords(list[i])
 		}

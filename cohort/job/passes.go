@@ -5,6 +5,7 @@ import (
 	"context"
 	"errors"
 	"fmt"
+	"github.com/cohortmix/cohortmix/cohort/note"
 	"math"
 	"slices"
 	"strings"
@@ -826,7 +827,7 @@ func checkCounts(p *Plan, o Options) error {
 			name, o.Groups[0], n, cohort.ErrTooFew, n-1)
 	}
 	if len(fit) < len(o.Groups) {
-		p.Quality.Notes = append(p.Quality.Notes, fmt.Sprintf("with %d participants, up to %d groups were tried, of the up to %d asked for", n, n-1, o.Groups[len(o.Groups)-1]))
+		p.Quality.Notes = append(p.Quality.Notes, note.Note{Kind: NoteGroupsCapped, Ints: []int{n, n - 1, o.Groups[len(o.Groups)-1]}})
 		p.Options.Groups = fit
 	}
 	return nil

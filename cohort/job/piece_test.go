@@ -11,6 +11,7 @@ import (
 	"strings"
 	"testing"
 
+	"fmt"
 	"github.com/cohortmix/cohortmix/cohort"
 	"github.com/cohortmix/cohortmix/cohort/synth"
 )
@@ -56,7 +57,7 @@ func TestPiecesRefuseWhatTheyAreNot(t *testing.T) {
 	if err != nil || len(back.Units) != len(c.Units) || back.Shard != c.Shard || back.Quality.WindowsIn != c.Quality.WindowsIn || id.Run != "run-1" || id.Shard != "2/2" || len(id.Sum) != 64 {
 		t.Fatalf("read back: %v, %d units of shard %v, id %+v", err, len(back.Units), back.Shard, id)
 	}
-	newer := bytes.Replace(good, []byte(`"version":4`), []byte(`"version":9`), 1)
+	newer := bytes.Replace(good, []byte(fmt.Sprintf(`"version":%d`, PieceVersion)), []byte(`"version":9`), 1)
 	flipped := bytes.Clone(good)
 	flipped[len(flipped)-20] ^= 0x04
 	for _, c := range []struct {
@@ -66,7 +67,7 @@ func TestPiecesRefuseWhatTheyAreNot(t *testing.T) {
 		want string
 	}{
 		{"other kind", good, KindPlan, "a census piece where a plan piece is needed"},
-		{"other version", newer, KindCensus, "a piece of version 9, and this cohortmix reads version 4"},
+		{"other version", newer, KindCensus, fmt.Sprintf("a piece of version 9, and this cohortmix reads version %d", PieceVersion)},
 		{"not a piece", []byte("participant,window\nP1,1\n"), KindCensus, "not a piece of a split run"},
 		{"cut short", good[:len(good)/2], KindCensus, "the census piece is damaged (its content does not match its checksum)"},
 		{"a bit flipped (issue 28: 5 of 25 flips in an assignment piece went through)", flipped, KindCensus, "the census piece is damaged (its content does not match its checksum)"},

@@ -1,6 +1,7 @@
 package job
 
 import (
+	"github.com/cohortmix/cohortmix/cohort/note"
 	"sort"
 	"time"
 
@@ -94,9 +95,9 @@ type Result struct {
 	// when the fits the states were chosen among say so; "" otherwise.
 	SensitivityNote string
 	Notes           []string // what the run decided on its own that a reader should know (not warnings)
-	// OptionName names an option (given by its Go name, such as group.Options.Method) as the
-	// reader sets it, for example by a command-line flag, where the words of a typed note
-	// (note.Note.Option) name it; nil leaves the Go name.
+	// OptionName puts the options a note's words name by their Go names (such as
+	// group.Options.Method) as the reader sets them, for example as command-line flags: it is
+	// given the words and returns them so named; nil leaves the Go names.
 	OptionName func(string) string
 	// SeparationBasis says which units the separating-variable tests use when that is not
 	// simply every grouped participant (waves: one per person; atypical ones left out).
@@ -229,3 +230,7 @@ func (r *Result) GroupMeans() ([][]float64, []int, []float64) {
 	}
 	return means, sizes, out
 }
+
+// NoteGroupsCapped (in Quality.Notes): with Ints[0] participants, up to Ints[1] groups were
+// tried, of the up to Ints[2] asked for.
+const NoteGroupsCapped note.Kind = "job.groups-capped"
