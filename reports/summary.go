@@ -19,25 +19,51 @@ func summarySheet(f *excelize.File, st *styles, r *Result) error {
 	if err != nil {
 		return err
 	}
-	put := func(a, b string) error { return t.put(v{a, st.header}, v{b, st.wrap}) }
-	title := func(s string) error { return t.put(v{s, st.title}) }
-	if err := title(summaryTitle(r)); err != nil {
-		return err
-	}
-	if r.Synthetic {
-		if err := t.put(v{"SYNTHETIC DATA", st.warn}, v{"Every participant in this workbook is invented by the tool's demo generator; no real person's data is in it.", st.warn}); err != nil {
+	sp := summaryPage{t: t, st: st, r: r}
+	for _, part := range []func() error{sp.head, sp.groups, sp.states, sp.cautions, sp.guideAndDetails} {
+		if err := part(); err != nil {
 			return err
 		}
 	}
-	if err := put("In short", inShort(r)); err != nil {
+	return t.close(false)
+}
+
+// summaryPage is the Summary sheet as it is written, part by part.
+type summaryPage struct {
+	t  *table
+	st *styles
+	r  *Result
+}
+
+func (sp summaryPage) put(a, b string) error { return sp.t.put(v{a, sp.st.header}, v{b, sp.st.wrap}) }
+func (sp summaryPage) title(s string) error  { return sp.t.put(v{s, sp.st.title}) }
+
+// head is the title, the mark of synthetic data and the run in short.
+func (sp summaryPage) head() error {
+	if err := sp.title(summaryTitle(sp.r)); err != nil {
 		return err
 	}
-	t.blank()
+	if sp.r.Synthetic {
+		if err := sp.t.put(v{"SYNTHETIC DATA", sp.st.warn}, v{"Every participant in this workbook is invented by the tool's demo generator; no real person's data is in it.", sp.st.warn}); err != nil {
+			return err
+		}
+	}
+	if err := sp.put("In short", inShort(sp.r)); err != nil {
+		return err
+	}
+	sp.t.blank()
+	return nil
+}
+
+// groups is each group in a line, marked where it is not reproducible or not stable, with who
+// moved since a model, the grouping's stability as a whole and the states' say in it.
+func (sp summaryPage) groups() error {
+	r := sp.r
 	groupsTitle := "Groups"
 	if r.Grouping.K == 1 {
 		groupsTitle = "No distinct groups"
 	}
-	if err := title(groupsTitle); err != nil {
+	if err := sp.title(groupsTitle); err != nil {
 		return err
 	}
 	groupLines := GroupLines(r)
@@ -52,65 +78,79 @@ func summarySheet(f *excelize.File, st *styles, r *Result) error {
 		if gs := r.Grouping.Stability; gs != nil && gs.Jaccard[g] < group.UnstableJaccard {
 			line = fmt.Sprintf("UNSTABLE: this group does not hold when the participants are drawn again (bootstrap stability %.2f, below %.2f; see %s). %s", gs.Jaccard[g], group.UnstableJaccard, SheetStability, line)
 		}
-		if err := put(name, line); err != nil {
+		if err := sp.put(name, line); err != nil {
 			return err
 		}
 	}
 	if r.Changes != nil {
-		if err := put("Moved since the model", capital(MovedText(r.Changes))+" (see "+SheetChanges+")"); err != nil {
+		if err := sp.put("Moved since the model", capital(MovedText(r.Changes))+" (see "+SheetChanges+")"); err != nil {
 			return err
 		}
 	}
 	if ws, ok := r.Grouping.WholeStability(); ok && ws < group.UnstableGrouping {
-		if err := put("The grouping as a whole", wholeUnstable(ws, r.Grouping.K)); err != nil {
+		if err := sp.put("The grouping as a whole", wholeUnstable(ws, r.Grouping.K)); err != nil {
 			return err
 		}
 	}
 	if r.SensitivityNote != "" {
-		if err := put("Number of states", capital(r.SensitivityNote)+" (see "+SheetStability+")."); err != nil {
+		if err := sp.put("Number of states", capital(r.SensitivityNote)+" (see "+SheetStability+")."); err != nil {
 			return err
 		}
 	}
-	t.blank()
-	if err := title("Movement states"); err != nil {
+	sp.t.blank()
+	return nil
+}
+
+// states is each movement state in a line.
+func (sp summaryPage) states() error {
+	if err := sp.title("Movement states"); err != nil {
 		return err
 	}
-	stateLines := StateLines(r)
-	for s, name := range r.StateNames {
-		if err := put(name, stateLines[s]); err != nil {
+	stateLines := StateLines(sp.r)
+	for s, name := range sp.r.StateNames {
+		if err := sp.put(name, stateLines[s]); err != nil {
 			return err
 		}
 	}
-	t.blank()
-	for _, c := range CautionsFor(r) {
-		if err := t.put(v{"Caution", st.warn}, v{c, st.note}); err != nil {
+	sp.t.blank()
+	return nil
+}
+
+// cautions are the cautions and the run's warnings.
+func (sp summaryPage) cautions() error {
+	for _, c := range CautionsFor(sp.r) {
+		if err := sp.t.put(v{"Caution", sp.st.warn}, v{c, sp.st.note}); err != nil {
 			return err
 		}
 	}
-	for _, w := range r.Warnings {
-		if err := t.put(v{"Warning", st.warn}, v{w, st.note}); err != nil {
+	for _, w := range sp.r.Warnings {
+		if err := sp.t.put(v{"Warning", sp.st.warn}, v{w, sp.st.note}); err != nil {
 			return err
 		}
 	}
-	t.blank()
-	if err := title("The sheets of this workbook"); err != nil {
-		return err
-	}
-	for _, g := range sheetGuide(r) {
-		if err := put(g[0], g[1]); err != nil {
+	sp.t.blank()
+	return nil
+}
+
+// guideAndDetails are the guide to the workbook's sheets and the run's details.
+func (sp summaryPage) guideAndDetails() error {
+	for _, part := range []struct {
+		title string
+		rows  [][2]string
+	}{{"The sheets of this workbook", sheetGuide(sp.r)}, {"Details", detailRows(sp.r)}} {
+		if part.title == "Details" {
+			sp.t.blank()
+		}
+		if err := sp.title(part.title); err != nil {
 			return err
 		}
-	}
-	t.blank()
-	if err := title("Details"); err != nil {
-		return err
-	}
-	for _, row := range detailRows(r) {
-		if err := put(row[0], row[1]); err != nil {
-			return err
+		for _, row := range part.rows {
+			if err := sp.put(row[0], row[1]); err != nil {
+				return err
+			}
 		}
 	}
-	return t.close(false)
+	return nil
 }
 
 // summaryTitle says what kind of run the workbook comes from.

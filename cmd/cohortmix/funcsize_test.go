@@ -44,7 +44,6 @@ var longFunctions = map[string]bool{
 	"profile/profile.go:FitStates":                true,
 	"profile/rhythm.go:RhythmOf":                  true,
 	"reports/grouplines.go:groupLines":            true,
-	"reports/summary.go:summarySheet":             true,
 	"reports/timeofday.go:timeOfDaySheet":         true,
 	"reports/workbook.go:groupsSheet":             true,
 	"reports/workbook.go:qualitySheet":            true,
