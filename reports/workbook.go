@@ -6,7 +6,6 @@ import (
 	"math"
 	"slices"
 
-	"github.com/cohortmix/cohortmix/cluster/groupstat"
 	"github.com/cohortmix/cohortmix/cohort"
 	"github.com/cohortmix/cohortmix/cohort/group"
 	"github.com/cohortmix/cohortmix/cohort/job"
@@ -369,64 +368,34 @@ func groupsSheet(f *excelize.File, st *styles, r *Result) error {
 	if err := t.freeze(1); err != nil {
 		return err
 	}
-	members := "members"
-	if r.Counts().Waves {
-		members = "members (participant-waves)"
-	}
-	head := []string{"group", members, "mean silhouette", "description"}
-	if stable {
-		head = []string{"group", members, "mean silhouette", "stability (bootstrap Jaccard)", "description"}
-	}
-	for s := 0; s < k; s++ {
-		head = append(head, "mean share "+r.StateNames[s])
-	}
-	for s := 0; s < k; s++ { // in one unit, as on Participants
-		if r.WindowLength > 0 {
-			head = append(head, "mean bout "+r.StateNames[s]+" (min)")
-		} else {
-			head = append(head, "mean bout "+r.StateNames[s]+" (windows)")
-		}
-	}
-	if err := t.heading(head...); err != nil {
+	if err := t.heading(groupsHead(r, stable)...); err != nil {
 		return err
 	}
-	// A group's bout length in a state is averaged over the members who entered it (NaN, an
-	// empty cell, when none did), as on the Summary's group lines.
-	bouts, labels := make([][]float64, len(r.Units)), make([]int, len(r.Units))
-	for i, u := range r.Units {
-		bouts[i], labels[i] = u.Bout, u.Group
-		if u.Atypical {
-			labels[i] = -1
-		}
-	}
-	groupBouts := groupstat.GroupMeansOfPositive(bouts, labels, len(r.GroupNames))
+	// The group means are over the members in the group (an empty cell for a group with none);
+	// a bout length over the members who entered the state, as on the Summary's group lines.
+	shares, sizes, sils := r.GroupMeans()
+	bouts := r.GroupBouts()
 	groupLines := GroupLines(r)
 	for g := range r.GroupNames {
-		var n, sil float64
-		share := make([]float64, k)
-		bout := groupBouts[g]
-		for _, u := range r.Units {
-			if u.Group != g || u.Atypical {
-				continue
-			}
-			n++
-			sil += u.Silhouette
-			for s := 0; s < k; s++ {
-				share[s] += u.Share[s]
+		n, sil, share := sizes[g], sils[g], slices.Clone(shares[g])
+		if n == 0 {
+			sil = math.NaN()
+			for s := range share {
+				share[s] = math.NaN()
 			}
 		}
-		cells := []v{{r.GroupNames[g], st.text}, {int(n), st.integer}, {sil / n, st.dec3}, {groupLines[g], st.wrap}}
+		cells := []v{{r.GroupNames[g], st.text}, {n, st.integer}, {sil, st.dec3}, {groupLines[g], st.wrap}}
 		if stable {
-			cells = []v{{r.GroupNames[g], st.text}, {int(n), st.integer}, {sil / n, st.dec3}, {r.Grouping.Stability.Jaccard[g], st.dec2}, {groupLines[g], st.wrap}}
+			cells = slices.Insert(cells, 3, v{r.Grouping.Stability.Jaccard[g], st.dec2})
 		}
 		for s := 0; s < k; s++ {
-			cells = append(cells, v{share[s] / n, st.pct})
+			cells = append(cells, v{share[s], st.pct})
 		}
 		for s := 0; s < k; s++ {
 			if r.WindowLength > 0 {
-				cells = append(cells, v{bout[s] * r.WindowLength.Minutes(), st.dec1})
+				cells = append(cells, v{bouts[g][s] * r.WindowLength.Minutes(), st.dec1})
 			} else {
-				cells = append(cells, v{bout[s], st.dec2})
+				cells = append(cells, v{bouts[g][s], st.dec2})
 			}
 		}
 		if err := t.put(cells...); err != nil {
@@ -443,6 +412,29 @@ func groupsSheet(f *excelize.File, st *styles, r *Result) error {
 	first, _ := excelize.CoordinatesToCellName(off+1, 2)
 	last, _ := excelize.CoordinatesToCellName(off+k, 1+len(r.GroupNames))
 	return colourScale(f, SheetGroups, first+":"+last)
+}
+
+// groupsHead is the Groups sheet's header row.
+func groupsHead(r *Result, stable bool) []string {
+	members := "members"
+	if r.Counts().Waves {
+		members = "members (participant-waves)"
+	}
+	head := []string{"group", members, "mean silhouette", "description"}
+	if stable {
+		head = []string{"group", members, "mean silhouette", "stability (bootstrap Jaccard)", "description"}
+	}
+	for s := 0; s < r.States.K; s++ {
+		head = append(head, "mean share "+r.StateNames[s])
+	}
+	for s := 0; s < r.States.K; s++ { // in one unit, as on Participants
+		if r.WindowLength > 0 {
+			head = append(head, "mean bout "+r.StateNames[s]+" (min)")
+		} else {
+			head = append(head, "mean bout "+r.StateNames[s]+" (windows)")
+		}
+	}
+	return head
 }
 
 // stabilityReading puts a group's bootstrap stability in words, after Hennig (2007).
@@ -734,6 +726,16 @@ func qualitySheet(f *excelize.File, st *styles, r *Result) error {
 	if err != nil {
 		return err
 	}
+	for _, part := range []func(*table, *styles, *Result) error{qualityAccounting, qualityLeftOut, qualityICC} {
+		if err := part(t, st, r); err != nil {
+			return err
+		}
+	}
+	return t.close(false)
+}
+
+// qualityAccounting is the accounting of participants and windows, and the policies applied.
+func qualityAccounting(t *table, st *styles, r *Result) error {
 	q, c := r.Quality, r.Counts()
 	if err := t.put(v{"Accounting", st.title}); err != nil {
 		return err
@@ -770,6 +772,12 @@ func qualitySheet(f *excelize.File, st *styles, r *Result) error {
 			return err
 		}
 	}
+	return nil
+}
+
+// qualityLeftOut are the participants excluded and the columns not used, each with why.
+func qualityLeftOut(t *table, st *styles, r *Result) error {
+	q := r.Quality
 	t.blank()
 	if err := t.put(v{"participant", st.header}, v{"wave", st.header}, v{"windows", st.header}, v{"", st.header}, v{"why excluded", st.header}); err != nil {
 		return err
@@ -789,6 +797,11 @@ func qualitySheet(f *excelize.File, st *styles, r *Result) error {
 		}
 	}
 	t.blank()
+	return nil
+}
+
+// qualityICC is each feature's ICC(1) before and after the within step, with what it means.
+func qualityICC(t *table, st *styles, r *Result) error {
 	if r.Changes != nil && r.Changes.Mode == "assign" {
 		if err := t.put(v{"The ICC(1) values below are those of the cohort " + modelText(r.Changes) + " was fitted on, kept in the model; they were not measured on these data.", st.note}); err != nil {
 			return err
@@ -820,7 +833,7 @@ func qualitySheet(f *excelize.File, st *styles, r *Result) error {
 			return err
 		}
 	}
-	return t.close(false)
+	return nil
 }
 
 func settingsSheet(f *excelize.File, st *styles, r *Result) error {

@@ -45,8 +45,6 @@ var longFunctions = map[string]bool{
 	"profile/rhythm.go:RhythmOf":                  true,
 	"reports/grouplines.go:groupLines":            true,
 	"reports/timeofday.go:timeOfDaySheet":         true,
-	"reports/workbook.go:groupsSheet":             true,
-	"reports/workbook.go:qualitySheet":            true,
 	"reports/workbook.go:stabilitySheet":          true,
 }
 

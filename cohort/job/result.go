@@ -234,3 +234,16 @@ func (r *Result) GroupMeans() ([][]float64, []int, []float64) {
 // NoteGroupsCapped (in Quality.Notes): with Ints[0] participants, up to Ints[1] groups were
 // tried, of the up to Ints[2] asked for.
 const NoteGroupsCapped note.Kind = "job.groups-capped"
+
+// GroupBouts is each group's mean bout length in each state over its members who entered the
+// state (NaN where none did); atypical units are in no group.
+func (r *Result) GroupBouts() [][]float64 {
+	bouts, labels := make([][]float64, len(r.Units)), make([]int, len(r.Units))
+	for i, u := range r.Units {
+		bouts[i], labels[i] = u.Bout, u.Group
+		if u.Atypical {
+			labels[i] = -1
+		}
+	}
+	return groupstat.GroupMeansOfPositive(bouts, labels, len(r.GroupNames))
+}
