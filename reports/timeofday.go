@@ -41,7 +41,19 @@ func timeOfDaySheet(f *excelize.File, st *styles, r *Result) error {
 	w.text(1, 2, "The share of each group's windows in each movement state, by hour of the day "+clockText(r)+
 		", and on weekdays and at weekends. Groups describe movement statistically, not diagnoses.", st.note)
 	w.merge(2)
-	row := 4
+	row, err := hourCharts(f, st, r, w, 4)
+	if err != nil {
+		return err
+	}
+	row = weekdaysWeekends(st, r, w, row)
+	dayParts(st, r, w, row)
+	return w.err
+}
+
+// hourCharts is each group's day hour by hour: a table of the shares of each state and a
+// stacked chart beside it; it returns the row after the last.
+func hourCharts(f *excelize.File, st *styles, r *Result, w *cellWriter, row int) (int, error) {
+	name, k := SheetTimeOfDay, r.States.K
 	for c, g := range r.TimeOfDay {
 		top := row
 		w.stateHeads(st, row, "Hour from ("+r.GroupNames[c]+")", k, r)
@@ -63,11 +75,17 @@ func timeOfDaySheet(f *excelize.File, st *styles, r *Result) error {
 		ch.Dimension.Height = 420
 		col, _ := excelize.ColumnNumberToName(k + 4)
 		if err := f.AddChart(name, fmt.Sprintf("%s%d", col, top), ch); err != nil {
-			return err
+			return 0, err
 		}
 		row += 27
 	}
-	// Weekdays and weekends, on a page of their own with the parts of the day.
+	return row, nil
+}
+
+// weekdaysWeekends is each group's shares on weekdays and at weekends, on a page of its own; it
+// returns the row after the last.
+func weekdaysWeekends(st *styles, r *Result, w *cellWriter, row int) int {
+	k := r.States.K
 	w.pageBreak(row)
 	w.stateHeads(st, row, "Group, days", k, r)
 	row++
@@ -85,7 +103,12 @@ func timeOfDaySheet(f *excelize.File, st *styles, r *Result) error {
 			row++
 		}
 	}
-	// Parts of the day.
+	return row
+}
+
+// dayParts is each group's shares in each part of the day, from its hours.
+func dayParts(st *styles, r *Result, w *cellWriter, row int) {
+	k := r.States.K
 	parts := r.DayParts
 	if parts == nil {
 		parts = profile.DefaultDayParts
@@ -118,7 +141,6 @@ func timeOfDaySheet(f *excelize.File, st *styles, r *Result) error {
 			row++
 		}
 	}
-	return w.err
 }
 
 // stateHeads writes a header row: first, a column per state, and the windows; tall enough for

@@ -44,7 +44,6 @@ var longFunctions = map[string]bool{
 	"profile/profile.go:FitStates":                true,
 	"profile/rhythm.go:RhythmOf":                  true,
 	"reports/grouplines.go:groupLines":            true,
-	"reports/timeofday.go:timeOfDaySheet":         true,
 	"reports/workbook.go:stabilitySheet":          true,
 }
 
