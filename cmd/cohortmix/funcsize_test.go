@@ -29,7 +29,6 @@ var longFunctions = map[string]bool{
 	"cohort/job/job.go:Describe":                  true,
 	"cohort/job/passes.go:AssignOf":               true,
 	"cohort/job/passes.go:checkAssigned":          true,
-	"cohort/job/passes.go:fitStates":              true,
 	"cohort/job/sensitivity.go:sampleTasks":       true,
 	"cohort/parquetin.go:readParquet":             true,
 	"cohort/raw/parquet.go:scanGroup":             true,

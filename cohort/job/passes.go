@@ -579,17 +579,37 @@ func logNote(features []string, fit *normalize.Fit, norm normalize.Options) stri
 // reproducibility; below Unreproducible the warnings say so.
 func fitStates(ctx context.Context, fp *FitPiece, units [][]float64, o Options) ([]string, []string, error) {
 	fits := max(1, o.Fits)
-	type member struct {
-		states *profile.States
-		s, fit int
-		labels []int
-	}
-	var members []member
+	var members []ensembleMember
 	for _, s := range o.States {
 		for r := 0; r < fits; r++ {
-			members = append(members, member{s: s, fit: r})
+			members = append(members, ensembleMember{s: s, fit: r})
 		}
 	}
+	if err := fitEnsemble(ctx, fp, units, o, members); err != nil {
+		return nil, nil, err
+	}
+	best := 0
+	var notes, warnings []string
+	if len(members) > 1 {
+		best, notes, warnings = keepMedoid(fp, members, o, len(units))
+	}
+	fp.States = members[best].states
+	fp.States.SampleLabels = nil // what the ensemble needed; the piece need not carry it
+	recordEnsemble(fp, members, best, o)
+	return notes, warnings, nil
+}
+
+// ensembleMember is one fit of the states: its number of states, which fit of that number, the
+// states and its grouping of the sampled participants.
+type ensembleMember struct {
+	states *profile.States
+	s, fit int
+	labels []int
+}
+
+// fitEnsemble fits every member's states from its own start, side by side, and groups the
+// sampled participants by each (when there is more than one member).
+func fitEnsemble(ctx context.Context, fp *FitPiece, units [][]float64, o Options, members []ensembleMember) error {
 	groups := o.Groups
 	if o.Method == group.Mixture {
 		groups = nil
@@ -600,7 +620,7 @@ func fitStates(ctx context.Context, fp *FitPiece, units [][]float64, o Options) 
 		}
 	}
 	done := 0
-	err := par.Ordered(ctx, len(members), o.Workers, func(i, _ int) (member, error) {
+	return par.Ordered(ctx, len(members), o.Workers, func(i, _ int) (ensembleMember, error) {
 		m := members[i]
 		seed := o.Seed
 		if m.fit > 0 {
@@ -619,7 +639,7 @@ func fitStates(ctx context.Context, fp *FitPiece, units [][]float64, o Options) 
 			}
 		}
 		return m, nil
-	}, func(i int, m member) error {
+	}, func(i int, m ensembleMember) error {
 		members[i] = m
 		done++
 		if o.Steps != nil {
@@ -627,37 +647,42 @@ func fitStates(ctx context.Context, fp *FitPiece, units [][]float64, o Options) 
 		}
 		return nil
 	})
-	if err != nil {
-		return nil, nil, err
-	}
-	best := 0
+}
+
+// keepMedoid keeps the fit whose grouping of the sampled participants agrees best with all the
+// others' (the medoid), says so in a note, sets the run's reproducibility (the agreement of the
+// fits at the number of states kept) and warns below Unreproducible.
+func keepMedoid(fp *FitPiece, members []ensembleMember, o Options, sampled int) (int, []string, []string) {
 	var notes, warnings []string
-	if len(members) > 1 {
-		labels := make([][]int, len(members))
-		for i, m := range members {
-			labels[i] = m.labels
-		}
-		var agree []float64
-		best, agree = medoid(labels)
-		kept := members[best]
-		var same []float64 // the other fits at the number of states kept
-		for i, m := range members {
-			if i != best && m.s == kept.s {
-				same = append(same, agreement(labels[best], labels[i]))
-			}
-		}
-		notes = append(notes, fmt.Sprintf("the movement states were fitted %d times (%s states, %d random starts each); the fit kept (%d states, start %d) is the one whose grouping of the %d sampled participants agrees best with the others' (median adjusted Rand index %.2f, lowest %.2f)",
-			len(members), numbersText(o.States), fits, kept.s, kept.fit+1, len(units), median(agree), slices.Min(agree)))
-		if len(same) > 0 {
-			fp.Reproducibility = median(same)
-			if fp.Reproducibility < Unreproducible {
-				warnings = append(warnings, fmt.Sprintf("NOT REPRODUCIBLE: fitted again from other random starts, the movement states group the sampled participants differently (median adjusted Rand index %.2f, below %.2f). These data do not hold one grouping firmly; read the groups as tentative, and compare a run with another --seed.",
-					fp.Reproducibility, Unreproducible))
-			}
+	fits := max(1, o.Fits)
+	labels := make([][]int, len(members))
+	for i, m := range members {
+		labels[i] = m.labels
+	}
+	best, agree := medoid(labels)
+	kept := members[best]
+	var same []float64 // the other fits at the number of states kept
+	for i, m := range members {
+		if i != best && m.s == kept.s {
+			same = append(same, agreement(labels[best], labels[i]))
 		}
 	}
-	fp.States = members[best].states
-	fp.States.SampleLabels = nil // what the ensemble needed; the piece need not carry it
+	notes = append(notes, fmt.Sprintf("the movement states were fitted %d times (%s states, %d random starts each); the fit kept (%d states, start %d) is the one whose grouping of the %d sampled participants agrees best with the others' (median adjusted Rand index %.2f, lowest %.2f)",
+		len(members), numbersText(o.States), fits, kept.s, kept.fit+1, sampled, median(agree), slices.Min(agree)))
+	if len(same) > 0 {
+		fp.Reproducibility = median(same)
+		if fp.Reproducibility < Unreproducible {
+			warnings = append(warnings, fmt.Sprintf("NOT REPRODUCIBLE: fitted again from other random starts, the movement states group the sampled participants differently (median adjusted Rand index %.2f, below %.2f). These data do not hold one grouping firmly; read the groups as tentative, and compare a run with another --seed.",
+				fp.Reproducibility, Unreproducible))
+		}
+	}
+	return best, notes, warnings
+}
+
+// recordEnsemble keeps each fit of the ensemble on the states kept (States.Ensemble), with its
+// agreement with the others and with the fit kept.
+func recordEnsemble(fp *FitPiece, members []ensembleMember, best int, o Options) {
+	fits := max(1, o.Fits)
 	if len(members) > 1 {
 		labels := make([][]int, len(members))
 		for i, m := range members {
@@ -675,7 +700,6 @@ func fitStates(ctx context.Context, fp *FitPiece, units [][]float64, o Options) 
 		}
 		fp.States.Rule = fmt.Sprintf("the fit that agrees best with the other %d (%s states, %d starts each)", len(members)-1, rangeText(o.States), fits)
 	}
-	return notes, warnings, nil
 }
 
 // Unreproducible is the agreement (median adjusted Rand index) of the groupings from fits of the
