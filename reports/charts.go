@@ -67,8 +67,9 @@ func (c *chartPage) mixtures(row int) (int, error) {
 	// 1. Each group's mixture over the states (stacked bar).
 	top := row
 	w.text(1, row, "Group", st.header)
+	labels := stateLabels(r)
 	for s := 0; s < k; s++ {
-		w.text(2+s, row, stateLabel(r, s), st.headerNum)
+		w.text(2+s, row, labels[s], st.headerNum)
 	}
 	shares, _, _ := r.GroupMeans()
 	for i := 0; i < g; i++ {
@@ -101,8 +102,9 @@ func (c *chartPage) stateProfiles(row int) (int, error) {
 	top := row
 	vars := stateVariables(r, 12)
 	w.text(1, row, "Feature (z vs cohort)", st.header)
+	labels := stateLabels(r)
 	for s := 0; s < k; s++ {
-		w.text(2+s, row, stateLabel(r, s), st.headerNum)
+		w.text(2+s, row, labels[s], st.headerNum)
 	}
 	for i, j := range vars {
 		w.text(1, row+1+i, r.Features[j], st.text)

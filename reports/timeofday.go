@@ -147,8 +147,9 @@ func dayParts(st *styles, r *Result, w *cellWriter, row int) {
 // state names on two lines.
 func (w *cellWriter) stateHeads(st *styles, row int, first string, k int, r *Result) {
 	w.text(1, row, first, st.header)
+	labels := stateLabels(r)
 	for s := 0; s < k; s++ {
-		w.text(2+s, row, stateLabel(r, s), st.headerNum)
+		w.text(2+s, row, labels[s], st.headerNum)
 	}
 	w.text(2+k, row, "windows", st.headerNum)
 	if w.err == nil {

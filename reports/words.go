@@ -305,13 +305,17 @@ func Percent(x float64) string {
 	return fmt.Sprintf("%.0f%%", 100*x)
 }
 
-// stateLabel is a state's code with its plain name, "S2 stillness 1", for the charts' legends;
-// the code alone when the state has no name in words.
-func stateLabel(r *Result, s int) string {
-	if ws := StateWordsOf(r); s < len(ws) && ws[s].Name != "" {
-		return r.StateNames[s] + " " + ws[s].Name
+// stateLabels are the states' codes with their plain names, "S2 stillness 1", for the charts'
+// legends; a code alone where the state has no name in words.
+func stateLabels(r *Result) []string {
+	ws := StateWordsOf(r)
+	out := slices.Clone(r.StateNames)
+	for s := range out {
+		if s < len(ws) && ws[s].Name != "" {
+			out[s] += " " + ws[s].Name
+		}
 	}
-	return r.StateNames[s]
+	return out
 }
 
 // ShortNames are the plain names of all states, each with its code.
