@@ -75,11 +75,15 @@ const normSample = 200_000
 
 // Fitted is every fit of one run, before it is described.
 type Fitted struct {
-	Table  *cohort.Table
-	Fit    *normalize.Fit
-	States *profile.States
-	Sigs   []profile.Signature
-	Rhythm []profile.Rhythm // each unit's rest-activity measures (NaN where they cannot be read)
+	// ModelFeaturesStep is, for a wave placed in a model, the record of how the model's data
+	// were made by the features step (modelfile.ReadSettings.FeaturesStep), against which
+	// Describe checks the inputs' records; "" compares the inputs among themselves.
+	ModelFeaturesStep string
+	Table             *cohort.Table
+	Fit               *normalize.Fit
+	States            *profile.States
+	Sigs              []profile.Signature
+	Rhythm            []profile.Rhythm // each unit's rest-activity measures (NaN where they cannot be read)
 	// TimeOfDay is when in the day and week each unit's windows fall, by state (nil without
 	// times in the order column).
 	TimeOfDay []*profile.TimeOfDay
@@ -440,7 +444,7 @@ func Describe(f *Fitted, stateNames, groupNames []string) (*Result, error) {
 	res := &Result{Features: t.Features, OrderKind: t.OrderKind, Quality: t.Quality, Files: t.Files, Norm: fit, States: states, Grouping: g,
 		StateDesc: f.Desc, Labels: f.Labels}
 	res.Warnings = append(append(res.Warnings, fit.Warnings...), f.Warnings...)
-	res.Warnings = append(res.Warnings, MadeByWarnings(t.Files, "")...)
+	res.Warnings = append(res.Warnings, MadeByWarnings(t.Files, f.ModelFeaturesStep)...)
 	res.Reproducibility = f.Reproducibility
 	res.Notes = append(res.Notes, f.Notes...)
 	if f.Sensitivity != nil {

@@ -237,6 +237,7 @@ func Assign(ctx context.Context, t *cohort.Table, m *modelfile.Model, o AssignOp
 	for i, d := range f.Grouping.Distance {
 		f.Atypical[i] = d > m.Grouping.Atypical
 	}
+	f.ModelFeaturesStep = m.Read.FeaturesStep
 	res, err := Describe(f, m.States.Names, m.Grouping.Names)
 	if err != nil {
 		return nil, err
@@ -255,7 +256,6 @@ func Assign(ctx context.Context, t *cohort.Table, m *modelfile.Model, o AssignOp
 		Pseudonymize(res, o.Key)
 	}
 	res.Warnings = append(res.Warnings, group.CheckRanges(t.Features, m.FeatureMeds, FeatureMedians(f))...)
-	res.Warnings = append(res.Warnings, MadeByWarnings(t.Files, m.Read.FeaturesStep)...)
 	res.Changes = AssignChanges(m, res, o.Model)
 	return res, nil
 }
