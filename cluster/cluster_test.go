@@ -54,9 +54,6 @@ func TestKMeansRecoversPlantedGroups(t *testing.T) {
 		{"lloyd", func() (*KMeansResult, error) {
 			return KMeans(context.Background(), x, KMeansOptions{K: 4, Seed: 1})
 		}},
-		{"minibatch", func() (*KMeansResult, error) {
-			return MiniBatchKMeans(context.Background(), x, MiniBatchOptions{K: 4, BatchSize: 100, Seed: 1})
-		}},
 	} {
 		t.Run(fit.name, func(t *testing.T) {
 			r, err := fit.run()
@@ -89,7 +86,6 @@ func TestErrors(t *testing.T) {
 		{"k too large", func() error { _, e := KMeans(ctx, x, KMeansOptions{K: 4}); return e }(), ErrK, "1 ≤ k ≤ 3"},
 		{"k zero", func() error { _, e := KMeans(ctx, x, KMeansOptions{}); return e }(), ErrK, "choose 1 ≤ k"},
 		{"NaN", func() error { _, e := KMeans(ctx, bad, KMeansOptions{K: 2}); return e }(), ErrNonFinite, "row 1, column 0"},
-		{"minibatch NaN", func() error { _, e := MiniBatchKMeans(ctx, bad, MiniBatchOptions{K: 2}); return e }(), ErrNonFinite, "impute"},
 		{"labels length", func() error { _, e := Silhouette(x, []int{0, 1}, SilhouetteOptions{}); return e }(), ErrShape, "one label per row"},
 		{"one group silhouette", func() error { _, e := Silhouette(x, []int{0, 0, 0}, SilhouetteOptions{}); return e }(), ErrK, "2 ≤ groups"},
 		{"condensed size", func() error { _, e := NewCondensed(4, make([]float64, 5)); return e }(), ErrShape, "n(n−1)/2"},

@@ -93,48 +93,15 @@ func Hierarchical(ctx context.Context, dist *Condensed, opts HierarchicalOptions
 // nnChain is Müllner (2011) Fig. 4. Raw merges name points by their first member index.
 func nnChain(ctx context.Context, dist *Condensed, link Linkage) ([]Merge, error) {
 	n := dist.N
-	d := append([]float64(nil), dist.D...)
-	if link == Ward { // work on squared distances: the Lance–Williams update for Ward is linear in them
-		for i, v := range d {
-			d[i] = v * v
-		}
-	}
-	size := make([]int, n)
-	for i := range size {
-		size[i] = 1
-	}
-	idx := func(i, j int) int {
-		if i > j {
-			i, j = j, i
-		}
-		return n*i - i*(i+1)/2 + j - i - 1
-	}
+	g := newChainGroups(dist, link)
 	merges := make([]Merge, 0, max(0, n-1))
 	chain := make([]int, 0, n)
-	// active points, kept in increasing order so that ties go to the lower index
-	next := make([]int, n+1) // linked list over active points: next[i] follows i; n ends it
-	prev := make([]int, n+1)
-	for i := 0; i < n; i++ {
-		next[i], prev[i+1] = i+1, i
-	}
-	head := 0
-	prev[0] = -1
-	remove := func(i int) {
-		if prev[i] >= 0 {
-			next[prev[i]] = next[i]
-		} else {
-			head = next[i]
-		}
-		if next[i] < n {
-			prev[next[i]] = prev[i]
-		}
-	}
 	for step := 0; step < n-1; step++ {
 		if step%64 == 0 && ctx.Err() != nil {
 			return nil, ctx.Err()
 		}
 		if len(chain) == 0 {
-			chain = append(chain, head)
+			chain = append(chain, g.head)
 		}
 		var a, b int
 		var dab float64
@@ -143,15 +110,10 @@ func nnChain(ctx context.Context, dist *Condensed, link Linkage) ([]Merge, error
 			c, dc := -1, math.Inf(1)
 			if len(chain) >= 2 {
 				c = chain[len(chain)-2]
-				dc = d[idx(a, c)]
+				dc = g.d[g.idx(a, c)]
 			}
-			for x := head; x < n; x = next[x] {
-				if x == a {
-					continue
-				}
-				if v := d[idx(a, x)]; v < dc {
-					c, dc = x, v
-				}
+			if x, v := g.nearest(a, dc); x >= 0 {
+				c, dc = x, v
 			}
 			if len(chain) >= 2 && c == chain[len(chain)-2] {
 				b, dab = c, dc
@@ -163,36 +125,101 @@ func nnChain(ctx context.Context, dist *Condensed, link Linkage) ([]Merge, error
 		if a > b {
 			a, b = b, a
 		}
-		na, nb := float64(size[a]), float64(size[b])
 		h := dab
 		if link == Ward {
 			h = math.Sqrt(dab)
 		}
-		merges = append(merges, Merge{A: a, B: b, Height: h, Size: size[a] + size[b]})
-		// The new group lives at b; a leaves the active set.
-		remove(a)
-		for x := head; x < n; x = next[x] {
-			if x == b {
-				continue
-			}
-			ia, ib := idx(a, x), idx(b, x)
-			dax, dbx := d[ia], d[ib]
-			var v float64
-			switch link { // Lance–Williams, Müllner (2011) Table 1
-			case Ward:
-				nx := float64(size[x])
-				v = ((na+nx)*dax + (nb+nx)*dbx - nx*dab) / (na + nb + nx)
-			case Average:
-				v = (na*dax + nb*dbx) / (na + nb)
-			case Complete:
-				v = max(dax, dbx)
-			}
-			d[ib] = v
-		}
-		size[b] += size[a]
-		size[a] = 0
+		merges = append(merges, Merge{A: a, B: b, Height: h, Size: g.size[a] + g.size[b]})
+		g.merge(a, b, dab, link)
 	}
 	return merges, nil
+}
+
+// chainGroups are nnChain's working distances (squared for Ward: its Lance–Williams update is
+// linear in them) and group sizes, with the active points in a linked list kept in increasing
+// order so that ties go to the lower index.
+type chainGroups struct {
+	n          int
+	d          []float64
+	size       []int
+	next, prev []int // next[i] follows i; n ends the list
+	head       int
+}
+
+func newChainGroups(dist *Condensed, link Linkage) *chainGroups {
+	n := dist.N
+	g := &chainGroups{n: n, d: append([]float64(nil), dist.D...), size: make([]int, n), next: make([]int, n+1), prev: make([]int, n+1)}
+	if link == Ward {
+		for i, v := range g.d {
+			g.d[i] = v * v
+		}
+	}
+	for i := 0; i < n; i++ {
+		g.size[i] = 1
+		g.next[i], g.prev[i+1] = i+1, i
+	}
+	g.prev[0] = -1
+	return g
+}
+
+// idx is the place of the distance between i and j in the condensed matrix.
+func (g *chainGroups) idx(i, j int) int {
+	if i > j {
+		i, j = j, i
+	}
+	return g.n*i - i*(i+1)/2 + j - i - 1
+}
+
+// nearest is the active point closest to a strictly below the distance below, or -1.
+func (g *chainGroups) nearest(a int, below float64) (int, float64) {
+	c := -1
+	for x := g.head; x < g.n; x = g.next[x] {
+		if x == a {
+			continue
+		}
+		if v := g.d[g.idx(a, x)]; v < below {
+			c, below = x, v
+		}
+	}
+	return c, below
+}
+
+func (g *chainGroups) remove(i int) {
+	if g.prev[i] >= 0 {
+		g.next[g.prev[i]] = g.next[i]
+	} else {
+		g.head = g.next[i]
+	}
+	if g.next[i] < g.n {
+		g.prev[g.next[i]] = g.prev[i]
+	}
+}
+
+// merge joins a < b at distance dab: the new group lives at b and a leaves the active set; its
+// distances to the others follow Lance–Williams (Müllner 2011, Table 1).
+func (g *chainGroups) merge(a, b int, dab float64, link Linkage) {
+	na, nb := float64(g.size[a]), float64(g.size[b])
+	g.remove(a)
+	for x := g.head; x < g.n; x = g.next[x] {
+		if x == b {
+			continue
+		}
+		ia, ib := g.idx(a, x), g.idx(b, x)
+		dax, dbx := g.d[ia], g.d[ib]
+		var v float64
+		switch link {
+		case Ward:
+			nx := float64(g.size[x])
+			v = ((na+nx)*dax + (nb+nx)*dbx - nx*dab) / (na + nb + nx)
+		case Average:
+			v = (na*dax + nb*dbx) / (na + nb)
+		case Complete:
+			v = max(dax, dbx)
+		}
+		g.d[ib] = v
+	}
+	g.size[b] += g.size[a]
+	g.size[a] = 0
 }
 
 // mstSingle is single linkage through Prim's minimum spanning tree, Müllner (2011) Fig. 6.

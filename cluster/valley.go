@@ -26,19 +26,54 @@ const valleyBins = 512
 // here on a kernel density of the data themselves. Bandwidth: Silverman BW (1986), Density
 // Estimation for Statistics and Data Analysis, Chapman & Hall, eq. (3.31).
 func Valley(a, b mat.Matrix) (float64, error) {
-	da, na, d, err := checkMatrix("Valley", a)
+	pa, pb, err := valleyProjections(a, b)
 	if err != nil {
 		return 0, err
+	}
+	if pa == nil {
+		return 1, nil
+	}
+	medA, medB := median(slices.Clone(pa)), median(slices.Clone(pb))
+	if medA == medB {
+		return 1, nil
+	}
+	all := slices.Concat(pa, pb)
+	slices.Sort(all)
+	h := silverman(all)
+	if !(h > 0) {
+		return 1, nil
+	}
+	lo, hi := all[0]-3*h, all[len(all)-1]+3*h
+	width := (hi - lo) / valleyBins
+	density := binnedDensity(all, lo, width, h)
+	bin := func(x float64) int { return min(valleyBins-1, max(0, int((x-lo)/width))) }
+	ia, ib := bin(medA), bin(medB)
+	if ia > ib {
+		ia, ib = ib, ia
+	}
+	low := math.Inf(1)
+	for i := ia; i <= ib; i++ {
+		low = math.Min(low, density[i])
+	}
+	return low / math.Min(density[bin(medA)], density[bin(medB)]), nil
+}
+
+// valleyProjections are the rows of a and b projected on the line from a's mean to b's, from
+// a's mean; nil when the means coincide.
+func valleyProjections(a, b mat.Matrix) (pa, pb []float64, err error) {
+	da, na, d, err := checkMatrix("Valley", a)
+	if err != nil {
+		return nil, nil, err
 	}
 	db, nb, d2, err := checkMatrix("Valley", b)
 	if err != nil {
-		return 0, err
+		return nil, nil, err
 	}
 	if d != d2 {
-		return 0, fmt.Errorf("cluster: Valley: %d and %d columns: %w", d, d2, ErrShape)
+		return nil, nil, fmt.Errorf("cluster: Valley: %d and %d columns: %w", d, d2, ErrShape)
 	}
 	if na < 2 || nb < 2 {
-		return 0, fmt.Errorf("cluster: Valley: %d and %d rows: %w; each group needs at least 2", na, nb, ErrEmpty)
+		return nil, nil, fmt.Errorf("cluster: Valley: %d and %d rows: %w; each group needs at least 2", na, nb, ErrEmpty)
 	}
 	ma, mb := colMeans(da, na, d), colMeans(db, nb, d)
 	dir := make([]float64, d)
@@ -48,7 +83,7 @@ func Valley(a, b mat.Matrix) (float64, error) {
 		norm += dir[j] * dir[j]
 	}
 	if norm == 0 {
-		return 1, nil
+		return nil, nil, nil
 	}
 	norm = math.Sqrt(norm)
 	project := func(data []float64, n int) []float64 {
@@ -62,38 +97,36 @@ func Valley(a, b mat.Matrix) (float64, error) {
 		}
 		return p
 	}
-	pa, pb := project(da, na), project(db, nb)
-	medA, medB := median(slices.Clone(pa)), median(slices.Clone(pb))
-	if medA == medB {
-		return 1, nil
-	}
-	all := slices.Concat(pa, pb)
-	slices.Sort(all)
-	n := float64(len(all))
+	return project(da, na), project(db, nb), nil
+}
+
+// silverman is the rule-of-thumb bandwidth of a kernel density of the sorted values (Silverman
+// 1986, eq. (3.31)).
+func silverman(sorted []float64) float64 {
+	n := float64(len(sorted))
 	var mean, ss float64
-	for _, v := range all {
+	for _, v := range sorted {
 		mean += v / n
 	}
-	for _, v := range all {
+	for _, v := range sorted {
 		ss += (v - mean) * (v - mean)
 	}
 	sd := math.Sqrt(ss / (n - 1))
-	iqr := groupstat.QuantileSorted(all, 0.75) - groupstat.QuantileSorted(all, 0.25)
+	iqr := groupstat.QuantileSorted(sorted, 0.75) - groupstat.QuantileSorted(sorted, 0.25)
 	spread := sd
 	if iqr > 0 {
 		spread = math.Min(sd, iqr/1.34)
 	}
-	h := 0.9 * spread * math.Pow(n, -0.2) // Silverman (1986), eq. (3.31)
-	if !(h > 0) {
-		return 1, nil
-	}
-	lo, hi := all[0]-3*h, all[len(all)-1]+3*h
-	width := (hi - lo) / valleyBins
+	return 0.9 * spread * math.Pow(n, -0.2)
+}
+
+// binnedDensity is the Gaussian kernel density of the values at the centres of valleyBins bins
+// of the given width from lo: the counts smoothed by the kernel, cut at four bandwidths h.
+func binnedDensity(values []float64, lo, width, h float64) []float64 {
 	counts := make([]float64, valleyBins)
-	for _, v := range all {
+	for _, v := range values {
 		counts[min(valleyBins-1, int((v-lo)/width))]++
 	}
-	// Density at each bin's centre: the counts smoothed by the kernel, cut at four bandwidths.
 	reach := int(math.Ceil(4 * h / width))
 	kernel := make([]float64, reach+1)
 	for k := range kernel {
@@ -111,16 +144,7 @@ func Valley(a, b mat.Matrix) (float64, error) {
 			}
 		}
 	}
-	bin := func(x float64) int { return min(valleyBins-1, max(0, int((x-lo)/width))) }
-	ia, ib := bin(medA), bin(medB)
-	if ia > ib {
-		ia, ib = ib, ia
-	}
-	low := math.Inf(1)
-	for i := ia; i <= ib; i++ {
-		low = math.Min(low, density[i])
-	}
-	return low / math.Min(density[bin(medA)], density[bin(medB)]), nil
+	return density
 }
 
 func colMeans(data []float64, n, d int) []float64 {

@@ -27,61 +27,7 @@ func WardPoints(ctx context.Context, x mat.Matrix, opts WardOptions) (*Tree, err
 	if err != nil {
 		return nil, err
 	}
-	// Compact arrays over the active groups: position p holds group ids[p].
-	cent := append([]float64(nil), data...)
-	size := make([]float64, n)
-	ids := make([]int, n)
-	pos := make([]int, n)
-	for i := range ids {
-		size[i], ids[i], pos[i] = 1, i, i
-	}
-	m := n
-	nw := workers(opts.Workers)
-	type best struct {
-		p int
-		v float64
-	}
-	parts := make([]best, nw)
-	// nearest returns the position of the group closest to the one at pa, by the halved squared
-	// Ward distance nₐnₓ/(nₐ+nₓ)·‖cₐ − cₓ‖², ties to the lower point id.
-	nearest := func(pa int) (int, float64) {
-		ca, sa := cent[pa*d:(pa+1)*d], size[pa]
-		scan := func(lo, hi int) best {
-			b := best{-1, math.Inf(1)}
-			for p := lo; p < hi; p++ {
-				if p == pa {
-					continue
-				}
-				sp := size[p]
-				v := sa * sp / (sa + sp) * sqDist(ca, cent[p*d:(p+1)*d])
-				if v < b.v || (v == b.v && b.p >= 0 && ids[p] < ids[b.p]) {
-					b = best{p, v}
-				}
-			}
-			return b
-		}
-		if nw == 1 || m < 2048 {
-			b := scan(0, m)
-			return b.p, b.v
-		}
-		var wg sync.WaitGroup
-		chunk := (m + nw - 1) / nw
-		for w := 0; w < nw; w++ {
-			wg.Add(1)
-			go func(w int) {
-				defer wg.Done()
-				parts[w] = scan(min(m, w*chunk), min(m, (w+1)*chunk))
-			}(w)
-		}
-		wg.Wait()
-		b := best{-1, math.Inf(1)}
-		for _, q := range parts {
-			if q.p >= 0 && (q.v < b.v || (q.v == b.v && ids[q.p] < ids[b.p])) {
-				b = q
-			}
-		}
-		return b.p, b.v
-	}
+	g := newWardGroups(data, n, d, workers(opts.Workers))
 	merges := make([]Merge, 0, max(0, n-1))
 	chain := make([]int, 0, n) // group ids
 	for step := 0; step < n-1; step++ {
@@ -89,51 +35,122 @@ func WardPoints(ctx context.Context, x mat.Matrix, opts WardOptions) (*Tree, err
 			return nil, ctx.Err()
 		}
 		if len(chain) == 0 {
-			chain = append(chain, ids[0])
+			chain = append(chain, g.ids[0])
 		}
 		var a, b int
 		var vab float64
 		for {
 			a = chain[len(chain)-1]
-			c, vc := nearest(pos[a])
-			cid := ids[c]
+			c, vc := g.nearest(g.pos[a])
 			if len(chain) >= 2 {
 				prev := chain[len(chain)-2]
-				pp := pos[prev]
-				sa, sp := size[pos[a]], size[pp]
-				vp := sa * sp / (sa + sp) * sqDist(cent[pos[a]*d:(pos[a]+1)*d], cent[pp*d:(pp+1)*d])
-				if vp <= vc { // prefer the previous element on ties: this closes the chain
+				if vp := g.between(g.pos[a], g.pos[prev]); vp <= vc { // prefer the previous element on ties: this closes the chain
 					b, vab = prev, vp
 					chain = chain[:len(chain)-2]
 					break
 				}
 			}
-			chain = append(chain, cid)
+			chain = append(chain, g.ids[c])
 		}
 		if a > b {
 			a, b = b, a
 		}
-		pa, pb := pos[a], pos[b]
-		sa, sb := size[pa], size[pb]
-		merges = append(merges, Merge{A: a, B: b, Height: math.Sqrt(2 * vab), Size: int(sa + sb)})
-		// The merged group lives at b's position, with the size-weighted mean centroid.
-		ca, cb := cent[pa*d:(pa+1)*d], cent[pb*d:(pb+1)*d]
-		for t := range cb {
-			cb[t] = (sa*ca[t] + sb*cb[t]) / (sa + sb)
-		}
-		size[pb] = sa + sb
-		// Remove a: the last position moves into its place.
-		last := m - 1
-		if pa != last {
-			copy(cent[pa*d:(pa+1)*d], cent[last*d:(last+1)*d])
-			size[pa] = size[last]
-			ids[pa] = ids[last]
-			pos[ids[pa]] = pa
-		}
-		m--
+		size := g.merge(a, b)
+		merges = append(merges, Merge{A: a, B: b, Height: math.Sqrt(2 * vab), Size: int(size)})
 	}
 	if n > 1 && len(merges) != n-1 {
 		return nil, fmt.Errorf("cluster: WardPoints: internal: %d merges for %d points", len(merges), n)
 	}
 	return &Tree{N: n, Merges: relabel(n, merges)}, nil
+}
+
+// wardGroups are the active groups of WardPoints in compact arrays: position p holds group
+// ids[p], with its centroid and size; pos is each group id's position.
+type wardGroups struct {
+	cent     []float64
+	size     []float64
+	ids, pos []int
+	m, d, nw int
+	parts    []wardBest
+}
+
+type wardBest struct {
+	p int
+	v float64
+}
+
+func newWardGroups(data []float64, n, d, nw int) *wardGroups {
+	g := &wardGroups{cent: append([]float64(nil), data...), size: make([]float64, n), ids: make([]int, n), pos: make([]int, n), m: n, d: d, nw: nw, parts: make([]wardBest, nw)}
+	for i := range g.ids {
+		g.size[i], g.ids[i], g.pos[i] = 1, i, i
+	}
+	return g
+}
+
+// between is the halved squared Ward distance nₐnₓ/(nₐ+nₓ)·‖cₐ − cₓ‖² of the groups at
+// positions pa and px.
+func (g *wardGroups) between(pa, px int) float64 {
+	d, sa, sx := g.d, g.size[pa], g.size[px]
+	return sa * sx / (sa + sx) * sqDist(g.cent[pa*d:(pa+1)*d], g.cent[px*d:(px+1)*d])
+}
+
+// nearest returns the position of the group closest to the one at pa, by the halved squared
+// Ward distance, ties to the lower point id; past 2,048 groups the scan is split among workers.
+func (g *wardGroups) nearest(pa int) (int, float64) {
+	scan := func(lo, hi int) wardBest {
+		b := wardBest{-1, math.Inf(1)}
+		for p := lo; p < hi; p++ {
+			if p == pa {
+				continue
+			}
+			v := g.between(pa, p)
+			if v < b.v || (v == b.v && b.p >= 0 && g.ids[p] < g.ids[b.p]) {
+				b = wardBest{p, v}
+			}
+		}
+		return b
+	}
+	m := g.m
+	if g.nw == 1 || m < 2048 {
+		b := scan(0, m)
+		return b.p, b.v
+	}
+	var wg sync.WaitGroup
+	chunk := (m + g.nw - 1) / g.nw
+	for w := 0; w < g.nw; w++ {
+		wg.Add(1)
+		go func(w int) {
+			defer wg.Done()
+			g.parts[w] = scan(min(m, w*chunk), min(m, (w+1)*chunk))
+		}(w)
+	}
+	wg.Wait()
+	b := wardBest{-1, math.Inf(1)}
+	for _, q := range g.parts {
+		if q.p >= 0 && (q.v < b.v || (q.v == b.v && g.ids[q.p] < g.ids[b.p])) {
+			b = q
+		}
+	}
+	return b.p, b.v
+}
+
+// merge joins groups a < b: the merged group lives at b's position with the size-weighted mean
+// centroid, and the last position moves into a's place. It returns the merged size.
+func (g *wardGroups) merge(a, b int) float64 {
+	d := g.d
+	pa, pb := g.pos[a], g.pos[b]
+	sa, sb := g.size[pa], g.size[pb]
+	ca, cb := g.cent[pa*d:(pa+1)*d], g.cent[pb*d:(pb+1)*d]
+	for t := range cb {
+		cb[t] = (sa*ca[t] + sb*cb[t]) / (sa + sb)
+	}
+	g.size[pb] = sa + sb
+	if last := g.m - 1; pa != last {
+		copy(g.cent[pa*d:(pa+1)*d], g.cent[last*d:(last+1)*d])
+		g.size[pa] = g.size[last]
+		g.ids[pa] = g.ids[last]
+		g.pos[g.ids[pa]] = pa
+	}
+	g.m--
+	return sa + sb
 }

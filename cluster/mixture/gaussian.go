@@ -49,6 +49,41 @@ type Gaussian struct {
 // References: Dempster, Laird & Rubin (1977); Fraley & Raftery (2002), J. Am. Stat. Assoc.
 // 97:611–631.
 func FitTiedGaussian(ctx context.Context, x mat.Matrix, opts GaussianOptions) (*Gaussian, error) {
+	rows, err := tiedGaussianRows(x, opts)
+	if err != nil {
+		return nil, err
+	}
+	n, d := len(rows), len(rows[0])
+	opts = gaussianDefaults(opts)
+	dense := mat.NewDense(n, d, nil)
+	for i, r := range rows {
+		dense.SetRow(i, r)
+	}
+	var best *Gaussian
+	err = par.Ordered(ctx, opts.Starts, opts.Workers, func(s, _ int) (*Gaussian, error) {
+		post, err := gaussianStart(ctx, dense, opts, s)
+		if err != nil {
+			return nil, err
+		}
+		return fitGaussianFrom(ctx, rows, post, opts, s)
+	}, func(s int, g *Gaussian) error {
+		if g != nil && (best == nil || g.LogLik > best.LogLik) {
+			best = g
+		}
+		return nil
+	})
+	if err != nil {
+		return nil, err
+	}
+	if best == nil {
+		return nil, fmt.Errorf("mixture: FitTiedGaussian: no start gave a finite likelihood: %w; the data may lie on a lower-dimensional subspace", cluster.ErrNonFinite)
+	}
+	best.criteria(n)
+	return best, nil
+}
+
+// tiedGaussianRows checks FitTiedGaussian's data and options and returns the rows.
+func tiedGaussianRows(x mat.Matrix, opts GaussianOptions) ([][]float64, error) {
 	if x == nil {
 		return nil, fmt.Errorf("mixture: FitTiedGaussian: no data: %w", cluster.ErrEmpty)
 	}
@@ -74,45 +109,30 @@ func FitTiedGaussian(ctx context.Context, x mat.Matrix, opts GaussianOptions) (*
 			rows[i][j] = v
 		}
 	}
-	opts = gaussianDefaults(opts)
-	dense := mat.NewDense(n, d, nil)
-	for i, r := range rows {
-		dense.SetRow(i, r)
+	return rows, nil
+}
+
+// gaussianStart is start s's memberships: one k-means++ seeding and Lloyd's iterations.
+func gaussianStart(ctx context.Context, x *mat.Dense, opts GaussianOptions, s int) ([][]float64, error) {
+	n, _ := x.Dims()
+	post := make([][]float64, n)
+	for i := range post {
+		post[i] = make([]float64, opts.K)
 	}
-	var best *Gaussian
-	err := par.Ordered(ctx, opts.Starts, opts.Workers, func(s, _ int) (*Gaussian, error) {
-		post := make([][]float64, n)
+	if opts.K == 1 {
 		for i := range post {
-			post[i] = make([]float64, opts.K)
+			post[i][0] = 1
 		}
-		if opts.K == 1 {
-			for i := range post {
-				post[i][0] = 1
-			}
-		} else {
-			km, err := cluster.KMeans(ctx, dense, cluster.KMeansOptions{K: opts.K, Restarts: 1, Seed: par.SubSeed(opts.Seed, "gaussian start", s), Workers: 1})
-			if err != nil {
-				return nil, fmt.Errorf("mixture: FitTiedGaussian: start: %w", err)
-			}
-			for i, l := range km.Labels {
-				post[i][l] = 1
-			}
-		}
-		return fitGaussianFrom(ctx, rows, post, opts, s)
-	}, func(s int, g *Gaussian) error {
-		if g != nil && (best == nil || g.LogLik > best.LogLik) {
-			best = g
-		}
-		return nil
-	})
+		return post, nil
+	}
+	km, err := cluster.KMeans(ctx, x, cluster.KMeansOptions{K: opts.K, Restarts: 1, Seed: par.SubSeed(opts.Seed, "gaussian start", s), Workers: 1})
 	if err != nil {
-		return nil, err
+		return nil, fmt.Errorf("mixture: FitTiedGaussian: start: %w", err)
 	}
-	if best == nil {
-		return nil, fmt.Errorf("mixture: FitTiedGaussian: no start gave a finite likelihood: %w; the data may lie on a lower-dimensional subspace", cluster.ErrNonFinite)
+	for i, l := range km.Labels {
+		post[i][l] = 1
 	}
-	best.criteria(n)
-	return best, nil
+	return post, nil
 }
 
 // gaussianDefaults fills the options' zero values.
@@ -177,120 +197,133 @@ func FitTiedGaussianFrom(ctx context.Context, x mat.Matrix, post [][]float64, op
 func fitGaussianFrom(ctx context.Context, rows, post [][]float64, opts GaussianOptions, start int) (*Gaussian, error) {
 	n, d, k := len(rows), len(rows[0]), opts.K
 	g := &Gaussian{K: k, Dim: d, Start: start, Weights: make([]float64, k), Means: make([][]float64, k), Posterior: post,
-		Params: k*d + d*(d+1)/2 + k - 1}
+		Params: k*d + d*(d+1)/2 + k - 1, Labels: make([]int, n)}
 	for c := range g.Means {
 		g.Means[c] = make([]float64, d)
 	}
 	prev := math.Inf(-1)
-	diff := make([]float64, d)
 	for it := 1; it <= opts.MaxIter; it++ {
 		if it%16 == 0 {
 			if err := ctx.Err(); err != nil {
 				return nil, err
 			}
 		}
-		// M step: weights, means, and the pooled scatter (scikit-learn's tied covariance).
-		cov := mat.NewSymDense(d, nil)
-		for c := 0; c < k; c++ {
-			var w float64
-			mu := g.Means[c]
-			clear(mu)
-			for i, r := range rows {
-				z := post[i][c]
-				w += z
-				for j, v := range r {
-					mu[j] += z * v
-				}
-			}
-			g.Weights[c] = w / float64(n)
-			if w > 0 {
-				for j := range mu {
-					mu[j] /= w
-				}
-			}
-			for i, r := range rows {
-				z := post[i][c]
-				if z == 0 {
-					continue
-				}
-				for j := range diff {
-					diff[j] = r[j] - mu[j]
-				}
-				cov.SymRankOne(cov, z, mat.NewVecDense(d, diff))
-			}
-		}
-		cov.ScaleSym(1/float64(n), cov)
-		for j := 0; j < d; j++ {
-			cov.SetSym(j, j, cov.At(j, j)+opts.Reg)
-		}
-		g.Cov = cov
-		// E step, with the whitening L⁻¹ of the covariance's Cholesky factor L: the squared
-		// Mahalanobis distance of x from μ is |L⁻¹x − L⁻¹μ|².
-		var chol mat.Cholesky
-		if !chol.Factorize(cov) {
+		g.mStep(rows, opts.Reg)
+		ll, ok := g.eStep(rows)
+		if !ok {
 			return nil, nil
-		}
-		var l, linv mat.TriDense
-		chol.LTo(&l)
-		if err := linv.InverseTri(&l); err != nil {
-			return nil, nil
-		}
-		w := linv.RawTriangular()
-		whiten := func(dst, v []float64) {
-			for a := 0; a < d; a++ {
-				var s float64
-				row := w.Data[a*w.Stride : a*w.Stride+a+1]
-				for b, lv := range row {
-					s += lv * v[b]
-				}
-				dst[a] = s
-			}
-		}
-		wm := make([][]float64, k)
-		for c := range wm {
-			wm[c] = make([]float64, d)
-			whiten(wm[c], g.Means[c])
-		}
-		logNorm := -0.5*float64(d)*math.Log(2*math.Pi) - 0.5*chol.LogDet()
-		logW := make([]float64, k)
-		for c := range logW {
-			logW[c] = math.Log(g.Weights[c])
-		}
-		g.Labels = make([]int, n)
-		lp := make([]float64, k)
-		wx := make([]float64, d)
-		var ll float64
-		for i, r := range rows {
-			whiten(wx, r)
-			top := math.Inf(-1)
-			for c := 0; c < k; c++ {
-				q := 0.0
-				for j, v := range wx {
-					e := v - wm[c][j]
-					q += e * e
-				}
-				lp[c] = logW[c] + logNorm - 0.5*q
-				if lp[c] > top {
-					top, g.Labels[i] = lp[c], c
-				}
-			}
-			var s float64
-			for c := range lp {
-				s += math.Exp(lp[c] - top)
-			}
-			for c := range lp {
-				post[i][c] = math.Exp(lp[c]-top) / s
-			}
-			ll += top + math.Log(s)
 		}
 		g.LogLik, g.Iter = ll, it
-		if math.IsNaN(ll) {
-			return nil, nil
-		}
 		if ll-prev <= opts.Tol*math.Abs(ll) {
 			break
 		}
 		prev = ll
 	}
 	return g, nil
+}
+
+// mStep sets the weights, means and the pooled within-component scatter over n plus reg on the
+// diagonal (scikit-learn's tied covariance) from the memberships.
+func (g *Gaussian) mStep(rows [][]float64, reg float64) {
+	n, d, post := len(rows), g.Dim, g.Posterior
+	diff := make([]float64, d)
+	cov := mat.NewSymDense(d, nil)
+	for c := 0; c < g.K; c++ {
+		var w float64
+		mu := g.Means[c]
+		clear(mu)
+		for i, r := range rows {
+			z := post[i][c]
+			w += z
+			for j, v := range r {
+				mu[j] += z * v
+			}
+		}
+		g.Weights[c] = w / float64(n)
+		if w > 0 {
+			for j := range mu {
+				mu[j] /= w
+			}
+		}
+		for i, r := range rows {
+			z := post[i][c]
+			if z == 0 {
+				continue
+			}
+			for j := range diff {
+				diff[j] = r[j] - mu[j]
+			}
+			cov.SymRankOne(cov, z, mat.NewVecDense(d, diff))
+		}
+	}
+	cov.ScaleSym(1/float64(n), cov)
+	for j := 0; j < d; j++ {
+		cov.SetSym(j, j, cov.At(j, j)+reg)
+	}
+	g.Cov = cov
+}
+
+// eStep sets the memberships and labels and returns the log-likelihood; false when the
+// covariance is singular or the likelihood not a number. It whitens with L⁻¹ of the
+// covariance's Cholesky factor L: the squared Mahalanobis distance of x from μ is |L⁻¹x − L⁻¹μ|².
+func (g *Gaussian) eStep(rows [][]float64) (float64, bool) {
+	d, k, post := g.Dim, g.K, g.Posterior
+	var chol mat.Cholesky
+	if !chol.Factorize(g.Cov) {
+		return 0, false
+	}
+	var l, linv mat.TriDense
+	chol.LTo(&l)
+	if err := linv.InverseTri(&l); err != nil {
+		return 0, false
+	}
+	w := linv.RawTriangular()
+	whiten := func(dst, v []float64) {
+		for a := 0; a < d; a++ {
+			var s float64
+			row := w.Data[a*w.Stride : a*w.Stride+a+1]
+			for b, lv := range row {
+				s += lv * v[b]
+			}
+			dst[a] = s
+		}
+	}
+	wm := make([][]float64, k)
+	for c := range wm {
+		wm[c] = make([]float64, d)
+		whiten(wm[c], g.Means[c])
+	}
+	logNorm := -0.5*float64(d)*math.Log(2*math.Pi) - 0.5*chol.LogDet()
+	logW := make([]float64, k)
+	for c := range logW {
+		logW[c] = math.Log(g.Weights[c])
+	}
+	clear(g.Labels)
+	lp := make([]float64, k)
+	wx := make([]float64, d)
+	var ll float64
+	for i, r := range rows {
+		whiten(wx, r)
+		top := math.Inf(-1)
+		for c := 0; c < k; c++ {
+			q := 0.0
+			for j, v := range wx {
+				e := v - wm[c][j]
+				q += e * e
+			}
+			lp[c] = logW[c] + logNorm - 0.5*q
+			if lp[c] > top {
+				top, g.Labels[i] = lp[c], c
+			}
+		}
+		var s float64
+		for c := range lp {
+			s += math.Exp(lp[c] - top)
+		}
+		for c := range lp {
+			post[i][c] = math.Exp(lp[c]-top) / s
+		}
+		ll += top + math.Log(s)
+	}
+	return ll, !math.IsNaN(ll)
 }

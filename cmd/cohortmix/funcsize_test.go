@@ -16,13 +16,6 @@ import (
 const maxLines, maxBranches = 85, 25
 
 var longFunctions = map[string]bool{
-	"cluster/hierarchical.go:nnChain":             true,
-	"cluster/minibatch.go:MiniBatchKMeans":        true,
-	"cluster/mixture/gaussian.go:FitTiedGaussian": true,
-	"cluster/mixture/gaussian.go:fitGaussianFrom": true,
-	"cluster/pam.go:PAM":                          true,
-	"cluster/valley.go:Valley":                    true,
-	"cluster/ward.go:WardPoints":                  true,
 	"cmd/cohortmix/shard.go:newShardCmd":          true,
 	"cohort/group/mixture.go:BoutTable":           true,
 	"cohort/group/stability.go:resampleStability": true,
