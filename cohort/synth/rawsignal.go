@@ -70,63 +70,70 @@ func WriteRaw(dir string, o RawOptions) ([]RawTruth, error) {
 			off1 = off0 + int((90+30*rng.Float64())*60*o.Rate)
 			tr.OffFrom, tr.OffTo = start.Add(time.Duration(off0)*step), start.Add(time.Duration(off1)*step)
 		}
-		f, err := os.Create(filepath.Join(dir, tr.ID+".csv"))
-		if err != nil {
-			return nil, err
-		}
-		w := bufio.NewWriterSize(f, 1<<20)
-		fmt.Fprintln(w, "time,x,y,z")
-		var state, left int
-		var posture [3]float64
-		phase, freq, amp := 0.0, 0.0, 0.0
-		tableAngle := randomUnit(rng)
-		for i := 0; i < n; i++ {
-			if left == 0 {
-				u, cum := rng.Float64(), 0.0
-				for state = 0; state < 3; state++ {
-					if cum += rawGroups[tr.Group][state]; u < cum {
-						break
-					}
-				}
-				left = int((0.5 + 2*rng.ExpFloat64()) * 60 * o.Rate) // bouts of about 2.5 minutes
-				posture = randomUnit(rng)
-				freq = [4]float64{0, 0.5, 1.9, 2.6}[state] * (1 + 0.05*rng.NormFloat64())
-				amp = [4]float64{0, 0.06, 0.25, 0.6}[state]
-			}
-			left--
-			var g [3]float64
-			switch {
-			case i >= off0 && i < off1: // on a table
-				for a := range g {
-					g[a] = tableAngle[a] + 0.001*rng.NormFloat64()
-				}
-			default:
-				phase += 2 * math.Pi * freq / o.Rate
-				wave := amp * math.Sin(phase)
-				wobble := 0.02 * amp * rng.NormFloat64()
-				for a := range g {
-					g[a] = posture[a]*(1+wave) + wobble + 0.003*rng.NormFloat64()
-				}
-				if state == 1 { // light movement: small random arm motion
-					for a := range g {
-						g[a] += 0.03 * rng.NormFloat64()
-					}
-				}
-			}
-			var raw [3]float64
-			for a := range raw {
-				raw[a] = (g[a] - tr.Offset[a]) / tr.Gain[a]
-			}
-			at := start.Add(time.Duration(i) * step)
-			fmt.Fprintf(w, "%s,%.4f,%.4f,%.4f\n", at.Format("2006-01-02T15:04:05.000Z07:00"), raw[0], raw[1], raw[2])
-		}
-		if err := w.Flush(); err != nil {
-			f.Close()
-			return nil, err
-		}
-		if err := f.Close(); err != nil {
+		if err := writeRawParticipant(filepath.Join(dir, tr.ID+".csv"), rng, tr, o.Rate, n, off0, off1, start, step); err != nil {
 			return nil, err
 		}
 	}
 	return truth, nil
+}
+
+// writeRawParticipant writes one participant's n samples: bouts of about 2.5 minutes of the
+// group's states, each in a posture of its own with a swing of the state's frequency and
+// amplitude, and the device on a table from sample off0 to off1.
+func writeRawParticipant(path string, rng *rand.Rand, tr *RawTruth, rate float64, n, off0, off1 int, start time.Time, step time.Duration) error {
+	f, err := os.Create(path)
+	if err != nil {
+		return err
+	}
+	w := bufio.NewWriterSize(f, 1<<20)
+	fmt.Fprintln(w, "time,x,y,z")
+	var state, left int
+	var posture [3]float64
+	phase, freq, amp := 0.0, 0.0, 0.0
+	tableAngle := randomUnit(rng)
+	for i := 0; i < n; i++ {
+		if left == 0 {
+			u, cum := rng.Float64(), 0.0
+			for state = 0; state < 3; state++ {
+				if cum += rawGroups[tr.Group][state]; u < cum {
+					break
+				}
+			}
+			left = int((0.5 + 2*rng.ExpFloat64()) * 60 * rate) // bouts of about 2.5 minutes
+			posture = randomUnit(rng)
+			freq = [4]float64{0, 0.5, 1.9, 2.6}[state] * (1 + 0.05*rng.NormFloat64())
+			amp = [4]float64{0, 0.06, 0.25, 0.6}[state]
+		}
+		left--
+		var g [3]float64
+		switch {
+		case i >= off0 && i < off1: // on a table
+			for a := range g {
+				g[a] = tableAngle[a] + 0.001*rng.NormFloat64()
+			}
+		default:
+			phase += 2 * math.Pi * freq / rate
+			wave := amp * math.Sin(phase)
+			wobble := 0.02 * amp * rng.NormFloat64()
+			for a := range g {
+				g[a] = posture[a]*(1+wave) + wobble + 0.003*rng.NormFloat64()
+			}
+			if state == 1 { // light movement: small random arm motion
+				for a := range g {
+					g[a] += 0.03 * rng.NormFloat64()
+				}
+			}
+		}
+		var raw [3]float64
+		for a := range raw {
+			raw[a] = (g[a] - tr.Offset[a]) / tr.Gain[a]
+		}
+		at := start.Add(time.Duration(i) * step)
+		fmt.Fprintf(w, "%s,%.4f,%.4f,%.4f\n", at.Format("2006-01-02T15:04:05.000Z07:00"), raw[0], raw[1], raw[2])
+	}
+	if err := w.Flush(); err != nil {
+		f.Close()
+		return err
+	}
+	return f.Close()
 }

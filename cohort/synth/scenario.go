@@ -152,8 +152,6 @@ const maxGroupDraws = 5000
 // active): their number and sizes, and what sets them apart (structure). recording is the
 // number of windows in a typical recording, which sets how far apart groups must be drawn.
 func (sc *Scenario) drawGroups(rng *rand.Rand, nQuiet int, structure Structure, recording int) {
-	nStates := len(sc.States)
-	nActive := nStates - nQuiet
 	// Groups: 2…5 of unequal sizes (none below 8 %), mixtures drawn around a common base and
 	// kept only when every two groups are apart by at least four times the spread of their
 	// members. A participant's √shares stray from its group's by about 1/(2√c) per state, where
@@ -162,6 +160,46 @@ func (sc *Scenario) drawGroups(rng *rand.Rand, nQuiet int, structure Structure, 
 	// two groups' √shares are √2·H apart (H the Hellinger distance), so H·2√2·√c ≥ 4, for the
 	// family's recordings of N = 2,016 windows. Where draws keep failing, the groups are drawn
 	// further apart.
+	sizes := drawGroupSizes(rng, structure)
+	qTotal, base := sc.drawBase(rng, nQuiet)
+	if structure == Bouts || structure == OneGroup {
+		sc.drawBoutGroups(rng, base, sizes)
+		return
+	}
+	alpha := 10 + 15*rng.Float64()
+	var bout float64 // time-weighted mean bout length
+	for i, st := range sc.States {
+		bout += base[i] * st.Bout
+	}
+	c := 1 / (1/(sc.Concentration+1) + 2*bout/float64(recording))
+	var best []Group // the draw whose closest groups are farthest apart, should no draw pass
+	bestH := -1.0
+	for tries := 0; ; tries++ {
+		groups := sc.drawMixtures(rng, base, sizes, alpha, nQuiet, qTotal)
+		h := minHellinger(groups)
+		if h*2*math.Sqrt2*math.Sqrt(c) >= 4 {
+			sc.Groups = groups
+			break
+		}
+		if h > bestH {
+			best, bestH = groups, h
+		}
+		if tries == maxGroupDraws {
+			// Few states cannot hold groups that far apart (a count-data scenario with three
+			// waking states, say): the best draw is kept, and the groups are closer than the
+			// rule asks.
+			sc.Groups = best
+			break
+		}
+		if tries%50 == 49 {
+			alpha = math.Max(1, alpha*0.9)
+		}
+	}
+}
+
+// drawGroupSizes draws the groups' number (2–5; 2–3 for bout groups; 1 for a null cohort) and
+// sizes (none below 8 %, but for the small group of SmallGroup, 5–10 %).
+func drawGroupSizes(rng *rand.Rand, structure Structure) []float64 {
 	nGroups := 2 + rng.IntN(4)
 	switch structure {
 	case Bouts:
@@ -185,8 +223,16 @@ func (sc *Scenario) drawGroups(rng *rand.Rand, nQuiet int, structure Structure, 
 		}
 		sizes[nGroups-1] = small
 	}
-	qTotal := 0.5 + 0.3*rng.Float64()
-	base := make([]float64, nStates)
+	return sizes
+}
+
+// drawBase draws the common base mixture around which the groups' are drawn: the quiet states'
+// total share qTotal divided among the first nQuiet states, the rest among the active ones.
+func (sc *Scenario) drawBase(rng *rand.Rand, nQuiet int) (qTotal float64, base []float64) {
+	nStates := len(sc.States)
+	nActive := nStates - nQuiet
+	qTotal = 0.5 + 0.3*rng.Float64()
+	base = make([]float64, nStates)
 	qs := dirichlet(rng, repeat(1.0/float64(nQuiet), nQuiet), 5*float64(nQuiet))
 	as := dirichlet(rng, repeat(1.0/float64(nActive), nActive), 3*float64(nActive))
 	for i := range qs {
@@ -195,64 +241,40 @@ func (sc *Scenario) drawGroups(rng *rand.Rand, nQuiet int, structure Structure, 
 	for i := range as {
 		base[nQuiet+i] = (1 - qTotal) * as[i]
 	}
-	if structure == Bouts || structure == OneGroup {
-		sc.drawBoutGroups(rng, base, sizes)
-		return
-	}
-	alpha := 10 + 15*rng.Float64()
-	var best []Group // the draw whose closest groups are farthest apart, should no draw pass
-	bestH := -1.0
-	for tries := 0; ; tries++ {
-		groups := make([]Group, nGroups)
-		for g := range groups {
-			m := dirichlet(rng, base, alpha)
-			if sc.QuietSplit {
-				var q float64
-				for i := 0; i < nQuiet; i++ {
-					q += m[i]
-				}
-				for i := range m {
-					if i < nQuiet {
-						m[i] *= qTotal / q
-					} else {
-						m[i] *= (1 - qTotal) / (1 - q)
-					}
-				}
+	return qTotal, base
+}
+
+// drawMixtures draws one candidate set of groups: each group's mixture from a Dirichlet around
+// base of concentration alpha (with the quiet states' total kept at qTotal where the scenario
+// splits only the quiet time), no share below 1 %, and each state's bout factor.
+func (sc *Scenario) drawMixtures(rng *rand.Rand, base, sizes []float64, alpha float64, nQuiet int, qTotal float64) []Group {
+	groups := make([]Group, len(sizes))
+	for g := range groups {
+		m := dirichlet(rng, base, alpha)
+		if sc.QuietSplit {
+			var q float64
+			for i := 0; i < nQuiet; i++ {
+				q += m[i]
 			}
 			for i := range m {
-				m[i] = math.Max(m[i], 0.01)
+				if i < nQuiet {
+					m[i] *= qTotal / q
+				} else {
+					m[i] *= (1 - qTotal) / (1 - q)
+				}
 			}
-			normalizeSum(m)
-			bf := make([]float64, nStates)
-			for i := range bf {
-				bf[i] = math.Exp(0.2 * rng.NormFloat64())
-			}
-			groups[g] = Group{Share: sizes[g], Mixture: m, BoutFactor: bf}
 		}
-		var bout float64 // time-weighted mean bout length
-		for i, st := range sc.States {
-			bout += base[i] * st.Bout
+		for i := range m {
+			m[i] = math.Max(m[i], 0.01)
 		}
-		c := 1 / (1/(sc.Concentration+1) + 2*bout/float64(recording))
-		h := minHellinger(groups)
-		if h*2*math.Sqrt2*math.Sqrt(c) >= 4 {
-			sc.Groups = groups
-			break
+		normalizeSum(m)
+		bf := make([]float64, len(base))
+		for i := range bf {
+			bf[i] = math.Exp(0.2 * rng.NormFloat64())
 		}
-		if h > bestH {
-			best, bestH = groups, h
-		}
-		if tries == maxGroupDraws {
-			// Few states cannot hold groups that far apart (a count-data scenario with three
-			// waking states, say): the best draw is kept, and the groups are closer than the
-			// rule asks.
-			sc.Groups = best
-			break
-		}
-		if tries%50 == 49 {
-			alpha = math.Max(1, alpha*0.9)
-		}
+		groups[g] = Group{Share: sizes[g], Mixture: m, BoutFactor: bf}
 	}
+	return groups
 }
 
 // Describe is a line about the scenario, for tables of results.

@@ -62,84 +62,12 @@ func WriteWear(path string, o WearOptions) ([]WearTruth, error) {
 	end := time.Date(2026, 10, 20+o.Days, 0, 0, 0, 0, loc)
 	minutes := int(end.Sub(start) / time.Minute)
 	truth := make([]WearTruth, o.Participants)
-	meanBout := [3]float64{25, 8, 5} // minutes
 	for p := range truth {
 		tr := &truth[p]
 		tr.ID, tr.Group, tr.Floor = fmt.Sprintf("W%03d", p+1), p%3, rng.Float64() < 0.3
-		var share [3]float64
-		var sum float64
-		for s := range share { // around the group's shares (a Dirichlet of concentration 150)
-			share[s] = gammaDraw(rng, 150*wearGroups[tr.Group][s])
-			sum += share[s]
-		}
-		// Bouts of state s start with chance ∝ share/meanBout, so that time divides as share.
-		var startP [3]float64
-		var total float64
-		for s := range share {
-			startP[s] = share[s] / sum / meanBout[s]
-			total += startP[s]
-		}
-		floor := 0.0
-		if tr.Floor {
-			floor = 3 + 3*rng.Float64()
-		}
-		gain := math.Exp(0.1 * rng.NormFloat64())
-		bed, wake := 23*60+30*rng.NormFloat64(), 7*60+30*rng.NormFloat64()
-		counts := make([]float64, minutes)
-		off := make([]bool, minutes)
-		state, left := 0, 0
-		for m := 0; m < minutes; m++ {
-			at := start.Add(time.Duration(m) * time.Minute)
-			tod := float64(at.Hour()*60 + at.Minute())
-			if tod >= bed || tod < wake { // asleep: a small movement now and then
-				if rng.Float64() < 0.08 {
-					counts[m] = math.Round(5 + 50*rng.Float64())
-				} else {
-					counts[m] = math.Round(floor * rng.Float64() * 2)
-				}
-				left = 0
-				continue
-			}
-			if left == 0 {
-				u := rng.Float64() * total
-				for state = 0; state < 2 && u > startP[state]; state++ {
-					u -= startP[state]
-				}
-				left = 1 + int(rng.ExpFloat64()*(meanBout[state]-1)+0.5)
-			}
-			left--
-			var c float64
-			switch state {
-			case 0:
-				c = floor*rng.Float64()*2 + math.Exp(2+1.2*rng.NormFloat64())
-				if rng.Float64() < 0.3 {
-					c = floor * rng.Float64() * 2
-				}
-			case 1:
-				c = math.Exp(math.Log(600) + 0.5*rng.NormFloat64())
-			default:
-				c = math.Exp(math.Log(3500) + 0.35*rng.NormFloat64())
-			}
-			counts[m] = math.Round(c * gain)
-		}
-		// The device off: on a day, 1 to 5 hours from late morning (a shower, a swim); and for
-		// some participants a whole day and night. Off the wrist it reads 0 whatever its floor.
-		for day := 0; day < o.Days; day++ {
-			if rng.Float64() < 0.2 {
-				m0 := day*1440 + 9*60 + rng.IntN(8*60)
-				end := min(minutes, m0+60+rng.IntN(4*60))
-				for m := m0; m < end; m++ {
-					counts[m], off[m] = 0, true
-				}
-			}
-		}
-		if rng.Float64() < o.DayOff {
-			m0 := (1+rng.IntN(o.Days-3))*1440 + 8*60
-			end := min(minutes, m0+24*60+rng.IntN(6*60))
-			for m := m0; m < end; m++ {
-				counts[m], off[m] = 0, true
-			}
-		}
+		wr := drawWearer(rng, tr)
+		counts, off := wr.counts(rng, start, minutes)
+		wearOff(rng, counts, off, o)
 		// A gap: for one participant in ten, three hours of rows lost.
 		gap := -1
 		if rng.Float64() < 0.1 {
@@ -159,6 +87,103 @@ func WriteWear(path string, o WearOptions) ([]WearTruth, error) {
 		return nil, err
 	}
 	return truth, f.Close()
+}
+
+// wearMeanBout is the wear scenario's mean bout of each waking state, in minutes.
+var wearMeanBout = [3]float64{25, 8, 5}
+
+// wearer is one participant of the wear scenario: the chance that a bout of each state starts,
+// the device's resting floor and gain, and the times of going to bed and waking (minutes of the
+// day).
+type wearer struct {
+	startP                 [3]float64
+	total                  float64
+	floor, gain, bed, wake float64
+}
+
+func drawWearer(rng *rand.Rand, tr *WearTruth) wearer {
+	var share [3]float64
+	var sum float64
+	for s := range share { // around the group's shares (a Dirichlet of concentration 150)
+		share[s] = gammaDraw(rng, 150*wearGroups[tr.Group][s])
+		sum += share[s]
+	}
+	// Bouts of state s start with chance ∝ share/meanBout, so that time divides as share.
+	var wr wearer
+	for s := range share {
+		wr.startP[s] = share[s] / sum / wearMeanBout[s]
+		wr.total += wr.startP[s]
+	}
+	if tr.Floor {
+		wr.floor = 3 + 3*rng.Float64()
+	}
+	wr.gain = math.Exp(0.1 * rng.NormFloat64())
+	wr.bed, wr.wake = 23*60+30*rng.NormFloat64(), 7*60+30*rng.NormFloat64()
+	return wr
+}
+
+// counts are the wearer's counts minute by minute, and where the device was off (none yet).
+func (wr wearer) counts(rng *rand.Rand, start time.Time, minutes int) ([]float64, []bool) {
+	counts := make([]float64, minutes)
+	off := make([]bool, minutes)
+	state, left := 0, 0
+	for m := 0; m < minutes; m++ {
+		at := start.Add(time.Duration(m) * time.Minute)
+		tod := float64(at.Hour()*60 + at.Minute())
+		if tod >= wr.bed || tod < wr.wake { // asleep: a small movement now and then
+			if rng.Float64() < 0.08 {
+				counts[m] = math.Round(5 + 50*rng.Float64())
+			} else {
+				counts[m] = math.Round(wr.floor * rng.Float64() * 2)
+			}
+			left = 0
+			continue
+		}
+		if left == 0 {
+			u := rng.Float64() * wr.total
+			for state = 0; state < 2 && u > wr.startP[state]; state++ {
+				u -= wr.startP[state]
+			}
+			left = 1 + int(rng.ExpFloat64()*(wearMeanBout[state]-1)+0.5)
+		}
+		left--
+		var c float64
+		switch state {
+		case 0:
+			c = wr.floor*rng.Float64()*2 + math.Exp(2+1.2*rng.NormFloat64())
+			if rng.Float64() < 0.3 {
+				c = wr.floor * rng.Float64() * 2
+			}
+		case 1:
+			c = math.Exp(math.Log(600) + 0.5*rng.NormFloat64())
+		default:
+			c = math.Exp(math.Log(3500) + 0.35*rng.NormFloat64())
+		}
+		counts[m] = math.Round(c * wr.gain)
+	}
+	return counts, off
+}
+
+// wearOff takes the device off: on a day, 1 to 5 hours from late morning (a shower, a swim);
+// and for some participants a whole day and night. Off the wrist it reads 0 whatever its floor.
+func wearOff(rng *rand.Rand, counts []float64, off []bool, o WearOptions) {
+	minutes := len(counts)
+	for day := 0; day < o.Days; day++ {
+		if rng.Float64() < 0.2 {
+			m0 := day*1440 + 9*60 + rng.IntN(8*60)
+			end := min(minutes, m0+60+rng.IntN(4*60))
+			for m := m0; m < end; m++ {
+				counts[m], off[m] = 0, true
+			}
+		}
+	}
+	if rng.Float64() < o.DayOff {
+		m0 := (1+rng.IntN(o.Days-3))*1440 + 8*60
+		end := min(minutes, m0+24*60+rng.IntN(6*60))
+		for m := m0; m < end; m++ {
+			counts[m], off[m] = 0, true
+		}
+	}
 }
 
 // WriteLarksOwls writes a planted cohort (invented, synthetic) of two groups that spend the same
