@@ -142,49 +142,14 @@ func (r *pqRecording) scanGroup(part byteRange, l layout, each func(l *layout, s
 			return err
 		}
 	}
-	var times []int64
-	var timeText [][]byte
-	var ids []string
-	if r.unit > 0 && r.kinds[l.t].Kind() == parquet.Int64 {
-		if buf.times, err = r.ints(chunks[l.t], n, l.t, part.line, buf.times); err != nil {
-			return err
-		}
-		times = buf.times
-		for i := range times {
-			times[i] *= int64(r.unit)
-		}
-	} else if r.unit > 0 || r.kinds[l.t].Kind() != parquet.ByteArray {
-		vals, err := r.numbers(chunks[l.t], n, l.t, part.line, nil)
-		if err != nil {
-			return err
-		}
-		times = make([]int64, n)
-		for i, v := range vals {
-			if r.unit > 0 {
-				times[i] = int64(v) * int64(r.unit)
-				continue
-			}
-			t, _, err := parseTime([]byte(strconv.FormatFloat(v, 'f', -1, 64)))
-			if err != nil {
-				return fmt.Errorf("%s:%d:%d: %v: %w", r.path, part.line+1+i, l.t+1, err, ErrInput)
-			}
-			times[i] = t
-		}
-	} else if timeText, err = r.texts(chunks[l.t], n, l.t, part.line); err != nil {
+	times, timeText, err := r.groupTimes(chunks[l.t], n, l.t, part.line, buf)
+	if err != nil {
 		return err
 	}
+	var ids []string
 	if l.id >= 0 {
-		raw, err := r.texts(chunks[l.id], n, l.id, part.line)
-		if err != nil {
+		if ids, err = r.groupIDs(chunks[l.id], n, l.id, part.line); err != nil {
 			return err
-		}
-		ids = make([]string, n)
-		for i, b := range raw {
-			if i > 0 && string(b) == ids[i-1] {
-				ids[i] = ids[i-1]
-			} else {
-				ids[i] = string(b)
-			}
 		}
 	}
 	for a, vals := range axes {
@@ -220,6 +185,61 @@ func (r *pqRecording) scanGroup(part byteRange, l layout, each func(l *layout, s
 		}
 	}
 	return nil
+}
+
+// groupTimes reads a row group's time column (column col, its first row at line): instants as
+// nanoseconds (INT64 in the file's unit, through the pooled buffer, or other numbers), or the
+// texts of times to be parsed row by row.
+func (r *pqRecording) groupTimes(chunk parquet.ColumnChunk, n, col, line int, buf *groupBuf) (times []int64, text [][]byte, err error) {
+	kind := r.kinds[col].Kind()
+	switch {
+	case r.unit > 0 && kind == parquet.Int64:
+		if buf.times, err = r.ints(chunk, n, col, line, buf.times); err != nil {
+			return nil, nil, err
+		}
+		times = buf.times
+		for i := range times {
+			times[i] *= int64(r.unit)
+		}
+		return times, nil, nil
+	case r.unit > 0 || kind != parquet.ByteArray:
+		vals, err := r.numbers(chunk, n, col, line, nil)
+		if err != nil {
+			return nil, nil, err
+		}
+		times = make([]int64, n)
+		for i, v := range vals {
+			if r.unit > 0 {
+				times[i] = int64(v) * int64(r.unit)
+				continue
+			}
+			t, _, err := parseTime([]byte(strconv.FormatFloat(v, 'f', -1, 64)))
+			if err != nil {
+				return nil, nil, fmt.Errorf("%s:%d:%d: %v: %w", r.path, line+1+i, col+1, err, ErrInput)
+			}
+			times[i] = t
+		}
+		return times, nil, nil
+	}
+	text, err = r.texts(chunk, n, col, line)
+	return nil, text, err
+}
+
+// groupIDs reads a row group's participant column, one string per run of equal ids.
+func (r *pqRecording) groupIDs(chunk parquet.ColumnChunk, n, col, line int) ([]string, error) {
+	raw, err := r.texts(chunk, n, col, line)
+	if err != nil {
+		return nil, err
+	}
+	ids := make([]string, n)
+	for i, b := range raw {
+		if i > 0 && string(b) == ids[i-1] {
+			ids[i] = ids[i-1]
+		} else {
+			ids[i] = string(b)
+		}
+	}
+	return ids, nil
 }
 
 // zone records whether the recording's times carry an offset, from its first time, and refuses

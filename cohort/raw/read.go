@@ -259,53 +259,85 @@ func parseFloat(b []byte) (float64, error) {
 // per sample is that of the features); anything else, or anything out of range, is left to
 // parseTime's general path (ok false).
 func fastTime(b []byte) (int64, bool, bool) {
+	secs, ok := fastClock(b)
+	if !ok {
+		return 0, false, false
+	}
+	frac, i, ok := fastFraction(b, 19)
+	if !ok {
+		return 0, false, false
+	}
+	offset, zoned, ok := fastZone(b, i)
+	if !ok {
+		return 0, false, false
+	}
+	return (secs-int64(offset))*1e9 + frac, zoned, true
+}
+
+// digits is the number written in b[i:i+n], false if a byte is not a digit.
+func digits(b []byte, i, n int) (int, bool) {
+	v := 0
+	for _, c := range b[i : i+n] {
+		if c < '0' || c > '9' {
+			return 0, false
+		}
+		v = v*10 + int(c-'0')
+	}
+	return v, true
+}
+
+// fastClock is the seconds since 1970 of the date and time of day in b's first 19 bytes,
+// YYYY-MM-DDTHH:MM:SS (or a space for the T), read as UTC.
+func fastClock(b []byte) (int64, bool) {
 	if len(b) < 19 || b[4] != '-' || b[7] != '-' || (b[10] != 'T' && b[10] != ' ') || b[13] != ':' || b[16] != ':' {
-		return 0, false, false
+		return 0, false
 	}
-	num := func(i, n int) (int, bool) {
-		v := 0
-		for _, c := range b[i : i+n] {
-			if c < '0' || c > '9' {
-				return 0, false
-			}
-			v = v*10 + int(c-'0')
-		}
-		return v, true
+	y, ok1 := digits(b, 0, 4)
+	mo, ok2 := digits(b, 5, 2)
+	d, ok3 := digits(b, 8, 2)
+	h, ok4 := digits(b, 11, 2)
+	mi, ok5 := digits(b, 14, 2)
+	sec, ok6 := digits(b, 17, 2)
+	if !(ok1 && ok2 && ok3 && ok4 && ok5 && ok6) || y < 1900 || y > 2200 || mo < 1 || mo > 12 || d < 1 {
+		return 0, false
 	}
-	y, ok1 := num(0, 4)
-	mo, ok2 := num(5, 2)
-	d, ok3 := num(8, 2)
-	h, ok4 := num(11, 2)
-	mi, ok5 := num(14, 2)
-	sec, ok6 := num(17, 2)
-	if !(ok1 && ok2 && ok3 && ok4 && ok5 && ok6) || y < 1900 || y > 2200 || mo < 1 || mo > 12 || d < 1 || d > 28 && d > daysIn(y, mo) || h > 23 || mi > 59 || sec > 59 {
-		return 0, false, false
+	if d > 28 && d > daysIn(y, mo) || h > 23 || mi > 59 || sec > 59 {
+		return 0, false
 	}
-	i := 19
+	return daysFromCivil(y, mo, d)*86400 + int64(h*3600+mi*60+sec), true
+}
+
+// fastFraction reads an optional fraction of a second at b[i:] (a point and at least one
+// digit; digits past the nanosecond are ignored), in nanoseconds, and returns where it ends.
+func fastFraction(b []byte, i int) (int64, int, bool) {
 	var frac int64
-	if i < len(b) && b[i] == '.' {
-		i++
-		scale := int64(1e9)
-		start := i
-		for i < len(b) && b[i] >= '0' && b[i] <= '9' {
-			if scale > 1 {
-				scale /= 10
-				frac += int64(b[i]-'0') * scale
-			}
-			i++
-		}
-		if i == start {
-			return 0, false, false
-		}
+	if i >= len(b) || b[i] != '.' {
+		return 0, i, true
 	}
-	zoned, offset := false, 0
+	i++
+	scale := int64(1e9)
+	start := i
+	for i < len(b) && b[i] >= '0' && b[i] <= '9' {
+		if scale > 1 {
+			scale /= 10
+			frac += int64(b[i]-'0') * scale
+		}
+		i++
+	}
+	return frac, i, i > start
+}
+
+// fastZone reads what ends a time at b[i:]: nothing, Z, or ±hh:mm; the offset in seconds east
+// of UTC and whether one was written.
+func fastZone(b []byte, i int) (offset int, zoned, ok bool) {
 	switch {
 	case i == len(b):
+		return 0, false, true
 	case b[i] == 'Z' && i+1 == len(b):
-		zoned = true
+		return 0, true, true
 	case (b[i] == '+' || b[i] == '-') && i+6 == len(b) && b[i+3] == ':':
-		oh, okh := num(i+1, 2)
-		om, okm := num(i+4, 2)
+		oh, okh := digits(b, i+1, 2)
+		om, okm := digits(b, i+4, 2)
 		if !okh || !okm || oh > 23 || om > 59 {
 			return 0, false, false
 		}
@@ -313,13 +345,9 @@ func fastTime(b []byte) (int64, bool, bool) {
 		if b[i] == '-' {
 			offset = -offset
 		}
-		zoned = true
-	default:
-		return 0, false, false
+		return offset, true, true
 	}
-	days := daysFromCivil(y, mo, d)
-	secs := days*86400 + int64(h*3600+mi*60+sec) - int64(offset)
-	return secs*1e9 + frac, zoned, true
+	return 0, false, false
 }
 
 // daysFromCivil is the days since 1970-01-01 of a date of the proleptic Gregorian calendar

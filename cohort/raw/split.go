@@ -133,8 +133,31 @@ type window struct {
 // scanPart reads part i (a range of a text file, or a row group of a Parquet file) with a copy of
 // the file's layout.
 func runFileSplit(ctx context.Context, path string, o Options, col map[string]int, ranges []byteRange, l0 *layout, scanPart func(i int, l layout, each func(l *layout, s sample) error) error) (fileResult, error) {
+	f, err := firstPassSplit(ctx, path, o, ranges, l0, scanPart)
+	if err != nil {
+		return fileResult{}, err
+	}
+	pl, err := f.finish(path, o)
+	if err != nil {
+		return fileResult{}, err
+	}
+	res := fileResult{rows: &sink{col: col}}
+	j := &rangeJoin{path: path, ranges: ranges, f: f, res: res, join: &secondPass{p: f.p, pl: pl, o: o, out: res.rows}}
+	err = par.Ordered(ctx, len(ranges), o.Workers, func(i, _ int) (*rangePart, error) {
+		return secondPassRange(i, path, o, col, pl, l0, scanPart)
+	}, j.add)
+	if err != nil {
+		return fileResult{}, err
+	}
+	j.flush()
+	res.people = []Participant{*f.p}
+	return res, nil
+}
+
+// firstPassSplit is the first pass over every range of one participant's recording, joined in
+// order; it refuses a range whose first time is not after the previous one's last.
+func firstPassSplit(ctx context.Context, path string, o Options, ranges []byteRange, l0 *layout, scanPart func(i int, l layout, each func(l *layout, s sample) error) error) (*firstPass, error) {
 	id := l0.fileID
-	// First pass, per range, joined in order.
 	var f *firstPass
 	err := par.Ordered(ctx, len(ranges), o.Workers, func(i, _ int) (*firstPass, error) {
 		part := &firstPass{p: &Participant{ID: id, File: path}}
@@ -161,88 +184,94 @@ func runFileSplit(ctx context.Context, path string, o Options, col map[string]in
 		return nil
 	})
 	if err != nil {
-		return fileResult{}, err
+		return nil, err
 	}
 	if f == nil {
-		return fileResult{}, fmt.Errorf("%s: no samples after the header: %w", path, ErrInput)
+		return nil, fmt.Errorf("%s: no samples after the header: %w", path, ErrInput)
 	}
-	pl, err := f.finish(path, o)
-	if err != nil {
-		return fileResult{}, err
-	}
-	res := fileResult{rows: &sink{col: col}}
-	join := &secondPass{p: f.p, pl: pl, o: o, out: res.rows}
-	var pending *window
-	seenKind := false
-	flush := func() {
-		if pending != nil {
-			join.window, join.x, join.y, join.z = pending.key, pending.x, pending.y, pending.z
-			join.flush()
-			pending = nil
+	return f, nil
+}
+
+// secondPassRange makes the windows of range i; its first and last windows, which may go on
+// in the ranges beside it, are kept apart for the join.
+func secondPassRange(i int, path string, o Options, col map[string]int, pl *plan, l0 *layout, scanPart func(i int, l layout, each func(l *layout, s sample) error) error) (*rangePart, error) {
+	part := &rangePart{rows: &sink{col: col}, p: Participant{ID: l0.fileID, File: path}}
+	sec := &secondPass{p: &part.p, pl: pl, o: o, out: part.rows}
+	l := *l0
+	err := scanPart(i, l, func(l *layout, s sample) error {
+		if part.zoned == nil {
+			part.zoned = new(bool)
+			*part.zoned = l.zoned
+			sec.zoned = l.zoned
 		}
-	}
-	err = par.Ordered(ctx, len(ranges), o.Workers, func(i, _ int) (*rangePart, error) {
-		part := &rangePart{rows: &sink{col: col}, p: Participant{ID: id, File: path}}
-		sec := &secondPass{p: &part.p, pl: pl, o: o, out: part.rows}
-		l := *l0
-		err := scanPart(i, l, func(l *layout, s sample) error {
-			if part.zoned == nil {
-				part.zoned = new(bool)
-				*part.zoned = l.zoned
-				sec.zoned = l.zoned
-			}
-			if part.head == nil && len(sec.x) > 0 && s.t >= sec.end && floorDiv(s.t, int64(o.Window)) != sec.window { // the first window: kept for the join
-				part.head = &window{key: sec.window, x: clone(sec.x), y: clone(sec.y), z: clone(sec.z)}
-				sec.x, sec.y, sec.z = sec.x[:0], sec.y[:0], sec.z[:0]
-			}
-			sec.add(s)
-			return nil
-		})
-		if len(sec.x) > 0 { // the last window: kept for the join
-			last := &window{key: sec.window, x: clone(sec.x), y: clone(sec.y), z: clone(sec.z)}
-			if part.head == nil {
-				part.head = last
-			} else {
-				part.tail = last
-			}
+		if part.head == nil && len(sec.x) > 0 && s.t >= sec.end && floorDiv(s.t, int64(o.Window)) != sec.window { // the first window: kept for the join
+			part.head = &window{key: sec.window, x: clone(sec.x), y: clone(sec.y), z: clone(sec.z)}
+			sec.x, sec.y, sec.z = sec.x[:0], sec.y[:0], sec.z[:0]
 		}
-		return part, err
-	}, func(i int, part *rangePart) error {
-		// The kind of the times (with an offset or not) is one through the file.
-		if z := part.zoned; z != nil {
-			if seenKind && *z != join.zoned {
-				return fmt.Errorf("%s:%d: times %s here where the file's first times were %s; give every time in one form: %w", path, ranges[i].line+1, zoneWord(*z), zoneWord(join.zoned), ErrInput)
-			}
-			join.zoned, seenKind = *z, true
-		}
-		f.p.Windows += part.p.Windows
-		f.p.Incomplete += part.p.Incomplete
-		f.p.NonWear += part.p.NonWear
-		f.p.Clipped += part.p.Clipped
-		if part.head == nil {
-			return nil
-		}
-		if pending != nil && pending.key == part.head.key {
-			pending.x, pending.y, pending.z = append(pending.x, part.head.x...), append(pending.y, part.head.y...), append(pending.z, part.head.z...)
-		} else {
-			flush()
-			pending = part.head
-		}
-		if part.tail == nil {
-			return nil
-		}
-		flush()
-		res.rows.text.Write(part.rows.text.Bytes())
-		res.rows.rows = append(res.rows.rows, part.rows.rows...)
-		pending = part.tail
+		sec.add(s)
 		return nil
 	})
-	if err != nil {
-		return fileResult{}, err
+	if len(sec.x) > 0 { // the last window: kept for the join
+		last := &window{key: sec.window, x: clone(sec.x), y: clone(sec.y), z: clone(sec.z)}
+		if part.head == nil {
+			part.head = last
+		} else {
+			part.tail = last
+		}
 	}
-	flush()
-	res.people = []Participant{*f.p}
-	return res, nil
+	return part, err
+}
+
+// rangeJoin joins the ranges' windows in order: a window cut between two ranges is made whole
+// before its features are computed.
+type rangeJoin struct {
+	path     string
+	ranges   []byteRange
+	f        *firstPass
+	res      fileResult
+	join     *secondPass
+	pending  *window
+	seenKind bool
+}
+
+func (j *rangeJoin) flush() {
+	if j.pending != nil {
+		j.join.window, j.join.x, j.join.y, j.join.z = j.pending.key, j.pending.x, j.pending.y, j.pending.z
+		j.join.flush()
+		j.pending = nil
+	}
+}
+
+func (j *rangeJoin) add(i int, part *rangePart) error {
+	// The kind of the times (with an offset or not) is one through the file.
+	if z := part.zoned; z != nil {
+		if j.seenKind && *z != j.join.zoned {
+			return fmt.Errorf("%s:%d: times %s here where the file's first times were %s; give every time in one form: %w", j.path, j.ranges[i].line+1, zoneWord(*z), zoneWord(j.join.zoned), ErrInput)
+		}
+		j.join.zoned, j.seenKind = *z, true
+	}
+	p := j.f.p
+	p.Windows += part.p.Windows
+	p.Incomplete += part.p.Incomplete
+	p.NonWear += part.p.NonWear
+	p.Clipped += part.p.Clipped
+	if part.head == nil {
+		return nil
+	}
+	if j.pending != nil && j.pending.key == part.head.key {
+		j.pending.x, j.pending.y, j.pending.z = append(j.pending.x, part.head.x...), append(j.pending.y, part.head.y...), append(j.pending.z, part.head.z...)
+	} else {
+		j.flush()
+		j.pending = part.head
+	}
+	if part.tail == nil {
+		return nil
+	}
+	j.flush()
+	j.res.rows.text.Write(part.rows.text.Bytes())
+	j.res.rows.rows = append(j.res.rows.rows, part.rows.rows...)
+	j.pending = part.tail
+	return nil
 }
 
 // joinSums joins two lists of sums by key, in order: where the second begins with the key the
