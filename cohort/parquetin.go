@@ -31,22 +31,11 @@ func (r *reader) readParquet(p string) (err error) {
 			err = &InputError{File: p, Msg: fmt.Sprintf("the Parquet file is damaged (%v); write it again, or export CSV", v), Err: ErrNotText}
 		}
 	}()
-	f, err := os.Open(p)
+	f, size, pf, err := openParquet(p)
 	if err != nil {
-		return &InputError{File: p, Msg: "cannot open: " + err.Error(), Err: ErrOpen, Cause: err}
+		return err
 	}
 	defer f.Close()
-	st, err := f.Stat()
-	if err != nil {
-		return &InputError{File: p, Msg: "cannot open: " + err.Error(), Err: ErrOpen, Cause: err}
-	}
-	if err := pqframe.Check(f, st.Size()); err != nil {
-		return &InputError{File: p, Msg: err.Error(), Err: ErrNotText, Cause: err}
-	}
-	pf, err := parquet.OpenFile(f, st.Size())
-	if err != nil {
-		return &InputError{File: p, Msg: "not a readable Parquet file (" + err.Error() + "); write it again, or export CSV", Err: ErrNotText, Cause: err}
-	}
 	header, leaves, err := pqColumns(p, pf.Schema())
 	if err != nil {
 		return err
@@ -58,7 +47,6 @@ func (r *reader) readParquet(p string) (err error) {
 	if err := r.pqFeatures(p, header, leaves, &roles); err != nil {
 		return err
 	}
-	unit := pqTimeUnit(leaves, roles.order)
 	// The file's hash is taken while its columns are read.
 	type hashResult struct {
 		sum  string
@@ -70,16 +58,67 @@ func (r *reader) readParquet(p string) (err error) {
 		sum, size, err := hashFile(p)
 		hashing <- hashResult{sum, size, err}
 	}()
-	fileIdx := len(r.files)
+	rows, err := r.readPQGroups(pf, r.newPQSpec(p, header, leaves, roles), size)
+	if err != nil {
+		return err
+	}
+	if rows == 0 {
+		return &InputError{File: p, Line: 1, Msg: "has columns but no windows; each row should be one window", Err: ErrEmpty}
+	}
+	hashed := <-hashing
+	if hashed.err != nil {
+		return &InputError{File: p, Msg: "cannot read: " + hashed.err.Error(), Err: ErrOpen, Cause: hashed.err}
+	}
+	madeBy, _ := pf.Lookup(MadeByKey)
+	r.files = append(r.files, FileInfo{Path: p, SHA256: hashed.sum, Bytes: hashed.size, Rows: rows, MadeBy: madeBy})
+	r.rows += rows
+	r.progress()
+	return nil
+}
+
+// openParquet opens the Parquet file at p after checking its frame; the caller closes the file.
+func openParquet(p string) (*os.File, int64, *parquet.File, error) {
+	f, err := os.Open(p)
+	if err != nil {
+		return nil, 0, nil, &InputError{File: p, Msg: "cannot open: " + err.Error(), Err: ErrOpen, Cause: err}
+	}
+	fail := func(e error) (*os.File, int64, *parquet.File, error) {
+		f.Close()
+		return nil, 0, nil, e
+	}
+	st, err := f.Stat()
+	if err != nil {
+		return fail(&InputError{File: p, Msg: "cannot open: " + err.Error(), Err: ErrOpen, Cause: err})
+	}
+	if err := pqframe.Check(f, st.Size()); err != nil {
+		return fail(&InputError{File: p, Msg: err.Error(), Err: ErrNotText, Cause: err})
+	}
+	pf, err := parquet.OpenFile(f, st.Size())
+	if err != nil {
+		return fail(&InputError{File: p, Msg: "not a readable Parquet file (" + err.Error() + "); write it again, or export CSV", Err: ErrNotText, Cause: err})
+	}
+	return f, st.Size(), pf, nil
+}
+
+// newPQSpec is how the row groups of the Parquet file p are read into windows.
+func (r *reader) newPQSpec(p string, header []string, leaves []parquet.LeafColumn, roles roles) *pqSpec {
+	unit := pqTimeUnit(leaves, roles.order)
 	intOrder := false
 	if roles.order >= 0 {
 		k := leaves[roles.order].Node.Type().Kind()
 		intOrder = unit > 0 || k == parquet.Int32 || k == parquet.Int64
 	}
-	spec := &pqSpec{file: p, fileIdx: fileIdx, header: header, roles: roles, unit: unit, intOrder: intOrder, nf: len(r.features), labels: r.hasLabels, workers: r.opts.Workers, rows: r.opts.tuning.parquetRows}
+	spec := &pqSpec{file: p, fileIdx: len(r.files), header: header, roles: roles, unit: unit, intOrder: intOrder, nf: len(r.features), labels: r.hasLabels, workers: r.opts.Workers, rows: r.opts.tuning.parquetRows}
 	if spec.rows <= 0 {
 		spec.rows = pqRows
 	}
+	return spec
+}
+
+// readPQGroups reads every row group into the store and returns the rows read; size is the
+// file's, for progress.
+func (r *reader) readPQGroups(pf *parquet.File, spec *pqSpec, size int64) (int, error) {
+	p, header, roles := spec.file, spec.header, spec.roles
 	rows := 0
 	total := pf.NumRows()
 	emit := func(c *parsedChunk) error {
@@ -91,29 +130,16 @@ func (r *reader) readParquet(p string) (err error) {
 			return err
 		}
 		if r.opts.Progress != nil && total > 0 {
-			r.opts.Progress(p, st.Size()*int64(rows)/total, st.Size(), r.windows.Load())
+			r.opts.Progress(p, size*int64(rows)/total, size, r.windows.Load())
 		}
 		return nil
 	}
 	for _, rg := range pf.RowGroups() {
 		if err := spec.readGroup(r.ctx, rg, rows, emit); err != nil {
-			return err
+			return 0, err
 		}
 	}
-	rowNo := rows + 1
-	if rowNo == 1 {
-		return &InputError{File: p, Line: 1, Msg: "has columns but no windows; each row should be one window", Err: ErrEmpty}
-	}
-	hashed := <-hashing
-	hexsum, size, err := hashed.sum, hashed.size, hashed.err
-	if err != nil {
-		return &InputError{File: p, Msg: "cannot read: " + err.Error(), Err: ErrOpen, Cause: err}
-	}
-	madeBy, _ := pf.Lookup(MadeByKey)
-	r.files = append(r.files, FileInfo{Path: p, SHA256: hexsum, Bytes: size, Rows: rowNo - 1, MadeBy: madeBy})
-	r.rows += rowNo - 1
-	r.progress()
-	return nil
+	return rows, nil
 }
 
 // pqColumns are a Parquet file's flat columns: their names and leaves; a nested or repeated

@@ -698,28 +698,9 @@ func (r *reader) mergeChunk(p string, c *parsedChunk, fileOrder bool) error {
 	}
 	start := 0
 	for _, sg := range c.segs {
-		cur := r.last
-		if cur == nil || cur.id != sg.id || cur.wave != sg.wave {
-			key := sg.id + "\x00" + sg.wave
-			if cur = r.byKey[key]; cur == nil {
-				if len(sg.id) > MaxIDBytes || len(sg.wave) > MaxIDBytes {
-					what, v := "participant id", sg.id
-					if len(sg.id) <= MaxIDBytes {
-						what, v = "wave", sg.wave
-					}
-					return &InputError{File: p, Line: c.line(start, w), Msg: fmt.Sprintf("the %s is %s bytes long (it starts %q); ids and waves are at most %d bytes: is the id column the right one?", what, Thousands(len(v)), v[:20], MaxIDBytes), Err: ErrMissingID}
-				}
-				cur = &rawUnit{id: sg.id, wave: sg.wave, ordinal: r.seen}
-				r.seen++
-				if sh := r.opts.Shard; sh.Count > 0 && ShardOf(sg.id, sh.Count) != sh.Index {
-					cur.skip = true
-				} else {
-					cur.first, cur.varies = make([]float64, d), make([]bool, d)
-					r.units = append(r.units, cur)
-				}
-				r.byKey[key] = cur
-			}
-			r.last = cur
+		cur, err := r.unitOf(p, sg, c, start)
+		if err != nil {
+			return err
 		}
 		if cur.skip {
 			start = sg.end
@@ -729,33 +710,9 @@ func (r *reader) mergeChunk(p string, c *parsedChunk, fileOrder bool) error {
 			cur.files = append(cur.files, p)
 			cur.lastFile = p
 		}
-		block := c.vals[start*w : sg.end*w]
-		for i := start; i < sg.end; i++ {
-			row := c.vals[i*w : (i+1)*w]
-			if fileOrder {
-				row[d] = math.Float64frombits(uint64(cur.n))
-			}
-			ord := int64(math.Float64bits(row[d]))
-			if cur.n > 0 && ord <= cur.lastOrd {
-				cur.unsorted = true
-			}
-			if c.nan != nil && c.nan[i] {
-				cur.missing++
-			} else if cur.n == cur.missing {
-				copy(cur.first, row[:d])
-			} else if cur.nVaries < d {
-				for j, v := range row[:d] {
-					if !cur.varies[j] && v != cur.first[j] {
-						cur.varies[j] = true
-						cur.nVaries++
-					}
-				}
-			}
-			cur.lastOrd = ord
-			cur.n++
-		}
+		cur.addRows(c, start, sg.end, d, fileOrder)
 		at := r.raw.n / int64(w)
-		if err := r.raw.append(block); err != nil {
+		if err := r.raw.append(c.vals[start*w : sg.end*w]); err != nil {
 			return err
 		}
 		if n := len(cur.runs); n > 0 && cur.runs[n-1].at+int64(cur.runs[n-1].rows) == at {
@@ -769,6 +726,66 @@ func (r *reader) mergeChunk(p string, c *parsedChunk, fileOrder bool) error {
 		start = sg.end
 	}
 	return nil
+}
+
+// unitOf is the unit of a segment's participant and wave, made on first sight (and marked to
+// skip when it belongs to another shard); the segment starts at row start of the chunk.
+func (r *reader) unitOf(p string, sg segment, c *parsedChunk, start int) (*rawUnit, error) {
+	cur := r.last
+	if cur != nil && cur.id == sg.id && cur.wave == sg.wave {
+		return cur, nil
+	}
+	key := sg.id + "\x00" + sg.wave
+	if cur = r.byKey[key]; cur == nil {
+		if len(sg.id) > MaxIDBytes || len(sg.wave) > MaxIDBytes {
+			what, v := "participant id", sg.id
+			if len(sg.id) <= MaxIDBytes {
+				what, v = "wave", sg.wave
+			}
+			return nil, &InputError{File: p, Line: c.line(start, len(r.features)+2), Msg: fmt.Sprintf("the %s is %s bytes long (it starts %q); ids and waves are at most %d bytes: is the id column the right one?", what, Thousands(len(v)), v[:20], MaxIDBytes), Err: ErrMissingID}
+		}
+		cur = &rawUnit{id: sg.id, wave: sg.wave, ordinal: r.seen}
+		r.seen++
+		if sh := r.opts.Shard; sh.Count > 0 && ShardOf(sg.id, sh.Count) != sh.Index {
+			cur.skip = true
+		} else {
+			cur.first, cur.varies = make([]float64, len(r.features)), make([]bool, len(r.features))
+			r.units = append(r.units, cur)
+		}
+		r.byKey[key] = cur
+	}
+	r.last = cur
+	return cur, nil
+}
+
+// addRows counts rows start to end of the chunk into the unit: its windows, missing ones, order
+// (numbered in file order with fileOrder) and which features vary.
+func (cur *rawUnit) addRows(c *parsedChunk, start, end, d int, fileOrder bool) {
+	w := d + 2
+	for i := start; i < end; i++ {
+		row := c.vals[i*w : (i+1)*w]
+		if fileOrder {
+			row[d] = math.Float64frombits(uint64(cur.n))
+		}
+		ord := int64(math.Float64bits(row[d]))
+		if cur.n > 0 && ord <= cur.lastOrd {
+			cur.unsorted = true
+		}
+		if c.nan != nil && c.nan[i] {
+			cur.missing++
+		} else if cur.n == cur.missing {
+			copy(cur.first, row[:d])
+		} else if cur.nVaries < d {
+			for j, v := range row[:d] {
+				if !cur.varies[j] && v != cur.first[j] {
+					cur.varies[j] = true
+					cur.nVaries++
+				}
+			}
+		}
+		cur.lastOrd = ord
+		cur.n++
+	}
 }
 
 // groupByUnit reorders a chunk whose units' windows are interleaved (a table sorted by time
@@ -932,47 +949,12 @@ type roles struct {
 
 func (r *reader) assignRoles(p string, header []string) (roles, error) {
 	ro := roles{id: -1, order: -1, wave: -1, label: -1}
-	seen := map[string]int{}
-	for i, h := range header {
-		h = strings.TrimSpace(h)
-		header[i] = h
-		if h == "" {
-			return ro, &InputError{File: p, Line: 1, Msg: fmt.Sprintf("column %d has no name; name every column in the header", i+1), Err: ErrNoColumn}
-		}
-		if j, dup := seen[h]; dup {
-			return ro, &InputError{File: p, Line: 1, Field: h, Msg: fmt.Sprintf("column name appears twice (columns %d and %d); rename one", j+1, i+1), Err: ErrDuplicate}
-		}
-		seen[h] = i
-	}
-	find := func(name, flag string, required bool) (int, error) {
-		if i, ok := seen[name]; ok {
-			return i, nil
-		}
-		if !required {
-			return -1, nil
-		}
-		return -1, &InputError{File: p, Line: 1, Msg: fmt.Sprintf("no column %q (the %s); pass --%s with one of: %s", name, flag, flag, strings.Join(header, ", ")), Err: ErrNoColumn}
-	}
-	var err error
-	if ro.id, err = find(r.opts.ID, "id", true); err != nil {
+	seen, err := headerColumns(p, header)
+	if err != nil {
 		return ro, err
 	}
-	if r.opts.Order != "-" {
-		if ro.order, err = find(r.opts.Order, "order", true); err != nil {
-			err.(*InputError).Msg += `, or --order - to keep the file's row order`
-			return ro, err
-		}
-	}
-	if r.opts.Wave != "" {
-		if ro.wave, err = find(r.opts.Wave, "wave", true); err != nil {
-			return ro, err
-		}
-	}
-	if r.opts.Label != "" {
-		if ro.label, err = find(r.opts.Label, "label", true); err != nil {
-			return ro, err
-		}
-		r.hasLabels = true
+	if err := r.roleColumns(p, header, seen, &ro); err != nil {
+		return ro, err
 	}
 	role := map[int]bool{ro.id: true, ro.order: true, ro.wave: true, ro.label: true}
 	if r.features == nil { // the first file decides the features, on its first row (see classify)
@@ -1008,6 +990,56 @@ func (r *reader) assignRoles(p string, header []string) (roles, error) {
 		}
 	}
 	return ro, nil
+}
+
+// headerColumns trims the header's names in place and returns each name's column, refusing an
+// empty or repeated name.
+func headerColumns(p string, header []string) (map[string]int, error) {
+	seen := map[string]int{}
+	for i, h := range header {
+		h = strings.TrimSpace(h)
+		header[i] = h
+		if h == "" {
+			return nil, &InputError{File: p, Line: 1, Msg: fmt.Sprintf("column %d has no name; name every column in the header", i+1), Err: ErrNoColumn}
+		}
+		if j, dup := seen[h]; dup {
+			return nil, &InputError{File: p, Line: 1, Field: h, Msg: fmt.Sprintf("column name appears twice (columns %d and %d); rename one", j+1, i+1), Err: ErrDuplicate}
+		}
+		seen[h] = i
+	}
+	return seen, nil
+}
+
+// roleColumns finds the id, order, wave and label columns the options name.
+func (r *reader) roleColumns(p string, header []string, seen map[string]int, ro *roles) error {
+	find := func(name, flag string) (int, error) {
+		if i, ok := seen[name]; ok {
+			return i, nil
+		}
+		return -1, &InputError{File: p, Line: 1, Msg: fmt.Sprintf("no column %q (the %s); pass --%s with one of: %s", name, flag, flag, strings.Join(header, ", ")), Err: ErrNoColumn}
+	}
+	var err error
+	if ro.id, err = find(r.opts.ID, "id"); err != nil {
+		return err
+	}
+	if r.opts.Order != "-" {
+		if ro.order, err = find(r.opts.Order, "order"); err != nil {
+			err.(*InputError).Msg += `, or --order - to keep the file's row order`
+			return err
+		}
+	}
+	if r.opts.Wave != "" {
+		if ro.wave, err = find(r.opts.Wave, "wave"); err != nil {
+			return err
+		}
+	}
+	if r.opts.Label != "" {
+		if ro.label, err = find(r.opts.Label, "label"); err != nil {
+			return err
+		}
+		r.hasLabels = true
+	}
+	return nil
 }
 
 func (r *reader) isIgnored(name string) bool {

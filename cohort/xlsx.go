@@ -23,36 +23,18 @@ func (r *reader) readXLSX(p string) (err error) {
 			err = &InputError{File: p, Msg: fmt.Sprintf("the workbook is damaged (%v); save it again as .xlsx, or export CSV", v), Err: ErrNotText}
 		}
 	}()
-	st, err := os.Stat(p)
+	f, sheet, err := openWorkbook(p)
 	if err != nil {
-		return &InputError{File: p, Msg: "cannot open: " + err.Error(), Err: ErrOpen, Cause: err}
-	}
-	// A damaged or hostile archive must not make the unzipper allocate without bound: allow the
-	// sheet XML at most 200 times the file's size (real sheets compress about 5 to 20 times).
-	limit := max(64<<20, 200*st.Size())
-	f, err := excelize.OpenFile(p, excelize.Options{UnzipSizeLimit: limit, UnzipXMLSizeLimit: limit})
-	if err != nil {
-		return &InputError{File: p, Msg: "cannot open as a workbook (" + err.Error() + "); save it again as .xlsx, or export CSV", Err: ErrNotText, Cause: err}
+		return err
 	}
 	defer f.Close()
-	sheets := f.GetSheetList()
-	if len(sheets) == 0 {
-		return &InputError{File: p, Msg: "workbook has no sheet", Err: ErrEmpty}
-	}
-	sheet := sheets[0]
-	if merged, err := f.GetMergeCells(sheet); err == nil && len(merged) > 0 {
-		return &InputError{File: p, Msg: fmt.Sprintf("sheet %q has merged cells (%s:%s); unmerge them so each window is one row of single cells", sheet, merged[0].GetStartAxis(), merged[0].GetEndAxis()), Err: ErrRagged}
-	}
 	rows, err := f.Rows(sheet)
 	if err != nil {
 		return &InputError{File: p, Msg: "cannot read sheet " + strconv.Quote(sheet) + ": " + err.Error(), Err: ErrNotText, Cause: err}
 	}
 	defer rows.Close()
-	fileIdx := len(r.files)
-	var header []string
-	var roles roles
-	n, rowNo := 0, 0
-	dates := false // the order column is formatted as spreadsheet dates
+	s := &sheetRows{r: r, f: f, p: p, sheet: sheet, fileIdx: len(r.files)}
+	rowNo := 0
 	for rows.Next() {
 		rowNo++
 		if rowNo%4096 == 0 && r.ctx.Err() != nil {
@@ -62,71 +44,126 @@ func (r *reader) readXLSX(p string) (err error) {
 		if err != nil {
 			return &InputError{File: p, Line: rowNo, Msg: "cannot read the row: " + err.Error(), Err: ErrNotText, Cause: err}
 		}
-		if header == nil {
-			if len(rec) == 0 {
-				return &InputError{File: p, Line: rowNo, Msg: "the first row is empty; it must hold the column names", Err: ErrEmpty}
-			}
-			header = rec
-			if roles, err = r.assignRoles(p, header); err != nil {
-				return err
-			}
-			continue
-		}
-		if len(strings.Join(rec, "")) == 0 {
-			continue // an empty row
-		}
-		for len(rec) < len(header) {
-			rec = append(rec, "") // trailing empty cells are not stored
-		}
-		if len(rec) > len(header) {
-			return &InputError{File: p, Line: rowNo, Msg: fmt.Sprintf("row has %d cells, the header %d; remove the extra cells", len(rec), len(header)), Err: ErrRagged}
-		}
-		row := rowNo
-		pos := func(col int) (int, int) { return row, col + 1 }
-		if rowNo <= formulaCheckRows {
-			for c := range rec {
-				cell, _ := excelize.CoordinatesToCellName(c+1, rowNo)
-				if fx, _ := f.GetCellFormula(sheet, cell); fx != "" {
-					return &InputError{File: p, Line: rowNo, Column: c + 1, Field: header[c], Msg: fmt.Sprintf("cell %s holds a formula (=%s); paste the values instead", cell, fx), Err: ErrNotNumber}
-				}
-			}
-		}
-		if n == 0 && r.features == nil {
-			if err := r.classify(p, pos, header, [][]string{rec}, &roles, ','); err != nil {
-				return err
-			}
-		}
-		if n == 0 && roles.order >= 0 {
-			// A spreadsheet date-time is a day count with a fraction; a whole-day count (a
-			// window at midnight) is one too when the column is formatted as dates, not an
-			// integer order.
-			cell, _ := excelize.CoordinatesToCellName(roles.order+1, rowNo)
-			dates = isDateCell(f, sheet, cell)
-		}
-		order := sheetOrder
-		if dates {
-			order = sheetDate
-		}
-		if err := r.addRecord(p, fileIdx, header, roles, '.', rec, pos, order); err != nil {
+		if err := s.add(rowNo, rec); err != nil {
 			return err
 		}
-		n++
 	}
 	if err := rows.Error(); err != nil {
 		return &InputError{File: p, Msg: "reading the sheet failed: " + err.Error(), Err: ErrNotText, Cause: err}
 	}
-	if header == nil {
+	if s.header == nil {
 		return &InputError{File: p, Msg: "the sheet is empty; it needs a header row and at least one window", Err: ErrEmpty}
 	}
-	if n == 0 {
+	if s.n == 0 {
 		return &InputError{File: p, Line: 1, Msg: "has a header but no windows; each row should be one window", Err: ErrEmpty}
 	}
 	hexsum, size, err := hashFile(p)
 	if err != nil {
 		return &InputError{File: p, Msg: "cannot read: " + err.Error(), Err: ErrOpen, Cause: err}
 	}
-	r.files = append(r.files, FileInfo{Path: p, SHA256: hexsum, Bytes: size, Rows: n})
-	r.rows += n
+	r.files = append(r.files, FileInfo{Path: p, SHA256: hexsum, Bytes: size, Rows: s.n})
+	r.rows += s.n
+	return nil
+}
+
+// openWorkbook opens the workbook at p and returns its first sheet, refusing one without sheets
+// or whose first sheet has merged cells.
+func openWorkbook(p string) (*excelize.File, string, error) {
+	st, err := os.Stat(p)
+	if err != nil {
+		return nil, "", &InputError{File: p, Msg: "cannot open: " + err.Error(), Err: ErrOpen, Cause: err}
+	}
+	// A damaged or hostile archive must not make the unzipper allocate without bound: allow the
+	// sheet XML at most 200 times the file's size (real sheets compress about 5 to 20 times).
+	limit := max(64<<20, 200*st.Size())
+	f, err := excelize.OpenFile(p, excelize.Options{UnzipSizeLimit: limit, UnzipXMLSizeLimit: limit})
+	if err != nil {
+		return nil, "", &InputError{File: p, Msg: "cannot open as a workbook (" + err.Error() + "); save it again as .xlsx, or export CSV", Err: ErrNotText, Cause: err}
+	}
+	sheets := f.GetSheetList()
+	if len(sheets) == 0 {
+		f.Close()
+		return nil, "", &InputError{File: p, Msg: "workbook has no sheet", Err: ErrEmpty}
+	}
+	sheet := sheets[0]
+	if merged, err := f.GetMergeCells(sheet); err == nil && len(merged) > 0 {
+		f.Close()
+		return nil, "", &InputError{File: p, Msg: fmt.Sprintf("sheet %q has merged cells (%s:%s); unmerge them so each window is one row of single cells", sheet, merged[0].GetStartAxis(), merged[0].GetEndAxis()), Err: ErrRagged}
+	}
+	return f, sheet, nil
+}
+
+// sheetRows takes a sheet's rows one by one: the header, then the windows.
+type sheetRows struct {
+	r       *reader
+	f       *excelize.File
+	p       string
+	sheet   string
+	fileIdx int
+	header  []string
+	roles   roles
+	n       int  // windows read
+	dates   bool // the order column is formatted as spreadsheet dates
+}
+
+// add takes row rowNo (1-based) of the sheet.
+func (s *sheetRows) add(rowNo int, rec []string) error {
+	r, p := s.r, s.p
+	if s.header == nil {
+		if len(rec) == 0 {
+			return &InputError{File: p, Line: rowNo, Msg: "the first row is empty; it must hold the column names", Err: ErrEmpty}
+		}
+		s.header = rec
+		var err error
+		s.roles, err = r.assignRoles(p, s.header)
+		return err
+	}
+	header := s.header
+	if len(strings.Join(rec, "")) == 0 {
+		return nil // an empty row
+	}
+	for len(rec) < len(header) {
+		rec = append(rec, "") // trailing empty cells are not stored
+	}
+	if len(rec) > len(header) {
+		return &InputError{File: p, Line: rowNo, Msg: fmt.Sprintf("row has %d cells, the header %d; remove the extra cells", len(rec), len(header)), Err: ErrRagged}
+	}
+	pos := func(col int) (int, int) { return rowNo, col + 1 }
+	if rowNo <= formulaCheckRows {
+		if err := s.refuseFormulas(rowNo, rec); err != nil {
+			return err
+		}
+	}
+	if s.n == 0 && r.features == nil {
+		if err := r.classify(p, pos, header, [][]string{rec}, &s.roles, ','); err != nil {
+			return err
+		}
+	}
+	if s.n == 0 && s.roles.order >= 0 {
+		// A spreadsheet date-time is a day count with a fraction; a whole-day count (a window at
+		// midnight) is one too when the column is formatted as dates, not an integer order.
+		cell, _ := excelize.CoordinatesToCellName(s.roles.order+1, rowNo)
+		s.dates = isDateCell(s.f, s.sheet, cell)
+	}
+	order := sheetOrder
+	if s.dates {
+		order = sheetDate
+	}
+	if err := r.addRecord(p, s.fileIdx, header, s.roles, '.', rec, pos, order); err != nil {
+		return err
+	}
+	s.n++
+	return nil
+}
+
+// refuseFormulas refuses a row with a formula in any cell.
+func (s *sheetRows) refuseFormulas(rowNo int, rec []string) error {
+	for c := range rec {
+		cell, _ := excelize.CoordinatesToCellName(c+1, rowNo)
+		if fx, _ := s.f.GetCellFormula(s.sheet, cell); fx != "" {
+			return &InputError{File: s.p, Line: rowNo, Column: c + 1, Field: s.header[c], Msg: fmt.Sprintf("cell %s holds a formula (=%s); paste the values instead", cell, fx), Err: ErrNotNumber}
+		}
+	}
 	return nil
 }
 
