@@ -17,12 +17,6 @@ const maxLines, maxBranches = 85, 25
 
 var longFunctions = map[string]bool{
 	"cmd/cohortmix/shard.go:newShardCmd":          true,
-	"cohort/group/mixture.go:BoutTable":           true,
-	"cohort/group/stability.go:resampleStability": true,
-	"cohort/job/job.go:Describe":                  true,
-	"cohort/job/passes.go:AssignOf":               true,
-	"cohort/job/passes.go:checkAssigned":          true,
-	"cohort/job/sensitivity.go:sampleTasks":       true,
 	"profile/profile.go:FitStates":                true,
 	"profile/rhythm.go:RhythmOf":                  true,
 	"reports/grouplines.go:groupLines":            true,

@@ -47,60 +47,84 @@ func BoutTable(counts, bouts, parts [][]float64, noBouts bool) (*mat.Dense, []in
 		return nil, nil, fmt.Errorf("group: %d participants' windows, %d participants' bouts and %d participants' parts of the day: %w", n, len(bouts), len(parts), cohort.ErrBadOption)
 	}
 	s := len(counts[0])
-	lead := s // the columns before the bouts'
-	blocks := []int{s}
-	if parts != nil {
-		if len(parts[0])%s != 0 || len(parts[0]) == 0 {
-			return nil, nil, fmt.Errorf("group: %d counts by part of the day for %d states: %w", len(parts[0]), s, cohort.ErrBadOption)
-		}
-		lead, blocks = len(parts[0]), nil
-		for p := 0; p < lead/s; p++ {
-			blocks = append(blocks, s)
-		}
+	lead, blocks, err := boutBlocks(s, parts, noBouts)
+	if err != nil {
+		return nil, nil, err
 	}
 	cols := lead + 2*s
 	if noBouts {
 		cols = lead
-	} else {
-		for j := 0; j < s; j++ {
-			blocks = append(blocks, 2)
-		}
 	}
 	x := mat.NewDense(n, cols, nil)
 	for i := range counts {
 		if len(counts[i]) != s || (!noBouts && len(bouts[i]) != s) || (parts != nil && len(parts[i]) != lead) {
 			return nil, nil, fmt.Errorf("group: participant %d has %d states' windows, participant 0 %d: %w", i, len(counts[i]), s, cohort.ErrBadOption)
 		}
+		var part []float64
+		if parts != nil {
+			part = parts[i]
+		}
 		if noBouts {
-			if parts != nil {
-				x.SetRow(i, parts[i])
-			} else {
-				x.SetRow(i, counts[i])
+			if part == nil {
+				part = counts[i]
 			}
+			x.SetRow(i, part)
 			continue
 		}
-		var total, runs float64
-		for j := 0; j < s; j++ {
-			c, b := counts[i][j], bouts[i][j]
-			if b > c || b < 0 || (c > 0 && b == 0) {
-				return nil, nil, fmt.Errorf("group: participant %d, state %d: %v bouts in %v windows: %w", i, j, b, c, cohort.ErrBadOption)
-			}
-			total += c
-			runs += b
-		}
-		for j := 0; j < s; j++ {
-			c, b := counts[i][j], bouts[i][j]
-			if parts == nil {
-				x.Set(i, j, c/total*runs)
-			}
-			x.Set(i, lead+2*j, c-b)
-			x.Set(i, lead+2*j+1, b)
-		}
-		for j := 0; parts != nil && j < lead; j++ {
-			x.Set(i, j, parts[i][j]/total*runs)
+		if err := boutRow(x.RawRowView(i), i, counts[i], bouts[i], part, lead); err != nil {
+			return nil, nil, err
 		}
 	}
 	return x, blocks, nil
+}
+
+// boutBlocks is the number of columns before the bouts' (the states', or the states of every
+// part of the day) and the sizes of the table's blocks.
+func boutBlocks(s int, parts [][]float64, noBouts bool) (int, []int, error) {
+	lead := s
+	blocks := []int{s}
+	if parts != nil {
+		if len(parts[0])%s != 0 || len(parts[0]) == 0 {
+			return 0, nil, fmt.Errorf("group: %d counts by part of the day for %d states: %w", len(parts[0]), s, cohort.ErrBadOption)
+		}
+		lead, blocks = len(parts[0]), nil
+		for p := 0; p < lead/s; p++ {
+			blocks = append(blocks, s)
+		}
+	}
+	if !noBouts {
+		for j := 0; j < s; j++ {
+			blocks = append(blocks, 2)
+		}
+	}
+	return lead, blocks, nil
+}
+
+// boutRow fills participant i's row: the first lead columns its shares (of the states, or of
+// part's cells) times its number of bouts, then each state's windows that continue a bout and
+// those that start one.
+func boutRow(row []float64, i int, counts, bouts, part []float64, lead int) error {
+	var total, runs float64
+	for j, c := range counts {
+		b := bouts[j]
+		if b > c || b < 0 || (c > 0 && b == 0) {
+			return fmt.Errorf("group: participant %d, state %d: %v bouts in %v windows: %w", i, j, b, c, cohort.ErrBadOption)
+		}
+		total += c
+		runs += b
+	}
+	for j, c := range counts {
+		b := bouts[j]
+		if part == nil {
+			row[j] = c / total * runs
+		}
+		row[lead+2*j] = c - b
+		row[lead+2*j+1] = b
+	}
+	for j := range part {
+		row[j] = part[j] / total * runs
+	}
+	return nil
 }
 
 // groupMixture is Signatures for the mixture method: the mixture is fitted for each

@@ -82,28 +82,19 @@ func groupStability(ctx context.Context, x *mat.Dense, dist *cluster.Condensed, 
 // resampleStability is groupStability with the regrouping of a resample given: regroup(idx, b)
 // groups the participants idx (resample b) again into k groups.
 func resampleStability(ctx context.Context, n int, lab []int, k int, opts Options, regroup func(idx []int, b int) ([]int, error)) (*Stability, error) {
-	st := &Stability{Resamples: opts.Bootstrap, Jaccard: make([]float64, k), Stay: make([]float64, n)}
 	rows := make([]int, n) // the participants resampled from
 	for i := range rows {
 		rows[i] = i
 	}
 	if n > LargeCohort {
 		rng := rand.New(rand.NewPCG(par.SubSeed(opts.Seed, "stability sample", 0), 1))
-		perm := rng.Perm(n)[:LargeCohort]
-		rows = perm
+		rows = rng.Perm(n)[:LargeCohort]
 	}
 	m := len(rows)
-	drawn := make([]float64, n)
-	stayed := make([]float64, n)
-	counted := make([]float64, k)
-	resamples := 0
+	acc := newStabilitySums(n, k, opts.Bootstrap)
 	// Each resample is drawn and grouped again on its own (side by side, each from its own
 	// seed); the matching and the sums are made in resample order, so they are the same on any
 	// number of cores.
-	type regrouped struct {
-		idx   []int // participants drawn, in table order of the sample; nil: too few
-		again []int // their groups in the resample
-	}
 	err := par.Ordered(ctx, opts.Bootstrap, opts.Workers, func(b, _ int) (regrouped, error) {
 		rng := rand.New(rand.NewPCG(par.SubSeed(opts.Seed, "stability", b), 1))
 		seen := make([]bool, m)
@@ -123,73 +114,107 @@ func resampleStability(ctx context.Context, n int, lab []int, k int, opts Option
 		return regrouped{idx, again}, err
 	}, func(b int, rg regrouped) error {
 		defer opts.report("stability of each group: resamples", b+1, opts.Bootstrap)
-		idx, again := rg.idx, rg.again
-		if idx == nil {
-			return nil
+		if rg.idx != nil {
+			acc.add(lab, k, rg)
 		}
-		// Contingency of original groups (rows) and resample groups (columns).
-		both := make([][]float64, k)
-		for c := range both {
-			both[c] = make([]float64, k)
-		}
-		orig, anew := make([]float64, k), make([]float64, k)
-		for r, i := range idx {
-			both[lab[i]][again[r]]++
-			orig[lab[i]]++
-			anew[again[r]]++
-		}
-		best := make([]int, k)
-		for c := 0; c < k; c++ {
-			if orig[c] == 0 {
-				best[c] = -1
-				continue
-			}
-			bj := -1.0
-			for g := 0; g < k; g++ {
-				if j := both[c][g] / (orig[c] + anew[g] - both[c][g]); j > bj {
-					bj, best[c] = j, g
-				}
-			}
-			st.Jaccard[c] += bj
-			counted[c]++
-		}
-		orig2 := make([]int, len(idx))
-		for r, i := range idx {
-			drawn[i]++
-			orig2[r] = lab[i]
-			if again[r] == best[lab[i]] {
-				stayed[i]++
-			}
-		}
-		ari, err := cluster.AdjustedRand(orig2, again)
-		if err != nil || math.IsNaN(ari) {
-			ari = 1 // one group both times: the same grouping
-		}
-		st.ARI += ari
-		resamples++
 		return nil
 	})
 	if err != nil {
 		return nil, err
 	}
-	if resamples > 0 {
-		st.ARI /= float64(resamples)
+	return acc.result(), nil
+}
+
+// regrouped is one resample: the participants drawn, in table order of the sample (nil: too
+// few), and their groups in the resample.
+type regrouped struct {
+	idx   []int
+	again []int
+}
+
+// stabilitySums add up the resamples: each group's best Jaccard index, each participant's
+// draws and stays, and the ARIs.
+type stabilitySums struct {
+	st            *Stability
+	drawn, stayed []float64
+	counted       []float64
+	resamples     int
+}
+
+func newStabilitySums(n, k, bootstrap int) *stabilitySums {
+	return &stabilitySums{
+		st:    &Stability{Resamples: bootstrap, Jaccard: make([]float64, k), Stay: make([]float64, n)},
+		drawn: make([]float64, n), stayed: make([]float64, n), counted: make([]float64, k),
+	}
+}
+
+// add matches each original group to the resample group of highest Jaccard index (Hennig
+// 2007) and counts who stayed in their group's match.
+func (a *stabilitySums) add(lab []int, k int, rg regrouped) {
+	idx, again := rg.idx, rg.again
+	// Contingency of original groups (rows) and resample groups (columns).
+	both := make([][]float64, k)
+	for c := range both {
+		both[c] = make([]float64, k)
+	}
+	orig, anew := make([]float64, k), make([]float64, k)
+	for r, i := range idx {
+		both[lab[i]][again[r]]++
+		orig[lab[i]]++
+		anew[again[r]]++
+	}
+	best := make([]int, k)
+	for c := 0; c < k; c++ {
+		if orig[c] == 0 {
+			best[c] = -1
+			continue
+		}
+		bj := -1.0
+		for g := 0; g < k; g++ {
+			if j := both[c][g] / (orig[c] + anew[g] - both[c][g]); j > bj {
+				bj, best[c] = j, g
+			}
+		}
+		a.st.Jaccard[c] += bj
+		a.counted[c]++
+	}
+	orig2 := make([]int, len(idx))
+	for r, i := range idx {
+		a.drawn[i]++
+		orig2[r] = lab[i]
+		if again[r] == best[lab[i]] {
+			a.stayed[i]++
+		}
+	}
+	ari, err := cluster.AdjustedRand(orig2, again)
+	if err != nil || math.IsNaN(ari) {
+		ari = 1 // one group both times: the same grouping
+	}
+	a.st.ARI += ari
+	a.resamples++
+}
+
+// result turns the sums into means (NaN where nothing was counted).
+func (a *stabilitySums) result() *Stability {
+	st := a.st
+	if a.resamples > 0 {
+		st.ARI /= float64(a.resamples)
 	} else {
 		st.ARI = math.NaN()
 	}
 	for c := range st.Jaccard {
-		if counted[c] > 0 {
-			st.Jaccard[c] /= counted[c]
+		if a.counted[c] > 0 {
+			st.Jaccard[c] /= a.counted[c]
 		} else {
 			st.Jaccard[c] = math.NaN()
 		}
 	}
 	for i := range st.Stay {
-		if drawn[i] > 0 {
-			st.Stay[i] = stayed[i] / drawn[i]
+		if a.drawn[i] > 0 {
+			st.Stay[i] = a.stayed[i] / a.drawn[i]
 		} else {
 			st.Stay[i] = math.NaN()
 		}
 	}
-	return st, nil
+	return st
 }

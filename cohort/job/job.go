@@ -439,8 +439,8 @@ func AssignWindows(ctx context.Context, t *cohort.Table, fit *normalize.Fit, sta
 // units, the states × labels table, the separating variables, and one row per unit, under the
 // given state and group names.
 func Describe(f *Fitted, stateNames, groupNames []string) (*Result, error) {
-	t, fit, states, sigs, g := f.Table, f.Fit, f.States, f.Sigs, f.Grouping
-	d, k := len(t.Features), states.K
+	t, fit, states, g := f.Table, f.Fit, f.States, f.Grouping
+	k := states.K
 	res := &Result{Features: t.Features, OrderKind: t.OrderKind, Quality: t.Quality, Files: t.Files, Norm: fit, States: states, Grouping: g,
 		StateDesc: f.Desc, Labels: f.Labels}
 	res.Warnings = append(append(res.Warnings, fit.Warnings...), f.Warnings...)
@@ -450,8 +450,35 @@ func Describe(f *Fitted, stateNames, groupNames []string) (*Result, error) {
 	if f.Sensitivity != nil {
 		res.Sensitivity, res.SensitivityNote = f.Sensitivity, statesNote(f.States.Ensemble)
 	}
-	var err error
-	vars := make([]group.Variable, 0, 2*k+d)
+	vars := separationVariables(f, stateNames)
+	for _, v := range vars {
+		if v.Kind == "feature median" {
+			res.FeatureRange = append(res.FeatureRange, [3]float64{groupstat.Quantile(v.Values, 0.01), groupstat.Quantile(v.Values, 0.5), groupstat.Quantile(v.Values, 0.99)})
+		}
+	}
+	if err := separate(res, f, vars); err != nil {
+		return nil, err
+	}
+	res.AtypicalCut = groupstat.Quantile(g.Distance, 0.99)
+	for i := range t.Units {
+		res.Units = append(res.Units, unitRow(f, i, groupNames))
+	}
+	res.StateNames, res.GroupNames = stateNames, groupNames
+	res.WindowLength, res.WindowSource = f.Window, f.WindowSource
+	if f.Signature == SignatureDayParts && g.K > 1 {
+		res.DayPartCounts = dayPartCounts(f.TimeOfDay, g.Labels, g.K, k, f.DayParts)
+	}
+	res.TimeZone, res.TimeOfDay = t.TimeZone, groupTimeOfDay(f.TimeOfDay, g.Labels, g.K, k)
+	res.Signature, res.DayParts = f.Signature, f.DayParts
+	return res, nil
+}
+
+// separationVariables are the variables tested for what sets the groups apart, one value per
+// unit: each state's share and bout length, each feature's median and the rest-activity
+// measures.
+func separationVariables(f *Fitted, stateNames []string) []group.Variable {
+	t, sigs, k := f.Table, f.Sigs, f.States.K
+	vars := make([]group.Variable, 0, 2*k+len(t.Features))
 	for s := 0; s < k; s++ {
 		v := group.Variable{Name: "share " + stateNames[s], Kind: "share"}
 		b := group.Variable{Name: "bout " + stateNames[s], Kind: "bout length"}
@@ -467,10 +494,15 @@ func Describe(f *Fitted, stateNames, groupNames []string) (*Result, error) {
 			v.Values = append(v.Values, f.Medians[i][j])
 		}
 		vars = append(vars, v)
-		res.FeatureRange = append(res.FeatureRange, [3]float64{groupstat.Quantile(v.Values, 0.01), groupstat.Quantile(v.Values, 0.5), groupstat.Quantile(v.Values, 0.99)})
 	}
-	vars = append(vars, rhythmVariables(f.Rhythm)...)
-	rows, basis := separationRows(t.Units, f.Atypical)
+	return append(vars, rhythmVariables(f.Rhythm)...)
+}
+
+// separate tests the variables on the units the separation is based on (not the atypical ones)
+// and puts the result in res.
+func separate(res *Result, f *Fitted, vars []group.Variable) error {
+	g := f.Grouping
+	rows, basis := separationRows(f.Table.Units, f.Atypical)
 	res.SeparationBasis = basis
 	labels := make([]int, len(rows))
 	for r, i := range rows {
@@ -485,45 +517,41 @@ func Describe(f *Fitted, stateNames, groupNames []string) (*Result, error) {
 	}
 	if g.K < 2 {
 		res.NotTested = []cohort.Note{{Name: "every variable", Reason: "not tested: the participants form one group, so there are no groups to set apart"}}
-	} else if res.Separations, res.NotTested, err = group.Separate(tested, labels, g.K, f.Workers); err != nil {
-		return nil, err
+		return nil
 	}
-	res.AtypicalCut = groupstat.Quantile(g.Distance, 0.99)
-	for i, u := range t.Units {
-		row := UnitRow{ID: u.ID, Wave: u.Wave, Windows: sigs[i].Windows, NonWear: u.NonWear, Wear: u.Wear, Group: g.Labels[i],
-			Silhouette: g.Silhouette[i], Distance: g.Distance[i], Share: sigs[i].Share, Bout: sigs[i].MeanBout, Stay: math.NaN(), Turn: math.NaN(), Posterior: math.NaN(), Rhythm: profile.NoRhythm}
-		if f.Rhythm != nil {
-			row.Rhythm = f.Rhythm[i]
-		}
-		if g.Posterior != nil {
-			row.Posterior = g.Posterior[i]
-		}
-		if g.Stability != nil {
-			row.Stay = g.Stability.Stay[i]
-		}
-		if f.Devices != nil && fit.Axes != nil {
-			row.Turn = f.Devices[i].Angle()
-		}
-		switch s := g.Silhouette[i]; {
-		case f.Atypical != nil && f.Atypical[i]:
-			row.Atypical = true
-			row.Flag = "atypical: farther from every group than 99% of the model's members (nearest " + groupNames[g.Labels[i]] + ")"
-		case math.IsNaN(s):
-		case s < 0:
-			row.Flag = "weak fit: closer to another group"
-		case s < 0.25:
-			row.Flag = "weak fit"
-		}
-		res.Units = append(res.Units, row)
+	var err error
+	res.Separations, res.NotTested, err = group.Separate(tested, labels, g.K, f.Workers)
+	return err
+}
+
+// unitRow is unit i's row of the result.
+func unitRow(f *Fitted, i int, groupNames []string) UnitRow {
+	g, sigs, u := f.Grouping, f.Sigs, f.Table.Units[i]
+	row := UnitRow{ID: u.ID, Wave: u.Wave, Windows: sigs[i].Windows, NonWear: u.NonWear, Wear: u.Wear, Group: g.Labels[i],
+		Silhouette: g.Silhouette[i], Distance: g.Distance[i], Share: sigs[i].Share, Bout: sigs[i].MeanBout, Stay: math.NaN(), Turn: math.NaN(), Posterior: math.NaN(), Rhythm: profile.NoRhythm}
+	if f.Rhythm != nil {
+		row.Rhythm = f.Rhythm[i]
 	}
-	res.StateNames, res.GroupNames = stateNames, groupNames
-	res.WindowLength, res.WindowSource = f.Window, f.WindowSource
-	if f.Signature == SignatureDayParts && g.K > 1 {
-		res.DayPartCounts = dayPartCounts(f.TimeOfDay, g.Labels, g.K, k, f.DayParts)
+	if g.Posterior != nil {
+		row.Posterior = g.Posterior[i]
 	}
-	res.TimeZone, res.TimeOfDay = t.TimeZone, groupTimeOfDay(f.TimeOfDay, g.Labels, g.K, k)
-	res.Signature, res.DayParts = f.Signature, f.DayParts
-	return res, nil
+	if g.Stability != nil {
+		row.Stay = g.Stability.Stay[i]
+	}
+	if f.Devices != nil && f.Fit.Axes != nil {
+		row.Turn = f.Devices[i].Angle()
+	}
+	switch s := g.Silhouette[i]; {
+	case f.Atypical != nil && f.Atypical[i]:
+		row.Atypical = true
+		row.Flag = "atypical: farther from every group than 99% of the model's members (nearest " + groupNames[g.Labels[i]] + ")"
+	case math.IsNaN(s):
+	case s < 0:
+		row.Flag = "weak fit: closer to another group"
+	case s < 0.25:
+		row.Flag = "weak fit"
+	}
+	return row
 }
 
 // dayPartCounts adds up the windows of each group, and of the whole cohort in a last row, in

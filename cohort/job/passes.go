@@ -923,73 +923,18 @@ func AssignOf(ctx context.Context, t *cohort.Table, shard cohort.Shard, fit *nor
 	if t.HasLabels {
 		lc = profile.NewLabelCounter(states.K)
 	}
-	d := len(t.Features)
-	activity := -1 // the feature the rest-activity measures are read on, with times
-	var zone clock.Clock
+	as := &unitAssigner{t: t, fit: fit, states: states, d: len(t.Features), activity: -1}
 	if t.OrderKind == "time" {
-		activity = profile.ActivityFeature(t.Features)
+		as.activity = profile.ActivityFeature(t.Features)
 		var err error
-		if zone, err = clock.In(t.TimeZone); err != nil {
+		if as.zone, err = clock.In(t.TimeZone); err != nil {
 			return nil, fmt.Errorf("job: %v: %w", err, cohort.ErrBadOption)
 		}
 	}
-	type unitResult struct {
-		desc   *profile.Describer
-		labels []int
-	}
 	raw := &rawBlocks{t: t}
-	var bufs sync.Pool // transformed windows, one buffer per worker at a time
-	err := normalize.EachBlock(ctx, raw, workers, func(i int, x []float64) (unitResult, error) {
-		bp, _ := bufs.Get().(*[]float64)
-		if bp == nil {
-			bp = new([]float64)
-		}
-		au := &ap.Units[i]
-		au.Ordinal = t.Units[i].Ordinal
-		var labels []int
-		if states.Aligned() {
-			dev, lab, y, err := states.AssignUnit(fit, x, *bp)
-			if err != nil {
-				return unitResult{}, err
-			}
-			*bp, labels, au.Device = y, lab, dev
-		} else {
-			*bp = fit.ApplyUnitInto(*bp, i, x)
-			labels = states.Assign(*bp)
-		}
-		bufs.Put(bp)
-		gaps, ord, err := gapsOf(t, i)
-		if err != nil {
-			return unitResult{}, err
-		}
-		au.Signature = profile.SignaturesBroken(labels, states.K, gaps)
-		au.Rhythm = profile.NoRhythm
-		if t.OrderKind == "time" && ord != nil {
-			wall := wallClock(zone, ord)
-			td := profile.TimeOfDayOf(wall, labels, states.K)
-			au.TimeOfDay = &td
-			if activity >= 0 {
-				act := make([]float64, len(ord))
-				for w := range act {
-					act[w] = x[w*d+activity]
-				}
-				au.Rhythm = profile.RhythmOf(wall, act)
-			}
-		}
-		au.Medians = make([]float64, d)
-		col := make([]float64, len(x)/d)
-		for j := 0; j < d; j++ {
-			for w := range col {
-				col[w] = x[w*d+j]
-			}
-			au.Medians[j] = cohort.Median(col)
-		}
-		part := profile.NewDescriber(d, states.K)
-		if err := part.Add(x, labels); err != nil {
-			return unitResult{}, err
-		}
-		return unitResult{part, labels}, nil
-	}, func(i int, r unitResult) error {
+	err := normalize.EachBlock(ctx, raw, workers, func(i int, x []float64) (assignedWindows, error) {
+		return as.assign(&ap.Units[i], i, x)
+	}, func(i int, r assignedWindows) error {
 		ds.Merge(r.desc)
 		if lc != nil {
 			lc.Add(r.labels, t.Units[i].Labels)
@@ -1013,6 +958,83 @@ func AssignOf(ctx context.Context, t *cohort.Table, shard cohort.Shard, fit *nor
 	return ap, nil
 }
 
+// unitAssigner gives one unit's windows their states and the unit its signature, time of day,
+// rest-activity measures, medians and device; activity is the feature the rest-activity
+// measures are read on (-1: none, or no times).
+type unitAssigner struct {
+	t        *cohort.Table
+	fit      *normalize.Fit
+	states   *profile.States
+	d        int
+	activity int
+	zone     clock.Clock
+	bufs     sync.Pool // transformed windows, one buffer per worker at a time
+}
+
+// assignedWindows is what a unit adds to the pass's sums, in unit order.
+type assignedWindows struct {
+	desc   *profile.Describer
+	labels []int
+}
+
+func (as *unitAssigner) assign(au *AssignedUnit, i int, x []float64) (assignedWindows, error) {
+	t, states, d := as.t, as.states, as.d
+	bp, _ := as.bufs.Get().(*[]float64)
+	if bp == nil {
+		bp = new([]float64)
+	}
+	au.Ordinal = t.Units[i].Ordinal
+	var labels []int
+	if states.Aligned() {
+		dev, lab, y, err := states.AssignUnit(as.fit, x, *bp)
+		if err != nil {
+			return assignedWindows{}, err
+		}
+		*bp, labels, au.Device = y, lab, dev
+	} else {
+		*bp = as.fit.ApplyUnitInto(*bp, i, x)
+		labels = states.Assign(*bp)
+	}
+	as.bufs.Put(bp)
+	gaps, ord, err := gapsOf(t, i)
+	if err != nil {
+		return assignedWindows{}, err
+	}
+	au.Signature = profile.SignaturesBroken(labels, states.K, gaps)
+	au.Rhythm = profile.NoRhythm
+	if t.OrderKind == "time" && ord != nil {
+		as.timed(au, x, ord, labels)
+	}
+	au.Medians = make([]float64, d)
+	col := make([]float64, len(x)/d)
+	for j := 0; j < d; j++ {
+		for w := range col {
+			col[w] = x[w*d+j]
+		}
+		au.Medians[j] = cohort.Median(col)
+	}
+	part := profile.NewDescriber(d, states.K)
+	if err := part.Add(x, labels); err != nil {
+		return assignedWindows{}, err
+	}
+	return assignedWindows{part, labels}, nil
+}
+
+// timed sets a unit's time of day and, with an activity feature, its rest-activity measures,
+// from its windows' times ord.
+func (as *unitAssigner) timed(au *AssignedUnit, x []float64, ord []int64, labels []int) {
+	wall := wallClock(as.zone, ord)
+	td := profile.TimeOfDayOf(wall, labels, as.states.K)
+	au.TimeOfDay = &td
+	if as.activity >= 0 {
+		act := make([]float64, len(ord))
+		for w := range act {
+			act[w] = x[w*as.d+as.activity]
+		}
+		au.Rhythm = profile.RhythmOf(wall, act)
+	}
+}
+
 // wallClock is the times on the wall clock of the zone, as UTC Unix ns (the same slice when the
 // zone is UTC).
 func wallClock(zone clock.Clock, times []int64) []int64 {
@@ -1034,8 +1056,23 @@ func checkAssigned(au AssignedUnit, k, d int) error {
 	if len(s.Share) != k || len(s.MeanBout) != k || len(s.Bouts) != k || len(s.Counts) != k || len(au.Medians) != d {
 		return fmt.Errorf("a signature of %d states and %d medians, where the fit has %d states and %d features", len(s.Share), len(au.Medians), k, d)
 	}
+	if err := checkStateCounts(s); err != nil {
+		return err
+	}
+	if err := checkRhythm(au.Rhythm); err != nil {
+		return err
+	}
+	if err := checkTimeOfDay(au.TimeOfDay, s, k); err != nil {
+		return err
+	}
+	return checkDevice(au)
+}
+
+// checkStateCounts checks that a signature's windows, bouts, shares and mean bouts per state
+// are possible and add up.
+func checkStateCounts(s profile.Signature) error {
 	total := 0
-	for j := 0; j < k; j++ {
+	for j := range s.Counts {
 		c, b := s.Counts[j], s.Bouts[j]
 		if c < 0 || b < 0 || b > c || c > s.Windows || !(s.Share[j] >= 0 && s.Share[j] <= 1) || !(s.MeanBout[j] >= 0 && s.MeanBout[j] <= float64(s.Windows)) {
 			return fmt.Errorf("state %d holds %d windows in %d bouts of %d, share %v, mean bout %v", j+1, c, b, s.Windows, s.Share[j], s.MeanBout[j])
@@ -1045,30 +1082,50 @@ func checkAssigned(au AssignedUnit, k, d int) error {
 	if s.Windows < 1 || total != s.Windows || s.Gaps < 0 || s.Gaps >= s.Windows {
 		return fmt.Errorf("%d windows in its states, of %d, and %d gaps", total, s.Windows, s.Gaps)
 	}
-	if r := au.Rhythm; r.L5Onset < -1 || r.L5Onset > 23 || r.M10Onset < -1 || r.M10Onset > 23 || r.Hours < 0 ||
-		math.IsInf(r.IS, 0) || math.IsInf(r.IV, 0) || math.IsInf(r.L5, 0) || math.IsInf(r.M10, 0) || math.IsInf(r.RA, 0) {
+	return nil
+}
+
+// checkRhythm checks that the rest-activity measures are in range.
+func checkRhythm(r profile.Rhythm) error {
+	if r.L5Onset < -1 || r.L5Onset > 23 || r.M10Onset < -1 || r.M10Onset > 23 || r.Hours < 0 {
 		return fmt.Errorf("rest-activity measures %+v", r)
 	}
-	if td := au.TimeOfDay; td != nil {
-		if len(td.ByHour) != 24*k || len(td.Weekend) != k {
-			return fmt.Errorf("a time of day of %d hourly and %d weekend counts, where the fit has %d states", len(td.ByHour), len(td.Weekend), k)
-		}
-		total := 0
-		for h, c := range td.ByHour {
-			if c < 0 || c > s.Counts[h%k] {
-				return fmt.Errorf("%d windows of state %d at hour %d, of %d", c, h%k+1, h/k, s.Counts[h%k])
-			}
-			total += c
-		}
-		for j, c := range td.Weekend {
-			if c < 0 || c > s.Counts[j] {
-				return fmt.Errorf("%d weekend windows of state %d, of %d", c, j+1, s.Counts[j])
-			}
-		}
-		if total != s.Windows {
-			return fmt.Errorf("%d windows by hour of the day, of %d", total, s.Windows)
+	for _, v := range []float64{r.IS, r.IV, r.L5, r.M10, r.RA} {
+		if math.IsInf(v, 0) {
+			return fmt.Errorf("rest-activity measures %+v", r)
 		}
 	}
+	return nil
+}
+
+// checkTimeOfDay checks that the windows by hour and at weekends fit the signature's counts.
+func checkTimeOfDay(td *profile.TimeOfDay, s profile.Signature, k int) error {
+	if td == nil {
+		return nil
+	}
+	if len(td.ByHour) != 24*k || len(td.Weekend) != k {
+		return fmt.Errorf("a time of day of %d hourly and %d weekend counts, where the fit has %d states", len(td.ByHour), len(td.Weekend), k)
+	}
+	total := 0
+	for h, c := range td.ByHour {
+		if c < 0 || c > s.Counts[h%k] {
+			return fmt.Errorf("%d windows of state %d at hour %d, of %d", c, h%k+1, h/k, s.Counts[h%k])
+		}
+		total += c
+	}
+	for j, c := range td.Weekend {
+		if c < 0 || c > s.Counts[j] {
+			return fmt.Errorf("%d weekend windows of state %d, of %d", c, j+1, s.Counts[j])
+		}
+	}
+	if total != s.Windows {
+		return fmt.Errorf("%d windows by hour of the day, of %d", total, s.Windows)
+	}
+	return nil
+}
+
+// checkDevice checks the device's shapes and that the medians and device values are numbers.
+func checkDevice(au AssignedUnit) error {
 	dev := au.Device
 	if dev.Rotation != nil && len(dev.Rotation) != 9 || dev.AxisScale != nil && len(dev.AxisScale) != 3 || dev.AxisOffset != nil && len(dev.AxisOffset) != 3 {
 		return fmt.Errorf("a device of %d rotation, %d scale and %d offset values", len(dev.Rotation), len(dev.AxisScale), len(dev.AxisOffset))

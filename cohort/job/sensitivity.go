@@ -100,106 +100,114 @@ func sensitivity(ctx context.Context, f *Fitted, o Options, sample sampleUnits) 
 // reference (the settings used), the other within steps, the axis means turned alone (when the
 // align step turns more features with them) and one state fewer and one more.
 func sampleTasks(ctx context.Context, f *Fitted, o Options, units [][]float64, index []int) []func() (Sensitivity, error) {
-	k := f.Grouping.K
-	made := make([]int, len(index))
+	sr := &sampleRefit{ctx: ctx, f: f, o: o, units: units, made: make([]int, len(index))}
 	for r, i := range index {
-		made[r] = f.Grouping.Labels[i]
+		sr.made[r] = f.Grouping.Labels[i]
 	}
-	compare := func(choice, alt string, fit *normalize.Fit, states *profile.States, ref bool) (Sensitivity, error) {
-		row := Sensitivity{Choice: choice, Alternative: alt, Reference: ref, Participants: len(units), OnSample: true}
-		sigs := make([]profile.Signature, len(units))
-		for r, x := range units {
-			var labels []int
-			if states.Aligned() {
-				_, lab, _, err := states.AlignUnit(fit, x, nil)
-				if err != nil {
-					return Sensitivity{}, err
-				}
-				labels = lab
-			} else {
-				labels = states.Assign(fit.Apply(x))
+	// row is a refit's row: the refit with the settings given, compared, or skipped with the
+	// reason where the refit fails.
+	row := func(choice, alt string, within normalize.Within, states []int, noTurn bool) func() (Sensitivity, error) {
+		return func() (Sensitivity, error) {
+			fit, st, err := sr.refit(within, states, noTurn)
+			if err != nil {
+				return skipped(Sensitivity{Choice: choice, Alternative: alt, Participants: len(units), OnSample: true}, err), nil
 			}
-			sigs[r] = profile.Signatures(labels, states.K)
+			return sr.compare(choice, alt, fit, st, false)
 		}
-		// The sampled windows are scattered, so their runs are no bouts: the mixture sees each
-		// window as a bout of its own there.
-		sh, counts, _ := SignatureColumns(sigs)
-		g, err := group.Signatures(ctx, sh, group.Options{Method: f.Grouping.Method, Groups: []int{k}, Criterion: f.Grouping.Criterion, Bootstrap: 2, Seed: o.Seed,
-			Counts: counts, Bouts: counts, Workers: o.Workers})
-		if err != nil {
-			return skipped(row, err), nil
-		}
-		row.ARI, _ = cluster.AdjustedRand(g.Labels, made)
-		return row, nil
-	}
-	refit := func(within normalize.Within, states []int, noTurn bool) (*normalize.Fit, *profile.States, error) {
-		no := o.Norm
-		no.Within, no.Keep, no.KeepUnit, no.Progress, no.SampleRate = within, nil, nil, nil, 1
-		no.WithinFeatures = nil
-		if within != o.Norm.Within {
-			no.Axes, no.Turned = nil, nil
-			if within == normalize.WithinAlign {
-				no.Axes, no.Turned = f.Fit.Axes, f.Fit.Turned
-			}
-		}
-		if noTurn {
-			no.Turned = nil
-		}
-		if no.Log {
-			no.LogStart = normalize.LogStartOf(units, len(f.Fit.Features))
-		}
-		fit, err := normalize.FitBlocks(ctx, f.Fit.Features, normalize.SliceBlocks(units), no)
-		if err != nil {
-			return nil, nil, err
-		}
-		if within == normalize.WithinAlign {
-			st, err := profile.FitAligned(ctx, units, fit, profile.AlignOptions{States: states, Valley: o.Valley, Starts: 1, Reseeds: -1, Restarts: 1, Seed: o.Seed, Workers: o.Workers})
-			return fit, st, err
-		}
-		var rows []float64
-		for _, x := range units {
-			rows = append(rows, fit.Apply(x)...)
-		}
-		st, err := profile.FitStates(ctx, mat.NewDense(len(rows)/fit.OutDim(), fit.OutDim(), rows), profile.Options{States: states, Rule: o.StatesRule, Valley: o.Valley, Restarts: 1, Seed: o.Seed, Workers: o.Workers})
-		return fit, st, err
 	}
 	tasks := []func() (Sensitivity, error){func() (Sensitivity, error) {
-		return compare("reference", "the settings used, on the sampled windows", f.Fit, f.States, true)
+		return sr.compare("reference", "the settings used, on the sampled windows", f.Fit, f.States, true)
 	}}
 	for _, w := range []normalize.Within{normalize.WithinAlign, normalize.WithinRest, normalize.WithinNone} {
-		if w == o.Norm.Within {
-			continue
+		if w != o.Norm.Within {
+			tasks = append(tasks, row("within-participant step", w.String(), w, o.States, false))
 		}
-		tasks = append(tasks, func() (Sensitivity, error) {
-			fit, st, err := refit(w, o.States, false)
-			if err != nil {
-				return skipped(Sensitivity{Choice: "within-participant step", Alternative: w.String(), Participants: len(units), OnSample: true}, err), nil
-			}
-			return compare("within-participant step", w.String(), fit, st, false)
-		})
 	}
 	if f.Fit.Turned != nil {
-		tasks = append(tasks, func() (Sensitivity, error) {
-			fit, st, err := refit(o.Norm.Within, o.States, true)
-			if err != nil {
-				return skipped(Sensitivity{Choice: "align step turns", Alternative: "the axis means only", Participants: len(units), OnSample: true}, err), nil
-			}
-			return compare("align step turns", "the axis means only", fit, st, false)
-		})
+		tasks = append(tasks, row("align step turns", "the axis means only", o.Norm.Within, o.States, true))
 	}
 	for _, ks := range []int{f.States.K - 1, f.States.K + 1} {
-		if ks < 2 {
-			continue
+		if ks >= 2 {
+			tasks = append(tasks, row("number of states", fmt.Sprintf("%d (fixed)", ks), o.Norm.Within, []int{ks}, false))
 		}
-		tasks = append(tasks, func() (Sensitivity, error) {
-			fit, st, err := refit(o.Norm.Within, []int{ks}, false)
-			if err != nil {
-				return skipped(Sensitivity{Choice: "number of states", Alternative: fmt.Sprintf("%d (fixed)", ks), Participants: len(units), OnSample: true}, err), nil
-			}
-			return compare("number of states", fmt.Sprintf("%d (fixed)", ks), fit, st, false)
-		})
 	}
 	return tasks
+}
+
+// sampleRefit refits the normalization and states on the sampled participants' windows (units)
+// and compares the groups they give with the run's own groups there (made).
+type sampleRefit struct {
+	ctx   context.Context
+	f     *Fitted
+	o     Options
+	units [][]float64
+	made  []int
+}
+
+// compare groups the sampled participants with the given fit and states, with the run's number
+// of groups, and scores the groups against the run's.
+func (sr *sampleRefit) compare(choice, alt string, fit *normalize.Fit, states *profile.States, ref bool) (Sensitivity, error) {
+	f, o, units := sr.f, sr.o, sr.units
+	row := Sensitivity{Choice: choice, Alternative: alt, Reference: ref, Participants: len(units), OnSample: true}
+	sigs := make([]profile.Signature, len(units))
+	for r, x := range units {
+		var labels []int
+		if states.Aligned() {
+			_, lab, _, err := states.AlignUnit(fit, x, nil)
+			if err != nil {
+				return Sensitivity{}, err
+			}
+			labels = lab
+		} else {
+			labels = states.Assign(fit.Apply(x))
+		}
+		sigs[r] = profile.Signatures(labels, states.K)
+	}
+	// The sampled windows are scattered, so their runs are no bouts: the mixture sees each
+	// window as a bout of its own there.
+	sh, counts, _ := SignatureColumns(sigs)
+	g, err := group.Signatures(sr.ctx, sh, group.Options{Method: f.Grouping.Method, Groups: []int{f.Grouping.K}, Criterion: f.Grouping.Criterion, Bootstrap: 2, Seed: o.Seed,
+		Counts: counts, Bouts: counts, Workers: o.Workers})
+	if err != nil {
+		return skipped(row, err), nil
+	}
+	row.ARI, _ = cluster.AdjustedRand(g.Labels, sr.made)
+	return row, nil
+}
+
+// refit fits the normalization with another within step (or the axis means turned alone, with
+// noTurn) and the states at the numbers given.
+func (sr *sampleRefit) refit(within normalize.Within, states []int, noTurn bool) (*normalize.Fit, *profile.States, error) {
+	ctx, f, o, units := sr.ctx, sr.f, sr.o, sr.units
+	no := o.Norm
+	no.Within, no.Keep, no.KeepUnit, no.Progress, no.SampleRate = within, nil, nil, nil, 1
+	no.WithinFeatures = nil
+	if within != o.Norm.Within {
+		no.Axes, no.Turned = nil, nil
+		if within == normalize.WithinAlign {
+			no.Axes, no.Turned = f.Fit.Axes, f.Fit.Turned
+		}
+	}
+	if noTurn {
+		no.Turned = nil
+	}
+	if no.Log {
+		no.LogStart = normalize.LogStartOf(units, len(f.Fit.Features))
+	}
+	fit, err := normalize.FitBlocks(ctx, f.Fit.Features, normalize.SliceBlocks(units), no)
+	if err != nil {
+		return nil, nil, err
+	}
+	if within == normalize.WithinAlign {
+		st, err := profile.FitAligned(ctx, units, fit, profile.AlignOptions{States: states, Valley: o.Valley, Starts: 1, Reseeds: -1, Restarts: 1, Seed: o.Seed, Workers: o.Workers})
+		return fit, st, err
+	}
+	var rows []float64
+	for _, x := range units {
+		rows = append(rows, fit.Apply(x)...)
+	}
+	st, err := profile.FitStates(ctx, mat.NewDense(len(rows)/fit.OutDim(), fit.OutDim(), rows), profile.Options{States: states, Rule: o.StatesRule, Valley: o.Valley, Restarts: 1, Seed: o.Seed, Workers: o.Workers})
+	return fit, st, err
 }
 
 // skipped is a row that could not be computed, with the reason: a refit that fails on these
