@@ -1427,18 +1427,7 @@ func (f *finisher) unit(ru *rawUnit) error {
 	// long as they average minStretch windows; shorter ones are copied into one stretch,
 	// since reading them one by one in every pass would cost more than copying them once.
 	if !ru.unsorted && ru.missing == 0 && f.nonWearAt < 0 && f.wr == nil && (len(ru.runs) == 1 || len(ru.runs)*minStretch <= n) {
-		if n < r.opts.MinWindows {
-			q.Excluded = append(q.Excluded, Exclusion{ID: u.ID, Wave: u.Wave, Ordinal: u.Ordinal, Windows: n,
-				Reason: fmt.Sprintf("%d usable windows, fewer than the minimum %d (cohort.ReadOptions.MinWindows)", n, r.opts.MinWindows)})
-			q.WindowsExcluded += n
-			return nil
-		}
-		u.at, u.rows, u.Labels = ru.runs[0].at, n, ru.labels
-		if len(ru.runs) > 1 {
-			u.runs = ru.runs
-		}
-		f.constant.addUnit(ru.first, ru.varies)
-		t.Units = append(t.Units, u)
+		f.inPlace(ru, u)
 		return nil
 	}
 	var err error
@@ -1492,6 +1481,23 @@ func (f *finisher) unit(ru *rawUnit) error {
 	f.constant.add(f.clean, f.w)
 	t.Units = append(t.Units, u)
 	return nil
+}
+
+// inPlace keeps a unit where its windows landed in the store, or excludes it for too few.
+func (f *finisher) inPlace(ru *rawUnit, u *Unit) {
+	r, t, q, n := f.r, f.t, &f.t.Quality, ru.n
+	if n < r.opts.MinWindows {
+		q.Excluded = append(q.Excluded, Exclusion{ID: u.ID, Wave: u.Wave, Ordinal: u.Ordinal, Windows: n,
+			Reason: fmt.Sprintf("%d usable windows, fewer than the minimum %d (cohort.ReadOptions.MinWindows)", n, r.opts.MinWindows)})
+		q.WindowsExcluded += n
+		return
+	}
+	u.at, u.rows, u.Labels = ru.runs[0].at, n, ru.labels
+	if len(ru.runs) > 1 {
+		u.runs = ru.runs
+	}
+	f.constant.addUnit(ru.first, ru.varies)
+	t.Units = append(t.Units, u)
 }
 
 // shortOf is the reason a unit with this many windows kept falls short: of valid days (short,

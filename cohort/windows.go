@@ -143,32 +143,11 @@ func readWindows(path string, opts ReadOptions) (*Table, *windowsHeader, error) 
 	defer f.Close()
 	raw := bufio.NewReaderSize(f, 1<<20)
 	br := &crcReader{br: raw, crc: crc32.New(castagnoli)}
-	var h windowsHeader
-	if err := gob.NewDecoder(br).Decode(&h); err != nil || h.Format != WindowsFormat {
-		return nil, nil, fmt.Errorf("%s: not a windows file: %w; name the file the census step wrote", path, ErrWindows)
-	}
-	if h.Version != WindowsVersion {
-		return nil, nil, fmt.Errorf("%s: a windows file of version %d, and this cohortmix reads version %d: %w; run every pass of a split run with the same release", path, h.Version, WindowsVersion, ErrWindows)
+	h, err := readWindowsHeader(f, br, path)
+	if err != nil {
+		return nil, nil, err
 	}
 	d := h.Width - 2
-	if d < 1 || len(h.Features) != d {
-		return nil, nil, fmt.Errorf("%s: a windows file of %d features and %d values a window: %w", path, len(h.Features), h.Width, ErrWindows)
-	}
-	// The windows the header announces must fit in the file before any room is made for them.
-	st, err := f.Stat()
-	if err != nil {
-		return nil, nil, fmt.Errorf("%s: %w", path, errors.Join(ErrWindows, err))
-	}
-	var need int64
-	for _, wu := range h.Units {
-		if wu.Rows < 1 {
-			return nil, nil, fmt.Errorf("%s: participant %s has %d windows: %w", path, wu.ID, wu.Rows, ErrWindows)
-		}
-		need += int64(wu.Rows) * int64(windowBytes(h.Width))
-		if need > st.Size() {
-			return nil, nil, fmt.Errorf("%s: the header announces more windows than the file holds: %w; write the file again", path, ErrWindows)
-		}
-	}
 	dir := opts.TempDir
 	if dir == "" {
 		dir = os.TempDir()
@@ -189,15 +168,7 @@ func readWindows(path string, opts ReadOptions) (*Table, *windowsHeader, error) 
 			t.Close()
 			return nil, nil, fmt.Errorf("%s: the windows of participant %s are cut short: %w; write the file again", path, wu.ID, ErrWindows)
 		}
-		x = slices.Grow(x[:0], wu.Rows*h.Width)[:wu.Rows*h.Width]
-		for i := 0; i < wu.Rows; i++ {
-			in, row := b[i*rb:(i+1)*rb], x[i*h.Width:(i+1)*h.Width]
-			for j := range row[:d] {
-				row[j] = float64(math.Float32frombits(binary.LittleEndian.Uint32(in[4*j:])))
-			}
-			row[d] = math.Float64frombits(binary.LittleEndian.Uint64(in[4*d:]))
-			row[d+1] = math.Float64frombits(binary.LittleEndian.Uint64(in[4*d+8:]))
-		}
+		x = decodeWindows(x, b, wu.Rows, h.Width)
 		u := &Unit{ID: wu.ID, Wave: wu.Wave, Ordinal: wu.Ordinal, Labels: wu.Labels, at: t.store.n / int64(h.Width), rows: wu.Rows}
 		if err := t.store.append(x); err != nil {
 			t.Close()
@@ -219,4 +190,50 @@ func readWindows(path string, opts ReadOptions) (*Table, *windowsHeader, error) 
 		return nil, nil, err
 	}
 	return t, &h, nil
+}
+
+// readWindowsHeader reads and checks a windows file's header: its format, version and width,
+// and that the windows it announces fit in the file before any room is made for them.
+func readWindowsHeader(f *os.File, br io.Reader, path string) (h windowsHeader, err error) {
+	if err := gob.NewDecoder(br).Decode(&h); err != nil || h.Format != WindowsFormat {
+		return h, fmt.Errorf("%s: not a windows file: %w; name the file the census step wrote", path, ErrWindows)
+	}
+	if h.Version != WindowsVersion {
+		return h, fmt.Errorf("%s: a windows file of version %d, and this cohortmix reads version %d: %w; run every pass of a split run with the same release", path, h.Version, WindowsVersion, ErrWindows)
+	}
+	d := h.Width - 2
+	if d < 1 || len(h.Features) != d {
+		return h, fmt.Errorf("%s: a windows file of %d features and %d values a window: %w", path, len(h.Features), h.Width, ErrWindows)
+	}
+	st, err := f.Stat()
+	if err != nil {
+		return h, fmt.Errorf("%s: %w", path, errors.Join(ErrWindows, err))
+	}
+	var need int64
+	for _, wu := range h.Units {
+		if wu.Rows < 1 {
+			return h, fmt.Errorf("%s: participant %s has %d windows: %w", path, wu.ID, wu.Rows, ErrWindows)
+		}
+		need += int64(wu.Rows) * int64(windowBytes(h.Width))
+		if need > st.Size() {
+			return h, fmt.Errorf("%s: the header announces more windows than the file holds: %w; write the file again", path, ErrWindows)
+		}
+	}
+	return h, nil
+}
+
+// decodeWindows decodes rows windows of width values (the features as float32, the order and
+// source as float64, little-endian) from b into x, grown as needed.
+func decodeWindows(x []float64, b []byte, rows, width int) []float64 {
+	d, rb := width-2, windowBytes(width)
+	x = slices.Grow(x[:0], rows*width)[:rows*width]
+	for i := 0; i < rows; i++ {
+		in, row := b[i*rb:(i+1)*rb], x[i*width:(i+1)*width]
+		for j := range row[:d] {
+			row[j] = float64(math.Float32frombits(binary.LittleEndian.Uint32(in[4*j:])))
+		}
+		row[d] = math.Float64frombits(binary.LittleEndian.Uint64(in[4*d:]))
+		row[d+1] = math.Float64frombits(binary.LittleEndian.Uint64(in[4*d+8:]))
+	}
+	return x
 }

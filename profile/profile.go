@@ -168,32 +168,16 @@ func FitStates(ctx context.Context, sample *mat.Dense, opts Options) (*States, e
 	if opts.Rule == ByValley && len(opts.States) > 1 {
 		return fitByValley(ctx, sample, opts)
 	}
-	n, dim := 0, 0
+	n := 0
 	if sample != nil {
-		n, dim = sample.Dims()
+		n, _ = sample.Dims()
 	}
 	maxK := opts.States[len(opts.States)-1]
 	if n < 2*maxK {
 		return nil, fmt.Errorf("profile: %d sampled windows for up to %d states: %w; raise job.Options.Sample or lower profile.Options.States", n, maxK, ErrData)
 	}
 	x := sample
-	// Validity indices on a fixed sub-sample, the same for every candidate.
-	sub := x
-	if n > 4000 {
-		sub = mat.NewDense(4000, dim, nil)
-		step := float64(n) / 4000
-		for i := 0; i < 4000; i++ {
-			sub.SetRow(i, x.RawRowView(int(float64(i)*step)))
-		}
-	}
-	// The silhouette, whose cost grows with the square of the windows, on every other one.
-	silSub := sub
-	if r, _ := sub.Dims(); r > 2000 {
-		silSub = mat.NewDense(r/2, dim, nil)
-		for i := 0; i < r/2; i++ {
-			silSub.SetRow(i, sub.RawRowView(2*i))
-		}
-	}
+	sub, silSub := validitySamples(x)
 	s := &States{Sampled: n, Rule: "fixed"}
 	if len(opts.States) > 1 {
 		s.Rule = ChoiceRule
@@ -215,32 +199,9 @@ func FitStates(ctx context.Context, sample *mat.Dense, opts Options) (*States, e
 		if err != nil {
 			return nil, fmt.Errorf("profile: %w", err)
 		}
-		c := Candidate{K: k, Inertia: r.Inertia}
-		subLab, _, err := cluster.Assign(r.Centroids, sub)
+		c, err := scoreCandidate(r, k, sub, silSub, opts.Workers)
 		if err != nil {
 			return nil, err
-		}
-		silLab := subLab
-		if silSub != sub {
-			silLab = make([]int, 0, len(subLab)/2)
-			for i := 0; i+1 < len(subLab); i += 2 {
-				silLab = append(silLab, subLab[i])
-			}
-		}
-		if sil, err := cluster.Silhouette(silSub, silLab, cluster.SilhouetteOptions{Workers: opts.Workers}); err == nil {
-			c.Silhouette = sil.Mean
-		} else {
-			c.Silhouette = math.NaN()
-		}
-		if v, err := cluster.CalinskiHarabasz(sub, subLab); err == nil {
-			c.CalinskiHarabasz = v
-		} else {
-			c.CalinskiHarabasz = math.NaN()
-		}
-		if v, err := cluster.DaviesBouldin(sub, subLab); err == nil {
-			c.DaviesBouldin = v
-		} else {
-			c.DaviesBouldin = math.NaN()
 		}
 		s.Candidates = append(s.Candidates, c)
 		if c.CalinskiHarabasz > bestCH || best == nil {
@@ -262,6 +223,58 @@ func FitStates(ctx context.Context, sample *mat.Dense, opts Options) (*States, e
 	s.Centroids = best.Centroids
 	s.Centroids, _ = orderStates(s.Centroids)
 	return s, nil
+}
+
+// validitySamples are the fixed sub-samples the validity indices are computed on, the same for
+// every candidate: up to 4,000 windows evenly spaced through the sample, and for the
+// silhouette, whose cost grows with the square of the windows, every other one of those above
+// 2,000.
+func validitySamples(x *mat.Dense) (sub, silSub *mat.Dense) {
+	n, dim := x.Dims()
+	sub = x
+	if n > 4000 {
+		sub = mat.NewDense(4000, dim, nil)
+		step := float64(n) / 4000
+		for i := 0; i < 4000; i++ {
+			sub.SetRow(i, x.RawRowView(int(float64(i)*step)))
+		}
+	}
+	silSub = sub
+	if r, _ := sub.Dims(); r > 2000 {
+		silSub = mat.NewDense(r/2, dim, nil)
+		for i := 0; i < r/2; i++ {
+			silSub.SetRow(i, sub.RawRowView(2*i))
+		}
+	}
+	return sub, silSub
+}
+
+// scoreCandidate is a candidate fit's (k states) validity indices on the sub-samples (NaN where one
+// cannot be computed).
+func scoreCandidate(r *cluster.KMeansResult, k int, sub, silSub *mat.Dense, workers int) (Candidate, error) {
+	c := Candidate{K: k, Inertia: r.Inertia}
+	subLab, _, err := cluster.Assign(r.Centroids, sub)
+	if err != nil {
+		return c, err
+	}
+	silLab := subLab
+	if silSub != sub {
+		silLab = make([]int, 0, len(subLab)/2)
+		for i := 0; i+1 < len(subLab); i += 2 {
+			silLab = append(silLab, subLab[i])
+		}
+	}
+	c.Silhouette, c.CalinskiHarabasz, c.DaviesBouldin = math.NaN(), math.NaN(), math.NaN()
+	if sil, err := cluster.Silhouette(silSub, silLab, cluster.SilhouetteOptions{Workers: workers}); err == nil {
+		c.Silhouette = sil.Mean
+	}
+	if v, err := cluster.CalinskiHarabasz(sub, subLab); err == nil {
+		c.CalinskiHarabasz = v
+	}
+	if v, err := cluster.DaviesBouldin(sub, subLab); err == nil {
+		c.DaviesBouldin = v
+	}
+	return c, nil
 }
 
 // fitByValley fits the largest number of states by k-means and merges neighbours that form one

@@ -32,32 +32,7 @@ var NoRhythm = Rhythm{IS: math.NaN(), IV: math.NaN(), L5: math.NaN(), M10: math.
 // RhythmOf computes the measures from windows' start times (Unix ns, increasing) and their
 // activity (NaN windows are skipped).
 func RhythmOf(times []int64, activity []float64) Rhythm {
-	hour := int64(time.Hour)
-	type bin struct {
-		sum float64
-		n   int
-	}
-	bins := map[int64]*bin{}
-	var first, last int64
-	for i, t := range times {
-		if math.IsNaN(activity[i]) {
-			continue
-		}
-		h := floorDiv(t, hour)
-		b := bins[h]
-		if b == nil {
-			b = &bin{}
-			bins[h] = b
-			if len(bins) == 1 || h < first {
-				first = h
-			}
-			if len(bins) == 1 || h > last {
-				last = h
-			}
-		}
-		b.sum += activity[i]
-		b.n++
-	}
+	bins, first, last := hourlyMeans(times, activity)
 	out := NoRhythm
 	if len(bins) < 48 {
 		return out
@@ -110,6 +85,50 @@ func RhythmOf(times []int64, activity []float64) Rhythm {
 	if pairs > 0 {
 		out.IV = n * diffs / (float64(pairs) * sumSq)
 	}
+	out.L5, out.L5Onset, out.M10, out.M10Onset = lowAndHigh(profile)
+	if out.M10+out.L5 != 0 {
+		out.RA = (out.M10 - out.L5) / (out.M10 + out.L5)
+	}
+	return out
+}
+
+// hourBin is an hour's sum of activity over its windows.
+type hourBin struct {
+	sum float64
+	n   int
+}
+
+// hourlyMeans bins the windows' activity by hour since 1970 (NaN windows skipped), with the
+// first and last hours that have any.
+func hourlyMeans(times []int64, activity []float64) (map[int64]*hourBin, int64, int64) {
+	hour := int64(time.Hour)
+	bins := map[int64]*hourBin{}
+	var first, last int64
+	for i, t := range times {
+		if math.IsNaN(activity[i]) {
+			continue
+		}
+		h := floorDiv(t, hour)
+		b := bins[h]
+		if b == nil {
+			b = &hourBin{}
+			bins[h] = b
+			if len(bins) == 1 || h < first {
+				first = h
+			}
+			if len(bins) == 1 || h > last {
+				last = h
+			}
+		}
+		b.sum += activity[i]
+		b.n++
+	}
+	return bins, first, last
+}
+
+// lowAndHigh are the least active 5 hours and the most active 10 of the day's profile (mean
+// activity, each from its first hour, wrapping at midnight) and the hours they start.
+func lowAndHigh(profile [24]float64) (l5 float64, l5On int, m10 float64, m10On int) {
 	window := func(s, length int) float64 {
 		var v float64
 		for k := 0; k < length; k++ {
@@ -117,19 +136,17 @@ func RhythmOf(times []int64, activity []float64) Rhythm {
 		}
 		return v / float64(length)
 	}
-	out.L5, out.M10 = math.Inf(1), math.Inf(-1)
+	l5, m10 = math.Inf(1), math.Inf(-1)
+	l5On, m10On = -1, -1
 	for s := 0; s < 24; s++ {
-		if v := window(s, 5); v < out.L5 {
-			out.L5, out.L5Onset = v, s
+		if v := window(s, 5); v < l5 {
+			l5, l5On = v, s
 		}
-		if v := window(s, 10); v > out.M10 {
-			out.M10, out.M10Onset = v, s
+		if v := window(s, 10); v > m10 {
+			m10, m10On = v, s
 		}
 	}
-	if out.M10+out.L5 != 0 {
-		out.RA = (out.M10 - out.L5) / (out.M10 + out.L5)
-	}
-	return out
+	return l5, l5On, m10, m10On
 }
 
 // ActivityFeature picks the feature the rhythm is read on, by its name: activity counts

@@ -7,8 +7,6 @@ import (
 	"strings"
 	"time"
 
-	"github.com/cohortmix/cohortmix/cluster/groupstat"
-	"github.com/cohortmix/cohortmix/cohort/job"
 	"github.com/cohortmix/cohortmix/profile"
 )
 
@@ -32,7 +30,7 @@ func StateLines(r *Result) []string {
 // signature where in the day it differs most; with one group, the spread of the cohort.
 func GroupLines(r *Result) []string {
 	names := ShortNames(StateWordsOf(r))
-	lines := groupLines(r.Units, r.Grouping.K, names, r.WindowLength)
+	lines := groupLines(r, names)
 	if r.DayPartCounts != nil {
 		for c, clause := range partLines(r.DayPartCounts, len(names), r.DayParts, names) {
 			if clause != "" {
@@ -78,101 +76,105 @@ func partLines(sum [][]float64, k int, parts profile.DayParts, stateNames []stri
 }
 
 // groupLines describes each group in a line, from its mixture against the mean of the grouped
-// units; atypical units (in no group) are left out. With waves it counts participant-waves and
+// units (the result's means); atypical units (in no group) are left out. With waves it counts participant-waves and
 // people apart.
-func groupLines(units []job.UnitRow, groupCount int, stateNames []string, window time.Duration) []string {
-	k := len(stateNames)
-	shares, bouts := make([][]float64, len(units)), make([][]float64, len(units))
-	groups, all := make([]int, len(units)), make([]int, len(units)) // atypical units: -1, in no group
+func groupLines(r *Result, stateNames []string) []string {
+	units, window := r.Units, r.WindowLength
 	waves := false
+	groups := make([]int, len(units)) // atypical units: -1, in no group
 	for i, u := range units {
 		waves = waves || u.Wave != ""
-		shares[i], bouts[i], groups[i] = u.Share, u.Bout, u.Group
+		groups[i] = u.Group
 		if u.Atypical {
-			groups[i], all[i] = -1, -1
+			groups[i] = -1
 		}
 	}
-	// A bout length exists only for a state the participant entered: bouts are averaged over
-	// those who did.
-	overShares, _ := groupstat.GroupMeans(shares, all, 1)
-	meanShare, meanBout := overShares[0], groupstat.GroupMeansOfPositive(bouts, all, 1)[0]
-	if groupCount == 1 {
-		return []string{spreadLine(shares, bouts, groups, stateNames, units, waves, window)}
+	if r.Grouping.K == 1 {
+		return []string{spreadLine(r, groups, stateNames, waves)}
 	}
-	groupShares, sizes := groupstat.GroupMeans(shares, groups, groupCount)
-	groupBouts := groupstat.GroupMeansOfPositive(bouts, groups, groupCount)
-	lines := make([]string, groupCount)
-	for c := 0; c < groupCount; c++ {
-		share, bout, n := groupShares[c], groupBouts[c], float64(sizes[c])
-		people := map[string]bool{}
-		for i := range units {
-			if groups[i] == c {
-				people[units[i].ID] = true
-			}
+	meanShare, meanBout := r.CohortMeans()
+	groupShares, sizes, _ := r.GroupMeans()
+	groupBouts := r.GroupBouts()
+	lines := make([]string, len(groupShares))
+	for c := range lines {
+		n := sizes[c]
+		if n == 0 {
+			lines[c] = "no participants in this run"
+			continue
 		}
-		type diff struct {
-			j int
-			r float64
-		}
-		// A difference is told only when its numbers, as printed, differ.
-		var ds, db []diff
-		for j := 0; j < k; j++ {
-			if meanShare[j] > 0 && Percent(share[j]) != Percent(meanShare[j]) {
-				ds = append(ds, diff{j, share[j]/meanShare[j] - 1})
-			}
-			if meanBout[j] > 0 && bout[j] > 0 && boutText(bout[j], window) != boutText(meanBout[j], window) { // false for NaN: no one in the state
-				db = append(db, diff{j, bout[j]/meanBout[j] - 1})
-			}
-		}
-		sort.SliceStable(ds, func(a, b int) bool { return ds[a].r > ds[b].r })
-		sort.SliceStable(db, func(a, b int) bool { return db[a].r > db[b].r })
-		var parts []string
-		if len(ds) > 0 && ds[0].r > 0.1 {
-			j := ds[0].j
-			parts = append(parts, "more time in "+withNote(stateNames[j], Percent(share[j])+" of their time against "+Percent(meanShare[j])+" on average"))
-		}
-		if len(ds) > 1 && ds[len(ds)-1].r < -0.1 {
-			j := ds[len(ds)-1].j
-			parts = append(parts, "less in "+withNote(stateNames[j], Percent(share[j])+" against "+Percent(meanShare[j])))
-		}
-		if len(db) > 0 {
-			longer, shorter := db[0], db[len(db)-1]
-			switch {
-			case longer.r > 0.1 && longer.r >= -shorter.r:
-				parts = append(parts, "longer bouts of "+withNote(stateNames[longer.j], boutText(bout[longer.j], window)+" against "+boutText(meanBout[longer.j], window)))
-			case shorter.r < -0.1:
-				parts = append(parts, "shorter bouts of "+withNote(stateNames[shorter.j], boutText(bout[shorter.j], window)+" against "+boutText(meanBout[shorter.j], window)))
-			}
-		}
-		what := "close to the average mixture of all grouped participants"
-		if len(parts) > 0 {
-			what = strings.Join(parts, ", ") + " than the others"
-		}
-		count := fmt.Sprintf("%d participants", int(n))
+		count := fmt.Sprintf("%d participants", n)
 		if n == 1 {
 			count = "1 participant"
 		}
 		if waves {
-			count = fmt.Sprintf("%d participant-waves of %d people", int(n), len(people))
+			people := map[string]bool{}
+			for i := range units {
+				if groups[i] == c {
+					people[units[i].ID] = true
+				}
+			}
+			count = fmt.Sprintf("%d participant-waves of %d people", n, len(people))
+		}
+		what := "close to the average mixture of all grouped participants"
+		if parts := differences(groupShares[c], meanShare, groupBouts[c], meanBout, stateNames, window); len(parts) > 0 {
+			what = strings.Join(parts, ", ") + " than the others"
 		}
 		lines[c] = count + ": " + what
-		if n == 0 {
-			lines[c] = "no participants in this run"
-		}
 	}
 	return lines
+}
+
+// differences are the clauses that say how a group's mixture (share, bout) stands from the
+// cohort's (meanShare, meanBout): the state it spends most more time in and most less, and the
+// state whose bouts are most longer or shorter, each by more than a tenth. A difference is told
+// only when its numbers, as printed, differ.
+func differences(share, meanShare, bout, meanBout []float64, stateNames []string, window time.Duration) []string {
+	type diff struct {
+		j int
+		r float64
+	}
+	var ds, db []diff
+	for j := range stateNames {
+		if meanShare[j] > 0 && Percent(share[j]) != Percent(meanShare[j]) {
+			ds = append(ds, diff{j, share[j]/meanShare[j] - 1})
+		}
+		if meanBout[j] > 0 && bout[j] > 0 && boutText(bout[j], window) != boutText(meanBout[j], window) { // false for NaN: no one in the state
+			db = append(db, diff{j, bout[j]/meanBout[j] - 1})
+		}
+	}
+	sort.SliceStable(ds, func(a, b int) bool { return ds[a].r > ds[b].r })
+	sort.SliceStable(db, func(a, b int) bool { return db[a].r > db[b].r })
+	var parts []string
+	if len(ds) > 0 && ds[0].r > 0.1 {
+		j := ds[0].j
+		parts = append(parts, "more time in "+withNote(stateNames[j], Percent(share[j])+" of their time against "+Percent(meanShare[j])+" on average"))
+	}
+	if len(ds) > 1 && ds[len(ds)-1].r < -0.1 {
+		j := ds[len(ds)-1].j
+		parts = append(parts, "less in "+withNote(stateNames[j], Percent(share[j])+" against "+Percent(meanShare[j])))
+	}
+	if len(db) > 0 {
+		longer, shorter := db[0], db[len(db)-1]
+		switch {
+		case longer.r > 0.1 && longer.r >= -shorter.r:
+			parts = append(parts, "longer bouts of "+withNote(stateNames[longer.j], boutText(bout[longer.j], window)+" against "+boutText(meanBout[longer.j], window)))
+		case shorter.r < -0.1:
+			parts = append(parts, "shorter bouts of "+withNote(stateNames[shorter.j], boutText(bout[shorter.j], window)+" against "+boutText(meanBout[shorter.j], window)))
+		}
+	}
+	return parts
 }
 
 // spreadLine describes participants who form one group: how many, and for each state the
 // median share of time and the range of the middle 80 % (10th to 90th percentile), with the
 // median bout length, so that the reader sees the spread where there are no groups to compare.
-func spreadLine(shares, bouts [][]float64, groups []int, stateNames []string, units []job.UnitRow, waves bool, window time.Duration) string {
+func spreadLine(r *Result, groups []int, stateNames []string, waves bool) string {
 	n := 0
 	people := map[string]bool{}
 	for i, gr := range groups {
 		if gr == 0 {
 			n++
-			people[units[i].ID] = true
+			people[r.Units[i].ID] = true
 		}
 	}
 	count := fmt.Sprintf("%d participants", n)
@@ -180,20 +182,10 @@ func spreadLine(shares, bouts [][]float64, groups []int, stateNames []string, un
 		count = fmt.Sprintf("%d participant-waves of %d people", n, len(people))
 	}
 	var parts []string
-	for j, name := range stateNames {
-		var col, bcol []float64
-		for i, gr := range groups {
-			if gr == 0 {
-				col = append(col, shares[i][j])
-				if bouts[i][j] > 0 {
-					bcol = append(bcol, bouts[i][j])
-				}
-			}
-		}
-		part := fmt.Sprintf("%s %s of their time (10th–90th percentile %s–%s)", name, Percent(groupstat.Quantile(col, 0.5)),
-			Percent(groupstat.Quantile(col, 0.1)), Percent(groupstat.Quantile(col, 0.9)))
-		if len(bcol) > 0 {
-			part += ", bouts of " + boutText(groupstat.Quantile(bcol, 0.5), window)
+	for j, sp := range r.Spread() {
+		part := fmt.Sprintf("%s %s of their time (10th–90th percentile %s–%s)", stateNames[j], Percent(sp.Median), Percent(sp.P10), Percent(sp.P90))
+		if !math.IsNaN(sp.Bout) {
+			part += ", bouts of " + boutText(sp.Bout, r.WindowLength)
 		}
 		parts = append(parts, part)
 	}

@@ -8,6 +8,7 @@ import (
 	"strings"
 	"testing"
 
+	"github.com/cohortmix/cohortmix/cohort/group"
 	"github.com/cohortmix/cohortmix/cohort/job"
 	"github.com/cohortmix/cohortmix/cohort/synth"
 )
@@ -54,7 +55,8 @@ func TestGroupLinesTellOnlyPrintedDifferences(t *testing.T) {
 	// Group 1 has 0.4 % in S3 against 0.2 % on average (twice as much, both "<1%"), and 60 %
 	// in S1 against 50 %.
 	units := []job.UnitRow{unit("A", 0, 0.6, 0.396, 0.004), unit("B", 0, 0.6, 0.396, 0.004), unit("C", 1, 0.4, 0.6, 0), unit("D", 1, 0.4, 0.6, 0)}
-	lines := groupLines(units, 2, []string{"S1", "S2", "S3"}, 0)
+	r := &job.Result{Units: units, GroupNames: []string{"G1", "G2"}, Grouping: &group.Grouping{K: 2}}
+	lines := groupLines(r, []string{"S1", "S2", "S3"})
 	if strings.Contains(lines[0], "S3") || !strings.Contains(lines[0], "more time in S1 (60% of their time against 50% on average)") {
 		t.Errorf("group 1: %s", lines[0])
 	}

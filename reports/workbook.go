@@ -464,77 +464,93 @@ func stabilitySheet(f *excelize.File, st *styles, r *Result) error {
 		return err
 	}
 	if gs != nil {
-		if err := t.put(v{"How well each group holds", st.title}); err != nil {
+		if err := groupStabilityPart(t, st, r); err != nil {
 			return err
 		}
-		if err := t.put(v{fmt.Sprintf("The participants were drawn again %d times with replacement and grouped anew with the same method and number of groups; each group's stability is the mean, over those resamples, of its best Jaccard similarity with a group found anew (Hennig 2007). Below %.2f a group is flagged.", gs.Resamples, group.UnstableJaccard), st.note}); err != nil {
-			return err
-		}
-		if err := t.merge(5); err != nil {
-			return err
-		}
-		if err := t.heading("group", "members", "stability", "", "reading"); err != nil {
-			return err
-		}
-		size := make([]int, len(r.GroupNames))
-		for _, u := range r.Units {
-			size[u.Group]++
-		}
-		for g, name := range r.GroupNames {
-			if err := t.put(v{name, st.text}, v{size[g], st.integer}, v{gs.Jaccard[g], st.dec2}, v{"", st.text}, v{stabilityReading(gs.Jaccard[g]), st.wrap}); err != nil {
-				return err
-			}
-		}
-		if ws, ok := r.Grouping.WholeStability(); ok {
-			reading := fmt.Sprintf("comes back as a whole: the adjusted Rand index between the groups and those found anew, on average over the resamples (Lange et al. 2004); below %.2f the grouping is flagged as tentative", group.UnstableGrouping)
-			if ws < group.UnstableGrouping {
-				reading = fmt.Sprintf("TENTATIVE: comes back only in part (the adjusted Rand index between the groups and those found anew, on average over the resamples, is below %.2f; Lange et al. 2004)", group.UnstableGrouping)
-			}
-			if err := t.put(v{"the grouping as a whole", st.text}, v{len(r.Units), st.integer}, v{ws, st.dec2}, v{"", st.text}, v{reading, st.wrap}); err != nil {
-				return err
-			}
-		}
-		t.blank()
 	}
 	if len(r.Sensitivity) > 0 {
-		if err := t.put(v{"Do the groups depend on a choice?", st.title}); err != nil {
+		if err := sensitivityPart(t, st, r); err != nil {
 			return err
-		}
-		if err := t.put(v{"The adjusted Rand index between the groups made and the groups under another choice, with the same number of groups (1: the same groups; 0: no more alike than chance). Other grouping methods group the same signatures. Other within steps, the align step turning the axis means alone, and other numbers of states were fitted anew on the sampled windows of sampled participants: read those rows against the first of them, the same settings on the same sampled windows.", st.note}); err != nil {
-			return err
-		}
-		if err := t.merge(5); err != nil {
-			return err
-		}
-		if err := t.heading("choice", "alternative", "participants", "adjusted Rand index", "fitted on"); err != nil {
-			return err
-		}
-		for _, s := range r.Sensitivity {
-			on := "all windows of every participant"
-			if s.OnSample {
-				on = "the sampled windows of sampled participants"
-			}
-			if err := t.put(v{s.Choice, st.wrap}, v{s.Alternative, st.text}, v{s.Participants, st.integer}, v{s.ARI, st.dec2}, v{on, st.wrap}); err != nil {
-				return err
-			}
-		}
-		t.blank()
-		if err := t.put(v{StabilityReading, st.note}); err != nil {
-			return err
-		}
-		if err := t.merge(5); err != nil {
-			return err
-		}
-		if r.SensitivityNote != "" {
-			if err := t.put(v{capital(r.SensitivityNote) + ".", st.warn}); err != nil {
-				return err
-			}
-			if err := t.merge(5); err != nil {
-				return err
-			}
 		}
 	}
 	return t.close(false)
+}
+
+// groupStabilityPart is the stability sheet's table of how well each group, and the grouping
+// as a whole, comes back when the participants are drawn again.
+func groupStabilityPart(t *table, st *styles, r *Result) error {
+	gs := r.Grouping.Stability
+	if err := t.put(v{"How well each group holds", st.title}); err != nil {
+		return err
+	}
+	if err := t.put(v{fmt.Sprintf("The participants were drawn again %d times with replacement and grouped anew with the same method and number of groups; each group's stability is the mean, over those resamples, of its best Jaccard similarity with a group found anew (Hennig 2007). Below %.2f a group is flagged.", gs.Resamples, group.UnstableJaccard), st.note}); err != nil {
+		return err
+	}
+	if err := t.merge(5); err != nil {
+		return err
+	}
+	if err := t.heading("group", "members", "stability", "", "reading"); err != nil {
+		return err
+	}
+	size := make([]int, len(r.GroupNames))
+	for _, u := range r.Units {
+		size[u.Group]++
+	}
+	for g, name := range r.GroupNames {
+		if err := t.put(v{name, st.text}, v{size[g], st.integer}, v{gs.Jaccard[g], st.dec2}, v{"", st.text}, v{stabilityReading(gs.Jaccard[g]), st.wrap}); err != nil {
+			return err
+		}
+	}
+	if ws, ok := r.Grouping.WholeStability(); ok {
+		reading := fmt.Sprintf("comes back as a whole: the adjusted Rand index between the groups and those found anew, on average over the resamples (Lange et al. 2004); below %.2f the grouping is flagged as tentative", group.UnstableGrouping)
+		if ws < group.UnstableGrouping {
+			reading = fmt.Sprintf("TENTATIVE: comes back only in part (the adjusted Rand index between the groups and those found anew, on average over the resamples, is below %.2f; Lange et al. 2004)", group.UnstableGrouping)
+		}
+		if err := t.put(v{"the grouping as a whole", st.text}, v{len(r.Units), st.integer}, v{ws, st.dec2}, v{"", st.text}, v{reading, st.wrap}); err != nil {
+			return err
+		}
+	}
+	t.blank()
+	return nil
+}
+
+// sensitivityPart is the stability sheet's table of the groups under other choices.
+func sensitivityPart(t *table, st *styles, r *Result) error {
+	if err := t.put(v{"Do the groups depend on a choice?", st.title}); err != nil {
+		return err
+	}
+	if err := t.put(v{"The adjusted Rand index between the groups made and the groups under another choice, with the same number of groups (1: the same groups; 0: no more alike than chance). Other grouping methods group the same signatures. Other within steps, the align step turning the axis means alone, and other numbers of states were fitted anew on the sampled windows of sampled participants: read those rows against the first of them, the same settings on the same sampled windows.", st.note}); err != nil {
+		return err
+	}
+	if err := t.merge(5); err != nil {
+		return err
+	}
+	if err := t.heading("choice", "alternative", "participants", "adjusted Rand index", "fitted on"); err != nil {
+		return err
+	}
+	for _, s := range r.Sensitivity {
+		on := "all windows of every participant"
+		if s.OnSample {
+			on = "the sampled windows of sampled participants"
+		}
+		if err := t.put(v{s.Choice, st.wrap}, v{s.Alternative, st.text}, v{s.Participants, st.integer}, v{s.ARI, st.dec2}, v{on, st.wrap}); err != nil {
+			return err
+		}
+	}
+	t.blank()
+	if err := t.put(v{StabilityReading, st.note}); err != nil {
+		return err
+	}
+	if err := t.merge(5); err != nil {
+		return err
+	}
+	if r.SensitivityNote != "" {
+		if err := t.put(v{capital(r.SensitivityNote) + ".", st.warn}); err != nil {
+			return err
+		}
+		return t.merge(5)
+	}
+	return nil
 }
 
 // StabilityReading says how to read the sensitivity table.

@@ -44,62 +44,28 @@ func Ordered[R any](ctx context.Context, n, nWorkers int, work func(i, slot int)
 func Stream[T, R any](ctx context.Context, nWorkers int, next func(i int) (T, bool, error), work func(i int, item T, slot int) (R, error), consume func(i int, r R) error) error {
 	w := Workers(nWorkers)
 	ahead := Slots(nWorkers)
-	type result struct {
-		i   int
-		r   R
-		err error
+	s := &streamer[T, R]{next: next, work: work, ahead: ahead,
+		tokens:  make(chan struct{}, ahead), // a token is an index taken and not yet consumed
+		results: make(chan streamResult[R], ahead),
+		stop:    make(chan struct{}),
 	}
-	tokens := make(chan struct{}, ahead) // a token is an index taken and not yet consumed
-	results := make(chan result, ahead)
-	stop := make(chan struct{})
-	var mu sync.Mutex
-	taken, ended := 0, false
 	var wg sync.WaitGroup
 	for g := 0; g < w; g++ {
 		wg.Add(1)
 		go func() {
 			defer wg.Done()
-			for {
-				select {
-				case tokens <- struct{}{}:
-				case <-stop:
-					return
-				}
-				mu.Lock()
-				if ended {
-					mu.Unlock()
-					return
-				}
-				i := taken
-				item, ok, err := next(i)
-				ended = !ok || err != nil
-				if !ok && err == nil {
-					mu.Unlock()
-					return
-				}
-				taken++
-				mu.Unlock()
-				var r R
-				if err == nil {
-					r, err = work(i, item, i%ahead)
-				}
-				select {
-				case results <- result{i, r, err}:
-				case <-stop:
-					return
-				}
-			}
+			s.worker()
 		}()
 	}
-	go func() { wg.Wait(); close(results) }()
+	go func() { wg.Wait(); close(s.results) }()
 	defer func() {
-		close(stop)
-		for range results { // let the workers finish
+		close(s.stop)
+		for range s.results { // let the workers finish
 		}
 	}()
-	pending := make(map[int]result, ahead)
+	pending := make(map[int]streamResult[R], ahead)
 	want := 0
-	for res := range results {
+	for res := range s.results {
 		pending[res.i] = res
 		for {
 			res, ok := pending[want]
@@ -119,10 +85,72 @@ func Stream[T, R any](ctx context.Context, nWorkers int, next func(i int) (T, bo
 				}
 			}
 			want++
-			<-tokens
+			<-s.tokens
 		}
 	}
 	return ctx.Err()
+}
+
+type streamResult[R any] struct {
+	i   int
+	r   R
+	err error
+}
+
+// streamer is Stream's shared state: the items taken so far and whether next has ended.
+type streamer[T, R any] struct {
+	next    func(i int) (T, bool, error)
+	work    func(i int, item T, slot int) (R, error)
+	ahead   int
+	tokens  chan struct{}
+	results chan streamResult[R]
+	stop    chan struct{}
+	mu      sync.Mutex
+	taken   int
+	ended   bool
+}
+
+// worker takes a token, then the next item, works on it and sends the result, until the
+// stream ends or is stopped.
+func (s *streamer[T, R]) worker() {
+	for {
+		select {
+		case s.tokens <- struct{}{}:
+		case <-s.stop:
+			return
+		}
+		i, item, ok, err := s.take()
+		if !ok {
+			return
+		}
+		var r R
+		if err == nil {
+			r, err = s.work(i, item, i%s.ahead)
+		}
+		select {
+		case s.results <- streamResult[R]{i, r, err}:
+		case <-s.stop:
+			return
+		}
+	}
+}
+
+// take calls next for the next index, one caller at a time; ok is false once the items have
+// ended (an error from next is an item whose result is that error).
+func (s *streamer[T, R]) take() (i int, item T, ok bool, err error) {
+	s.mu.Lock()
+	defer s.mu.Unlock()
+	if s.ended {
+		return 0, item, false, nil
+	}
+	i = s.taken
+	item, ok, err = s.next(i)
+	s.ended = !ok || err != nil
+	if !ok && err == nil {
+		return 0, item, false, nil
+	}
+	s.taken++
+	return i, item, true, err
 }
 
 // Workers is the number of goroutines for a requested count: w, or one per core when w ≤ 0.

@@ -89,18 +89,18 @@ func newShardCmd(env *Env, runF func(context.Context, *shardOptions) error) *cob
 		flags(c, o)
 		root.AddCommand(c)
 	}
-	pieceFlag := func(c *cobra.Command, o *shardOptions) {
-		c.Flags().StringVar(&o.Piece, "piece", "", "the piece file to write")
-		_ = c.MarkFlagRequired("piece")
-		c.Flags().BoolVar(&o.Flags.Force, "force", false, "replace an existing piece")
-		c.Flags().BoolVar(&o.Flags.Quiet, "quiet", false, "print nothing on success")
+	addShardSteps(step)
+	for _, c := range root.Commands() {
+		commandLineErrors(c)
 	}
-	shardFlag := func(c *cobra.Command, o *shardOptions) {
-		c.Flags().StringVar(&o.Shard, "shard", "", "this step's shard and their number, I/N with I from 1 to N")
-		_ = c.MarkFlagRequired("shard")
-		c.Flags().IntVar(&o.Flags.Workers, "workers", 0, "worker goroutines (0: all cores); never changes the result")
-		c.Flags().StringVar(&o.Windows, "windows-file", "", "the shard's windows file that census wrote, read instead of every input file")
-	}
+	return root
+}
+
+// shardStep registers one step of shard: its name, usage, short help, arguments and flags.
+type shardStep func(name, use, short string, args cobra.PositionalArgs, flags func(*cobra.Command, *shardOptions))
+
+// addShardSteps registers shard's steps in the order they run.
+func addShardSteps(step shardStep) {
 	step("census", "census <windows.csv>... --shard I/N --piece <census.piece>", "Count one shard's participants and what was left out (every setting of the run is given here)",
 		cobra.MinimumNArgs(1), func(c *cobra.Command, o *shardOptions) {
 			o.Flags.register(c)
@@ -113,42 +113,35 @@ func newShardCmd(env *Env, runF func(context.Context, *shardOptions) error) *cob
 			_ = c.MarkFlagRequired("piece")
 			c.Flags().StringVar(&o.Windows, "windows-file", "", "also write the shard's windows to this file, for sample and assign to read instead of every input file")
 		})
-	step("plan", "plan <census.piece>... --piece <plan.piece>", "Merge every shard's census into the plan of the run", cobra.MinimumNArgs(1), pieceFlag)
+	step("plan", "plan <census.piece>... --piece <plan.piece>", "Merge every shard's census into the plan of the run", cobra.MinimumNArgs(1), pieceFlags)
 	step("sample", "sample --plan <plan.piece> --shard I/N --piece <sample.piece>", "Draw one shard's windows for the fit", cobra.NoArgs,
 		func(c *cobra.Command, o *shardOptions) {
 			c.Flags().StringVar(&o.Plan, "plan", "", "the plan piece")
 			_ = c.MarkFlagRequired("plan")
 			c.Flags().StringVar(&o.Flags.Temp, "temp", "", "folder for temporary files of large inputs (default: the folder of --piece)")
-			shardFlag(c, o)
-			pieceFlag(c, o)
+			shardFlags(c, o)
+			pieceFlags(c, o)
 		})
 	step("fit", "fit --plan <plan.piece> <sample.piece>... --piece <fit.piece>", "Fit the scaling, the devices and the movement states on every shard's sample", cobra.MinimumNArgs(1),
 		func(c *cobra.Command, o *shardOptions) {
 			c.Flags().StringVar(&o.Plan, "plan", "", "the plan piece")
 			_ = c.MarkFlagRequired("plan")
 			c.Flags().IntVar(&o.Flags.Workers, "workers", 0, "worker goroutines (0: all cores); never changes the result")
-			pieceFlag(c, o)
+			pieceFlags(c, o)
 		})
 	step("assign", "assign --fit <fit.piece> --shard I/N --piece <assign.piece>", "Give one shard's windows their states and its participants their signatures", cobra.NoArgs,
 		func(c *cobra.Command, o *shardOptions) {
 			c.Flags().StringVar(&o.Fit, "fit", "", "the fit piece")
 			_ = c.MarkFlagRequired("fit")
 			c.Flags().StringVar(&o.Flags.Temp, "temp", "", "folder for temporary files of large inputs (default: the folder of --piece)")
-			shardFlag(c, o)
-			pieceFlag(c, o)
+			shardFlags(c, o)
+			pieceFlags(c, o)
 		})
-	outputs := func(c *cobra.Command, o *shardOptions) {
-		c.Flags().StringVar(&o.Out, "out", "", "the workbook to write (.xlsx)")
-		_ = c.MarkFlagRequired("out")
-		c.Flags().StringVar(&o.Flags.Members, "members", "", "also write a CSV here: participant, wave, group, probability of the group, silhouette, flag")
-		c.Flags().StringVar(&o.Flags.Model, "model", "", "also write the model file (JSON) here, for later waves")
-		c.Flags().StringVar(&o.Flags.Pseudonymize, "pseudonymize", "", "replace participant ids in every output by a keyed hash, with the key in this file")
-	}
 	step("finish", "finish --fit <fit.piece> <assign.piece>... --out <results.xlsx>", "Group the participants from every shard's assignment and write the outputs", cobra.MinimumNArgs(1),
 		func(c *cobra.Command, o *shardOptions) {
 			c.Flags().StringVar(&o.Fit, "fit", "", "the fit piece")
 			_ = c.MarkFlagRequired("fit")
-			outputs(c, o)
+			outputFlags(c, o)
 			c.Flags().IntVar(&o.Flags.Workers, "workers", 0, "worker goroutines (0: all cores); never changes the result")
 			c.Flags().BoolVar(&o.Flags.Force, "force", false, "replace existing output files")
 			c.Flags().BoolVar(&o.Flags.Quiet, "quiet", false, "print only the final summary")
@@ -161,10 +154,31 @@ func newShardCmd(env *Env, runF func(context.Context, *shardOptions) error) *cob
 			c.Flags().IntVar(&o.Shards, "shards", 2, "how many shards")
 			c.Flags().StringVar(&o.Pieces, "pieces", "", "folder to keep the pieces in, which hold the ids as read (default: none; the pieces stay in memory)")
 		})
-	for _, c := range root.Commands() {
-		commandLineErrors(c)
-	}
-	return root
+}
+
+// pieceFlags are the flags of a step that writes a piece.
+func pieceFlags(c *cobra.Command, o *shardOptions) {
+	c.Flags().StringVar(&o.Piece, "piece", "", "the piece file to write")
+	_ = c.MarkFlagRequired("piece")
+	c.Flags().BoolVar(&o.Flags.Force, "force", false, "replace an existing piece")
+	c.Flags().BoolVar(&o.Flags.Quiet, "quiet", false, "print nothing on success")
+}
+
+// shardFlags are the flags of a step that runs on one shard.
+func shardFlags(c *cobra.Command, o *shardOptions) {
+	c.Flags().StringVar(&o.Shard, "shard", "", "this step's shard and their number, I/N with I from 1 to N")
+	_ = c.MarkFlagRequired("shard")
+	c.Flags().IntVar(&o.Flags.Workers, "workers", 0, "worker goroutines (0: all cores); never changes the result")
+	c.Flags().StringVar(&o.Windows, "windows-file", "", "the shard's windows file that census wrote, read instead of every input file")
+}
+
+// outputFlags are the flags of the outputs finish writes.
+func outputFlags(c *cobra.Command, o *shardOptions) {
+	c.Flags().StringVar(&o.Out, "out", "", "the workbook to write (.xlsx)")
+	_ = c.MarkFlagRequired("out")
+	c.Flags().StringVar(&o.Flags.Members, "members", "", "also write a CSV here: participant, wave, group, probability of the group, silhouette, flag")
+	c.Flags().StringVar(&o.Flags.Model, "model", "", "also write the model file (JSON) here, for later waves")
+	c.Flags().StringVar(&o.Flags.Pseudonymize, "pseudonymize", "", "replace participant ids in every output by a keyed hash, with the key in this file")
 }
 
 // parseShard reads "I/N" (I from 1) into the reader's shard (from 0).

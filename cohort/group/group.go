@@ -584,36 +584,13 @@ func scoreGap(ctx context.Context, x *mat.Dense, scores []KScore, labelsByK map[
 	if err != nil {
 		return fmt.Errorf("group: gap statistic: %w", err)
 	}
-	z, _ := pca.Transform(x)
-	_, p := z.Dims()
-	lo, hi := make([]float64, p), make([]float64, p)
-	for c := 0; c < p; c++ {
-		lo[c], hi[c] = math.Inf(1), math.Inf(-1)
-		for i := 0; i < n; i++ {
-			lo[c] = min(lo[c], z.At(i, c))
-			hi[c] = max(hi[c], z.At(i, c))
-		}
-	}
+	lo, hi := principalBox(pca, x)
 	logW := make([][]float64, len(ks)) // per k, per reference
 	// The references are drawn and grouped side by side, each from its own seed, and their
 	// log W_k gathered in reference order, so the sums are the same on any number of cores.
 	err = par.Ordered(ctx, opts.Bootstrap, opts.Workers, func(b, _ int) ([]float64, error) {
 		rng := rand.New(rand.NewPCG(par.SubSeed(opts.Seed, "gap reference", b), 1))
-		ref := mat.NewDense(n, d, nil)
-		row := make([]float64, p)
-		for i := 0; i < n; i++ {
-			for c := 0; c < p; c++ {
-				row[c] = lo[c] + rng.Float64()*(hi[c]-lo[c])
-			}
-			// back to the original axes: z·Vᵀ + mean
-			for j := 0; j < d; j++ {
-				v := pca.Mean[j]
-				for c := 0; c < p; c++ {
-					v += row[c] * pca.Components.At(j, c)
-				}
-				ref.Set(i, j, v)
-			}
-		}
+		ref := boxReference(rng, pca, lo, hi, n, d)
 		m := opts.Method
 		if m != WardHellinger {
 			m = KMeansCLR
@@ -656,6 +633,43 @@ func scoreGap(ctx context.Context, x *mat.Dense, scores []KScore, labelsByK map[
 		scores[i].GapSE = sd * math.Sqrt(1+1/B)
 	}
 	return nil
+}
+
+// principalBox is the box of the rows of x on their principal axes: each axis's lowest and
+// highest score.
+func principalBox(pca *cluster.PCA, x *mat.Dense) (lo, hi []float64) {
+	z, _ := pca.Transform(x)
+	n, p := z.Dims()
+	lo, hi = make([]float64, p), make([]float64, p)
+	for c := 0; c < p; c++ {
+		lo[c], hi[c] = math.Inf(1), math.Inf(-1)
+		for i := 0; i < n; i++ {
+			lo[c] = min(lo[c], z.At(i, c))
+			hi[c] = max(hi[c], z.At(i, c))
+		}
+	}
+	return lo, hi
+}
+
+// boxReference is a reference set of n rows drawn uniformly in the box (lo, hi) of the principal
+// axes and taken back to the d original axes (z·Vᵀ + mean).
+func boxReference(rng *rand.Rand, pca *cluster.PCA, lo, hi []float64, n, d int) *mat.Dense {
+	p := len(lo)
+	ref := mat.NewDense(n, d, nil)
+	row := make([]float64, p)
+	for i := 0; i < n; i++ {
+		for c := 0; c < p; c++ {
+			row[c] = lo[c] + rng.Float64()*(hi[c]-lo[c])
+		}
+		for j := 0; j < d; j++ {
+			v := pca.Mean[j]
+			for c := 0; c < p; c++ {
+				v += row[c] * pca.Components.At(j, c)
+			}
+			ref.Set(i, j, v)
+		}
+	}
+	return ref
 }
 
 // withinSS is W_k for squared Euclidean distance: Σ_r (1/2n_r) Σ_{i,j∈r} d²ᵢⱼ = Σ ‖xᵢ − c_r‖².

@@ -199,18 +199,7 @@ func MergeCensus(parts []*Census) (*Plan, error) {
 			!sameOptions(c.Options, first.Options) {
 			return nil, fmt.Errorf("job: the census of shard %d was taken of other input files or with other settings than shard 0's: %w; run every shard on the same files with the same settings", i, ErrPiece)
 		}
-		cq := c.Quality
-		q.WindowsDropped += cq.WindowsDropped
-		q.WindowsNonWear += cq.WindowsNonWear
-		q.NonWearRule = cq.NonWearRule
-		q.WindowsInvalidDays += cq.WindowsInvalidDays
-		q.ValidDayRule = cq.ValidDayRule
-		q.WindowsExcluded += cq.WindowsExcluded
-		q.CellsImputed += cq.CellsImputed
-		q.SortedUnits += cq.SortedUnits
-		q.JoinedUnits += cq.JoinedUnits
-		q.TrimmedCells, q.TrimmedAt = cq.TrimmedCells, cq.TrimmedAt // every shard reads every row
-		q.Excluded = append(q.Excluded, cq.Excluded...)
+		addQuality(q, c.Quality)
 		p.Units = append(p.Units, c.Units...)
 		first20 = append(first20, c.First...)
 		constancy = append(constancy, c.Constancy)
@@ -223,23 +212,9 @@ func MergeCensus(parts []*Census) (*Plan, error) {
 		order = "window"
 	}
 	q.Notes = cohort.QualityNotes(*q, order)
-	// The features: a whole read has dropped its constant features; shards keep them and tell
-	// which were constant in their own windows.
-	p.Features, p.Lowest = first.Features, first.Lowest
-	q.DroppedFeatures = first.Quality.DroppedFeatures
-	var cols []int
-	if first.Constancy != nil {
-		kept, dropped, err := cohort.KeptFeatures(first.Features, cohort.MergeConstancy(constancy), first.Files[0].Path)
-		if err != nil {
-			return nil, err
-		}
-		q.DroppedFeatures = dropped
-		p.Features, p.Lowest = kept, nil
-		for _, name := range kept {
-			j := slices.Index(first.Features, name)
-			cols = append(cols, j)
-			p.Lowest = append(p.Lowest, first.Lowest[j])
-		}
+	cols, err := planFeatures(p, first, constancy)
+	if err != nil {
+		return nil, err
 	}
 	for i, fw := range first20[:min(len(first20), firstUnits)] {
 		p.First = append(p.First, selectColumns(fw.Rows, len(first.Features), cols))
@@ -256,6 +231,46 @@ func MergeCensus(parts []*Census) (*Plan, error) {
 	}
 	p.Window, p.WindowSource = windowFromSteps(p.Steps, p.OrderKind, p.Options.Window)
 	return p, nil
+}
+
+// addQuality adds a shard's census quality to the run's.
+func addQuality(q *cohort.Quality, cq cohort.Quality) {
+	q.WindowsDropped += cq.WindowsDropped
+	q.WindowsNonWear += cq.WindowsNonWear
+	q.NonWearRule = cq.NonWearRule
+	q.WindowsInvalidDays += cq.WindowsInvalidDays
+	q.ValidDayRule = cq.ValidDayRule
+	q.WindowsExcluded += cq.WindowsExcluded
+	q.CellsImputed += cq.CellsImputed
+	q.SortedUnits += cq.SortedUnits
+	q.JoinedUnits += cq.JoinedUnits
+	q.TrimmedCells, q.TrimmedAt = cq.TrimmedCells, cq.TrimmedAt // every shard reads every row
+	q.Excluded = append(q.Excluded, cq.Excluded...)
+}
+
+// planFeatures sets the plan's features: a whole read has dropped its constant features; shards
+// keep them and tell which were constant in their own windows, and the features constant in
+// every shard are dropped here. It returns the kept features' columns in the shards' (nil: all).
+func planFeatures(p *Plan, first *Census, constancy []*cohort.Constancy) ([]int, error) {
+	q := &p.Quality
+	p.Features, p.Lowest = first.Features, first.Lowest
+	q.DroppedFeatures = first.Quality.DroppedFeatures
+	if first.Constancy == nil {
+		return nil, nil
+	}
+	kept, dropped, err := cohort.KeptFeatures(first.Features, cohort.MergeConstancy(constancy), first.Files[0].Path)
+	if err != nil {
+		return nil, err
+	}
+	var cols []int
+	q.DroppedFeatures = dropped
+	p.Features, p.Lowest = kept, nil
+	for _, name := range kept {
+		j := slices.Index(first.Features, name)
+		cols = append(cols, j)
+		p.Lowest = append(p.Lowest, first.Lowest[j])
+	}
+	return cols, nil
 }
 
 // dropTwins leaves out of the plan the features that order the first units' windows (spread:

@@ -1,7 +1,7 @@
 package job
 
 import (
-	"github.com/cohortmix/cohortmix/cohort/note"
+	"math"
 	"sort"
 	"time"
 
@@ -9,6 +9,7 @@ import (
 	"github.com/cohortmix/cohortmix/cohort"
 	"github.com/cohortmix/cohortmix/cohort/group"
 	"github.com/cohortmix/cohortmix/cohort/modelfile"
+	"github.com/cohortmix/cohortmix/cohort/note"
 	"github.com/cohortmix/cohortmix/normalize"
 	"github.com/cohortmix/cohortmix/profile"
 )
@@ -246,4 +247,51 @@ func (r *Result) GroupBouts() [][]float64 {
 		}
 	}
 	return groupstat.GroupMeansOfPositive(bouts, labels, len(r.GroupNames))
+}
+
+// CohortMeans is the mean share of each state and the mean bout length in each (over the units
+// that entered it) of all grouped units; atypical units are in no group.
+func (r *Result) CohortMeans() (share, bout []float64) {
+	shares, bouts, labels := make([][]float64, len(r.Units)), make([][]float64, len(r.Units)), make([]int, len(r.Units))
+	for i, u := range r.Units {
+		shares[i], bouts[i] = u.Share, u.Bout
+		if u.Atypical {
+			labels[i] = -1
+		}
+	}
+	means, _ := groupstat.GroupMeans(shares, labels, 1)
+	return means[0], groupstat.GroupMeansOfPositive(bouts, labels, 1)[0]
+}
+
+// StateSpread is how one state's share spreads over the grouped units: its median and 10th and
+// 90th percentiles, and the median bout length of the units that entered it (NaN where none
+// did).
+type StateSpread struct {
+	Median, P10, P90, Bout float64
+}
+
+// Spread is each state's spread over the units of the first group (with one group, every
+// grouped unit).
+func (r *Result) Spread() []StateSpread {
+	k := len(r.StateNames)
+	if len(r.Units) > 0 {
+		k = len(r.Units[0].Share)
+	}
+	out := make([]StateSpread, k)
+	for j := range out {
+		var col, bcol []float64
+		for _, u := range r.Units {
+			if u.Group == 0 && !u.Atypical {
+				col = append(col, u.Share[j])
+				if u.Bout[j] > 0 {
+					bcol = append(bcol, u.Bout[j])
+				}
+			}
+		}
+		out[j] = StateSpread{Median: groupstat.Quantile(col, 0.5), P10: groupstat.Quantile(col, 0.1), P90: groupstat.Quantile(col, 0.9), Bout: math.NaN()}
+		if len(bcol) > 0 {
+			out[j].Bout = groupstat.Quantile(bcol, 0.5)
+		}
+	}
+	return out
 }
