@@ -5,8 +5,9 @@ import (
 	"fmt"
 	"math"
 
-	"github.com/cohortmix/cohortmix/cluster/par"
 	"gonum.org/v1/gonum/mat"
+
+	"github.com/cohortmix/cohortmix/cluster/par"
 )
 
 // Sentinel causes; every error of this package wraps one of them.

@@ -4,8 +4,9 @@ import (
 	"context"
 	"fmt"
 
-	"github.com/cohortmix/cohortmix/cluster"
 	"gonum.org/v1/gonum/mat"
+
+	"github.com/cohortmix/cohortmix/cluster"
 )
 
 // Synthetic points in two tight pairs.

@@ -3,9 +3,10 @@ package cluster
 import (
 	"fmt"
 
-	"github.com/cohortmix/cohortmix/cluster/groupstat"
 	"math"
 	"slices"
+
+	"github.com/cohortmix/cohortmix/cluster/groupstat"
 
 	"gonum.org/v1/gonum/mat"
 )

@@ -6,8 +6,6 @@ import (
 	"encoding/csv"
 	"errors"
 	"fmt"
-	"github.com/cohortmix/cohortmix/cluster/par"
-	"github.com/cohortmix/cohortmix/cohort/decimal"
 	"io"
 	"math"
 	"slices"
@@ -15,6 +13,9 @@ import (
 	"strings"
 	"sync"
 	"time"
+
+	"github.com/cohortmix/cohortmix/cluster/par"
+	"github.com/cohortmix/cohortmix/cohort/decimal"
 )
 
 // The body of a table (everything after its first window) is parsed in chunks of whole lines,

@@ -3,13 +3,14 @@ package cohort
 import (
 	"context"
 	"fmt"
-	"github.com/cohortmix/cohortmix/cohort/note"
 	"math"
 	"math/rand/v2"
 	"slices"
 	"strings"
 	"testing"
 	"time"
+
+	"github.com/cohortmix/cohortmix/cohort/note"
 )
 
 // minutes builds window start times, one every step, and counts from runs of (value, windows).

@@ -12,10 +12,11 @@ import (
 	"strings"
 	"time"
 
-	"github.com/cohortmix/cohortmix/cluster/par"
-	"github.com/cohortmix/cohortmix/cohort/pqframe"
 	"github.com/parquet-go/parquet-go"
 	"github.com/parquet-go/parquet-go/format"
+
+	"github.com/cohortmix/cohortmix/cluster/par"
+	"github.com/cohortmix/cohortmix/cohort/pqframe"
 )
 
 // readParquet reads a flat Parquet file (github.com/parquet-go/parquet-go) row group by row

@@ -11,7 +11,6 @@ import (
 	"encoding/hex"
 	"errors"
 	"fmt"
-	"github.com/cohortmix/cohortmix/cohort/note"
 	"hash"
 	"io"
 	"math"
@@ -24,6 +23,8 @@ import (
 	"strings"
 	"sync/atomic"
 	"time"
+
+	"github.com/cohortmix/cohortmix/cohort/note"
 
 	"github.com/cohortmix/cohortmix/cluster/groupstat"
 )
@@ -163,7 +164,7 @@ type Exclusion struct {
 	ID, Wave string
 	Ordinal  int // as Unit.Ordinal
 	Windows  int
-	Reason   string
+	Reason   note.Note // one of the Excluded kinds
 }
 
 // readTuning is how the reader cuts its work (ReadOptions.tuning); the zero value is the
@@ -223,6 +224,23 @@ const (
 	NoteSorted note.Kind = "cohort.sorted"
 	// NoteJoined: Ints[0] participants had windows in more than one file, which were joined.
 	NoteJoined note.Kind = "cohort.joined"
+)
+
+// The kinds of the reasons a participant is excluded (Exclusion.Reason).
+const (
+	// ExcludedFewWindows: Ints[0] usable windows, fewer than the minimum Ints[1]
+	// (ReadOptions.MinWindows); Ints[2] were dropped for missing cells and Ints[3] left out as
+	// non-wear.
+	ExcludedFewWindows note.Kind = "cohort.excluded.few-windows"
+	// ExcludedAllMissing: the feature Names[0] is missing in every window, so it cannot be
+	// imputed.
+	ExcludedAllMissing note.Kind = "cohort.excluded.all-missing"
+	// ExcludedFewValidDays: Ints[0] valid days (Floats[0] hours or more of wear), fewer than the
+	// Ints[1] required (ReadOptions.ValidDays).
+	ExcludedFewValidDays note.Kind = "cohort.excluded.few-valid-days"
+	// ExcludedNoWeekendDay: no valid weekend day among the Ints[0] valid days
+	// (ReadOptions.WeekendDay).
+	ExcludedNoWeekendDay note.Kind = "cohort.excluded.no-weekend-day"
 )
 
 // QualityNotes are the notes of Quality.Notes on non-wear, valid days, trimmed cells and sorted
@@ -1455,17 +1473,17 @@ func (f *finisher) unit(ru *rawUnit) error {
 		}
 	}
 	var invalidDay []bool
-	short := ""
+	var short note.Note
 	if f.wr != nil {
 		invalidDay, u.Wear, short = f.wr.wearDays(times, nonWear, medianStep(times))
 	}
 	kept := 0
 	reason := f.keep(ru, u, idx, nonWear, invalidDay)
-	if reason == "" {
+	if reason.Kind == "" {
 		kept = len(f.clean) / f.w
 		reason = f.shortOf(u, kept, short)
 	}
-	if reason != "" {
+	if reason.Kind != "" {
 		q.Excluded = append(q.Excluded, Exclusion{ID: u.ID, Wave: u.Wave, Ordinal: u.Ordinal, Windows: n, Reason: reason})
 		q.WindowsExcluded += n
 		return nil
@@ -1488,7 +1506,7 @@ func (f *finisher) inPlace(ru *rawUnit, u *Unit) {
 	r, t, q, n := f.r, f.t, &f.t.Quality, ru.n
 	if n < r.opts.MinWindows {
 		q.Excluded = append(q.Excluded, Exclusion{ID: u.ID, Wave: u.Wave, Ordinal: u.Ordinal, Windows: n,
-			Reason: fmt.Sprintf("%d usable windows, fewer than the minimum %d (cohort.ReadOptions.MinWindows)", n, r.opts.MinWindows)})
+			Reason: note.Note{Kind: ExcludedFewWindows, Ints: []int{n, r.opts.MinWindows, 0, 0}, Option: "cohort.ReadOptions.MinWindows"}})
 		q.WindowsExcluded += n
 		return
 	}
@@ -1501,24 +1519,17 @@ func (f *finisher) inPlace(ru *rawUnit, u *Unit) {
 }
 
 // shortOf is the reason a unit with this many windows kept falls short: of valid days (short,
-// from the valid-day rule), or of windows; "" when it does not.
-func (f *finisher) shortOf(u *Unit, kept int, short string) string {
-	if short != "" {
+// from the valid-day rule), or of windows; no note (an empty Kind) when it does not.
+func (f *finisher) shortOf(u *Unit, kept int, short note.Note) note.Note {
+	if short.Kind != "" {
 		f.shortUnits++
 		f.mostDays = max(f.mostDays, u.Wear.ValidDays)
 		return short
 	}
 	if kept >= f.r.opts.MinWindows {
-		return ""
+		return note.Note{}
 	}
-	reason := fmt.Sprintf("%d usable windows, fewer than the minimum %d (cohort.ReadOptions.MinWindows)", kept, f.r.opts.MinWindows)
-	if u.Dropped > 0 {
-		reason += fmt.Sprintf("; %d dropped for missing cells", u.Dropped)
-	}
-	if u.NonWear > 0 {
-		reason += fmt.Sprintf("; %d left out as non-wear", u.NonWear)
-	}
-	return reason
+	return note.Note{Kind: ExcludedFewWindows, Ints: []int{kept, f.r.opts.MinWindows, u.Dropped, u.NonWear}, Option: "cohort.ReadOptions.MinWindows"}
 }
 
 // ord is the order key of window i of the unit read into f.x.
@@ -1586,14 +1597,14 @@ func (f *finisher) nonWear(ru *rawUnit, idx []int, times []int64) ([]bool, error
 // invalid day, and with no missing cell, or with each missing cell imputed by the unit's
 // median of the feature; it counts what it leaves out and imputes, and returns a reason to
 // exclude the unit when a feature is missing in every window and cannot be imputed.
-func (f *finisher) keep(ru *rawUnit, u *Unit, idx []int, nonWear, invalidDay []bool) string {
+func (f *finisher) keep(ru *rawUnit, u *Unit, idx []int, nonWear, invalidDay []bool) note.Note {
 	d, w := f.d, f.w
 	var med []float64
 	if f.r.opts.Missing == ImputeMedian && ru.missing > 0 {
 		med = columnMedians(f.x, d, w)
 	}
 	f.clean = f.clean[:0]
-	reason := ""
+	var reason note.Note
 	for k, i := range idx {
 		if nonWear != nil && nonWear[k] {
 			u.NonWear++
@@ -1619,7 +1630,7 @@ func (f *finisher) keep(ru *rawUnit, u *Unit, idx []int, nonWear, invalidDay []b
 			for j, v := range row[:d] {
 				if math.IsNaN(v) {
 					if math.IsNaN(med[j]) {
-						reason = fmt.Sprintf("feature %s is missing in every window, so it cannot be imputed", f.r.features[j])
+						reason = note.Note{Kind: ExcludedAllMissing, Names: []string{f.r.features[j]}}
 					}
 					u.Imputed++
 					f.clean[start+j] = med[j]

@@ -5,6 +5,7 @@ import (
 	"time"
 
 	"github.com/cohortmix/cohortmix/cohort/clock"
+	"github.com/cohortmix/cohortmix/cohort/note"
 )
 
 // The valid-day rule of a wear-time protocol (common practice in accelerometry since the
@@ -58,8 +59,8 @@ func (o ReadOptions) wearRule(nonWear, orderKind string, naive bool) (*wearRule,
 // wearDays applies the rule to one participant's windows: times are their start times (Unix ns,
 // increasing), nonWear marks the windows left out as non-wear (nil: none) and step is the time a
 // window stands for. It returns the windows that fall on days that are not valid, the
-// participant's wear by day, and why the participant falls short ("" when it does not).
-func (w *wearRule) wearDays(times []int64, nonWear []bool, step time.Duration) ([]bool, Wear, string) {
+// participant's wear by day, and why the participant falls short (no note when it does not).
+func (w *wearRule) wearDays(times []int64, nonWear []bool, step time.Duration) ([]bool, Wear, note.Note) {
 	type day struct {
 		key     int64
 		date    string
@@ -103,11 +104,11 @@ func (w *wearRule) wearDays(times []int64, nonWear []bool, step time.Duration) (
 	}
 	switch {
 	case out.ValidDays < w.days:
-		return invalid, out, fmt.Sprintf("%d valid days (%s or more of wear), fewer than the %d required (cohort.ReadOptions.ValidDays)", out.ValidDays, hoursText(w.day), w.days)
+		return invalid, out, note.Note{Kind: ExcludedFewValidDays, Ints: []int{out.ValidDays, w.days}, Floats: []float64{w.day.Hours()}, Option: "cohort.ReadOptions.ValidDays"}
 	case w.weekend && !out.WeekendOK:
-		return invalid, out, fmt.Sprintf("no valid weekend day among its %d valid days (cohort.ReadOptions.WeekendDay)", out.ValidDays)
+		return invalid, out, note.Note{Kind: ExcludedNoWeekendDay, Ints: []int{out.ValidDays}, Option: "cohort.ReadOptions.WeekendDay"}
 	}
-	return invalid, out, ""
+	return invalid, out, note.Note{}
 }
 
 // hoursText is a duration in hours, as "10 h".

@@ -4,11 +4,12 @@ import (
 	"context"
 	"errors"
 	"fmt"
-	"github.com/cohortmix/cohortmix/cohort/note"
 	"slices"
 	"strings"
 	"testing"
 	"time"
+
+	"github.com/cohortmix/cohortmix/cohort/note"
 )
 
 // wearDay is one day of a planted recording: hours of wear, then the device off (zero counts)
@@ -64,12 +65,12 @@ func TestValidDays(t *testing.T) {
 		name     string
 		opts     ReadOptions
 		kept     []string
-		excluded map[string]string // id: a phrase of the reason
+		excluded map[string]note.Note // id: the reason's kind and counts
 	}{
 		{"four valid days", ReadOptions{NonWear: NonWearChoi, ValidDay: DefaultValidDay, TimeZone: "Europe/Berlin"},
-			[]string{"A", "C", "D"}, map[string]string{"B": "3 valid days (10 h or more of wear), fewer than the 4 required"}},
+			[]string{"A", "C", "D"}, map[string]note.Note{"B": {Kind: ExcludedFewValidDays, Ints: []int{3, 4}, Floats: []float64{10}}}},
 		{"a weekend day too", ReadOptions{NonWear: NonWearChoi, ValidDay: DefaultValidDay, WeekendDay: true, TimeZone: "Europe/Berlin"},
-			[]string{"A", "D"}, map[string]string{"B": "3 valid days", "C": "no valid weekend day among its 5 valid days"}},
+			[]string{"A", "D"}, map[string]note.Note{"B": {Kind: ExcludedFewValidDays, Ints: []int{3, 4}, Floats: []float64{10}}, "C": {Kind: ExcludedNoWeekendDay, Ints: []int{5}}}},
 		{"a 24-hour protocol", ReadOptions{NonWear: NonWearChoi, ValidDay: 16 * time.Hour, ValidDays: 1, TimeZone: "Europe/Berlin"},
 			nil, nil}, // nobody wears it 16 h: refused with advice
 		{"auto without a non-wear rule", ReadOptions{ValidDay: DefaultValidDay, ValidDayAuto: true},
@@ -97,8 +98,8 @@ func TestValidDays(t *testing.T) {
 				t.Errorf("kept %v, want %v", kept, tc.kept)
 			}
 			for _, e := range tab.Quality.Excluded {
-				if want := tc.excluded[e.ID]; want == "" || !strings.Contains(e.Reason, want) {
-					t.Errorf("%s excluded: %q, want %q", e.ID, e.Reason, want)
+				if want, got := tc.excluded[e.ID], e.Reason; got.Kind != want.Kind || !slices.Equal(got.Ints, want.Ints) || !slices.Equal(got.Floats, want.Floats) {
+					t.Errorf("%s excluded: %+v, want %+v", e.ID, got, want)
 				}
 			}
 			q := tab.Quality

@@ -2,6 +2,7 @@ package normalize
 
 import (
 	"context"
+
 	"github.com/cohortmix/cohortmix/cluster/par"
 )
 

@@ -32,9 +32,10 @@ import (
 	"strings"
 	"sync"
 
+	"gonum.org/v1/gonum/mat"
+
 	"github.com/cohortmix/cohortmix/cluster"
 	"github.com/cohortmix/cohortmix/cluster/groupstat"
-	"gonum.org/v1/gonum/mat"
 )
 
 // ErrOption is wrapped by errors about options; ErrData by errors about the data.

@@ -7,11 +7,12 @@ import (
 	"math"
 	"slices"
 
+	"gonum.org/v1/gonum/mat"
+
 	"github.com/cohortmix/cohortmix/cluster"
 	"github.com/cohortmix/cohortmix/cluster/groupstat"
 	"github.com/cohortmix/cohortmix/cluster/par"
 	"github.com/cohortmix/cohortmix/normalize"
-	"gonum.org/v1/gonum/mat"
 )
 
 // AlignOptions sets up FitAligned. Zero values take the documented defaults.

@@ -32,10 +32,11 @@ import (
 	"slices"
 	"sort"
 
+	"gonum.org/v1/gonum/mat"
+
 	"github.com/cohortmix/cohortmix/cluster"
 	"github.com/cohortmix/cohortmix/cluster/par"
 	"github.com/cohortmix/cohortmix/normalize"
-	"gonum.org/v1/gonum/mat"
 )
 
 // ErrOption is wrapped by errors about options; ErrData by errors about the data.

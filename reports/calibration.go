@@ -3,8 +3,9 @@ package reports
 import (
 	"io"
 
-	"github.com/cohortmix/cohortmix/cohort/raw"
 	"github.com/xuri/excelize/v2"
+
+	"github.com/cohortmix/cohortmix/cohort/raw"
 )
 
 // SheetDevices is the sheet of the features step's report: each participant's recording and

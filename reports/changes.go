@@ -5,10 +5,11 @@ import (
 	"sort"
 	"strings"
 
+	"github.com/xuri/excelize/v2"
+
 	"github.com/cohortmix/cohortmix/cohort"
 	"github.com/cohortmix/cohortmix/cohort/group"
 	"github.com/cohortmix/cohortmix/cohort/job"
-	"github.com/xuri/excelize/v2"
 )
 
 // SheetChanges compares a run with the model it started from.

@@ -5,8 +5,9 @@ import (
 	"math"
 	"sort"
 
-	"github.com/cohortmix/cohortmix/cohort/group"
 	"github.com/xuri/excelize/v2"
+
+	"github.com/cohortmix/cohortmix/cohort/group"
 )
 
 // SheetCharts holds the pictures and the small tables they are drawn from.

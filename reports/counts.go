@@ -2,11 +2,12 @@ package reports
 
 import (
 	"fmt"
-	"github.com/cohortmix/cohortmix/cohort"
-	"github.com/cohortmix/cohortmix/cohort/job"
 	"sort"
 	"strconv"
 	"strings"
+
+	"github.com/cohortmix/cohortmix/cohort"
+	"github.com/cohortmix/cohortmix/cohort/job"
 )
 
 // UnitWord is "participant" or, with waves, "participant-wave", in the singular or plural.

@@ -35,7 +35,7 @@ func MembersTo(w io.Writer, r *Result) error {
 		}
 	}
 	for _, e := range r.Quality.Excluded {
-		if err := cw.Write([]string{SafeCell(e.ID), SafeCell(e.Wave), "", "", "", "excluded: " + e.Reason}); err != nil {
+		if err := cw.Write([]string{SafeCell(e.ID), SafeCell(e.Wave), "", "", "", "excluded: " + NoteWords(r, e.Reason)}); err != nil {
 			return err
 		}
 	}

@@ -52,6 +52,21 @@ func noteText(n note.Note) string {
 		return fmt.Sprintf("windows of %d participants were not in order in the input and were sorted by %s", i(0), name(0))
 	case cohort.NoteJoined:
 		return fmt.Sprintf("%d participants had windows in more than one file; their windows were joined", i(0))
+	case cohort.ExcludedFewWindows:
+		text := fmt.Sprintf("%d usable windows, fewer than the minimum %d (%s)", i(0), i(1), option)
+		if i(2) > 0 {
+			text += fmt.Sprintf("; %d dropped for missing cells", i(2))
+		}
+		if i(3) > 0 {
+			text += fmt.Sprintf("; %d left out as non-wear", i(3))
+		}
+		return text
+	case cohort.ExcludedAllMissing:
+		return fmt.Sprintf("feature %s is missing in every window, so it cannot be imputed", name(0))
+	case cohort.ExcludedFewValidDays:
+		return fmt.Sprintf("%d valid days (%g h or more of wear), fewer than the %d required (%s)", i(0), x(0), i(1), option)
+	case cohort.ExcludedNoWeekendDay:
+		return fmt.Sprintf("no valid weekend day among its %d valid days (%s)", i(0), option)
 	case job.NoteGroupsCapped:
 		return fmt.Sprintf("with %d participants, up to %d groups were tried, of the up to %d asked for", i(0), i(1), i(2))
 	case group.NoteAutoKMeans:

@@ -6,7 +6,6 @@ import (
 	"encoding/csv"
 	"encoding/json"
 	"errors"
-	"github.com/cohortmix/cohortmix/cohort/note"
 	"image/color"
 	"image/png"
 	"io"
@@ -20,6 +19,11 @@ import (
 	"testing"
 	"time"
 
+	"github.com/cohortmix/cohortmix/cohort/note"
+
+	"github.com/xuri/excelize/v2"
+	"gonum.org/v1/gonum/mat"
+
 	"github.com/cohortmix/cohortmix/cluster"
 	"github.com/cohortmix/cohortmix/cohort"
 	"github.com/cohortmix/cohortmix/cohort/group"
@@ -28,8 +32,6 @@ import (
 	"github.com/cohortmix/cohortmix/cohort/scratch"
 	"github.com/cohortmix/cohortmix/normalize"
 	"github.com/cohortmix/cohortmix/profile"
-	"github.com/xuri/excelize/v2"
-	"gonum.org/v1/gonum/mat"
 )
 
 // fixture is a small invented result with n participants in three groups and four states.
@@ -45,7 +47,7 @@ func fixture(t testing.TB, n int, id func(i int) string) *Result {
 		States:     &profile.States{K: k, Centroids: mat.NewDense(k, 3, []float64{0, 0, 0, 1, 0, 0, 0, 1, 0, 0, 0, 1}), Rule: "fixed", Sampled: 100, Candidates: []profile.Candidate{{K: 3, Silhouette: 0.6, CalinskiHarabasz: 90, DaviesBouldin: 0.8}, {K: 4, Silhouette: 0.5, CalinskiHarabasz: 100, DaviesBouldin: 0.7}}},
 		StateNames: []string{"S1", "S2", "S3", "S4"},
 		GroupNames: []string{"G1", "G2", "G3"},
-		Quality:    cohort.Quality{UnitsIn: n + 1, WindowsIn: n*10 + 3, WindowsExcluded: 3, Excluded: []cohort.Exclusion{{ID: "@excluded", Windows: 3, Reason: "3 usable windows"}}},
+		Quality:    cohort.Quality{UnitsIn: n + 1, WindowsIn: n*10 + 3, WindowsExcluded: 3, Excluded: []cohort.Exclusion{{ID: "@excluded", Windows: 3, Reason: note.Note{Kind: cohort.ExcludedFewWindows, Ints: []int{3, 5, 0, 0}, Option: "cohort.ReadOptions.MinWindows"}}}},
 		Settings:   []modelfile.Setting{{Name: "seed", Value: "1"}, {Name: "within-participant step", Value: "rest"}},
 	}
 	for s := 0; s < k; s++ {

@@ -5,10 +5,11 @@ import (
 	"math"
 	"strings"
 
+	"github.com/xuri/excelize/v2"
+
 	"github.com/cohortmix/cohortmix/cohort"
 	"github.com/cohortmix/cohortmix/cohort/group"
 	"github.com/cohortmix/cohortmix/cohort/job"
-	"github.com/xuri/excelize/v2"
 )
 
 // summarySheet is the first screen, for a clinician reading without the analyst: what the

@@ -3,8 +3,9 @@ package reports
 import (
 	"fmt"
 
-	"github.com/cohortmix/cohortmix/profile"
 	"github.com/xuri/excelize/v2"
+
+	"github.com/cohortmix/cohortmix/profile"
 )
 
 // SheetTimeOfDay shows when in the day and week each group moves, where the windows have times.

@@ -6,15 +6,17 @@ import (
 	"math"
 	"slices"
 
+	"strconv"
+	"strings"
+
+	"github.com/xuri/excelize/v2"
+
 	"github.com/cohortmix/cohortmix/cohort"
 	"github.com/cohortmix/cohortmix/cohort/group"
 	"github.com/cohortmix/cohortmix/cohort/job"
 	"github.com/cohortmix/cohortmix/cohort/raw"
 	"github.com/cohortmix/cohortmix/cohort/scratch"
 	"github.com/cohortmix/cohortmix/profile"
-	"github.com/xuri/excelize/v2"
-	"strconv"
-	"strings"
 )
 
 // Sheet names, in the order of the tabs.
@@ -799,7 +801,7 @@ func qualityLeftOut(t *table, st *styles, r *Result) error {
 		return err
 	}
 	for _, e := range q.Excluded {
-		if err := t.put(v{e.ID, st.text}, v{e.Wave, st.text}, v{e.Windows, st.integer}, v{"", st.text}, v{e.Reason, st.wrap}); err != nil {
+		if err := t.put(v{e.ID, st.text}, v{e.Wave, st.text}, v{e.Windows, st.integer}, v{"", st.text}, v{NoteWords(r, e.Reason), st.wrap}); err != nil {
 			return err
 		}
 	}

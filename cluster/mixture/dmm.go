@@ -6,9 +6,10 @@ import (
 	"math"
 	"math/rand/v2"
 
+	"gonum.org/v1/gonum/mat"
+
 	"github.com/cohortmix/cohortmix/cluster"
 	"github.com/cohortmix/cohortmix/cluster/par"
-	"gonum.org/v1/gonum/mat"
 )
 
 // DMMOptions sets up FitDMM. Zero values take the documented defaults.

@@ -4,8 +4,9 @@ import (
 	"context"
 	"fmt"
 
-	"github.com/cohortmix/cohortmix/cluster/mixture"
 	"gonum.org/v1/gonum/mat"
+
+	"github.com/cohortmix/cohortmix/cluster/mixture"
 )
 
 // Six participants' windows in three movement states, synthetic: two who sit most of the time

@@ -5,9 +5,10 @@ import (
 	"fmt"
 	"math"
 
+	"gonum.org/v1/gonum/mat"
+
 	"github.com/cohortmix/cohortmix/cluster"
 	"github.com/cohortmix/cohortmix/cluster/par"
-	"gonum.org/v1/gonum/mat"
 )
 
 // GaussianOptions sets up FitTiedGaussian. Zero values take the documented defaults.

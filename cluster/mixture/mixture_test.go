@@ -7,8 +7,9 @@ import (
 	"math/rand/v2"
 	"testing"
 
-	"github.com/cohortmix/cohortmix/cluster"
 	"gonum.org/v1/gonum/mat"
+
+	"github.com/cohortmix/cohortmix/cluster"
 )
 
 // dirichletCounts draws rows of multinomial counts (size draws each) whose proportions come

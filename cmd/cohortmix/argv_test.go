@@ -4,12 +4,14 @@ import (
 	"fmt"
 
 	"context"
-	"github.com/cohortmix/cohortmix/cohort/job"
 	"testing"
 	"time"
 
-	"github.com/cohortmix/cohortmix/cohort"
+	"github.com/cohortmix/cohortmix/cohort/job"
+
 	"github.com/spf13/cobra"
+
+	"github.com/cohortmix/cohortmix/cohort"
 )
 
 // execute runs one command built with a runF hook on argv, so that the options it would run

@@ -3,17 +3,19 @@ package main
 import (
 	"context"
 	"fmt"
-	"github.com/cohortmix/cohortmix/cohort/job"
 	"io"
 	"path/filepath"
 	"slices"
 	"strings"
 	"time"
 
+	"github.com/cohortmix/cohortmix/cohort/job"
+
+	"github.com/spf13/cobra"
+
 	"github.com/cohortmix/cohortmix/cohort"
 	"github.com/cohortmix/cohortmix/cohort/modelfile"
 	"github.com/cohortmix/cohortmix/reports"
-	"github.com/spf13/cobra"
 )
 
 type assignOptions struct {

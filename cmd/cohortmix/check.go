@@ -5,10 +5,11 @@ import (
 	"fmt"
 	"time"
 
+	"github.com/spf13/cobra"
+
 	"github.com/cohortmix/cohortmix/cohort"
 	"github.com/cohortmix/cohortmix/cohort/job"
 	"github.com/cohortmix/cohortmix/reports"
-	"github.com/spf13/cobra"
 )
 
 type checkOptions struct {
@@ -81,7 +82,7 @@ func checkRun(ctx context.Context, o *checkOptions) error {
 	fmt.Fprintf(o.IO.Out, "%d participants: %d usable, %d excluded\n", q.UnitsIn, len(t.Units), len(q.Excluded))
 	fmt.Fprintf(o.IO.Out, "%d features: %v\n", len(t.Features), t.Features)
 	for _, e := range q.Excluded {
-		fmt.Fprintf(o.IO.Out, "  excluded %s%s: %s\n", e.ID, waveNote(e.Wave), userWords(e.Reason))
+		fmt.Fprintf(o.IO.Out, "  excluded %s%s: %s\n", e.ID, waveNote(e.Wave), userWords(reports.NoteWords(nil, e.Reason)))
 	}
 	for _, n := range append(q.DroppedFeatures, q.IgnoredColumns...) {
 		fmt.Fprintf(o.IO.Out, "  not used %s: %s\n", n.Name, userWords(n.Reason))

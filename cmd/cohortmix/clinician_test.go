@@ -6,8 +6,9 @@ import (
 	"strings"
 	"testing"
 
-	"github.com/cohortmix/cohortmix/cohort/synth"
 	"github.com/xuri/excelize/v2"
+
+	"github.com/cohortmix/cohortmix/cohort/synth"
 )
 
 // The workbook a clinician is handed reads without the analyst: a Summary in plain words with a

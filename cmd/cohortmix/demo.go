@@ -10,11 +10,12 @@ import (
 	"strconv"
 	"time"
 
+	"github.com/spf13/cobra"
+
 	"github.com/cohortmix/cohortmix/cluster"
 	"github.com/cohortmix/cohortmix/cohort/pseudonym"
 	"github.com/cohortmix/cohortmix/cohort/scratch"
 	"github.com/cohortmix/cohortmix/cohort/synth"
-	"github.com/spf13/cobra"
 )
 
 type demoOptions struct {

@@ -9,10 +9,11 @@ import (
 	"strings"
 	"time"
 
+	"github.com/spf13/cobra"
+
 	"github.com/cohortmix/cohortmix/cohort"
 	"github.com/cohortmix/cohortmix/cohort/raw"
 	"github.com/cohortmix/cohortmix/reports"
-	"github.com/spf13/cobra"
 )
 
 type featuresOptions struct {

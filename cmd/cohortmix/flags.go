@@ -2,20 +2,22 @@ package main
 
 import (
 	"fmt"
-	"github.com/cohortmix/cohortmix/cohort/job"
 	"path/filepath"
 	"strconv"
 	"strings"
 	"time"
+
+	"github.com/cohortmix/cohortmix/cohort/job"
+
+	"github.com/schollz/progressbar/v3"
+	"github.com/spf13/cobra"
+	"github.com/spf13/pflag"
 
 	"github.com/cohortmix/cohortmix/cohort"
 	"github.com/cohortmix/cohortmix/cohort/group"
 	"github.com/cohortmix/cohortmix/cohort/modelfile"
 	"github.com/cohortmix/cohortmix/normalize"
 	"github.com/cohortmix/cohortmix/profile"
-	"github.com/schollz/progressbar/v3"
-	"github.com/spf13/cobra"
-	"github.com/spf13/pflag"
 )
 
 // parseRange reads "6" or "2-8" into the increasing list of candidates.

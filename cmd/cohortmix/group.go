@@ -3,19 +3,21 @@ package main
 import (
 	"context"
 	"fmt"
-	"github.com/cohortmix/cohortmix/cohort/job"
 	"io"
 	"path/filepath"
 	"sort"
 	"strings"
 	"time"
 
+	"github.com/cohortmix/cohortmix/cohort/job"
+
+	"github.com/spf13/cobra"
+	"github.com/spf13/pflag"
+
 	"github.com/cohortmix/cohortmix/cohort"
 	"github.com/cohortmix/cohortmix/cohort/modelfile"
 	"github.com/cohortmix/cohortmix/cohort/pseudonym"
 	"github.com/cohortmix/cohortmix/reports"
-	"github.com/spf13/cobra"
-	"github.com/spf13/pflag"
 )
 
 type groupOptions struct {

@@ -4,7 +4,6 @@ import (
 	"bytes"
 	"context"
 	"encoding/csv"
-	"github.com/cohortmix/cohortmix/cohort/job"
 	"os"
 	"path/filepath"
 	"strconv"
@@ -12,12 +11,15 @@ import (
 	"testing"
 	"time"
 
+	"github.com/cohortmix/cohortmix/cohort/job"
+
+	"github.com/spf13/cobra"
+	"github.com/xuri/excelize/v2"
+
 	"github.com/cohortmix/cohortmix/cluster"
 	"github.com/cohortmix/cohortmix/cohort/group"
 	"github.com/cohortmix/cohortmix/cohort/synth"
 	"github.com/cohortmix/cohortmix/normalize"
-	"github.com/spf13/cobra"
-	"github.com/xuri/excelize/v2"
 )
 
 func testEnv() (*Env, *bytes.Buffer, *bytes.Buffer) {

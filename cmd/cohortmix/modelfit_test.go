@@ -8,10 +8,11 @@ import (
 	"strings"
 	"testing"
 
-	"github.com/cohortmix/cohortmix/cohort/modelfile"
-	"github.com/cohortmix/cohortmix/cohort/synth"
 	"github.com/spf13/cobra"
 	"github.com/spf13/pflag"
+
+	"github.com/cohortmix/cohortmix/cohort/modelfile"
+	"github.com/cohortmix/cohortmix/cohort/synth"
 )
 
 // The model keeps the fit's settings typed (modelfile.FitSettings), and refresh turns them back into

@@ -3,18 +3,20 @@ package main
 import (
 	"context"
 	"encoding/json"
-	"github.com/cohortmix/cohortmix/cohort/job"
 	"math"
 	"os"
 	"testing"
+
+	"github.com/cohortmix/cohortmix/cohort/job"
+
+	"gonum.org/v1/gonum/floats/scalar"
+	"gonum.org/v1/gonum/mat"
 
 	"github.com/cohortmix/cohortmix/cluster"
 	"github.com/cohortmix/cohortmix/cohort"
 	"github.com/cohortmix/cohortmix/cohort/group"
 	"github.com/cohortmix/cohortmix/normalize"
 	"github.com/cohortmix/cohortmix/profile"
-	"gonum.org/v1/gonum/floats/scalar"
-	"gonum.org/v1/gonum/mat"
 )
 
 // The stages of the main job against numpy, scipy and scikit-learn (Debian's python3-sklearn

@@ -6,8 +6,6 @@ import (
 	"encoding/json"
 	"flag"
 	"fmt"
-	"github.com/cohortmix/cohortmix/cohort/job"
-	"gonum.org/v1/gonum/mat"
 	"maps"
 	"math"
 	"os"
@@ -16,11 +14,16 @@ import (
 	"strings"
 	"testing"
 
+	"gonum.org/v1/gonum/mat"
+
+	"github.com/cohortmix/cohortmix/cohort/job"
+
+	"github.com/spf13/cobra"
+
 	"github.com/cohortmix/cohortmix/cluster"
 	"github.com/cohortmix/cohortmix/cohort"
 	"github.com/cohortmix/cohortmix/cohort/group"
 	"github.com/cohortmix/cohortmix/cohort/synth"
-	"github.com/spf13/cobra"
 )
 
 // The recovery benchmark: the whole job on members of the scenario family (synth.DrawScenario),

@@ -3,13 +3,15 @@ package main
 import (
 	"context"
 	"fmt"
-	"github.com/cohortmix/cohortmix/cohort/job"
 	"strconv"
 	"strings"
 	"time"
 
-	"github.com/cohortmix/cohortmix/cohort/modelfile"
+	"github.com/cohortmix/cohortmix/cohort/job"
+
 	"github.com/spf13/cobra"
+
+	"github.com/cohortmix/cohortmix/cohort/modelfile"
 )
 
 type refreshOptions struct {

@@ -3,10 +3,11 @@ package main
 import (
 	"context"
 	"fmt"
-	"github.com/cohortmix/cohortmix/cohort/job"
 	"path/filepath"
 	"strings"
 	"testing"
+
+	"github.com/cohortmix/cohortmix/cohort/job"
 
 	"github.com/cohortmix/cohortmix/cluster"
 	"github.com/cohortmix/cohortmix/cohort/synth"

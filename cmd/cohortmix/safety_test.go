@@ -6,7 +6,6 @@ import (
 	"context"
 	"encoding/csv"
 	"fmt"
-	"github.com/cohortmix/cohortmix/cohort/job"
 	"io"
 	"os"
 	"os/exec"
@@ -16,8 +15,11 @@ import (
 	"strings"
 	"testing"
 
-	"github.com/cohortmix/cohortmix/cohort/synth"
+	"github.com/cohortmix/cohortmix/cohort/job"
+
 	"github.com/xuri/excelize/v2"
+
+	"github.com/cohortmix/cohortmix/cohort/synth"
 )
 
 // runCode runs cohortmix in-process and returns its exit code and the one-line error it printed.

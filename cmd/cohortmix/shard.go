@@ -10,11 +10,12 @@ import (
 	"strings"
 	"time"
 
+	"github.com/spf13/cobra"
+
 	"github.com/cohortmix/cohortmix/cohort"
 	"github.com/cohortmix/cohortmix/cohort/job"
 	"github.com/cohortmix/cohortmix/cohort/pseudonym"
 	"github.com/cohortmix/cohortmix/reports"
-	"github.com/spf13/cobra"
 )
 
 // shardOptions are the settings of one step of a run split in shards.

@@ -7,9 +7,10 @@ import (
 	"strings"
 	"time"
 
+	"github.com/spf13/cobra"
+
 	"github.com/cohortmix/cohortmix/cohort/scratch"
 	"github.com/cohortmix/cohortmix/cohort/synth"
-	"github.com/spf13/cobra"
 )
 
 type synthOptions struct {

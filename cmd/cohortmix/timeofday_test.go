@@ -7,9 +7,10 @@ import (
 	"strings"
 	"testing"
 
+	"github.com/xuri/excelize/v2"
+
 	"github.com/cohortmix/cohortmix/cluster"
 	"github.com/cohortmix/cohortmix/cohort/synth"
-	"github.com/xuri/excelize/v2"
 )
 
 // Issue 30, point 6, from the command line: --signature day-parts finds the larks and the owls

@@ -13,10 +13,11 @@ import (
 	"testing"
 	"time"
 
+	"github.com/xuri/excelize/v2"
+
 	"github.com/cohortmix/cohortmix/cluster"
 	"github.com/cohortmix/cohortmix/cohort/modelfile"
 	"github.com/cohortmix/cohortmix/cohort/synth"
-	"github.com/xuri/excelize/v2"
 )
 
 // readMembers returns participant → group from a members CSV.

@@ -72,9 +72,6 @@ func userWords(s string) string {
 // inFlagWords names the options by their flags in every text of a result that reaches a reader.
 func inFlagWords(r *reports.Result) {
 	q := &r.Quality
-	for i := range q.Excluded {
-		q.Excluded[i].Reason = flagWords(q.Excluded[i].Reason)
-	}
 	for _, notes := range [][]cohort.Note{q.IgnoredColumns, q.DroppedFeatures} {
 		for i := range notes {
 			notes[i].Reason = flagWords(notes[i].Reason)

@@ -9,12 +9,13 @@ import (
 	"sort"
 	"strings"
 
+	"gonum.org/v1/gonum/mat"
+
 	"github.com/cohortmix/cohortmix/cluster"
 	"github.com/cohortmix/cohortmix/cluster/mixture"
 	"github.com/cohortmix/cohortmix/cluster/par"
 	"github.com/cohortmix/cohortmix/cohort"
 	"github.com/cohortmix/cohortmix/cohort/note"
-	"gonum.org/v1/gonum/mat"
 )
 
 // Method is how participants are grouped on their signatures.

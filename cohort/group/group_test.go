@@ -2,7 +2,6 @@ package group
 
 import (
 	"context"
-	"github.com/cohortmix/cohortmix/cohort/note"
 	"math"
 	"math/rand/v2"
 	"reflect"
@@ -10,9 +9,12 @@ import (
 	"strings"
 	"testing"
 
+	"github.com/cohortmix/cohortmix/cohort/note"
+
+	"gonum.org/v1/gonum/mat"
+
 	"github.com/cohortmix/cohortmix/cluster"
 	"github.com/cohortmix/cohortmix/cohort"
-	"gonum.org/v1/gonum/mat"
 )
 
 // plantedShares draws n signatures over five states around g planted mixtures (synthetic).

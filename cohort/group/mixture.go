@@ -7,12 +7,13 @@ import (
 	"math/rand/v2"
 	"slices"
 
+	"gonum.org/v1/gonum/mat"
+
 	"github.com/cohortmix/cohortmix/cluster"
 	"github.com/cohortmix/cohortmix/cluster/mixture"
 	"github.com/cohortmix/cohortmix/cluster/par"
 	"github.com/cohortmix/cohortmix/cohort"
 	"github.com/cohortmix/cohortmix/cohort/note"
-	"gonum.org/v1/gonum/mat"
 )
 
 // The mixture method's model, in a sentence: each group has its own law of how a participant's

@@ -6,9 +6,10 @@ import (
 	"strconv"
 	"strings"
 
+	"gonum.org/v1/gonum/mat"
+
 	"github.com/cohortmix/cohortmix/cluster"
 	"github.com/cohortmix/cohortmix/cohort"
-	"gonum.org/v1/gonum/mat"
 )
 
 // Previous is what a refresh needs of the earlier fit.

@@ -5,9 +5,10 @@ import (
 	"math"
 	"math/rand/v2"
 
+	"gonum.org/v1/gonum/mat"
+
 	"github.com/cohortmix/cohortmix/cluster"
 	"github.com/cohortmix/cohortmix/cluster/par"
-	"gonum.org/v1/gonum/mat"
 )
 
 // Stability is how well each group of a grouping holds when the participants are drawn

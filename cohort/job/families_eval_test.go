@@ -13,11 +13,12 @@ import (
 	"sync"
 	"testing"
 
+	"gonum.org/v1/gonum/mat"
+
 	"github.com/cohortmix/cohortmix/cluster"
 	"github.com/cohortmix/cohortmix/cluster/mixture"
 	"github.com/cohortmix/cohortmix/cluster/par"
 	"github.com/cohortmix/cohortmix/cohort/group"
-	"gonum.org/v1/gonum/mat"
 )
 
 // scans keep one model's fits over every number of groups for one fit's counts, so that two

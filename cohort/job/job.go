@@ -4,19 +4,21 @@ import (
 	"context"
 
 	"fmt"
-	"github.com/cohortmix/cohortmix/cluster/groupstat"
 	"math"
 	"slices"
 	"strings"
 	"sync"
 	"time"
 
+	"github.com/cohortmix/cohortmix/cluster/groupstat"
+
+	"gonum.org/v1/gonum/mat"
+
 	"github.com/cohortmix/cohortmix/cohort"
 	"github.com/cohortmix/cohortmix/cohort/group"
 	"github.com/cohortmix/cohortmix/cohort/modelfile"
 	"github.com/cohortmix/cohortmix/normalize"
 	"github.com/cohortmix/cohortmix/profile"
-	"gonum.org/v1/gonum/mat"
 )
 
 // Options are the settings of one run of the main job.

@@ -1,9 +1,10 @@
 package job
 
 import (
+	"gonum.org/v1/gonum/mat"
+
 	"github.com/cohortmix/cohortmix/cohort"
 	"github.com/cohortmix/cohortmix/cohort/modelfile"
-	"gonum.org/v1/gonum/mat"
 )
 
 // NewModel gathers the frozen fits of a result into a model file (modelfile.Model); featureMeds

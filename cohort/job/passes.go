@@ -5,12 +5,13 @@ import (
 	"context"
 	"errors"
 	"fmt"
-	"github.com/cohortmix/cohortmix/cohort/note"
 	"math"
 	"slices"
 	"strings"
 	"sync"
 	"time"
+
+	"github.com/cohortmix/cohortmix/cohort/note"
 
 	"github.com/cohortmix/cohortmix/cluster"
 	"github.com/cohortmix/cohortmix/cluster/par"

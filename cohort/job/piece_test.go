@@ -12,6 +12,7 @@ import (
 	"testing"
 
 	"fmt"
+
 	"github.com/cohortmix/cohortmix/cohort"
 	"github.com/cohortmix/cohortmix/cohort/synth"
 )

@@ -9,12 +9,13 @@ import (
 	"strings"
 	"sync"
 
+	"gonum.org/v1/gonum/mat"
+
 	"github.com/cohortmix/cohortmix/cluster"
 	"github.com/cohortmix/cohortmix/cluster/par"
 	"github.com/cohortmix/cohortmix/cohort/group"
 	"github.com/cohortmix/cohortmix/normalize"
 	"github.com/cohortmix/cohortmix/profile"
-	"gonum.org/v1/gonum/mat"
 )
 
 // sampleUnits are the participants drawn for the fit (profile.AlignSample), each with its

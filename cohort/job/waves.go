@@ -7,13 +7,14 @@ import (
 	"slices"
 	"strings"
 
+	"time"
+
 	"github.com/cohortmix/cohortmix/cluster"
 	"github.com/cohortmix/cohortmix/cluster/groupstat"
 	"github.com/cohortmix/cohortmix/cohort"
 	"github.com/cohortmix/cohortmix/cohort/group"
 	"github.com/cohortmix/cohortmix/cohort/modelfile"
 	"github.com/cohortmix/cohortmix/cohort/pseudonym"
-	"time"
 )
 
 // The record of a later wave against the model it was placed or refitted with: who is where,

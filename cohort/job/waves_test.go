@@ -1,9 +1,10 @@
 package job
 
 import (
-	"github.com/cohortmix/cohortmix/cohort/modelfile"
 	"math"
 	"testing"
+
+	"github.com/cohortmix/cohortmix/cohort/modelfile"
 )
 
 // A participant-wave finds its group in the model by id and wave, else by id (a returning

@@ -16,6 +16,8 @@ import (
 	"os"
 	"time"
 
+	"gonum.org/v1/gonum/mat"
+
 	"github.com/cohortmix/cohortmix/cluster"
 	"github.com/cohortmix/cohortmix/cluster/mixture"
 	"github.com/cohortmix/cohortmix/cohort"
@@ -25,7 +27,6 @@ import (
 	"github.com/cohortmix/cohortmix/cohort/scratch"
 	"github.com/cohortmix/cohortmix/normalize"
 	"github.com/cohortmix/cohortmix/profile"
-	"gonum.org/v1/gonum/mat"
 )
 
 // Format and Version identify the model file's schema.

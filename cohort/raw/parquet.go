@@ -12,9 +12,10 @@ import (
 	"sync"
 	"time"
 
-	"github.com/cohortmix/cohortmix/cohort/pqframe"
 	"github.com/parquet-go/parquet-go"
 	"github.com/parquet-go/parquet-go/format"
+
+	"github.com/cohortmix/cohortmix/cohort/pqframe"
 )
 
 // pqRecording is an open Parquet recording: its file, its columns' layout and the unit of a

@@ -12,9 +12,10 @@ import (
 	"testing"
 	"time"
 
+	"github.com/parquet-go/parquet-go"
+
 	"github.com/cohortmix/cohortmix/cohort"
 	"github.com/cohortmix/cohortmix/cohort/synth"
-	"github.com/parquet-go/parquet-go"
 )
 
 // The features step on the invented raw scenario: every window accounted for, each device's

@@ -10,9 +10,10 @@ import (
 	"strings"
 	"time"
 
+	"github.com/parquet-go/parquet-go"
+
 	"github.com/cohortmix/cohortmix/cluster/groupstat"
 	"github.com/cohortmix/cohortmix/cluster/par"
-	"github.com/parquet-go/parquet-go"
 )
 
 // firstPass gathers one participant's summaries in the first pass, in the units as read.

@@ -5,10 +5,11 @@ import (
 	"bytes"
 	"context"
 	"fmt"
-	"github.com/cohortmix/cohortmix/cluster/par"
 	"io"
 	"os"
 	"strings"
+
+	"github.com/cohortmix/cohortmix/cluster/par"
 )
 
 // A long recording of one participant (a text file, not compressed, without an id column) is
