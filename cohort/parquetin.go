@@ -16,6 +16,7 @@ import (
 	"github.com/parquet-go/parquet-go/format"
 
 	"github.com/cohortmix/cohortmix/cluster/par"
+	"github.com/cohortmix/cohortmix/cohort/note"
 	"github.com/cohortmix/cohortmix/cohort/pqframe"
 )
 
@@ -186,7 +187,7 @@ func (r *reader) pqFeatures(p string, header []string, leaves []parquet.LeafColu
 			} else if len(r.opts.Features) > 0 {
 				return &InputError{File: p, Column: c + 1, Field: header[c], Msg: fmt.Sprintf("is %s, not a number, but cohort.ReadOptions.Features chose it; choose numeric columns", kindName(c)), Err: ErrNotNumber}
 			} else {
-				r.ignored = append(r.ignored, Note{header[c], fmt.Sprintf("%s column, not a feature", kindName(c))})
+				r.ignored = append(r.ignored, LeftOut{header[c], note.Note{Kind: LeftOutColumnKind, Names: []string{kindName(c)}}})
 			}
 		}
 		if len(keep) == 0 {

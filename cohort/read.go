@@ -175,10 +175,23 @@ type readTuning struct {
 	parquetRows int  // rows of a Parquet row group read at a time; 0: 65,536
 }
 
-// Note is a column or feature that was not used, with why.
-type Note struct {
-	Name, Reason string
+// LeftOut is a column, feature or variable that was not used, with why.
+type LeftOut struct {
+	Name   string
+	Reason note.Note // one of the LeftOut kinds of this package, or of the package that left it out
 }
+
+// The kinds of the reasons a column or feature is left out (LeftOut.Reason).
+const (
+	// LeftOutUnmatched: a column that ReadOptions.Features does not match.
+	LeftOutUnmatched note.Kind = "cohort.left-out.unmatched"
+	// LeftOutText: a column of text (its first cell Names[0]), not a feature.
+	LeftOutText note.Kind = "cohort.left-out.text"
+	// LeftOutColumnKind: a Parquet column of the type Names[0], not a feature.
+	LeftOutColumnKind note.Kind = "cohort.left-out.column-kind"
+	// LeftOutConstant: a feature of the value Floats[0] in every window.
+	LeftOutConstant note.Kind = "cohort.left-out.constant"
+)
 
 // Quality accounts for every window and participant that came in.
 type Quality struct {
@@ -191,8 +204,8 @@ type Quality struct {
 	WindowsExcluded    int    // windows of excluded units
 	CellsImputed       int
 	Excluded           []Exclusion
-	DroppedFeatures    []Note
-	IgnoredColumns     []Note
+	DroppedFeatures    []LeftOut
+	IgnoredColumns     []LeftOut
 	Notes              []note.Note // policies applied: sorted windows, merged files, … (the Note kinds of this package)
 	SortedUnits        int         // units whose windows were not in order and were sorted
 	JoinedUnits        int         // units whose windows sat in more than one file
@@ -467,7 +480,7 @@ type reader struct {
 	units     []*rawUnit
 	seen      int // units met, in every shard
 	files     []FileInfo
-	ignored   []Note
+	ignored   []LeftOut
 	rows      int
 	lo        []float64 // each feature's lowest value, over every window read
 	comma     bool      // the current text file's numbers use a decimal comma
@@ -982,7 +995,7 @@ func (r *reader) assignRoles(p string, header []string) (roles, error) {
 				continue
 			}
 			if len(r.opts.Features) > 0 && !matchAny(r.opts.Features, h) {
-				r.ignored = append(r.ignored, Note{h, "not matched by cohort.ReadOptions.Features"})
+				r.ignored = append(r.ignored, LeftOut{h, note.Note{Kind: LeftOutUnmatched, Option: "cohort.ReadOptions.Features"}})
 				continue
 			}
 			ro.features = append(ro.features, i)
@@ -1101,7 +1114,7 @@ func (r *reader) classify(p string, pos func(int) (int, int), header []string, s
 				l, c := pos(col)
 				return &InputError{File: p, Line: l, Column: c, Field: header[col], Msg: numberMsg(rec[col], delim, ErrNotNumber) + "; cohort.ReadOptions.Features chose this column", Err: ErrNotNumber}
 			}
-			r.ignored = append(r.ignored, Note{header[col], fmt.Sprintf("text (%q), not a feature", text)})
+			r.ignored = append(r.ignored, LeftOut{header[col], note.Note{Kind: LeftOutText, Names: []string{text}}})
 			continue
 		}
 		keep = append(keep, col)
@@ -1852,15 +1865,15 @@ func MergeConstancy(parts []*Constancy) *Constancy {
 
 // KeptFeatures are the features that are not constant, and the constant ones with why; file
 // names the input in the error when every feature is constant.
-func KeptFeatures(features []string, c *Constancy, file string) ([]string, []Note, error) {
+func KeptFeatures(features []string, c *Constancy, file string) ([]string, []LeftOut, error) {
 	if !c.Have {
 		return features, nil, nil
 	}
 	var keep []string
-	var dropped []Note
+	var dropped []LeftOut
 	for j, isConst := range c.Constant {
 		if isConst {
-			dropped = append(dropped, Note{features[j], fmt.Sprintf("constant (%g in every window): it cannot separate anything", c.First[j])})
+			dropped = append(dropped, LeftOut{features[j], note.Note{Kind: LeftOutConstant, Floats: []float64{c.First[j]}}})
 		} else {
 			keep = append(keep, features[j])
 		}

@@ -67,6 +67,24 @@ func noteText(n note.Note) string {
 		return fmt.Sprintf("%d valid days (%g h or more of wear), fewer than the %d required (%s)", i(0), x(0), i(1), option)
 	case cohort.ExcludedNoWeekendDay:
 		return fmt.Sprintf("no valid weekend day among its %d valid days (%s)", i(0), option)
+	case cohort.LeftOutUnmatched:
+		return "not matched by " + option
+	case cohort.LeftOutText:
+		return fmt.Sprintf("text (%q), not a feature", name(0))
+	case cohort.LeftOutColumnKind:
+		return fmt.Sprintf("%s column, not a feature", name(0))
+	case cohort.LeftOutConstant:
+		return fmt.Sprintf("constant (%g in every window): it cannot separate anything", x(0))
+	case job.LeftOutTwin:
+		return fmt.Sprintf("it orders every window as %s does (a monotone transform of it), so it would weigh the same information twice; left out (%s keeps it)", name(0), option)
+	case job.LeftOutNotInModel:
+		return "not in the model: ignored"
+	case job.LeftOutLabels:
+		return "the activity labels the model's cohort was described with; placing new data needs none, so assign reads no labels"
+	case job.NotTestedOneGroup:
+		return "not tested: the participants form one group, so there are no groups to set apart"
+	case group.NotTestedFewGroups:
+		return fmt.Sprintf("not tested: its values fall in %d of the groups, and a test needs two", i(0))
 	case job.NoteGroupsCapped:
 		return fmt.Sprintf("with %d participants, up to %d groups were tried, of the up to %d asked for", i(0), i(1), i(2))
 	case group.NoteAutoKMeans:

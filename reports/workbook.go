@@ -615,7 +615,7 @@ func separatingSheet(f *excelize.File, st *styles, r *Result) error {
 		}
 	}
 	for _, n := range r.NotTested {
-		if err := t.put(v{n.Name, st.text}, v{n.Reason, st.text}); err != nil {
+		if err := t.put(v{n.Name, st.text}, v{NoteWords(r, n.Reason), st.text}); err != nil {
 			return err
 		}
 	}
@@ -809,8 +809,8 @@ func qualityLeftOut(t *table, st *styles, r *Result) error {
 	if err := t.put(v{"column", st.header}, v{"", st.header}, v{"", st.header}, v{"", st.header}, v{"why not used", st.header}); err != nil {
 		return err
 	}
-	for _, n := range append(append([]cohort.Note(nil), q.DroppedFeatures...), q.IgnoredColumns...) {
-		if err := t.put(v{n.Name, st.text}, v{"", st.text}, v{"", st.text}, v{"", st.text}, v{n.Reason, st.wrap}); err != nil {
+	for _, n := range append(append([]cohort.LeftOut(nil), q.DroppedFeatures...), q.IgnoredColumns...) {
+		if err := t.put(v{n.Name, st.text}, v{"", st.text}, v{"", st.text}, v{"", st.text}, v{NoteWords(r, n.Reason), st.wrap}); err != nil {
 			return err
 		}
 	}

@@ -183,7 +183,7 @@ func readForModel(ctx context.Context, inputs []string, m *modelfile.Model, ro c
 			why := "is not in the input"
 			for _, n := range t.Quality.DroppedFeatures {
 				if n.Name == name {
-					why = "is " + n.Reason
+					why = "is " + reports.NoteWords(nil, n.Reason)
 				}
 			}
 			t.Close()

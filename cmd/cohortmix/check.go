@@ -85,7 +85,7 @@ func checkRun(ctx context.Context, o *checkOptions) error {
 		fmt.Fprintf(o.IO.Out, "  excluded %s%s: %s\n", e.ID, waveNote(e.Wave), userWords(reports.NoteWords(nil, e.Reason)))
 	}
 	for _, n := range append(q.DroppedFeatures, q.IgnoredColumns...) {
-		fmt.Fprintf(o.IO.Out, "  not used %s: %s\n", n.Name, userWords(n.Reason))
+		fmt.Fprintf(o.IO.Out, "  not used %s: %s\n", n.Name, userWords(reports.NoteWords(nil, n.Reason)))
 	}
 	for _, n := range q.Notes {
 		fmt.Fprintf(o.IO.Out, "  note: %s\n", userWords(reports.NoteWords(nil, n)))

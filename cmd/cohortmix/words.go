@@ -5,7 +5,6 @@ import (
 	"slices"
 	"strings"
 
-	"github.com/cohortmix/cohortmix/cohort"
 	"github.com/cohortmix/cohortmix/reports"
 )
 
@@ -71,12 +70,6 @@ func userWords(s string) string {
 
 // inFlagWords names the options by their flags in every text of a result that reaches a reader.
 func inFlagWords(r *reports.Result) {
-	q := &r.Quality
-	for _, notes := range [][]cohort.Note{q.IgnoredColumns, q.DroppedFeatures} {
-		for i := range notes {
-			notes[i].Reason = flagWords(notes[i].Reason)
-		}
-	}
 	for _, list := range [][]string{r.Notes, r.Warnings} {
 		for i := range list {
 			list[i] = flagWords(list[i])

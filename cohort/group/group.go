@@ -494,6 +494,9 @@ const (
 	// NoteEmptyComponents: of the Ints[0] groups the criterion chose, Ints[1] held no
 	// participant as its most probable group and were left out.
 	NoteEmptyComponents note.Kind = "group.empty-components"
+	// NotTestedFewGroups (a variable's reason in Separate): its values fall in only Ints[0]
+	// groups, and a test needs two.
+	NotTestedFewGroups note.Kind = "group.not-tested.few-groups"
 )
 
 // sampleRows draws m of x's rows without replacement (a seeded partial Fisher–Yates shuffle, kept

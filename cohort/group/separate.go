@@ -8,6 +8,7 @@ import (
 	"github.com/cohortmix/cohortmix/cluster/groupstat"
 	"github.com/cohortmix/cohortmix/cluster/par"
 	"github.com/cohortmix/cohortmix/cohort"
+	"github.com/cohortmix/cohortmix/cohort/note"
 )
 
 // Variable is one participant-level measure tested for separating the groups.
@@ -30,7 +31,7 @@ type Separation struct {
 // separateOne tests one variable, or says why it cannot be tested. Participants without a value
 // (NaN: a bout length of a state they never entered) are left out of its test; a group left
 // with none takes no part in it, and its quartiles and delta are empty.
-func separateOne(v Variable, labels []int, k int) (*Separation, *cohort.Note) {
+func separateOne(v Variable, labels []int, k int) (*Separation, *cohort.LeftOut) {
 	groups := make([][]float64, k)
 	for i, x := range v.Values {
 		if !math.IsNaN(x) {
@@ -39,7 +40,13 @@ func separateOne(v Variable, labels []int, k int) (*Separation, *cohort.Note) {
 	}
 	kw, err := groupstat.KruskalWallis(groups)
 	if err != nil {
-		return nil, &cohort.Note{Name: v.Name, Reason: "not tested: " + err.Error()}
+		nonEmpty := 0
+		for _, g := range groups {
+			if len(g) > 0 {
+				nonEmpty++
+			}
+		}
+		return nil, &cohort.LeftOut{Name: v.Name, Reason: note.Note{Kind: NotTestedFewGroups, Ints: []int{nonEmpty}}}
 	}
 	s := Separation{Name: v.Name, Kind: v.Kind, H: kw.H, P: kw.P, Epsilon2: kw.Epsilon2,
 		Median: make([]float64, k), Q1: make([]float64, k), Q3: make([]float64, k)}
@@ -60,7 +67,7 @@ func separateOne(v Variable, labels []int, k int) (*Separation, *cohort.Note) {
 // over all tested variables, and ranks them by ε² (largest first). Variables that cannot be
 // tested (constant, or values in one group only) are returned as notes. The variables are
 // tested on workers goroutines at once (0: one per core).
-func Separate(vars []Variable, labels []int, k, workers int) ([]Separation, []cohort.Note, error) {
+func Separate(vars []Variable, labels []int, k, workers int) ([]Separation, []cohort.LeftOut, error) {
 	for _, v := range vars {
 		if len(v.Values) != len(labels) {
 			return nil, nil, fmt.Errorf("group: Separate: %s has %d values for %d participants: %w", v.Name, len(v.Values), len(labels), cohort.ErrMismatch)
@@ -68,12 +75,12 @@ func Separate(vars []Variable, labels []int, k, workers int) ([]Separation, []co
 	}
 	// The variables are tested on all cores, each on its own; results keep the variables' order.
 	tested := make([]*Separation, len(vars))
-	untested := make([]*cohort.Note, len(vars))
+	untested := make([]*cohort.LeftOut, len(vars))
 	par.Each(len(vars), workers, func(i int) {
 		tested[i], untested[i] = separateOne(vars[i], labels, k)
 	})
 	var out []Separation
-	var notes []cohort.Note
+	var notes []cohort.LeftOut
 	for i := range vars {
 		if tested[i] != nil {
 			out = append(out, *tested[i])

@@ -43,3 +43,18 @@ func TestSeparateLeavesOutMissingValues(t *testing.T) {
 		}
 	}
 }
+
+// A variable whose values all fall in one group cannot be tested: it comes back as a reason,
+// with the number of groups its values fall in, not as a separation.
+func TestSeparateSaysWhyAVariableIsNotTested(t *testing.T) {
+	t.Parallel()
+	nan := math.NaN()
+	labels := []int{0, 0, 0, 1, 1, 1}
+	seps, left, err := Separate([]Variable{{Name: "bout S2", Values: []float64{1, 2, 3, nan, nan, nan}}}, labels, 2, 1)
+	if err != nil || len(seps) != 0 || len(left) != 1 {
+		t.Fatalf("%d separations, %v left out, error %v", len(seps), left, err)
+	}
+	if r := left[0].Reason; left[0].Name != "bout S2" || r.Kind != NotTestedFewGroups || len(r.Ints) != 1 || r.Ints[0] != 1 {
+		t.Errorf("left out %+v", left[0])
+	}
+}

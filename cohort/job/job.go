@@ -17,6 +17,7 @@ import (
 	"github.com/cohortmix/cohortmix/cohort"
 	"github.com/cohortmix/cohortmix/cohort/group"
 	"github.com/cohortmix/cohortmix/cohort/modelfile"
+	"github.com/cohortmix/cohortmix/cohort/note"
 	"github.com/cohortmix/cohortmix/normalize"
 	"github.com/cohortmix/cohortmix/profile"
 )
@@ -518,7 +519,7 @@ func separate(res *Result, f *Fitted, vars []group.Variable) error {
 		}
 	}
 	if g.K < 2 {
-		res.NotTested = []cohort.Note{{Name: "every variable", Reason: "not tested: the participants form one group, so there are no groups to set apart"}}
+		res.NotTested = []cohort.LeftOut{{Name: "every variable", Reason: note.Note{Kind: NotTestedOneGroup}}}
 		return nil
 	}
 	var err error

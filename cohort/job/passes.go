@@ -285,8 +285,8 @@ func dropTwins(p *Plan, spread []float64) {
 	var lowest []float64
 	for j, tw := range twin {
 		if tw >= 0 {
-			p.Quality.DroppedFeatures = append(p.Quality.DroppedFeatures, cohort.Note{Name: p.Features[j],
-				Reason: fmt.Sprintf("it orders every window as %s does (a monotone transform of it), so it would weigh the same information twice; left out (job.Options.KeepTwins keeps it)", p.Features[tw])})
+			p.Quality.DroppedFeatures = append(p.Quality.DroppedFeatures, cohort.LeftOut{Name: p.Features[j],
+				Reason: note.Note{Kind: LeftOutTwin, Names: []string{p.Features[tw]}, Option: "job.Options.KeepTwins"}})
 			continue
 		}
 		cols = append(cols, j)

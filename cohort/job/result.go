@@ -83,7 +83,7 @@ type Result struct {
 	GroupNames   []string
 	Units        []UnitRow
 	Separations  []group.Separation
-	NotTested    []cohort.Note
+	NotTested    []cohort.LeftOut
 	Warnings     []string
 	// Reproducibility is how alike the fits of the states from different random starts group
 	// the sampled participants (median adjusted Rand index); NaN when not measured.
@@ -231,6 +231,20 @@ func (r *Result) GroupMeans() ([][]float64, []int, []float64) {
 	}
 	return means, sizes, out
 }
+
+// The kinds of the reasons job leaves a feature, column or variable out (cohort.LeftOut).
+const (
+	// LeftOutTwin: a feature that orders every window as the feature Names[0] does (a monotone
+	// transform of it), left out (Options.KeepTwins keeps it).
+	LeftOutTwin note.Kind = "job.left-out.twin"
+	// LeftOutNotInModel: a column of new data that is not among the model's features.
+	LeftOutNotInModel note.Kind = "job.left-out.not-in-model"
+	// LeftOutLabels: the activity labels the model's cohort was described with, which placing
+	// new data does not read.
+	LeftOutLabels note.Kind = "job.left-out.labels"
+	// NotTestedOneGroup: no variable is tested, as the participants form one group.
+	NotTestedOneGroup note.Kind = "job.not-tested.one-group"
+)
 
 // NoteGroupsCapped (in Quality.Notes): with Ints[0] participants, up to Ints[1] groups were
 // tried, of the up to Ints[2] asked for.

@@ -14,6 +14,7 @@ import (
 	"github.com/cohortmix/cohortmix/cohort"
 	"github.com/cohortmix/cohortmix/cohort/group"
 	"github.com/cohortmix/cohortmix/cohort/modelfile"
+	"github.com/cohortmix/cohortmix/cohort/note"
 	"github.com/cohortmix/cohortmix/cohort/pseudonym"
 )
 
@@ -246,11 +247,11 @@ func Assign(ctx context.Context, t *cohort.Table, m *modelfile.Model, o AssignOp
 	res.Settings = slices.Clone(m.Settings)
 	res.States.Candidates = nil
 	for _, name := range o.Extra {
-		res.Quality.IgnoredColumns = append(res.Quality.IgnoredColumns, cohort.Note{Name: name, Reason: "not in the model: ignored"})
+		res.Quality.IgnoredColumns = append(res.Quality.IgnoredColumns, cohort.LeftOut{Name: name, Reason: note.Note{Kind: LeftOutNotInModel}})
 	}
 	for i, n := range res.Quality.IgnoredColumns {
 		if m.Read.Label != "" && n.Name == m.Read.Label {
-			res.Quality.IgnoredColumns[i].Reason = "the activity labels the model's cohort was described with; placing new data needs none, so assign reads no labels"
+			res.Quality.IgnoredColumns[i].Reason = note.Note{Kind: LeftOutLabels}
 		}
 	}
 	if o.Key != nil {
