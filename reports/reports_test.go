@@ -9,6 +9,7 @@ import (
 	"image/color"
 	"image/png"
 	"io"
+	"io/fs"
 	"math"
 	"os"
 	"path/filepath"
@@ -654,5 +655,32 @@ func TestNoteWords(t *testing.T) {
 		if got := NoteWords(r, c.n); got != c.want {
 			t.Errorf("%s:\n got %s\nwant %s", c.n.Kind, got, c.want)
 		}
+	}
+}
+
+// Every kind of note the library declares (a constant of type note.Kind) has its words here,
+// so that no note reaches a reader as its kind's name.
+func TestEveryNoteKindHasWords(t *testing.T) {
+	t.Parallel()
+	kind := regexp.MustCompile(`note\.Kind = "([^"]+)"`)
+	seen := 0
+	err := filepath.WalkDir("..", func(p string, d fs.DirEntry, err error) error {
+		if err != nil || d.IsDir() || !strings.HasSuffix(p, ".go") || strings.HasSuffix(p, "_test.go") {
+			return err
+		}
+		b, err := os.ReadFile(p)
+		if err != nil {
+			return err
+		}
+		for _, m := range kind.FindAllSubmatch(b, -1) {
+			seen++
+			if _, ok := noteWords[note.Kind(m[1])]; !ok {
+				t.Errorf("%s: the kind %s has no words in noteWords", p, m[1])
+			}
+		}
+		return nil
+	})
+	if err != nil || seen < 20 {
+		t.Fatalf("%d kinds found, error %v", seen, err)
 	}
 }
