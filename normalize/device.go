@@ -262,8 +262,10 @@ func (f *Fit) ApplyLoggedInto(dst, xl []float64, dev Device) []float64 {
 // windows' vector length varies least, if it varies by less than a quarter of its mean (the
 // length of gravity does not change when a device turns; that of an axis s.d. does). rows are
 // windows × features, row-major, for example a few participants' first windows. It returns the
-// columns in x, y, z order, or nil and why none qualified.
-func FindAxes(features []string, rows []float64) ([]int, string) {
+// columns in x, y, z order, or nil when none qualified, with the coefficient of variation of the
+// steadiest triple's vector length (NaN when no three features are named alike but for x, y
+// and z).
+func FindAxes(features []string, rows []float64) ([]int, float64) {
 	d := len(features)
 	index := map[string]int{}
 	for j, name := range features {
@@ -307,11 +309,11 @@ func FindAxes(features []string, rows []float64) ([]int, string) {
 	}
 	switch {
 	case candidates == 0:
-		return nil, "no three features are named alike but for x, y and z"
+		return nil, math.NaN()
 	case best == nil || bestCV >= 0.25:
-		return nil, fmt.Sprintf("no triple of x, y, z features has a vector length as steady as gravity's (the steadiest varies by %.0f%% of its mean)", 100*bestCV)
+		return nil, bestCV
 	}
-	return best, fmt.Sprintf("%s, %s, %s (their vector length varies by %.0f%% of its mean)", features[best[0]], features[best[1]], features[best[2]], 100*bestCV)
+	return best, bestCV
 }
 
 // logStartQuantile is the quantile of a feature that starts its log scale (LogStartOf).

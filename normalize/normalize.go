@@ -36,6 +36,7 @@ import (
 
 	"github.com/cohortmix/cohortmix/cluster"
 	"github.com/cohortmix/cohortmix/cluster/groupstat"
+	"github.com/cohortmix/cohortmix/cohort/note"
 )
 
 // ErrOption is wrapped by errors about options; ErrData by errors about the data.
@@ -201,11 +202,16 @@ type Fit struct {
 	PCA        *cluster.PCA // nil when off
 	ICC        []float64    // ICC(1) of each feature, on its log scale where it has one
 	ICCAfter   []float64    // ICC(1) of each feature after the within-participant step; nil in a fit read from a model
-	Warnings   []string
+	Warnings   []note.Note  // of kind WarnWithinEverything
 	// Units holds the baseline of each participant the fit was made on, in blocks order, for
 	// ApplyUnit. It is not part of the frozen model: a new participant's is found from its windows.
 	Units []Baseline
 }
+
+// WarnWithinEverything (in Fit.Warnings): within-participant robust z-scoring touches every
+// feature, which erases the between-participant level differences that signatures rely on
+// (Options.WithinFeatures restricts it).
+const WarnWithinEverything note.Kind = "normalize.within-everything"
 
 // OutDim is the number of columns Apply produces.
 func (f *Fit) OutDim() int {
@@ -635,7 +641,7 @@ func (f *Fit) fitBaselineRule(ctx context.Context, blocks Blocks, opts Options) 
 		all = all && t
 	}
 	if opts.Within == WithinRobustZ && all {
-		f.Warnings = append(f.Warnings, "within-participant robust z-scoring touches every feature: it erases the between-participant level differences that signatures rely on; restrict it with normalize.Options.WithinFeatures")
+		f.Warnings = append(f.Warnings, note.Note{Kind: WarnWithinEverything, Option: "normalize.Options.WithinFeatures"})
 	}
 	// The quiet score ranks a participant's windows by the cohort-scaled mean of the untouched
 	// features (all features when every one is touched).

@@ -63,7 +63,7 @@ func TestWarnsWhenZScoringEverything(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if len(fit.Warnings) != 1 || !strings.Contains(fit.Warnings[0], "erases the between-participant level differences") {
+	if len(fit.Warnings) != 1 || fit.Warnings[0].Kind != WarnWithinEverything {
 		t.Errorf("warnings %v", fit.Warnings)
 	}
 }

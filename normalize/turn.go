@@ -44,19 +44,6 @@ func (a Angle) of(m [3]float64) float64 {
 	return v
 }
 
-// String names the angle for the workbook and notes.
-func (a Angle) String() string {
-	kind := "elevation above the plane normal to"
-	if a.Polar {
-		kind = "angle from"
-	}
-	unit := "radians"
-	if a.Degrees {
-		unit = "degrees"
-	}
-	return fmt.Sprintf("%s the %c axis, in %s", kind, "xyz"[a.Axis], unit)
-}
-
 // angleFit is the least correlation with an angle of the axis means at which a feature is
 // taken for that angle: one degree of noise on a tilt spread over tens of degrees leaves the
 // correlation near 0.999.
@@ -67,11 +54,10 @@ const angleFit = 0.99
 // holds "sd" or "std"; a triple named alike but for xy, xz and yz, whose common part holds
 // "cor"), and for the features that are an angle of the axis means by their values: the angle
 // (from or above any of the axes, in degrees or radians) that correlates with the feature at
-// least 0.99 over rows (windows × features, row-major). It returns nil when it finds nothing,
-// and what it found in words.
-func FindTurned(features []string, axes []int, rows []float64) (*Turned, string) {
+// least 0.99 over rows (windows × features, row-major). It returns nil when it finds nothing.
+func FindTurned(features []string, axes []int, rows []float64) *Turned {
 	if len(axes) != 3 {
-		return nil, ""
+		return nil
 	}
 	d := len(features)
 	taken := map[int]bool{axes[0]: true, axes[1]: true, axes[2]: true}
@@ -111,16 +97,9 @@ func FindTurned(features []string, axes []int, rows []float64) (*Turned, string)
 		}
 	}
 	if t.SD == nil && t.Angles == nil {
-		return nil, ""
+		return nil
 	}
-	var words []string
-	if t.SD != nil {
-		words = append(words, fmt.Sprintf("the axis s.d.s %s, %s, %s and correlations %s, %s, %s as one covariance", features[t.SD[0]], features[t.SD[1]], features[t.SD[2]], features[t.Cor[0]], features[t.Cor[1]], features[t.Cor[2]]))
-	}
-	for _, a := range t.Angles {
-		words = append(words, fmt.Sprintf("%s as the %s", features[a.Column], a))
-	}
-	return t, "with the axis means it turns " + strings.Join(words, ", and ")
+	return t
 }
 
 // findTriple finds three features, none taken, named alike but for the parts (in order), whose

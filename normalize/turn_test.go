@@ -101,13 +101,13 @@ func TestTurnGivesBackTheWristFrame(t *testing.T) {
 		m, c := randomWindow(rng)
 		rows = append(rows, windowOf(m, c)...)
 	}
-	turned, words := FindTurned(turnNames, axes, rows)
+	turned := FindTurned(turnNames, axes, rows)
 	if turned == nil {
 		t.Fatalf("FindTurned found nothing in %v", turnNames)
 	}
 	want := &Turned{SD: []int{3, 4, 5}, Cor: []int{6, 7, 8}, Angles: []Angle{{Column: 9, Axis: 2, Degrees: true}}}
 	if !slices.Equal(turned.SD, want.SD) || !slices.Equal(turned.Cor, want.Cor) || len(turned.Angles) != 1 || turned.Angles[0] != want.Angles[0] {
-		t.Fatalf("FindTurned = %+v, want %+v (%s)", turned, want, words)
+		t.Fatalf("FindTurned = %+v, want %+v", turned, want)
 	}
 	f.Turned = turned
 	for _, logged := range []bool{false, true} {
@@ -182,10 +182,10 @@ func TestFindTurned(t *testing.T) {
 	}
 	for _, c := range cases {
 		t.Run(c.name, func(t *testing.T) {
-			got, words := FindTurned(c.names, []int{0, 1, 2}, rowsOf(c.angle))
+			got := FindTurned(c.names, []int{0, 1, 2}, rowsOf(c.angle))
 			if c.sd == nil && c.angles == nil {
 				if got != nil {
-					t.Fatalf("FindTurned = %+v (%s), want nil", got, words)
+					t.Fatalf("FindTurned = %+v, want nil", got)
 				}
 				return
 			}
@@ -193,7 +193,7 @@ func TestFindTurned(t *testing.T) {
 				t.Fatalf("FindTurned found nothing, want s.d.s %v and angles %v", c.sd, c.angles)
 			}
 			if !slices.Equal(got.SD, c.sd) || len(got.Angles) != len(c.angles) {
-				t.Fatalf("FindTurned = %+v (%s), want s.d.s %v and angles %v", got, words, c.sd, c.angles)
+				t.Fatalf("FindTurned = %+v, want s.d.s %v and angles %v", got, c.sd, c.angles)
 			}
 			for i := range c.angles {
 				if got.Angles[i] != c.angles[i] {
@@ -244,7 +244,7 @@ func TestLoggedApplyMatchesOneGo(t *testing.T) {
 	}
 	d := len(turnNames)
 	axes := []int{0, 1, 2}
-	turned, _ := FindTurned(turnNames, axes, units[0])
+	turned := FindTurned(turnNames, axes, units[0])
 	if turned == nil || turned.SD == nil || len(turned.Angles) != 1 {
 		t.Fatalf("FindTurned found %+v", turned)
 	}

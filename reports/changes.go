@@ -95,7 +95,7 @@ func changesIntro(t *table, st *styles, r *Result) error {
 		return err
 	}
 	for _, n := range c.Notes {
-		if err := t.put(v{n, st.note}); err != nil {
+		if err := t.put(v{NoteWords(r, n), st.note}); err != nil {
 			return err
 		}
 	}

@@ -2,11 +2,14 @@ package reports
 
 import (
 	"fmt"
+	"math"
+	"strings"
 
 	"github.com/cohortmix/cohortmix/cohort"
 	"github.com/cohortmix/cohortmix/cohort/group"
 	"github.com/cohortmix/cohortmix/cohort/job"
 	"github.com/cohortmix/cohortmix/cohort/note"
+	"github.com/cohortmix/cohortmix/normalize"
 )
 
 // NoteWords puts a typed note of the library into words, with the options it names put as the
@@ -118,6 +121,70 @@ var noteWords = map[note.Kind]func(a noteArgs) string{
 	group.NotTestedFewGroups: func(a noteArgs) string {
 		return fmt.Sprintf("not tested: its values fall in %d of the groups, and a test needs two", a.i(0))
 	},
+	normalize.WarnWithinEverything: func(a noteArgs) string {
+		return "within-participant robust z-scoring touches every feature: it erases the between-participant level differences that signatures rely on; restrict it with " + a.option()
+	},
+	group.WarnFarOutside: func(a noteArgs) string {
+		return fmt.Sprintf("feature %s: the new participants' median is %.4g, far outside the fitted participants' range %.4g to %.4g; check its unit or scale", a.name(0), a.x(0), a.x(1), a.x(2))
+	},
+	job.NoteAxes: axesWords,
+	job.NoteLogScales: func(a noteArgs) string {
+		names := a.n.Names
+		part := func(from, n int) string {
+			if n == 0 || from+n > len(names) {
+				return "none"
+			}
+			return strings.Join(names[from:from+n], ", ")
+		}
+		text := "taken on a log scale, log(x + c) with c the feature's first quartile: " + part(0, a.i(0))
+		if a.i(1) > 0 {
+			text += "; left linear as they take negative values: " + part(a.i(0), a.i(1))
+		}
+		if a.i(2) > 0 {
+			text += "; left linear as a quarter or more of their values are 0 (c would be 0): " + part(a.i(0)+a.i(1), a.i(2))
+		}
+		return text
+	},
+	job.NoteStatesEnsemble: func(a noteArgs) string {
+		var states []int
+		if len(a.n.Ints) > 5 {
+			states = a.n.Ints[5:]
+		}
+		return fmt.Sprintf("the movement states were fitted %d times (%s states, %d random starts each); the fit kept (%d states, start %d) is the one whose grouping of the %d sampled participants agrees best with the others' (median adjusted Rand index %.2f, lowest %.2f)",
+			a.i(0), numbersText(states), a.i(1), a.i(2), a.i(3), a.i(4), a.x(0), a.x(1))
+	},
+	job.WarnNotReproducible: func(a noteArgs) string {
+		return fmt.Sprintf("NOT REPRODUCIBLE: fitted again from other random starts, the movement states group the sampled participants differently (median adjusted Rand index %.2f, below %.2f). These data do not hold one grouping firmly; read the groups as tentative, and compare a run with another %s.", a.x(0), a.x(1), a.option())
+	},
+	job.NoteGaps: func(a noteArgs) string {
+		return fmt.Sprintf("%d interruptions of the recording (a step to the next window over %.1f times the participant's usual one) in %d participants end the bout they fall in; the shares of time are not changed by them", a.i(0), a.x(0), a.i(1))
+	},
+	job.WarnMadeByUnreadable: func(a noteArgs) string {
+		return fmt.Sprintf("%s: its record of how the features were made cannot be read; the features may not be comparable", madeByName(a.name(0)))
+	},
+	job.WarnMadeByMissing: func(a noteArgs) string {
+		return fmt.Sprintf("%s has no record of the features step, whose features the model was fitted on; check that its features were made the same way", a.name(0))
+	},
+	job.WarnMadeByDiffers: func(a noteArgs) string {
+		return fmt.Sprintf("%s: its features were made otherwise than those of %s (%s); make every wave's features with the same settings of the features step", a.name(0), madeByName(a.name(1)), a.name(2))
+	},
+	job.NoteGroupChanges: func(a noteArgs) string {
+		names := a.n.Names
+		list := func(from, n int) string {
+			if n == 0 || from+n > len(names) {
+				return "none"
+			}
+			return strings.Join(names[from:from+n], ", ")
+		}
+		return fmt.Sprintf("groups: %d kept their names, new: %s; gone: %s; merged: %s", a.i(0), list(0, a.i(1)), list(a.i(1), a.i(2)), list(a.i(1)+a.i(2), a.i(3)))
+	},
+	job.NoteStatesDepend: func(a noteArgs) string {
+		var parts []string
+		for k := 1; k < len(a.n.Ints); k++ {
+			parts = append(parts, fmt.Sprintf("%d states (adjusted Rand index %.2f)", a.i(k), a.x(k-1)))
+		}
+		return fmt.Sprintf("the groups depend on the number of movement states: fitted with %s, which these data support about as well as the %d kept, the sampled participants fall into other groups; read the groups with that in mind", strings.Join(parts, " or "), a.i(0))
+	},
 	job.NoteGroupsCapped: func(a noteArgs) string {
 		return fmt.Sprintf("with %d participants, up to %d groups were tried, of the up to %d asked for", a.i(0), a.i(1), a.i(2))
 	},
@@ -153,4 +220,72 @@ var nonWearRule = map[string]string{
 	cohort.NonWearTroiano: "the rule of Troiano et al. 2008: 60 minutes or more of zero counts, with interruptions of up to 2 minutes of at most 100 counts a minute",
 	cohort.NonWearChoi:    "the algorithm of Choi et al. 2011: 90 minutes or more of zero counts, with interruptions of up to 2 minutes that have 30 minutes of zeros before and after them",
 	cohort.NonWearColumn:  "the wear column given, where it holds 0",
+}
+
+// madeByName names the data a features-step record belongs to: a file, or "" for the model's.
+func madeByName(name string) string {
+	if name == "" {
+		return "the model's data"
+	}
+	return name
+}
+
+// numbersText writes numbers as "3, 4 and 5".
+func numbersText(ks []int) string {
+	parts := make([]string, len(ks))
+	for i, k := range ks {
+		parts[i] = fmt.Sprint(k)
+	}
+	if len(parts) <= 1 {
+		return strings.Join(parts, "")
+	}
+	return strings.Join(parts[:len(parts)-1], ", ") + " and " + parts[len(parts)-1]
+}
+
+// axesWords says how the align step's axis means were found and what turns with them
+// (job.NoteAxes).
+func axesWords(a noteArgs) string {
+	names := a.n.Names
+	var text string
+	switch a.i(0) {
+	case job.AxesNone:
+		return fmt.Sprintf("the align step turns no axis means (%s): it shifts each feature only", a.option())
+	case job.AxesNamed:
+		text = "the align step turns the axis means " + strings.Join(names[:min(3, len(names))], ", ")
+	case job.AxesNotFound:
+		why := "no three features are named alike but for x, y and z"
+		if !math.IsNaN(a.x(0)) {
+			why = fmt.Sprintf("no triple of x, y, z features has a vector length as steady as gravity's (the steadiest varies by %.0f%% of its mean)", 100*a.x(0))
+		}
+		return "the align step found no axis means to turn (" + why + "); it shifts each feature only; name them with " + a.option()
+	default:
+		text = fmt.Sprintf("the align step turns the axis means %s, %s, %s (their vector length varies by %.0f%% of its mean)", a.name(0), a.name(1), a.name(2), 100*a.x(0))
+	}
+	var turned []string
+	at := 3
+	if a.i(1) == 1 && len(names) >= 9 {
+		turned = append(turned, fmt.Sprintf("the axis s.d.s %s, %s, %s and correlations %s, %s, %s as one covariance", names[3], names[4], names[5], names[6], names[7], names[8]))
+		at = 9
+	}
+	for k := 2; k+2 < len(a.n.Ints) && at < len(names); k, at = k+3, at+1 {
+		turned = append(turned, fmt.Sprintf("%s as the %s", names[at], angleWords(a.i(k), a.i(k+1) == 1, a.i(k+2) == 1)))
+	}
+	if len(turned) > 0 {
+		text += "; with the axis means it turns " + strings.Join(turned, ", and ")
+	}
+	return text
+}
+
+// angleWords names an angle of the axis means: from the axis (polar) or the elevation above the
+// plane normal to it, in degrees or radians.
+func angleWords(axis int, polar, degrees bool) string {
+	kind := "elevation above the plane normal to"
+	if polar {
+		kind = "angle from"
+	}
+	unit := "radians"
+	if degrees {
+		unit = "degrees"
+	}
+	return fmt.Sprintf("%s the %c axis, in %s", kind, "xyz"[axis%3], unit)
 }

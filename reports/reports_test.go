@@ -66,7 +66,7 @@ func fixture(t testing.TB, n int, id func(i int) string) *Result {
 	r.Grouping = &group.Grouping{Method: group.WardHellinger, K: g, Labels: labels, Scores: []group.KScore{{K: 2, Silhouette: 0.2, Gap: 0.1, GapSE: 0.01, Stability: 0.9}, {K: 3, Silhouette: 0.3, Gap: 0.3, GapSE: 0.01, Stability: 0.8}},
 		Centroids: [][]float64{{0.5, 0.5, 0.5, 0.5}, {0.4, 0.6, 0.5, 0.5}, {0.5, 0.4, 0.6, 0.5}}, CentroidTree: tree}
 	r.Separations = []group.Separation{{Name: "share S1", Kind: "share", H: 10, P: 1e-5, Q: 2e-5, Epsilon2: 0.4, Median: []float64{1, 2, 3}, Q1: []float64{0, 1, 2}, Q3: []float64{2, 3, 4}, Delta: []float64{0.1, 0.2, -0.3}}}
-	r.Warnings = []string{"+a warning that looks like a formula"}
+	r.Warnings = []note.Note{{Kind: job.WarnMadeByMissing, Names: []string{"+a file name that looks like a formula"}}}
 	return r
 }
 
@@ -650,6 +650,14 @@ func TestNoteWords(t *testing.T) {
 		{note.Note{Kind: group.NoteGapSteady, Ints: []int{5, 3}, Floats: []float64{0.61, 0.8, 0.93}}, "the gap statistic and the stability step chose 5 groups, a tentative grouping (bootstrap stability 0.61, below 0.80), so 3 were kept, the largest smaller number whose grouping is stable (0.93)"},
 		{note.Note{Kind: group.NoteMixtureSample, Ints: []int{3000, 20000}}, "the mixture was fitted on a reproducible sample of 3,000 of the 20,000 participants, and every participant was placed by it"},
 		{note.Note{Kind: group.NoteEmptyComponents, Ints: []int{4, 1}}, "of the 4 groups the criterion chose, 1 held no participant as its most probable group and were left out"},
+		// The words of these kinds were the library's own texts before the notes were typed;
+		// they stay word for word.
+		{note.Note{Kind: job.NoteLogScales, Ints: []int{1, 1, 1}, Names: []string{"vm_sd", "mean_z", "count"}}, "taken on a log scale, log(x + c) with c the feature's first quartile: vm_sd; left linear as they take negative values: mean_z; left linear as a quarter or more of their values are 0 (c would be 0): count"},
+		{note.Note{Kind: job.NoteStatesDepend, Ints: []int{5, 4}, Floats: []float64{0.55}}, "the groups depend on the number of movement states: fitted with 4 states (adjusted Rand index 0.55), which these data support about as well as the 5 kept, the sampled participants fall into other groups; read the groups with that in mind"},
+		{note.Note{Kind: job.NoteAxes, Ints: []int{job.AxesFound, 1, 2, 0, 1}, Floats: []float64{0.031}, Names: []string{"mean_x", "mean_y", "mean_z", "sd_x", "sd_y", "sd_z", "cor_xy", "cor_xz", "cor_yz", "tilt_z"}},
+			"the align step turns the axis means mean_x, mean_y, mean_z (their vector length varies by 3% of its mean); with the axis means it turns the axis s.d.s sd_x, sd_y, sd_z and correlations cor_xy, cor_xz, cor_yz as one covariance, and tilt_z as the elevation above the plane normal to the z axis, in degrees"},
+		{note.Note{Kind: job.NoteAxes, Ints: []int{job.AxesNotFound, 0}, Floats: []float64{math.NaN()}, Option: "job.Options.Axes"}, "the align step found no axis means to turn (no three features are named alike but for x, y and z); it shifts each feature only; name them with job.Options.Axes"},
+		{note.Note{Kind: job.NoteGroupChanges, Ints: []int{2, 1, 0, 1}, Names: []string{"G4", "G3 merged"}}, "groups: 2 kept their names, new: G4; gone: none; merged: G3 merged"},
 		{note.Note{Kind: "later.kind", Ints: []int{1}}, "later.kind [1] [] "},
 	} {
 		if got := NoteWords(r, c.n); got != c.want {

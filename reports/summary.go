@@ -93,8 +93,8 @@ func (sp summaryPage) groups() error {
 			return err
 		}
 	}
-	if r.SensitivityNote != "" {
-		if err := sp.put("Number of states", capital(r.SensitivityNote)+" (see "+SheetStability+")."); err != nil {
+	if r.SensitivityNote.Kind != "" {
+		if err := sp.put("Number of states", capital(NoteWords(r, r.SensitivityNote))+" (see "+SheetStability+")."); err != nil {
 			return err
 		}
 	}
@@ -125,7 +125,7 @@ func (sp summaryPage) cautions() error {
 		}
 	}
 	for _, w := range sp.r.Warnings {
-		if err := sp.t.put(v{"Warning", sp.st.warn}, v{w, sp.st.note}); err != nil {
+		if err := sp.t.put(v{"Warning", sp.st.warn}, v{NoteWords(sp.r, w), sp.st.note}); err != nil {
 			return err
 		}
 	}
@@ -285,7 +285,10 @@ func analystNotes(r *Result) []string {
 		}
 		notes = append(notes, strings.Join(words, "; "))
 	}
-	return append(notes, r.Notes...)
+	for _, n := range r.Notes {
+		notes = append(notes, NoteWords(r, n))
+	}
+	return notes
 }
 
 // howDone tells the method in words, without codes.

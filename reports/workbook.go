@@ -546,8 +546,8 @@ func sensitivityPart(t *table, st *styles, r *Result) error {
 	if err := t.merge(5); err != nil {
 		return err
 	}
-	if r.SensitivityNote != "" {
-		if err := t.put(v{capital(r.SensitivityNote) + ".", st.warn}); err != nil {
+	if r.SensitivityNote.Kind != "" {
+		if err := t.put(v{capital(NoteWords(r, r.SensitivityNote)) + ".", st.warn}); err != nil {
 			return err
 		}
 		return t.merge(5)

@@ -139,7 +139,7 @@ func assignRun(ctx context.Context, o *assignOptions) error {
 	c := res.Counts()
 	fmt.Fprintf(o.IO.Out, "%d %s placed with %s: %d in a group, %d atypical (in no group), %d excluded → %s\n", c.UnitsIn, reports.UnitWord(c, c.UnitsIn), o.Model, c.Grouped, c.Atypical, c.Excluded, o.Out)
 	for _, w := range res.Warnings {
-		fmt.Fprintln(o.IO.Out, "warning: "+w)
+		fmt.Fprintln(o.IO.Out, "warning: "+reports.NoteWords(res, w))
 	}
 	return nil
 }

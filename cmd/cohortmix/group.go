@@ -199,7 +199,7 @@ func printSummary(io IO, r *reports.Result, out string) {
 		fmt.Fprintf(io.Out, "  %s: %s\n", r.GroupNames[g], lines[g])
 	}
 	for _, w := range r.Warnings {
-		fmt.Fprintln(io.Out, "warning: "+w)
+		fmt.Fprintln(io.Out, "warning: "+reports.NoteWords(r, w))
 	}
 	if r.WindowLength == 0 { // for the analyst; the clinician's page says only that bouts are in windows
 		fmt.Fprintln(io.Out, "note: the window length is not known, so bout lengths are in windows; give it with --window-length, or times in the order column, for minutes")

@@ -191,7 +191,7 @@ func runCohort(t testing.TB, so synth.Options, variants []variant) (oracle scena
 			if err != nil {
 				t.Fatal(err)
 			}
-			if res.SensitivityNote != "" {
+			if res.SensitivityNote.Kind != "" {
 				warned += "c"
 			}
 		}

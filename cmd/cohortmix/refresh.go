@@ -8,6 +8,7 @@ import (
 	"time"
 
 	"github.com/cohortmix/cohortmix/cohort/job"
+	"github.com/cohortmix/cohortmix/reports"
 
 	"github.com/spf13/cobra"
 
@@ -93,7 +94,7 @@ func refreshRun(ctx context.Context, o *refreshOptions) error {
 	}
 	printSummary(o.IO, res, o.Out)
 	for _, n := range res.Changes.Notes {
-		fmt.Fprintln(o.IO.Out, "  "+n)
+		fmt.Fprintln(o.IO.Out, "  "+reports.NoteWords(res, n))
 	}
 	return nil
 }

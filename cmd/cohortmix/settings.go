@@ -221,7 +221,7 @@ var settingTable = func() []setting {
 			}),
 		intSetting("bootstrap", "bootstrap / gap references", d.Bootstrap, "resamples for stability and reference sets for the gap statistic", func(m *mainFlags) *int { return &m.Bootstrap }).
 			restoredBy(func(m *mainFlags, f *fit, _ read) { m.Bootstrap = f.Bootstrap }),
-		{flag: "seed", label: "seed", bind: func(f *pflag.FlagSet, m *mainFlags) {
+		{flag: "seed", label: "seed", options: []string{"job.Options.Seed"}, bind: func(f *pflag.FlagSet, m *mainFlags) {
 			f.Uint64Var(&m.Seed, "seed", d.Seed, "seed for every random step")
 		},
 			show:      func(m *mainFlags) string { return strconv.FormatUint(m.Seed, 10) },

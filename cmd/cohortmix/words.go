@@ -70,11 +70,6 @@ func userWords(s string) string {
 
 // inFlagWords names the options by their flags in every text of a result that reaches a reader.
 func inFlagWords(r *reports.Result) {
-	for _, list := range [][]string{r.Notes, r.Warnings} {
-		for i := range list {
-			list[i] = flagWords(list[i])
-		}
-	}
 	r.WindowSource = flagWords(r.WindowSource)
 	r.OptionName = flagWords
 }

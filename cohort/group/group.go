@@ -497,6 +497,9 @@ const (
 	// NotTestedFewGroups (a variable's reason in Separate): its values fall in only Ints[0]
 	// groups, and a test needs two.
 	NotTestedFewGroups note.Kind = "group.not-tested.few-groups"
+	// WarnFarOutside (CheckRanges): the new participants' median of the feature Names[0] is
+	// Floats[0], far outside the fitted participants' range Floats[1] to Floats[2].
+	WarnFarOutside note.Kind = "group.far-outside"
 )
 
 // sampleRows draws m of x's rows without replacement (a seeded partial Fisher–Yates shuffle, kept
@@ -963,8 +966,8 @@ func distinct(l []int) int {
 // CheckRanges compares each feature's median over the new participants' medians with the range
 // of the fitted participants' medians (1st and 99th percentiles): a median more than one range
 // width outside it suggests a changed unit or scale, and is reported.
-func CheckRanges(features []string, fitted [][3]float64, medians [][]float64) []string {
-	var out []string
+func CheckRanges(features []string, fitted [][3]float64, medians [][]float64) []note.Note {
+	var out []note.Note
 	for j, name := range features {
 		if j >= len(fitted) || len(medians[j]) == 0 {
 			continue
@@ -973,7 +976,7 @@ func CheckRanges(features []string, fitted [][3]float64, medians [][]float64) []
 		w := math.Max(hi-lo, 1e-12)
 		m := cohort.Median(append([]float64(nil), medians[j]...))
 		if m < lo-w || m > hi+w {
-			out = append(out, fmt.Sprintf("feature %s: the new participants' median is %.4g, far outside the fitted participants' range %.4g to %.4g; check its unit or scale", name, m, lo, hi))
+			out = append(out, note.Note{Kind: WarnFarOutside, Names: []string{name}, Floats: []float64{m, lo, hi}})
 		}
 	}
 	return out

@@ -6,7 +6,6 @@ import (
 	"fmt"
 	"math"
 	"slices"
-	"strings"
 	"sync"
 	"time"
 
@@ -97,8 +96,8 @@ type Fitted struct {
 	Labels    *profile.LabelTable   // states × known labels, when labels are given
 	Devices   []normalize.Device    // each unit's device, when the states are aligned
 	sample    sampleUnits           // the participants and windows sampled for the fit
-	Notes     []string              // what the run decided on its own, for the reader
-	Warnings  []string              // what the reader must weigh before trusting the groups
+	Notes     []note.Note           // what the run decided on its own, for the reader
+	Warnings  []note.Note           // what the reader must weigh before trusting the groups
 	// Reproducibility is how alike the fits of the states from different random starts group
 	// the sampled participants (FitPiece.Reproducibility); NaN when not measured.
 	Reproducibility float64
@@ -116,28 +115,61 @@ type Fitted struct {
 
 // findAxesIn resolves the axis means the align step turns: none, the named features, or, when
 // none are named, the triple that normalize.FindAxes finds on the first windows of up to 20
-// participants (first: their windows one after another, row-major). The note says which, for
-// the workbook.
-func findAxesIn(features []string, first []float64, names []string, none bool) ([]int, string, error) {
+// participants (first: their windows one after another, row-major). The note (NoteAxes) says
+// which, for the workbook.
+func findAxesIn(features []string, first []float64, names []string, none bool) ([]int, note.Note, error) {
 	if none {
-		return nil, "the align step turns no axis means (job.Options.NoAxes): it shifts each feature only", nil
+		return nil, note.Note{Kind: NoteAxes, Ints: []int{AxesNone, 0}, Option: "job.Options.NoAxes"}, nil
 	}
 	if len(names) > 0 {
 		var axes []int
 		for _, n := range names {
 			j := slices.Index(features, n)
 			if j < 0 {
-				return nil, "", fmt.Errorf("job.Options.Axes names %s, which is not among the features %v: %w; name the three axis-mean columns in x, y, z order, or set job.Options.NoAxes", n, features, cohort.ErrMismatch)
+				return nil, note.Note{}, fmt.Errorf("job.Options.Axes names %s, which is not among the features %v: %w; name the three axis-mean columns in x, y, z order, or set job.Options.NoAxes", n, features, cohort.ErrMismatch)
 			}
 			axes = append(axes, j)
 		}
-		return axes, fmt.Sprintf("the align step turns the axis means %s", strings.Join(names, ", ")), nil
+		return axes, note.Note{Kind: NoteAxes, Ints: []int{AxesNamed, 0}, Names: slices.Clone(names)}, nil
 	}
-	axes, why := normalize.FindAxes(features, first)
+	axes, cv := normalize.FindAxes(features, first)
 	if axes == nil {
-		return nil, "the align step found no axis means to turn (" + why + "); it shifts each feature only; name them with job.Options.Axes", nil
+		return nil, note.Note{Kind: NoteAxes, Ints: []int{AxesNotFound, 0}, Floats: []float64{cv}, Option: "job.Options.Axes"}, nil
 	}
-	return axes, "the align step turns the axis means " + why, nil
+	return axes, note.Note{Kind: NoteAxes, Ints: []int{AxesFound, 0}, Names: []string{features[axes[0]], features[axes[1]], features[axes[2]]}, Floats: []float64{cv}}, nil
+}
+
+// The ways the align step's axis means were found (NoteAxes's Ints[0]).
+const (
+	AxesNone     = iota // none turned (Options.NoAxes)
+	AxesNamed           // named by Options.Axes
+	AxesNotFound        // none found
+	AxesFound           // found by normalize.FindAxes
+)
+
+// withTurned adds to an axes note what turns with the axis means (NoteAxes).
+func withTurned(n note.Note, features []string, t *normalize.Turned) note.Note {
+	if t == nil {
+		return n
+	}
+	if t.SD != nil {
+		n.Ints[1] = 1
+		for _, j := range slices.Concat(t.SD, t.Cor) {
+			n.Names = append(n.Names, features[j])
+		}
+	}
+	for _, a := range t.Angles {
+		n.Names = append(n.Names, features[a.Column])
+		n.Ints = append(n.Ints, a.Axis, boolInt(a.Polar), boolInt(a.Degrees))
+	}
+	return n
+}
+
+func boolInt(b bool) int {
+	if b {
+		return 1
+	}
+	return 0
 }
 
 // Analyze connects the stages: read → normalize → states and signatures → grouping → what sets

@@ -1,9 +1,8 @@
 package job
 
 import (
-	"fmt"
-
 	"github.com/cohortmix/cohortmix/cohort"
+	"github.com/cohortmix/cohortmix/cohort/note"
 	"github.com/cohortmix/cohortmix/cohort/raw"
 )
 
@@ -22,9 +21,9 @@ func MadeBy(files []cohort.FileInfo) string {
 // features step otherwise than the first such file, or, against a model (its record, "" for
 // none), otherwise than the model's data. Features made otherwise measure other things, and
 // their states and groups are not comparable.
-func MadeByWarnings(files []cohort.FileInfo, model string) []string {
-	var out []string
-	ref, refName := model, "the model's data"
+func MadeByWarnings(files []cohort.FileInfo, model string) []note.Note {
+	var out []note.Note
+	ref, refName := model, "" // "": the model's data
 	if ref == "" {
 		for _, f := range files {
 			if f.MadeBy != "" {
@@ -38,22 +37,22 @@ func MadeByWarnings(files []cohort.FileInfo, model string) []string {
 	}
 	want, err := raw.ParseProvenance(refName, ref)
 	if err != nil {
-		return []string{fmt.Sprintf("%s: its record of how the features were made cannot be read; the features may not be comparable", refName)}
+		return []note.Note{{Kind: WarnMadeByUnreadable, Names: []string{refName}}}
 	}
 	for _, f := range files {
 		if f.MadeBy == "" {
 			if model != "" {
-				out = append(out, fmt.Sprintf("%s has no record of the features step, whose features the model was fitted on; check that its features were made the same way", f.Path))
+				out = append(out, note.Note{Kind: WarnMadeByMissing, Names: []string{f.Path}})
 			}
 			continue
 		}
 		got, err := raw.ParseProvenance(f.Path, f.MadeBy)
 		if err != nil {
-			out = append(out, fmt.Sprintf("%s: its record of how the features were made cannot be read; the features may not be comparable", f.Path))
+			out = append(out, note.Note{Kind: WarnMadeByUnreadable, Names: []string{f.Path}})
 			continue
 		}
 		if !got.Same(want) {
-			out = append(out, fmt.Sprintf("%s: its features were made otherwise than those of %s (%s); make every wave's features with the same settings of the features step", f.Path, refName, got.Differences(want)))
+			out = append(out, note.Note{Kind: WarnMadeByDiffers, Names: []string{f.Path, refName, got.Differences(want)}})
 		}
 	}
 	return out

@@ -436,8 +436,8 @@ type FitPiece struct {
 	Plan            *Plan
 	Fit             *normalize.Fit
 	States          *profile.States
-	Notes           []string
-	Warnings        []string          // what the reader must weigh before trusting the groups
+	Notes           []note.Note
+	Warnings        []note.Note       // what the reader must weigh before trusting the groups
 	Sample          []SampledUnit     // kept for the sensitivity table of the finish
 	Norm            normalize.Options // the normalizing settings the fit was made with, for that table's refits
 }
@@ -522,18 +522,16 @@ func fitScaling(ctx context.Context, p *Plan, samples []*SamplePiece) (*FitPiece
 		norm.Lowest = slices.Clone(p.Lowest)
 	}
 	first := slices.Concat(p.First...)
-	axes, note, err := findAxesIn(p.Features, first, o.Axes, o.NoAxes)
+	axes, axesNote, err := findAxesIn(p.Features, first, o.Axes, o.NoAxes)
 	if err != nil {
 		return nil, nil, err
 	}
 	norm.Axes = axes
 	if axes != nil && !o.NoTurn {
-		var words string
-		if norm.Turned, words = normalize.FindTurned(p.Features, axes, first); words != "" {
-			note += "; " + words
-		}
+		norm.Turned = normalize.FindTurned(p.Features, axes, first)
+		axesNote = withTurned(axesNote, p.Features, norm.Turned)
 	}
-	fp.Notes = append(fp.Notes, note)
+	fp.Notes = append(fp.Notes, axesNote)
 	units := sample.units
 	if norm.Log {
 		norm.LogStart = normalize.LogStartOf(units, d)
@@ -551,8 +549,8 @@ func fitScaling(ctx context.Context, p *Plan, samples []*SamplePiece) (*FitPiece
 
 // logNote says which features were taken on a log scale, log(x + c) with c their first
 // quartile, and why each other one was not: it takes negative values, a quarter or more of its
-// values are 0 (c would be 0), or it is an axis mean.
-func logNote(features []string, fit *normalize.Fit, norm normalize.Options) string {
+// values are 0 (c would be 0), or it is an axis mean (NoteLogScales).
+func logNote(features []string, fit *normalize.Fit, norm normalize.Options) note.Note {
 	var logged, negative, zeros []string
 	for j, name := range features {
 		switch {
@@ -565,20 +563,7 @@ func logNote(features []string, fit *normalize.Fit, norm normalize.Options) stri
 			zeros = append(zeros, name)
 		}
 	}
-	list := func(xs []string) string {
-		if len(xs) == 0 {
-			return "none"
-		}
-		return strings.Join(xs, ", ")
-	}
-	note := "taken on a log scale, log(x + c) with c the feature's first quartile: " + list(logged)
-	if len(negative) > 0 {
-		note += "; left linear as they take negative values: " + list(negative)
-	}
-	if len(zeros) > 0 {
-		note += "; left linear as a quarter or more of their values are 0 (c would be 0): " + list(zeros)
-	}
-	return note
+	return note.Note{Kind: NoteLogScales, Ints: []int{len(logged), len(negative), len(zeros)}, Names: slices.Concat(logged, negative, zeros)}
 }
 
 // fitStates fits the movement states on the sampled participants' windows and sets fp.States,
@@ -593,7 +578,7 @@ func logNote(features []string, fit *normalize.Fit, norm normalize.Options) stri
 // random start nor one number of states. The agreement of the fits at the number of states
 // kept (their median pairwise adjusted Rand index, Hubert & Arabie 1985) is the run's
 // reproducibility; below Unreproducible the warnings say so.
-func fitStates(ctx context.Context, fp *FitPiece, units [][]float64, o Options) ([]string, []string, error) {
+func fitStates(ctx context.Context, fp *FitPiece, units [][]float64, o Options) ([]note.Note, []note.Note, error) {
 	fits := max(1, o.Fits)
 	var members []ensembleMember
 	for _, s := range o.States {
@@ -605,7 +590,7 @@ func fitStates(ctx context.Context, fp *FitPiece, units [][]float64, o Options) 
 		return nil, nil, err
 	}
 	best := 0
-	var notes, warnings []string
+	var notes, warnings []note.Note
 	if len(members) > 1 {
 		best, notes, warnings = keepMedoid(fp, members, o, len(units))
 	}
@@ -668,8 +653,8 @@ func fitEnsemble(ctx context.Context, fp *FitPiece, units [][]float64, o Options
 // keepMedoid keeps the fit whose grouping of the sampled participants agrees best with all the
 // others' (the medoid), says so in a note, sets the run's reproducibility (the agreement of the
 // fits at the number of states kept) and warns below Unreproducible.
-func keepMedoid(fp *FitPiece, members []ensembleMember, o Options, sampled int) (int, []string, []string) {
-	var notes, warnings []string
+func keepMedoid(fp *FitPiece, members []ensembleMember, o Options, sampled int) (int, []note.Note, []note.Note) {
+	var notes, warnings []note.Note
 	fits := max(1, o.Fits)
 	labels := make([][]int, len(members))
 	for i, m := range members {
@@ -683,13 +668,12 @@ func keepMedoid(fp *FitPiece, members []ensembleMember, o Options, sampled int) 
 			same = append(same, agreement(labels[best], labels[i]))
 		}
 	}
-	notes = append(notes, fmt.Sprintf("the movement states were fitted %d times (%s states, %d random starts each); the fit kept (%d states, start %d) is the one whose grouping of the %d sampled participants agrees best with the others' (median adjusted Rand index %.2f, lowest %.2f)",
-		len(members), numbersText(o.States), fits, kept.s, kept.fit+1, sampled, median(agree), slices.Min(agree)))
+	notes = append(notes, note.Note{Kind: NoteStatesEnsemble, Ints: append([]int{len(members), fits, kept.s, kept.fit + 1, sampled}, o.States...),
+		Floats: []float64{median(agree), slices.Min(agree)}})
 	if len(same) > 0 {
 		fp.Reproducibility = median(same)
 		if fp.Reproducibility < Unreproducible {
-			warnings = append(warnings, fmt.Sprintf("NOT REPRODUCIBLE: fitted again from other random starts, the movement states group the sampled participants differently (median adjusted Rand index %.2f, below %.2f). These data do not hold one grouping firmly; read the groups as tentative, and compare a run with another --seed.",
-				fp.Reproducibility, Unreproducible))
+			warnings = append(warnings, note.Note{Kind: WarnNotReproducible, Floats: []float64{fp.Reproducibility, Unreproducible}, Option: "job.Options.Seed"})
 		}
 	}
 	return best, notes, warnings
@@ -1222,7 +1206,7 @@ func mergeAssigned(f *Fitted, units []UnitInfo, parts []*AssignPiece) error {
 		}
 	}
 	if gaps > 0 {
-		f.Notes = append(f.Notes, fmt.Sprintf("%d interruptions of the recording (a step to the next window over %.1f times the participant's usual one) in %d participants end the bout they fall in; the shares of time are not changed by them", gaps, GapFactor, gapped))
+		f.Notes = append(f.Notes, note.Note{Kind: NoteGaps, Ints: []int{gaps, gapped}, Floats: []float64{GapFactor}})
 	}
 	f.Desc = ds.Descriptions()
 	if lc != nil {

@@ -84,7 +84,7 @@ type Result struct {
 	Units        []UnitRow
 	Separations  []group.Separation
 	NotTested    []cohort.LeftOut
-	Warnings     []string
+	Warnings     []note.Note
 	// Reproducibility is how alike the fits of the states from different random starts group
 	// the sampled participants (median adjusted Rand index); NaN when not measured.
 	Reproducibility float64
@@ -93,9 +93,10 @@ type Result struct {
 	Changes         *Changes     // set by assign and refresh
 	Sensitivity     []Sensitivity
 	// SensitivityNote says in a line that the groups depend on the number of movement states,
-	// when the fits the states were chosen among say so; "" otherwise.
-	SensitivityNote string
-	Notes           []string // what the run decided on its own that a reader should know (not warnings)
+	// when the fits the states were chosen among say so (NoteStatesDepend); no note (an empty
+	// Kind) otherwise.
+	SensitivityNote note.Note
+	Notes           []note.Note // what the run decided on its own that a reader should know (not warnings)
 	// OptionName puts the options a note's words name by their Go names (such as
 	// group.Options.Method) as the reader sets them, for example as command-line flags: it is
 	// given the words and returns them so named; nil leaves the Go names.
@@ -173,7 +174,7 @@ type Changes struct {
 	States       []GroupChange // state names with their drift (refresh)
 	Returning    int
 	ARI          float64 // agreement of old and new groups among returning participants (NaN if < 2)
-	Notes        []string
+	Notes        []note.Note
 }
 
 // Counts are the numbers of participants as every sheet states them. With a wave column each
@@ -244,6 +245,50 @@ const (
 	LeftOutLabels note.Kind = "job.left-out.labels"
 	// NotTestedOneGroup: no variable is tested, as the participants form one group.
 	NotTestedOneGroup note.Kind = "job.not-tested.one-group"
+)
+
+// The kinds of the run's notes (Result.Notes) and warnings (Result.Warnings), with the order of
+// their numbers and names.
+const (
+	// NoteAxes: how the align step's axis means were found, Ints[0] (AxesNone, AxesNamed,
+	// AxesNotFound or AxesFound), with their names in Names[0:3] (named or found) and, for those
+	// found or not, the coefficient of variation of the steadiest triple's vector length in
+	// Floats[0] (NaN: no triple named alike). What turns with them follows: Ints[1] is 1 when
+	// the axis s.d.s and correlations do, whose names are Names[3:9]; then each angle of the axis
+	// means, a name in Names and three Ints (axis 0–2, 1 for an angle from the axis rather than
+	// an elevation, 1 for degrees rather than radians).
+	NoteAxes note.Kind = "job.axes"
+	// NoteLogScales: Ints[0] features were taken on a log scale, Ints[1] left linear as they take
+	// negative values and Ints[2] as a quarter or more of their values are 0; their names in that
+	// order in Names.
+	NoteLogScales note.Kind = "job.log-scales"
+	// NoteStatesEnsemble: the states were fitted Ints[0] times (Ints[5:] the numbers of states,
+	// Ints[1] random starts each); the fit kept (Ints[2] states, start Ints[3]) is the medoid of
+	// the groupings of the Ints[4] sampled participants (median adjusted Rand index Floats[0],
+	// lowest Floats[1]).
+	NoteStatesEnsemble note.Kind = "job.states-ensemble"
+	// WarnNotReproducible: the fits from other random starts group the sampled participants
+	// differently (median adjusted Rand index Floats[0], below Floats[1]); Options.Seed.
+	WarnNotReproducible note.Kind = "job.not-reproducible"
+	// NoteGaps: Ints[0] interruptions of the recording (a step to the next window over Floats[0]
+	// times the participant's usual one) in Ints[1] participants end the bout they fall in.
+	NoteGaps note.Kind = "job.gaps"
+	// WarnMadeByUnreadable: the record of how the features of Names[0] were made ("": the
+	// model's data) cannot be read.
+	WarnMadeByUnreadable note.Kind = "job.made-by.unreadable"
+	// WarnMadeByMissing: the file Names[0] has no record of the features step whose features the
+	// model was fitted on.
+	WarnMadeByMissing note.Kind = "job.made-by.missing"
+	// WarnMadeByDiffers: the features of the file Names[0] were made otherwise than those of
+	// Names[1] ("": the model's data), in the ways Names[2] says.
+	WarnMadeByDiffers note.Kind = "job.made-by.differs"
+	// NoteGroupChanges (Changes.Notes): Ints[0] groups kept their names; then the names of the
+	// Ints[1] new groups, the Ints[2] gone and the Ints[3] merged (each with its status) in Names.
+	NoteGroupChanges note.Kind = "job.group-changes"
+	// NoteStatesDepend (Result.SensitivityNote): with the numbers of states Ints[1:], which the
+	// data support about as well as the Ints[0] kept, the sampled participants fall into other
+	// groups (adjusted Rand indices Floats, in the same order).
+	NoteStatesDepend note.Kind = "job.states-depend"
 )
 
 // NoteGroupsCapped (in Quality.Notes): with Ints[0] participants, up to Ints[1] groups were

@@ -6,7 +6,6 @@ import (
 	"maps"
 	"math"
 	"slices"
-	"strings"
 	"sync"
 
 	"gonum.org/v1/gonum/mat"
@@ -14,6 +13,7 @@ import (
 	"github.com/cohortmix/cohortmix/cluster"
 	"github.com/cohortmix/cohortmix/cluster/par"
 	"github.com/cohortmix/cohortmix/cohort/group"
+	"github.com/cohortmix/cohortmix/cohort/note"
 	"github.com/cohortmix/cohortmix/normalize"
 	"github.com/cohortmix/cohortmix/profile"
 )
@@ -228,7 +228,7 @@ func skipped(row Sensitivity, err error) Sensitivity {
 // of states the ensemble voted down are not doubts. The sensitivity table is not read here: its
 // other alternatives (grouping methods, within steps) did worse on the benchmark families
 // (docs/benchmarks.md), and its refits use fewer participants than the ensemble.
-func statesNote(ensemble []profile.EnsembleFit) string {
+func statesNote(ensemble []profile.EnsembleFit) note.Note {
 	var kept profile.EnsembleFit
 	for _, e := range ensemble {
 		if e.Kept {
@@ -245,11 +245,11 @@ func statesNote(ensemble []profile.EnsembleFit) string {
 		}
 	}
 	if len(worst) == 0 {
-		return ""
+		return note.Note{}
 	}
-	var parts []string
+	n := note.Note{Kind: NoteStatesDepend, Ints: []int{kept.States}}
 	for _, s := range slices.Sorted(maps.Keys(worst)) {
-		parts = append(parts, fmt.Sprintf("%d states (adjusted Rand index %.2f)", s, worst[s]))
+		n.Ints, n.Floats = append(n.Ints, s), append(n.Floats, worst[s])
 	}
-	return fmt.Sprintf("the groups depend on the number of movement states: fitted with %s, which these data support about as well as the %d kept, the sampled participants fall into other groups; read the groups with that in mind", strings.Join(parts, " or "), kept.States)
+	return n
 }

@@ -3,8 +3,10 @@ package job
 import (
 	"context"
 	"math"
+	"slices"
 	"testing"
 
+	"github.com/cohortmix/cohortmix/cohort/note"
 	"github.com/cohortmix/cohortmix/cohort/synth"
 	"github.com/cohortmix/cohortmix/profile"
 )
@@ -88,15 +90,15 @@ func TestStatesNote(t *testing.T) {
 	for _, c := range []struct {
 		name string
 		ens  []profile.EnsembleFit
-		want string
+		want note.Note
 	}{
-		{"one fit", nil, ""},
-		{"a credible number of states that groups alike", ens(0.68, 0.90), ""},
-		{"a number of states voted down", ens(0.60, 0.30), ""},
-		{"a credible number of states that groups otherwise", ens(0.68, 0.55), "the groups depend on the number of movement states: fitted with 4 states (adjusted Rand index 0.55), which these data support about as well as the 5 kept, the sampled participants fall into other groups; read the groups with that in mind"},
+		{"one fit", nil, note.Note{}},
+		{"a credible number of states that groups alike", ens(0.68, 0.90), note.Note{}},
+		{"a number of states voted down", ens(0.60, 0.30), note.Note{}},
+		{"a credible number of states that groups otherwise", ens(0.68, 0.55), note.Note{Kind: NoteStatesDepend, Ints: []int{5, 4}, Floats: []float64{0.55}}},
 	} {
-		if got := statesNote(c.ens); got != c.want {
-			t.Errorf("%s:\n got %q\nwant %q", c.name, got, c.want)
+		if got := statesNote(c.ens); got.Kind != c.want.Kind || !slices.Equal(got.Ints, c.want.Ints) || !slices.Equal(got.Floats, c.want.Floats) {
+			t.Errorf("%s:\n got %+v\nwant %+v", c.name, got, c.want)
 		}
 	}
 }

@@ -180,16 +180,8 @@ func RefreshChanges(prev *modelfile.Model, res *Result, m *group.Matching, next 
 		}
 		c.States = append(c.States, GroupChange{Name: name, Status: st, Drift: m.StateDrift[j]})
 	}
-	c.Notes = append(c.Notes, fmt.Sprintf("groups: %d kept their names, new: %s; gone: %s; merged: %s",
-		len(res.GroupNames)-len(news), listOrNone(news), listOrNone(gone), listOrNone(merged)))
+	c.Notes = append(c.Notes, note.Note{Kind: NoteGroupChanges, Ints: []int{len(res.GroupNames) - len(news), len(news), len(gone), len(merged)}, Names: slices.Concat(news, gone, merged)})
 	return c
-}
-
-func listOrNone(xs []string) string {
-	if len(xs) == 0 {
-		return "none"
-	}
-	return strings.Join(xs, ", ")
 }
 
 // AssignOptions steer Assign.
