@@ -5,6 +5,8 @@ import (
 	"io"
 	"strconv"
 	"strings"
+
+	"github.com/cohortmix/cohortmix/cohort/job"
 )
 
 // MembersTo writes the plain participant, wave, group CSV for R, Stata or Python. Ids are
@@ -26,7 +28,7 @@ func MembersTo(w io.Writer, r *Result) error {
 		if u.Posterior == u.Posterior {
 			prob = strconv.FormatFloat(u.Posterior, 'f', 4, 64)
 		}
-		group, flag := r.GroupNames[u.Group], u.Flag
+		group, flag := r.GroupNames[u.Group], unitFlag(r, u)
 		if u.Atypical {
 			group, flag = "", "atypical"
 		}
@@ -51,4 +53,17 @@ func SafeCell(s string) string {
 		return "'" + s
 	}
 	return s
+}
+
+// unitFlag is a unit's flag in words: atypical (with its nearest group), or a weak fit.
+func unitFlag(r *Result, u job.UnitRow) string {
+	switch {
+	case u.Atypical:
+		return "atypical: farther from every group than 99% of the model's members (nearest " + r.GroupNames[u.Group] + ")"
+	case u.Mark == job.MarkCloserElsewhere:
+		return "weak fit: closer to another group"
+	case u.Mark == job.MarkWeakFit:
+		return "weak fit"
+	}
+	return ""
 }

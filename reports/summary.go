@@ -179,7 +179,7 @@ func inShort(r *Result) string {
 	c := r.Counts()
 	weak := 0
 	for _, u := range r.Units {
-		if !u.Atypical && strings.HasPrefix(u.Flag, "weak fit") {
+		if !u.Atypical && u.Mark != job.MarkNone {
 			weak++
 		}
 	}
@@ -255,7 +255,14 @@ func detailRows(r *Result) [][2]string {
 	q, c := r.Quality, r.Counts()
 	window := "not known: bout lengths are counted in windows"
 	if r.WindowLength > 0 {
-		window = fmt.Sprintf("%s (from %s); bout lengths are given in minutes", r.WindowLength, r.WindowSource)
+		from := "the order column's times"
+		if r.WindowSource == job.WindowGiven {
+			from = "job.Options.Window"
+			if r.OptionName != nil {
+				from = r.OptionName(from)
+			}
+		}
+		window = fmt.Sprintf("%s (from %s); bout lengths are given in minutes", r.WindowLength, from)
 	}
 	rows := [][2]string{
 		{"How it was done", howDone(r)},

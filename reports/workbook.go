@@ -317,7 +317,7 @@ func (pc participantColumns) cells(r *Result, st *styles, u job.UnitRow) []v {
 		group = ""
 	}
 	cells := []v{{u.ID, st.text}, {u.Wave, st.text}, {u.Windows, st.integer}, {group, st.text},
-		{u.Posterior, st.dec3}, {u.Silhouette, st.dec3}, {u.Distance, st.dec3}, {u.Flag, st.text}}
+		{u.Posterior, st.dec3}, {u.Silhouette, st.dec3}, {u.Distance, st.dec3}, {unitFlag(r, u), st.text}}
 	if pc.nonWear {
 		cells = slices.Insert(cells, 3, v{u.NonWear, st.integer})
 	}

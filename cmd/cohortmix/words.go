@@ -70,6 +70,5 @@ func userWords(s string) string {
 
 // inFlagWords names the options by their flags in every text of a result that reaches a reader.
 func inFlagWords(r *reports.Result) {
-	r.WindowSource = flagWords(r.WindowSource)
 	r.OptionName = flagWords
 }

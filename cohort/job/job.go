@@ -104,7 +104,7 @@ type Fitted struct {
 	Grouping        *group.Grouping
 	Window          time.Duration // the length of one window (0: not known)
 	// WindowSource says where the window length came from.
-	WindowSource string
+	WindowSource WindowSource
 	// Atypical marks the units assign placed farther from every group than the model's members;
 	// they belong to no group (nil: none).
 	Atypical []bool
@@ -222,12 +222,12 @@ func rebuild(dst, y []float64, comps *mat.Dense) []float64 {
 
 // WindowLength is the length of one window: as given, or read from the order column's times
 // of the first few participants (windowFromSteps); 0 when neither is there.
-func WindowLength(t *cohort.Table, given time.Duration) (time.Duration, string) {
+func WindowLength(t *cohort.Table, given time.Duration) (time.Duration, WindowSource) {
 	var steps [][]int64
 	for u := 0; u < min(stepUnits, len(t.Units)); u++ {
 		s, err := orderSteps(t, u)
 		if err != nil {
-			return 0, ""
+			return 0, WindowUnknown
 		}
 		steps = append(steps, s)
 	}
@@ -496,7 +496,7 @@ func Describe(f *Fitted, stateNames, groupNames []string) (*Result, error) {
 	}
 	res.AtypicalCut = groupstat.Quantile(g.Distance, 0.99)
 	for i := range t.Units {
-		res.Units = append(res.Units, unitRow(f, i, groupNames))
+		res.Units = append(res.Units, unitRow(f, i))
 	}
 	res.StateNames, res.GroupNames = stateNames, groupNames
 	res.WindowLength, res.WindowSource = f.Window, f.WindowSource
@@ -560,7 +560,7 @@ func separate(res *Result, f *Fitted, vars []group.Variable) error {
 }
 
 // unitRow is unit i's row of the result.
-func unitRow(f *Fitted, i int, groupNames []string) UnitRow {
+func unitRow(f *Fitted, i int) UnitRow {
 	g, sigs, u := f.Grouping, f.Sigs, f.Table.Units[i]
 	row := UnitRow{ID: u.ID, Wave: u.Wave, Windows: sigs[i].Windows, NonWear: u.NonWear, Wear: u.Wear, Group: g.Labels[i],
 		Silhouette: g.Silhouette[i], Distance: g.Distance[i], Share: sigs[i].Share, Bout: sigs[i].MeanBout, Stay: math.NaN(), Turn: math.NaN(), Posterior: math.NaN(), Rhythm: profile.NoRhythm}
@@ -579,12 +579,11 @@ func unitRow(f *Fitted, i int, groupNames []string) UnitRow {
 	switch s := g.Silhouette[i]; {
 	case f.Atypical != nil && f.Atypical[i]:
 		row.Atypical = true
-		row.Flag = "atypical: farther from every group than 99% of the model's members (nearest " + groupNames[g.Labels[i]] + ")"
 	case math.IsNaN(s):
 	case s < 0:
-		row.Flag = "weak fit: closer to another group"
-	case s < 0.25:
-		row.Flag = "weak fit"
+		row.Mark = MarkCloserElsewhere
+	case s < WeakSilhouette:
+		row.Mark = MarkWeakFit
 	}
 	return row
 }

@@ -170,7 +170,7 @@ type Plan struct {
 	Usable    int // windows in the units grouped
 	Window    time.Duration
 	// WindowSource says where Window came from.
-	WindowSource string
+	WindowSource WindowSource
 }
 
 // MergeCensus merges the census of every shard into the plan of the run. The censuses must be
@@ -336,12 +336,12 @@ func (o Options) typed() Options {
 // windowFromSteps is the length of one window: as given, or with times in the order column the
 // most common step between consecutive windows of the first few units (gaps in a recording are
 // longer steps and do not count); 0 when neither is there.
-func windowFromSteps(steps [][]int64, orderKind string, given time.Duration) (time.Duration, string) {
+func windowFromSteps(steps [][]int64, orderKind string, given time.Duration) (time.Duration, WindowSource) {
 	if given > 0 {
-		return given, "job.Options.Window"
+		return given, WindowGiven
 	}
 	if orderKind != "time" {
-		return 0, ""
+		return 0, WindowUnknown
 	}
 	count := map[int64]int{}
 	for _, s := range steps {
@@ -356,10 +356,19 @@ func windowFromSteps(steps [][]int64, orderKind string, given time.Duration) (ti
 		}
 	}
 	if best <= 0 {
-		return 0, ""
+		return 0, WindowUnknown
 	}
-	return time.Duration(best), "the order column's times"
+	return time.Duration(best), WindowFromTimes
 }
+
+// WindowSource is where the window length came from.
+type WindowSource int
+
+const (
+	WindowUnknown   WindowSource = iota // not known: bout lengths are in windows
+	WindowGiven                         // given (Options.Window)
+	WindowFromTimes                     // the most common step between the order column's times
+)
 
 // SampledUnit is one unit's windows drawn for the fit.
 type SampledUnit struct {

@@ -14,6 +14,20 @@ import (
 	"github.com/cohortmix/cohortmix/profile"
 )
 
+// UnitMark marks a unit that fits its group weakly, by its silhouette.
+type UnitMark int
+
+const (
+	MarkNone            UnitMark = iota // a silhouette of WeakSilhouette or more, or none
+	MarkWeakFit                         // a silhouette from 0 to WeakSilhouette
+	MarkCloserElsewhere                 // a negative silhouette: closer to another group
+)
+
+// WeakSilhouette is the silhouette below which a unit's fit to its group is marked weak (after
+// Kaufman & Rousseeuw 1990, who read an average silhouette of 0.25 or less as no substantial
+// structure; the value is from memory).
+const WeakSilhouette = 0.25
+
 // UnitRow is one grouped participant (or participant wave).
 type UnitRow struct {
 	ID, Wave   string
@@ -27,7 +41,7 @@ type UnitRow struct {
 	// Posterior is the probability of its group under the mixture (the mixture method); NaN
 	// for the other methods.
 	Posterior float64
-	Flag      string
+	Mark      UnitMark // a weak fit to its group, by the silhouette
 	Share     []float64
 	Bout      []float64
 	Stay      float64 // share of bootstrap resamples in which it stayed with its group; NaN when not computed
@@ -74,9 +88,9 @@ type Result struct {
 	States        *profile.States
 	StateNames    []string
 	// WindowLength is the length of one window (0: not known), and WindowSource where it came
-	// from ("the order column's times" or "--window-length").
+	// from.
 	WindowLength time.Duration
-	WindowSource string
+	WindowSource WindowSource
 	StateDesc    []profile.Description
 	Labels       *profile.LabelTable
 	Grouping     *group.Grouping
