@@ -200,7 +200,7 @@ type Quality struct {
 	WindowsNonWear     int    // left out as non-wear (ReadOptions.NonWear), in units that were kept
 	NonWearRule        string // the rule that found them
 	WindowsInvalidDays int    // left out as on days of too little wear (ReadOptions.ValidDay), in units that were kept
-	ValidDayRule       string // the valid-day rule applied, in words ("" for none)
+	ValidDayRule       *ValidDayRule // the valid-day rule applied (nil for none)
 	WindowsExcluded    int    // windows of excluded units
 	CellsImputed       int
 	Excluded           []Exclusion
@@ -226,7 +226,10 @@ const (
 	// NoteNonWear: Ints[0] windows of the participants kept fell in non-wear periods and were
 	// left out, by the rule Names[0] (NonWearChoi, NonWearTroiano or NonWearColumn).
 	NoteNonWear note.Kind = "cohort.non-wear"
-	// NoteValidDays: the valid-day rule Names[0] (in words) left out Ints[0] windows of the
+	// NoteValidDays: the valid-day rule (a day counts with Floats[0] hours or more of wear, a
+	// participant with Ints[1] or more such days, one of them a Saturday or Sunday when Ints[2]
+	// is 1; days on the wall clock of the zone Names[0], or where Ints[3] is 1 by the clock the
+	// times were written in) left out Ints[0] windows of the
 	// participants kept, on other days.
 	NoteValidDays note.Kind = "cohort.valid-days"
 	// NoteTrimmed: Ints[0] id or wave cells had spaces around them, the first at Names[0]; the
@@ -263,8 +266,8 @@ func QualityNotes(q Quality, order string) []note.Note {
 	if q.WindowsNonWear > 0 {
 		notes = append(notes, note.Note{Kind: NoteNonWear, Ints: []int{q.WindowsNonWear}, Names: []string{q.NonWearRule}})
 	}
-	if q.ValidDayRule != "" {
-		notes = append(notes, note.Note{Kind: NoteValidDays, Ints: []int{q.WindowsInvalidDays}, Names: []string{q.ValidDayRule}})
+	if v := q.ValidDayRule; v != nil {
+		notes = append(notes, note.Note{Kind: NoteValidDays, Ints: []int{q.WindowsInvalidDays, v.Days, boolInt(v.Weekend), boolInt(v.Naive)}, Floats: []float64{v.Hours}, Names: []string{v.Zone}})
 	}
 	if q.TrimmedCells > 0 {
 		notes = append(notes, note.Note{Kind: NoteTrimmed, Ints: []int{q.TrimmedCells}, Names: []string{q.TrimmedAt}})
@@ -1400,7 +1403,7 @@ func (r *reader) finish() (t *Table, err error) {
 		t.TimeZone = r.opts.TimeZone
 	}
 	if f.wr != nil {
-		q.ValidDayRule = f.wr.String()
+		q.ValidDayRule = f.wr.rule()
 	}
 	for ui, ru := range r.units {
 		if ui%256 == 0 && r.ctx.Err() != nil {

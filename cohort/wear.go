@@ -116,7 +116,34 @@ func hoursText(d time.Duration) string {
 	return fmt.Sprintf("%g h", d.Hours())
 }
 
-// String is the rule in words, for the notes.
+// rule is the rule as data, for the reading's quality and notes.
+func (w *wearRule) rule() *ValidDayRule {
+	r := &ValidDayRule{Hours: w.day.Hours(), Days: w.days, Weekend: w.weekend, Naive: w.naive}
+	if !w.naive {
+		r.Zone = w.clock.Zone()
+	}
+	return r
+}
+
+// ValidDayRule is the valid-day rule a reading applied: a day counts with Hours or more of wear,
+// and a participant with Days or more such days, one of them a Saturday or Sunday with Weekend;
+// days are on the wall clock of Zone, or by the clock the times were written in (Naive).
+type ValidDayRule struct {
+	Hours   float64
+	Days    int
+	Weekend bool
+	Naive   bool
+	Zone    string
+}
+
+func boolInt(b bool) int {
+	if b {
+		return 1
+	}
+	return 0
+}
+
+// String is the rule in words, for errors.
 func (w *wearRule) String() string {
 	s := fmt.Sprintf("a day counts with %s or more of wear, and a participant with %d or more such days", hoursText(w.day), w.days)
 	if w.weekend {

@@ -107,8 +107,8 @@ func TestValidDays(t *testing.T) {
 				t.Errorf("accounting: %d windows used by the counts, %d in the units", q.WindowsUsed(), used)
 			}
 			if tc.opts.ValidDayAuto {
-				if q.ValidDayRule != "" || q.WindowsInvalidDays != 0 {
-					t.Errorf("auto applied the rule without a non-wear rule: %q", q.ValidDayRule)
+				if q.ValidDayRule != nil || q.WindowsInvalidDays != 0 {
+					t.Errorf("auto applied the rule without a non-wear rule: %+v", q.ValidDayRule)
 				}
 				return
 			}
@@ -119,7 +119,7 @@ func TestValidDays(t *testing.T) {
 				t.Errorf("D's wear %+v", d)
 			}
 			if !slices.ContainsFunc(q.Notes, func(n note.Note) bool {
-				return n.Kind == NoteValidDays && strings.HasPrefix(n.Names[0], "a day counts with 10 h or more of wear")
+				return n.Kind == NoteValidDays && len(n.Floats) == 1 && n.Floats[0] == 10 && n.Ints[1] == DefaultValidDays
 			}) {
 				t.Errorf("notes %v", q.Notes)
 			}

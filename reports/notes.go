@@ -64,7 +64,16 @@ var noteWords = map[note.Kind]func(a noteArgs) string{
 		return fmt.Sprintf("%s windows of the participants kept fell in non-wear periods and were left out (%s)", cohort.Thousands(a.i(0)), nonWearRule[a.name(0)])
 	},
 	cohort.NoteValidDays: func(a noteArgs) string {
-		return fmt.Sprintf("valid days: %s; %s windows of the participants kept fell on other days and were left out", a.name(0), cohort.Thousands(a.i(0)))
+		rule := fmt.Sprintf("a day counts with %g h or more of wear, and a participant with %d or more such days", a.x(0), a.i(1))
+		if a.i(2) == 1 {
+			rule += ", one of them a Saturday or a Sunday"
+		}
+		if a.i(3) == 1 {
+			rule += " (days by the clock the times were written in)"
+		} else {
+			rule += fmt.Sprintf(" (days on the wall clock of %s)", a.name(0))
+		}
+		return fmt.Sprintf("valid days: %s; %s windows of the participants kept fell on other days and were left out", rule, cohort.Thousands(a.i(0)))
 	},
 	cohort.NoteTrimmed: func(a noteArgs) string {
 		return fmt.Sprintf("%d id or wave cells had spaces around them (the first at %s); the spaces were removed, so \"P6 \" and \"P6\" are one participant", a.i(0), a.name(0))

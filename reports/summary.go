@@ -360,7 +360,7 @@ func windowsText(q cohort.Quality, units string) string {
 	if q.NonWearRule != "" {
 		s += fmt.Sprintf(", %s left out as non-wear", cohort.Thousands(q.WindowsNonWear))
 	}
-	if q.ValidDayRule != "" {
+	if q.ValidDayRule != nil {
 		s += fmt.Sprintf(", %s on days that were not valid", cohort.Thousands(q.WindowsInvalidDays))
 	}
 	return s + fmt.Sprintf(", %s in excluded %s", cohort.Thousands(q.WindowsExcluded), units)

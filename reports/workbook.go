@@ -235,7 +235,7 @@ type participantColumns struct {
 }
 
 func participantColumnsOf(r *Result) participantColumns {
-	pc := participantColumns{nonWear: r.Quality.WindowsNonWear > 0, wear: r.Quality.ValidDayRule != "", at: 3}
+	pc := participantColumns{nonWear: r.Quality.WindowsNonWear > 0, wear: r.Quality.ValidDayRule != nil, at: 3}
 	if pc.nonWear {
 		pc.at = 4
 	}
@@ -776,7 +776,7 @@ func qualityAccounting(t *table, st *styles, r *Result) error {
 	if q.NonWearRule != "" {
 		counts = append(counts, count{"windows left out as non-wear", q.WindowsNonWear})
 	}
-	if q.ValidDayRule != "" {
+	if q.ValidDayRule != nil {
 		counts = append(counts, count{"windows on days that were not valid", q.WindowsInvalidDays})
 	}
 	counts = append(counts, count{"windows of excluded " + u, q.WindowsExcluded}, count{"cells imputed", q.CellsImputed})

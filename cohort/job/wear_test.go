@@ -86,8 +86,8 @@ func TestGroupsOnPlantedWear(t *testing.T) {
 			for _, u := range res.Units {
 				used += u.Windows
 			}
-			if q.WindowsUsed() != used || len(res.Units)+len(q.Excluded) != q.UnitsIn || q.ValidDayRule == "" {
-				t.Errorf("accounting: %d used by the counts, %d in the units; %d + %d units of %d; rule %q", q.WindowsUsed(), used, len(res.Units), len(q.Excluded), q.UnitsIn, q.ValidDayRule)
+			if q.WindowsUsed() != used || len(res.Units)+len(q.Excluded) != q.UnitsIn || q.ValidDayRule == nil {
+				t.Errorf("accounting: %d used by the counts, %d in the units; %d + %d units of %d; rule %+v", q.WindowsUsed(), used, len(res.Units), len(q.Excluded), q.UnitsIn, q.ValidDayRule)
 			}
 			if n := q.DroppedFeatures; len(n) != 1 || n[0].Name != "log_counts" {
 				t.Errorf("dropped features %v, want log_counts as the twin of counts", n)
