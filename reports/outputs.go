@@ -233,29 +233,12 @@ func (o *Outputs) Write(flag string, write func(io.Writer) error) (err error) {
 	if t == nil {
 		return fmt.Errorf("reports: no output was planned for %s", flag)
 	}
-	tmp, err := os.CreateTemp(filepath.Dir(t.Path), scratch.Pattern("."+filepath.Base(t.Path), scratch.PartialSuffix))
+	tmp, err := scratch.WriteTemp(t.Path, write)
 	if err != nil {
-		o.Abort()
-		return fmt.Errorf("%s %s: cannot create a temporary file beside it: %w", t.Flag, t.Path, err)
-	}
-	o.temps[t.Path] = tmp.Name()
-	defer func() {
-		if cerr := tmp.Close(); err == nil && cerr != nil {
-			err = fmt.Errorf("%s %s: %w", t.Flag, t.Path, cerr)
-		}
-		if err != nil {
-			o.Abort() // one output failed: none of the run's outputs will be committed
-		}
-	}()
-	if err = tmp.Chmod(0o644); err != nil { // CreateTemp makes 0600; outputs get the usual mode
+		o.Abort() // one output failed: none of the run's outputs will be committed
 		return fmt.Errorf("%s %s: %w", t.Flag, t.Path, err)
 	}
-	if err = write(tmp); err != nil {
-		return fmt.Errorf("%s %s: %w", t.Flag, t.Path, err)
-	}
-	if err = tmp.Sync(); err != nil {
-		return fmt.Errorf("%s %s: %w", t.Flag, t.Path, err)
-	}
+	o.temps[t.Path] = tmp
 	return nil
 }
 

@@ -16,6 +16,7 @@ import (
 	"github.com/cohortmix/cohortmix/cohort/pseudonym"
 	"github.com/cohortmix/cohortmix/cohort/scratch"
 	"github.com/cohortmix/cohortmix/cohort/synth"
+	"github.com/cohortmix/cohortmix/reports"
 )
 
 type demoOptions struct {
@@ -80,25 +81,28 @@ func demoRun(ctx context.Context, o *demoOptions) error {
 		g.Flags.Model = filepath.Join(o.Dir, "demo-model.json")
 	}
 	g.Args = []string{"cohortmix", "group", data, "--label", g.Flags.Label, "--window-length", g.Flags.WindowLength.String(), "--out", g.Out}
-	for _, p := range []string{data, truthPath} {
-		if err := scratch.CheckTarget(p, o.Flags.Force); err != nil {
-			return err
-		}
+	cohortFiles, err := reports.PlanOutputs([]reports.Target{{Flag: "the demo cohort", Path: data}, {Flag: "the planted groups", Path: truthPath}}, nil, "", o.Flags.Force)
+	if err != nil {
+		return err
 	}
 	if err := g.outputs(); err != nil {
+		cohortFiles.Abort()
 		return err
 	}
 	so := o.Synth
 	so.Seed, so.Labels = o.Flags.Seed, true
 	var truth []synth.Truth
-	err := scratch.WriteAtomic(data, o.Flags.Force, func(w io.Writer) (err error) {
+	err = cohortFiles.Write("the demo cohort", func(w io.Writer) (err error) {
 		truth, err = synth.Write(w, so, false)
 		return err
 	})
 	if err != nil {
 		return err
 	}
-	if err := writeTruth(truthPath, truth, o.Flags.Force); err != nil {
+	if err := cohortFiles.Write("the planted groups", truthCSV(truth)); err != nil {
+		return err
+	}
+	if err := cohortFiles.Commit(); err != nil {
 		return err
 	}
 	fmt.Fprintf(o.IO.Out, "wrote the synthetic demo cohort %s (%d invented participants × %d windows)\n", data, len(truth), so.Windows)
@@ -122,8 +126,9 @@ func demoRun(ctx context.Context, o *demoOptions) error {
 	return nil
 }
 
-func writeTruth(path string, truth []synth.Truth, force bool) error {
-	return scratch.WriteAtomic(path, force, func(w io.Writer) error {
+// truthCSV writes the planted groups as CSV: participant, planted_group (1-based).
+func truthCSV(truth []synth.Truth) func(io.Writer) error {
+	return func(w io.Writer) error {
 		cw := csv.NewWriter(w)
 		_ = cw.Write([]string{"participant", "planted_group"})
 		for _, t := range truth {
@@ -131,7 +136,7 @@ func writeTruth(path string, truth []synth.Truth, force bool) error {
 		}
 		cw.Flush()
 		return cw.Error()
-	})
+	}
 }
 
 // compareMembers reads the members CSV back and compares it with the planted groups.

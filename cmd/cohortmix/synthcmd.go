@@ -9,8 +9,8 @@ import (
 
 	"github.com/spf13/cobra"
 
-	"github.com/cohortmix/cohortmix/cohort/scratch"
 	"github.com/cohortmix/cohortmix/cohort/synth"
+	"github.com/cohortmix/cohortmix/reports"
 )
 
 type synthOptions struct {
@@ -79,8 +79,12 @@ func synthRun(ctx context.Context, o *synthOptions) error {
 		return flagErrorf("--participants %d, --windows %d, --features %d, --groups %d: use ≥ 1 participants and windows, 12 or 24 features, 2–4 groups",
 			o.Synth.Participants, o.Synth.Windows, o.Synth.Features, o.Synth.Groups)
 	}
+	outs, err := reports.PlanOutputs([]reports.Target{{Flag: "--out", Path: o.Out}, {Flag: "--truth", Path: o.Truth}}, nil, "", o.Force)
+	if err != nil {
+		return err
+	}
 	var truth []synth.Truth
-	err := scratch.WriteAtomic(o.Out, o.Force, func(w io.Writer) (err error) {
+	err = outs.Write("--out", func(w io.Writer) (err error) {
 		if strings.HasSuffix(o.Out, ".parquet") {
 			truth, err = synth.WriteParquet(w, o.Synth)
 		} else {
@@ -91,10 +95,13 @@ func synthRun(ctx context.Context, o *synthOptions) error {
 	if err != nil {
 		return err
 	}
-	if o.Truth != "" {
-		if err := writeTruth(o.Truth, truth, o.Force); err != nil {
+	if outs.Has("--truth") {
+		if err := outs.Write("--truth", truthCSV(truth)); err != nil {
 			return err
 		}
+	}
+	if err := outs.Commit(); err != nil {
+		return err
 	}
 	fmt.Fprintf(o.IO.Out, "wrote %s: %d synthetic participants × %d windows × %d features\n", o.Out, o.Synth.Participants, o.Synth.Windows, o.Synth.Features)
 	return ctx.Err()

@@ -29,13 +29,28 @@ func CheckTarget(path string, force bool) error {
 
 // WriteAtomic writes through write into a temporary file beside path and renames it into place,
 // so a crash or an interrupt never leaves half a file; the temporary file is removed on failure.
-func WriteAtomic(path string, force bool, write func(io.Writer) error) (err error) {
+func WriteAtomic(path string, force bool, write func(io.Writer) error) error {
 	if err := CheckTarget(path, force); err != nil {
 		return err
 	}
+	tmp, err := WriteTemp(path, write)
+	if err != nil {
+		return fmt.Errorf("%s: %w", path, err)
+	}
+	if err := os.Rename(tmp, path); err != nil {
+		os.Remove(tmp)
+		return fmt.Errorf("%s: %w", path, err)
+	}
+	return nil
+}
+
+// WriteTemp writes through write into a new temporary file beside path (named with Pattern and
+// PartialSuffix, so that a later run can sweep it up), synced and closed with the usual mode,
+// and returns its name; on failure the file is removed. Renaming it into place is the caller's.
+func WriteTemp(path string, write func(io.Writer) error) (name string, err error) {
 	tmp, err := os.CreateTemp(filepath.Dir(path), Pattern("."+filepath.Base(path), PartialSuffix))
 	if err != nil {
-		return fmt.Errorf("%s: cannot create a temporary file beside it: %w", path, err)
+		return "", fmt.Errorf("cannot create a temporary file beside it: %w", err)
 	}
 	defer func() {
 		if err != nil {
@@ -44,19 +59,16 @@ func WriteAtomic(path string, force bool, write func(io.Writer) error) (err erro
 		}
 	}()
 	if err = tmp.Chmod(0o644); err != nil { // CreateTemp makes 0600; outputs get the usual mode
-		return fmt.Errorf("%s: %w", path, err)
+		return "", err
 	}
 	if err = write(tmp); err != nil {
-		return fmt.Errorf("%s: %w", path, err)
+		return "", err
 	}
 	if err = tmp.Sync(); err != nil {
-		return fmt.Errorf("%s: %w", path, err)
+		return "", err
 	}
 	if err = tmp.Close(); err != nil {
-		return fmt.Errorf("%s: %w", path, err)
+		return "", err
 	}
-	if err = os.Rename(tmp.Name(), path); err != nil {
-		return fmt.Errorf("%s: %w", path, err)
-	}
-	return nil
+	return tmp.Name(), nil
 }
