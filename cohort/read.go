@@ -196,12 +196,12 @@ const (
 // Quality accounts for every window and participant that came in.
 type Quality struct {
 	UnitsIn, WindowsIn int
-	WindowsDropped     int    // for missing cells, in units that were kept
-	WindowsNonWear     int    // left out as non-wear (ReadOptions.NonWear), in units that were kept
-	NonWearRule        string // the rule that found them
-	WindowsInvalidDays int    // left out as on days of too little wear (ReadOptions.ValidDay), in units that were kept
+	WindowsDropped     int           // for missing cells, in units that were kept
+	WindowsNonWear     int           // left out as non-wear (ReadOptions.NonWear), in units that were kept
+	NonWearRule        string        // the rule that found them
+	WindowsInvalidDays int           // left out as on days of too little wear (ReadOptions.ValidDay), in units that were kept
 	ValidDayRule       *ValidDayRule // the valid-day rule applied (nil for none)
-	WindowsExcluded    int    // windows of excluded units
+	WindowsExcluded    int           // windows of excluded units
 	CellsImputed       int
 	Excluded           []Exclusion
 	DroppedFeatures    []LeftOut

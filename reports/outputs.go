@@ -19,7 +19,7 @@ type Target struct {
 	Flag, Path string
 }
 
-// Outputs are the files one run writes. PlanOutputs checks them all before any work is done;
+// Outputs are the files one run writes. NewOutputs checks them all before any work is done;
 // Write writes each to a temporary file beside its target, and Commit renames them all into
 // place at the end. A run that fails or is interrupted calls Abort, which removes the temporary
 // files: no output appears, and no earlier output changes.
@@ -27,7 +27,7 @@ type Outputs struct {
 	force   bool
 	targets []Target
 	temps   map[string]string // target path → its written temporary file
-	// Leftovers is what PlanOutputs found of earlier runs that were killed, in the folders of
+	// Leftovers is what NewOutputs found of earlier runs that were killed, in the folders of
 	// the targets and the temporary folder, and what it did with each.
 	Leftovers []Leftover
 }
@@ -104,22 +104,22 @@ func recoverLeftovers(dir string) ([]Leftover, error) {
 	return out, nil
 }
 
-// PlanOutputs checks every target before a run reads anything: its folder exists and can be
+// NewOutputs checks every target before a run reads anything: its folder exists and can be
 // written to; it is not one of the inputs (whatever force says); it is not a folder, not the
 // run's temporary folder and not another output; and it does not exist unless force is set.
 // Each problem is one line naming the flag and the path. Targets with an empty path are skipped.
-func PlanOutputs(targets []Target, inputs []string, tempDir string, force bool) (*Outputs, error) {
-	return PlanOutputsKeeping(targets, inputs, nil, tempDir, force)
+func NewOutputs(targets []Target, inputs []string, tempDir string, force bool) (*Outputs, error) {
+	return NewOutputsKeeping(targets, inputs, nil, tempDir, force)
 }
 
-// PlanOutputsKeeping is PlanOutputs with files the run reads that are not inputs of the table,
+// NewOutputsKeeping is NewOutputs with files the run reads that are not inputs of the table,
 // each named by the flag that gives it (the pseudonymization key, say): no output may replace
 // one of them either, whatever force says.
 //
 // Before that, in each target's folder and the temporary folder, it completes the commit of a
 // run that was killed while putting its outputs in place, and removes the temporary files that
 // killed runs of this host left (Outputs.Leftovers).
-func PlanOutputsKeeping(targets []Target, inputs []string, keep []Target, tempDir string, force bool) (*Outputs, error) {
+func NewOutputsKeeping(targets []Target, inputs []string, keep []Target, tempDir string, force bool) (*Outputs, error) {
 	o := &Outputs{force: force, temps: map[string]string{}}
 	swept := map[string]bool{}
 	for _, dir := range append([]string{tempDir}, targetDirs(targets)...) {
@@ -161,7 +161,7 @@ func PlanOutputsKeeping(targets []Target, inputs []string, keep []Target, tempDi
 		}
 		for _, in := range inputs {
 			if in != "-" && sameFile(t.Path, in) {
-				return nil, fmt.Errorf("%s %s: is one of the inputs: %w; an output never replaces an input, whatever reports.PlanOutputs force says; name another file", t.Flag, t.Path, ErrOutput)
+				return nil, fmt.Errorf("%s %s: is one of the inputs: %w; an output never replaces an input, whatever reports.NewOutputs force says; name another file", t.Flag, t.Path, ErrOutput)
 			}
 		}
 		for _, u := range targets[:i] {
@@ -196,7 +196,7 @@ func checkTarget(t Target, force bool) error {
 	case st.IsDir():
 		return fmt.Errorf("%s %s: is a folder: %w; name a file", t.Flag, t.Path, scratch.ErrExists)
 	case !force:
-		return fmt.Errorf("%s %s: %w; set reports.PlanOutputs force to replace it, or choose another name", t.Flag, t.Path, scratch.ErrExists)
+		return fmt.Errorf("%s %s: %w; set reports.NewOutputs force to replace it, or choose another name", t.Flag, t.Path, scratch.ErrExists)
 	}
 	return nil
 }
@@ -246,7 +246,7 @@ func (o *Outputs) Write(flag string, write func(io.Writer) error) (err error) {
 // meanwhile (unless force is set); on a failure it removes what is left. With more than one
 // output, a journal naming every rename is written first, beside the first output, and removed
 // after the last: a run killed between the renames leaves it, and the next run that plans
-// outputs in that folder completes the set (PlanOutputs).
+// outputs in that folder completes the set (NewOutputs).
 func (o *Outputs) Commit() error {
 	j := journal{Format: journalFormat}
 	for _, t := range o.targets {

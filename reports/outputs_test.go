@@ -15,7 +15,7 @@ import (
 func writeSet(t *testing.T, dir, text string) *Outputs {
 	t.Helper()
 	targets := []Target{{"--out", filepath.Join(dir, "r.xlsx")}, {"--members", filepath.Join(dir, "m.csv")}, {"--model", filepath.Join(dir, "model.json")}}
-	o, err := PlanOutputs(targets, nil, "", true)
+	o, err := NewOutputs(targets, nil, "", true)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -72,7 +72,7 @@ func TestKilledCommitIsCompleted(t *testing.T) {
 	if len(journals) != 1 {
 		t.Fatalf("journals %v: the mixed set is not marked", journals)
 	}
-	o, err := PlanOutputs([]Target{{"--out", filepath.Join(dir, "other.xlsx")}}, nil, "", false)
+	o, err := NewOutputs([]Target{{"--out", filepath.Join(dir, "other.xlsx")}}, nil, "", false)
 	if err != nil {
 		t.Fatal(err)
 	}

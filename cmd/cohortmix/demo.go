@@ -81,7 +81,7 @@ func demoRun(ctx context.Context, o *demoOptions) error {
 		g.Flags.Model = filepath.Join(o.Dir, "demo-model.json")
 	}
 	g.Args = []string{"cohortmix", "group", data, "--label", g.Flags.Label, "--window-length", g.Flags.WindowLength.String(), "--out", g.Out}
-	cohortFiles, err := reports.PlanOutputs([]reports.Target{{Flag: "the demo cohort", Path: data}, {Flag: "the planted groups", Path: truthPath}}, nil, "", o.Flags.Force)
+	cohortFiles, err := reports.NewOutputs([]reports.Target{{Flag: "the demo cohort", Path: data}, {Flag: "the planted groups", Path: truthPath}}, nil, "", o.Flags.Force)
 	if err != nil {
 		return err
 	}

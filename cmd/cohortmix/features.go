@@ -117,7 +117,7 @@ func featuresRun(ctx context.Context, o *featuresOptions) error {
 	if !o.Raw.Parquet { // a CSV table's record of how it was made goes beside it
 		targets = append(targets, reports.Target{Flag: "--out's record", Path: o.Out + raw.ProvenanceSuffix})
 	}
-	plan, err := reports.PlanOutputs(targets, inputs, "", o.Force)
+	plan, err := reports.NewOutputs(targets, inputs, "", o.Force)
 	if err != nil {
 		return err
 	}

@@ -187,7 +187,7 @@ func runCohort(t testing.TB, so synth.Options, variants []variant) (oracle scena
 			}
 		}
 		if !o.NoSensitivity {
-			res, err := job.Describe(f, job.Numbered("S", f.States.K), job.Numbered("G", f.Grouping.K))
+			res, err := job.NewResult(f, job.Numbered("S", f.States.K), job.Numbered("G", f.Grouping.K))
 			if err != nil {
 				t.Fatal(err)
 			}

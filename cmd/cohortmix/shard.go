@@ -491,7 +491,7 @@ func (o *shardOptions) finishWith(ctx context.Context, g *groupOptions, fp *job.
 	if err != nil {
 		return err
 	}
-	res, err := job.Describe(f, job.Numbered("S", f.States.K), job.Numbered("G", f.Grouping.K))
+	res, err := job.NewResult(f, job.Numbered("S", f.States.K), job.Numbered("G", f.Grouping.K))
 	if err != nil {
 		return err
 	}
@@ -639,10 +639,10 @@ func samePseudonymKey(path, fingerprint, advice string) ([]byte, error) {
 	return key, nil
 }
 
-// planOutputs plans a command's outputs (reports.PlanOutputsKeeping) and tells on standard error
+// planOutputs plans a command's outputs (reports.NewOutputsKeeping) and tells on standard error
 // what it put right of earlier runs that were killed.
 func planOutputs(io IO, targets []reports.Target, inputs []string, keep []reports.Target, temp string, force bool) (*reports.Outputs, error) {
-	plan, err := reports.PlanOutputsKeeping(targets, inputs, keep, temp, force)
+	plan, err := reports.NewOutputsKeeping(targets, inputs, keep, temp, force)
 	if plan == nil {
 		return nil, err
 	}

@@ -79,7 +79,7 @@ func synthRun(ctx context.Context, o *synthOptions) error {
 		return flagErrorf("--participants %d, --windows %d, --features %d, --groups %d: use ≥ 1 participants and windows, 12 or 24 features, 2–4 groups",
 			o.Synth.Participants, o.Synth.Windows, o.Synth.Features, o.Synth.Groups)
 	}
-	outs, err := reports.PlanOutputs([]reports.Target{{Flag: "--out", Path: o.Out}, {Flag: "--truth", Path: o.Truth}}, nil, "", o.Force)
+	outs, err := reports.NewOutputs([]reports.Target{{Flag: "--out", Path: o.Out}, {Flag: "--truth", Path: o.Truth}}, nil, "", o.Force)
 	if err != nil {
 		return err
 	}

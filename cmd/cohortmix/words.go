@@ -16,7 +16,7 @@ var optionFlags = map[string]string{
 	"job.Options.Signature whole":      "--signature whole",
 	"job.Options.NoAxes":               "--axes none",
 	"job.Options.NoTurn":               "--turn means",
-	"reports.PlanOutputs force":        "--force",
+	"reports.NewOutputs force":         "--force",
 	"scratch.WriteAtomic force":        "--force",
 	"cohort.Quality.Excluded":          "'cohortmix check' lists each reason",
 	"modelfile.Encode":                 "'cohortmix group --model'",

@@ -79,7 +79,7 @@ const normSample = 200_000
 type Fitted struct {
 	// ModelFeaturesStep is, for a wave placed in a model, the record of how the model's data
 	// were made by the features step (modelfile.ReadSettings.FeaturesStep), against which
-	// Describe checks the inputs' records; "" compares the inputs among themselves.
+	// NewResult checks the inputs' records; "" compares the inputs among themselves.
 	ModelFeaturesStep string
 	Table             *cohort.Table
 	Fit               *normalize.Fit
@@ -110,7 +110,7 @@ type Fitted struct {
 	Atypical []bool
 	// Sensitivity compares the groups with those under other choices (FitTable only).
 	Sensitivity []Sensitivity
-	Workers     int // goroutines for what Describe computes (0: one per core)
+	Workers     int // goroutines for what NewResult computes (0: one per core)
 }
 
 // findAxesIn resolves the axis means the align step turns: none, the named features, or, when
@@ -180,7 +180,7 @@ func Analyze(ctx context.Context, o Options) (*Result, error) {
 		return nil, err
 	}
 	defer f.Table.Close()
-	return Describe(f, Numbered("S", f.States.K), Numbered("G", f.Grouping.K))
+	return NewResult(f, Numbered("S", f.States.K), Numbered("G", f.Grouping.K))
 }
 
 // Numbered gives neutral names: prefix1, prefix2, …
@@ -470,10 +470,10 @@ func AssignWindows(ctx context.Context, t *cohort.Table, fit *normalize.Fit, sta
 	return f, mergeAssigned(f, units, []*AssignPiece{ap})
 }
 
-// Describe gathers what the reports show once every unit has a group: the states in the original
+// NewResult gathers what the reports show once every unit has a group: the states in the original
 // units, the states × labels table, the separating variables, and one row per unit, under the
 // given state and group names.
-func Describe(f *Fitted, stateNames, groupNames []string) (*Result, error) {
+func NewResult(f *Fitted, stateNames, groupNames []string) (*Result, error) {
 	t, fit, states, g := f.Table, f.Fit, f.States, f.Grouping
 	k := states.K
 	res := &Result{Features: t.Features, OrderKind: t.OrderKind, Quality: t.Quality, Files: t.Files, Norm: fit, States: states, Grouping: g,

@@ -1228,7 +1228,7 @@ func mergeAssigned(f *Fitted, units []UnitInfo, parts []*AssignPiece) error {
 }
 
 // Finish merges the assignment pieces with the fit and groups the participants: everything the
-// reports describe (Describe), without a table of windows.
+// reports describe (NewResult), without a table of windows.
 func Finish(ctx context.Context, fp *FitPiece, parts []*AssignPiece) (*Fitted, error) {
 	p, o := fp.Plan, fp.Plan.Options
 	t := &cohort.Table{Features: p.Features, OrderKind: p.OrderKind, TimeZone: p.TimeZone, HasLabels: p.HasLabels, Quality: p.Quality, Files: p.Files}

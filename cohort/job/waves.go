@@ -232,7 +232,7 @@ func Assign(ctx context.Context, t *cohort.Table, m *modelfile.Model, o AssignOp
 		f.Atypical[i] = d > m.Grouping.Atypical
 	}
 	f.ModelFeaturesStep = m.Read.FeaturesStep
-	res, err := Describe(f, m.States.Names, m.Grouping.Names)
+	res, err := NewResult(f, m.States.Names, m.Grouping.Names)
 	if err != nil {
 		return nil, err
 	}
@@ -277,7 +277,7 @@ func Refresh(ctx context.Context, prev *modelfile.Model, o Options, key []byte, 
 	if err != nil {
 		return nil, err
 	}
-	res, err := Describe(f, match.StateNames, match.GroupNames)
+	res, err := NewResult(f, match.StateNames, match.GroupNames)
 	if err != nil {
 		return nil, err
 	}
