@@ -45,18 +45,18 @@ var DayPartNames = []string{"night", "morning", "afternoon", "evening"}
 // night's start, as 22,6,12,18).
 func (p DayParts) Check() error {
 	if len(p) < 2 || len(p) > 6 {
-		return fmt.Errorf("profile: %d parts of the day; give 2 to 6 starting hours", len(p))
+		return fmt.Errorf("profile: %d parts of the day: %w; give 2 to 6 starting hours", len(p), ErrOption)
 	}
 	for i, h := range p {
 		if h < 0 || h > 23 {
-			return fmt.Errorf("profile: a part of the day starting at hour %d; give hours 0–23", h)
+			return fmt.Errorf("profile: a part of the day starting at hour %d: %w; give hours 0–23", h, ErrOption)
 		}
 		if i >= 2 && h <= p[i-1] || i == 1 && h == p[0] {
-			return fmt.Errorf("profile: parts of the day starting at %v; give the hours in order through the day", []int(p))
+			return fmt.Errorf("profile: parts of the day starting at %v: %w; give the hours in order through the day", []int(p), ErrOption)
 		}
 	}
 	if p[0] > p[1] && p[0] <= p[len(p)-1] {
-		return fmt.Errorf("profile: parts of the day starting at %v; only the first may start before midnight, after the last", []int(p))
+		return fmt.Errorf("profile: parts of the day starting at %v: %w; only the first may start before midnight, after the last", []int(p), ErrOption)
 	}
 	return nil
 }

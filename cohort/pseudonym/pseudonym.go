@@ -12,6 +12,9 @@ import (
 	"os"
 )
 
+// ErrShortKey is wrapped by the error on a key of fewer than 16 bytes.
+var ErrShortKey = errors.New("pseudonym: key too short")
+
 // LoadKey reads a pseudonymization key: the whole file, at least 16 bytes. The key stays with
 // the analyst; the same key gives the same pseudonyms in every run.
 func LoadKey(path string) ([]byte, error) {
@@ -20,7 +23,7 @@ func LoadKey(path string) ([]byte, error) {
 		return nil, fmt.Errorf("%s: cannot read the pseudonymization key: %w", path, err)
 	}
 	if len(b) < 16 {
-		return nil, fmt.Errorf("%s: the pseudonymization key has %d bytes; use at least 16 random bytes (e.g. head -c 32 /dev/urandom > key)", path, len(b))
+		return nil, fmt.Errorf("%s: the pseudonymization key has %d bytes: %w; use at least 16 random bytes (e.g. head -c 32 /dev/urandom > key)", path, len(b), ErrShortKey)
 	}
 	return b, nil
 }
