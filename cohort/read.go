@@ -128,6 +128,11 @@ func (s Shard) String() string { return fmt.Sprintf("%d/%d", s.Index+1, s.Count)
 // ShardOf is the shard, of count, of the participant with this id: all waves of one person fall
 // in the same shard, whatever the files they sit in (FNV-1a of the id, mixed by SplitMix64).
 func ShardOf(id string, count int) int {
+	return int(shardHash(id) % uint64(count))
+}
+
+// shardHash is ShardOf's hash of an id: FNV-1a, mixed by SplitMix64.
+func shardHash(id string) uint64 {
 	z := uint64(0xcbf29ce484222325)
 	for i := 0; i < len(id); i++ {
 		z = (z ^ uint64(id[i])) * 0x100000001b3
@@ -136,7 +141,7 @@ func ShardOf(id string, count int) int {
 	z = (z ^ (z >> 30)) * 0xbf58476d1ce4e5b9
 	z = (z ^ (z >> 27)) * 0x94d049bb133111eb
 	z ^= z >> 31
-	return int(z % uint64(count))
+	return z
 }
 
 // Unit is one participant, or one wave of a participant when a wave column is given. Its
@@ -154,6 +159,12 @@ type Unit struct {
 	Wear     Wear     // wear time by day, under the valid-day rule (ReadOptions.ValidDay)
 	Imputed  int      // cells imputed
 	Sorted   bool     // its windows were not in order in the input and were sorted
+	shardKey uint64   // shardHash of the id as read (before any pseudonym), for InShard
+}
+
+// InShard tells whether the unit falls in the shard (ShardOf its id as read).
+func (u *Unit) InShard(sh Shard) bool {
+	return sh.Count <= 0 || int(u.shardKey%uint64(sh.Count)) == sh.Index
 }
 
 // Windows is the number of usable windows.
@@ -1448,7 +1459,7 @@ type finisher struct {
 // invalid days and missing cells, and stored again.
 func (f *finisher) unit(ru *rawUnit) error {
 	r, t, q := f.r, f.t, &f.t.Quality
-	u := &Unit{ID: ru.id, Wave: ru.wave, Ordinal: ru.ordinal, Files: ru.files}
+	u := &Unit{ID: ru.id, Wave: ru.wave, Ordinal: ru.ordinal, Files: ru.files, shardKey: shardHash(ru.id)}
 	if r.opts.Pseudonym != nil {
 		u.ID = r.opts.Pseudonym(ru.id)
 	}

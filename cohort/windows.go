@@ -49,18 +49,34 @@ type windowsUnit struct {
 	Labels   []string
 }
 
-// WriteWindows writes the table's units and their windows (every stored column, in the windows
-// file's encoding: features as float32, to which they were rounded when read) as a windows file
-// of the given shard, for the run the caller names.
+// WriteWindows writes the table's units and their windows (the features selected, with the
+// order key and source, in the windows file's encoding: features as float32, to which they were
+// rounded when read) as a windows file of the given shard, for the run the caller names.
 func (t *Table) WriteWindows(w io.Writer, shard Shard, run string) error {
-	h := windowsHeader{Format: WindowsFormat, Version: WindowsVersion, Run: run, Shard: shard, Files: t.Files, OrderKind: t.OrderKind,
-		HasLabels: t.HasLabels, Width: t.store.width, Features: t.Features}
-	for j, c := range t.cols {
-		if c != j || len(t.cols) != h.Width-2 {
-			return fmt.Errorf("cohort: WriteWindows: a table with %d of its %d stored features selected: %w; write it before selecting features", len(t.cols), h.Width-2, ErrBadOption)
+	return t.writeWindows(w, shard, run, t.Units)
+}
+
+// WriteShardWindows is WriteWindows of the units of a whole table that fall in the shard
+// (Unit.InShard): the windows file a read of that shard alone would write, with the features the
+// whole read kept.
+func (t *Table) WriteShardWindows(w io.Writer, shard Shard, run string) error {
+	var units []*Unit
+	for _, u := range t.Units {
+		if u.InShard(shard) {
+			units = append(units, u)
 		}
 	}
-	for _, u := range t.Units {
+	return t.writeWindows(w, shard, run, units)
+}
+
+func (t *Table) writeWindows(w io.Writer, shard Shard, run string, units []*Unit) error {
+	d, stored := len(t.cols), t.store.width
+	h := windowsHeader{Format: WindowsFormat, Version: WindowsVersion, Run: run, Shard: shard, Files: t.Files, OrderKind: t.OrderKind,
+		HasLabels: t.HasLabels, Width: d + 2, Features: t.Features}
+	if len(t.Features) != d {
+		return fmt.Errorf("cohort: WriteWindows: %d features named for %d columns: %w", len(t.Features), d, ErrBadOption)
+	}
+	for _, u := range units {
 		h.Units = append(h.Units, windowsUnit{ID: u.ID, Wave: u.Wave, Ordinal: u.Ordinal, Rows: u.rows, Labels: u.Labels})
 	}
 	out := bufio.NewWriterSize(w, 1<<20)
@@ -72,20 +88,19 @@ func (t *Table) WriteWindows(w io.Writer, shard Shard, run string) error {
 	var x []float64
 	var b []byte
 	rb := windowBytes(h.Width)
-	for _, u := range t.Units {
+	for _, u := range units {
 		var err error
 		if x, err = t.readUnit(u, nil, x); err != nil {
 			return err
 		}
 		b = slices.Grow(b[:0], u.rows*rb)[:u.rows*rb]
 		for i := 0; i < u.rows; i++ {
-			row, out := x[i*h.Width:(i+1)*h.Width], b[i*rb:(i+1)*rb]
-			d := h.Width - 2
-			for j, v := range row[:d] {
-				binary.LittleEndian.PutUint32(out[4*j:], math.Float32bits(float32(v)))
+			row, out := x[i*stored:(i+1)*stored], b[i*rb:(i+1)*rb]
+			for j, c := range t.cols { // the features kept, in the table's order
+				binary.LittleEndian.PutUint32(out[4*j:], math.Float32bits(float32(row[c])))
 			}
-			binary.LittleEndian.PutUint64(out[4*d:], math.Float64bits(row[d]))
-			binary.LittleEndian.PutUint64(out[4*d+8:], math.Float64bits(row[d+1]))
+			binary.LittleEndian.PutUint64(out[4*d:], math.Float64bits(row[stored-2]))
+			binary.LittleEndian.PutUint64(out[4*d+8:], math.Float64bits(row[stored-1]))
 		}
 		if _, err := bw.Write(b); err != nil {
 			return fmt.Errorf("cohort: writing a windows file: %w", err)

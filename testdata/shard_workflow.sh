@@ -26,6 +26,17 @@ fi
 if ! cmp -s <(grep -v -e '"created"' -e '"checksum"' "$work/one.json") <(grep -v -e '"created"' -e '"checksum"' "$work/split.json"); then
   echo "shard_workflow: FAIL: the model file of the 3-shard workflow differs from the one-machine run"; exit 1
 fi
+# Read once (split=true): one split job writes the plan and every shard's windows.
+snakemake --snakefile cmd/cohortmix/workflow/Snakefile --directory "$work" --cores 2 --quiet \
+  --config inputs="$work/demo.csv" shards=3 split=true cohortmix="$work/cohortmix" options="$opts" pieces="$work/once" \
+  out="$work/once.xlsx" members="$work/once.csv" model="$work/once.json" >"$work/log" 2>&1 ||
+  { echo "shard_workflow: FAIL: snakemake stopped (split=true):"; cat "$work/log"; exit 1; }
+if ! cmp -s "$work/one.csv" "$work/once.csv" || ! cmp -s <(grep -v -e '"created"' -e '"checksum"' "$work/one.json") <(grep -v -e '"created"' -e '"checksum"' "$work/once.json"); then
+  echo "shard_workflow: FAIL: the members or model of the workflow with split=true differ from the one-machine run"; exit 1
+fi
+if [ -e "$work/once/census-1.piece" ]; then
+  echo "shard_workflow: FAIL: split=true ran the census jobs"; exit 1
+fi
 # Pseudonymized: the census replaces every id as it reads it, so no piece holds a study id, and
 # the members are those of the one-machine pseudonymized run.
 sed 's/^P/SUBJECT-/' "$work/demo.csv" >"$work/ids.csv"
@@ -41,4 +52,4 @@ fi
 if grep -rl SUBJECT- "$work/ppieces" "$work/psplit.csv" "$work/psplit.json"; then
   echo "shard_workflow: FAIL: a study id in the pseudonymized run's pieces or outputs (above)"; exit 1
 fi
-echo "shard_workflow: ok: snakemake $(snakemake --version) ran 3 shards; members and model are the one-machine run's, byte for byte, plain and pseudonymized (no study id in any piece)"
+echo "shard_workflow: ok: snakemake $(snakemake --version) ran 3 shards; members and model are the one-machine run's, byte for byte, plain, read once (split=true) and pseudonymized (no study id in any piece)"

@@ -22,10 +22,10 @@ import (
 type shardOptions struct {
 	IO     IO
 	Now    func() time.Time
-	Step   string   // census, plan, sample, fit, assign, finish or run
+	Step   string   // split, census, plan, sample, fit, assign, finish or run
 	Args   []string // the tables (census, run) or the pieces to merge (plan, fit, finish)
 	Shard  string   // "I/N": this step's shard, from 1 (census, sample, assign)
-	Shards int      // run: how many shards
+	Shards int      // split, run: how many shards
 	Piece  string   // the piece this step writes
 	Plan   string   // the plan piece (sample, fit)
 	Fit    string   // the fit piece (assign, finish)
@@ -33,7 +33,11 @@ type shardOptions struct {
 	// Windows is the shard's windows file: written by census, read by sample and assign
 	// instead of every input file (optional).
 	Windows string
-	Out     string // finish, run: the workbook
+	// WindowsDir is the folder split writes every shard's windows file to (windows-I.piece).
+	WindowsDir string
+	// Split makes run read the inputs once (split) instead of once per shard (census and plan).
+	Split bool
+	Out   string // finish, run: the workbook
 	Flags   mainFlags
 	argv    []string // the command line, for the settings sheet
 }
@@ -45,6 +49,8 @@ writes that shard's windows for its sample and assign steps), and the pieces are
 order the participants first appear. It takes the align step (the default).
 
 The steps, each a command that a workflow engine can run on another machine:
+  split   (once)        reads the inputs once: the plan and every shard's windows file, in
+                        place of census and plan (one read in all, on one machine)
   census  (each shard)  who is in the input, what is left out and why      → census piece
   plan    (once)        merges the census pieces                           → plan piece
   sample  (each shard)  the windows drawn to fit the states                 → sample piece
@@ -62,6 +68,7 @@ func newShardCmd(env *Env, runF func(context.Context, *shardOptions) error) *cob
 		Short: "Run the job split in shards of participants, step by step (for a cluster)",
 		Long:  shardLong,
 		Example: `  $ cohortmix shard run study.csv.gz --shards 4 --pieces pieces/ --out results.xlsx --members members.csv
+  $ cohortmix shard split study.csv.gz --shards 4 --piece pieces/plan.piece --windows-dir pieces/
   $ cohortmix shard census study.csv.gz --shard 2/4 --piece pieces/census-2.piece --windows-file pieces/windows-2.piece
   $ cohortmix shard plan pieces/census-*.piece --piece pieces/plan.piece
   $ cohortmix shard sample --plan pieces/plan.piece --windows-file pieces/windows-2.piece --shard 2/4 --piece pieces/sample-2.piece
@@ -114,6 +121,17 @@ func addShardSteps(step shardStep) {
 			_ = c.MarkFlagRequired("piece")
 			c.Flags().StringVar(&o.Windows, "windows-file", "", "also write the shard's windows to this file, for sample and assign to read instead of every input file")
 		})
+	step("split", "split <windows.csv>... --shards N --piece <plan.piece> --windows-dir <folder>", "Read the inputs once and write the run's plan and every shard's windows file, in place of census and plan",
+		cobra.MinimumNArgs(1), func(c *cobra.Command, o *shardOptions) {
+			o.Flags.register(c)
+			for _, name := range []string{"members", "model", "pseudonymize", "force"} {
+				c.Flags().Lookup(name).Hidden = true // given to finish, or to every step
+			}
+			c.Flags().IntVar(&o.Shards, "shards", 2, "how many shards")
+			c.Flags().StringVar(&o.Piece, "piece", "", "the plan piece to write")
+			_ = c.MarkFlagRequired("piece")
+			c.Flags().StringVar(&o.WindowsDir, "windows-dir", "", "the folder to write each shard's windows file to, as windows-I.piece (default: the folder of --piece)")
+		})
 	step("plan", "plan <census.piece>... --piece <plan.piece>", "Merge every shard's census into the plan of the run", cobra.MinimumNArgs(1), pieceFlags)
 	step("sample", "sample --plan <plan.piece> --shard I/N --piece <sample.piece>", "Draw one shard's windows for the fit", cobra.NoArgs,
 		func(c *cobra.Command, o *shardOptions) {
@@ -154,6 +172,7 @@ func addShardSteps(step shardStep) {
 			_ = c.MarkFlagRequired("out")
 			c.Flags().IntVar(&o.Shards, "shards", 2, "how many shards")
 			c.Flags().StringVar(&o.Pieces, "pieces", "", "folder to keep the pieces in, which hold the ids as read (default: none; the pieces stay in memory)")
+			c.Flags().BoolVar(&o.Split, "split", false, "with --pieces, read the inputs once (the split step) instead of once per shard")
 		})
 }
 
@@ -195,6 +214,8 @@ func parseShard(s string) (cohort.Shard, error) {
 
 func shardRun(ctx context.Context, o *shardOptions) error {
 	switch o.Step {
+	case "split":
+		return o.split(ctx, o.Args, o.Piece)
 	case "census":
 		return o.census(ctx, o.Args, o.Shard, o.Piece)
 	case "plan":
@@ -303,6 +324,40 @@ func (o *shardOptions) takeCensus(ctx context.Context, inputs []string, sh cohor
 	}
 	c.Meta = job.Meta{Command: strings.Join(o.argv, " "), Settings: o.Flags.settings()}
 	return t, c, nil
+}
+
+// split reads the inputs once, takes the census of the whole cohort and writes the plan of a run
+// in o.Shards shards with every shard's windows file (the files a census of each shard and the
+// plan step would write, with the features the whole read kept), all put in place together.
+func (o *shardOptions) split(ctx context.Context, inputs []string, piece string) error {
+	if o.Shards < 1 || o.Shards > 10_000 {
+		return flagErrorf("--shards %d: give a number from 1 to 10,000", o.Shards)
+	}
+	if o.Flags.Temp == "" {
+		o.Flags.Temp = filepath.Dir(piece)
+	}
+	dir := o.WindowsDir
+	if dir == "" {
+		dir = filepath.Dir(piece)
+	}
+	t, c, err := o.takeCensus(ctx, inputs, cohort.Shard{})
+	if err != nil {
+		return err
+	}
+	defer t.Close()
+	plan, err := job.MergeCensus([]*job.Census{c})
+	if err != nil {
+		return err
+	}
+	plan.Shards = o.Shards
+	files, _ := cohort.ExpandPaths(inputs)
+	outs := []output{pieceOutput(piece, job.KindPlan, job.PieceID{Run: plan.Run}, plan)}
+	for i := 0; i < o.Shards; i++ {
+		sh := cohort.Shard{Index: i, Count: o.Shards}
+		path := filepath.Join(dir, fmt.Sprintf("windows-%d.piece", i+1))
+		outs = append(outs, output{"windows of shard " + sh.String(), "windows file " + sh.String(), path, func(w io.Writer) error { return t.WriteShardWindows(w, sh, plan.Run) }})
+	}
+	return o.writeOutputs(files, outs...)
 }
 
 func (o *shardOptions) plan(censuses []string, piece string) error {
@@ -546,12 +601,19 @@ func (o *shardOptions) runAll(ctx context.Context) (err error) {
 		}
 		return out, nil
 	}
-	censuses, err := each("census", func(shard, piece string) error { return o.census(ctx, o.Args, shard, piece) })
-	if err != nil {
-		return err
-	}
-	if err := o.plan(censuses, name("plan", -1)); err != nil {
-		return err
+	if o.Split {
+		o.WindowsDir = dir
+		if err := o.split(ctx, o.Args, name("plan", -1)); err != nil {
+			return err
+		}
+	} else {
+		censuses, err := each("census", func(shard, piece string) error { return o.census(ctx, o.Args, shard, piece) })
+		if err != nil {
+			return err
+		}
+		if err := o.plan(censuses, name("plan", -1)); err != nil {
+			return err
+		}
 	}
 	samples, err := each("sample", func(shard, piece string) error { return o.sample(ctx, name("plan", -1), shard, piece) })
 	if err != nil {

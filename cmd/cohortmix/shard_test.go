@@ -27,13 +27,14 @@ func workbookText(t *testing.T, path string) string {
 
 // A run split in shards gives the one-machine result bit for bit: members, model (apart from
 // its date) and workbook (apart from date and command line), for 1, 2, 3 and 7 shards, with the
-// windows in memory and in the temporary file. The input has labels, times, participants whose
+// windows in memory and in the temporary file, with each shard's census read apart or the
+// inputs read once (--split). The input has labels, times, participants whose
 // windows sit in two files, one participant with too few windows and a window with a missing
 // cell, so that every piece of the accounting is merged.
 func TestShardsGiveTheOneMachineResult(t *testing.T) {
 	t.Parallel()
 	if testing.Short() {
-		t.Skip("runs the job 9 times")
+		t.Skip("runs the job 15 times")
 	}
 	dir := t.TempDir()
 	whole := filepath.Join(dir, "whole.csv")
@@ -75,17 +76,24 @@ func TestShardsGiveTheOneMachineResult(t *testing.T) {
 		if !bytes.Contains(members, []byte("P7,")) || !strings.Contains(book, "fewer than the minimum") {
 			t.Fatal("the excluded participant is not in the one-machine result")
 		}
-		for _, n := range []int{1, 2, 3, 7} {
-			name := fmt.Sprintf("shards-%d-%d", n, spill)
-			m, mo, bo := run(name, append([]string{"shard", "run", "--shards", fmt.Sprint(n), "--pieces", filepath.Join(dir, name)}, memory...)...)
-			if !bytes.Equal(m, members) {
-				t.Errorf("%d shards, memory %d: the members differ from one machine's", n, spill)
-			}
-			if !bytes.Equal(mo, model) {
-				t.Errorf("%d shards, memory %d: the model differs from one machine's", n, spill)
-			}
-			if bo != book {
-				t.Errorf("%d shards, memory %d: the workbook differs from one machine's", n, spill)
+		// Each shard read apart (census and plan), or the inputs read once (split).
+		for _, split := range []bool{false, true} {
+			for _, n := range []int{1, 2, 3, 7} {
+				if split && n == 2 {
+					continue
+				}
+				name := fmt.Sprintf("shards-%d-%d-%v", n, spill, split)
+				args := []string{"shard", "run", "--shards", fmt.Sprint(n), "--pieces", filepath.Join(dir, name), fmt.Sprintf("--split=%v", split)}
+				m, mo, bo := run(name, append(args, memory...)...)
+				if !bytes.Equal(m, members) {
+					t.Errorf("%d shards, split %v, memory %d: the members differ from one machine's", n, split, spill)
+				}
+				if !bytes.Equal(mo, model) {
+					t.Errorf("%d shards, split %v, memory %d: the model differs from one machine's", n, split, spill)
+				}
+				if bo != book {
+					t.Errorf("%d shards, split %v, memory %d: the workbook differs from one machine's", n, split, spill)
+				}
 			}
 		}
 		// Without --pieces the pieces stay in memory, and nothing but the outputs is left.
