@@ -38,8 +38,8 @@ type shardOptions struct {
 	// Split makes run read the inputs once (split) instead of once per shard (census and plan).
 	Split bool
 	Out   string // finish, run: the workbook
-	Flags   mainFlags
-	argv    []string // the command line, for the settings sheet
+	Flags mainFlags
+	argv  []string // the command line, for the settings sheet
 }
 
 const shardLong = `A run split in shards gives the result of 'group' bit for bit (members, model and workbook,
