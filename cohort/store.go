@@ -2,7 +2,9 @@ package cohort
 
 import (
 	"bufio"
+	"encoding/binary"
 	"fmt"
+	"math"
 	"os"
 	"sync"
 	"unsafe"
@@ -34,11 +36,21 @@ type store struct {
 	n       int64 // values appended
 	flushed int64 // values readable from the file
 	enc     []byte
+	// A store on a windows file (ReadWindows) reads it in place: its rows from byte base on, in
+	// the windows file's packed little-endian layout (packed), and the file is not the store's to
+	// remove (borrowed).
+	base             int64
+	packed, borrowed bool
 }
 
 // rowBytes is the size of a window in the file: the float32 features padded to 8 bytes, so
 // that the two 64-bit values are aligned, then those.
-func (s *store) rowBytes() int { return featBytes(s.width-2) + 16 }
+func (s *store) rowBytes() int {
+	if s.packed {
+		return windowBytes(s.width)
+	}
+	return featBytes(s.width-2) + 16
+}
 
 func featBytes(d int) int { return 8 * ((d + 1) / 2) }
 
@@ -159,10 +171,14 @@ func (s *store) read(at int64, rows int, cols []int, dst []float64) ([]float64, 
 		*bp = make([]byte, rows*rb)
 	}
 	buf := (*bp)[:rows*rb]
-	if _, err := s.file.ReadAt(buf, at*int64(rb)); err != nil {
-		return nil, fmt.Errorf("cohort: reading the temporary windows file: %w", err)
+	if _, err := s.file.ReadAt(buf, s.base+at*int64(rb)); err != nil {
+		return nil, fmt.Errorf("cohort: reading the windows file %s: %w", s.file.Name(), err)
 	}
 	fd := w - 2
+	if s.packed {
+		decodePacked(dst, buf, rows, w, cols)
+		return dst, nil
+	}
 	// The usual request, the features in their order, is a plain conversion of each row's start.
 	prefix := cols != nil && len(cols) <= fd
 	for a, j := range cols {
@@ -245,9 +261,41 @@ func (s *store) close() error {
 		return nil
 	}
 	name := s.file.Name()
-	s.file.Close()
+	err := s.file.Close()
 	s.file = nil
+	if s.borrowed {
+		return err
+	}
 	return os.Remove(name)
+}
+
+// decodePacked decodes rows windows of the windows file's layout (WriteWindows: features as
+// float32, then the order key and source as float64, little-endian) into dst, keeping the columns
+// cols of each (all when nil).
+func decodePacked(dst []float64, buf []byte, rows, w int, cols []int) {
+	fd, rb := w-2, windowBytes(w)
+	d := w
+	if cols != nil {
+		d = len(cols)
+	}
+	value := func(in []byte, j int) float64 {
+		if j < fd {
+			return float64(math.Float32frombits(binary.LittleEndian.Uint32(in[4*j:])))
+		}
+		return math.Float64frombits(binary.LittleEndian.Uint64(in[4*fd+8*(j-fd):]))
+	}
+	for i := 0; i < rows; i++ {
+		in, out := buf[i*rb:(i+1)*rb], dst[i*d:(i+1)*d]
+		if cols == nil {
+			for j := range out {
+				out[j] = value(in, j)
+			}
+			continue
+		}
+		for a, j := range cols {
+			out[a] = value(in, j)
+		}
+	}
 }
 
 // spilled reports whether the values live in a file.

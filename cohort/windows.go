@@ -118,11 +118,13 @@ type crcReader struct {
 	br  *bufio.Reader
 	crc hash.Hash32
 	one [1]byte
+	n   int64 // bytes read
 }
 
 func (c *crcReader) Read(p []byte) (int, error) {
 	n, err := c.br.Read(p)
 	c.crc.Write(p[:n])
+	c.n += int64(n)
 	return n, err
 }
 
@@ -131,6 +133,7 @@ func (c *crcReader) ReadByte() (byte, error) {
 	if err == nil {
 		c.one[0] = b
 		c.crc.Write(c.one[:])
+		c.n++
 	}
 	return b, err
 }
@@ -138,10 +141,11 @@ func (c *crcReader) ReadByte() (byte, error) {
 // ErrWindows is wrapped by every error about a windows file.
 var ErrWindows = errors.New("windows file not usable")
 
-// ReadWindows reads a windows file (WriteWindows) into a table of its units, held in memory or,
-// past opts.MemoryValues, in a temporary file in opts.TempDir, as Read holds them. The table has
-// no accounting; its Files are the inputs the windows came from, and run the run it names, for
-// the caller to check.
+// ReadWindows reads a windows file (WriteWindows) as a table of its units. Its checksum is checked
+// in one pass over the file, and the table then reads its windows from the file itself (which
+// must stay in place until the table is closed), as Read reads a store's temporary file; nothing
+// is copied. The table has no accounting; its Files are the inputs the windows came from, and
+// run the run it names, for the caller to check.
 func ReadWindows(path string, opts ReadOptions) (*Table, Shard, string, error) {
 	t, h, err := readWindows(path, opts)
 	if err != nil {
@@ -155,55 +159,47 @@ func readWindows(path string, opts ReadOptions) (*Table, *windowsHeader, error) 
 	if err != nil {
 		return nil, nil, fmt.Errorf("%s: cannot open: %w", path, errors.Join(ErrWindows, err))
 	}
-	defer f.Close()
+	t, h, err := windowsTable(f, path)
+	if err != nil {
+		f.Close()
+		return nil, nil, err
+	}
+	return t, h, nil
+}
+
+// windowsTable checks the windows file open in f and makes the table that reads from it.
+func windowsTable(f *os.File, path string) (*Table, *windowsHeader, error) {
 	raw := bufio.NewReaderSize(f, 1<<20)
 	br := &crcReader{br: raw, crc: crc32.New(castagnoli)}
 	h, err := readWindowsHeader(f, br, path)
 	if err != nil {
 		return nil, nil, err
 	}
+	base := br.n // the first window's byte
 	d := h.Width - 2
-	dir := opts.TempDir
-	if dir == "" {
-		dir = os.TempDir()
-	}
-	t := &Table{store: &store{dir: dir, limit: opts.MemoryValues, width: h.Width}, Features: h.Features, Files: h.Files,
+	t := &Table{store: &store{width: h.Width, file: f, base: base, packed: true, borrowed: true}, Features: h.Features, Files: h.Files,
 		OrderKind: h.OrderKind, HasLabels: h.HasLabels, cols: make([]int, d)}
 	for j := range t.cols {
 		t.cols[j] = j
 	}
-	rb := windowBytes(h.Width)
-	var b []byte
-	var x []float64
+	rb := int64(windowBytes(h.Width))
+	var rows int64
 	for _, wu := range h.Units {
-		if cap(b) < wu.Rows*rb {
-			b = make([]byte, wu.Rows*rb)
-		}
-		if _, err := io.ReadFull(br, b[:wu.Rows*rb]); err != nil {
-			t.Close()
+		if _, err := io.CopyN(io.Discard, br, int64(wu.Rows)*rb); err != nil {
 			return nil, nil, fmt.Errorf("%s: the windows of participant %s are cut short: %w; write the file again", path, wu.ID, ErrWindows)
 		}
-		x = decodeWindows(x, b, wu.Rows, h.Width)
-		u := &Unit{ID: wu.ID, Wave: wu.Wave, Ordinal: wu.Ordinal, Labels: wu.Labels, at: t.store.n / int64(h.Width), rows: wu.Rows}
-		if err := t.store.append(x); err != nil {
-			t.Close()
-			return nil, nil, err
-		}
-		t.Units = append(t.Units, u)
+		t.Units = append(t.Units, &Unit{ID: wu.ID, Wave: wu.Wave, Ordinal: wu.Ordinal, Labels: wu.Labels, at: rows, rows: wu.Rows})
+		rows += int64(wu.Rows)
 	}
 	var sum uint32
 	if err := binary.Read(raw, binary.LittleEndian, &sum); err != nil || sum != br.crc.Sum32() {
-		t.Close()
 		return nil, nil, fmt.Errorf("%s: the windows file is damaged (its content does not match its checksum): %w; write it again", path, ErrWindows)
 	}
 	if _, err := raw.ReadByte(); err != io.EOF {
-		t.Close()
 		return nil, nil, fmt.Errorf("%s: bytes after the end of the windows: %w; write the file again", path, ErrWindows)
 	}
-	if err := t.store.flush(); err != nil {
-		t.Close()
-		return nil, nil, err
-	}
+	t.store.n = rows * int64(h.Width)
+	t.store.flushed = t.store.n
 	return t, &h, nil
 }
 

@@ -7,6 +7,7 @@ import (
 	"io"
 	"os"
 	"path/filepath"
+	"sync"
 
 	"github.com/cohortmix/cohortmix/cohort/scratch"
 )
@@ -22,11 +23,14 @@ type Target struct {
 // Outputs are the files one run writes. NewOutputs checks them all before any work is done;
 // Write writes each to a temporary file beside its target, and Commit renames them all into
 // place at the end. A run that fails or is interrupted calls Abort, which removes the temporary
-// files: no output appears, and no earlier output changes.
+// files: no output appears, and no earlier output changes. Write may be called for several
+// outputs at once.
 type Outputs struct {
 	force   bool
 	targets []Target
+	mu      sync.Mutex        // guards temps and aborted
 	temps   map[string]string // target path → its written temporary file
+	aborted bool
 	// Leftovers is what NewOutputs found of earlier runs that were killed, in the folders of
 	// the targets and the temporary folder, and what it did with each.
 	Leftovers []Leftover
@@ -238,6 +242,12 @@ func (o *Outputs) Write(flag string, write func(io.Writer) error) (err error) {
 		o.Abort() // one output failed: none of the run's outputs will be committed
 		return fmt.Errorf("%s %s: %w", t.Flag, t.Path, err)
 	}
+	o.mu.Lock()
+	defer o.mu.Unlock()
+	if o.aborted { // another output failed meanwhile
+		os.Remove(tmp)
+		return fmt.Errorf("%s %s: the run's other outputs failed", t.Flag, t.Path)
+	}
 	o.temps[t.Path] = tmp
 	return nil
 }
@@ -323,6 +333,9 @@ func (o *Outputs) Abort() {
 	if o == nil {
 		return
 	}
+	o.mu.Lock()
+	defer o.mu.Unlock()
+	o.aborted = true
 	for p, tmp := range o.temps {
 		os.Remove(tmp)
 		delete(o.temps, p)

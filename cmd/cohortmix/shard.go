@@ -12,6 +12,7 @@ import (
 
 	"github.com/spf13/cobra"
 
+	"github.com/cohortmix/cohortmix/cluster/par"
 	"github.com/cohortmix/cohortmix/cohort"
 	"github.com/cohortmix/cohortmix/cohort/job"
 	"github.com/cohortmix/cohortmix/cohort/pseudonym"
@@ -251,10 +252,12 @@ func (o *shardOptions) writeOutputs(inputs []string, outs ...output) error {
 		return err
 	}
 	defer plan.Abort()
-	for _, out := range outs {
-		if err := plan.Write(out.flag, out.write); err != nil {
-			return err
-		}
+	// The outputs are written side by side (the split step's windows files, one per shard).
+	err = par.Ordered(context.Background(), len(outs), o.Flags.Workers, func(i, _ int) (struct{}, error) {
+		return struct{}{}, plan.Write(outs[i].flag, outs[i].write)
+	}, nil)
+	if err != nil {
+		return err
 	}
 	if err := plan.Commit(); err != nil {
 		return err
