@@ -128,6 +128,26 @@ func groupBy(t *testing.T, method string, ff familyFit, maxK int) grouped {
 				}
 			}
 		}
+		// capN: each participant's counts scaled down so that its first block (its time counted
+		// in bouts, or in windows) adds up to at most N, the other blocks by the same factor (a
+		// coarsened likelihood, after Miller & Dunson 2019: each participant weighs as at most N
+		// observations).
+		if i := strings.Index(base, "cap"); i > 0 {
+			var cap float64
+			fmt.Sscan(base[i+3:], &cap)
+			for r := 0; r < n; r++ {
+				var tot float64
+				for j := 0; j < blocks[0]; j++ {
+					tot += x.At(r, j)
+				}
+				if tot > cap {
+					row := x.RawRowView(r)
+					for j := range row {
+						row[j] *= cap / tot
+					}
+				}
+			}
+		}
 		crit := "bic"
 		if i := strings.Index(method, "-"); i > 0 {
 			crit = method[i+1:]
