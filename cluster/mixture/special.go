@@ -19,7 +19,10 @@ func lnGammaTerms(z float64, second bool) (lg, psi, tri float64) {
 	lz := math.Log(z)
 	r := 1 / z
 	r2 := r * r
-	lg = (z-0.5)*lz - z + 0.91893853320467274178 + r*(1.0/12-r2*(1.0/360-r2*(1.0/1260-r2*(1.0/1680-r2/1188)))) - math.Log(prod)
+	lg = (z-0.5)*lz - z + 0.91893853320467274178 + r*(1.0/12-r2*(1.0/360-r2*(1.0/1260-r2*(1.0/1680-r2/1188))))
+	if prod != 1 { // log 1 is exactly 0: z began at 10 or more, as most counts do, and one logarithm is spared
+		lg -= math.Log(prod)
+	}
 	psi += lz - 0.5*r - r2*(1.0/12-r2*(1.0/120-r2*(1.0/252-r2*(1.0/240-r2/132))))
 	if second {
 		tri += r + 0.5*r2 + r*r2*(1.0/6-r2*(1.0/30-r2*(1.0/42-r2*(1.0/30-r2*5/66))))
