@@ -116,7 +116,7 @@ func TestWindowsFileGivesBackTheTable(t *testing.T) {
 		t.Fatal(err)
 	}
 	file := write(t, dir, "w.windows", []byte(buf.String()))
-	back, shard, run, err := ReadWindows(file, ReadOptions{TempDir: dir})
+	back, shard, run, err := ReadWindows(file)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -136,7 +136,7 @@ func TestWindowsFileGivesBackTheTable(t *testing.T) {
 	if _, err := os.Stat(file); err != nil {
 		t.Errorf("closing the table removed its windows file: %v", err)
 	}
-	if _, _, _, err := ReadWindows(path, ReadOptions{}); !errors.Is(err, ErrWindows) {
+	if _, _, _, err := ReadWindows(path); !errors.Is(err, ErrWindows) {
 		t.Errorf("a CSV file read as a windows file: %v", err)
 	}
 	// Issue 28: 14 of 20 single-bit flips in a windows file changed the result silently. Every
@@ -146,12 +146,12 @@ func TestWindowsFileGivesBackTheTable(t *testing.T) {
 		for _, bit := range []byte{0x01, 0x80} {
 			bad := slices.Clone(good)
 			bad[i] ^= bit
-			if _, _, _, err := ReadWindows(write(t, dir, "flip.windows", bad), ReadOptions{TempDir: dir}); !errors.Is(err, ErrWindows) {
+			if _, _, _, err := ReadWindows(write(t, dir, "flip.windows", bad)); !errors.Is(err, ErrWindows) {
 				t.Fatalf("bit %#x of byte %d of %d flipped: %v", bit, i, len(good), err)
 			}
 		}
 	}
-	if _, _, _, err := ReadWindows(write(t, dir, "long.windows", append(slices.Clone(good), 0)), ReadOptions{TempDir: dir}); !errors.Is(err, ErrWindows) {
+	if _, _, _, err := ReadWindows(write(t, dir, "long.windows", append(slices.Clone(good), 0))); !errors.Is(err, ErrWindows) {
 		t.Errorf("a byte after the end: %v", err)
 	}
 }
@@ -176,7 +176,7 @@ func FuzzReadWindows(f *testing.F) {
 		if err := os.WriteFile(p, b, 0o644); err != nil {
 			t.Fatal(err)
 		}
-		back, _, _, err := ReadWindows(p, ReadOptions{TempDir: t.TempDir()})
+		back, _, _, err := ReadWindows(p)
 		if err != nil && !errors.Is(err, ErrWindows) {
 			t.Errorf("an error that is not ErrWindows: %v", err)
 		}

@@ -146,15 +146,15 @@ var ErrWindows = errors.New("windows file not usable")
 // must stay in place until the table is closed), as Read reads a store's temporary file; nothing
 // is copied. The table has no accounting; its Files are the inputs the windows came from, and
 // run the run it names, for the caller to check.
-func ReadWindows(path string, opts ReadOptions) (*Table, Shard, string, error) {
-	t, h, err := readWindows(path, opts)
+func ReadWindows(path string) (*Table, Shard, string, error) {
+	t, h, err := readWindows(path)
 	if err != nil {
 		return nil, Shard{}, "", err
 	}
 	return t, h.Shard, h.Run, nil
 }
 
-func readWindows(path string, opts ReadOptions) (*Table, *windowsHeader, error) {
+func readWindows(path string) (*Table, *windowsHeader, error) {
 	f, err := os.Open(path)
 	if err != nil {
 		return nil, nil, fmt.Errorf("%s: cannot open: %w", path, errors.Join(ErrWindows, err))
@@ -233,18 +233,3 @@ func readWindowsHeader(f *os.File, br io.Reader, path string) (h windowsHeader, 
 	return h, nil
 }
 
-// decodeWindows decodes rows windows of width values (the features as float32, the order and
-// source as float64, little-endian) from b into x, grown as needed.
-func decodeWindows(x []float64, b []byte, rows, width int) []float64 {
-	d, rb := width-2, windowBytes(width)
-	x = slices.Grow(x[:0], rows*width)[:rows*width]
-	for i := 0; i < rows; i++ {
-		in, row := b[i*rb:(i+1)*rb], x[i*width:(i+1)*width]
-		for j := range row[:d] {
-			row[j] = float64(math.Float32frombits(binary.LittleEndian.Uint32(in[4*j:])))
-		}
-		row[d] = math.Float64frombits(binary.LittleEndian.Uint64(in[4*d:]))
-		row[d+1] = math.Float64frombits(binary.LittleEndian.Uint64(in[4*d+8:]))
-	}
-	return x
-}

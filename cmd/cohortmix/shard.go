@@ -399,7 +399,7 @@ func (o *shardOptions) readShard(ctx context.Context, plan *job.Plan, shard, pie
 	if o.Windows != "" {
 		var of cohort.Shard
 		var run string
-		if t, of, run, err = cohort.ReadWindows(o.Windows, ro); err != nil {
+		if t, of, run, err = cohort.ReadWindows(o.Windows); err != nil {
 			return nil, sh, err
 		}
 		if of != sh {
