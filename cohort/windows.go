@@ -232,4 +232,3 @@ func readWindowsHeader(f *os.File, br io.Reader, path string) (h windowsHeader, 
 	}
 	return h, nil
 }
-
