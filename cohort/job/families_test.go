@@ -233,7 +233,7 @@ func readFamilyDumps(t *testing.T, dir string) []*familyDump {
 
 var familiesRecover = flag.String("families.recover", "", "run the job with the defaults on family members: family:first-last[,…]")
 var familiesSeeds = flag.Int("families.seeds", 3, "tool seeds per member, for reproducibility")
-var familiesArgs = flag.String("families.opts", "", "options changed from the defaults, as key=value,… (states=4, fits=1, criterion=bic, method=ward-hellinger, calibration=off, nonwear=choi, validday=none, validdays=2, twins=keep)")
+var familiesArgs = flag.String("families.opts", "", "options changed from the defaults, as key=value,… (states=4, fits=1, criterion=bic, method=ward-hellinger, calibration=off, nonwear=choi, validday=none, validdays=2, twins=keep, twinfold=off)")
 
 // The families benchmark: the whole job with the defaults (or -families.opts) on members of
 // every family, scored by the adjusted Rand index against the planted groups, each member run
@@ -356,6 +356,8 @@ func recoverMember(t *testing.T, fam synth.Family, seed uint64) (r struct {
 			fmt.Sscan(v, &o.Read.ValidDays)
 		case "twins":
 			o.KeepTwins = v == "keep"
+		case "twinfold":
+			o.noTwinFold = v == "off"
 		default:
 			t.Fatalf("-families.opts: no option %s", k)
 		}

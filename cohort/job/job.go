@@ -43,6 +43,9 @@ type Options struct {
 	// NoCalibration leaves each device's axis means uncalibrated in the align step (see
 	// normalize.SphereCalibration).
 	NoCalibration bool
+	// noTwinFold leaves pairs of states that no participant uses both of as fitted
+	// (profile.AlignOptions.Twins −1): a switch of the families study, not an option.
+	noTwinFold bool
 	// Fits is how many times each number of states is fitted from different random starts, the
 	// fit kept being the one whose grouping agrees best with all the others' (fitStates); 0 and
 	// 1 fit once.

@@ -638,7 +638,11 @@ func fitEnsemble(ctx context.Context, fp *FitPiece, units [][]float64, o Options
 		}
 		// One start seeded once per fit: the ensemble of fits, not each fit's own restarts, is
 		// what keeps the answer from hanging on a random start.
-		st, err := profile.FitAligned(ctx, units, fp.Fit, profile.AlignOptions{States: []int{m.s}, Calibrate: !o.NoCalibration, Starts: 1, Reseeds: -1, Seed: seed, Workers: o.Workers})
+		twins := 0 // profile's default tries at folding twin states
+		if o.noTwinFold {
+			twins = -1
+		}
+		st, err := profile.FitAligned(ctx, units, fp.Fit, profile.AlignOptions{States: []int{m.s}, Calibrate: !o.NoCalibration, Starts: 1, Reseeds: -1, Twins: twins, Seed: seed, Workers: o.Workers})
 		if err != nil {
 			return m, err
 		}
