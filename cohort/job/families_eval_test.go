@@ -36,6 +36,9 @@ type grouped struct {
 // groupBy runs one candidate grouping model on one fit's counts.
 func groupBy(t *testing.T, method string, ff familyFit, maxK int) grouped {
 	ctx := context.Background()
+	if strings.Contains(method, "twin") {
+		ff = mergeTwinStates(ff, 0.1)
+	}
 	n, s := len(ff.Counts), ff.S
 	switch {
 	case strings.HasPrefix(method, "dmm") || strings.HasPrefix(method, "markov"):
@@ -602,4 +605,73 @@ func minOf(xs []float64) float64 {
 		return math.NaN()
 	}
 	return slices.Min(xs)
+}
+
+// mergeTwinStates merges, one pair after another, the states that the units use one or the
+// other of but rarely both (overlap Σᵢ min(pᵢₛ, pᵢₜ) / min(Σᵢ pᵢₛ, Σᵢ pᵢₜ) below most, as
+// profile's twinPairs measures it, states of under 1 % of the time left out): their windows and
+// transitions add up as one state's.
+func mergeTwinStates(ff familyFit, most float64) familyFit {
+	for {
+		s := ff.S
+		share := make([][]float64, len(ff.Counts))
+		total := make([]float64, s)
+		for i, c := range ff.Counts {
+			var n float64
+			for _, v := range c {
+				n += float64(v)
+			}
+			share[i] = make([]float64, s)
+			for j, v := range c {
+				if n > 0 {
+					share[i][j] = float64(v) / n
+				}
+				total[j] += share[i][j]
+			}
+		}
+		least := 0.01 * float64(len(ff.Counts))
+		bs, bt, best := -1, -1, most
+		for a := 0; a < s; a++ {
+			for b := a + 1; b < s; b++ {
+				if total[a] < least || total[b] < least {
+					continue
+				}
+				var both float64
+				for _, p := range share {
+					both += min(p[a], p[b])
+				}
+				if o := both / min(total[a], total[b]); o < best {
+					bs, bt, best = a, b, o
+				}
+			}
+		}
+		if bs < 0 || s <= 2 {
+			return ff
+		}
+		// State bt goes into bs; the states after bt move down one.
+		to := func(j int) int {
+			switch {
+			case j == bt:
+				return bs
+			case j > bt:
+				return j - 1
+			}
+			return j
+		}
+		out := familyFit{S: s - 1, Fit: ff.Fit}
+		for i := range ff.Counts {
+			c := make([]int, s-1)
+			for j, v := range ff.Counts[i] {
+				c[to(j)] += v
+			}
+			tr := make([]int, (s-1)*(s-1))
+			for a := 0; a < s; a++ {
+				for b := 0; b < s; b++ {
+					tr[to(a)*(s-1)+to(b)] += ff.Trans[i][a*s+b]
+				}
+			}
+			out.Counts, out.Trans = append(out.Counts, c), append(out.Trans, tr)
+		}
+		ff = out
+	}
 }
