@@ -215,8 +215,8 @@ func readBytes(t *testing.T, p string) []byte {
 
 // Issue 28: a pseudonymized split run wrote the raw ids into its pieces. Under --pseudonymize
 // the census replaces every id as it reads it: no piece, windows file or output holds a study id,
-// and the result is that of 'group --pseudonymize' byte for byte. Later steps that read the
-// inputs again need the same key.
+// and the result is that of 'group --pseudonymize' byte for byte, with a census per shard or
+// the inputs read once (--split). Later steps that read the inputs again need the same key.
 func TestPseudonymizedSplitRunKeepsNoIDsOnDisk(t *testing.T) {
 	t.Parallel()
 	dir := t.TempDir()
@@ -243,6 +243,21 @@ func TestPseudonymizedSplitRunKeepsNoIDsOnDisk(t *testing.T) {
 		t.Fatalf("pieces %v", files)
 	}
 	for _, f := range append(files, filepath.Join(dir, "split.json"), filepath.Join(dir, "split.xlsx")) {
+		if bytes.Contains(readBytes(t, f), []byte("STUDYID")) {
+			t.Errorf("%s holds a study id", f)
+		}
+	}
+	// Read once (--split): the same members, and no study id in the split step's pieces either.
+	once := filepath.Join(dir, "once")
+	mustRun(t, append(append([]string{"shard", "run", in, "--shards", "3", "--split", "--pieces", once}, out("once")...), common...)...)
+	if !bytes.Equal(readBytes(t, filepath.Join(dir, "once.csv")), one) {
+		t.Error("members of the run read once differ from one machine's")
+	}
+	onceFiles, _ := filepath.Glob(filepath.Join(once, "*"))
+	if censuses, _ := filepath.Glob(filepath.Join(once, "census-*")); len(censuses) > 0 || len(onceFiles) < 10 {
+		t.Fatalf("the run read once left %v", onceFiles)
+	}
+	for _, f := range onceFiles {
 		if bytes.Contains(readBytes(t, f), []byte("STUDYID")) {
 			t.Errorf("%s holds a study id", f)
 		}
