@@ -576,14 +576,7 @@ func (dd *dmmData) eStep(m *DMM) float64 {
 				top, m.Labels[i] = lp[c], c
 			}
 		}
-		var s float64
-		for c := range lp {
-			s += math.Exp(lp[c] - top)
-		}
-		for c := range lp {
-			m.Posterior[i][c] = math.Exp(lp[c]-top) / s
-		}
-		ll += top + math.Log(s) + dd.coef[i]
+		ll += membershipsInto(m.Posterior[i], lp, top) + dd.coef[i]
 	}
 	m.LogLik = ll
 	return ll

@@ -317,14 +317,7 @@ func (g *Gaussian) eStep(rows [][]float64) (float64, bool) {
 				top, g.Labels[i] = lp[c], c
 			}
 		}
-		var s float64
-		for c := range lp {
-			s += math.Exp(lp[c] - top)
-		}
-		for c := range lp {
-			post[i][c] = math.Exp(lp[c]-top) / s
-		}
-		ll += top + math.Log(s)
+		ll += membershipsInto(post[i], lp, top)
 	}
 	return ll, !math.IsNaN(ll)
 }

@@ -41,3 +41,17 @@ func lnGamma(z float64) float64 {
 	lg, _, _ := lnGammaTerms(z, false)
 	return lg
 }
+
+// membershipsInto writes into dst the memberships of one row from its log-probabilities under
+// each component (lp, top their largest), exp(lp − top) normalized, and returns the row's log
+// of Σ exp(lp) (the log-sum-exp, shifted by top so that no exponential overflows).
+func membershipsInto(dst, lp []float64, top float64) float64 {
+	var s float64
+	for _, v := range lp {
+		s += math.Exp(v - top)
+	}
+	for c, v := range lp {
+		dst[c] = math.Exp(v-top) / s
+	}
+	return top + math.Log(s)
+}
