@@ -198,6 +198,7 @@ func TestLargeCohortIsStreamed(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
+	defer f.Close() // the streamed sheet's temporary file
 	var buf bytes.Buffer
 	if _, err := f.WriteTo(&buf); err != nil {
 		t.Fatal(err)
@@ -206,6 +207,7 @@ func TestLargeCohortIsStreamed(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
+	defer g.Close()
 	rows, _ := g.GetRows(SheetParticipants)
 	if len(rows) != 20001 {
 		t.Errorf("%d rows, want 20,001", len(rows))
