@@ -139,7 +139,7 @@ func (m *DMM) Place(counts mat.Matrix) ([][]float64, []int, error) {
 	for i := range cp.Posterior {
 		cp.Posterior[i] = make([]float64, m.K)
 	}
-	data.eStep(cp)
+	data.eStep(cp, 0)
 	return cp.Posterior, cp.Labels, nil
 }
 
@@ -327,7 +327,7 @@ func (dd *dmmData) fitFrom(ctx context.Context, opts DMMOptions, post [][]float6
 			inner = 50
 		}
 		dd.mStep(m, opts, inner)
-		obj := dd.eStep(m) + m.LogPrior
+		obj := dd.eStep(m, opts.Workers) + m.LogPrior
 		m.Iter = it
 		if math.IsNaN(obj) {
 			return nil, fmt.Errorf("mixture: FitDMM: the likelihood became NaN: %w", cluster.ErrNonFinite)
@@ -405,21 +405,26 @@ func (dd *dmmData) momentAlpha(post [][]float64, c int) []float64 {
 // current α, so that no step lowers it.
 func (dd *dmmData) mStep(m *DMM, opts DMMOptions, inner int) {
 	n := float64(dd.n)
-	m.LogPrior = 0
-	for c := 0; c < m.K; c++ {
-		var wsum float64
+	wsum := make([]float64, m.K)
+	for c := range wsum {
 		for i := range m.Posterior {
-			wsum += m.Posterior[i][c]
+			wsum[c] += m.Posterior[i][c]
 		}
-		m.Weights[c] = wsum / n
-		if wsum > 1e-10 {
+		m.Weights[c] = wsum[c] / n
+	}
+	// The components are raised side by side: each writes only its own α.
+	par.Each(m.K, opts.Workers, func(c int) {
+		if wsum[c] > 1e-10 {
 			for b := range dd.blocks {
 				dd.raiseBlock(m, c, b, opts, inner)
 			}
 		}
-		if opts.Eta > 0 || opts.Nu > 0 {
-			// Gamma(η, ν) on α, taken on λ = log α: log p(λ) = η λ − ν e^λ + η log ν − log Γ(η).
-			lgEta, _ := math.Lgamma(opts.Eta)
+	})
+	m.LogPrior = 0
+	if opts.Eta > 0 || opts.Nu > 0 {
+		// Gamma(η, ν) on α, taken on λ = log α: log p(λ) = η λ − ν e^λ + η log ν − log Γ(η).
+		lgEta, _ := math.Lgamma(opts.Eta)
+		for c := 0; c < m.K; c++ {
 			for _, a := range m.Alpha[c] {
 				m.LogPrior += opts.Eta*math.Log(a) - opts.Nu*a + opts.Eta*math.Log(opts.Nu) - lgEta
 			}
@@ -558,7 +563,9 @@ func (dd *dmmData) raiseBlock(m *DMM, c, b int, opts DMMOptions, inner int) {
 }
 
 // eStep sets the memberships and labels from the weights and α, and returns the log-likelihood.
-func (dd *dmmData) eStep(m *DMM) float64 {
+// The rows are taken in blocks side by side (workers; 0 means one per core), their
+// log-likelihoods summed in row order after, so the sum is the same on any number of cores.
+func (dd *dmmData) eStep(m *DMM, workers int) float64 {
 	comps := make([]component, m.K)
 	logW := make([]float64, m.K)
 	for c := range comps {
@@ -566,21 +573,30 @@ func (dd *dmmData) eStep(m *DMM) float64 {
 		logW[c] = math.Log(m.Weights[c])
 	}
 	m.Labels = make([]int, dd.n)
-	var ll float64
-	lp := make([]float64, m.K)
-	for i := 0; i < dd.n; i++ {
-		top := math.Inf(-1)
-		for c := range comps {
-			lp[c] = logW[c] + dd.logDM(i, comps[c].alpha, comps[c].A, comps[c].lgA, comps[c].lgAlpha)
-			if lp[c] > top {
-				top, m.Labels[i] = lp[c], c
+	rowLL := make([]float64, dd.n)
+	par.Each((dd.n+eStepRows-1)/eStepRows, workers, func(blk int) {
+		lp := make([]float64, m.K)
+		for i := blk * eStepRows; i < min(dd.n, (blk+1)*eStepRows); i++ {
+			top := math.Inf(-1)
+			for c := range comps {
+				lp[c] = logW[c] + dd.logDM(i, comps[c].alpha, comps[c].A, comps[c].lgA, comps[c].lgAlpha)
+				if lp[c] > top {
+					top, m.Labels[i] = lp[c], c
+				}
 			}
+			rowLL[i] = membershipsInto(m.Posterior[i], lp, top) + dd.coef[i]
 		}
-		ll += membershipsInto(m.Posterior[i], lp, top) + dd.coef[i]
+	})
+	var ll float64
+	for _, v := range rowLL {
+		ll += v
 	}
 	m.LogLik = ll
 	return ll
 }
+
+// eStepRows is how many rows one task of the E step takes.
+const eStepRows = 256
 
 // criteria fills the parameter count and the information criteria.
 func (m *DMM) criteria(dd *dmmData, opts DMMOptions) {
