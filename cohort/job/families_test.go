@@ -233,7 +233,7 @@ func readFamilyDumps(t *testing.T, dir string) []*familyDump {
 
 var familiesRecover = flag.String("families.recover", "", "run the job with the defaults on family members: family:first-last[,…]")
 var familiesSeeds = flag.Int("families.seeds", 3, "tool seeds per member, for reproducibility")
-var familiesArgs = flag.String("families.opts", "", "options changed from the defaults, as key=value,… (states=4, fits=1, criterion=bic, method=ward-hellinger, calibration=off, nonwear=choi, validday=none, validdays=2, twins=keep, twinfold=off)")
+var familiesArgs = flag.String("families.opts", "", "options changed from the defaults, as key=value,… (states=4, fits=1, criterion=bic, method=ward-hellinger, calibration=off, nonwear=choi, validday=none, validdays=2, twins=keep, twinfold=off, axes=none, windows=10080, stateschoice=1se)")
 
 // The families benchmark: the whole job with the defaults (or -families.opts) on members of
 // every family, scored by the adjusted Rand index against the planted groups, each member run
@@ -305,7 +305,13 @@ func recoverMember(t *testing.T, fam synth.Family, seed uint64) (r struct {
 }) {
 	ctx := context.Background()
 	path := filepath.Join(t.TempDir(), "scenario.csv")
-	truth, err := synth.WriteFile(path, synth.Options{Scenario: seed, Family: fam, Seed: seed, Participants: 200, Windows: 2016})
+	windows := 2016
+	for _, kv := range strings.Split(*familiesArgs, ",") {
+		if k, v, _ := strings.Cut(kv, "="); k == "windows" { // long recordings: windows=10080 is a week of minutes
+			fmt.Sscan(v, &windows)
+		}
+	}
+	truth, err := synth.WriteFile(path, synth.Options{Scenario: seed, Family: fam, Seed: seed, Participants: 200, Windows: windows})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -358,6 +364,11 @@ func recoverMember(t *testing.T, fam synth.Family, seed uint64) (r struct {
 			o.KeepTwins = v == "keep"
 		case "twinfold":
 			o.noTwinFold = v == "off"
+		case "stateschoice": // 1se: the one-standard-error rule over the fits (oneSE)
+			o.oneSE = v == "1se"
+		case "windows": // read above, before the cohort is written
+		case "axes": // none: the align step turns no axis means (offsets only)
+			o.NoAxes = v == "none"
 		default:
 			t.Fatalf("-families.opts: no option %s", k)
 		}

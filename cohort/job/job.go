@@ -46,6 +46,9 @@ type Options struct {
 	// noTwinFold leaves pairs of states that no participant uses both of as fitted
 	// (profile.AlignOptions.Twins −1): a switch of the families study, not an option.
 	noTwinFold bool
+	// oneSE keeps the fit of the fewest states within one standard error of the best agreement
+	// (oneSE) instead of the medoid: a switch of the families study, not an option.
+	oneSE bool
 	// Fits is how many times each number of states is fitted from different random starts, the
 	// fit kept being the one whose grouping agrees best with all the others' (fitStates); 0 and
 	// 1 fit once.

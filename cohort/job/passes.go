@@ -674,6 +674,15 @@ func keepMedoid(fp *FitPiece, members []ensembleMember, o Options, sampled int) 
 		labels[i] = m.labels
 	}
 	best, agree := medoid(labels)
+	if o.oneSE {
+		best = oneSE(labels, members)
+		agree = agree[:0]
+		for j := range labels {
+			if j != best {
+				agree = append(agree, agreement(labels[best], labels[j]))
+			}
+		}
+	}
 	kept := members[best]
 	var same []float64 // the other fits at the number of states kept
 	for i, m := range members {
@@ -807,6 +816,46 @@ func medoid(labels [][]int) (int, []float64) {
 		}
 	}
 	return best, agree
+}
+
+// oneSE is the fit of the fewest states whose agreement with the others (the mean adjusted Rand
+// index) is within one standard error of the best fit's, the one-standard-error rule of
+// Breiman, Friedman, Olshen & Stone (1984, Classification and regression trees; the rule as
+// recalled, not looked up), ties to the higher agreement: a study switch (Options.oneSE),
+// measured and not kept.
+func oneSE(labels [][]int, members []ensembleMember) int {
+	n := len(labels)
+	means := make([]float64, n)
+	pair := make([][]float64, n)
+	for i := range labels {
+		pair[i] = make([]float64, n)
+		for j := range labels {
+			if j != i {
+				pair[i][j] = agreement(labels[i], labels[j])
+				means[i] += pair[i][j] / float64(n-1)
+			}
+		}
+	}
+	top := 0
+	for i := range means {
+		if means[i] > means[top] {
+			top = i
+		}
+	}
+	var ss float64
+	for j, v := range pair[top] {
+		if j != top {
+			ss += (v - means[top]) * (v - means[top])
+		}
+	}
+	se := math.Sqrt(ss/float64(n-2)) / math.Sqrt(float64(n-1))
+	pick := top
+	for i := range means {
+		if means[i] >= means[top]-se && (members[i].s < members[pick].s || members[i].s == members[pick].s && means[i] > means[pick]) {
+			pick = i
+		}
+	}
+	return pick
 }
 
 // median is the median of xs (not changed).
