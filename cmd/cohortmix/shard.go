@@ -34,9 +34,11 @@ type shardOptions struct {
 	// Windows is the shard's windows file: written by census, read by sample and assign
 	// instead of every input file (optional).
 	Windows string
-	// WindowsDir is the folder split writes every shard's windows file to (windows-I.piece).
+	// WindowsDir is the folder split writes every shard's windows file and sample piece to
+	// (windows-I.piece, sample-I.piece).
 	WindowsDir string
-	// Split makes run read the inputs once (split) instead of once per shard (census and plan).
+	// Split makes run read the inputs once (split) instead of once per shard (census, plan and
+	// sample).
 	Split bool
 	Out   string // finish, run: the workbook
 	Flags mainFlags
@@ -50,8 +52,9 @@ writes that shard's windows for its sample and assign steps), and the pieces are
 order the participants first appear. It takes the align step (the default).
 
 The steps, each a command that a workflow engine can run on another machine:
-  split   (once)        reads the inputs once: the plan and every shard's windows file, in
-                        place of census and plan (one read in all, on one machine)
+  split   (once)        reads the inputs once: the plan and every shard's windows file and
+                        sample piece, in place of census, plan and sample (one read in all,
+                        on one machine)
   census  (each shard)  who is in the input, what is left out and why      → census piece
   plan    (once)        merges the census pieces                           → plan piece
   sample  (each shard)  the windows drawn to fit the states                 → sample piece
@@ -122,7 +125,7 @@ func addShardSteps(step shardStep) {
 			_ = c.MarkFlagRequired("piece")
 			c.Flags().StringVar(&o.Windows, "windows-file", "", "also write the shard's windows to this file, for sample and assign to read instead of every input file")
 		})
-	step("split", "split <windows.csv>... --shards N --piece <plan.piece> --windows-dir <folder>", "Read the inputs once and write the run's plan and every shard's windows file, in place of census and plan",
+	step("split", "split <windows.csv>... --shards N --piece <plan.piece> --windows-dir <folder>", "Read the inputs once and write the run's plan and every shard's windows file and sample piece (windows-I.piece, sample-I.piece), in place of census, plan and sample",
 		cobra.MinimumNArgs(1), func(c *cobra.Command, o *shardOptions) {
 			o.Flags.register(c)
 			for _, name := range []string{"members", "model", "pseudonymize", "force"} {
@@ -131,7 +134,7 @@ func addShardSteps(step shardStep) {
 			c.Flags().IntVar(&o.Shards, "shards", 2, "how many shards")
 			c.Flags().StringVar(&o.Piece, "piece", "", "the plan piece to write")
 			_ = c.MarkFlagRequired("piece")
-			c.Flags().StringVar(&o.WindowsDir, "windows-dir", "", "the folder to write each shard's windows file to, as windows-I.piece (default: the folder of --piece)")
+			c.Flags().StringVar(&o.WindowsDir, "windows-dir", "", "the folder to write each shard's windows file and sample piece to, as windows-I.piece and sample-I.piece (default: the folder of --piece)")
 		})
 	step("plan", "plan <census.piece>... --piece <plan.piece>", "Merge every shard's census into the plan of the run", cobra.MinimumNArgs(1), pieceFlags)
 	step("sample", "sample --plan <plan.piece> --shard I/N --piece <sample.piece>", "Draw one shard's windows for the fit", cobra.NoArgs,
@@ -353,12 +356,23 @@ func (o *shardOptions) split(ctx context.Context, inputs []string, piece string)
 		return err
 	}
 	plan.Shards = o.Shards
+	planBytes, pid, err := job.EncodePiece(job.KindPlan, job.PieceID{Run: plan.Run}, plan)
+	if err != nil {
+		return err
+	}
+	samples, err := job.SampleShards(t, plan)
+	if err != nil {
+		return err
+	}
 	files, _ := cohort.ExpandPaths(inputs)
-	outs := []output{pieceOutput(piece, job.KindPlan, job.PieceID{Run: plan.Run}, plan)}
+	outs := []output{{job.KindPlan + " piece", "--piece", piece, func(w io.Writer) error { _, err := w.Write(planBytes); return err }}}
 	for i := 0; i < o.Shards; i++ {
 		sh := cohort.Shard{Index: i, Count: o.Shards}
 		path := filepath.Join(dir, fmt.Sprintf("windows-%d.piece", i+1))
-		outs = append(outs, output{"windows of shard " + sh.String(), "windows file " + sh.String(), path, func(w io.Writer) error { return t.WriteShardWindows(w, sh, plan.Run) }})
+		outs = append(outs, output{"windows of shard " + sh.String(), "windows file " + sh.String(), path, func(w io.Writer) error { return t.WriteShardWindows(w, sh, plan.Run) }},
+			output{"sample of shard " + sh.String(), "sample piece " + sh.String(), filepath.Join(dir, fmt.Sprintf("sample-%d.piece", i+1)), func(w io.Writer) error {
+				return job.WritePiece(w, job.KindSample, job.PieceID{Run: plan.Run, Shard: sh.String(), From: pid.Sum}, samples[i])
+			}})
 	}
 	return o.writeOutputs(files, outs...)
 }
@@ -618,8 +632,12 @@ func (o *shardOptions) runAll(ctx context.Context) (err error) {
 			return err
 		}
 	}
-	samples, err := each("sample", func(shard, piece string) error { return o.sample(ctx, name("plan", -1), shard, piece) })
-	if err != nil {
+	var samples []string
+	if o.Split { // the split step drew them
+		for i := 0; i < o.Shards; i++ {
+			samples = append(samples, name("sample", i))
+		}
+	} else if samples, err = each("sample", func(shard, piece string) error { return o.sample(ctx, name("plan", -1), shard, piece) }); err != nil {
 		return err
 	}
 	if err := o.fit(ctx, name("plan", -1), samples, name("fit", -1)); err != nil {

@@ -269,3 +269,27 @@ func TestPseudonymizedSplitRunKeepsNoIDsOnDisk(t *testing.T) {
 		t.Errorf("exit %d: %s", code, errb)
 	}
 }
+
+// The split step draws every shard's sample as it writes the windows files: its sample pieces
+// are byte for byte those the sample step writes from the plan and a windows file, and the fit
+// step takes them as made from the plan.
+func TestSplitDrawsTheSampleStepsPieces(t *testing.T) {
+	t.Parallel()
+	dir := t.TempDir()
+	in := filepath.Join(dir, "c.csv")
+	if _, err := synth.WriteFile(in, synth.Options{Participants: 30, Windows: 150, Seed: 4}); err != nil {
+		t.Fatal(err)
+	}
+	p := func(name string) string { return filepath.Join(dir, name+".piece") }
+	mustRun(t, "shard", "split", in, "--shards", "3", "--piece", p("plan"), "--states", "3", "--bootstrap", "2", "--quiet")
+	var samples []string
+	for i := 1; i <= 3; i++ {
+		mustRun(t, "shard", "sample", "--plan", p("plan"), "--windows-file", p(fmt.Sprintf("windows-%d", i)), "--shard", fmt.Sprintf("%d/3", i), "--piece", p(fmt.Sprintf("drawn-%d", i)), "--quiet")
+		split, drawn := readBytes(t, p(fmt.Sprintf("sample-%d", i))), readBytes(t, p(fmt.Sprintf("drawn-%d", i)))
+		if !bytes.Equal(split, drawn) {
+			t.Errorf("shard %d: the split step's sample piece (%d bytes) differs from the sample step's (%d bytes)", i, len(split), len(drawn))
+		}
+		samples = append(samples, p(fmt.Sprintf("sample-%d", i)))
+	}
+	mustRun(t, append(append([]string{"shard", "fit", "--plan", p("plan")}, samples...), "--piece", p("fit"), "--quiet")...)
+}

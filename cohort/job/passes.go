@@ -386,13 +386,38 @@ type SamplePiece struct {
 // windows by their place, both by a keyed hash of the seed, so that the sample is the same
 // whatever the shards.
 func SampleOf(t *cohort.Table, p *Plan, shard cohort.Shard) (*SamplePiece, error) {
+	pieces, err := sampleInto(t, p, []cohort.Shard{shard}, func(*cohort.Unit) int { return 0 })
+	if err != nil {
+		return nil, err
+	}
+	return pieces[0], nil
+}
+
+// SampleShards draws every shard's sample (SampleOf) from a table of the whole cohort, as read
+// once: each sampled participant goes to the piece of its shard (cohort.Unit.InShard).
+func SampleShards(t *cohort.Table, p *Plan) ([]*SamplePiece, error) {
+	shards := make([]cohort.Shard, p.Shards)
+	for i := range shards {
+		shards[i] = cohort.Shard{Index: i, Count: p.Shards}
+	}
+	return sampleInto(t, p, shards, func(u *cohort.Unit) int {
+		return slices.IndexFunc(shards, u.InShard)
+	})
+}
+
+// sampleInto draws the sample of t's participants into one piece per shard, each participant
+// into the piece pieceOf gives it.
+func sampleInto(t *cohort.Table, p *Plan, shards []cohort.Shard, pieceOf func(*cohort.Unit) int) ([]*SamplePiece, error) {
 	if err := t.SelectFeatures(p.Features); err != nil {
 		return nil, err
 	}
 	o := p.Options
 	d := len(t.Features)
 	unitRate, windowRate := profile.AlignSample(o.Sample, len(p.Units), p.Usable)
-	s := &SamplePiece{Shard: shard}
+	pieces := make([]*SamplePiece, len(shards))
+	for i, sh := range shards {
+		pieces[i] = &SamplePiece{Shard: sh}
+	}
 	for u, un := range t.Units {
 		key := normalize.UnitKey(un.ID, un.Wave)
 		if !normalize.UnitSampled(o.Seed, key, unitRate) {
@@ -409,13 +434,14 @@ func SampleOf(t *cohort.Table, p *Plan, shard cohort.Shard) (*SamplePiece, error
 			}
 		}
 		if len(rows) > 0 {
+			s := pieces[pieceOf(un)]
 			s.Units = append(s.Units, SampledUnit{Ordinal: un.Ordinal, Rows: rows})
 		}
 		if o.Passes != nil {
 			o.Passes("reading the fitting sample", u+1, len(t.Units))
 		}
 	}
-	return s, nil
+	return pieces, nil
 }
 
 // mergeSamples joins the shards' samples in ordinal order, with each unit's place in the plan.

@@ -11,6 +11,7 @@ import (
 	"fmt"
 	"io"
 	"os"
+	"slices"
 
 	"github.com/cohortmix/cohortmix/cohort"
 )
@@ -69,20 +70,28 @@ func RunOf(o Options, files []cohort.FileInfo) string {
 // WritePiece writes a piece of the given kind; id says where it comes from, and its Sum is
 // computed here.
 func WritePiece(w io.Writer, kind string, id PieceID, v any) error {
+	b, _, err := EncodePiece(kind, id, v)
+	if err != nil {
+		return err
+	}
+	_, err = w.Write(b)
+	return err
+}
+
+// EncodePiece is the piece WritePiece writes, whole, and its id with the Sum set: for a step
+// that writes pieces made from this one (PieceID.From) in the same go.
+func EncodePiece(kind string, id PieceID, v any) ([]byte, PieceID, error) {
 	var body bytes.Buffer
 	if err := gob.NewEncoder(&body).Encode(v); err != nil {
-		return fmt.Errorf("writing a %s piece: %w", kind, err)
+		return nil, id, fmt.Errorf("writing a %s piece: %w", kind, err)
 	}
 	sum := sha256.Sum256(body.Bytes())
 	id.Sum = hex.EncodeToString(sum[:])
 	head, err := json.Marshal(pieceHeader{PieceFormat, kind, PieceVersion, id})
 	if err != nil {
-		return err
+		return nil, id, err
 	}
-	bw := bufio.NewWriter(w)
-	bw.Write(append(head, '\n'))
-	bw.Write(body.Bytes())
-	return bw.Flush()
+	return slices.Concat(head, []byte{'\n'}, body.Bytes()), id, nil
 }
 
 // maxPieceBytes bounds a piece file read whole: far above any run's pieces (an assignment
