@@ -164,8 +164,12 @@ type Unit struct {
 
 // InShard tells whether the unit falls in the shard (ShardOf its id as read).
 func (u *Unit) InShard(sh Shard) bool {
-	return sh.Count <= 0 || int(u.shardKey%uint64(sh.Count)) == sh.Index
+	return sh.Count <= 0 || u.Shard(sh.Count) == sh.Index
 }
+
+// Shard is the index of the shard, of count (≥ 1), that the unit falls in (ShardOf its id as
+// read).
+func (u *Unit) Shard(count int) int { return int(u.shardKey % uint64(count)) }
 
 // Windows is the number of usable windows.
 func (u *Unit) Windows() int { return u.rows }

@@ -400,9 +400,7 @@ func SampleShards(t *cohort.Table, p *Plan) ([]*SamplePiece, error) {
 	for i := range shards {
 		shards[i] = cohort.Shard{Index: i, Count: p.Shards}
 	}
-	return sampleInto(t, p, shards, func(u *cohort.Unit) int {
-		return slices.IndexFunc(shards, u.InShard)
-	})
+	return sampleInto(t, p, shards, func(u *cohort.Unit) int { return u.Shard(p.Shards) })
 }
 
 // sampleInto draws the sample of t's participants into one piece per shard, each participant
@@ -625,13 +623,15 @@ func fitStates(ctx context.Context, fp *FitPiece, units [][]float64, o Options) 
 		return nil, nil, err
 	}
 	best := 0
+	var pair [][]float64 // the fits' groupings' agreements, two by two
 	var notes, warnings []note.Note
 	if len(members) > 1 {
-		best, notes, warnings = keepMedoid(fp, members, o, len(units))
+		pair = pairwise(ensembleLabels(members))
+		best, notes, warnings = keepMedoid(fp, members, pair, o, len(units))
 	}
 	fp.States = members[best].states
 	fp.States.SampleLabels = nil // what the ensemble needed; the piece need not carry it
-	recordEnsemble(fp, members, best, o)
+	recordEnsemble(fp, members, pair, best, o)
 	return notes, warnings, nil
 }
 
@@ -692,28 +692,19 @@ func fitEnsemble(ctx context.Context, fp *FitPiece, units [][]float64, o Options
 // keepMedoid keeps the fit whose grouping of the sampled participants agrees best with all the
 // others' (the medoid), says so in a note, sets the run's reproducibility (the agreement of the
 // fits at the number of states kept) and warns below Unreproducible.
-func keepMedoid(fp *FitPiece, members []ensembleMember, o Options, sampled int) (int, []note.Note, []note.Note) {
+func keepMedoid(fp *FitPiece, members []ensembleMember, pair [][]float64, o Options, sampled int) (int, []note.Note, []note.Note) {
 	var notes, warnings []note.Note
 	fits := max(1, o.Fits)
-	labels := make([][]int, len(members))
-	for i, m := range members {
-		labels[i] = m.labels
-	}
-	best, agree := medoid(labels)
+	best := medoidOf(pair)
 	if o.oneSE {
-		best = oneSE(labels, members)
-		agree = agree[:0]
-		for j := range labels {
-			if j != best {
-				agree = append(agree, agreement(labels[best], labels[j]))
-			}
-		}
+		best = oneSE(pair, members)
 	}
+	agree := othersOf(pair, best)
 	kept := members[best]
 	var same []float64 // the other fits at the number of states kept
 	for i, m := range members {
 		if i != best && m.s == kept.s {
-			same = append(same, agreement(labels[best], labels[i]))
+			same = append(same, pair[best][i])
 		}
 	}
 	notes = append(notes, note.Note{Kind: NoteStatesEnsemble, Ints: append([]int{len(members), fits, kept.s, kept.fit + 1, sampled}, o.States...),
@@ -729,25 +720,28 @@ func keepMedoid(fp *FitPiece, members []ensembleMember, o Options, sampled int) 
 
 // recordEnsemble keeps each fit of the ensemble on the states kept (States.Ensemble), with its
 // agreement with the others and with the fit kept.
-func recordEnsemble(fp *FitPiece, members []ensembleMember, best int, o Options) {
+func recordEnsemble(fp *FitPiece, members []ensembleMember, pair [][]float64, best int, o Options) {
 	fits := max(1, o.Fits)
 	if len(members) > 1 {
-		labels := make([][]int, len(members))
 		for i, m := range members {
-			labels[i] = m.labels
-		}
-		for i, m := range members {
-			var sum float64
-			for j := range members {
-				if j != i {
-					sum += agreement(labels[i], labels[j])
-				}
+			withKept := pair[best][i]
+			if i == best {
+				withKept = 1
 			}
 			fp.States.Ensemble = append(fp.States.Ensemble, profile.EnsembleFit{States: m.s, Start: m.fit + 1, Groups: slices.Max(m.labels) + 1,
-				Agreement: sum / float64(len(members)-1), Kept: i == best, WithKept: agreement(labels[best], labels[i])})
+				Agreement: sumOthers(pair, i) / float64(len(members)-1), Kept: i == best, WithKept: withKept})
 		}
 		fp.States.Rule = fmt.Sprintf("the fit that agrees best with the other %d (%s states, %d starts each)", len(members)-1, rangeText(o.States), fits)
 	}
+}
+
+// ensembleLabels are the members' groupings of the sampled participants.
+func ensembleLabels(members []ensembleMember) [][]int {
+	labels := make([][]int, len(members))
+	for i, m := range members {
+		labels[i] = m.labels
+	}
+	return labels
 }
 
 // Unreproducible is the agreement (median adjusted Rand index) of the groupings from fits of the
@@ -809,39 +803,61 @@ func agreement(a, b []int) float64 {
 	return v
 }
 
-// medoid is the partition that agrees best with the others (the largest sum of agreements with
-// them; ties to the first) and its agreement with each of the others, in order.
-func medoid(labels [][]int) (int, []float64) {
+// pairwise is the agreement of every two partitions (symmetric; each pair computed once).
+func pairwise(labels [][]int) [][]float64 {
 	n := len(labels)
 	pair := make([][]float64, n)
 	for i := range pair {
 		pair[i] = make([]float64, n)
 	}
 	for i := range labels {
-		for j := i + 1; j < n; j++ { // the index is symmetric: each pair once
+		for j := i + 1; j < n; j++ {
 			pair[i][j] = agreement(labels[i], labels[j])
 			pair[j][i] = pair[i][j]
 		}
 	}
+	return pair
+}
+
+// medoid is the partition that agrees best with the others (the largest sum of agreements with
+// them; ties to the first) and its agreement with each of the others, in order.
+func medoid(labels [][]int) (int, []float64) {
+	pair := pairwise(labels)
+	best := medoidOf(pair)
+	return best, othersOf(pair, best)
+}
+
+// medoidOf is medoid's choice from the pairwise agreements.
+func medoidOf(pair [][]float64) int {
 	best, bestSum := 0, math.Inf(-1)
-	for i, row := range pair {
-		var sum float64
-		for j, v := range row {
-			if j != i {
-				sum += v
-			}
-		}
-		if sum > bestSum {
+	for i := range pair {
+		if sum := sumOthers(pair, i); sum > bestSum {
 			best, bestSum = i, sum
 		}
 	}
+	return best
+}
+
+// sumOthers is partition i's sum of agreements with the others.
+func sumOthers(pair [][]float64, i int) float64 {
+	var sum float64
+	for j, v := range pair[i] {
+		if j != i {
+			sum += v
+		}
+	}
+	return sum
+}
+
+// othersOf is partition i's agreement with each of the others, in order.
+func othersOf(pair [][]float64, i int) []float64 {
 	var agree []float64
-	for j, v := range pair[best] {
-		if j != best {
+	for j, v := range pair[i] {
+		if j != i {
 			agree = append(agree, v)
 		}
 	}
-	return best, agree
+	return agree
 }
 
 // oneSE is the fit of the fewest states whose agreement with the others (the mean adjusted Rand
@@ -849,30 +865,16 @@ func medoid(labels [][]int) (int, []float64) {
 // Breiman, Friedman, Olshen & Stone (1984, Classification and regression trees; the rule as
 // recalled, not looked up), ties to the higher agreement: a study switch (Options.oneSE),
 // measured and not kept.
-func oneSE(labels [][]int, members []ensembleMember) int {
-	n := len(labels)
+func oneSE(pair [][]float64, members []ensembleMember) int {
+	n := len(pair)
 	means := make([]float64, n)
-	pair := make([][]float64, n)
-	for i := range labels {
-		pair[i] = make([]float64, n)
-		for j := range labels {
-			if j != i {
-				pair[i][j] = agreement(labels[i], labels[j])
-				means[i] += pair[i][j] / float64(n-1)
-			}
-		}
+	for i := range pair {
+		means[i] = sumOthers(pair, i) / float64(n-1)
 	}
-	top := 0
-	for i := range means {
-		if means[i] > means[top] {
-			top = i
-		}
-	}
+	top := medoidOf(pair)
 	var ss float64
-	for j, v := range pair[top] {
-		if j != top {
-			ss += (v - means[top]) * (v - means[top])
-		}
+	for _, v := range othersOf(pair, top) {
+		ss += (v - means[top]) * (v - means[top])
 	}
 	se := math.Sqrt(ss/float64(n-2)) / math.Sqrt(float64(n-1))
 	pick := top
