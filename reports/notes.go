@@ -58,6 +58,14 @@ func (a noteArgs) name(k int) string {
 
 func (a noteArgs) option() string { return a.n.Option }
 
+// names are the n names from Names[from] on, joined by commas; "none" when there are none.
+func (a noteArgs) names(from, n int) string {
+	if n == 0 || from+n > len(a.n.Names) {
+		return "none"
+	}
+	return strings.Join(a.n.Names[from:from+n], ", ")
+}
+
 // noteWords puts each kind of note into words.
 var noteWords = map[note.Kind]func(a noteArgs) string{
 	cohort.NoteNonWear: func(a noteArgs) string {
@@ -138,19 +146,12 @@ var noteWords = map[note.Kind]func(a noteArgs) string{
 	},
 	job.NoteAxes: axesWords,
 	job.NoteLogScales: func(a noteArgs) string {
-		names := a.n.Names
-		part := func(from, n int) string {
-			if n == 0 || from+n > len(names) {
-				return "none"
-			}
-			return strings.Join(names[from:from+n], ", ")
-		}
-		text := "taken on a log scale, log(x + c) with c the feature's first quartile: " + part(0, a.i(0))
+		text := "taken on a log scale, log(x + c) with c the feature's first quartile: " + a.names(0, a.i(0))
 		if a.i(1) > 0 {
-			text += "; left linear as they take negative values: " + part(a.i(0), a.i(1))
+			text += "; left linear as they take negative values: " + a.names(a.i(0), a.i(1))
 		}
 		if a.i(2) > 0 {
-			text += "; left linear as a quarter or more of their values are 0 (c would be 0): " + part(a.i(0)+a.i(1), a.i(2))
+			text += "; left linear as a quarter or more of their values are 0 (c would be 0): " + a.names(a.i(0)+a.i(1), a.i(2))
 		}
 		return text
 	},
@@ -178,14 +179,7 @@ var noteWords = map[note.Kind]func(a noteArgs) string{
 		return fmt.Sprintf("%s: its features were made otherwise than those of %s (%s); make every wave's features with the same settings of the features step", a.name(0), madeByName(a.name(1)), a.name(2))
 	},
 	job.NoteGroupChanges: func(a noteArgs) string {
-		names := a.n.Names
-		list := func(from, n int) string {
-			if n == 0 || from+n > len(names) {
-				return "none"
-			}
-			return strings.Join(names[from:from+n], ", ")
-		}
-		return fmt.Sprintf("groups: %d kept their names, new: %s; gone: %s; merged: %s", a.i(0), list(0, a.i(1)), list(a.i(1), a.i(2)), list(a.i(1)+a.i(2), a.i(3)))
+		return fmt.Sprintf("groups: %d kept their names, new: %s; gone: %s; merged: %s", a.i(0), a.names(0, a.i(1)), a.names(a.i(1), a.i(2)), a.names(a.i(1)+a.i(2), a.i(3)))
 	},
 	job.NoteStatesDepend: func(a noteArgs) string {
 		var parts []string
