@@ -142,6 +142,24 @@ func TestProperties(t *testing.T) {
 	if v, _ := NormalizedMutualInfo(a, renamed); math.Abs(v-1) > 1e-12 {
 		t.Errorf("NMI under renaming = %v, want 1", v)
 	}
+	// The variation of information is 0 between a labeling and its renaming, and from one group
+	// to a labeling it is that labeling's entropy (Meilă 2007, property of the metric).
+	if v, _ := VariationOfInformation(a, renamed); v > 1e-12 {
+		t.Errorf("VI under renaming = %v, want 0", v)
+	}
+	one := make([]int, len(a))
+	counts := map[int]float64{}
+	for _, l := range a {
+		counts[l]++
+	}
+	var ent float64
+	for _, c := range counts {
+		p := c / float64(len(a))
+		ent -= p * math.Log(p)
+	}
+	if v, _ := VariationOfInformation(one, a); math.Abs(v-ent) > 1e-12 {
+		t.Errorf("VI from one group = %v, want the labeling's entropy %v", v, ent)
+	}
 	x, y := blobs(2, 300, 3, 3, 2)
 	s, _ := Silhouette(x, y, SilhouetteOptions{})
 	for i, v := range s.Values {

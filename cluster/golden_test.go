@@ -249,8 +249,8 @@ func TestValidityGolden(t *testing.T) {
 			DaviesBouldin     float64   `json:"davies_bouldin"`
 		}
 		Pairs []struct {
-			A, B     []int
-			ARI, NMI float64
+			A, B         []int
+			ARI, NMI, VI float64
 		}
 	}
 	readGolden(t, "validity.json", &g)
@@ -288,6 +288,12 @@ func TestValidityGolden(t *testing.T) {
 		nmi, err := NormalizedMutualInfo(p.A, p.B)
 		if err != nil || !near(nmi, p.NMI, 1e-12) {
 			t.Errorf("pair %d: NMI %.15g (%v), sklearn.metrics.normalized_mutual_info_score %.15g (tol 1e-12)", i, nmi, err, p.NMI)
+		}
+		// H(a) + H(b) − 2 I(a; b) from scipy.stats.entropy and sklearn's mutual_info_score: sums
+		// of a few dozen logarithms, 1e-12 relative.
+		vi, err := VariationOfInformation(p.A, p.B)
+		if err != nil || !near(vi, p.VI, 1e-12) {
+			t.Errorf("pair %d: variation of information %.15g (%v), scipy/sklearn %.15g (tol 1e-12)", i, vi, err, p.VI)
 		}
 	}
 }

@@ -233,7 +233,8 @@ func readFamilyDumps(t *testing.T, dir string) []*familyDump {
 
 var familiesRecover = flag.String("families.recover", "", "run the job with the defaults on family members: family:first-last[,…]")
 var familiesSeeds = flag.Int("families.seeds", 3, "tool seeds per member, for reproducibility")
-var familiesArgs = flag.String("families.opts", "", "options changed from the defaults, as key=value,… (states=4, fits=1, criterion=bic, method=ward-hellinger, calibration=off, nonwear=choi, validday=none, validdays=2, twins=keep, twinfold=off, axes=none, windows=10080, stateschoice=1se)")
+var familiesEnsemble = flag.Bool("families.ensemble", false, "log each fit of the states: states.start:groups/agreement, * on the fit kept")
+var familiesArgs = flag.String("families.opts", "", "options changed from the defaults, as key=value,… (states=4, fits=1, criterion=bic, method=ward-hellinger, calibration=off, nonwear=choi, validday=none, validdays=2, twins=keep, twinfold=off, axes=none, windows=10080, stateschoice=1se|vi)")
 
 // The families benchmark: the whole job with the defaults (or -families.opts) on members of
 // every family, scored by the adjusted Rand index against the planted groups, each member run
@@ -366,6 +367,7 @@ func recoverMember(t *testing.T, fam synth.Family, seed uint64) (r struct {
 			o.noTwinFold = v == "off"
 		case "stateschoice": // 1se: the one-standard-error rule over the fits (oneSE)
 			o.oneSE = v == "1se"
+			o.viMedoid = v == "vi"
 		case "windows": // read above, before the cohort is written
 		case "axes": // none: the align step turns no axis means (offsets only)
 			o.NoAxes = v == "none"
@@ -398,6 +400,17 @@ func recoverMember(t *testing.T, fam synth.Family, seed uint64) (r struct {
 			r.secs = time.Since(start).Seconds()
 		}
 		labels = append(labels, f.Grouping.Labels)
+		if *familiesEnsemble {
+			var b strings.Builder
+			for _, e := range f.States.Ensemble {
+				k := ""
+				if e.Kept {
+					k = "*"
+				}
+				fmt.Fprintf(&b, " %d.%d:%dg/%.2f%s", e.States, e.Start, e.Groups, e.Agreement, k)
+			}
+			t.Logf("%s %d ensemble:%s", fam, seed, b.String())
+		}
 		r.aris = append(r.aris, agreement(want, f.Grouping.Labels))
 		r.states, r.groups = append(r.states, f.States.K), append(r.groups, f.Grouping.K)
 	}

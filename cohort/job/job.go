@@ -49,6 +49,9 @@ type Options struct {
 	// oneSE keeps the fit of the fewest states within one standard error of the best agreement
 	// (oneSE) instead of the medoid: a switch of the families study, not an option.
 	oneSE bool
+	// viMedoid keeps the medoid under the variation of information (viMedoid) instead of the
+	// adjusted Rand index: a switch of the families study, not an option.
+	viMedoid bool
 	// Fits is how many times each number of states is fitted from different random starts, the
 	// fit kept being the one whose grouping agrees best with all the others' (fitStates); 0 and
 	// 1 fit once.

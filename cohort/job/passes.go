@@ -699,6 +699,9 @@ func keepMedoid(fp *FitPiece, members []ensembleMember, pair [][]float64, o Opti
 	if o.oneSE {
 		best = oneSE(pair, members)
 	}
+	if o.viMedoid {
+		best = viMedoid(members)
+	}
 	agree := othersOf(pair, best)
 	kept := members[best]
 	var same []float64 // the other fits at the number of states kept
@@ -884,6 +887,30 @@ func oneSE(pair [][]float64, members []ensembleMember) int {
 		}
 	}
 	return pick
+}
+
+// viMedoid is the fit whose grouping has the least summed variation of information to the
+// others' (Meilă 2007, J Multivariate Anal 98:873; a metric on partitions under which one group
+// is as near to a grouping as that grouping's entropy, where the adjusted Rand index puts it at
+// 0 from every grouping of more than one group): a study switch (Options.viMedoid).
+func viMedoid(members []ensembleMember) int {
+	best, bestSum := 0, math.Inf(1)
+	for i := range members {
+		var sum float64
+		for j := range members {
+			if j != i {
+				v, err := cluster.VariationOfInformation(members[i].labels, members[j].labels)
+				if err != nil {
+					v = math.Inf(1)
+				}
+				sum += v
+			}
+		}
+		if sum < bestSum {
+			best, bestSum = i, sum
+		}
+	}
+	return best
 }
 
 // median is the median of xs (not changed).

@@ -11,7 +11,7 @@ import numpy as np, scipy, sklearn
 from scipy.cluster.hierarchy import linkage, fcluster, leaves_list
 from scipy.spatial.distance import pdist, jensenshannon
 from scipy.optimize import linear_sum_assignment
-from scipy.stats import kruskal
+from scipy.stats import kruskal, entropy
 from sklearn.cluster import KMeans
 from sklearn import metrics
 
@@ -70,9 +70,11 @@ pairs = []
 for n, ka, kb in ((30, 3, 3), (100, 2, 5), (57, 6, 4), (200, 8, 8)):
     a, b = rng.integers(0, ka, n), rng.integers(0, kb, n)
     b[: n // 2] = a[: n // 2] % kb  # partly agreeing
+    # The variation of information (Meila 2007): H(a) + H(b) - 2 I(a; b), in nats.
+    vi = entropy(np.bincount(a)) + entropy(np.bincount(b)) - 2 * metrics.mutual_info_score(a, b)
     pairs.append({"a": a, "b": b, "ari": metrics.adjusted_rand_score(a, b),
-                  "nmi": metrics.normalized_mutual_info_score(a, b)})
-dump("validity.json", {"source": "sklearn.metrics silhouette_samples, silhouette_score, calinski_harabasz_score, davies_bouldin_score, adjusted_rand_score, normalized_mutual_info_score",
+                  "nmi": metrics.normalized_mutual_info_score(a, b), "vi": vi})
+dump("validity.json", {"source": "sklearn.metrics silhouette_samples, silhouette_score, calinski_harabasz_score, davies_bouldin_score, adjusted_rand_score, normalized_mutual_info_score; variation of information from mutual_info_score and scipy.stats.entropy",
                        "iris": val, "pairs": pairs})
 
 # PCA on iris, with the sign convention of cluster.FitPCA (largest |loading| positive) applied here.
