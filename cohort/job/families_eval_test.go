@@ -512,6 +512,7 @@ type consensusRule struct {
 // consensusRules are the candidate rules that take one grouping from all of a dump's groupings.
 var consensusRules = []consensusRule{
 	{"med", func(c cachedGroupings) ([]int, string) { return medoidOver(c, evalStates(), 3) }},
+	{"medVI", func(c cachedGroupings) ([]int, string) { return medoidVIOver(c, evalStates(), 3) }},
 	{"med1", func(c cachedGroupings) ([]int, string) { return medoidOver(c, evalStates(), 1) }},
 	{"S6", func(c cachedGroupings) ([]int, string) { return c["6/0"].Labels, "" }},
 	{"S8", func(c cachedGroupings) ([]int, string) { return c["8/0"].Labels, "" }},
@@ -573,6 +574,34 @@ func medoidOver(c cachedGroupings, ss []int, fits int) ([]int, string) {
 			}
 		}
 		if sum > bestSum {
+			best, bestSum = i, sum
+		}
+	}
+	return all[best], fmt.Sprintf("(%s k%d)", names[best], slices.Max(all[best])+1)
+}
+
+// medoidVIOver is medoidOver under the variation of information (least summed distance).
+func medoidVIOver(c cachedGroupings, ss []int, fits int) ([]int, string) {
+	var all [][]int
+	var names []string
+	for _, s := range ss {
+		for r := 0; r < fits; r++ {
+			if g, ok := c[fmt.Sprintf("%d/%d", s, r)]; ok {
+				all = append(all, g.Labels)
+				names = append(names, fmt.Sprintf("%d/%d", s, r))
+			}
+		}
+	}
+	best, bestSum := 0, math.Inf(1)
+	for i := range all {
+		var sum float64
+		for j := range all {
+			if i != j {
+				v, _ := cluster.VariationOfInformation(all[i], all[j])
+				sum += v
+			}
+		}
+		if sum < bestSum {
 			best, bestSum = i, sum
 		}
 	}

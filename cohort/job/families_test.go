@@ -26,6 +26,7 @@ import (
 var familiesSet = flag.String("families", "", "dump the families study: family:first-last[,family:first-last…]")
 var familiesDump = flag.String("families.dump", "", "folder to dump the families study to")
 var familiesFits = flag.Int("families.fits", 3, "fits from different random starts at each number of states")
+var familiesDumpStates = flag.String("families.dumpstates", "2-12", "numbers of states the dump fits, as first-last")
 var familiesNoCal = flag.Bool("families.nocal", false, "fit the states without calibrating the devices")
 
 type familyFit struct {
@@ -158,7 +159,9 @@ func dumpFamilyMember(t *testing.T, fam synth.Family, seed uint64) *familyDump {
 		t.Fatal(err)
 	}
 	d.Sampled = sample.index
-	for s := 2; s <= 12; s++ {
+	lo, hi := 2, 12
+	fmt.Sscanf(*familiesDumpStates, "%d-%d", &lo, &hi)
+	for s := lo; s <= hi; s++ {
 		for r := 0; r < *familiesFits; r++ {
 			start := time.Now()
 			st, err := profile.FitAligned(ctx, units, fp.Fit, profile.AlignOptions{States: []int{s}, Seed: par.SubSeed(o.Seed, "fit", r), Calibrate: !*familiesNoCal})
@@ -234,7 +237,7 @@ func readFamilyDumps(t *testing.T, dir string) []*familyDump {
 var familiesRecover = flag.String("families.recover", "", "run the job with the defaults on family members: family:first-last[,…]")
 var familiesSeeds = flag.Int("families.seeds", 3, "tool seeds per member, for reproducibility")
 var familiesEnsemble = flag.Bool("families.ensemble", false, "log each fit of the states: states.start:groups/agreement, * on the fit kept")
-var familiesArgs = flag.String("families.opts", "", "options changed from the defaults, as key=value,… (states=4, fits=1, criterion=bic, method=ward-hellinger, calibration=off, nonwear=choi, validday=none, validdays=2, twins=keep, twinfold=off, axes=none, windows=10080, stateschoice=1se|vi)")
+var familiesArgs = flag.String("families.opts", "", "options changed from the defaults, as key=value,… (states=4, fits=1, criterion=bic, method=ward-hellinger, calibration=off, nonwear=choi, validday=none, validdays=2, twins=keep, twinfold=off, axes=none, windows=10080, stateschoice=1se|vi, votes=full)")
 
 // The families benchmark: the whole job with the defaults (or -families.opts) on members of
 // every family, scored by the adjusted Rand index against the planted groups, each member run
@@ -368,6 +371,9 @@ func recoverMember(t *testing.T, fam synth.Family, seed uint64) (r struct {
 		case "stateschoice": // 1se: the one-standard-error rule over the fits (oneSE)
 			o.oneSE = v == "1se"
 			o.viMedoid = v == "vi"
+		case "votes": // full: the votes see each sampled participant's whole recording and its bouts
+			o.voteFull = v == "full"
+
 		case "windows": // read above, before the cohort is written
 		case "axes": // none: the align step turns no axis means (offsets only)
 			o.NoAxes = v == "none"

@@ -52,6 +52,11 @@ type Options struct {
 	// viMedoid keeps the medoid under the variation of information (viMedoid) instead of the
 	// adjusted Rand index: a switch of the families study, not an option.
 	viMedoid bool
+	// voteFull lets the fits' votes see each sampled participant's whole recording and its
+	// bouts (voteBlocks, set by FitTable): a prototype of the families study (votes=full), in one
+	// process only, measured and not kept.
+	voteFull   bool
+	voteBlocks func(ordinal int) ([]float64, error)
 	// Fits is how many times each number of states is fitted from different random starts, the
 	// fit kept being the one whose grouping agrees best with all the others' (fitStates); 0 and
 	// 1 fit once.
@@ -265,6 +270,16 @@ func FitTable(ctx context.Context, t *cohort.Table, o Options) (*Fitted, error) 
 	sp, err := SampleOf(t, plan, cohort.Shard{})
 	if err != nil {
 		return nil, err
+	}
+	if o.voteFull {
+		plan.Options.voteBlocks = func(ord int) ([]float64, error) {
+			for u, un := range t.Units {
+				if un.Ordinal == ord {
+					return t.Block(u, nil)
+				}
+			}
+			return nil, fmt.Errorf("no unit of ordinal %d", ord)
+		}
 	}
 	if o.Norm.Within == normalize.WithinAlign {
 		fp, err := FitSample(ctx, plan, []*SamplePiece{sp})

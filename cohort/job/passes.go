@@ -674,7 +674,7 @@ func fitEnsemble(ctx context.Context, fp *FitPiece, units [][]float64, o Options
 		}
 		m.states = st
 		if len(members) > 1 {
-			if m.labels, err = sampleGrouping(ctx, fp.Fit, st, units, o, groups); err != nil {
+			if m.labels, err = sampleGrouping(ctx, fp.Fit, st, units, fp.Sample, o, groups); err != nil {
 				return m, err
 			}
 		}
@@ -759,8 +759,9 @@ const DefaultFits = 3
 // sampleGrouping groups the sampled participants over the states st, as the run groups but on
 // their sampled windows' counts alone: those windows are scattered through each recording, so
 // their runs are no bouts.
-func sampleGrouping(ctx context.Context, fit *normalize.Fit, st *profile.States, units [][]float64, o Options, groups []int) ([]int, error) {
+func sampleGrouping(ctx context.Context, fit *normalize.Fit, st *profile.States, units [][]float64, sampled []SampledUnit, o Options, groups []int) ([]int, error) {
 	sigs := make([]profile.Signature, len(units))
+	full := o.voteBlocks != nil
 	for i, x := range units {
 		lab := st.SampleLabels[i] // as the fit left them: the fit aligned these devices itself
 		if len(lab) == 0 {
@@ -769,9 +770,18 @@ func sampleGrouping(ctx context.Context, fit *normalize.Fit, st *profile.States,
 				return nil, err
 			}
 		}
+		if full { // the families study's prototype (Options.voteFull): the whole recording
+			x, err := o.voteBlocks(sampled[i].Ordinal)
+			if err != nil {
+				return nil, err
+			}
+			if _, lab, _, err = st.AssignUnit(fit, x, nil); err != nil {
+				return nil, err
+			}
+		}
 		sigs[i] = profile.Signatures(lab, st.K)
 	}
-	shares, counts, _ := SignatureColumns(sigs)
+	shares, counts, bouts := SignatureColumns(sigs)
 	criterion := o.Criterion
 	if criterion == group.ByGapSteady {
 		criterion = group.ByGapStable
@@ -786,7 +796,7 @@ func sampleGrouping(ctx context.Context, fit *normalize.Fit, st *profile.States,
 		valid = []int{min(max(1, len(units)-1), o.Groups[0])}
 	}
 	g, err := group.Signatures(ctx, shares, group.Options{Method: o.Method, Groups: valid, Criterion: criterion, Bootstrap: o.Bootstrap, Seed: o.Seed,
-		Counts: counts, NoBouts: true, NoStability: true, Quick: true, Workers: o.Workers})
+		Counts: counts, Bouts: bouts, NoBouts: !full, NoStability: true, Quick: true, Workers: o.Workers})
 	if err != nil {
 		return nil, err
 	}
