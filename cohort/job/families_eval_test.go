@@ -555,6 +555,20 @@ func reproducibility(c cachedGroupings, s int) ([]int, string) {
 // medoidOver is the grouping that agrees best (sum of ARI) with all groupings at the numbers
 // of states ss and fits below fits.
 func medoidOver(c cachedGroupings, ss []int, fits int) ([]int, string) {
+	return medoidBy(c, ss, fits, adjustedRand)
+}
+
+// medoidVIOver is medoidOver under the variation of information (least summed distance).
+func medoidVIOver(c cachedGroupings, ss []int, fits int) ([]int, string) {
+	return medoidBy(c, ss, fits, func(a, b []int) float64 {
+		v, _ := cluster.VariationOfInformation(a, b)
+		return -v
+	})
+}
+
+// medoidBy is the grouping with the largest sum of score with all groupings at the numbers of
+// states ss and fits below fits (ties to the first).
+func medoidBy(c cachedGroupings, ss []int, fits int, score func(a, b []int) float64) ([]int, string) {
 	var all [][]int
 	var names []string
 	for _, s := range ss {
@@ -570,38 +584,10 @@ func medoidOver(c cachedGroupings, ss []int, fits int) ([]int, string) {
 		var sum float64
 		for j := range all {
 			if i != j {
-				sum += adjustedRand(all[i], all[j])
+				sum += score(all[i], all[j])
 			}
 		}
 		if sum > bestSum {
-			best, bestSum = i, sum
-		}
-	}
-	return all[best], fmt.Sprintf("(%s k%d)", names[best], slices.Max(all[best])+1)
-}
-
-// medoidVIOver is medoidOver under the variation of information (least summed distance).
-func medoidVIOver(c cachedGroupings, ss []int, fits int) ([]int, string) {
-	var all [][]int
-	var names []string
-	for _, s := range ss {
-		for r := 0; r < fits; r++ {
-			if g, ok := c[fmt.Sprintf("%d/%d", s, r)]; ok {
-				all = append(all, g.Labels)
-				names = append(names, fmt.Sprintf("%d/%d", s, r))
-			}
-		}
-	}
-	best, bestSum := 0, math.Inf(1)
-	for i := range all {
-		var sum float64
-		for j := range all {
-			if i != j {
-				v, _ := cluster.VariationOfInformation(all[i], all[j])
-				sum += v
-			}
-		}
-		if sum < bestSum {
 			best, bestSum = i, sum
 		}
 	}

@@ -817,7 +817,10 @@ func agreement(a, b []int) float64 {
 }
 
 // pairwise is the agreement of every two partitions (symmetric; each pair computed once).
-func pairwise(labels [][]int) [][]float64 {
+func pairwise(labels [][]int) [][]float64 { return pairwiseBy(labels, agreement) }
+
+// pairwiseBy is score (symmetric) of every two partitions, each pair computed once.
+func pairwiseBy(labels [][]int, score func(a, b []int) float64) [][]float64 {
 	n := len(labels)
 	pair := make([][]float64, n)
 	for i := range pair {
@@ -825,7 +828,7 @@ func pairwise(labels [][]int) [][]float64 {
 	}
 	for i := range labels {
 		for j := i + 1; j < n; j++ {
-			pair[i][j] = agreement(labels[i], labels[j])
+			pair[i][j] = score(labels[i], labels[j])
 			pair[j][i] = pair[i][j]
 		}
 	}
@@ -904,23 +907,13 @@ func oneSE(pair [][]float64, members []ensembleMember) int {
 // is as near to a grouping as that grouping's entropy, where the adjusted Rand index puts it at
 // 0 from every grouping of more than one group): a study switch (Options.viMedoid).
 func viMedoid(members []ensembleMember) int {
-	best, bestSum := 0, math.Inf(1)
-	for i := range members {
-		var sum float64
-		for j := range members {
-			if j != i {
-				v, err := cluster.VariationOfInformation(members[i].labels, members[j].labels)
-				if err != nil {
-					v = math.Inf(1)
-				}
-				sum += v
-			}
+	return medoidOf(pairwiseBy(ensembleLabels(members), func(a, b []int) float64 {
+		v, err := cluster.VariationOfInformation(a, b)
+		if err != nil {
+			return math.Inf(-1)
 		}
-		if sum < bestSum {
-			best, bestSum = i, sum
-		}
-	}
-	return best
+		return -v // the largest sum of −VI is the least summed distance
+	}))
 }
 
 // median is the median of xs (not changed).
