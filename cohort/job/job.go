@@ -53,10 +53,11 @@ type Options struct {
 	// adjusted Rand index: a switch of the families study, not an option.
 	viMedoid bool
 	// voteFull lets the fits' votes see each sampled participant's whole recording and its
-	// bouts (voteBlocks, set by FitTable): a prototype of the families study (votes=full), in one
-	// process only, measured and not kept.
-	voteFull   bool
-	voteBlocks func(ordinal int) ([]float64, error)
+	// bouts (voteBlocks, set by FitTable), or with voteNoBouts its windows in each state only: a
+	// prototype of the families study (votes=full, votes=fullcounts), in one process only,
+	// measured and not kept.
+	voteFull, voteNoBouts bool
+	voteBlocks            func(ordinal int) ([]float64, error)
 	// Fits is how many times each number of states is fitted from different random starts, the
 	// fit kept being the one whose grouping agrees best with all the others' (fitStates); 0 and
 	// 1 fit once.
