@@ -5,6 +5,7 @@ import (
 	"encoding/json"
 	"flag"
 	"fmt"
+	"math"
 	"os"
 	"path/filepath"
 	"slices"
@@ -255,6 +256,7 @@ func TestFamiliesRecovery(t *testing.T) {
 		states, groups []int
 		trueK          int
 		secs           float64
+		rep, stab      float64
 	}
 	var rows []row
 	_ = rows
@@ -263,7 +265,7 @@ func TestFamiliesRecovery(t *testing.T) {
 		m := recoverMember(t, fam, seed)
 		r := row(m)
 		rows = append(rows, r)
-		t.Logf("%-7s %4d K=%d: ARI %v, states %v, groups %v, reproducibility %.2f, %.1f s", fam, seed, r.trueK, fmtFloats(r.aris), r.states, r.groups, median(r.reps), r.secs)
+		t.Logf("%-7s %4d K=%d: ARI %v, states %v, groups %v, reproducibility %.2f, %.1f s; the run's own marks: fits %.2f, stability %.2f", fam, seed, r.trueK, fmtFloats(r.aris), r.states, r.groups, median(r.reps), r.secs, r.rep, r.stab)
 	}
 	byFam := map[string][]row{}
 	var fams []string
@@ -306,6 +308,7 @@ func recoverMember(t *testing.T, fam synth.Family, seed uint64) (r struct {
 	states, groups []int
 	trueK          int
 	secs           float64
+	rep, stab      float64
 }) {
 	ctx := context.Background()
 	path := filepath.Join(t.TempDir(), "scenario.csv")
@@ -404,6 +407,13 @@ func recoverMember(t *testing.T, fam synth.Family, seed uint64) (r struct {
 		}
 		if s == 1 {
 			r.secs = time.Since(start).Seconds()
+			// What the run itself says of its grouping: reproducibility across fits of the states,
+			// and the groups' bootstrap stability (the marks the Summary warns below).
+			stab := math.NaN()
+			if f.Grouping.Stability != nil {
+				stab = f.Grouping.Stability.ARI
+			}
+			r.rep, r.stab = f.Reproducibility, stab
 		}
 		labels = append(labels, f.Grouping.Labels)
 		if *familiesEnsemble {
