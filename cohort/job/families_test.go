@@ -376,7 +376,6 @@ func recoverMember(t *testing.T, fam synth.Family, seed uint64) (r struct {
 			o.viMedoid = v == "vi"
 		case "votes": // full: the votes see each sampled participant's whole recording and its bouts; fullcounts: its windows in each state only
 			o.voteFull, o.voteNoBouts = v == "full" || v == "fullcounts", v == "fullcounts"
-
 		case "windows": // read above, before the cohort is written
 		case "axes": // none: the align step turns no axis means (offsets only)
 			o.NoAxes = v == "none"

@@ -279,7 +279,7 @@ func FitTable(ctx context.Context, t *cohort.Table, o Options) (*Fitted, error) 
 					return t.Block(u, nil)
 				}
 			}
-			return nil, fmt.Errorf("no unit of ordinal %d", ord)
+			return nil, fmt.Errorf("job: the votes' whole recordings: no participant of ordinal %d: %w", ord, ErrPiece)
 		}
 	}
 	if o.Norm.Within == normalize.WithinAlign {

@@ -764,18 +764,18 @@ func sampleGrouping(ctx context.Context, fit *normalize.Fit, st *profile.States,
 	full := o.voteBlocks != nil
 	for i, x := range units {
 		lab := st.SampleLabels[i] // as the fit left them: the fit aligned these devices itself
-		if len(lab) == 0 {
-			var err error
-			if _, lab, _, err = st.AlignUnit(fit, x, nil); err != nil {
-				return nil, err
-			}
-		}
-		if full { // the families study's prototype (Options.voteFull): the whole recording
-			x, err := o.voteBlocks(sampled[i].Ordinal)
+		switch {
+		case full: // the families study's prototype (Options.voteFull): the whole recording
+			all, err := o.voteBlocks(sampled[i].Ordinal)
 			if err != nil {
 				return nil, err
 			}
-			if _, lab, _, err = st.AssignUnit(fit, x, nil); err != nil {
+			if _, lab, _, err = st.AssignUnit(fit, all, nil); err != nil {
+				return nil, err
+			}
+		case len(lab) == 0:
+			var err error
+			if _, lab, _, err = st.AlignUnit(fit, x, nil); err != nil {
 				return nil, err
 			}
 		}
