@@ -47,7 +47,9 @@ func TestMedoidOfGroupings(t *testing.T) {
 		{"all alike: the first", [][]int{a, aRenamed, a}, 0, []float64{1, 1}},
 		{"two fits: the first", [][]int{a, b}, 0, []float64{8.0 / 33}},
 	} {
-		best, agree := medoid(c.labels)
+		pair := pairwise(c.labels) // as keepMedoid takes them
+		best := medoidOf(pair)
+		agree := othersOf(pair, best)
 		if best != c.best || len(agree) != len(c.agree) {
 			t.Errorf("%s: fit %d kept, agreement %v; want fit %d, %v", c.name, best, agree, c.best, c.agree)
 			continue

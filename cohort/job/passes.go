@@ -835,15 +835,8 @@ func pairwiseBy(labels [][]int, score func(a, b []int) float64) [][]float64 {
 	return pair
 }
 
-// medoid is the partition that agrees best with the others (the largest sum of agreements with
-// them; ties to the first) and its agreement with each of the others, in order.
-func medoid(labels [][]int) (int, []float64) {
-	pair := pairwise(labels)
-	best := medoidOf(pair)
-	return best, othersOf(pair, best)
-}
-
-// medoidOf is medoid's choice from the pairwise agreements.
+// medoidOf is the partition that agrees best with the others, from their pairwise agreements
+// (the largest sum of agreements with them; ties to the first).
 func medoidOf(pair [][]float64) int {
 	best, bestSum := 0, math.Inf(-1)
 	for i := range pair {
