@@ -52,6 +52,71 @@ func groupBy(t *testing.T, method string, ff familyFit, maxK int) grouped {
 		bout := strings.Contains(base, "bout")
 		run := strings.Contains(base, "run")
 		switch {
+		case strings.Contains(base, "gdm"):
+			// The generalized Dirichlet (Connor & Mosimann 1969) as blocks of two: the states in
+			// decreasing order of the cohort's time in them, each participant's windows in the
+			// next state against those in the states after it (a Beta-binomial each), and with
+			// bout each state's stays and leavings beside them.
+			order := make([]int, s)
+			tot := make([]float64, s)
+			for i := range order {
+				order[i] = i
+			}
+			for _, c := range ff.Counts {
+				for j, v := range c {
+					tot[j] += float64(v)
+				}
+			}
+			sort.SliceStable(order, func(a, b int) bool { return tot[order[a]] > tot[order[b]] })
+			cols := 2 * (s - 1)
+			if bout {
+				cols += 2 * s
+			}
+			x = mat.NewDense(n, cols, nil)
+			for j := 0; j < s-1; j++ {
+				blocks = append(blocks, 2)
+			}
+			if bout {
+				for j := 0; j < s; j++ {
+					blocks = append(blocks, 2)
+				}
+			}
+			for i, c := range ff.Counts {
+				var left float64
+				for _, v := range c {
+					left += float64(v)
+				}
+				scale := 1.0
+				if eff { // counted in bouts, as the default model's shares
+					var runs float64
+					for a := 0; a < s; a++ {
+						for b := 0; b < s; b++ {
+							if a != b {
+								runs += float64(ff.Trans[i][a*s+b])
+							}
+						}
+					}
+					scale = (runs + 1) / left
+				}
+				for j := 0; j < s-1; j++ {
+					v := float64(c[order[j]])
+					left -= v
+					x.Set(i, 2*j, v*scale)
+					x.Set(i, 2*j+1, left*scale)
+				}
+				if bout {
+					for a := 0; a < s; a++ {
+						var leave float64
+						for b := 0; b < s; b++ {
+							if a != b {
+								leave += float64(ff.Trans[i][a*s+b])
+							}
+						}
+						x.Set(i, 2*(s-1)+2*a, float64(ff.Trans[i][a*s+a]))
+						x.Set(i, 2*(s-1)+2*a+1, leave)
+					}
+				}
+			}
 		case run:
 			// Each state's number of bouts, then each state's stays and leavings.
 			x = mat.NewDense(n, 3*s, nil)
