@@ -405,6 +405,9 @@ type Description struct {
 	Mean    []float64 // mean of each original feature over the state's windows
 	Share   float64   // share of all windows
 	Drivers []Driver  // features that set the state apart most, largest first
+	// Hist counts the state's windows by their value of the feature of a known scale (the
+	// Describer's anchor; see AnchorHist); nil without one.
+	Hist []float64
 }
 
 // Driver is a feature with its standardized difference from the cohort mean.
@@ -423,11 +426,54 @@ type Describer struct {
 	cnt            []float64
 	n              float64
 	exact          []exactSum // k·d state sums, then d sums and d sums of squares, exactly
+	// anchor is the feature of a known scale (anchorOf; −1 none), and hist each state's windows
+	// in each of its bins (k × AnchorBins; whole numbers, so exact in any order).
+	anchor int
+	hist   []float64
 }
 
 // NewDescriber prepares a Describer for d features and k states.
 func NewDescriber(d, k int) *Describer {
-	return &Describer{d: d, k: k, sum: make([]float64, k*d), all: make([]float64, d), all2: make([]float64, d), cnt: make([]float64, k)}
+	return &Describer{d: d, k: k, sum: make([]float64, k*d), all: make([]float64, d), all2: make([]float64, d), cnt: make([]float64, k), anchor: -1}
+}
+
+// NewDescriberOf is NewDescriber for these features: where one has a known scale (activity
+// counts, ENMO), each state's windows are also counted by its value (Description.Hist), so that
+// the state can be read by where its windows fall and not only by its mean.
+func NewDescriberOf(features []string, k int) *Describer {
+	ds := NewDescriber(len(features), k)
+	if j, _ := anchorOf(features); j >= 0 {
+		ds.anchor, ds.hist = j, make([]float64, k*AnchorBins)
+	}
+	return ds
+}
+
+// The bins of Description.Hist: bin 0 holds values at or below 0 (and missing ones), bins 1…
+// hold values on a log scale, anchorPerDecade to a decade from 10^anchorLowest (lower positive
+// values in bin 1, higher than the last bin in it), wide enough for counts a window and ENMO in
+// g or mg.
+const (
+	anchorPerDecade = 20
+	anchorLowest    = -4
+	AnchorBins      = 1 + 10*anchorPerDecade // 10⁻⁴ to 10⁶
+)
+
+// anchorBin is the bin of value v.
+func anchorBin(v float64) int {
+	if !(v > 0) {
+		return 0
+	}
+	b := 1 + int(math.Floor((math.Log10(v)-anchorLowest)*anchorPerDecade))
+	return min(max(b, 1), AnchorBins-1)
+}
+
+// AnchorBinRange is the range of values bin b holds (0, 0 for bin 0).
+func AnchorBinRange(b int) (lo, hi float64) {
+	if b <= 0 {
+		return 0, 0
+	}
+	lo = math.Pow(10, anchorLowest+float64(b-1)/anchorPerDecade)
+	return lo, lo * math.Pow(10, 1.0/anchorPerDecade)
 }
 
 // Add takes one participant's raw windows (windows × d) and their states.
@@ -439,6 +485,9 @@ func (ds *Describer) Add(raw []float64, labels []int) error {
 	for i, l := range labels {
 		if l < 0 || l >= ds.k {
 			return fmt.Errorf("profile: Describe: state %d outside 0…%d: %w", l, ds.k-1, ErrData)
+		}
+		if ds.anchor >= 0 {
+			ds.hist[l*AnchorBins+anchorBin(raw[i*d+ds.anchor])]++
 		}
 		ds.cnt[l]++
 		ds.n++
@@ -481,6 +530,13 @@ func (ds *Describer) Merge(o *Describer) {
 	for s, c := range o.cnt {
 		ds.cnt[s] += c // whole numbers: exact
 	}
+	if ds.anchor == o.anchor && len(ds.hist) == len(o.hist) {
+		for i, c := range o.hist {
+			ds.hist[i] += c // whole numbers: exact
+		}
+	} else {
+		ds.anchor, ds.hist = -1, nil // one side did not count: the states are read by their means
+	}
 	ds.n += o.n
 }
 
@@ -490,12 +546,16 @@ type DescriberPiece struct {
 	Count    []float64 // windows in each state
 	N        float64
 	Partials [][]float64
+	// Anchor is the feature whose values are counted in Hist (k × AnchorBins); Hist is nil
+	// without one.
+	Anchor int
+	Hist   []float64
 }
 
 // Piece writes the Describer out.
 func (ds *Describer) Piece() DescriberPiece {
 	ds.fold()
-	p := DescriberPiece{D: ds.d, K: ds.k, Count: slices.Clone(ds.cnt), N: ds.n, Partials: make([][]float64, len(ds.exact))}
+	p := DescriberPiece{D: ds.d, K: ds.k, Count: slices.Clone(ds.cnt), N: ds.n, Partials: make([][]float64, len(ds.exact)), Anchor: ds.anchor, Hist: slices.Clone(ds.hist)}
 	for i, e := range ds.exact {
 		p.Partials[i] = slices.Clone(e.p)
 	}
@@ -508,6 +568,17 @@ func (p DescriberPiece) Describer() (*Describer, error) {
 	ds.fold()
 	if p.D < 1 || p.K < 1 || len(p.Count) != p.K || len(p.Partials) != len(ds.exact) {
 		return nil, fmt.Errorf("profile: a described piece of %d features, %d states, %d counts and %d sums: %w", p.D, p.K, len(p.Count), len(p.Partials), ErrData)
+	}
+	if p.Hist != nil {
+		if p.Anchor < 0 || p.Anchor >= p.D || len(p.Hist) != p.K*AnchorBins {
+			return nil, fmt.Errorf("profile: a described piece counts feature %d of %d in %d bins for %d states: %w", p.Anchor, p.D, len(p.Hist), p.K, ErrData)
+		}
+		for _, c := range p.Hist {
+			if !(c >= 0) || c != math.Trunc(c) {
+				return nil, fmt.Errorf("profile: a described piece holds a count of %v windows: %w", c, ErrData)
+			}
+		}
+		ds.anchor, ds.hist = p.Anchor, slices.Clone(p.Hist)
 	}
 	copy(ds.cnt, p.Count)
 	ds.n = p.N
@@ -525,6 +596,9 @@ func (ds *Describer) Descriptions() []Description {
 	out := make([]Description, k)
 	for s := 0; s < k; s++ {
 		desc := Description{Mean: make([]float64, d), Share: ds.cnt[s] / n}
+		if ds.anchor >= 0 {
+			desc.Hist = slices.Clone(ds.hist[s*AnchorBins : (s+1)*AnchorBins])
+		}
 		for j := 0; j < d; j++ {
 			if ds.cnt[s] > 0 {
 				desc.Mean[j] = value(s*d+j) / ds.cnt[s]

@@ -71,11 +71,16 @@ type StateReading struct {
 	Score float64
 	Level Level
 	// Anchor is the feature of a known scale (AnchorFeature) whose cut-points the state was read
-	// by, at its mean AnchorValue (counts a minute, or mg). Anchored marks a Level set by the
-	// cut-points; below ENMO's moderate cut the level stays relative, capped at light.
+	// by, at AnchorValue (counts a minute, or mg): the median of its windows where they were
+	// counted by value (Description.Hist; AnchorMedian set), otherwise its mean. AnchorShare is
+	// the share of its windows in the same band of the cut-points as that value (NaN without
+	// Hist). Anchored marks a Level set by the cut-points; below ENMO's moderate cut the level
+	// stays relative, capped at light.
 	Anchor        Anchor
 	AnchorFeature int
 	AnchorValue   float64
+	AnchorMedian  bool
+	AnchorShare   float64
 	Anchored      bool
 	Posture       bool // it stands apart most by where gravity points (axis means, tilt, correlations)
 	Cadence       int  // +1 a quicker rhythm than average, −1 a slower one, 0 neither
@@ -232,6 +237,19 @@ func anchorLevels(out []StateReading, desc []Description, features []string, win
 			continue
 		}
 		w := &out[s]
+		w.AnchorShare = math.NaN()
+		var cuts []float64
+		if kind == AnchorCounts {
+			cuts = troiano
+		} else {
+			cuts = hildebrand
+		}
+		if d.Hist != nil {
+			// Read by where its windows fall: a state that holds rest and some light movement
+			// has a mean above the sedentary cut while most of its minutes lie below it.
+			v = histMedian(d.Hist) * scale
+			w.AnchorMedian, w.AnchorShare = true, bandShare(d.Hist, scale, cuts, v)
+		}
 		w.Anchor, w.AnchorFeature, w.AnchorValue = kind, j, v
 		switch kind {
 		case AnchorCounts:
@@ -247,6 +265,50 @@ func anchorLevels(out []StateReading, desc []Description, features []string, win
 			}
 		}
 	}
+}
+
+// histMedian is the median of the values counted in hist (Description.Hist): 0 when half the
+// windows are at or below 0, otherwise read within its bin on the log scale.
+func histMedian(hist []float64) float64 {
+	var total float64
+	for _, c := range hist {
+		total += c
+	}
+	half, cum := total/2, 0.0
+	for b, c := range hist {
+		if cum+c >= half && c > 0 {
+			if b == 0 {
+				return 0
+			}
+			lo, hi := AnchorBinRange(b)
+			return lo * math.Pow(hi/lo, (half-cum)/c)
+		}
+		cum += c
+	}
+	return 0
+}
+
+// bandShare is the share of the windows counted in hist whose values, times scale, lie in the
+// same band of the cut-points cuts as v; a bin counts in the band of its middle (on the log
+// scale), so the share is good to a bin's width (a twentieth of a decade).
+func bandShare(hist []float64, scale float64, cuts []float64, v float64) float64 {
+	band := sort.SearchFloat64s(cuts, v+1e-9)
+	var in, total float64
+	for b, c := range hist {
+		total += c
+		mid := 0.0
+		if b > 0 {
+			lo, hi := AnchorBinRange(b)
+			mid = math.Sqrt(lo*hi) * scale
+		}
+		if sort.SearchFloat64s(cuts, mid+1e-9) == band {
+			in += c
+		}
+	}
+	if total == 0 {
+		return math.NaN()
+	}
+	return in / total
 }
 
 // rareState is the share of windows below which a state does not set an end of the intensity

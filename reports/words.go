@@ -41,6 +41,24 @@ var (
 	activityWords = map[profile.Level]string{profile.LevelStill: "sedentary", profile.LevelLight: "light activity", profile.LevelModerate: "moderate activity", profile.LevelVigorous: "vigorous activity"}
 )
 
+// anchorWords says where a state lies by the cut-points of its feature of a known scale: at its
+// windows' median and the share of them in that band, or at its mean where its windows were not
+// counted by value.
+func anchorWords(rd profile.StateReading, feature string) string {
+	unit, source := "counts a minute", "the cut-points of Troiano et al. 2008"
+	band := activityWords[rd.Level]
+	if rd.Anchor == profile.AnchorENMO {
+		unit, source = "mg", "the wrist cut-points of Hildebrand et al. 2014"
+		if !rd.Anchored {
+			band = "below the moderate cut-point"
+		}
+	}
+	if !rd.AnchorMedian {
+		return fmt.Sprintf("%s at %.0f %s, by %s", feature, rd.AnchorValue, unit, source)
+	}
+	return fmt.Sprintf("%s at a median of %.0f %s, %s of its windows %s, by %s", feature, rd.AnchorValue, unit, Percent(rd.AnchorShare), band, source)
+}
+
 // nameStates gives every state its plain name (StateWords.Name), numbering from the stillest
 // the states that would read alike.
 func nameStates(out []StateWords) {
@@ -78,11 +96,8 @@ func DescribeStates(desc []profile.Description, features, codes []string, labels
 		if rd.Anchored {
 			w.Intensity = activityWords[rd.Level]
 		}
-		switch rd.Anchor {
-		case profile.AnchorCounts:
-			w.Anchor = fmt.Sprintf("%s at %.0f counts a minute, by the cut-points of Troiano et al. 2008", features[rd.AnchorFeature], rd.AnchorValue)
-		case profile.AnchorENMO:
-			w.Anchor = fmt.Sprintf("%s at %.0f mg, by the wrist cut-points of Hildebrand et al. 2014", features[rd.AnchorFeature], rd.AnchorValue)
+		if rd.Anchor != profile.AnchorNone {
+			w.Anchor = anchorWords(rd, features[rd.AnchorFeature])
 		}
 		for _, dr := range rd.Drivers {
 			word := "higher"

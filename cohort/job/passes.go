@@ -1031,7 +1031,7 @@ func AssignOf(ctx context.Context, t *cohort.Table, shard cohort.Shard, fit *nor
 		return nil, err
 	}
 	ap := &AssignPiece{Shard: shard, Units: make([]AssignedUnit, len(t.Units))}
-	ds := profile.NewDescriber(len(t.Features), states.K)
+	ds := profile.NewDescriberOf(t.Features, states.K)
 	var lc *profile.LabelCounter
 	if t.HasLabels {
 		lc = profile.NewLabelCounter(states.K)
@@ -1126,7 +1126,7 @@ func (as *unitAssigner) assign(au *AssignedUnit, i int, x []float64) (assignedWi
 		}
 		au.Medians[j] = cohort.Median(col)
 	}
-	part := profile.NewDescriber(d, states.K)
+	part := profile.NewDescriberOf(as.t.Features, states.K)
 	if err := part.Add(x, labels); err != nil {
 		return assignedWindows{}, err
 	}

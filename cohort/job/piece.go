@@ -23,7 +23,7 @@ import (
 // by the same release that wrote it; and it refuses a body whose SHA-256 is not the header's.
 const (
 	PieceFormat  = "cohortmix piece"
-	PieceVersion = 6 // 3: the run's identity and the body's checksum in the header; 4: time of day, wear days, time zone; 5: typed quality notes; 6: every note typed
+	PieceVersion = 7 // 3: the run's identity and the body's checksum in the header; 4: time of day, wear days, time zone; 5: typed quality notes; 6: every note typed; 7: each state's windows counted by a feature of a known scale
 )
 
 // The kinds of piece.

@@ -178,6 +178,15 @@ func FuzzFinishAssignPiece(f *testing.F) {
 	if _, err := synth.WriteFile(path, synth.Options{Participants: 10, Windows: 80, Seed: 3}); err != nil {
 		f.Fatal(err)
 	}
+	// The vector magnitude's mean named as activity counts, so that the piece also counts each
+	// state's windows by that feature's value (profile.DescriberPiece.Hist).
+	b, err := os.ReadFile(path)
+	if err != nil {
+		f.Fatal(err)
+	}
+	if err := os.WriteFile(path, bytes.Replace(b, []byte(",vm_mean,"), []byte(",count,"), 1), 0o644); err != nil {
+		f.Fatal(err)
+	}
 	o := Defaults(path)
 	o.States, o.Groups, o.Bootstrap, o.Fits = []int{3}, []int{1, 2}, 0, 1
 	tab, err := cohort.Read(ctx, []string{path}, o.Read)
@@ -207,6 +216,9 @@ func FuzzFinishAssignPiece(f *testing.F) {
 	}
 	if _, err := Finish(ctx, fp, []*AssignPiece{ap}); err != nil {
 		f.Fatal(err)
+	}
+	if ap.Desc.Hist == nil {
+		f.Fatal("the seed piece counts no state's windows by value")
 	}
 	var fitBody bytes.Buffer
 	if err := gob.NewEncoder(&fitBody).Encode(fp); err != nil {
