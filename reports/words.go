@@ -2,6 +2,7 @@ package reports
 
 import (
 	"fmt"
+	"math"
 	"slices"
 	"sort"
 	"strings"
@@ -52,6 +53,9 @@ func anchorWords(rd profile.StateReading, feature string) string {
 		if !rd.Anchored {
 			band = "below the moderate cut-point"
 		}
+	}
+	if rd.Anchor == profile.AnchorCounts && math.Round(rd.AnchorValue) == 1 {
+		unit = "count a minute"
 	}
 	if !rd.AnchorMedian {
 		return fmt.Sprintf("%s at %.0f %s, by %s", feature, rd.AnchorValue, unit, source)
