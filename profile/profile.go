@@ -406,7 +406,7 @@ type Description struct {
 	Share   float64   // share of all windows
 	Drivers []Driver  // features that set the state apart most, largest first
 	// Hist counts the state's windows by their value of the feature of a known scale (the
-	// Describer's anchor; see AnchorHist); nil without one.
+	// Describer's anchor), in AnchorBins bins (see anchorBin); nil without one.
 	Hist []float64
 }
 
@@ -467,8 +467,8 @@ func anchorBin(v float64) int {
 	return min(max(b, 1), AnchorBins-1)
 }
 
-// AnchorBinRange is the range of values bin b holds (0, 0 for bin 0).
-func AnchorBinRange(b int) (lo, hi float64) {
+// anchorBinRange is the range of values bin b holds (0, 0 for bin 0).
+func anchorBinRange(b int) (lo, hi float64) {
 	if b <= 0 {
 		return 0, 0
 	}

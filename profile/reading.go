@@ -280,7 +280,7 @@ func histMedian(hist []float64) float64 {
 			if b == 0 {
 				return 0
 			}
-			lo, hi := AnchorBinRange(b)
+			lo, hi := anchorBinRange(b)
 			return lo * math.Pow(hi/lo, (half-cum)/c)
 		}
 		cum += c
@@ -298,7 +298,7 @@ func bandShare(hist []float64, scale float64, cuts []float64, v float64) float64
 		total += c
 		mid := 0.0
 		if b > 0 {
-			lo, hi := AnchorBinRange(b)
+			lo, hi := anchorBinRange(b)
 			mid = math.Sqrt(lo*hi) * scale
 		}
 		if sort.SearchFloat64s(cuts, mid+1e-9) == band {

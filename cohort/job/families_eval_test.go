@@ -90,11 +90,7 @@ func groupBy(t *testing.T, method string, ff familyFit, maxK int) grouped {
 				if eff { // counted in bouts, as the default model's shares
 					var runs float64
 					for a := 0; a < s; a++ {
-						for b := 0; b < s; b++ {
-							if a != b {
-								runs += float64(ff.Trans[i][a*s+b])
-							}
-						}
+						runs += leavings(ff, i, a)
 					}
 					scale = (runs + 1) / left
 				}
@@ -106,14 +102,8 @@ func groupBy(t *testing.T, method string, ff familyFit, maxK int) grouped {
 				}
 				if bout {
 					for a := 0; a < s; a++ {
-						var leave float64
-						for b := 0; b < s; b++ {
-							if a != b {
-								leave += float64(ff.Trans[i][a*s+b])
-							}
-						}
 						x.Set(i, 2*(s-1)+2*a, float64(ff.Trans[i][a*s+a]))
-						x.Set(i, 2*(s-1)+2*a+1, leave)
+						x.Set(i, 2*(s-1)+2*a+1, leavings(ff, i, a))
 					}
 				}
 			}
@@ -126,12 +116,7 @@ func groupBy(t *testing.T, method string, ff familyFit, maxK int) grouped {
 			}
 			for i := range ff.Counts {
 				for a := 0; a < s; a++ {
-					var leave float64
-					for b := 0; b < s; b++ {
-						if a != b {
-							leave += float64(ff.Trans[i][a*s+b])
-						}
-					}
+					leave := leavings(ff, i, a)
 					x.Set(i, a, leave)
 					x.Set(i, s+2*a, float64(ff.Trans[i][a*s+a]))
 					x.Set(i, s+2*a+1, leave)
@@ -157,12 +142,7 @@ func groupBy(t *testing.T, method string, ff familyFit, maxK int) grouped {
 					tot += float64(v)
 				}
 				for a := 0; a < s; a++ {
-					var leave float64
-					for b := 0; b < s; b++ {
-						if a != b {
-							leave += float64(ff.Trans[i][a*s+b])
-						}
-					}
+					leave := leavings(ff, i, a)
 					runs += leave
 					if bout {
 						x.Set(i, s+2*a, float64(ff.Trans[i][a*s+a]))
@@ -299,6 +279,18 @@ func groupBy(t *testing.T, method string, ff familyFit, maxK int) grouped {
 	}
 	t.Fatalf("no method %s", method)
 	return grouped{}
+}
+
+// leavings is how many times unit i's windows leave state a for another.
+func leavings(ff familyFit, i, a int) float64 {
+	s := ff.S
+	var leave float64
+	for b := 0; b < s; b++ {
+		if a != b {
+			leave += float64(ff.Trans[i][a*s+b])
+		}
+	}
+	return leave
 }
 
 // mergeOverlapping joins, one pair at a time, the two components whose laws overlap most while
