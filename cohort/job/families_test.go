@@ -238,7 +238,7 @@ func readFamilyDumps(t *testing.T, dir string) []*familyDump {
 var familiesRecover = flag.String("families.recover", "", "run the job with the defaults on family members: family:first-last[,…]")
 var familiesSeeds = flag.Int("families.seeds", 3, "tool seeds per member, for reproducibility")
 var familiesEnsemble = flag.Bool("families.ensemble", false, "log each fit of the states: states.start:groups/agreement, * on the fit kept")
-var familiesArgs = flag.String("families.opts", "", "options changed from the defaults, as key=value,… (states=4, fits=1, criterion=bic, method=ward-hellinger, calibration=off, nonwear=choi, validday=none, validdays=2, twins=keep, twinfold=off, axes=none, windows=10080, stateschoice=1se|vi, votes=full|fullcounts)")
+var familiesArgs = flag.String("families.opts", "", "options changed from the defaults, as key=value,… (states=4, fits=1, sample=150000, criterion=bic, method=ward-hellinger, calibration=off, nonwear=choi, validday=none, validdays=2, twins=keep, twinfold=off, axes=none, windows=10080, stateschoice=1se|vi, votes=full|fullcounts)")
 
 // The families benchmark: the whole job with the defaults (or -families.opts) on members of
 // every family, scored by the adjusted Rand index against the planted groups, each member run
@@ -348,6 +348,8 @@ func recoverMember(t *testing.T, fam synth.Family, seed uint64) (r struct {
 			}
 		case "fits":
 			fmt.Sscan(v, &o.Fits)
+		case "sample": // windows the states are fitted on (default 50,000)
+			fmt.Sscan(v, &o.Sample)
 		case "criterion":
 			o.Criterion, _ = group.ParseCriterion(v)
 		case "method":
