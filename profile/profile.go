@@ -448,6 +448,16 @@ func NewDescriberOf(features []string, k int) *Describer {
 	return ds
 }
 
+// Blank is a Describer for the same features and states, counting by value as ds does, with
+// nothing added: one per participant without reading the features' names again.
+func (ds *Describer) Blank() *Describer {
+	b := NewDescriber(ds.d, ds.k)
+	if ds.anchor >= 0 {
+		b.anchor, b.hist = ds.anchor, make([]float64, ds.k*AnchorBins)
+	}
+	return b
+}
+
 // The bins of Description.Hist: bin 0 holds values at or below 0 (and missing ones), bins 1…
 // hold values on a log scale, anchorPerDecade to a decade from 10^anchorLowest (lower positive
 // values in bin 1, higher than the last bin in it), wide enough for counts a window and ENMO in

@@ -110,6 +110,9 @@ func TestDescriberCountsMergeAndComeBack(t *testing.T) {
 			t.Errorf("%s: a bad piece was read back", name)
 		}
 	}
+	if b := whole.Blank(); b.anchor != whole.anchor || len(b.hist) != len(whole.hist) || slices.ContainsFunc(b.hist, func(c float64) bool { return c != 0 }) {
+		t.Error("a blank Describer does not count as the one it came from, or is not empty")
+	}
 	plain := NewDescriber(2, 2)
 	if err := plain.Add([]float64{5, 1}, []int{0}); err != nil {
 		t.Fatal(err)

@@ -1036,7 +1036,7 @@ func AssignOf(ctx context.Context, t *cohort.Table, shard cohort.Shard, fit *nor
 	if t.HasLabels {
 		lc = profile.NewLabelCounter(states.K)
 	}
-	as := &unitAssigner{t: t, fit: fit, states: states, d: len(t.Features), activity: -1}
+	as := &unitAssigner{t: t, fit: fit, states: states, d: len(t.Features), activity: -1, desc: ds}
 	if t.OrderKind == "time" {
 		as.activity = profile.ActivityFeature(t.Features)
 		var err error
@@ -1081,7 +1081,8 @@ type unitAssigner struct {
 	d        int
 	activity int
 	zone     clock.Clock
-	bufs     sync.Pool // transformed windows, one buffer per worker at a time
+	bufs     sync.Pool          // transformed windows, one buffer per worker at a time
+	desc     *profile.Describer // the pass's sums, whose Blank each unit adds to
 }
 
 // assignedWindows is what a unit adds to the pass's sums, in unit order.
@@ -1126,7 +1127,7 @@ func (as *unitAssigner) assign(au *AssignedUnit, i int, x []float64) (assignedWi
 		}
 		au.Medians[j] = cohort.Median(col)
 	}
-	part := profile.NewDescriberOf(as.t.Features, states.K)
+	part := as.desc.Blank()
 	if err := part.Add(x, labels); err != nil {
 		return assignedWindows{}, err
 	}
