@@ -442,9 +442,8 @@ func NewDescriber(d, k int) *Describer {
 // the state can be read by where its windows fall and not only by its mean.
 func NewDescriberOf(features []string, k int) *Describer {
 	ds := NewDescriber(len(features), k)
-	if j, _ := anchorOf(features); j >= 0 {
-		ds.anchor, ds.hist = j, make([]float64, k*AnchorBins)
-	}
+	j, _ := anchorOf(features)
+	ds.countBy(j)
 	return ds
 }
 
@@ -452,10 +451,16 @@ func NewDescriberOf(features []string, k int) *Describer {
 // nothing added: one per participant without reading the features' names again.
 func (ds *Describer) Blank() *Describer {
 	b := NewDescriber(ds.d, ds.k)
-	if ds.anchor >= 0 {
-		b.anchor, b.hist = ds.anchor, make([]float64, ds.k*AnchorBins)
-	}
+	b.countBy(ds.anchor)
 	return b
+}
+
+// countBy has the Describer count each state's windows by their value of feature j (none
+// when j < 0).
+func (ds *Describer) countBy(j int) {
+	if j >= 0 {
+		ds.anchor, ds.hist = j, make([]float64, ds.k*AnchorBins)
+	}
 }
 
 // The bins of Description.Hist: bin 0 holds values at or below 0 (and missing ones), bins 1…

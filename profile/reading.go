@@ -213,9 +213,10 @@ func anchorLevels(out []StateReading, desc []Description, features []string, win
 	if j < 0 {
 		return
 	}
-	scale := 1.0
+	scale, cuts := 1.0, troiano
 	switch kind {
 	case AnchorENMO:
+		cuts = hildebrand
 		top := 0.0
 		for _, d := range desc {
 			if d.Share > 0 {
@@ -238,12 +239,6 @@ func anchorLevels(out []StateReading, desc []Description, features []string, win
 		}
 		w := &out[s]
 		w.AnchorShare = math.NaN()
-		var cuts []float64
-		if kind == AnchorCounts {
-			cuts = troiano
-		} else {
-			cuts = hildebrand
-		}
 		if d.Hist != nil {
 			// Read by where its windows fall: a state that holds rest and some light movement
 			// has a mean above the sedentary cut while most of its minutes lie below it.
@@ -253,7 +248,7 @@ func anchorLevels(out []StateReading, desc []Description, features []string, win
 		w.Anchor, w.AnchorFeature, w.AnchorValue = kind, j, v
 		switch kind {
 		case AnchorCounts:
-			w.Level, w.Anchored = LevelStill+Level(sort.SearchFloat64s(troiano, v+1e-9)), true
+			w.Level, w.Anchored = LevelStill+Level(bandOf(troiano, v)), true
 		case AnchorENMO:
 			switch {
 			case v >= hildebrand[1]:
@@ -288,11 +283,15 @@ func histMedian(hist []float64) float64 {
 	return 0
 }
 
+// bandOf is the band of the cut-points cuts that v lies in: 0 below the first, i at or above
+// the i-th.
+func bandOf(cuts []float64, v float64) int { return sort.SearchFloat64s(cuts, v+1e-9) }
+
 // bandShare is the share of the windows counted in hist whose values, times scale, lie in the
 // same band of the cut-points cuts as v; a bin counts in the band of its middle (on the log
 // scale), so the share is good to a bin's width (a twentieth of a decade).
 func bandShare(hist []float64, scale float64, cuts []float64, v float64) float64 {
-	band := sort.SearchFloat64s(cuts, v+1e-9)
+	band := bandOf(cuts, v)
 	var in, total float64
 	for b, c := range hist {
 		total += c
@@ -301,7 +300,7 @@ func bandShare(hist []float64, scale float64, cuts []float64, v float64) float64
 			lo, hi := anchorBinRange(b)
 			mid = math.Sqrt(lo*hi) * scale
 		}
-		if sort.SearchFloat64s(cuts, mid+1e-9) == band {
+		if bandOf(cuts, mid) == band {
 			in += c
 		}
 	}
