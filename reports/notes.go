@@ -155,6 +155,12 @@ var noteWords = map[note.Kind]func(a noteArgs) string{
 		}
 		return text
 	},
+	job.NoteCalibration: func(a noteArgs) string {
+		if a.i(0) == a.i(1) {
+			return fmt.Sprintf("sphere calibration (van Hees et al. 2014): the axis means of all %d devices were calibrated", a.i(1))
+		}
+		return fmt.Sprintf("sphere calibration (van Hees et al. 2014): the axis means of %d of the %d devices were calibrated; the other %d were left as read, as their windows do not reach past ±0.3 g on both sides of every axis or the fit was not a plausible calibration (gains 0.7–1.4, offsets within 0.3 g)", a.i(0), a.i(1), a.i(1)-a.i(0))
+	},
 	job.NoteStatesEnsemble: func(a noteArgs) string {
 		var states []int
 		if len(a.n.Ints) > 5 {

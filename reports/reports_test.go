@@ -654,6 +654,8 @@ func TestNoteWords(t *testing.T) {
 		{note.Note{Kind: group.NoteEmptyComponents, Ints: []int{4, 1}}, "of the 4 groups the criterion chose, 1 held no participant as its most probable group and were left out"},
 		// The words of these kinds were the library's own texts before the notes were typed;
 		// they stay word for word.
+		{note.Note{Kind: job.NoteCalibration, Ints: []int{12, 12}}, "sphere calibration (van Hees et al. 2014): the axis means of all 12 devices were calibrated"},
+		{note.Note{Kind: job.NoteCalibration, Ints: []int{49, 200}}, "sphere calibration (van Hees et al. 2014): the axis means of 49 of the 200 devices were calibrated; the other 151 were left as read, as their windows do not reach past ±0.3 g on both sides of every axis or the fit was not a plausible calibration (gains 0.7–1.4, offsets within 0.3 g)"},
 		{note.Note{Kind: job.NoteLogScales, Ints: []int{1, 1, 1}, Names: []string{"vm_sd", "mean_z", "count"}}, "taken on a log scale, log(x + c) with c the feature's first quartile: vm_sd; left linear as they take negative values: mean_z; left linear as a quarter or more of their values are 0 (c would be 0): count"},
 		{note.Note{Kind: job.NoteStatesDepend, Ints: []int{5, 4}, Floats: []float64{0.55}}, "the groups depend on the number of movement states: fitted with 4 states (adjusted Rand index 0.55), which these data support about as well as the 5 kept, the sampled participants fall into other groups; read the groups with that in mind"},
 		{note.Note{Kind: job.NoteAxes, Ints: []int{job.AxesFound, 1, 2, 0, 1}, Floats: []float64{0.031}, Names: []string{"mean_x", "mean_y", "mean_z", "sd_x", "sd_y", "sd_z", "cor_xy", "cor_xz", "cor_yz", "tilt_z"}},

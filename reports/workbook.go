@@ -230,8 +230,8 @@ func participantsSheet(f *excelize.File, st *styles, r *Result) error {
 // non-wear column, at column at), the bootstrap stay, the device's turn and the rest-activity
 // measures.
 type participantColumns struct {
-	nonWear, wear, stay, turn, rhythm bool
-	at                                int
+	nonWear, wear, stay, turn, cal, rhythm bool
+	at                                     int
 }
 
 func participantColumnsOf(r *Result) participantColumns {
@@ -242,6 +242,7 @@ func participantColumnsOf(r *Result) participantColumns {
 	for _, u := range r.Units {
 		pc.stay = pc.stay || !math.IsNaN(u.Stay)
 		pc.turn = pc.turn || !math.IsNaN(u.Turn)
+		pc.cal = pc.cal || !math.IsNaN(u.Calibration)
 		pc.rhythm = pc.rhythm || !math.IsNaN(u.Rhythm.IS)
 	}
 	return pc
@@ -265,6 +266,9 @@ func (pc participantColumns) widths(r *Result) []float64 {
 	}
 	if pc.turn {
 		widths = append(widths, 11)
+	}
+	if pc.cal {
+		widths = append(widths, 12)
 	}
 	for i := 0; i < 2*r.States.K; i++ {
 		widths = append(widths, 10)
@@ -291,6 +295,9 @@ func (pc participantColumns) head(r *Result) []string {
 	}
 	if pc.turn {
 		head = append(head, "device turned (degrees)")
+	}
+	if pc.cal {
+		head = append(head, "calibration offset (g)")
 	}
 	for s := 0; s < r.States.K; s++ {
 		head = append(head, "share "+r.StateNames[s])
@@ -329,6 +336,9 @@ func (pc participantColumns) cells(r *Result, st *styles, u job.UnitRow) []v {
 	}
 	if pc.turn {
 		cells = append(cells, v{u.Turn, st.dec1})
+	}
+	if pc.cal {
+		cells = append(cells, v{u.Calibration, st.dec3})
 	}
 	for _, x := range u.Share {
 		cells = append(cells, v{x, st.pct})

@@ -588,7 +588,7 @@ func separate(res *Result, f *Fitted, vars []group.Variable) error {
 func unitRow(f *Fitted, i int) UnitRow {
 	g, sigs, u := f.Grouping, f.Sigs, f.Table.Units[i]
 	row := UnitRow{ID: u.ID, Wave: u.Wave, Windows: sigs[i].Windows, NonWear: u.NonWear, Wear: u.Wear, Group: g.Labels[i],
-		Silhouette: g.Silhouette[i], Distance: g.Distance[i], Share: sigs[i].Share, Bout: sigs[i].MeanBout, Stay: math.NaN(), Turn: math.NaN(), Posterior: math.NaN(), Rhythm: profile.NoRhythm}
+		Silhouette: g.Silhouette[i], Distance: g.Distance[i], Share: sigs[i].Share, Bout: sigs[i].MeanBout, Stay: math.NaN(), Turn: math.NaN(), Calibration: math.NaN(), Posterior: math.NaN(), Rhythm: profile.NoRhythm}
 	if f.Rhythm != nil {
 		row.Rhythm = f.Rhythm[i]
 	}
@@ -600,6 +600,9 @@ func unitRow(f *Fitted, i int) UnitRow {
 	}
 	if f.Devices != nil && f.Fit.Axes != nil {
 		row.Turn = f.Devices[i].Angle()
+		if o := f.Devices[i].AxisOffset; f.States.Calibrate && o != nil && f.States.Gravity > 0 {
+			row.Calibration = math.Sqrt(o[0]*o[0]+o[1]*o[1]+o[2]*o[2]) / f.States.Gravity
+		}
 	}
 	switch s := g.Silhouette[i]; {
 	case f.Atypical != nil && f.Atypical[i]:

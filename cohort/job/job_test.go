@@ -14,6 +14,7 @@ import (
 
 	"github.com/cohortmix/cohortmix/cohort"
 	"github.com/cohortmix/cohortmix/cohort/group"
+	"github.com/cohortmix/cohortmix/cohort/note"
 	"github.com/cohortmix/cohortmix/cohort/synth"
 	"github.com/cohortmix/cohortmix/normalize"
 )
@@ -157,5 +158,70 @@ func TestLogNoteSaysWhatWasLogged(t *testing.T) {
 	got := logNote([]string{"vm_sd", "mean_z", "count", "mean_x"}, fit, norm)
 	if got.Kind != NoteLogScales || !slices.Equal(got.Ints, []int{1, 1, 1}) || !slices.Equal(got.Names, []string{"vm_sd", "mean_z", "count"}) {
 		t.Errorf("got %+v: want vm_sd logged, mean_z negative and count zero-heavy, the axis mean_x in none", got)
+	}
+}
+
+// Each device's sphere calibration is reported: how many devices were calibrated (the note) and
+// how far each one's axis means were moved (the Participants sheet's column). A planted cohort
+// (invented data): 40 devices with per-axis offsets of up to 0.12 g; the first 30 hold six
+// postures around the sphere and must be calibrated to within 0.01 g of their planted offsets
+// (window noise 0.02 g, 50 windows a posture: an error of about 0.003 g in a least-squares fit,
+// van Hees et al. 2014), the
+// last 10 hold two postures, which reach past 0.3 g on one side of each axis only, and must be
+// left as read.
+func TestCalibrationIsReported(t *testing.T) {
+	t.Parallel()
+	path := filepath.Join(t.TempDir(), "cal.csv")
+	var b strings.Builder
+	b.WriteString("participant,window,mean_x,mean_y,mean_z,vm_sd\n")
+	rng := rand.New(rand.NewPCG(5, 1))
+	postures := [][3]float64{{1, 0, 0}, {-1, 0, 0}, {0, 1, 0}, {0, -1, 0}, {0, 0, 1}, {0, 0, -1}}
+	planted := make([]float64, 40)
+	for u := 0; u < 40; u++ {
+		var off [3]float64
+		for i := range off {
+			off[i] = 0.12 * (2*rng.Float64() - 1) / math.Sqrt(3)
+		}
+		planted[u] = math.Sqrt(off[0]*off[0] + off[1]*off[1] + off[2]*off[2])
+		held := postures
+		if u >= 30 {
+			held = [][3]float64{{0.8, 0.6, 0}, {0, 0.6, 0.8}}
+		}
+		for w := 0; w < 300; w++ {
+			p := held[w%len(held)]
+			fmt.Fprintf(&b, "U%02d,%d", u, w)
+			for i := range p {
+				fmt.Fprintf(&b, ",%.5f", p[i]+off[i]+0.02*rng.NormFloat64())
+			}
+			fmt.Fprintf(&b, ",%.5f\n", 0.05+0.3*float64(w%len(held))/float64(len(held))+0.01*rng.Float64())
+		}
+	}
+	if err := os.WriteFile(path, []byte(b.String()), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	o := Defaults(path)
+	o.States, o.Bootstrap, o.NoSensitivity = []int{3}, 2, true
+	res, err := Analyze(context.Background(), o)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var got *note.Note
+	for i, n := range res.Notes {
+		if n.Kind == NoteCalibration {
+			got = &res.Notes[i]
+		}
+	}
+	if got == nil || !slices.Equal(got.Ints, []int{30, 40}) {
+		t.Fatalf("calibration note %+v, want 30 of 40 devices calibrated", got)
+	}
+	for _, u := range res.Units {
+		var i int
+		fmt.Sscanf(u.ID, "U%d", &i)
+		switch {
+		case i >= 30 && !math.IsNaN(u.Calibration):
+			t.Errorf("%s: calibration offset %.3f g, want none (two postures cannot be calibrated)", u.ID, u.Calibration)
+		case i < 30 && !(math.Abs(u.Calibration-planted[i]) < 0.01):
+			t.Errorf("%s: calibration offset %.3f g, planted %.3f g", u.ID, u.Calibration, planted[i])
+		}
 	}
 }

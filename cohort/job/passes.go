@@ -1312,16 +1312,7 @@ func mergeAssigned(f *Fitted, units []UnitInfo, parts []*AssignPiece) error {
 	if seen != n {
 		return fmt.Errorf("job: %d units assigned of the %d the plan groups: %w; give the assignment piece of every shard", seen, n, ErrPiece)
 	}
-	gaps, gapped := 0, 0
-	for _, s := range f.Sigs {
-		gaps += s.Gaps
-		if s.Gaps > 0 {
-			gapped++
-		}
-	}
-	if gaps > 0 {
-		f.Notes = append(f.Notes, note.Note{Kind: NoteGaps, Ints: []int{gaps, gapped}, Floats: []float64{GapFactor}})
-	}
+	f.Notes = append(f.Notes, assignedNotes(f)...)
 	f.Desc = ds.Descriptions()
 	if lc != nil {
 		var err error
@@ -1363,3 +1354,30 @@ func Finish(ctx context.Context, fp *FitPiece, parts []*AssignPiece) (*Fitted, e
 
 // ErrPiece is wrapped by every error about a piece of a run split in shards.
 var ErrPiece = errors.New("piece of a split run not usable")
+
+// assignedNotes are the notes on what assigning every window found: the interruptions that end
+// bouts (NoteGaps) and how many devices the sphere calibration calibrated (NoteCalibration; a
+// device left as read has no axis scale).
+func assignedNotes(f *Fitted) []note.Note {
+	var notes []note.Note
+	gaps, gapped := 0, 0
+	for _, s := range f.Sigs {
+		gaps += s.Gaps
+		if s.Gaps > 0 {
+			gapped++
+		}
+	}
+	if gaps > 0 {
+		notes = append(notes, note.Note{Kind: NoteGaps, Ints: []int{gaps, gapped}, Floats: []float64{GapFactor}})
+	}
+	if f.Devices != nil && f.States.Calibrate && f.Fit.Axes != nil {
+		done := 0
+		for _, d := range f.Devices {
+			if d.AxisScale != nil {
+				done++
+			}
+		}
+		notes = append(notes, note.Note{Kind: NoteCalibration, Ints: []int{done, len(f.Devices)}})
+	}
+	return notes
+}

@@ -46,6 +46,10 @@ type UnitRow struct {
 	Bout      []float64
 	Stay      float64 // share of bootstrap resamples in which it stayed with its group; NaN when not computed
 	Turn      float64 // degrees its device was turned by the align step; NaN without one
+	// Calibration is the length of the offset the sphere calibration took from its axis means,
+	// in g (the cohort's length of gravity); NaN where the device was left as read or
+	// calibration was off.
+	Calibration float64
 	// Atypical marks a unit that assign found farther from every group than the model's members:
 	// it belongs to no group (Group is only its nearest).
 	Atypical bool
@@ -276,6 +280,9 @@ const (
 	// negative values and Ints[2] as a quarter or more of their values are 0; their names in that
 	// order in Names.
 	NoteLogScales note.Kind = "job.log-scales"
+	// NoteCalibration: the axis means of Ints[0] of the Ints[1] devices were calibrated onto the
+	// sphere of gravity; the others were left as read (cluster.SphereFit says when).
+	NoteCalibration note.Kind = "job.calibration"
 	// NoteStatesEnsemble: the states were fitted Ints[0] times (Ints[5:] the numbers of states,
 	// Ints[1] random starts each); the fit kept (Ints[2] states, start Ints[3]) is the medoid of
 	// the groupings of the Ints[4] sampled participants (median adjusted Rand index Floats[0],
