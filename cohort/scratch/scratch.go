@@ -16,7 +16,6 @@ import (
 	"path/filepath"
 	"strconv"
 	"strings"
-	"syscall"
 )
 
 // Pattern is a pattern for os.CreateTemp and os.MkdirTemp that marks the name as this process's.
@@ -57,13 +56,10 @@ func Stale(name, prefix, suffix string) bool {
 	return ok && h == host() && !alive(pid)
 }
 
-// alive reports whether a process runs with this id (one we may not signal runs too).
+// alive reports whether a process runs with this id (one we may not look at runs too); each
+// system's way is in alive_*.go.
 func alive(pid int) bool {
-	if pid == os.Getpid() {
-		return true
-	}
-	err := syscall.Kill(pid, 0)
-	return err == nil || errors.Is(err, syscall.EPERM)
+	return pid == os.Getpid() || running(pid)
 }
 
 // Sweep removes from dir the stale files and folders whose prefix starts with the given one and
