@@ -172,6 +172,9 @@ var noteWords = map[note.Kind]func(a noteArgs) string{
 	job.WarnNotReproducible: func(a noteArgs) string {
 		return fmt.Sprintf("NOT REPRODUCIBLE: fitted again from other random starts, the movement states group the sampled participants differently (median adjusted Rand index %.2f, below %.2f). These data do not hold one grouping firmly; read the groups as tentative, and compare a run with another %s.", a.x(0), a.x(1), a.option())
 	},
+	job.WarnStatesDisagree: func(a noteArgs) string {
+		return fmt.Sprintf("TENTATIVE: fitted at %d to %d movement states, the fits group the sampled participants differently (the fit kept agrees with the others by a mean adjusted Rand index of %.2f, below %.2f): other numbers of states give other groups. Read the groups as one possible grouping of these data; a run with %s fixed at another number shows another.", a.i(0), a.i(1), a.x(0), a.x(1), a.option())
+	},
 	job.NoteGaps: func(a noteArgs) string {
 		return fmt.Sprintf("%d interruptions of the recording (a step to the next window over %.1f times the participant's usual one) in %d participants end the bout they fall in; the shares of time are not changed by them", a.i(0), a.x(0), a.i(1))
 	},

@@ -14,6 +14,7 @@ import (
 	"os"
 	"path/filepath"
 	"regexp"
+	"slices"
 	"sort"
 	"strconv"
 	"strings"
@@ -482,6 +483,35 @@ func TestTentativeGroupingIsFlagged(t *testing.T) {
 		}
 		if got := strings.Contains(text, "TENTATIVE"); got != c.tentative {
 			t.Errorf("%s: the Stability sheet says TENTATIVE: %v, want %v", c.name, got, c.tentative)
+		}
+	}
+}
+
+// When the fits at other numbers of states group the participants otherwise
+// (job.WarnStatesDisagree), the Summary gives the warning and marks every group's line tentative.
+func TestStatesDisagreeMarksTheGroups(t *testing.T) {
+	t.Parallel()
+	for _, warn := range []bool{false, true} {
+		r := fixture(t, 30, func(i int) string { return "P" + digits(i) })
+		r.Reproducibility = 0.95 // the fits at the number kept agree: the mark below is the only one
+		if warn {
+			r.Warnings = append(r.Warnings, note.Note{Kind: job.WarnStatesDisagree, Ints: []int{3, 8}, Floats: []float64{0.41, job.StatesAgree}, Option: "profile.AlignOptions.States"})
+		}
+		f, _ := writeAndOpen(t, r)
+		sum, _ := f.GetRows(SheetSummary)
+		f.Close()
+		lines := 0
+		for _, row := range sum {
+			if len(row) > 1 && slices.Contains(r.GroupNames, row[0]) && strings.HasPrefix(row[1], "TENTATIVE (see the warning below): ") {
+				lines++
+			}
+		}
+		text := flatten(sum)
+		if got := strings.Contains(text, "fitted at 3 to 8 movement states, the fits group the sampled participants differently (the fit kept agrees with the others by a mean adjusted Rand index of 0.41, below 0.45)"); got != warn {
+			t.Errorf("warned %v: the Summary gives the warning: %v", warn, got)
+		}
+		if want := map[bool]int{false: 0, true: len(r.GroupNames)}[warn]; lines != want {
+			t.Errorf("warned %v: %d group lines marked tentative, want %d", warn, lines, want)
 		}
 	}
 }

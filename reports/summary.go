@@ -3,6 +3,7 @@ package reports
 import (
 	"fmt"
 	"math"
+	"slices"
 	"strings"
 
 	"github.com/xuri/excelize/v2"
@@ -10,6 +11,7 @@ import (
 	"github.com/cohortmix/cohortmix/cohort"
 	"github.com/cohortmix/cohortmix/cohort/group"
 	"github.com/cohortmix/cohortmix/cohort/job"
+	"github.com/cohortmix/cohortmix/cohort/note"
 )
 
 // summarySheet is the first screen, for a clinician reading without the analyst: what the
@@ -70,8 +72,11 @@ func (sp summaryPage) groups() error {
 	groupLines := GroupLines(r)
 	for g, name := range r.GroupNames {
 		line := groupLines[g]
-		if r.Reproducibility < Unreproducible {
+		switch {
+		case r.Reproducibility < Unreproducible:
 			line = "NOT REPRODUCIBLE (see the warning below): " + line
+		case statesDisagree(r):
+			line = "TENTATIVE (see the warning below): " + line
 		}
 		if r.Grouping.K == 1 {
 			name = "All"
@@ -336,6 +341,12 @@ func howDone(r *Result) string {
 // the participants are drawn again.
 func wholeUnstable(stability float64, k int) string {
 	return fmt.Sprintf("TENTATIVE: when the participants are drawn again, the grouping into %d groups comes back only in part (adjusted Rand index %.2f on average, below %.2f; see %s). Another number of groups, or no clear groups at all, may describe these participants as well; read the groups as tentative.", k, stability, group.UnstableGrouping, SheetStability)
+}
+
+// statesDisagree reports whether the run warned that its groups depend on the number of states
+// (job.WarnStatesDisagree).
+func statesDisagree(r *Result) bool {
+	return slices.ContainsFunc(r.Warnings, func(n note.Note) bool { return n.Kind == job.WarnStatesDisagree })
 }
 
 // Unreproducible is the agreement of the fits from different random starts below which the

@@ -261,6 +261,8 @@ func TestFamiliesRecovery(t *testing.T) {
 		trueK          int
 		secs           float64
 		rep, stab      float64
+		agree          float64
+		depends        bool
 	}
 	var rows []row
 	_ = rows
@@ -269,7 +271,7 @@ func TestFamiliesRecovery(t *testing.T) {
 		m := recoverMember(t, fam, seed)
 		r := row(m)
 		rows = append(rows, r)
-		t.Logf("%-7s %4d K=%d: ARI %v, states %v, groups %v, reproducibility %.2f, %.1f s; the run's own marks: fits %.2f, stability %.2f", fam, seed, r.trueK, fmtFloats(r.aris), r.states, r.groups, median(r.reps), r.secs, r.rep, r.stab)
+		t.Logf("%-7s %4d K=%d: ARI %v, states %v, groups %v, reproducibility %.2f, %.1f s; the run's own marks: fits %.2f, stability %.2f, ensemble %.2f, states note %v", fam, seed, r.trueK, fmtFloats(r.aris), r.states, r.groups, median(r.reps), r.secs, r.rep, r.stab, r.agree, r.depends)
 	}
 	byFam := map[string][]row{}
 	var fams []string
@@ -319,6 +321,8 @@ func recoverMember(t *testing.T, fam synth.Family, seed uint64) (r struct {
 	trueK          int
 	secs           float64
 	rep, stab      float64
+	agree          float64 // the kept fit's mean agreement with the ensemble (the mark of StatesAgree)
+	depends        bool    // statesNote finds another credible number of states that groups otherwise
 }) {
 	ctx := context.Background()
 	path := filepath.Join(t.TempDir(), "scenario.csv")
@@ -425,6 +429,13 @@ func recoverMember(t *testing.T, fam synth.Family, seed uint64) (r struct {
 				stab = f.Grouping.Stability.ARI
 			}
 			r.rep, r.stab = f.Reproducibility, stab
+			r.agree = math.NaN()
+			for _, e := range f.States.Ensemble {
+				if e.Kept {
+					r.agree = e.Agreement
+				}
+			}
+			r.depends = statesNote(f.States.Ensemble).Kind != ""
 		}
 		labels = append(labels, f.Grouping.Labels)
 		if *familiesEnsemble {

@@ -225,3 +225,37 @@ func TestCalibrationIsReported(t *testing.T) {
 		}
 	}
 }
+
+// The run warns that its groups depend on the number of states when the fit kept agrees with
+// the ensemble's other fits by a mean adjusted Rand index below StatesAgree, and only when more
+// than one number of states was fitted. Partitions of six (adjusted Rand index, Hubert & Arabie
+// 1985, worked by hand and checked with scikit-learn's adjusted_rand_score): a = {0,0,0,1,1,1}
+// against b = {0,0,1,1,2,2} 8/33 ≈ 0.242, a against c = {0,1,0,1,0,1} −1/9, b against c −4/11.
+func TestStatesDisagreeWarning(t *testing.T) {
+	t.Parallel()
+	a := []int{0, 0, 0, 1, 1, 1}
+	b := []int{0, 0, 1, 1, 2, 2}
+	c := []int{0, 1, 0, 1, 0, 1}
+	for _, tc := range []struct {
+		name   string
+		states []int
+		labels [][]int
+		warn   bool
+	}{
+		{"all alike", []int{3, 4}, [][]int{a, a, a, a}, false},
+		{"the kept fit agrees with most", []int{3, 4}, [][]int{a, a, a, b}, false}, // kept a: (1 + 1 + 8/33) / 3 = 0.747
+		{"no two alike", []int{3, 4}, [][]int{a, b, c, b}, true},                   // kept b: (8/33 + 1 − 4/11) / 3 = 0.293
+		{"one number of states", []int{4}, [][]int{a, b, c}, false},
+	} {
+		var members []ensembleMember
+		for i, l := range tc.labels {
+			members = append(members, ensembleMember{s: tc.states[i%len(tc.states)], fit: i / len(tc.states), labels: l})
+		}
+		o := Options{States: tc.states, Fits: len(tc.labels) / len(tc.states)}
+		_, _, warnings := keepMedoid(&FitPiece{}, members, pairwise(tc.labels), o, 6)
+		got := slices.ContainsFunc(warnings, func(n note.Note) bool { return n.Kind == WarnStatesDisagree })
+		if got != tc.warn {
+			t.Errorf("%s: warned %v, want %v (%+v)", tc.name, got, tc.warn, warnings)
+		}
+	}
+}

@@ -291,6 +291,10 @@ const (
 	// WarnNotReproducible: the fits from other random starts group the sampled participants
 	// differently (median adjusted Rand index Floats[0], below Floats[1]); Options.Seed.
 	WarnNotReproducible note.Kind = "job.not-reproducible"
+	// WarnStatesDisagree: fitted at Ints[0] to Ints[1] states, the fits group the sampled
+	// participants differently: the fit kept agrees with the others by a mean adjusted Rand index
+	// of Floats[0], below Floats[1] (StatesAgree); profile.AlignOptions.States.
+	WarnStatesDisagree note.Kind = "job.states-disagree"
 	// NoteGaps: Ints[0] interruptions of the recording (a step to the next window over Floats[0]
 	// times the participant's usual one) in Ints[1] participants end the bout they fall in.
 	NoteGaps note.Kind = "job.gaps"
