@@ -510,6 +510,9 @@ func TestStatesDisagreeMarksTheGroups(t *testing.T) {
 		if got := strings.Contains(text, "fitted at 3 to 8 movement states, the fits group the sampled participants differently (the fit kept agrees with the others by a mean adjusted Rand index of 0.41, below 0.45)"); got != warn {
 			t.Errorf("warned %v: the Summary gives the warning: %v", warn, got)
 		}
+		if got := strings.Contains(text, "Read this as tentative: the warning below says why."); got != warn {
+			t.Errorf("warned %v: the Summary's first lines say the groups are tentative: %v", warn, got)
+		}
 		if want := map[bool]int{false: 0, true: len(r.GroupNames)}[warn]; lines != want {
 			t.Errorf("warned %v: %d group lines marked tentative, want %d", warn, lines, want)
 		}

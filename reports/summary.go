@@ -207,6 +207,9 @@ func inShort(r *Result) string {
 		fmt.Fprintf(&b, "; %d of them fit their group only weakly (see %s)", weak, SheetParticipants)
 	}
 	b.WriteString(".")
+	if r.Changes == nil && (r.Reproducibility < Unreproducible || statesDisagree(r)) {
+		b.WriteString(" Read this as tentative: the warning below says why.")
+	}
 	if c.Atypical > 0 {
 		fmt.Fprintf(&b, " %d %s lie farther from every group than the model's own members and are in no group.", c.Atypical, UnitWord(c, c.Atypical))
 	}
