@@ -718,8 +718,11 @@ func keepMedoid(fp *FitPiece, members []ensembleMember, pair [][]float64, o Opti
 			warnings = append(warnings, note.Note{Kind: WarnNotReproducible, Floats: []float64{fp.Reproducibility, Unreproducible}, Option: "job.Options.Seed"})
 		}
 	}
-	if agree := sumOthers(pair, best) / float64(len(members)-1); len(members) > 1 && agree < StatesAgree && slices.Min(o.States) < slices.Max(o.States) {
-		warnings = append(warnings, note.Note{Kind: WarnStatesDisagree, Ints: []int{slices.Min(o.States), slices.Max(o.States)}, Floats: []float64{agree, StatesAgree}, Option: "profile.AlignOptions.States"})
+	if len(o.States) > 1 && len(members) > 1 {
+		lo, hi := slices.Min(o.States), slices.Max(o.States)
+		if agree := sumOthers(pair, best) / float64(len(members)-1); lo < hi && agree < StatesAgree {
+			warnings = append(warnings, note.Note{Kind: WarnStatesDisagree, Ints: []int{lo, hi}, Floats: []float64{agree, StatesAgree}, Option: "profile.AlignOptions.States"})
+		}
 	}
 	return best, notes, warnings
 }
