@@ -488,12 +488,15 @@ func TestTentativeGroupingIsFlagged(t *testing.T) {
 }
 
 // When the fits at other numbers of states group the participants otherwise
-// (job.WarnStatesDisagree), the Summary gives the warning and marks every group's line tentative.
+// (job.WarnStatesDisagree), the Summary gives the warning, marks every group's line tentative and
+// names the numbers of states that group otherwise (the line that, alone, stays on the
+// Stability sheet).
 func TestStatesDisagreeMarksTheGroups(t *testing.T) {
 	t.Parallel()
 	for _, warn := range []bool{false, true} {
 		r := fixture(t, 30, func(i int) string { return "P" + digits(i) })
 		r.Reproducibility = 0.95 // the fits at the number kept agree: the mark below is the only one
+		r.SensitivityNote = note.Note{Kind: job.NoteStatesDepend, Ints: []int{5, 4}, Floats: []float64{0.55}}
 		if warn {
 			r.Warnings = append(r.Warnings, note.Note{Kind: job.WarnStatesDisagree, Ints: []int{3, 8}, Floats: []float64{0.41, job.StatesAgree}, Option: "profile.AlignOptions.States"})
 		}
@@ -509,6 +512,9 @@ func TestStatesDisagreeMarksTheGroups(t *testing.T) {
 		text := flatten(sum)
 		if got := strings.Contains(text, "fitted at 3 to 8 movement states, the fits group the sampled participants differently (the fit kept agrees with the others by a mean adjusted Rand index of 0.41, below 0.45)"); got != warn {
 			t.Errorf("warned %v: the Summary gives the warning: %v", warn, got)
+		}
+		if got := strings.Contains(text, "The groups depend on the number of movement states: fitted with 4 states"); got != warn {
+			t.Errorf("warned %v: the Summary names the other numbers of states: %v", warn, got)
 		}
 		if got := strings.Contains(text, "Read this as tentative: the warning below says why."); got != warn {
 			t.Errorf("warned %v: the Summary's first lines say the groups are tentative: %v", warn, got)

@@ -566,7 +566,7 @@ func sensitivityPart(t *table, st *styles, r *Result) error {
 }
 
 // StabilityReading says how to read the sensitivity table.
-const StabilityReading = "How to read this table: each row fits again with one choice changed and gives the agreement of its groups with the groups shown (adjusted Rand index: 1 the same, near 0 no more than chance). The other grouping methods and within-participant steps recovered planted groups less well on the tool's test families, so a low agreement under them shows what that choice does, not that the groups are in doubt. Whether the groups depend on the number of movement states is read from the fits the states were chosen among (Choosing k), and said on the Summary when they do."
+const StabilityReading = "How to read this table: each row fits again with one choice changed and gives the agreement of its groups with the groups shown (adjusted Rand index: 1 the same, near 0 no more than chance). The other grouping methods and within-participant steps recovered planted groups less well on the tool's test families, so a low agreement under them shows what that choice does, not that the groups are in doubt. Whether the groups depend on the number of movement states is read from the fits the states were chosen among (Choosing k); where the fit kept agrees little with those at other numbers of states, the Summary marks the groups tentative."
 
 func separatingSheet(f *excelize.File, st *styles, r *Result) error {
 	g := len(r.GroupNames)
