@@ -12,6 +12,7 @@ import (
 	"github.com/cohortmix/cohortmix/cohort/group"
 	"github.com/cohortmix/cohortmix/cohort/job"
 	"github.com/cohortmix/cohortmix/cohort/note"
+	"github.com/cohortmix/cohortmix/profile"
 )
 
 // summarySheet is the first screen, for a clinician reading without the analyst: what the
@@ -280,12 +281,17 @@ func detailRows(r *Result) [][2]string {
 		{"Number of states", fmt.Sprintf("%d (%s)", r.States.K, r.States.Rule)},
 		{"Number of groups", fmt.Sprintf("%d (%s)", r.Grouping.K, choiceText(r))},
 		{"Reproducibility", reproducibilityText(r.Reproducibility)},
+	}
+	if text := statesAgreementText(r.States.Ensemble); text != "" {
+		rows = append(rows, [2]string{"Across numbers of states", text})
+	}
+	rows = append(rows, [][2]string{
 		{capital(UnitWord(c, 2)), participantsText(c)},
 		{"Windows", windowsText(q, UnitWord(c, 2))},
 		{"Window length", window},
 		{"Features", fmt.Sprintf("%d used: %s", len(r.Features), join(r.Features))},
 		{"Created", r.Created.UTC().Format("2006-01-02 15:04:05 UTC") + " by " + r.Tool + " " + r.Version},
-	}
+	}...)
 	if n := len(analystNotes(r)); n > 0 {
 		rows = append(rows, [2]string{"Notes on the method", fmt.Sprintf("%d, for the analyst, on the %s sheet", n, SheetSettings)})
 	}
@@ -369,6 +375,26 @@ func reproducibilityText(v float64) string {
 		return fmt.Sprintf("%.2f: fitted again from other random starts, the movement states group the sampled participants alike (median adjusted Rand index between the fits)", v)
 	}
 	return fmt.Sprintf("%.2f: fitted again from other random starts, the movement states group the sampled participants differently (median adjusted Rand index between the fits, below %.2f); the grouping is not reproducible on these data", v, Unreproducible)
+}
+
+// statesAgreementText says how well the fit kept agrees with the other fits of the ensemble, at
+// every number of states (job.StatesAgree), or "" when one number of states was fitted.
+func statesAgreementText(ens []profile.EnsembleFit) string {
+	kept, lo, hi := -1, math.MaxInt, 0
+	for i, e := range ens {
+		lo, hi = min(lo, e.States), max(hi, e.States)
+		if e.Kept {
+			kept = i
+		}
+	}
+	if kept < 0 || lo == hi {
+		return ""
+	}
+	v := ens[kept].Agreement
+	if v < job.StatesAgree {
+		return fmt.Sprintf("%.2f: the fit kept and the other fits, at %d to %d states, group the sampled participants differently (their mean adjusted Rand index, below %.2f); the groups are tentative", v, lo, hi, job.StatesAgree)
+	}
+	return fmt.Sprintf("%.2f: the fit kept and the other fits, at %d to %d states, group the sampled participants alike enough (their mean adjusted Rand index, %.2f or more)", v, lo, hi, job.StatesAgree)
 }
 
 // windowsText accounts for the windows in a sentence: those used and where the others went.
