@@ -811,7 +811,7 @@ func sampleGrouping(ctx context.Context, fit *normalize.Fit, st *profile.States,
 		valid = []int{min(max(1, len(units)-1), o.Groups[0])}
 	}
 	g, err := group.Signatures(ctx, shares, group.Options{Method: o.Method, Groups: valid, Criterion: criterion, Bootstrap: o.Bootstrap, Seed: o.Seed,
-		Counts: counts, Bouts: bouts, NoBouts: !full || o.voteNoBouts, NoStability: true, Quick: true, Workers: o.Workers})
+		Counts: counts, Bouts: bouts, NoBouts: !full || o.voteNoBouts, NoStability: true, Quick: !o.voteExact, Workers: o.Workers})
 	if err != nil {
 		return nil, err
 	}
