@@ -57,10 +57,10 @@ type Options struct {
 	// prototype of the families study (votes=full, votes=fullcounts), in one process only,
 	// measured and not kept.
 	voteFull, voteNoBouts bool
+	voteBlocks            func(ordinal int) ([]float64, error)
 	// voteExact groups the votes with the run's own settings of the mixture instead of the
 	// quicker ones (a switch of the families study, not an option).
 	voteExact bool
-	voteBlocks            func(ordinal int) ([]float64, error)
 	// Fits is how many times each number of states is fitted from different random starts, the
 	// fit kept being the one whose grouping agrees best with all the others' (fitStates); 0 and
 	// 1 fit once.
