@@ -737,8 +737,8 @@ func TestEveryNoteKindHasWords(t *testing.T) {
 }
 
 // The Summary's details give the kept fit's agreement with the ensemble's other fits when they
-// span several numbers of states (profile.EnsembleFit.Agreement), and say tentative below
-// job.StatesAgree; with one number of states there is no such row.
+// span several numbers of states (profile.EnsembleFit.Agreement), and say tentative where the run
+// warned so (below job.StatesAgree); with one number of states there is no such row.
 func TestStatesAgreementText(t *testing.T) {
 	t.Parallel()
 	fits := func(kept float64, states ...int) []profile.EnsembleFit {
@@ -750,16 +750,17 @@ func TestStatesAgreementText(t *testing.T) {
 		return ens
 	}
 	for _, c := range []struct {
-		name string
-		ens  []profile.EnsembleFit
-		want string
+		name   string
+		ens    []profile.EnsembleFit
+		warned bool
+		want   string
 	}{
-		{"agreed", fits(0.74, 4, 5, 6), "0.74: the fit kept and the other fits, at 4 to 6 states, group the sampled participants alike enough (their mean adjusted Rand index, 0.45 or more)"},
-		{"disagreed", fits(0.41, 4, 5, 6), "0.41: the fit kept and the other fits, at 4 to 6 states, group the sampled participants differently (their mean adjusted Rand index, below 0.45); the groups are tentative"},
-		{"one number of states", fits(0.41, 5, 5, 5), ""},
-		{"no ensemble", nil, ""},
+		{"agreed", fits(0.74, 4, 5, 6), false, "0.74: the fit kept and the other fits, at 4 to 6 states, group the sampled participants alike enough (their mean adjusted Rand index, 0.45 or more)"},
+		{"disagreed", fits(0.41, 4, 5, 6), true, "0.41: the fit kept and the other fits, at 4 to 6 states, group the sampled participants differently (their mean adjusted Rand index, below 0.45); the groups are tentative"},
+		{"one number of states", fits(0.41, 5, 5, 5), false, ""},
+		{"no ensemble", nil, false, ""},
 	} {
-		if got := statesAgreementText(c.ens); got != c.want {
+		if got := statesAgreementText(c.ens, c.warned); got != c.want {
 			t.Errorf("%s: %q, want %q", c.name, got, c.want)
 		}
 	}

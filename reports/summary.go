@@ -282,7 +282,7 @@ func detailRows(r *Result) [][2]string {
 		{"Number of groups", fmt.Sprintf("%d (%s)", r.Grouping.K, choiceText(r))},
 		{"Reproducibility", reproducibilityText(r.Reproducibility)},
 	}
-	if text := statesAgreementText(r.States.Ensemble); text != "" {
+	if text := statesAgreementText(r.States.Ensemble, statesDisagree(r)); text != "" {
 		rows = append(rows, [2]string{"Across numbers of states", text})
 	}
 	rows = append(rows, [][2]string{
@@ -378,8 +378,10 @@ func reproducibilityText(v float64) string {
 }
 
 // statesAgreementText says how well the fit kept agrees with the other fits of the ensemble, at
-// every number of states (job.StatesAgree), or "" when one number of states was fitted.
-func statesAgreementText(ens []profile.EnsembleFit) string {
+// every number of states, and whether the run warned that its groups are tentative for it
+// (warned: job.WarnStatesDisagree, below job.StatesAgree); "" when one number of states was
+// fitted.
+func statesAgreementText(ens []profile.EnsembleFit, warned bool) string {
 	kept, lo, hi := -1, math.MaxInt, 0
 	for i, e := range ens {
 		lo, hi = min(lo, e.States), max(hi, e.States)
@@ -391,7 +393,7 @@ func statesAgreementText(ens []profile.EnsembleFit) string {
 		return ""
 	}
 	v := ens[kept].Agreement
-	if v < job.StatesAgree {
+	if warned {
 		return fmt.Sprintf("%.2f: the fit kept and the other fits, at %d to %d states, group the sampled participants differently (their mean adjusted Rand index, below %.2f); the groups are tentative", v, lo, hi, job.StatesAgree)
 	}
 	return fmt.Sprintf("%.2f: the fit kept and the other fits, at %d to %d states, group the sampled participants alike enough (their mean adjusted Rand index, %.2f or more)", v, lo, hi, job.StatesAgree)
