@@ -720,7 +720,7 @@ func keepMedoid(fp *FitPiece, members []ensembleMember, pair [][]float64, o Opti
 	}
 	if len(o.States) > 1 && len(members) > 1 {
 		lo, hi := slices.Min(o.States), slices.Max(o.States)
-		if agree := sumOthers(pair, best) / float64(len(members)-1); lo < hi && agree < StatesAgree {
+		if agree := meanOthers(pair, best); lo < hi && agree < StatesAgree {
 			warnings = append(warnings, note.Note{Kind: WarnStatesDisagree, Ints: []int{lo, hi}, Floats: []float64{agree, StatesAgree}, Option: "profile.AlignOptions.States"})
 		}
 	}
@@ -738,7 +738,7 @@ func recordEnsemble(fp *FitPiece, members []ensembleMember, pair [][]float64, be
 				withKept = 1
 			}
 			fp.States.Ensemble = append(fp.States.Ensemble, profile.EnsembleFit{States: m.s, Start: m.fit + 1, Groups: slices.Max(m.labels) + 1,
-				Agreement: sumOthers(pair, i) / float64(len(members)-1), Kept: i == best, WithKept: withKept})
+				Agreement: meanOthers(pair, i), Kept: i == best, WithKept: withKept})
 		}
 		fp.States.Rule = fmt.Sprintf("the fit that agrees best with the other %d (%s states, %d starts each)", len(members)-1, rangeText(o.States), fits)
 	}
@@ -873,6 +873,12 @@ func sumOthers(pair [][]float64, i int) float64 {
 	return sum
 }
 
+// meanOthers is partition i's mean agreement with the others (of two partitions or more): the
+// agreement the ensemble records for each fit.
+func meanOthers(pair [][]float64, i int) float64 {
+	return sumOthers(pair, i) / float64(len(pair)-1)
+}
+
 // othersOf is partition i's agreement with each of the others, in order.
 func othersOf(pair [][]float64, i int) []float64 {
 	var agree []float64
@@ -893,7 +899,7 @@ func oneSE(pair [][]float64, members []ensembleMember) int {
 	n := len(pair)
 	means := make([]float64, n)
 	for i := range pair {
-		means[i] = sumOthers(pair, i) / float64(n-1)
+		means[i] = meanOthers(pair, i)
 	}
 	top := medoidOf(pair)
 	var ss float64
