@@ -535,6 +535,7 @@ type aligner struct {
 	offsets   []bool
 	devs      []normalize.Device
 	ys        [][]float64 // each unit's windows, normalized with its device
+	fixed     [][]float64 // each unit's windows' part no device moves (normalize.Fit.FixedLogged), made at the first round
 	labels    [][]int
 	centres   []float64   // k × dim
 	posture   [][]float64 // k × 3: each state's mean axis means once turned; nil without axes
@@ -545,6 +546,7 @@ func newAligner(fit *normalize.Fit, logged [][]float64, prior float64, workers i
 	a := &aligner{fit: fit, units: logged, d: len(fit.Features), dim: fit.OutDim(), prior: prior, workers: workers, offsets: offsetColumns(fit)}
 	a.devs = make([]normalize.Device, len(logged))
 	a.ys = make([][]float64, len(logged))
+	a.fixed = make([][]float64, len(logged))
 	a.labels = make([][]int, len(logged))
 	a.transform()
 	return a
@@ -641,7 +643,10 @@ func (a *aligner) updateDevices() error {
 		if a.cal != nil {
 			cal = a.cal[u]
 		}
-		a.devs[u], a.ys[u], errs[u] = fitDevice(a.fit, a.units[u], a.labels[u], a.centres, a.posture, a.offsets, a.prior, cal, a.ys[u])
+		if a.fixed[u] == nil {
+			a.fixed[u] = a.fit.FixedLogged(nil, a.units[u])
+		}
+		a.devs[u], a.ys[u], errs[u] = fitDevice(a.fit, a.units[u], a.fixed[u], a.labels[u], a.centres, a.posture, a.offsets, a.prior, cal, a.ys[u])
 	})
 	for _, err := range errs {
 		if err != nil {
@@ -675,8 +680,9 @@ func (a *aligner) centreOffsets() {
 // postures (Kabsch, pulled toward none by prior); then the mean residual of its windows, so
 // calibrated and turned, from their states' centres on the offset columns. It returns the
 // device (with cal's calibration) and the windows normalized with its calibration and rotation
-// but without its offsets, in buf (reused).
-func fitDevice(fit *normalize.Fit, x []float64, labels []int, centres []float64, posture [][]float64, offsets []bool, prior float64, cal normalize.Device, buf []float64) (normalize.Device, []float64, error) {
+// but without its offsets, in buf (reused), from the windows' fixed part where it is given
+// (normalize.Fit.FixedLogged; nil transforms them whole).
+func fitDevice(fit *normalize.Fit, x, fixed []float64, labels []int, centres []float64, posture [][]float64, offsets []bool, prior float64, cal normalize.Device, buf []float64) (normalize.Device, []float64, error) {
 	d, dim := len(fit.Features), fit.OutDim()
 	dev := normalize.Device{AxisScale: cal.AxisScale, AxisOffset: cal.AxisOffset}
 	n := float64(len(labels))
@@ -699,7 +705,7 @@ func fitDevice(fit *normalize.Fit, x []float64, labels []int, centres []float64,
 		}
 		dev.Rotation = r
 	}
-	y := fit.ApplyLoggedInto(buf, x, dev)
+	y := fit.ApplyFixedInto(buf, fixed, x, dev)
 	dev.Offset = make([]float64, dim)
 	for w, l := range labels {
 		for c, on := range offsets {
@@ -930,7 +936,7 @@ func (s *States) alignDevice(fit *normalize.Fit, x []float64) (normalize.Device,
 		if round == s.Rounds || (round > 0 && slices.Equal(before, labels)) {
 			break
 		}
-		if dev, y, err = fitDevice(fit, sub, labels, centres, s.Posture, s.Offsets, s.Prior, cal, y); err != nil {
+		if dev, y, err = fitDevice(fit, sub, nil, labels, centres, s.Posture, s.Offsets, s.Prior, cal, y); err != nil {
 			return dev, err
 		}
 		for i := 0; i < len(y); i += dim { // the offsets, on windows already turned

@@ -1,0 +1,123 @@
+package normalize
+
+import "slices"
+
+// movedColumns are the features a Device changes: the axis means and the features turned and
+// calibrated with them (f.Turned). nil without axes.
+func (f *Fit) movedColumns() []int {
+	if f.Axes == nil {
+		return nil
+	}
+	cols := slices.Clone(f.Axes)
+	if t := f.Turned; t != nil {
+		cols = append(cols, t.SD...)
+		cols = append(cols, t.Cor...)
+		for _, a := range t.Angles {
+			cols = append(cols, a.Column)
+		}
+	}
+	slices.Sort(cols)
+	return slices.Compact(cols)
+}
+
+// FixedLogged is the part of ApplyLoggedInto's output (n × OutDim, into dst grown when too
+// short) that no device changes, for windows xl on their log scales (LogInto): the cohort step
+// applied to the features a device leaves as they are, with the features it moves
+// contributing nothing. ApplyFixedInto then transforms the same windows with one device after
+// another (the align step's rounds) at the cost of the moved features only, since the cohort
+// step after the turn is linear (centring, scaling and the PCA projection). nil when the fit
+// has a within-participant baseline, which ApplyLoggedInto does not use either.
+func (f *Fit) FixedLogged(dst, xl []float64) []float64 {
+	if f.Within.baseline() {
+		return nil
+	}
+	d, k := len(f.Features), f.OutDim()
+	n := len(xl) / d
+	if cap(dst) < n*k {
+		dst = make([]float64, n*k)
+	}
+	dst = dst[:n*k]
+	moved := f.movedColumns()
+	inv := f.inverseSpread()
+	bp := scratch(min(n, applyRows) * d)
+	defer scratchPool.Put(bp)
+	block := *bp
+	for i := 0; i < n; i += applyRows {
+		m := min(applyRows, n-i)
+		z := block[:m*d]
+		for w := 0; w < m; w++ {
+			xi, zi := xl[(i+w)*d:(i+w+1)*d], z[w*d:(w+1)*d]
+			for j, v := range xi {
+				zi[j] = (v - f.Center[j]) * inv[j]
+			}
+			for _, j := range moved {
+				zi[j] = 0
+				if f.PCA != nil {
+					zi[j] = f.PCA.Mean[j] // centred by the projection to 0
+				}
+			}
+		}
+		if f.PCA == nil {
+			copy(dst[i*k:(i+m)*k], z)
+		} else {
+			f.PCA.TransformRows(dst[i*k:(i+m)*k], z)
+		}
+	}
+	return dst
+}
+
+// ApplyFixedInto is ApplyLoggedInto(dst, xl, dev) from the windows' fixed part (FixedLogged of
+// the same xl): the moved features are calibrated, turned, logged and scaled as there, and
+// their projection added to the fixed part. The result equals ApplyLoggedInto's up to the
+// order of floating-point sums. With a nil fixed part it is ApplyLoggedInto.
+func (f *Fit) ApplyFixedInto(dst, fixed, xl []float64, dev Device) []float64 {
+	if fixed == nil {
+		return f.ApplyLoggedInto(dst, xl, dev)
+	}
+	d, k := len(f.Features), f.OutDim()
+	n := len(xl) / d
+	if cap(dst) < n*k {
+		dst = make([]float64, n*k)
+	}
+	dst = dst[:n*k]
+	copy(dst, fixed[:n*k])
+	moved := f.movedColumns()
+	late := f.loggedColumns(true)
+	inv := f.inverseSpread()
+	var load []float64 // load[m*k+c]: the loading of moved feature m on component c
+	if f.PCA != nil {
+		raw := f.PCA.Components.RawMatrix()
+		load = make([]float64, len(moved)*k)
+		for m, j := range moved {
+			copy(load[m*k:(m+1)*k], raw.Data[j*raw.Stride:j*raw.Stride+k])
+		}
+	}
+	bp := scratch(min(n, applyRows) * d)
+	defer scratchPool.Put(bp)
+	block := *bp
+	for i := 0; i < n; i += applyRows {
+		m := min(applyRows, n-i)
+		t := block[:m*d]
+		copy(t, xl[i*d:(i+m)*d])
+		if dev.moves() {
+			f.rotateRows(t, dev)
+		}
+		f.logColumns(t, late)
+		for w := 0; w < m; w++ {
+			ti, out := t[w*d:(w+1)*d], dst[(i+w)*k:(i+w+1)*k]
+			for mi, j := range moved {
+				z := (ti[j] - f.Center[j]) * inv[j]
+				if load == nil {
+					out[j] = z
+					continue
+				}
+				z -= f.PCA.Mean[j]
+				for c, l := range load[mi*k : (mi+1)*k] {
+					out[c] += z * l
+				}
+			}
+		}
+	}
+	dev.SubtractOffset(dst, k)
+	return dst
+}
