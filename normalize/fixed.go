@@ -33,10 +33,7 @@ func (f *Fit) FixedLogged(dst, xl []float64) []float64 {
 	}
 	d, k := len(f.Features), f.OutDim()
 	n := len(xl) / d
-	if cap(dst) < n*k {
-		dst = make([]float64, n*k)
-	}
-	dst = dst[:n*k]
+	dst = slices.Grow(dst[:0], n*k)[:n*k]
 	moved := f.movedColumns()
 	inv := f.inverseSpread()
 	bp := scratch(min(n, applyRows) * d)
@@ -76,10 +73,7 @@ func (f *Fit) ApplyFixedInto(dst, fixed, xl []float64, dev Device) []float64 {
 	}
 	d, k := len(f.Features), f.OutDim()
 	n := len(xl) / d
-	if cap(dst) < n*k {
-		dst = make([]float64, n*k)
-	}
-	dst = dst[:n*k]
+	dst = slices.Grow(dst[:0], n*k)[:n*k]
 	copy(dst, fixed[:n*k])
 	moved := f.movedColumns()
 	late := f.loggedColumns(true)

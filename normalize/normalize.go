@@ -778,10 +778,7 @@ func (f *Fit) applyInto(dst, x []float64, b Baseline, dev Device, logged bool) [
 	d := len(f.Features)
 	n := len(x) / d
 	k := f.OutDim()
-	if cap(dst) < n*k {
-		dst = make([]float64, n*k)
-	}
-	dst = dst[:n*k]
+	dst = slices.Grow(dst[:0], n*k)[:n*k]
 	r := f.newRowScaler(b, dev, logged, min(n, applyRows))
 	defer r.release()
 	if f.PCA == nil {
@@ -809,10 +806,7 @@ func (f *Fit) applyInto(dst, x []float64, b Baseline, dev Device, logged bool) [
 func (f *Fit) ScaledInto(dst, x []float64, dev Device) []float64 {
 	d := len(f.Features)
 	n := len(x) / d
-	if cap(dst) < n*d {
-		dst = make([]float64, n*d)
-	}
-	dst = dst[:n*d]
+	dst = slices.Grow(dst[:0], n*d)[:n*d]
 	r := f.newRowScaler(Baseline{}, dev, false, min(n, applyRows))
 	defer r.release()
 	for i := 0; i < n; i += applyRows {
