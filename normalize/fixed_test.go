@@ -35,7 +35,7 @@ func TestFixedPartMatchesLoggedApply(t *testing.T) {
 		k := fit.OutDim()
 		for u, x := range units {
 			xl := fit.LogInto(nil, x)
-			fixed := fit.FixedLogged(nil, xl)
+			fixed := fit.FixedLogged(xl)
 			r := randomRotation(rng, 15)
 			offset := make([]float64, k)
 			for c := range offset {

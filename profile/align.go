@@ -534,8 +534,8 @@ type aligner struct {
 	workers   int
 	offsets   []bool
 	devs      []normalize.Device
-	ys        [][]float64 // each unit's windows, normalized with its device
-	fixed     [][]float64 // each unit's windows' part no device moves (normalize.Fit.FixedLogged), made at the first round
+	ys        [][]float64        // each unit's windows, normalized with its device
+	fixed     []*normalize.Fixed // each unit's windows' part no device moves (normalize.Fit.FixedLogged), made at the first round
 	labels    [][]int
 	centres   []float64   // k × dim
 	posture   [][]float64 // k × 3: each state's mean axis means once turned; nil without axes
@@ -546,7 +546,7 @@ func newAligner(fit *normalize.Fit, logged [][]float64, prior float64, workers i
 	a := &aligner{fit: fit, units: logged, d: len(fit.Features), dim: fit.OutDim(), prior: prior, workers: workers, offsets: offsetColumns(fit)}
 	a.devs = make([]normalize.Device, len(logged))
 	a.ys = make([][]float64, len(logged))
-	a.fixed = make([][]float64, len(logged))
+	a.fixed = make([]*normalize.Fixed, len(logged))
 	a.labels = make([][]int, len(logged))
 	a.transform()
 	return a
@@ -644,7 +644,7 @@ func (a *aligner) updateDevices() error {
 			cal = a.cal[u]
 		}
 		if a.fixed[u] == nil {
-			a.fixed[u] = a.fit.FixedLogged(nil, a.units[u])
+			a.fixed[u] = a.fit.FixedLogged(a.units[u])
 		}
 		a.devs[u], a.ys[u], errs[u] = fitDevice(a.fit, a.units[u], a.fixed[u], a.labels[u], a.centres, a.posture, a.offsets, a.prior, cal, a.ys[u])
 	})
@@ -682,7 +682,7 @@ func (a *aligner) centreOffsets() {
 // device (with cal's calibration) and the windows normalized with its calibration and rotation
 // but without its offsets, in buf (reused), from the windows' fixed part where it is given
 // (normalize.Fit.FixedLogged; nil transforms them whole).
-func fitDevice(fit *normalize.Fit, x, fixed []float64, labels []int, centres []float64, posture [][]float64, offsets []bool, prior float64, cal normalize.Device, buf []float64) (normalize.Device, []float64, error) {
+func fitDevice(fit *normalize.Fit, x []float64, fixed *normalize.Fixed, labels []int, centres []float64, posture [][]float64, offsets []bool, prior float64, cal normalize.Device, buf []float64) (normalize.Device, []float64, error) {
 	d, dim := len(fit.Features), fit.OutDim()
 	dev := normalize.Device{AxisScale: cal.AxisScale, AxisOffset: cal.AxisOffset}
 	n := float64(len(labels))
