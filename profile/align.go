@@ -24,6 +24,10 @@ type AlignOptions struct {
 	Rounds   int     // alternations of device and state updates after each seeding; 0 means 10
 	Twins    int     // most tries at folding two states that no participant uses both of (see foldTwins); 0 means 3, −1 none
 	Prior    float64 // pull of each rotation toward none, and of each calibration toward none, in windows' worth per window; 0 means 0.01
+	// PersonPrior is the pull of a participant's own version of each state toward the cohort's
+	// centre, in windows' worth, when every window is assigned (see States.AssignUnit); 0 means
+	// DefaultPersonPrior, below 0 none (each participant's windows go to the cohort's states).
+	PersonPrior float64
 	// Calibrate calibrates each device's axis means on its own windows before they are turned
 	// (normalize.SphereCalibration: a per-axis gain and offset, van Hees et al. 2014).
 	Calibrate bool
@@ -39,6 +43,11 @@ type AlignOptions struct {
 // index 0.932 against 0.930 at 0.6 and 0.920 at 0.7; at 0.7 a 12-feature demo cohort kept 12
 // states for its 5, split at the floor its generator clips amplitudes to).
 const DefaultValley = 0.5
+
+// DefaultPersonPrior is AlignOptions.PersonPrior's default: a participant's own version of a
+// state that holds n of its aligned windows sits n/(n + 5) of the way from the cohort's centre
+// to those windows' mean. Chosen on the benchmark families' tuning seeds 1–8 (docs/benchmarks.md).
+const DefaultPersonPrior = 5
 
 // alignWindows is the most windows of one participant that its device is estimated on; the
 // rest are spaced evenly between them. The state of every window is found after.
@@ -120,10 +129,10 @@ func FitAligned(ctx context.Context, units [][]float64, fit *normalize.Fit, opts
 	if _, err := a.foldTwins(ctx, opts); err != nil {
 		return nil, err
 	}
-	s := &States{Sampled: total, Offsets: a.offsets, Prior: opts.Prior, Rounds: opts.Rounds, Calibrate: cal != nil, Gravity: gravity, Rule: "fixed"}
+	s := &States{Sampled: total, Offsets: a.offsets, Prior: opts.Prior, Rounds: opts.Rounds, PersonPrior: opts.PersonPrior, Calibrate: cal != nil, Gravity: gravity, Rule: "fixed"}
 	if len(opts.States) > 1 {
 		// The states as fitted, before any merge: the caller may keep them (States.Fine).
-		fine := &States{K: a.k, Sampled: total, Offsets: a.offsets, Prior: opts.Prior, Rounds: opts.Rounds, Calibrate: cal != nil, Gravity: gravity,
+		fine := &States{K: a.k, Sampled: total, Offsets: a.offsets, Prior: opts.Prior, Rounds: opts.Rounds, PersonPrior: opts.PersonPrior, Calibrate: cal != nil, Gravity: gravity,
 			Rule: fmt.Sprintf("%d states fitted with each device aligned", a.k)}
 		fine.Centroids, fine.Posture = orderAligned(mat.NewDense(a.k, dim, slices.Clone(a.centres)), clonePosture(a.posture))
 		s.Fine = fine
@@ -165,6 +174,11 @@ func (opts AlignOptions) withDefaults() (AlignOptions, error) {
 	}
 	if opts.Valley == 0 {
 		opts.Valley = DefaultValley
+	}
+	if opts.PersonPrior == 0 {
+		opts.PersonPrior = DefaultPersonPrior
+	} else if opts.PersonPrior < 0 {
+		opts.PersonPrior = 0
 	}
 	if opts.Restarts < 0 || opts.Rounds < 0 || opts.Prior < 0 || opts.Valley < 0 || opts.Valley > 1 || opts.Starts < 1 || opts.Starts > 2 {
 		return opts, fmt.Errorf("profile: FitAligned: restarts %d, rounds %d, prior %v, valley %v: %w", opts.Restarts, opts.Rounds, opts.Prior, opts.Valley, ErrOption)
@@ -910,17 +924,7 @@ func (s *States) AlignUnit(fit *normalize.Fit, x, dst []float64) (normalize.Devi
 // alignDevice fits one participant's device against the frozen states (see AlignUnit).
 func (s *States) alignDevice(fit *normalize.Fit, x []float64) (normalize.Device, error) {
 	d, dim := len(fit.Features), fit.OutDim()
-	n := len(x) / d
-	sub := x
-	if n > alignWindows {
-		step := float64(n) / alignWindows
-		sub = make([]float64, 0, alignWindows*d)
-		for i := 0; i < alignWindows; i++ {
-			w := int(float64(i) * step)
-			sub = append(sub, x[w*d:(w+1)*d]...)
-		}
-	}
-	sub = fit.LogInto(nil, sub) // on their log scales once, for every round
+	sub := fit.LogInto(nil, spaced(x, d)) // on their log scales once, for every round
 	centres := s.Centroids.RawMatrix().Data
 	var cal normalize.Device
 	if s.Calibrate && fit.Axes != nil {
@@ -956,17 +960,88 @@ func (s *States) alignDevice(fit *normalize.Fit, x []float64) (normalize.Device,
 // ‖c‖² + 2o·c + 2m·w − 2s·w with w = Cc: one dot product of features per state instead of a
 // projection. The nearest state is the same up to rounding, which can part near ties. buf is
 // reused for the scaled windows and returned.
+//
+// With PersonPrior above 0, each window goes to the nearest of the participant's own versions of
+// the states (personStates) instead of the cohort's.
 func (s *States) AssignUnit(fit *normalize.Fit, x, buf []float64) (normalize.Device, []int, []float64, error) {
-	p := fit.PCA
-	if p == nil {
-		return s.AlignUnit(fit, x, buf)
-	}
 	dev, err := s.alignDevice(fit, x)
 	if err != nil {
 		return dev, nil, buf, err
 	}
-	labels, buf := s.assignFolded(fit, x, dev, buf)
+	own := s
+	if s.PersonPrior > 0 {
+		own = s.personStates(fit, x, dev)
+	}
+	if fit.PCA == nil {
+		buf = fit.ApplyDeviceInto(buf, x, dev)
+		return dev, own.assignInto(nil, buf, fit.OutDim()), buf, nil
+	}
+	labels, buf := own.assignFolded(fit, x, dev, buf)
 	return dev, labels, buf, nil
+}
+
+// personStateRounds is how many times personStates assigns the windows and moves the centres.
+const personStateRounds = 3
+
+// personStates is the states as this participant, with its device dev, holds them: each centre
+// moved toward the mean of the participant's windows in it, n/(n + PersonPrior) of the way for n
+// windows, on the columns that carry an offset. It is the best linear unbiased predictor of a
+// random effect of the person on each state (a one-way random-effects model: a window is its
+// state's centre, plus the person's shift of that state, plus noise; Henderson 1975, Biometrics
+// 31:423), with the ratio of the noise's variance to the shift's fixed at PersonPrior. A person
+// whose walking has its own cadence, or whose device leaves a trace in one posture, then keeps
+// those windows in their state instead of tipping them into a neighbour, which would make
+// groups of people that move alike. Assignment and centres alternate personStateRounds times,
+// on the windows the device was aligned on (alignWindows, evenly spaced).
+func (s *States) personStates(fit *normalize.Fit, x []float64, dev normalize.Device) *States {
+	dim := fit.OutDim()
+	y := fit.ApplyDeviceInto(nil, spaced(x, len(fit.Features)), dev)
+	base := s.Centroids.RawMatrix()
+	cohort := make([]float64, s.K*dim)
+	for c := 0; c < s.K; c++ {
+		copy(cohort[c*dim:(c+1)*dim], base.Data[c*base.Stride:c*base.Stride+dim])
+	}
+	own := slices.Clone(cohort)
+	sum := make([]float64, s.K*dim)
+	count := make([]float64, s.K)
+	for r := 0; r < personStateRounds; r++ {
+		clear(sum)
+		clear(count)
+		for i := 0; i < len(y); i += dim {
+			l, _ := cluster.Nearest(own, s.K, y[i:i+dim])
+			count[l]++
+			for c, v := range y[i : i+dim] {
+				sum[l*dim+c] += v - cohort[l*dim+c]
+			}
+		}
+		for l := range count {
+			f := 1 / (count[l] + s.PersonPrior)
+			for c := 0; c < dim; c++ {
+				if s.Offsets == nil || s.Offsets[c] {
+					own[l*dim+c] = cohort[l*dim+c] + sum[l*dim+c]*f
+				}
+			}
+		}
+	}
+	ps := *s
+	ps.Centroids = mat.NewDense(s.K, dim, own)
+	return &ps
+}
+
+// spaced is x (windows of d values) when it has at most alignWindows windows, else
+// alignWindows of them evenly spaced.
+func spaced(x []float64, d int) []float64 {
+	n := len(x) / d
+	if n <= alignWindows {
+		return x
+	}
+	step := float64(n) / alignWindows
+	sub := make([]float64, 0, alignWindows*d)
+	for i := 0; i < alignWindows; i++ {
+		w := int(float64(i) * step)
+		sub = append(sub, x[w*d:(w+1)*d]...)
+	}
+	return sub
 }
 
 // assignFolded gives each window of x, with this device, its nearest state by the scores of

@@ -103,6 +103,9 @@ type States struct {
 	Offsets []bool      // output columns that carry a participant's offset; nil when the states are not aligned
 	Prior   float64     // pull of a rotation toward none, in windows' worth per window
 	Rounds  int         // most alternations of state assignment and device fit for one participant
+	// PersonPrior is the pull of each participant's own version of a state toward the cohort's
+	// centre when its windows are assigned (AssignUnit), in windows' worth; 0: the cohort's states.
+	PersonPrior float64
 	// Calibrate calibrates each device's axis means on its own windows before it is turned
 	// (normalize.SphereCalibration, onto the sphere of radius Gravity: the median length of the
 	// sampled windows' axis means).

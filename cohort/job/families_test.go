@@ -242,7 +242,7 @@ func readFamilyDumps(t *testing.T, dir string) []*familyDump {
 var familiesRecover = flag.String("families.recover", "", "run the job with the defaults on family members: family:first-last[,…]")
 var familiesSeeds = flag.Int("families.seeds", 3, "tool seeds per member, for reproducibility")
 var familiesEnsemble = flag.Bool("families.ensemble", false, "log each fit of the states: states.start:groups/agreement, * on the fit kept")
-var familiesArgs = flag.String("families.opts", "", "options changed from the defaults, as key=value,… (states=4, fits=1, sample=150000, criterion=bic, method=ward-hellinger, calibration=off, nonwear=choi, validday=none, validdays=2, twins=keep, twinfold=off, axes=none, windows=10080, stateschoice=1se|vi, votes=full|fullcounts|exact)")
+var familiesArgs = flag.String("families.opts", "", "options changed from the defaults, as key=value,… (states=4, fits=1, sample=150000, criterion=bic, method=ward-hellinger, calibration=off, nonwear=choi, validday=none, validdays=2, twins=keep, twinfold=off, personstates=off, axes=none, windows=10080, stateschoice=1se|vi, votes=full|fullcounts|exact)")
 
 // The families benchmark: the whole job with the defaults (or -families.opts) on members of
 // every family, scored by the adjusted Rand index against the planted groups, each member run
@@ -387,6 +387,8 @@ func recoverMember(t *testing.T, fam synth.Family, seed uint64) (r struct {
 			o.KeepTwins = v == "keep"
 		case "twinfold":
 			o.noTwinFold = v == "off"
+		case "personstates": // off: every window to the cohort's states (profile.AlignOptions.PersonPrior −1)
+			o.noPersonStates = v == "off"
 		case "stateschoice": // 1se: the one-standard-error rule over the fits (oneSE)
 			o.oneSE = v == "1se"
 			o.viMedoid = v == "vi"

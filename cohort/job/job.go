@@ -46,6 +46,9 @@ type Options struct {
 	// noTwinFold leaves pairs of states that no participant uses both of as fitted
 	// (profile.AlignOptions.Twins −1): a switch of the families study, not an option.
 	noTwinFold bool
+	// noPersonStates assigns every window to the cohort's states, not to each participant's own
+	// version of them (profile.AlignOptions.PersonPrior −1): a switch of the families study.
+	noPersonStates bool
 	// oneSE keeps the fit of the fewest states within one standard error of the best agreement
 	// (oneSE) instead of the medoid: a switch of the families study, not an option.
 	oneSE bool

@@ -18,7 +18,7 @@ func NewModel(r *Result, read cohort.ReadOptions, featureMeds [][3]float64) *mod
 			QuietScore: n.QuietScore, QuietMid: n.QuietMid, QuietScale: n.QuietScale, Scale: n.ScaleKind.String(),
 			Center: n.Center, Spread: n.Spread, ICC: n.ICC},
 		States: modelfile.States{K: r.States.K, Names: r.StateNames, Centroids: rows(r.States.Centroids), Means: stateMeans(r),
-			Posture: r.States.Posture, Offsets: r.States.Offsets, Prior: r.States.Prior, Rounds: r.States.Rounds, Calibrate: r.States.Calibrate, Gravity: r.States.Gravity},
+			Posture: r.States.Posture, Offsets: r.States.Offsets, Prior: r.States.Prior, Rounds: r.States.Rounds, PersonPrior: r.States.PersonPrior, Calibrate: r.States.Calibrate, Gravity: r.States.Gravity},
 		Grouping: modelfile.Grouping{Method: r.Grouping.Method.String(), K: r.Grouping.K, Names: r.GroupNames, Centroids: r.Grouping.Centroids, Atypical: r.AtypicalCut},
 	}
 	m.Grouping.Shares, _, _ = r.GroupMeans()

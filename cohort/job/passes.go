@@ -668,7 +668,11 @@ func fitEnsemble(ctx context.Context, fp *FitPiece, units [][]float64, o Options
 		if o.noTwinFold {
 			twins = -1
 		}
-		st, err := profile.FitAligned(ctx, units, fp.Fit, profile.AlignOptions{States: []int{m.s}, Calibrate: !o.NoCalibration, Starts: 1, Reseeds: -1, Twins: twins, Seed: seed, Workers: o.Workers})
+		person := 0.0 // profile's default pull of each participant's own states
+		if o.noPersonStates {
+			person = -1
+		}
+		st, err := profile.FitAligned(ctx, units, fp.Fit, profile.AlignOptions{States: []int{m.s}, Calibrate: !o.NoCalibration, Starts: 1, Reseeds: -1, Twins: twins, PersonPrior: person, Seed: seed, Workers: o.Workers})
 		if err != nil {
 			return m, err
 		}

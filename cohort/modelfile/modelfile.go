@@ -32,7 +32,7 @@ import (
 // Format and Version identify the model file's schema.
 const (
 	Format  = "cohortmix model"
-	Version = 5 // 2: log scales, the align step's axes, the aligned states' postures, pseudonymization; 3: the fit's settings typed (FitSettings); 4: the devices' calibration, the mixture of the groups; 5: the features step's record (ReadSettings.FeaturesStep)
+	Version = 6 // 2: log scales, the align step's axes, the aligned states' postures, pseudonymization; 3: the fit's settings typed (FitSettings); 4: the devices' calibration, the mixture of the groups; 5: the features step's record (ReadSettings.FeaturesStep); 6: each participant's own states (States.PersonPrior)
 )
 
 // oldestModel is the oldest model version this tool still reads: a version-2 file keeps its
@@ -207,6 +207,10 @@ type States struct {
 	Offsets []bool      `json:"offset_columns,omitempty"` // the normalized columns that carry a participant's offset
 	Prior   float64     `json:"rotation_prior,omitempty"` // pull of a rotation toward none, in windows' worth per window
 	Rounds  int         `json:"rounds,omitempty"`         // most alternations of states and device for one participant
+	// PersonPrior is the pull of a participant's own version of each state toward the cohort's
+	// centre, in windows' worth (profile.States.PersonPrior; version 6); absent in earlier models,
+	// which assign every window to the cohort's states.
+	PersonPrior float64 `json:"person_prior,omitempty"`
 	// Calibrate says each device's axis means are calibrated onto the sphere of radius Gravity
 	// (normalize.SphereCalibration) before they are turned (version 4).
 	Calibrate bool    `json:"calibrate,omitempty"`
@@ -508,6 +512,9 @@ func (m *Model) checkStates() error {
 		if len(s.Offsets) != dim || s.Rounds < 0 || !(s.Prior >= 0) || math.IsInf(s.Prior, 0) {
 			return fmt.Errorf("states: the align step needs offset_columns for the %d normalized columns (%d given), rounds ≥ 0 and a rotation_prior ≥ 0", dim, len(s.Offsets))
 		}
+		if !(s.PersonPrior >= 0) || math.IsInf(s.PersonPrior, 0) {
+			return fmt.Errorf("states: person_prior is %v; it must be a finite number ≥ 0 (0 or absent: no participant's own states)", s.PersonPrior)
+		}
 		if n.Axes != nil {
 			if len(s.Posture) != s.K {
 				return fmt.Errorf("states: %d posture rows for %d states", len(s.Posture), s.K)
@@ -679,7 +686,7 @@ func (m *Model) StateFit() *profile.States {
 		c.SetRow(i, r)
 	}
 	st := m.States
-	return &profile.States{K: st.K, Centroids: c, Rule: "from the model file", Posture: st.Posture, Offsets: st.Offsets, Prior: st.Prior, Rounds: st.Rounds, Calibrate: st.Calibrate, Gravity: st.Gravity}
+	return &profile.States{K: st.K, Centroids: c, Rule: "from the model file", Posture: st.Posture, Offsets: st.Offsets, Prior: st.Prior, Rounds: st.Rounds, PersonPrior: st.PersonPrior, Calibrate: st.Calibrate, Gravity: st.Gravity}
 }
 
 // CheckKey tells whether a run may use this key (nil: none) with this model: a pseudonymized
