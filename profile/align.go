@@ -1004,6 +1004,16 @@ func (s *States) personStates(fit *normalize.Fit, x []float64, dev normalize.Dev
 	own := slices.Clone(cohort)
 	sum := make([]float64, s.K*dim)
 	count := make([]float64, s.K)
+	// reach[l] is how far state l's own version may move: half way to the nearest other state.
+	reach := make([]float64, s.K)
+	for l := range reach {
+		reach[l] = math.Inf(1)
+		for m := 0; m < s.K; m++ {
+			if m != l {
+				reach[l] = math.Min(reach[l], 0.5*math.Sqrt(sqDistance(cohort[l*dim:(l+1)*dim], cohort[m*dim:(m+1)*dim])))
+			}
+		}
+	}
 	for r := 0; r < personStateRounds; r++ {
 		clear(sum)
 		clear(count)
@@ -1016,9 +1026,17 @@ func (s *States) personStates(fit *normalize.Fit, x []float64, dev normalize.Dev
 		}
 		for l := range count {
 			f := 1 / (count[l] + s.PersonPrior)
+			var moved float64
 			for c := 0; c < dim; c++ {
 				if s.Offsets == nil || s.Offsets[c] {
-					own[l*dim+c] = cohort[l*dim+c] + sum[l*dim+c]*f
+					v := sum[l*dim+c] * f
+					own[l*dim+c] = cohort[l*dim+c] + v
+					moved += v * v
+				}
+			}
+			if moved = math.Sqrt(moved); moved > reach[l] {
+				for c := 0; c < dim; c++ {
+					own[l*dim+c] = cohort[l*dim+c] + (own[l*dim+c]-cohort[l*dim+c])*reach[l]/moved
 				}
 			}
 		}
@@ -1026,6 +1044,16 @@ func (s *States) personStates(fit *normalize.Fit, x []float64, dev normalize.Dev
 	ps := *s
 	ps.Centroids = mat.NewDense(s.K, dim, own)
 	return &ps
+}
+
+// sqDistance is the squared Euclidean distance of a and b.
+func sqDistance(a, b []float64) float64 {
+	var s float64
+	for i, v := range a {
+		d := v - b[i]
+		s += d * d
+	}
+	return s
 }
 
 // spaced is x (windows of d values) when it has at most alignWindows windows, else

@@ -254,6 +254,7 @@ func TestModelRoundTripAndDamage(t *testing.T) {
 	t.Parallel()
 	r := fixture(t, 12, func(i int) string { return "P" + digits(i) })
 	r.Norm.PCA = nil
+	r.States.PersonPrior = 5 // written as "person_prior": 5, which one case below damages
 	m := job.NewModel(r, cohort.ReadOptions{ID: "participant", Order: "window"}, [][3]float64{{0, 1, 2}, {0, 1, 2}, {0, 1, 2}})
 	m.Fit = &modelfile.FitSettings{Within: "align", Log: true, Scale: "z", PCAVariance: 0.99, States: []int{2, 3, 4}, StatesRule: "valley", Valley: 0.5,
 		Sample: 50000, Groups: []int{2, 3}, Method: "ward-hellinger", Criterion: "gap", Bootstrap: 20, Seed: 1}
@@ -272,10 +273,11 @@ func TestModelRoundTripAndDamage(t *testing.T) {
 	good, _ := os.ReadFile(p)
 	cases := []struct{ name, edit, want string }{
 		{"not JSON", "}{", "not a model file"},
-		{"older schema", strings.Replace(string(good), `"version": 5`, `"version": 1`, 1), "schema version 1, this tool reads versions 2 to 5"},
+		{"older schema", strings.Replace(string(good), `"version": 6`, `"version": 1`, 1), "schema version 1, this tool reads versions 2 to 6"},
 		{"other file", `{"format":"something else","version":3}`, `format is "something else"`},
-		{"version 2 without its options", strings.Replace(string(good), `"version": 5`, `"version": 2`, 1), "a version 2 model without the settings it was fitted with"},
-		{"settings left out", resum(t, withoutField(t, good, "fit")), "a version 5 model without the settings"},
+		{"version 2 without its options", strings.Replace(string(good), `"version": 6`, `"version": 2`, 1), "a version 2 model without the settings it was fitted with"},
+		{"settings left out", resum(t, withoutField(t, good, "fit")), "a version 6 model without the settings"},
+		{"negative pull of the participants' own states", resum(t, strings.Replace(string(good), `"person_prior": 5`, `"person_prior": -1`, 1)), "person_prior is -1"},
 		{"unknown field", strings.Replace(string(good), `"tool":`, `"extra": 1, "tool":`, 1), "damaged or hand-edited"},
 		{"wrong size", resum(t, strings.Replace(string(good), `"k": 4`, `"k": 5`, 1)), "states: k = 5 with 4 centroids"},
 		{"bad spread", resum(t, strings.Replace(string(good), `"spread": [

@@ -129,7 +129,9 @@ func flattenRows(rows [][]string) string {
 func TestRefreshReportsGoneAndNewGroups(t *testing.T) {
 	t.Parallel()
 	// Member 20 of the scenario family (a tuning seed: four planted groups of six states): the
-	// first cohort holds planted groups 0, 1 and 2; later group 2 has left and group 3 enrolled.
+	// first cohort holds planted groups 0, 1 and 2; later the group the first run made of most of
+	// planted group 2 has left, whole (so that a participant the first run put there by mistake
+	// does not return to it), and planted group 3 has enrolled.
 	dir := t.TempDir()
 	all := filepath.Join(dir, "all.csv")
 	truth, err := synth.WriteFile(all, synth.Options{Scenario: 20, Seed: 20, Participants: 160, Windows: 1000})
@@ -142,12 +144,13 @@ func TestRefreshReportsGoneAndNewGroups(t *testing.T) {
 	}
 	b, _ := os.ReadFile(all)
 	lines := strings.Split(strings.TrimSpace(string(b)), "\n")
-	keep := func(name string, in func(g int) bool) string {
+	// keep writes the rows of the participants whose planted group is in, or whose id is byID.
+	keep := func(name string, in func(g int) bool, byID func(id string) bool) string {
 		var w strings.Builder
 		w.WriteString(lines[0] + "\n")
 		for _, line := range lines[1:] {
 			id, _, _ := strings.Cut(line, ",")
-			if in(group[id]) {
+			if in(group[id]) || byID != nil && byID(id) {
 				w.WriteString(line + "\n")
 			}
 		}
@@ -155,11 +158,27 @@ func TestRefreshReportsGoneAndNewGroups(t *testing.T) {
 		os.WriteFile(p, []byte(w.String()), 0o644)
 		return p
 	}
-	first := keep("first.csv", func(g int) bool { return g <= 2 })
-	later := keep("later.csv", func(g int) bool { return g <= 1 })
-	newcomers := keep("new.csv", func(g int) bool { return g == 3 })
-	model := filepath.Join(dir, "model.json")
-	mustRun(t, "group", first, "--out", filepath.Join(dir, "first.xlsx"), "--model", model)
+	first := keep("first.csv", func(g int) bool { return g <= 2 }, nil)
+	model, members := filepath.Join(dir, "model.json"), filepath.Join(dir, "first-members.csv")
+	mustRun(t, "group", first, "--out", filepath.Join(dir, "first.xlsx"), "--model", model, "--members", members)
+	found := readMembers(t, members)
+	votes := map[string]int{}
+	for id, g := range found {
+		if group[id] == 2 {
+			votes[g]++
+		}
+	}
+	leaving := ""
+	for g, v := range votes {
+		if leaving == "" || v > votes[leaving] || v == votes[leaving] && g < leaving {
+			leaving = g
+		}
+	}
+	keepID := func(name string, in func(id string) bool) string {
+		return keep(name, func(int) bool { return false }, in)
+	}
+	later := keepID("later.csv", func(id string) bool { g, ok := found[id]; return ok && g != leaving })
+	newcomers := keep("new.csv", func(g int) bool { return g == 3 }, nil)
 	out := mustRun(t, "refresh", "--previous", model, later, newcomers, "--out", filepath.Join(dir, "later.xlsx"))
 	f, err := excelize.OpenFile(filepath.Join(dir, "later.xlsx"))
 	if err != nil {

@@ -508,12 +508,12 @@ func (m *Model) checkStates() error {
 			return fmt.Errorf("states.feature_means row %d has %d values for %d features", i, len(row), d)
 		}
 	}
+	if !(s.PersonPrior >= 0) || math.IsInf(s.PersonPrior, 0) {
+		return fmt.Errorf("states: person_prior is %v; it must be a finite number ≥ 0 (0 or absent: no participant's own states)", s.PersonPrior)
+	}
 	if within == normalize.WithinAlign {
 		if len(s.Offsets) != dim || s.Rounds < 0 || !(s.Prior >= 0) || math.IsInf(s.Prior, 0) {
 			return fmt.Errorf("states: the align step needs offset_columns for the %d normalized columns (%d given), rounds ≥ 0 and a rotation_prior ≥ 0", dim, len(s.Offsets))
-		}
-		if !(s.PersonPrior >= 0) || math.IsInf(s.PersonPrior, 0) {
-			return fmt.Errorf("states: person_prior is %v; it must be a finite number ≥ 0 (0 or absent: no participant's own states)", s.PersonPrior)
 		}
 		if n.Axes != nil {
 			if len(s.Posture) != s.K {
