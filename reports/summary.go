@@ -345,8 +345,12 @@ func howDone(r *Result) string {
 	case "kmeans-clr":
 		method = "k-means on the log-ratios of the shares"
 	}
-	return fmt.Sprintf("First %s; then every feature was put on a common scale across the cohort. %d movement states were learned from %s windows sampled from the whole cohort, and every window was given its nearest state. The participants were grouped by how their time divides among the states (%s). The exact settings are on the %s sheet.",
-		within, r.States.K, cohort.Thousands(r.States.Sampled), method, SheetSettings)
+	given := "every window was given its nearest state"
+	if r.States.PersonPrior > 0 {
+		given = "every window was given the nearest state as that participant holds it (each state's centre moved a little toward the participant's own windows in it, so that a person's own way of walking or sitting stays in its state)"
+	}
+	return fmt.Sprintf("First %s; then every feature was put on a common scale across the cohort. %d movement states were learned from %s windows sampled from the whole cohort, and %s. The participants were grouped by how their time divides among the states (%s). The exact settings are on the %s sheet.",
+		within, r.States.K, cohort.Thousands(r.States.Sampled), given, method, SheetSettings)
 }
 
 // wholeUnstable is the Summary's warning for a grouping that does not come back as a whole when
