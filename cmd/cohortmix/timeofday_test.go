@@ -4,6 +4,7 @@ import (
 	"context"
 	"fmt"
 	"path/filepath"
+	"strconv"
 	"strings"
 	"testing"
 
@@ -102,7 +103,13 @@ func TestRawDemoFindsThePlantedGroups(t *testing.T) {
 	}
 	dir := t.TempDir()
 	out := mustRun(t, "demo", "--raw", "--dir", dir)
-	if !strings.Contains(out, "adjusted Rand index 1.000") || !strings.Contains(out, "40 participants, 7200 windows of 1m0s") {
+	// The recordings are 3 hours (180 windows) each: with every window assigned to the cohort's
+	// states the planted groups were found exactly (1.000); with each participant's own version
+	// of the states (profile.DefaultPersonPrior 5), estimated from about 60 windows a state, two
+	// of the 40 land in the other group (0.900; 1.000 at a pull of 100, which loses on the
+	// benchmark families, docs/benchmarks.md). 0.85 lets one more in forty go astray, no more.
+	_, ariText, _ := strings.Cut(out, "adjusted Rand index ")
+	if ari, err := strconv.ParseFloat(strings.TrimSpace(ariText), 64); err != nil || ari < 0.85 || !strings.Contains(out, "40 participants, 7200 windows of 1m0s") {
 		t.Errorf("the raw demo said:\n%s", out)
 	}
 	report := string(readBytes(t, filepath.Join(dir, "demo-windows-report.csv")))
