@@ -7,6 +7,7 @@ import (
 	"math"
 	"slices"
 
+	"gonum.org/v1/gonum/floats"
 	"gonum.org/v1/gonum/mat"
 
 	"github.com/cohortmix/cohortmix/cluster"
@@ -1010,7 +1011,7 @@ func (s *States) personStates(fit *normalize.Fit, x []float64, dev normalize.Dev
 		reach[l] = math.Inf(1)
 		for m := 0; m < s.K; m++ {
 			if m != l {
-				reach[l] = math.Min(reach[l], 0.5*math.Sqrt(sqDistance(cohort[l*dim:(l+1)*dim], cohort[m*dim:(m+1)*dim])))
+				reach[l] = math.Min(reach[l], 0.5*floats.Distance(cohort[l*dim:(l+1)*dim], cohort[m*dim:(m+1)*dim], 2))
 			}
 		}
 	}
@@ -1044,16 +1045,6 @@ func (s *States) personStates(fit *normalize.Fit, x []float64, dev normalize.Dev
 	ps := *s
 	ps.Centroids = mat.NewDense(s.K, dim, own)
 	return &ps
-}
-
-// sqDistance is the squared Euclidean distance of a and b.
-func sqDistance(a, b []float64) float64 {
-	var s float64
-	for i, v := range a {
-		d := v - b[i]
-		s += d * d
-	}
-	return s
 }
 
 // spaced is x (windows of d values) when it has at most alignWindows windows, else
