@@ -144,13 +144,13 @@ func TestRefreshReportsGoneAndNewGroups(t *testing.T) {
 	}
 	b, _ := os.ReadFile(all)
 	lines := strings.Split(strings.TrimSpace(string(b)), "\n")
-	// keep writes the rows of the participants whose planted group is in, or whose id is byID.
-	keep := func(name string, in func(g int) bool, byID func(id string) bool) string {
+	// keep writes the rows of the participants whose id is in.
+	keep := func(name string, in func(id string) bool) string {
 		var w strings.Builder
 		w.WriteString(lines[0] + "\n")
 		for _, line := range lines[1:] {
 			id, _, _ := strings.Cut(line, ",")
-			if in(group[id]) || byID != nil && byID(id) {
+			if in(id) {
 				w.WriteString(line + "\n")
 			}
 		}
@@ -158,7 +158,7 @@ func TestRefreshReportsGoneAndNewGroups(t *testing.T) {
 		os.WriteFile(p, []byte(w.String()), 0o644)
 		return p
 	}
-	first := keep("first.csv", func(g int) bool { return g <= 2 }, nil)
+	first := keep("first.csv", func(id string) bool { return group[id] <= 2 })
 	model, members := filepath.Join(dir, "model.json"), filepath.Join(dir, "first-members.csv")
 	mustRun(t, "group", first, "--out", filepath.Join(dir, "first.xlsx"), "--model", model, "--members", members)
 	found := readMembers(t, members)
@@ -174,11 +174,8 @@ func TestRefreshReportsGoneAndNewGroups(t *testing.T) {
 			leaving = g
 		}
 	}
-	keepID := func(name string, in func(id string) bool) string {
-		return keep(name, func(int) bool { return false }, in)
-	}
-	later := keepID("later.csv", func(id string) bool { g, ok := found[id]; return ok && g != leaving })
-	newcomers := keep("new.csv", func(g int) bool { return g == 3 }, nil)
+	later := keep("later.csv", func(id string) bool { g, ok := found[id]; return ok && g != leaving })
+	newcomers := keep("new.csv", func(id string) bool { return group[id] == 3 })
 	out := mustRun(t, "refresh", "--previous", model, later, newcomers, "--out", filepath.Join(dir, "later.xlsx"))
 	f, err := excelize.OpenFile(filepath.Join(dir, "later.xlsx"))
 	if err != nil {
